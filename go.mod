@@ -1,0 +1,3 @@
+module github.com/fadeloop/fadeloop
+
+go 1.26
