@@ -1,4 +1,67 @@
 // Package tune searches power-control settings: grids over scenario fields,
 // objectives, paired comparisons under common random numbers, sequential
 // allocation of replications, recommendations and capacity search.
+//
+// # Grid
+//
+// An Axis names a numeric scenario field by its json-tag path (the proto
+// field path, e.g. "inner_loop.step_db", "groups[0].speeds[0].speed_kmh")
+// with a list of values or a range and a count; a Grid is the Cartesian
+// product of its axes in a stable row-major order (last axis fastest), and a
+// Point is applied to a copy of the base scenario with loop.SetPath. The
+// Sweep RPC uses the same machinery. A Condition is a weighted set of
+// Overrides (numbers through loop.SetPath, strings and enums such as
+// "groups[0].profile" or "inner_loop.mode" through SetTextPath).
+//
+// # Procedure (Tune)
+//
+// Every candidate k (grid point) is run under every condition c in
+// independent replications r of one run each; replication r under condition
+// c has seed ReplicationSeed(base seed, c, r) for every candidate, so all
+// candidates see the same fading, placement and error draws (common random
+// numbers) and every comparison is paired: d_r = x_{k,r} − x_{best,r},
+// interval mean(d) ± t_{n−1,(1+conf)/2}·s_d/√n over the n common
+// replications.
+//
+//  1. Round 0 runs Budget.MinReplications of everything.
+//  2. After each round, in each condition and across conditions (the
+//     weighted mean of the per-condition figure, replication by
+//     replication), the leader is the candidate with the best point
+//     estimate. Another candidate is dropped when its paired interval
+//     against the leader lies entirely above zero at the Bonferroni-adjusted
+//     level 1 − (1−conf)/(K−1) (K candidates), counted as equivalent when
+//     the interval lies inside ±Objective.IndifferenceZone, and otherwise
+//     stays in contention.
+//  3. Candidates in contention (and their leader) get
+//     Budget.BatchReplications more replications; the procedure stops when
+//     nothing is in contention, MaxReplications is reached, or the next
+//     round would exceed MaxUserSlots.
+//  4. The verdict is taken at the stated confidence: the tie set is the
+//     leader plus every surviving candidate whose paired interval against
+//     the leader reaches zero. With a tie set of one the leader is declared
+//     the winner; otherwise the setting is picked by TieRule (smaller step,
+//     then lower update rate, ...) and the Decision says so.
+//
+// For the Tx-power objective a candidate is feasible when its outage and,
+// with the outer loop on, its achieved BLER meet the constraints on their
+// point estimates; infeasible candidates rank after feasible ones, are
+// dropped once an interval lies entirely outside a constraint, and power
+// comparisons drop others only against a leader whose intervals lie inside
+// the constraints. When nothing is feasible the candidates are ranked by
+// outage and Decision.ConstraintsUnmet is set.
+//
+// Each condition also gets a fixed-power baseline (inner_loop.mode
+// FIXED_POWER) on the recommended candidate's seeds, and the Recommendation
+// reports the effort spent against the equal-allocation alternative.
+//
+// # Capacity
+//
+// Capacity bisects the count of one group for the largest count whose mean
+// outage is at or below a limit, with the same replication seeds at every
+// count (common random numbers), and reports PoleCapacity (Gilhousen et al.,
+// IEEE Trans. Veh. Technol. 40(2), 1991) beside it.
+//
+// Everything is deterministic in the request: results are identical
+// whatever GOMAXPROCS or Options.Parallelism is (runs write to fixed slots
+// and are merged in index order).
 package tune

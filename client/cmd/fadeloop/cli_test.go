@@ -1,0 +1,659 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"image/png"
+	"io"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+
+	"google.golang.org/protobuf/proto"
+
+	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/plots"
+	"github.com/fadeloop/fadeloop/fading"
+)
+
+// The tests run the real binary in its own process, built once per test
+// run into a temporary directory.
+var (
+	buildOnce sync.Once
+	binPath   string
+	buildErr  error
+	buildDir  string
+)
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if buildDir != "" {
+		os.RemoveAll(buildDir)
+	}
+	os.Exit(code)
+}
+
+func flBinary(t *testing.T) string {
+	t.Helper()
+	buildOnce.Do(func() {
+		buildDir, buildErr = os.MkdirTemp("", "fadeloop-cli-test-")
+		if buildErr != nil {
+			return
+		}
+		binPath = filepath.Join(buildDir, "fadeloop")
+		// Built without -race even under "go test -race": the CLI's own
+		// code is exercised by these runs, the race detector would only
+		// slow the engine down tenfold.
+		out, err := exec.Command("go", "build", "-o", binPath, ".").CombinedOutput()
+		if err != nil {
+			buildErr = fmt.Errorf("go build: %v\n%s", err, out)
+		}
+	})
+	if buildErr != nil {
+		t.Fatal(buildErr)
+	}
+	return binPath
+}
+
+type result struct {
+	code           int
+	stdout, stderr string
+}
+
+// fl runs the binary with args (working directory: the repository root, so
+// that testdata paths read as in the README).
+func fl(t *testing.T, args ...string) result {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
+	defer cancel()
+	cmd := exec.CommandContext(ctx, flBinary(t), args...)
+	cmd.Dir = repoRoot
+	var so, se bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &so, &se
+	err := cmd.Run()
+	code := 0
+	if ee, ok := err.(*exec.ExitError); ok {
+		code = ee.ExitCode()
+	} else if err != nil {
+		t.Fatalf("fadeloop %v: %v", args, err)
+	}
+	return result{code, so.String(), se.String()}
+}
+
+func (r result) want(t *testing.T, code int, args ...string) {
+	t.Helper()
+	if r.code != code {
+		t.Fatalf("fadeloop %s: exit %d, want %d\nstdout:\n%s\nstderr:\n%s", strings.Join(args, " "), r.code, code, r.stdout, r.stderr)
+	}
+}
+
+func ok(t *testing.T, args ...string) result {
+	t.Helper()
+	r := fl(t, args...)
+	r.want(t, 0, args...)
+	return r
+}
+
+const repoRoot = "../../.."
+
+// shortSlots is the run length used by the scenario tests: 1 s of slots
+// under -short, 4 s otherwise.
+func shortSlots() string {
+	if testing.Short() {
+		return "1500"
+	}
+	return "6000"
+}
+
+func scenarioFiles(t *testing.T) []string {
+	t.Helper()
+	files, err := filepath.Glob(filepath.Join(repoRoot, "testdata/scenarios/*"))
+	if err != nil || len(files) < 5 {
+		t.Fatalf("testdata scenarios: %v, %d files", err, len(files))
+	}
+	var rel []string
+	for _, f := range files {
+		r, _ := filepath.Rel(repoRoot, f)
+		rel = append(rel, r)
+	}
+	return rel
+}
+
+// TestRunEveryScenario runs each file in testdata/scenarios and checks the
+// report against the file: user count, seed and run length.
+func TestRunEveryScenario(t *testing.T) {
+	for _, f := range scenarioFiles(t) {
+		t.Run(filepath.Base(f), func(t *testing.T) {
+			r := ok(t, "run", f, "--slots", shortSlots(), "--replications", "1", "--format", "json", "--quiet")
+			var rep struct {
+				Aggregate struct {
+					Users             int                     `json:"users"`
+					SirErrorStdDb     struct{ Value float64 } `json:"sir_error_std_db"`
+					OutageProbability struct{ Value float64 } `json:"outage_probability"`
+				} `json:"aggregate"`
+				Slots string `json:"slots"`
+				Seed  string `json:"seed"`
+			}
+			if err := json.Unmarshal([]byte(r.stdout), &rep); err != nil {
+				t.Fatalf("json output: %v\n%s", err, r.stdout)
+			}
+			sf, err := client.LoadScenarioFile(filepath.Join(repoRoot, f))
+			if err != nil {
+				t.Fatal(err)
+			}
+			users := 0
+			for _, g := range sf.Scenario.GetGroups() {
+				users += int(g.GetCount())
+			}
+			if rep.Aggregate.Users != users {
+				t.Errorf("report has %d users, file %d", rep.Aggregate.Users, users)
+			}
+			if want := fmt.Sprint(sf.Scenario.GetRun().GetSeed()); rep.Seed != want && !(want == "0" && rep.Seed == "") {
+				t.Errorf("report seed %q, file %s", rep.Seed, want)
+			}
+			if p := rep.Aggregate.OutageProbability.Value; p < 0 || p > 1 {
+				t.Errorf("outage probability %g outside [0, 1]", p)
+			}
+			if s := rep.Aggregate.SirErrorStdDb.Value; !(s > 0) {
+				t.Errorf("SIR error std %g, want > 0 for a fading channel", s)
+			}
+		})
+	}
+}
+
+// TestRunDefault is the README's first command: the embedded default
+// scenario, a readable table.
+func TestRunDefault(t *testing.T) {
+	args := []string{"run"}
+	if testing.Short() {
+		args = append(args, "--slots", "3000")
+	}
+	r := ok(t, args...)
+	for _, want := range []string{"suburban macro cell", "figure", "SIR error std (dB)", "outage (%)",
+		"Tx power mean (dBm)", "per distance bin", "95 % CI"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	// Columns are aligned: every row of the figure table has its value
+	// ending in the same column.
+	lines := strings.Split(r.stdout, "\n")
+	var ends []int
+	in := false
+	for _, l := range lines {
+		if strings.HasPrefix(l, "figure ") {
+			in = true
+			ends = append(ends, strings.Index(l, "value")+len("value"))
+			continue
+		}
+		if in && l == "" {
+			break
+		}
+		if in {
+			m := regexp.MustCompile(`^(.*?\S)  +(-?[0-9.–]+)`).FindStringSubmatchIndex(l)
+			if m == nil {
+				t.Errorf("row %q has no value column", l)
+				continue
+			}
+			ends = append(ends, m[5])
+		}
+	}
+	for _, e := range ends {
+		if e != ends[0] {
+			t.Errorf("figure table values are not right-aligned (ends %v):\n%s", ends, r.stdout)
+			break
+		}
+	}
+}
+
+func TestRunFormats(t *testing.T) {
+	f := "testdata/scenarios/near_far_stress.yaml"
+	r := ok(t, "run", f, "--slots", "1500", "--format", "csv", "--quiet")
+	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if strings.Join(rows[0], ",") != strings.Join(runCSVHeader(), ",") {
+		t.Errorf("CSV header %v, want %v", rows[0], runCSVHeader())
+	}
+	scopes := map[string]int{}
+	for _, row := range rows[1:] {
+		if len(row) != len(rows[0]) {
+			t.Fatalf("row of %d cells, header %d", len(row), len(rows[0]))
+		}
+		scopes[row[0]]++
+	}
+	if scopes["aggregate"] != 1 || scopes["user"] != 16 || scopes["bin"] < 1 {
+		t.Errorf("CSV scopes %v, want 1 aggregate, 16 users and the bins", scopes)
+	}
+	// --out writes the same bytes to a file.
+	out := filepath.Join(t.TempDir(), "r.csv")
+	ok(t, "run", f, "--slots", "1500", "--format", "csv", "--out", out, "--quiet")
+	b, err := os.ReadFile(out)
+	if err != nil || string(b) != r.stdout {
+		t.Errorf("--out file differs from stdout (err %v)", err)
+	}
+	// table with --per-user lists every user.
+	tr := ok(t, "run", f, "--slots", "1500", "--per-user", "--quiet")
+	if !strings.Contains(tr.stdout, "per user") || !strings.Contains(tr.stdout, "cell edge") {
+		t.Errorf("per-user table missing:\n%s", tr.stdout)
+	}
+	if r := fl(t, "run", f, "--format", "xml"); r.code != exitBadInput || !strings.Contains(r.stderr, "--format") {
+		t.Errorf("--format xml: exit %d, stderr %q", r.code, r.stderr)
+	}
+}
+
+// stripTimingJSON removes the wall-clock fields, the only ones that may
+// differ between two runs of the same scenario and seed.
+func stripTimingJSON(t *testing.T, s string) string {
+	t.Helper()
+	var v map[string]any
+	if err := json.Unmarshal([]byte(s), &v); err != nil {
+		t.Fatalf("%v\n%s", err, s)
+	}
+	delete(v, "wall_time_s")
+	delete(v, "user_slots_per_s")
+	b, _ := json.Marshal(v)
+	return string(b)
+}
+
+// startServe starts "fadeloop serve" on a free loopback port and returns
+// its address.
+func startServe(t *testing.T, extra ...string) string {
+	t.Helper()
+	cmd := exec.Command(flBinary(t), append([]string{"serve", "--listen", "127.0.0.1:0", "--log-level", "info"}, extra...)...)
+	cmd.Dir = repoRoot
+	stderr, err := cmd.StderrPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() {
+		cmd.Process.Signal(syscall.SIGTERM)
+		done := make(chan struct{})
+		go func() { cmd.Wait(); close(done) }()
+		select {
+		case <-done:
+		case <-time.After(10 * time.Second):
+			cmd.Process.Kill()
+		}
+	})
+	addrs := make(chan string, 1)
+	go func() {
+		sc := bufio.NewScanner(stderr)
+		re := regexp.MustCompile(`grpc_addr=(\S+)`)
+		for sc.Scan() {
+			if m := re.FindStringSubmatch(sc.Text()); m != nil {
+				addrs <- m[1]
+			}
+		}
+		io.Copy(io.Discard, stderr)
+	}()
+	select {
+	case a := <-addrs:
+		return a
+	case <-time.After(30 * time.Second):
+		t.Fatal("fadeloop serve did not report its address within 30 s")
+	}
+	return ""
+}
+
+func TestEmbeddedAndRemoteGiveIdenticalJSON(t *testing.T) {
+	addr := startServe(t)
+	f := "testdata/scenarios/command_errors_delay.yaml"
+	a := ok(t, "run", f, "--slots", "1500", "--format", "json", "--quiet")
+	b := ok(t, "--server", addr, "run", f, "--slots", "1500", "--format", "json", "--quiet")
+	if stripTimingJSON(t, a.stdout) != stripTimingJSON(t, b.stdout) {
+		t.Error("embedded and remote JSON differ for the same scenario and seed")
+	}
+	// The same holds for a sweep (points sorted by index; summary timing aside).
+	sa := ok(t, "sweep", f, "--slots", "1500", "--axis", "inner_loop.step_db=0.5,1", "--format", "csv", "--quiet")
+	sb := ok(t, "sweep", f, "--slots", "1500", "--axis", "inner_loop.step_db=0.5,1", "--format", "csv", "--quiet", "--server", addr)
+	if sa.stdout != sb.stdout {
+		t.Errorf("embedded and remote sweep CSV differ:\n%s\n%s", sa.stdout, sb.stdout)
+	}
+	v := ok(t, "version", "--server", addr)
+	if !strings.Contains(v.stdout, "SERVING") {
+		t.Errorf("version --server: %s", v.stdout)
+	}
+}
+
+func TestBadInputExitCodes(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, s string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(s), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	src, err := os.ReadFile(filepath.Join(repoRoot, "testdata/scenarios/near_far_stress.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// An unknown field, caught while reading the file, with its line.
+	unknown := write("unknown.yaml", strings.Replace(string(src), "  step_db: 1\n", "  step_db: 1\n  stepsize_db: 2\n", 1))
+	r := fl(t, "run", unknown)
+	if r.code != exitBadInput || !regexp.MustCompile(`unknown\.yaml:\d+: inner_loop\.stepsize_db: unknown field`).MatchString(r.stderr) {
+		t.Errorf("unknown field: exit %d, stderr:\n%s", r.code, r.stderr)
+	}
+	// Values the server rejects: every violation as path: rule, at its line.
+	lines := strings.Split(string(src), "\n")
+	countLine, rateLine := 0, 0
+	for i, l := range lines {
+		if countLine == 0 && strings.TrimSpace(l) == "count: 4" {
+			lines[i] = strings.Replace(l, "count: 4", "count: 0", 1)
+			countLine = i + 1
+		}
+		if strings.TrimSpace(l) == "update_rate_hz: 1500" {
+			lines[i] = strings.Replace(l, "1500", "-1", 1)
+			rateLine = i + 1
+		}
+	}
+	bad := write("bad.yaml", strings.Join(lines, "\n"))
+	r = fl(t, "run", bad)
+	if r.code != exitBadInput {
+		t.Fatalf("server-side violations: exit %d, want 2\n%s", r.code, r.stderr)
+	}
+	for _, want := range []string{fmt.Sprintf("bad.yaml:%d: groups[0].count: ", countLine), fmt.Sprintf("bad.yaml:%d: inner_loop.update_rate_hz: ", rateLine)} {
+		if !strings.Contains(r.stderr, want) {
+			t.Errorf("stderr lacks %q:\n%s", want, r.stderr)
+		}
+	}
+	// The same in JSON.
+	js := write("bad.json", `{"name": "x", "groups": [{"count": 2, "speeds": [{"speed_kmh": 3, "weight": 1}], "profil": "EPA"}]}`)
+	r = fl(t, "run", js)
+	if r.code != exitBadInput || !strings.Contains(r.stderr, `bad.json:1: groups[0].profil: unknown field "profil"`) {
+		t.Errorf("JSON unknown field: exit %d\n%s", r.code, r.stderr)
+	}
+	// Flags and arguments.
+	for _, args := range [][]string{
+		{"run", "--slots", "x"},
+		{"run", "no-such-file.yaml"},
+		{"run", "a.yaml", "b.yaml"},
+		{"sweep", "--axis", "inner_loop.step_db"},
+		{"sweep"},
+		{"nosuchcommand"},
+		{"run", "--plot", "x.pdf"},
+		{"run", "--plot", "heatmap=x.png"},
+		{"trace", "--generator", "magic"},
+	} {
+		if r := fl(t, args...); r.code != exitBadInput {
+			t.Errorf("fadeloop %v: exit %d, want 2\n%s", args, r.code, r.stderr)
+		}
+	}
+}
+
+func TestServerUnreachable(t *testing.T) {
+	r := fl(t, "--server", "127.0.0.1:1", "--timeout", "20s", "run", "--slots", "1500")
+	if r.code != exitUnreachable || !strings.Contains(r.stderr, "unreachable") {
+		t.Errorf("exit %d, want 3\n%s", r.code, r.stderr)
+	}
+}
+
+// TestInterruptCancels sends SIGINT during a long run: the CLI must stop
+// within a second, exit non-zero and say that it was cancelled.
+func TestInterruptCancels(t *testing.T) {
+	cmd := exec.Command(flBinary(t), "run", "--slots", "50000000", "--progress", "lines")
+	cmd.Dir = repoRoot
+	var se bytes.Buffer
+	cmd.Stderr = &se
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(1500 * time.Millisecond) // let the run get going
+	sent := time.Now()
+	if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	select {
+	case err := <-done:
+		if d := time.Since(sent); d > time.Second {
+			t.Errorf("exited %v after SIGINT, want within 1 s", d)
+		}
+		ee, isExit := err.(*exec.ExitError)
+		if !isExit || ee.ExitCode() != exitFailure {
+			t.Errorf("exit after SIGINT: %v, want status 1", err)
+		}
+		if !strings.Contains(se.String(), "cancelled") {
+			t.Errorf("stderr does not say cancelled:\n%s", se.String())
+		}
+	case <-time.After(10 * time.Second):
+		cmd.Process.Kill()
+		t.Fatal("still running 10 s after SIGINT")
+	}
+}
+
+func checkPNG(t *testing.T, path string) {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	cfg, err := png.DecodeConfig(f)
+	if err != nil {
+		t.Fatalf("%s: not a PNG: %v", path, err)
+	}
+	if cfg.Width != plots.WidthPx || cfg.Height != plots.HeightPx {
+		t.Errorf("%s is %d×%d, want %d×%d", path, cfg.Width, cfg.Height, plots.WidthPx, plots.HeightPx)
+	}
+}
+
+func checkSVG(t *testing.T, path string) {
+	t.Helper()
+	w, h, err := plots.SVGSize(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w != 900 || h != 600 {
+		t.Errorf("%s is %g×%g pt, want 900×600 (1200×800 px at 96 dpi)", path, w, h)
+	}
+}
+
+func TestPlots(t *testing.T) {
+	dir := os.Getenv("FADELOOP_PLOT_DIR") // set to keep the pictures
+	if dir == "" {
+		dir = t.TempDir()
+	}
+	p := func(n string) string { return filepath.Join(dir, n) }
+	ok(t, "run", "testdata/scenarios/near_far_stress.yaml", "--slots", "3000", "--quiet",
+		"--plot", p("traces.png"), "--plot", "distance="+p("distance.svg"), "--plot", "cdf="+p("cdf.png"),
+		"--plot", "distance="+p("distance.png"))
+	checkPNG(t, p("traces.png"))
+	checkSVG(t, p("distance.svg"))
+	checkPNG(t, p("cdf.png"))
+	checkPNG(t, p("distance.png"))
+	ok(t, "sweep", "testdata/scenarios/command_errors_delay.yaml", "--slots", "1500", "--quiet",
+		"--axis", "inner_loop.step_db=0.5,1,2", "--axis", "groups[0].speeds[0].speed_kmh=3,60",
+		"--plot", p("steps.png"), "--plot", "cdf="+p("sweep-cdf.svg"))
+	checkPNG(t, p("steps.png"))
+	checkSVG(t, p("sweep-cdf.svg"))
+	ok(t, "sweep", "testdata/scenarios/command_errors_delay.yaml", "--slots", "1500", "--quiet",
+		"--axis", "inner_loop.step_db=0.5,1,2", "--axis", "inner_loop.update_rate_hz=750,1500",
+		"--plot", p("heatmap.png"), "--plot", "heatmap="+p("heatmap.svg"), "--objective", "outage")
+	checkPNG(t, p("heatmap.png"))
+	checkSVG(t, p("heatmap.svg"))
+}
+
+func TestSweepOutputs(t *testing.T) {
+	f := "testdata/scenarios/indoor_outer_loop.yaml"
+	base := []string{"sweep", f, "--slots", "1500", "--quiet", "--axis", "inner_loop.step_db=0.5:1.5:3", "--axis", "outer_loop.up_step_db=0.25,0.5"}
+	r := ok(t, append(base, "--format", "csv")...)
+	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) != 7 || rows[0][2] != "inner_loop.step_db" || rows[0][3] != "outer_loop.up_step_db" {
+		t.Fatalf("sweep CSV: %d rows, header %v; want 6 points", len(rows)-1, rows[0])
+	}
+	for i, row := range rows[1:] {
+		if row[0] != fmt.Sprint(i) {
+			t.Errorf("row %d has index %s: not sorted by index", i, row[0])
+		}
+	}
+	if rows[1][2] != "0.5" || rows[3][2] != "1" || rows[5][2] != "1.5" || rows[2][3] != "0.5" {
+		t.Errorf("grid order is not row-major: %v", rows[1:])
+	}
+	j := ok(t, append(base, "--format", "json")...)
+	var doc struct {
+		Points  []json.RawMessage `json:"points"`
+		Summary struct {
+			GridPoints string `json:"grid_points"`
+		} `json:"summary"`
+	}
+	if err := json.Unmarshal([]byte(j.stdout), &doc); err != nil || len(doc.Points) != 6 || doc.Summary.GridPoints != "6" {
+		t.Errorf("sweep JSON: %v, %d points, summary %+v", err, len(doc.Points), doc.Summary)
+	}
+	tb := ok(t, append(base, "--points", "1,4")...)
+	if !strings.Contains(tb.stdout, "2 of 6 grid points") {
+		t.Errorf("--points 1,4 table:\n%s", tb.stdout)
+	}
+	// A grid file instead of flags.
+	grid := filepath.Join(t.TempDir(), "grid.yaml")
+	os.WriteFile(grid, []byte("axes:\n  - path: inner_loop.step_db\n    values: [0.5, 2]\nseed_mode: SEED_MODE_PER_POINT\n"), 0o644)
+	g := ok(t, "sweep", f, "--slots", "1500", "--quiet", "--grid", grid, "--format", "csv")
+	if n := strings.Count(g.stdout, "\n"); n != 3 {
+		t.Errorf("grid file sweep: %d lines, want header + 2\n%s", n, g.stdout)
+	}
+}
+
+func TestTraceAndCheck(t *testing.T) {
+	r := ok(t, "trace", "--profile", "EPA", "--samples", "200", "--links", "2", "--format", "csv", "--quiet")
+	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	epa, err := fading.BuiltinProfile("EPA")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := 1 + 2*200*len(epa.Taps); len(rows) != want {
+		t.Errorf("trace CSV has %d rows, want %d", len(rows), want)
+	}
+	bin := filepath.Join(t.TempDir(), "g.f32")
+	ok(t, "trace", "--speed-kmh", "120", "--samples", "1000", "--links", "3", "--format", "bin", "--out", bin)
+	if st, err := os.Stat(bin); err != nil || st.Size() != 8*1000*3 {
+		t.Errorf("binary trace: %v, size %d, want %d", err, st.Size(), 8*1000*3)
+	}
+	tr := ok(t, "trace", "--samples", "3000", "--profile", "VEHA")
+	if !strings.Contains(tr.stdout, "mean power (dB)") {
+		t.Errorf("trace summary:\n%s", tr.stdout)
+	}
+	c := fl(t, "check", "--speed-kmh", "30", "--profile", "FLAT")
+	if c.code != exitOK && c.code != exitFailure {
+		t.Fatalf("check: exit %d\n%s", c.code, c.stderr)
+	}
+	if !strings.Contains(c.stdout, "theory") || !strings.Contains(c.stdout, "pass") {
+		t.Errorf("check table:\n%s", c.stdout)
+	}
+	cj := fl(t, "check", "--format", "json", "--doppler-hz", "40")
+	var resp struct {
+		Lines []struct{ Name string } `json:"lines"`
+	}
+	if err := json.Unmarshal([]byte(cj.stdout), &resp); err != nil || len(resp.Lines) == 0 {
+		t.Errorf("check json: %v\n%s", err, cj.stdout)
+	}
+	if r := fl(t, "check", "--doppler-hz", "900", "--rate-hz", "1500"); r.code != exitBadInput {
+		t.Errorf("Doppler above half the rate: exit %d, want 2\n%s", r.code, r.stderr)
+	}
+}
+
+func TestBench(t *testing.T) {
+	r := ok(t, "bench", "--slots", "3000", "--repeat", "1", "--format", "json", "--quiet")
+	var b struct {
+		Best benchRun `json:"best"`
+	}
+	if err := json.Unmarshal([]byte(r.stdout), &b); err != nil {
+		t.Fatal(err)
+	}
+	if b.Best.Users != 64 || !(b.Best.UserSlotsPerS > 0) || b.Best.PathSamplesPerS != 3*b.Best.UserSlotsPerS {
+		t.Errorf("bench: %+v; want 64 users and path-samples/s = 3 × user-slots/s", b.Best)
+	}
+	tb := ok(t, "bench", "--slots", "1500", "--repeat", "1")
+	if !strings.Contains(tb.stdout, "user-slots/s") || !strings.Contains(tb.stdout, "path-samples/s") {
+		t.Errorf("bench table:\n%s", tb.stdout)
+	}
+}
+
+// TestCanonicalCopy: the bench's built-in canonical scenario is the one in
+// testdata.
+func TestCanonicalCopy(t *testing.T) {
+	want, err := client.LoadScenarioFile(filepath.Join(repoRoot, "testdata/scenarios/canonical.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := client.ParseScenario("canonical.json", canonicalJSON)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !proto.Equal(want.Scenario, got.Scenario) {
+		t.Error("client/cmd/fadeloop/canonical.json differs from testdata/scenarios/canonical.json; copy it over")
+	}
+}
+
+// TestTapCounts: the bench's tap counts agree with package fading's
+// built-in profiles.
+func TestTapCounts(t *testing.T) {
+	for _, name := range fading.BuiltinProfileNames() {
+		p, err := fading.BuiltinProfile(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sc, _ := client.ParseScenario("x", []byte("groups: [{count: 2, profile: "+name+"}]"))
+		got, err := tapsPerUser(sc.Scenario)
+		if err != nil || int(got) != len(p.Taps) {
+			t.Errorf("%s: tapsPerUser %v (%v), fading has %d taps", name, got, err, len(p.Taps))
+		}
+	}
+}
+
+func TestHelpAndExample(t *testing.T) {
+	top := ok(t, "--help")
+	_ = top
+	h := ok(t, "help")
+	for _, c := range sortedCommands() {
+		if !strings.Contains(h.stdout, "  "+c.name+" ") {
+			t.Errorf("command list lacks %s:\n%s", c.name, h.stdout)
+		}
+		r := ok(t, c.name, "--help")
+		if !strings.Contains(r.stdout, "Examples:") || !strings.Contains(r.stdout, "Usage: fadeloop "+c.name) ||
+			!strings.Contains(r.stdout, "--server") {
+			t.Errorf("%s --help lacks usage, examples or global flags:\n%s", c.name, r.stdout)
+		}
+	}
+	ex := ok(t, "example")
+	path := filepath.Join(t.TempDir(), "cell.yaml")
+	os.WriteFile(path, []byte(ex.stdout), 0o644)
+	sf, err := client.LoadScenarioFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(ex.stdout, "# ") {
+		t.Error("example has no comments")
+	}
+	ok(t, "run", path, "--slots", "1500", "--quiet")
+	exj := ok(t, "example", "--format", "json")
+	sj, err := client.ParseScenario("x.json", []byte(exj.stdout))
+	if err != nil || !proto.Equal(sj.Scenario, sf.Scenario) {
+		t.Errorf("example --format json differs from the YAML (%v)", err)
+	}
+	v := ok(t, "version")
+	if !strings.HasPrefix(v.stdout, "fadeloop ") {
+		t.Errorf("version: %q", v.stdout)
+	}
+}

@@ -1,0 +1,358 @@
+package main
+
+import (
+	"context"
+	"encoding/binary"
+	"encoding/csv"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// speedOfLightMps converts speed to Doppler: f_D = v·f_c/c.
+const speedOfLightMps = 299792458.0
+
+func init() {
+	register(&command{
+		order:   50,
+		name:    "trace",
+		summary: "write fading tap-gain traces (CSV or raw binary) for other tools",
+		usage:   "",
+		details: `Streams the complex tap gains of --links independent links, all with the same
+channel settings, from the service's fading generators. The same seed gives
+the same samples whatever the chunking.
+
+Output formats:
+  table  a summary: measured mean power per tap against the profile
+  csv    columns link, sample, tap, re, im, power_db (power 10·log10(re²+im²))
+  bin    float32 little-endian (re, im) pairs ordered by sample, then link,
+         then tap: the pair of (sample s, link k, tap l) starts at byte
+         8·((s·K + k)·L + l); e.g. numpy.fromfile(f, numpy.complex64)
+         .reshape(samples, links, taps). Needs --out.
+
+Examples:
+  fadeloop trace --speed-kmh 30 --profile EPA --samples 15000 --format csv --out epa.csv
+  fadeloop trace --doppler-hz 100 --rate-hz 1500 --links 8 --samples 150000 --format bin --out gains.f32
+  fadeloop trace --speed-kmh 3 --los --rician-k-db 6 --profile FLAT`,
+		run: runTrace,
+	})
+	register(&command{
+		order:   60,
+		name:    "check",
+		summary: "run the channel self-check: fading statistics measured against theory",
+		usage:   "",
+		details: `Runs the statistical self-check of one generator configuration on the server:
+autocorrelation against J0(2π f_D τ), envelope distribution, level-crossing
+rate and average fade duration at several thresholds, each line measured
+against theory with its tolerance. Exit status 1 when any line fails.
+
+Output formats: table; csv with columns name, measured, theory, tolerance,
+unit, pass; json (the fadeloop.v1 CheckChannelResponse).
+
+Examples:
+  fadeloop check
+  fadeloop check --speed-kmh 120 --carrier-hz 2.6e9 --profile EVA --generator spectral
+  fadeloop check --doppler-hz 50 --los --rician-k-db 3 --samples 2000000 --format csv`,
+		run: runCheck,
+	})
+}
+
+// channelFlags describe one ChannelSpec.
+type channelFlags struct {
+	dopplerHz, speedKmh, carrierHz, rateHz float64
+	profile, taps, generator               string
+	ricianKDB, losAngleRad                 float64
+	los                                    bool
+	sinusoids                              int
+	seed                                   uint64
+}
+
+func (c *channelFlags) register(fs *flag.FlagSet) {
+	fs.Float64Var(&c.dopplerHz, "doppler-hz", 0, "maximum Doppler f_D in `Hz` (instead of --speed-kmh)")
+	fs.Float64Var(&c.speedKmh, "speed-kmh", 30, "mobile speed in `km/h`; f_D = v·f_c/c")
+	fs.Float64Var(&c.carrierHz, "carrier-hz", 2e9, "carrier frequency in `Hz` for --speed-kmh")
+	fs.Float64Var(&c.rateHz, "rate-hz", 1500, "sample rate in `Hz` (the power-control update rate)")
+	fs.StringVar(&c.profile, "profile", "FLAT", "tap profile `NAME`: FLAT, EPA, EVA, ETU, PEDA or VEHA")
+	fs.StringVar(&c.taps, "taps", "", "custom taps `DELAY_NS:POWER_DB,...` (instead of --profile)")
+	fs.BoolVar(&c.los, "los", false, "first tap Rician, with a line-of-sight component")
+	fs.Float64Var(&c.ricianKDB, "rician-k-db", 0, "Rician K factor of the first tap in `dB` (with --los)")
+	fs.Float64Var(&c.losAngleRad, "los-angle-rad", 0, "arrival angle of the line-of-sight component in `rad`")
+	fs.StringVar(&c.generator, "generator", "default", "fading `GENERATOR`: default, sos (sum of sinusoids) or spectral")
+	fs.IntVar(&c.sinusoids, "sinusoids", 0, "sinusoids per branch for --generator sos (`N`, 0: its default)")
+	fs.Uint64Var(&c.seed, "seed", 1, "`SEED` of the random streams")
+}
+
+func (c *channelFlags) spec(fs *flag.FlagSet) (*pb.ChannelSpec, error) {
+	s := &pb.ChannelSpec{SampleRateHz: c.rateHz, RicianKDb: c.ricianKDB, Los: c.los,
+		LosAngleRad: c.losAngleRad, Sinusoids: int32(c.sinusoids)}
+	set := map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+	if set["doppler-hz"] {
+		if set["speed-kmh"] {
+			return nil, badInputf("give --doppler-hz or --speed-kmh, not both")
+		}
+		s.DopplerHz = c.dopplerHz
+	} else {
+		s.DopplerHz = c.speedKmh / 3.6 * c.carrierHz / speedOfLightMps
+	}
+	switch c.generator {
+	case "default":
+		s.Generator = pb.Generator_GENERATOR_DEFAULT
+	case "sos":
+		s.Generator = pb.Generator_GENERATOR_SUM_OF_SINUSOIDS
+	case "spectral":
+		s.Generator = pb.Generator_GENERATOR_SPECTRAL
+	default:
+		return nil, badInputf("--generator %q: must be default, sos or spectral", c.generator)
+	}
+	if c.taps != "" {
+		if set["profile"] {
+			return nil, badInputf("give --profile or --taps, not both")
+		}
+		for _, t := range strings.Split(c.taps, ",") {
+			d, p, ok := strings.Cut(strings.TrimSpace(t), ":")
+			dv, e1 := strconv.ParseFloat(d, 64)
+			pv, e2 := strconv.ParseFloat(p, 64)
+			if !ok || e1 != nil || e2 != nil {
+				return nil, badInputf("--taps: %q is not DELAY_NS:POWER_DB", t)
+			}
+			s.CustomTaps = append(s.CustomTaps, &pb.Tap{DelayNs: dv, PowerDb: pv})
+		}
+	} else {
+		s.Profile = c.profile
+	}
+	return s, nil
+}
+
+func runTrace(ctx context.Context, e *env, args []string) error {
+	c := lookup("trace")
+	fs := e.newFlagSet(c)
+	var ch channelFlags
+	ch.register(fs)
+	links := fs.Int("links", 1, "number of independent links `K`")
+	samples := fs.Int64("samples", 15000, "samples per link `N`")
+	chunk := fs.Int("chunk-samples", 0, "samples per link in each streamed chunk (`N`, 0: the server's choice)")
+	rest, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(rest) > 0 {
+		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+	}
+	if err := e.g.checkFormat("table", "csv", "bin"); err != nil {
+		return err
+	}
+	if e.g.format == "bin" && (e.g.out == "" || e.g.out == "-") && isTerminal(e.stdout) {
+		return badInputf("--format bin writes raw binary: give --out FILE")
+	}
+	spec, err := ch.spec(fs)
+	if err != nil {
+		return err
+	}
+	req := &pb.StreamGainsRequest{Channel: spec, Links: int32(*links), Samples: *samples, Seed: ch.seed, ChunkSamples: int32(*chunk)}
+	out, err := e.openOutput()
+	if err != nil {
+		return err
+	}
+	defer out.discard()
+	cl, err := e.connect()
+	if err != nil {
+		return err
+	}
+	defer cl.Close()
+	prog := e.newProgress("samples/s")
+	w := out.Writer()
+	var cw *csv.Writer
+	if e.g.format == "csv" {
+		cw = csv.NewWriter(w)
+		cw.Write([]string{"link", "sample", "tap", "re", "im", "power_db"})
+	}
+	var (
+		power  []float64 // per tap
+		count  int64
+		taps   int
+		buf    []byte
+		got    int64
+		target = float64(*samples)
+	)
+	for chunk, err := range cl.StreamGains(ctx, req) {
+		if err != nil {
+			prog.done()
+			return err
+		}
+		if taps == 0 {
+			taps = chunk.Taps
+			power = make([]float64, taps)
+		}
+		switch e.g.format {
+		case "csv":
+			for k := range chunk.Links {
+				for s := range chunk.Samples {
+					for l := range chunk.Taps {
+						g := chunk.At(k, s, l)
+						re, im := float64(real(g)), float64(imag(g))
+						cw.Write([]string{strconv.Itoa(k), strconv.FormatInt(chunk.SampleOffset+int64(s), 10), strconv.Itoa(l),
+							strconv.FormatFloat(re, 'g', 8, 32), strconv.FormatFloat(im, 'g', 8, 32),
+							strconv.FormatFloat(10*math.Log10(re*re+im*im), 'f', 3, 64)})
+					}
+				}
+			}
+		case "bin":
+			buf = buf[:0]
+			for s := range chunk.Samples {
+				for k := range chunk.Links {
+					for l := range chunk.Taps {
+						g := chunk.At(k, s, l)
+						buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(real(g)))
+						buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(imag(g)))
+					}
+				}
+			}
+			if _, err := w.Write(buf); err != nil {
+				return err
+			}
+		default:
+			for k := range chunk.Links {
+				for s := range chunk.Samples {
+					for l := range chunk.Taps {
+						g := chunk.At(k, s, l)
+						power[l] += float64(real(g))*float64(real(g)) + float64(imag(g))*float64(imag(g))
+					}
+				}
+			}
+			count += int64(chunk.Links * chunk.Samples)
+		}
+		got += int64(chunk.Samples)
+		el := prog.now().Sub(prog.start).Seconds()
+		prog.update(float64(got)/target, float64(got)*float64(*links)/math.Max(el, 1e-9))
+	}
+	prog.done()
+	if cw != nil {
+		cw.Flush()
+		if err := cw.Error(); err != nil {
+			return err
+		}
+	}
+	if e.g.format == "table" {
+		writeTraceSummary(w, spec, *links, got, power, count)
+	}
+	return out.commit()
+}
+
+func writeTraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, power []float64, count int64) {
+	name := spec.GetProfile()
+	if name == "" {
+		name = "custom"
+	}
+	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)\n\n",
+		links, groupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
+	t := newTable("tap", "mean power (dB)", "share of total (%)").alignRight(0, 1, 2)
+	total := 0.0
+	for _, p := range power {
+		total += p
+	}
+	for l, p := range power {
+		m := p / float64(max(count, 1))
+		t.add(strconv.Itoa(l), num(10*math.Log10(m), 2), num(100*p/total, 1))
+	}
+	t.add("all", num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
+	t.write(w)
+	fmt.Fprintln(w, "\n(each link's taps have unit total mean power: 0 dB expected in the last row)")
+}
+
+func runCheck(ctx context.Context, e *env, args []string) error {
+	c := lookup("check")
+	fs := e.newFlagSet(c)
+	var ch channelFlags
+	ch.register(fs)
+	samples := fs.Int64("samples", 0, "samples to generate (`N`, 0: the check's default)")
+	rest, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(rest) > 0 {
+		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+	}
+	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+		return err
+	}
+	spec, err := ch.spec(fs)
+	if err != nil {
+		return err
+	}
+	out, err := e.openOutput()
+	if err != nil {
+		return err
+	}
+	defer out.discard()
+	cl, err := e.connect()
+	if err != nil {
+		return err
+	}
+	defer cl.Close()
+	resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Samples: *samples, Seed: ch.seed})
+	if err != nil {
+		return err
+	}
+	w := out.Writer()
+	switch e.g.format {
+	case "json":
+		b, err := marshalJSON(resp)
+		if err != nil {
+			return err
+		}
+		w.Write(b)
+	case "csv":
+		cw := csv.NewWriter(w)
+		cw.Write([]string{"name", "measured", "theory", "tolerance", "unit", "pass"})
+		for _, l := range resp.GetLines() {
+			cw.Write([]string{l.GetName(), csvNum(l.GetMeasured()), csvNum(l.GetTheory()), csvNum(l.GetTolerance()), l.GetUnit(), strconv.FormatBool(l.GetPass())})
+		}
+		cw.Flush()
+		if err := cw.Error(); err != nil {
+			return err
+		}
+	default:
+		name := spec.GetProfile()
+		if name == "" {
+			name = "custom"
+		}
+		fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz, generator %s\n\n",
+			name, spec.GetDopplerHz(), spec.GetSampleRateHz(), ch.generator)
+		t := newTable("check", "measured", "theory", "tolerance", "unit", "result").alignRight(1, 2, 3)
+		for _, l := range resp.GetLines() {
+			res := "pass"
+			if !l.GetPass() {
+				res = "FAIL"
+			}
+			t.add(l.GetName(), sig(l.GetMeasured()), sig(l.GetTheory()), "±"+sig(l.GetTolerance()), l.GetUnit(), res)
+		}
+		t.write(w)
+		verdict := "all checks pass"
+		if !resp.GetPass() {
+			verdict = "SOME CHECKS FAIL"
+		}
+		fmt.Fprintf(w, "\n%s\n", verdict)
+	}
+	if err := out.commit(); err != nil {
+		return err
+	}
+	if !resp.GetPass() {
+		return errors.New("channel self-check failed")
+	}
+	return nil
+}
+
+// sig formats with four significant digits.
+func sig(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "–"
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64)
+}

@@ -1,0 +1,222 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+
+	"google.golang.org/protobuf/encoding/protojson"
+	"google.golang.org/protobuf/proto"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// table collects rows and prints them with aligned columns: text left,
+// numbers right, two spaces between columns.
+type table struct {
+	header []string
+	right  []bool
+	rows   [][]string
+}
+
+func newTable(header ...string) *table {
+	return &table{header: header, right: make([]bool, len(header))}
+}
+
+// alignRight marks columns (by index) as right-aligned.
+func (t *table) alignRight(cols ...int) *table {
+	for _, c := range cols {
+		t.right[c] = true
+	}
+	return t
+}
+
+func (t *table) add(cells ...string) { t.rows = append(t.rows, cells) }
+
+func (t *table) write(w io.Writer) {
+	widths := make([]int, len(t.header))
+	for i, h := range t.header {
+		widths[i] = utf8.RuneCountInString(h)
+	}
+	for _, r := range t.rows {
+		for i, c := range r {
+			if i < len(widths) {
+				widths[i] = max(widths[i], utf8.RuneCountInString(c))
+			}
+		}
+	}
+	line := func(cells []string) {
+		var b strings.Builder
+		for i, c := range cells {
+			if i >= len(widths) {
+				break
+			}
+			pad := widths[i] - utf8.RuneCountInString(c)
+			if i > 0 {
+				b.WriteString("  ")
+			}
+			if t.right[i] {
+				b.WriteString(strings.Repeat(" ", pad))
+				b.WriteString(c)
+			} else {
+				b.WriteString(c)
+				if i < len(cells)-1 {
+					b.WriteString(strings.Repeat(" ", pad))
+				}
+			}
+		}
+		fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
+	}
+	line(t.header)
+	for _, r := range t.rows {
+		line(r)
+	}
+}
+
+// num formats a float for tables: fixed decimals, "–" for NaN.
+func num(v float64, decimals int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "–"
+	}
+	s := strconv.FormatFloat(v, 'f', decimals, 64)
+	if s == "-"+strconv.FormatFloat(0, 'f', decimals, 64) {
+		s = s[1:]
+	}
+	return s
+}
+
+// csvNum formats a float for CSV and JSON-free scripts: shortest exact
+// representation, empty for NaN.
+func csvNum(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}
+
+// marshalJSON writes a message as stable, indented JSON with proto field
+// names. protojson's own whitespace is deliberately unstable, so the output
+// is re-indented by encoding/json.
+func marshalJSON(m proto.Message) ([]byte, error) {
+	raw, err := protojson.MarshalOptions{UseProtoNames: true}.Marshal(m)
+	if err != nil {
+		return nil, err
+	}
+	return indentJSON(raw)
+}
+
+func indentJSON(raw []byte) ([]byte, error) {
+	var b bytes.Buffer
+	if err := json.Indent(&b, raw, "", "  "); err != nil {
+		return nil, err
+	}
+	b.WriteByte('\n')
+	return b.Bytes(), nil
+}
+
+// compactJSON is the one-line stable form of a message.
+func compactJSON(m proto.Message) (json.RawMessage, error) {
+	raw, err := protojson.MarshalOptions{UseProtoNames: true}.Marshal(m)
+	if err != nil {
+		return nil, err
+	}
+	var b bytes.Buffer
+	if err := json.Compact(&b, raw); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
+}
+
+// figure is one column of the report tables and CSV files.
+type figure struct {
+	key   string  // CSV column stem, the proto field name (percentiles: with _p1 etc.)
+	label string  // table label with unit
+	scale float64 // table value = scale × value (e.g. 100 for %)
+	dec   int     // table decimals
+	get   func(*pb.Figures) *pb.Estimate
+}
+
+func pct(get func(*pb.Percentiles) *pb.Estimate, of func(*pb.Figures) *pb.Percentiles) func(*pb.Figures) *pb.Estimate {
+	return func(f *pb.Figures) *pb.Estimate { return get(of(f)) }
+}
+
+var (
+	sirPct = (*pb.Figures).GetSirErrorPercentilesDb
+	txPct  = (*pb.Figures).GetTxPowerPercentilesDbm
+)
+
+// figures lists every figure of a Figures message in CSV order.
+var figures = []figure{
+	{"sir_error_mean_db", "SIR error mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb},
+	{"sir_error_std_db", "SIR error std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb},
+	{"sir_error_p1_db", "SIR error 1st pct (dB)", 1, 2, pct((*pb.Percentiles).GetP1, sirPct)},
+	{"sir_error_p5_db", "SIR error 5th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP5, sirPct)},
+	{"sir_error_p50_db", "SIR error median (dB)", 1, 2, pct((*pb.Percentiles).GetP50, sirPct)},
+	{"sir_error_p95_db", "SIR error 95th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP95, sirPct)},
+	{"sir_error_p99_db", "SIR error 99th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP99, sirPct)},
+	{"outage_probability", "outage (%)", 100, 2, (*pb.Figures).GetOutageProbability},
+	{"achieved_bler", "achieved BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler},
+	{"bler_target_error", "BLER − target (%)", 100, 2, (*pb.Figures).GetBlerTargetError},
+	{"tx_power_mean_dbm", "Tx power mean (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm},
+	{"tx_power_p1_dbm", "Tx power 1st pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP1, txPct)},
+	{"tx_power_p5_dbm", "Tx power 5th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP5, txPct)},
+	{"tx_power_p50_dbm", "Tx power median (dBm)", 1, 2, pct((*pb.Percentiles).GetP50, txPct)},
+	{"tx_power_p95_dbm", "Tx power 95th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP95, txPct)},
+	{"tx_power_p99_dbm", "Tx power 99th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP99, txPct)},
+	{"max_power_fraction", "time at max power (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction},
+	{"noise_rise_mean_db", "noise rise mean (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb},
+	{"noise_rise_p95_db", "noise rise 95th pct (dB)", 1, 2, (*pb.Figures).GetNoiseRiseP95Db},
+	{"convergence_time_s", "convergence time (s)", 1, 3, (*pb.Figures).GetConvergenceTimeS},
+}
+
+func figureByKey(key string) (figure, bool) {
+	for _, f := range figures {
+		if f.key == key {
+			return f, true
+		}
+	}
+	return figure{}, false
+}
+
+// figureCSVHeader is the figure columns of the CSV files: each figure's
+// value, then its 95 % confidence interval.
+func figureCSVHeader() []string {
+	var h []string
+	for _, f := range figures {
+		h = append(h, f.key, f.key+"_ci_low", f.key+"_ci_high")
+	}
+	return h
+}
+
+func figureCSVCells(fs *pb.Figures) []string {
+	var c []string
+	for _, f := range figures {
+		e := f.get(fs)
+		if e == nil {
+			c = append(c, "", "", "")
+			continue
+		}
+		c = append(c, csvNum(e.GetValue()), csvNum(e.GetCiLow()), csvNum(e.GetCiHigh()))
+	}
+	return c
+}
+
+// cell formats an estimate for a table: "1.98 ±0.03" (half-width of the
+// 95 % interval; asymmetric intervals show the larger side).
+func cell(f figure, e *pb.Estimate) string {
+	if e == nil {
+		return "–"
+	}
+	v := f.scale * e.GetValue()
+	lo, hi := f.scale*e.GetCiLow(), f.scale*e.GetCiHigh()
+	hw := math.Max(v-lo, hi-v)
+	if math.IsNaN(hw) || (lo == 0 && hi == 0 && v != 0) {
+		return num(v, f.dec)
+	}
+	return num(v, f.dec) + " ±" + num(hw, f.dec)
+}

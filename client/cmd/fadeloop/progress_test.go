@@ -1,0 +1,126 @@
+package main
+
+import (
+	"bytes"
+	"strings"
+	"testing"
+	"time"
+)
+
+// fakeClock advances by hand.
+type fakeClock struct{ t time.Time }
+
+func (c *fakeClock) now() time.Time { return c.t }
+
+func newTestProgress(mode string) (*progress, *bytes.Buffer, *fakeClock) {
+	var b bytes.Buffer
+	clk := &fakeClock{t: time.Unix(1000, 0)}
+	p := &progress{w: &b, mode: mode, unit: "user-slots/s", start: clk.t, now: clk.now}
+	return p, &b, clk
+}
+
+func TestProgressBar(t *testing.T) {
+	p, b, clk := newTestProgress("bar")
+	clk.t = clk.t.Add(10 * time.Second)
+	p.update(0.25, 2.5e6)
+	got := b.String()
+	for _, want := range []string{"\r", " 25.0%", "2.50 M user-slots/s", "0:30 left", "███████"} {
+		if !strings.Contains(got, want) {
+			t.Errorf("bar %q lacks %q", got, want)
+		}
+	}
+	b.Reset()
+	p.done()
+	if !strings.HasPrefix(b.String(), "\r") || strings.TrimSpace(b.String()) != "" {
+		t.Errorf("done did not clear the bar: %q", b.String())
+	}
+}
+
+func TestProgressLines(t *testing.T) {
+	p, b, clk := newTestProgress("lines")
+	// A call shorter than the line interval prints nothing at all.
+	clk.t = clk.t.Add(time.Second)
+	p.update(0.5, 1e6)
+	p.update(1, 1e6)
+	p.done()
+	if b.Len() != 0 {
+		t.Errorf("quick call printed %q", b.String())
+	}
+	p, b, clk = newTestProgress("lines")
+	for i := 1; i <= 10; i++ {
+		clk.t = clk.t.Add(time.Second)
+		p.update(float64(i)/10, 3e3)
+	}
+	lines := strings.Split(strings.TrimSpace(b.String()), "\n")
+	// Seconds 2..10 at most every 2 s: 2, 4, 6, 8, 10 (the last is 100 %).
+	if len(lines) != 5 {
+		t.Errorf("%d lines, want 5:\n%s", len(lines), b.String())
+	}
+	if !strings.Contains(lines[0], " 20.0% done, 3.0 k user-slots/s, 0:08 left") || strings.Contains(b.String(), "\r") {
+		t.Errorf("line format: %q", lines[0])
+	}
+	if !strings.Contains(lines[len(lines)-1], "100.0%") {
+		t.Errorf("last line %q is not 100 %%", lines[len(lines)-1])
+	}
+}
+
+func TestProgressQuiet(t *testing.T) {
+	e := &env{stderr: &bytes.Buffer{}, g: &globals{quiet: true, progress: "bar"}}
+	p := e.newProgress("x/s")
+	p.update(0.5, 1)
+	p.done()
+	if e.stderr.(*bytes.Buffer).Len() != 0 {
+		t.Error("--quiet printed progress")
+	}
+	// Not a terminal: auto means lines.
+	e = &env{stderr: &bytes.Buffer{}, g: &globals{progress: "auto"}}
+	if p := e.newProgress("x/s"); p.mode != "lines" {
+		t.Errorf("auto on a buffer: mode %q, want lines", p.mode)
+	}
+}
+
+func TestTableAlignment(t *testing.T) {
+	tb := newTable("name", "value (dB)", "note").alignRight(1)
+	tb.add("a", "1.00", "x")
+	tb.add("longer name", "-12.50", "")
+	var b bytes.Buffer
+	tb.write(&b)
+	want := "name         value (dB)  note\n" +
+		"a                  1.00  x\n" +
+		"longer name      -12.50\n"
+	if b.String() != want {
+		t.Errorf("got\n%s\nwant\n%s", b.String(), want)
+	}
+}
+
+func TestHelpers(t *testing.T) {
+	for _, c := range []struct {
+		in   int64
+		want string
+	}{{0, "0"}, {999, "999"}, {1000, "1 000"}, {90000, "90 000"}, {1234567, "1 234 567"}, {-4500, "-4 500"}} {
+		if got := groupDigits(c.in); got != c.want {
+			t.Errorf("groupDigits(%d) = %q, want %q", c.in, got, c.want)
+		}
+	}
+	if got := num(-0.0001, 2); got != "0.00" {
+		t.Errorf("num(-0.0001, 2) = %q, want 0.00", got)
+	}
+	if got := fmtRate(1.23e7, "u/s"); got != "12.30 M u/s" {
+		t.Errorf("fmtRate = %q", got)
+	}
+	var a axisList
+	if err := a.Set("inner_loop.step_db=0.5:2:4"); err != nil {
+		t.Fatal(err)
+	}
+	if v := a[0].GetValues(); len(v) != 4 || v[0] != 0.5 || v[1] != 1 || v[3] != 2 {
+		t.Errorf("range axis values %v, want [0.5 1 1.5 2]", v)
+	}
+	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2"} {
+		if err := (&axisList{}).Set(bad); err == nil {
+			t.Errorf("axis %q accepted", bad)
+		}
+	}
+	if got := wrap("aa bb cc dd", 5, "  "); got != "aa bb\n  cc dd" {
+		t.Errorf("wrap = %q", got)
+	}
+}

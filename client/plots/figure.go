@@ -1,0 +1,361 @@
+// Package plots draws fadeloop's figures with gonum/plot from plain Go data:
+// the SIR-error distribution per candidate setting, SIR / SIR-target / Tx
+// power traces against time, outage and SIR-error spread against inner-loop
+// step size (one line per speed), a step × update-rate heat map of a tuning
+// objective, and Tx power against distance (near-far).
+//
+// Every figure is drawn on a 1200 × 800 pixel canvas (900 × 600 pt at
+// 96 dpi) with axis labels that carry units, a legend where there is more
+// than one series, and fonts sized to be read at that size. Save picks the
+// format from the file extension (.png or .svg).
+package plots
+
+import (
+	"encoding/xml"
+	"errors"
+	"fmt"
+	"image/color"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
+	"gonum.org/v1/plot/vg/vgsvg"
+)
+
+// Canvas size of every figure. WidthPx × HeightPx pixels at DPI dots per
+// inch; in points (1/72 in) that is Width × Height.
+const (
+	WidthPx  = 1200
+	HeightPx = 800
+	DPI      = 96
+	Width    = vg.Length(WidthPx) * vg.Inch / DPI
+	Height   = vg.Length(HeightPx) * vg.Inch / DPI
+)
+
+// Font sizes in points; at 96 dpi a point is 4/3 pixel.
+const (
+	titleSize  = 17
+	labelSize  = 14
+	tickSize   = 12
+	legendSize = 12
+)
+
+// Figure is one picture made of panels laid out in a grid, with an optional
+// narrow strip at the right (used for a colour bar). Build one with the
+// functions of this package and write it with Save or Encode.
+type Figure struct {
+	// Title is drawn across the top of the figure when it has more than one
+	// panel; a single panel carries its own title.
+	Title  string
+	panels [][]*plot.Plot
+	side   *plot.Plot
+}
+
+// ErrFormat is returned for a file extension other than .png or .svg.
+var ErrFormat = errors.New("plot file must end in .png or .svg")
+
+// FormatOf returns "png" or "svg" for a file name, or ErrFormat.
+func FormatOf(path string) (string, error) {
+	switch strings.ToLower(filepath.Ext(path)) {
+	case ".png":
+		return "png", nil
+	case ".svg":
+		return "svg", nil
+	}
+	return "", fmt.Errorf("%q: %w", path, ErrFormat)
+}
+
+// Save writes the figure to path, in PNG or SVG by the extension.
+func (f *Figure) Save(path string) (err error) {
+	format, err := FormatOf(path)
+	if err != nil {
+		return err
+	}
+	file, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if cerr := file.Close(); err == nil {
+			err = cerr
+		}
+	}()
+	return f.Encode(file, format)
+}
+
+// Encode writes the figure to w in format "png" or "svg".
+func (f *Figure) Encode(w io.Writer, format string) error {
+	var (
+		c  vg.CanvasWriterTo
+		dc draw.Canvas
+	)
+	switch format {
+	case "png":
+		img := vgimg.NewWith(vgimg.UseWH(Width, Height), vgimg.UseDPI(DPI),
+			vgimg.UseBackgroundColor(color.White))
+		c = vgimg.PngCanvas{Canvas: img}
+		dc = draw.New(img)
+	case "svg":
+		svg := vgsvg.New(Width, Height)
+		c = svg
+		dc = draw.New(svg)
+	default:
+		return fmt.Errorf("format %q: %w", format, ErrFormat)
+	}
+	f.draw(dc)
+	_, err := c.WriteTo(w)
+	return err
+}
+
+func (f *Figure) draw(dc draw.Canvas) {
+	pad := vg.Points(8)
+	area := dc
+	area.Min.X += pad
+	area.Min.Y += pad
+	area.Max.X -= pad
+	area.Max.Y -= pad
+	multi := len(f.panels) > 1 || (len(f.panels) == 1 && len(f.panels[0]) > 1)
+	if multi && f.Title != "" {
+		sty := titleStyle()
+		h := sty.Height(f.Title)
+		pt := vg.Point{X: (area.Min.X + area.Max.X) / 2, Y: area.Max.Y - h}
+		area.FillText(sty, pt, f.Title)
+		area.Max.Y -= h + pad
+	}
+	if f.side != nil {
+		sideW := vg.Points(110)
+		side := area
+		side.Min.X = area.Max.X - sideW
+		area.Max.X -= sideW + pad
+		f.side.Draw(side)
+	}
+	rows := len(f.panels)
+	if rows == 0 {
+		return
+	}
+	cols := 0
+	for _, r := range f.panels {
+		cols = max(cols, len(r))
+	}
+	tiles := draw.Tiles{Rows: rows, Cols: cols, PadX: vg.Points(18), PadY: vg.Points(14)}
+	grid := make([][]*plot.Plot, rows)
+	for i := range grid {
+		grid[i] = make([]*plot.Plot, cols)
+		copy(grid[i], f.panels[i])
+	}
+	canvases := plot.Align(grid, tiles, area)
+	for i := range grid {
+		for j, p := range grid[i] {
+			if p != nil {
+				p.Draw(canvases[i][j])
+			}
+		}
+	}
+}
+
+func titleStyle() draw.TextStyle {
+	p := plot.New()
+	s := p.Title.TextStyle
+	s.Font.Size = titleSize
+	s.XAlign = draw.XCenter
+	s.YAlign = draw.YBottom
+	return s
+}
+
+// newPanel makes a plot with this package's fonts, a grid and the given
+// title and axis labels (labels carry units).
+func newPanel(title, xLabel, yLabel string) *panel {
+	p := &panel{Plot: plot.New()}
+	p.Title.Text = title
+	p.Title.TextStyle.Font.Size = titleSize
+	p.Title.Padding = vg.Points(6)
+	p.X.Label.Text = xLabel
+	p.Y.Label.Text = yLabel
+	for _, ax := range []*plot.Axis{&p.X, &p.Y} {
+		ax.Label.TextStyle.Font.Size = labelSize
+		ax.Tick.Label.Font.Size = tickSize
+		ax.Padding = vg.Points(4)
+	}
+	p.Legend.TextStyle.Font.Size = legendSize
+	p.Legend.Top = true
+	p.Legend.Padding = vg.Points(4)
+	p.Legend.ThumbnailWidth = vg.Points(28)
+	p.X.Tick.Marker = denseTicks{}
+	p.Y.Tick.Marker = denseTicks{}
+	p.Add(newGrid())
+	return p
+}
+
+func newGrid() plot.Plotter {
+	g := plotter.NewGrid()
+	g.Vertical.Color = color.Gray{Y: 215}
+	g.Horizontal.Color = color.Gray{Y: 215}
+	return g
+}
+
+// palette8 is a qualitative palette that stays apart on white and in grey
+// (Okabe–Ito colours (common practice)).
+var palette8 = []color.Color{
+	color.RGBA{0, 114, 178, 255},   // blue
+	color.RGBA{213, 94, 0, 255},    // vermillion
+	color.RGBA{0, 158, 115, 255},   // bluish green
+	color.RGBA{204, 121, 167, 255}, // reddish purple
+	color.RGBA{230, 159, 0, 255},   // orange
+	color.RGBA{86, 180, 233, 255},  // sky blue
+	color.RGBA{0, 0, 0, 255},       // black
+	color.RGBA{240, 228, 66, 255},  // yellow
+}
+
+// dashes cycles line styles so that series stay apart beyond the palette.
+var dashes = [][]vg.Length{
+	nil,
+	{vg.Points(8), vg.Points(4)},
+	{vg.Points(2), vg.Points(3)},
+	{vg.Points(10), vg.Points(3), vg.Points(2), vg.Points(3)},
+}
+
+func seriesColor(i int) color.Color { return palette8[i%len(palette8)] }
+func seriesDash(i int) []vg.Length  { return dashes[(i/len(palette8))%len(dashes)] }
+
+// SVGSize reads the width and height (in points) of the root element of an
+// SVG file, as written by Save: 900 × 600 pt for every figure here.
+func SVGSize(path string) (widthPt, heightPt float64, err error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, 0, err
+	}
+	defer f.Close()
+	dec := xml.NewDecoder(f)
+	for {
+		tok, err := dec.Token()
+		if err != nil {
+			return 0, 0, fmt.Errorf("%s: no <svg> element: %w", path, err)
+		}
+		se, ok := tok.(xml.StartElement)
+		if !ok {
+			continue
+		}
+		if se.Name.Local != "svg" {
+			return 0, 0, fmt.Errorf("%s: root element is <%s>, not <svg>", path, se.Name.Local)
+		}
+		for _, a := range se.Attr {
+			v := strings.TrimSuffix(a.Value, "pt")
+			switch a.Name.Local {
+			case "width":
+				widthPt, err = strconv.ParseFloat(v, 64)
+			case "height":
+				heightPt, err = strconv.ParseFloat(v, 64)
+			}
+			if err != nil {
+				return 0, 0, fmt.Errorf("%s: %s=%q: %w", path, a.Name.Local, a.Value, err)
+			}
+		}
+		return widthPt, heightPt, nil
+	}
+}
+
+// legendBox fills a white, lightly framed box behind a panel's legend so
+// that the legend stays legible over data. Add it last (after the data) and
+// register every legend entry through addLegend.
+type legendBox struct {
+	labels []string
+}
+
+func (b *legendBox) Plot(c draw.Canvas, p *plot.Plot) {
+	if len(b.labels) == 0 {
+		return
+	}
+	l := p.Legend
+	sty := l.TextStyle
+	var width, height vg.Length
+	for i, s := range b.labels {
+		width = max(width, l.ThumbnailWidth+sty.Rectangle(" "+s).Max.X+sty.Rectangle(" ").Max.X)
+		height += sty.FontExtents().Height
+		if i > 0 {
+			height += l.Padding
+		}
+	}
+	m := vg.Points(4)
+	var r vg.Rectangle
+	if l.Left {
+		r.Min.X = c.Min.X + l.XOffs - m
+		r.Max.X = r.Min.X + width + 2*m
+	} else {
+		r.Max.X = c.Max.X + l.XOffs + m
+		r.Min.X = r.Max.X - width - 2*m
+	}
+	if l.Top {
+		r.Max.Y = c.Max.Y + l.YOffs + m
+		r.Min.Y = r.Max.Y - height - 2*m
+	} else {
+		r.Min.Y = c.Min.Y + l.YOffs - m
+		r.Max.Y = r.Min.Y + height + 2*m
+	}
+	c.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 235})
+	c.Fill(r.Path())
+	c.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 170}, Width: vg.Points(0.8)})
+	c.Stroke(r.Path())
+}
+
+// panel is a plot under construction with its legend backdrop.
+type panel struct {
+	*plot.Plot
+	box legendBox
+}
+
+// legend adds a legend entry and records it for the backdrop.
+func (p *panel) legend(label string, thumbs ...plot.Thumbnailer) {
+	p.Legend.Add(label, thumbs...)
+	p.box.labels = append(p.box.labels, label)
+}
+
+// done adds the legend backdrop on top of the data and returns the plot.
+func (p *panel) done() *plot.Plot {
+	p.Add(&p.box)
+	return p.Plot
+}
+
+// denseTicks labels about eight major ticks at 1, 2, 2.5 or 5 × 10^k, with
+// four minor ticks between (gonum's default labels only three or four).
+type denseTicks struct{}
+
+func (denseTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || math.IsInf(hi-lo, 0) {
+		return plot.DefaultTicks{}.Ticks(lo, hi)
+	}
+	raw := (hi - lo) / 8
+	mag := math.Pow(10, math.Floor(math.Log10(raw)))
+	step := mag * 10
+	for _, m := range []float64{1, 2, 2.5, 5} {
+		if m*mag >= raw {
+			step = m * mag
+			break
+		}
+	}
+	minor := step / 5
+	var ticks []plot.Tick
+	first := math.Ceil(lo/minor) * minor
+	for k := 0; ; k++ {
+		v := first + float64(k)*minor
+		if v > hi+minor*1e-9 {
+			break
+		}
+		if math.Abs(v) < minor*1e-9 {
+			v = 0
+		}
+		t := plot.Tick{Value: v}
+		if r := math.Abs(v/step - math.Round(v/step)); r < 1e-6 {
+			t.Label = strconv.FormatFloat(v, 'g', 6, 64)
+		}
+		ticks = append(ticks, t)
+	}
+	return ticks
+}

@@ -1,0 +1,427 @@
+package fading
+
+import (
+	"fmt"
+	"math"
+)
+
+// Generator selects the algorithm that generates the Rayleigh (diffuse)
+// part of every tap.
+type Generator int
+
+// Generators. All three give complex taps with unit mean power, the Clarke
+// Doppler spectrum (autocorrelation J0(2π f_D τ)) and Rayleigh envelopes,
+// are wide-sense stationary and stream (chunk by chunk equals one call).
+const (
+	// GeneratorDefault is the fast default: the sum-of-sinusoids model of
+	// GeneratorSumOfSinusoids with DefaultSinusoids sinusoids per branch,
+	// generated at an internal rate of about f_D/0.06 when f_D·T is small
+	// and brought to the sample rate by 4-point Lagrange interpolation.
+	GeneratorDefault Generator = iota
+	// GeneratorSumOfSinusoids is the statistically correct sum of sinusoids
+	// of Zheng & Xiao (IEEE Trans. Commun. 51(6), 2003): random phase and
+	// random arrival angle per sinusoid, evaluated at every sample.
+	GeneratorSumOfSinusoids
+	// GeneratorSpectral is Gaussian noise shaped by the Clarke filter through
+	// an inverse FFT (Young & Beaulieu, IEEE Trans. Commun. 48(7), 2000),
+	// generated in blocks joined by half-overlapping sine-window cross-fades
+	// that keep the power constant.
+	GeneratorSpectral
+)
+
+// String returns the generator's name.
+func (g Generator) String() string {
+	switch g {
+	case GeneratorDefault:
+		return "default"
+	case GeneratorSumOfSinusoids:
+		return "sum-of-sinusoids"
+	case GeneratorSpectral:
+		return "spectral"
+	}
+	return fmt.Sprintf("Generator(%d)", int(g))
+}
+
+// Sinusoid counts.
+const (
+	DefaultSinusoids = 8   // sinusoids per branch of GeneratorDefault when ChannelConfig.Sinusoids is 0
+	SOSSinusoids     = 16  // sinusoids per branch of GeneratorSumOfSinusoids when ChannelConfig.Sinusoids is 0
+	MaxSinusoids     = 256 // largest accepted ChannelConfig.Sinusoids
+	MaxRicianKDB     = 60  // largest accepted ChannelConfig.RicianKDB
+	MinRicianKDB     = -60 // smallest accepted ChannelConfig.RicianKDB
+)
+
+// ChannelConfig configures the fading channel of one link: a tap-delay
+// profile whose taps are independent Rayleigh processes (the first one
+// Rician when LOS is set), each with the Clarke Doppler spectrum of maximum
+// Doppler DopplerHz, sampled at SampleRateHz, with tap powers normalised to
+// unit total mean power.
+type ChannelConfig struct {
+	DopplerHz    float64   // maximum Doppler f_D in Hz, 0 <= f_D < SampleRateHz/2 (0: static channel, one draw)
+	SampleRateHz float64   // sample rate fs in Hz, > 0 (for the loop: the update rate)
+	Profile      Profile   // tap-delay profile (validated); Name is informational
+	RicianKDB    float64   // K factor of the first tap in dB, in [MinRicianKDB, MaxRicianKDB]; used only when LOS is true
+	LOS          bool      // first tap Rician with a line-of-sight component
+	LOSAngleRad  float64   // arrival angle θ of the LOS component: its phasor rotates at f_D cos θ; finite
+	Generator    Generator // algorithm; GeneratorDefault is fast and statistically correct
+	Sinusoids    int       // sinusoids per branch for the sum-of-sinusoids generators, 0 or [1, MaxSinusoids]; 0 -> generator default
+}
+
+// Validate returns a *ParamError naming the first bad field (Go field
+// paths, e.g. "DopplerHz", "Profile.Taps[1].DelayNs").
+func (c ChannelConfig) Validate() error {
+	if err := CheckDoppler(c.DopplerHz, c.SampleRateHz); err != nil {
+		return err
+	}
+	if err := c.Profile.Validate(); err != nil {
+		return withPrefix("Profile", err)
+	}
+	if c.LOS {
+		if err := checkRange("RicianKDB", c.RicianKDB, MinRicianKDB, MaxRicianKDB, "dB"); err != nil {
+			return err
+		}
+		if !finite(c.LOSAngleRad) {
+			return paramErr("LOSAngleRad", "must be finite, got %g", c.LOSAngleRad)
+		}
+	}
+	if c.Generator < GeneratorDefault || c.Generator > GeneratorSpectral {
+		return paramErr("Generator", "must be default (0), sum-of-sinusoids (1) or spectral (2), got %d", int(c.Generator))
+	}
+	if c.Sinusoids < 0 || c.Sinusoids > MaxSinusoids {
+		return paramErr("Sinusoids", "must be 0 (generator default) or in [1, %d], got %d", MaxSinusoids, c.Sinusoids)
+	}
+	return nil
+}
+
+// Internal-rate rules (see internalStep).
+const (
+	internalNu  = 0.2  // f_D / internal rate when a generator decimates
+	directAbove = 0.15 // GeneratorDefault and GeneratorSpectral run at the sample rate when f_D·T >= this
+	interpHist  = interpTaps - 1
+)
+
+// internalStep returns the internal-rate step (internal samples per output
+// sample, <= 1) for a generator at normalised Doppler fdT.
+func internalStep(g Generator, fdT float64) float64 {
+	switch {
+	case fdT == 0:
+		return 1
+	case g != GeneratorSumOfSinusoids && fdT < directAbove:
+		return fdT / internalNu
+	}
+	return 1
+}
+
+// source generates the internal-rate samples of all taps of a channel.
+type source interface {
+	// blockLen is the number of internal samples next writes per tap.
+	blockLen() int
+	// next writes the next blockLen() internal samples of tap l, multiplied
+	// by scale[l], into re[l][:blockLen()] and im[l][:blockLen()].
+	next(scale []float64, re, im [][]float64)
+}
+
+// Channel is the fading channel of one link (see ChannelConfig). It is a
+// stream: successive Fill calls continue the same process, and the samples
+// do not depend on how the stream is cut into calls. A Channel is not safe
+// for concurrent use; use one per goroutine.
+type Channel struct {
+	cfg   ChannelConfig
+	nt    int
+	step  float64 // internal samples per output sample; 1 = direct
+	src   source
+	scale []float64 // per-tap amplitude of the diffuse part
+
+	losAmp, losDelta, losPhase float64 // LOS amplitude, rad per internal sample, initial phase
+
+	blk          int
+	hist         int
+	bufRe, bufIm [][]float64 // per tap, hist+blk internal samples
+	blockStart   int64       // internal index held at buf[l][hist]
+	pos          int         // direct mode: next unread offset in the block
+
+	m            int64       // next output sample index
+	outRe, outIm [][]float64 // interpolation mode: per-tap output chunk
+	viewRe       [][]float64 // per-tap views of the last produced chunk
+	viewIm       [][]float64
+	idx          []int32 // interpolation plan: first node per output sample
+	wrow         []int32 // interpolation plan: offset of the weight row in interpTable
+}
+
+const outChunk = 256 // output samples per interpolation chunk
+
+// NewChannel validates cfg and returns the channel of link user in a run
+// seeded with seed; tap l draws from NewStream(seed, user, l, StreamTap) and
+// the LOS phase from NewStream(seed, user, 0, StreamLOS). Errors are
+// *ParamError values naming the bad field.
+func NewChannel(cfg ChannelConfig, seed uint64, user int) (*Channel, error) {
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	nt := len(cfg.Profile.Taps)
+	c := &Channel{cfg: cfg, nt: nt}
+	c.cfg.Profile.Taps = append([]Tap(nil), cfg.Profile.Taps...)
+	pw := cfg.Profile.NormalisedPowers()
+	c.scale = make([]float64, nt)
+	for l := range c.scale {
+		c.scale[l] = math.Sqrt(pw[l])
+	}
+	fdT := cfg.DopplerHz / cfg.SampleRateHz
+	c.step = internalStep(cfg.Generator, fdT)
+	nu := fdT / c.step // f_D over the internal rate
+	if cfg.LOS {
+		k := math.Pow(10, cfg.RicianKDB/10)
+		c.losAmp = c.scale[0] * math.Sqrt(k/(k+1))
+		c.scale[0] *= math.Sqrt(1 / (k + 1))
+		c.losDelta = 2 * math.Pi * nu * math.Cos(cfg.LOSAngleRad)
+		c.losPhase = 2 * math.Pi * NewStream(seed, user, 0, StreamLOS).Float64()
+	}
+	switch {
+	case fdT == 0:
+		c.src = newStaticSource(nt, seed, user)
+	case cfg.Generator == GeneratorSpectral:
+		c.src = newSpectralSource(nt, nu, seed, user)
+	case cfg.Generator == GeneratorSumOfSinusoids:
+		m := cfg.Sinusoids
+		if m == 0 {
+			m = SOSSinusoids
+		}
+		c.src = newSOSSource(nt, m, nu, seed, user)
+	default:
+		m := cfg.Sinusoids
+		if m == 0 {
+			m = DefaultSinusoids
+		}
+		c.src = newGSOSSource(nt, m, nu, seed, user)
+	}
+	c.blk = c.src.blockLen()
+	if c.step < 1 {
+		c.hist = interpHist
+		c.outRe = make2(nt, outChunk)
+		c.outIm = make2(nt, outChunk)
+		c.idx = make([]int32, outChunk)
+		c.wrow = make([]int32, outChunk)
+	}
+	c.bufRe = make2(nt, c.hist+c.blk)
+	c.bufIm = make2(nt, c.hist+c.blk)
+	c.viewRe = make([][]float64, nt)
+	c.viewIm = make([][]float64, nt)
+	c.blockStart = -int64(c.blk)
+	c.pos = c.blk
+	return c, nil
+}
+
+func make2(n, m int) [][]float64 {
+	flat := make([]float64, n*m)
+	out := make([][]float64, n)
+	for i := range out {
+		out[i] = flat[i*m : (i+1)*m : (i+1)*m]
+	}
+	return out
+}
+
+// NumTaps returns the number of taps L of the channel's profile.
+func (c *Channel) NumTaps() int { return c.nt }
+
+// Config returns the channel's configuration.
+func (c *Channel) Config() ChannelConfig { return c.cfg }
+
+// InternalRateHz returns the rate in Hz at which the generator evaluates the
+// process before interpolation to the sample rate (equal to SampleRateHz
+// when no interpolation is used).
+func (c *Channel) InternalRateHz() float64 { return c.cfg.SampleRateHz * c.step }
+
+// refill generates the next internal block, keeping hist samples of history.
+func (c *Channel) refill() {
+	if c.hist > 0 {
+		for l := 0; l < c.nt; l++ {
+			copy(c.bufRe[l][:c.hist], c.bufRe[l][c.blk:])
+			copy(c.bufIm[l][:c.hist], c.bufIm[l][c.blk:])
+		}
+	}
+	c.blockStart += int64(c.blk)
+	for l := 0; l < c.nt; l++ {
+		c.viewRe[l] = c.bufRe[l][c.hist:]
+		c.viewIm[l] = c.bufIm[l][c.hist:]
+	}
+	c.src.next(c.scale, c.viewRe, c.viewIm)
+	if c.losAmp != 0 {
+		addPhasor(c.viewRe[0], c.viewIm[0], c.losAmp, c.losPhase+c.losDelta*float64(c.blockStart), c.losDelta)
+	}
+}
+
+// addPhasor adds a·exp(j(θ0 + kΔ)) for k = 0..len(re)-1 to (re, im),
+// rotating a phasor from an exact start value.
+func addPhasor(re, im []float64, a, theta0, delta float64) {
+	s, co := math.Sincos(theta0)
+	pr, pi := a*co, a*s
+	ws, wc := math.Sincos(delta)
+	im = im[:len(re)]
+	for k := range re {
+		re[k] += pr
+		im[k] += pi
+		pr, pi = pr*wc-pi*ws, pr*ws+pi*wc
+	}
+}
+
+// produce makes up to max output samples available in c.viewRe[l][:n],
+// c.viewIm[l][:n] and returns n >= 1 (for max >= 1).
+func (c *Channel) produce(max int) int {
+	if c.hist == 0 {
+		if c.pos == c.blk {
+			c.refill()
+			c.pos = 0
+		}
+		n := min(max, c.blk-c.pos)
+		for l := 0; l < c.nt; l++ {
+			c.viewRe[l] = c.bufRe[l][c.pos : c.pos+n]
+			c.viewIm[l] = c.bufIm[l][c.pos : c.pos+n]
+		}
+		c.pos += n
+		c.m += int64(n)
+		return n
+	}
+	n := c.plan(max)
+	for l := 0; l < c.nt; l++ {
+		interpTap(c.outRe[l][:n], c.outIm[l][:n], c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+		c.viewRe[l] = c.outRe[l][:n]
+		c.viewIm[l] = c.outIm[l][:n]
+	}
+	return n
+}
+
+// plan prepares the interpolation of up to max (>= 1) output samples from
+// c.m on, refilling the internal buffer first if needed, and stops before
+// any sample that would need another refill. It stores per sample the
+// buffer offset of the first node in c.idx and the offset of its weight
+// row in interpTable (nearest tabulated phase) in c.wrow, and
+// returns the number of samples planned (>= 1).
+func (c *Channel) plan(max int) int {
+	n := min(max, outChunk)
+	step, m := c.step, c.m
+	for {
+		k := int64(float64(m)*step + interpBefore)
+		if k+interpTaps-interpBefore <= c.blockStart+int64(c.blk) {
+			break
+		}
+		c.refill()
+	}
+	end := c.blockStart + int64(c.blk)
+	base := c.blockStart - int64(c.hist) + interpBefore
+	idx, wrow := c.idx[:n], c.wrow[:n]
+	i := 0
+	for ; i < n; i++ {
+		p := float64(m+int64(i))*step + interpBefore
+		k := int64(p)
+		if k+interpTaps-interpBefore > end {
+			break
+		}
+		idx[i] = int32(k - base)
+		wrow[i] = int32(int(float64(interpPhases)*(p-float64(k))+0.5) * interpTaps)
+	}
+	c.m += int64(i)
+	return i
+}
+
+// interpTap interpolates one tap: out[i] = Σ_j w[i][j] x[idx[i]+j].
+func interpTap(outRe, outIm, re, im []float64, idx, wrow []int32) {
+	wts := interpTable
+	outIm = outIm[:len(outRe)]
+	idx = idx[:len(outRe)]
+	wrow = wrow[:len(outRe)]
+	for i := range outRe {
+		j := int(idx[i])
+		o := int(wrow[i])
+		w := wts[o : o+interpTaps : o+interpTaps]
+		x := re[j : j+interpTaps : j+interpTaps]
+		y := im[j : j+interpTaps : j+interpTaps]
+		outRe[i] = ((w[0]*x[0] + w[1]*x[1]) + (w[2]*x[2] + w[3]*x[3])) + ((w[4]*x[4] + w[5]*x[5]) + (w[6]*x[6] + w[7]*x[7]))
+		outIm[i] = ((w[0]*y[0] + w[1]*y[1]) + (w[2]*y[2] + w[3]*y[3])) + ((w[4]*y[4] + w[5]*y[5]) + (w[6]*y[6] + w[7]*y[7]))
+	}
+}
+
+// interpTapPower interpolates one tap and writes (first) or adds its power
+// |h|² to dst.
+func interpTapPower(dst []float64, first bool, re, im []float64, idx, wrow []int32) {
+	wts := interpTable
+	wrow = wrow[:len(dst)]
+	idx = idx[:len(dst)]
+	for i := range dst {
+		j := int(idx[i])
+		o := int(wrow[i])
+		w := wts[o : o+interpTaps : o+interpTaps]
+		x := re[j : j+interpTaps : j+interpTaps]
+		y := im[j : j+interpTaps : j+interpTaps]
+		r := ((w[0]*x[0] + w[1]*x[1]) + (w[2]*x[2] + w[3]*x[3])) + ((w[4]*x[4] + w[5]*x[5]) + (w[6]*x[6] + w[7]*x[7]))
+		q := ((w[0]*y[0] + w[1]*y[1]) + (w[2]*y[2] + w[3]*y[3])) + ((w[4]*y[4] + w[5]*y[5]) + (w[6]*y[6] + w[7]*y[7]))
+		if first {
+			dst[i] = r*r + q*q
+		} else {
+			dst[i] += r*r + q*q
+		}
+	}
+}
+
+// FillGains writes len(dst) consecutive combined power gains
+// g = Σ_l |h_l|² (ideal maximal-ratio / RAKE combining, unit mean); successive
+// calls continue the same process. It allocates nothing.
+func (c *Channel) FillGains(dst []float64) {
+	if c.hist > 0 {
+		for len(dst) > 0 {
+			n := c.plan(len(dst))
+			for l := 0; l < c.nt; l++ {
+				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+			}
+			dst = dst[n:]
+		}
+		return
+	}
+	for len(dst) > 0 {
+		n := c.produce(len(dst))
+		d := dst[:n]
+		re, im := c.viewRe[0][:n], c.viewIm[0][:n]
+		for i := range d {
+			d[i] = re[i]*re[i] + im[i]*im[i]
+		}
+		for l := 1; l < c.nt; l++ {
+			re, im := c.viewRe[l][:n], c.viewIm[l][:n]
+			for i := range d {
+				d[i] += re[i]*re[i] + im[i]*im[i]
+			}
+		}
+		dst = dst[n:]
+	}
+}
+
+// FillTaps writes n = len(dst)/NumTaps() consecutive samples of the complex
+// tap gains, interleaved as dst[s*L+l] (any remainder of dst is left
+// untouched); same process as FillGains (use a channel for one or the
+// other). It allocates nothing.
+func (c *Channel) FillTaps(dst []complex64) {
+	total := len(dst) / c.nt
+	for total > 0 {
+		n := c.produce(total)
+		for l := 0; l < c.nt; l++ {
+			re, im := c.viewRe[l][:n], c.viewIm[l][:n]
+			for i := range re {
+				dst[i*c.nt+l] = complex(float32(re[i]), float32(im[i]))
+			}
+		}
+		dst = dst[n*c.nt:]
+		total -= n
+	}
+}
+
+// fillComplex writes n = len(re[0]) samples of every tap in float64 (used by
+// Check); re and im must have NumTaps() rows of equal length.
+func (c *Channel) fillComplex(re, im [][]float64) {
+	off, total := 0, len(re[0])
+	for off < total {
+		n := c.produce(total - off)
+		for l := 0; l < c.nt; l++ {
+			copy(re[l][off:off+n], c.viewRe[l][:n])
+			copy(im[l][off:off+n], c.viewIm[l][:n])
+		}
+		off += n
+	}
+}

@@ -1,0 +1,220 @@
+package loop
+
+import (
+	"fmt"
+	"strconv"
+)
+
+// The enumerations of a Scenario. Each is a Go int whose zero value means
+// "not set"; Normalise fills a documented default where one makes sense and
+// Validate rejects what stays unset. Their text form (JSON, YAML, flags) is
+// the name of the matching value of the fadeloop.v1 proto enum, e.g.
+// "INNER_MODE_CLOSED_LOOP", so scenario files read the same in both.
+
+// Placement says how the users of a group are placed around the receiver.
+type Placement int
+
+// Placements.
+const (
+	PlacementUnspecified     Placement = iota // not set
+	PlacementExplicit                         // distances_m, one per user
+	PlacementUniformDistance                  // evenly spread in distance between min and max, both included
+	PlacementUniformArea                      // evenly spread in area over the annulus min..max
+)
+
+// Generator selects the fading generator of package fading.
+type Generator int
+
+// Generators.
+const (
+	GeneratorUnspecified    Generator = iota // not set; Normalise makes it GeneratorDefault
+	GeneratorDefault                         // fading.GeneratorDefault
+	GeneratorSumOfSinusoids                  // fading.GeneratorSumOfSinusoids (Zheng & Xiao 2003)
+	GeneratorSpectral                        // fading.GeneratorSpectral (Young & Beaulieu 2000)
+)
+
+// PathLossModel selects the distance-dependent path-loss model of a group.
+type PathLossModel int
+
+// Path-loss models (all from package fading).
+const (
+	PathLossUnspecified      PathLossModel = iota // not set; Normalise makes it LOG_DISTANCE 52.9 + 37.6·log10(d/10 m) when no parameter is set
+	PathLossFreeSpace                             // Friis free space at the carrier
+	PathLossLogDistance                           // L = ref_loss_db + 10·exponent·log10(d/ref_distance_m)
+	PathLossHataUrban                             // Okumura-Hata urban, small/medium city
+	PathLossHataUrbanLarge                        // Okumura-Hata urban, large city
+	PathLossHataSuburban                          // Okumura-Hata suburban
+	PathLossHataOpen                              // Okumura-Hata open area
+	PathLossCOST231Hata                           // COST-231 Hata, C_m = 0 dB
+	PathLossCOST231HataMetro                      // COST-231 Hata metropolitan, C_m = 3 dB
+)
+
+// InnerMode is the inner-loop mode.
+type InnerMode int
+
+// Inner-loop modes.
+const (
+	InnerModeUnspecified InnerMode = iota // not set; Normalise makes it CLOSED_LOOP
+	InnerModeFixedPower                   // no power control: every user at fixed_power_dbm (the baseline)
+	InnerModeIdeal                        // exact inversion every slot within the power limits (the reference bound)
+	InnerModeClosedLoop                   // measured SIR vs target -> command -> delayed, possibly erroneous update
+)
+
+// Command is the closed-loop command type.
+type Command int
+
+// Command types.
+const (
+	CommandUnspecified Command = iota // not set; Normalise makes it FIXED_STEP
+	CommandFixedStep                  // one bit: ±step_db (3GPP TS 25.214 §5.1.2.2 algorithm 1 (memory))
+	CommandMultiLevel                 // one of levels_db chosen by thresholds_db (3GPP TS 36.213 §5.1.1.1 (memory))
+	CommandAdaptive                   // one bit, adaptive step (Jayant's one-bit-memory adaptive delta modulation)
+)
+
+// InitialPower says how a closed-loop user picks its first transmit power.
+type InitialPower int
+
+// Initial power rules.
+const (
+	InitialPowerUnspecified InitialPower = iota // not set; Normalise makes it OPEN_LOOP
+	InitialPowerOpenLoop                        // open-loop estimate from the mean path loss, see Controller
+	InitialPowerFixed                           // initial_power_dbm
+)
+
+// LinkKind is the kind of link curve.
+type LinkKind int
+
+// Link curve kinds.
+const (
+	LinkUnspecified LinkKind = iota // not set; Normalise makes it LOGISTIC
+	LinkLogistic                    // BLER(s) = 1/(1+exp((s−threshold_db)/slope_db))
+	LinkTable                       // piecewise linear in (SIR dB, log BLER) through table points
+)
+
+// EffectiveSIR is the rule that maps a block's per-slot SIRs to one
+// effective SIR.
+type EffectiveSIR int
+
+// Effective-SIR rules.
+const (
+	EffectiveSIRUnspecified EffectiveSIR = iota // not set; Normalise makes it LINEAR_MEAN
+	EffectiveSIRLinearMean                      // mean of the linear per-slot SIRs
+	EffectiveSIREESM                            // exponential effective SIR mapping with eesm_beta
+)
+
+var (
+	placementNames = []string{"PLACEMENT_UNSPECIFIED", "PLACEMENT_EXPLICIT", "PLACEMENT_UNIFORM_DISTANCE", "PLACEMENT_UNIFORM_AREA"}
+	generatorNames = []string{"GENERATOR_UNSPECIFIED", "GENERATOR_DEFAULT", "GENERATOR_SUM_OF_SINUSOIDS", "GENERATOR_SPECTRAL"}
+	pathLossNames  = []string{"PATH_LOSS_MODEL_UNSPECIFIED", "PATH_LOSS_MODEL_FREE_SPACE", "PATH_LOSS_MODEL_LOG_DISTANCE",
+		"PATH_LOSS_MODEL_HATA_URBAN", "PATH_LOSS_MODEL_HATA_URBAN_LARGE", "PATH_LOSS_MODEL_HATA_SUBURBAN",
+		"PATH_LOSS_MODEL_HATA_OPEN", "PATH_LOSS_MODEL_COST231_HATA", "PATH_LOSS_MODEL_COST231_HATA_METRO"}
+	innerModeNames    = []string{"INNER_MODE_UNSPECIFIED", "INNER_MODE_FIXED_POWER", "INNER_MODE_IDEAL", "INNER_MODE_CLOSED_LOOP"}
+	commandNames      = []string{"COMMAND_UNSPECIFIED", "COMMAND_FIXED_STEP", "COMMAND_MULTI_LEVEL", "COMMAND_ADAPTIVE"}
+	initialPowerNames = []string{"INITIAL_POWER_UNSPECIFIED", "INITIAL_POWER_OPEN_LOOP", "INITIAL_POWER_FIXED"}
+	linkKindNames     = []string{"LINK_KIND_UNSPECIFIED", "LINK_KIND_LOGISTIC", "LINK_KIND_TABLE"}
+	effectiveNames    = []string{"EFFECTIVE_SIR_UNSPECIFIED", "EFFECTIVE_SIR_LINEAR_MEAN", "EFFECTIVE_SIR_EESM"}
+)
+
+func enumString(names []string, v int) string {
+	if v >= 0 && v < len(names) {
+		return names[v]
+	}
+	return strconv.Itoa(v)
+}
+
+// enumParse accepts the proto value name or its decimal number.
+func enumParse(names []string, kind string, text []byte) (int, error) {
+	s := string(text)
+	for i, n := range names {
+		if n == s {
+			return i, nil
+		}
+	}
+	if v, err := strconv.Atoi(s); err == nil && v >= 0 && v < len(names) {
+		return v, nil
+	}
+	return 0, fmt.Errorf("unknown %s %q", kind, s)
+}
+
+// defined reports whether v is a set, known value of an enum with len(names) values.
+func defined(names []string, v int) bool { return v > 0 && v < len(names) }
+
+func (v Placement) String() string               { return enumString(placementNames, int(v)) }
+func (v Placement) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *Placement) UnmarshalText(b []byte) error {
+	x, err := enumParse(placementNames, "placement", b)
+	*v = Placement(x)
+	return err
+}
+
+func (v Generator) String() string               { return enumString(generatorNames, int(v)) }
+func (v Generator) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *Generator) UnmarshalText(b []byte) error {
+	x, err := enumParse(generatorNames, "generator", b)
+	*v = Generator(x)
+	return err
+}
+
+func (v PathLossModel) String() string               { return enumString(pathLossNames, int(v)) }
+func (v PathLossModel) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *PathLossModel) UnmarshalText(b []byte) error {
+	x, err := enumParse(pathLossNames, "path-loss model", b)
+	*v = PathLossModel(x)
+	return err
+}
+
+func (v InnerMode) String() string               { return enumString(innerModeNames, int(v)) }
+func (v InnerMode) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *InnerMode) UnmarshalText(b []byte) error {
+	x, err := enumParse(innerModeNames, "inner mode", b)
+	*v = InnerMode(x)
+	return err
+}
+
+func (v Command) String() string               { return enumString(commandNames, int(v)) }
+func (v Command) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *Command) UnmarshalText(b []byte) error {
+	x, err := enumParse(commandNames, "command", b)
+	*v = Command(x)
+	return err
+}
+
+func (v InitialPower) String() string               { return enumString(initialPowerNames, int(v)) }
+func (v InitialPower) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *InitialPower) UnmarshalText(b []byte) error {
+	x, err := enumParse(initialPowerNames, "initial power", b)
+	*v = InitialPower(x)
+	return err
+}
+
+func (v LinkKind) String() string               { return enumString(linkKindNames, int(v)) }
+func (v LinkKind) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *LinkKind) UnmarshalText(b []byte) error {
+	x, err := enumParse(linkKindNames, "link kind", b)
+	*v = LinkKind(x)
+	return err
+}
+
+func (v EffectiveSIR) String() string               { return enumString(effectiveNames, int(v)) }
+func (v EffectiveSIR) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *EffectiveSIR) UnmarshalText(b []byte) error {
+	x, err := enumParse(effectiveNames, "effective SIR rule", b)
+	*v = EffectiveSIR(x)
+	return err
+}

@@ -1,0 +1,388 @@
+package tune
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"runtime"
+	"sort"
+
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// PoleParams are the inputs of the pole-capacity estimate of a CDMA cell.
+type PoleParams struct {
+	// ChipRateHz W, the spread bandwidth in chip/s, > 0.
+	ChipRateHz float64 `json:"chip_rate_hz"`
+	// BitRateBps R, the user bit rate in bit/s, (0, W].
+	BitRateBps float64 `json:"bit_rate_bps"`
+	// EbI0DB is the required Eb/I0 (the SIR target after despreading) in dB,
+	// [−30, 50].
+	EbI0DB float64 `json:"eb_i0_db"`
+	// ActivityFactor ν, the voice activity, (0, 1].
+	ActivityFactor float64 `json:"activity_factor"`
+	// OtherCellRatio f: other-cell interference as a fraction of own-cell
+	// interference, [0, 10]; the frequency reuse efficiency is F = 1/(1+f).
+	OtherCellRatio float64 `json:"other_cell_ratio"`
+	// Sectors is the sectorisation gain (number of sectors), [1, 12].
+	Sectors float64 `json:"sectors"`
+}
+
+// PoleCapacity is the pole capacity of a CDMA cell (the user count at which
+// the interference, and so the power, would grow without bound):
+//
+//	N ≈ (W/R) / (Eb/I0) · (1/ν) · F · sectors,  F = 1/(1+f)
+//
+// (Gilhousen et al., IEEE Trans. Veh. Technol. 40(2), 1991). With W = 1.2288
+// Mchip/s, R = 9.6 kbit/s, Eb/I0 = 6 dB, ν = 1/2, F = 1/1.66 and 3 sectors it
+// gives about 116 users. It returns an error naming the parameter out of
+// range.
+func PoleCapacity(p PoleParams) (float64, error) {
+	var v loop.Violations
+	chk := func(name string, x, lo, hi float64, loOpen bool) {
+		if math.IsNaN(x) || x > hi || x < lo || (loOpen && x == lo) {
+			br := "["
+			if loOpen {
+				br = "("
+			}
+			v = append(v, loop.Violation{Field: name, Rule: fmt.Sprintf("must be in %s%g, %g], got %g", br, lo, hi, x)})
+		}
+	}
+	chk("chip_rate_hz", p.ChipRateHz, 0, 1e10, true)
+	chk("bit_rate_bps", p.BitRateBps, 0, math.Max(p.ChipRateHz, 0), true)
+	chk("eb_i0_db", p.EbI0DB, -30, 50, false)
+	chk("activity_factor", p.ActivityFactor, 0, 1, true)
+	chk("other_cell_ratio", p.OtherCellRatio, 0, 10, false)
+	chk("sectors", p.Sectors, 1, 12, false)
+	if len(v) > 0 {
+		return 0, v
+	}
+	gp := p.ChipRateHz / p.BitRateBps
+	ebi0 := math.Pow(10, p.EbI0DB/10)
+	return gp / ebi0 / p.ActivityFactor / (1 + p.OtherCellRatio) * p.Sectors, nil
+}
+
+// PoleParamsOf reads the pole-capacity inputs from a scenario: W =
+// receiver.chip_rate_hz, R = receiver.bit_rate_bps, Eb/I0 =
+// outer_loop.initial_target_db (the fixed target when the outer loop is off,
+// its start otherwise), ν = the user-weighted mean activity factor, f =
+// receiver.other_cell_ratio, one sector (the simulation models one
+// omnidirectional receiver).
+func PoleParamsOf(sc loop.Scenario) PoleParams {
+	sc = cloneScenario(sc)
+	sc.Normalise()
+	var nu, n float64
+	for _, g := range sc.Groups {
+		if g.Count > 0 {
+			nu += float64(g.Count) * g.ActivityFactor
+			n += float64(g.Count)
+		}
+	}
+	if n > 0 {
+		nu /= n
+	}
+	return PoleParams{
+		ChipRateHz:     sc.Receiver.ChipRateHz,
+		BitRateBps:     sc.Receiver.BitRateBps,
+		EbI0DB:         sc.OuterLoop.InitialTargetDB,
+		ActivityFactor: nu,
+		OtherCellRatio: sc.Receiver.OtherCellRatio,
+		Sectors:        1,
+	}
+}
+
+// CapacityRequest asks for the largest user count at one setting.
+type CapacityRequest struct {
+	// Base is the setting evaluated; its run.seed seeds every replication
+	// (ReplicationSeed with condition 0, the same seeds for every count:
+	// common random numbers) and run.replications is ignored.
+	Base loop.Scenario `json:"base"`
+	// Group is the index of the group whose count is scaled; its placement
+	// must be uniform (explicit distances cannot be scaled).
+	Group int `json:"group"`
+	// OutageLimit is the largest acceptable outage probability (aggregate
+	// over all users), (0, 1). A count passes when the mean outage over the
+	// replications is at or below it.
+	OutageLimit float64 `json:"outage_limit"`
+	// MinCount and MaxCount bound the group's count, [1, loop.MaxUsers −
+	// other users]. MinCount 0 means 1; MaxCount 0 means search upward by
+	// doubling from MinCount.
+	MinCount int `json:"min_count"`
+	MaxCount int `json:"max_count"`
+	// Replications per evaluated count, [1, 1000]; 0 means 4.
+	Replications int `json:"replications"`
+	// Confidence of the reported intervals, [0.5, 0.9999]; 0 means 0.95.
+	Confidence float64 `json:"confidence"`
+	// MaxUserSlots bounds the simulated users × slots; 0 means no bound.
+	MaxUserSlots int64 `json:"max_user_slots"`
+}
+
+// CapacityPoint is one evaluated count.
+type CapacityPoint struct {
+	// Count of the scaled group and TotalUsers over all groups.
+	Count      int `json:"count"`
+	TotalUsers int `json:"total_users"`
+	// Pass: mean outage ≤ the limit.
+	Pass    bool    `json:"pass"`
+	Figures Figures `json:"figures"`
+}
+
+// CapacityResult is the answer of Capacity.
+type CapacityResult struct {
+	// Count is the largest passing count of the group (0 when even MinCount
+	// fails) and TotalUsers the users over all groups at that count.
+	Count      int `json:"count"`
+	TotalUsers int `json:"total_users"`
+	// BelowRange: MinCount already fails. AtRangeTop: the largest count
+	// tried passes (MaxCount, or the user limit of package loop).
+	BelowRange bool `json:"below_range"`
+	AtRangeTop bool `json:"at_range_top"`
+	// Evaluated lists every evaluated count, ascending.
+	Evaluated []CapacityPoint `json:"evaluated"`
+	// Pole is the analytic pole capacity (total users) from PoleParamsOf,
+	// with its inputs; PoleError says why it is missing, if it is.
+	Pole       float64    `json:"pole"`
+	PoleParams PoleParams `json:"pole_params"`
+	PoleError  string     `json:"pole_error,omitempty"`
+	// ModelPole is the pole of the engine's own single-cell interference
+	// equation, the total user count N* at which (1+f)·N·ν·γ/(G_p+γ) = 1
+	// (γ the linear SIR target, G_p = W/R): N* = (G_p+γ)/(γ·ν·(1+f)). It
+	// is the load at which no powers give every user its target (the
+	// single-receiver form of Foschini & Miljanic, IEEE Trans. Veh. Technol.
+	// 42(4), 1993); 0 when the inputs are out of range.
+	ModelPole float64 `json:"model_pole"`
+	// NonMonotone: some count above Count passed (the outage estimate is not
+	// monotone in the count at this precision; the bisection result stands
+	// but is less sharp).
+	NonMonotone bool `json:"non_monotone"`
+	// Replications and UserSlots spent.
+	Replications int   `json:"replications"`
+	UserSlots    int64 `json:"user_slots"`
+	// Reason is a plain-language summary.
+	Reason string `json:"reason"`
+}
+
+// Capacity finds, by bisection over the count of one group with common
+// random numbers, the largest count whose mean outage is at or below the
+// limit, and puts the analytic pole capacity beside it. Bad requests return
+// loop.Violations naming each field; a cancelled ctx returns ctx.Err().
+func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
+	return capacityWith(ctx, req, opt, runScenario)
+}
+
+func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
+	var v loop.Violations
+	add := func(f, format string, args ...any) {
+		v = append(v, loop.Violation{Field: f, Rule: fmt.Sprintf(format, args...)})
+	}
+	base := cloneScenario(req.Base)
+	base.Normalise()
+	if req.Group < 0 || req.Group >= len(base.Groups) {
+		add("group", "must index a group of the base scenario (0..%d), got %d", len(base.Groups)-1, req.Group)
+		return nil, v
+	}
+	if base.Groups[req.Group].Placement == loop.PlacementExplicit {
+		add("group", "group %d has explicit distances; the capacity search needs a uniform placement to scale its count", req.Group)
+	}
+	if !(req.OutageLimit > 0 && req.OutageLimit < 1) {
+		add("outage_limit", "must be in (0, 1), got %g", req.OutageLimit)
+	}
+	others := base.Users() - max(base.Groups[req.Group].Count, 0)
+	top := loop.MaxUsers - others
+	lo, hi := req.MinCount, req.MaxCount
+	if lo == 0 {
+		lo = 1
+	}
+	if lo < 1 || lo > top {
+		add("min_count", "must be in [1, %d], got %d", top, req.MinCount)
+	}
+	if hi != 0 && (hi < lo || hi > top) {
+		add("max_count", "must be in [min_count, %d] or 0, got %d", top, req.MaxCount)
+	}
+	reps := req.Replications
+	if reps == 0 {
+		reps = 4
+	}
+	if reps < 1 || reps > 1000 {
+		add("replications", "must be in [1, 1000], got %d", req.Replications)
+	}
+	conf := req.Confidence
+	if conf == 0 {
+		conf = DefaultConfidence
+	}
+	if !(conf >= 0.5 && conf <= 0.9999) {
+		add("confidence", "must be in [0.5, 0.9999], got %g", req.Confidence)
+	}
+	if req.MaxUserSlots < 0 {
+		add("max_user_slots", "must be >= 0, got %d", req.MaxUserSlots)
+	}
+	if len(v) > 0 {
+		return nil, v
+	}
+	base.Run.Replications = 1
+	probe := cloneScenario(base)
+	probe.Groups[req.Group].Count = lo
+	if vv := probe.Validate(); len(vv) > 0 {
+		return nil, vv
+	}
+	par := opt.Parallelism
+	if par <= 0 {
+		par = runtime.GOMAXPROCS(0)
+	}
+	e := &engine{parallel: par, progress: opt.Progress}
+	res := &CapacityResult{}
+	res.PoleParams = PoleParamsOf(base)
+	if pc, err := PoleCapacity(res.PoleParams); err != nil {
+		res.PoleError = err.Error()
+	} else {
+		res.Pole = pc
+		pp := res.PoleParams
+		gp, g := pp.ChipRateHz/pp.BitRateBps, math.Pow(10, pp.EbI0DB/10)
+		res.ModelPole = (gp + g) / (g * pp.ActivityFactor * (1 + pp.OtherCellRatio))
+	}
+	memo := map[int]*CapacityPoint{}
+	seed := base.Run.Seed
+	eval1 := func(n int, remaining int) (bool, error) {
+		if p, ok := memo[n]; ok {
+			return p.Pass, nil
+		}
+		sc := cloneScenario(base)
+		sc.Groups[req.Group].Count = n
+		if vv := sc.Validate(); len(vv) > 0 {
+			for i := range vv {
+				vv[i].Rule += fmt.Sprintf(" (at count %d)", n)
+			}
+			return false, vv
+		}
+		cost := int64(reps) * userSlots(&sc)
+		if req.MaxUserSlots > 0 && res.UserSlots+cost > req.MaxUserSlots {
+			return false, &BudgetError{NeedUserSlots: res.UserSlots + cost, LimitUserSlots: req.MaxUserSlots}
+		}
+		jobs := make([]job, reps)
+		for r := range jobs {
+			jobs[r] = job{k: n, r: r}
+		}
+		samples := make([]Sample, reps)
+		e.mu.Lock()
+		e.remain = remaining
+		e.mu.Unlock()
+		err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
+			s := sc
+			s.Run.Seed = ReplicationSeed(seed, 0, j.r)
+			return eval(ctx, &s)
+		}, func(j job, s Sample) {
+			samples[j.r] = s
+			res.Replications++
+			res.UserSlots += s.UserSlots
+		})
+		if err != nil {
+			return false, err
+		}
+		fg := figures(samples, conf)
+		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg, Pass: fg.OutageProb.Mean <= req.OutageLimit}
+		memo[n] = p
+		return p.Pass, nil
+	}
+	ok, err := eval1(lo, 0)
+	if err != nil {
+		return nil, err
+	}
+	switch {
+	case !ok:
+		res.BelowRange = true
+		hi = lo
+		lo = 0
+	case hi != 0:
+		ok, err = eval1(hi, hi-lo-1)
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			res.AtRangeTop = true
+			lo = hi
+		}
+	default:
+		// Expanding search: double until a count fails or the top is reached.
+		for {
+			next := min(2*lo, top)
+			if next == lo {
+				res.AtRangeTop = true
+				hi = lo
+				break
+			}
+			ok, err = eval1(next, 0)
+			if err != nil {
+				return nil, err
+			}
+			if !ok {
+				hi = next
+				break
+			}
+			lo = next
+		}
+	}
+	for hi-lo > 1 {
+		mid := lo + (hi-lo)/2
+		ok, err := eval1(mid, hi-lo-1)
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	res.Count = lo
+	res.TotalUsers = others + lo
+	if lo == 0 {
+		res.TotalUsers = others
+	}
+	for _, p := range memo {
+		res.Evaluated = append(res.Evaluated, *p)
+		if p.Pass && p.Count > res.Count {
+			res.NonMonotone = true
+		}
+	}
+	sort.Slice(res.Evaluated, func(i, j int) bool { return res.Evaluated[i].Count < res.Evaluated[j].Count })
+	res.Reason = capacityReason(res, req.OutageLimit)
+	return res, nil
+}
+
+func capacityReason(res *CapacityResult, limit float64) string {
+	var first string
+	var at *CapacityPoint
+	for i := range res.Evaluated {
+		if res.Evaluated[i].Count == res.Count {
+			at = &res.Evaluated[i]
+		}
+	}
+	switch {
+	case res.BelowRange:
+		first = fmt.Sprintf("Even the smallest count tried misses outage ≤ %s (outage %s).", pct(limit), pct(res.Evaluated[0].Figures.OutageProb.Mean))
+	case res.AtRangeTop:
+		first = fmt.Sprintf("All %d users tried keep outage ≤ %s (outage %s); the capacity is at least that.", res.TotalUsers, pct(limit), pct(at.Figures.OutageProb.Mean))
+	default:
+		var next *CapacityPoint
+		for i := range res.Evaluated {
+			if res.Evaluated[i].Count == res.Count+1 {
+				next = &res.Evaluated[i]
+			}
+		}
+		first = fmt.Sprintf("Up to %d users keep outage ≤ %s (outage %s %s at %d", res.TotalUsers, pct(limit),
+			pct(at.Figures.OutageProb.Mean), Objective{Kind: ObjectiveMinOutage}.interval(at.Figures.OutageProb), res.TotalUsers)
+		if next != nil {
+			first += fmt.Sprintf(", %s at %d", pct(next.Figures.OutageProb.Mean), next.TotalUsers)
+		}
+		first += ")."
+	}
+	var pole string
+	if res.PoleError == "" {
+		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors and the outage margin.", res.Pole, res.ModelPole)
+	}
+	var nm string
+	if res.NonMonotone {
+		nm = "Outage was not monotone in the count at this precision; more replications would sharpen the answer."
+	}
+	return join(first, pole, nm)
+}

@@ -1,0 +1,203 @@
+package tune
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"errors"
+	"math"
+	"runtime"
+	"testing"
+
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+func TestPoleCapacityGilhousen(t *testing.T) {
+	// Gilhousen et al., IEEE Trans. Veh. Technol. 40(2), 1991 (parameters:
+	// common practice): W = 1.2288 Mchip/s, R = 9.6 kbit/s, Eb/I0 = 6 dB,
+	// ν = 1/2, F = 1/1.66, 3 sectors → ≈ 116 users. Exact value of the
+	// formula: 128/10^0.6·2/1.66·3 = 116.17.
+	n, err := PoleCapacity(PoleParams{
+		ChipRateHz: 1.2288e6, BitRateBps: 9.6e3, EbI0DB: 6,
+		ActivityFactor: 0.5, OtherCellRatio: 0.66, Sectors: 3,
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(n-116) > 0.5 {
+		t.Errorf("pole capacity %.2f, want ≈ 116", n)
+	}
+	if _, err := PoleCapacity(PoleParams{ChipRateHz: 1, BitRateBps: 2, ActivityFactor: 0, Sectors: 0}); err == nil {
+		t.Error("bad parameters accepted")
+	}
+}
+
+func TestPoleParamsOfScenario(t *testing.T) {
+	sc := loop.CanonicalScenario()
+	sc.Groups[0].ActivityFactor = 0.5
+	p := PoleParamsOf(sc)
+	if p.ChipRateHz != 3.84e6 || p.BitRateBps != 12.2e3 || p.EbI0DB != 5 || p.ActivityFactor != 0.5 || p.OtherCellRatio != 0.2 || p.Sectors != 1 {
+		t.Errorf("params %+v", p)
+	}
+}
+
+// capToy: aggregate outage grows with the user count n as 0.002·e^(n/8),
+// times a replication factor shared across counts (common random numbers).
+func capToy(ctx context.Context, sc *loop.Scenario) (Sample, error) {
+	if err := ctx.Err(); err != nil {
+		return Sample{}, err
+	}
+	n := float64(sc.Users())
+	z := fading.NewStream(sc.Run.Seed, 0, 0, 1).NormFloat64()
+	return Sample{OutageProb: math.Min(1, 0.002*math.Exp(n/8)*(1+0.1*z)), UserSlots: int64(n) * sc.TotalSlots()}, nil
+}
+
+func capRequest(limit float64) CapacityRequest {
+	base := loop.CanonicalScenario()
+	base.Run.Slots = 1000
+	base.Run.WarmupSlots = 0
+	return CapacityRequest{Base: base, Group: 0, OutageLimit: limit, Replications: 3}
+}
+
+func TestCapacityBisectionToy(t *testing.T) {
+	prev := -1
+	for _, lim := range []float64{0.005, 0.01, 0.02, 0.05, 0.1} {
+		res, err := capacityWith(context.Background(), capRequest(lim), Options{}, capToy)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.Count < prev {
+			t.Errorf("limit %g: capacity %d below %d at a tighter limit", lim, res.Count, prev)
+		}
+		prev = res.Count
+		// Direct evaluation at N and N+1 with the same seeds.
+		for _, d := range []int{0, 1} {
+			sc := capRequest(lim).Base
+			sc.Groups[0].Count = res.Count + d
+			var sum float64
+			for r := 0; r < 3; r++ {
+				sc.Run.Seed = ReplicationSeed(capRequest(lim).Base.Run.Seed, 0, r)
+				s, _ := capToy(context.Background(), &sc)
+				sum += s.OutageProb
+			}
+			if pass := sum/3 <= lim; pass != (d == 0) {
+				t.Errorf("limit %g: N=%d+%d gives outage %.4g", lim, res.Count, d, sum/3)
+			}
+		}
+	}
+}
+
+func TestCapacityRejectsBad(t *testing.T) {
+	req := capRequest(0)
+	req.Group = 3
+	_, err := capacityWith(context.Background(), req, Options{}, capToy)
+	var v loop.Violations
+	if !errors.As(err, &v) || v[0].Field != "group" {
+		t.Errorf("err %v", err)
+	}
+	req = capRequest(1.5)
+	req.Replications = -1
+	_, err = capacityWith(context.Background(), req, Options{}, capToy)
+	if !errors.As(err, &v) || len(v) != 2 {
+		t.Errorf("err %v, want outage_limit and replications", err)
+	}
+}
+
+// capBase: users spread evenly in distance over 50..500 m on three Rayleigh
+// taps at 3 km/h, 60 kbit/s on 3.84 Mchip/s (G_p = 64), fixed 5 dB target,
+// other-cell ratio 0.2: the model's own pole (G_p+γ)/(γ(1+f)) is 17.6 users.
+func capBase() loop.Scenario {
+	base := loop.CanonicalScenario()
+	base.Receiver.BitRateBps = 60e3
+	base.Groups[0].Count = 4
+	base.Groups[0].MaxDistanceM = 500
+	base.Groups[0].Speeds[0].SpeedKmh = 3
+	base.Run.Slots = 3000
+	base.Run.WarmupSlots = 300
+	return base
+}
+
+// meanOutage runs the scenario directly with loop.Run at count n on the
+// capacity search's seeds and returns the mean outage over reps.
+func meanOutage(t *testing.T, base loop.Scenario, n, reps int) float64 {
+	t.Helper()
+	var sum float64
+	for r := 0; r < reps; r++ {
+		sc := base
+		sc.Groups = append([]loop.UserGroup(nil), base.Groups...)
+		sc.Groups[0].Count = n
+		sc.Run.Seed = ReplicationSeed(base.Run.Seed, 0, r)
+		sc.Run.Replications = 1
+		rep, err := loop.Run(context.Background(), sc, loop.RunOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		sum += rep.Aggregate.OutageProbability.Value
+	}
+	return sum / float64(reps)
+}
+
+func TestCapacityReal(t *testing.T) {
+	limits := []float64{0.01, 0.05, 0.2}
+	seeds := []uint64{1, 2}
+	if testing.Short() {
+		limits = []float64{0.01, 0.2}
+		seeds = seeds[:1]
+	}
+	for _, seed := range seeds {
+		prev := 0
+		for _, lim := range limits {
+			base := capBase()
+			base.Run.Seed = seed
+			req := CapacityRequest{Base: base, OutageLimit: lim, Replications: 3, MaxCount: 40}
+			res, err := Capacity(context.Background(), req, Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Logf("seed %d limit %g: %s", seed, lim, res.Reason)
+			if res.Count < prev {
+				t.Errorf("seed %d: capacity %d at limit %g below %d at a tighter limit", seed, res.Count, lim, prev)
+			}
+			prev = res.Count
+			if res.BelowRange || res.AtRangeTop {
+				t.Fatalf("seed %d limit %g: capacity at the edge of the range: %+v", seed, lim, res)
+			}
+			// Direct runs at N (passes) and N+1 (fails) on the same seeds.
+			if o := meanOutage(t, base, res.Count, 3); o > lim {
+				t.Errorf("seed %d: direct outage at N=%d is %.4g > %g", seed, res.Count, o, lim)
+			}
+			if o := meanOutage(t, base, res.Count+1, 3); o <= lim {
+				t.Errorf("seed %d: direct outage at N+1=%d is %.4g <= %g", seed, res.Count+1, o, lim)
+			}
+			// Model pole (G_p+γ)/(γ·ν·(1+f)) = (64+3.1623)/(3.1623·1.2) = 17.70
+			// (derived from the single-receiver interference equation).
+			if math.Abs(res.ModelPole-17.70) > 0.01 {
+				t.Errorf("model pole %.3f, want 17.70", res.ModelPole)
+			}
+			want, _ := PoleCapacity(PoleParamsOf(base))
+			if res.Pole != want || res.Pole <= 0 {
+				t.Errorf("pole %g, want %g", res.Pole, want)
+			}
+		}
+	}
+}
+
+func TestCapacityDeterministic(t *testing.T) {
+	prev := runtime.GOMAXPROCS(0)
+	defer runtime.GOMAXPROCS(prev)
+	var ref []byte
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		res, err := Capacity(context.Background(), CapacityRequest{Base: capBase(), OutageLimit: 0.05, Replications: 2, MinCount: 12, MaxCount: 24}, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, _ := json.Marshal(res)
+		if ref == nil {
+			ref = b
+		} else if !bytes.Equal(ref, b) {
+			t.Errorf("GOMAXPROCS %d: capacity result differs", procs)
+		}
+	}
+}

@@ -1,0 +1,58 @@
+package tune
+
+import (
+	"context"
+	"fmt"
+	"math"
+
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// runScenario runs one replication of sc with loop.Run (sc.Run.Replications
+// is 1 and sc.Run.Seed the replication's seed) and takes the aggregate
+// figures of the report.
+func runScenario(ctx context.Context, sc *loop.Scenario) (Sample, error) {
+	rep, err := loop.Run(ctx, *sc, loop.RunOptions{})
+	if err != nil {
+		return Sample{}, err
+	}
+	return sampleOf(sc, rep)
+}
+
+// sampleOf extracts the per-replication figures from a one-replication
+// report. A figure the engine could not compute (NaN) is an error: the
+// comparison would be meaningless.
+func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
+	a := rep.Aggregate
+	s := Sample{
+		SIRErrorMeanDB: a.SIRErrorMeanDB.Value,
+		SIRErrorStdDB:  a.SIRErrorStdDB.Value,
+		OutageProb:     a.OutageProbability.Value,
+		BLER:           a.AchievedBLER.Value,
+		TxPowerMeanDBm: a.TxPowerMeanDBm.Value,
+		TimeAtMaxPower: a.MaxPowerFraction.Value,
+		NoiseRiseDB:    a.NoiseRiseMeanDB.Value,
+		UserSlots:      rep.SimulatedUserSlots,
+		Infeasible:     rep.Feasibility.Infeasible,
+	}
+	if sc.OuterLoop.Enabled {
+		s.BLERTarget = sc.OuterLoop.BLERTarget
+	}
+	for _, x := range []struct {
+		name string
+		v    float64
+	}{
+		{"sir_error_mean_db", s.SIRErrorMeanDB}, {"sir_error_std_db", s.SIRErrorStdDB},
+		{"outage_probability", s.OutageProb}, {"tx_power_mean_dbm", s.TxPowerMeanDBm},
+	} {
+		if math.IsNaN(x.v) || math.IsInf(x.v, 0) {
+			return Sample{}, fmt.Errorf("tune: the engine returned %s = %g (seed %d)", x.name, x.v, sc.Run.Seed)
+		}
+	}
+	for _, p := range []*float64{&s.BLER, &s.TimeAtMaxPower, &s.NoiseRiseDB} {
+		if math.IsNaN(*p) || math.IsInf(*p, 0) {
+			*p = 0
+		}
+	}
+	return s, nil
+}

@@ -1,0 +1,632 @@
+package tune
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"runtime"
+
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// Defaults and limits of a tuning request.
+const (
+	DefaultConfidence        = 0.95
+	DefaultMinReplications   = 2
+	DefaultMaxReplications   = 32
+	DefaultBatchReplications = 2
+	MaxConditions            = 64
+	// MaxCandidateRuns bounds candidates × conditions × max_replications.
+	MaxCandidateRuns = 1000000
+	// BarelyHelpsFraction: power control "barely helps" in a condition when
+	// the chosen setting improves the judged figure over fixed power by less
+	// than this fraction of the fixed-power value, or not significantly.
+	BarelyHelpsFraction = 0.1
+)
+
+// streamReplicationSeed is the stream kind of the per-replication seeds.
+const streamReplicationSeed fading.StreamKind = 901
+
+// ReplicationSeed is the seed of replication r under condition c of a
+// search seeded with seed: the first Uint64 of fading.NewStream(seed, c, r,
+// 901). Every candidate under condition c uses it for replication r (common
+// random numbers), and so does the fixed-power baseline; the capacity search
+// uses condition 0 for every user count.
+func ReplicationSeed(seed uint64, c, r int) uint64 {
+	return fading.NewStream(seed, c, r, streamReplicationSeed).Uint64()
+}
+
+// Budget bounds the effort of a search.
+type Budget struct {
+	// MinReplications every candidate gets under every condition before any
+	// comparison, [2, MaxReplications]; 0 means DefaultMinReplications.
+	MinReplications int `json:"min_replications"`
+	// MaxReplications any candidate may get under any condition,
+	// [MinReplications, loop.MaxReplications]; 0 means DefaultMaxReplications.
+	MaxReplications int `json:"max_replications"`
+	// BatchReplications added per round to each candidate still in
+	// contention, [1, 100]; 0 means DefaultBatchReplications.
+	BatchReplications int `json:"batch_replications"`
+	// MaxUserSlots bounds the simulated users × slots of all runs
+	// (baseline included); 0 means no bound beyond MaxReplications.
+	MaxUserSlots int64 `json:"max_user_slots"`
+}
+
+// Request is one tuning question: which point of the grid of Axes is best
+// for Objective over the weighted Conditions, at Confidence.
+type Request struct {
+	// Base is the scenario every candidate starts from; its run.seed seeds
+	// every replication (ReplicationSeed) and its run.replications is
+	// ignored (the budget decides).
+	Base loop.Scenario `json:"base"`
+	// Axes span the candidate settings (grid order, see Point).
+	Axes []Axis `json:"axes"`
+	// Conditions to be robust over; empty means one condition, the base
+	// scenario as it is, weight 1.
+	Conditions []Condition `json:"conditions"`
+	// Objective is what is minimised.
+	Objective Objective `json:"objective"`
+	// Confidence of every interval and of the winner's paired test,
+	// [0.5, 0.9999]; 0 means DefaultConfidence.
+	Confidence float64 `json:"confidence"`
+	// Budget bounds the effort.
+	Budget Budget `json:"budget"`
+	// SkipBaseline leaves out the fixed-power baseline runs.
+	SkipBaseline bool `json:"skip_baseline"`
+}
+
+// Options are the call-time settings of Tune and Capacity that do not change
+// the result.
+type Options struct {
+	// Progress, when set, is called after every finished run (serialised,
+	// from worker goroutines; it must not block for long).
+	Progress func(Progress)
+	// Parallelism is the most runs in flight; 0 means GOMAXPROCS. The result
+	// does not depend on it.
+	Parallelism int
+}
+
+// Figures is every figure of one candidate under one condition, each with
+// its interval over replications at the request's confidence.
+type Figures struct {
+	SIRErrorMeanDB Estimate `json:"sir_error_mean_db"`
+	SIRErrorStdDB  Estimate `json:"sir_error_std_db"`
+	OutageProb     Estimate `json:"outage_prob"`
+	BLER           Estimate `json:"bler"`
+	// BLERTarget is the outer loop's τ (0 when the outer loop is off).
+	BLERTarget     float64  `json:"bler_target"`
+	TxPowerMeanDBm Estimate `json:"tx_power_mean_dbm"`
+	TimeAtMaxPower Estimate `json:"time_at_max_power"`
+	NoiseRiseDB    Estimate `json:"noise_rise_db"`
+	// InfeasibleReplications counts replications the engine flagged as
+	// infeasible load.
+	InfeasibleReplications int `json:"infeasible_replications"`
+}
+
+// figures summarises samples at confidence conf.
+func figures(xs []Sample, conf float64) Figures {
+	col := func(f func(Sample) float64) []float64 {
+		out := make([]float64, len(xs))
+		for i, x := range xs {
+			out[i] = f(x)
+		}
+		return out
+	}
+	fg := Figures{
+		SIRErrorMeanDB: meanCI(col(func(s Sample) float64 { return s.SIRErrorMeanDB }), conf),
+		SIRErrorStdDB:  meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf),
+		OutageProb:     clampEstimate(meanCI(col(func(s Sample) float64 { return s.OutageProb }), conf), 0, 1),
+		BLER:           clampEstimate(meanCI(col(func(s Sample) float64 { return s.BLER }), conf), 0, 1),
+		TxPowerMeanDBm: meanCI(col(func(s Sample) float64 { return s.TxPowerMeanDBm }), conf),
+		TimeAtMaxPower: clampEstimate(meanCI(col(func(s Sample) float64 { return s.TimeAtMaxPower }), conf), 0, 1),
+		NoiseRiseDB:    meanCI(col(func(s Sample) float64 { return s.NoiseRiseDB }), conf),
+	}
+	if len(xs) > 0 {
+		fg.BLERTarget = xs[0].BLERTarget
+	}
+	for _, x := range xs {
+		if x.Infeasible {
+			fg.InfeasibleReplications++
+		}
+	}
+	return fg
+}
+
+// CandidateResult is one candidate in one condition (or across conditions,
+// where Figures is empty and only Objective and DiffToBest are set).
+type CandidateResult struct {
+	// Candidate is the grid index.
+	Candidate int `json:"candidate"`
+	// Figures: every figure with its interval.
+	Figures Figures `json:"figures"`
+	// Objective is the figure minimised (weighted across conditions; the
+	// outage when no candidate met the Tx-power objective's constraints).
+	Objective Estimate `json:"objective"`
+	// DiffToBest is the paired difference of Objective, this candidate minus
+	// the leader, over their common replications (zero for the leader).
+	DiffToBest Estimate `json:"diff_to_best"`
+	// Status in the sequential procedure.
+	Status CandidateStatus `json:"status"`
+	// Feasible: the point estimates meet the objective's constraints
+	// (always true for unconstrained objectives).
+	Feasible bool `json:"feasible"`
+}
+
+// Decision is the verdict in one condition or across conditions.
+type Decision struct {
+	// Best is the recommended candidate (grid index) and Setting its point.
+	Best    int   `json:"best"`
+	Setting Point `json:"setting"`
+	// Declared: the leader's paired difference to every other surviving
+	// candidate excludes zero at the stated confidence, so Best is a winner,
+	// not a pick from a tie.
+	Declared bool `json:"declared"`
+	// TieSet lists the candidates not distinguishable from the leader
+	// (leader first); with more than one, Best was picked by TieRule.
+	TieSet []int `json:"tie_set"`
+	// Leader is the candidate with the best point estimate.
+	Leader int `json:"leader"`
+	// RunnerUp is the closest other candidate (-1 with one candidate) and
+	// Evidence the paired difference runner-up minus leader on the
+	// objective, with its interval at the stated confidence (positive: the
+	// runner-up is worse).
+	RunnerUp int      `json:"runner_up"`
+	Evidence Estimate `json:"evidence"`
+	// ConstraintsUnmet: the Tx-power objective's constraints were met by no
+	// candidate; candidates were ranked by outage instead.
+	ConstraintsUnmet bool `json:"constraints_unmet"`
+	// Reason is a short plain-language account built from the figures.
+	Reason string `json:"reason"`
+}
+
+// Baseline is the no-power-control reference of one condition: the base
+// scenario under that condition with inner_loop.mode FIXED_POWER (every user
+// at inner_loop.fixed_power_dbm), on the same replication seeds as the
+// candidates.
+type Baseline struct {
+	Figures Figures `json:"figures"`
+	// Gain is the paired improvement of the recommended setting over fixed
+	// power on the judged figure (baseline minus recommended; positive =
+	// power control helps): SIR error std in dB for that objective, outage
+	// probability otherwise.
+	Gain Estimate `json:"gain"`
+	// BarelyHelps: Gain's interval reaches zero or Gain is below
+	// BarelyHelpsFraction of the baseline's figure.
+	BarelyHelps bool `json:"barely_helps"`
+}
+
+// ConditionResult is everything about one condition.
+type ConditionResult struct {
+	Name       string            `json:"name"`
+	Weight     float64           `json:"weight"`
+	Decision   Decision          `json:"decision"`
+	Candidates []CandidateResult `json:"candidates"`
+	Baseline   *Baseline         `json:"baseline,omitempty"`
+	// DopplerProductMax is the largest f_D·T over the users of the
+	// recommended setting (f_D = v·f_c/c, T = 1/update_rate_hz).
+	DopplerProductMax float64 `json:"doppler_product_max"`
+}
+
+// Recommendation is the answer of Tune.
+type Recommendation struct {
+	Objective  Objective `json:"objective"`
+	Confidence float64   `json:"confidence"`
+	// Axes as resolved (values listed).
+	Axes []Axis `json:"axes"`
+	// Candidates in grid order.
+	Candidates []Point `json:"candidates"`
+	// Conditions in request order.
+	Conditions []ConditionResult `json:"conditions"`
+	// Overall is the verdict on the weighted combination over conditions
+	// (the same as the single condition's when there is one).
+	Overall Decision `json:"overall"`
+	// OverallCandidates: the weighted objective per candidate.
+	OverallCandidates []CandidateResult `json:"overall_candidates"`
+	// Effort spent.
+	Effort Effort `json:"effort"`
+	// Seed is the base scenario's run.seed.
+	Seed uint64 `json:"seed"`
+	// TieRule states how ties are broken.
+	TieRule string `json:"tie_rule"`
+}
+
+// TieRule is the documented order in which a tie set is broken: the first
+// candidate in this order wins.
+const TieRule = "smaller inner_loop.step_db, then lower inner_loop.update_rate_hz, " +
+	"then smaller outer_loop.up_step_db, then longer inner_loop.feedback_delay_slots, " +
+	"then smaller values of the other axes in axis order, then grid order"
+
+var tiePriority = []struct {
+	path string
+	asc  bool
+}{
+	{"inner_loop.step_db", true},
+	{"inner_loop.update_rate_hz", true},
+	{"outer_loop.up_step_db", true},
+	{"inner_loop.feedback_delay_slots", false},
+}
+
+// tieKey names the TieRule key that puts a before b, e.g. "smaller
+// inner_loop.step_db".
+func tieKey(a, b Point) string {
+	for _, tp := range tiePriority {
+		va, oka := a.Value(tp.path)
+		vb, okb := b.Value(tp.path)
+		if !oka || !okb || va == vb {
+			continue
+		}
+		switch {
+		case tp.path == "inner_loop.update_rate_hz":
+			return "lower inner_loop.update_rate_hz"
+		case tp.asc:
+			return "smaller " + tp.path
+		default:
+			return "longer " + tp.path
+		}
+	}
+	for i := range a.Coords {
+		if a.Coords[i].Value != b.Coords[i].Value {
+			return "smaller " + a.Coords[i].Path
+		}
+	}
+	return "grid order"
+}
+
+// tieLess orders grid points by TieRule.
+func tieLess(a, b Point) bool {
+	for _, tp := range tiePriority {
+		va, oka := a.Value(tp.path)
+		vb, okb := b.Value(tp.path)
+		if !oka || !okb || va == vb {
+			continue
+		}
+		if tp.asc {
+			return va < vb
+		}
+		return va > vb
+	}
+	for i := range a.Coords {
+		if a.Coords[i].Value != b.Coords[i].Value {
+			return a.Coords[i].Value < b.Coords[i].Value
+		}
+	}
+	return a.Index < b.Index
+}
+
+// evaluator runs one replication of sc (run.replications = 1, run.seed
+// set, normalised and valid) and returns its figures.
+type evaluator func(ctx context.Context, sc *loop.Scenario) (Sample, error)
+
+// userSlots is the work of one replication of sc.
+func userSlots(sc *loop.Scenario) int64 {
+	return int64(sc.Users()) * sc.TotalSlots()
+}
+
+// DopplerProductMax returns the largest f_D·T over the users of sc: f_D =
+// v·f_c/c (fading.DopplerHz) over every speed of every group, T =
+// 1/inner_loop.update_rate_hz. It returns 0 for a scenario without speeds or
+// with a non-positive update rate.
+func DopplerProductMax(sc loop.Scenario) float64 {
+	if !(sc.InnerLoop.UpdateRateHz > 0) {
+		return 0
+	}
+	var m float64
+	for _, g := range sc.Groups {
+		for _, s := range g.Speeds {
+			m = math.Max(m, fading.DopplerHz(s.SpeedKmh, g.CarrierFrequencyHz)/sc.InnerLoop.UpdateRateHz)
+		}
+	}
+	return m
+}
+
+type settings struct {
+	conf                        float64
+	minReps, maxReps, batchReps int
+	maxUserSlots                int64
+	weights                     []float64
+	conds                       []Condition
+}
+
+func (req *Request) check(nK int) (settings, loop.Violations) {
+	var v loop.Violations
+	add := func(f, format string, args ...any) {
+		v = append(v, loop.Violation{Field: f, Rule: fmt.Sprintf(format, args...)})
+	}
+	s := settings{conf: req.Confidence}
+	if s.conf == 0 {
+		s.conf = DefaultConfidence
+	}
+	if !(s.conf >= 0.5 && s.conf <= 0.9999) {
+		add("confidence", "must be in [0.5, 0.9999], got %g", req.Confidence)
+	}
+	req.Objective.validate(func(p, r string) { add(p, "%s", r) })
+	b := req.Budget
+	s.minReps, s.maxReps, s.batchReps = b.MinReplications, b.MaxReplications, b.BatchReplications
+	if s.minReps == 0 {
+		s.minReps = DefaultMinReplications
+	}
+	if s.maxReps == 0 {
+		s.maxReps = max(DefaultMaxReplications, s.minReps)
+	}
+	if s.batchReps == 0 {
+		s.batchReps = DefaultBatchReplications
+	}
+	if s.minReps < 2 || s.minReps > loop.MaxReplications {
+		add("budget.min_replications", "must be in [2, %d] (a paired interval needs 2), got %d", loop.MaxReplications, b.MinReplications)
+	}
+	if s.maxReps < s.minReps || s.maxReps > loop.MaxReplications {
+		add("budget.max_replications", "must be in [min_replications, %d], got %d", loop.MaxReplications, b.MaxReplications)
+	}
+	if s.batchReps < 1 || s.batchReps > 100 {
+		add("budget.batch_replications", "must be in [1, 100], got %d", b.BatchReplications)
+	}
+	if b.MaxUserSlots < 0 {
+		add("budget.max_user_slots", "must be >= 0 (0: no bound), got %d", b.MaxUserSlots)
+	}
+	s.maxUserSlots = b.MaxUserSlots
+	s.conds = req.Conditions
+	if len(s.conds) == 0 {
+		s.conds = []Condition{{Name: "base", Weight: 1}}
+	}
+	if len(s.conds) > MaxConditions {
+		add("conditions", "at most %d conditions, got %d", MaxConditions, len(s.conds))
+		return s, v
+	}
+	var wsum float64
+	for i, c := range s.conds {
+		if !(c.Weight > 0 && c.Weight <= 1e6) {
+			add(fmt.Sprintf("conditions[%d].weight", i), "must be in (0, 1e6], got %g", c.Weight)
+		}
+		wsum += c.Weight
+		for j, o := range c.Overrides {
+			if o.Path == "" {
+				add(fmt.Sprintf("conditions[%d].overrides[%d].path", i, j), "must name a scenario field")
+			} else if math.IsNaN(o.Value) || math.IsInf(o.Value, 0) {
+				add(fmt.Sprintf("conditions[%d].overrides[%d].value", i, j), "must be finite, got %g", o.Value)
+			}
+		}
+	}
+	if len(v) == 0 {
+		s.weights = make([]float64, len(s.conds))
+		for i, c := range s.conds {
+			s.weights[i] = c.Weight / wsum
+		}
+	}
+	if len(v) == 0 && float64(nK)*float64(len(s.conds))*float64(s.maxReps) > MaxCandidateRuns {
+		add("budget.max_replications", "candidates × conditions × max_replications = %d × %d × %d exceeds %d",
+			nK, len(s.conds), s.maxReps, MaxCandidateRuns)
+	}
+	return s, v
+}
+
+// buildScenarios returns the normalised, validated scenario of every
+// candidate k under every condition c ([k][c]), with run.replications 1.
+func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loop.Scenario, loop.Violations) {
+	var v loop.Violations
+	out := make([][]loop.Scenario, len(pts))
+	condOK := make([]bool, len(conds))
+	for c, cd := range conds {
+		sc := cloneScenario(base)
+		if err := cd.Apply(&sc); err != nil {
+			v = append(v, loop.Violation{Field: fmt.Sprintf("conditions[%d].overrides", c), Rule: err.Error()})
+			continue
+		}
+		condOK[c] = true
+	}
+	if len(v) > 0 {
+		return nil, v
+	}
+	seen := map[string]bool{}
+	for k, p := range pts {
+		out[k] = make([]loop.Scenario, len(conds))
+		for c, cd := range conds {
+			sc := cloneScenario(base)
+			_ = cd.Apply(&sc) // checked above
+			if err := p.Apply(&sc); err != nil {
+				v = append(v, loop.Violation{Field: "axes", Rule: err.Error()})
+				return nil, v
+			}
+			sc.Run.Replications = 1
+			sc.Normalise()
+			for _, x := range sc.Validate() {
+				key := x.Field + "\x00" + x.Rule
+				if seen[key] {
+					continue
+				}
+				seen[key] = true
+				x.Rule = fmt.Sprintf("%s (candidate %s, condition %q)", x.Rule, p.Label(), cd.Name)
+				v = append(v, x)
+			}
+			out[k][c] = sc
+		}
+	}
+	if len(v) > 0 {
+		return nil, v
+	}
+	return out, nil
+}
+
+// Tune answers req: every candidate of the grid under every condition, with
+// common random numbers and sequential allocation of replications (see the
+// package documentation). Bad requests return loop.Violations naming each
+// field; a budget too small for the first round returns *BudgetError; a
+// cancelled ctx stops every run and returns ctx.Err(). The result is
+// identical for identical requests whatever opt.Parallelism or GOMAXPROCS.
+func Tune(ctx context.Context, req Request, opt Options) (*Recommendation, error) {
+	return tuneWith(ctx, req, opt, runScenario)
+}
+
+func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
+	grid, err := NewGrid(req.Base, req.Axes)
+	if err != nil {
+		return nil, err
+	}
+	pts := grid.Points()
+	set, v := req.check(len(pts))
+	if len(v) > 0 {
+		return nil, v
+	}
+	scs, v := buildScenarios(req.Base, pts, set.conds)
+	if len(v) > 0 {
+		return nil, v
+	}
+	seed := req.Base.Run.Seed
+	e := &engine{
+		nK: len(pts), nC: len(set.conds), w: set.weights,
+		obj: req.Objective, conf: set.conf,
+		minReps: set.minReps, maxReps: set.maxReps, batch: set.batchReps,
+		maxUserSlots: set.maxUserSlots,
+		jobCost:      func(k, c int) int64 { return userSlots(&scs[k][c]) },
+		tieLess:      func(a, b int) bool { return tieLess(pts[a], pts[b]) },
+		parallel:     opt.Parallelism,
+		progress:     opt.Progress,
+		run: func(ctx context.Context, k, c, r int) (Sample, error) {
+			sc := scs[k][c]
+			sc.Run.Seed = ReplicationSeed(seed, c, r)
+			return eval(ctx, &sc)
+		},
+	}
+	if e.parallel <= 0 {
+		e.parallel = runtime.GOMAXPROCS(0)
+	}
+	outs, err := e.search(ctx)
+	if err != nil {
+		return nil, err
+	}
+	rec := &Recommendation{
+		Objective:  req.Objective,
+		Confidence: set.conf,
+		Axes:       grid.Axes,
+		Candidates: pts,
+		Effort:     e.effort,
+		Seed:       seed,
+		TieRule:    TieRule,
+	}
+	for c, cd := range set.conds {
+		o := outs[c]
+		cr := ConditionResult{Name: cd.Name, Weight: cd.Weight}
+		cr.Candidates = make([]CandidateResult, len(pts))
+		for k := range pts {
+			cr.Candidates[k] = CandidateResult{
+				Candidate:  k,
+				Figures:    figures(e.samples[k][c], set.conf),
+				Objective:  o.score[k],
+				DiffToBest: o.diff[k],
+				Status:     o.status[k],
+				Feasible:   o.feasible[k],
+			}
+		}
+		cr.Decision = decision(o, pts)
+		cr.DopplerProductMax = DopplerProductMax(scs[o.chosen][c])
+		rec.Conditions = append(rec.Conditions, cr)
+	}
+	if !req.SkipBaseline {
+		if err := runBaselines(ctx, req, set, e, outs, rec, eval); err != nil {
+			return nil, err
+		}
+	}
+	last := outs[len(outs)-1]
+	rec.Overall = decision(last, pts)
+	rec.OverallCandidates = make([]CandidateResult, len(pts))
+	for k := range pts {
+		rec.OverallCandidates[k] = CandidateResult{
+			Candidate: k, Objective: last.score[k], DiffToBest: last.diff[k],
+			Status: last.status[k], Feasible: last.feasible[k],
+		}
+	}
+	for c := range rec.Conditions {
+		rec.Conditions[c].Decision.Reason = conditionReason(rec, c)
+	}
+	rec.Overall.Reason = overallReason(rec)
+	return rec, nil
+}
+
+func decision(o scopeOutcome, pts []Point) Decision {
+	return Decision{
+		Best:             o.chosen,
+		Setting:          pts[o.chosen],
+		Declared:         o.declared,
+		TieSet:           append([]int(nil), o.tieSet...),
+		Leader:           o.best,
+		RunnerUp:         o.runnerUp,
+		Evidence:         o.evidence,
+		ConstraintsUnmet: o.fallback,
+	}
+}
+
+// runBaselines runs the fixed-power baseline of every condition on the seeds
+// of the recommended candidate's replications and fills rec.Conditions[c].
+// Baseline.
+func runBaselines(ctx context.Context, req Request, set settings, e *engine, outs []scopeOutcome, rec *Recommendation, eval evaluator) error {
+	seed := req.Base.Run.Seed
+	bases := make([]loop.Scenario, len(set.conds))
+	var jobs []job
+	var cost int64
+	for c, cd := range set.conds {
+		sc := cloneScenario(req.Base)
+		if err := cd.Apply(&sc); err != nil {
+			return err
+		}
+		sc.InnerLoop.Mode = loop.InnerModeFixedPower
+		sc.Run.Replications = 1
+		sc.Normalise()
+		if vv := sc.Validate(); len(vv) > 0 {
+			for i := range vv {
+				vv[i].Rule += fmt.Sprintf(" (fixed-power baseline, condition %q)", cd.Name)
+			}
+			return vv
+		}
+		bases[c] = sc
+		n := len(e.samples[outs[c].chosen][c])
+		for r := 0; r < n; r++ {
+			jobs = append(jobs, job{k: 0, c: c, r: r})
+		}
+		cost += int64(n) * userSlots(&sc)
+	}
+	if set.maxUserSlots > 0 && e.effort.UserSlots+cost > set.maxUserSlots {
+		// Not enough budget left for the full baseline: run the first
+		// MinReplications only.
+		jobs = jobs[:0]
+		for c := range set.conds {
+			for r := 0; r < set.minReps; r++ {
+				jobs = append(jobs, job{k: 0, c: c, r: r})
+			}
+		}
+	}
+	samples := make([][]Sample, len(set.conds))
+	err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
+		sc := bases[j.c]
+		sc.Run.Seed = ReplicationSeed(seed, j.c, j.r)
+		return eval(ctx, &sc)
+	}, func(j job, s Sample) {
+		samples[j.c] = append(samples[j.c], s)
+		e.effort.BaselineReplications++
+		e.effort.UserSlots += s.UserSlots
+	})
+	if err != nil {
+		return err
+	}
+	rec.Effort = e.effort
+	for c := range set.conds {
+		chosen := e.samples[outs[c].chosen][c]
+		judge := func(s Sample) float64 { return s.OutageProb }
+		if req.Objective.Kind == ObjectiveMinSIRErrorStd {
+			judge = func(s Sample) float64 { return s.SIRErrorStdDB }
+		}
+		a := make([]float64, len(chosen))
+		for r, s := range chosen {
+			a[r] = judge(s)
+		}
+		b := make([]float64, len(samples[c]))
+		for r, s := range samples[c] {
+			b[r] = judge(s)
+		}
+		gain, _ := pairedDiff(a, b, set.conf, nil)
+		bl := &Baseline{Figures: figures(samples[c], set.conf), Gain: gain}
+		ref := meanCI(b, set.conf).Mean
+		bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsFraction*math.Abs(ref)
+		rec.Conditions[c].Baseline = bl
+	}
+	return nil
+}

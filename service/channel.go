@@ -1,0 +1,310 @@
+package service
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"regexp"
+	"strings"
+	"sync"
+	"unsafe"
+
+	"github.com/fadeloop/fadeloop/fading"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// channelServer implements fadeloop.v1.ChannelService.
+type channelServer struct {
+	pb.UnimplementedChannelServiceServer
+	s *Server
+}
+
+// chunkTargetBytes is the default payload of one StreamGains chunk.
+const chunkTargetBytes = 512 << 10
+
+// channelConfigFromProto converts a ChannelSpec to fading's ChannelConfig,
+// resolving a built-in profile name. Bad input is returned as violations
+// with field paths under prefix (e.g. "channel.").
+func channelConfigFromProto(m *pb.ChannelSpec, prefix string) (fading.ChannelConfig, []Violation) {
+	cfg := fading.ChannelConfig{
+		DopplerHz:    m.GetDopplerHz(),
+		SampleRateHz: m.GetSampleRateHz(),
+		RicianKDB:    m.GetRicianKDb(),
+		LOS:          m.GetLos(),
+		LOSAngleRad:  m.GetLosAngleRad(),
+		Sinusoids:    int(m.GetSinusoids()),
+	}
+	switch m.GetGenerator() {
+	case pb.Generator_GENERATOR_DEFAULT:
+		cfg.Generator = fading.GeneratorDefault
+	case pb.Generator_GENERATOR_SUM_OF_SINUSOIDS:
+		cfg.Generator = fading.GeneratorSumOfSinusoids
+	case pb.Generator_GENERATOR_SPECTRAL:
+		cfg.Generator = fading.GeneratorSpectral
+	default:
+		return cfg, []Violation{{Field: prefix + "generator", Description: "must be a defined generator other than GENERATOR_UNSPECIFIED"}}
+	}
+	if taps := m.GetCustomTaps(); len(taps) > 0 {
+		cfg.Profile = fading.Profile{Name: "custom", Taps: make([]fading.Tap, len(taps))}
+		for i, t := range taps {
+			cfg.Profile.Taps[i] = fading.Tap{DelayNs: t.GetDelayNs(), PowerDB: t.GetPowerDb()}
+		}
+	} else {
+		p, err := fading.BuiltinProfile(m.GetProfile())
+		if err != nil {
+			return cfg, []Violation{{Field: prefix + "profile", Description: paramRule(err)}}
+		}
+		cfg.Profile = p
+	}
+	if err := cfg.Validate(); err != nil {
+		return cfg, []Violation{{Field: prefix + fadingParamPath(err, len(m.GetCustomTaps()) > 0), Description: paramRule(err)}}
+	}
+	return cfg, nil
+}
+
+var tapsParam = regexp.MustCompile(`^Profile\.Taps\[(\d+)\]\.(DelayNs|PowerDB)$`)
+
+// fadingParamPath maps the Go parameter name of a fading *ParamError to the
+// ChannelSpec field path.
+func fadingParamPath(err error, custom bool) string {
+	var pe *fading.ParamError
+	if !errors.As(err, &pe) {
+		return "profile"
+	}
+	if m := tapsParam.FindStringSubmatch(pe.Param); m != nil {
+		f := "delay_ns"
+		if m[2] == "PowerDB" {
+			f = "power_db"
+		}
+		return "custom_taps[" + m[1] + "]." + f
+	}
+	switch pe.Param {
+	case "DopplerHz":
+		return "doppler_hz"
+	case "SampleRateHz":
+		return "sample_rate_hz"
+	case "RicianKDB":
+		return "rician_k_db"
+	case "LOSAngleRad":
+		return "los_angle_rad"
+	case "Generator":
+		return "generator"
+	case "Sinusoids":
+		return "sinusoids"
+	}
+	if strings.HasPrefix(pe.Param, "Profile") {
+		if custom {
+			return "custom_taps"
+		}
+		return "profile"
+	}
+	return strings.ToLower(pe.Param)
+}
+
+// paramRule returns the rule text of a fading *ParamError (or the error).
+func paramRule(err error) string {
+	var pe *fading.ParamError
+	if errors.As(err, &pe) {
+		return pe.Rule
+	}
+	return err.Error()
+}
+
+// isLittleEndian reports the byte order of this machine: complex64 values
+// are sent as their in-memory bytes on little-endian machines.
+var isLittleEndian = func() bool {
+	x := uint16(1)
+	return *(*byte)(unsafe.Pointer(&x)) == 1
+}()
+
+// gainChunk is one StreamGains chunk buffer.
+type gainChunk struct {
+	samples []complex64 // links·n·taps values, [link][sample][tap]
+	bytes   []byte      // the wire form (aliases samples on little-endian machines)
+	n       int         // samples per link in the chunk
+	offset  int64
+	index   int64
+}
+
+// StreamGains streams K links' complex tap gains in chunks.
+func (c *channelServer) StreamGains(req *pb.StreamGainsRequest, stream pb.ChannelService_StreamGainsServer) error {
+	s := c.s
+	ctx := stream.Context()
+	vs := s.validator.check(req, "")
+	var cfg fading.ChannelConfig
+	if req.GetChannel() != nil {
+		var cvs []Violation
+		cfg, cvs = channelConfigFromProto(req.GetChannel(), "channel.")
+		if len(vs) == 0 {
+			vs = append(vs, cvs...)
+		} else {
+			vs = mergeViolations(vs, cvs)
+		}
+	}
+	if len(vs) > 0 {
+		return s.reject(vs)
+	}
+	links := int(req.GetLinks())
+	taps := len(cfg.Profile.Taps)
+	total := req.GetSamples()
+	perSample := 8 * links * taps // bytes per sample index over all links
+	maxPayload := s.cfg.MaxSendMessageBytes - 1024
+	if perSample > maxPayload {
+		return s.reject([]Violation{{Field: "links", Description: fmt.Sprintf(
+			"links × taps × 8 bytes = %d bytes per sample exceeds the server's maximum message size %d bytes",
+			perSample, s.cfg.MaxSendMessageBytes)}})
+	}
+	chunk := int(req.GetChunkSamples())
+	if chunk == 0 {
+		chunk = max(1, chunkTargetBytes/perSample)
+	}
+	chunk = min(chunk, maxPayload/perSample)
+	if int64(chunk) > total {
+		chunk = int(total)
+	}
+	cost := satMul(satMul(int64(links), total), int64(taps))
+	release, err := s.admit(ctx, "StreamGains", cost)
+	if err != nil {
+		return err
+	}
+	defer release()
+	s.hook("StreamGains")
+
+	chans := make([]*fading.Channel, links)
+	for k := range chans {
+		ch, err := fading.NewChannel(cfg, req.GetSeed(), k)
+		if err != nil {
+			return s.reject([]Violation{{Field: "channel." + fadingParamPath(err, len(req.GetChannel().GetCustomTaps()) > 0), Description: paramRule(err)}})
+		}
+		chans[k] = ch
+	}
+
+	// A producer fills chunk buffers (links split over workers) while the
+	// handler sends the previous one; three buffers circulate.
+	const nbuf = 3
+	free := make(chan *gainChunk, nbuf)
+	ready := make(chan *gainChunk, nbuf)
+	for range nbuf {
+		b := &gainChunk{samples: make([]complex64, chunk*links*taps)}
+		if isLittleEndian {
+			b.bytes = unsafe.Slice((*byte)(unsafe.Pointer(&b.samples[0])), len(b.samples)*8)
+		} else {
+			b.bytes = make([]byte, len(b.samples)*8)
+		}
+		free <- b
+	}
+	genCtx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	workers := min(s.cfg.EngineParallelism, links)
+	prod := goSafe(s.cfg.Logger, ctx, func() error {
+		defer close(ready)
+		var off, idx int64
+		for off < total {
+			var b *gainChunk
+			select {
+			case b = <-free:
+			case <-genCtx.Done():
+				return genCtx.Err()
+			}
+			n := int(min(int64(chunk), total-off))
+			fillGains(chans, b.samples, n, taps, workers)
+			if !isLittleEndian {
+				encodeLE(b.bytes, b.samples[:n*links*taps])
+			}
+			b.n, b.offset, b.index = n, off, idx
+			off += int64(n)
+			idx++
+			select {
+			case ready <- b:
+			case <-genCtx.Done():
+				return genCtx.Err()
+			}
+		}
+		return nil
+	})
+	var sent int64
+	resp := &pb.StreamGainsResponse{Links: int32(links), Taps: int32(taps)}
+	for b := range ready {
+		resp.ChunkIndex = b.index
+		resp.SampleOffset = b.offset
+		resp.Samples = int32(b.n)
+		resp.Gains = b.bytes[:b.n*perSample]
+		if err := stream.Send(resp); err != nil {
+			cancel()
+			for range ready {
+			}
+			<-prod
+			return statusFromError(ctx, err)
+		}
+		sent += int64(b.n) * int64(links) * int64(taps)
+		s.metrics.gainSamples.Add(float64(int64(b.n) * int64(links) * int64(taps)))
+		free <- b
+	}
+	if err := <-prod; err != nil {
+		return statusFromError(ctx, err)
+	}
+	return nil
+}
+
+// fillGains writes n samples of every link into dst ([link][sample][tap]),
+// splitting the links over workers goroutines.
+func fillGains(chans []*fading.Channel, dst []complex64, n, taps, workers int) {
+	per := n * taps
+	if workers <= 1 || len(chans) == 1 {
+		for k, ch := range chans {
+			ch.FillTaps(dst[k*per : (k+1)*per])
+		}
+		return
+	}
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := w; k < len(chans); k += workers {
+				chans[k].FillTaps(dst[k*per : (k+1)*per])
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+// encodeLE writes x as little-endian float32 pairs (big-endian machines).
+func encodeLE(dst []byte, x []complex64) {
+	for i, v := range x {
+		putF32(dst[8*i:], real(v))
+		putF32(dst[8*i+4:], imag(v))
+	}
+}
+
+func putF32(b []byte, f float32) {
+	u := *(*uint32)(unsafe.Pointer(&f))
+	b[0], b[1], b[2], b[3] = byte(u), byte(u>>8), byte(u>>16), byte(u>>24)
+}
+
+// satMul multiplies non-negative a and b, saturating at MaxInt64.
+func satMul(a, b int64) int64 {
+	if a <= 0 || b <= 0 {
+		return 0
+	}
+	if a > (1<<63-1)/b {
+		return 1<<63 - 1
+	}
+	return a * b
+}
+
+// mergeViolations appends the semantic violations whose field is not
+// already named by a proto-rule violation.
+func mergeViolations(protoVs, semVs []Violation) []Violation {
+	seen := make(map[string]bool, len(protoVs))
+	for _, v := range protoVs {
+		seen[v.Field] = true
+	}
+	out := protoVs
+	for _, v := range semVs {
+		if !seen[v.Field] {
+			out = append(out, v)
+		}
+	}
+	return out
+}

@@ -1,0 +1,220 @@
+package service
+
+import (
+	"bytes"
+	"context"
+	"encoding/binary"
+	"math"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc/codes"
+
+	"github.com/fadeloop/fadeloop/fading"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+func eva(dopplerHz float64) *pb.ChannelSpec {
+	return &pb.ChannelSpec{
+		DopplerHz:    dopplerHz,
+		SampleRateHz: 1500,
+		Profile:      "EVA",
+		Generator:    pb.Generator_GENERATOR_DEFAULT,
+	}
+}
+
+// collectGains reads a StreamGains stream and returns the concatenated
+// per-link traces as complex64, [link][sample][tap], checking the chunk
+// headers on the way.
+func collectGains(t *testing.T, env *testEnv, req *pb.StreamGainsRequest) ([][]complex64, int) {
+	t.Helper()
+	st, err := env.channel.StreamGains(context.Background(), req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	msgs, err := drain(st.Recv)
+	if err != nil {
+		t.Fatalf("StreamGains: %v", err)
+	}
+	links := int(req.GetLinks())
+	out := make([][]complex64, links)
+	var off int64
+	taps := 0
+	for i, m := range msgs {
+		if m.GetChunkIndex() != int64(i) || m.GetSampleOffset() != off {
+			t.Fatalf("chunk %d: index %d offset %d, want %d %d", i, m.GetChunkIndex(), m.GetSampleOffset(), i, off)
+		}
+		taps = int(m.GetTaps())
+		n := int(m.GetSamples())
+		if int(m.GetLinks()) != links || len(m.GetGains()) != 8*links*n*taps {
+			t.Fatalf("chunk %d: links %d, %d bytes for %d samples × %d taps", i, m.GetLinks(), len(m.GetGains()), n, taps)
+		}
+		g := m.GetGains()
+		for k := range links {
+			for j := range n * taps {
+				p := 8 * (k*n*taps + j)
+				re := math.Float32frombits(binary.LittleEndian.Uint32(g[p:]))
+				im := math.Float32frombits(binary.LittleEndian.Uint32(g[p+4:]))
+				out[k] = append(out[k], complex(re, im))
+			}
+		}
+		off += int64(n)
+	}
+	if off != req.GetSamples() {
+		t.Fatalf("got %d samples per link, want %d", off, req.GetSamples())
+	}
+	return out, taps
+}
+
+func TestStreamGainsMatchesEngineInAnyChunking(t *testing.T) {
+	for _, tr := range transports {
+		t.Run(string(tr), func(t *testing.T) {
+			env := startEnv(t, tr, Config{})
+			const links, samples, seed = 3, 1000, 42
+			base := &pb.StreamGainsRequest{Channel: eva(55.6), Links: links, Samples: samples, Seed: seed}
+			whole, taps := collectGains(t, env, base)
+			if taps != 9 {
+				t.Fatalf("EVA has 9 taps, stream says %d", taps)
+			}
+			small := &pb.StreamGainsRequest{Channel: eva(55.6), Links: links, Samples: samples, Seed: seed, ChunkSamples: 7}
+			chunked, _ := collectGains(t, env, small)
+			// The engine itself, link k seeded with (seed, user k).
+			prof, err := fading.BuiltinProfile("EVA")
+			if err != nil {
+				t.Fatal(err)
+			}
+			for k := range links {
+				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: 55.6, SampleRateHz: 1500, Profile: prof}, seed, k)
+				if err != nil {
+					t.Fatal(err)
+				}
+				want := make([]complex64, samples*taps)
+				ch.FillTaps(want)
+				for i := range want {
+					if whole[k][i] != want[i] || chunked[k][i] != want[i] {
+						t.Fatalf("link %d value %d: stream %v, chunked %v, engine %v", k, i, whole[k][i], chunked[k][i], want[i])
+					}
+				}
+			}
+			// Links differ from each other (independent streams).
+			if whole[0][0] == whole[1][0] {
+				t.Errorf("links 0 and 1 start with the same gain %v", whole[0][0])
+			}
+		})
+	}
+}
+
+func TestStreamGainsSameSeedSameBytes(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{})
+	get := func(seed uint64) []byte {
+		st, err := env.channel.StreamGains(context.Background(), &pb.StreamGainsRequest{
+			Channel: &pb.ChannelSpec{DopplerHz: 10, SampleRateHz: 1000, CustomTaps: []*pb.Tap{{DelayNs: 0}, {DelayNs: 100, PowerDb: -3}},
+				Generator: pb.Generator_GENERATOR_SPECTRAL},
+			Links: 2, Samples: 3000, Seed: seed, ChunkSamples: 1000})
+		if err != nil {
+			t.Fatal(err)
+		}
+		msgs, err := drain(st.Recv)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var b []byte
+		for _, m := range msgs {
+			b = append(b, m.GetGains()...)
+		}
+		return b
+	}
+	a, b, c := get(5), get(5), get(6)
+	if !bytes.Equal(a, b) {
+		t.Error("same seed gave different bytes")
+	}
+	if bytes.Equal(a, c) {
+		t.Error("different seeds gave the same bytes")
+	}
+}
+
+func TestStreamGainsBadInput(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{MaxCost: 1e6})
+	cases := []struct {
+		name  string
+		req   *pb.StreamGainsRequest
+		code  codes.Code
+		field string
+	}{
+		{"generator unspecified", &pb.StreamGainsRequest{Channel: &pb.ChannelSpec{SampleRateHz: 1500, Profile: "EVA"}, Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.generator"},
+		{"empty taps and no profile", &pb.StreamGainsRequest{Channel: &pb.ChannelSpec{SampleRateHz: 1500, Generator: pb.Generator_GENERATOR_DEFAULT}, Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel"},
+		{"doppler above half the sample rate", &pb.StreamGainsRequest{Channel: eva(800), Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.doppler_hz"},
+		{"doppler at exactly half the sample rate", &pb.StreamGainsRequest{Channel: eva(750), Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.doppler_hz"},
+		{"unknown profile", &pb.StreamGainsRequest{Channel: &pb.ChannelSpec{SampleRateHz: 1500, Profile: "NOPE", Generator: pb.Generator_GENERATOR_DEFAULT}, Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.profile"},
+		{"taps not ascending", &pb.StreamGainsRequest{Channel: &pb.ChannelSpec{SampleRateHz: 1500, Generator: pb.Generator_GENERATOR_DEFAULT,
+			CustomTaps: []*pb.Tap{{DelayNs: 100}, {DelayNs: 50}}}, Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.custom_taps[1].delay_ns"},
+		{"negative doppler", &pb.StreamGainsRequest{Channel: eva(-1), Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel.doppler_hz"},
+		{"zero links", &pb.StreamGainsRequest{Channel: eva(10), Links: 0, Samples: 10},
+			codes.InvalidArgument, "links"},
+		{"zero samples", &pb.StreamGainsRequest{Channel: eva(10), Links: 1, Samples: 0},
+			codes.InvalidArgument, "samples"},
+		{"missing channel", &pb.StreamGainsRequest{Links: 1, Samples: 10},
+			codes.InvalidArgument, "channel"},
+		{"cost over the bound", &pb.StreamGainsRequest{Channel: eva(10), Links: 100, Samples: 10000},
+			codes.ResourceExhausted, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			st, err := env.channel.StreamGains(context.Background(), c.req)
+			if err == nil {
+				_, err = st.Recv()
+			}
+			if c.code == codes.InvalidArgument {
+				wantInvalid(t, err, c.field)
+				return
+			}
+			s := wantCode(t, err, c.code)
+			if !bytes.Contains([]byte(s.Message()), []byte("max_cost")) {
+				t.Errorf("message %q does not name the bound max_cost", s.Message())
+			}
+		})
+	}
+}
+
+// TestStreamGainsCancelPrompt measures how fast a cancelled StreamGains
+// frees its run slot: the stream is cancelled mid-way, then a new call must
+// be admitted by a server with a single run slot and no queue.
+func TestStreamGainsCancelPrompt(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{MaxConcurrentRuns: 1, QueueLength: -1})
+	ctx, cancel := context.WithCancel(context.Background())
+	st, err := env.channel.StreamGains(ctx, &pb.StreamGainsRequest{Channel: eva(55.6), Links: 64, Samples: 1e7})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st.Recv(); err != nil {
+		t.Fatal(err)
+	}
+	cancel()
+	start := time.Now()
+	for {
+		st2, err := env.channel.StreamGains(context.Background(), &pb.StreamGainsRequest{Channel: eva(55.6), Links: 1, Samples: 10})
+		if err == nil {
+			_, err = st2.Recv()
+		}
+		if err == nil {
+			break
+		}
+		wantCode(t, err, codes.ResourceExhausted)
+		if time.Since(start) > 2*time.Second {
+			t.Fatal("run slot not freed 2 s after cancel")
+		}
+		time.Sleep(2 * time.Millisecond)
+	}
+	if d := time.Since(start); d > 100*time.Millisecond {
+		t.Errorf("run slot freed %v after cancel, want <= 100 ms", d)
+	} else {
+		t.Logf("run slot freed %v after cancel", d)
+	}
+}

@@ -1,0 +1,225 @@
+// Command fadeloopd serves the fadeloop gRPC API (ChannelService,
+// SimulationService, LoopService, grpc.health.v1 and server reflection) on
+// one listener and Prometheus metrics on another.
+//
+// It listens on loopback by default; give -tls-cert and -tls-key to serve
+// TLS, and -client-ca as well for mutual TLS. SIGINT or SIGTERM drains the
+// server (health NOT_SERVING, in-flight calls finish, up to -drain-timeout),
+// then stops it; a second signal stops it at once.
+package main
+
+import (
+	"context"
+	"crypto/tls"
+	"crypto/x509"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"net/http"
+	"os"
+	"os/signal"
+	"strings"
+	"syscall"
+	"time"
+
+	"github.com/fadeloop/fadeloop/service"
+)
+
+func main() {
+	if err := run(os.Args[1:], os.Stderr); err != nil {
+		fmt.Fprintln(os.Stderr, "fadeloopd:", err)
+		os.Exit(1)
+	}
+}
+
+type options struct {
+	listen, metricsListen        string
+	tlsCert, tlsKey, clientCA    string
+	maxCost                      int64
+	maxRuns, queueLen            int
+	queueTimeout, maxCall        time.Duration
+	maxLockstep, maxMsgBytes     int
+	maxConnAge, drainTimeout     time.Duration
+	logLevel, logFormat          string
+	engineParallelism            int
+	keepaliveMinTime, retryAfter time.Duration
+}
+
+func parseFlags(args []string, stderr io.Writer) (*options, error) {
+	o := &options{}
+	fs := flag.NewFlagSet("fadeloopd", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.StringVar(&o.listen, "listen", "127.0.0.1:8470", "gRPC listen address (host:port; port 0 picks a free port)")
+	fs.StringVar(&o.metricsListen, "metrics-listen", "127.0.0.1:8471", "Prometheus metrics HTTP listen address, serving /metrics (empty: no metrics listener)")
+	fs.StringVar(&o.tlsCert, "tls-cert", "", "PEM server certificate chain file (serve TLS; needs -tls-key)")
+	fs.StringVar(&o.tlsKey, "tls-key", "", "PEM private key file of -tls-cert")
+	fs.StringVar(&o.clientCA, "client-ca", "", "PEM CA bundle: require and verify client certificates (mutual TLS; needs -tls-cert)")
+	fs.Int64Var(&o.maxCost, "max-cost", service.DefaultMaxCost, "cost bound of one call in tap-slots (users × taps × slots × replications, summed over sweep points)")
+	fs.IntVar(&o.maxRuns, "max-concurrent-runs", 0, "runs executing at once (0: GOMAXPROCS)")
+	fs.IntVar(&o.queueLen, "queue-length", 0, "calls that may wait for a run slot (0: same as -max-concurrent-runs, negative: no queue)")
+	fs.DurationVar(&o.queueTimeout, "queue-timeout", service.DefaultQueueTimeout, "longest wait in the admission queue")
+	fs.DurationVar(&o.retryAfter, "retry-after", service.DefaultRetryAfter, "retry delay suggested to callers turned away when busy")
+	fs.DurationVar(&o.maxCall, "max-call-duration", service.DefaultMaxCallDuration, "longest allowed call; every call's deadline is capped at it")
+	fs.IntVar(&o.maxLockstep, "max-lockstep-streams", service.DefaultMaxLockstepStreams, "concurrent Lockstep streams")
+	fs.IntVar(&o.maxMsgBytes, "max-message-bytes", service.DefaultMaxMessageBytes, "largest message received or sent, bytes")
+	fs.DurationVar(&o.maxConnAge, "max-connection-age", service.DefaultMaxConnectionAge, "age after which a client is asked to reconnect (grace: -max-call-duration + 1m)")
+	fs.DurationVar(&o.keepaliveMinTime, "keepalive-min-time", service.DefaultKeepaliveMinTime, "shortest client keepalive ping interval tolerated")
+	fs.DurationVar(&o.drainTimeout, "drain-timeout", time.Minute, "on SIGINT/SIGTERM, how long in-flight calls may run before they are cancelled")
+	fs.IntVar(&o.engineParallelism, "engine-parallelism", 0, "sweep points and gain links computed at once per call (0: GOMAXPROCS)")
+	fs.StringVar(&o.logLevel, "log-level", "info", "log level: debug, info, warn or error")
+	fs.StringVar(&o.logFormat, "log-format", "json", "log format: json or text")
+	if err := fs.Parse(args); err != nil {
+		return nil, err
+	}
+	if fs.NArg() > 0 {
+		return nil, fmt.Errorf("unexpected arguments: %s", strings.Join(fs.Args(), " "))
+	}
+	if (o.tlsCert == "") != (o.tlsKey == "") {
+		return nil, errors.New("-tls-cert and -tls-key go together")
+	}
+	if o.clientCA != "" && o.tlsCert == "" {
+		return nil, errors.New("-client-ca needs -tls-cert and -tls-key")
+	}
+	return o, nil
+}
+
+func newLogger(level, format string, w io.Writer) (*slog.Logger, error) {
+	var lv slog.Level
+	if err := lv.UnmarshalText([]byte(level)); err != nil {
+		return nil, fmt.Errorf("-log-level: %v", err)
+	}
+	ho := &slog.HandlerOptions{Level: lv}
+	switch format {
+	case "json":
+		return slog.New(slog.NewJSONHandler(w, ho)), nil
+	case "text":
+		return slog.New(slog.NewTextHandler(w, ho)), nil
+	}
+	return nil, fmt.Errorf("-log-format: must be json or text, got %q", format)
+}
+
+// tlsConfig loads the server certificate and, for mutual TLS, the client CA.
+func tlsConfig(certFile, keyFile, caFile string) (*tls.Config, error) {
+	if certFile == "" {
+		return nil, nil
+	}
+	cert, err := tls.LoadX509KeyPair(certFile, keyFile)
+	if err != nil {
+		return nil, fmt.Errorf("load TLS key pair: %w", err)
+	}
+	cfg := &tls.Config{Certificates: []tls.Certificate{cert}, MinVersion: tls.VersionTLS12}
+	if caFile != "" {
+		pem, err := os.ReadFile(caFile)
+		if err != nil {
+			return nil, fmt.Errorf("read -client-ca: %w", err)
+		}
+		pool := x509.NewCertPool()
+		if !pool.AppendCertsFromPEM(pem) {
+			return nil, fmt.Errorf("-client-ca %s: no PEM certificates", caFile)
+		}
+		cfg.ClientCAs = pool
+		cfg.ClientAuth = tls.RequireAndVerifyClientCert
+	}
+	return cfg, nil
+}
+
+func run(args []string, stderr io.Writer) error {
+	o, err := parseFlags(args, stderr)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return nil
+		}
+		return err
+	}
+	logger, err := newLogger(o.logLevel, o.logFormat, stderr)
+	if err != nil {
+		return err
+	}
+	tc, err := tlsConfig(o.tlsCert, o.tlsKey, o.clientCA)
+	if err != nil {
+		return err
+	}
+	srv, err := service.NewServer(service.Config{
+		MaxCost:             o.maxCost,
+		MaxConcurrentRuns:   o.maxRuns,
+		QueueLength:         o.queueLen,
+		QueueTimeout:        o.queueTimeout,
+		RetryAfter:          o.retryAfter,
+		MaxLockstepStreams:  o.maxLockstep,
+		MaxCallDuration:     o.maxCall,
+		MaxRecvMessageBytes: o.maxMsgBytes,
+		MaxSendMessageBytes: o.maxMsgBytes,
+		MaxConnectionAge:    o.maxConnAge,
+		KeepaliveMinTime:    o.keepaliveMinTime,
+		TLS:                 tc,
+		Logger:              logger,
+		EngineParallelism:   o.engineParallelism,
+	})
+	if err != nil {
+		return err
+	}
+	lis, err := net.Listen("tcp", o.listen)
+	if err != nil {
+		return fmt.Errorf("listen %s: %w", o.listen, err)
+	}
+	var metricsSrv *http.Server
+	if o.metricsListen != "" {
+		mlis, err := net.Listen("tcp", o.metricsListen)
+		if err != nil {
+			lis.Close()
+			return fmt.Errorf("metrics listen %s: %w", o.metricsListen, err)
+		}
+		mux := http.NewServeMux()
+		mux.Handle("/metrics", srv.MetricsHandler())
+		metricsSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
+		go func() {
+			if err := metricsSrv.Serve(mlis); err != nil && !errors.Is(err, http.ErrServerClosed) {
+				logger.Error("metrics listener failed", slog.String("error", err.Error()))
+			}
+		}()
+		logger.Info("metrics listening", slog.String("metrics_addr", mlis.Addr().String()))
+	}
+	logger.Info("listening", slog.String("grpc_addr", lis.Addr().String()), slog.Bool("tls", tc != nil),
+		slog.Bool("mutual_tls", tc != nil && tc.ClientCAs != nil))
+
+	sigs := make(chan os.Signal, 2)
+	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM)
+	defer signal.Stop(sigs)
+	serveErr := make(chan error, 1)
+	go func() { serveErr <- srv.Serve(lis) }()
+
+	select {
+	case err := <-serveErr:
+		return err
+	case sig := <-sigs:
+		logger.Info("draining", slog.String("signal", sig.String()), slog.Duration("drain_timeout", o.drainTimeout))
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), o.drainTimeout)
+	defer cancel()
+	go func() {
+		select {
+		case sig := <-sigs:
+			logger.Warn("second signal: stopping now", slog.String("signal", sig.String()))
+			cancel()
+		case <-ctx.Done():
+		}
+	}()
+	drainErr := srv.Shutdown(ctx)
+	if metricsSrv != nil {
+		mctx, mcancel := context.WithTimeout(context.Background(), 5*time.Second)
+		_ = metricsSrv.Shutdown(mctx)
+		mcancel()
+	}
+	if err := <-serveErr; err != nil {
+		return err
+	}
+	if drainErr != nil {
+		logger.Warn("drain cut short; remaining calls cancelled", slog.String("error", drainErr.Error()))
+	} else {
+		logger.Info("stopped")
+	}
+	return nil
+}

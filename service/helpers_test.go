@@ -1,0 +1,175 @@
+package service
+
+import (
+	"context"
+	"errors"
+	"io"
+	"log/slog"
+	"net"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/status"
+	"google.golang.org/grpc/test/bufconn"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// transport is how a test reaches the server: in memory or over loopback.
+type transport string
+
+const (
+	viaBufconn  transport = "bufconn"
+	viaLoopback transport = "loopback"
+)
+
+var transports = []transport{viaBufconn, viaLoopback}
+
+// testEnv is a running server with clients of every service.
+type testEnv struct {
+	srv      *Server
+	conn     *grpc.ClientConn
+	channel  pb.ChannelServiceClient
+	sim      pb.SimulationServiceClient
+	loop     pb.LoopServiceClient
+	logs     *syncBuffer
+	serveErr chan error
+}
+
+// syncBuffer collects log output safely across goroutines.
+type syncBuffer struct {
+	mu sync.Mutex
+	b  strings.Builder
+}
+
+func (s *syncBuffer) Write(p []byte) (int, error) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.Write(p)
+}
+
+func (s *syncBuffer) String() string {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.String()
+}
+
+// startEnv starts a server with cfg on the given transport and dials it.
+// The server is stopped at the end of the test.
+func startEnv(t testing.TB, tr transport, cfg Config, dialOpts ...grpc.DialOption) *testEnv {
+	t.Helper()
+	logs := &syncBuffer{}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.New(slog.NewJSONHandler(logs, &slog.HandlerOptions{Level: slog.LevelDebug}))
+	}
+	srv, err := NewServer(cfg)
+	if err != nil {
+		t.Fatalf("NewServer: %v", err)
+	}
+	var lis net.Listener
+	var target string
+	opts := []grpc.DialOption{
+		grpc.WithDefaultCallOptions(grpc.MaxCallRecvMsgSize(64 << 20)),
+		grpc.WithInitialWindowSize(4 << 20),
+		grpc.WithInitialConnWindowSize(8 << 20),
+	}
+	switch tr {
+	case viaBufconn:
+		bl := bufconn.Listen(4 << 20)
+		lis = bl
+		target = "passthrough:///bufnet"
+		opts = append(opts, grpc.WithContextDialer(func(ctx context.Context, _ string) (net.Conn, error) {
+			return bl.DialContext(ctx)
+		}))
+	case viaLoopback:
+		l, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			t.Fatalf("listen: %v", err)
+		}
+		lis = l
+		target = l.Addr().String()
+	}
+	if len(dialOpts) == 0 {
+		opts = append(opts, grpc.WithTransportCredentials(insecure.NewCredentials()))
+	}
+	opts = append(opts, dialOpts...)
+	env := &testEnv{srv: srv, logs: logs, serveErr: make(chan error, 1)}
+	go func() { env.serveErr <- srv.Serve(lis) }()
+	conn, err := grpc.NewClient(target, opts...)
+	if err != nil {
+		t.Fatalf("dial: %v", err)
+	}
+	env.conn = conn
+	env.channel = pb.NewChannelServiceClient(conn)
+	env.sim = pb.NewSimulationServiceClient(conn)
+	env.loop = pb.NewLoopServiceClient(conn)
+	t.Cleanup(func() {
+		conn.Close()
+		srv.Stop()
+		select {
+		case <-env.serveErr:
+		case <-time.After(5 * time.Second):
+			t.Errorf("Serve did not return after Stop")
+		}
+	})
+	return env
+}
+
+// wantCode fails unless err carries code c.
+func wantCode(t testing.TB, err error, c codes.Code) *status.Status {
+	t.Helper()
+	st, ok := status.FromError(err)
+	if !ok {
+		t.Fatalf("error %v is not a status (want %v)", err, c)
+	}
+	if st.Code() != c {
+		t.Fatalf("code %v (%s), want %v", st.Code(), st.Message(), c)
+	}
+	return st
+}
+
+// badRequestFields returns the field paths of st's BadRequest detail.
+func badRequestFields(st *status.Status) map[string]string {
+	out := map[string]string{}
+	for _, d := range st.Details() {
+		if br, ok := d.(*errdetails.BadRequest); ok {
+			for _, fv := range br.GetFieldViolations() {
+				out[fv.GetField()] = fv.GetDescription()
+			}
+		}
+	}
+	return out
+}
+
+// wantInvalid fails unless err is INVALID_ARGUMENT whose BadRequest names
+// field (exactly).
+func wantInvalid(t testing.TB, err error, field string) {
+	t.Helper()
+	st := wantCode(t, err, codes.InvalidArgument)
+	fields := badRequestFields(st)
+	if _, ok := fields[field]; !ok {
+		t.Fatalf("BadRequest does not name %q; it names %v", field, fields)
+	}
+}
+
+// drain reads a server stream to its end and returns the messages and the
+// final error (nil on a clean end).
+func drain[T any](recv func() (*T, error)) ([]*T, error) {
+	var out []*T
+	for {
+		m, err := recv()
+		if errors.Is(err, io.EOF) {
+			return out, nil
+		}
+		if err != nil {
+			return out, err
+		}
+		out = append(out, m)
+	}
+}

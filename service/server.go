@@ -1,0 +1,194 @@
+package service
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"net"
+	"net/http"
+	"sync/atomic"
+	"time"
+
+	"github.com/grpc-ecosystem/go-grpc-middleware/v2/interceptors/recovery"
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials"
+	"google.golang.org/grpc/health"
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/keepalive"
+	"google.golang.org/grpc/reflection"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// Server is a fadeloop gRPC server: ChannelService, SimulationService and
+// LoopService with validation, cost bound, admission control, logging,
+// panic recovery and metrics, plus grpc.health.v1 and server reflection.
+//
+// Typical use, in a daemon or in-process (the CLI's embedded mode):
+//
+//	srv, err := service.NewServer(service.Config{})
+//	lis, _ := net.Listen("tcp", "127.0.0.1:0")
+//	go srv.Serve(lis)
+//	defer srv.Shutdown(ctx) // drain: health NOT_SERVING, finish calls, stop
+type Server struct {
+	cfg       Config
+	grpc      *grpc.Server
+	health    *health.Server
+	metrics   *metrics
+	runs      *admission
+	lockstep  *limiter
+	validator *protoValidator
+	draining  atomic.Bool
+}
+
+// NewServer builds a Server from cfg (zero fields take their defaults; see
+// Config). It registers every service but listens on nothing: call Serve.
+func NewServer(cfg Config) (*Server, error) {
+	cfg, err := cfg.withDefaults()
+	if err != nil {
+		return nil, fmt.Errorf("service config: %w", err)
+	}
+	v, err := newProtoValidator()
+	if err != nil {
+		return nil, err
+	}
+	s := &Server{
+		cfg:       cfg,
+		health:    health.NewServer(),
+		metrics:   newMetrics(),
+		runs:      newAdmission(cfg.MaxConcurrentRuns, cfg.QueueLength, cfg.QueueTimeout, cfg.RetryAfter),
+		lockstep:  &limiter{limit: int64(cfg.MaxLockstepStreams), retry: cfg.RetryAfter},
+		validator: v,
+	}
+	s.runs.onWait = func(d int) { s.metrics.queued.Add(float64(d)) }
+
+	rec := recoveryHandler(cfg.Logger)
+	opts := []grpc.ServerOption{
+		grpc.ChainUnaryInterceptor(
+			s.metrics.grpc.UnaryServerInterceptor(),
+			loggingUnary(cfg.Logger, cfg.MaxCallDuration),
+			recovery.UnaryServerInterceptor(rec),
+		),
+		grpc.ChainStreamInterceptor(
+			s.metrics.grpc.StreamServerInterceptor(),
+			loggingStream(cfg.Logger, cfg.MaxCallDuration),
+			recovery.StreamServerInterceptor(rec),
+		),
+		grpc.MaxRecvMsgSize(cfg.MaxRecvMessageBytes),
+		grpc.MaxSendMsgSize(cfg.MaxSendMessageBytes),
+		grpc.KeepaliveEnforcementPolicy(keepalive.EnforcementPolicy{
+			MinTime:             cfg.KeepaliveMinTime,
+			PermitWithoutStream: true,
+		}),
+		grpc.KeepaliveParams(keepalive.ServerParameters{
+			MaxConnectionAge:      cfg.MaxConnectionAge,
+			MaxConnectionAgeGrace: cfg.connectionAgeGrace(),
+			Time:                  2 * time.Minute,
+			Timeout:               20 * time.Second,
+		}),
+		// Larger flow-control windows and buffers for StreamGains' bulk
+		// chunks over fast links.
+		grpc.InitialWindowSize(4 << 20),
+		grpc.InitialConnWindowSize(8 << 20),
+		grpc.WriteBufferSize(256 << 10),
+		grpc.ReadBufferSize(256 << 10),
+	}
+	if cfg.TLS != nil {
+		opts = append(opts, grpc.Creds(credentials.NewTLS(cfg.TLS)))
+	}
+	s.grpc = grpc.NewServer(opts...)
+	pb.RegisterChannelServiceServer(s.grpc, &channelServer{s: s})
+	pb.RegisterSimulationServiceServer(s.grpc, &simulationServer{s: s})
+	pb.RegisterLoopServiceServer(s.grpc, &loopServer{s: s})
+	healthpb.RegisterHealthServer(s.grpc, s.health)
+	reflection.Register(s.grpc)
+	s.metrics.grpc.InitializeMetrics(s.grpc)
+
+	s.health.SetServingStatus("", healthpb.HealthCheckResponse_SERVING)
+	for name := range s.grpc.GetServiceInfo() {
+		s.health.SetServingStatus(name, healthpb.HealthCheckResponse_SERVING)
+	}
+	return s, nil
+}
+
+// GRPC returns the underlying *grpc.Server (to register more services
+// before Serve, or to use with a custom listener such as bufconn).
+func (s *Server) GRPC() *grpc.Server { return s.grpc }
+
+// Config returns the effective configuration, defaults filled in.
+func (s *Server) Config() Config { return s.cfg }
+
+// Serve accepts connections on lis until Shutdown or Stop; it returns nil
+// after a shutdown and the listener's error otherwise.
+func (s *Server) Serve(lis net.Listener) error {
+	err := s.grpc.Serve(lis)
+	if errors.Is(err, grpc.ErrServerStopped) {
+		return nil
+	}
+	return err
+}
+
+// MetricsHandler serves the Prometheus metrics (mount it on a separate
+// HTTP listener, e.g. at /metrics).
+func (s *Server) MetricsHandler() http.Handler { return s.metrics.handler() }
+
+// Shutdown drains the server: health turns NOT_SERVING, no new calls are
+// accepted, and in-flight calls run to completion. When ctx ends first the
+// remaining calls are cancelled and Shutdown returns ctx's error.
+func (s *Server) Shutdown(ctx context.Context) error {
+	s.draining.Store(true)
+	s.health.Shutdown()
+	done := make(chan struct{})
+	go func() {
+		s.grpc.GracefulStop()
+		close(done)
+	}()
+	select {
+	case <-done:
+		return nil
+	case <-ctx.Done():
+		s.grpc.Stop()
+		<-done
+		return ctx.Err()
+	}
+}
+
+// Stop closes every connection and cancels every call at once.
+func (s *Server) Stop() {
+	s.draining.Store(true)
+	s.health.Shutdown()
+	s.grpc.Stop()
+}
+
+// hook calls the test hook, if any.
+func (s *Server) hook(method string) {
+	if s.cfg.testHook != nil {
+		s.cfg.testHook(method)
+	}
+}
+
+// admit checks the cost against the bound and takes a run slot. On success
+// the caller must call release once the run is over.
+func (s *Server) admit(ctx context.Context, what string, cost int64) (release func(), err error) {
+	infoFrom(ctx).cost.Store(cost)
+	if cost > s.cfg.MaxCost {
+		s.metrics.rejected.WithLabelValues("cost").Inc()
+		return nil, costExceeded(what, cost, s.cfg.MaxCost)
+	}
+	rel, err := s.runs.acquire(ctx)
+	if err != nil {
+		s.metrics.rejected.WithLabelValues("busy").Inc()
+		return nil, err
+	}
+	s.metrics.inFlight.Inc()
+	return func() {
+		s.metrics.inFlight.Dec()
+		rel()
+	}, nil
+}
+
+// reject counts and returns an INVALID_ARGUMENT for vs.
+func (s *Server) reject(vs []Violation) error {
+	s.metrics.rejected.WithLabelValues("invalid").Inc()
+	return invalidArgument(vs)
+}
