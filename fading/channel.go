@@ -13,19 +13,23 @@ type Generator int
 // Doppler spectrum (autocorrelation J0(2π f_D τ)) and Rayleigh envelopes,
 // are wide-sense stationary and stream (chunk by chunk equals one call).
 const (
-	// GeneratorDefault is the fast default: the sum-of-sinusoids model of
-	// GeneratorSumOfSinusoids with DefaultSinusoids sinusoids per branch,
-	// generated at an internal rate of about f_D/0.06 when f_D·T is small
-	// and brought to the sample rate by 4-point Lagrange interpolation.
+	// GeneratorDefault is the fast default: sets of DefaultSinusoids
+	// sinusoids per branch with Zheng & Xiao's stratified arrival angles and
+	// Gaussian amplitudes (every sample exactly complex Gaussian), a new
+	// independent set every 50 Doppler periods joined by a power-preserving
+	// cross-fade; generated at an internal rate of 5 f_D when f_D·T < 0.15
+	// and brought to the sample rate by an 8-tap windowed-sinc interpolator.
 	GeneratorDefault Generator = iota
 	// GeneratorSumOfSinusoids is the statistically correct sum of sinusoids
 	// of Zheng & Xiao (IEEE Trans. Commun. 51(6), 2003): random phase and
-	// random arrival angle per sinusoid, evaluated at every sample.
+	// random (stratified) arrival angle per sinusoid, equal gains,
+	// SOSSinusoids per branch by default, evaluated at every sample.
 	GeneratorSumOfSinusoids
 	// GeneratorSpectral is Gaussian noise shaped by the Clarke filter through
 	// an inverse FFT (Young & Beaulieu, IEEE Trans. Commun. 48(7), 2000),
 	// generated in blocks joined by half-overlapping sine-window cross-fades
-	// that keep the power constant.
+	// that keep the power constant; internal rate and interpolation as for
+	// GeneratorDefault.
 	GeneratorSpectral
 )
 
@@ -45,7 +49,7 @@ func (g Generator) String() string {
 // Sinusoid counts.
 const (
 	DefaultSinusoids = 8   // sinusoids per branch of GeneratorDefault when ChannelConfig.Sinusoids is 0
-	SOSSinusoids     = 16  // sinusoids per branch of GeneratorSumOfSinusoids when ChannelConfig.Sinusoids is 0
+	SOSSinusoids     = 32  // sinusoids per branch of GeneratorSumOfSinusoids when ChannelConfig.Sinusoids is 0
 	MaxSinusoids     = 256 // largest accepted ChannelConfig.Sinusoids
 	MaxRicianKDB     = 60  // largest accepted ChannelConfig.RicianKDB
 	MinRicianKDB     = -60 // smallest accepted ChannelConfig.RicianKDB

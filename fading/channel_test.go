@@ -97,17 +97,14 @@ func TestDeterminism(t *testing.T) {
 			t.Errorf("%v: different user or seed gives the same samples", g)
 		}
 		L := len(testProfile.Taps)
-		for l := 1; l < L; l++ { // taps are different processes
+		for l := 1; l < L; l++ { // taps are different processes (not scaled copies)
+			r0 := real(ref[0]) / real(ref[l])
 			same := true
-			for i := 0; i < 100; i++ {
-				a, b := ref[i*L], ref[i*L+l]
-				if math.Abs(float64(real(a))/math.Sqrt(1)-float64(real(b))) > 0 {
-					same = false
-					break
-				}
+			for i := 1; i < 50 && same; i++ {
+				same = math.Abs(float64(real(ref[i*L])/real(ref[i*L+l])-r0)) < 1e-3
 			}
 			if same {
-				t.Errorf("%v: tap %d equals tap 0", g, l)
+				t.Errorf("%v: tap %d is a scaled copy of tap 0", g, l)
 			}
 		}
 		// concurrent generation under another GOMAXPROCS gives the same samples
@@ -153,6 +150,9 @@ func TestTapPowersAndIndependence(t *testing.T) {
 	w := p.NormalisedPowers()
 	L := len(w)
 	links, n := 64, 5400 // 200 Doppler periods at f_D·T = 0.037
+	if raceEnabled {
+		links = 24
+	}
 	if !testing.Short() {
 		links = 256
 	}
@@ -194,8 +194,11 @@ func TestTapPowersAndIndependence(t *testing.T) {
 // Tolerance: 4 standard errors over the links plus 0.01.
 func TestLongRunPower(t *testing.T) {
 	skip, links := 1<<18, 16
+	if raceEnabled {
+		skip, links = 1<<16, 8
+	}
 	if !testing.Short() {
-		skip, links = 1<<24, 32
+		skip, links = 1<<22, 32
 	}
 	for _, g := range []Generator{GeneratorDefault, GeneratorSumOfSinusoids} {
 		pows := make([]float64, links)

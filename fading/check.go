@@ -24,8 +24,11 @@ const (
 	// checkSamplesPerFade: a threshold is measured at the configured rate
 	// only when its theoretical average fade lasts at least this many samples.
 	checkSamplesPerFade = 10
-	// checkMaxSamples caps the record length per link.
+	// checkMaxSamples caps the record length per link, checkMaxTotal the
+	// samples of one pass over all links (which bounds the run time at very
+	// small f_D·T; the record length used is reported per line).
 	checkMaxSamples = 1 << 20
+	checkMaxTotal   = 1 << 24
 	// ksC is the asymptotic Kolmogorov–Smirnov critical constant at
 	// significance 1e-3, √(−ln(α/2)/2).
 	ksC = 1.949
@@ -56,7 +59,8 @@ type CheckConfig struct {
 	Links int
 	// DopplerPeriods is the record length of each link in units of 1/f_D,
 	// 0 -> DefaultCheckPeriods, else in [20, MaxCheckPeriods]; records are
-	// capped at 2^20 samples.
+	// capped at 2^20 samples per link and 2^24 over all links (the length
+	// used is reported in CheckLine.Periods).
 	DopplerPeriods float64
 	// Seed seeds the links (link u is NewChannel(…, Seed, u)).
 	Seed uint64
@@ -78,6 +82,7 @@ type CheckLine struct {
 	Arg       float64 // argument: lag f_D·τ (autocorrelation), threshold ρ in dB (lcr, afd), margin x in dB (mrc-outage), K in dB (rician-k)
 	Branches  int     // diversity branches L of the records (1 unless MRC)
 	FdT       float64 // normalised Doppler f_D·T of the records the line was measured on
+	Periods   float64 // record length per link, in Doppler periods, of those records
 }
 
 // CheckReport is the result of Check: Pass is true when every line passes.
@@ -143,7 +148,7 @@ func newSampler(cfg ChannelConfig, seed uint64, user int) (sampler, error) {
 //     the first 0.02/f_D of the records [origin-power], which exposes a
 //     non-stationary generator;
 //   - normalised autocorrelation Re E[h(t+τ)h*(t)]/E|h|² (per link) at
-//     f_D τ ≈ 0.05, 0.1, 0.2, 0.3827, 0.6, 1 against J0(2π f_D τ)
+//     f_D τ ≈ 0.05, 0.1, 0.2, 0.3827, 0.6, 1, 1.5 against J0(2π f_D τ)
 //     [autocorrelation] (Clarke 1968; Jakes 1974);
 //   - level-crossing rate N_R/f_D = √(2π) ρ e^(−ρ²) [lcr] and average fade
 //     duration f_D·AFD = (e^(ρ²) − 1)/(ρ√(2π)) [afd] at ρ = 0, −3, −10,
@@ -227,6 +232,9 @@ type checkRun struct {
 
 func (r *checkRun) add(l CheckLine, se, allow float64) {
 	l.Tolerance = r.cfg.Sigmas*se + allow
+	if l.FdT > 0 {
+		l.Periods = float64(r.recordLen(l.FdT)) * l.FdT
+	}
 	l.Pass = finite(l.Measured) && finite(l.Tolerance) && math.Abs(l.Measured-l.Theory) <= l.Tolerance
 	if l.Branches == 0 {
 		l.Branches = 1
@@ -271,6 +279,12 @@ func (r *checkRun) base() ChannelConfig {
 	return c
 }
 
+// recordLen returns the record length per link in samples at fdT.
+func (r *checkRun) recordLen(fdT float64) int {
+	n := math.Ceil(r.cfg.DopplerPeriods / fdT)
+	return int(math.Min(n, math.Min(checkMaxSamples, float64(checkMaxTotal/r.cfg.Links))))
+}
+
 func (r *checkRun) ensure(n int) {
 	if len(r.pw) < n {
 		r.re, r.im = make2(1, n), make2(1, n)
@@ -281,7 +295,7 @@ func (r *checkRun) ensure(n int) {
 // single generates the single-tap record of link u into r.pw (power) and
 // r.re, r.im; it returns the record length.
 func (r *checkRun) single(c ChannelConfig, fdT float64, u int, seedOff uint64) (int, error) {
-	n := min(int(math.Ceil(r.cfg.DopplerPeriods/fdT)), checkMaxSamples)
+	n := r.recordLen(fdT)
 	r.ensure(n)
 	ch, err := r.mk(c, r.cfg.Seed+seedOff, u)
 	if err != nil {
@@ -323,7 +337,7 @@ func (r *checkRun) static() error {
 }
 
 var (
-	checkLags       = []float64{0.05, 0.1, 0.2, 0.3827, 0.6, 1.0}
+	checkLags       = []float64{0.05, 0.1, 0.2, 0.3827, 0.6, 1.0, 1.5}
 	checkThresholds = []float64{0, -3, -10, -20}
 )
 
@@ -602,7 +616,7 @@ func (r *checkRun) mrc(L int, fdT float64) error {
 		c.Profile.Taps = append(c.Profile.Taps, Tap{DelayNs: float64(l), PowerDB: 0})
 	}
 	links := r.cfg.Links
-	n := min(int(math.Ceil(r.cfg.DopplerPeriods/fdT)), checkMaxSamples)
+	n := r.recordLen(fdT)
 	r.ensure(n)
 	g := r.pw[:n]
 	margins := mrcMargins[L]
@@ -701,7 +715,7 @@ func ricianKFromMoments(ga, gv float64) float64 {
 func (r *checkRun) profile(fdT float64) error {
 	c := r.cfg.Channel
 	links := r.cfg.Links
-	n := min(int(math.Ceil(r.cfg.DopplerPeriods/fdT)), checkMaxSamples)
+	n := r.recordLen(fdT)
 	r.ensure(n)
 	g := r.pw[:n]
 	means := make([]float64, links)

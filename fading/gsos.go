@@ -46,9 +46,9 @@ type gsosSource struct {
 }
 
 // gsosSet is one set of sinusoids of one tap: 2M oscillators, the first M
-// in-phase, the last M quadrature, y = a cos(Δk + φ).
+// in-phase, the last M quadrature, y(k) = A cos(Δk) + B sin(Δk).
 type gsosSet struct {
-	delta, amp, phase, cosD, sinD, coef []float64
+	delta, a, b, cosD, sinD, coef []float64
 }
 
 // Set lifetime in Doppler periods: a new set every gsosPeriods/ν samples,
@@ -75,7 +75,7 @@ func newGSOSSource(nt, m int, nu float64, seed uint64, user int) *gsosSource {
 func newGSOSSet(m int) gsosSet {
 	n := 2 * m
 	f := make([]float64, 6*n)
-	return gsosSet{delta: f[:n:n], amp: f[n : 2*n : 2*n], phase: f[2*n : 3*n : 3*n],
+	return gsosSet{delta: f[:n:n], a: f[n : 2*n : 2*n], b: f[2*n : 3*n : 3*n],
 		cosD: f[3*n : 4*n : 4*n], sinD: f[4*n : 5*n : 5*n], coef: f[5*n:]}
 }
 
@@ -91,12 +91,10 @@ func (s *gsosSource) draw(set *gsosSet, r *rand.Rand) {
 			if b == 1 {
 				f = math.Sin(alpha)
 			}
-			a, bb := sd*r.NormFloat64(), sd*r.NormFloat64()
 			i := b*m + n
+			set.a[i], set.b[i] = sd*r.NormFloat64(), sd*r.NormFloat64()
 			d := 2 * math.Pi * s.nu * f
 			set.delta[i] = d
-			set.amp[i] = math.Hypot(a, bb)
-			set.phase[i] = -math.Atan2(bb, a) // a cos x + b sin x = amp cos(x + phase)
 			set.sinD[i], set.cosD[i] = math.Sincos(d)
 			set.coef[i] = 2 * set.cosD[i]
 		}
@@ -114,9 +112,14 @@ func (s *gsosSource) eval(set *gsosSet, off int, dst []float64, k0 int, g float6
 	fk := float64(k0)
 	for n := 0; n < m; n++ {
 		i := off + n
-		sn, cs := math.Sincos(set.phase[i] + set.delta[i]*fk)
-		a[n] = g * set.amp[i] * cs
-		p[n] = g * set.amp[i] * (cs*set.cosD[i] + sn*set.sinD[i])
+		sn, cs := 0.0, 1.0
+		if k0 != 0 {
+			sn, cs = math.Sincos(set.delta[i] * fk)
+		}
+		// y(k0) and y(k0−1) from cos, sin of Δk0 and Δ(k0−1)
+		cp, sp := cs*set.cosD[i]+sn*set.sinD[i], sn*set.cosD[i]-cs*set.sinD[i]
+		a[n] = g * (set.a[i]*cs + set.b[i]*sn)
+		p[n] = g * (set.a[i]*cp + set.b[i]*sp)
 	}
 	c := set.coef[off : off+m : off+m]
 	n := 0

@@ -2,8 +2,19 @@ package loop
 
 import (
 	"context"
+	"syscall"
 	"testing"
+	"time"
 )
+
+// cpuTime is the process's user + system CPU time.
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	if syscall.Getrusage(syscall.RUSAGE_SELF, &ru) != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
 
 // BenchmarkCanonical runs CanonicalScenario (the scenario of
 // shared/bench/peer_numba.py: 64 users, 3 taps, 30 km/h at 2 GHz, 1500 Hz,
@@ -13,6 +24,7 @@ func BenchmarkCanonical(b *testing.B) {
 	sc := CanonicalScenario()
 	b.ReportAllocs()
 	var rep *Report
+	c0 := cpuTime()
 	for b.Loop() {
 		r, err := Run(context.Background(), sc, RunOptions{})
 		if err != nil {
@@ -22,6 +34,31 @@ func BenchmarkCanonical(b *testing.B) {
 	}
 	us := float64(rep.SimulatedUserSlots) * float64(b.N) / b.Elapsed().Seconds()
 	b.ReportMetric(us, "user-slots/s")
+	b.ReportMetric((cpuTime()-c0).Seconds()*1e3/float64(b.N), "cpu-ms/op")
 	b.ReportMetric(rep.Aggregate.SIRErrorStdDB.Value, "sir-err-std-dB")
 	b.ReportMetric(rep.Aggregate.OutageProbability.Value, "outage")
+}
+
+// BenchmarkLoopStatic runs the canonical scenario's loop over static
+// channels (each user's mean path loss, no fading): the cost of the
+// sequential loop and the figures alone, without channel generation.
+func BenchmarkLoopStatic(b *testing.B) {
+	sc := CanonicalScenario()
+	us, err := placeUsers(sc)
+	if err != nil {
+		b.Fatal(err)
+	}
+	st := make([]float64, len(us))
+	for i, u := range us {
+		st[i] = dbToLin(-u.pathLossDB)
+	}
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		if _, err := run(context.Background(), sc, RunOptions{}, &hooks{static: st}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(len(us))*float64(sc.Run.Slots)*float64(b.N)/b.Elapsed().Seconds(), "user-slots/s")
+	b.ReportMetric((cpuTime()-c0).Seconds()*1e3/float64(b.N), "cpu-ms/op")
 }

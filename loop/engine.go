@@ -27,6 +27,11 @@ const (
 	streamLOSAngle fading.StreamKind = 104 // arrival angle of a user's LOS component
 )
 
+// HistBinsPerOctaveLog2 is log2 of the bins per octave of the per-user
+// histograms of up to 512 users: bins are at most 10·log10(1 + 2^−7) =
+// 0.034 dB wide (see histLayout).
+const HistBinsPerOctaveLog2 = 7
+
 // genBlockSlots is the number of slots of fading generated ahead per block.
 const genBlockSlots = 512
 
@@ -339,9 +344,12 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	for _, u := range users {
 		s.initP = append(s.initP, initialPowerMW(il, sc.OuterLoop, sc.Receiver, u.pathLossDB))
 	}
-	// Histogram resolution: 2^9 bins per octave (<= 0.0085 dB) up to 512
-	// users, coarser beyond so that per-user histograms stay within tens of MB.
-	m := uint(9)
+	// Histogram resolution: HistBinsPerOctaveLog2 = 7, i.e. 128 bins per
+	// octave (<= 0.034 dB wide) up to 512 users, one step coarser per
+	// doubling beyond (down to 32 per octave, 0.13 dB), so that the hot part
+	// of the per-user histograms stays cache-resident and their memory
+	// bounded. The receiver's noise-rise histogram uses 512 per octave.
+	m := uint(HistBinsPerOctaveLog2)
 	for nb := len(users); nb > 512 && m > 5; nb /= 2 {
 		m--
 	}

@@ -139,7 +139,10 @@ func enumParse(names []string, kind string, text []byte) (int, error) {
 // defined reports whether v is a set, known value of an enum with len(names) values.
 func defined(names []string, v int) bool { return v > 0 && v < len(names) }
 
-func (v Placement) String() string               { return enumString(placementNames, int(v)) }
+// String returns the proto value name of the Placement.
+func (v Placement) String() string { return enumString(placementNames, int(v)) }
+
+// MarshalText encodes the Placement as its proto value name.
 func (v Placement) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -149,7 +152,10 @@ func (v *Placement) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v Generator) String() string               { return enumString(generatorNames, int(v)) }
+// String returns the proto value name of the Generator.
+func (v Generator) String() string { return enumString(generatorNames, int(v)) }
+
+// MarshalText encodes the Generator as its proto value name.
 func (v Generator) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -159,7 +165,10 @@ func (v *Generator) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v PathLossModel) String() string               { return enumString(pathLossNames, int(v)) }
+// String returns the proto value name of the PathLossModel.
+func (v PathLossModel) String() string { return enumString(pathLossNames, int(v)) }
+
+// MarshalText encodes the PathLossModel as its proto value name.
 func (v PathLossModel) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -169,7 +178,10 @@ func (v *PathLossModel) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v InnerMode) String() string               { return enumString(innerModeNames, int(v)) }
+// String returns the proto value name of the InnerMode.
+func (v InnerMode) String() string { return enumString(innerModeNames, int(v)) }
+
+// MarshalText encodes the InnerMode as its proto value name.
 func (v InnerMode) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -179,7 +191,10 @@ func (v *InnerMode) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v Command) String() string               { return enumString(commandNames, int(v)) }
+// String returns the proto value name of the Command.
+func (v Command) String() string { return enumString(commandNames, int(v)) }
+
+// MarshalText encodes the Command as its proto value name.
 func (v Command) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -189,7 +204,10 @@ func (v *Command) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v InitialPower) String() string               { return enumString(initialPowerNames, int(v)) }
+// String returns the proto value name of the InitialPower.
+func (v InitialPower) String() string { return enumString(initialPowerNames, int(v)) }
+
+// MarshalText encodes the InitialPower as its proto value name.
 func (v InitialPower) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -199,7 +217,10 @@ func (v *InitialPower) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v LinkKind) String() string               { return enumString(linkKindNames, int(v)) }
+// String returns the proto value name of the LinkKind.
+func (v LinkKind) String() string { return enumString(linkKindNames, int(v)) }
+
+// MarshalText encodes the LinkKind as its proto value name.
 func (v LinkKind) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.
@@ -209,7 +230,10 @@ func (v *LinkKind) UnmarshalText(b []byte) error {
 	return err
 }
 
-func (v EffectiveSIR) String() string               { return enumString(effectiveNames, int(v)) }
+// String returns the proto value name of the EffectiveSIR.
+func (v EffectiveSIR) String() string { return enumString(effectiveNames, int(v)) }
+
+// MarshalText encodes the EffectiveSIR as its proto value name.
 func (v EffectiveSIR) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
 
 // UnmarshalText accepts the proto value name or its number.

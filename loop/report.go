@@ -25,8 +25,9 @@ type Estimate struct {
 }
 
 // Percentiles are the 1st, 5th, 50th, 95th and 99th percentiles, each with
-// its confidence interval, from fixed-bin histograms (exact to one bin:
-// at most 0.0085 dB up to 512 users).
+// its confidence interval, from fixed-bin histograms interpolated within the
+// bin (exact to one bin: at most 0.034 dB up to 512 users, see
+// HistBinsPerOctaveLog2).
 type Percentiles struct {
 	P1  Estimate `json:"p1"`
 	P5  Estimate `json:"p5"`

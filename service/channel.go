@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"regexp"
 	"strings"
 	"sync"
@@ -168,7 +169,7 @@ func (c *channelServer) StreamGains(req *pb.StreamGainsRequest, stream pb.Channe
 		return err
 	}
 	defer release()
-	s.hook("StreamGains")
+	s.hook(ctx, "StreamGains")
 
 	chans := make([]*fading.Channel, links)
 	for k := range chans {
@@ -307,4 +308,94 @@ func mergeViolations(protoVs, semVs []Violation) []Violation {
 		}
 	}
 	return out
+}
+
+// checkCost estimates the work of a self-check in tap-samples: links ×
+// record samples × branches (up to 4 for the MRC lines), twice when deep
+// fades need a second pass at f_D·T = 0.002.
+func checkCost(cfg fading.CheckConfig) int64 {
+	links := cfg.Links
+	if links == 0 {
+		links = fading.DefaultCheckLinks
+	}
+	periods := cfg.DopplerPeriods
+	if periods == 0 {
+		periods = fading.DefaultCheckPeriods
+	}
+	per := float64(1 << 20)
+	if fdT := cfg.Channel.DopplerHz / cfg.Channel.SampleRateHz; fdT > 0 {
+		per = math.Min(per, periods/fdT)
+	}
+	taps := max(len(cfg.Channel.Profile.Taps), 4)
+	x := 2 * float64(links) * per * float64(taps)
+	if x >= math.MaxInt64 {
+		return math.MaxInt64
+	}
+	return int64(x)
+}
+
+// CheckChannel runs fading's statistical self-check.
+func (c *channelServer) CheckChannel(ctx context.Context, req *pb.CheckChannelRequest) (*pb.CheckChannelResponse, error) {
+	s := c.s
+	vs := s.validator.check(req, "")
+	var ch fading.ChannelConfig
+	if req.GetChannel() != nil {
+		var cvs []Violation
+		ch, cvs = channelConfigFromProto(req.GetChannel(), "channel.")
+		vs = mergeViolations(vs, cvs)
+	}
+	if len(vs) > 0 {
+		return nil, s.reject(vs)
+	}
+	cfg := fading.CheckConfig{
+		Channel:        ch,
+		Links:          int(req.GetLinks()),
+		DopplerPeriods: req.GetDopplerPeriods(),
+		Seed:           req.GetSeed(),
+		Sigmas:         req.GetSigmas(),
+	}
+	if err := cfg.Validate(); err != nil {
+		return nil, s.reject([]Violation{{Field: checkParamPath(err, len(req.GetChannel().GetCustomTaps()) > 0), Description: paramRule(err)}})
+	}
+	release, err := s.admit(ctx, "CheckChannel", checkCost(cfg))
+	if err != nil {
+		return nil, err
+	}
+	defer release()
+	s.hook(ctx, "CheckChannel")
+	rep, err := fading.Check(ctx, cfg)
+	if err != nil {
+		var pe *fading.ParamError
+		if errors.As(err, &pe) {
+			return nil, s.reject([]Violation{{Field: checkParamPath(err, len(req.GetChannel().GetCustomTaps()) > 0), Description: pe.Rule}})
+		}
+		return nil, statusFromError(ctx, err)
+	}
+	out := &pb.CheckChannelResponse{Pass: rep.Pass, Links: i32(rep.Links), DopplerPeriods: rep.DopplerPeriods}
+	for _, l := range rep.Lines {
+		out.Lines = append(out.Lines, &pb.CheckLine{
+			Name: l.Name, Measured: l.Measured, Theory: l.Theory, Tolerance: l.Tolerance, Pass: l.Pass,
+			Unit: l.Unit, Kind: l.Kind, Arg: l.Arg, Branches: i32(l.Branches), FdT: l.FdT, Periods: l.Periods,
+		})
+	}
+	return out, nil
+}
+
+// checkParamPath maps a CheckConfig *ParamError to the request field path.
+func checkParamPath(err error, custom bool) string {
+	var pe *fading.ParamError
+	if !errors.As(err, &pe) {
+		return "channel"
+	}
+	switch {
+	case strings.HasPrefix(pe.Param, "Channel."):
+		return "channel." + fadingParamPath(&fading.ParamError{Param: strings.TrimPrefix(pe.Param, "Channel."), Rule: pe.Rule}, custom)
+	case pe.Param == "Links":
+		return "links"
+	case pe.Param == "DopplerPeriods":
+		return "doppler_periods"
+	case pe.Param == "Sigmas":
+		return "sigmas"
+	}
+	return strings.ToLower(pe.Param)
 }

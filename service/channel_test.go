@@ -218,3 +218,71 @@ func TestStreamGainsCancelPrompt(t *testing.T) {
 		t.Logf("run slot freed %v after cancel", d)
 	}
 }
+
+func TestCheckChannel(t *testing.T) {
+	for _, tr := range transports {
+		t.Run(string(tr), func(t *testing.T) {
+			env := startEnv(t, tr, Config{})
+			req := &pb.CheckChannelRequest{
+				Channel: &pb.ChannelSpec{DopplerHz: 50, SampleRateHz: 1500, Profile: "FLAT", Generator: pb.Generator_GENERATOR_DEFAULT},
+				Links:   16, DopplerPeriods: 40, Seed: 11,
+			}
+			resp, err := env.channel.CheckChannel(context.Background(), req)
+			if err != nil {
+				t.Fatal(err)
+			}
+			// The service must pass the engine's own report through: the
+			// same request to fading.Check gives the same lines.
+			want, err := fading.Check(context.Background(), fading.CheckConfig{
+				Channel: fading.ChannelConfig{DopplerHz: 50, SampleRateHz: 1500, Profile: fading.Profile{Name: "FLAT", Taps: []fading.Tap{{}}}},
+				Links:   16, DopplerPeriods: 40, Seed: 11})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(resp.GetLines()) == 0 || len(resp.GetLines()) != len(want.Lines) || resp.GetPass() != want.Pass ||
+				resp.GetLinks() != 16 {
+				t.Fatalf("CheckChannel: %d lines pass=%v links=%d; engine %d lines pass=%v",
+					len(resp.GetLines()), resp.GetPass(), resp.GetLinks(), len(want.Lines), want.Pass)
+			}
+			for i, l := range resp.GetLines() {
+				w := want.Lines[i]
+				if l.GetName() != w.Name || l.GetMeasured() != w.Measured || l.GetTheory() != w.Theory ||
+					l.GetTolerance() != w.Tolerance || l.GetPass() != w.Pass || l.GetKind() != w.Kind {
+					t.Errorf("line %d: %v, engine %+v", i, l, w)
+				}
+			}
+		})
+	}
+}
+
+func TestCheckChannelBadInput(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{MaxCost: 1e7})
+	ok := func() *pb.ChannelSpec {
+		return &pb.ChannelSpec{DopplerHz: 50, SampleRateHz: 1500, Profile: "FLAT", Generator: pb.Generator_GENERATOR_DEFAULT}
+	}
+	cases := []struct {
+		name  string
+		req   *pb.CheckChannelRequest
+		code  codes.Code
+		field string
+	}{
+		{"too few links", &pb.CheckChannelRequest{Channel: ok(), Links: 5}, codes.InvalidArgument, "links"},
+		{"too short", &pb.CheckChannelRequest{Channel: ok(), DopplerPeriods: 10}, codes.InvalidArgument, "doppler_periods"},
+		{"sigmas", &pb.CheckChannelRequest{Channel: ok(), Sigmas: 20}, codes.InvalidArgument, "sigmas"},
+		{"doppler above half", &pb.CheckChannelRequest{Channel: eva(760)}, codes.InvalidArgument, "channel.doppler_hz"},
+		{"generator unspecified", &pb.CheckChannelRequest{Channel: &pb.ChannelSpec{DopplerHz: 50, SampleRateHz: 1500, Profile: "FLAT"}},
+			codes.InvalidArgument, "channel.generator"},
+		{"no channel", &pb.CheckChannelRequest{}, codes.InvalidArgument, "channel"},
+		{"cost over the bound", &pb.CheckChannelRequest{Channel: ok(), Links: 4096, DopplerPeriods: 20000}, codes.ResourceExhausted, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := env.channel.CheckChannel(context.Background(), c.req)
+			if c.code == codes.InvalidArgument {
+				wantInvalid(t, err, c.field)
+				return
+			}
+			wantCode(t, err, c.code)
+		})
+	}
+}

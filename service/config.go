@@ -1,6 +1,7 @@
 package service
 
 import (
+	"context"
 	"crypto/tls"
 	"errors"
 	"fmt"
@@ -85,13 +86,17 @@ type Config struct {
 	TLS *tls.Config
 	// Logger receives the structured call log; default slog.Default().
 	Logger *slog.Logger
+	// DrainNotice is how long Shutdown keeps accepting calls after health
+	// turned NOT_SERVING, so that health checkers and load balancers move
+	// traffic away first (default 0).
+	DrainNotice time.Duration
 	// EngineParallelism is the number of sweep points computed at once;
 	// default runtime.GOMAXPROCS(0).
 	EngineParallelism int
 
 	// testHook, when set, is called by every handler after admission with
 	// the method name; tests use it to inject panics and delays.
-	testHook func(method string)
+	testHook func(ctx context.Context, method string)
 }
 
 // withDefaults returns c with every zero field set to its default, or an

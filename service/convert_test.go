@@ -188,7 +188,7 @@ func scenarioPath(name string) string {
 func TestCanonicalJSON(t *testing.T) {
 	path := scenarioPath("canonical.json")
 	if *update {
-		b, err := protojson.MarshalOptions{Multiline: true, Indent: "  ", UseProtoNames: true}.Marshal(ScenarioToProto(loop.CanonicalScenario()))
+		b, err := protojson.MarshalOptions{Multiline: true, Indent: "  ", UseProtoNames: true, EmitUnpopulated: true}.Marshal(ScenarioToProto(loop.CanonicalScenario()))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -235,5 +235,19 @@ func TestScenarioFilesValid(t *testing.T) {
 		if _, vs := domainScenario(sc, ""); len(vs) > 0 {
 			t.Errorf("%s: engine rules: %v", f, vs)
 		}
+	}
+}
+
+// TestReportRoundTrip fills every field of a RunReport and converts it
+// proto → loop → proto: a field the conversion forgets is lost.
+func TestReportRoundTrip(t *testing.T) {
+	m := &pb.RunReport{}
+	k := 0
+	populate(m.ProtoReflect(), &k)
+	if back := ReportToProto(ReportFromProto(m)); !proto.Equal(m, back) {
+		t.Fatalf("report changed in the round trip:\nin:  %v\nout: %v", m, back)
+	}
+	if ReportToProto(nil) != nil || ReportFromProto(nil) != nil {
+		t.Error("nil report not passed through as nil")
 	}
 }

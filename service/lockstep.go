@@ -156,7 +156,7 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 		return err
 	}
 	defer release()
-	s.hook("Lockstep")
+	s.hook(ctx, "Lockstep")
 
 	first, err := stream.Recv()
 	if errors.Is(err, io.EOF) {

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"net"
 	"net/http"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -39,7 +40,39 @@ type Server struct {
 	lockstep  *limiter
 	validator *protoValidator
 	draining  atomic.Bool
+	drained   chan struct{} // closed when health watchers should end
+	drainOnce sync.Once
 }
+
+// healthService is grpc's health server whose Watch streams end when the
+// server drains (after reporting NOT_SERVING), so that they do not hold a
+// graceful stop open.
+type healthService struct {
+	*health.Server
+	drained <-chan struct{}
+}
+
+func (h *healthService) Watch(req *healthpb.HealthCheckRequest, stream healthpb.Health_WatchServer) error {
+	ctx, cancel := context.WithCancel(stream.Context())
+	defer cancel()
+	go func() {
+		select {
+		case <-h.drained:
+			// Let the NOT_SERVING update reach the watcher first.
+			time.Sleep(50 * time.Millisecond)
+			cancel()
+		case <-ctx.Done():
+		}
+	}()
+	return h.Server.Watch(req, &healthWatchStream{Health_WatchServer: stream, ctx: ctx})
+}
+
+type healthWatchStream struct {
+	healthpb.Health_WatchServer
+	ctx context.Context
+}
+
+func (s *healthWatchStream) Context() context.Context { return s.ctx }
 
 // NewServer builds a Server from cfg (zero fields take their defaults; see
 // Config). It registers every service but listens on nothing: call Serve.
@@ -59,6 +92,7 @@ func NewServer(cfg Config) (*Server, error) {
 		runs:      newAdmission(cfg.MaxConcurrentRuns, cfg.QueueLength, cfg.QueueTimeout, cfg.RetryAfter),
 		lockstep:  &limiter{limit: int64(cfg.MaxLockstepStreams), retry: cfg.RetryAfter},
 		validator: v,
+		drained:   make(chan struct{}),
 	}
 	s.runs.onWait = func(d int) { s.metrics.queued.Add(float64(d)) }
 
@@ -100,7 +134,7 @@ func NewServer(cfg Config) (*Server, error) {
 	pb.RegisterChannelServiceServer(s.grpc, &channelServer{s: s})
 	pb.RegisterSimulationServiceServer(s.grpc, &simulationServer{s: s})
 	pb.RegisterLoopServiceServer(s.grpc, &loopServer{s: s})
-	healthpb.RegisterHealthServer(s.grpc, s.health)
+	healthpb.RegisterHealthServer(s.grpc, &healthService{Server: s.health, drained: s.drained})
 	reflection.Register(s.grpc)
 	s.metrics.grpc.InitializeMetrics(s.grpc)
 
@@ -132,12 +166,22 @@ func (s *Server) Serve(lis net.Listener) error {
 // HTTP listener, e.g. at /metrics).
 func (s *Server) MetricsHandler() http.Handler { return s.metrics.handler() }
 
-// Shutdown drains the server: health turns NOT_SERVING, no new calls are
-// accepted, and in-flight calls run to completion. When ctx ends first the
-// remaining calls are cancelled and Shutdown returns ctx's error.
+// Shutdown drains the server: health turns NOT_SERVING (health watchers
+// are told, then their streams end), and after Config.DrainNotice no new
+// calls are accepted while in-flight calls run to completion. When ctx ends
+// first the remaining calls are cancelled and Shutdown returns ctx's error.
 func (s *Server) Shutdown(ctx context.Context) error {
 	s.draining.Store(true)
 	s.health.Shutdown()
+	if s.cfg.DrainNotice > 0 {
+		t := time.NewTimer(s.cfg.DrainNotice)
+		select {
+		case <-t.C:
+		case <-ctx.Done():
+		}
+		t.Stop()
+	}
+	s.drainOnce.Do(func() { close(s.drained) })
 	done := make(chan struct{})
 	go func() {
 		s.grpc.GracefulStop()
@@ -157,13 +201,14 @@ func (s *Server) Shutdown(ctx context.Context) error {
 func (s *Server) Stop() {
 	s.draining.Store(true)
 	s.health.Shutdown()
+	s.drainOnce.Do(func() { close(s.drained) })
 	s.grpc.Stop()
 }
 
 // hook calls the test hook, if any.
-func (s *Server) hook(method string) {
+func (s *Server) hook(ctx context.Context, method string) {
 	if s.cfg.testHook != nil {
-		s.cfg.testHook(method)
+		s.cfg.testHook(ctx, method)
 	}
 }
 

@@ -29,6 +29,15 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
+// waitGate blocks until gate is closed or the call is cancelled (as a real
+// handler would stop).
+func waitGate(ctx context.Context, gate <-chan struct{}) {
+	select {
+	case <-gate:
+	case <-ctx.Done():
+	}
+}
+
 func smallGains() *pb.StreamGainsRequest {
 	return &pb.StreamGainsRequest{Channel: eva(10), Links: 1, Samples: 100, Seed: 1}
 }
@@ -88,9 +97,9 @@ func TestAdmissionLimit(t *testing.T) {
 	gate := make(chan struct{})
 	entered := make(chan struct{}, 4)
 	cfg := Config{MaxConcurrentRuns: 1, QueueLength: 1, QueueTimeout: 5 * time.Second, RetryAfter: 3 * time.Second}
-	cfg.testHook = func(method string) {
+	cfg.testHook = func(ctx context.Context, method string) {
 		entered <- struct{}{}
-		<-gate
+		waitGate(ctx, gate)
 	}
 	env := startEnv(t, viaBufconn, cfg)
 	errs := make(chan error, 2)
@@ -132,7 +141,7 @@ func TestAdmissionQueueTimeout(t *testing.T) {
 	gate := make(chan struct{})
 	cfg := Config{MaxConcurrentRuns: 1, QueueLength: 4, QueueTimeout: 50 * time.Millisecond}
 	entered := make(chan struct{}, 1)
-	cfg.testHook = func(string) { entered <- struct{}{}; <-gate }
+	cfg.testHook = func(ctx context.Context, _ string) { entered <- struct{}{}; waitGate(ctx, gate) }
 	env := startEnv(t, viaBufconn, cfg)
 	defer close(gate)
 	go func() { _ = callGains(context.Background(), env.channel, smallGains()) }()
@@ -146,7 +155,7 @@ func TestAdmissionQueueTimeout(t *testing.T) {
 
 func TestPanicRecovery(t *testing.T) {
 	cfg := Config{}
-	cfg.testHook = func(method string) {
+	cfg.testHook = func(_ context.Context, method string) {
 		if method == "StreamGains" {
 			panic("injected failure")
 		}
@@ -192,10 +201,17 @@ func TestGracefulShutdownCompletesInFlightCall(t *testing.T) {
 		t.Run(string(tr), func(t *testing.T) {
 			gate := make(chan struct{})
 			entered := make(chan struct{}, 1)
-			cfg := Config{}
-			cfg.testHook = func(string) { entered <- struct{}{}; <-gate }
+			cfg := Config{DrainNotice: 100 * time.Millisecond}
+			cfg.testHook = func(ctx context.Context, _ string) { entered <- struct{}{}; waitGate(ctx, gate) }
 			env := startEnv(t, tr, cfg)
 			hc := healthpb.NewHealthClient(env.conn)
+			watch, err := hc.Watch(context.Background(), &healthpb.HealthCheckRequest{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if r, err := watch.Recv(); err != nil || r.GetStatus() != healthpb.HealthCheckResponse_SERVING {
+				t.Fatalf("health watch before drain: %v %v", r, err)
+			}
 			done := make(chan error, 1)
 			go func() { done <- callGains(context.Background(), env.channel, smallGains()) }()
 			<-entered
@@ -205,18 +221,13 @@ func TestGracefulShutdownCompletesInFlightCall(t *testing.T) {
 				defer cancel()
 				shut <- env.srv.Shutdown(ctx)
 			}()
-			// Health turns NOT_SERVING while draining (the open connection
-			// still answers until the server stops).
-			deadline := time.Now().Add(2 * time.Second)
-			for {
-				r, err := hc.Check(context.Background(), &healthpb.HealthCheckRequest{})
-				if err == nil && r.GetStatus() == healthpb.HealthCheckResponse_NOT_SERVING {
-					break
-				}
-				if time.Now().After(deadline) {
-					t.Fatalf("health not NOT_SERVING while draining: %v %v", r, err)
-				}
-				time.Sleep(5 * time.Millisecond)
+			// The watcher hears NOT_SERVING, then its stream ends (so that it
+			// does not hold the drain open).
+			if r, err := watch.Recv(); err != nil || r.GetStatus() != healthpb.HealthCheckResponse_NOT_SERVING {
+				t.Fatalf("health watch during drain: %v %v", r, err)
+			}
+			if _, err := watch.Recv(); err == nil {
+				t.Fatal("health watch stream did not end during drain")
 			}
 			select {
 			case err := <-shut:
@@ -239,7 +250,7 @@ func TestShutdownTimeoutCancelsCalls(t *testing.T) {
 	defer close(gate)
 	entered := make(chan struct{}, 1)
 	cfg := Config{}
-	cfg.testHook = func(string) { entered <- struct{}{}; <-gate }
+	cfg.testHook = func(ctx context.Context, _ string) { entered <- struct{}{}; waitGate(ctx, gate) }
 	env := startEnv(t, viaBufconn, cfg)
 	done := make(chan error, 1)
 	go func() { done <- callGains(context.Background(), env.channel, smallGains()) }()

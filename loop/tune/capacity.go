@@ -2,6 +2,7 @@ package tune
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"runtime"
@@ -155,6 +156,11 @@ type CapacityResult struct {
 	// monotone in the count at this precision; the bisection result stands
 	// but is less sharp).
 	NonMonotone bool `json:"non_monotone"`
+	// BudgetExhausted: MaxUserSlots ran out before the bisection closed;
+	// Count is the largest count confirmed to pass and FailingCount the
+	// smallest known to fail (0: none found yet).
+	BudgetExhausted bool `json:"budget_exhausted"`
+	FailingCount    int  `json:"failing_count"`
 	// Replications and UserSlots spent.
 	Replications int   `json:"replications"`
 	UserSlots    int64 `json:"user_slots"`
@@ -256,7 +262,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		}
 		cost := int64(reps) * userSlots(&sc)
 		if req.MaxUserSlots > 0 && res.UserSlots+cost > req.MaxUserSlots {
-			return false, &BudgetError{NeedUserSlots: res.UserSlots + cost, LimitUserSlots: req.MaxUserSlots}
+			return false, &BudgetError{Field: "max_user_slots", NeedUserSlots: res.UserSlots + cost, LimitUserSlots: req.MaxUserSlots}
 		}
 		jobs := make([]job, reps)
 		for r := range jobs {
@@ -287,51 +293,65 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	if err != nil {
 		return nil, err
 	}
-	switch {
-	case !ok:
-		res.BelowRange = true
-		hi = lo
-		lo = 0
-	case hi != 0:
-		ok, err = eval1(hi, hi-lo-1)
-		if err != nil {
-			return nil, err
-		}
-		if ok {
-			res.AtRangeTop = true
-			lo = hi
-		}
-	default:
-		// Expanding search: double until a count fails or the top is reached.
-		for {
-			next := min(2*lo, top)
-			if next == lo {
-				res.AtRangeTop = true
-				hi = lo
-				break
-			}
-			ok, err = eval1(next, 0)
+	// search narrows [lo, hi) (lo passes, hi fails or is 0: unknown); a
+	// budget stop after the first count keeps the bracket found so far.
+	search := func() error {
+		switch {
+		case !ok:
+			res.BelowRange = true
+			hi = lo
+			lo = 0
+		case hi != 0:
+			ok, err := eval1(hi, hi-lo-1)
 			if err != nil {
-				return nil, err
+				return err
 			}
-			if !ok {
-				hi = next
-				break
+			if ok {
+				res.AtRangeTop = true
+				lo = hi
 			}
-			lo = next
+		default:
+			// Expanding search: double until a count fails or the top is
+			// reached.
+			for {
+				next := min(2*lo, top)
+				if next == lo {
+					res.AtRangeTop = true
+					hi = lo
+					break
+				}
+				ok, err := eval1(next, 0)
+				if err != nil {
+					return err
+				}
+				if !ok {
+					hi = next
+					break
+				}
+				lo = next
+			}
 		}
+		for hi-lo > 1 {
+			mid := lo + (hi-lo)/2
+			ok, err := eval1(mid, hi-lo-1)
+			if err != nil {
+				return err
+			}
+			if ok {
+				lo = mid
+			} else {
+				hi = mid
+			}
+		}
+		return nil
 	}
-	for hi-lo > 1 {
-		mid := lo + (hi-lo)/2
-		ok, err := eval1(mid, hi-lo-1)
-		if err != nil {
+	if err := search(); err != nil {
+		var be *BudgetError
+		if !errors.As(err, &be) {
 			return nil, err
 		}
-		if ok {
-			lo = mid
-		} else {
-			hi = mid
-		}
+		res.BudgetExhausted = true
+		res.FailingCount = hi
 	}
 	res.Count = lo
 	res.TotalUsers = others + lo
@@ -381,8 +401,15 @@ func capacityReason(res *CapacityResult, limit float64) string {
 		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors and the outage margin.", res.Pole, res.ModelPole)
 	}
 	var nm string
+	if res.BudgetExhausted {
+		nm = "The budget ran out before the bisection closed: the count is the largest confirmed to pass"
+		if res.FailingCount > 0 {
+			nm += fmt.Sprintf(", %d (group count) is known to fail", res.FailingCount)
+		}
+		nm += "."
+	}
 	if res.NonMonotone {
-		nm = "Outage was not monotone in the count at this precision; more replications would sharpen the answer."
+		nm = join(nm, "Outage was not monotone in the count at this precision; more replications would sharpen the answer.")
 	}
 	return join(first, pole, nm)
 }

@@ -150,6 +150,9 @@ func TestCapacityReal(t *testing.T) {
 		for _, lim := range limits {
 			base := capBase()
 			base.Run.Seed = seed
+			if testing.Short() {
+				base.Run.Slots = 2000
+			}
 			req := CapacityRequest{Base: base, OutageLimit: lim, Replications: 3, MaxCount: 40}
 			res, err := Capacity(context.Background(), req, Options{})
 			if err != nil {
@@ -199,5 +202,24 @@ func TestCapacityDeterministic(t *testing.T) {
 		} else if !bytes.Equal(ref, b) {
 			t.Errorf("GOMAXPROCS %d: capacity result differs", procs)
 		}
+	}
+}
+
+// A budget that runs out mid-search keeps what was confirmed: counts 1, 2
+// and 4 cost 3 replications × n users × 1000 slots = 21 000 user-slots; the
+// next count (8, 24 000) would exceed 22 000.
+func TestCapacityBudgetStop(t *testing.T) {
+	req := capRequest(0.05)
+	req.MaxUserSlots = 22000
+	res, err := capacityWith(context.Background(), req, Options{}, capToy)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.BudgetExhausted || res.Count != 4 || res.FailingCount != 0 || res.UserSlots != 21000 {
+		t.Errorf("result %+v", res)
+	}
+	req.MaxUserSlots = 100
+	if _, err := capacityWith(context.Background(), req, Options{}, capToy); err == nil {
+		t.Error("budget below the first count accepted")
 	}
 }

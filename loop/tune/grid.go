@@ -298,7 +298,9 @@ func CloneScenario(sc loop.Scenario) loop.Scenario { return cloneScenario(sc) }
 
 // SetTextPath sets the string field, or the enum field by its proto value
 // name (e.g. "INNER_MODE_FIXED_POWER"), of sc named by its json-tag path, in
-// the path syntax of loop.SetPath ("groups[0].profile"). It returns an error
+// the path syntax of loop.SetPath ("groups[0].profile"). Setting a group's
+// profile clears its custom_taps (exactly one of the two may be set). It
+// returns an error
 // naming the path for an unknown field, an index out of range, a field that
 // is neither a string nor an enum, or an unknown enum name.
 func SetTextPath(sc *loop.Scenario, path, text string) error {
@@ -309,6 +311,8 @@ func SetTextPath(sc *loop.Scenario, path, text string) error {
 	if path == "" {
 		return fmt.Errorf("empty field path")
 	}
+	var parent reflect.Value
+	var last string
 	for _, tok := range strings.Split(path, ".") {
 		name, idx, err := splitIndex(tok)
 		if err != nil {
@@ -321,6 +325,7 @@ func SetTextPath(sc *loop.Scenario, path, text string) error {
 		if !ok {
 			return fmt.Errorf("field path %q: unknown field %q", path, name)
 		}
+		parent, last = v, name
 		v = f
 		for _, k := range idx {
 			if v.Kind() != reflect.Slice {
@@ -344,6 +349,13 @@ func SetTextPath(sc *loop.Scenario, path, text string) error {
 		return fmt.Errorf("field path %q: %s field takes a number, not text", path, v.Kind())
 	}
 	v.SetString(text)
+	if last == "profile" && len(text) > 0 {
+		// Exactly one of profile and custom_taps may be set: a profile
+		// name replaces the group's custom taps.
+		if taps, ok := fieldByTag(parent, "custom_taps"); ok && taps.Kind() == reflect.Slice {
+			taps.Set(reflect.Zero(taps.Type()))
+		}
+	}
 	return nil
 }
 

@@ -110,6 +110,15 @@ func TestGridBadPaths(t *testing.T) {
 }
 
 func TestOverridesAndClone(t *testing.T) {
+	// The canonical scenario has custom taps: a profile override replaces
+	// them, and the result is valid.
+	veh, err := Condition{Overrides: []Override{{Path: "groups[0].profile", Text: "EVA"}}}.ApplyTo(loop.CanonicalScenario())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if veh.Groups[0].CustomTaps != nil || len(veh.Validate()) > 0 {
+		t.Errorf("profile override: taps %v, violations %v", veh.Groups[0].CustomTaps, veh.Validate())
+	}
 	base := loop.CanonicalScenario()
 	base.Groups[0].Profile = "EPA"
 	base.Groups[0].CustomTaps = nil

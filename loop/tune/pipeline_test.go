@@ -108,6 +108,13 @@ func TestTuneRejectsBadRequests(t *testing.T) {
 			t.Errorf("no violation for %s in %v", f, v)
 		}
 	}
+	// An override of an unknown field is reported with its place.
+	req = toyRequest()
+	req.Conditions[2].Overrides = append(req.Conditions[2].Overrides, Override{Path: "groups[0].no_such", Value: 1})
+	_, err = tuneWith(context.Background(), req, Options{}, toyEval)
+	if !errors.As(err, &v) || v[0].Field != "conditions[2].overrides[1].path" {
+		t.Errorf("err %v, want conditions[2].overrides[1].path", err)
+	}
 	// A candidate that breaks the scenario rules is reported with the
 	// scenario field path.
 	req = toyRequest()
@@ -133,5 +140,75 @@ func TestTuneSingleCandidate(t *testing.T) {
 	}
 	if rec.Effort.Stages != 1 || rec.Effort.Replications != 3*DefaultMinReplications {
 		t.Errorf("effort %+v", rec.Effort)
+	}
+}
+
+func TestWorstCaseUserSlots(t *testing.T) {
+	req := toyRequest()
+	// 5 candidates × 3 conditions + 3 baselines, 32 replications each, of
+	// 1 user × 3000 slots.
+	got, err := req.WorstCaseUserSlots()
+	if want := int64((5*3 + 3) * DefaultMaxReplications * 3000); err != nil || got != want {
+		t.Errorf("worst case %d (%v), want %d", got, err, want)
+	}
+	req.Budget.MaxUserSlots = 1000
+	if got, _ := req.WorstCaseUserSlots(); got != 1000 {
+		t.Errorf("bounded worst case %d, want 1000", got)
+	}
+	rec, err := tuneWith(context.Background(), toyRequest(), Options{}, toyEval)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w, _ := toyRequest().WorstCaseUserSlots(); rec.Effort.UserSlots > w {
+		t.Errorf("spent %d user-slots, worst case %d", rec.Effort.UserSlots, w)
+	}
+}
+
+// A budget of exactly the first round (5 candidates × 3 conditions × 2
+// replications × 3000 user-slots) is never exceeded: no further rounds, no
+// baseline.
+func TestTuneBudgetRespected(t *testing.T) {
+	req := toyRequest()
+	req.Budget.MaxUserSlots = 5 * 3 * DefaultMinReplications * 3000
+	rec, err := tuneWith(context.Background(), req, Options{}, toyEval)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rec.Effort.UserSlots > req.Budget.MaxUserSlots || rec.Effort.Stages != 1 || rec.Effort.BaselineReplications != 0 {
+		t.Errorf("effort %+v over budget %d", rec.Effort, req.Budget.MaxUserSlots)
+	}
+	for _, c := range rec.Conditions {
+		if c.Baseline != nil {
+			t.Errorf("%s: baseline run without budget", c.Name)
+		}
+	}
+	req.Budget.MaxUserSlots--
+	var be *BudgetError
+	if _, err := tuneWith(context.Background(), req, Options{}, toyEval); !errors.As(err, &be) || be.Field != "budget.max_user_slots" {
+		t.Errorf("err %v, want *BudgetError on budget.max_user_slots", err)
+	}
+}
+
+// A request round-trips through JSON with enum names, as a request file.
+func TestRequestJSON(t *testing.T) {
+	req := toyRequest()
+	req.Objective = Objective{Kind: ObjectiveMinTxPower, OutageLimit: 0.02}
+	b, err := json.Marshal(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(string(b), `"kind":"OBJECTIVE_KIND_MIN_TX_POWER"`) {
+		t.Errorf("objective kind not written by name: %s", b)
+	}
+	var back Request
+	if err := json.Unmarshal(b, &back); err != nil {
+		t.Fatal(err)
+	}
+	b2, _ := json.Marshal(back)
+	if string(b) != string(b2) {
+		t.Errorf("round trip differs:\n%s\n%s", b, b2)
+	}
+	if err := json.Unmarshal([]byte(`{"objective":{"kind":"NOPE"}}`), &back); err == nil {
+		t.Error("unknown objective kind accepted")
 	}
 }

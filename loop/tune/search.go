@@ -114,15 +114,18 @@ type Effort struct {
 }
 
 // BudgetError is returned when the budget cannot even pay for the first
-// MinReplications of every candidate under every condition.
+// MinReplications of every candidate under every condition (Tune), or for
+// the next count of the bisection (Capacity).
 type BudgetError struct {
-	NeedUserSlots  int64
-	LimitUserSlots int64
+	Field          string // request field of the bound, e.g. "budget.max_user_slots"
+	NeedUserSlots  int64  // user-slots needed to give an answer at all
+	LimitUserSlots int64  // the bound
 }
 
+// Error names the budget field and both figures.
 func (e *BudgetError) Error() string {
-	return fmt.Sprintf("budget.max_user_slots: the first round needs %d user-slots, the budget allows %d",
-		e.NeedUserSlots, e.LimitUserSlots)
+	return fmt.Sprintf("%s: an answer needs at least %d user-slots, the budget allows %d",
+		e.Field, e.NeedUserSlots, e.LimitUserSlots)
 }
 
 // engine is the sequential, paired comparison of nK candidates under nC
@@ -527,7 +530,7 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 		}
 	}
 	if need := e.cost(jobs); e.maxUserSlots > 0 && need > e.maxUserSlots {
-		return nil, &BudgetError{NeedUserSlots: need, LimitUserSlots: e.maxUserSlots}
+		return nil, &BudgetError{Field: "budget.max_user_slots", NeedUserSlots: need, LimitUserSlots: e.maxUserSlots}
 	}
 	e.remain = e.nK
 	if err := e.runJobs(ctx, jobs, work, store); err != nil {

@@ -12,11 +12,21 @@ import (
 
 // Defaults and limits of a tuning request.
 const (
-	DefaultConfidence        = 0.95
-	DefaultMinReplications   = 2
-	DefaultMaxReplications   = 32
+	// DefaultConfidence is the confidence level of intervals and tests.
+	DefaultConfidence = 0.95
+	// DefaultMinReplications is the first round per candidate and
+	// condition: the fewest that give a paired t interval (1 degree of
+	// freedom); common random numbers keep paired spreads small enough for
+	// clear differences to show at once.
+	DefaultMinReplications = 2
+	// DefaultMaxReplications caps the replications of one candidate under
+	// one condition.
+	DefaultMaxReplications = 32
+	// DefaultBatchReplications is added per round to candidates in
+	// contention.
 	DefaultBatchReplications = 2
-	MaxConditions            = 64
+	// MaxConditions is the most conditions of one request.
+	MaxConditions = 64
 	// MaxCandidateRuns bounds candidates × conditions × max_replications.
 	MaxCandidateRuns = 1000000
 	// BarelyHelpsFraction: power control "barely helps" in a condition when
@@ -48,8 +58,10 @@ type Budget struct {
 	// BatchReplications added per round to each candidate still in
 	// contention, [1, 100]; 0 means DefaultBatchReplications.
 	BatchReplications int `json:"batch_replications"`
-	// MaxUserSlots bounds the simulated users × slots of all runs
-	// (baseline included); 0 means no bound beyond MaxReplications.
+	// MaxUserSlots bounds the simulated users × slots of all runs; 0 means
+	// no bound beyond MaxReplications. The fixed-power baseline runs on
+	// what the candidates left: on the recommended candidate's replications,
+	// on MinReplications, or not at all.
 	MaxUserSlots int64 `json:"max_user_slots"`
 }
 
@@ -405,14 +417,13 @@ func (req *Request) check(nK int) (settings, loop.Violations) {
 func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loop.Scenario, loop.Violations) {
 	var v loop.Violations
 	out := make([][]loop.Scenario, len(pts))
-	condOK := make([]bool, len(conds))
 	for c, cd := range conds {
 		sc := cloneScenario(base)
-		if err := cd.Apply(&sc); err != nil {
-			v = append(v, loop.Violation{Field: fmt.Sprintf("conditions[%d].overrides", c), Rule: err.Error()})
-			continue
+		for j, o := range cd.Overrides {
+			if err := o.Apply(&sc); err != nil {
+				v = append(v, loop.Violation{Field: fmt.Sprintf("conditions[%d].overrides[%d].path", c, j), Rule: err.Error()})
+			}
 		}
-		condOK[c] = true
 	}
 	if len(v) > 0 {
 		return nil, v
@@ -445,6 +456,46 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 		return nil, v
 	}
 	return out, nil
+}
+
+// WorstCaseUserSlots validates req and returns the most users × slots Tune
+// can simulate for it: every candidate under every condition at
+// MaxReplications, plus the fixed-power baseline at MaxReplications per
+// condition (unless skipped), bounded by Budget.MaxUserSlots when that is
+// set. A service compares it with its cost bound before any work. It
+// saturates at math.MaxInt64.
+func (req Request) WorstCaseUserSlots() (int64, error) {
+	grid, err := NewGrid(req.Base, req.Axes)
+	if err != nil {
+		return 0, err
+	}
+	pts := grid.Points()
+	set, v := req.check(len(pts))
+	if len(v) > 0 {
+		return 0, v
+	}
+	scs, v := buildScenarios(req.Base, pts, set.conds)
+	if len(v) > 0 {
+		return 0, v
+	}
+	var total float64
+	for k := range scs {
+		for c := range scs[k] {
+			total += float64(set.maxReps) * float64(userSlots(&scs[k][c]))
+		}
+	}
+	if !req.SkipBaseline {
+		for c := range set.conds {
+			total += float64(set.maxReps) * float64(userSlots(&scs[0][c]))
+		}
+	}
+	if set.maxUserSlots > 0 && total > float64(set.maxUserSlots) {
+		return set.maxUserSlots, nil
+	}
+	if total >= math.MaxInt64 {
+		return math.MaxInt64, nil
+	}
+	return int64(total), nil
 }
 
 // Tune answers req: every candidate of the grid under every condition, with
@@ -586,12 +637,17 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 	}
 	if set.maxUserSlots > 0 && e.effort.UserSlots+cost > set.maxUserSlots {
 		// Not enough budget left for the full baseline: run the first
-		// MinReplications only.
+		// MinReplications only, or none when even that does not fit.
 		jobs = jobs[:0]
+		cost = 0
 		for c := range set.conds {
 			for r := 0; r < set.minReps; r++ {
 				jobs = append(jobs, job{k: 0, c: c, r: r})
 			}
+			cost += int64(set.minReps) * userSlots(&bases[c])
+		}
+		if e.effort.UserSlots+cost > set.maxUserSlots {
+			return nil
 		}
 	}
 	samples := make([][]Sample, len(set.conds))

@@ -47,13 +47,13 @@ func stepOf(rec *Recommendation, d Decision) float64 {
 // 1500 Hz give f_D·T = 0.0037, 0.037 and 0.31. The fixed-step loop without
 // fading settles into a ±Δ/2 limit cycle (derived, ORACLES.md), so at low
 // f_D·T large steps only add noise; at high f_D·T the fades outrun any
-// step. Each replication is 6000 slots (4 s): about 55 decorrelation times
-// (0.4/f_D) at 3 km/h; the paired differences between steps are several
+// step. Each replication is 4500 slots (3 s; 15 000 without -short): about
+// 40 decorrelation times (0.4/f_D) at 3 km/h; the paired differences between steps are several
 // tenths of a dB against a paired spread of a few hundredths (common random
 // numbers), so a handful of replications decide.
 func TestBestStepFollowsDoppler(t *testing.T) {
 	seeds := []uint64{1, 2, 3, 4, 5}
-	slots := int64(6000)
+	slots := int64(4500)
 	if testing.Short() {
 		seeds = seeds[:2]
 	} else {
@@ -171,9 +171,15 @@ func TestTuneDeterministic(t *testing.T) {
 	prev := runtime.GOMAXPROCS(0)
 	defer runtime.GOMAXPROCS(prev)
 	var ref []byte
-	for _, c := range []struct{ procs, par int }{{1, 0}, {2, 0}, {2, 3}} {
+	cfgs := []struct{ procs, par int }{{1, 0}, {2, 0}, {2, 3}}
+	req := tuneRequestSmall()
+	if testing.Short() {
+		cfgs = cfgs[:2]
+		req.Base.Run.Slots = 1500
+	}
+	for _, c := range cfgs {
 		runtime.GOMAXPROCS(c.procs)
-		rec, err := Tune(context.Background(), tuneRequestSmall(), Options{Parallelism: c.par})
+		rec, err := Tune(context.Background(), req, Options{Parallelism: c.par})
 		if err != nil {
 			t.Fatal(err)
 		}

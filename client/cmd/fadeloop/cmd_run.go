@@ -7,6 +7,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -183,8 +184,19 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	req := &pb.SimulateRequest{Scenario: sc}
 	if plotSpecs.needs("traces", "cdf") {
 		req.Traces = &pb.TraceOptions{DecimationSlots: decimationFor(sc, *tracePoints)}
-		if plotSpecs.onlyTraces() && len(users) > 0 {
+		switch {
+		case plotSpecs.onlyTraces() && len(users) > 0:
 			req.Traces.Users = users
+		case totalUsers(sc) > maxTracedUsers:
+			// The engine traces at most 64 users: take them evenly
+			// spread over the user indices.
+			n, k := totalUsers(sc), max(1, maxTracedUsers-len(users))
+			for i := range k {
+				req.Traces.Users = append(req.Traces.Users, int32(i*n/k))
+			}
+			req.Traces.Users = append(req.Traces.Users, users...)
+			slices.Sort(req.Traces.Users)
+			req.Traces.Users = slices.Compact(req.Traces.Users)
 		}
 	}
 	out, err := e.openOutput()
@@ -229,6 +241,17 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		}
 	}
 	return nil
+}
+
+// maxTracedUsers is the most users one run traces.
+const maxTracedUsers = 64
+
+func totalUsers(sc *pb.Scenario) int {
+	n := 0
+	for _, g := range sc.GetGroups() {
+		n += int(g.GetCount())
+	}
+	return n
 }
 
 // decimationFor picks the trace decimation giving about n samples per user.

@@ -326,15 +326,25 @@ func (x *StreamGainsResponse) GetGains() []byte {
 	return nil
 }
 
-// CheckChannelRequest asks for the statistical self-check of a channel.
+// CheckChannelRequest asks for the statistical self-check of a channel
+// (package fading's Check): each statistic measured over independent links
+// against its published theoretical value.
 type CheckChannelRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The channel to check.
+	// The channel to check (an empty profile is not allowed here: name FLAT
+	// for one tap).
 	Channel *ChannelSpec `protobuf:"bytes,1,opt,name=channel,proto3" json:"channel,omitempty"`
-	// Samples to generate; 0 means the check's default. [0, 1e8].
-	Samples int64 `protobuf:"varint,2,opt,name=samples,proto3" json:"samples,omitempty"`
-	// Seed of the random streams.
-	Seed          uint64 `protobuf:"varint,3,opt,name=seed,proto3" json:"seed,omitempty"`
+	// Independent links (realisations) per statistic; 0 means the default
+	// 128. [8, 4096].
+	Links int32 `protobuf:"varint,2,opt,name=links,proto3" json:"links,omitempty"`
+	// Record length of each link in Doppler periods 1/f_D; 0 means the
+	// default 250. [20, 20000]; records are capped at 2^20 samples.
+	DopplerPeriods float64 `protobuf:"fixed64,3,opt,name=doppler_periods,json=dopplerPeriods,proto3" json:"doppler_periods,omitempty"`
+	// Seed of the links' random streams (link u uses the streams of user u).
+	Seed uint64 `protobuf:"varint,4,opt,name=seed,proto3" json:"seed,omitempty"`
+	// Tolerance of each line in standard errors; 0 means the default 4.
+	// [1, 10].
+	Sigmas        float64 `protobuf:"fixed64,5,opt,name=sigmas,proto3" json:"sigmas,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -376,9 +386,16 @@ func (x *CheckChannelRequest) GetChannel() *ChannelSpec {
 	return nil
 }
 
-func (x *CheckChannelRequest) GetSamples() int64 {
+func (x *CheckChannelRequest) GetLinks() int32 {
 	if x != nil {
-		return x.Samples
+		return x.Links
+	}
+	return 0
+}
+
+func (x *CheckChannelRequest) GetDopplerPeriods() float64 {
+	if x != nil {
+		return x.DopplerPeriods
 	}
 	return 0
 }
@@ -390,21 +407,41 @@ func (x *CheckChannelRequest) GetSeed() uint64 {
 	return 0
 }
 
+func (x *CheckChannelRequest) GetSigmas() float64 {
+	if x != nil {
+		return x.Sigmas
+	}
+	return 0
+}
+
 // CheckLine is one statistic measured against theory.
 type CheckLine struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// What was checked, e.g. "autocorrelation at f_D·tau = 0.1".
+	// What was checked, in words.
 	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
-	// Measured value.
+	// Estimate from the simulated links.
 	Measured float64 `protobuf:"fixed64,2,opt,name=measured,proto3" json:"measured,omitempty"`
-	// Theoretical value.
+	// Published value for the ideal process.
 	Theory float64 `protobuf:"fixed64,3,opt,name=theory,proto3" json:"theory,omitempty"`
-	// Allowed |measured - theory|.
+	// Allowed |measured - theory|: sigmas standard errors (from the spread
+	// over independent links) plus a stated systematic allowance.
 	Tolerance float64 `protobuf:"fixed64,4,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	// |measured - theory| <= tolerance.
 	Pass bool `protobuf:"varint,5,opt,name=pass,proto3" json:"pass,omitempty"`
 	// Unit of measured, theory and tolerance ("" for dimensionless).
-	Unit          string `protobuf:"bytes,6,opt,name=unit,proto3" json:"unit,omitempty"`
+	Unit string `protobuf:"bytes,6,opt,name=unit,proto3" json:"unit,omitempty"`
+	// Statistic: mean-power, origin-power, autocorrelation, lcr, afd,
+	// power-ks, power-db-mean, power-db-std, mrc-outage, rician-k, ...
+	Kind string `protobuf:"bytes,7,opt,name=kind,proto3" json:"kind,omitempty"`
+	// Argument of the statistic: lag f_D·tau (autocorrelation), threshold
+	// rho in dB (lcr, afd), margin x in dB (mrc-outage), K in dB (rician-k).
+	Arg float64 `protobuf:"fixed64,8,opt,name=arg,proto3" json:"arg,omitempty"`
+	// Diversity branches L of the records (1 unless maximal-ratio combining).
+	Branches int32 `protobuf:"varint,9,opt,name=branches,proto3" json:"branches,omitempty"`
+	// Normalised Doppler f_D·T of the records the line was measured on.
+	FdT float64 `protobuf:"fixed64,10,opt,name=fd_t,json=fdT,proto3" json:"fd_t,omitempty"`
+	// Record length per link of those records, in Doppler periods.
+	Periods       float64 `protobuf:"fixed64,11,opt,name=periods,proto3" json:"periods,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -481,15 +518,54 @@ func (x *CheckLine) GetUnit() string {
 	return ""
 }
 
+func (x *CheckLine) GetKind() string {
+	if x != nil {
+		return x.Kind
+	}
+	return ""
+}
+
+func (x *CheckLine) GetArg() float64 {
+	if x != nil {
+		return x.Arg
+	}
+	return 0
+}
+
+func (x *CheckLine) GetBranches() int32 {
+	if x != nil {
+		return x.Branches
+	}
+	return 0
+}
+
+func (x *CheckLine) GetFdT() float64 {
+	if x != nil {
+		return x.FdT
+	}
+	return 0
+}
+
+func (x *CheckLine) GetPeriods() float64 {
+	if x != nil {
+		return x.Periods
+	}
+	return 0
+}
+
 // CheckChannelResponse is the self-check's result.
 type CheckChannelResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// One line per statistic.
 	Lines []*CheckLine `protobuf:"bytes,1,rep,name=lines,proto3" json:"lines,omitempty"`
 	// Every line passed.
-	Pass          bool `protobuf:"varint,2,opt,name=pass,proto3" json:"pass,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Pass bool `protobuf:"varint,2,opt,name=pass,proto3" json:"pass,omitempty"`
+	// Links per statistic used.
+	Links int32 `protobuf:"varint,3,opt,name=links,proto3" json:"links,omitempty"`
+	// Record length per link used, in Doppler periods.
+	DopplerPeriods float64 `protobuf:"fixed64,4,opt,name=doppler_periods,json=dopplerPeriods,proto3" json:"doppler_periods,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *CheckChannelResponse) Reset() {
@@ -536,6 +612,20 @@ func (x *CheckChannelResponse) GetPass() bool {
 	return false
 }
 
+func (x *CheckChannelResponse) GetLinks() int32 {
+	if x != nil {
+		return x.Links
+	}
+	return 0
+}
+
+func (x *CheckChannelResponse) GetDopplerPeriods() float64 {
+	if x != nil {
+		return x.DopplerPeriods
+	}
+	return 0
+}
+
 var File_fadeloop_v1_channel_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_channel_proto_rawDesc = "" +
@@ -572,21 +662,32 @@ const file_fadeloop_v1_channel_proto_rawDesc = "" +
 	"\asamples\x18\x03 \x01(\x05R\asamples\x12\x14\n" +
 	"\x05links\x18\x04 \x01(\x05R\x05links\x12\x12\n" +
 	"\x04taps\x18\x05 \x01(\x05R\x04taps\x12\x14\n" +
-	"\x05gains\x18\x06 \x01(\fR\x05gains\"\x8d\x01\n" +
+	"\x05gains\x18\x06 \x01(\fR\x05gains\"\x83\x02\n" +
 	"\x13CheckChannelRequest\x12:\n" +
-	"\achannel\x18\x01 \x01(\v2\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01R\achannel\x12&\n" +
-	"\asamples\x18\x02 \x01(\x03B\f\xbaH\t\"\a\x18\x80\xc2\xd7/(\x00R\asamples\x12\x12\n" +
-	"\x04seed\x18\x03 \x01(\x04R\x04seed\"\x99\x01\n" +
+	"\achannel\x18\x01 \x01(\v2\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01R\achannel\x12#\n" +
+	"\x05links\x18\x02 \x01(\x05B\r\xbaH\n" +
+	"\xd8\x01\x01\x1a\x05\x18\x80 (\bR\x05links\x12C\n" +
+	"\x0fdoppler_periods\x18\x03 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x88\xd3@)\x00\x00\x00\x00\x00\x004@R\x0edopplerPeriods\x12\x12\n" +
+	"\x04seed\x18\x04 \x01(\x04R\x04seed\x122\n" +
+	"\x06sigmas\x18\x05 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\xf0?R\x06sigmas\"\x88\x02\n" +
 	"\tCheckLine\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x1a\n" +
 	"\bmeasured\x18\x02 \x01(\x01R\bmeasured\x12\x16\n" +
 	"\x06theory\x18\x03 \x01(\x01R\x06theory\x12\x1c\n" +
 	"\ttolerance\x18\x04 \x01(\x01R\ttolerance\x12\x12\n" +
 	"\x04pass\x18\x05 \x01(\bR\x04pass\x12\x12\n" +
-	"\x04unit\x18\x06 \x01(\tR\x04unit\"X\n" +
+	"\x04unit\x18\x06 \x01(\tR\x04unit\x12\x12\n" +
+	"\x04kind\x18\a \x01(\tR\x04kind\x12\x10\n" +
+	"\x03arg\x18\b \x01(\x01R\x03arg\x12\x1a\n" +
+	"\bbranches\x18\t \x01(\x05R\bbranches\x12\x11\n" +
+	"\x04fd_t\x18\n" +
+	" \x01(\x01R\x03fdT\x12\x18\n" +
+	"\aperiods\x18\v \x01(\x01R\aperiods\"\x97\x01\n" +
 	"\x14CheckChannelResponse\x12,\n" +
 	"\x05lines\x18\x01 \x03(\v2\x16.fadeloop.v1.CheckLineR\x05lines\x12\x12\n" +
-	"\x04pass\x18\x02 \x01(\bR\x04pass2\xb9\x01\n" +
+	"\x04pass\x18\x02 \x01(\bR\x04pass\x12\x14\n" +
+	"\x05links\x18\x03 \x01(\x05R\x05links\x12'\n" +
+	"\x0fdoppler_periods\x18\x04 \x01(\x01R\x0edopplerPeriods2\xb9\x01\n" +
 	"\x0eChannelService\x12R\n" +
 	"\vStreamGains\x12\x1f.fadeloop.v1.StreamGainsRequest\x1a .fadeloop.v1.StreamGainsResponse0\x01\x12S\n" +
 	"\fCheckChannel\x12 .fadeloop.v1.CheckChannelRequest\x1a!.fadeloop.v1.CheckChannelResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"

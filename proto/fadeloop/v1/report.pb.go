@@ -198,11 +198,13 @@ type Figures struct {
 	NoiseRiseMeanDb *Estimate `protobuf:"bytes,10,opt,name=noise_rise_mean_db,json=noiseRiseMeanDb,proto3" json:"noise_rise_mean_db,omitempty"`
 	// 95th percentile of the noise rise in dB.
 	NoiseRiseP95Db *Estimate `protobuf:"bytes,11,opt,name=noise_rise_p95_db,json=noiseRiseP95Db,proto3" json:"noise_rise_p95_db,omitempty"`
-	// Time to converge after start in s (SIR error within its steady band).
+	// Time from start until the 10 ms mean SIR error is first within ±1 dB
+	// (mean over users), in s.
 	ConvergenceTimeS *Estimate `protobuf:"bytes,12,opt,name=convergence_time_s,json=convergenceTimeS,proto3" json:"convergence_time_s,omitempty"`
 	// Users in the set.
 	Users int32 `protobuf:"varint,13,opt,name=users,proto3" json:"users,omitempty"`
-	// User-slots measured (warm-up excluded), over all replications.
+	// User-slots measured (active slots, warm-up excluded), over all
+	// replications.
 	UserSlots     int64 `protobuf:"varint,14,opt,name=user_slots,json=userSlots,proto3" json:"user_slots,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -521,7 +523,10 @@ type Feasibility struct {
 	// (infeasible when >= 1), when computed.
 	SpectralRadius float64 `protobuf:"fixed64,3,opt,name=spectral_radius,json=spectralRadius,proto3" json:"spectral_radius,omitempty"`
 	// Users that cannot reach the target (indices), when known.
-	Users         []int32 `protobuf:"varint,4,rep,packed,name=users,proto3" json:"users,omitempty"`
+	Users []int32 `protobuf:"varint,4,rep,packed,name=users,proto3" json:"users,omitempty"`
+	// Load factor (1+f)·Σ a_i·γ_i/(G_p+γ_i) of the targets (the larger of
+	// initial and final); the pole bound is 1.
+	LoadFactor    float64 `protobuf:"fixed64,5,opt,name=load_factor,json=loadFactor,proto3" json:"load_factor,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -582,6 +587,13 @@ func (x *Feasibility) GetUsers() []int32 {
 		return x.Users
 	}
 	return nil
+}
+
+func (x *Feasibility) GetLoadFactor() float64 {
+	if x != nil {
+		return x.LoadFactor
+	}
+	return 0
 }
 
 // UserTrace is one user's decimated trace for plots.
@@ -696,7 +708,7 @@ type RunReport struct {
 	EngineVersion string `protobuf:"bytes,7,opt,name=engine_version,json=engineVersion,proto3" json:"engine_version,omitempty"`
 	// Replications run.
 	Replications int32 `protobuf:"varint,8,opt,name=replications,proto3" json:"replications,omitempty"`
-	// Slots per replication (warm-up excluded).
+	// Measured slots per replication (warm-up excluded).
 	Slots int64 `protobuf:"varint,9,opt,name=slots,proto3" json:"slots,omitempty"`
 	// Simulated user-slots, warm-up included, over all replications.
 	SimulatedUserSlots int64 `protobuf:"varint,10,opt,name=simulated_user_slots,json=simulatedUserSlots,proto3" json:"simulated_user_slots,omitempty"`
@@ -704,8 +716,11 @@ type RunReport struct {
 	WallTimeS float64 `protobuf:"fixed64,11,opt,name=wall_time_s,json=wallTimeS,proto3" json:"wall_time_s,omitempty"`
 	// Simulated user-slots per second of wall-clock time.
 	UserSlotsPerS float64 `protobuf:"fixed64,12,opt,name=user_slots_per_s,json=userSlotsPerS,proto3" json:"user_slots_per_s,omitempty"`
-	// Decimated traces, when asked for.
-	Traces        []*UserTrace `protobuf:"bytes,13,rep,name=traces,proto3" json:"traces,omitempty"`
+	// Decimated traces of replication 0, when asked for (inactive slots
+	// omitted).
+	Traces []*UserTrace `protobuf:"bytes,13,rep,name=traces,proto3" json:"traces,omitempty"`
+	// Caveats of this run (e.g. values beyond the histogram range).
+	Notes         []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -831,6 +846,13 @@ func (x *RunReport) GetTraces() []*UserTrace {
 	return nil
 }
 
+func (x *RunReport) GetNotes() []string {
+	if x != nil {
+		return x.Notes
+	}
+	return nil
+}
+
 var File_fadeloop_v1_report_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_report_proto_rawDesc = "" +
@@ -878,14 +900,16 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\x03bin\x18\x01 \x01(\x05R\x03bin\x12$\n" +
 	"\x0emin_distance_m\x18\x02 \x01(\x01R\fminDistanceM\x12$\n" +
 	"\x0emax_distance_m\x18\x03 \x01(\x01R\fmaxDistanceM\x12.\n" +
-	"\afigures\x18\x04 \x01(\v2\x14.fadeloop.v1.FiguresR\afigures\"\x84\x01\n" +
+	"\afigures\x18\x04 \x01(\v2\x14.fadeloop.v1.FiguresR\afigures\"\xa5\x01\n" +
 	"\vFeasibility\x12\x1e\n" +
 	"\n" +
 	"infeasible\x18\x01 \x01(\bR\n" +
 	"infeasible\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\x12'\n" +
 	"\x0fspectral_radius\x18\x03 \x01(\x01R\x0espectralRadius\x12\x14\n" +
-	"\x05users\x18\x04 \x03(\x05R\x05users\"\xb3\x01\n" +
+	"\x05users\x18\x04 \x03(\x05R\x05users\x12\x1f\n" +
+	"\vload_factor\x18\x05 \x01(\x01R\n" +
+	"loadFactor\"\xb3\x01\n" +
 	"\tUserTrace\x12\x12\n" +
 	"\x04user\x18\x01 \x01(\x05R\x04user\x12\x14\n" +
 	"\x05slots\x18\x02 \x03(\x03R\x05slots\x12\x15\n" +
@@ -893,7 +917,7 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\ttarget_db\x18\x04 \x03(\x02R\btargetDb\x12 \n" +
 	"\ftx_power_dbm\x18\x05 \x03(\x02R\n" +
 	"txPowerDbm\x12&\n" +
-	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xd9\x04\n" +
+	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xef\x04\n" +
 	"\tRunReport\x122\n" +
 	"\taggregate\x18\x01 \x01(\v2\x14.fadeloop.v1.FiguresR\taggregate\x12.\n" +
 	"\x05users\x18\x02 \x03(\v2\x18.fadeloop.v1.UserFiguresR\x05users\x12D\n" +
@@ -908,7 +932,8 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	" \x01(\x03R\x12simulatedUserSlots\x12\x1e\n" +
 	"\vwall_time_s\x18\v \x01(\x01R\twallTimeS\x12'\n" +
 	"\x10user_slots_per_s\x18\f \x01(\x01R\ruserSlotsPerS\x12.\n" +
-	"\x06traces\x18\r \x03(\v2\x16.fadeloop.v1.UserTraceR\x06tracesB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
+	"\x06traces\x18\r \x03(\v2\x16.fadeloop.v1.UserTraceR\x06traces\x12\x14\n" +
+	"\x05notes\x18\x0e \x03(\tR\x05notesB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
 var (
 	file_fadeloop_v1_report_proto_rawDescOnce sync.Once

@@ -83,7 +83,8 @@ type TraceOptions struct {
 	// Keep one sample every decimation_slots slots; 0 means no traces.
 	// [0, 1e6].
 	DecimationSlots int32 `protobuf:"varint,1,opt,name=decimation_slots,json=decimationSlots,proto3" json:"decimation_slots,omitempty"`
-	// Users to trace (indices); empty means all users. At most 256 entries.
+	// Users to trace (0-based indices in group order), at most 64; empty
+	// means the first min(64, users) users.
 	Users         []int32 `protobuf:"varint,2,rep,packed,name=users,proto3" json:"users,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -751,10 +752,10 @@ var File_fadeloop_v1_simulation_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\n" +
-	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\"m\n" +
+	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\"l\n" +
 	"\fTraceOptions\x126\n" +
-	"\x10decimation_slots\x18\x01 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xc0\x84=(\x00R\x0fdecimationSlots\x12%\n" +
-	"\x05users\x18\x02 \x03(\x05B\x0f\xbaH\f\x92\x01\t\x10\x80\x02\"\x04\x1a\x02(\x00R\x05users\"\xbe\x01\n" +
+	"\x10decimation_slots\x18\x01 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xc0\x84=(\x00R\x0fdecimationSlots\x12$\n" +
+	"\x05users\x18\x02 \x03(\x05B\x0e\xbaH\v\x92\x01\b\x10@\"\x04\x1a\x02(\x00R\x05users\"\xbe\x01\n" +
 	"\x0fSimulateRequest\x129\n" +
 	"\bscenario\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\bscenario\x121\n" +
 	"\x06traces\x18\x02 \x01(\v2\x19.fadeloop.v1.TraceOptionsR\x06traces\x12=\n" +

@@ -1,0 +1,57 @@
+package tune
+
+import (
+	"fmt"
+	"strconv"
+)
+
+// Text forms of the enumerations (JSON, YAML): the value names of the
+// proposed fadeloop.v1 proto enums, so request files read the same in both.
+var (
+	objectiveKindNames   = []string{"OBJECTIVE_KIND_UNSPECIFIED", "OBJECTIVE_KIND_MIN_SIR_ERROR_STD", "OBJECTIVE_KIND_MIN_OUTAGE", "OBJECTIVE_KIND_MIN_TX_POWER"}
+	candidateStatusNames = []string{"CANDIDATE_STATUS_UNSPECIFIED", "CANDIDATE_STATUS_CONTENDING", "CANDIDATE_STATUS_DROPPED", "CANDIDATE_STATUS_EQUIVALENT"}
+)
+
+func parseEnum(names []string, kind string, b []byte) (int, error) {
+	s := string(b)
+	for i, n := range names {
+		if n == s {
+			return i, nil
+		}
+	}
+	if v, err := strconv.Atoi(s); err == nil && v >= 0 && v < len(names) {
+		return v, nil
+	}
+	return 0, fmt.Errorf("unknown %s %q", kind, s)
+}
+
+func enumName(names []string, v int) string {
+	if v >= 0 && v < len(names) {
+		return names[v]
+	}
+	return strconv.Itoa(v)
+}
+
+// MarshalText returns the proto value name, e.g. "OBJECTIVE_KIND_MIN_OUTAGE".
+func (k ObjectiveKind) MarshalText() ([]byte, error) {
+	return []byte(enumName(objectiveKindNames, int(k))), nil
+}
+
+// UnmarshalText accepts the proto value name or its number.
+func (k *ObjectiveKind) UnmarshalText(b []byte) error {
+	v, err := parseEnum(objectiveKindNames, "objective kind", b)
+	*k = ObjectiveKind(v)
+	return err
+}
+
+// MarshalText returns the proto value name, e.g. "CANDIDATE_STATUS_DROPPED".
+func (s CandidateStatus) MarshalText() ([]byte, error) {
+	return []byte(enumName(candidateStatusNames, int(s))), nil
+}
+
+// UnmarshalText accepts the proto value name or its number.
+func (s *CandidateStatus) UnmarshalText(b []byte) error {
+	v, err := parseEnum(candidateStatusNames, "candidate status", b)
+	*s = CandidateStatus(v)
+	return err
+}

@@ -1,0 +1,265 @@
+package service
+
+import (
+	"context"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/protobuf/proto"
+
+	"github.com/fadeloop/fadeloop/loop"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+func sweepBase(t testing.TB) *pb.Scenario {
+	sc := smallScenario(t)
+	sc.Run.Slots = 1500
+	sc.Run.WarmupSlots = 150
+	sc.Run.Replications = 1
+	return sc
+}
+
+func sweepAxes() []*pb.SweepAxis {
+	return []*pb.SweepAxis{
+		{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 2}},
+		{Path: "inner_loop.feedback_delay_slots", Values: []float64{0, 2}},
+	}
+}
+
+// sweep runs a Sweep call and returns the points by index and the summary.
+func sweep(t *testing.T, env *testEnv, req *pb.SweepRequest) (map[int64]*pb.SweepPoint, *pb.SweepSummary, error) {
+	t.Helper()
+	st, err := env.sim.Sweep(context.Background(), req)
+	if err != nil {
+		return nil, nil, err
+	}
+	msgs, err := drain(st.Recv)
+	if err != nil {
+		return nil, nil, err
+	}
+	points := map[int64]*pb.SweepPoint{}
+	var sum *pb.SweepSummary
+	for i, m := range msgs {
+		switch e := m.GetEvent().(type) {
+		case *pb.SweepResponse_Point:
+			if sum != nil {
+				t.Fatal("point after the summary")
+			}
+			if _, dup := points[e.Point.GetIndex()]; dup {
+				t.Fatalf("point %d sent twice", e.Point.GetIndex())
+			}
+			points[e.Point.GetIndex()] = e.Point
+		case *pb.SweepResponse_Summary:
+			if i != len(msgs)-1 {
+				t.Fatal("summary is not the last message")
+			}
+			sum = e.Summary
+		}
+	}
+	if sum == nil {
+		t.Fatal("no summary")
+	}
+	return points, sum, nil
+}
+
+// directPoint runs grid point (i, j) of sweepAxes by hand with the engine.
+func directPoint(t *testing.T, base *pb.Scenario, step, delay float64, seed uint64) *pb.RunReport {
+	t.Helper()
+	sc := ScenarioFromProto(base)
+	if err := loop.SetPath(&sc, "inner_loop.step_db", step); err != nil {
+		t.Fatal(err)
+	}
+	if err := loop.SetPath(&sc, "inner_loop.feedback_delay_slots", delay); err != nil {
+		t.Fatal(err)
+	}
+	sc.Run.Seed = seed
+	rep, err := loop.Run(context.Background(), sc, loop.RunOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return ReportToProto(rep)
+}
+
+// aggregateOnly keeps what a non-detailed sweep point carries.
+func aggregateOnly(r *pb.RunReport) *pb.RunReport {
+	r = stripTiming(r)
+	r.Users, r.DistanceBins, r.NormalisedScenario, r.Traces = nil, nil, nil, nil
+	return r
+}
+
+func TestSweepGridAndDeterminism(t *testing.T) {
+	base := sweepBase(t)
+	for _, tr := range transports {
+		t.Run(string(tr), func(t *testing.T) {
+			env := startEnv(t, tr, Config{})
+			points, sum, err := sweep(t, env, &pb.SweepRequest{Base: base, Axes: sweepAxes(), SeedMode: pb.SeedMode_SEED_MODE_COMMON})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(points) != 6 || sum.GetGridPoints() != 6 || sum.GetPointsComputed() != 6 || sum.GetSimulatedUserSlots() != 6*4*1500 {
+				t.Fatalf("%d points, summary %v", len(points), sum)
+			}
+			steps, delays := sweepAxes()[0].GetValues(), sweepAxes()[1].GetValues()
+			for idx, p := range points {
+				// Row-major, last axis fastest.
+				step, delay := steps[idx/2], delays[idx%2]
+				if c := p.GetCoordinates(); len(c) != 2 || c[0] != step || c[1] != delay {
+					t.Errorf("point %d coordinates %v, want [%v %v]", idx, c, step, delay)
+				}
+				if p.GetSeed() != 7 {
+					t.Errorf("point %d seed %d, want the common seed 7", idx, p.GetSeed())
+				}
+				if p.GetReport().GetUsers() != nil {
+					t.Errorf("non-detailed point %d carries per-user figures", idx)
+				}
+			}
+			for _, idx := range []int64{0, 5} {
+				want := aggregateOnly(directPoint(t, base, steps[idx/2], delays[idx%2], 7))
+				if got := stripTiming(points[idx].GetReport()); !proto.Equal(got, want) {
+					t.Errorf("point %d differs from a direct engine run:\ngot  %v\nwant %v", idx, got.GetAggregate(), want.GetAggregate())
+				}
+			}
+			// A subset, in any order, gives the same points (a retried or
+			// resumed sweep).
+			sub, sum2, err := sweep(t, env, &pb.SweepRequest{Base: base, Axes: sweepAxes(), SeedMode: pb.SeedMode_SEED_MODE_COMMON,
+				PointIndices: []int64{4, 1}, Detailed: true})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(sub) != 2 || sum2.GetPointsComputed() != 2 || sum2.GetGridPoints() != 6 {
+				t.Fatalf("subset: %d points, summary %v", len(sub), sum2)
+			}
+			for _, idx := range []int64{4, 1} {
+				if !proto.Equal(aggregateOnly(sub[idx].GetReport()), stripTiming(points[idx].GetReport())) {
+					t.Errorf("retried point %d differs", idx)
+				}
+				if len(sub[idx].GetReport().GetUsers()) != 4 || sub[idx].GetReport().GetNormalisedScenario() == nil {
+					t.Errorf("detailed point %d lacks per-user figures or the scenario", idx)
+				}
+			}
+		})
+	}
+}
+
+func TestSweepPerPointSeeds(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{})
+	base := sweepBase(t)
+	axes := []*pb.SweepAxis{{Path: "groups[0].speeds[0].speed_kmh", Values: []float64{3, 3, 3}}}
+	points, _, err := sweep(t, env, &pb.SweepRequest{Base: base, Axes: axes, SeedMode: pb.SeedMode_SEED_MODE_PER_POINT})
+	if err != nil {
+		t.Fatal(err)
+	}
+	seen := map[uint64]bool{}
+	for idx, p := range points {
+		// The documented derivation: SplitMix64(seed + (i+1)·0x9E3779B97F4A7C15).
+		z := uint64(7) + uint64(idx+1)*0x9E3779B97F4A7C15
+		z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9
+		z = (z ^ (z >> 27)) * 0x94D049BB133111EB
+		if want := z ^ (z >> 31); p.GetSeed() != want {
+			t.Errorf("point %d seed %d, want %d", idx, p.GetSeed(), want)
+		}
+		seen[p.GetSeed()] = true
+	}
+	if len(seen) != 3 {
+		t.Errorf("per-point seeds not distinct: %v", seen)
+	}
+	// Identical scenarios with different seeds give different figures.
+	a := points[0].GetReport().GetAggregate().GetSirErrorStdDb().GetValue()
+	b := points[1].GetReport().GetAggregate().GetSirErrorStdDb().GetValue()
+	if a == b {
+		t.Errorf("points 0 and 1 have the same SIR error std %v despite different seeds", a)
+	}
+}
+
+func TestSweepBadInput(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{MaxCost: 2e6})
+	req := func(f func(*pb.SweepRequest)) *pb.SweepRequest {
+		r := &pb.SweepRequest{Base: sweepBase(t), Axes: sweepAxes(), SeedMode: pb.SeedMode_SEED_MODE_COMMON}
+		f(r)
+		return r
+	}
+	cases := []struct {
+		name  string
+		req   *pb.SweepRequest
+		code  codes.Code
+		field string
+	}{
+		{"seed mode unspecified", req(func(r *pb.SweepRequest) { r.SeedMode = 0 }), codes.InvalidArgument, "seed_mode"},
+		{"unknown path", req(func(r *pb.SweepRequest) { r.Axes[0].Path = "inner_loop.nope" }), codes.InvalidArgument, "axes[0].path"},
+		{"enum path", req(func(r *pb.SweepRequest) { r.Axes[1].Path = "inner_loop.mode" }), codes.InvalidArgument, "axes[1].path"},
+		{"index out of range", req(func(r *pb.SweepRequest) { r.Axes[0].Path = "groups[3].count" }), codes.InvalidArgument, "axes[0].path"},
+		{"value out of range", req(func(r *pb.SweepRequest) { r.Axes[0].Values[1] = 50 }), codes.InvalidArgument, "axes[0].values[1]"},
+		{"non-integral value", req(func(r *pb.SweepRequest) { r.Axes[1].Values[1] = 1.5 }), codes.InvalidArgument, "axes[1].values[1]"},
+		{"Doppler over half the rate at one point", req(func(r *pb.SweepRequest) {
+			r.Axes[0] = &pb.SweepAxis{Path: "groups[0].speeds[0].speed_kmh", Values: []float64{3, 450}}
+		}), codes.InvalidArgument, "axes[0].values[1]"},
+		{"empty values", req(func(r *pb.SweepRequest) { r.Axes[0].Values = nil }), codes.InvalidArgument, "axes[0].values"},
+		{"no axes", req(func(r *pb.SweepRequest) { r.Axes = nil }), codes.InvalidArgument, "axes"},
+		{"point index past the grid", req(func(r *pb.SweepRequest) { r.PointIndices = []int64{6} }), codes.InvalidArgument, "point_indices[0]"},
+		{"duplicate point index", req(func(r *pb.SweepRequest) { r.PointIndices = []int64{1, 1} }), codes.InvalidArgument, "point_indices"},
+		{"bad base", req(func(r *pb.SweepRequest) { r.Base.InnerLoop.Mode = 0 }), codes.InvalidArgument, "base.inner_loop.mode"},
+		{"cost over the bound", req(func(r *pb.SweepRequest) {
+			// 100 × 2 points × 24 000 tap-slots = 4.8e6 > 2e6.
+			r.Axes[0].Values = make([]float64, 100)
+			for k := range r.Axes[0].Values {
+				r.Axes[0].Values[k] = 1
+			}
+		}),
+			codes.ResourceExhausted, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, _, err := sweep(t, env, c.req)
+			if c.code == codes.InvalidArgument {
+				wantInvalid(t, err, c.field)
+				return
+			}
+			wantCode(t, err, c.code)
+		})
+	}
+}
+
+func TestSweepCoordinatesRowMajor(t *testing.T) {
+	g := &sweepGrid{axes: []*pb.SweepAxis{{Values: make([]float64, 3)}, {Values: make([]float64, 4)}, {Values: make([]float64, 2)}}}
+	seen := map[[3]int]bool{}
+	for i := range int64(24) {
+		c := g.coordinates(i)
+		if want := int64(c[0]*8 + c[1]*2 + c[2]); want != i {
+			t.Fatalf("index %d -> %v -> %d", i, c, want)
+		}
+		seen[[3]int{c[0], c[1], c[2]}] = true
+	}
+	if len(seen) != 24 {
+		t.Errorf("%d distinct coordinates of 24", len(seen))
+	}
+}
+
+func TestSweepCancellationStopsPromptly(t *testing.T) {
+	env := startEnv(t, viaLoopback, Config{MaxConcurrentRuns: 1, QueueLength: -1})
+	base := longScenario()
+	ctx, cancel := context.WithCancel(context.Background())
+	st, err := env.sim.Sweep(ctx, &pb.SweepRequest{Base: base, SeedMode: pb.SeedMode_SEED_MODE_PER_POINT,
+		Axes: []*pb.SweepAxis{{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 1.5, 2}}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Wait until the sweep holds the run slot, then cancel.
+	for {
+		err := callGains(context.Background(), env.channel, smallGains())
+		if err != nil {
+			wantCode(t, err, codes.ResourceExhausted)
+			break
+		}
+	}
+	t0 := time.Now()
+	cancel()
+	if _, err := st.Recv(); err == nil {
+		t.Fatal("cancelled sweep sent a point")
+	}
+	d := waitSlotFree(t, env, t0)
+	t.Logf("sweep stopped and slot freed %v after cancel", d)
+	if d > 100*time.Millisecond {
+		t.Errorf("sweep work stopped %v after cancel, want <= 100 ms", d)
+	}
+}
