@@ -338,7 +338,7 @@ func TestUnreachableServer(t *testing.T) {
 
 func TestCallTimeout(t *testing.T) {
 	sc := tinyScenario(t)
-	sc.Run.Slots = 50_000_000 // far longer than the deadline
+	sc.Run.Slots = 20_000_000 // far longer than the deadline
 	c, err := Embedded(quiet(service.Config{}), Options{CallTimeout: 200 * time.Millisecond})
 	if err != nil {
 		t.Fatal(err)

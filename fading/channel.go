@@ -23,7 +23,8 @@ const (
 	// GeneratorSumOfSinusoids is the statistically correct sum of sinusoids
 	// of Zheng & Xiao (IEEE Trans. Commun. 51(6), 2003): random phase and
 	// random (stratified) arrival angle per sinusoid, equal gains,
-	// SOSSinusoids per branch by default, evaluated at every sample.
+	// SOSSinusoids per branch by default; internal rate and interpolation as
+	// for GeneratorDefault.
 	GeneratorSumOfSinusoids
 	// GeneratorSpectral is Gaussian noise shaped by the Clarke filter through
 	// an inverse FFT (Young & Beaulieu, IEEE Trans. Commun. 48(7), 2000),
@@ -100,7 +101,7 @@ func (c ChannelConfig) Validate() error {
 // Internal-rate rules (see internalStep).
 const (
 	internalNu  = 0.2  // f_D / internal rate when a generator decimates
-	directAbove = 0.15 // GeneratorDefault and GeneratorSpectral run at the sample rate when f_D·T >= this
+	directAbove = 0.15 // generators run at the sample rate when f_D·T >= this
 	interpHist  = interpTaps - 1
 )
 
@@ -110,7 +111,7 @@ func internalStep(g Generator, fdT float64) float64 {
 	switch {
 	case fdT == 0:
 		return 1
-	case g != GeneratorSumOfSinusoids && fdT < directAbove:
+	case fdT < directAbove:
 		return fdT / internalNu
 	}
 	return 1

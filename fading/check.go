@@ -28,7 +28,7 @@ const (
 	// samples of one pass over all links (which bounds the run time at very
 	// small f_D·T; the record length used is reported per line).
 	checkMaxSamples = 1 << 20
-	checkMaxTotal   = 1 << 24
+	checkMaxTotal   = 1 << 23
 	// ksC is the asymptotic Kolmogorov–Smirnov critical constant at
 	// significance 1e-3, √(−ln(α/2)/2).
 	ksC = 1.949
@@ -59,7 +59,7 @@ type CheckConfig struct {
 	Links int
 	// DopplerPeriods is the record length of each link in units of 1/f_D,
 	// 0 -> DefaultCheckPeriods, else in [20, MaxCheckPeriods]; records are
-	// capped at 2^20 samples per link and 2^24 over all links (the length
+	// capped at 2^20 samples per link and 2^23 over all links (the length
 	// used is reported in CheckLine.Periods).
 	DopplerPeriods float64
 	// Seed seeds the links (link u is NewChannel(…, Seed, u)).
@@ -147,12 +147,13 @@ func newSampler(cfg ChannelConfig, seed uint64, user int) (sampler, error) {
 //   - mean power of a unit-power tap [mean-power] and the ensemble power in
 //     the first 0.02/f_D of the records [origin-power], which exposes a
 //     non-stationary generator;
-//   - normalised autocorrelation Re E[h(t+τ)h*(t)]/E|h|² (per link) at
+//   - normalised autocorrelation Σ Re h(t+τ)h*(t) / Σ |h(t)|² (pooled over
+//     the links, standard error by the delta method) at
 //     f_D τ ≈ 0.05, 0.1, 0.2, 0.3827, 0.6, 1, 1.5 against J0(2π f_D τ)
 //     [autocorrelation] (Clarke 1968; Jakes 1974);
 //   - level-crossing rate N_R/f_D = √(2π) ρ e^(−ρ²) [lcr] and average fade
 //     duration f_D·AFD = (e^(ρ²) − 1)/(ρ√(2π)) [afd] at ρ = 0, −3, −10,
-//     −20 dB, ρ relative to the link's measured rms envelope (Jakes 1974);
+//     −20 dB, ρ relative to the unit rms envelope (Jakes 1974);
 //     thresholds whose average fade lasts fewer than 10
 //     samples at the configured rate are measured on records generated at
 //     f_D·T = 0.002 with the same generator;
@@ -366,9 +367,11 @@ func (r *checkRun) dynamic(fdT float64) error {
 
 	meanPow := make([]float64, links)
 	originPow := make([]float64, links)
-	acf := make([][]float64, len(lagD))
+	acf := make([][]float64, len(lagD))    // per link: mean of Re h(t+τ)h*(t)
+	acfPow := make([][]float64, len(lagD)) // per link: mean of |h(t)|² over the same origins
 	for j := range acf {
 		acf[j] = make([]float64, links)
+		acfPow[j] = make([]float64, links)
 	}
 	down := make([][]float64, len(shallow))
 	below := make([][]float64, len(shallow))
@@ -406,15 +409,17 @@ func (r *checkRun) dynamic(fdT float64) error {
 				acf[j][u] = math.NaN()
 				continue
 			}
-			s, cnt := 0.0, 0
+			s, p, cnt := 0.0, 0.0, 0
 			for i := 0; i+d < n; i += so {
 				s += re[i]*re[i+d] + im[i]*im[i+d]
+				p += pw[i]
 				cnt++
 			}
-			acf[j][u] = s / float64(cnt) / meanPow[u]
+			acf[j][u] = s / float64(cnt)
+			acfPow[j][u] = p / float64(cnt)
 		}
 		for j, th := range shallow {
-			dn, bl := crossings(pw, meanPow[u]*math.Pow(10, th/10))
+			dn, bl := crossings(pw, math.Pow(10, th/10))
 			down[j][u], below[j][u] = dn, bl
 		}
 		s, sq, cnt := 0.0, 0.0, 0
@@ -444,7 +449,7 @@ func (r *checkRun) dynamic(fdT float64) error {
 			continue
 		}
 		ft := float64(d) * fdT
-		m, se := meanSE(acf[j])
+		m, se := ratioSE(acf[j], acfPow[j])
 		r.add(CheckLine{Name: fmt.Sprintf("autocorrelation at f_D·τ = %.4f vs J0(2π f_D τ)", ft), Kind: "autocorrelation",
 			Arg: ft, Measured: m, Theory: math.J0(2 * math.Pi * ft), FdT: fdT}, se, allowAutocorr)
 	}
@@ -554,12 +559,8 @@ func (r *checkRun) deep(ths []float64) error {
 		if err != nil {
 			return err
 		}
-		s := 0.0
-		for _, v := range r.pw[:n] {
-			s += v
-		}
 		for j, th := range ths {
-			down[j][u], below[j][u] = crossings(r.pw[:n], s/float64(n)*math.Pow(10, th/10))
+			down[j][u], below[j][u] = crossings(r.pw[:n], math.Pow(10, th/10))
 		}
 	}
 	r.addCrossings(ths, down, below, n, checkDeepFdT)
@@ -665,15 +666,19 @@ func (r *checkRun) mrc(L int, fdT float64) error {
 }
 
 // rician checks the first tap with its LOS component: mean power and the K
-// factor recovered from the moments of the power, K = √(Ga² − Gv)/(Ga −
-// √(Ga² − Gv)) with Ga = E|h|², Gv = Var|h|² (per link, then averaged).
+// factor recovered from the moments of the power pooled over all links,
+// K = √(Ga² − Gv)/(Ga − √(Ga² − Gv)) with Ga = E|h|², Gv = Var|h|²
+// (pooling avoids the bias of per-link estimates from short records); its
+// standard error is the delete-one-link jackknife.
 func (r *checkRun) rician(fdT float64) error {
 	c := r.base()
 	c.LOS = true
 	c.RicianKDB, c.LOSAngleRad = r.cfg.Channel.RicianKDB, r.cfg.Channel.LOSAngleRad
 	links := r.cfg.Links
 	pows := make([]float64, links)
-	ks := make([]float64, links)
+	s1, s2 := make([]float64, links), make([]float64, links)
+	var t1, t2, tn float64
+	nn := 0
 	for u := 0; u < links; u++ {
 		if err := r.ctx.Err(); err != nil {
 			return err
@@ -682,22 +687,37 @@ func (r *checkRun) rician(fdT float64) error {
 		if err != nil {
 			return err
 		}
+		nn = n
 		var s, sq float64
 		for _, v := range r.pw[:n] {
 			s += v
 			sq += v * v
 		}
-		ga := s / float64(n)
-		gv := sq/float64(n) - ga*ga
-		pows[u] = ga
-		ks[u] = ricianKFromMoments(ga, gv)
+		s1[u], s2[u] = s, sq
+		t1, t2, tn = t1+s, t2+sq, tn+float64(n)
+		pows[u] = s / float64(n)
 	}
 	m, se := meanSE(pows)
 	r.add(CheckLine{Name: "mean power of the Rician tap", Kind: "mean-power", Measured: m, Theory: 1, FdT: fdT}, se, allowPower)
+	kOf := func(a, b, n float64) float64 {
+		ga := a / n
+		return ricianKFromMoments(ga, b/n-ga*ga)
+	}
+	kAll := kOf(t1, t2, tn)
+	jk := make([]float64, links)
+	mean := 0.0
+	for u := range jk {
+		jk[u] = kOf(t1-s1[u], t2-s2[u], tn-float64(nn))
+		mean += jk[u] / float64(links)
+	}
+	ss := 0.0
+	for _, v := range jk {
+		ss += (v - mean) * (v - mean)
+	}
+	seK := math.Sqrt(float64(links-1) / float64(links) * ss)
 	k := math.Pow(10, r.cfg.Channel.RicianKDB/10)
-	m, se = meanSE(ks)
 	r.add(CheckLine{Name: fmt.Sprintf("Rician K (linear) from the moments of the power, K = %g dB", r.cfg.Channel.RicianKDB),
-		Kind: "rician-k", Arg: r.cfg.Channel.RicianKDB, Measured: m, Theory: k, FdT: fdT}, se, 0.02*k+0.02)
+		Kind: "rician-k", Arg: r.cfg.Channel.RicianKDB, Measured: kAll, Theory: k, FdT: fdT}, seK, 0.02*k+0.02)
 	return nil
 }
 

@@ -15,8 +15,8 @@
 //   - GeneratorSumOfSinusoids: the sum of sinusoids of Zheng & Xiao (IEEE
 //     Trans. Commun. 51(6), 2003) with random phase and stratified random
 //     arrival angle per sinusoid (SOSSinusoids = 32 per branch by default),
-//     evaluated at every sample with cosine recursions restarted exactly
-//     every 512 samples (no drift).
+//     evaluated with cosine recursions restarted exactly every 512 internal
+//     samples (no drift).
 //   - GeneratorSpectral: Clarke-filtered complex Gaussian noise through
 //     gonum's inverse FFT (Young & Beaulieu, IEEE Trans. Commun. 48(7),
 //     2000), blocks half-overlapped and joined with sine/cosine windows so
@@ -27,7 +27,7 @@
 //     periods joined by a power-preserving cross-fade over a quarter of
 //     that. It is the fast path of the loop.
 //
-// When f_D·T < 0.15 the default and spectral generators run at an internal
+// When f_D·T < 0.15 every generator runs at an internal
 // rate of 5 f_D and interpolate to the sample rate with an 8-tap
 // Kaiser-windowed sinc (error below −55 dB); f_D = 0 gives a static channel
 // (one complex Gaussian draw per tap). The classic deterministic Jakes

@@ -20,8 +20,18 @@ func cpuTime() time.Duration {
 // shared/bench/peer_numba.py: 64 users, 3 taps, 30 km/h at 2 GHz, 1500 Hz,
 // 90 000 slots) and reports user-slots/s (warm-up included, as the peer
 // counts them) next to the peer's figures of merit.
-func BenchmarkCanonical(b *testing.B) {
+func BenchmarkCanonical(b *testing.B) { benchCanonical(b, CanonicalScenario()) }
+
+// BenchmarkCanonicalDefaultGenerator is BenchmarkCanonical with fading's
+// default generator (fewer sinusoids, statistically closer to Rayleigh
+// than the peer's sixteen) instead of the peer's model.
+func BenchmarkCanonicalDefaultGenerator(b *testing.B) {
 	sc := CanonicalScenario()
+	sc.Groups[0].Generator = GeneratorDefault
+	benchCanonical(b, sc)
+}
+
+func benchCanonical(b *testing.B, sc Scenario) {
 	b.ReportAllocs()
 	var rep *Report
 	c0 := cpuTime()

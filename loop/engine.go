@@ -70,6 +70,8 @@ type hooks struct {
 	// IDEAL mode then runs the Foschini–Miljanic iteration.
 	matrix [][]float64
 	eta    []float64 // noise per receiver in mW (matrix mode)
+	// noFast disables the fused fast path of runBlock.
+	noFast bool
 }
 
 // gainSource is a stream of channel power gains (fading.Channel, or a
@@ -479,6 +481,7 @@ type replication struct {
 	effN    []int32
 	blkRand []*rand.Rand
 	blockB  int64
+	blkLeft int64 // slots left in the current block
 
 	col *collector
 
@@ -590,6 +593,7 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 		rp.blkRand[u] = fading.NewStream(rp.seed, u, 0, streamBlock)
 	}
 	rp.blockB = int64(sc.OuterLoop.BlockSlots)
+	rp.blkLeft = rp.blockB
 	rp.col = newCollector(sh)
 	if r == 0 && len(topt.Users) > 0 {
 		rp.trace = newTracer(topt, sh.total)
@@ -786,7 +790,7 @@ func (rp *replication) runBlock(buf *genBuf) {
 			}
 			X := sh.f1*tot + sh.noiseMW
 			nr = X / sh.noiseMW
-			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.pending == 0 {
+			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.pending == 0 && (sh.hk == nil || !sh.hk.noFast) {
 				// Fast path: SIR, figures and block accumulation in one pass.
 				rp.col.slotFused(rp, X)
 				fused = true
@@ -863,9 +867,10 @@ func (rp *replication) accumulate(act []uint8) {
 // blockCheck, at a block end, draws each user's block error from the link
 // curve at the block's effective SIR and runs the outer loop.
 func (rp *replication) blockCheck(t int64) {
-	if (t+1)%rp.blockB != 0 {
+	if rp.blkLeft--; rp.blkLeft > 0 {
 		return
 	}
+	rp.blkLeft = rp.blockB
 	sir := rp.sir[:rp.n]
 	lm := rp.sh.link
 	acc, cnt := rp.effAcc[:rp.n], rp.effN[:rp.n]

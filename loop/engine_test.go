@@ -413,6 +413,20 @@ func TestDeterminismAcrossGOMAXPROCS(t *testing.T) {
 	}
 }
 
+// TestFastPathIdentical: the fused fast path of the loop gives the same
+// report, bit for bit, as the general path.
+func TestFastPathIdentical(t *testing.T) {
+	sc := CanonicalScenario()
+	sc.Groups[0].Count = 16
+	sc.Run.Slots, sc.Run.WarmupSlots = 6000, 600
+	sc.OuterLoop.Enabled = true
+	a := mustRun(t, sc, nil, RunOptions{})
+	b := mustRun(t, sc, &hooks{noFast: true}, RunOptions{})
+	if reportJSON(t, a) != reportJSON(t, b) {
+		t.Errorf("fast path and general path differ")
+	}
+}
+
 // TestStreamIndependence: changing one user (its group's speed) leaves the
 // other users' channels unchanged, sample for sample.
 func TestStreamIndependence(t *testing.T) {

@@ -56,7 +56,7 @@ type InnerMode int
 const (
 	InnerModeUnspecified InnerMode = iota // not set; Normalise makes it CLOSED_LOOP
 	InnerModeFixedPower                   // no power control: every user at fixed_power_dbm (the baseline)
-	InnerModeIdeal                        // exact inversion every slot within the power limits (the reference bound)
+	InnerModeIdeal                        // every slot, the joint exact solution of SIR = target for all users (single receiver), within the power limits: the reference bound
 	InnerModeClosedLoop                   // measured SIR vs target -> command -> delayed, possibly erroneous update
 )
 

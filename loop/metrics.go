@@ -227,7 +227,8 @@ func (c *collector) slotFused(rp *replication, X float64) {
 		s := gp * r / (X - r)
 		sir[u] = s
 		acc[u] += s
-		cnt[u]++
+	}
+	for u, s := range sir {
 		ratio := s * inv[u]
 		k := sl.index(ratio)
 		sB[u*ss+k]++
@@ -237,7 +238,8 @@ func (c *collector) slotFused(rp *replication, X float64) {
 		if ratio < marg {
 			bOut[u]++
 		}
-		pu := p[u]
+	}
+	for u, pu := range p {
 		kp := pl.index(pu)
 		pB[u*ps+kp]++
 		kp32 := int32(kp)
@@ -248,6 +250,7 @@ func (c *collector) slotFused(rp *replication, X float64) {
 		}
 		bPsum[u] += pu
 		bCnt[u]++
+		cnt[u]++
 	}
 }
 
@@ -496,6 +499,7 @@ type repResult struct {
 	idealBad  int64
 	underOver int64 // SIR-error samples outside the histogram range
 	traces    []UserTrace
+	traceCut  bool
 }
 
 func (c *collector) setValues(i int, hsS, hsP *histStats, cnt, out, mx, blk, errs int64, psum float64) setResult {
@@ -607,6 +611,7 @@ func (c *collector) result(rp *replication) *repResult {
 	res.targetDB = append([]float64(nil), rp.bank.targetDB...)
 	if rp.trace != nil {
 		res.traces = rp.trace.out
+		res.traceCut = rp.trace.truncated
 	}
 	return res
 }
@@ -620,17 +625,31 @@ func anyPositive(x []int64) bool {
 	return false
 }
 
+// MaxTracePoints is the most samples a trace keeps per user; a longer
+// trace is cut there (and the report says so).
+const MaxTracePoints = 1 << 22
+
+// traceDB is 10·log10(x) as float32, floored at −400 dB (so that a zero
+// gain stays finite in JSON).
+func traceDB(x float64) float32 {
+	if !(x > 1e-40) {
+		return -400
+	}
+	return float32(linToDB(x))
+}
+
 // tracer records decimated traces of chosen users (replication 0).
 type tracer struct {
-	users []int
-	dec   int64
-	out   []UserTrace
+	users     []int
+	dec       int64
+	out       []UserTrace
+	truncated bool
 }
 
 func newTracer(o TraceOptions, total int64) *tracer {
 	d := int64(max(o.Decimation, 1))
 	tr := &tracer{users: o.Users, dec: d}
-	capN := int(min(total/d+1, 1<<20))
+	capN := int(min(total/d+1, 1<<16))
 	for _, u := range o.Users {
 		tr.out = append(tr.out, UserTrace{User: u, Slots: make([]int64, 0, capN), SIRDB: make([]float32, 0, capN),
 			TargetDB: make([]float32, 0, capN), TxPowerDBm: make([]float32, 0, capN), ChannelGainDB: make([]float32, 0, capN)})
@@ -647,10 +666,14 @@ func (tr *tracer) slot(t int64, rp *replication, act []uint8) {
 			continue // inactive: no sample
 		}
 		o := &tr.out[i]
+		if len(o.Slots) >= MaxTracePoints {
+			tr.truncated = true
+			continue
+		}
 		o.Slots = append(o.Slots, t)
-		o.SIRDB = append(o.SIRDB, float32(linToDB(rp.sir[u])))
+		o.SIRDB = append(o.SIRDB, traceDB(rp.sir[u]))
 		o.TargetDB = append(o.TargetDB, float32(rp.bank.targetDB[u]))
-		o.TxPowerDBm = append(o.TxPowerDBm, float32(linToDB(rp.bank.p[u])))
-		o.ChannelGainDB = append(o.ChannelGainDB, float32(linToDB(rp.gcol[u])))
+		o.TxPowerDBm = append(o.TxPowerDBm, traceDB(rp.bank.p[u]))
+		o.ChannelGainDB = append(o.ChannelGainDB, traceDB(rp.gcol[u]))
 	}
 }

@@ -59,6 +59,16 @@ func TestPeerSideBySide(t *testing.T) {
 		t.Logf("round %d: peer %.4g user-slots/s, fadeloop %.4g user-slots/s, ratio %.2f", r, peer["user-slots/s"], ours, ours/peer["user-slots/s"])
 	}
 	t.Logf("best of %d: peer %.4g, fadeloop %.4g user-slots/s: ratio %.2f (target >= 5)", rounds, bestPeer, bestOurs, bestOurs/bestPeer)
+	// For information: the same scenario with fading's default generator
+	// (fewer sinusoids; its figures differ slightly from the peer's model).
+	def := CanonicalScenario()
+	def.Groups[0].Generator = GeneratorDefault
+	t0 := time.Now()
+	if _, err := Run(context.Background(), def, RunOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	ud := float64(def.Users()) * float64(def.Run.Slots) / time.Since(t0).Seconds()
+	t.Logf("default generator: fadeloop %.4g user-slots/s, ratio %.2f to the best peer run", ud, ud/bestPeer)
 	a := rep.Aggregate
 	// Peer figures vs ours with our 95 % intervals (batch means).
 	for _, c := range []struct {

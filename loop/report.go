@@ -320,6 +320,9 @@ func (sh *shared) report(results []*repResult) *Report {
 	rep.Aggregate = sh.figures(results, n+sh.nbins)
 	if results[0].traces != nil {
 		rep.Traces = results[0].traces
+		if results[0].traceCut {
+			rep.Notes = append(rep.Notes, fmt.Sprintf("traces cut at %d samples per user (raise the decimation)", MaxTracePoints))
+		}
 	}
 	rep.Feasibility = sh.feasibility(results, rep)
 	var uo int64

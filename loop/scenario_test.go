@@ -1,12 +1,14 @@
 package loop
 
 import (
+	"context"
 	"encoding/json"
 	"math"
 	"os"
 	"reflect"
 	"strings"
 	"testing"
+	"time"
 )
 
 func TestCanonicalScenarioValid(t *testing.T) {
@@ -291,6 +293,53 @@ func FuzzValidate(f *testing.F) {
 			if _, err := placeUsers(sc); err != nil {
 				t.Fatalf("valid scenario cannot be placed: %v", err)
 			}
+		}
+	})
+}
+
+// FuzzRun runs small fuzzed scenarios that validate: the engine must not
+// panic and must return a report that marshals.
+func FuzzRun(f *testing.F) {
+	sc := CanonicalScenario()
+	sc.Groups[0].Count = 4
+	sc.Run.Slots, sc.Run.WarmupSlots = 400, 20
+	b, _ := json.Marshal(sc)
+	f.Add(b)
+	rs := richScenario()
+	rs.Run.Slots, rs.Run.Replications = 300, 2
+	b, _ = json.Marshal(rs)
+	f.Add(b)
+	f.Fuzz(func(t *testing.T, data []byte) {
+		var sc Scenario
+		if json.Unmarshal(data, &sc) != nil {
+			return
+		}
+		sc.Normalise()
+		if len(sc.Validate()) > 0 || sc.Cost() > 200000 {
+			return
+		}
+		type result struct {
+			rep *Report
+			err error
+		}
+		done := make(chan result, 1)
+		go func() {
+			r, err := Run(context.Background(), sc, RunOptions{Trace: TraceOptions{Users: []int{0}}})
+			done <- result{r, err}
+		}()
+		var res result
+		select {
+		case res = <-done:
+		case <-time.After(20 * time.Second):
+			b, _ := json.Marshal(sc)
+			t.Fatalf("run of cost %d did not finish in 20 s: %s", sc.Cost(), b)
+		}
+		rep, err := res.rep, res.err
+		if err != nil {
+			t.Fatalf("valid scenario failed: %v", err)
+		}
+		if _, err := json.Marshal(rep); err != nil {
+			t.Fatalf("report does not marshal: %v", err)
 		}
 	})
 }

@@ -482,12 +482,12 @@ func (c *checker) run(sc Scenario) {
 	}
 }
 
-// Cost is the work of a run in tap-user-slots: users × slots × taps ×
-// replications, with slots warm-up included and taps the largest tap count
-// of any group. The service compares it with its bound. It saturates at
-// math.MaxInt64 and never panics; an invalid scenario may give any value.
+// Cost is the work of a run in tap-user-slots: Σ_groups count × taps ×
+// slots × replications (slots warm-up included), the users × slots × taps
+// bound the service enforces. It saturates at math.MaxInt64 and never
+// panics; an invalid scenario may give any value.
 func (sc Scenario) Cost() int64 {
-	taps := 1
+	tapUsers := 0.0
 	for _, g := range sc.Groups {
 		n := len(g.CustomTaps)
 		if n == 0 {
@@ -495,9 +495,11 @@ func (sc Scenario) Cost() int64 {
 				n = len(p.Taps)
 			}
 		}
-		taps = max(taps, n)
+		if g.Count > 0 {
+			tapUsers += float64(g.Count) * float64(max(n, 1))
+		}
 	}
-	x := float64(sc.Users()) * float64(sc.TotalSlots()) * float64(taps) * float64(max(sc.Run.Replications, 1))
+	x := tapUsers * float64(sc.TotalSlots()) * float64(max(sc.Run.Replications, 1))
 	if x >= math.MaxInt64 {
 		return math.MaxInt64
 	}

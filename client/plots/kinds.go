@@ -9,6 +9,7 @@ import (
 	"sort"
 	"strconv"
 
+	"gonum.org/v1/gonum/stat/distuv"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/palette"
 	"gonum.org/v1/plot/palette/moreland"
@@ -39,16 +40,33 @@ type ErrorDistribution struct {
 
 // SIRErrorCDF draws one cumulative distribution of the SIR error per
 // candidate: x is the SIR error in dB, y the probability that the error is at
-// most x. A tight, centred curve is a loop that tracks; a wide one is a loop
-// that cannot follow the fading or adds its own step noise.
+// most x, on a normal-probability (probit) scale from 0.5 % to 99.5 %, so
+// that a Gaussian error is a straight line and the tails that make outage
+// are spread out. Quantile inputs are drawn as marked points joined by
+// lines. A steep, centred line is a loop that tracks; a shallow one is a
+// loop that cannot follow the fading or adds its own step noise.
 func SIRErrorCDF(title string, ds []ErrorDistribution) (*Figure, error) {
-	p := newPanel(title, "SIR error = SIR − target (dB)", "P(SIR error ≤ x)")
-	p.Y.Min, p.Y.Max = 0, 1
+	p := newPanel(title, "SIR error = SIR − target (dB)", "P(SIR error ≤ x), normal probability scale")
+	p.Y.Min, p.Y.Max = probitLow, probitHigh
+	p.Y.Scale = probitScale{}
+	p.Y.Tick.Marker = probitTicks{}
+	p.Legend.Left = true
 	n := 0
 	for i, d := range ds {
 		pts := cdfPoints(d)
 		if len(pts) == 0 {
 			continue
+		}
+		// The scale ends at 0.5 % and 99.5 %: the empirical CDF's steps
+		// beyond are left out, quantiles pinned to the edge.
+		if len(d.SamplesDB) > 0 {
+			pts = slices.DeleteFunc(pts, func(q plotter.XY) bool { return q.Y < probitLow || q.Y > probitHigh })
+			if len(pts) == 0 {
+				continue
+			}
+		}
+		for k := range pts {
+			pts[k].Y = math.Min(math.Max(pts[k].Y, probitLow), probitHigh)
 		}
 		l, err := plotter.NewLine(pts)
 		if err != nil {
@@ -58,16 +76,56 @@ func SIRErrorCDF(title string, ds []ErrorDistribution) (*Figure, error) {
 		l.Dashes = seriesDash(i)
 		l.Width = vg.Points(2)
 		p.Add(l)
-		p.legend(d.Label, l)
+		if len(d.SamplesDB) == 0 {
+			sc, err := plotter.NewScatter(pts)
+			if err != nil {
+				return nil, err
+			}
+			sc.Color = seriesColor(i)
+			sc.Shape = shapes[i%len(shapes)]
+			sc.Radius = vg.Points(4)
+			p.Add(sc)
+			p.legend(d.Label, l, sc)
+		} else {
+			p.legend(d.Label, l)
+		}
 		n++
 	}
 	if n == 0 {
 		return nil, ErrNoData
 	}
 	p.Add(vline{x: 0, c: color.Gray{Y: 90}})
-	p.Legend.Left = true
-	p.Legend.Top = true
 	return &Figure{Title: title, panels: [][]*plot.Plot{{p.done()}}}, nil
+}
+
+// Range of the probability axis of SIRErrorCDF.
+const (
+	probitLow  = 0.005
+	probitHigh = 0.995
+)
+
+// probitScale maps a probability to its standard normal quantile
+// (normal probability paper).
+type probitScale struct{}
+
+func (probitScale) Normalize(lo, hi, x float64) float64 {
+	q := func(v float64) float64 {
+		return distuv.UnitNormal.Quantile(math.Min(math.Max(v, 1e-9), 1-1e-9))
+	}
+	return (q(x) - q(lo)) / (q(hi) - q(lo))
+}
+
+// probitTicks labels the usual probabilities of a normal probability plot.
+type probitTicks struct{}
+
+func (probitTicks) Ticks(lo, hi float64) []plot.Tick {
+	var t []plot.Tick
+	for _, v := range []float64{0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 0.95, 0.98, 0.99} {
+		if v >= lo && v <= hi {
+			t = append(t, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'g', 3, 64)})
+		}
+	}
+	return t
 }
 
 func cdfPoints(d ErrorDistribution) plotter.XYs {
@@ -211,6 +269,10 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 		return nil, ErrNoData
 	}
 	left.Y.Min = math.Min(left.Y.Min, 0)
+	// Head room above the data for the legend.
+	for _, p := range []*panel{left, right} {
+		p.Y.Max += 0.25 * (p.Y.Max - p.Y.Min)
+	}
 	var all []float64
 	for _, ln := range lines {
 		all = append(all, ln.StepDB...)
@@ -329,7 +391,7 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 		for c, v := range g.Value[r] {
 			s := "—"
 			if !math.IsNaN(v) {
-				s = strconv.FormatFloat(v, 'g', 3, 64)
+				s = cellText(v)
 			}
 			labels.XYs = append(labels.XYs, plotter.XY{X: float64(c), Y: float64(r)})
 			labels.Labels = append(labels.Labels, s)
@@ -431,9 +493,10 @@ type DistancePoint struct {
 // PowerVsDistance draws the transmit power of each user against its
 // distance (log scale), one marker style per group, with the percentile
 // range as error bars and the maximum transmit power as a dashed line
-// (maxPowerDBM; NaN to omit). Far users pinned at the maximum are the
-// near-far limit of the cell.
-func PowerVsDistance(title string, pts []DistancePoint, maxPowerDBM float64, percentileLabel string) (*Figure, error) {
+// and the minimum as a dotted line (minPowerDBM, maxPowerDBM; NaN to omit
+// either). Far users pinned at the maximum and near users pinned at the
+// minimum are the near-far limits of the cell.
+func PowerVsDistance(title string, pts []DistancePoint, minPowerDBM, maxPowerDBM float64, percentileLabel string) (*Figure, error) {
 	p := newPanel(title, "distance from receiver (m)", "Tx power (dBm)")
 	p.X.Scale = plot.LogScale{}
 	p.X.Tick.Marker = logTicks125{}
@@ -497,6 +560,18 @@ func PowerVsDistance(title string, pts []DistancePoint, maxPowerDBM float64, per
 		l.Dashes = []vg.Length{vg.Points(8), vg.Points(4)}
 		p.Add(l)
 		p.legend("max Tx power", l)
+	}
+	if !math.IsNaN(minPowerDBM) && !math.IsInf(minPowerDBM, 0) {
+		l, err := plotter.NewLine(plotter.XYs{{X: xmin / 1.3, Y: minPowerDBM}, {X: xmax * 1.3, Y: minPowerDBM}})
+		if err != nil {
+			return nil, err
+		}
+		l.Color = color.RGBA{60, 60, 160, 255}
+		l.Width = vg.Points(2)
+		l.Dashes = []vg.Length{vg.Points(2), vg.Points(4)}
+		p.Add(l)
+		p.legend("min Tx power", l)
+		p.Y.Min = math.Min(p.Y.Min, minPowerDBM-3)
 	}
 	p.X.Min, p.X.Max = xmin/1.3, xmax*1.3
 	if !math.IsNaN(maxPowerDBM) && !math.IsInf(maxPowerDBM, 0) {
@@ -569,4 +644,16 @@ func (logTicks125) Ticks(lo, hi float64) []plot.Tick {
 		}
 	}
 	return t
+}
+
+// cellText prints a heat-map value with two decimals below 10, one below
+// 100 and none above.
+func cellText(v float64) string {
+	switch a := math.Abs(v); {
+	case a < 10:
+		return strconv.FormatFloat(v, 'f', 2, 64)
+	case a < 100:
+		return strconv.FormatFloat(v, 'f', 1, 64)
+	}
+	return strconv.FormatFloat(v, 'f', 0, 64)
 }

@@ -18,6 +18,7 @@ import (
 	"syscall"
 	"testing"
 	"time"
+	"unicode/utf8"
 
 	"google.golang.org/protobuf/proto"
 
@@ -193,19 +194,19 @@ func TestRunDefault(t *testing.T) {
 	for _, l := range lines {
 		if strings.HasPrefix(l, "figure ") {
 			in = true
-			ends = append(ends, strings.Index(l, "value")+len("value"))
+			ends = append(ends, utf8.RuneCountInString(l[:strings.Index(l, "value")+len("value")]))
 			continue
 		}
 		if in && l == "" {
 			break
 		}
 		if in {
-			m := regexp.MustCompile(`^(.*?\S)  +(-?[0-9.–]+)`).FindStringSubmatchIndex(l)
+			m := regexp.MustCompile(`^(.*?\S)  +(-?[0-9.–]+)`).FindStringSubmatch(l)
 			if m == nil {
 				t.Errorf("row %q has no value column", l)
 				continue
 			}
-			ends = append(ends, m[5])
+			ends = append(ends, utf8.RuneCountInString(m[0]))
 		}
 	}
 	for _, e := range ends {
@@ -406,7 +407,7 @@ func TestServerUnreachable(t *testing.T) {
 // TestInterruptCancels sends SIGINT during a long run: the CLI must stop
 // within a second, exit non-zero and say that it was cancelled.
 func TestInterruptCancels(t *testing.T) {
-	cmd := exec.Command(flBinary(t), "run", "--slots", "50000000", "--progress", "lines")
+	cmd := exec.Command(flBinary(t), "run", "--slots", "20000000", "--replications", "1", "--progress", "lines")
 	cmd.Dir = repoRoot
 	var se bytes.Buffer
 	cmd.Stderr = &se

@@ -58,7 +58,7 @@ unit, pass; json (the fadeloop.v1 CheckChannelResponse).
 Examples:
   fadeloop check
   fadeloop check --speed-kmh 120 --carrier-hz 2.6e9 --profile EVA --generator spectral
-  fadeloop check --doppler-hz 50 --los --rician-k-db 3 --samples 2000000 --format csv`,
+  fadeloop check --doppler-hz 50 --los --rician-k-db 3 --links 512 --format csv`,
 		run: runCheck,
 	})
 }
@@ -271,7 +271,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	fs := e.newFlagSet(c)
 	var ch channelFlags
 	ch.register(fs)
-	samples := fs.Int64("samples", 0, "samples to generate (`N`, 0: the check's default)")
+	links := fs.Int("links", 0, "independent links (realisations) per statistic, `N` in [8, 4096] (0: the server's default, 128)")
+	periods := fs.Float64("doppler-periods", 0, "record length of each link in Doppler periods 1/f_D, `N` in [20, 20000] (0: the default, 250)")
+	sigmas := fs.Float64("sigmas", 0, "tolerance of each line in standard errors, `N` in [1, 10] (0: the default, 4)")
 	rest, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -296,7 +298,8 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	defer cl.Close()
-	resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Samples: *samples, Seed: ch.seed})
+	resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Links: int32(*links),
+		DopplerPeriods: *periods, Seed: ch.seed, Sigmas: *sigmas})
 	if err != nil {
 		return err
 	}
@@ -323,8 +326,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 		if name == "" {
 			name = "custom"
 		}
-		fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz, generator %s\n\n",
-			name, spec.GetDopplerHz(), spec.GetSampleRateHz(), ch.generator)
+		fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f), generator %s\n",
+			name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz(), ch.generator)
+		fmt.Fprintf(w, "%d links × %g Doppler periods each\n\n", resp.GetLinks(), resp.GetDopplerPeriods())
 		t := newTable("check", "measured", "theory", "tolerance", "unit", "result").alignRight(1, 2, 3)
 		for _, l := range resp.GetLines() {
 			res := "pass"

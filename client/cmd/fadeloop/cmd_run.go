@@ -328,8 +328,7 @@ func writeRunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		fmt.Fprintln(w, "per distance bin (value ±95 % CI half-width):")
 		h := []string{"distance (m)", "users"}
 		for _, k := range cols {
-			f, _ := figureByKey(k)
-			h = append(h, f.label)
+			h = append(h, shortLabel(k))
 		}
 		bt := newTable(h...).alignRight(1, 2, 3, 4, 5, 6, 7, 8)
 		for _, b := range bins {
@@ -347,8 +346,7 @@ func writeRunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		fmt.Fprintln(w, "per user (value ±95 % CI half-width):")
 		h := []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}
 		for _, k := range cols {
-			f, _ := figureByKey(k)
-			h = append(h, f.label)
+			h = append(h, shortLabel(k))
 		}
 		ut := newTable(h...).alignRight(0, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11)
 		for _, u := range rep.GetUsers() {

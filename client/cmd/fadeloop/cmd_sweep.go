@@ -184,6 +184,11 @@ func runSweep(ctx context.Context, e *env, args []string) error {
 	if *detailed {
 		req.Detailed = true
 	}
+	for _, ps := range plotSpecs {
+		if err := checkSweepPlot(ps, req.Axes); err != nil {
+			return err
+		}
+	}
 	total := int64(len(req.PointIndices))
 	if total == 0 {
 		total = 1
@@ -299,8 +304,7 @@ func writeSweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, su
 		h = append(h, a.GetPath())
 	}
 	for _, k := range sweepTableFigures {
-		f, _ := figureByKey(k)
-		h = append(h, f.label)
+		h = append(h, shortLabel(k))
 	}
 	h = append(h, "load")
 	t := newTable(h...)

@@ -174,6 +174,27 @@ var figures = []figure{
 	{"convergence_time_s", "convergence time (s)", 1, 3, (*pb.Figures).GetConvergenceTimeS},
 }
 
+// shortLabels are the column heads of the narrower per-bin, per-user and
+// sweep tables.
+var shortLabels = map[string]string{
+	"sir_error_mean_db":  "SIR err mean (dB)",
+	"sir_error_std_db":   "SIR err std (dB)",
+	"outage_probability": "outage (%)",
+	"achieved_bler":      "BLER (%)",
+	"tx_power_mean_dbm":  "Tx mean (dBm)",
+	"tx_power_p95_dbm":   "Tx p95 (dBm)",
+	"max_power_fraction": "at max (%)",
+	"noise_rise_mean_db": "noise rise (dB)",
+}
+
+func shortLabel(key string) string {
+	if l, ok := shortLabels[key]; ok {
+		return l
+	}
+	f, _ := figureByKey(key)
+	return f.label
+}
+
 func figureByKey(key string) (figure, bool) {
 	for _, f := range figures {
 		if f.key == key {

@@ -89,11 +89,11 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 	case "cdf":
 		fig, err = plots.SIRErrorCDF("SIR error distribution per distance bin — "+title, runBinErrors(rep))
 	case "distance":
-		maxP := math.NaN()
+		minP, maxP := math.NaN(), math.NaN()
 		if il := rep.GetNormalisedScenario().GetInnerLoop(); il != nil {
-			maxP = il.GetMaxPowerDbm()
+			minP, maxP = il.GetMinPowerDbm(), il.GetMaxPowerDbm()
 		}
-		fig, err = plots.PowerVsDistance("Tx power against distance — "+title, runDistancePoints(rep), maxP, "5th–95th percentile")
+		fig, err = plots.PowerVsDistance("Tx power against distance — "+title, runDistancePoints(rep), minP, maxP, "5th–95th percentile")
 	default:
 		return fmt.Errorf("unknown plot kind %q", ps.kind)
 	}
@@ -171,7 +171,11 @@ func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution {
 	}
 	var out []plots.ErrorDistribution
 	for i, b := range bins {
-		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d users)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers())}
+		users := "users"
+		if b.GetFigures().GetUsers() == 1 {
+			users = "user"
+		}
+		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d %s)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers(), users)}
 		for _, t := range rep.GetTraces() {
 			x := dist[t.GetUser()]
 			in := x >= b.GetMinDistanceM() && (x < b.GetMaxDistanceM() || (i == len(bins)-1 && x <= b.GetMaxDistanceM()))
@@ -272,6 +276,29 @@ func axisLabel(a *pb.SweepAxis, v float64) string {
 		return strconv.FormatFloat(v, 'g', 4, 64) + unit
 	}
 	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
+}
+
+// checkSweepPlot rejects, before any work, a plot the axes cannot give.
+func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
+	kind := ps.kind
+	if kind == "auto" {
+		kind = autoSweepPlot(axes)
+	}
+	paths := map[string]int{}
+	for _, a := range axes {
+		paths[a.GetPath()]++
+	}
+	switch kind {
+	case "steps":
+		if paths[stepPath] != 1 || len(axes) > 2 {
+			return badInputf("--plot steps=%s needs the axis %s and at most one other axis (one line per value)", ps.file, stepPath)
+		}
+	case "heatmap":
+		if paths[stepPath] != 1 || paths[ratePath] != 1 || len(axes) != 2 {
+			return badInputf("--plot heatmap=%s needs exactly the axes %s and %s", ps.file, stepPath, ratePath)
+		}
+	}
+	return nil
 }
 
 // plotSweep draws one plot of a finished sweep (points sorted by index).
