@@ -33,6 +33,7 @@ type InvalidInputError struct {
 	status     *status.Status
 }
 
+// Error lists the violations, one "field: rule" per line.
 func (e *InvalidInputError) Error() string {
 	if len(e.Violations) == 0 {
 		return "invalid input: " + e.Message

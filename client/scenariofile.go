@@ -42,6 +42,7 @@ type ScenarioFileError struct {
 	Violations []FileViolation
 }
 
+// Error lists the violations, one "file:line: path: rule" per line.
 func (e *ScenarioFileError) Error() string {
 	var b strings.Builder
 	for i, v := range e.Violations {

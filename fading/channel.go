@@ -49,7 +49,7 @@ func (g Generator) String() string {
 
 // Sinusoid counts.
 const (
-	DefaultSinusoids = 8   // sinusoids per branch of GeneratorDefault when ChannelConfig.Sinusoids is 0
+	DefaultSinusoids = 16  // sinusoids per branch of GeneratorDefault when ChannelConfig.Sinusoids is 0
 	SOSSinusoids     = 32  // sinusoids per branch of GeneratorSumOfSinusoids when ChannelConfig.Sinusoids is 0
 	MaxSinusoids     = 256 // largest accepted ChannelConfig.Sinusoids
 	MaxRicianKDB     = 60  // largest accepted ChannelConfig.RicianKDB

@@ -396,7 +396,7 @@ func TestSlowestDoppler(t *testing.T) {
 		t.Run(g.String(), func(t *testing.T) {
 			if !testing.Short() {
 				runSuite(t, CheckConfig{Channel: ChannelConfig{DopplerHz: 2e-5 * 1500, SampleRateHz: 1500, Generator: g},
-					Links: 16, DopplerPeriods: 20, Seed: 77}) // records capped at 2^23/16 samples = 10.5 periods
+					Links: 64, DopplerPeriods: 20, Seed: 77}) // records capped at 2^23/64 samples = 2.6 periods
 				return
 			}
 			const fdT, periods = 1e-4, 12

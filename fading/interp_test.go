@@ -9,8 +9,8 @@ import (
 // TestInterpolatorAccuracy: the 8-tap windowed-sinc interpolator
 // reproduces a complex tone at the highest internal normalised frequency
 // used (f_D / internal rate = 0.2) at any fractional position: worst
-// complex error below 3e-3, mean error power below −55 dB (the claim in
-// interp.go). Reference: the exact tone, computed with math/cmplx.
+// complex error below 2.5e-3, mean error power below −58 dB (measured
+// 1.6e-3 and −62 dB; the claim in interp.go). Reference: the exact tone, computed with math/cmplx.
 func TestInterpolatorAccuracy(t *testing.T) {
 	for _, nu := range []float64{0.2, 0.1, 0.02} {
 		x := func(k float64) complex128 { return cmplx.Exp(complex(0, 2*math.Pi*nu*k)) }
@@ -30,7 +30,8 @@ func TestInterpolatorAccuracy(t *testing.T) {
 			n++
 		}
 		db := 10 * math.Log10(sq/float64(n))
-		if worst > 3e-3 || db > -55 {
+		t.Logf("ν = %g: worst error %.2e, mean error power %.1f dB", nu, worst, db)
+		if worst > 2.5e-3 || db > -58 {
 			t.Errorf("ν = %g: worst error %.2e, mean error power %.1f dB", nu, worst, db)
 		}
 	}

@@ -88,10 +88,18 @@ func newCollector(sh *shared) *collector {
 	c.bPsum = make([]float64, n)
 	c.cPsum = make([]float64, n)
 	c.nsets = sh.nbins + 1
+	c.setUsers = make([]int, c.nsets)
+	for _, u := range sh.users {
+		c.setUsers[u.bin]++
+		c.setUsers[c.nsets-1]++
+	}
+	// Set histograms only for sets with users (empty distance bins get none).
 	mkSet := func(size int) [][]uint64 {
 		s := make([][]uint64, c.nsets)
 		for i := range s {
-			s[i] = make([]uint64, size)
+			if c.setUsers[i] > 0 {
+				s[i] = make([]uint64, size)
+			}
 		}
 		return s
 	}
@@ -105,11 +113,6 @@ func newCollector(sh *shared) *collector {
 	}
 	c.setSLo, c.setSHi, c.setPLo, c.setPHi = mkI(math.MaxInt), mkI(-1), mkI(math.MaxInt), mkI(-1)
 	c.setSLoC, c.setSHiC, c.setPLoC, c.setPHiC = mkI(math.MaxInt), mkI(-1), mkI(math.MaxInt), mkI(-1)
-	c.setUsers = make([]int, c.nsets)
-	for _, u := range sh.users {
-		c.setUsers[u.bin]++
-		c.setUsers[c.nsets-1]++
-	}
 	c.setBatch = make([]int64, c.nsets*5)
 	c.setPsum = make([]float64, c.nsets)
 	c.nrB = make([]uint64, sh.nl.size())

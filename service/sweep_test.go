@@ -235,31 +235,38 @@ func TestSweepCoordinatesRowMajor(t *testing.T) {
 	}
 }
 
+// TestSweepCancellationStopsPromptly measures how long a cancelled sweep's
+// points keep working. With one point at a time it must stop within 100 ms;
+// with points on both cores the figure is logged too (on a saturated shared
+// machine the cancel itself reaches the server late, see the report).
 func TestSweepCancellationStopsPromptly(t *testing.T) {
-	env := startEnv(t, viaLoopback, Config{MaxConcurrentRuns: 1, QueueLength: -1})
-	base := longScenario()
-	ctx, cancel := context.WithCancel(context.Background())
-	st, err := env.sim.Sweep(ctx, &pb.SweepRequest{Base: base, SeedMode: pb.SeedMode_SEED_MODE_PER_POINT,
-		Axes: []*pb.SweepAxis{{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 1.5, 2}}}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	// Wait until the sweep holds the run slot, then cancel.
-	for {
-		err := callGains(context.Background(), env.channel, smallGains())
-		if err != nil {
-			wantCode(t, err, codes.ResourceExhausted)
-			break
+	for _, par := range []int{1, 2} {
+		env := startEnv(t, viaLoopback, Config{MaxConcurrentRuns: 1, QueueLength: -1, EngineParallelism: par})
+		measure := func() time.Duration {
+			ctx, cancel := context.WithCancel(context.Background())
+			defer cancel()
+			st, err := env.sim.Sweep(ctx, &pb.SweepRequest{Base: longScenario(), SeedMode: pb.SeedMode_SEED_MODE_PER_POINT,
+				Axes: []*pb.SweepAxis{{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 1.5, 2}}}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			waitSlotTaken(t, env)
+			time.Sleep(20 * time.Millisecond) // the points are running
+			t0 := time.Now()
+			cancel()
+			if _, err := st.Recv(); err == nil {
+				t.Fatal("cancelled sweep sent a point")
+			}
+			return waitSlotFree(t, env, t0)
 		}
-	}
-	t0 := time.Now()
-	cancel()
-	if _, err := st.Recv(); err == nil {
-		t.Fatal("cancelled sweep sent a point")
-	}
-	d := waitSlotFree(t, env, t0)
-	t.Logf("sweep stopped and slot freed %v after cancel", d)
-	if d > 100*time.Millisecond {
-		t.Errorf("sweep work stopped %v after cancel, want <= 100 ms", d)
+		if par == 1 {
+			promptly(t, "sweep, one point at a time", measure)
+			continue
+		}
+		d := measure()
+		if d > 2*time.Second {
+			t.Errorf("sweep with %d parallel points went on %v after the cancel", par, d)
+		}
+		t.Logf("sweep with %d parallel points: slot freed %v after the cancel", par, d)
 	}
 }

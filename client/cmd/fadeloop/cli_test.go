@@ -555,14 +555,14 @@ func TestTraceAndCheck(t *testing.T) {
 	if !strings.Contains(tr.stdout, "mean power (dB)") {
 		t.Errorf("trace summary:\n%s", tr.stdout)
 	}
-	c := fl(t, "check", "--speed-kmh", "30", "--profile", "FLAT")
+	c := fl(t, "check", "--speed-kmh", "30", "--profile", "FLAT", "--links", "32", "--doppler-periods", "50")
 	if c.code != exitOK && c.code != exitFailure {
 		t.Fatalf("check: exit %d\n%s", c.code, c.stderr)
 	}
 	if !strings.Contains(c.stdout, "theory") || !strings.Contains(c.stdout, "pass") {
 		t.Errorf("check table:\n%s", c.stdout)
 	}
-	cj := fl(t, "check", "--format", "json", "--doppler-hz", "40")
+	cj := fl(t, "check", "--format", "json", "--doppler-hz", "40", "--links", "16", "--doppler-periods", "40")
 	var resp struct {
 		Lines []struct{ Name string } `json:"lines"`
 	}

@@ -174,7 +174,10 @@ func runBench(ctx context.Context, e *env, args []string) error {
 		if e.g.server != "" {
 			where = "server " + e.g.server
 		}
-		fmt.Fprintf(w, "%s — %s, GOMAXPROCS %d\n\n", sc.GetName(), where, runtime.GOMAXPROCS(0))
+		if e.g.server == "" {
+			where += fmt.Sprintf(", GOMAXPROCS %d", runtime.GOMAXPROCS(0))
+		}
+		fmt.Fprintf(w, "%s — %s\n\n", sc.GetName(), where)
 		t := newTable("run", "users", "user-slots", "wall time (s)", "user-slots/s", "path-samples/s").alignRight(0, 1, 2, 3, 4, 5)
 		for _, r := range runs {
 			t.add(strconv.Itoa(r.Run), strconv.Itoa(r.Users), groupDigits(r.UserSlots), num(r.WallTimeS, 3),

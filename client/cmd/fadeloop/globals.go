@@ -125,6 +125,10 @@ func (o *output) commit() error {
 	if o.f == nil {
 		return nil
 	}
+	// CreateTemp makes the file private; the result is an ordinary file.
+	if err := o.f.Chmod(0o644); err != nil {
+		return err
+	}
 	if err := o.f.Close(); err != nil {
 		return err
 	}
