@@ -106,7 +106,7 @@ func scanStats[T uint32 | uint64](l *histLayout, c []T, lo, hi int, n uint64, qs
 	qi := 0
 	var cum uint64
 	var s1, s2 float64
-	ref := l.centerDB[lo] // shift for a numerically stable variance
+	ref := 0.0 // shift for a numerically stable variance: the first used bin
 	for j := lo; j <= hi; j++ {
 		cj := c[j]
 		if cj == 0 {
@@ -114,6 +114,9 @@ func scanStats[T uint32 | uint64](l *histLayout, c []T, lo, hi int, n uint64, qs
 		}
 		prev := cum
 		cum += uint64(cj)
+		if prev == 0 {
+			ref = l.centerDB[j]
+		}
 		x := l.centerDB[j] - ref
 		f := float64(cj)
 		s1 += f * x

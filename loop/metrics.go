@@ -62,6 +62,7 @@ type collector struct {
 	pending          int
 	overflowSIR      int64
 	scratch          histStats
+	fullScan         bool // some slot of this batch skipped range tracking
 	quantiles        []float64
 	anyActiveLimited bool
 }
@@ -223,9 +224,11 @@ func (c *collector) slotFused(rp *replication, X float64) {
 	marg := sh.marginLin
 	gp := sh.gp
 	ss, ps := c.ss, c.ps
-	sLo, sHi, pLo, pHi := c.sLo[:n], c.sHi[:n], c.pLo[:n], c.pHi[:n]
 	bOut, bMax, bPsum, bCnt := c.bOut[:n], c.bMax[:n], c.bPsum[:n], c.bCnt[:n]
 	sB, pB := c.sB, c.pB
+	// The fast path does not track the used bin range: the batch end scans
+	// whole histograms instead (cheaper than two min/max per value).
+	c.fullScan = true
 	for u, r := range rx {
 		s := gp * r / (X - r)
 		sir[u] = s
@@ -235,19 +238,12 @@ func (c *collector) slotFused(rp *replication, X float64) {
 		ratio := s * inv[u]
 		k := sl.index(ratio)
 		sB[u*ss+k]++
-		k32 := int32(k)
-		sLo[u] = min(sLo[u], k32)
-		sHi[u] = max(sHi[u], k32)
 		if ratio < marg {
 			bOut[u]++
 		}
 	}
 	for u, pu := range p {
-		kp := pl.index(pu)
-		pB[u*ps+kp]++
-		kp32 := int32(kp)
-		pLo[u] = min(pLo[u], kp32)
-		pHi[u] = max(pHi[u], kp32)
+		pB[u*ps+pl.index(pu)]++
 		if pu >= pmax {
 			bMax[u]++
 		}
@@ -334,6 +330,13 @@ func (c *collector) endBatch() {
 	}
 	for i := range c.setPsum {
 		c.setPsum[i] = 0
+	}
+	if c.fullScan {
+		for u := 0; u < n; u++ {
+			c.sLo[u], c.sHi[u] = 0, int32(sh.sl.size()-1)
+			c.pLo[u], c.pHi[u] = 0, int32(sh.pl.size()-1)
+		}
+		c.fullScan = false
 	}
 	var hs histStats
 	for u := 0; u < n; u++ {
@@ -424,7 +427,7 @@ func scanMerge(l *histLayout, batch, cum []uint32, setA, setB []uint64, lo, hi i
 	qi := 0
 	var cumN uint64
 	var s1, s2 float64
-	ref := l.centerDB[lo]
+	ref := math.NaN() // shift for a stable variance: the first used bin
 	batch, cum = batch[:hi+1], cum[:hi+1]
 	setA, setB = setA[:hi+1], setB[:hi+1]
 	for j := lo; j <= hi; j++ {
@@ -439,6 +442,9 @@ func scanMerge(l *histLayout, batch, cum []uint32, setA, setB []uint64, lo, hi i
 		prev := cumN
 		cumN += uint64(cj)
 		f := float64(cj)
+		if prev == 0 {
+			ref = l.centerDB[j]
+		}
 		x := l.centerDB[j] - ref
 		s1 += f * x
 		s2 += f * x * x

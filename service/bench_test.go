@@ -5,7 +5,9 @@ import (
 	"errors"
 	"io"
 	"testing"
+	"time"
 
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -42,4 +44,92 @@ func BenchmarkStreamGains(b *testing.B) {
 	}
 	b.ReportMetric(float64(got)/b.Elapsed().Seconds(), "complex-samples/s")
 	b.ReportMetric(float64(got*8)/b.Elapsed().Seconds()/1e6, "MB/s")
+}
+
+// BenchmarkSimulateOverhead runs the canonical scenario (64 users, 90 000
+// slots) directly with loop.Run and through Simulate over a real loopback
+// connection, alternating the two in each iteration so that both see the
+// same machine load, and reports each one's user-slots/s and the service's
+// overhead in percent (target <= 5 %).
+func BenchmarkSimulateOverhead(b *testing.B) {
+	env := startEnv(b, viaLoopback, Config{})
+	sc := loop.CanonicalScenario()
+	req := &pb.SimulateRequest{Scenario: ScenarioToProto(sc)}
+	var direct, served time.Duration
+	var slots int64
+	b.ReportAllocs()
+	for b.Loop() {
+		t0 := time.Now()
+		rep, err := loop.Run(context.Background(), sc, loop.RunOptions{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		direct += time.Since(t0)
+		t1 := time.Now()
+		_, srep, err := simulate(context.Background(), env, req)
+		if err != nil {
+			b.Fatal(err)
+		}
+		served += time.Since(t1)
+		if srep.GetSimulatedUserSlots() != rep.SimulatedUserSlots {
+			b.Fatalf("service simulated %d user-slots, engine %d", srep.GetSimulatedUserSlots(), rep.SimulatedUserSlots)
+		}
+		slots += rep.SimulatedUserSlots
+	}
+	d, s := float64(slots)/direct.Seconds(), float64(slots)/served.Seconds()
+	b.ReportMetric(d, "direct-user-slots/s")
+	b.ReportMetric(s, "service-user-slots/s")
+	b.ReportMetric(100*(d-s)/d, "overhead-%")
+}
+
+// BenchmarkLockstep64 runs Lockstep with 64 users over a real loopback
+// connection from a Go client: each iteration sends one slot's 64 SIRs
+// (with a block result for every user every 15th slot) and waits for the
+// reply, and the benchmark reports slot round trips per second (target
+// >= 30 000).
+func BenchmarkLockstep64(b *testing.B) {
+	env := startEnv(b, viaLoopback, Config{})
+	st, err := env.loop.Lockstep(context.Background())
+	if err != nil {
+		b.Fatal(err)
+	}
+	cfg := &pb.LockstepConfig{Seed: 1, Receiver: &pb.Receiver{SirEstimationErrorDb: 1}}
+	for range 64 {
+		cfg.Users = append(cfg.Users, lockstepUser(1, 1))
+	}
+	if err := st.Send(&pb.LockstepRequest{Message: &pb.LockstepRequest_Config{Config: cfg}}); err != nil {
+		b.Fatal(err)
+	}
+	slot := &pb.LockstepSlot{SirDb: make([]float64, 64)}
+	blocks := make([]*pb.BlockResult, 64)
+	for u := range blocks {
+		blocks[u] = &pb.BlockResult{User: int32(u), Error: u%10 == 0}
+	}
+	req := &pb.LockstepRequest{Message: &pb.LockstepRequest_Slot{Slot: slot}}
+	resp := &pb.LockstepResponse{}
+	var n int64
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		slot.Slot = n
+		for u := range slot.SirDb {
+			slot.SirDb[u] = 5 + float64((n+int64(u))%7) - 3
+		}
+		slot.Blocks = nil
+		if n%15 == 14 {
+			slot.Blocks = blocks
+		}
+		if err := st.Send(req); err != nil {
+			b.Fatal(err)
+		}
+		if err := st.RecvMsg(resp); err != nil {
+			b.Fatal(err)
+		}
+		if resp.GetSlot() != n || len(resp.GetTxPowerDbm()) != 64 {
+			b.Fatalf("reply for slot %d with %d powers", resp.GetSlot(), len(resp.GetTxPowerDbm()))
+		}
+		n++
+	}
+	b.ReportMetric(float64(n)/b.Elapsed().Seconds(), "slot-round-trips/s")
+	_ = st.CloseSend()
 }
