@@ -37,6 +37,7 @@ func CanonicalScenario() Scenario {
 			CarrierFrequencyHz: 2e9,
 			CustomTaps:         []Tap{{DelayNs: 0, PowerDB: 0}, {DelayNs: 100, PowerDB: 0}, {DelayNs: 200, PowerDB: 0}},
 			Generator:          GeneratorSumOfSinusoids,
+			Sinusoids:          16, // the peer's 16 sinusoids per branch
 			PathLoss:           PathLoss{Model: PathLossLogDistance, RefDistanceM: 10, RefLossDB: 52.9 + peerTapPowerDB, Exponent: 3.76},
 			ActivityFactor:     1,
 		}},

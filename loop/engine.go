@@ -520,6 +520,7 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 				RicianKDB:    g.RicianKDB,
 				LOS:          g.LOS,
 				Generator:    fading.Generator(int(g.Generator) - 1),
+				Sinusoids:    g.Sinusoids,
 			}
 			if g.LOS {
 				cfg.LOSAngleRad = 2*math.Pi*fading.NewStream(rp.seed, u, 0, streamLOSAngle).Float64() - math.Pi

@@ -76,6 +76,7 @@ type UserGroup struct {
 	RicianKDB               float64      `json:"rician_k_db"`               // Rician K of the first tap in dB, [−50, 50]; used when los
 	LOS                     bool         `json:"los"`                       // first tap Rician with a line-of-sight component
 	Generator               Generator    `json:"generator"`                 // fading generator; default GENERATOR_DEFAULT
+	Sinusoids               int          `json:"sinusoids"`                 // sinusoids per branch of the sum-of-sinusoids generators, [0, 256]; 0 = the generator's default
 	ShadowingSigmaDB        float64      `json:"shadowing_sigma_db"`        // log-normal shadowing σ in dB, [0, 20]
 	ShadowingDecorrelationM float64      `json:"shadowing_decorrelation_m"` // Gudmundson decorrelation distance in m (correlation 1/e); default 50 when σ > 0
 	PathLoss                PathLoss     `json:"path_loss"`                 // mean path loss model

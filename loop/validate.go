@@ -223,6 +223,9 @@ func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK bool) {
 	} else if !fin(g.RicianKDB) {
 		c.add(p+".rician_k_db", "must be finite, got %g", g.RicianKDB)
 	}
+	if g.Sinusoids < 0 || g.Sinusoids > fading.MaxSinusoids {
+		c.add(p+".sinusoids", "must be in [0, %d] (0 = generator default), got %d", fading.MaxSinusoids, g.Sinusoids)
+	}
 	if g.Generator <= GeneratorUnspecified || g.Generator > GeneratorSpectral {
 		c.add(p+".generator", "must be GENERATOR_DEFAULT, GENERATOR_SUM_OF_SINUSOIDS or GENERATOR_SPECTRAL, got %s", g.Generator)
 	}
