@@ -58,6 +58,7 @@ func groupFromProto(m *pb.UserGroup) loop.UserGroup {
 		RicianKDB:               m.GetRicianKDb(),
 		LOS:                     m.GetLos(),
 		Generator:               loop.Generator(m.GetGenerator()),
+		Sinusoids:               int(m.GetSinusoids()),
 		ShadowingSigmaDB:        m.GetShadowingSigmaDb(),
 		ShadowingDecorrelationM: m.GetShadowingDecorrelationM(),
 		PathLoss:                pathLossFromProto(m.GetPathLoss()),
@@ -204,6 +205,7 @@ func groupToProto(g loop.UserGroup) *pb.UserGroup {
 		RicianKDb:               g.RicianKDB,
 		Los:                     g.LOS,
 		Generator:               pb.Generator(g.Generator),
+		Sinusoids:               i32(g.Sinusoids),
 		ShadowingSigmaDb:        g.ShadowingSigmaDB,
 		ShadowingDecorrelationM: g.ShadowingDecorrelationM,
 		PathLoss: &pb.PathLoss{

@@ -948,8 +948,11 @@ type UserGroup struct {
 	// chain (used when activity_factor < 1). [1, 1e7]; 0 means the default
 	// 1500.
 	MeanBurstSlots float64 `protobuf:"fixed64,18,opt,name=mean_burst_slots,json=meanBurstSlots,proto3" json:"mean_burst_slots,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// Sinusoids per branch of the sum-of-sinusoids generators; 0 means the
+	// generator's default. [0, 256].
+	Sinusoids     int32 `protobuf:"varint,19,opt,name=sinusoids,proto3" json:"sinusoids,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *UserGroup) Reset() {
@@ -1104,6 +1107,13 @@ func (x *UserGroup) GetActivityFactor() float64 {
 func (x *UserGroup) GetMeanBurstSlots() float64 {
 	if x != nil {
 		return x.MeanBurstSlots
+	}
+	return 0
+}
+
+func (x *UserGroup) GetSinusoids() int32 {
+	if x != nil {
+		return x.Sinusoids
 	}
 	return 0
 }
@@ -1684,7 +1694,7 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\vref_loss_db\x18\x03 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00R\trefLossDb\x123\n" +
 	"\bexponent\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00R\bexponent\x12;\n" +
 	"\rbase_height_m\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\vbaseHeightM\x12?\n" +
-	"\x0fmobile_height_m\x18\x06 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00R\rmobileHeightM\"\xc9\b\n" +
+	"\x0fmobile_height_m\x18\x06 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00R\rmobileHeightM\"\xf3\b\n" +
 	"\tUserGroup\x12\x1b\n" +
 	"\x04name\x18\x01 \x01(\tB\a\xbaH\x04r\x02\x18@R\x04name\x12 \n" +
 	"\x05count\x18\x02 \x01(\x05B\n" +
@@ -1710,7 +1720,9 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\x19shadowing_decorrelation_m\x18\x0f \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00R\x17shadowingDecorrelationM\x12:\n" +
 	"\tpath_loss\x18\x10 \x01(\v2\x15.fadeloop.v1.PathLossB\x06\xbaH\x03\xc8\x01\x01R\bpathLoss\x12C\n" +
 	"\x0factivity_factor\x18\x11 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00R\x0eactivityFactor\x12D\n" +
-	"\x10mean_burst_slots\x18\x12 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\xd0\x12cA)\x00\x00\x00\x00\x00\x00\xf0?R\x0emeanBurstSlots:\x1d\xbaH\x1a\"\x18\n" +
+	"\x10mean_burst_slots\x18\x12 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\xd0\x12cA)\x00\x00\x00\x00\x00\x00\xf0?R\x0emeanBurstSlots\x12(\n" +
+	"\tsinusoids\x18\x13 \x01(\x05B\n" +
+	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids:\x1d\xbaH\x1a\"\x18\n" +
 	"\aprofile\n" +
 	"\vcustom_taps\x10\x01\"\xc9\x06\n" +
 	"\tInnerLoop\x126\n" +
