@@ -2,14 +2,9 @@ package main
 
 import (
 	"context"
-	"crypto/tls"
-	"crypto/x509"
 	"errors"
-	"fmt"
 	"log/slog"
 	"net"
-	"net/http"
-	"os"
 	"strings"
 	"time"
 
@@ -62,86 +57,22 @@ func runServe(ctx context.Context, e *env, args []string) error {
 		return badInputf("--log-level: %v", err)
 	}
 	logger := slog.New(slog.NewTextHandler(e.stderr, &slog.HandlerOptions{Level: lv}))
-	tc, err := serverTLS(e.g.tls.CertFile, e.g.tls.KeyFile, e.g.tls.CAFile)
+	tc, err := service.ServerTLSConfig(e.g.tls.CertFile, e.g.tls.KeyFile, e.g.tls.CAFile)
 	if err != nil {
-		return badInput{err}
+		return badInputf("TLS flags (--tls-cert, --tls-key, --tls-ca): %v", err)
 	}
 	srv, err := service.NewServer(service.Config{MaxCost: *maxCost, MaxConcurrentRuns: *maxRuns, TLS: tc, Logger: logger})
 	if err != nil {
 		return badInput{err}
 	}
-	lis, err := net.Listen("tcp", *listen)
-	if err != nil {
-		return badInputf("--listen %s: %v", *listen, err)
+	err = service.RunDaemon(ctx, context.Background(), srv, service.DaemonOptions{
+		Listen:        *listen,
+		MetricsListen: *metricsListen,
+		DrainTimeout:  *drain,
+	})
+	var opErr *net.OpError
+	if errors.As(err, &opErr) && opErr.Op == "listen" {
+		return badInput{err}
 	}
-	var metricsSrv *http.Server
-	if *metricsListen != "" {
-		mlis, err := net.Listen("tcp", *metricsListen)
-		if err != nil {
-			lis.Close()
-			return badInputf("--metrics-listen %s: %v", *metricsListen, err)
-		}
-		mux := http.NewServeMux()
-		mux.Handle("/metrics", srv.MetricsHandler())
-		metricsSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
-		go func() { _ = metricsSrv.Serve(mlis) }()
-		logger.Info("metrics listening", slog.String("metrics_addr", mlis.Addr().String()))
-	}
-	logger.Info("listening", slog.String("grpc_addr", lis.Addr().String()), slog.Bool("tls", tc != nil),
-		slog.Bool("mutual_tls", tc != nil && tc.ClientCAs != nil))
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(lis) }()
-	select {
-	case err := <-served:
-		return err
-	case <-ctx.Done():
-	}
-	logger.Info("draining", slog.Duration("drain_timeout", *drain))
-	dctx, cancel := context.WithTimeout(context.Background(), *drain)
-	defer cancel()
-	drainErr := srv.Shutdown(dctx)
-	if metricsSrv != nil {
-		_ = metricsSrv.Close()
-	}
-	if err := <-served; err != nil {
-		return err
-	}
-	if drainErr != nil {
-		logger.Warn("drain cut short; remaining calls cancelled", slog.String("error", drainErr.Error()))
-	} else {
-		logger.Info("stopped")
-	}
-	return nil
-}
-
-// serverTLS loads the server certificate and, with caFile, the CA that
-// client certificates must chain to.
-func serverTLS(certFile, keyFile, caFile string) (*tls.Config, error) {
-	if certFile == "" && keyFile == "" {
-		if caFile != "" {
-			return nil, errors.New("--tls-ca needs --tls-cert and --tls-key")
-		}
-		return nil, nil
-	}
-	if certFile == "" || keyFile == "" {
-		return nil, errors.New("--tls-cert and --tls-key go together")
-	}
-	cert, err := tls.LoadX509KeyPair(certFile, keyFile)
-	if err != nil {
-		return nil, fmt.Errorf("TLS key pair: %w", err)
-	}
-	cfg := &tls.Config{Certificates: []tls.Certificate{cert}, MinVersion: tls.VersionTLS12}
-	if caFile != "" {
-		pemBytes, err := os.ReadFile(caFile)
-		if err != nil {
-			return nil, fmt.Errorf("--tls-ca: %w", err)
-		}
-		pool := x509.NewCertPool()
-		if !pool.AppendCertsFromPEM(pemBytes) {
-			return nil, fmt.Errorf("--tls-ca %s: no PEM certificates", caFile)
-		}
-		cfg.ClientCAs = pool
-		cfg.ClientAuth = tls.RequireAndVerifyClientCert
-	}
-	return cfg, nil
+	return err
 }

@@ -11,14 +11,11 @@ package main
 import (
 	"context"
 	"crypto/tls"
-	"crypto/x509"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"log/slog"
-	"net"
-	"net/http"
 	"os"
 	"os/signal"
 	"strings"
@@ -103,27 +100,7 @@ func newLogger(level, format string, w io.Writer) (*slog.Logger, error) {
 
 // tlsConfig loads the server certificate and, for mutual TLS, the client CA.
 func tlsConfig(certFile, keyFile, caFile string) (*tls.Config, error) {
-	if certFile == "" {
-		return nil, nil
-	}
-	cert, err := tls.LoadX509KeyPair(certFile, keyFile)
-	if err != nil {
-		return nil, fmt.Errorf("load TLS key pair: %w", err)
-	}
-	cfg := &tls.Config{Certificates: []tls.Certificate{cert}, MinVersion: tls.VersionTLS12}
-	if caFile != "" {
-		pem, err := os.ReadFile(caFile)
-		if err != nil {
-			return nil, fmt.Errorf("read -client-ca: %w", err)
-		}
-		pool := x509.NewCertPool()
-		if !pool.AppendCertsFromPEM(pem) {
-			return nil, fmt.Errorf("-client-ca %s: no PEM certificates", caFile)
-		}
-		cfg.ClientCAs = pool
-		cfg.ClientAuth = tls.RequireAndVerifyClientCert
-	}
-	return cfg, nil
+	return service.ServerTLSConfig(certFile, keyFile, caFile)
 }
 
 func run(args []string, stderr io.Writer) error {
@@ -161,65 +138,32 @@ func run(args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	lis, err := net.Listen("tcp", o.listen)
-	if err != nil {
-		return fmt.Errorf("listen %s: %w", o.listen, err)
-	}
-	var metricsSrv *http.Server
-	if o.metricsListen != "" {
-		mlis, err := net.Listen("tcp", o.metricsListen)
-		if err != nil {
-			lis.Close()
-			return fmt.Errorf("metrics listen %s: %w", o.metricsListen, err)
-		}
-		mux := http.NewServeMux()
-		mux.Handle("/metrics", srv.MetricsHandler())
-		metricsSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
-		go func() {
-			if err := metricsSrv.Serve(mlis); err != nil && !errors.Is(err, http.ErrServerClosed) {
-				logger.Error("metrics listener failed", slog.String("error", err.Error()))
-			}
-		}()
-		logger.Info("metrics listening", slog.String("metrics_addr", mlis.Addr().String()))
-	}
-	logger.Info("listening", slog.String("grpc_addr", lis.Addr().String()), slog.Bool("tls", tc != nil),
-		slog.Bool("mutual_tls", tc != nil && tc.ClientCAs != nil))
-
+	// The first SIGINT/SIGTERM starts the drain; a second one stops at once.
 	sigs := make(chan os.Signal, 2)
 	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM)
 	defer signal.Stop(sigs)
-	serveErr := make(chan error, 1)
-	go func() { serveErr <- srv.Serve(lis) }()
-
-	select {
-	case err := <-serveErr:
-		return err
-	case sig := <-sigs:
-		logger.Info("draining", slog.String("signal", sig.String()), slog.Duration("drain_timeout", o.drainTimeout))
-	}
-	ctx, cancel := context.WithTimeout(context.Background(), o.drainTimeout)
+	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
+	stop, hardStop := context.WithCancel(context.Background())
+	defer hardStop()
 	go func() {
 		select {
 		case sig := <-sigs:
-			logger.Warn("second signal: stopping now", slog.String("signal", sig.String()))
+			logger.Info("signal", slog.String("signal", sig.String()))
 			cancel()
-		case <-ctx.Done():
+		case <-stop.Done():
+			return
+		}
+		select {
+		case sig := <-sigs:
+			logger.Warn("second signal: stopping now", slog.String("signal", sig.String()))
+			hardStop()
+		case <-stop.Done():
 		}
 	}()
-	drainErr := srv.Shutdown(ctx)
-	if metricsSrv != nil {
-		mctx, mcancel := context.WithTimeout(context.Background(), 5*time.Second)
-		_ = metricsSrv.Shutdown(mctx)
-		mcancel()
-	}
-	if err := <-serveErr; err != nil {
-		return err
-	}
-	if drainErr != nil {
-		logger.Warn("drain cut short; remaining calls cancelled", slog.String("error", drainErr.Error()))
-	} else {
-		logger.Info("stopped")
-	}
-	return nil
+	return service.RunDaemon(ctx, stop, srv, service.DaemonOptions{
+		Listen:        o.listen,
+		MetricsListen: o.metricsListen,
+		DrainTimeout:  o.drainTimeout,
+	})
 }
