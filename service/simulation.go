@@ -235,7 +235,12 @@ func (s *Server) checkSweep(req *pb.SweepRequest) (*sweepGrid, int64, []Violatio
 	if _, bvs := domainScenario(req.GetBase(), "base."); len(bvs) > 0 {
 		return nil, 0, bvs
 	}
-	g := &sweepGrid{base: req.GetBase(), axes: req.GetAxes(), size: 1,
+	// Range axes (first, last, count) become listed values (tune.go).
+	axes, avs := resolveSweepAxes(req.GetAxes())
+	if len(avs) > 0 {
+		return nil, 0, avs
+	}
+	g := &sweepGrid{base: req.GetBase(), axes: axes, size: 1,
 		seed: req.GetBase().GetRun().GetSeed(), perSeed: req.GetSeedMode() == pb.SeedMode_SEED_MODE_PER_POINT}
 	for a, ax := range g.axes {
 		probe := ScenarioFromProto(g.base)

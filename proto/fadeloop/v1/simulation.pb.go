@@ -360,15 +360,26 @@ func (*SimulateResponse_Progress) isSimulateResponse_Event() {}
 
 func (*SimulateResponse_Report) isSimulateResponse_Event() {}
 
-// SweepAxis is one axis of a sweep grid: a scenario field and its values.
+// SweepAxis is one axis of a sweep or tuning grid: a scenario field and
+// its values, listed (values) or as a range (first, last, count; values
+// empty), not both.
 type SweepAxis struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Field path into Scenario with the proto field names, e.g.
-	// "inner_loop.step_db" or "groups[0].speeds[0].speed_kmh". Numeric
-	// fields only (integers take integral values).
-	Path string `protobuf:"bytes,1,opt,name=path,proto3" json:"path,omitempty"`
-	// Values along the axis, 1 to 1024 of them, each finite.
-	Values        []float64 `protobuf:"fixed64,2,rep,packed,name=values,proto3" json:"values,omitempty"`
+	Path  string                 `protobuf:"bytes,1,opt,name=path,proto3" json:"path,omitempty"`
+	// Values along the axis, at most 1024, each finite (Tune also needs
+	// them distinct); when empty the axis is the range first, last, count.
+	Values []float64 `protobuf:"fixed64,2,rep,packed,name=values,proto3" json:"values,omitempty"`
+	// First value of a range (values empty), in the field's unit. Finite.
+	First float64 `protobuf:"fixed64,3,opt,name=first,proto3" json:"first,omitempty"`
+	// Last value of a range, included. Finite; differs from first when
+	// count > 1.
+	Last float64 `protobuf:"fixed64,4,opt,name=last,proto3" json:"last,omitempty"`
+	// Number of range values, both ends included, [0, 1024]; 0 when values
+	// are listed. Linear spacing v_i = first + i·(last−first)/(count−1).
+	Count int32 `protobuf:"varint,5,opt,name=count,proto3" json:"count,omitempty"`
+	// Geometric range spacing v_i = first·(last/first)^(i/(count−1))
+	// (first, last > 0) instead of linear.
+	Log           bool `protobuf:"varint,6,opt,name=log,proto3" json:"log,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -415,6 +426,34 @@ func (x *SweepAxis) GetValues() []float64 {
 		return x.Values
 	}
 	return nil
+}
+
+func (x *SweepAxis) GetFirst() float64 {
+	if x != nil {
+		return x.First
+	}
+	return 0
+}
+
+func (x *SweepAxis) GetLast() float64 {
+	if x != nil {
+		return x.Last
+	}
+	return 0
+}
+
+func (x *SweepAxis) GetCount() int32 {
+	if x != nil {
+		return x.Count
+	}
+	return 0
+}
+
+func (x *SweepAxis) GetLog() bool {
+	if x != nil {
+		return x.Log
+	}
+	return false
 }
 
 // SweepRequest runs a grid of scenarios around a base.
@@ -505,6 +544,124 @@ func (x *SweepRequest) GetDetailed() bool {
 	return false
 }
 
+// TuneRequest asks which point of a grid of settings is best for an
+// objective over weighted conditions, at a confidence level, within a
+// budget. The messages of its answer are in tune.proto.
+type TuneRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The scenario every candidate starts from; its run.seed seeds every
+	// replication (the same seeds for every candidate under one condition:
+	// common random numbers) and its run.replications is ignored.
+	Base *Scenario `protobuf:"bytes,1,opt,name=base,proto3" json:"base,omitempty"`
+	// Grid axes, 0 to 8 (none: the base setting alone). The candidates are
+	// their Cartesian product in row-major order (last axis fastest), at most
+	// 100000 of them.
+	Axes []*SweepAxis `protobuf:"bytes,2,rep,name=axes,proto3" json:"axes,omitempty"`
+	// Conditions to be robust over, at most 64; empty means one condition,
+	// the base scenario as it is, named "base", weight 1.
+	Conditions []*Condition `protobuf:"bytes,3,rep,name=conditions,proto3" json:"conditions,omitempty"`
+	// What is minimised.
+	Objective *Objective `protobuf:"bytes,4,opt,name=objective,proto3" json:"objective,omitempty"`
+	// Confidence of every interval and of the winner's paired test; 0 means
+	// 0.95, otherwise [0.5, 0.9999].
+	Confidence float64 `protobuf:"fixed64,5,opt,name=confidence,proto3" json:"confidence,omitempty"`
+	// Effort bounds; unset means the defaults.
+	Budget *TuneBudget `protobuf:"bytes,6,opt,name=budget,proto3" json:"budget,omitempty"`
+	// Leave out the fixed-power baseline runs.
+	SkipBaseline bool `protobuf:"varint,7,opt,name=skip_baseline,json=skipBaseline,proto3" json:"skip_baseline,omitempty"`
+	// Minimum interval in ms between progress events; 0 means the server's
+	// default (250 ms). [0, 60000].
+	ProgressIntervalMs int32 `protobuf:"varint,8,opt,name=progress_interval_ms,json=progressIntervalMs,proto3" json:"progress_interval_ms,omitempty"`
+	unknownFields      protoimpl.UnknownFields
+	sizeCache          protoimpl.SizeCache
+}
+
+func (x *TuneRequest) Reset() {
+	*x = TuneRequest{}
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[6]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *TuneRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*TuneRequest) ProtoMessage() {}
+
+func (x *TuneRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[6]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use TuneRequest.ProtoReflect.Descriptor instead.
+func (*TuneRequest) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{6}
+}
+
+func (x *TuneRequest) GetBase() *Scenario {
+	if x != nil {
+		return x.Base
+	}
+	return nil
+}
+
+func (x *TuneRequest) GetAxes() []*SweepAxis {
+	if x != nil {
+		return x.Axes
+	}
+	return nil
+}
+
+func (x *TuneRequest) GetConditions() []*Condition {
+	if x != nil {
+		return x.Conditions
+	}
+	return nil
+}
+
+func (x *TuneRequest) GetObjective() *Objective {
+	if x != nil {
+		return x.Objective
+	}
+	return nil
+}
+
+func (x *TuneRequest) GetConfidence() float64 {
+	if x != nil {
+		return x.Confidence
+	}
+	return 0
+}
+
+func (x *TuneRequest) GetBudget() *TuneBudget {
+	if x != nil {
+		return x.Budget
+	}
+	return nil
+}
+
+func (x *TuneRequest) GetSkipBaseline() bool {
+	if x != nil {
+		return x.SkipBaseline
+	}
+	return false
+}
+
+func (x *TuneRequest) GetProgressIntervalMs() int32 {
+	if x != nil {
+		return x.ProgressIntervalMs
+	}
+	return 0
+}
+
 // SweepPoint is the result of one grid point.
 type SweepPoint struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -522,7 +679,7 @@ type SweepPoint struct {
 
 func (x *SweepPoint) Reset() {
 	*x = SweepPoint{}
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[6]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[7]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -534,7 +691,7 @@ func (x *SweepPoint) String() string {
 func (*SweepPoint) ProtoMessage() {}
 
 func (x *SweepPoint) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[6]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[7]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -547,7 +704,7 @@ func (x *SweepPoint) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SweepPoint.ProtoReflect.Descriptor instead.
 func (*SweepPoint) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{6}
+	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{7}
 }
 
 func (x *SweepPoint) GetIndex() int64 {
@@ -597,7 +754,7 @@ type SweepSummary struct {
 
 func (x *SweepSummary) Reset() {
 	*x = SweepSummary{}
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[7]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -609,7 +766,7 @@ func (x *SweepSummary) String() string {
 func (*SweepSummary) ProtoMessage() {}
 
 func (x *SweepSummary) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[7]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -622,7 +779,7 @@ func (x *SweepSummary) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SweepSummary.ProtoReflect.Descriptor instead.
 func (*SweepSummary) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{7}
+	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *SweepSummary) GetGridPoints() int64 {
@@ -677,7 +834,7 @@ type SweepResponse struct {
 
 func (x *SweepResponse) Reset() {
 	*x = SweepResponse{}
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[8]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -689,7 +846,7 @@ func (x *SweepResponse) String() string {
 func (*SweepResponse) ProtoMessage() {}
 
 func (x *SweepResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_simulation_proto_msgTypes[8]
+	mi := &file_fadeloop_v1_simulation_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -702,7 +859,7 @@ func (x *SweepResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SweepResponse.ProtoReflect.Descriptor instead.
 func (*SweepResponse) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{8}
+	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *SweepResponse) GetEvent() isSweepResponse_Event {
@@ -752,7 +909,7 @@ var File_fadeloop_v1_simulation_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\n" +
-	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\"l\n" +
+	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\x1a\x16fadeloop/v1/tune.proto\"l\n" +
 	"\fTraceOptions\x126\n" +
 	"\x10decimation_slots\x18\x01 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xc0\x84=(\x00R\x0fdecimationSlots\x12$\n" +
 	"\x05users\x18\x02 \x03(\x05B\x0e\xbaH\v\x92\x01\b\x10@\"\x04\x1a\x02(\x00R\x05users\"\xbe\x01\n" +
@@ -768,11 +925,16 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\x10SimulateResponse\x123\n" +
 	"\bprogress\x18\x01 \x01(\v2\x15.fadeloop.v1.ProgressH\x00R\bprogress\x120\n" +
 	"\x06report\x18\x02 \x01(\v2\x16.fadeloop.v1.RunReportH\x00R\x06reportB\a\n" +
-	"\x05event\"V\n" +
+	"\x05event\"\xc4\x01\n" +
 	"\tSweepAxis\x12\x1e\n" +
 	"\x04path\x18\x01 \x01(\tB\n" +
-	"\xbaH\ar\x05\x10\x01\x18\x80\x02R\x04path\x12)\n" +
-	"\x06values\x18\x02 \x03(\x01B\x11\xbaH\x0e\x92\x01\v\b\x01\x10\x80\b\"\x04\x12\x02@\x01R\x06values\"\x8e\x02\n" +
+	"\xbaH\ar\x05\x10\x01\x18\x80\x02R\x04path\x12'\n" +
+	"\x06values\x18\x02 \x03(\x01B\x0f\xbaH\f\x92\x01\t\x10\x80\b\"\x04\x12\x02@\x01R\x06values\x12\x1d\n" +
+	"\x05first\x18\x03 \x01(\x01B\a\xbaH\x04\x12\x02@\x01R\x05first\x12\x1b\n" +
+	"\x04last\x18\x04 \x01(\x01B\a\xbaH\x04\x12\x02@\x01R\x04last\x12 \n" +
+	"\x05count\x18\x05 \x01(\x05B\n" +
+	"\xbaH\a\x1a\x05\x18\x80\b(\x00R\x05count\x12\x10\n" +
+	"\x03log\x18\x06 \x01(\bR\x03log\"\x8e\x02\n" +
 	"\fSweepRequest\x121\n" +
 	"\x04base\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\x04base\x126\n" +
 	"\x04axes\x18\x02 \x03(\v2\x16.fadeloop.v1.SweepAxisB\n" +
@@ -780,7 +942,20 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\rpoint_indices\x18\x03 \x03(\x03B\x12\xbaH\x0f\x92\x01\f\x10\xa0\x8d\x06\x18\x01\"\x04\"\x02(\x00R\fpointIndices\x12>\n" +
 	"\tseed_mode\x18\x04 \x01(\x0e2\x15.fadeloop.v1.SeedModeB\n" +
 	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\bseedMode\x12\x1a\n" +
-	"\bdetailed\x18\x05 \x01(\bR\bdetailed\"\x88\x01\n" +
+	"\bdetailed\x18\x05 \x01(\bR\bdetailed\"\xc7\x03\n" +
+	"\vTuneRequest\x121\n" +
+	"\x04base\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\x04base\x124\n" +
+	"\x04axes\x18\x02 \x03(\v2\x16.fadeloop.v1.SweepAxisB\b\xbaH\x05\x92\x01\x02\x10\bR\x04axes\x12@\n" +
+	"\n" +
+	"conditions\x18\x03 \x03(\v2\x16.fadeloop.v1.ConditionB\b\xbaH\x05\x92\x01\x02\x10@R\n" +
+	"conditions\x12<\n" +
+	"\tobjective\x18\x04 \x01(\v2\x16.fadeloop.v1.ObjectiveB\x06\xbaH\x03\xc8\x01\x01R\tobjective\x12:\n" +
+	"\n" +
+	"confidence\x18\x05 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?R\n" +
+	"confidence\x12/\n" +
+	"\x06budget\x18\x06 \x01(\v2\x17.fadeloop.v1.TuneBudgetR\x06budget\x12#\n" +
+	"\rskip_baseline\x18\a \x01(\bR\fskipBaseline\x12=\n" +
+	"\x14progress_interval_ms\x18\b \x01(\x05B\v\xbaH\b\x1a\x06\x18\xe0\xd4\x03(\x00R\x12progressIntervalMs\"\x88\x01\n" +
 	"\n" +
 	"SweepPoint\x12\x14\n" +
 	"\x05index\x18\x01 \x01(\x03R\x05index\x12 \n" +
@@ -801,10 +976,12 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\bSeedMode\x12\x19\n" +
 	"\x15SEED_MODE_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10SEED_MODE_COMMON\x10\x01\x12\x17\n" +
-	"\x13SEED_MODE_PER_POINT\x10\x022\xa0\x01\n" +
+	"\x13SEED_MODE_PER_POINT\x10\x022\xaa\x02\n" +
 	"\x11SimulationService\x12I\n" +
 	"\bSimulate\x12\x1c.fadeloop.v1.SimulateRequest\x1a\x1d.fadeloop.v1.SimulateResponse0\x01\x12@\n" +
-	"\x05Sweep\x12\x19.fadeloop.v1.SweepRequest\x1a\x1a.fadeloop.v1.SweepResponse0\x01B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
+	"\x05Sweep\x12\x19.fadeloop.v1.SweepRequest\x1a\x1a.fadeloop.v1.SweepResponse0\x01\x12=\n" +
+	"\x04Tune\x12\x18.fadeloop.v1.TuneRequest\x1a\x19.fadeloop.v1.TuneResponse0\x01\x12I\n" +
+	"\bCapacity\x12\x1c.fadeloop.v1.CapacityRequest\x1a\x1d.fadeloop.v1.CapacityResponse0\x01B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
 var (
 	file_fadeloop_v1_simulation_proto_rawDescOnce sync.Once
@@ -819,7 +996,7 @@ func file_fadeloop_v1_simulation_proto_rawDescGZIP() []byte {
 }
 
 var file_fadeloop_v1_simulation_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fadeloop_v1_simulation_proto_msgTypes = make([]protoimpl.MessageInfo, 9)
+var file_fadeloop_v1_simulation_proto_msgTypes = make([]protoimpl.MessageInfo, 10)
 var file_fadeloop_v1_simulation_proto_goTypes = []any{
 	(SeedMode)(0),            // 0: fadeloop.v1.SeedMode
 	(*TraceOptions)(nil),     // 1: fadeloop.v1.TraceOptions
@@ -828,32 +1005,48 @@ var file_fadeloop_v1_simulation_proto_goTypes = []any{
 	(*SimulateResponse)(nil), // 4: fadeloop.v1.SimulateResponse
 	(*SweepAxis)(nil),        // 5: fadeloop.v1.SweepAxis
 	(*SweepRequest)(nil),     // 6: fadeloop.v1.SweepRequest
-	(*SweepPoint)(nil),       // 7: fadeloop.v1.SweepPoint
-	(*SweepSummary)(nil),     // 8: fadeloop.v1.SweepSummary
-	(*SweepResponse)(nil),    // 9: fadeloop.v1.SweepResponse
-	(*Scenario)(nil),         // 10: fadeloop.v1.Scenario
-	(*RunReport)(nil),        // 11: fadeloop.v1.RunReport
+	(*TuneRequest)(nil),      // 7: fadeloop.v1.TuneRequest
+	(*SweepPoint)(nil),       // 8: fadeloop.v1.SweepPoint
+	(*SweepSummary)(nil),     // 9: fadeloop.v1.SweepSummary
+	(*SweepResponse)(nil),    // 10: fadeloop.v1.SweepResponse
+	(*Scenario)(nil),         // 11: fadeloop.v1.Scenario
+	(*RunReport)(nil),        // 12: fadeloop.v1.RunReport
+	(*Condition)(nil),        // 13: fadeloop.v1.Condition
+	(*Objective)(nil),        // 14: fadeloop.v1.Objective
+	(*TuneBudget)(nil),       // 15: fadeloop.v1.TuneBudget
+	(*CapacityRequest)(nil),  // 16: fadeloop.v1.CapacityRequest
+	(*TuneResponse)(nil),     // 17: fadeloop.v1.TuneResponse
+	(*CapacityResponse)(nil), // 18: fadeloop.v1.CapacityResponse
 }
 var file_fadeloop_v1_simulation_proto_depIdxs = []int32{
-	10, // 0: fadeloop.v1.SimulateRequest.scenario:type_name -> fadeloop.v1.Scenario
+	11, // 0: fadeloop.v1.SimulateRequest.scenario:type_name -> fadeloop.v1.Scenario
 	1,  // 1: fadeloop.v1.SimulateRequest.traces:type_name -> fadeloop.v1.TraceOptions
 	3,  // 2: fadeloop.v1.SimulateResponse.progress:type_name -> fadeloop.v1.Progress
-	11, // 3: fadeloop.v1.SimulateResponse.report:type_name -> fadeloop.v1.RunReport
-	10, // 4: fadeloop.v1.SweepRequest.base:type_name -> fadeloop.v1.Scenario
+	12, // 3: fadeloop.v1.SimulateResponse.report:type_name -> fadeloop.v1.RunReport
+	11, // 4: fadeloop.v1.SweepRequest.base:type_name -> fadeloop.v1.Scenario
 	5,  // 5: fadeloop.v1.SweepRequest.axes:type_name -> fadeloop.v1.SweepAxis
 	0,  // 6: fadeloop.v1.SweepRequest.seed_mode:type_name -> fadeloop.v1.SeedMode
-	11, // 7: fadeloop.v1.SweepPoint.report:type_name -> fadeloop.v1.RunReport
-	7,  // 8: fadeloop.v1.SweepResponse.point:type_name -> fadeloop.v1.SweepPoint
-	8,  // 9: fadeloop.v1.SweepResponse.summary:type_name -> fadeloop.v1.SweepSummary
-	2,  // 10: fadeloop.v1.SimulationService.Simulate:input_type -> fadeloop.v1.SimulateRequest
-	6,  // 11: fadeloop.v1.SimulationService.Sweep:input_type -> fadeloop.v1.SweepRequest
-	4,  // 12: fadeloop.v1.SimulationService.Simulate:output_type -> fadeloop.v1.SimulateResponse
-	9,  // 13: fadeloop.v1.SimulationService.Sweep:output_type -> fadeloop.v1.SweepResponse
-	12, // [12:14] is the sub-list for method output_type
-	10, // [10:12] is the sub-list for method input_type
-	10, // [10:10] is the sub-list for extension type_name
-	10, // [10:10] is the sub-list for extension extendee
-	0,  // [0:10] is the sub-list for field type_name
+	11, // 7: fadeloop.v1.TuneRequest.base:type_name -> fadeloop.v1.Scenario
+	5,  // 8: fadeloop.v1.TuneRequest.axes:type_name -> fadeloop.v1.SweepAxis
+	13, // 9: fadeloop.v1.TuneRequest.conditions:type_name -> fadeloop.v1.Condition
+	14, // 10: fadeloop.v1.TuneRequest.objective:type_name -> fadeloop.v1.Objective
+	15, // 11: fadeloop.v1.TuneRequest.budget:type_name -> fadeloop.v1.TuneBudget
+	12, // 12: fadeloop.v1.SweepPoint.report:type_name -> fadeloop.v1.RunReport
+	8,  // 13: fadeloop.v1.SweepResponse.point:type_name -> fadeloop.v1.SweepPoint
+	9,  // 14: fadeloop.v1.SweepResponse.summary:type_name -> fadeloop.v1.SweepSummary
+	2,  // 15: fadeloop.v1.SimulationService.Simulate:input_type -> fadeloop.v1.SimulateRequest
+	6,  // 16: fadeloop.v1.SimulationService.Sweep:input_type -> fadeloop.v1.SweepRequest
+	7,  // 17: fadeloop.v1.SimulationService.Tune:input_type -> fadeloop.v1.TuneRequest
+	16, // 18: fadeloop.v1.SimulationService.Capacity:input_type -> fadeloop.v1.CapacityRequest
+	4,  // 19: fadeloop.v1.SimulationService.Simulate:output_type -> fadeloop.v1.SimulateResponse
+	10, // 20: fadeloop.v1.SimulationService.Sweep:output_type -> fadeloop.v1.SweepResponse
+	17, // 21: fadeloop.v1.SimulationService.Tune:output_type -> fadeloop.v1.TuneResponse
+	18, // 22: fadeloop.v1.SimulationService.Capacity:output_type -> fadeloop.v1.CapacityResponse
+	19, // [19:23] is the sub-list for method output_type
+	15, // [15:19] is the sub-list for method input_type
+	15, // [15:15] is the sub-list for extension type_name
+	15, // [15:15] is the sub-list for extension extendee
+	0,  // [0:15] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_simulation_proto_init() }
@@ -863,11 +1056,12 @@ func file_fadeloop_v1_simulation_proto_init() {
 	}
 	file_fadeloop_v1_report_proto_init()
 	file_fadeloop_v1_scenario_proto_init()
+	file_fadeloop_v1_tune_proto_init()
 	file_fadeloop_v1_simulation_proto_msgTypes[3].OneofWrappers = []any{
 		(*SimulateResponse_Progress)(nil),
 		(*SimulateResponse_Report)(nil),
 	}
-	file_fadeloop_v1_simulation_proto_msgTypes[8].OneofWrappers = []any{
+	file_fadeloop_v1_simulation_proto_msgTypes[9].OneofWrappers = []any{
 		(*SweepResponse_Point)(nil),
 		(*SweepResponse_Summary)(nil),
 	}
@@ -877,7 +1071,7 @@ func file_fadeloop_v1_simulation_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_simulation_proto_rawDesc), len(file_fadeloop_v1_simulation_proto_rawDesc)),
 			NumEnums:      1,
-			NumMessages:   9,
+			NumMessages:   10,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

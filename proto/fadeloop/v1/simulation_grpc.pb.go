@@ -21,6 +21,8 @@ const _ = grpc.SupportPackageIsVersion9
 const (
 	SimulationService_Simulate_FullMethodName = "/fadeloop.v1.SimulationService/Simulate"
 	SimulationService_Sweep_FullMethodName    = "/fadeloop.v1.SimulationService/Sweep"
+	SimulationService_Tune_FullMethodName     = "/fadeloop.v1.SimulationService/Tune"
+	SimulationService_Capacity_FullMethodName = "/fadeloop.v1.SimulationService/Capacity"
 )
 
 // SimulationServiceClient is the client API for SimulationService service.
@@ -38,6 +40,19 @@ type SimulationServiceClient interface {
 	// a summary. Each point is deterministic, so a retried point gives the
 	// same result, and a request may name a subset of the points.
 	Sweep(ctx context.Context, in *SweepRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[SweepResponse], error)
+	// Tune searches a grid of settings (axes over a base scenario) for the
+	// one that minimises an objective over weighted conditions, with common
+	// random numbers and replications added sequentially to the candidates
+	// still in contention: progress events, then one Recommendation (best
+	// setting per condition and overall, the runner-up with the paired
+	// evidence, a fixed-power baseline, the effort). Deterministic in the
+	// request.
+	Tune(ctx context.Context, in *TuneRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[TuneResponse], error)
+	// Capacity bisects the user count of one group for the largest count
+	// whose outage stays at or below a limit, with the analytic pole
+	// capacity beside it: progress events, then one CapacityResult.
+	// Deterministic in the request.
+	Capacity(ctx context.Context, in *CapacityRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[CapacityResponse], error)
 }
 
 type simulationServiceClient struct {
@@ -86,6 +101,44 @@ func (c *simulationServiceClient) Sweep(ctx context.Context, in *SweepRequest, o
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type SimulationService_SweepClient = grpc.ServerStreamingClient[SweepResponse]
 
+func (c *simulationServiceClient) Tune(ctx context.Context, in *TuneRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[TuneResponse], error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	stream, err := c.cc.NewStream(ctx, &SimulationService_ServiceDesc.Streams[2], SimulationService_Tune_FullMethodName, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	x := &grpc.GenericClientStream[TuneRequest, TuneResponse]{ClientStream: stream}
+	if err := x.ClientStream.SendMsg(in); err != nil {
+		return nil, err
+	}
+	if err := x.ClientStream.CloseSend(); err != nil {
+		return nil, err
+	}
+	return x, nil
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type SimulationService_TuneClient = grpc.ServerStreamingClient[TuneResponse]
+
+func (c *simulationServiceClient) Capacity(ctx context.Context, in *CapacityRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[CapacityResponse], error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	stream, err := c.cc.NewStream(ctx, &SimulationService_ServiceDesc.Streams[3], SimulationService_Capacity_FullMethodName, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	x := &grpc.GenericClientStream[CapacityRequest, CapacityResponse]{ClientStream: stream}
+	if err := x.ClientStream.SendMsg(in); err != nil {
+		return nil, err
+	}
+	if err := x.ClientStream.CloseSend(); err != nil {
+		return nil, err
+	}
+	return x, nil
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type SimulationService_CapacityClient = grpc.ServerStreamingClient[CapacityResponse]
+
 // SimulationServiceServer is the server API for SimulationService service.
 // All implementations must embed UnimplementedSimulationServiceServer
 // for forward compatibility.
@@ -101,6 +154,19 @@ type SimulationServiceServer interface {
 	// a summary. Each point is deterministic, so a retried point gives the
 	// same result, and a request may name a subset of the points.
 	Sweep(*SweepRequest, grpc.ServerStreamingServer[SweepResponse]) error
+	// Tune searches a grid of settings (axes over a base scenario) for the
+	// one that minimises an objective over weighted conditions, with common
+	// random numbers and replications added sequentially to the candidates
+	// still in contention: progress events, then one Recommendation (best
+	// setting per condition and overall, the runner-up with the paired
+	// evidence, a fixed-power baseline, the effort). Deterministic in the
+	// request.
+	Tune(*TuneRequest, grpc.ServerStreamingServer[TuneResponse]) error
+	// Capacity bisects the user count of one group for the largest count
+	// whose outage stays at or below a limit, with the analytic pole
+	// capacity beside it: progress events, then one CapacityResult.
+	// Deterministic in the request.
+	Capacity(*CapacityRequest, grpc.ServerStreamingServer[CapacityResponse]) error
 	mustEmbedUnimplementedSimulationServiceServer()
 }
 
@@ -116,6 +182,12 @@ func (UnimplementedSimulationServiceServer) Simulate(*SimulateRequest, grpc.Serv
 }
 func (UnimplementedSimulationServiceServer) Sweep(*SweepRequest, grpc.ServerStreamingServer[SweepResponse]) error {
 	return status.Error(codes.Unimplemented, "method Sweep not implemented")
+}
+func (UnimplementedSimulationServiceServer) Tune(*TuneRequest, grpc.ServerStreamingServer[TuneResponse]) error {
+	return status.Error(codes.Unimplemented, "method Tune not implemented")
+}
+func (UnimplementedSimulationServiceServer) Capacity(*CapacityRequest, grpc.ServerStreamingServer[CapacityResponse]) error {
+	return status.Error(codes.Unimplemented, "method Capacity not implemented")
 }
 func (UnimplementedSimulationServiceServer) mustEmbedUnimplementedSimulationServiceServer() {}
 func (UnimplementedSimulationServiceServer) testEmbeddedByValue()                           {}
@@ -160,6 +232,28 @@ func _SimulationService_Sweep_Handler(srv interface{}, stream grpc.ServerStream)
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type SimulationService_SweepServer = grpc.ServerStreamingServer[SweepResponse]
 
+func _SimulationService_Tune_Handler(srv interface{}, stream grpc.ServerStream) error {
+	m := new(TuneRequest)
+	if err := stream.RecvMsg(m); err != nil {
+		return err
+	}
+	return srv.(SimulationServiceServer).Tune(m, &grpc.GenericServerStream[TuneRequest, TuneResponse]{ServerStream: stream})
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type SimulationService_TuneServer = grpc.ServerStreamingServer[TuneResponse]
+
+func _SimulationService_Capacity_Handler(srv interface{}, stream grpc.ServerStream) error {
+	m := new(CapacityRequest)
+	if err := stream.RecvMsg(m); err != nil {
+		return err
+	}
+	return srv.(SimulationServiceServer).Capacity(m, &grpc.GenericServerStream[CapacityRequest, CapacityResponse]{ServerStream: stream})
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type SimulationService_CapacityServer = grpc.ServerStreamingServer[CapacityResponse]
+
 // SimulationService_ServiceDesc is the grpc.ServiceDesc for SimulationService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -176,6 +270,16 @@ var SimulationService_ServiceDesc = grpc.ServiceDesc{
 		{
 			StreamName:    "Sweep",
 			Handler:       _SimulationService_Sweep_Handler,
+			ServerStreams: true,
+		},
+		{
+			StreamName:    "Tune",
+			Handler:       _SimulationService_Tune_Handler,
+			ServerStreams: true,
+		},
+		{
+			StreamName:    "Capacity",
+			Handler:       _SimulationService_Capacity_Handler,
 			ServerStreams: true,
 		},
 	},

@@ -1,0 +1,210 @@
+package main
+
+import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	"google.golang.org/protobuf/encoding/protojson"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// tuneArgs is a short tune of the small scenario: two step sizes, two
+// speeds, at most 4 replications of 600 slots (well under a second).
+var tuneArgs = []string{"tune", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
+	"--axis", "inner_loop.step_db=0.5,1", "--speeds", "3,60", "--max-reps", "4"}
+
+// stripEffortTiming removes effort.wall_time_s from a Recommendation's
+// JSON, the only field that differs between identical requests.
+func stripEffortTiming(t *testing.T, s string) string {
+	t.Helper()
+	var v map[string]any
+	if err := json.Unmarshal([]byte(s), &v); err != nil {
+		t.Fatalf("%v\n%s", err, s)
+	}
+	if ef, ok := v["effort"].(map[string]any); ok {
+		delete(ef, "wall_time_s")
+	}
+	b, _ := json.Marshal(v)
+	return string(b)
+}
+
+func TestTuneCommand(t *testing.T) {
+	r := ok(t, tuneArgs...)
+	for _, want := range []string{"Best overall:", "Runner-up:", "Why:", "Tie rule:", "3 km/h", "60 km/h",
+		"fixed power", "Condition 3 km/h:", "Effort:", "equal allocation"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("tune table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+
+	r = ok(t, append(tuneArgs, "--format", "csv")...)
+	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 2 conditions × 2 candidates, 2 baselines, 2 overall candidates.
+	if len(rows) != 1+4+2+2 || rows[0][0] != "scope" || rows[0][4] != "inner_loop.step_db" {
+		t.Fatalf("tune CSV: %d rows, header %v", len(rows), rows[0])
+	}
+	best := 0
+	for _, row := range rows[1:] {
+		if len(row) != len(rows[0]) {
+			t.Fatalf("row %v has %d cells, header %d", row, len(row), len(rows[0]))
+		}
+		if row[0] == "overall" && row[7] == "true" {
+			best++
+		}
+	}
+	if best != 1 {
+		t.Errorf("%d overall rows marked best, want 1", best)
+	}
+
+	a := ok(t, append(tuneArgs, "--format", "json")...)
+	rec := &pb.Recommendation{}
+	if err := protojson.Unmarshal([]byte(a.stdout), rec); err != nil {
+		t.Fatalf("tune JSON is not a Recommendation: %v", err)
+	}
+	if len(rec.GetCandidates()) != 2 || len(rec.GetConditions()) != 2 || rec.GetOverall().GetSetting() == nil {
+		t.Errorf("recommendation: %d candidates, %d conditions", len(rec.GetCandidates()), len(rec.GetConditions()))
+	}
+	addr := startServe(t)
+	b := ok(t, append([]string{"--server", addr}, append(tuneArgs, "--format", "json")...)...)
+	if stripEffortTiming(t, a.stdout) != stripEffortTiming(t, b.stdout) {
+		t.Error("embedded and remote tune JSON differ for the same request")
+	}
+}
+
+func TestTunePlotsAndRequestFile(t *testing.T) {
+	dir := t.TempDir()
+	heat := filepath.Join(dir, "heat.png")
+	ok(t, "tune", "testdata/scenarios/small.json", "--slots", "600", "--quiet", "--max-reps", "4",
+		"--axis", "inner_loop.step_db=0.5,1", "--axis", "inner_loop.update_rate_hz=750,1500", "--plot", heat)
+	checkPNG(t, heat)
+	steps := filepath.Join(dir, "steps.svg")
+	req := filepath.Join(dir, "search.yaml")
+	writeFile(t, req, `axes:
+  - {path: inner_loop.step_db, first: 0.25, last: 1, count: 3, log: true}
+conditions:
+  - {name: walk, weight: 2, overrides: [{path: "groups[0].speeds[0].speed_kmh", number: 3}]}
+  - {name: car, weight: 1, overrides: [{path: "groups[0].speeds[0].speed_kmh", number: 60}]}
+objective: {kind: OBJECTIVE_KIND_MIN_OUTAGE}
+budget: {max_replications: 4}
+`)
+	r := ok(t, "tune", "testdata/scenarios/small.json", "--slots", "600", "--quiet", "--request", req,
+		"--plot", "steps="+steps, "--format", "csv")
+	checkSVG(t, steps)
+	// The log range 0.25..1 in 3 values is 0.25, 0.5, 1.
+	for _, v := range []string{",0.25,", ",0.5,", ",1,"} {
+		if !strings.Contains(r.stdout, "condition,walk,2,") || !strings.Contains(r.stdout, v) {
+			t.Errorf("tune CSV from the request file lacks %q:\n%s", v, r.stdout)
+		}
+	}
+}
+
+func TestCapacityCommand(t *testing.T) {
+	args := []string{"capacity", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
+		"--outage-limit", "0.05", "--max-count", "32", "--replications", "2"}
+	r := ok(t, args...)
+	for _, want := range []string{"Capacity of group 0", "Pole capacity (Gilhousen et al. 1991)", "count", "pass", "Effort:"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("capacity table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	r = ok(t, append(args, "--format", "csv")...)
+	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) < 3 || rows[0][0] != "count" || rows[0][2] != "pass" {
+		t.Fatalf("capacity CSV: %d rows, header %v", len(rows), rows[0])
+	}
+	r = ok(t, append(args, "--format", "json")...)
+	res := &pb.CapacityResult{}
+	if err := protojson.Unmarshal([]byte(r.stdout), res); err != nil {
+		t.Fatalf("capacity JSON is not a CapacityResult: %v", err)
+	}
+	if len(res.GetEvaluated()) != len(rows)-1 || res.GetPole() <= 0 {
+		t.Errorf("capacity JSON: %d evaluated counts (CSV %d rows), pole %g", len(res.GetEvaluated()), len(rows)-1, res.GetPole())
+	}
+}
+
+func TestSearchCommandsBadInput(t *testing.T) {
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"tune", "--axis", "inner_loop.no_such_db=1,2"}, "axes[0].path"},
+		{[]string{"tune", "--axis", "inner_loop.step_db=1,2", "--objective", "fastest"}, "--objective"},
+		{[]string{"tune", "--axis", "inner_loop.step_db=1,2", "--objective", "power"}, "outage_limit"},
+		{[]string{"tune"}, "no axes"},
+		{[]string{"tune", "--axis", "inner_loop.step_db=1,2", "--condition", "x@0:groups[0].count=3"}, "conditions[0].weight"},
+		{[]string{"tune", "--axis", "inner_loop.step_db=1,2", "--plot", "heatmap=x.png"}, "heatmap"},
+		{[]string{"capacity"}, "--outage-limit"},
+		{[]string{"capacity", "--outage-limit", "0.05", "--group", "9"}, "group"},
+	}
+	for _, c := range cases {
+		r := fl(t, c.args...)
+		r.want(t, exitBadInput, c.args...)
+		if !strings.Contains(r.stderr, c.want) {
+			t.Errorf("fadeloop %s: stderr does not name %q:\n%s", strings.Join(c.args, " "), c.want, r.stderr)
+		}
+	}
+	for _, cmd := range []string{"tune", "capacity"} {
+		r := ok(t, cmd, "--help")
+		if !strings.Contains(r.stdout, "Examples:") || !strings.Contains(r.stdout, "fadeloop "+cmd) {
+			t.Errorf("%s --help lacks examples:\n%s", cmd, r.stdout)
+		}
+	}
+}
+
+func writeFile(t *testing.T, path, content string) {
+	t.Helper()
+	if err := os.WriteFile(path, []byte(content), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestTuneInterruptCancels sends SIGINT during a long search: the CLI must
+// stop within a second, exit 1 and say that it was cancelled.
+func TestTuneInterruptCancels(t *testing.T) {
+	cmd := exec.Command(flBinary(t), "tune", "--slots", "2000000", "--axis", "inner_loop.step_db=0.5,1",
+		"--max-reps", "2", "--progress", "lines")
+	cmd.Dir = repoRoot
+	var se bytes.Buffer
+	cmd.Stderr = &se
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(1500 * time.Millisecond) // let the candidates' runs get going
+	sent := time.Now()
+	if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	select {
+	case err := <-done:
+		if d := time.Since(sent); d > time.Second {
+			t.Errorf("exited %v after SIGINT, want within 1 s", d)
+		}
+		ee, isExit := err.(*exec.ExitError)
+		if !isExit || ee.ExitCode() != exitFailure {
+			t.Errorf("exit after SIGINT: %v, want status 1\n%s", err, se.String())
+		}
+		if !strings.Contains(se.String(), "cancelled") {
+			t.Errorf("stderr does not say cancelled:\n%s", se.String())
+		}
+	case <-time.After(10 * time.Second):
+		cmd.Process.Kill()
+		t.Fatal("still running 10 s after SIGINT")
+	}
+}

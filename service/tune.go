@@ -1,0 +1,643 @@
+package service
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math/bits"
+	"strings"
+	"sync"
+	"time"
+
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/tune"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// This file serves SimulationService.Tune and SimulationService.Capacity
+// on top of package loop/tune, with the validation, cost bound, admission,
+// cancellation and error mapping of Simulate and Sweep.
+
+// AxisFromProto converts a grid axis: listed values, or the range first,
+// last, count (log: geometric spacing).
+func AxisFromProto(m *pb.SweepAxis) tune.Axis {
+	return tune.Axis{
+		Path:   m.GetPath(),
+		Values: cloneFloats(m.GetValues()),
+		From:   m.GetFirst(),
+		To:     m.GetLast(),
+		Count:  int(m.GetCount()),
+		Log:    m.GetLog(),
+	}
+}
+
+// TuneRequestFromProto converts a fadeloop.v1 TuneRequest to the tuner's
+// request, field for field (the base scenario as ScenarioFromProto gives
+// it). It does not validate.
+func TuneRequestFromProto(m *pb.TuneRequest) tune.Request {
+	r := tune.Request{
+		Base:         ScenarioFromProto(m.GetBase()),
+		Objective:    objectiveFromProto(m.GetObjective()),
+		Confidence:   m.GetConfidence(),
+		SkipBaseline: m.GetSkipBaseline(),
+		Budget: tune.Budget{
+			MinReplications:   int(m.GetBudget().GetMinReplications()),
+			MaxReplications:   int(m.GetBudget().GetMaxReplications()),
+			BatchReplications: int(m.GetBudget().GetBatchReplications()),
+			MaxUserSlots:      m.GetBudget().GetMaxUserSlots(),
+		},
+	}
+	for _, a := range m.GetAxes() {
+		r.Axes = append(r.Axes, AxisFromProto(a))
+	}
+	for _, c := range m.GetConditions() {
+		cd := tune.Condition{Name: c.GetName(), Weight: c.GetWeight()}
+		for _, o := range c.GetOverrides() {
+			ov := tune.Override{Path: o.GetPath()}
+			switch v := o.GetValue().(type) {
+			case *pb.Override_Number:
+				ov.Value = v.Number
+			case *pb.Override_Text:
+				ov.Text = v.Text
+			}
+			cd.Overrides = append(cd.Overrides, ov)
+		}
+		r.Conditions = append(r.Conditions, cd)
+	}
+	return r
+}
+
+func objectiveFromProto(m *pb.Objective) tune.Objective {
+	return tune.Objective{
+		// ObjectiveKind numbers are the same on both sides (tune_test.go
+		// checks every name).
+		Kind:             tune.ObjectiveKind(m.GetKind()),
+		OutageLimit:      m.GetOutageLimit(),
+		BLERTolerance:    m.GetBlerTolerance(),
+		IndifferenceZone: m.GetIndifferenceZone(),
+	}
+}
+
+func objectiveToProto(o tune.Objective) *pb.Objective {
+	return &pb.Objective{
+		Kind:             pb.ObjectiveKind(o.Kind),
+		OutageLimit:      o.OutageLimit,
+		BlerTolerance:    o.BLERTolerance,
+		IndifferenceZone: o.IndifferenceZone,
+	}
+}
+
+// CapacityRequestFromProto converts a fadeloop.v1 CapacityRequest to the
+// tuner's request. It does not validate.
+func CapacityRequestFromProto(m *pb.CapacityRequest) tune.CapacityRequest {
+	return tune.CapacityRequest{
+		Base:         ScenarioFromProto(m.GetBase()),
+		Group:        int(m.GetGroup()),
+		OutageLimit:  m.GetOutageLimit(),
+		MinCount:     int(m.GetMinCount()),
+		MaxCount:     int(m.GetMaxCount()),
+		Replications: int(m.GetReplications()),
+		Confidence:   m.GetConfidence(),
+		MaxUserSlots: m.GetMaxUserSlots(),
+	}
+}
+
+func replicationEstimateToProto(e tune.Estimate) *pb.ReplicationEstimate {
+	return &pb.ReplicationEstimate{Mean: e.Mean, Low: e.Low, High: e.High, N: i32(e.N)}
+}
+
+func tuneFiguresToProto(f tune.Figures) *pb.TuneFigures {
+	return &pb.TuneFigures{
+		SirErrorMeanDb:         replicationEstimateToProto(f.SIRErrorMeanDB),
+		SirErrorStdDb:          replicationEstimateToProto(f.SIRErrorStdDB),
+		OutageProbability:      replicationEstimateToProto(f.OutageProb),
+		AchievedBler:           replicationEstimateToProto(f.BLER),
+		BlerTarget:             f.BLERTarget,
+		TxPowerMeanDbm:         replicationEstimateToProto(f.TxPowerMeanDBm),
+		MaxPowerFraction:       replicationEstimateToProto(f.TimeAtMaxPower),
+		NoiseRiseMeanDb:        replicationEstimateToProto(f.NoiseRiseDB),
+		InfeasibleReplications: i32(f.InfeasibleReplications),
+	}
+}
+
+func gridPointToProto(p tune.Point) *pb.GridPoint {
+	m := &pb.GridPoint{Index: i32(p.Index)}
+	for _, c := range p.Coords {
+		m.Coords = append(m.Coords, &pb.Coord{Path: c.Path, Value: c.Value})
+	}
+	return m
+}
+
+func candidatesToProto(cs []tune.CandidateResult, withFigures bool) []*pb.CandidateResult {
+	out := make([]*pb.CandidateResult, len(cs))
+	for i, c := range cs {
+		m := &pb.CandidateResult{
+			Candidate:  i32(c.Candidate),
+			Objective:  replicationEstimateToProto(c.Objective),
+			DiffToBest: replicationEstimateToProto(c.DiffToBest),
+			// CandidateStatus numbers are the same on both sides.
+			Status:   pb.CandidateStatus(c.Status),
+			Feasible: c.Feasible,
+		}
+		if withFigures {
+			m.Figures = tuneFiguresToProto(c.Figures)
+		}
+		out[i] = m
+	}
+	return out
+}
+
+func decisionToProto(d tune.Decision) *pb.Decision {
+	m := &pb.Decision{
+		Best:             i32(d.Best),
+		Setting:          gridPointToProto(d.Setting),
+		Declared:         d.Declared,
+		Leader:           i32(d.Leader),
+		RunnerUp:         i32(d.RunnerUp),
+		Evidence:         replicationEstimateToProto(d.Evidence),
+		ConstraintsUnmet: d.ConstraintsUnmet,
+		Reason:           d.Reason,
+	}
+	for _, k := range d.TieSet {
+		m.TieSet = append(m.TieSet, i32(k))
+	}
+	return m
+}
+
+// RecommendationToProto converts the tuner's answer; wall is the call's
+// wall-clock time (effort.wall_time_s).
+func RecommendationToProto(r *tune.Recommendation, wall time.Duration) *pb.Recommendation {
+	if r == nil {
+		return nil
+	}
+	m := &pb.Recommendation{
+		Objective:         objectiveToProto(r.Objective),
+		Confidence:        r.Confidence,
+		Overall:           decisionToProto(r.Overall),
+		OverallCandidates: candidatesToProto(r.OverallCandidates, false),
+		Seed:              r.Seed,
+		TieRule:           r.TieRule,
+		Effort: &pb.TuneEffort{
+			Replications:                int64(r.Effort.Replications),
+			BaselineReplications:        int64(r.Effort.BaselineReplications),
+			UserSlots:                   r.Effort.UserSlots,
+			Stages:                      i32(r.Effort.Stages),
+			MaxReplicationsUsed:         i32(r.Effort.MaxReplicationsUsed),
+			EqualAllocationReplications: int64(r.Effort.EqualAllocationReplications),
+			BudgetExhausted:             r.Effort.BudgetExhausted,
+			WallTimeS:                   wall.Seconds(),
+		},
+	}
+	for _, p := range r.Candidates {
+		m.Candidates = append(m.Candidates, gridPointToProto(p))
+	}
+	for _, c := range r.Conditions {
+		cr := &pb.ConditionResult{
+			Name:              c.Name,
+			Weight:            c.Weight,
+			Decision:          decisionToProto(c.Decision),
+			Candidates:        candidatesToProto(c.Candidates, true),
+			DopplerProductMax: c.DopplerProductMax,
+		}
+		if b := c.Baseline; b != nil {
+			cr.Baseline = &pb.Baseline{Figures: tuneFiguresToProto(b.Figures), Gain: replicationEstimateToProto(b.Gain), BarelyHelps: b.BarelyHelps}
+		}
+		m.Conditions = append(m.Conditions, cr)
+	}
+	return m
+}
+
+// CapacityResultToProto converts the capacity search's answer; wall is the
+// call's wall-clock time.
+func CapacityResultToProto(r *tune.CapacityResult, wall time.Duration) *pb.CapacityResult {
+	if r == nil {
+		return nil
+	}
+	m := &pb.CapacityResult{
+		Count:      i32(r.Count),
+		TotalUsers: i32(r.TotalUsers),
+		BelowRange: r.BelowRange,
+		AtRangeTop: r.AtRangeTop,
+		Pole:       r.Pole,
+		PoleParams: &pb.PoleParams{
+			ChipRateHz:     r.PoleParams.ChipRateHz,
+			BitRateBps:     r.PoleParams.BitRateBps,
+			EbI0Db:         r.PoleParams.EbI0DB,
+			ActivityFactor: r.PoleParams.ActivityFactor,
+			OtherCellRatio: r.PoleParams.OtherCellRatio,
+			Sectors:        r.PoleParams.Sectors,
+		},
+		PoleError:       r.PoleError,
+		ModelPole:       r.ModelPole,
+		NonMonotone:     r.NonMonotone,
+		BudgetExhausted: r.BudgetExhausted,
+		FailingCount:    i32(r.FailingCount),
+		Replications:    int64(r.Replications),
+		UserSlots:       r.UserSlots,
+		Reason:          r.Reason,
+		WallTimeS:       wall.Seconds(),
+	}
+	for _, p := range r.Evaluated {
+		m.Evaluated = append(m.Evaluated, &pb.CapacityPoint{
+			Count: i32(p.Count), TotalUsers: i32(p.TotalUsers), Pass: p.Pass, Figures: tuneFiguresToProto(p.Figures)})
+	}
+	return m
+}
+
+// tuneRequestFields are the top-level fields of the tuner's request whose
+// violation paths are request paths; every other path is a scenario field.
+var tuneRequestFields = map[string]bool{
+	"axes": true, "conditions": true, "objective": true, "confidence": true, "budget": true,
+	"group": true, "outage_limit": true, "min_count": true, "max_count": true,
+	"replications": true, "max_user_slots": true,
+}
+
+// searchViolations maps the loop.Violations of a Tune or Capacity request
+// to request field paths: the tuner's own fields keep their path (with the
+// range fields of an axis renamed to the proto's first and last); a
+// scenario field that an axis or a condition override sets is reported
+// at that axis or override; any other scenario field under "base.".
+func searchViolations(err error, axes []*pb.SweepAxis, conds []*pb.Condition) ([]Violation, bool) {
+	var lvs loop.Violations
+	if !errors.As(err, &lvs) {
+		return nil, false
+	}
+	out := make([]Violation, 0, len(lvs))
+	for _, v := range lvs {
+		f := v.Field
+		head := f
+		if i := strings.IndexAny(head, ".["); i >= 0 {
+			head = head[:i]
+		}
+		switch {
+		case head == "axes":
+			if strings.HasSuffix(f, ".from") {
+				f = strings.TrimSuffix(f, "from") + "first"
+			} else if strings.HasSuffix(f, ".to") {
+				f = strings.TrimSuffix(f, "to") + "last"
+			}
+		case tuneRequestFields[head]:
+		default:
+			f = "base." + f
+			for a, ax := range axes {
+				if ax.GetPath() == v.Field {
+					f = fmt.Sprintf("axes[%d]", a)
+				}
+			}
+			for c, cd := range conds {
+				for j, o := range cd.GetOverrides() {
+					if o.GetPath() == v.Field {
+						f = fmt.Sprintf("conditions[%d].overrides[%d]", c, j)
+					}
+				}
+			}
+		}
+		out = append(out, Violation{Field: f, Description: v.Rule})
+	}
+	return out, true
+}
+
+// maxTapsPerUser is the largest number of taps of any group of sc under any
+// of the conditions (at least 1): the factor from user-slots to tap-slots
+// in the cost bound.
+func maxTapsPerUser(base loop.Scenario, conds []tune.Condition) int64 {
+	scs := []loop.Scenario{base}
+	for _, c := range conds {
+		if sc, err := c.ApplyTo(base); err == nil {
+			scs = append(scs, sc)
+		}
+	}
+	n := 1
+	for _, sc := range scs {
+		for _, g := range sc.Groups {
+			k := len(g.CustomTaps)
+			if k == 0 {
+				if p, err := fading.BuiltinProfile(g.Profile); err == nil {
+					k = len(p.Taps)
+				}
+			}
+			n = max(n, k)
+		}
+	}
+	return int64(n)
+}
+
+// checkTune validates a Tune request before any work: the .proto rules, the
+// base scenario, then the tuner's own rules for the axes, conditions,
+// objective and budget and every candidate scenario. It returns the
+// tuner's request and its worst-case cost in tap-slots: the tuner's
+// worst-case user-slots (tune.Request.WorstCaseUserSlots) times the most
+// taps of any user.
+func (s *Server) checkTune(req *pb.TuneRequest) (tune.Request, int64, []Violation) {
+	vs := s.validator.check(req, "")
+	if req.GetBase() == nil {
+		if len(vs) == 0 {
+			vs = append(vs, Violation{Field: "base", Description: "value is required"})
+		}
+		return tune.Request{}, 0, vs
+	}
+	_, bvs := domainScenario(req.GetBase(), "base.")
+	if vs = mergeViolations(vs, bvs); len(vs) > 0 {
+		return tune.Request{}, 0, vs
+	}
+	if vs := checkAxisForms(req.GetAxes()); len(vs) > 0 {
+		return tune.Request{}, 0, vs
+	}
+	treq := TuneRequestFromProto(req)
+	us, err := treq.WorstCaseUserSlots()
+	if err != nil {
+		if tvs, ok := searchViolations(err, req.GetAxes(), req.GetConditions()); ok {
+			return treq, 0, tvs
+		}
+		return treq, 0, []Violation{{Field: "axes", Description: err.Error()}}
+	}
+	return treq, satMul(us, maxTapsPerUser(treq.Base, treq.Conditions)), nil
+}
+
+// capacityCost bounds the work of a capacity search in tap-slots. The
+// doubling evaluates counts lo, 2·lo, ... up to hi (the group's largest
+// count: max_count, or the engine's user limit), together at most 2·hi
+// users of the group; the bisection at most ⌈log₂ hi⌉ + 1 more counts, each
+// at most hi; every evaluation also runs the other groups' users. Each
+// count costs replications runs; with max_user_slots set, at most that
+// many user-slots are spent.
+func capacityCost(req tune.CapacityRequest) int64 {
+	base := tune.CloneScenario(req.Base)
+	base.Normalise()
+	if req.Group < 0 || req.Group >= len(base.Groups) {
+		return 0
+	}
+	others := int64(base.Users() - max(base.Groups[req.Group].Count, 0))
+	hi := req.MaxCount
+	if hi <= 0 {
+		hi = loop.MaxUsers - int(others)
+	}
+	hi = max(hi, 1)
+	reps := req.Replications
+	if reps <= 0 {
+		reps = 4
+	}
+	bisect := int64(bits.Len(uint(hi)) + 1)
+	doubling := int64(bits.Len(uint(hi)) + 1)
+	users := 2*int64(hi) + bisect*int64(hi) + (doubling+bisect)*others
+	us := satMul(satMul(users, int64(reps)), base.TotalSlots())
+	if req.MaxUserSlots > 0 && req.MaxUserSlots < us {
+		us = req.MaxUserSlots
+	}
+	return satMul(us, maxTapsPerUser(base, nil))
+}
+
+// checkCapacity validates a Capacity request before any work: the .proto
+// rules, the base scenario, then the capacity search's own rules (it runs
+// the search on a cancelled context, which validates everything and stops
+// before the first simulation).
+func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, []Violation) {
+	vs := s.validator.check(req, "")
+	if req.GetBase() == nil {
+		if len(vs) == 0 {
+			vs = append(vs, Violation{Field: "base", Description: "value is required"})
+		}
+		return tune.CapacityRequest{}, vs
+	}
+	_, bvs := domainScenario(req.GetBase(), "base.")
+	if vs = mergeViolations(vs, bvs); len(vs) > 0 {
+		return tune.CapacityRequest{}, vs
+	}
+	creq := CapacityRequestFromProto(req)
+	dry, cancel := context.WithCancel(context.Background())
+	cancel()
+	_, err := tune.Capacity(dry, creq, tune.Options{Parallelism: 1})
+	if tvs, ok := searchViolations(err, nil, nil); ok {
+		return creq, tvs
+	}
+	return creq, nil
+}
+
+// budgetExhausted maps a *tune.BudgetError to RESOURCE_EXHAUSTED naming the
+// request's budget field.
+func budgetExhausted(be *tune.BudgetError) error {
+	st := status.New(codes.ResourceExhausted, be.Error())
+	if d, err := st.WithDetails(&errdetails.QuotaFailure{Violations: []*errdetails.QuotaFailure_Violation{{
+		Subject:     be.Field,
+		Description: fmt.Sprintf("needs at least %d user-slots, the budget allows %d", be.NeedUserSlots, be.LimitUserSlots),
+	}}}); err == nil {
+		st = d
+	}
+	return st.Err()
+}
+
+// searchProgress forwards the tuner's progress to a stream through a
+// one-slot mailbox (a slow reader never stalls the search: older events are
+// replaced by newer ones), at most one event per interval.
+type searchProgress struct {
+	start    time.Time
+	interval time.Duration
+	mailbox  chan *pb.SearchProgress
+	done     chan error
+	mu       sync.Mutex
+	last     time.Time
+}
+
+func newSearchProgress(intervalMs int32, send func(*pb.SearchProgress) error) *searchProgress {
+	p := &searchProgress{start: time.Now(), interval: DefaultProgressInterval,
+		mailbox: make(chan *pb.SearchProgress, 1), done: make(chan error, 1)}
+	if intervalMs > 0 {
+		p.interval = time.Duration(intervalMs) * time.Millisecond
+	}
+	go func() {
+		var err error
+		for m := range p.mailbox {
+			if err == nil {
+				err = send(m)
+			}
+		}
+		p.done <- err
+	}()
+	return p
+}
+
+// post is the tune.Options.Progress callback.
+func (p *searchProgress) post(tp tune.Progress) {
+	now := time.Now()
+	p.mu.Lock()
+	if !p.last.IsZero() && now.Sub(p.last) < p.interval {
+		p.mu.Unlock()
+		return
+	}
+	p.last = now
+	p.mu.Unlock()
+	m := &pb.SearchProgress{
+		Stage:               i32(tp.Stage),
+		CandidatesRemaining: i32(tp.CandidatesRemaining),
+		ReplicationsDone:    int64(tp.ReplicationsDone),
+		UserSlotsDone:       tp.UserSlotsDone,
+		ElapsedS:            now.Sub(p.start).Seconds(),
+	}
+	for {
+		select {
+		case p.mailbox <- m:
+			return
+		default:
+		}
+		select {
+		case <-p.mailbox:
+		default:
+		}
+	}
+}
+
+// close stops the sender and returns its first send error.
+func (p *searchProgress) close() error {
+	close(p.mailbox)
+	return <-p.done
+}
+
+// countSearch records a finished search's work in the metrics and the call
+// log.
+func (s *Server) countSearch(ctx context.Context, userSlots int64, wall time.Duration) {
+	infoFrom(ctx).userSlots.Add(userSlots)
+	s.metrics.userSlots.Add(float64(userSlots))
+	if w := wall.Seconds(); w > 0 {
+		s.metrics.runRate.Set(float64(userSlots) / w)
+	}
+}
+
+// searchError maps the error of a finished search: field violations to
+// INVALID_ARGUMENT, a budget too small to answer to RESOURCE_EXHAUSTED,
+// cancellation and deadlines to their codes.
+func (s *Server) searchError(ctx context.Context, err error, axes []*pb.SweepAxis, conds []*pb.Condition) error {
+	if vs, ok := searchViolations(err, axes, conds); ok {
+		return s.reject(vs)
+	}
+	var be *tune.BudgetError
+	if errors.As(err, &be) {
+		return budgetExhausted(be)
+	}
+	return statusFromError(ctx, err)
+}
+
+// Tune searches the grid of settings and streams progress, then the
+// recommendation.
+func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService_TuneServer) error {
+	s := h.s
+	ctx := stream.Context()
+	start := time.Now()
+	treq, cost, vs := s.checkTune(req)
+	if len(vs) > 0 {
+		return s.reject(vs)
+	}
+	release, err := s.admit(ctx, "Tune", cost)
+	if err != nil {
+		return err
+	}
+	defer release()
+	s.hook(ctx, "Tune")
+
+	prog := newSearchProgress(req.GetProgressIntervalMs(), func(m *pb.SearchProgress) error {
+		return stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Progress{Progress: m}})
+	})
+	var rec *tune.Recommendation
+	err = <-goSafe(s.cfg.Logger, ctx, func() error {
+		var err error
+		rec, err = tune.Tune(ctx, treq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		return err
+	})
+	sendErr := prog.close()
+	if err != nil {
+		return s.searchError(ctx, err, req.GetAxes(), req.GetConditions())
+	}
+	if sendErr != nil {
+		return statusFromError(ctx, sendErr)
+	}
+	wall := time.Since(start)
+	s.countSearch(ctx, rec.Effort.UserSlots, wall)
+	return statusFromError(ctx, stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Recommendation{
+		Recommendation: RecommendationToProto(rec, wall)}}))
+}
+
+// Capacity bisects the group's user count and streams progress, then the
+// result.
+func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.SimulationService_CapacityServer) error {
+	s := h.s
+	ctx := stream.Context()
+	start := time.Now()
+	creq, vs := s.checkCapacity(req)
+	if len(vs) > 0 {
+		return s.reject(vs)
+	}
+	release, err := s.admit(ctx, "Capacity", capacityCost(creq))
+	if err != nil {
+		return err
+	}
+	defer release()
+	s.hook(ctx, "Capacity")
+
+	prog := newSearchProgress(req.GetProgressIntervalMs(), func(m *pb.SearchProgress) error {
+		return stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Progress{Progress: m}})
+	})
+	var res *tune.CapacityResult
+	err = <-goSafe(s.cfg.Logger, ctx, func() error {
+		var err error
+		res, err = tune.Capacity(ctx, creq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		return err
+	})
+	sendErr := prog.close()
+	if err != nil {
+		return s.searchError(ctx, err, nil, nil)
+	}
+	if sendErr != nil {
+		return statusFromError(ctx, sendErr)
+	}
+	wall := time.Since(start)
+	s.countSearch(ctx, res.UserSlots, wall)
+	return statusFromError(ctx, stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Result{
+		Result: CapacityResultToProto(res, wall)}}))
+}
+
+// checkAxisForms checks that every axis lists values or gives a range
+// (count >= 1), not both.
+func checkAxisForms(axes []*pb.SweepAxis) []Violation {
+	var vs []Violation
+	for i, a := range axes {
+		switch {
+		case len(a.GetValues()) == 0 && a.GetCount() == 0:
+			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].values", i),
+				Description: "must list 1 to 1024 values, or give a range instead (first, last, count >= 1)"})
+		case len(a.GetValues()) > 0 && a.GetCount() != 0:
+			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].count", i),
+				Description: "give either values or a range (first, last, count), not both"})
+		}
+	}
+	return vs
+}
+
+// resolveSweepAxes returns the axes of a sweep with every range axis
+// (values empty; first, last, count) replaced by its listed values, the
+// same values the tuner's grid gives; listed axes are returned as they
+// are.
+func resolveSweepAxes(axes []*pb.SweepAxis) ([]*pb.SweepAxis, []Violation) {
+	if vs := checkAxisForms(axes); len(vs) > 0 {
+		return nil, vs
+	}
+	out := make([]*pb.SweepAxis, len(axes))
+	var vs []Violation
+	for i, a := range axes {
+		if len(a.GetValues()) > 0 {
+			out[i] = a
+			continue
+		}
+		vals, lvs := AxisFromProto(a).Resolve(fmt.Sprintf("axes[%d]", i))
+		if len(lvs) > 0 {
+			tvs, _ := searchViolations(lvs, nil, nil)
+			vs = append(vs, tvs...)
+			continue
+		}
+		out[i] = &pb.SweepAxis{Path: a.GetPath(), Values: vals}
+	}
+	return out, vs
+}
