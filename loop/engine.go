@@ -165,6 +165,11 @@ func run(ctx context.Context, sc Scenario, opts RunOptions, hk *hooks) (*Report,
 		go func(r int) {
 			defer wg.Done()
 			defer func() { <-sem }()
+			defer func() {
+				if v := recover(); v != nil {
+					errs[r] = NewPanicError(v)
+				}
+			}()
 			rp, err := newReplication(sh, r, pool, opts.Trace)
 			if err != nil {
 				errs[r] = err
@@ -427,10 +432,37 @@ type genTask struct {
 	u0, u1 int
 }
 
-// genPool runs generation tasks on a fixed set of workers.
+// genPool runs generation tasks on a fixed set of workers. A panic in a
+// task is recovered, recorded (the first one) and reported by err, so a
+// programmer error fails the run instead of the process.
 type genPool struct {
-	tasks chan genTask
-	wg    sync.WaitGroup
+	tasks    chan genTask
+	wg       sync.WaitGroup
+	panicked atomic.Pointer[PanicError]
+}
+
+// err returns the first recovered panic of the pool's workers, or nil.
+func (p *genPool) err() error {
+	if pe := p.panicked.Load(); pe != nil {
+		return pe
+	}
+	return nil
+}
+
+// runTask runs one generation task, recovering a panic into the pool.
+func (p *genPool) runTask(t genTask) {
+	defer t.buf.wg.Done()
+	defer func() {
+		if v := recover(); v != nil {
+			p.panicked.CompareAndSwap(nil, NewPanicError(v))
+		}
+	}()
+	if p.panicked.Load() != nil {
+		return
+	}
+	for u := t.u0; u < t.u1; u++ {
+		t.rp.genUser(t.buf, u)
+	}
 }
 
 func newGenPool(workers int) *genPool {
@@ -440,10 +472,7 @@ func newGenPool(workers int) *genPool {
 		go func() {
 			defer p.wg.Done()
 			for t := range p.tasks {
-				for u := t.u0; u < t.u1; u++ {
-					t.rp.genUser(t.buf, u)
-				}
-				t.buf.wg.Done()
+				p.runTask(t)
 			}
 		}()
 	}
@@ -717,8 +746,8 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 	blk := int64(rp.blk)
 	rp.schedule(&rp.bufs[0], 0)
 	rp.bufs[0].wg.Wait()
-	var err error
-	for b := 0; ; b++ {
+	err := rp.pool.err()
+	for b := 0; err == nil; b++ {
 		cur, nxt := &rp.bufs[b&1], &rp.bufs[(b+1)&1]
 		if cur.len == 0 {
 			break
@@ -731,6 +760,7 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 		rp.runBlock(cur)
 		done.Add(int64(rp.n) * int64(cur.len))
 		nxt.wg.Wait()
+		err = rp.pool.err()
 	}
 	if err != nil {
 		return nil, err

@@ -14,13 +14,17 @@ exits 0; exits 2 when the server rejects the request (each field violation
 printed as "path: rule") and 3 when the server cannot be reached.
 """
 import argparse
+import glob
 import os
 import sys
 import tempfile
 
 REPO = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
-PROTOS = ["fadeloop/v1/scenario.proto", "fadeloop/v1/report.proto",
-          "fadeloop/v1/simulation.proto", "buf/validate/validate.proto"]
+# Every file of the fadeloop.v1 API (they import each other), plus the
+# vendored validation rules they import.
+PROTOS = sorted(os.path.relpath(p, os.path.join(REPO, "proto"))
+                for p in glob.glob(os.path.join(REPO, "proto", "fadeloop", "v1", "*.proto"))) + \
+    ["buf/validate/validate.proto"]
 
 
 def generate_stubs(out_dir):

@@ -8,6 +8,8 @@ import (
 	"runtime"
 	"sort"
 	"sync"
+
+	"github.com/fadeloop/fadeloop/loop"
 )
 
 // Sample is the figures of one replication of one candidate under one
@@ -449,7 +451,7 @@ func (e *engine) runJobs(ctx context.Context, jobs []job, work func(ctx context.
 				if i >= len(jobs) || ctx2.Err() != nil {
 					return
 				}
-				s, err := work(ctx2, jobs[i])
+				s, err := safeWork(ctx2, jobs[i], work)
 				if err != nil {
 					errs[i] = err
 					cancel()
@@ -485,6 +487,17 @@ func (e *engine) runJobs(ctx context.Context, jobs []job, work func(ctx context.
 		store(j, out[i])
 	}
 	return nil
+}
+
+// safeWork runs one job, turning a panic (a programmer error) into a
+// *loop.PanicError so that the tuning fails instead of the process.
+func safeWork(ctx context.Context, j job, work func(ctx context.Context, j job) (Sample, error)) (s Sample, err error) {
+	defer func() {
+		if v := recover(); v != nil {
+			err = loop.NewPanicError(v)
+		}
+	}()
+	return work(ctx, j)
 }
 
 func (e *engine) cost(jobs []job) int64 {
