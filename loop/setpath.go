@@ -23,45 +23,9 @@ func SetPath(sc *Scenario, path string, value float64) error {
 	if path == "" {
 		return fmt.Errorf("empty field path")
 	}
-	v := reflect.ValueOf(sc).Elem()
-	rest := path
-	walked := ""
-	for rest != "" {
-		var tok string
-		if i := strings.IndexByte(rest, '.'); i >= 0 {
-			tok, rest = rest[:i], rest[i+1:]
-			if rest == "" {
-				return fmt.Errorf("field path %q: trailing '.'", path)
-			}
-		} else {
-			tok, rest = rest, ""
-		}
-		name, idx, err := splitIndex(tok)
-		if err != nil {
-			return fmt.Errorf("field path %q: %v", path, err)
-		}
-		if v.Kind() != reflect.Struct {
-			return fmt.Errorf("field path %q: %q is not a message", path, walked)
-		}
-		f, ok := fieldByTag(v, name)
-		if !ok {
-			return fmt.Errorf("field path %q: unknown field %q in %s (known: %s)", path, name, orRoot(walked), strings.Join(tagNames(v.Type()), ", "))
-		}
-		if walked != "" {
-			walked += "."
-		}
-		walked += name
-		v = f
-		for _, k := range idx {
-			if v.Kind() != reflect.Slice {
-				return fmt.Errorf("field path %q: %q is not a list", path, walked)
-			}
-			if k >= v.Len() {
-				return fmt.Errorf("field path %q: index %d out of range for %q (length %d)", path, k, walked, v.Len())
-			}
-			v = v.Index(k)
-			walked += "[" + strconv.Itoa(k) + "]"
-		}
+	v, _, _, err := resolvePath(sc, path)
+	if err != nil {
+		return err
 	}
 	if v.CanAddr() {
 		if _, isEnum := v.Addr().Interface().(encoding.TextUnmarshaler); isEnum {
@@ -89,6 +53,92 @@ func SetPath(sc *Scenario, path string, value float64) error {
 		v.SetUint(uint64(value))
 	default:
 		return fmt.Errorf("field path %q: %s field is not numeric", path, v.Kind())
+	}
+	return nil
+}
+
+// resolvePath walks sc along a json-tag field path ("groups[0].speeds[1].speed_kmh")
+// and returns the addressed field, the struct that holds its last named field,
+// and that field's name; the error names the path and what did not resolve.
+func resolvePath(sc *Scenario, path string) (v, parent reflect.Value, last string, err error) {
+	v = reflect.ValueOf(sc).Elem()
+	rest := path
+	walked := ""
+	for rest != "" {
+		var tok string
+		if i := strings.IndexByte(rest, '.'); i >= 0 {
+			tok, rest = rest[:i], rest[i+1:]
+			if rest == "" {
+				return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: trailing '.'", path)
+			}
+		} else {
+			tok, rest = rest, ""
+		}
+		name, idx, err := splitIndex(tok)
+		if err != nil {
+			return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: %v", path, err)
+		}
+		if v.Kind() != reflect.Struct {
+			return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: %q is not a message", path, walked)
+		}
+		f, ok := fieldByTag(v, name)
+		if !ok {
+			return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: unknown field %q in %s (known: %s)", path, name, orRoot(walked), strings.Join(tagNames(v.Type()), ", "))
+		}
+		parent, last = v, name
+		if walked != "" {
+			walked += "."
+		}
+		walked += name
+		v = f
+		for _, k := range idx {
+			if v.Kind() != reflect.Slice {
+				return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: %q is not a list", path, walked)
+			}
+			if k >= v.Len() {
+				return reflect.Value{}, reflect.Value{}, "", fmt.Errorf("field path %q: index %d out of range for %q (length %d)", path, k, walked, v.Len())
+			}
+			v = v.Index(k)
+			walked += "[" + strconv.Itoa(k) + "]"
+		}
+	}
+	return v, parent, last, nil
+}
+
+// SetTextPath sets the string field, or the enum field by its proto value
+// name (e.g. "INNER_MODE_FIXED_POWER"), of sc named by its json-tag path, in
+// the path syntax of SetPath ("groups[0].profile"). Setting a group's
+// profile clears its custom_taps (exactly one of the two may be set). It
+// returns an error naming the path for an unknown field, an index out of
+// range, a field that is neither a string nor an enum, or an unknown enum
+// name; sc is unchanged on error.
+func SetTextPath(sc *Scenario, path, text string) error {
+	if sc == nil {
+		return fmt.Errorf("SetTextPath: nil scenario")
+	}
+	if path == "" {
+		return fmt.Errorf("empty field path")
+	}
+	v, parent, last, err := resolvePath(sc, path)
+	if err != nil {
+		return err
+	}
+	if u, ok := v.Addr().Interface().(encoding.TextUnmarshaler); ok {
+		old := v.Interface()
+		if err := u.UnmarshalText([]byte(text)); err != nil {
+			v.Set(reflect.ValueOf(old))
+			return fmt.Errorf("field path %q: %v", path, err)
+		}
+		return nil
+	}
+	if v.Kind() != reflect.String {
+		return fmt.Errorf("field path %q: %s field takes a number, not text", path, v.Kind())
+	}
+	v.SetString(text)
+	if last == "profile" && len(text) > 0 {
+		if taps, ok := fieldByTag(parent, "custom_taps"); ok && taps.Kind() == reflect.Slice {
+			taps.Set(reflect.Zero(taps.Type()))
+		}
 	}
 	return nil
 }

@@ -11,7 +11,7 @@
 // Point is applied to a copy of the base scenario with loop.SetPath. The
 // Sweep RPC uses the same machinery. A Condition is a weighted set of
 // Overrides (numbers through loop.SetPath, strings and enums such as
-// "groups[0].profile" or "inner_loop.mode" through SetTextPath).
+// "groups[0].profile" or "inner_loop.mode" through loop.SetTextPath).
 //
 // # Procedure (Tune)
 //

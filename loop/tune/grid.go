@@ -1,7 +1,6 @@
 package tune
 
 import (
-	"encoding"
 	"fmt"
 	"math"
 	"reflect"
@@ -248,7 +247,7 @@ func (g *Grid) Points() []Point {
 // Override sets one scenario field for a condition: a number through
 // loop.SetPath, or, when Text is not empty, a string or enum field (e.g.
 // "groups[0].profile" = "EVA", "inner_loop.command" = "COMMAND_ADAPTIVE")
-// through SetTextPath.
+// through loop.SetTextPath.
 type Override struct {
 	Path  string  `json:"path"`
 	Value float64 `json:"value"`
@@ -258,7 +257,7 @@ type Override struct {
 // Apply sets the override on sc.
 func (o Override) Apply(sc *loop.Scenario) error {
 	if o.Text != "" {
-		return SetTextPath(sc, o.Path, o.Text)
+		return loop.SetTextPath(sc, o.Path, o.Text)
 	}
 	return loop.SetPath(sc, o.Path, o.Value)
 }
@@ -295,111 +294,6 @@ func (c Condition) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
 // CloneScenario returns a deep copy of sc: no slice is shared with it, so
 // changing the copy never changes sc.
 func CloneScenario(sc loop.Scenario) loop.Scenario { return cloneScenario(sc) }
-
-// SetTextPath sets the string field, or the enum field by its proto value
-// name (e.g. "INNER_MODE_FIXED_POWER"), of sc named by its json-tag path, in
-// the path syntax of loop.SetPath ("groups[0].profile"). Setting a group's
-// profile clears its custom_taps (exactly one of the two may be set). It
-// returns an error
-// naming the path for an unknown field, an index out of range, a field that
-// is neither a string nor an enum, or an unknown enum name.
-func SetTextPath(sc *loop.Scenario, path, text string) error {
-	if sc == nil {
-		return fmt.Errorf("SetTextPath: nil scenario")
-	}
-	v := reflect.ValueOf(sc).Elem()
-	if path == "" {
-		return fmt.Errorf("empty field path")
-	}
-	var parent reflect.Value
-	var last string
-	for _, tok := range strings.Split(path, ".") {
-		name, idx, err := splitIndex(tok)
-		if err != nil {
-			return fmt.Errorf("field path %q: %v", path, err)
-		}
-		if v.Kind() != reflect.Struct {
-			return fmt.Errorf("field path %q: %q is not a message", path, name)
-		}
-		f, ok := fieldByTag(v, name)
-		if !ok {
-			return fmt.Errorf("field path %q: unknown field %q", path, name)
-		}
-		parent, last = v, name
-		v = f
-		for _, k := range idx {
-			if v.Kind() != reflect.Slice {
-				return fmt.Errorf("field path %q: %q is not a list", path, name)
-			}
-			if k >= v.Len() {
-				return fmt.Errorf("field path %q: index %d out of range for %q (length %d)", path, k, name, v.Len())
-			}
-			v = v.Index(k)
-		}
-	}
-	if u, ok := v.Addr().Interface().(encoding.TextUnmarshaler); ok {
-		old := v.Interface()
-		if err := u.UnmarshalText([]byte(text)); err != nil {
-			v.Set(reflect.ValueOf(old))
-			return fmt.Errorf("field path %q: %v", path, err)
-		}
-		return nil
-	}
-	if v.Kind() != reflect.String {
-		return fmt.Errorf("field path %q: %s field takes a number, not text", path, v.Kind())
-	}
-	v.SetString(text)
-	if last == "profile" && len(text) > 0 {
-		// Exactly one of profile and custom_taps may be set: a profile
-		// name replaces the group's custom taps.
-		if taps, ok := fieldByTag(parent, "custom_taps"); ok && taps.Kind() == reflect.Slice {
-			taps.Set(reflect.Zero(taps.Type()))
-		}
-	}
-	return nil
-}
-
-func splitIndex(tok string) (string, []int, error) {
-	i := strings.IndexByte(tok, '[')
-	if i < 0 {
-		if tok == "" || strings.ContainsRune(tok, ']') {
-			return "", nil, fmt.Errorf("malformed element %q", tok)
-		}
-		return tok, nil, nil
-	}
-	name, rest := tok[:i], tok[i:]
-	if name == "" {
-		return "", nil, fmt.Errorf("index without a field name in %q", tok)
-	}
-	var idx []int
-	for rest != "" {
-		j := strings.IndexByte(rest, ']')
-		if rest[0] != '[' || j < 0 {
-			return "", nil, fmt.Errorf("malformed index in %q", tok)
-		}
-		k, err := strconv.Atoi(rest[1:j])
-		if err != nil || k < 0 {
-			return "", nil, fmt.Errorf("index %q in %q must be a non-negative integer", rest[1:j], tok)
-		}
-		idx = append(idx, k)
-		rest = rest[j+1:]
-	}
-	return name, idx, nil
-}
-
-func fieldByTag(v reflect.Value, name string) (reflect.Value, bool) {
-	t := v.Type()
-	for i := 0; i < t.NumField(); i++ {
-		tag := t.Field(i).Tag.Get("json")
-		if j := strings.IndexByte(tag, ','); j >= 0 {
-			tag = tag[:j]
-		}
-		if tag == name {
-			return v.Field(i), true
-		}
-	}
-	return reflect.Value{}, false
-}
 
 // cloneScenario returns a deep copy of sc (no slice shared with it).
 func cloneScenario(sc loop.Scenario) loop.Scenario {
