@@ -156,16 +156,11 @@ func runTrace(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	req := &pb.StreamGainsRequest{Channel: spec, Links: int32(*links), Samples: *samples, Seed: ch.seed, ChunkSamples: int32(*chunk)}
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	prog := e.newProgress("samples/s")
 	w := out.Writer()
 	var cw *csv.Writer
@@ -288,16 +283,11 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Links: int32(*links),
 		DopplerPeriods: *periods, Seed: ch.seed, Sigmas: *sigmas})
 	if err != nil {

@@ -120,16 +120,11 @@ func runBench(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	var runs []benchRun
 	for i := range *repeat {
 		prog := e.newProgress("user-slots/s")

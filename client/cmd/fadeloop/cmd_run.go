@@ -199,16 +199,11 @@ func runRun(ctx context.Context, e *env, args []string) error {
 			req.Traces.Users = slices.Compact(req.Traces.Users)
 		}
 	}
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	prog := e.newProgress("user-slots/s")
 	rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
 	prog.done()

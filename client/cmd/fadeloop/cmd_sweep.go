@@ -197,16 +197,11 @@ func runSweep(ctx context.Context, e *env, args []string) error {
 		}
 	}
 
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	prog := e.newProgress("user-slots/s")
 	call := cl.Sweep(ctx, req)
 	var pts []*pb.SweepPoint

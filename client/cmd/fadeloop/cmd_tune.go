@@ -340,16 +340,11 @@ func runTune(ctx context.Context, e *env, args []string) error {
 		}
 	}
 
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	worst := worstRuns(req)
 	prog := e.newProgress("user-slots/s")
 	rec, err := cl.Tune(ctx, req, func(p *pb.SearchProgress) {
@@ -915,16 +910,11 @@ func runCapacity(ctx context.Context, e *env, args []string) error {
 	if *maxUS != 0 {
 		req.MaxUserSlots = *maxUS
 	}
-	out, err := e.openOutput()
+	out, cl, release, err := e.session()
 	if err != nil {
 		return err
 	}
-	defer out.discard()
-	cl, err := e.connect()
-	if err != nil {
-		return err
-	}
-	defer cl.Close()
+	defer release()
 	hi := int(req.GetMaxCount())
 	if hi == 0 {
 		hi = 4096

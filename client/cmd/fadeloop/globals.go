@@ -101,6 +101,22 @@ type output struct {
 	closed bool
 }
 
+// session opens the command's output (see openOutput) and connects to the
+// server, or to an embedded one (see connect). release closes the client and
+// discards the output unless it was committed; callers defer it.
+func (e *env) session() (out *output, cl *client.Client, release func(), err error) {
+	out, err = e.openOutput()
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	cl, err = e.connect()
+	if err != nil {
+		out.discard()
+		return nil, nil, nil, err
+	}
+	return out, cl, func() { cl.Close(); out.discard() }, nil
+}
+
 func (e *env) openOutput() (*output, error) {
 	if e.g.out == "" || e.g.out == "-" {
 		return &output{w: bufio.NewWriter(e.stdout)}, nil
