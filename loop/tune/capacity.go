@@ -7,6 +7,7 @@ import (
 	"math"
 	"runtime"
 	"sort"
+	"strings"
 
 	"github.com/fadeloop/fadeloop/loop"
 )
@@ -103,8 +104,13 @@ type CapacityRequest struct {
 	Group int `json:"group"`
 	// OutageLimit is the largest acceptable outage probability (aggregate
 	// over all users), (0, 1). A count passes when the mean outage over the
-	// replications is at or below it.
+	// replications is at or below it, the mean noise rise is at or below
+	// NoiseRiseLimitDB, and no replication's load was infeasible.
 	OutageLimit float64 `json:"outage_limit"`
+	// NoiseRiseLimitDB is the largest acceptable mean noise rise (rise over
+	// thermal) at the receiver, dB, [0, 40]; 0 means
+	// DefaultNoiseRiseLimitDB (6 dB).
+	NoiseRiseLimitDB float64 `json:"noise_rise_limit_db"`
 	// MinCount and MaxCount bound the group's count, [1, loop.MaxUsers −
 	// other users]. MinCount 0 means 1; MaxCount 0 means search upward by
 	// doubling from MinCount.
@@ -118,14 +124,29 @@ type CapacityRequest struct {
 	MaxUserSlots int64 `json:"max_user_slots"`
 }
 
+// DefaultNoiseRiseLimitDB is the capacity search's noise-rise ceiling when
+// none is given: 6 dB rise over thermal, i.e. an uplink load factor η of
+// 75 % (noise rise = −10·log10(1 − η)). (common practice: uplink WCDMA
+// planning keeps the load at 50–75 %, a noise rise of 3–6 dB, because near
+// the pole every further user costs a large power increase and the cell
+// shrinks.)
+const DefaultNoiseRiseLimitDB = 6.0
+
 // CapacityPoint is one evaluated count.
 type CapacityPoint struct {
 	// Count of the scaled group and TotalUsers over all groups.
 	Count      int `json:"count"`
 	TotalUsers int `json:"total_users"`
-	// Pass: mean outage ≤ the limit.
-	Pass    bool    `json:"pass"`
-	Figures Figures `json:"figures"`
+	// Pass = OutageOK && NoiseRiseOK && LoadFeasible.
+	Pass bool `json:"pass"`
+	// OutageOK: mean outage ≤ the outage limit. NoiseRiseOK: mean noise
+	// rise ≤ the noise-rise limit. LoadFeasible: no replication was
+	// flagged infeasible by the engine (load factor or spectral radius
+	// ≥ 1, or users pinned at maximum power below target).
+	OutageOK     bool    `json:"outage_ok"`
+	NoiseRiseOK  bool    `json:"noise_rise_ok"`
+	LoadFeasible bool    `json:"load_feasible"`
+	Figures      Figures `json:"figures"`
 }
 
 // CapacityResult is the answer of Capacity.
@@ -164,8 +185,21 @@ type CapacityResult struct {
 	// Replications and UserSlots spent.
 	Replications int   `json:"replications"`
 	UserSlots    int64 `json:"user_slots"`
+	// OutageLimit and NoiseRiseLimitDB are the limits applied (defaults
+	// filled in).
+	OutageLimit      float64 `json:"outage_limit"`
+	NoiseRiseLimitDB float64 `json:"noise_rise_limit_db"`
+	// LimitedBy names what failed at the smallest failing count above
+	// Count: any of "outage_probability", "noise_rise_mean_db" and
+	// "infeasible_load" (empty when no count failed).
+	LimitedBy []string `json:"limited_by"`
+	// Headline is the first line of every text output, e.g. "Capacity: 41
+	// users (outage ≤ 5.00 %, noise rise ≤ 6.00 dB); limited by noise rise".
+	Headline string `json:"headline"`
 	// Reason is a plain-language summary.
 	Reason string `json:"reason"`
+	// Notice: simulated capacities do not replace the operator's planning.
+	Notice string `json:"notice"`
 }
 
 // Capacity finds, by bisection over the count of one group with common
@@ -192,6 +226,13 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	}
 	if !(req.OutageLimit > 0 && req.OutageLimit < 1) {
 		add("outage_limit", "must be in (0, 1), got %g", req.OutageLimit)
+	}
+	nrLim := req.NoiseRiseLimitDB
+	if nrLim == 0 {
+		nrLim = DefaultNoiseRiseLimitDB
+	}
+	if !(nrLim > 0 && nrLim <= 40) {
+		add("noise_rise_limit_db", "must be in [0, 40] dB (0: the default %g dB), got %g", DefaultNoiseRiseLimitDB, req.NoiseRiseLimitDB)
 	}
 	others := base.Users() - max(base.Groups[req.Group].Count, 0)
 	top := loop.MaxUsers - others
@@ -236,7 +277,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		par = runtime.GOMAXPROCS(0)
 	}
 	e := &engine{parallel: par, progress: opt.Progress}
-	res := &CapacityResult{}
+	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}
 	res.PoleParams = PoleParamsOf(base)
 	if pc, err := PoleCapacity(res.PoleParams); err != nil {
 		res.PoleError = err.Error()
@@ -285,7 +326,12 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			return false, err
 		}
 		fg := figures(samples, conf)
-		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg, Pass: fg.OutageProb.Mean <= req.OutageLimit}
+		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg,
+			OutageOK:     fg.OutageProb.Mean <= req.OutageLimit,
+			NoiseRiseOK:  fg.NoiseRiseDB.Mean <= nrLim,
+			LoadFeasible: fg.InfeasibleReplications == 0,
+		}
+		p.Pass = p.OutageOK && p.NoiseRiseOK && p.LoadFeasible
 		memo[n] = p
 		return p.Pass, nil
 	}
@@ -365,40 +411,83 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		}
 	}
 	sort.Slice(res.Evaluated, func(i, j int) bool { return res.Evaluated[i].Count < res.Evaluated[j].Count })
-	res.Reason = capacityReason(res, req.OutageLimit)
+	var fail *CapacityPoint
+	for i := range res.Evaluated {
+		if p := &res.Evaluated[i]; !p.Pass && p.Count > res.Count && (fail == nil || p.Count < fail.Count) {
+			fail = p
+		}
+	}
+	if fail != nil {
+		res.LimitedBy = failures(fail)
+	}
+	res.Headline, res.Reason = capacityReason(res, fail)
 	return res, nil
 }
 
-func capacityReason(res *CapacityResult, limit float64) string {
-	var first string
+// failures names the limits a count misses.
+func failures(p *CapacityPoint) []string {
+	var out []string
+	if !p.OutageOK {
+		out = append(out, FigureOutage)
+	}
+	if !p.NoiseRiseOK {
+		out = append(out, FigureNoiseRise)
+	}
+	if !p.LoadFeasible {
+		out = append(out, "infeasible_load")
+	}
+	return out
+}
+
+// pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40 users".
+func pointText(p *CapacityPoint) string {
+	o, n := FigureLabelOf(FigureOutage), FigureLabelOf(FigureNoiseRise)
+	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d users", o.Value(p.Figures.OutageProb.Mean), o.Interval(p.Figures.OutageProb),
+		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers)
+	if k := p.Figures.InfeasibleReplications; k > 0 {
+		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProb.N)
+	}
+	return s
+}
+
+func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason string) {
+	nl := FigureLabelOf(FigureNoiseRise)
+	limits := fmt.Sprintf("outage ≤ %s, noise rise ≤ %s, feasible load", pct(res.OutageLimit), nl.Value(res.NoiseRiseLimitDB))
 	var at *CapacityPoint
 	for i := range res.Evaluated {
 		if res.Evaluated[i].Count == res.Count {
 			at = &res.Evaluated[i]
 		}
 	}
+	names := map[string]string{FigureOutage: "outage", FigureNoiseRise: "noise rise", "infeasible_load": "infeasible load"}
+	var lim []string
+	for _, k := range res.LimitedBy {
+		lim = append(lim, names[k])
+	}
+	by := ""
+	if len(lim) > 0 {
+		by = "; limited by " + strings.Join(lim, " and ")
+	}
+	var first string
 	switch {
 	case res.BelowRange:
-		first = fmt.Sprintf("Even the smallest count tried misses outage ≤ %s (outage %s).", pct(limit), pct(res.Evaluated[0].Figures.OutageProb.Mean))
+		p := &res.Evaluated[0]
+		headline = fmt.Sprintf("Capacity: below the range tried: %d users already miss %s%s.", p.TotalUsers, limits, by)
+		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p))
 	case res.AtRangeTop:
-		first = fmt.Sprintf("All %d users tried keep outage ≤ %s (outage %s); the capacity is at least that.", res.TotalUsers, pct(limit), pct(at.Figures.OutageProb.Mean))
+		headline = fmt.Sprintf("Capacity: at least %d users (%s); the largest count tried passes.", res.TotalUsers, limits)
+		first = fmt.Sprintf("All %d users tried meet the limits (%s).", res.TotalUsers, pointText(at))
 	default:
-		var next *CapacityPoint
-		for i := range res.Evaluated {
-			if res.Evaluated[i].Count == res.Count+1 {
-				next = &res.Evaluated[i]
-			}
+		headline = fmt.Sprintf("Capacity: %d users (%s)%s.", res.TotalUsers, limits, by)
+		first = fmt.Sprintf("Up to %d users meet the limits (%s)", res.TotalUsers, pointText(at))
+		if fail != nil {
+			first += fmt.Sprintf("; %d users miss them (%s)", fail.TotalUsers, pointText(fail))
 		}
-		first = fmt.Sprintf("Up to %d users keep outage ≤ %s (outage %s %s at %d", res.TotalUsers, pct(limit),
-			pct(at.Figures.OutageProb.Mean), Objective{Kind: ObjectiveMinOutage}.interval(at.Figures.OutageProb), res.TotalUsers)
-		if next != nil {
-			first += fmt.Sprintf(", %s at %d", pct(next.Figures.OutageProb.Mean), next.TotalUsers)
-		}
-		first += ")."
+		first += "."
 	}
 	var pole string
 	if res.PoleError == "" {
-		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors and the outage margin.", res.Pole, res.ModelPole)
+		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, res.ModelPole)
 	}
 	var nm string
 	if res.BudgetExhausted {
@@ -409,7 +498,7 @@ func capacityReason(res *CapacityResult, limit float64) string {
 		nm += "."
 	}
 	if res.NonMonotone {
-		nm = join(nm, "Outage was not monotone in the count at this precision; more replications would sharpen the answer.")
+		nm = join(nm, "The pass/fail outcome was not monotone in the count at this precision; more replications would sharpen the answer.")
 	}
-	return join(first, pole, nm)
+	return headline, join(first, pole, nm)
 }

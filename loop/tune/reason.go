@@ -3,8 +3,16 @@ package tune
 import (
 	"fmt"
 	"math"
+	"sort"
+	"strconv"
 	"strings"
 )
+
+// Notice is carried by every recommendation and capacity result and printed
+// with them: the figures come from a simulation.
+const Notice = "Simulated settings and capacities are a starting point for engineering judgement: " +
+	"they do not replace the operator's radio planning, the regulatory limits on transmit power " +
+	"and RF exposure, or licensed practice."
 
 // Regimes of f_D·T used in the reasons (common practice): below
 // slowFadingProduct a one-bit loop follows the channel easily and its own
@@ -15,108 +23,392 @@ const (
 	fastFadingProduct = 0.05
 )
 
-func (o Objective) unitValue(x float64) string {
-	switch o.Kind {
-	case ObjectiveMinOutage:
-		return fmt.Sprintf("%.3g %%", 100*x)
-	case ObjectiveMinTxPower:
-		return fmt.Sprintf("%.2f dBm", x)
-	default:
-		return fmt.Sprintf("%.2f dB", x)
-	}
+// FigureLabel is the one place a figure's display name and units live: every
+// table header, cell and sentence of tune and capacity (and, through the
+// proto's FigureLabel, every client) takes them from here.
+type FigureLabel struct {
+	// Key is the figure's field name in the API (TuneFigures), e.g.
+	// "tx_power_mean_dbm"; "constraint_excess" for the fallback ranking.
+	Key string `json:"key"`
+	// Name is the display name, e.g. "mean Tx power".
+	Name string `json:"name"`
+	// Unit of a displayed value ("dB", "dBm", "%") and DiffUnit of a
+	// displayed difference of two values: dB for differences of dB and dBm
+	// figures, "percentage points" for differences of proportions.
+	Unit     string `json:"unit"`
+	DiffUnit string `json:"diff_unit"`
+	// Scale turns the stored value into the displayed one (100 for
+	// proportions, stored in [0, 1] and shown in %; 1 otherwise).
+	Scale float64 `json:"scale"`
+	// Decimals shown in tables and text.
+	Decimals int `json:"decimals"`
 }
 
-func (o Objective) unitDiff(x float64) string {
-	if o.Kind == ObjectiveMinOutage {
-		return fmt.Sprintf("%.3g percentage points", 100*x)
-	}
-	return fmt.Sprintf("%.2f dB", x)
+// Keys of the figures, in the field order of TuneFigures.
+const (
+	FigureSIRErrorMean     = "sir_error_mean_db"
+	FigureSIRErrorStd      = "sir_error_std_db"
+	FigureOutage           = "outage_probability"
+	FigureBLER             = "achieved_bler"
+	FigureTxPowerMean      = "tx_power_mean_dbm"
+	FigureMaxPowerFraction = "max_power_fraction"
+	FigureNoiseRise        = "noise_rise_mean_db"
+	// FigureConstraintExcess is the fallback ranking (Objective.Excess),
+	// shown in % of the limit.
+	FigureConstraintExcess = "constraint_excess"
+)
+
+var figureLabels = []FigureLabel{
+	{FigureSIRErrorMean, "SIR error mean", "dB", "dB", 1, 2},
+	{FigureSIRErrorStd, "SIR error std", "dB", "dB", 1, 2},
+	{FigureOutage, "outage", "%", "percentage points", 100, 2},
+	{FigureBLER, "BLER", "%", "percentage points", 100, 2},
+	{FigureTxPowerMean, "mean Tx power", "dBm", "dB", 1, 2},
+	{FigureMaxPowerFraction, "time at max power", "%", "percentage points", 100, 2},
+	{FigureNoiseRise, "noise rise", "dB", "dB", 1, 2},
+	{FigureConstraintExcess, "worst constraint excess", "% of limit", "percentage points", 100, 1},
 }
 
-func (o Objective) interval(e Estimate) string {
-	if o.Kind == ObjectiveMinOutage {
-		return fmt.Sprintf("[%.3g, %.3g] %%", 100*e.Low, 100*e.High)
-	}
-	return fmt.Sprintf("[%.2f, %.2f]", e.Low, e.High)
+// FigureLabels returns the labels of the seven figures of Figures, in the
+// field order of TuneFigures.
+func FigureLabels() []FigureLabel {
+	return append([]FigureLabel(nil), figureLabels[:7]...)
 }
 
-func (o Objective) figureName(fallback bool) string {
-	if fallback {
-		return "outage probability"
-	}
-	return o.Kind.String()
-}
-
-func pct(x float64) string { return fmt.Sprintf("%.3g %%", 100*x) }
-
-// verdict is the first sentence of a reason: winner, tie or single setting.
-func verdict(rec *Recommendation, d Decision, cands []CandidateResult, scope string) string {
-	obj := rec.Objective
-	name := obj.figureName(d.ConstraintsUnmet)
-	if d.ConstraintsUnmet {
-		obj = Objective{Kind: ObjectiveMinOutage}
-	}
-	best := cands[d.Best]
-	conf := fmt.Sprintf("%g %%", 100*rec.Confidence)
-	if d.RunnerUp < 0 {
-		return fmt.Sprintf("%s%s is the only setting: %s %s %s.", scope, rec.Candidates[d.Best].Label(), name,
-			obj.unitValue(best.Objective.Mean), obj.interval(best.Objective))
-	}
-	ru := rec.Candidates[d.RunnerUp].Label()
-	ev := d.Evidence
-	if d.Declared {
-		return fmt.Sprintf("%s%s wins on %s with %s %s; the runner-up %s is %s worse (paired over %d replications, %s interval %s).",
-			scope, rec.Candidates[d.Best].Label(), name, obj.unitValue(best.Objective.Mean), obj.interval(best.Objective),
-			ru, obj.unitDiff(ev.Mean), ev.N, conf, obj.interval(ev))
-	}
-	key := "it is the leader"
-	if d.Best != d.Leader {
-		key = tieKey(rec.Candidates[d.Best], rec.Candidates[d.Leader])
-	} else {
-		for _, k := range d.TieSet[1:] {
-			key = tieKey(rec.Candidates[d.Best], rec.Candidates[k])
-			break
+// FigureLabelOf returns the label of the figure with that key; it panics
+// on an unknown key (a programmer error).
+func FigureLabelOf(key string) FigureLabel {
+	for _, l := range figureLabels {
+		if l.Key == key {
+			return l
 		}
 	}
-	return fmt.Sprintf("%s%d settings cannot be told apart on %s at %s (runner-up %s differs from the leader by %s, interval %s, %d replications); %s is picked by the tie rule (%s).",
-		scope, len(d.TieSet), name, conf, ru, obj.unitDiff(ev.Mean), obj.interval(ev), ev.N,
-		rec.Candidates[d.Best].Label(), key)
+	panic("tune: unknown figure " + key)
 }
 
-// stepHint explains where the chosen step sits in the step axis.
+func (l FigureLabel) num(x float64) string {
+	return strconv.FormatFloat(l.Scale*x, 'f', l.Decimals, 64)
+}
+
+// Value is a stored value displayed with its unit, e.g. "8.20 %".
+func (l FigureLabel) Value(x float64) string { return l.num(x) + " " + l.Unit }
+
+// Diff is a stored difference displayed with its unit, e.g. "3.20
+// percentage points"; the sign is kept.
+func (l FigureLabel) Diff(x float64) string { return l.num(x) + " " + l.DiffUnit }
+
+// Interval is "[low, high] unit" of an estimate of the value.
+func (l FigureLabel) Interval(e Estimate) string {
+	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.Unit
+}
+
+// DiffInterval is "[low, high] unit" of an estimate of a difference.
+func (l FigureLabel) DiffInterval(e Estimate) string {
+	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.DiffUnit
+}
+
+func pct(x float64) string { return FigureLabelOf(FigureOutage).Value(x) }
+
+func confText(c float64) string { return strconv.FormatFloat(100*c, 'g', 4, 64) + " %" }
+
+func label(rec *Recommendation, k int) string { return rec.Candidates[k].Label() }
+
+// constraintsText lists the active constraints, e.g. "outage ≤ 5.00 %,
+// noise rise ≤ 6.00 dB"; bler says whether some candidate has its outer
+// loop on.
+func constraintsText(o Objective, bler bool) string {
+	var parts []string
+	if o.OutageLimit > 0 {
+		parts = append(parts, "outage ≤ "+pct(o.OutageLimit))
+	}
+	if o.NoiseRiseLimitDB > 0 {
+		parts = append(parts, "noise rise ≤ "+FigureLabelOf(FigureNoiseRise).Value(o.NoiseRiseLimitDB))
+	}
+	if bler && (o.Kind == ObjectiveMinTxPower || o.BLERTolerance > 0) {
+		parts = append(parts, fmt.Sprintf("BLER within ±%g %% of its target", 100*o.blerTol()))
+	}
+	return strings.Join(parts, ", ")
+}
+
+// missesOf lists the constraints candidate figures f miss in condition name.
+func missesOf(o Objective, name string, f Figures) []ConstraintMiss {
+	var out []ConstraintMiss
+	add := func(key string, v, lim float64, upper bool) {
+		l := FigureLabelOf(key)
+		m := ConstraintMiss{Condition: name, Figure: key, Value: v, Limit: lim, Upper: upper, Excess: math.Abs(v - lim)}
+		side, rel := "over", "a limit of"
+		if !upper {
+			side, rel = "under", "a floor of"
+		}
+		m.Text = fmt.Sprintf("%s %s against %s %s (%s %s)", l.Name, l.Value(v), rel, l.Value(lim), l.Diff(m.Excess), side)
+		out = append(out, m)
+	}
+	if lim := o.OutageLimit; lim > 0 && f.OutageProb.Mean > lim {
+		add(FigureOutage, f.OutageProb.Mean, lim, true)
+	}
+	if lim := o.NoiseRiseLimitDB; lim > 0 && f.NoiseRiseDB.Mean > lim {
+		add(FigureNoiseRise, f.NoiseRiseDB.Mean, lim, true)
+	}
+	if t := f.BLERTarget; o.blerActive(t) {
+		lo, hi := t*(1-o.blerTol()), t*(1+o.blerTol())
+		switch b := f.BLER.Mean; {
+		case b > hi:
+			add(FigureBLER, b, hi, true)
+		case b < lo:
+			add(FigureBLER, b, lo, false)
+		}
+	}
+	return out
+}
+
+// finishDecision fills the misses, warnings, headline and runner-up line of
+// d, the decision over the conditions conds (one, or all for the overall
+// verdict) with candidate results cands.
+func finishDecision(rec *Recommendation, d *Decision, conds []int, cands []CandidateResult) {
+	o := rec.Objective
+	overall := len(conds) > 1
+	bler := false
+	for _, c := range conds {
+		for _, cr := range rec.Conditions[c].Candidates {
+			bler = bler || cr.Figures.BLERTarget > 0
+		}
+	}
+	// Misses and warnings come from the recommended candidate's figures in
+	// each condition.
+	var highOut, infeas []string
+	for _, c := range conds {
+		cond := rec.Conditions[c]
+		f := cond.Candidates[d.Best].Figures
+		if d.ConstraintsUnmet {
+			d.Misses = append(d.Misses, missesOf(o, cond.Name, f)...)
+		}
+		where := ""
+		if overall || len(rec.Conditions) > 1 {
+			where = " in " + strconv.Quote(cond.Name)
+		}
+		if w := o.outageWarning(); w < 1 && f.OutageProb.Mean > w {
+			highOut = append(highOut, pct(f.OutageProb.Mean)+where)
+		}
+		if f.InfeasibleReplications > 0 {
+			infeas = append(infeas, fmt.Sprintf("%d of %d replications%s", f.InfeasibleReplications, f.OutageProb.N, where))
+		}
+	}
+	best := label(rec, d.Best)
+	if len(highOut) > 0 {
+		d.Warnings = append(d.Warnings, Warning{Kind: WarningHighOutage, Text: fmt.Sprintf(
+			"Warning: %s has outage %s, above the warning level of %s; check the link budget and the outage margin before using it.",
+			best, strings.Join(highOut, ", "), pct(o.outageWarning()))})
+	}
+	if len(infeas) > 0 {
+		d.Warnings = append(d.Warnings, Warning{Kind: WarningInfeasibleLoad, Text: fmt.Sprintf(
+			"Warning: the engine found the load infeasible for %s (no powers give every user its target) in %s.",
+			best, strings.Join(infeas, ", "))})
+	}
+	if d.Verdict == VerdictTie && rec.Effort.BudgetExhausted {
+		open := 0
+		for _, c := range cands {
+			if c.Status == StatusContending {
+				open++
+			}
+		}
+		if open > 1 {
+			d.Warnings = append(d.Warnings, Warning{Kind: WarningBudgetExhausted, Text: fmt.Sprintf(
+				"The budget ran out with %d settings still in contention; more replications could separate them.", open)})
+		}
+	}
+
+	rb := d.RankedBy
+	conf := confText(rec.Confidence)
+	scope := ""
+	if overall {
+		scope = fmt.Sprintf(" (weighted over %d conditions)", len(conds))
+	}
+	bo := cands[d.Best].Objective
+	val := fmt.Sprintf("%s %s, %s interval %s", rb.Name, rb.Value(bo.Mean), conf, rb.Interval(bo))
+	switch d.Verdict {
+	case VerdictWinner:
+		d.Headline = fmt.Sprintf("Winner%s: %s (%s).", scope, best, val)
+	case VerdictTie:
+		d.Headline = fmt.Sprintf("Tie of %d%s at %s: %s is recommended by the tie rule (%s); %s.",
+			len(d.TieSet), scope, conf, best, d.TieBreak, val)
+	case VerdictSingle:
+		d.Headline = fmt.Sprintf("Single setting%s: %s (%s); nothing to compare.", scope, best, val)
+	case VerdictConstraintsUnmet:
+		var ms []string
+		for _, m := range d.Misses {
+			ms = append(ms, m.Text)
+		}
+		miss := strings.Join(ms, "; ")
+		if miss == "" {
+			miss = "within the limits on the point estimates of some conditions but not of the combination"
+		}
+		d.Headline = fmt.Sprintf("Constraints unmet%s: no setting meets %s. Closest: %s, which misses: %s.",
+			scope, constraintsText(o, bler), best, miss)
+	}
+	if d.RunnerUp < 0 {
+		d.RunnerUpLine = "Runner-up: none (one candidate)."
+		return
+	}
+	ev := d.Evidence
+	ru := label(rec, d.RunnerUp)
+	cmp := "worse than"
+	if ev.Mean < 0 {
+		cmp = "better on the point estimate than"
+	}
+	mag := ev
+	mag.Mean = math.Abs(ev.Mean)
+	tail := ""
+	switch {
+	case d.Verdict == VerdictTie && containsInt(d.TieSet, d.RunnerUp):
+		tail = "; within the tie"
+	case !cands[d.RunnerUp].Feasible && cands[d.Best].Feasible:
+		tail = "; it misses the constraints"
+	}
+	d.RunnerUpLine = fmt.Sprintf("Runner-up: %s, %s %s %s (%s interval of the difference %s, %d paired replications%s).",
+		ru, rb.Diff(mag.Mean), cmp, best, conf, rb.DiffInterval(ev), ev.N, tail)
+}
+
+func containsInt(xs []int, v int) bool {
+	for _, x := range xs {
+		if x == v {
+			return true
+		}
+	}
+	return false
+}
+
+// fdtText describes the f_D·T of a condition from its own speeds, e.g.
+// "f_D·T = 0.037 (30 km/h)" or "f_D·T 0.0037–0.074 over 3 and 60 km/h".
+func fdtText(cr ConditionResult) string {
+	var sp []string
+	for _, v := range cr.SpeedsKmh {
+		sp = append(sp, strconv.FormatFloat(v, 'g', 4, 64))
+	}
+	speeds := ""
+	switch len(sp) {
+	case 0:
+	case 1:
+		speeds = sp[0] + " km/h"
+	default:
+		speeds = strings.Join(sp[:len(sp)-1], ", ") + " and " + sp[len(sp)-1] + " km/h"
+	}
+	g := func(x float64) string { return strconv.FormatFloat(x, 'g', 2, 64) }
+	if len(sp) <= 1 || g(cr.DopplerProductMin) == g(cr.DopplerProductMax) {
+		if speeds == "" {
+			return "f_D·T = " + g(cr.DopplerProductMax)
+		}
+		return fmt.Sprintf("f_D·T = %s (%s)", g(cr.DopplerProductMax), speeds)
+	}
+	return fmt.Sprintf("f_D·T %s–%s over %s", g(cr.DopplerProductMin), g(cr.DopplerProductMax), speeds)
+}
+
+func regime(x float64) int {
+	switch {
+	case x < slowFadingProduct:
+		return 0
+	case x > fastFadingProduct:
+		return 2
+	}
+	return 1
+}
+
+// stepHint explains the chosen step from the condition's f_D·T range and
+// the measured differences to the neighbouring steps.
 func stepHint(rec *Recommendation, c int) string {
+	const path = "inner_loop.step_db"
 	cr := rec.Conditions[c]
-	p := rec.Candidates[cr.Decision.Best]
-	step, ok := p.Value("inner_loop.step_db")
+	d := cr.Decision
+	p := rec.Candidates[d.Best]
+	step, ok := p.Value(path)
 	if !ok {
 		return ""
 	}
 	var vals []float64
 	for _, a := range rec.Axes {
-		if a.Path == "inner_loop.step_db" {
-			vals = a.Values
+		if a.Path == path {
+			vals = append(vals, a.Values...)
 		}
 	}
 	if len(vals) < 2 {
 		return ""
 	}
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for _, v := range vals {
-		lo, hi = math.Min(lo, v), math.Max(hi, v)
-	}
-	fdT := cr.DopplerProductMax
+	sort.Float64s(vals)
+	lo, hi := vals[0], vals[len(vals)-1]
+	fdt := fdtText(cr)
+	var s string
+	rlo, rhi := regime(cr.DopplerProductMin), regime(cr.DopplerProductMax)
 	switch {
-	case step == lo && fdT > fastFadingProduct:
-		return fmt.Sprintf("At f_D·T = %.3g the loop cannot follow the fades, so the smallest step wins: it only adds less noise.", fdT)
-	case step == lo && fdT < slowFadingProduct:
-		return fmt.Sprintf("At f_D·T = %.3g the channel moves slowly; a small step keeps up and keeps the ±step/2 limit cycle small.", fdT)
+	case rlo != rhi:
+		s = fmt.Sprintf("%s mixes fading regimes: a %g dB step is the compromise between the slow users' limit cycle and the fast users' tracking.", fdt, step)
+	case step == lo && rlo == 2:
+		s = fmt.Sprintf("At %s the loop cannot follow the fades, so the smallest step does best: it adds the least noise.", fdt)
+	case step == lo && rlo == 0:
+		s = fmt.Sprintf("At %s the channel moves slowly; the smallest step keeps up and keeps the ±step/2 limit cycle small.", fdt)
 	case step == lo:
-		return fmt.Sprintf("At f_D·T = %.3g the smallest step is enough to follow the fades and adds the least limit-cycle noise.", fdT)
+		s = fmt.Sprintf("At %s the smallest step in the grid is enough to follow the fades.", fdt)
 	case step == hi:
-		return fmt.Sprintf("The largest step in the grid wins: at f_D·T = %.3g smaller steps lag the fades. Try larger steps or a higher update rate.", fdT)
+		s = fmt.Sprintf("At %s the largest step in the grid does best; larger steps or a higher update rate may do better still.", fdt)
 	default:
-		return fmt.Sprintf("%g dB is the balance at f_D·T = %.3g: smaller steps lag the fades, larger ones add limit-cycle noise.", step, fdT)
+		s = fmt.Sprintf("At %s a %g dB step balances tracking the fades against limit-cycle noise.", fdt, step)
 	}
+	// The measured neighbours: candidates equal to Best but for the step.
+	rb := d.RankedBy
+	var nb []string
+	for _, k := range d.Ordering {
+		q := rec.Candidates[k]
+		v, _ := q.Value(path)
+		if k == d.Best || !sameBut(p, q, path) {
+			continue
+		}
+		i := sort.SearchFloat64s(vals, step)
+		if (i > 0 && v == vals[i-1]) || (i+1 < len(vals) && v == vals[i+1]) {
+			df := cr.Candidates[k].DiffToBest
+			nb = append(nb, fmt.Sprintf("%g dB step %s%s", v, sign(df.Mean), rb.Diff(math.Abs(df.Mean))))
+		}
+	}
+	if len(nb) > 0 {
+		s += fmt.Sprintf(" Measured %s against it: %s.", rb.Name, strings.Join(nb, ", "))
+	}
+	return s
+}
+
+func sign(x float64) string {
+	if x < 0 {
+		return "−"
+	}
+	return "+"
+}
+
+// sameBut reports whether a and b have equal coordinates except on path.
+func sameBut(a, b Point, path string) bool {
+	if len(a.Coords) != len(b.Coords) {
+		return false
+	}
+	for i := range a.Coords {
+		if a.Coords[i].Path != path && a.Coords[i].Value != b.Coords[i].Value {
+			return false
+		}
+	}
+	return true
+}
+
+// baselineText compares the recommended setting with fixed power on the
+// judged figure, in that figure's units.
+func baselineText(rec *Recommendation, c int, bl *Baseline) string {
+	l := bl.Figure
+	conf := confText(rec.Confidence)
+	dir := "lower"
+	if bl.Gain.Mean < 0 {
+		dir = "higher"
+	}
+	gain := fmt.Sprintf("%s %s (%s interval of the gain %s)", l.Diff(math.Abs(bl.Gain.Mean)), dir, conf, l.DiffInterval(bl.Gain))
+	best := rec.Conditions[c].Candidates[rec.Conditions[c].Decision.Best].Figures
+	if l.Key == FigureTxPowerMean {
+		return fmt.Sprintf("Fixed power: mean Tx power %s with outage %s; the recommended setting: %s with outage %s, %s.",
+			l.Value(bl.Fixed.Mean), pct(bl.Figures.OutageProb.Mean), l.Value(bl.Recommended.Mean), pct(best.OutageProb.Mean), gain)
+	}
+	return fmt.Sprintf("Fixed power: %s %s; the recommended setting: %s, %s.",
+		l.Name, l.Value(bl.Fixed.Mean), l.Value(bl.Recommended.Mean), gain)
 }
 
 func baselineHint(rec *Recommendation, c int) string {
@@ -125,35 +417,23 @@ func baselineHint(rec *Recommendation, c int) string {
 	if bl == nil {
 		return ""
 	}
-	best := cr.Candidates[cr.Decision.Best].Figures
-	judged, fb, fc := "outage", pct(bl.Figures.OutageProb.Mean), pct(best.OutageProb.Mean)
-	if rec.Objective.Kind == ObjectiveMinSIRErrorStd {
-		judged = "SIR error std"
-		fb = fmt.Sprintf("%.2f dB", bl.Figures.SIRErrorStdDB.Mean)
-		fc = fmt.Sprintf("%.2f dB", best.SIRErrorStdDB.Mean)
+	if !bl.BarelyHelps {
+		return bl.Text
 	}
-	if bl.BarelyHelps {
-		why := "estimation error, delay or load dominate"
-		if cr.DopplerProductMax > fastFadingProduct {
-			why = fmt.Sprintf("at f_D·T = %.3g the loop cannot track", cr.DopplerProductMax)
-		}
-		verb := "barely helps"
-		if bl.Gain.Mean <= 0 {
-			verb = "does not help (barely helps at best)"
-		}
-		return fmt.Sprintf("Power control %s here: fixed power gives %s %s, the best loop setting %s (%s).", verb, judged, fb, fc, why)
+	why := "estimation error, delay or load dominate"
+	if cr.DopplerProductMin > fastFadingProduct {
+		why = fmt.Sprintf("at %s the loop cannot track", fdtText(cr))
 	}
-	return fmt.Sprintf("Against fixed power the loop takes %s from %s to %s.", judged, fb, fc)
+	verb := "barely helps"
+	if bl.Gain.Mean <= 0 {
+		verb = "does not help (barely helps at best)"
+	}
+	return fmt.Sprintf("%s Power control %s here (%s).", bl.Text, verb, why)
 }
 
 func constraintHint(rec *Recommendation, d Decision, cands []CandidateResult) string {
-	o := rec.Objective
-	if o.Kind != ObjectiveMinTxPower {
+	if !rec.Objective.constrained() || d.ConstraintsUnmet {
 		return ""
-	}
-	if d.ConstraintsUnmet {
-		return fmt.Sprintf("No setting keeps outage at or below %s with the BLER within ±%g %% of target; ranked by outage instead.",
-			pct(o.OutageLimit), 100*o.blerTol())
 	}
 	miss := 0
 	for _, c := range cands {
@@ -164,23 +444,13 @@ func constraintHint(rec *Recommendation, d Decision, cands []CandidateResult) st
 	if miss == 0 {
 		return ""
 	}
-	return fmt.Sprintf("%d of %d settings miss outage ≤ %s or the BLER tolerance.", miss, len(cands), pct(o.OutageLimit))
-}
-
-func budgetHint(rec *Recommendation, d Decision, cands []CandidateResult) string {
-	if d.Declared || !rec.Effort.BudgetExhausted {
-		return ""
-	}
-	open := 0
-	for _, c := range cands {
-		if c.Status == StatusContending {
-			open++
+	bler := false
+	for _, cr := range rec.Conditions {
+		for _, c := range cr.Candidates {
+			bler = bler || c.Figures.BLERTarget > 0
 		}
 	}
-	if open <= 1 {
-		return ""
-	}
-	return fmt.Sprintf("The budget ran out with %d settings still in contention; more replications could separate them.", open)
+	return fmt.Sprintf("%d of %d settings miss %s.", miss, len(cands), constraintsText(rec.Objective, bler))
 }
 
 func join(parts ...string) string {
@@ -193,16 +463,28 @@ func join(parts ...string) string {
 	return strings.Join(out, " ")
 }
 
-// conditionReason is the plain-language reason of condition c.
+func warningsText(d Decision) string {
+	var w []string
+	for _, x := range d.Warnings {
+		w = append(w, x.Text)
+	}
+	return strings.Join(w, " ")
+}
+
+// conditionReason is the plain-language reason of condition c: the headline
+// first (so an unmet constraint is said first), then the evidence, the
+// constraints, the step against the condition's own f_D·T range, the
+// fixed-power comparison and the warnings.
 func conditionReason(rec *Recommendation, c int) string {
 	cr := rec.Conditions[c]
 	d := cr.Decision
 	return join(
-		verdict(rec, d, cr.Candidates, ""),
+		d.Headline,
+		d.RunnerUpLine,
 		constraintHint(rec, d, cr.Candidates),
 		stepHint(rec, c),
 		baselineHint(rec, c),
-		budgetHint(rec, d, cr.Candidates),
+		warningsText(d),
 	)
 }
 
@@ -215,19 +497,36 @@ func overallReason(rec *Recommendation) string {
 	var per []string
 	same := true
 	for _, cr := range rec.Conditions {
-		per = append(per, fmt.Sprintf("%s → %s", cr.Name, rec.Candidates[cr.Decision.Best].Label()))
+		per = append(per, fmt.Sprintf("%s (%s) → %s", cr.Name, fdtText(cr), label(rec, cr.Decision.Best)))
 		if cr.Decision.Best != d.Best {
 			same = false
 		}
 	}
-	tail := "The same setting is best in every condition."
+	tail := "The same setting is recommended in every condition."
 	if !same {
 		tail = "Per condition: " + strings.Join(per, "; ") + "."
 	}
 	return join(
-		verdict(rec, d, rec.OverallCandidates, fmt.Sprintf("Weighted over %d conditions, ", len(rec.Conditions))),
+		d.Headline,
+		d.RunnerUpLine,
 		constraintHint(rec, d, rec.OverallCandidates),
 		tail,
-		budgetHint(rec, d, rec.OverallCandidates),
+		warningsText(d),
 	)
+}
+
+// Lines returns the text block every table output of a recommendation
+// starts with, in order: the overall headline (an unmet constraint first),
+// the runner-up line, the warnings, the tie rule when a tie was broken, and
+// the notice. Clients print these lines as they are.
+func (r *Recommendation) Lines() []string {
+	d := r.Overall
+	out := []string{d.Headline, d.RunnerUpLine}
+	for _, w := range d.Warnings {
+		out = append(out, w.Text)
+	}
+	if d.Verdict == VerdictTie {
+		out = append(out, "Tie rule: "+r.TieRule+".")
+	}
+	return append(out, Notice)
 }

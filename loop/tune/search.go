@@ -167,15 +167,15 @@ func (e *engine) nScopes() int {
 	return e.nC
 }
 
-func (e *engine) constrained() bool { return e.obj.Kind == ObjectiveMinTxPower }
+func (e *engine) constrained() bool { return e.obj.constrained() }
 
 // scores returns the per-replication objective values of candidate k in
-// scope s; outage selects the outage probability instead (the fallback when
-// no candidate meets the constraints).
-func (e *engine) scores(s, k int, outage bool) []float64 {
+// scope s; fallback selects the worst relative constraint excess instead
+// (Objective.Excess, the ranking when no candidate meets the constraints).
+func (e *engine) scores(s, k int, fallback bool) []float64 {
 	f := e.obj.score
-	if outage {
-		f = func(x Sample) float64 { return x.OutageProb }
+	if fallback {
+		f = e.obj.Excess
 	}
 	if s < e.nC {
 		xs := make([]float64, len(e.samples[k][s]))
@@ -213,18 +213,25 @@ type feas struct {
 
 func (e *engine) feasCond(k, c int, conf float64) feas {
 	xs := e.samples[k][c]
-	out := make([]float64, len(xs))
-	for r, x := range xs {
-		out[r] = x.OutageProb
+	f := feas{est: true, clearlyIn: true}
+	// upper applies one "figure ≤ limit" constraint.
+	upper := func(get func(Sample) float64, lim float64) {
+		v := make([]float64, len(xs))
+		for r, x := range xs {
+			v[r] = get(x)
+		}
+		o := meanCI(v, conf)
+		f.est = f.est && o.Mean <= lim
+		f.clearlyIn = f.clearlyIn && o.High <= lim
+		f.clearlyOut = f.clearlyOut || o.Low > lim
 	}
-	lim := e.obj.OutageLimit
-	o := meanCI(out, conf)
-	f := feas{
-		est:        o.Mean <= lim,
-		clearlyIn:  o.High <= lim,
-		clearlyOut: o.Low > lim,
+	if lim := e.obj.OutageLimit; lim > 0 {
+		upper(func(x Sample) float64 { return x.OutageProb }, lim)
 	}
-	if len(xs) > 0 && xs[0].BLERTarget > 0 {
+	if lim := e.obj.NoiseRiseLimitDB; lim > 0 {
+		upper(func(x Sample) float64 { return x.NoiseRiseDB }, lim)
+	}
+	if len(xs) > 0 && e.obj.blerActive(xs[0].BLERTarget) {
 		ratio := make([]float64, len(xs))
 		for r, x := range xs {
 			ratio[r] = x.BLER / x.BLERTarget
@@ -262,10 +269,11 @@ type scopeOutcome struct {
 	evidence               Estimate // paired diff runner-up − best
 	declared               bool
 	tieSet                 []int
-	fallback               bool // constrained objective met by no candidate: ranked by outage
+	fallback               bool // constraints met by no candidate: ranked by Objective.Excess
+	ordering               []int // chosen first, then the rest of the tie set, then by class and diff
 	status                 []CandidateStatus
 	score                  []Estimate // objective per candidate
-	diff                   []Estimate // paired diff k − best
+	diff                   []Estimate // paired diff k − best (final: k − chosen)
 	feasible               []bool
 	undecided              []bool
 }
@@ -409,16 +417,57 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 			}
 		}
 	}
-	o.runnerUp = ru
-	if ru >= 0 {
-		o.evidence = o.diff[ru]
-	}
 	o.declared = len(o.tieSet) == 1 && ru >= 0
 	o.chosen = best
 	for _, k := range o.tieSet[1:] {
 		if e.tieLess(k, o.chosen) {
 			o.chosen = k
 		}
+	}
+	// Everything reported from here on is relative to the chosen
+	// (recommended) candidate, so that the first row of every table, the
+	// runner-up's difference and every "best" named anywhere agree.
+	ch := o.chosen
+	for k := 0; k < e.nK; k++ {
+		if k == ch {
+			o.diff[k] = Estimate{N: o.score[k].N}
+			continue
+		}
+		o.diff[k], buf = pairedDiff(sc[ch], sc[k], e.conf, buf)
+	}
+	inTie := make([]bool, e.nK)
+	for _, k := range o.tieSet {
+		inTie[k] = true
+	}
+	o.ordering = make([]int, 0, e.nK)
+	for k := 0; k < e.nK; k++ {
+		if k != ch {
+			o.ordering = append(o.ordering, k)
+		}
+	}
+	sort.SliceStable(o.ordering, func(i, j int) bool {
+		a, b := o.ordering[i], o.ordering[j]
+		if inTie[a] != inTie[b] {
+			return inTie[a]
+		}
+		if inTie[a] {
+			return e.tieLess(a, b)
+		}
+		if class[a] != class[b] {
+			return class[a] < class[b]
+		}
+		if o.diff[a].Mean != o.diff[b].Mean {
+			return o.diff[a].Mean < o.diff[b].Mean
+		}
+		return a < b
+	})
+	o.ordering = append([]int{ch}, o.ordering...)
+	o.status[ch] = StatusContending
+	o.runnerUp = -1
+	o.evidence = Estimate{}
+	if len(o.ordering) > 1 {
+		o.runnerUp = o.ordering[1]
+		o.evidence = o.diff[o.runnerUp]
 	}
 	return o
 }

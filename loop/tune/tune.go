@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"runtime"
+	"sort"
 
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
@@ -152,42 +153,162 @@ type CandidateResult struct {
 	Candidate int `json:"candidate"`
 	// Figures: every figure with its interval.
 	Figures Figures `json:"figures"`
-	// Objective is the figure minimised (weighted across conditions; the
-	// outage when no candidate met the Tx-power objective's constraints).
+	// Objective is the figure candidates were ranked by (weighted across
+	// conditions): the objective's figure, or the worst relative constraint
+	// excess (Objective.Excess) when no candidate met the constraints
+	// (Decision.RankedBy names it).
 	Objective Estimate `json:"objective"`
 	// DiffToBest is the paired difference of Objective, this candidate minus
-	// the leader, over their common replications (zero for the leader).
+	// the recommended candidate (Decision.Best), over their common
+	// replications, in RankedBy's difference unit (zero for Best itself).
 	DiffToBest Estimate `json:"diff_to_best"`
 	// Status in the sequential procedure.
 	Status CandidateStatus `json:"status"`
 	// Feasible: the point estimates meet the objective's constraints
-	// (always true for unconstrained objectives).
+	// (always true without constraints).
 	Feasible bool `json:"feasible"`
+}
+
+// Verdict is the outcome of a decision: the one source of truth for what
+// every table, plot and sentence says about it.
+type Verdict int
+
+const (
+	// VerdictUnspecified is the zero value; never the outcome of a search.
+	VerdictUnspecified Verdict = iota
+	// VerdictWinner: the recommended candidate's paired difference to every
+	// other candidate that meets the constraints excludes zero at the
+	// stated confidence (candidates that miss the constraints rank below
+	// it whatever their objective).
+	VerdictWinner
+	// VerdictTie: TieSet holds more than one candidate that cannot be told
+	// apart at the stated confidence; Best was picked by the tie rule
+	// (Decision.TieBreak). Never called a winner.
+	VerdictTie
+	// VerdictConstraintsUnmet: no candidate meets the constraints; Best is
+	// the closest (smallest worst relative excess) and Misses says by how
+	// much it misses each constraint.
+	VerdictConstraintsUnmet
+	// VerdictSingle: there was only one candidate; nothing was compared.
+	VerdictSingle
+)
+
+// String returns the short label used in tables, e.g. "winner".
+func (v Verdict) String() string {
+	switch v {
+	case VerdictWinner:
+		return "winner"
+	case VerdictTie:
+		return "tie"
+	case VerdictConstraintsUnmet:
+		return "constraints unmet"
+	case VerdictSingle:
+		return "single setting"
+	}
+	return fmt.Sprintf("Verdict(%d)", int(v))
+}
+
+// ConstraintMiss is by how much a candidate misses one constraint in one
+// condition, on the point estimates.
+type ConstraintMiss struct {
+	// Condition is the name of the condition.
+	Condition string `json:"condition"`
+	// Figure is the key of the constrained figure (FigureLabel.Key):
+	// "outage_probability", "noise_rise_mean_db" or "achieved_bler".
+	Figure string `json:"figure"`
+	// Value is the candidate's figure and Limit the bound it misses, in the
+	// figure's stored unit (probability, dB); for the BLER, Limit is the
+	// nearer edge of the band τ·(1 ± tolerance).
+	Value float64 `json:"value"`
+	Limit float64 `json:"limit"`
+	// Upper: Limit is an upper bound (Value is above it); otherwise a lower
+	// bound (Value is below it).
+	Upper bool `json:"upper"`
+	// Excess = |Value − Limit| > 0, in the figure's stored unit (a
+	// probability for proportions, dB for the noise rise).
+	Excess float64 `json:"excess"`
+	// Text is the miss in words with units, e.g. "outage 8.2 % against a
+	// limit of 5 % (3.2 percentage points over)".
+	Text string `json:"text"`
+}
+
+// WarningKind classifies a warning attached to a decision.
+type WarningKind int
+
+const (
+	// WarningUnspecified is the zero value.
+	WarningUnspecified WarningKind = iota
+	// WarningHighOutage: the recommended setting's outage is above
+	// Objective.OutageWarning (DefaultOutageWarning) in some condition.
+	WarningHighOutage
+	// WarningInfeasibleLoad: the engine flagged the load of the recommended
+	// setting as infeasible in some replications (no powers give every user
+	// its target).
+	WarningInfeasibleLoad
+	// WarningBudgetExhausted: the budget ran out with more than one
+	// candidate still in contention.
+	WarningBudgetExhausted
+)
+
+// Warning is one warning about a decision: a machine-readable kind and a
+// sentence with the figures and units.
+type Warning struct {
+	Kind WarningKind `json:"kind"`
+	Text string      `json:"text"`
 }
 
 // Decision is the verdict in one condition or across conditions.
 type Decision struct {
+	// Verdict is the outcome (winner, tie, constraints unmet, single).
+	Verdict Verdict `json:"verdict"`
 	// Best is the recommended candidate (grid index) and Setting its point.
+	// Ordering[0] == Best.
 	Best    int   `json:"best"`
 	Setting Point `json:"setting"`
-	// Declared: the leader's paired difference to every other surviving
-	// candidate excludes zero at the stated confidence, so Best is a winner,
-	// not a pick from a tie.
+	// Ordering is every candidate, best first: Best, then the rest of the
+	// tie set in tie-rule order, then the candidates that meet the
+	// constraints before those that miss them, each by paired difference to
+	// Best. Every table lists candidates in this order.
+	Ordering []int `json:"ordering"`
+	// RankedBy labels the figure candidates were ranked by: the objective's
+	// figure, or the worst constraint excess when the constraints were met
+	// by none.
+	RankedBy FigureLabel `json:"ranked_by"`
+	// Declared: the verdict is VerdictWinner.
 	Declared bool `json:"declared"`
-	// TieSet lists the candidates not distinguishable from the leader
-	// (leader first); with more than one, Best was picked by TieRule.
+	// TieSet lists the candidates not distinguishable from the best point
+	// estimate at the stated confidence (best point estimate first); with
+	// more than one, Best was picked by the tie rule.
 	TieSet []int `json:"tie_set"`
-	// Leader is the candidate with the best point estimate.
+	// TieBreak is the key of TieRule that put Best first in the tie set,
+	// e.g. "smaller inner_loop.step_db" (empty without a tie).
+	TieBreak string `json:"tie_break"`
+	// Leader is the candidate with the best point estimate; it differs from
+	// Best only in a tie, and is never named as "the leader" in text (Best
+	// is the one recommendation).
 	Leader int `json:"leader"`
-	// RunnerUp is the closest other candidate (-1 with one candidate) and
-	// Evidence the paired difference runner-up minus leader on the
-	// objective, with its interval at the stated confidence (positive: the
-	// runner-up is worse).
+	// RunnerUp is Ordering[1] (-1 with one candidate) and Evidence the
+	// paired difference runner-up minus Best on RankedBy, with its interval
+	// at the stated confidence (positive: the runner-up is worse).
 	RunnerUp int      `json:"runner_up"`
 	Evidence Estimate `json:"evidence"`
-	// ConstraintsUnmet: the Tx-power objective's constraints were met by no
-	// candidate; candidates were ranked by outage instead.
+	// ConstraintsUnmet: no candidate met the constraints (the verdict is
+	// VerdictConstraintsUnmet); candidates were ranked by their worst
+	// relative constraint excess.
 	ConstraintsUnmet bool `json:"constraints_unmet"`
+	// Misses: with ConstraintsUnmet, every constraint Best misses, per
+	// condition.
+	Misses []ConstraintMiss `json:"misses"`
+	// Warnings about the recommended setting.
+	Warnings []Warning `json:"warnings"`
+	// Headline is the first line of every text output of this decision,
+	// e.g. "Winner: step_db=0.5, SIR error std 1.92 dB [1.90, 1.94]", or
+	// "Constraints unmet: ..." first when they are.
+	Headline string `json:"headline"`
+	// RunnerUpLine is the runner-up's line, e.g. "Runner-up step_db=1:
+	// 0.12 dB worse than step_db=0.5 (95 % interval [0.08, 0.16], 6
+	// paired replications)".
+	RunnerUpLine string `json:"runner_up_line"`
 	// Reason is a short plain-language account built from the figures.
 	Reason string `json:"reason"`
 }
@@ -198,15 +319,30 @@ type Decision struct {
 // candidates.
 type Baseline struct {
 	Figures Figures `json:"figures"`
+	// Figure labels the judged figure: the objective's own figure (SIR
+	// error std in dB, outage in %, mean Tx power in dBm).
+	Figure FigureLabel `json:"figure"`
+	// Fixed and Recommended are the judged figure at fixed power and at
+	// the recommended setting, in Figure's stored unit.
+	Fixed       Estimate `json:"fixed"`
+	Recommended Estimate `json:"recommended"`
 	// Gain is the paired improvement of the recommended setting over fixed
-	// power on the judged figure (baseline minus recommended; positive =
-	// power control helps): SIR error std in dB for that objective, outage
-	// probability otherwise.
+	// power on the judged figure (fixed minus recommended; positive = power
+	// control helps), in Figure's difference unit: dB for SIR error std and
+	// for Tx power (power saved), a probability for outage.
 	Gain Estimate `json:"gain"`
-	// BarelyHelps: Gain's interval reaches zero or Gain is below
-	// BarelyHelpsFraction of the baseline's figure.
+	// BarelyHelps: Gain's interval reaches zero, or Gain is below
+	// BarelyHelpsFraction of the fixed-power figure (SIR error std, outage)
+	// or below BarelyHelpsPowerDB (Tx power).
 	BarelyHelps bool `json:"barely_helps"`
+	// Text is the comparison in one line with units.
+	Text string `json:"text"`
 }
+
+// BarelyHelpsPowerDB: under the Tx power objective, power control "barely
+// helps" when it saves less than this much mean power over fixed power, dB
+// (our choice: below the usual dB-level uncertainty of a link budget).
+const BarelyHelpsPowerDB = 1.0
 
 // ConditionResult is everything about one condition.
 type ConditionResult struct {
@@ -215,9 +351,13 @@ type ConditionResult struct {
 	Decision   Decision          `json:"decision"`
 	Candidates []CandidateResult `json:"candidates"`
 	Baseline   *Baseline         `json:"baseline,omitempty"`
-	// DopplerProductMax is the largest f_D·T over the users of the
-	// recommended setting (f_D = v·f_c/c, T = 1/update_rate_hz).
-	DopplerProductMax float64 `json:"doppler_product_max"`
+	// DopplerProductMin and DopplerProductMax are the smallest and largest
+	// f_D·T over the users of the recommended setting (f_D = v·f_c/c,
+	// T = 1/update_rate_hz) and SpeedsKmh the distinct user speeds of the
+	// condition, ascending, km/h.
+	DopplerProductMin float64   `json:"doppler_product_min"`
+	DopplerProductMax float64   `json:"doppler_product_max"`
+	SpeedsKmh         []float64 `json:"speeds_kmh"`
 }
 
 // Recommendation is the answer of Tune.
@@ -241,6 +381,12 @@ type Recommendation struct {
 	Seed uint64 `json:"seed"`
 	// TieRule states how ties are broken.
 	TieRule string `json:"tie_rule"`
+	// Figures labels every figure of Figures (name, unit, difference
+	// unit, display scale) in FigureKeys order.
+	Figures []FigureLabel `json:"figures"`
+	// Notice is the statement every output carries: simulated settings do
+	// not replace the operator's planning (Notice).
+	Notice string `json:"notice"`
 }
 
 // TieRule is the documented order in which a tie set is broken: the first
@@ -330,6 +476,36 @@ func DopplerProductMax(sc loop.Scenario) float64 {
 		}
 	}
 	return m
+}
+
+// DopplerRange returns the smallest and largest f_D·T over the users of sc
+// (f_D = v·f_c/c by fading.DopplerHz over every speed of every group with
+// users, T = 1/inner_loop.update_rate_hz) and the distinct speeds, km/h,
+// ascending. The products are 0 without speeds or with a non-positive
+// update rate.
+func DopplerRange(sc loop.Scenario) (lo, hi float64, speedsKmh []float64) {
+	seen := map[float64]bool{}
+	lo = math.Inf(1)
+	for _, g := range sc.Groups {
+		if g.Count <= 0 {
+			continue
+		}
+		for _, s := range g.Speeds {
+			if !seen[s.SpeedKmh] {
+				seen[s.SpeedKmh] = true
+				speedsKmh = append(speedsKmh, s.SpeedKmh)
+			}
+			if sc.InnerLoop.UpdateRateHz > 0 {
+				x := fading.DopplerHz(s.SpeedKmh, g.CarrierFrequencyHz) / sc.InnerLoop.UpdateRateHz
+				lo, hi = math.Min(lo, x), math.Max(hi, x)
+			}
+		}
+	}
+	if math.IsInf(lo, 1) {
+		lo = 0
+	}
+	sort.Float64s(speedsKmh)
+	return lo, hi, speedsKmh
 }
 
 type settings struct {
@@ -553,6 +729,8 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 		Effort:     e.effort,
 		Seed:       seed,
 		TieRule:    TieRule,
+		Figures:    FigureLabels(),
+		Notice:     Notice,
 	}
 	for c, cd := range set.conds {
 		o := outs[c]
@@ -568,8 +746,8 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 				Feasible:   o.feasible[k],
 			}
 		}
-		cr.Decision = decision(o, pts)
-		cr.DopplerProductMax = DopplerProductMax(scs[o.chosen][c])
+		cr.Decision = decision(o, pts, req.Objective)
+		cr.DopplerProductMin, cr.DopplerProductMax, cr.SpeedsKmh = DopplerRange(scs[o.chosen][c])
 		rec.Conditions = append(rec.Conditions, cr)
 	}
 	if !req.SkipBaseline {
@@ -578,7 +756,7 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 		}
 	}
 	last := outs[len(outs)-1]
-	rec.Overall = decision(last, pts)
+	rec.Overall = decision(last, pts, req.Objective)
 	rec.OverallCandidates = make([]CandidateResult, len(pts))
 	for k := range pts {
 		rec.OverallCandidates[k] = CandidateResult{
@@ -587,16 +765,24 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 		}
 	}
 	for c := range rec.Conditions {
+		finishDecision(rec, &rec.Conditions[c].Decision, []int{c}, rec.Conditions[c].Candidates)
 		rec.Conditions[c].Decision.Reason = conditionReason(rec, c)
 	}
+	all := make([]int, len(rec.Conditions))
+	for c := range all {
+		all[c] = c
+	}
+	finishDecision(rec, &rec.Overall, all, rec.OverallCandidates)
 	rec.Overall.Reason = overallReason(rec)
 	return rec, nil
 }
 
-func decision(o scopeOutcome, pts []Point) Decision {
-	return Decision{
+func decision(o scopeOutcome, pts []Point, obj Objective) Decision {
+	d := Decision{
 		Best:             o.chosen,
 		Setting:          pts[o.chosen],
+		Ordering:         append([]int(nil), o.ordering...),
+		RankedBy:         obj.Figure(),
 		Declared:         o.declared,
 		TieSet:           append([]int(nil), o.tieSet...),
 		Leader:           o.best,
@@ -604,6 +790,33 @@ func decision(o scopeOutcome, pts []Point) Decision {
 		Evidence:         o.evidence,
 		ConstraintsUnmet: o.fallback,
 	}
+	if o.fallback {
+		d.RankedBy = FigureLabelOf(FigureConstraintExcess)
+	}
+	switch {
+	case o.fallback:
+		d.Verdict = VerdictConstraintsUnmet
+	case len(pts) == 1:
+		d.Verdict = VerdictSingle
+	case len(o.tieSet) > 1:
+		d.Verdict = VerdictTie
+	default:
+		d.Verdict = VerdictWinner
+	}
+	d.Declared = d.Verdict == VerdictWinner
+	if len(o.tieSet) > 1 {
+		other := o.best
+		if other == o.chosen {
+			for _, k := range o.tieSet {
+				if k != o.chosen {
+					other = k
+					break
+				}
+			}
+		}
+		d.TieBreak = tieKey(pts[o.chosen], pts[other])
+	}
+	return d
 }
 
 // runBaselines runs the fixed-power baseline of every condition on the seeds
@@ -664,12 +877,9 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 		return err
 	}
 	rec.Effort = e.effort
+	lab, judge := req.Objective.baselineJudge()
 	for c := range set.conds {
 		chosen := e.samples[outs[c].chosen][c]
-		judge := func(s Sample) float64 { return s.OutageProb }
-		if req.Objective.Kind == ObjectiveMinSIRErrorStd {
-			judge = func(s Sample) float64 { return s.SIRErrorStdDB }
-		}
 		a := make([]float64, len(chosen))
 		for r, s := range chosen {
 			a[r] = judge(s)
@@ -679,9 +889,20 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 			b[r] = judge(s)
 		}
 		gain, _ := pairedDiff(a, b, set.conf, nil)
-		bl := &Baseline{Figures: figures(samples[c], set.conf), Gain: gain}
-		ref := meanCI(b, set.conf).Mean
-		bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsFraction*math.Abs(ref)
+		bl := &Baseline{
+			Figures: figures(samples[c], set.conf), Figure: lab,
+			Fixed: meanCI(b, set.conf), Recommended: meanCI(a, set.conf), Gain: gain,
+		}
+		if lab.Key == "outage_probability" {
+			bl.Fixed = clampEstimate(bl.Fixed, 0, 1)
+			bl.Recommended = clampEstimate(bl.Recommended, 0, 1)
+		}
+		if req.Objective.Kind == ObjectiveMinTxPower {
+			bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsPowerDB
+		} else {
+			bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsFraction*math.Abs(bl.Fixed.Mean)
+		}
+		bl.Text = baselineText(rec, c, bl)
 		rec.Conditions[c].Baseline = bl
 	}
 	return nil
