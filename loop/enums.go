@@ -68,7 +68,7 @@ const (
 	CommandUnspecified Command = iota // not set; Normalise makes it FIXED_STEP
 	CommandFixedStep                  // one bit: ±step_db (3GPP TS 25.214 §5.1.2.2 algorithm 1 (memory))
 	CommandMultiLevel                 // one of levels_db chosen by thresholds_db (3GPP TS 36.213 §5.1.1.1 (memory))
-	CommandAdaptive                   // one bit, adaptive step (Jayant's one-bit-memory adaptive delta modulation)
+	CommandAdaptive                   // one bit, step step_db·AdaptiveRatio^j, j in [AdaptiveMinExp, AdaptiveMaxExp] = [−2, 2], up on a repeat, down on a reversal (Jayant 1970 one-bit-memory adaptive delta modulation; see control.go)
 )
 
 // InitialPower says how a closed-loop user picks its first transmit power.

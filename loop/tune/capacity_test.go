@@ -118,11 +118,11 @@ func capBase() loop.Scenario {
 	return base
 }
 
-// meanOutage runs the scenario directly with loop.Run at count n on the
-// capacity search's seeds and returns the mean outage over reps.
-func meanOutage(t *testing.T, base loop.Scenario, n, reps int) float64 {
+// direct runs the scenario directly with loop.Run at count n on the
+// capacity search's seeds and returns the mean outage and mean noise rise
+// (dB) over reps, and whether any replication was flagged infeasible.
+func direct(t *testing.T, base loop.Scenario, n, reps int) (outage, noiseRiseDB float64, infeasible bool) {
 	t.Helper()
-	var sum float64
 	for r := 0; r < reps; r++ {
 		sc := base
 		sc.Groups = append([]loop.UserGroup(nil), base.Groups...)
@@ -133,9 +133,11 @@ func meanOutage(t *testing.T, base loop.Scenario, n, reps int) float64 {
 		if err != nil {
 			t.Fatal(err)
 		}
-		sum += rep.Aggregate.OutageProbability.Value
+		outage += rep.Aggregate.OutageProbability.Value / float64(reps)
+		noiseRiseDB += rep.Aggregate.NoiseRiseMeanDB.Value / float64(reps)
+		infeasible = infeasible || rep.Feasibility.Infeasible
 	}
-	return sum / float64(reps)
+	return outage, noiseRiseDB, infeasible
 }
 
 func TestCapacityReal(t *testing.T) {
@@ -153,7 +155,9 @@ func TestCapacityReal(t *testing.T) {
 			if testing.Short() {
 				base.Run.Slots = 2000
 			}
-			req := CapacityRequest{Base: base, OutageLimit: lim, Replications: 3, MaxCount: 40}
+			// A noise-rise ceiling of 40 dB leaves the outage limit as the
+			// binding one (TestCapacityNoiseRiseLimit covers the other).
+			req := CapacityRequest{Base: base, OutageLimit: lim, NoiseRiseLimitDB: 40, Replications: 3, MaxCount: 40}
 			res, err := Capacity(context.Background(), req, Options{})
 			if err != nil {
 				t.Fatal(err)
@@ -167,11 +171,13 @@ func TestCapacityReal(t *testing.T) {
 				t.Fatalf("seed %d limit %g: capacity at the edge of the range: %+v", seed, lim, res)
 			}
 			// Direct runs at N (passes) and N+1 (fails) on the same seeds.
-			if o := meanOutage(t, base, res.Count, 3); o > lim {
-				t.Errorf("seed %d: direct outage at N=%d is %.4g > %g", seed, res.Count, o, lim)
+			// N+1 fails on outage or on an infeasible load, which never
+			// passes whatever its outage.
+			if o, _, inf := direct(t, base, res.Count, 3); o > lim || inf {
+				t.Errorf("seed %d: direct outage at N=%d is %.4g > %g or infeasible (%v)", seed, res.Count, o, lim, inf)
 			}
-			if o := meanOutage(t, base, res.Count+1, 3); o <= lim {
-				t.Errorf("seed %d: direct outage at N+1=%d is %.4g <= %g", seed, res.Count+1, o, lim)
+			if o, _, inf := direct(t, base, res.Count+1, 3); o <= lim && !inf {
+				t.Errorf("seed %d: direct outage at N+1=%d is %.4g <= %g and the load feasible", seed, res.Count+1, o, lim)
 			}
 			// Model pole (G_p+γ)/(γ·ν·(1+f)) = (64+3.1623)/(3.1623·1.2) = 17.70
 			// (derived from the single-receiver interference equation).

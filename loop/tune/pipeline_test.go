@@ -126,7 +126,7 @@ func TestTuneRejectsBadRequests(t *testing.T) {
 }
 
 // No axes: one candidate, the base setting; nothing to compare, no winner
-// declared, and the reason says it is the only setting.
+// declared: the verdict is VerdictSingle and the reason says so.
 func TestTuneSingleCandidate(t *testing.T) {
 	req := toyRequest()
 	req.Axes = nil
@@ -135,7 +135,8 @@ func TestTuneSingleCandidate(t *testing.T) {
 		t.Fatal(err)
 	}
 	d := rec.Overall
-	if len(rec.Candidates) != 1 || d.Best != 0 || d.Declared || d.RunnerUp != -1 || !strings.Contains(d.Reason, "only setting") {
+	if len(rec.Candidates) != 1 || d.Best != 0 || d.Declared || d.RunnerUp != -1 || d.Verdict != VerdictSingle ||
+		!strings.HasPrefix(d.Reason, "Single setting") || strings.Contains(strings.ToLower(d.Reason), "winner") {
 		t.Errorf("decision %+v", d)
 	}
 	if rec.Effort.Stages != 1 || rec.Effort.Replications != 3*DefaultMinReplications {

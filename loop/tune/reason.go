@@ -374,7 +374,7 @@ func stepHint(rec *Recommendation, c int) string {
 
 func sign(x float64) string {
 	if x < 0 {
-		return "−"
+		return "-"
 	}
 	return "+"
 }
@@ -422,13 +422,13 @@ func baselineHint(rec *Recommendation, c int) string {
 	}
 	why := "estimation error, delay or load dominate"
 	if cr.DopplerProductMin > fastFadingProduct {
-		why = fmt.Sprintf("at %s the loop cannot track", fdtText(cr))
+		why = fmt.Sprintf("at %s the loop cannot track the fades", fdtText(cr))
 	}
 	verb := "barely helps"
 	if bl.Gain.Mean <= 0 {
-		verb = "does not help (barely helps at best)"
+		verb = "does not help (it barely helps at best)"
 	}
-	return fmt.Sprintf("%s Power control %s here (%s).", bl.Text, verb, why)
+	return fmt.Sprintf("%s Power control %s here: %s.", bl.Text, verb, why)
 }
 
 func constraintHint(rec *Recommendation, d Decision, cands []CandidateResult) string {
@@ -497,7 +497,7 @@ func overallReason(rec *Recommendation) string {
 	var per []string
 	same := true
 	for _, cr := range rec.Conditions {
-		per = append(per, fmt.Sprintf("%s (%s) → %s", cr.Name, fdtText(cr), label(rec, cr.Decision.Best)))
+		per = append(per, fmt.Sprintf("%s (%s): %s", cr.Name, fdtText(cr), label(rec, cr.Decision.Best)))
 		if cr.Decision.Best != d.Best {
 			same = false
 		}

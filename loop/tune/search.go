@@ -269,7 +269,7 @@ type scopeOutcome struct {
 	evidence               Estimate // paired diff runner-up − best
 	declared               bool
 	tieSet                 []int
-	fallback               bool // constraints met by no candidate: ranked by Objective.Excess
+	fallback               bool  // constraints met by no candidate: ranked by Objective.Excess
 	ordering               []int // chosen first, then the rest of the tie set, then by class and diff
 	status                 []CandidateStatus
 	score                  []Estimate // objective per candidate

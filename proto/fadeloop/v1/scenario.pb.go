@@ -285,7 +285,12 @@ const (
 	Command_COMMAND_FIXED_STEP Command = 1
 	// A multi-level command chosen from levels_db by thresholds_db.
 	Command_COMMAND_MULTI_LEVEL Command = 2
-	// The adaptive-step rule of the engine, with step_db as its base step.
+	// One bit per slot with an adaptive step: Jayant's adaptive delta
+	// modulation with one-bit memory (Jayant, Bell Syst. Tech. J. 49(2),
+	// 1970), applied at the transmitter to the received commands. The step
+	// is step_db·K^j with K = 1.5; j starts at 0, rises by one when a command
+	// repeats the previous one and falls by one when it reverses, within
+	// [-2, 2] (steps 0.44·step_db to 2.25·step_db).
 	Command_COMMAND_ADAPTIVE Command = 3
 )
 

@@ -142,6 +142,129 @@ func (CandidateStatus) EnumDescriptor() ([]byte, []int) {
 	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{1}
 }
 
+// Verdict is the outcome of a decision; every table, plot and sentence
+// about the decision follows it.
+type Verdict int32
+
+const (
+	// Not set.
+	Verdict_VERDICT_UNSPECIFIED Verdict = 0
+	// The recommended candidate's paired difference to every other
+	// candidate that meets the constraints excludes zero at the stated
+	// confidence.
+	Verdict_VERDICT_WINNER Verdict = 1
+	// tie_set holds several candidates that cannot be told apart; best was
+	// picked by the tie rule (tie_break). Never a winner.
+	Verdict_VERDICT_TIE Verdict = 2
+	// No candidate meets the constraints; best is the closest and misses
+	// says by how much it misses each one.
+	Verdict_VERDICT_CONSTRAINTS_UNMET Verdict = 3
+	// Only one candidate; nothing was compared.
+	Verdict_VERDICT_SINGLE Verdict = 4
+)
+
+// Enum value maps for Verdict.
+var (
+	Verdict_name = map[int32]string{
+		0: "VERDICT_UNSPECIFIED",
+		1: "VERDICT_WINNER",
+		2: "VERDICT_TIE",
+		3: "VERDICT_CONSTRAINTS_UNMET",
+		4: "VERDICT_SINGLE",
+	}
+	Verdict_value = map[string]int32{
+		"VERDICT_UNSPECIFIED":       0,
+		"VERDICT_WINNER":            1,
+		"VERDICT_TIE":               2,
+		"VERDICT_CONSTRAINTS_UNMET": 3,
+		"VERDICT_SINGLE":            4,
+	}
+)
+
+func (x Verdict) Enum() *Verdict {
+	p := new(Verdict)
+	*p = x
+	return p
+}
+
+func (x Verdict) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (Verdict) Descriptor() protoreflect.EnumDescriptor {
+	return file_fadeloop_v1_tune_proto_enumTypes[2].Descriptor()
+}
+
+func (Verdict) Type() protoreflect.EnumType {
+	return &file_fadeloop_v1_tune_proto_enumTypes[2]
+}
+
+func (x Verdict) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use Verdict.Descriptor instead.
+func (Verdict) EnumDescriptor() ([]byte, []int) {
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{2}
+}
+
+// WarningKind classifies a warning about a recommended setting.
+type WarningKind int32
+
+const (
+	// Not set.
+	WarningKind_WARNING_KIND_UNSPECIFIED WarningKind = 0
+	// Outage above Objective.outage_warning in some condition.
+	WarningKind_WARNING_KIND_HIGH_OUTAGE WarningKind = 1
+	// The engine found the load infeasible in some replications.
+	WarningKind_WARNING_KIND_INFEASIBLE_LOAD WarningKind = 2
+	// The budget ran out with several candidates still in contention.
+	WarningKind_WARNING_KIND_BUDGET_EXHAUSTED WarningKind = 3
+)
+
+// Enum value maps for WarningKind.
+var (
+	WarningKind_name = map[int32]string{
+		0: "WARNING_KIND_UNSPECIFIED",
+		1: "WARNING_KIND_HIGH_OUTAGE",
+		2: "WARNING_KIND_INFEASIBLE_LOAD",
+		3: "WARNING_KIND_BUDGET_EXHAUSTED",
+	}
+	WarningKind_value = map[string]int32{
+		"WARNING_KIND_UNSPECIFIED":      0,
+		"WARNING_KIND_HIGH_OUTAGE":      1,
+		"WARNING_KIND_INFEASIBLE_LOAD":  2,
+		"WARNING_KIND_BUDGET_EXHAUSTED": 3,
+	}
+)
+
+func (x WarningKind) Enum() *WarningKind {
+	p := new(WarningKind)
+	*p = x
+	return p
+}
+
+func (x WarningKind) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (WarningKind) Descriptor() protoreflect.EnumDescriptor {
+	return file_fadeloop_v1_tune_proto_enumTypes[3].Descriptor()
+}
+
+func (WarningKind) Type() protoreflect.EnumType {
+	return &file_fadeloop_v1_tune_proto_enumTypes[3]
+}
+
+func (x WarningKind) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use WarningKind.Descriptor instead.
+func (WarningKind) EnumDescriptor() ([]byte, []int) {
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{3}
+}
+
 // Override sets one scenario field for a condition.
 type Override struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -316,20 +439,32 @@ type Objective struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The figure minimised.
 	Kind ObjectiveKind `protobuf:"varint,1,opt,name=kind,proto3,enum=fadeloop.v1.ObjectiveKind" json:"kind,omitempty"`
-	// Largest acceptable outage probability for OBJECTIVE_KIND_MIN_TX_POWER
-	// (required there), [0, 1); 0 for the other kinds.
+	// Largest acceptable outage probability, a constraint for every kind,
+	// [0, 1); 0 means none, except for OBJECTIVE_KIND_MIN_TX_POWER, which
+	// requires it in (0, 1). Candidates that meet every constraint (outage,
+	// noise rise, BLER) on their point estimates rank first; when none does
+	// the verdict is VERDICT_CONSTRAINTS_UNMET.
 	OutageLimit float64 `protobuf:"fixed64,2,opt,name=outage_limit,json=outageLimit,proto3" json:"outage_limit,omitempty"`
 	// Accepted relative deviation of the achieved BLER from its target,
-	// |BLER/τ − 1| <= tolerance, for OBJECTIVE_KIND_MIN_TX_POWER with the
-	// outer loop on. [0, 10]; 0 means 0.2.
+	// |BLER/τ − 1| <= tolerance, a constraint on candidates with the outer
+	// loop on: for OBJECTIVE_KIND_MIN_TX_POWER always (0 means 0.2), for the
+	// other kinds when set (> 0). [0, 10].
 	BlerTolerance float64 `protobuf:"fixed64,3,opt,name=bler_tolerance,json=blerTolerance,proto3" json:"bler_tolerance,omitempty"`
 	// Difference in the objective's unit (dB for SIR error std and Tx power,
 	// probability for outage) below which two settings count as equally
 	// good. [0, 1e3]; 0 means 0.05 dB, 0.1 dB or 2 % of the best outage (at
 	// least 1e-4) respectively.
 	IndifferenceZone float64 `protobuf:"fixed64,4,opt,name=indifference_zone,json=indifferenceZone,proto3" json:"indifference_zone,omitempty"`
-	unknownFields    protoimpl.UnknownFields
-	sizeCache        protoimpl.SizeCache
+	// Largest acceptable mean noise rise (rise over thermal) at the
+	// receiver in dB, a constraint for every kind; [0, 40], 0 means none.
+	NoiseRiseLimitDb float64 `protobuf:"fixed64,5,opt,name=noise_rise_limit_db,json=noiseRiseLimitDb,proto3" json:"noise_rise_limit_db,omitempty"`
+	// Outage probability above which the recommended setting carries a
+	// WARNING_KIND_HIGH_OUTAGE warning, [0, 1]; 0 means 0.10 (common
+	// practice: uplink coverage is dimensioned for a few per cent outage), 1
+	// turns the warning off.
+	OutageWarning float64 `protobuf:"fixed64,6,opt,name=outage_warning,json=outageWarning,proto3" json:"outage_warning,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Objective) Reset() {
@@ -386,6 +521,20 @@ func (x *Objective) GetBlerTolerance() float64 {
 func (x *Objective) GetIndifferenceZone() float64 {
 	if x != nil {
 		return x.IndifferenceZone
+	}
+	return 0
+}
+
+func (x *Objective) GetNoiseRiseLimitDb() float64 {
+	if x != nil {
+		return x.NoiseRiseLimitDb
+	}
+	return 0
+}
+
+func (x *Objective) GetOutageWarning() float64 {
+	if x != nil {
+		return x.OutageWarning
 	}
 	return 0
 }
@@ -866,11 +1015,13 @@ type CandidateResult struct {
 	Candidate int32 `protobuf:"varint,1,opt,name=candidate,proto3" json:"candidate,omitempty"`
 	// Every figure with its interval (per condition only).
 	Figures *TuneFigures `protobuf:"bytes,2,opt,name=figures,proto3" json:"figures,omitempty"`
-	// The figure minimised (weighted across conditions; the outage when no
-	// candidate met the Tx-power objective's constraints).
+	// The figure candidates were ranked by (weighted across conditions):
+	// the objective's figure, or the worst relative constraint excess when
+	// no candidate met the constraints (Decision.ranked_by labels it).
 	Objective *ReplicationEstimate `protobuf:"bytes,3,opt,name=objective,proto3" json:"objective,omitempty"`
-	// Paired difference of the objective, this candidate minus the leader,
-	// over their common replications (zero for the leader).
+	// Paired difference of the ranked figure, this candidate minus the
+	// recommended candidate (Decision.best), over their common replications
+	// (zero for best itself), in ranked_by.diff_unit.
 	DiffToBest *ReplicationEstimate `protobuf:"bytes,4,opt,name=diff_to_best,json=diffToBest,proto3" json:"diff_to_best,omitempty"`
 	// Status in the sequential procedure.
 	Status CandidateStatus `protobuf:"varint,5,opt,name=status,proto3,enum=fadeloop.v1.CandidateStatus" json:"status,omitempty"`
@@ -953,39 +1104,316 @@ func (x *CandidateResult) GetFeasible() bool {
 	return false
 }
 
-// Decision is the verdict in one condition or across conditions.
+// FigureLabel is the display name and units of a figure: the one source of
+// every column header, cell unit and sentence unit.
+type FigureLabel struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Field name of the figure in TuneFigures, e.g. "tx_power_mean_dbm";
+	// "constraint_excess" for the fallback ranking.
+	Key string `protobuf:"bytes,1,opt,name=key,proto3" json:"key,omitempty"`
+	// Display name, e.g. "mean Tx power".
+	Name string `protobuf:"bytes,2,opt,name=name,proto3" json:"name,omitempty"`
+	// Unit of a displayed value: "dB", "dBm", "%" or "% of limit".
+	Unit string `protobuf:"bytes,3,opt,name=unit,proto3" json:"unit,omitempty"`
+	// Unit of a displayed difference of two values: "dB" for dB and dBm
+	// figures, "percentage points" for proportions.
+	DiffUnit string `protobuf:"bytes,4,opt,name=diff_unit,json=diffUnit,proto3" json:"diff_unit,omitempty"`
+	// Displayed value = display_scale × stored value (100 for proportions,
+	// which are stored in [0, 1]).
+	DisplayScale float64 `protobuf:"fixed64,5,opt,name=display_scale,json=displayScale,proto3" json:"display_scale,omitempty"`
+	// Decimals shown.
+	Decimals      int32 `protobuf:"varint,6,opt,name=decimals,proto3" json:"decimals,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *FigureLabel) Reset() {
+	*x = FigureLabel{}
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[10]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FigureLabel) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FigureLabel) ProtoMessage() {}
+
+func (x *FigureLabel) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[10]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FigureLabel.ProtoReflect.Descriptor instead.
+func (*FigureLabel) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{10}
+}
+
+func (x *FigureLabel) GetKey() string {
+	if x != nil {
+		return x.Key
+	}
+	return ""
+}
+
+func (x *FigureLabel) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *FigureLabel) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *FigureLabel) GetDiffUnit() string {
+	if x != nil {
+		return x.DiffUnit
+	}
+	return ""
+}
+
+func (x *FigureLabel) GetDisplayScale() float64 {
+	if x != nil {
+		return x.DisplayScale
+	}
+	return 0
+}
+
+func (x *FigureLabel) GetDecimals() int32 {
+	if x != nil {
+		return x.Decimals
+	}
+	return 0
+}
+
+// ConstraintMiss is by how much the recommended candidate misses one
+// constraint in one condition, on the point estimates.
+type ConstraintMiss struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Name of the condition.
+	Condition string `protobuf:"bytes,1,opt,name=condition,proto3" json:"condition,omitempty"`
+	// FigureLabel key of the constrained figure: "outage_probability",
+	// "noise_rise_mean_db" or "achieved_bler".
+	Figure string `protobuf:"bytes,2,opt,name=figure,proto3" json:"figure,omitempty"`
+	// The candidate's figure, in the figure's stored unit (probability, dB).
+	Value float64 `protobuf:"fixed64,3,opt,name=value,proto3" json:"value,omitempty"`
+	// The bound missed (for the BLER the nearer edge of τ·(1 ± tolerance)).
+	Limit float64 `protobuf:"fixed64,4,opt,name=limit,proto3" json:"limit,omitempty"`
+	// The bound is an upper bound (value above it); otherwise a lower one.
+	Upper bool `protobuf:"varint,5,opt,name=upper,proto3" json:"upper,omitempty"`
+	// |value − limit| > 0, in the figure's stored unit.
+	Excess float64 `protobuf:"fixed64,6,opt,name=excess,proto3" json:"excess,omitempty"`
+	// The miss in words with units.
+	Text          string `protobuf:"bytes,7,opt,name=text,proto3" json:"text,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ConstraintMiss) Reset() {
+	*x = ConstraintMiss{}
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[11]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ConstraintMiss) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ConstraintMiss) ProtoMessage() {}
+
+func (x *ConstraintMiss) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[11]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ConstraintMiss.ProtoReflect.Descriptor instead.
+func (*ConstraintMiss) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{11}
+}
+
+func (x *ConstraintMiss) GetCondition() string {
+	if x != nil {
+		return x.Condition
+	}
+	return ""
+}
+
+func (x *ConstraintMiss) GetFigure() string {
+	if x != nil {
+		return x.Figure
+	}
+	return ""
+}
+
+func (x *ConstraintMiss) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+func (x *ConstraintMiss) GetLimit() float64 {
+	if x != nil {
+		return x.Limit
+	}
+	return 0
+}
+
+func (x *ConstraintMiss) GetUpper() bool {
+	if x != nil {
+		return x.Upper
+	}
+	return false
+}
+
+func (x *ConstraintMiss) GetExcess() float64 {
+	if x != nil {
+		return x.Excess
+	}
+	return 0
+}
+
+func (x *ConstraintMiss) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
+// DecisionWarning is one warning: a kind and a sentence with units.
+type DecisionWarning struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// What the warning is about.
+	Kind WarningKind `protobuf:"varint,1,opt,name=kind,proto3,enum=fadeloop.v1.WarningKind" json:"kind,omitempty"`
+	// The sentence to print.
+	Text          string `protobuf:"bytes,2,opt,name=text,proto3" json:"text,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *DecisionWarning) Reset() {
+	*x = DecisionWarning{}
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[12]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *DecisionWarning) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*DecisionWarning) ProtoMessage() {}
+
+func (x *DecisionWarning) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[12]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use DecisionWarning.ProtoReflect.Descriptor instead.
+func (*DecisionWarning) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{12}
+}
+
+func (x *DecisionWarning) GetKind() WarningKind {
+	if x != nil {
+		return x.Kind
+	}
+	return WarningKind_WARNING_KIND_UNSPECIFIED
+}
+
+func (x *DecisionWarning) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
+// Decision is the verdict in one condition or across conditions. verdict
+// is the outcome; best (== ordering[0]) is the one recommended candidate
+// that every table's first row, every plot's marked cell and every line
+// names.
 type Decision struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The recommended candidate's grid index.
+	// The recommended candidate's grid index; equal to ordering[0].
 	Best int32 `protobuf:"varint,1,opt,name=best,proto3" json:"best,omitempty"`
 	// The recommended setting.
 	Setting *GridPoint `protobuf:"bytes,2,opt,name=setting,proto3" json:"setting,omitempty"`
-	// The leader's paired difference to every other surviving candidate
-	// excludes zero at the stated confidence: best is a winner, not a pick
-	// from a tie.
+	// verdict == VERDICT_WINNER.
 	Declared bool `protobuf:"varint,3,opt,name=declared,proto3" json:"declared,omitempty"`
-	// Candidates not distinguishable from the leader (leader first); with
-	// more than one, best was picked by the tie rule.
+	// Candidates not distinguishable from the best point estimate (that one
+	// first); with more than one, best was picked by the tie rule.
 	TieSet []int32 `protobuf:"varint,4,rep,packed,name=tie_set,json=tieSet,proto3" json:"tie_set,omitempty"`
-	// Candidate with the best point estimate.
+	// Candidate with the best point estimate; differs from best only in a
+	// tie. Name best, not this, as the recommendation.
 	Leader int32 `protobuf:"varint,5,opt,name=leader,proto3" json:"leader,omitempty"`
-	// Closest other candidate, -1 with a single candidate.
+	// ordering[1], the closest other candidate; -1 with a single candidate.
 	RunnerUp int32 `protobuf:"varint,6,opt,name=runner_up,json=runnerUp,proto3" json:"runner_up,omitempty"`
-	// Paired difference runner-up minus leader on the objective, with its
-	// interval (positive: the runner-up is worse).
+	// Paired difference runner-up minus best on ranked_by, with its interval
+	// (positive: the runner-up is worse), in ranked_by.diff_unit.
 	Evidence *ReplicationEstimate `protobuf:"bytes,7,opt,name=evidence,proto3" json:"evidence,omitempty"`
-	// No candidate met the Tx-power objective's constraints; candidates were
-	// ranked by outage instead.
+	// No candidate met the constraints (verdict VERDICT_CONSTRAINTS_UNMET);
+	// candidates were ranked by their worst relative constraint excess.
 	ConstraintsUnmet bool `protobuf:"varint,8,opt,name=constraints_unmet,json=constraintsUnmet,proto3" json:"constraints_unmet,omitempty"`
-	// Short plain-language account built from the figures.
-	Reason        string `protobuf:"bytes,9,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Plain-language account built from the figures of this scope; starts
+	// with headline.
+	Reason string `protobuf:"bytes,9,opt,name=reason,proto3" json:"reason,omitempty"`
+	// The outcome.
+	Verdict Verdict `protobuf:"varint,10,opt,name=verdict,proto3,enum=fadeloop.v1.Verdict" json:"verdict,omitempty"`
+	// Every candidate, best first: best, the rest of the tie set in tie-rule
+	// order, then candidates meeting the constraints before those missing
+	// them, each by paired difference to best. Tables list rows in this
+	// order.
+	Ordering []int32 `protobuf:"varint,11,rep,packed,name=ordering,proto3" json:"ordering,omitempty"`
+	// The figure candidates were ranked by (the objective's, or the
+	// constraint excess when the constraints were met by none).
+	RankedBy *FigureLabel `protobuf:"bytes,12,opt,name=ranked_by,json=rankedBy,proto3" json:"ranked_by,omitempty"`
+	// The tie rule key that put best first in the tie set, e.g. "smaller
+	// inner_loop.step_db"; empty without a tie.
+	TieBreak string `protobuf:"bytes,13,opt,name=tie_break,json=tieBreak,proto3" json:"tie_break,omitempty"`
+	// With constraints_unmet: every constraint best misses, per condition.
+	Misses []*ConstraintMiss `protobuf:"bytes,14,rep,name=misses,proto3" json:"misses,omitempty"`
+	// Warnings about the recommended setting.
+	Warnings []*DecisionWarning `protobuf:"bytes,15,rep,name=warnings,proto3" json:"warnings,omitempty"`
+	// First line of every text output of this decision (an unmet
+	// constraint is said here first).
+	Headline string `protobuf:"bytes,16,opt,name=headline,proto3" json:"headline,omitempty"`
+	// The runner-up's line with its paired difference and interval.
+	RunnerUpLine  string `protobuf:"bytes,17,opt,name=runner_up_line,json=runnerUpLine,proto3" json:"runner_up_line,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Decision) Reset() {
 	*x = Decision{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[10]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -997,7 +1425,7 @@ func (x *Decision) String() string {
 func (*Decision) ProtoMessage() {}
 
 func (x *Decision) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[10]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1010,7 +1438,7 @@ func (x *Decision) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Decision.ProtoReflect.Descriptor instead.
 func (*Decision) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{10}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *Decision) GetBest() int32 {
@@ -1076,6 +1504,62 @@ func (x *Decision) GetReason() string {
 	return ""
 }
 
+func (x *Decision) GetVerdict() Verdict {
+	if x != nil {
+		return x.Verdict
+	}
+	return Verdict_VERDICT_UNSPECIFIED
+}
+
+func (x *Decision) GetOrdering() []int32 {
+	if x != nil {
+		return x.Ordering
+	}
+	return nil
+}
+
+func (x *Decision) GetRankedBy() *FigureLabel {
+	if x != nil {
+		return x.RankedBy
+	}
+	return nil
+}
+
+func (x *Decision) GetTieBreak() string {
+	if x != nil {
+		return x.TieBreak
+	}
+	return ""
+}
+
+func (x *Decision) GetMisses() []*ConstraintMiss {
+	if x != nil {
+		return x.Misses
+	}
+	return nil
+}
+
+func (x *Decision) GetWarnings() []*DecisionWarning {
+	if x != nil {
+		return x.Warnings
+	}
+	return nil
+}
+
+func (x *Decision) GetHeadline() string {
+	if x != nil {
+		return x.Headline
+	}
+	return ""
+}
+
+func (x *Decision) GetRunnerUpLine() string {
+	if x != nil {
+		return x.RunnerUpLine
+	}
+	return ""
+}
+
 // Baseline is the no-power-control reference of one condition: the base
 // scenario under that condition with inner_loop.mode INNER_MODE_FIXED_POWER,
 // on the recommended candidate's replication seeds.
@@ -1084,20 +1568,28 @@ type Baseline struct {
 	// Figures at fixed power.
 	Figures *TuneFigures `protobuf:"bytes,1,opt,name=figures,proto3" json:"figures,omitempty"`
 	// Paired improvement of the recommended setting over fixed power on the
-	// judged figure (baseline minus recommended; positive: power control
-	// helps): SIR error std in dB for that objective, outage probability
-	// otherwise.
+	// judged figure (fixed minus recommended; positive: power control helps),
+	// in figure.diff_unit: SIR error std in dB, outage as a probability, mean
+	// Tx power in dB (power saved).
 	Gain *ReplicationEstimate `protobuf:"bytes,2,opt,name=gain,proto3" json:"gain,omitempty"`
-	// The gain's interval reaches zero or the gain is below 10 % of the
-	// baseline's figure.
-	BarelyHelps   bool `protobuf:"varint,3,opt,name=barely_helps,json=barelyHelps,proto3" json:"barely_helps,omitempty"`
+	// The gain's interval reaches zero, or the gain is below 10 % of the
+	// fixed-power figure (SIR error std, outage) or below 1 dB (Tx power).
+	BarelyHelps bool `protobuf:"varint,3,opt,name=barely_helps,json=barelyHelps,proto3" json:"barely_helps,omitempty"`
+	// The judged figure: the objective's own.
+	Figure *FigureLabel `protobuf:"bytes,4,opt,name=figure,proto3" json:"figure,omitempty"`
+	// The judged figure at fixed power, in its stored unit.
+	Fixed *ReplicationEstimate `protobuf:"bytes,5,opt,name=fixed,proto3" json:"fixed,omitempty"`
+	// The judged figure at the recommended setting, in its stored unit.
+	Recommended *ReplicationEstimate `protobuf:"bytes,6,opt,name=recommended,proto3" json:"recommended,omitempty"`
+	// The comparison in one line with units.
+	Text          string `protobuf:"bytes,7,opt,name=text,proto3" json:"text,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Baseline) Reset() {
 	*x = Baseline{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[11]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1109,7 +1601,7 @@ func (x *Baseline) String() string {
 func (*Baseline) ProtoMessage() {}
 
 func (x *Baseline) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[11]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1122,7 +1614,7 @@ func (x *Baseline) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Baseline.ProtoReflect.Descriptor instead.
 func (*Baseline) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{11}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *Baseline) GetFigures() *TuneFigures {
@@ -1146,6 +1638,34 @@ func (x *Baseline) GetBarelyHelps() bool {
 	return false
 }
 
+func (x *Baseline) GetFigure() *FigureLabel {
+	if x != nil {
+		return x.Figure
+	}
+	return nil
+}
+
+func (x *Baseline) GetFixed() *ReplicationEstimate {
+	if x != nil {
+		return x.Fixed
+	}
+	return nil
+}
+
+func (x *Baseline) GetRecommended() *ReplicationEstimate {
+	if x != nil {
+		return x.Recommended
+	}
+	return nil
+}
+
+func (x *Baseline) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
 // ConditionResult is everything about one condition.
 type ConditionResult struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1162,13 +1682,17 @@ type ConditionResult struct {
 	// Largest f_D·T over the users of the recommended setting (f_D = v·f_c/c,
 	// T = 1/update_rate_hz), dimensionless.
 	DopplerProductMax float64 `protobuf:"fixed64,6,opt,name=doppler_product_max,json=dopplerProductMax,proto3" json:"doppler_product_max,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// Smallest f_D·T over the same users.
+	DopplerProductMin float64 `protobuf:"fixed64,7,opt,name=doppler_product_min,json=dopplerProductMin,proto3" json:"doppler_product_min,omitempty"`
+	// Distinct user speeds of the condition in km/h, ascending.
+	SpeedsKmh     []float64 `protobuf:"fixed64,8,rep,packed,name=speeds_kmh,json=speedsKmh,proto3" json:"speeds_kmh,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *ConditionResult) Reset() {
 	*x = ConditionResult{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[12]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1180,7 +1704,7 @@ func (x *ConditionResult) String() string {
 func (*ConditionResult) ProtoMessage() {}
 
 func (x *ConditionResult) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[12]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1193,7 +1717,7 @@ func (x *ConditionResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ConditionResult.ProtoReflect.Descriptor instead.
 func (*ConditionResult) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{12}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *ConditionResult) GetName() string {
@@ -1238,6 +1762,20 @@ func (x *ConditionResult) GetDopplerProductMax() float64 {
 	return 0
 }
 
+func (x *ConditionResult) GetDopplerProductMin() float64 {
+	if x != nil {
+		return x.DopplerProductMin
+	}
+	return 0
+}
+
+func (x *ConditionResult) GetSpeedsKmh() []float64 {
+	if x != nil {
+		return x.SpeedsKmh
+	}
+	return nil
+}
+
 // TuneEffort is the work a search spent.
 type TuneEffort struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1268,7 +1806,7 @@ type TuneEffort struct {
 
 func (x *TuneEffort) Reset() {
 	*x = TuneEffort{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[13]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1280,7 +1818,7 @@ func (x *TuneEffort) String() string {
 func (*TuneEffort) ProtoMessage() {}
 
 func (x *TuneEffort) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[13]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1293,7 +1831,7 @@ func (x *TuneEffort) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use TuneEffort.ProtoReflect.Descriptor instead.
 func (*TuneEffort) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{13}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *TuneEffort) GetReplications() int64 {
@@ -1374,14 +1912,20 @@ type Recommendation struct {
 	// The base scenario's run.seed.
 	Seed uint64 `protobuf:"varint,8,opt,name=seed,proto3" json:"seed,omitempty"`
 	// How ties are broken.
-	TieRule       string `protobuf:"bytes,9,opt,name=tie_rule,json=tieRule,proto3" json:"tie_rule,omitempty"`
+	TieRule string `protobuf:"bytes,9,opt,name=tie_rule,json=tieRule,proto3" json:"tie_rule,omitempty"`
+	// Labels (name, units, display scale) of the seven TuneFigures fields,
+	// in field order.
+	Figures []*FigureLabel `protobuf:"bytes,10,rep,name=figures,proto3" json:"figures,omitempty"`
+	// Printed with every recommendation: simulated settings do not replace
+	// the operator's planning, regulatory limits or licensed practice.
+	Notice        string `protobuf:"bytes,11,opt,name=notice,proto3" json:"notice,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Recommendation) Reset() {
 	*x = Recommendation{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[14]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1393,7 +1937,7 @@ func (x *Recommendation) String() string {
 func (*Recommendation) ProtoMessage() {}
 
 func (x *Recommendation) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[14]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1406,7 +1950,7 @@ func (x *Recommendation) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Recommendation.ProtoReflect.Descriptor instead.
 func (*Recommendation) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{14}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *Recommendation) GetObjective() *Objective {
@@ -1472,6 +2016,20 @@ func (x *Recommendation) GetTieRule() string {
 	return ""
 }
 
+func (x *Recommendation) GetFigures() []*FigureLabel {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
+func (x *Recommendation) GetNotice() string {
+	if x != nil {
+		return x.Notice
+	}
+	return ""
+}
+
 // TuneResponse is one event of a Tune stream: progress events, then exactly
 // one recommendation, which ends the stream.
 type TuneResponse struct {
@@ -1489,7 +2047,7 @@ type TuneResponse struct {
 
 func (x *TuneResponse) Reset() {
 	*x = TuneResponse{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[15]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1501,7 +2059,7 @@ func (x *TuneResponse) String() string {
 func (*TuneResponse) ProtoMessage() {}
 
 func (x *TuneResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[15]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1514,7 +2072,7 @@ func (x *TuneResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use TuneResponse.ProtoReflect.Descriptor instead.
 func (*TuneResponse) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{15}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *TuneResponse) GetEvent() isTuneResponse_Event {
@@ -1572,7 +2130,9 @@ type CapacityRequest struct {
 	// uniform. [0, 63].
 	Group int32 `protobuf:"varint,2,opt,name=group,proto3" json:"group,omitempty"`
 	// Largest acceptable aggregate outage probability, (0, 1). A count
-	// passes when the mean outage over the replications is at or below it.
+	// passes when the mean outage over the replications is at or below it,
+	// the mean noise rise at or below noise_rise_limit_db, and no
+	// replication's load is infeasible.
 	OutageLimit float64 `protobuf:"fixed64,3,opt,name=outage_limit,json=outageLimit,proto3" json:"outage_limit,omitempty"`
 	// Smallest count of the group tried, [0, 4096]; 0 means 1.
 	MinCount int32 `protobuf:"varint,4,opt,name=min_count,json=minCount,proto3" json:"min_count,omitempty"`
@@ -1589,13 +2149,18 @@ type CapacityRequest struct {
 	// Minimum interval in ms between progress events; 0 means the server's
 	// default (250 ms). [0, 60000].
 	ProgressIntervalMs int32 `protobuf:"varint,9,opt,name=progress_interval_ms,json=progressIntervalMs,proto3" json:"progress_interval_ms,omitempty"`
-	unknownFields      protoimpl.UnknownFields
-	sizeCache          protoimpl.SizeCache
+	// Largest acceptable mean noise rise (rise over thermal) in dB, [0, 40];
+	// 0 means 6 dB, an uplink load factor of 75 % (common practice: uplink
+	// planning keeps the load at 50-75 %, 3-6 dB of noise rise, because
+	// near the pole each further user costs a steep power increase).
+	NoiseRiseLimitDb float64 `protobuf:"fixed64,10,opt,name=noise_rise_limit_db,json=noiseRiseLimitDb,proto3" json:"noise_rise_limit_db,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *CapacityRequest) Reset() {
 	*x = CapacityRequest{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[16]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1607,7 +2172,7 @@ func (x *CapacityRequest) String() string {
 func (*CapacityRequest) ProtoMessage() {}
 
 func (x *CapacityRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[16]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1620,7 +2185,7 @@ func (x *CapacityRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CapacityRequest.ProtoReflect.Descriptor instead.
 func (*CapacityRequest) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{16}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *CapacityRequest) GetBase() *Scenario {
@@ -1686,6 +2251,13 @@ func (x *CapacityRequest) GetProgressIntervalMs() int32 {
 	return 0
 }
 
+func (x *CapacityRequest) GetNoiseRiseLimitDb() float64 {
+	if x != nil {
+		return x.NoiseRiseLimitDb
+	}
+	return 0
+}
+
 // PoleParams are the inputs of the pole-capacity estimate.
 type PoleParams struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1707,7 +2279,7 @@ type PoleParams struct {
 
 func (x *PoleParams) Reset() {
 	*x = PoleParams{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[17]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1719,7 +2291,7 @@ func (x *PoleParams) String() string {
 func (*PoleParams) ProtoMessage() {}
 
 func (x *PoleParams) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[17]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1732,7 +2304,7 @@ func (x *PoleParams) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PoleParams.ProtoReflect.Descriptor instead.
 func (*PoleParams) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{17}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{20}
 }
 
 func (x *PoleParams) GetChipRateHz() float64 {
@@ -1784,17 +2356,24 @@ type CapacityPoint struct {
 	Count int32 `protobuf:"varint,1,opt,name=count,proto3" json:"count,omitempty"`
 	// Users over all groups at that count.
 	TotalUsers int32 `protobuf:"varint,2,opt,name=total_users,json=totalUsers,proto3" json:"total_users,omitempty"`
-	// Mean outage <= the limit.
+	// outage_ok && noise_rise_ok && load_feasible.
 	Pass bool `protobuf:"varint,3,opt,name=pass,proto3" json:"pass,omitempty"`
 	// Figures at that count.
-	Figures       *TuneFigures `protobuf:"bytes,4,opt,name=figures,proto3" json:"figures,omitempty"`
+	Figures *TuneFigures `protobuf:"bytes,4,opt,name=figures,proto3" json:"figures,omitempty"`
+	// Mean outage <= outage_limit.
+	OutageOk bool `protobuf:"varint,5,opt,name=outage_ok,json=outageOk,proto3" json:"outage_ok,omitempty"`
+	// Mean noise rise <= noise_rise_limit_db.
+	NoiseRiseOk bool `protobuf:"varint,6,opt,name=noise_rise_ok,json=noiseRiseOk,proto3" json:"noise_rise_ok,omitempty"`
+	// No replication flagged infeasible by the engine (load factor or
+	// spectral radius >= 1, or users pinned at maximum power).
+	LoadFeasible  bool `protobuf:"varint,7,opt,name=load_feasible,json=loadFeasible,proto3" json:"load_feasible,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *CapacityPoint) Reset() {
 	*x = CapacityPoint{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[18]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1806,7 +2385,7 @@ func (x *CapacityPoint) String() string {
 func (*CapacityPoint) ProtoMessage() {}
 
 func (x *CapacityPoint) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[18]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1819,7 +2398,7 @@ func (x *CapacityPoint) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CapacityPoint.ProtoReflect.Descriptor instead.
 func (*CapacityPoint) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{18}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *CapacityPoint) GetCount() int32 {
@@ -1848,6 +2427,27 @@ func (x *CapacityPoint) GetFigures() *TuneFigures {
 		return x.Figures
 	}
 	return nil
+}
+
+func (x *CapacityPoint) GetOutageOk() bool {
+	if x != nil {
+		return x.OutageOk
+	}
+	return false
+}
+
+func (x *CapacityPoint) GetNoiseRiseOk() bool {
+	if x != nil {
+		return x.NoiseRiseOk
+	}
+	return false
+}
+
+func (x *CapacityPoint) GetLoadFeasible() bool {
+	if x != nil {
+		return x.LoadFeasible
+	}
+	return false
 }
 
 // CapacityResult is the answer of Capacity.
@@ -1888,14 +2488,26 @@ type CapacityResult struct {
 	Reason string `protobuf:"bytes,15,opt,name=reason,proto3" json:"reason,omitempty"`
 	// Wall-clock time of the call in s (the only field that differs between
 	// identical requests).
-	WallTimeS     float64 `protobuf:"fixed64,16,opt,name=wall_time_s,json=wallTimeS,proto3" json:"wall_time_s,omitempty"`
+	WallTimeS float64 `protobuf:"fixed64,16,opt,name=wall_time_s,json=wallTimeS,proto3" json:"wall_time_s,omitempty"`
+	// The outage limit applied.
+	OutageLimit float64 `protobuf:"fixed64,17,opt,name=outage_limit,json=outageLimit,proto3" json:"outage_limit,omitempty"`
+	// The noise-rise limit applied in dB (default filled in).
+	NoiseRiseLimitDb float64 `protobuf:"fixed64,18,opt,name=noise_rise_limit_db,json=noiseRiseLimitDb,proto3" json:"noise_rise_limit_db,omitempty"`
+	// What failed at the smallest failing count above count:
+	// "outage_probability", "noise_rise_mean_db", "infeasible_load".
+	LimitedBy []string `protobuf:"bytes,19,rep,name=limited_by,json=limitedBy,proto3" json:"limited_by,omitempty"`
+	// First line of every text output.
+	Headline string `protobuf:"bytes,20,opt,name=headline,proto3" json:"headline,omitempty"`
+	// Printed with every result: simulated capacities do not replace the
+	// operator's planning, regulatory limits or licensed practice.
+	Notice        string `protobuf:"bytes,21,opt,name=notice,proto3" json:"notice,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *CapacityResult) Reset() {
 	*x = CapacityResult{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[19]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1907,7 +2519,7 @@ func (x *CapacityResult) String() string {
 func (*CapacityResult) ProtoMessage() {}
 
 func (x *CapacityResult) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[19]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1920,7 +2532,7 @@ func (x *CapacityResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CapacityResult.ProtoReflect.Descriptor instead.
 func (*CapacityResult) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{19}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *CapacityResult) GetCount() int32 {
@@ -2035,6 +2647,41 @@ func (x *CapacityResult) GetWallTimeS() float64 {
 	return 0
 }
 
+func (x *CapacityResult) GetOutageLimit() float64 {
+	if x != nil {
+		return x.OutageLimit
+	}
+	return 0
+}
+
+func (x *CapacityResult) GetNoiseRiseLimitDb() float64 {
+	if x != nil {
+		return x.NoiseRiseLimitDb
+	}
+	return 0
+}
+
+func (x *CapacityResult) GetLimitedBy() []string {
+	if x != nil {
+		return x.LimitedBy
+	}
+	return nil
+}
+
+func (x *CapacityResult) GetHeadline() string {
+	if x != nil {
+		return x.Headline
+	}
+	return ""
+}
+
+func (x *CapacityResult) GetNotice() string {
+	if x != nil {
+		return x.Notice
+	}
+	return ""
+}
+
 // CapacityResponse is one event of a Capacity stream: progress events, then
 // exactly one result, which ends the stream.
 type CapacityResponse struct {
@@ -2052,7 +2699,7 @@ type CapacityResponse struct {
 
 func (x *CapacityResponse) Reset() {
 	*x = CapacityResponse{}
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[20]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[23]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2064,7 +2711,7 @@ func (x *CapacityResponse) String() string {
 func (*CapacityResponse) ProtoMessage() {}
 
 func (x *CapacityResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_tune_proto_msgTypes[20]
+	mi := &file_fadeloop_v1_tune_proto_msgTypes[23]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2077,7 +2724,7 @@ func (x *CapacityResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CapacityResponse.ProtoReflect.Descriptor instead.
 func (*CapacityResponse) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{20}
+	return file_fadeloop_v1_tune_proto_rawDescGZIP(), []int{23}
 }
 
 func (x *CapacityResponse) GetEvent() isCapacityResponse_Event {
@@ -2137,13 +2784,15 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\tCondition\x12\x1d\n" +
 	"\x04name\x18\x01 \x01(\tB\t\xbaH\x06r\x04\x10\x01\x18@R\x04name\x12/\n" +
 	"\x06weight\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00R\x06weight\x12=\n" +
-	"\toverrides\x18\x03 \x03(\v2\x15.fadeloop.v1.OverrideB\b\xbaH\x05\x92\x01\x02\x10@R\toverrides\"\xc0\x03\n" +
+	"\toverrides\x18\x03 \x03(\v2\x15.fadeloop.v1.OverrideB\b\xbaH\x05\x92\x01\x02\x10@R\toverrides\"\xc8\x04\n" +
 	"\tObjective\x12:\n" +
 	"\x04kind\x18\x01 \x01(\x0e2\x1a.fadeloop.v1.ObjectiveKindB\n" +
 	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\x04kind\x12:\n" +
 	"\foutage_limit\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00R\voutageLimit\x12>\n" +
 	"\x0ebler_tolerance\x18\x03 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00R\rblerTolerance\x12D\n" +
-	"\x11indifference_zone\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\x10indifferenceZone:\xb4\x01\xbaH\xb0\x01\x1a\xad\x01\n" +
+	"\x11indifference_zone\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\x10indifferenceZone\x12F\n" +
+	"\x13noise_rise_limit_db\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00D@)\x00\x00\x00\x00\x00\x00\x00\x00R\x10noiseRiseLimitDb\x12>\n" +
+	"\x0eoutage_warning\x18\x06 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00R\routageWarning:\xb4\x01\xbaH\xb0\x01\x1a\xad\x01\n" +
 	"\x1fobjective.outage_limit_required\x12Boutage_limit in (0, 1) is required for OBJECTIVE_KIND_MIN_TX_POWER\x1aFthis.kind != 3 || (this.outage_limit > 0.0 && this.outage_limit < 1.0)\"\xe6\x01\n" +
 	"\n" +
 	"TuneBudget\x128\n" +
@@ -2188,7 +2837,25 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\fdiff_to_best\x18\x04 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\n" +
 	"diffToBest\x124\n" +
 	"\x06status\x18\x05 \x01(\x0e2\x1c.fadeloop.v1.CandidateStatusR\x06status\x12\x1a\n" +
-	"\bfeasible\x18\x06 \x01(\bR\bfeasible\"\xbd\x02\n" +
+	"\bfeasible\x18\x06 \x01(\bR\bfeasible\"\xa5\x01\n" +
+	"\vFigureLabel\x12\x10\n" +
+	"\x03key\x18\x01 \x01(\tR\x03key\x12\x12\n" +
+	"\x04name\x18\x02 \x01(\tR\x04name\x12\x12\n" +
+	"\x04unit\x18\x03 \x01(\tR\x04unit\x12\x1b\n" +
+	"\tdiff_unit\x18\x04 \x01(\tR\bdiffUnit\x12#\n" +
+	"\rdisplay_scale\x18\x05 \x01(\x01R\fdisplayScale\x12\x1a\n" +
+	"\bdecimals\x18\x06 \x01(\x05R\bdecimals\"\xb4\x01\n" +
+	"\x0eConstraintMiss\x12\x1c\n" +
+	"\tcondition\x18\x01 \x01(\tR\tcondition\x12\x16\n" +
+	"\x06figure\x18\x02 \x01(\tR\x06figure\x12\x14\n" +
+	"\x05value\x18\x03 \x01(\x01R\x05value\x12\x14\n" +
+	"\x05limit\x18\x04 \x01(\x01R\x05limit\x12\x14\n" +
+	"\x05upper\x18\x05 \x01(\bR\x05upper\x12\x16\n" +
+	"\x06excess\x18\x06 \x01(\x01R\x06excess\x12\x12\n" +
+	"\x04text\x18\a \x01(\tR\x04text\"S\n" +
+	"\x0fDecisionWarning\x12,\n" +
+	"\x04kind\x18\x01 \x01(\x0e2\x18.fadeloop.v1.WarningKindR\x04kind\x12\x12\n" +
+	"\x04text\x18\x02 \x01(\tR\x04text\"\x8e\x05\n" +
 	"\bDecision\x12\x12\n" +
 	"\x04best\x18\x01 \x01(\x05R\x04best\x120\n" +
 	"\asetting\x18\x02 \x01(\v2\x16.fadeloop.v1.GridPointR\asetting\x12\x1a\n" +
@@ -2198,11 +2865,24 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\trunner_up\x18\x06 \x01(\x05R\brunnerUp\x12<\n" +
 	"\bevidence\x18\a \x01(\v2 .fadeloop.v1.ReplicationEstimateR\bevidence\x12+\n" +
 	"\x11constraints_unmet\x18\b \x01(\bR\x10constraintsUnmet\x12\x16\n" +
-	"\x06reason\x18\t \x01(\tR\x06reason\"\x97\x01\n" +
+	"\x06reason\x18\t \x01(\tR\x06reason\x12.\n" +
+	"\averdict\x18\n" +
+	" \x01(\x0e2\x14.fadeloop.v1.VerdictR\averdict\x12\x1a\n" +
+	"\bordering\x18\v \x03(\x05R\bordering\x125\n" +
+	"\tranked_by\x18\f \x01(\v2\x18.fadeloop.v1.FigureLabelR\brankedBy\x12\x1b\n" +
+	"\ttie_break\x18\r \x01(\tR\btieBreak\x123\n" +
+	"\x06misses\x18\x0e \x03(\v2\x1b.fadeloop.v1.ConstraintMissR\x06misses\x128\n" +
+	"\bwarnings\x18\x0f \x03(\v2\x1c.fadeloop.v1.DecisionWarningR\bwarnings\x12\x1a\n" +
+	"\bheadline\x18\x10 \x01(\tR\bheadline\x12$\n" +
+	"\x0erunner_up_line\x18\x11 \x01(\tR\frunnerUpLine\"\xd9\x02\n" +
 	"\bBaseline\x122\n" +
 	"\afigures\x18\x01 \x01(\v2\x18.fadeloop.v1.TuneFiguresR\afigures\x124\n" +
 	"\x04gain\x18\x02 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x04gain\x12!\n" +
-	"\fbarely_helps\x18\x03 \x01(\bR\vbarelyHelps\"\x91\x02\n" +
+	"\fbarely_helps\x18\x03 \x01(\bR\vbarelyHelps\x120\n" +
+	"\x06figure\x18\x04 \x01(\v2\x18.fadeloop.v1.FigureLabelR\x06figure\x126\n" +
+	"\x05fixed\x18\x05 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x05fixed\x12B\n" +
+	"\vrecommended\x18\x06 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\vrecommended\x12\x12\n" +
+	"\x04text\x18\a \x01(\tR\x04text\"\xe0\x02\n" +
 	"\x0fConditionResult\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x16\n" +
 	"\x06weight\x18\x02 \x01(\x01R\x06weight\x121\n" +
@@ -2211,7 +2891,10 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"candidates\x18\x04 \x03(\v2\x1c.fadeloop.v1.CandidateResultR\n" +
 	"candidates\x121\n" +
 	"\bbaseline\x18\x05 \x01(\v2\x15.fadeloop.v1.BaselineR\bbaseline\x12.\n" +
-	"\x13doppler_product_max\x18\x06 \x01(\x01R\x11dopplerProductMax\"\xdf\x02\n" +
+	"\x13doppler_product_max\x18\x06 \x01(\x01R\x11dopplerProductMax\x12.\n" +
+	"\x13doppler_product_min\x18\a \x01(\x01R\x11dopplerProductMin\x12\x1d\n" +
+	"\n" +
+	"speeds_kmh\x18\b \x03(\x01R\tspeedsKmh\"\xdf\x02\n" +
 	"\n" +
 	"TuneEffort\x12\"\n" +
 	"\freplications\x18\x01 \x01(\x03R\freplications\x123\n" +
@@ -2222,7 +2905,7 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x15max_replications_used\x18\x05 \x01(\x05R\x13maxReplicationsUsed\x12B\n" +
 	"\x1dequal_allocation_replications\x18\x06 \x01(\x03R\x1bequalAllocationReplications\x12)\n" +
 	"\x10budget_exhausted\x18\a \x01(\bR\x0fbudgetExhausted\x12\x1e\n" +
-	"\vwall_time_s\x18\b \x01(\x01R\twallTimeS\"\xba\x03\n" +
+	"\vwall_time_s\x18\b \x01(\x01R\twallTimeS\"\x86\x04\n" +
 	"\x0eRecommendation\x124\n" +
 	"\tobjective\x18\x01 \x01(\v2\x16.fadeloop.v1.ObjectiveR\tobjective\x12\x1e\n" +
 	"\n" +
@@ -2238,11 +2921,14 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x12overall_candidates\x18\x06 \x03(\v2\x1c.fadeloop.v1.CandidateResultR\x11overallCandidates\x12/\n" +
 	"\x06effort\x18\a \x01(\v2\x17.fadeloop.v1.TuneEffortR\x06effort\x12\x12\n" +
 	"\x04seed\x18\b \x01(\x04R\x04seed\x12\x19\n" +
-	"\btie_rule\x18\t \x01(\tR\atieRule\"\x99\x01\n" +
+	"\btie_rule\x18\t \x01(\tR\atieRule\x122\n" +
+	"\afigures\x18\n" +
+	" \x03(\v2\x18.fadeloop.v1.FigureLabelR\afigures\x12\x16\n" +
+	"\x06notice\x18\v \x01(\tR\x06notice\"\x99\x01\n" +
 	"\fTuneResponse\x129\n" +
 	"\bprogress\x18\x01 \x01(\v2\x1b.fadeloop.v1.SearchProgressH\x00R\bprogress\x12E\n" +
 	"\x0erecommendation\x18\x02 \x01(\v2\x1b.fadeloop.v1.RecommendationH\x00R\x0erecommendationB\a\n" +
-	"\x05event\"\xcd\x03\n" +
+	"\x05event\"\x95\x04\n" +
 	"\x0fCapacityRequest\x121\n" +
 	"\x04base\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\x04base\x12\x1f\n" +
 	"\x05group\x18\x02 \x01(\x05B\t\xbaH\x06\x1a\x04\x18?(\x00R\x05group\x12:\n" +
@@ -2257,7 +2943,9 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"confidence\x18\a \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?R\n" +
 	"confidence\x12-\n" +
 	"\x0emax_user_slots\x18\b \x01(\x03B\a\xbaH\x04\"\x02(\x00R\fmaxUserSlots\x12=\n" +
-	"\x14progress_interval_ms\x18\t \x01(\x05B\v\xbaH\b\x1a\x06\x18\xe0\xd4\x03(\x00R\x12progressIntervalMs\"\xd7\x01\n" +
+	"\x14progress_interval_ms\x18\t \x01(\x05B\v\xbaH\b\x1a\x06\x18\xe0\xd4\x03(\x00R\x12progressIntervalMs\x12F\n" +
+	"\x13noise_rise_limit_db\x18\n" +
+	" \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00D@)\x00\x00\x00\x00\x00\x00\x00\x00R\x10noiseRiseLimitDb\"\xd7\x01\n" +
 	"\n" +
 	"PoleParams\x12 \n" +
 	"\fchip_rate_hz\x18\x01 \x01(\x01R\n" +
@@ -2267,13 +2955,16 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\beb_i0_db\x18\x03 \x01(\x01R\x06ebI0Db\x12'\n" +
 	"\x0factivity_factor\x18\x04 \x01(\x01R\x0eactivityFactor\x12(\n" +
 	"\x10other_cell_ratio\x18\x05 \x01(\x01R\x0eotherCellRatio\x12\x18\n" +
-	"\asectors\x18\x06 \x01(\x01R\asectors\"\x8e\x01\n" +
+	"\asectors\x18\x06 \x01(\x01R\asectors\"\xf4\x01\n" +
 	"\rCapacityPoint\x12\x14\n" +
 	"\x05count\x18\x01 \x01(\x05R\x05count\x12\x1f\n" +
 	"\vtotal_users\x18\x02 \x01(\x05R\n" +
 	"totalUsers\x12\x12\n" +
 	"\x04pass\x18\x03 \x01(\bR\x04pass\x122\n" +
-	"\afigures\x18\x04 \x01(\v2\x18.fadeloop.v1.TuneFiguresR\afigures\"\xbe\x04\n" +
+	"\afigures\x18\x04 \x01(\v2\x18.fadeloop.v1.TuneFiguresR\afigures\x12\x1b\n" +
+	"\toutage_ok\x18\x05 \x01(\bR\boutageOk\x12\"\n" +
+	"\rnoise_rise_ok\x18\x06 \x01(\bR\vnoiseRiseOk\x12#\n" +
+	"\rload_feasible\x18\a \x01(\bR\floadFeasible\"\xe3\x05\n" +
 	"\x0eCapacityResult\x12\x14\n" +
 	"\x05count\x18\x01 \x01(\x05R\x05count\x12\x1f\n" +
 	"\vtotal_users\x18\x02 \x01(\x05R\n" +
@@ -2298,7 +2989,13 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\n" +
 	"user_slots\x18\x0e \x01(\x03R\tuserSlots\x12\x16\n" +
 	"\x06reason\x18\x0f \x01(\tR\x06reason\x12\x1e\n" +
-	"\vwall_time_s\x18\x10 \x01(\x01R\twallTimeS\"\x8d\x01\n" +
+	"\vwall_time_s\x18\x10 \x01(\x01R\twallTimeS\x12!\n" +
+	"\foutage_limit\x18\x11 \x01(\x01R\voutageLimit\x12-\n" +
+	"\x13noise_rise_limit_db\x18\x12 \x01(\x01R\x10noiseRiseLimitDb\x12\x1d\n" +
+	"\n" +
+	"limited_by\x18\x13 \x03(\tR\tlimitedBy\x12\x1a\n" +
+	"\bheadline\x18\x14 \x01(\tR\bheadline\x12\x16\n" +
+	"\x06notice\x18\x15 \x01(\tR\x06notice\"\x8d\x01\n" +
 	"\x10CapacityResponse\x129\n" +
 	"\bprogress\x18\x01 \x01(\v2\x1b.fadeloop.v1.SearchProgressH\x00R\bprogress\x125\n" +
 	"\x06result\x18\x02 \x01(\v2\x1b.fadeloop.v1.CapacityResultH\x00R\x06resultB\a\n" +
@@ -2312,7 +3009,18 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x1cCANDIDATE_STATUS_UNSPECIFIED\x10\x00\x12\x1f\n" +
 	"\x1bCANDIDATE_STATUS_CONTENDING\x10\x01\x12\x1c\n" +
 	"\x18CANDIDATE_STATUS_DROPPED\x10\x02\x12\x1f\n" +
-	"\x1bCANDIDATE_STATUS_EQUIVALENT\x10\x03B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
+	"\x1bCANDIDATE_STATUS_EQUIVALENT\x10\x03*z\n" +
+	"\aVerdict\x12\x17\n" +
+	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x12\n" +
+	"\x0eVERDICT_WINNER\x10\x01\x12\x0f\n" +
+	"\vVERDICT_TIE\x10\x02\x12\x1d\n" +
+	"\x19VERDICT_CONSTRAINTS_UNMET\x10\x03\x12\x12\n" +
+	"\x0eVERDICT_SINGLE\x10\x04*\x8e\x01\n" +
+	"\vWarningKind\x12\x1c\n" +
+	"\x18WARNING_KIND_UNSPECIFIED\x10\x00\x12\x1c\n" +
+	"\x18WARNING_KIND_HIGH_OUTAGE\x10\x01\x12 \n" +
+	"\x1cWARNING_KIND_INFEASIBLE_LOAD\x10\x02\x12!\n" +
+	"\x1dWARNING_KIND_BUDGET_EXHAUSTED\x10\x03B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
 var (
 	file_fadeloop_v1_tune_proto_rawDescOnce sync.Once
@@ -2326,75 +3034,89 @@ func file_fadeloop_v1_tune_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_tune_proto_rawDescData
 }
 
-var file_fadeloop_v1_tune_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_fadeloop_v1_tune_proto_msgTypes = make([]protoimpl.MessageInfo, 21)
+var file_fadeloop_v1_tune_proto_enumTypes = make([]protoimpl.EnumInfo, 4)
+var file_fadeloop_v1_tune_proto_msgTypes = make([]protoimpl.MessageInfo, 24)
 var file_fadeloop_v1_tune_proto_goTypes = []any{
 	(ObjectiveKind)(0),          // 0: fadeloop.v1.ObjectiveKind
 	(CandidateStatus)(0),        // 1: fadeloop.v1.CandidateStatus
-	(*Override)(nil),            // 2: fadeloop.v1.Override
-	(*Condition)(nil),           // 3: fadeloop.v1.Condition
-	(*Objective)(nil),           // 4: fadeloop.v1.Objective
-	(*TuneBudget)(nil),          // 5: fadeloop.v1.TuneBudget
-	(*SearchProgress)(nil),      // 6: fadeloop.v1.SearchProgress
-	(*ReplicationEstimate)(nil), // 7: fadeloop.v1.ReplicationEstimate
-	(*TuneFigures)(nil),         // 8: fadeloop.v1.TuneFigures
-	(*Coord)(nil),               // 9: fadeloop.v1.Coord
-	(*GridPoint)(nil),           // 10: fadeloop.v1.GridPoint
-	(*CandidateResult)(nil),     // 11: fadeloop.v1.CandidateResult
-	(*Decision)(nil),            // 12: fadeloop.v1.Decision
-	(*Baseline)(nil),            // 13: fadeloop.v1.Baseline
-	(*ConditionResult)(nil),     // 14: fadeloop.v1.ConditionResult
-	(*TuneEffort)(nil),          // 15: fadeloop.v1.TuneEffort
-	(*Recommendation)(nil),      // 16: fadeloop.v1.Recommendation
-	(*TuneResponse)(nil),        // 17: fadeloop.v1.TuneResponse
-	(*CapacityRequest)(nil),     // 18: fadeloop.v1.CapacityRequest
-	(*PoleParams)(nil),          // 19: fadeloop.v1.PoleParams
-	(*CapacityPoint)(nil),       // 20: fadeloop.v1.CapacityPoint
-	(*CapacityResult)(nil),      // 21: fadeloop.v1.CapacityResult
-	(*CapacityResponse)(nil),    // 22: fadeloop.v1.CapacityResponse
-	(*Scenario)(nil),            // 23: fadeloop.v1.Scenario
+	(Verdict)(0),                // 2: fadeloop.v1.Verdict
+	(WarningKind)(0),            // 3: fadeloop.v1.WarningKind
+	(*Override)(nil),            // 4: fadeloop.v1.Override
+	(*Condition)(nil),           // 5: fadeloop.v1.Condition
+	(*Objective)(nil),           // 6: fadeloop.v1.Objective
+	(*TuneBudget)(nil),          // 7: fadeloop.v1.TuneBudget
+	(*SearchProgress)(nil),      // 8: fadeloop.v1.SearchProgress
+	(*ReplicationEstimate)(nil), // 9: fadeloop.v1.ReplicationEstimate
+	(*TuneFigures)(nil),         // 10: fadeloop.v1.TuneFigures
+	(*Coord)(nil),               // 11: fadeloop.v1.Coord
+	(*GridPoint)(nil),           // 12: fadeloop.v1.GridPoint
+	(*CandidateResult)(nil),     // 13: fadeloop.v1.CandidateResult
+	(*FigureLabel)(nil),         // 14: fadeloop.v1.FigureLabel
+	(*ConstraintMiss)(nil),      // 15: fadeloop.v1.ConstraintMiss
+	(*DecisionWarning)(nil),     // 16: fadeloop.v1.DecisionWarning
+	(*Decision)(nil),            // 17: fadeloop.v1.Decision
+	(*Baseline)(nil),            // 18: fadeloop.v1.Baseline
+	(*ConditionResult)(nil),     // 19: fadeloop.v1.ConditionResult
+	(*TuneEffort)(nil),          // 20: fadeloop.v1.TuneEffort
+	(*Recommendation)(nil),      // 21: fadeloop.v1.Recommendation
+	(*TuneResponse)(nil),        // 22: fadeloop.v1.TuneResponse
+	(*CapacityRequest)(nil),     // 23: fadeloop.v1.CapacityRequest
+	(*PoleParams)(nil),          // 24: fadeloop.v1.PoleParams
+	(*CapacityPoint)(nil),       // 25: fadeloop.v1.CapacityPoint
+	(*CapacityResult)(nil),      // 26: fadeloop.v1.CapacityResult
+	(*CapacityResponse)(nil),    // 27: fadeloop.v1.CapacityResponse
+	(*Scenario)(nil),            // 28: fadeloop.v1.Scenario
 }
 var file_fadeloop_v1_tune_proto_depIdxs = []int32{
-	2,  // 0: fadeloop.v1.Condition.overrides:type_name -> fadeloop.v1.Override
+	4,  // 0: fadeloop.v1.Condition.overrides:type_name -> fadeloop.v1.Override
 	0,  // 1: fadeloop.v1.Objective.kind:type_name -> fadeloop.v1.ObjectiveKind
-	7,  // 2: fadeloop.v1.TuneFigures.sir_error_mean_db:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 3: fadeloop.v1.TuneFigures.sir_error_std_db:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 4: fadeloop.v1.TuneFigures.outage_probability:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 5: fadeloop.v1.TuneFigures.achieved_bler:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 6: fadeloop.v1.TuneFigures.tx_power_mean_dbm:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 7: fadeloop.v1.TuneFigures.max_power_fraction:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 8: fadeloop.v1.TuneFigures.noise_rise_mean_db:type_name -> fadeloop.v1.ReplicationEstimate
-	9,  // 9: fadeloop.v1.GridPoint.coords:type_name -> fadeloop.v1.Coord
-	8,  // 10: fadeloop.v1.CandidateResult.figures:type_name -> fadeloop.v1.TuneFigures
-	7,  // 11: fadeloop.v1.CandidateResult.objective:type_name -> fadeloop.v1.ReplicationEstimate
-	7,  // 12: fadeloop.v1.CandidateResult.diff_to_best:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 2: fadeloop.v1.TuneFigures.sir_error_mean_db:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 3: fadeloop.v1.TuneFigures.sir_error_std_db:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 4: fadeloop.v1.TuneFigures.outage_probability:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 5: fadeloop.v1.TuneFigures.achieved_bler:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 6: fadeloop.v1.TuneFigures.tx_power_mean_dbm:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 7: fadeloop.v1.TuneFigures.max_power_fraction:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 8: fadeloop.v1.TuneFigures.noise_rise_mean_db:type_name -> fadeloop.v1.ReplicationEstimate
+	11, // 9: fadeloop.v1.GridPoint.coords:type_name -> fadeloop.v1.Coord
+	10, // 10: fadeloop.v1.CandidateResult.figures:type_name -> fadeloop.v1.TuneFigures
+	9,  // 11: fadeloop.v1.CandidateResult.objective:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 12: fadeloop.v1.CandidateResult.diff_to_best:type_name -> fadeloop.v1.ReplicationEstimate
 	1,  // 13: fadeloop.v1.CandidateResult.status:type_name -> fadeloop.v1.CandidateStatus
-	10, // 14: fadeloop.v1.Decision.setting:type_name -> fadeloop.v1.GridPoint
-	7,  // 15: fadeloop.v1.Decision.evidence:type_name -> fadeloop.v1.ReplicationEstimate
-	8,  // 16: fadeloop.v1.Baseline.figures:type_name -> fadeloop.v1.TuneFigures
-	7,  // 17: fadeloop.v1.Baseline.gain:type_name -> fadeloop.v1.ReplicationEstimate
-	12, // 18: fadeloop.v1.ConditionResult.decision:type_name -> fadeloop.v1.Decision
-	11, // 19: fadeloop.v1.ConditionResult.candidates:type_name -> fadeloop.v1.CandidateResult
-	13, // 20: fadeloop.v1.ConditionResult.baseline:type_name -> fadeloop.v1.Baseline
-	4,  // 21: fadeloop.v1.Recommendation.objective:type_name -> fadeloop.v1.Objective
-	10, // 22: fadeloop.v1.Recommendation.candidates:type_name -> fadeloop.v1.GridPoint
-	14, // 23: fadeloop.v1.Recommendation.conditions:type_name -> fadeloop.v1.ConditionResult
-	12, // 24: fadeloop.v1.Recommendation.overall:type_name -> fadeloop.v1.Decision
-	11, // 25: fadeloop.v1.Recommendation.overall_candidates:type_name -> fadeloop.v1.CandidateResult
-	15, // 26: fadeloop.v1.Recommendation.effort:type_name -> fadeloop.v1.TuneEffort
-	6,  // 27: fadeloop.v1.TuneResponse.progress:type_name -> fadeloop.v1.SearchProgress
-	16, // 28: fadeloop.v1.TuneResponse.recommendation:type_name -> fadeloop.v1.Recommendation
-	23, // 29: fadeloop.v1.CapacityRequest.base:type_name -> fadeloop.v1.Scenario
-	8,  // 30: fadeloop.v1.CapacityPoint.figures:type_name -> fadeloop.v1.TuneFigures
-	20, // 31: fadeloop.v1.CapacityResult.evaluated:type_name -> fadeloop.v1.CapacityPoint
-	19, // 32: fadeloop.v1.CapacityResult.pole_params:type_name -> fadeloop.v1.PoleParams
-	6,  // 33: fadeloop.v1.CapacityResponse.progress:type_name -> fadeloop.v1.SearchProgress
-	21, // 34: fadeloop.v1.CapacityResponse.result:type_name -> fadeloop.v1.CapacityResult
-	35, // [35:35] is the sub-list for method output_type
-	35, // [35:35] is the sub-list for method input_type
-	35, // [35:35] is the sub-list for extension type_name
-	35, // [35:35] is the sub-list for extension extendee
-	0,  // [0:35] is the sub-list for field type_name
+	3,  // 14: fadeloop.v1.DecisionWarning.kind:type_name -> fadeloop.v1.WarningKind
+	12, // 15: fadeloop.v1.Decision.setting:type_name -> fadeloop.v1.GridPoint
+	9,  // 16: fadeloop.v1.Decision.evidence:type_name -> fadeloop.v1.ReplicationEstimate
+	2,  // 17: fadeloop.v1.Decision.verdict:type_name -> fadeloop.v1.Verdict
+	14, // 18: fadeloop.v1.Decision.ranked_by:type_name -> fadeloop.v1.FigureLabel
+	15, // 19: fadeloop.v1.Decision.misses:type_name -> fadeloop.v1.ConstraintMiss
+	16, // 20: fadeloop.v1.Decision.warnings:type_name -> fadeloop.v1.DecisionWarning
+	10, // 21: fadeloop.v1.Baseline.figures:type_name -> fadeloop.v1.TuneFigures
+	9,  // 22: fadeloop.v1.Baseline.gain:type_name -> fadeloop.v1.ReplicationEstimate
+	14, // 23: fadeloop.v1.Baseline.figure:type_name -> fadeloop.v1.FigureLabel
+	9,  // 24: fadeloop.v1.Baseline.fixed:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 25: fadeloop.v1.Baseline.recommended:type_name -> fadeloop.v1.ReplicationEstimate
+	17, // 26: fadeloop.v1.ConditionResult.decision:type_name -> fadeloop.v1.Decision
+	13, // 27: fadeloop.v1.ConditionResult.candidates:type_name -> fadeloop.v1.CandidateResult
+	18, // 28: fadeloop.v1.ConditionResult.baseline:type_name -> fadeloop.v1.Baseline
+	6,  // 29: fadeloop.v1.Recommendation.objective:type_name -> fadeloop.v1.Objective
+	12, // 30: fadeloop.v1.Recommendation.candidates:type_name -> fadeloop.v1.GridPoint
+	19, // 31: fadeloop.v1.Recommendation.conditions:type_name -> fadeloop.v1.ConditionResult
+	17, // 32: fadeloop.v1.Recommendation.overall:type_name -> fadeloop.v1.Decision
+	13, // 33: fadeloop.v1.Recommendation.overall_candidates:type_name -> fadeloop.v1.CandidateResult
+	20, // 34: fadeloop.v1.Recommendation.effort:type_name -> fadeloop.v1.TuneEffort
+	14, // 35: fadeloop.v1.Recommendation.figures:type_name -> fadeloop.v1.FigureLabel
+	8,  // 36: fadeloop.v1.TuneResponse.progress:type_name -> fadeloop.v1.SearchProgress
+	21, // 37: fadeloop.v1.TuneResponse.recommendation:type_name -> fadeloop.v1.Recommendation
+	28, // 38: fadeloop.v1.CapacityRequest.base:type_name -> fadeloop.v1.Scenario
+	10, // 39: fadeloop.v1.CapacityPoint.figures:type_name -> fadeloop.v1.TuneFigures
+	25, // 40: fadeloop.v1.CapacityResult.evaluated:type_name -> fadeloop.v1.CapacityPoint
+	24, // 41: fadeloop.v1.CapacityResult.pole_params:type_name -> fadeloop.v1.PoleParams
+	8,  // 42: fadeloop.v1.CapacityResponse.progress:type_name -> fadeloop.v1.SearchProgress
+	26, // 43: fadeloop.v1.CapacityResponse.result:type_name -> fadeloop.v1.CapacityResult
+	44, // [44:44] is the sub-list for method output_type
+	44, // [44:44] is the sub-list for method input_type
+	44, // [44:44] is the sub-list for extension type_name
+	44, // [44:44] is the sub-list for extension extendee
+	0,  // [0:44] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_tune_proto_init() }
@@ -2407,11 +3129,11 @@ func file_fadeloop_v1_tune_proto_init() {
 		(*Override_Number)(nil),
 		(*Override_Text)(nil),
 	}
-	file_fadeloop_v1_tune_proto_msgTypes[15].OneofWrappers = []any{
+	file_fadeloop_v1_tune_proto_msgTypes[18].OneofWrappers = []any{
 		(*TuneResponse_Progress)(nil),
 		(*TuneResponse_Recommendation)(nil),
 	}
-	file_fadeloop_v1_tune_proto_msgTypes[20].OneofWrappers = []any{
+	file_fadeloop_v1_tune_proto_msgTypes[23].OneofWrappers = []any{
 		(*CapacityResponse_Progress)(nil),
 		(*CapacityResponse_Result)(nil),
 	}
@@ -2420,8 +3142,8 @@ func file_fadeloop_v1_tune_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_tune_proto_rawDesc), len(file_fadeloop_v1_tune_proto_rawDesc)),
-			NumEnums:      2,
-			NumMessages:   21,
+			NumEnums:      4,
+			NumMessages:   24,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
