@@ -80,6 +80,8 @@ func objectiveFromProto(m *pb.Objective) tune.Objective {
 		OutageLimit:      m.GetOutageLimit(),
 		BLERTolerance:    m.GetBlerTolerance(),
 		IndifferenceZone: m.GetIndifferenceZone(),
+		NoiseRiseLimitDB: m.GetNoiseRiseLimitDb(),
+		OutageWarning:    m.GetOutageWarning(),
 	}
 }
 
@@ -89,7 +91,13 @@ func objectiveToProto(o tune.Objective) *pb.Objective {
 		OutageLimit:      o.OutageLimit,
 		BlerTolerance:    o.BLERTolerance,
 		IndifferenceZone: o.IndifferenceZone,
+		NoiseRiseLimitDb: o.NoiseRiseLimitDB,
+		OutageWarning:    o.OutageWarning,
 	}
+}
+
+func figureLabelToProto(l tune.FigureLabel) *pb.FigureLabel {
+	return &pb.FigureLabel{Key: l.Key, Name: l.Name, Unit: l.Unit, DiffUnit: l.DiffUnit, DisplayScale: l.Scale, Decimals: i32(l.Decimals)}
 }
 
 // CapacityRequestFromProto converts a fadeloop.v1 CapacityRequest to the
@@ -104,6 +112,8 @@ func CapacityRequestFromProto(m *pb.CapacityRequest) tune.CapacityRequest {
 		Replications: int(m.GetReplications()),
 		Confidence:   m.GetConfidence(),
 		MaxUserSlots: m.GetMaxUserSlots(),
+
+		NoiseRiseLimitDB: m.GetNoiseRiseLimitDb(),
 	}
 }
 
@@ -162,9 +172,25 @@ func decisionToProto(d tune.Decision) *pb.Decision {
 		Evidence:         replicationEstimateToProto(d.Evidence),
 		ConstraintsUnmet: d.ConstraintsUnmet,
 		Reason:           d.Reason,
+		// Verdict and WarningKind numbers are the same on both sides.
+		Verdict:      pb.Verdict(d.Verdict),
+		RankedBy:     figureLabelToProto(d.RankedBy),
+		TieBreak:     d.TieBreak,
+		Headline:     d.Headline,
+		RunnerUpLine: d.RunnerUpLine,
 	}
 	for _, k := range d.TieSet {
 		m.TieSet = append(m.TieSet, i32(k))
+	}
+	for _, k := range d.Ordering {
+		m.Ordering = append(m.Ordering, i32(k))
+	}
+	for _, x := range d.Misses {
+		m.Misses = append(m.Misses, &pb.ConstraintMiss{Condition: x.Condition, Figure: x.Figure, Value: x.Value,
+			Limit: x.Limit, Upper: x.Upper, Excess: x.Excess, Text: x.Text})
+	}
+	for _, w := range d.Warnings {
+		m.Warnings = append(m.Warnings, &pb.DecisionWarning{Kind: pb.WarningKind(w.Kind), Text: w.Text})
 	}
 	return m
 }
@@ -182,6 +208,7 @@ func RecommendationToProto(r *tune.Recommendation, wall time.Duration) *pb.Recom
 		OverallCandidates: candidatesToProto(r.OverallCandidates, false),
 		Seed:              r.Seed,
 		TieRule:           r.TieRule,
+		Notice:            r.Notice,
 		Effort: &pb.TuneEffort{
 			Replications:                int64(r.Effort.Replications),
 			BaselineReplications:        int64(r.Effort.BaselineReplications),
@@ -196,6 +223,9 @@ func RecommendationToProto(r *tune.Recommendation, wall time.Duration) *pb.Recom
 	for _, p := range r.Candidates {
 		m.Candidates = append(m.Candidates, gridPointToProto(p))
 	}
+	for _, l := range r.Figures {
+		m.Figures = append(m.Figures, figureLabelToProto(l))
+	}
 	for _, c := range r.Conditions {
 		cr := &pb.ConditionResult{
 			Name:              c.Name,
@@ -203,9 +233,13 @@ func RecommendationToProto(r *tune.Recommendation, wall time.Duration) *pb.Recom
 			Decision:          decisionToProto(c.Decision),
 			Candidates:        candidatesToProto(c.Candidates, true),
 			DopplerProductMax: c.DopplerProductMax,
+			DopplerProductMin: c.DopplerProductMin,
+			SpeedsKmh:         cloneFloats(c.SpeedsKmh),
 		}
 		if b := c.Baseline; b != nil {
-			cr.Baseline = &pb.Baseline{Figures: tuneFiguresToProto(b.Figures), Gain: replicationEstimateToProto(b.Gain), BarelyHelps: b.BarelyHelps}
+			cr.Baseline = &pb.Baseline{Figures: tuneFiguresToProto(b.Figures), Gain: replicationEstimateToProto(b.Gain), BarelyHelps: b.BarelyHelps,
+				Figure: figureLabelToProto(b.Figure), Fixed: replicationEstimateToProto(b.Fixed),
+				Recommended: replicationEstimateToProto(b.Recommended), Text: b.Text}
 		}
 		m.Conditions = append(m.Conditions, cr)
 	}
@@ -241,10 +275,17 @@ func CapacityResultToProto(r *tune.CapacityResult, wall time.Duration) *pb.Capac
 		UserSlots:       r.UserSlots,
 		Reason:          r.Reason,
 		WallTimeS:       wall.Seconds(),
+
+		OutageLimit:      r.OutageLimit,
+		NoiseRiseLimitDb: r.NoiseRiseLimitDB,
+		LimitedBy:        append([]string(nil), r.LimitedBy...),
+		Headline:         r.Headline,
+		Notice:           r.Notice,
 	}
 	for _, p := range r.Evaluated {
 		m.Evaluated = append(m.Evaluated, &pb.CapacityPoint{
-			Count: i32(p.Count), TotalUsers: i32(p.TotalUsers), Pass: p.Pass, Figures: tuneFiguresToProto(p.Figures)})
+			Count: i32(p.Count), TotalUsers: i32(p.TotalUsers), Pass: p.Pass, Figures: tuneFiguresToProto(p.Figures),
+			OutageOk: p.OutageOK, NoiseRiseOk: p.NoiseRiseOK, LoadFeasible: p.LoadFeasible})
 	}
 	return m
 }
@@ -254,7 +295,7 @@ func CapacityResultToProto(r *tune.CapacityResult, wall time.Duration) *pb.Capac
 var tuneRequestFields = map[string]bool{
 	"axes": true, "conditions": true, "objective": true, "confidence": true, "budget": true,
 	"group": true, "outage_limit": true, "min_count": true, "max_count": true,
-	"replications": true, "max_user_slots": true,
+	"replications": true, "max_user_slots": true, "noise_rise_limit_db": true,
 }
 
 // searchViolations maps the loop.Violations of a Tune or Capacity request

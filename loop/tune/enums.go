@@ -10,6 +10,8 @@ import (
 var (
 	objectiveKindNames   = []string{"OBJECTIVE_KIND_UNSPECIFIED", "OBJECTIVE_KIND_MIN_SIR_ERROR_STD", "OBJECTIVE_KIND_MIN_OUTAGE", "OBJECTIVE_KIND_MIN_TX_POWER"}
 	candidateStatusNames = []string{"CANDIDATE_STATUS_UNSPECIFIED", "CANDIDATE_STATUS_CONTENDING", "CANDIDATE_STATUS_DROPPED", "CANDIDATE_STATUS_EQUIVALENT"}
+	verdictNames         = []string{"VERDICT_UNSPECIFIED", "VERDICT_WINNER", "VERDICT_TIE", "VERDICT_CONSTRAINTS_UNMET", "VERDICT_SINGLE"}
+	warningKindNames     = []string{"WARNING_KIND_UNSPECIFIED", "WARNING_KIND_HIGH_OUTAGE", "WARNING_KIND_INFEASIBLE_LOAD", "WARNING_KIND_BUDGET_EXHAUSTED"}
 )
 
 func parseEnum(names []string, kind string, b []byte) (int, error) {
@@ -53,5 +55,29 @@ func (s CandidateStatus) MarshalText() ([]byte, error) {
 func (s *CandidateStatus) UnmarshalText(b []byte) error {
 	v, err := parseEnum(candidateStatusNames, "candidate status", b)
 	*s = CandidateStatus(v)
+	return err
+}
+
+// MarshalText returns the proto value name, e.g. "VERDICT_TIE".
+func (v Verdict) MarshalText() ([]byte, error) {
+	return []byte(enumName(verdictNames, int(v))), nil
+}
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *Verdict) UnmarshalText(b []byte) error {
+	x, err := parseEnum(verdictNames, "verdict", b)
+	*v = Verdict(x)
+	return err
+}
+
+// MarshalText returns the proto value name, e.g. "WARNING_KIND_HIGH_OUTAGE".
+func (k WarningKind) MarshalText() ([]byte, error) {
+	return []byte(enumName(warningKindNames, int(k))), nil
+}
+
+// UnmarshalText accepts the proto value name or its number.
+func (k *WarningKind) UnmarshalText(b []byte) error {
+	x, err := parseEnum(warningKindNames, "warning kind", b)
+	*k = WarningKind(x)
 	return err
 }
