@@ -7,6 +7,7 @@ import (
 	"errors"
 	"math"
 	"runtime"
+	"strings"
 	"testing"
 
 	"github.com/fadeloop/fadeloop/fading"
@@ -227,5 +228,133 @@ func TestCapacityBudgetStop(t *testing.T) {
 	req.MaxUserSlots = 100
 	if _, err := capacityWith(context.Background(), req, Options{}, capToy); err == nil {
 		t.Error("budget below the first count accepted")
+	}
+}
+
+// capLoadToy: a single cell whose load is η = n/40 (static pole 40 users):
+// noise rise −10·log10(1 − η), the uplink load equation (Holma & Toskala,
+// WCDMA for UMTS, load factor and noise rise (memory)); at n ≥ 40 the load
+// is infeasible (flagged as the engine does) with a finite 30 dB noise rise
+// and small outage, so only the feasibility check can fail it. Outage is
+// 0.002·e^(n/8) as in capToy.
+func capLoadToy(ctx context.Context, sc *loop.Scenario) (Sample, error) {
+	s, err := capToy(ctx, sc)
+	n := float64(sc.Users())
+	if eta := n / 40; eta < 1 {
+		s.NoiseRiseDB = -10 * math.Log10(1-eta)
+	} else {
+		s.NoiseRiseDB, s.Infeasible, s.OutageProb = 30, true, 0.01
+	}
+	return s, err
+}
+
+// Capacity never passes a count above the noise-rise limit or with an
+// infeasible load, and names the limit that binds.
+func TestCapacityLimitsToy(t *testing.T) {
+	tests := []struct {
+		name        string
+		outage, nr  float64
+		count       int
+		limitedBy   string
+		headlineHas string
+	}{
+		// 0.002·e^(n/8) ≤ 0.05 ⇔ n ≤ 8·ln 25 = 25.75 (25 or 26 with the
+		// ±10 % replication factor); the noise rise at 27 users, 4.9 dB,
+		// is under 6 dB.
+		{"outage binds", 0.05, 0, 0, FigureOutage, "limited by outage"},
+		// −10·log10(1 − n/40) ≤ 6 dB ⇔ n ≤ 40·(1 − 10^−0.6) = 29.95 (the
+		// default 6 dB ceiling, 75 % load); outage 0.002·e^(30/8) = 8.5 %.
+		{"default noise rise binds", 0.5, 0, 29, FigureNoiseRise, "limited by noise rise"},
+		// 3 dB is a load of 1 − 10^−0.3 = 49.9 %: n ≤ 19.95.
+		{"3 dB noise rise", 0.5, 3, 19, FigureNoiseRise, "noise rise ≤ 3.00 dB"},
+		// Outage and noise-rise limits loose enough to pass 40 users; the
+		// pole does not.
+		{"infeasible load binds", 0.5, 40, 39, "infeasible_load", "limited by infeasible load"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			req := capRequest(tc.outage)
+			req.NoiseRiseLimitDB = tc.nr
+			req.MaxCount = 64
+			res, err := capacityWith(context.Background(), req, Options{}, capLoadToy)
+			if err != nil {
+				t.Fatal(err)
+			}
+			lim := tc.nr
+			if lim == 0 {
+				lim = DefaultNoiseRiseLimitDB
+			}
+			// Brute force on the search's seeds: the largest count whose
+			// mean figures meet every limit (they are monotone in n here).
+			want := 0
+			for n := 1; n <= 64; n++ {
+				sc := req.Base
+				sc.Groups = append([]loop.UserGroup(nil), req.Base.Groups...)
+				sc.Groups[0].Count = n
+				var out, nr float64
+				inf := false
+				for r := 0; r < req.Replications; r++ {
+					sc.Run.Seed = ReplicationSeed(req.Base.Run.Seed, 0, r)
+					x, _ := capLoadToy(context.Background(), &sc)
+					out += x.OutageProb / float64(req.Replications)
+					nr += x.NoiseRiseDB / float64(req.Replications)
+					inf = inf || x.Infeasible
+				}
+				if out <= tc.outage && nr <= lim && !inf {
+					want = n
+				}
+			}
+			if tc.count != 0 && want != tc.count {
+				t.Errorf("brute force gives %d, the closed form %d", want, tc.count)
+			}
+			if res.Count != want || len(res.LimitedBy) == 0 || res.LimitedBy[0] != tc.limitedBy ||
+				res.NoiseRiseLimitDB != lim || !strings.Contains(res.Headline, tc.headlineHas) {
+				t.Errorf("count %d limited by %v (limit %g dB), headline %q; want %d by %s", res.Count, res.LimitedBy,
+					res.NoiseRiseLimitDB, res.Headline, want, tc.limitedBy)
+			}
+			for _, p := range res.Evaluated {
+				f := p.Figures
+				if p.Pass && (f.NoiseRiseDB.Mean > lim || f.InfeasibleReplications > 0 || f.OutageProb.Mean > tc.outage) {
+					t.Errorf("count %d passes with noise rise %.2f dB (limit %g), %d infeasible, outage %.4g",
+						p.Count, f.NoiseRiseDB.Mean, lim, f.InfeasibleReplications, f.OutageProb.Mean)
+				}
+				if p.Pass != (p.OutageOK && p.NoiseRiseOK && p.LoadFeasible) {
+					t.Errorf("count %d: pass %v with %+v", p.Count, p.Pass, p)
+				}
+			}
+		})
+	}
+}
+
+// On the real engine with the default 6 dB ceiling: the count passes with
+// a measured mean noise rise at or below 6 dB and the next one does not
+// (direct runs on the same seeds). The static single-cell load equation
+// gives the ceiling at N*·(1 − 10^−0.6) = 17.70·0.749 = 13.25 users
+// (N* the model pole, TestCapacityReal); power-control errors over fading
+// raise the mean received power of every user (a log-normal error of σ dB
+// by exp((σ·ln10/10)²/2), 1.27 at σ = 3 dB), so the simulated capacity lies
+// at or below 13 and, for errors up to about 3 dB, at or above 9.
+func TestCapacityNoiseRiseLimit(t *testing.T) {
+	base := capBase()
+	base.Run.Seed = 3
+	if testing.Short() {
+		base.Run.Slots = 2000
+	}
+	res, err := Capacity(context.Background(), CapacityRequest{Base: base, OutageLimit: 0.5, Replications: 3, MaxCount: 40}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Log(res.Headline, " ", res.Reason)
+	if res.NoiseRiseLimitDB != 6 || len(res.LimitedBy) == 0 || res.LimitedBy[0] != FigureNoiseRise {
+		t.Fatalf("limit %g dB, limited by %v", res.NoiseRiseLimitDB, res.LimitedBy)
+	}
+	if _, nr, inf := direct(t, base, res.Count, 3); nr > 6 || inf {
+		t.Errorf("direct noise rise at N=%d is %.3f dB > 6 or infeasible (%v)", res.Count, nr, inf)
+	}
+	if _, nr, _ := direct(t, base, res.Count+1, 3); nr <= 6 {
+		t.Errorf("direct noise rise at N+1=%d is %.3f dB <= 6", res.Count+1, nr)
+	}
+	if bound := int(res.ModelPole * (1 - math.Pow(10, -0.6))); res.TotalUsers > bound || res.TotalUsers < 9 {
+		t.Errorf("capacity %d users outside [9, %d] (static load bound)", res.TotalUsers, bound)
 	}
 }

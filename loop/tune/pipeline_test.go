@@ -16,6 +16,9 @@ import (
 // error std modelled as sqrt(Δ²/4 + (k·f_D·T/Δ)²), capped at the
 // fixed-power spread, plus a replication term shared by every candidate
 // (common random numbers through run.seed) and a small candidate term.
+// Outage is 1 % per dB of that spread, mean Tx power 10 dBm plus it, and
+// the noise rise 2 dB plus the step (so that a noise-rise limit can rule
+// out the large steps).
 func toyEval(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	if err := ctx.Err(); err != nil {
 		return Sample{}, err
@@ -35,6 +38,7 @@ func toyEval(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 		SIRErrorStdDB:  std,
 		OutageProb:     math.Min(1, 0.01*std),
 		TxPowerMeanDBm: 10 + std,
+		NoiseRiseDB:    2 + step,
 		UserSlots:      int64(sc.Users()) * sc.TotalSlots(),
 	}, nil
 }

@@ -335,9 +335,34 @@ func stepHint(rec *Recommendation, c int) string {
 	sort.Float64s(vals)
 	lo, hi := vals[0], vals[len(vals)-1]
 	fdt := fdtText(cr)
+	// The measured neighbours: candidates equal to Best but for the step.
+	rb := d.RankedBy
+	var nb []string
+	ruledOut := false
+	i := sort.SearchFloat64s(vals, step)
+	for _, k := range d.Ordering {
+		q := rec.Candidates[k]
+		v, _ := q.Value(path)
+		if k == d.Best || !sameBut(p, q, path) {
+			continue
+		}
+		if (i > 0 && v == vals[i-1]) || (i+1 < len(vals) && v == vals[i+1]) {
+			c := cr.Candidates[k]
+			x := fmt.Sprintf("%g dB step %s%s", v, sign(c.DiffToBest.Mean), rb.Diff(math.Abs(c.DiffToBest.Mean)))
+			if !c.Feasible && !d.ConstraintsUnmet {
+				x += " (misses the constraints)"
+				ruledOut = ruledOut || c.DiffToBest.Mean < 0
+			}
+			nb = append(nb, x)
+		}
+	}
 	var s string
 	rlo, rhi := regime(cr.DopplerProductMin), regime(cr.DopplerProductMax)
 	switch {
+	case d.ConstraintsUnmet:
+		// Ranked by constraint excess: no claim about tracking.
+	case ruledOut:
+		s = fmt.Sprintf("At %s a neighbouring step scores better on %s but misses the constraints.", fdt, rb.Name)
 	case rlo != rhi:
 		s = fmt.Sprintf("%s mixes fading regimes: a %g dB step is the compromise between the slow users' limit cycle and the fast users' tracking.", fdt, step)
 	case step == lo && rlo == 2:
@@ -351,23 +376,8 @@ func stepHint(rec *Recommendation, c int) string {
 	default:
 		s = fmt.Sprintf("At %s a %g dB step balances tracking the fades against limit-cycle noise.", fdt, step)
 	}
-	// The measured neighbours: candidates equal to Best but for the step.
-	rb := d.RankedBy
-	var nb []string
-	for _, k := range d.Ordering {
-		q := rec.Candidates[k]
-		v, _ := q.Value(path)
-		if k == d.Best || !sameBut(p, q, path) {
-			continue
-		}
-		i := sort.SearchFloat64s(vals, step)
-		if (i > 0 && v == vals[i-1]) || (i+1 < len(vals) && v == vals[i+1]) {
-			df := cr.Candidates[k].DiffToBest
-			nb = append(nb, fmt.Sprintf("%g dB step %s%s", v, sign(df.Mean), rb.Diff(math.Abs(df.Mean))))
-		}
-	}
 	if len(nb) > 0 {
-		s += fmt.Sprintf(" Measured %s against it: %s.", rb.Name, strings.Join(nb, ", "))
+		s = join(s, fmt.Sprintf("Measured %s against it: %s.", rb.Name, strings.Join(nb, ", ")))
 	}
 	return s
 }

@@ -5,6 +5,8 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
+	"math"
 	"runtime"
 	"strings"
 	"sync/atomic"
@@ -264,6 +266,305 @@ func TestMinTxPowerConstrained(t *testing.T) {
 	for _, c := range cr.Candidates {
 		if c.Figures.TxPowerMeanDBm.Mean < best.Figures.TxPowerMeanDBm.Mean && ok(c.Figures) && c.Status == StatusDropped {
 			t.Errorf("feasible %s with lower power %.2f dBm was dropped", rec.Candidates[c.Candidate].Label(), c.Figures.TxPowerMeanDBm.Mean)
+		}
+	}
+}
+
+// checkDecision asserts what every decision must satisfy, whatever its
+// verdict: the ordering is a permutation led by the recommendation, the
+// runner-up is its second entry and its evidence is its difference to the
+// recommendation, the verdict and its flags agree, every text starts with
+// the verdict's own word and only a winner is ever called one.
+func checkDecision(t *testing.T, scope string, d Decision, cands []CandidateResult, nK int) {
+	t.Helper()
+	if len(d.Ordering) != nK || d.Ordering[0] != d.Best {
+		t.Errorf("%s: ordering %v, best %d", scope, d.Ordering, d.Best)
+	}
+	seen := map[int]bool{}
+	for _, k := range d.Ordering {
+		seen[k] = true
+	}
+	if len(seen) != nK {
+		t.Errorf("%s: ordering %v is not a permutation of %d candidates", scope, d.Ordering, nK)
+	}
+	if nK > 1 && (d.RunnerUp != d.Ordering[1] || d.Evidence != cands[d.RunnerUp].DiffToBest) {
+		t.Errorf("%s: runner-up %d evidence %+v, want ordering[1] = %d with its diff %+v", scope, d.RunnerUp, d.Evidence, d.Ordering[1], cands[d.Ordering[1]].DiffToBest)
+	}
+	if nK == 1 && d.RunnerUp != -1 {
+		t.Errorf("%s: runner-up %d with one candidate", scope, d.RunnerUp)
+	}
+	if m := cands[d.Best].DiffToBest.Mean; m != 0 {
+		t.Errorf("%s: the recommendation's difference to itself is %g", scope, m)
+	}
+	prefix := map[Verdict]string{VerdictWinner: "Winner", VerdictTie: fmt.Sprintf("Tie of %d", len(d.TieSet)),
+		VerdictConstraintsUnmet: "Constraints unmet", VerdictSingle: "Single setting"}[d.Verdict]
+	if prefix == "" || !strings.HasPrefix(d.Headline, prefix) || !strings.HasPrefix(d.Reason, d.Headline) {
+		t.Errorf("%s: verdict %v, headline %q, reason %q", scope, d.Verdict, d.Headline, d.Reason)
+	}
+	if d.Declared != (d.Verdict == VerdictWinner) || d.ConstraintsUnmet != (d.Verdict == VerdictConstraintsUnmet) {
+		t.Errorf("%s: verdict %v with declared %v, constraints unmet %v", scope, d.Verdict, d.Declared, d.ConstraintsUnmet)
+	}
+	if d.Verdict == VerdictTie && (len(d.TieSet) < 2 || d.TieBreak == "" || !strings.Contains(d.Headline, d.TieBreak)) {
+		t.Errorf("%s: tie set %v, tie break %q, headline %q", scope, d.TieSet, d.TieBreak, d.Headline)
+	}
+	if d.Verdict != VerdictWinner {
+		for _, s := range []string{d.Headline, d.RunnerUpLine, d.Reason} {
+			if strings.Contains(strings.ToLower(s), "winner") {
+				t.Errorf("%s: verdict %v but the text says winner: %q", scope, d.Verdict, s)
+			}
+		}
+	}
+	if d.Verdict == VerdictConstraintsUnmet {
+		if len(d.Misses) == 0 {
+			t.Errorf("%s: constraints unmet without misses", scope)
+		}
+		for _, m := range d.Misses {
+			if !(m.Excess > 0) || m.Text == "" || !strings.Contains(d.Headline, m.Text) {
+				t.Errorf("%s: miss %+v not positive or not in the headline %q", scope, m, d.Headline)
+			}
+		}
+		// The closest candidate: no other has a smaller excess by point
+		// estimate, except inside the tie set.
+		for k, c := range cands {
+			if c.Objective.Mean < cands[d.Best].Objective.Mean && !containsInt(d.TieSet, k) {
+				t.Errorf("%s: candidate %d excess %g below the recommended %g", scope, k, c.Objective.Mean, cands[d.Best].Objective.Mean)
+			}
+		}
+	}
+	// Candidates that meet the constraints come first in the ordering.
+	for i := 1; i < len(d.Ordering); i++ {
+		if cands[d.Ordering[i]].Feasible && !cands[d.Ordering[i-1]].Feasible && !d.ConstraintsUnmet {
+			t.Errorf("%s: ordering %v puts a feasible candidate after an infeasible one", scope, d.Ordering)
+		}
+	}
+}
+
+func checkRecommendation(t *testing.T, name string, rec *Recommendation) {
+	t.Helper()
+	nK := len(rec.Candidates)
+	for _, cr := range rec.Conditions {
+		checkDecision(t, name+"/"+cr.Name, cr.Decision, cr.Candidates, nK)
+	}
+	checkDecision(t, name+"/overall", rec.Overall, rec.OverallCandidates, nK)
+	if ls := rec.Lines(); ls[0] != rec.Overall.Headline || ls[len(ls)-1] != Notice {
+		t.Errorf("%s: lines %q", name, ls)
+	}
+}
+
+// Table of verdicts on the toy model (pipeline_test.go), whose figures are
+// known in closed form: each case names the verdict and recommended step it
+// must give, and checkDecision holds for every decision of every case.
+func TestVerdicts(t *testing.T) {
+	at := func(kmh float64) []Condition { return []Condition{speedCond(fmt.Sprintf("%g km/h", kmh), kmh)} }
+	steps := []Axis{{Path: "inner_loop.step_db", Values: []float64{0.25, 0.5, 1, 2, 3}}}
+	tests := []struct {
+		name    string
+		mod     func(r *Request)
+		verdict Verdict
+		step    float64 // recommended inner_loop.step_db; 0: not checked
+	}{
+		// Toy optimum sqrt(2·60·f_D·T) = 2.1 dB at 30 km/h; the paired
+		// spread of 0.02 dB separates 2 dB from 3 dB (0.17 dB apart).
+		{"winner", func(r *Request) { r.Conditions = at(30) }, VerdictWinner, 2},
+		// Identical candidates (outer-loop step with the outer loop off):
+		// a tie of 2, broken to the smaller up step.
+		{"tie", func(r *Request) {
+			r.Conditions = at(30)
+			r.Axes = []Axis{{Path: "outer_loop.up_step_db", Values: []float64{1, 0.5}}}
+		}, VerdictTie, 0},
+		// Outage is 1 % per dB of SIR error std ≥ 1.35 dB: no candidate has
+		// outage ≤ 0.1 %; the closest is the lowest spread, 2 dB.
+		{"outage unmet", func(r *Request) {
+			r.Conditions = at(30)
+			r.Objective.OutageLimit = 0.001
+		}, VerdictConstraintsUnmet, 2},
+		// Noise rise 2 dB + step ≤ 3.6 dB rules out 2 and 3 dB: the best
+		// remaining is 1 dB, and the ordering lists the feasible first.
+		{"noise rise binds", func(r *Request) {
+			r.Conditions = at(30)
+			r.Objective.NoiseRiseLimitDB = 3.6
+		}, VerdictWinner, 1},
+		// Noise rise ≥ 2.25 dB everywhere: unmet, closest the smallest step.
+		{"noise rise unmet", func(r *Request) {
+			r.Conditions = at(30)
+			r.Objective.NoiseRiseLimitDB = 2.1
+		}, VerdictConstraintsUnmet, 0.25},
+		// Power objective: toy power is 10 dBm + spread, so the same optimum.
+		{"power", func(r *Request) {
+			r.Conditions = at(30)
+			r.Objective = Objective{Kind: ObjectiveMinTxPower, OutageLimit: 0.5}
+		}, VerdictWinner, 2},
+		{"single", func(r *Request) { r.Axes = nil }, VerdictSingle, 0},
+		// Three conditions, the overall verdict over all of them.
+		{"three conditions", func(r *Request) {}, 0, 0},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			req := toyRequest()
+			req.Axes = steps
+			tc.mod(&req)
+			rec, err := tuneWith(context.Background(), req, Options{}, toyEval)
+			if err != nil {
+				t.Fatal(err)
+			}
+			checkRecommendation(t, tc.name, rec)
+			d := rec.Overall
+			if tc.verdict != 0 && d.Verdict != tc.verdict {
+				t.Errorf("verdict %v, want %v: %s", d.Verdict, tc.verdict, d.Reason)
+			}
+			if got, _ := rec.Candidates[d.Best].Value("inner_loop.step_db"); tc.step != 0 && got != tc.step {
+				t.Errorf("recommended step %g dB, want %g: %s", got, tc.step, d.Reason)
+			}
+			t.Log(d.Reason)
+		})
+	}
+}
+
+// A tie never reads as a winner, on the real engine too: identical
+// candidates in two conditions (TestIdenticalCandidatesTie's set-up).
+func TestTieNeverWinner(t *testing.T) {
+	base := flatSingle(1500)
+	base.Run.Seed = 9
+	req := Request{
+		Base:       base,
+		Axes:       []Axis{{Path: "outer_loop.up_step_db", Values: []float64{1, 0.5, 2}}},
+		Objective:  Objective{Kind: ObjectiveMinSIRErrorStd},
+		Conditions: []Condition{speedCond("ped", 3), speedCond("veh", 60)},
+	}
+	rec, err := Tune(context.Background(), req, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkRecommendation(t, "tie", rec)
+	for _, d := range []Decision{rec.Conditions[0].Decision, rec.Conditions[1].Decision, rec.Overall} {
+		if d.Verdict != VerdictTie || d.Best != 1 || d.TieBreak != "smaller outer_loop.up_step_db" || !strings.HasPrefix(d.Headline, "Tie of 3") {
+			t.Errorf("verdict %v best %d break %q headline %q", d.Verdict, d.Best, d.TieBreak, d.Headline)
+		}
+	}
+}
+
+// The high-outage warning: toy outage is 1 % per dB of SIR error std, so
+// the recommended setting has about 1.6 % outage at 30 km/h and 5.6 % at
+// 250 km/h (where no step tracks).
+func TestHighOutageWarning(t *testing.T) {
+	tests := []struct {
+		name  string
+		level float64
+		kmh   float64
+		warn  bool
+	}{
+		{"above a 2 % level", 0.02, 250, true},
+		{"below a 2 % level", 0.02, 30, false},
+		{"default 10 % level", 0, 250, false},
+		{"warning off", 1, 250, false},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			req := toyRequest()
+			req.Conditions = []Condition{speedCond("c", tc.kmh)}
+			req.Objective.OutageWarning = tc.level
+			rec, err := tuneWith(context.Background(), req, Options{}, toyEval)
+			if err != nil {
+				t.Fatal(err)
+			}
+			out := rec.Conditions[0].Candidates[rec.Overall.Best].Figures.OutageProb.Mean
+			var got bool
+			for _, w := range rec.Overall.Warnings {
+				if w.Kind == WarningHighOutage {
+					got = true
+					if !strings.Contains(w.Text, pct(out)) || !strings.Contains(rec.Overall.Reason, w.Text) {
+						t.Errorf("warning %q does not quote the outage %s or is not in the reason", w.Text, pct(out))
+					}
+				}
+			}
+			if got != tc.warn {
+				t.Errorf("outage %s at level %g: warning %v, want %v", pct(out), tc.level, got, tc.warn)
+			}
+		})
+	}
+}
+
+// Power objective on the real engine: the fixed-power baseline is a power
+// figure. In FIXED_POWER mode every user transmits inner_loop.fixed_power_dbm
+// in every slot (the mode's definition), so the baseline's mean Tx power is
+// that value exactly; the gain is fixed minus recommended power in dB, paired
+// over the same replications.
+func TestPowerObjectiveUnits(t *testing.T) {
+	base := flatSingle(1500)
+	base.Groups[0].Speeds[0].SpeedKmh = 30
+	req := Request{
+		Base:      base,
+		Axes:      []Axis{{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 2}}},
+		Objective: Objective{Kind: ObjectiveMinTxPower, OutageLimit: 0.3},
+	}
+	rec, err := Tune(context.Background(), req, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkRecommendation(t, "power", rec)
+	bl := rec.Conditions[0].Baseline
+	if bl.Figure.Key != FigureTxPowerMean || bl.Figure.Unit != "dBm" || bl.Figure.DiffUnit != "dB" {
+		t.Errorf("baseline figure %+v, want mean Tx power in dBm with differences in dB", bl.Figure)
+	}
+	if math.Abs(bl.Fixed.Mean-base.InnerLoop.FixedPowerDBm) > 1e-9 || bl.Figures.TxPowerMeanDBm.Mean != bl.Fixed.Mean {
+		t.Errorf("fixed-power baseline %g dBm, want fixed_power_dbm %g", bl.Fixed.Mean, base.InnerLoop.FixedPowerDBm)
+	}
+	best := rec.Conditions[0].Candidates[rec.Overall.Best].Figures.TxPowerMeanDBm
+	if math.Abs(bl.Recommended.Mean-best.Mean) > 1e-9 || math.Abs(bl.Gain.Mean-(bl.Fixed.Mean-bl.Recommended.Mean)) > 1e-9 {
+		t.Errorf("gain %g dB, want fixed %g − recommended %g dBm", bl.Gain.Mean, bl.Fixed.Mean, bl.Recommended.Mean)
+	}
+	gain := FigureLabelOf(FigureTxPowerMean).Diff(math.Abs(bl.Gain.Mean)) // "x.xx dB"
+	if !strings.Contains(bl.Text, gain) || !strings.Contains(bl.Text, FigureLabelOf(FigureTxPowerMean).Value(bl.Fixed.Mean)) {
+		t.Errorf("baseline text %q lacks the gain %q or the fixed power in dBm", bl.Text, gain)
+	}
+	if rb := rec.Overall.RankedBy; rb.Unit != "dBm" || !strings.Contains(rec.Overall.RunnerUpLine, " dB worse") &&
+		!strings.Contains(rec.Overall.RunnerUpLine, " dB better") {
+		t.Errorf("ranked by %+v, runner-up line %q: differences of dBm must be in dB", rb, rec.Overall.RunnerUpLine)
+	}
+	t.Log(rec.Overall.Reason)
+}
+
+// f_D = v·f_c/c (fading.DopplerHz): 3 and 60 km/h at 2 GHz are 5.56 and
+// 111.2 Hz, over T = 1/1500 s an f_D·T of 0.0037 and 0.074; a condition
+// mixing them quotes that range and both speeds.
+func TestDopplerRangeInReason(t *testing.T) {
+	sc := flatSingle(1500)
+	sc.Groups[0].Count = 2
+	sc.Groups[0].DistancesM = []float64{200, 400}
+	sc.Groups[0].Speeds = []loop.SpeedShare{{SpeedKmh: 60, Weight: 1}, {SpeedKmh: 3, Weight: 1}}
+	lo, hi, sp := DopplerRange(sc)
+	fc := sc.Groups[0].CarrierFrequencyHz
+	wantLo, wantHi := 3/3.6*fc/299792458/1500, 60/3.6*fc/299792458/1500
+	if math.Abs(lo-wantLo) > 1e-12 || math.Abs(hi-wantHi) > 1e-12 || len(sp) != 2 || sp[0] != 3 || sp[1] != 60 {
+		t.Fatalf("range %g–%g over %v, want %g–%g over [3 60]", lo, hi, sp, wantLo, wantHi)
+	}
+	req := Request{
+		Base:      sc,
+		Axes:      []Axis{{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 2}}},
+		Objective: Objective{Kind: ObjectiveMinSIRErrorStd},
+	}
+	rec, err := tuneWith(context.Background(), req, Options{}, toyEval)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := "f_D·T 0.0037–0.074 over 3 and 60 km/h"
+	if fc != 2e9 {
+		t.Fatalf("carrier %g Hz, the expected text assumes 2 GHz", fc)
+	}
+	if r := rec.Conditions[0].Decision.Reason; !strings.Contains(r, want) {
+		t.Errorf("reason does not quote %q: %s", want, r)
+	}
+}
+
+func TestVerdictJSON(t *testing.T) {
+	for v := VerdictUnspecified; v <= VerdictSingle; v++ {
+		b, err := json.Marshal(Decision{Verdict: v})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var d Decision
+		if err := json.Unmarshal(b, &d); err != nil || d.Verdict != v {
+			t.Errorf("verdict %v: %s → %v, %v", v, b, d.Verdict, err)
 		}
 	}
 }
