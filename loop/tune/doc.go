@@ -38,17 +38,30 @@
 //     round would exceed MaxUserSlots.
 //  4. The verdict is taken at the stated confidence: the tie set is the
 //     leader plus every surviving candidate whose paired interval against
-//     the leader reaches zero. With a tie set of one the leader is declared
-//     the winner; otherwise the setting is picked by TieRule (smaller step,
-//     then lower update rate, ...) and the Decision says so.
+//     the leader reaches zero. Decision.Verdict is VerdictWinner with a tie
+//     set of one, VerdictTie otherwise (the setting picked by TieRule:
+//     smaller step, then lower update rate, ...; Decision.TieBreak names
+//     the key used), VerdictConstraintsUnmet when no candidate meets the
+//     constraints, VerdictSingle with one candidate. From then on the
+//     recommended candidate (Decision.Best) is the reference of everything
+//     reported: Decision.Ordering starts with it, the runner-up is
+//     Ordering[1], and every DiffToBest is relative to it.
 //
-// For the Tx-power objective a candidate is feasible when its outage and,
-// with the outer loop on, its achieved BLER meet the constraints on their
-// point estimates; infeasible candidates rank after feasible ones, are
-// dropped once an interval lies entirely outside a constraint, and power
+// Constraints apply to every objective (Objective.OutageLimit,
+// NoiseRiseLimitDB, BLERTolerance): a candidate is feasible when its point
+// estimates meet them; infeasible candidates rank after feasible ones, are
+// dropped once an interval lies entirely outside a constraint, and
 // comparisons drop others only against a leader whose intervals lie inside
 // the constraints. When nothing is feasible the candidates are ranked by
-// outage and Decision.ConstraintsUnmet is set.
+// their worst relative constraint excess (Objective.Excess), the verdict
+// says so first and Decision.Misses lists by how much the closest
+// candidate misses each constraint. A recommended setting with outage above
+// Objective.OutageWarning (default 10 %) carries a warning.
+//
+// The text every client prints comes from here: Decision.Headline,
+// RunnerUpLine, Warnings and Reason, Recommendation.Lines, and the
+// FigureLabel (name, unit, difference unit, display scale) of every
+// figure, so that no output invents a unit or names a different best.
 //
 // Each condition also gets a fixed-power baseline (inner_loop.mode
 // FIXED_POWER) on the recommended candidate's seeds, and the Recommendation
@@ -57,7 +70,9 @@
 // # Capacity
 //
 // Capacity bisects the count of one group for the largest count whose mean
-// outage is at or below a limit, with the same replication seeds at every
+// outage is at or below a limit, whose mean noise rise is at or below a
+// ceiling (DefaultNoiseRiseLimitDB, 6 dB: a load of 75 %) and whose load no
+// replication flagged infeasible, with the same replication seeds at every
 // count (common random numbers), and reports PoleCapacity (Gilhousen et al.,
 // IEEE Trans. Veh. Technol. 40(2), 1991) beside it.
 //
