@@ -239,7 +239,7 @@ func RecommendationToProto(r *tune.Recommendation, wall time.Duration) *pb.Recom
 		if b := c.Baseline; b != nil {
 			cr.Baseline = &pb.Baseline{Figures: tuneFiguresToProto(b.Figures), Gain: replicationEstimateToProto(b.Gain), BarelyHelps: b.BarelyHelps,
 				Figure: figureLabelToProto(b.Figure), Fixed: replicationEstimateToProto(b.Fixed),
-				Recommended: replicationEstimateToProto(b.Recommended), Text: b.Text}
+				Recommended: replicationEstimateToProto(b.Recommended), Text: b.Text, FixedMisses: b.FixedMisses}
 		}
 		m.Conditions = append(m.Conditions, cr)
 	}

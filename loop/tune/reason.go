@@ -264,8 +264,8 @@ func finishDecision(rec *Recommendation, d *Decision, conds []int, cands []Candi
 	case !cands[d.RunnerUp].Feasible && cands[d.Best].Feasible:
 		tail = "; it misses the constraints"
 	}
-	d.RunnerUpLine = fmt.Sprintf("Runner-up: %s, %s %s %s (%s interval of the difference %s, %d paired replications%s).",
-		ru, rb.Diff(mag.Mean), cmp, best, conf, rb.DiffInterval(ev), ev.N, tail)
+	d.RunnerUpLine = fmt.Sprintf("Runner-up: %s, %s %s %s %s (%s interval of the difference %s, %d paired replications%s).",
+		ru, rb.Name, rb.Diff(mag.Mean), cmp, best, conf, rb.DiffInterval(ev), ev.N, tail)
 }
 
 func containsInt(xs []int, v int) bool {
@@ -358,6 +358,11 @@ func stepHint(rec *Recommendation, c int) string {
 	}
 	var s string
 	rlo, rhi := regime(cr.DopplerProductMin), regime(cr.DopplerProductMax)
+	if cr.DopplerProductMax <= 3*cr.DopplerProductMin {
+		// A narrow range (e.g. 3 and 5 km/h) is one regime: its middle's.
+		rlo = regime(math.Sqrt(cr.DopplerProductMin * cr.DopplerProductMax))
+		rhi = rlo
+	}
 	switch {
 	case d.ConstraintsUnmet:
 		// Ranked by constraint excess: no claim about tracking.
@@ -412,10 +417,23 @@ func baselineText(rec *Recommendation, c int, bl *Baseline) string {
 		dir = "higher"
 	}
 	gain := fmt.Sprintf("%s %s (%s interval of the gain %s)", l.Diff(math.Abs(bl.Gain.Mean)), dir, conf, l.DiffInterval(bl.Gain))
-	best := rec.Conditions[c].Candidates[rec.Conditions[c].Decision.Best].Figures
+	cr := rec.Conditions[c]
+	best := cr.Candidates[cr.Decision.Best].Figures
 	if l.Key == FigureTxPowerMean {
-		return fmt.Sprintf("Fixed power: mean Tx power %s with outage %s; the recommended setting: %s with outage %s, %s.",
+		s := fmt.Sprintf("Fixed power: mean Tx power %s with outage %s; the recommended setting: %s with outage %s, %s.",
 			l.Value(bl.Fixed.Mean), pct(bl.Figures.OutageProb.Mean), l.Value(bl.Recommended.Mean), pct(best.OutageProb.Mean), gain)
+		if ms := missesOf(rec.Objective, cr.Name, bl.Figures); len(ms) > 0 {
+			var t []string
+			for _, m := range ms {
+				t = append(t, m.Text)
+			}
+			s += " Fixed power misses the constraints (" + strings.Join(t, "; ") + "), so the power figures are not comparable: power control is what meets them"
+			if !cr.Candidates[cr.Decision.Best].Feasible {
+				s += " as closely as the grid allows"
+			}
+			s += "."
+		}
+		return s
 	}
 	return fmt.Sprintf("Fixed power: %s %s; the recommended setting: %s, %s.",
 		l.Name, l.Value(bl.Fixed.Mean), l.Value(bl.Recommended.Mean), gain)
@@ -427,7 +445,7 @@ func baselineHint(rec *Recommendation, c int) string {
 	if bl == nil {
 		return ""
 	}
-	if !bl.BarelyHelps {
+	if !bl.BarelyHelps || bl.FixedMisses {
 		return bl.Text
 	}
 	why := "estimation error, delay or load dominate"

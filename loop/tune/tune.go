@@ -333,8 +333,12 @@ type Baseline struct {
 	Gain Estimate `json:"gain"`
 	// BarelyHelps: Gain's interval reaches zero, or Gain is below
 	// BarelyHelpsFraction of the fixed-power figure (SIR error std, outage)
-	// or below BarelyHelpsPowerDB (Tx power).
+	// or below BarelyHelpsPowerDB (Tx power). Never set when FixedMisses.
 	BarelyHelps bool `json:"barely_helps"`
+	// FixedMisses: under the Tx power objective, fixed power misses the
+	// objective's constraints, so its power is no reference: power control
+	// is what meets them.
+	FixedMisses bool `json:"fixed_misses"`
 	// Text is the comparison in one line with units.
 	Text string `json:"text"`
 }
@@ -898,7 +902,8 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 			bl.Recommended = clampEstimate(bl.Recommended, 0, 1)
 		}
 		if req.Objective.Kind == ObjectiveMinTxPower {
-			bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsPowerDB
+			bl.FixedMisses = len(missesOf(req.Objective, set.conds[c].Name, bl.Figures)) > 0
+			bl.BarelyHelps = !bl.FixedMisses && (gain.Low <= 0 || gain.Mean < BarelyHelpsPowerDB)
 		} else {
 			bl.BarelyHelps = gain.Low <= 0 || gain.Mean < BarelyHelpsFraction*math.Abs(bl.Fixed.Mean)
 		}

@@ -1573,7 +1573,8 @@ type Baseline struct {
 	// Tx power in dB (power saved).
 	Gain *ReplicationEstimate `protobuf:"bytes,2,opt,name=gain,proto3" json:"gain,omitempty"`
 	// The gain's interval reaches zero, or the gain is below 10 % of the
-	// fixed-power figure (SIR error std, outage) or below 1 dB (Tx power).
+	// fixed-power figure (SIR error std, outage) or below 1 dB (Tx power);
+	// never with fixed_misses.
 	BarelyHelps bool `protobuf:"varint,3,opt,name=barely_helps,json=barelyHelps,proto3" json:"barely_helps,omitempty"`
 	// The judged figure: the objective's own.
 	Figure *FigureLabel `protobuf:"bytes,4,opt,name=figure,proto3" json:"figure,omitempty"`
@@ -1582,7 +1583,11 @@ type Baseline struct {
 	// The judged figure at the recommended setting, in its stored unit.
 	Recommended *ReplicationEstimate `protobuf:"bytes,6,opt,name=recommended,proto3" json:"recommended,omitempty"`
 	// The comparison in one line with units.
-	Text          string `protobuf:"bytes,7,opt,name=text,proto3" json:"text,omitempty"`
+	Text string `protobuf:"bytes,7,opt,name=text,proto3" json:"text,omitempty"`
+	// With OBJECTIVE_KIND_MIN_TX_POWER: fixed power misses the objective's
+	// constraints, so its power is no reference (barely_helps is then
+	// false: power control is what meets them).
+	FixedMisses   bool `protobuf:"varint,8,opt,name=fixed_misses,json=fixedMisses,proto3" json:"fixed_misses,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1664,6 +1669,13 @@ func (x *Baseline) GetText() string {
 		return x.Text
 	}
 	return ""
+}
+
+func (x *Baseline) GetFixedMisses() bool {
+	if x != nil {
+		return x.FixedMisses
+	}
+	return false
 }
 
 // ConditionResult is everything about one condition.
@@ -2874,7 +2886,7 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x06misses\x18\x0e \x03(\v2\x1b.fadeloop.v1.ConstraintMissR\x06misses\x128\n" +
 	"\bwarnings\x18\x0f \x03(\v2\x1c.fadeloop.v1.DecisionWarningR\bwarnings\x12\x1a\n" +
 	"\bheadline\x18\x10 \x01(\tR\bheadline\x12$\n" +
-	"\x0erunner_up_line\x18\x11 \x01(\tR\frunnerUpLine\"\xd9\x02\n" +
+	"\x0erunner_up_line\x18\x11 \x01(\tR\frunnerUpLine\"\xfc\x02\n" +
 	"\bBaseline\x122\n" +
 	"\afigures\x18\x01 \x01(\v2\x18.fadeloop.v1.TuneFiguresR\afigures\x124\n" +
 	"\x04gain\x18\x02 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x04gain\x12!\n" +
@@ -2882,7 +2894,8 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x06figure\x18\x04 \x01(\v2\x18.fadeloop.v1.FigureLabelR\x06figure\x126\n" +
 	"\x05fixed\x18\x05 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x05fixed\x12B\n" +
 	"\vrecommended\x18\x06 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\vrecommended\x12\x12\n" +
-	"\x04text\x18\a \x01(\tR\x04text\"\xe0\x02\n" +
+	"\x04text\x18\a \x01(\tR\x04text\x12!\n" +
+	"\ffixed_misses\x18\b \x01(\bR\vfixedMisses\"\xe0\x02\n" +
 	"\x0fConditionResult\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x16\n" +
 	"\x06weight\x18\x02 \x01(\x01R\x06weight\x121\n" +
