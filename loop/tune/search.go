@@ -295,14 +295,21 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 		runnerUp:  -1,
 	}
 	fs := make([]feas, e.nK)
-	anyFeas, anyClearlyIn := false, false
+	anyFeas, anyClearlyIn, anyFeasAll := false, false, false
 	for k := 0; k < e.nK; k++ {
 		fs[k] = e.feasibility(s, k, e.conf)
 		o.feasible[k] = fs[k].est
+		anyFeasAll = anyFeasAll || fs[k].est
 		if !e.dropped[s][k] {
 			anyFeas = anyFeas || fs[k].est
 			anyClearlyIn = anyClearlyIn || fs[k].clearlyIn
 		}
+	}
+	// The final verdict never says "constraints unmet" while some candidate
+	// meets them: if only dropped candidates do, they rejoin the ranking.
+	revive := final && !anyFeas && anyFeasAll
+	if revive {
+		anyFeas = true
 	}
 	o.fallback = e.constrained() && !anyFeas
 	sc := make([][]float64, e.nK)
@@ -314,7 +321,7 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 		if e.constrained() && !o.fallback && !fs[k].est {
 			class[k] = 1
 		}
-		if !e.dropped[s][k] {
+		if !e.dropped[s][k] || revive {
 			alive = append(alive, k)
 		}
 	}

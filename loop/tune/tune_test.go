@@ -12,6 +12,7 @@ import (
 	"sync/atomic"
 	"testing"
 
+	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
 )
 
@@ -74,6 +75,7 @@ func TestBestStepFollowsDoppler(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		checkRecommendation(t, "doppler", rec)
 		low, mid, high := rec.Conditions[0], rec.Conditions[1], rec.Conditions[2]
 		if stepOf(rec, low.Decision) > stepOf(rec, mid.Decision) {
 			t.Errorf("seed %d: best step %g dB at f_D·T %.3g above %g dB at %.3g", seed,
@@ -115,6 +117,7 @@ func TestPlantedWinner(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		checkRecommendation(t, "planted", rec)
 		if d := rec.Overall; d.Best != 1 || !d.Declared {
 			t.Errorf("seed %d: best %d declared %v, want the planted candidate 1 declared: %s", seed, d.Best, d.Declared, d.Reason)
 		}
@@ -252,6 +255,7 @@ func TestMinTxPowerConstrained(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkRecommendation(t, "min power", rec)
 	cr := rec.Conditions[0]
 	if cr.Decision.ConstraintsUnmet {
 		t.Fatalf("no feasible setting: %s", cr.Decision.Reason)
@@ -315,6 +319,11 @@ func checkDecision(t *testing.T, scope string, d Decision, cands []CandidateResu
 		}
 	}
 	if d.Verdict == VerdictConstraintsUnmet {
+		for k, c := range cands {
+			if c.Feasible {
+				t.Errorf("%s: constraints unmet, yet candidate %d meets them", scope, k)
+			}
+		}
 		if len(d.Misses) == 0 {
 			t.Errorf("%s: constraints unmet without misses", scope)
 		}
@@ -566,5 +575,33 @@ func TestVerdictJSON(t *testing.T) {
 		if err := json.Unmarshal(b, &d); err != nil || d.Verdict != v {
 			t.Errorf("verdict %v: %s → %v, %v", v, b, d.Verdict, err)
 		}
+	}
+}
+
+// The final verdict never says "constraints unmet" while a candidate meets
+// them, even one dropped earlier: here the only candidate under the 2 %
+// outage limit (candidate 0) was dropped, and it must come back as the
+// recommendation.
+func TestDroppedFeasibleCandidateRevived(t *testing.T) {
+	outage := []float64{0.01, 0.05, 0.06}
+	e := &engine{
+		nK: 3, nC: 1, w: []float64{1},
+		obj:     Objective{Kind: ObjectiveMinTxPower, OutageLimit: 0.02},
+		conf:    0.95,
+		tieLess: func(a, b int) bool { return a < b },
+	}
+	e.samples = make([][][]Sample, 3)
+	for k := range e.samples {
+		e.samples[k] = [][]Sample{nil}
+		for r := 0; r < 4; r++ {
+			z := fading.NewStream(1, k, r, 1).NormFloat64()
+			e.samples[k][0] = append(e.samples[k][0], Sample{TxPowerMeanDBm: 20 - float64(k) + 0.1*z, OutageProb: outage[k] + 0.001*z})
+		}
+	}
+	e.dropped = [][]bool{{true, false, false}}
+	e.equiv = [][]bool{{false, false, false}}
+	o := e.decide(0, true)
+	if o.fallback || o.chosen != 0 || o.ordering[0] != 0 {
+		t.Errorf("fallback %v, chosen %d, ordering %v; want candidate 0 (the only one under the limit)", o.fallback, o.chosen, o.ordering)
 	}
 }
