@@ -36,11 +36,29 @@ func ExampleTune() {
 		fmt.Println(err) // loop.Violations name every bad field
 		return
 	}
-	fmt.Println(rec.Candidates[rec.Overall.Best].Label())
-	fmt.Println(rec.Overall.Reason)
+	// The outcome is rec.Overall.Verdict; the recommended setting is
+	// Overall.Best (== Overall.Ordering[0]) whatever the verdict.
+	switch rec.Overall.Verdict {
+	case tune.VerdictConstraintsUnmet:
+		fmt.Println("no setting meets the constraints; closest:", rec.Candidates[rec.Overall.Best].Label())
+	default:
+		fmt.Println(rec.Candidates[rec.Overall.Best].Label())
+	}
+	for _, line := range rec.Lines() { // headline, runner-up, warnings, tie rule, notice
+		fmt.Println(line)
+	}
 }
 
-// The largest user count at 5 % outage, with the pole capacity beside it.
+// Every figure's display name and units come from one place.
+func ExampleFigureLabel() {
+	out := tune.FigureLabelOf(tune.FigureOutage)
+	pw := tune.FigureLabelOf(tune.FigureTxPowerMean)
+	fmt.Println(out.Value(0.0821), "|", out.Diff(0.032), "|", pw.Value(21.5), "|", pw.Diff(1.5))
+	// Output: 8.21 % | 3.20 percentage points | 21.50 dBm | 1.50 dB
+}
+
+// The largest user count at 5 % outage and at most 6 dB of noise rise (the
+// default ceiling), with the pole capacity beside it.
 func ExampleCapacity() {
 	base := loop.CanonicalScenario()
 	base.Run.Slots = 6000
@@ -51,5 +69,6 @@ func ExampleCapacity() {
 		fmt.Println(err)
 		return
 	}
-	fmt.Println(res.TotalUsers, res.Pole, res.Reason)
+	fmt.Println(res.Headline) // e.g. "Capacity: 55 users (...); limited by noise rise."
+	fmt.Println(res.TotalUsers, res.LimitedBy, res.Pole, res.Reason)
 }
