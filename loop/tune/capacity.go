@@ -193,8 +193,9 @@ type CapacityResult struct {
 	// Count: any of "outage_probability", "noise_rise_mean_db" and
 	// "infeasible_load" (empty when no count failed).
 	LimitedBy []string `json:"limited_by"`
-	// Headline is the first line of every text output, e.g. "Capacity: 41
-	// users (outage ≤ 5.00 %, noise rise ≤ 6.00 dB); limited by noise rise".
+	// Headline is the first line of every text output, e.g. "Capacity: 55
+	// users (outage ≤ 5.00 %, noise rise ≤ 6.00 dB, feasible load); limited
+	// by noise rise."
 	Headline string `json:"headline"`
 	// Reason is a plain-language summary.
 	Reason string `json:"reason"`

@@ -302,12 +302,15 @@ type Decision struct {
 	// Warnings about the recommended setting.
 	Warnings []Warning `json:"warnings"`
 	// Headline is the first line of every text output of this decision,
-	// e.g. "Winner: step_db=0.5, SIR error std 1.92 dB [1.90, 1.94]", or
-	// "Constraints unmet: ..." first when they are.
+	// starting with the verdict: "Winner: step_db=0.5 (SIR error std 1.92
+	// dB, 95 % interval [1.90, 1.94] dB).", "Tie of 2 at 95 %: ... is
+	// recommended by the tie rule (smaller inner_loop.step_db); ...",
+	// "Constraints unmet: no setting meets ... Closest: ..., which misses:
+	// ..." or "Single setting: ...".
 	Headline string `json:"headline"`
-	// RunnerUpLine is the runner-up's line, e.g. "Runner-up step_db=1:
-	// 0.12 dB worse than step_db=0.5 (95 % interval [0.08, 0.16], 6
-	// paired replications)".
+	// RunnerUpLine is the runner-up's line, e.g. "Runner-up: step_db=1, SIR
+	// error std 0.12 dB worse than step_db=0.5 (95 % interval of the
+	// difference [0.08, 0.16] dB, 6 paired replications)."
 	RunnerUpLine string `json:"runner_up_line"`
 	// Reason is a short plain-language account built from the figures.
 	Reason string `json:"reason"`
