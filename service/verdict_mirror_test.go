@@ -2,7 +2,11 @@ package service
 
 import (
 	"context"
+	"reflect"
+	"strings"
 	"testing"
+
+	"google.golang.org/protobuf/reflect/protoreflect"
 
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -69,4 +73,50 @@ func TestSearchLimitsBadInput(t *testing.T) {
 		_, _, err := tuneCall(context.Background(), env, r)
 		wantInvalid(t, err, tc.field)
 	}
+}
+
+// TestSearchFieldNamesMirror checks that the tuner's answers carry the
+// proto's field names (json tags against descriptors, both ways,
+// recursively), so one figure has one name in Go, the API and the CLI.
+// Known differences: Recommendation.axes (Go only: the resolved axes, which
+// the request already holds) and wall_time_s (proto only: the call's clock).
+func TestSearchFieldNamesMirror(t *testing.T) {
+	known := map[string]bool{"axes": true, "wall_time_s": true, "effort.wall_time_s": true}
+	var walk func(path string, gt reflect.Type, md protoreflect.MessageDescriptor)
+	walk = func(path string, gt reflect.Type, md protoreflect.MessageDescriptor) {
+		seen := map[string]bool{}
+		for i := range gt.NumField() {
+			f := gt.Field(i)
+			tag := strings.Split(f.Tag.Get("json"), ",")[0]
+			if tag == "" || tag == "-" {
+				continue
+			}
+			seen[tag] = true
+			fd := md.Fields().ByName(protoreflect.Name(tag))
+			if fd == nil {
+				if known[path+tag] {
+					continue
+				}
+				t.Errorf("%s%s: in tune.%s but not in proto %s", path, tag, gt.Name(), md.FullName())
+				continue
+			}
+			ft := f.Type
+			if ft.Kind() == reflect.Pointer {
+				ft = ft.Elem()
+			}
+			if ft.Kind() == reflect.Slice {
+				ft = ft.Elem()
+			}
+			if ft.Kind() == reflect.Struct && fd.Message() != nil {
+				walk(path+tag+".", ft, fd.Message())
+			}
+		}
+		for i := range md.Fields().Len() {
+			if n := string(md.Fields().Get(i).Name()); !seen[n] && !known[path+n] {
+				t.Errorf("%s%s: in proto %s but not in tune.%s", path, n, md.FullName(), gt.Name())
+			}
+		}
+	}
+	walk("", reflect.TypeFor[tune.Recommendation](), (&pb.Recommendation{}).ProtoReflect().Descriptor())
+	walk("", reflect.TypeFor[tune.CapacityResult](), (&pb.CapacityResult{}).ProtoReflect().Descriptor())
 }

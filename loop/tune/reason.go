@@ -39,7 +39,7 @@ type FigureLabel struct {
 	DiffUnit string `json:"diff_unit"`
 	// Scale turns the stored value into the displayed one (100 for
 	// proportions, stored in [0, 1] and shown in %; 1 otherwise).
-	Scale float64 `json:"scale"`
+	Scale float64 `json:"display_scale"`
 	// Decimals shown in tables and text.
 	Decimals int `json:"decimals"`
 }

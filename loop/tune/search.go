@@ -22,17 +22,17 @@ type Sample struct {
 	SIRErrorStdDB  float64 `json:"sir_error_std_db"`
 	// OutageProb: fraction of user-slots with SIR below target minus the
 	// outage margin, [0, 1].
-	OutageProb float64 `json:"outage_prob"`
+	OutageProb float64 `json:"outage_probability"`
 	// BLER: achieved block error rate, [0, 1]; BLERTarget the outer loop's
 	// target τ, or 0 when the outer loop is off (no BLER constraint then).
-	BLER       float64 `json:"bler"`
+	BLER       float64 `json:"achieved_bler"`
 	BLERTarget float64 `json:"bler_target"`
 	// TxPowerMeanDBm: mean transmit power over users and slots, dBm.
 	TxPowerMeanDBm float64 `json:"tx_power_mean_dbm"`
 	// TimeAtMaxPower: fraction of user-slots at maximum power, [0, 1].
-	TimeAtMaxPower float64 `json:"time_at_max_power"`
+	TimeAtMaxPower float64 `json:"max_power_fraction"`
 	// NoiseRiseDB: mean noise rise at the receiver, dB.
-	NoiseRiseDB float64 `json:"noise_rise_db"`
+	NoiseRiseDB float64 `json:"noise_rise_mean_db"`
 	// UserSlots simulated (users × slots, warm-up included).
 	UserSlots int64 `json:"user_slots"`
 	// Infeasible is set when the engine reported that the users cannot all

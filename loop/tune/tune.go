@@ -105,13 +105,13 @@ type Options struct {
 type Figures struct {
 	SIRErrorMeanDB Estimate `json:"sir_error_mean_db"`
 	SIRErrorStdDB  Estimate `json:"sir_error_std_db"`
-	OutageProb     Estimate `json:"outage_prob"`
-	BLER           Estimate `json:"bler"`
+	OutageProb     Estimate `json:"outage_probability"`
+	BLER           Estimate `json:"achieved_bler"`
 	// BLERTarget is the outer loop's τ (0 when the outer loop is off).
 	BLERTarget     float64  `json:"bler_target"`
 	TxPowerMeanDBm Estimate `json:"tx_power_mean_dbm"`
-	TimeAtMaxPower Estimate `json:"time_at_max_power"`
-	NoiseRiseDB    Estimate `json:"noise_rise_db"`
+	TimeAtMaxPower Estimate `json:"max_power_fraction"`
+	NoiseRiseDB    Estimate `json:"noise_rise_mean_db"`
 	// InfeasibleReplications counts replications the engine flagged as
 	// infeasible load.
 	InfeasibleReplications int `json:"infeasible_replications"`
