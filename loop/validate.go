@@ -500,19 +500,15 @@ func (c *checker) run(sc Scenario) {
 	}
 }
 
-// Cost is the work of a run in tap-user-slots: Σ_groups count × taps ×
-// slots × replications (slots warm-up included), the users × slots × taps
-// bound the service enforces. It saturates at math.MaxInt64 and never
-// panics; an invalid scenario may give any value.
+// Cost is the work of a run in tap-user-slots: Σ_groups count × fingers ×
+// slots × replications (slots warm-up included; fingers as simulated, see
+// Receiver.RakeFingers), the users × slots × taps bound the service
+// enforces. It saturates at math.MaxInt64 and never panics; an invalid
+// scenario may give any value.
 func (sc Scenario) Cost() int64 {
 	tapUsers := 0.0
-	for _, g := range sc.Groups {
-		n := len(g.CustomTaps)
-		if n == 0 {
-			if p, err := fading.BuiltinProfile(g.Profile); err == nil {
-				n = len(p.Taps)
-			}
-		}
+	for i, g := range sc.Groups {
+		n := len(groupProfile(sc, i).Taps)
 		if g.Count > 0 {
 			tapUsers += float64(g.Count) * float64(max(n, 1))
 		}
