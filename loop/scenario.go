@@ -159,33 +159,33 @@ type RunSettings struct {
 	Batches        int     `json:"batches"`          // batches of the batch-means confidence intervals, [20, 10000]; default 20
 }
 
-// Defaults filled by Normalise.
+// Defaults filled by Normalise, with their sources.
 const (
 	DefaultChipRateHz       = 3.84e6 // 3GPP UTRA FDD chip rate
 	DefaultBitRateBps       = 12.2e3 // AMR 12.2 kbit/s speech
-	DefaultCarrierHz        = 2e9
-	DefaultUpdateRateHz     = 1500 // 3GPP TS 25.214 §5.1.2.2 (memory)
-	DefaultStepDB           = 1
-	DefaultMinPowerDBm      = -50
-	DefaultMaxPowerDBm      = 24 // 3GPP power class 3 UE (memory)
-	DefaultBLERTarget       = 0.1
-	DefaultBlockSlots       = 15 // one 10 ms frame at 1500 Hz
-	DefaultUpStepDB         = 0.5
-	DefaultMinTargetDB      = -10
-	DefaultMaxTargetDB      = 30
-	DefaultSlopeDB          = 1
-	DefaultEESMBeta         = 1
-	DefaultOutageMarginDB   = 3
-	DefaultDistanceBins     = 4
-	DefaultBatches          = 20
-	DefaultMeanBurstSlots   = 1500 // about 1 s talk spurts at 1500 Hz (common practice)
-	DefaultDecorrelationM   = 50   // (common practice)
-	DefaultBaseHeightM      = 30
-	DefaultMobileHeightM    = 1.5
+	DefaultCarrierHz        = 2e9    // UMTS core band (common practice)
+	DefaultUpdateRateHz     = 1500   // 3GPP TS 25.214 §5.1.2.2 (memory)
+	DefaultStepDB           = 1      // 3GPP TS 25.214 §5.1.2.2.2 algorithm 1, 1 dB step (memory)
+	DefaultMinPowerDBm      = -50    // UTRA UE minimum output power (3GPP TS 25.101 (memory))
+	DefaultMaxPowerDBm      = 24     // 3GPP power class 3 UE (memory)
+	DefaultBLERTarget       = 0.1    // speech BLER target (common practice)
+	DefaultBlockSlots       = 15     // one 10 ms frame at 1500 Hz
+	DefaultUpStepDB         = 0.5    // outer-loop up step (common practice)
+	DefaultMinTargetDB      = -10    // SIR-target limits (common practice)
+	DefaultMaxTargetDB      = 30     // SIR-target limits (common practice)
+	DefaultSlopeDB          = 1      // logistic link-curve slope (common practice)
+	DefaultEESMBeta         = 1      // EESM β for low-order modulation (common practice)
+	DefaultOutageMarginDB   = 3      // outage at target − 3 dB (common practice)
+	DefaultDistanceBins     = 4      // distance bins of the per-bin figures (a display choice)
+	DefaultBatches          = 20     // fewest batch means for a Student t interval (DEVELOPERS.md, common practice)
+	DefaultMeanBurstSlots   = 1500   // about 1 s talk spurts at 1500 Hz (common practice)
+	DefaultDecorrelationM   = 50     // urban macro shadowing decorrelation, Gudmundson model (common practice)
+	DefaultBaseHeightM      = 30     // Hata base height, lower end of its 30–200 m range (common practice)
+	DefaultMobileHeightM    = 1.5    // Hata reference mobile height (common practice)
 	DefaultLogDistRefM      = 10
 	DefaultLogDistRefLossDB = 52.9 // 128.1 + 37.6·log10(d/1 km) referred to 10 m: 3GPP TR 25.942 macro cell at 2 GHz (memory)
-	DefaultLogDistExponent  = 3.76
-	DefaultMaxFingers       = 4    // fingers per user of a base-station RAKE receiver (common practice)
+	DefaultLogDistExponent  = 3.76 // same model
+	DefaultMaxFingers       = 4    // RAKE fingers per user of a base-station receiver (common practice)
 	DefaultMinDistanceM     = 35   // minimum BS-UE distance of the macro-cell scenario, 3GPP TR 25.942 (memory)
 	DefaultDurationS        = 10.0 // run length when neither slots nor duration_s is set: 15 000 slots at 1500 Hz, over 500 Doppler periods at 30 km/h and 2 GHz (common practice)
 )

@@ -392,7 +392,7 @@ func TestMinimalScenarioRuns(t *testing.T) {
 	n := rep.NormalisedScenario
 	g := n.Groups[0]
 	checks := []struct {
-		field    string
+		field     string
 		got, want any
 	}{
 		{"receiver.rake_fingers", n.Receiver.RakeFingers, RakeFingersChipResolved},
