@@ -371,8 +371,9 @@ func TestSimulateCostBound(t *testing.T) {
 	env := startEnv(t, viaBufconn, Config{MaxCost: 1000})
 	_, _, err := simulate(context.Background(), env, &pb.SimulateRequest{Scenario: smallScenario(t)})
 	st := wantCode(t, err, codes.ResourceExhausted)
-	// 4 users × 3000 slots × 4 taps (PEDA) × 2 replications = 96000.
-	if !strings.Contains(st.Message(), "max_cost = 1000") || !strings.Contains(st.Message(), "96000") {
+	// 4 users × 3000 slots × 2 fingers (PEDA's 4 taps resolve into 2 paths
+	// at 3.84 Mchip/s) × 2 replications = 48000.
+	if !strings.Contains(st.Message(), "max_cost = 1000") || !strings.Contains(st.Message(), "48000") {
 		t.Errorf("message %q does not name the bound and the cost", st.Message())
 	}
 }
