@@ -17,7 +17,7 @@ type Placement int
 
 // Placements.
 const (
-	PlacementUnspecified     Placement = iota // not set
+	PlacementUnspecified     Placement = iota // not set; Normalise makes it EXPLICIT when distances_m is given, else UNIFORM_AREA when max_distance_m is
 	PlacementExplicit                         // distances_m, one per user
 	PlacementUniformDistance                  // evenly spread in distance between min and max, both included
 	PlacementUniformArea                      // evenly spread in area over the annulus min..max

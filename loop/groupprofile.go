@@ -72,6 +72,11 @@ func groupRicianKDB(sc Scenario, g int) float64 {
 // combined fingers of group g collect; the engine multiplies the user's
 // mean channel gain by it.
 func groupCapturedLin(sc Scenario, g int) float64 {
+	grp := sc.Groups[g]
+	if sc.Receiver.RakeFingers == RakeFingersIdealEveryTap ||
+		(grp.Profile == "" && len(grp.CustomTaps) <= sc.Receiver.MaxFingers) {
+		return 1 // every path kept: no need to resolve (called once per user)
+	}
 	c := groupFingerSet(sc, g).CapturedFraction
 	if !(c > 0) || c > 1 {
 		return 1

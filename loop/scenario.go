@@ -49,7 +49,7 @@ type Receiver struct {
 // SpeedShare is one speed of a group's speed mix.
 type SpeedShare struct {
 	SpeedKmh float64 `json:"speed_kmh"` // mobile speed in km/h, [0, 1000]; Doppler f_D = v·f_c/c
-	Weight   float64 `json:"weight"`    // relative weight, (0, 1e6]; users are assigned in proportion, deterministically
+	Weight   float64 `json:"weight"`    // relative weight, (0, 1e6]; users are assigned in proportion, deterministically; all unset in a group: 1 each
 }
 
 // Tap is one tap of a custom tap-delay profile.
@@ -61,8 +61,8 @@ type Tap struct {
 // PathLoss is a group's distance-dependent mean path loss (dB, positive =
 // loss). Models and their validity ranges are those of package fading.
 type PathLoss struct {
-	Model         PathLossModel `json:"model"`           // the model
-	RefDistanceM  float64       `json:"ref_distance_m"`  // LOG_DISTANCE: reference distance d0 in m, (0, 1e5]
+	Model         PathLossModel `json:"model"`           // the model; unset: LOG_DISTANCE (with the defaults below when no parameter is set)
+	RefDistanceM  float64       `json:"ref_distance_m"`  // LOG_DISTANCE: reference distance d0 in m, (0, 1e5]; with ref_loss_db and exponent all 0: 10 m, 52.9 dB, 3.76
 	RefLossDB     float64       `json:"ref_loss_db"`     // LOG_DISTANCE: loss at d0 in dB, [0, 300]
 	Exponent      float64       `json:"exponent"`        // LOG_DISTANCE: exponent n, (0, 10]
 	BaseHeightM   float64       `json:"base_height_m"`   // Hata models: base antenna height in m; default 30
@@ -75,7 +75,7 @@ type PathLoss struct {
 type UserGroup struct {
 	Name                    string       `json:"name"`                      // free-form label
 	Count                   int          `json:"count"`                     // users in the group, [1, 4096]
-	Placement               Placement    `json:"placement"`                 // how users are placed
+	Placement               Placement    `json:"placement"`                 // how users are placed; unset: EXPLICIT with distances_m, else UNIFORM_AREA with max_distance_m
 	DistancesM              []float64    `json:"distances_m"`               // PLACEMENT_EXPLICIT: one distance in m per user, (0, 1e6]
 	MinDistanceM            float64      `json:"min_distance_m"`            // uniform placements: inner radius in m, 0 < min <= max; default min(35, max_distance_m)
 	MaxDistanceM            float64      `json:"max_distance_m"`            // uniform placements: outer radius in m, <= 1e6
