@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"go.yaml.in/yaml/v3"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 func TestCanonicalScenarioValid(t *testing.T) {
@@ -559,5 +560,46 @@ func TestGroupFingers(t *testing.T) {
 	}
 	if p := groupProfile(sc, 1); len(p.Taps) != 9 {
 		t.Errorf("ideal receiver simulates %d taps of ETU, want 9", len(p.Taps))
+	}
+}
+
+// TestEngineFingerDiversity runs one user at fixed power over four equal
+// taps in two pairs 100 ns apart (1 µs between the pairs): at 3.84 Mchip/s
+// the chip-resolved receiver sees two equal fingers, so its outage is the
+// two-branch MRC law Gamma(2, 1) CDF at 10^(−x/10), x the per-branch mean
+// SIR above the threshold; the ideal every-tap receiver sees four branches,
+// Gamma(4, 1) (Proakis, Digital Communications (memory); gonum distuv).
+// Tolerance as in TestNoPowerControlOutage: 1.5× the Wilson half-width.
+func TestEngineFingerDiversity(t *testing.T) {
+	slots := int64(300000)
+	if testing.Short() {
+		slots = 60000
+	}
+	const xDB = 3
+	for _, c := range []struct {
+		rf       RakeFingers
+		branches int
+	}{{RakeFingersChipResolved, 2}, {RakeFingersIdealEveryTap, 4}} {
+		sc := baseScenario(1, slots)
+		sc.Receiver.RakeFingers = c.rf
+		sc.Groups[0].Profile = ""
+		sc.Groups[0].CustomTaps = []Tap{{DelayNs: 0}, {DelayNs: 100}, {DelayNs: 1000}, {DelayNs: 1100}}
+		sc.Groups[0].Speeds[0].SpeedKmh = 100
+		sc.InnerLoop.Mode = InnerModeFixedPower
+		sc.InnerLoop.FixedPowerDBm = 0
+		sc.Receiver.OtherCellRatio = 0
+		us, _ := placeUsers(sc)
+		meanDB := linToDB(sc.Receiver.ProcessingGain()) - us[0].pathLossDB - sc.Receiver.NoiseDBm()
+		branchDB := meanDB - linToDB(float64(c.branches))
+		sc.OuterLoop.InitialTargetDB = branchDB - xDB + sc.Run.OutageMarginDB
+		rep := mustRun(t, sc, nil, RunOptions{})
+		if f := rep.GroupFingers[0].Fingers; f != c.branches {
+			t.Fatalf("%s: %d fingers, want %d", c.rf, f, c.branches)
+		}
+		want := distuv.Gamma{Alpha: float64(c.branches), Beta: 1}.CDF(dbToLin(-xDB))
+		e := rep.Aggregate.OutageProbability
+		if !within(e, want, 1.5) {
+			t.Errorf("%s: outage %.5f (CI %.5f..%.5f), %d-branch theory %.5f", c.rf, e.Value, e.CILow, e.CIHigh, c.branches, want)
+		}
 	}
 }
