@@ -20,7 +20,9 @@ type Tap struct {
 
 // Profile is a tap-delay profile: taps sorted by strictly increasing delay.
 // Each tap of a channel is an independent fading process; the combined gain
-// of ideal maximal-ratio (RAKE) combining is Σ_l |h_l|².
+// of ideal maximal-ratio (RAKE) combining is Σ_l |h_l|². A receiver at a
+// finite chip rate cannot separate taps less than one chip apart:
+// ResolveFingers turns a profile into the fingers it actually combines.
 type Profile struct {
 	Name string // trade name or a caller's label; informational
 	Taps []Tap

@@ -10,7 +10,8 @@ package loop
 // delay (a command from slot t applies in slot t+2), power within
 // [−50, 24] dBm starting at 0 dBm, a fixed 5 dB SIR target, 90 000 slots
 // (60 s) of which the first 1 500 are warm-up, outage at target − 3 dB,
-// seed 1. It is already normalised and valid.
+// seed 1, every tap its own RAKE finger (as in the peer). It is already
+// normalised and valid.
 //
 // The peer's taps have a combined mean power of 1/2, not 1 (each tap is
 // scaled by 0.5/L after |h|² of unit mean), so its channel is 3.01 dB below
@@ -26,6 +27,10 @@ func CanonicalScenario() Scenario {
 			NoiseFigureDB:     5,
 			OtherCellRatio:    0.2,
 			SIRAveragingSlots: 1,
+			// The peer combines its three taps (100 ns apart) as separate
+			// fingers: the ideal receiver, not the chip-resolved default.
+			RakeFingers: RakeFingersIdealEveryTap,
+			MaxFingers:  DefaultMaxFingers,
 		},
 		Groups: []UserGroup{{
 			Name:               "all",

@@ -335,17 +335,8 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	s := &shared{sc: sc, users: users, hk: hk, n: len(users), total: sc.TotalSlots(), warm: sc.Run.WarmupSlots,
 		rateHz: sc.InnerLoop.UpdateRateHz, gp: sc.Receiver.ProcessingGain(), noiseMW: dbToLin(sc.Receiver.NoiseDBm()),
 		f1: 1 + sc.Receiver.OtherCellRatio, link: newLinkModel(sc.Link)}
-	for _, g := range sc.Groups {
-		var p fading.Profile
-		if g.Profile != "" {
-			p, _ = fading.BuiltinProfile(g.Profile)
-		} else {
-			p.Name = "custom"
-			for _, t := range g.CustomTaps {
-				p.Taps = append(p.Taps, fading.Tap{DelayNs: t.DelayNs, PowerDB: t.PowerDB})
-			}
-		}
-		s.profile = append(s.profile, p)
+	for g := range sc.Groups {
+		s.profile = append(s.profile, groupProfile(sc, g))
 	}
 	il := sc.InnerLoop
 	for _, u := range users {
@@ -546,7 +537,7 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 				DopplerHz:    ui.dopplerHz,
 				SampleRateHz: sh.rateHz,
 				Profile:      sh.profile[ui.group],
-				RicianKDB:    g.RicianKDB,
+				RicianKDB:    groupRicianKDB(sc, ui.group),
 				LOS:          g.LOS,
 				Generator:    fading.Generator(int(g.Generator) - 1),
 				Sinusoids:    g.Sinusoids,
@@ -559,7 +550,7 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 				return nil, fmt.Errorf("user %d channel: %w", u, err)
 			}
 			ug.src = ch
-			ug.plLin = dbToLin(-ui.pathLossDB)
+			ug.plLin = dbToLin(-ui.pathLossDB) * groupCapturedLin(sc, ui.group)
 			if g.ShadowingSigmaDB > 0 {
 				s, err := fading.NewShadowing(fading.ShadowingConfig{SigmaDB: g.ShadowingSigmaDB, DecorrelationM: g.ShadowingDecorrelationM,
 					SpeedMps: ui.speedKmh / 3.6, SamplePeriodS: 1 / sh.rateHz}, fading.NewStream(rp.seed, u, 0, fading.StreamShadowing))

@@ -267,7 +267,7 @@ func TestIdealPowerRise(t *testing.T) {
 		sc := baseScenario(1, 400000)
 		sc.Groups[0].Profile = ""
 		for l := 0; l < c.taps; l++ {
-			sc.Groups[0].CustomTaps = append(sc.Groups[0].CustomTaps, Tap{DelayNs: float64(100 * l)})
+			sc.Groups[0].CustomTaps = append(sc.Groups[0].CustomTaps, Tap{DelayNs: float64(1000 * l)}) // 1 µs apart: resolvable at 3.84 Mchip/s
 		}
 		sc.Groups[0].Speeds[0].SpeedKmh = 100 // f_D T = 0.12: many independent fades
 		sc.InnerLoop.Mode = InnerModeIdeal
@@ -304,7 +304,7 @@ func TestNoPowerControlOutage(t *testing.T) {
 		sc := baseScenario(1, slots)
 		sc.Groups[0].Profile = ""
 		for l := 0; l < c.taps; l++ {
-			sc.Groups[0].CustomTaps = append(sc.Groups[0].CustomTaps, Tap{DelayNs: float64(100 * l)})
+			sc.Groups[0].CustomTaps = append(sc.Groups[0].CustomTaps, Tap{DelayNs: float64(1000 * l)}) // 1 µs apart: resolvable at 3.84 Mchip/s
 		}
 		sc.Groups[0].Speeds[0].SpeedKmh = 100
 		sc.InnerLoop.Mode = InnerModeFixedPower

@@ -3,6 +3,7 @@ package loop
 import (
 	"fmt"
 	"strconv"
+	"strings"
 )
 
 // The enumerations of a Scenario. Each is a Go int whose zero value means
@@ -16,7 +17,7 @@ type Placement int
 
 // Placements.
 const (
-	PlacementUnspecified     Placement = iota // not set
+	PlacementUnspecified     Placement = iota // not set; Normalise makes it EXPLICIT when distances_m is given, else UNIFORM_AREA when max_distance_m is
 	PlacementExplicit                         // distances_m, one per user
 	PlacementUniformDistance                  // evenly spread in distance between min and max, both included
 	PlacementUniformArea                      // evenly spread in area over the annulus min..max
@@ -102,10 +103,22 @@ const (
 	EffectiveSIREESM                            // exponential effective SIR mapping with eesm_beta
 )
 
+// RakeFingers says how the receiver turns a group's tap-delay profile into
+// RAKE fingers.
+type RakeFingers int
+
+// RAKE finger models.
+const (
+	RakeFingersUnspecified   RakeFingers = iota // not set; Normalise makes it CHIP_RESOLVED
+	RakeFingersChipResolved                     // taps less than one chip apart merge into one finger, at most max_fingers kept (fading.ResolveFingers)
+	RakeFingersIdealEveryTap                    // ideal receiver: every tap is its own finger whatever the chip rate, no finger limit
+)
+
 var (
-	placementNames = []string{"PLACEMENT_UNSPECIFIED", "PLACEMENT_EXPLICIT", "PLACEMENT_UNIFORM_DISTANCE", "PLACEMENT_UNIFORM_AREA"}
-	generatorNames = []string{"GENERATOR_UNSPECIFIED", "GENERATOR_DEFAULT", "GENERATOR_SUM_OF_SINUSOIDS", "GENERATOR_SPECTRAL"}
-	pathLossNames  = []string{"PATH_LOSS_MODEL_UNSPECIFIED", "PATH_LOSS_MODEL_FREE_SPACE", "PATH_LOSS_MODEL_LOG_DISTANCE",
+	rakeFingersNames = []string{"RAKE_FINGERS_UNSPECIFIED", "RAKE_FINGERS_CHIP_RESOLVED", "RAKE_FINGERS_IDEAL_EVERY_TAP"}
+	placementNames   = []string{"PLACEMENT_UNSPECIFIED", "PLACEMENT_EXPLICIT", "PLACEMENT_UNIFORM_DISTANCE", "PLACEMENT_UNIFORM_AREA"}
+	generatorNames   = []string{"GENERATOR_UNSPECIFIED", "GENERATOR_DEFAULT", "GENERATOR_SUM_OF_SINUSOIDS", "GENERATOR_SPECTRAL"}
+	pathLossNames    = []string{"PATH_LOSS_MODEL_UNSPECIFIED", "PATH_LOSS_MODEL_FREE_SPACE", "PATH_LOSS_MODEL_LOG_DISTANCE",
 		"PATH_LOSS_MODEL_HATA_URBAN", "PATH_LOSS_MODEL_HATA_URBAN_LARGE", "PATH_LOSS_MODEL_HATA_SUBURBAN",
 		"PATH_LOSS_MODEL_HATA_OPEN", "PATH_LOSS_MODEL_COST231_HATA", "PATH_LOSS_MODEL_COST231_HATA_METRO"}
 	innerModeNames    = []string{"INNER_MODE_UNSPECIFIED", "INNER_MODE_FIXED_POWER", "INNER_MODE_IDEAL", "INNER_MODE_CLOSED_LOOP"}
@@ -133,7 +146,20 @@ func enumParse(names []string, kind string, text []byte) (int, error) {
 	if v, err := strconv.Atoi(s); err == nil && v >= 0 && v < len(names) {
 		return v, nil
 	}
-	return 0, fmt.Errorf("unknown %s %q", kind, s)
+	return 0, fmt.Errorf("unknown %s %q; allowed values are %s", kind, s, allowed(names))
+}
+
+// allowed lists the set values of an enum, "A, B or C" (UNSPECIFIED, which
+// means "use the default", is left out).
+func allowed(names []string) string {
+	set := names[1:]
+	switch len(set) {
+	case 0:
+		return ""
+	case 1:
+		return set[0]
+	}
+	return strings.Join(set[:len(set)-1], ", ") + " or " + set[len(set)-1]
 }
 
 // defined reports whether v is a set, known value of an enum with len(names) values.
@@ -240,5 +266,18 @@ func (v EffectiveSIR) MarshalText() ([]byte, error) { return []byte(v.String()),
 func (v *EffectiveSIR) UnmarshalText(b []byte) error {
 	x, err := enumParse(effectiveNames, "effective SIR rule", b)
 	*v = EffectiveSIR(x)
+	return err
+}
+
+// String returns the proto value name of the RakeFingers.
+func (v RakeFingers) String() string { return enumString(rakeFingersNames, int(v)) }
+
+// MarshalText encodes the RakeFingers as its proto value name.
+func (v RakeFingers) MarshalText() ([]byte, error) { return []byte(v.String()), nil }
+
+// UnmarshalText accepts the proto value name or its number.
+func (v *RakeFingers) UnmarshalText(b []byte) error {
+	x, err := enumParse(rakeFingersNames, "RAKE finger model", b)
+	*v = RakeFingers(x)
 	return err
 }

@@ -122,7 +122,8 @@ type Report struct {
 	WallTimeS          float64              `json:"wall_time_s"`
 	UserSlotsPerS      float64              `json:"user_slots_per_s"`
 	Traces             []UserTrace          `json:"traces"`
-	Notes              []string             `json:"notes"` // caveats of this run (e.g. values beyond the histogram range)
+	Notes              []string             `json:"notes"`         // caveats of this run (e.g. values beyond the histogram range)
+	GroupFingers       []GroupFingers       `json:"group_fingers"` // per group: taps, paths resolvable at the chip rate, fingers combined
 }
 
 // tQuantile is the two-sided 95 % Student t quantile with dof degrees of
@@ -307,6 +308,7 @@ func (sh *shared) report(results []*repResult) *Report {
 		DistanceBins:       []DistanceBinFigures{},
 		Traces:             []UserTrace{},
 		Notes:              []string{},
+		GroupFingers:       groupFingers(sc),
 	}
 	for u := 0; u < n; u++ {
 		ui := sh.users[u]

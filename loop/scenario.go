@@ -34,12 +34,22 @@ type Receiver struct {
 	OtherCellRatio       float64 `json:"other_cell_ratio"`        // other-cell interference f as a fraction of own-cell received power, [0, 10]
 	SIREstimationErrorDB float64 `json:"sir_estimation_error_db"` // σ in dB of the log-normal SIR estimation error, [0, 20]
 	SIRAveragingSlots    int     `json:"sir_averaging_slots"`     // moving average of the SIR estimate in slots, [1, 1000]; 0 means 1
+	// RakeFingers is how a group's taps become RAKE fingers; default
+	// RAKE_FINGERS_CHIP_RESOLVED (taps less than one chip, 1/chip_rate_hz,
+	// apart merge into one finger: fading.ResolveFingers).
+	// RAKE_FINGERS_IDEAL_EVERY_TAP is the ideal receiver that combines every
+	// tap separately whatever the chip rate.
+	RakeFingers RakeFingers `json:"rake_fingers"`
+	// MaxFingers is the most fingers combined per user with
+	// RAKE_FINGERS_CHIP_RESOLVED (the strongest are kept), [1, 64];
+	// default 4 (common practice for base-station RAKE receivers).
+	MaxFingers int `json:"max_fingers"`
 }
 
 // SpeedShare is one speed of a group's speed mix.
 type SpeedShare struct {
 	SpeedKmh float64 `json:"speed_kmh"` // mobile speed in km/h, [0, 1000]; Doppler f_D = v·f_c/c
-	Weight   float64 `json:"weight"`    // relative weight, (0, 1e6]; users are assigned in proportion, deterministically
+	Weight   float64 `json:"weight"`    // relative weight, (0, 1e6]; users are assigned in proportion, deterministically; all unset in a group: 1 each
 }
 
 // Tap is one tap of a custom tap-delay profile.
@@ -51,8 +61,8 @@ type Tap struct {
 // PathLoss is a group's distance-dependent mean path loss (dB, positive =
 // loss). Models and their validity ranges are those of package fading.
 type PathLoss struct {
-	Model         PathLossModel `json:"model"`           // the model
-	RefDistanceM  float64       `json:"ref_distance_m"`  // LOG_DISTANCE: reference distance d0 in m, (0, 1e5]
+	Model         PathLossModel `json:"model"`           // the model; unset: LOG_DISTANCE (with the defaults below when no parameter is set)
+	RefDistanceM  float64       `json:"ref_distance_m"`  // LOG_DISTANCE: reference distance d0 in m, (0, 1e5]; with ref_loss_db and exponent all 0: 10 m, 52.9 dB, 3.76
 	RefLossDB     float64       `json:"ref_loss_db"`     // LOG_DISTANCE: loss at d0 in dB, [0, 300]
 	Exponent      float64       `json:"exponent"`        // LOG_DISTANCE: exponent n, (0, 10]
 	BaseHeightM   float64       `json:"base_height_m"`   // Hata models: base antenna height in m; default 30
@@ -65,13 +75,13 @@ type PathLoss struct {
 type UserGroup struct {
 	Name                    string       `json:"name"`                      // free-form label
 	Count                   int          `json:"count"`                     // users in the group, [1, 4096]
-	Placement               Placement    `json:"placement"`                 // how users are placed
+	Placement               Placement    `json:"placement"`                 // how users are placed; unset: EXPLICIT with distances_m, else UNIFORM_AREA with max_distance_m
 	DistancesM              []float64    `json:"distances_m"`               // PLACEMENT_EXPLICIT: one distance in m per user, (0, 1e6]
-	MinDistanceM            float64      `json:"min_distance_m"`            // uniform placements: inner radius in m, 0 < min <= max
+	MinDistanceM            float64      `json:"min_distance_m"`            // uniform placements: inner radius in m, 0 < min <= max; default min(35, max_distance_m)
 	MaxDistanceM            float64      `json:"max_distance_m"`            // uniform placements: outer radius in m, <= 1e6
-	Speeds                  []SpeedShare `json:"speeds"`                    // speed mix, 1 to 16 entries
+	Speeds                  []SpeedShare `json:"speeds"`                    // speed mix, 1 to 16 entries; weights all unset mean equal weights
 	CarrierFrequencyHz      float64      `json:"carrier_frequency_hz"`      // carrier in Hz, [1e6, 1e11]; default 2e9
-	Profile                 string       `json:"profile"`                   // built-in profile FLAT/EPA/EVA/ETU/PEDA/VEHA; exactly one of profile, custom_taps
+	Profile                 string       `json:"profile"`                   // built-in profile FLAT/EPA/EVA/ETU/PEDA/VEHA; exactly one of profile, custom_taps; default FLAT when neither is set
 	CustomTaps              []Tap        `json:"custom_taps"`               // custom profile, 1 to 64 taps
 	RicianKDB               float64      `json:"rician_k_db"`               // Rician K of the first tap in dB, [−50, 50]; used when los
 	LOS                     bool         `json:"los"`                       // first tap Rician with a line-of-sight component
@@ -79,7 +89,7 @@ type UserGroup struct {
 	Sinusoids               int          `json:"sinusoids"`                 // sinusoids per branch of the sum-of-sinusoids generators, [0, 256]; 0 = the generator's default
 	ShadowingSigmaDB        float64      `json:"shadowing_sigma_db"`        // log-normal shadowing σ in dB, [0, 20]
 	ShadowingDecorrelationM float64      `json:"shadowing_decorrelation_m"` // Gudmundson decorrelation distance in m (correlation 1/e); default 50 when σ > 0
-	PathLoss                PathLoss     `json:"path_loss"`                 // mean path loss model
+	PathLoss                PathLoss     `json:"path_loss"`                 // mean path loss model; default LOG_DISTANCE 52.9 dB at 10 m, exponent 3.76
 	ActivityFactor          float64      `json:"activity_factor"`           // fraction of slots on, (0, 1]; 0 means 1 (always on)
 	MeanBurstSlots          float64      `json:"mean_burst_slots"`          // mean on-burst in slots of the on/off Markov chain, >= 1; default 1500
 }
@@ -139,7 +149,7 @@ type LinkCurve struct {
 
 // RunSettings is the run length, seed and statistics settings.
 type RunSettings struct {
-	Slots          int64   `json:"slots"`            // slots per replication, warm-up included; exactly one of slots, duration_s
+	Slots          int64   `json:"slots"`            // slots per replication, warm-up included; at most one of slots, duration_s; neither means duration_s 10
 	DurationS      float64 `json:"duration_s"`       // run length in s (slots = round(duration_s·update_rate_hz))
 	WarmupSlots    int64   `json:"warmup_slots"`     // first slots excluded from the figures, < slots
 	Seed           uint64  `json:"seed"`             // seed of every random stream
@@ -149,32 +159,35 @@ type RunSettings struct {
 	Batches        int     `json:"batches"`          // batches of the batch-means confidence intervals, [20, 10000]; default 20
 }
 
-// Defaults filled by Normalise.
+// Defaults filled by Normalise, with their sources.
 const (
 	DefaultChipRateHz       = 3.84e6 // 3GPP UTRA FDD chip rate
 	DefaultBitRateBps       = 12.2e3 // AMR 12.2 kbit/s speech
-	DefaultCarrierHz        = 2e9
-	DefaultUpdateRateHz     = 1500 // 3GPP TS 25.214 §5.1.2.2 (memory)
-	DefaultStepDB           = 1
-	DefaultMinPowerDBm      = -50
-	DefaultMaxPowerDBm      = 24 // 3GPP power class 3 UE (memory)
-	DefaultBLERTarget       = 0.1
-	DefaultBlockSlots       = 15 // one 10 ms frame at 1500 Hz
-	DefaultUpStepDB         = 0.5
-	DefaultMinTargetDB      = -10
-	DefaultMaxTargetDB      = 30
-	DefaultSlopeDB          = 1
-	DefaultEESMBeta         = 1
-	DefaultOutageMarginDB   = 3
-	DefaultDistanceBins     = 4
-	DefaultBatches          = 20
-	DefaultMeanBurstSlots   = 1500 // about 1 s talk spurts at 1500 Hz (common practice)
-	DefaultDecorrelationM   = 50   // (common practice)
-	DefaultBaseHeightM      = 30
-	DefaultMobileHeightM    = 1.5
+	DefaultCarrierHz        = 2e9    // UMTS core band (common practice)
+	DefaultUpdateRateHz     = 1500   // 3GPP TS 25.214 §5.1.2.2 (memory)
+	DefaultStepDB           = 1      // 3GPP TS 25.214 §5.1.2.2.2 algorithm 1, 1 dB step (memory)
+	DefaultMinPowerDBm      = -50    // UTRA UE minimum output power (3GPP TS 25.101 (memory))
+	DefaultMaxPowerDBm      = 24     // 3GPP power class 3 UE (memory)
+	DefaultBLERTarget       = 0.1    // speech BLER target (common practice)
+	DefaultBlockSlots       = 15     // one 10 ms frame at 1500 Hz
+	DefaultUpStepDB         = 0.5    // outer-loop up step (common practice)
+	DefaultMinTargetDB      = -10    // SIR-target limits (common practice)
+	DefaultMaxTargetDB      = 30     // SIR-target limits (common practice)
+	DefaultSlopeDB          = 1      // logistic link-curve slope (common practice)
+	DefaultEESMBeta         = 1      // EESM β for low-order modulation (common practice)
+	DefaultOutageMarginDB   = 3      // outage at target − 3 dB (common practice)
+	DefaultDistanceBins     = 4      // distance bins of the per-bin figures (a display choice)
+	DefaultBatches          = 20     // fewest batch means for a Student t interval (DEVELOPERS.md, common practice)
+	DefaultMeanBurstSlots   = 1500   // about 1 s talk spurts at 1500 Hz (common practice)
+	DefaultDecorrelationM   = 50     // urban macro shadowing decorrelation, Gudmundson model (common practice)
+	DefaultBaseHeightM      = 30     // Hata base height, lower end of its 30–200 m range (common practice)
+	DefaultMobileHeightM    = 1.5    // Hata reference mobile height (common practice)
 	DefaultLogDistRefM      = 10
 	DefaultLogDistRefLossDB = 52.9 // 128.1 + 37.6·log10(d/1 km) referred to 10 m: 3GPP TR 25.942 macro cell at 2 GHz (memory)
-	DefaultLogDistExponent  = 3.76
+	DefaultLogDistExponent  = 3.76 // same model
+	DefaultMaxFingers       = 4    // RAKE fingers per user of a base-station receiver (common practice)
+	DefaultMinDistanceM     = 35   // minimum BS-UE distance of the macro-cell scenario, 3GPP TR 25.942 (memory)
+	DefaultDurationS        = 10.0 // run length when neither slots nor duration_s is set: 15 000 slots at 1500 Hz, over 500 Doppler periods at 30 km/h and 2 GHz (common practice)
 )
 
 // DefaultLevelsDB and DefaultThresholdsDB are the MULTI_LEVEL defaults: the
@@ -199,6 +212,12 @@ func (sc *Scenario) Normalise() {
 	if r.SIRAveragingSlots == 0 {
 		r.SIRAveragingSlots = 1
 	}
+	if r.RakeFingers == RakeFingersUnspecified {
+		r.RakeFingers = RakeFingersChipResolved
+	}
+	if r.MaxFingers == 0 {
+		r.MaxFingers = DefaultMaxFingers
+	}
 	for i := range sc.Groups {
 		g := &sc.Groups[i]
 		if g.Placement == PlacementUnspecified {
@@ -207,6 +226,10 @@ func (sc *Scenario) Normalise() {
 			} else if g.MaxDistanceM > 0 {
 				g.Placement = PlacementUniformArea
 			}
+		}
+		if (g.Placement == PlacementUniformArea || g.Placement == PlacementUniformDistance) &&
+			g.MinDistanceM == 0 && g.MaxDistanceM > 0 {
+			g.MinDistanceM = math.Min(DefaultMinDistanceM, g.MaxDistanceM)
 		}
 		if g.CarrierFrequencyHz == 0 {
 			g.CarrierFrequencyHz = DefaultCarrierHz
@@ -222,7 +245,10 @@ func (sc *Scenario) Normalise() {
 			g.ShadowingDecorrelationM = DefaultDecorrelationM
 		}
 		pl := &g.PathLoss
-		if pl.Model == PathLossUnspecified && pl.RefDistanceM == 0 && pl.RefLossDB == 0 && pl.Exponent == 0 {
+		if pl.Model == PathLossUnspecified && (pl.RefDistanceM != 0 || pl.RefLossDB != 0 || pl.Exponent != 0) {
+			pl.Model = PathLossLogDistance // its parameters are given
+		}
+		if (pl.Model == PathLossUnspecified || pl.Model == PathLossLogDistance) && pl.RefDistanceM == 0 && pl.RefLossDB == 0 && pl.Exponent == 0 {
 			pl.Model = PathLossLogDistance
 			pl.RefDistanceM = DefaultLogDistRefM
 			pl.RefLossDB = DefaultLogDistRefLossDB
@@ -304,6 +330,9 @@ func (sc *Scenario) Normalise() {
 		lk.EESMBeta = DefaultEESMBeta
 	}
 	rs := &sc.Run
+	if rs.Slots == 0 && rs.DurationS == 0 {
+		rs.DurationS = DefaultDurationS
+	}
 	if rs.Replications == 0 {
 		rs.Replications = 1
 	}

@@ -9,6 +9,9 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"go.yaml.in/yaml/v3"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 func TestCanonicalScenarioValid(t *testing.T) {
@@ -123,6 +126,8 @@ func TestValidateListsEveryViolation(t *testing.T) {
 		{"bit rate above chip rate", func(s *Scenario) { s.Receiver.BitRateBps = 5e6 }, "receiver.bit_rate_bps"},
 		{"noise figure NaN", func(s *Scenario) { s.Receiver.NoiseFigureDB = math.NaN() }, "receiver.noise_figure_db"},
 		{"averaging", func(s *Scenario) { s.Receiver.SIRAveragingSlots = 0 }, "receiver.sir_averaging_slots"},
+		{"RAKE finger model", func(s *Scenario) { s.Receiver.RakeFingers = 7 }, "receiver.rake_fingers"},
+		{"max fingers", func(s *Scenario) { s.Receiver.MaxFingers = 65 }, "receiver.max_fingers"},
 		{"count", func(s *Scenario) { s.Groups[0].Count = 0 }, "groups[0].count"},
 		{"placement", func(s *Scenario) { s.Groups[0].Placement = 0 }, "groups[0].placement"},
 		{"min > max distance", func(s *Scenario) { s.Groups[0].MinDistanceM = 2000 }, "groups[0].max_distance_m"},
@@ -342,4 +347,259 @@ func FuzzRun(f *testing.F) {
 			t.Fatalf("report does not marshal: %v", err)
 		}
 	})
+}
+
+// loadYAMLScenario reads a scenario file of testdata/scenarios (YAML mapped
+// to the JSON form, whose field names are the json tags).
+func loadYAMLScenario(t *testing.T, path string) Scenario {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var m map[string]any
+	if err := yaml.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	j, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var sc Scenario
+	dec := json.NewDecoder(strings.NewReader(string(j)))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&sc); err != nil {
+		t.Fatal(err)
+	}
+	return sc
+}
+
+// TestMinimalScenarioRuns runs testdata/scenarios/minimal.yaml (chip and bit
+// rates, one group with count, distance and speed) end to end and checks
+// that the report's normalised scenario shows every default.
+func TestMinimalScenarioRuns(t *testing.T) {
+	sc := loadYAMLScenario(t, "../testdata/scenarios/minimal.yaml")
+	sc.Normalise()
+	if v := sc.Validate(); len(v) != 0 {
+		t.Fatalf("minimal scenario rejected: %v", v)
+	}
+	if testing.Short() {
+		sc.Run.DurationS = 1 // 1500 slots: the defaults, not the figures, are under test
+	}
+	rep, err := Run(context.Background(), sc, RunOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := rep.NormalisedScenario
+	g := n.Groups[0]
+	checks := []struct {
+		field     string
+		got, want any
+	}{
+		{"receiver.rake_fingers", n.Receiver.RakeFingers, RakeFingersChipResolved},
+		{"receiver.max_fingers", n.Receiver.MaxFingers, DefaultMaxFingers},
+		{"receiver.sir_averaging_slots", n.Receiver.SIRAveragingSlots, 1},
+		{"groups[0].placement", g.Placement, PlacementUniformArea},
+		{"groups[0].min_distance_m", g.MinDistanceM, float64(DefaultMinDistanceM)},
+		{"groups[0].speeds[0].weight", g.Speeds[0].Weight, 1.0},
+		{"groups[0].carrier_frequency_hz", g.CarrierFrequencyHz, DefaultCarrierHz},
+		{"groups[0].profile", g.Profile, "FLAT"},
+		{"groups[0].generator", g.Generator, GeneratorDefault},
+		{"groups[0].path_loss.model", g.PathLoss.Model, PathLossLogDistance},
+		{"groups[0].path_loss.ref_loss_db", g.PathLoss.RefLossDB, DefaultLogDistRefLossDB},
+		{"groups[0].activity_factor", g.ActivityFactor, 1.0},
+		{"inner_loop.mode", n.InnerLoop.Mode, InnerModeClosedLoop},
+		{"inner_loop.command", n.InnerLoop.Command, CommandFixedStep},
+		{"inner_loop.update_rate_hz", n.InnerLoop.UpdateRateHz, float64(DefaultUpdateRateHz)},
+		{"inner_loop.step_db", n.InnerLoop.StepDB, float64(DefaultStepDB)},
+		{"inner_loop.initial_power", n.InnerLoop.InitialPower, InitialPowerOpenLoop},
+		{"outer_loop.bler_target", n.OuterLoop.BLERTarget, DefaultBLERTarget},
+		{"link.kind", n.Link.Kind, LinkLogistic},
+		{"link.effective_sir", n.Link.EffectiveSIR, EffectiveSIRLinearMean},
+		{"run.replications", n.Run.Replications, 1},
+		{"run.batches", n.Run.Batches, DefaultBatches},
+	}
+	for _, c := range checks {
+		if !reflect.DeepEqual(c.got, c.want) {
+			t.Errorf("%s = %v in the report's normalised scenario, want the default %v", c.field, c.got, c.want)
+		}
+	}
+	if rep.Aggregate.Users != 8 || rep.Aggregate.UserSlots == 0 {
+		t.Errorf("report covers %d users and %d user-slots, want 8 users", rep.Aggregate.Users, rep.Aggregate.UserSlots)
+	}
+	if len(rep.GroupFingers) != 1 || rep.GroupFingers[0].Fingers != 1 || rep.GroupFingers[0].Taps != 1 {
+		t.Errorf("group fingers %+v, want one FLAT group with one finger", rep.GroupFingers)
+	}
+	// Without either run length, Normalise sets the documented 10 s.
+	full := loadYAMLScenario(t, "../testdata/scenarios/minimal.yaml")
+	full.Normalise()
+	if full.Run.DurationS != DefaultDurationS || full.TotalSlots() != 15000 {
+		t.Errorf("default run length %g s, %d slots; want 10 s, 15000 slots", full.Run.DurationS, full.TotalSlots())
+	}
+}
+
+// TestNormaliseKeepsSetValues checks that Normalise fills only unset values
+// and the path-loss and placement rules around the defaults.
+func TestNormaliseKeepsSetValues(t *testing.T) {
+	sc := Scenario{
+		Receiver: Receiver{RakeFingers: RakeFingersIdealEveryTap, MaxFingers: 2},
+		Groups: []UserGroup{
+			{Count: 1, MaxDistanceM: 20, Speeds: []SpeedShare{{SpeedKmh: 3}}, PathLoss: PathLoss{Exponent: 3}},
+			{Count: 1, Placement: PlacementUniformDistance, MinDistanceM: 5, MaxDistanceM: 20, Speeds: []SpeedShare{{SpeedKmh: 3}},
+				PathLoss: PathLoss{Model: PathLossFreeSpace}},
+		},
+		Run: RunSettings{Slots: 100},
+	}
+	sc.Normalise()
+	if sc.Receiver.RakeFingers != RakeFingersIdealEveryTap || sc.Receiver.MaxFingers != 2 {
+		t.Errorf("receiver settings overwritten: %+v", sc.Receiver)
+	}
+	if g := sc.Groups[0]; g.MinDistanceM != 20 {
+		t.Errorf("default min distance with max 20 m: %g, want min(35, 20) = 20", g.MinDistanceM)
+	}
+	if pl := sc.Groups[0].PathLoss; pl.Model != PathLossLogDistance || pl.Exponent != 3 || pl.RefDistanceM != 0 {
+		t.Errorf("partly given log-distance parameters: %+v, want the model set and the rest left for Validate", pl)
+	}
+	if g := sc.Groups[1]; g.MinDistanceM != 5 || g.PathLoss.Model != PathLossFreeSpace || g.PathLoss.RefDistanceM != 0 {
+		t.Errorf("set values changed: %+v", g)
+	}
+	if sc.Run.DurationS != 0 || sc.Run.Slots != 100 {
+		t.Errorf("run length changed: %+v", sc.Run)
+	}
+	v := sc.Validate()
+	if !strings.Contains(v.Error(), "groups[0].path_loss.ref_distance_m") {
+		t.Errorf("missing log-distance parameters not reported: %v", v)
+	}
+}
+
+// TestEnumErrorsNameAllowedValues: an enum error names every allowed value,
+// in loop.Validate and when a scenario file holds an unknown name.
+func TestEnumErrorsNameAllowedValues(t *testing.T) {
+	sc := CanonicalScenario()
+	sc.Groups[0].Generator = 9
+	sc.InnerLoop.Command = 5
+	sc.Receiver.RakeFingers = 3
+	got := sc.Validate().Error()
+	for _, want := range []string{
+		"groups[0].generator: must be one of GENERATOR_DEFAULT, GENERATOR_SUM_OF_SINUSOIDS or GENERATOR_SPECTRAL, got 9",
+		"inner_loop.command: must be one of COMMAND_FIXED_STEP, COMMAND_MULTI_LEVEL or COMMAND_ADAPTIVE, got 5",
+		"receiver.rake_fingers: must be one of RAKE_FINGERS_CHIP_RESOLVED or RAKE_FINGERS_IDEAL_EVERY_TAP, got 3",
+	} {
+		if !strings.Contains(got, want) {
+			t.Errorf("violations %q lack %q", got, want)
+		}
+	}
+	var g Generator
+	err := json.Unmarshal([]byte(`"GENERATOR_FAST"`), &g)
+	if err == nil || !strings.Contains(err.Error(), "GENERATOR_DEFAULT, GENERATOR_SUM_OF_SINUSOIDS or GENERATOR_SPECTRAL") {
+		t.Errorf("unknown generator name: %v", err)
+	}
+	// Unset enums that have no default (a placement with neither distances
+	// nor a radius) say so.
+	sc = CanonicalScenario()
+	sc.Groups[0].Placement, sc.Groups[0].MinDistanceM, sc.Groups[0].MaxDistanceM = 0, 0, 0
+	sc.Normalise()
+	if got := sc.Validate().Error(); !strings.Contains(got, "groups[0].placement: must be one of PLACEMENT_EXPLICIT, PLACEMENT_UNIFORM_DISTANCE or PLACEMENT_UNIFORM_AREA") ||
+		!strings.Contains(got, "got unset") {
+		t.Errorf("unset placement: %q", got)
+	}
+}
+
+// TestGroupFingers checks the per-group finger summary and what the engine
+// simulates for each receiver model: EPA at 3.84 Mchip/s is two fingers
+// (all taps up to 190 ns within one chip, 260 ns; see
+// fading.TestResolvablePaths), seven with the ideal receiver; ETU with two
+// fingers keeps the two strongest clusters (0..230 ns and 500 ns) and
+// reports the power it leaves out.
+func TestGroupFingers(t *testing.T) {
+	lin := func(db float64) float64 { return math.Pow(10, db/10) }
+	sc := CanonicalScenario()
+	sc.Receiver.RakeFingers = RakeFingersChipResolved
+	sc.Groups[0].CustomTaps = nil
+	sc.Groups[0].Profile = "EPA"
+	sc.Groups = append(sc.Groups, sc.Groups[0])
+	sc.Groups[1].Profile = "ETU"
+	sc.Groups[1].LOS, sc.Groups[1].RicianKDB = true, 6
+	sc.Receiver.MaxFingers = 2
+	if v := sc.Validate(); len(v) != 0 {
+		t.Fatal(v)
+	}
+	gf := groupFingers(sc)
+	etuTotal := 3*lin(-1) + 3*lin(0) + lin(-3) + lin(-5) + lin(-7)
+	kept := 3*lin(-1) + 2*lin(0) + lin(0)
+	// LOS on ETU's first tap (−1 dB, K = 6 dB) merged with the other four
+	// taps of the first cluster: K' = p0·K/(K+1) / (p0/(K+1) + rest).
+	k := lin(6)
+	p0 := lin(-1)
+	kPrime := 10 * math.Log10(p0*k/(k+1)/(p0/(k+1)+2*lin(-1)+2*lin(0)))
+	want := []GroupFingers{
+		{Group: 0, Taps: 7, ResolvablePaths: 2, Fingers: 2, CapturedPowerDB: 0},
+		{Group: 1, Taps: 9, ResolvablePaths: 5, Fingers: 2, CapturedPowerDB: 10 * math.Log10(kept/etuTotal), FirstFingerKDB: kPrime},
+	}
+	for i := range want {
+		g, w := gf[i], want[i]
+		if g.Group != w.Group || g.Taps != w.Taps || g.ResolvablePaths != w.ResolvablePaths || g.Fingers != w.Fingers ||
+			math.Abs(g.CapturedPowerDB-w.CapturedPowerDB) > 1e-9 || math.Abs(g.FirstFingerKDB-w.FirstFingerKDB) > 1e-9 {
+			t.Errorf("group %d: %+v, want %+v", i, g, w)
+		}
+	}
+	if got := groupRicianKDB(sc, 1); math.Abs(got-kPrime) > 1e-9 {
+		t.Errorf("engine K of the ETU group %g dB, want %g", got, kPrime)
+	}
+	if got := groupCapturedLin(sc, 1); math.Abs(got-kept/etuTotal) > 1e-12 {
+		t.Errorf("engine captured share %g, want %g", got, kept/etuTotal)
+	}
+	if got := sc.Cost(); got != int64(2*64*2*90000) {
+		t.Errorf("Cost %d, want groups × users × fingers × slots = %d", got, 2*64*2*90000)
+	}
+	// The ideal receiver: every tap a finger, K and power unchanged.
+	sc.Receiver.RakeFingers = RakeFingersIdealEveryTap
+	gf = groupFingers(sc)
+	if gf[0].Fingers != 7 || gf[0].ResolvablePaths != 2 || gf[1].Fingers != 9 || gf[1].CapturedPowerDB != 0 || gf[1].FirstFingerKDB != 6 {
+		t.Errorf("ideal receiver: %+v", gf)
+	}
+	if p := groupProfile(sc, 1); len(p.Taps) != 9 {
+		t.Errorf("ideal receiver simulates %d taps of ETU, want 9", len(p.Taps))
+	}
+}
+
+// TestEngineFingerDiversity runs one user at fixed power over four equal
+// taps in two pairs 100 ns apart (1 µs between the pairs): at 3.84 Mchip/s
+// the chip-resolved receiver sees two equal fingers, so its outage is the
+// two-branch MRC law Gamma(2, 1) CDF at 10^(−x/10), x the per-branch mean
+// SIR above the threshold; the ideal every-tap receiver sees four branches,
+// Gamma(4, 1) (Proakis, Digital Communications (memory); gonum distuv).
+// Tolerance as in TestNoPowerControlOutage: 1.5× the Wilson half-width.
+func TestEngineFingerDiversity(t *testing.T) {
+	slots := int64(300000)
+	if testing.Short() {
+		slots = 60000
+	}
+	const xDB = 3
+	for _, c := range []struct {
+		rf       RakeFingers
+		branches int
+	}{{RakeFingersChipResolved, 2}, {RakeFingersIdealEveryTap, 4}} {
+		sc := baseScenario(1, slots)
+		sc.Receiver.RakeFingers = c.rf
+		sc.Groups[0].Profile = ""
+		sc.Groups[0].CustomTaps = []Tap{{DelayNs: 0}, {DelayNs: 100}, {DelayNs: 1000}, {DelayNs: 1100}}
+		sc.Groups[0].Speeds[0].SpeedKmh = 100
+		sc.InnerLoop.Mode = InnerModeFixedPower
+		sc.InnerLoop.FixedPowerDBm = 0
+		sc.Receiver.OtherCellRatio = 0
+		us, _ := placeUsers(sc)
+		meanDB := linToDB(sc.Receiver.ProcessingGain()) - us[0].pathLossDB - sc.Receiver.NoiseDBm()
+		branchDB := meanDB - linToDB(float64(c.branches))
+		sc.OuterLoop.InitialTargetDB = branchDB - xDB + sc.Run.OutageMarginDB
+		rep := mustRun(t, sc, nil, RunOptions{})
+		if f := rep.GroupFingers[0].Fingers; f != c.branches {
+			t.Fatalf("%s: %d fingers, want %d", c.rf, f, c.branches)
+		}
+		want := distuv.Gamma{Alpha: float64(c.branches), Beta: 1}.CDF(dbToLin(-xDB))
+		e := rep.Aggregate.OutageProbability
+		if !within(e, want, 1.5) {
+			t.Errorf("%s: outage %.5f (CI %.5f..%.5f), %d-branch theory %.5f", c.rf, e.Value, e.CILow, e.CIHigh, c.branches, want)
+		}
+	}
 }

@@ -58,6 +58,15 @@ func (c *checker) add(field, format string, args ...any) {
 
 func fin(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 
+// enum reports an unset or unknown enum value, naming the allowed values.
+func (c *checker) enum(field string, names []string, v int, extra string) {
+	got := "unset"
+	if v != 0 {
+		got = enumString(names, v)
+	}
+	c.add(field, "must be one of %s%s, got %s", allowed(names), extra, got)
+}
+
 // rng checks lo <= x <= hi (finite).
 func (c *checker) rng(field string, x, lo, hi float64, unit string) bool {
 	if !fin(x) || x < lo || x > hi {
@@ -97,6 +106,12 @@ func (sc Scenario) Validate() Violations {
 	c.rng("receiver.sir_estimation_error_db", r.SIREstimationErrorDB, 0, 20, " dB")
 	if r.SIRAveragingSlots < 1 || r.SIRAveragingSlots > MaxAveraging {
 		c.add("receiver.sir_averaging_slots", "must be in [1, %d], got %d", MaxAveraging, r.SIRAveragingSlots)
+	}
+	if !defined(rakeFingersNames, int(r.RakeFingers)) {
+		c.enum("receiver.rake_fingers", rakeFingersNames, int(r.RakeFingers), "")
+	}
+	if r.MaxFingers < 1 || r.MaxFingers > fading.MaxFingers {
+		c.add("receiver.max_fingers", "must be in [1, %d], got %d", fading.MaxFingers, r.MaxFingers)
 	}
 
 	il := sc.InnerLoop
@@ -171,7 +186,7 @@ func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK bool) {
 			}
 		}
 	default:
-		c.add(p+".placement", "must be PLACEMENT_EXPLICIT, PLACEMENT_UNIFORM_DISTANCE or PLACEMENT_UNIFORM_AREA, got %s", g.Placement)
+		c.enum(p+".placement", placementNames, int(g.Placement), " (or leave it unset with distances_m or max_distance_m given)")
 	}
 
 	carrierOK := c.rng(p+".carrier_frequency_hz", g.CarrierFrequencyHz, 1e6, 1e11, " Hz")
@@ -226,8 +241,8 @@ func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK bool) {
 	if g.Sinusoids < 0 || g.Sinusoids > fading.MaxSinusoids {
 		c.add(p+".sinusoids", "must be in [0, %d] (0 = generator default), got %d", fading.MaxSinusoids, g.Sinusoids)
 	}
-	if g.Generator <= GeneratorUnspecified || g.Generator > GeneratorSpectral {
-		c.add(p+".generator", "must be GENERATOR_DEFAULT, GENERATOR_SUM_OF_SINUSOIDS or GENERATOR_SPECTRAL, got %s", g.Generator)
+	if !defined(generatorNames, int(g.Generator)) {
+		c.enum(p+".generator", generatorNames, int(g.Generator), "")
 	}
 	if c.rng(p+".shadowing_sigma_db", g.ShadowingSigmaDB, 0, 20, " dB") && g.ShadowingSigmaDB > 0 {
 		c.pos(p+".shadowing_decorrelation_m", g.ShadowingDecorrelationM, 1e5, " m")
@@ -292,7 +307,7 @@ func plField(err error) string {
 
 func (c *checker) pathLoss(p string, pl PathLoss, carrierHz float64, carrierOK bool, dmin, dmax float64) {
 	if !defined(pathLossNames, int(pl.Model)) {
-		c.add(p+".model", "must be a PATH_LOSS_MODEL_* value, got %s", pl.Model)
+		c.enum(p+".model", pathLossNames, int(pl.Model), "")
 		return
 	}
 	for _, f := range []struct {
@@ -330,10 +345,10 @@ func (c *checker) pathLoss(p string, pl PathLoss, carrierHz float64, carrierOK b
 func (c *checker) inner(il InnerLoop) {
 	const p = "inner_loop"
 	if !defined(innerModeNames, int(il.Mode)) {
-		c.add(p+".mode", "must be INNER_MODE_FIXED_POWER, INNER_MODE_IDEAL or INNER_MODE_CLOSED_LOOP, got %s", il.Mode)
+		c.enum(p+".mode", innerModeNames, int(il.Mode), "")
 	}
 	if !defined(commandNames, int(il.Command)) {
-		c.add(p+".command", "must be COMMAND_FIXED_STEP, COMMAND_MULTI_LEVEL or COMMAND_ADAPTIVE, got %s", il.Command)
+		c.enum(p+".command", commandNames, int(il.Command), "")
 	}
 	c.pos(p+".step_db", il.StepDB, 10, " dB")
 	if il.Mode == InnerModeClosedLoop && il.Command == CommandMultiLevel {
@@ -369,7 +384,7 @@ func (c *checker) inner(il InnerLoop) {
 		limitsOK = false
 	}
 	if !defined(initialPowerNames, int(il.InitialPower)) {
-		c.add(p+".initial_power", "must be INITIAL_POWER_OPEN_LOOP or INITIAL_POWER_FIXED, got %s", il.InitialPower)
+		c.enum(p+".initial_power", initialPowerNames, int(il.InitialPower), "")
 	}
 	inLimits := func(field string, x float64) {
 		if !fin(x) {
@@ -436,10 +451,10 @@ func (c *checker) link(l LinkCurve) {
 			}
 		}
 	default:
-		c.add(p+".kind", "must be LINK_KIND_LOGISTIC or LINK_KIND_TABLE, got %s", l.Kind)
+		c.enum(p+".kind", linkKindNames, int(l.Kind), "")
 	}
 	if !defined(effectiveNames, int(l.EffectiveSIR)) {
-		c.add(p+".effective_sir", "must be EFFECTIVE_SIR_LINEAR_MEAN or EFFECTIVE_SIR_EESM, got %s", l.EffectiveSIR)
+		c.enum(p+".effective_sir", effectiveNames, int(l.EffectiveSIR), "")
 	}
 	c.pos(p+".eesm_beta", l.EESMBeta, 1000, "")
 }
@@ -485,19 +500,15 @@ func (c *checker) run(sc Scenario) {
 	}
 }
 
-// Cost is the work of a run in tap-user-slots: Σ_groups count × taps ×
-// slots × replications (slots warm-up included), the users × slots × taps
-// bound the service enforces. It saturates at math.MaxInt64 and never
-// panics; an invalid scenario may give any value.
+// Cost is the work of a run in tap-user-slots: Σ_groups count × fingers ×
+// slots × replications (slots warm-up included; fingers as simulated, see
+// Receiver.RakeFingers), the users × slots × taps bound the service
+// enforces. It saturates at math.MaxInt64 and never panics; an invalid
+// scenario may give any value.
 func (sc Scenario) Cost() int64 {
 	tapUsers := 0.0
-	for _, g := range sc.Groups {
-		n := len(g.CustomTaps)
-		if n == 0 {
-			if p, err := fading.BuiltinProfile(g.Profile); err == nil {
-				n = len(p.Taps)
-			}
-		}
+	for i, g := range sc.Groups {
+		n := len(groupProfile(sc, i).Taps)
 		if g.Count > 0 {
 			tapUsers += float64(g.Count) * float64(max(n, 1))
 		}

@@ -49,6 +49,16 @@ func ReportToProto(r *loop.Report) *pb.RunReport {
 			}
 		}
 	}
+	for _, g := range r.GroupFingers {
+		m.GroupFingers = append(m.GroupFingers, &pb.GroupFingers{
+			Group:           i32(g.Group),
+			Taps:            i32(g.Taps),
+			ResolvablePaths: i32(g.ResolvablePaths),
+			Fingers:         i32(g.Fingers),
+			CapturedPowerDb: g.CapturedPowerDB,
+			FirstFingerKDb:  g.FirstFingerKDB,
+		})
+	}
 	if len(r.Traces) > 0 {
 		m.Traces = make([]*pb.UserTrace, len(r.Traces))
 		for i, t := range r.Traces {
@@ -157,6 +167,16 @@ func ReportFromProto(m *pb.RunReport) *loop.Report {
 			MinDistanceM: b.GetMinDistanceM(),
 			MaxDistanceM: b.GetMaxDistanceM(),
 			Figures:      figuresFromProto(b.GetFigures()),
+		})
+	}
+	for _, g := range m.GetGroupFingers() {
+		r.GroupFingers = append(r.GroupFingers, loop.GroupFingers{
+			Group:           int(g.GetGroup()),
+			Taps:            int(g.GetTaps()),
+			ResolvablePaths: int(g.GetResolvablePaths()),
+			Fingers:         int(g.GetFingers()),
+			CapturedPowerDB: g.GetCapturedPowerDb(),
+			FirstFingerKDB:  g.GetFirstFingerKDb(),
 		})
 	}
 	for _, t := range m.GetTraces() {

@@ -42,6 +42,8 @@ func receiverFromProto(m *pb.Receiver) loop.Receiver {
 		OtherCellRatio:       m.GetOtherCellRatio(),
 		SIREstimationErrorDB: m.GetSirEstimationErrorDb(),
 		SIRAveragingSlots:    int(m.GetSirAveragingSlots()),
+		RakeFingers:          loop.RakeFingers(m.GetRakeFingers()),
+		MaxFingers:           int(m.GetMaxFingers()),
 	}
 }
 
@@ -171,6 +173,8 @@ func ScenarioToProto(sc loop.Scenario) *pb.Scenario {
 			OtherCellRatio:       sc.Receiver.OtherCellRatio,
 			SirEstimationErrorDb: sc.Receiver.SIREstimationErrorDB,
 			SirAveragingSlots:    i32(sc.Receiver.SIRAveragingSlots),
+			RakeFingers:          pb.RakeFingers(sc.Receiver.RakeFingers),
+			MaxFingers:           i32(sc.Receiver.MaxFingers),
 		},
 		InnerLoop: innerLoopToProto(sc.InnerLoop),
 		OuterLoop: outerLoopToProto(sc.OuterLoop),

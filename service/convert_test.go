@@ -34,6 +34,7 @@ func TestEnumsMirror(t *testing.T) {
 		{pb.InitialPower(0).Descriptor(), func(i int) string { return loop.InitialPower(i).String() }},
 		{pb.LinkKind(0).Descriptor(), func(i int) string { return loop.LinkKind(i).String() }},
 		{pb.EffectiveSir(0).Descriptor(), func(i int) string { return loop.EffectiveSIR(i).String() }},
+		{pb.RakeFingers(0).Descriptor(), func(i int) string { return loop.RakeFingers(i).String() }},
 	}
 	for _, c := range cases {
 		vals := c.desc.Values()

@@ -135,7 +135,7 @@ func TestLockstepMalformed(t *testing.T) {
 	badStep := lockstepConfig(2)
 	badStep.GetConfig().Users[1].InnerLoop.StepDb = 50
 	unspecified := lockstepConfig(1)
-	unspecified.GetConfig().Users[0].InnerLoop.Mode = pb.InnerMode_INNER_MODE_UNSPECIFIED
+	unspecified.GetConfig().Users[0].InnerLoop.Mode = 99 // not a defined value (0 now means the default)
 	blocks := slotMsg(0, 1, 2)
 	blocks.GetSlot().Blocks = []*pb.BlockResult{{User: 2}}
 	dupBlocks := slotMsg(0, 1, 2)
@@ -156,7 +156,7 @@ func TestLockstepMalformed(t *testing.T) {
 		{"block of unknown user", []*pb.LockstepRequest{lockstepConfig(2), blocks}, "slot.blocks[0].user"},
 		{"two blocks of one user", []*pb.LockstepRequest{lockstepConfig(2), dupBlocks}, "slot.blocks[1].user"},
 		{"step out of range", []*pb.LockstepRequest{badStep}, "config.users[1].inner_loop.step_db"},
-		{"mode unspecified", []*pb.LockstepRequest{unspecified}, "config.users[0].inner_loop.mode"},
+		{"mode undefined", []*pb.LockstepRequest{unspecified}, "config.users[0].inner_loop.mode"},
 		{"no users", []*pb.LockstepRequest{{Message: &pb.LockstepRequest_Config{Config: &pb.LockstepConfig{}}}}, "config.users"},
 		{"empty message", []*pb.LockstepRequest{{}}, "config"},
 	}

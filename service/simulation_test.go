@@ -136,16 +136,20 @@ func TestSimulateBadInput(t *testing.T) {
 		req   *pb.SimulateRequest
 		field string
 	}{
-		{"placement unspecified", mutate(t, func(s *pb.Scenario) { s.Groups[0].Placement = 0 }), "scenario.groups[0].placement"},
-		{"generator unspecified", mutate(t, func(s *pb.Scenario) { s.Groups[0].Generator = 0 }), "scenario.groups[0].generator"},
-		{"path-loss model unspecified", mutate(t, func(s *pb.Scenario) { s.Groups[0].PathLoss.Model = 0 }), "scenario.groups[0].path_loss.model"},
-		{"inner mode unspecified", mutate(t, func(s *pb.Scenario) { s.InnerLoop.Mode = 0 }), "scenario.inner_loop.mode"},
-		{"command unspecified", mutate(t, func(s *pb.Scenario) { s.InnerLoop.Command = 0 }), "scenario.inner_loop.command"},
-		{"initial power unspecified", mutate(t, func(s *pb.Scenario) { s.InnerLoop.InitialPower = 0 }), "scenario.inner_loop.initial_power"},
-		{"link kind unspecified", mutate(t, func(s *pb.Scenario) { s.Link.Kind = 0 }), "scenario.link.kind"},
-		{"effective SIR unspecified", mutate(t, func(s *pb.Scenario) { s.Link.EffectiveSir = 0 }), "scenario.link.effective_sir"},
+		// Unset enums take their defaults (TestSimulateDefaults); values
+		// that are not defined are rejected.
+		{"placement undefined", mutate(t, func(s *pb.Scenario) { s.Groups[0].Placement = 99 }), "scenario.groups[0].placement"},
+		{"placement unset without distances", mutate(t, func(s *pb.Scenario) {
+			s.Groups[0].Placement, s.Groups[0].MinDistanceM, s.Groups[0].MaxDistanceM = 0, 0, 0
+		}), "scenario.groups[0].placement"},
+		{"generator undefined", mutate(t, func(s *pb.Scenario) { s.Groups[0].Generator = 99 }), "scenario.groups[0].generator"},
+		{"path-loss model undefined", mutate(t, func(s *pb.Scenario) { s.Groups[0].PathLoss.Model = 99 }), "scenario.groups[0].path_loss.model"},
+		{"command undefined", mutate(t, func(s *pb.Scenario) { s.InnerLoop.Command = 99 }), "scenario.inner_loop.command"},
+		{"initial power undefined", mutate(t, func(s *pb.Scenario) { s.InnerLoop.InitialPower = 99 }), "scenario.inner_loop.initial_power"},
+		{"link kind undefined", mutate(t, func(s *pb.Scenario) { s.Link.Kind = 99 }), "scenario.link.kind"},
+		{"effective SIR undefined", mutate(t, func(s *pb.Scenario) { s.Link.EffectiveSir = 99 }), "scenario.link.effective_sir"},
+		{"RAKE finger model undefined", mutate(t, func(s *pb.Scenario) { s.Receiver.RakeFingers = 99 }), "scenario.receiver.rake_fingers"},
 		{"enum value out of range", mutate(t, func(s *pb.Scenario) { s.InnerLoop.Mode = 99 }), "scenario.inner_loop.mode"},
-		{"empty taps and no profile", mutate(t, func(s *pb.Scenario) { s.Groups[0].Profile = "" }), "scenario.groups[0]"},
 		{"both profile and taps", mutate(t, func(s *pb.Scenario) { s.Groups[0].CustomTaps = []*pb.Tap{{}} }), "scenario.groups[0]"},
 		{"taps not sorted", mutate(t, func(s *pb.Scenario) {
 			s.Groups[0].Profile = ""
@@ -154,9 +158,8 @@ func TestSimulateBadInput(t *testing.T) {
 		{"Doppler above half the update rate", mutate(t, func(s *pb.Scenario) { s.Groups[0].Speeds[0].SpeedKmh = 500 }), "scenario.groups[0].speeds[0].speed_kmh"},
 		{"Doppler at a low update rate", mutate(t, func(s *pb.Scenario) { s.InnerLoop.UpdateRateHz = 10 }), "scenario.groups[0].speeds[0].speed_kmh"},
 		{"unknown profile", mutate(t, func(s *pb.Scenario) { s.Groups[0].Profile = "XYZ" }), "scenario.groups[0].profile"},
-		{"neither slots nor duration", mutate(t, func(s *pb.Scenario) { s.Run.Slots = 0 }), "scenario.run"},
+		{"both slots and duration", mutate(t, func(s *pb.Scenario) { s.Run.DurationS = 1 }), "scenario.run"},
 		{"warm-up past the run", mutate(t, func(s *pb.Scenario) { s.Run.WarmupSlots = 3000 }), "scenario.run.warmup_slots"},
-		{"missing receiver", mutate(t, func(s *pb.Scenario) { s.Receiver = nil }), "scenario.receiver"},
 		{"no groups", mutate(t, func(s *pb.Scenario) { s.Groups = nil }), "scenario.groups"},
 		{"missing scenario", &pb.SimulateRequest{}, "scenario"},
 		{"traced user out of range", &pb.SimulateRequest{Scenario: smallScenario(t), Traces: &pb.TraceOptions{DecimationSlots: 1, Users: []int32{4}}}, "traces.users[0]"},
@@ -176,7 +179,7 @@ func TestSimulateBadInput(t *testing.T) {
 func TestSimulateAllViolationsAtOnce(t *testing.T) {
 	env := startEnv(t, viaBufconn, Config{})
 	req := mutate(t, func(s *pb.Scenario) {
-		s.InnerLoop.Mode = 0                      // proto rule
+		s.InnerLoop.Mode = 99                     // proto rule
 		s.Receiver.NoiseFigureDb = 31             // proto rule
 		s.Groups[0].Speeds[0].SpeedKmh = 600      // engine rule (Doppler)
 		s.Groups[0].MinDistanceM = 700            // engine rule (min > max)
@@ -368,8 +371,9 @@ func TestSimulateCostBound(t *testing.T) {
 	env := startEnv(t, viaBufconn, Config{MaxCost: 1000})
 	_, _, err := simulate(context.Background(), env, &pb.SimulateRequest{Scenario: smallScenario(t)})
 	st := wantCode(t, err, codes.ResourceExhausted)
-	// 4 users × 3000 slots × 4 taps (PEDA) × 2 replications = 96000.
-	if !strings.Contains(st.Message(), "max_cost = 1000") || !strings.Contains(st.Message(), "96000") {
+	// 4 users × 3000 slots × 2 fingers (PEDA's 4 taps resolve into 2 paths
+	// at 3.84 Mchip/s) × 2 replications = 48000.
+	if !strings.Contains(st.Message(), "max_cost = 1000") || !strings.Contains(st.Message(), "48000") {
 		t.Errorf("message %q does not name the bound and the cost", st.Message())
 	}
 }

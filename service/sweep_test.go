@@ -198,7 +198,7 @@ func TestSweepBadInput(t *testing.T) {
 		{"no axes", req(func(r *pb.SweepRequest) { r.Axes = nil }), codes.InvalidArgument, "axes"},
 		{"point index past the grid", req(func(r *pb.SweepRequest) { r.PointIndices = []int64{6} }), codes.InvalidArgument, "point_indices[0]"},
 		{"duplicate point index", req(func(r *pb.SweepRequest) { r.PointIndices = []int64{1, 1} }), codes.InvalidArgument, "point_indices"},
-		{"bad base", req(func(r *pb.SweepRequest) { r.Base.InnerLoop.Mode = 0 }), codes.InvalidArgument, "base.inner_loop.mode"},
+		{"bad base", req(func(r *pb.SweepRequest) { r.Base.InnerLoop.Mode = 99 }), codes.InvalidArgument, "base.inner_loop.mode"},
 		{"cost over the bound", req(func(r *pb.SweepRequest) {
 			// 100 × 2 points × 24 000 tap-slots = 4.8e6 > 2e6.
 			r.Axes[0].Values = make([]float64, 100)

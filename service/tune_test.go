@@ -245,7 +245,7 @@ func TestTuneBadInput(t *testing.T) {
 		{"one min replication", mut(func(r *pb.TuneRequest) { r.Budget.MinReplications = 1 }), "budget.min_replications"},
 		{"max below min replications", mut(func(r *pb.TuneRequest) { r.Budget.MinReplications, r.Budget.MaxReplications = 8, 4 }), "budget.max_replications"},
 		{"missing base", mut(func(r *pb.TuneRequest) { r.Base = nil }), "base"},
-		{"invalid base", mut(func(r *pb.TuneRequest) { r.Base.Groups[0].Placement = 0 }), "base.groups[0].placement"},
+		{"invalid base", mut(func(r *pb.TuneRequest) { r.Base.Groups[0].Placement = 99 }), "base.groups[0].placement"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

@@ -3,9 +3,11 @@ package service
 import (
 	"errors"
 	"fmt"
+	"strings"
 
 	"buf.build/go/protovalidate"
 	"google.golang.org/protobuf/proto"
+	"google.golang.org/protobuf/reflect/protoreflect"
 )
 
 // protoValidator checks the rules written in the .proto files.
@@ -46,6 +48,9 @@ func (p *protoValidator) check(msg proto.Message, prefix string) []Violation {
 			field = trimDot(prefix)
 		}
 		desc := v.Proto.GetMessage()
+		if ed := enumOf(v.FieldDescriptor); ed != nil && strings.HasPrefix(v.Proto.GetRuleId(), "enum.") {
+			desc = enumRule(ed, v.FieldValue)
+		}
 		if id := v.Proto.GetRuleId(); id != "" {
 			if desc == "" {
 				desc = id
@@ -56,6 +61,39 @@ func (p *protoValidator) check(msg proto.Message, prefix string) []Violation {
 		out = append(out, Violation{Field: field, Description: desc})
 	}
 	return out
+}
+
+// enumOf returns the enum type of an enum field (or list of enums), nil
+// otherwise.
+func enumOf(fd protoreflect.FieldDescriptor) protoreflect.EnumDescriptor {
+	if fd == nil || fd.Kind() != protoreflect.EnumKind {
+		return nil
+	}
+	return fd.Enum()
+}
+
+// enumRule says which values an enum field accepts: every defined value but
+// the _UNSPECIFIED one, which means "use the documented default" (see
+// loop.Scenario.Normalise), and the number that was given.
+func enumRule(ed protoreflect.EnumDescriptor, got protoreflect.Value) string {
+	var names []string
+	vals := ed.Values()
+	for i := range vals.Len() {
+		if v := vals.Get(i); v.Number() != 0 {
+			names = append(names, string(v.Name()))
+		}
+	}
+	list := strings.Join(names, ", ")
+	if n := len(names); n > 1 {
+		list = strings.Join(names[:n-1], ", ") + " or " + names[n-1]
+	}
+	g := "an unknown value"
+	if got.IsValid() {
+		if n, ok := got.Interface().(protoreflect.EnumNumber); ok {
+			g = fmt.Sprintf("%d, not a defined value", n)
+		}
+	}
+	return fmt.Sprintf("must be one of %s (or unset for the default), got %s", list, g)
 }
 
 func trimDot(s string) string {

@@ -720,7 +720,10 @@ type RunReport struct {
 	// omitted).
 	Traces []*UserTrace `protobuf:"bytes,13,rep,name=traces,proto3" json:"traces,omitempty"`
 	// Caveats of this run (e.g. values beyond the histogram range).
-	Notes         []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
+	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
+	// Per group: the profile's taps, the paths the receiver resolves at its
+	// chip rate and the fingers it combines.
+	GroupFingers  []*GroupFingers `protobuf:"bytes,15,rep,name=group_fingers,json=groupFingers,proto3" json:"group_fingers,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -853,6 +856,109 @@ func (x *RunReport) GetNotes() []string {
 	return nil
 }
 
+func (x *RunReport) GetGroupFingers() []*GroupFingers {
+	if x != nil {
+		return x.GroupFingers
+	}
+	return nil
+}
+
+// GroupFingers is what the receiver makes of one group's tap-delay profile
+// (see Receiver.rake_fingers).
+type GroupFingers struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Group index.
+	Group int32 `protobuf:"varint,1,opt,name=group,proto3" json:"group,omitempty"`
+	// Taps of the group's profile.
+	Taps int32 `protobuf:"varint,2,opt,name=taps,proto3" json:"taps,omitempty"`
+	// Paths separable at chip_rate_hz: taps less than one chip after a
+	// finger's first tap merge into it.
+	ResolvablePaths int32 `protobuf:"varint,3,opt,name=resolvable_paths,json=resolvablePaths,proto3" json:"resolvable_paths,omitempty"`
+	// Fingers the simulated receiver combines: the resolvable paths up to
+	// max_fingers, or every tap with RAKE_FINGERS_IDEAL_EVERY_TAP.
+	Fingers int32 `protobuf:"varint,4,opt,name=fingers,proto3" json:"fingers,omitempty"`
+	// Mean power of the combined fingers over the profile's total power, dB
+	// (<= 0; below 0 when max_fingers drops paths).
+	CapturedPowerDb float64 `protobuf:"fixed64,5,opt,name=captured_power_db,json=capturedPowerDb,proto3" json:"captured_power_db,omitempty"`
+	// Rician K in dB of the first finger for a group with line of sight
+	// (merged taps lower it); 0 otherwise.
+	FirstFingerKDb float64 `protobuf:"fixed64,6,opt,name=first_finger_k_db,json=firstFingerKDb,proto3" json:"first_finger_k_db,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
+}
+
+func (x *GroupFingers) Reset() {
+	*x = GroupFingers{}
+	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GroupFingers) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GroupFingers) ProtoMessage() {}
+
+func (x *GroupFingers) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GroupFingers.ProtoReflect.Descriptor instead.
+func (*GroupFingers) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{8}
+}
+
+func (x *GroupFingers) GetGroup() int32 {
+	if x != nil {
+		return x.Group
+	}
+	return 0
+}
+
+func (x *GroupFingers) GetTaps() int32 {
+	if x != nil {
+		return x.Taps
+	}
+	return 0
+}
+
+func (x *GroupFingers) GetResolvablePaths() int32 {
+	if x != nil {
+		return x.ResolvablePaths
+	}
+	return 0
+}
+
+func (x *GroupFingers) GetFingers() int32 {
+	if x != nil {
+		return x.Fingers
+	}
+	return 0
+}
+
+func (x *GroupFingers) GetCapturedPowerDb() float64 {
+	if x != nil {
+		return x.CapturedPowerDb
+	}
+	return 0
+}
+
+func (x *GroupFingers) GetFirstFingerKDb() float64 {
+	if x != nil {
+		return x.FirstFingerKDb
+	}
+	return 0
+}
+
 var File_fadeloop_v1_report_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_report_proto_rawDesc = "" +
@@ -917,7 +1023,7 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\ttarget_db\x18\x04 \x03(\x02R\btargetDb\x12 \n" +
 	"\ftx_power_dbm\x18\x05 \x03(\x02R\n" +
 	"txPowerDbm\x12&\n" +
-	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xef\x04\n" +
+	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xaf\x05\n" +
 	"\tRunReport\x122\n" +
 	"\taggregate\x18\x01 \x01(\v2\x14.fadeloop.v1.FiguresR\taggregate\x12.\n" +
 	"\x05users\x18\x02 \x03(\v2\x18.fadeloop.v1.UserFiguresR\x05users\x12D\n" +
@@ -933,7 +1039,15 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\vwall_time_s\x18\v \x01(\x01R\twallTimeS\x12'\n" +
 	"\x10user_slots_per_s\x18\f \x01(\x01R\ruserSlotsPerS\x12.\n" +
 	"\x06traces\x18\r \x03(\v2\x16.fadeloop.v1.UserTraceR\x06traces\x12\x14\n" +
-	"\x05notes\x18\x0e \x03(\tR\x05notesB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
+	"\x05notes\x18\x0e \x03(\tR\x05notes\x12>\n" +
+	"\rgroup_fingers\x18\x0f \x03(\v2\x19.fadeloop.v1.GroupFingersR\fgroupFingers\"\xd4\x01\n" +
+	"\fGroupFingers\x12\x14\n" +
+	"\x05group\x18\x01 \x01(\x05R\x05group\x12\x12\n" +
+	"\x04taps\x18\x02 \x01(\x05R\x04taps\x12)\n" +
+	"\x10resolvable_paths\x18\x03 \x01(\x05R\x0fresolvablePaths\x12\x18\n" +
+	"\afingers\x18\x04 \x01(\x05R\afingers\x12*\n" +
+	"\x11captured_power_db\x18\x05 \x01(\x01R\x0fcapturedPowerDb\x12)\n" +
+	"\x11first_finger_k_db\x18\x06 \x01(\x01R\x0efirstFingerKDbB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
 var (
 	file_fadeloop_v1_report_proto_rawDescOnce sync.Once
@@ -947,7 +1061,7 @@ func file_fadeloop_v1_report_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_report_proto_rawDescData
 }
 
-var file_fadeloop_v1_report_proto_msgTypes = make([]protoimpl.MessageInfo, 8)
+var file_fadeloop_v1_report_proto_msgTypes = make([]protoimpl.MessageInfo, 9)
 var file_fadeloop_v1_report_proto_goTypes = []any{
 	(*Estimate)(nil),           // 0: fadeloop.v1.Estimate
 	(*Percentiles)(nil),        // 1: fadeloop.v1.Percentiles
@@ -957,7 +1071,8 @@ var file_fadeloop_v1_report_proto_goTypes = []any{
 	(*Feasibility)(nil),        // 5: fadeloop.v1.Feasibility
 	(*UserTrace)(nil),          // 6: fadeloop.v1.UserTrace
 	(*RunReport)(nil),          // 7: fadeloop.v1.RunReport
-	(*Scenario)(nil),           // 8: fadeloop.v1.Scenario
+	(*GroupFingers)(nil),       // 8: fadeloop.v1.GroupFingers
+	(*Scenario)(nil),           // 9: fadeloop.v1.Scenario
 }
 var file_fadeloop_v1_report_proto_depIdxs = []int32{
 	0,  // 0: fadeloop.v1.Percentiles.p1:type_name -> fadeloop.v1.Estimate
@@ -983,13 +1098,14 @@ var file_fadeloop_v1_report_proto_depIdxs = []int32{
 	3,  // 20: fadeloop.v1.RunReport.users:type_name -> fadeloop.v1.UserFigures
 	4,  // 21: fadeloop.v1.RunReport.distance_bins:type_name -> fadeloop.v1.DistanceBinFigures
 	5,  // 22: fadeloop.v1.RunReport.feasibility:type_name -> fadeloop.v1.Feasibility
-	8,  // 23: fadeloop.v1.RunReport.normalised_scenario:type_name -> fadeloop.v1.Scenario
+	9,  // 23: fadeloop.v1.RunReport.normalised_scenario:type_name -> fadeloop.v1.Scenario
 	6,  // 24: fadeloop.v1.RunReport.traces:type_name -> fadeloop.v1.UserTrace
-	25, // [25:25] is the sub-list for method output_type
-	25, // [25:25] is the sub-list for method input_type
-	25, // [25:25] is the sub-list for extension type_name
-	25, // [25:25] is the sub-list for extension extendee
-	0,  // [0:25] is the sub-list for field type_name
+	8,  // 25: fadeloop.v1.RunReport.group_fingers:type_name -> fadeloop.v1.GroupFingers
+	26, // [26:26] is the sub-list for method output_type
+	26, // [26:26] is the sub-list for method input_type
+	26, // [26:26] is the sub-list for extension type_name
+	26, // [26:26] is the sub-list for extension extendee
+	0,  // [0:26] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_report_proto_init() }
@@ -1004,7 +1120,7 @@ func file_fadeloop_v1_report_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_report_proto_rawDesc), len(file_fadeloop_v1_report_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   8,
+			NumMessages:   9,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -22,11 +22,73 @@ const (
 	_ = protoimpl.EnforceVersion(protoimpl.MaxVersion - 20)
 )
 
+// RakeFingers says how the receiver turns a tap-delay profile into RAKE
+// fingers.
+type RakeFingers int32
+
+const (
+	// Not set: the default RAKE_FINGERS_CHIP_RESOLVED.
+	RakeFingers_RAKE_FINGERS_UNSPECIFIED RakeFingers = 0
+	// Taps the receiver cannot separate at its chip rate are one finger:
+	// greedy from the earliest tap, a finger takes every tap less than one
+	// chip (1/chip_rate_hz) after its first tap (common practice). The merged
+	// finger is Rayleigh with the summed power; a line-of-sight tap keeps its
+	// specular power and the diffuse powers add (lower K). At most
+	// max_fingers fingers, the strongest.
+	RakeFingers_RAKE_FINGERS_CHIP_RESOLVED RakeFingers = 1
+	// Ideal receiver: every tap is its own finger whatever the chip rate, no
+	// finger limit (more diversity than a real receiver has on short delay
+	// spreads).
+	RakeFingers_RAKE_FINGERS_IDEAL_EVERY_TAP RakeFingers = 2
+)
+
+// Enum value maps for RakeFingers.
+var (
+	RakeFingers_name = map[int32]string{
+		0: "RAKE_FINGERS_UNSPECIFIED",
+		1: "RAKE_FINGERS_CHIP_RESOLVED",
+		2: "RAKE_FINGERS_IDEAL_EVERY_TAP",
+	}
+	RakeFingers_value = map[string]int32{
+		"RAKE_FINGERS_UNSPECIFIED":     0,
+		"RAKE_FINGERS_CHIP_RESOLVED":   1,
+		"RAKE_FINGERS_IDEAL_EVERY_TAP": 2,
+	}
+)
+
+func (x RakeFingers) Enum() *RakeFingers {
+	p := new(RakeFingers)
+	*p = x
+	return p
+}
+
+func (x RakeFingers) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (RakeFingers) Descriptor() protoreflect.EnumDescriptor {
+	return file_fadeloop_v1_scenario_proto_enumTypes[0].Descriptor()
+}
+
+func (RakeFingers) Type() protoreflect.EnumType {
+	return &file_fadeloop_v1_scenario_proto_enumTypes[0]
+}
+
+func (x RakeFingers) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use RakeFingers.Descriptor instead.
+func (RakeFingers) EnumDescriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{0}
+}
+
 // Placement says how the users of a group are placed around the receiver.
 type Placement int32
 
 const (
-	// Not set; rejected.
+	// Not set: PLACEMENT_EXPLICIT when distances_m is given, else
+	// PLACEMENT_UNIFORM_AREA when max_distance_m is given; rejected otherwise.
 	Placement_PLACEMENT_UNSPECIFIED Placement = 0
 	// Distances listed explicitly in distances_m, one per user.
 	Placement_PLACEMENT_EXPLICIT Placement = 1
@@ -65,11 +127,11 @@ func (x Placement) String() string {
 }
 
 func (Placement) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[0].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[1].Descriptor()
 }
 
 func (Placement) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[0]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[1]
 }
 
 func (x Placement) Number() protoreflect.EnumNumber {
@@ -78,14 +140,14 @@ func (x Placement) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use Placement.Descriptor instead.
 func (Placement) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{0}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{1}
 }
 
 // Generator selects the fading generator of package fading.
 type Generator int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default GENERATOR_DEFAULT.
 	Generator_GENERATOR_UNSPECIFIED Generator = 0
 	// The engine's fast, statistically correct default.
 	Generator_GENERATOR_DEFAULT Generator = 1
@@ -124,11 +186,11 @@ func (x Generator) String() string {
 }
 
 func (Generator) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[1].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[2].Descriptor()
 }
 
 func (Generator) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[1]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[2]
 }
 
 func (x Generator) Number() protoreflect.EnumNumber {
@@ -137,14 +199,15 @@ func (x Generator) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use Generator.Descriptor instead.
 func (Generator) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{1}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{2}
 }
 
 // PathLossModel selects a path-loss model.
 type PathLossModel int32
 
 const (
-	// Not set; rejected.
+	// Not set: PATH_LOSS_MODEL_LOG_DISTANCE (with its default parameters
+	// when none is given).
 	PathLossModel_PATH_LOSS_MODEL_UNSPECIFIED PathLossModel = 0
 	// Free space (Friis) at the group's carrier frequency.
 	PathLossModel_PATH_LOSS_MODEL_FREE_SPACE PathLossModel = 1
@@ -201,11 +264,11 @@ func (x PathLossModel) String() string {
 }
 
 func (PathLossModel) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[2].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[3].Descriptor()
 }
 
 func (PathLossModel) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[2]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[3]
 }
 
 func (x PathLossModel) Number() protoreflect.EnumNumber {
@@ -214,14 +277,14 @@ func (x PathLossModel) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use PathLossModel.Descriptor instead.
 func (PathLossModel) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{2}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{3}
 }
 
 // InnerMode selects the inner-loop behaviour.
 type InnerMode int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default INNER_MODE_CLOSED_LOOP.
 	InnerMode_INNER_MODE_UNSPECIFIED InnerMode = 0
 	// No power control: every user transmits fixed_power_dbm (the baseline).
 	InnerMode_INNER_MODE_FIXED_POWER InnerMode = 1
@@ -259,11 +322,11 @@ func (x InnerMode) String() string {
 }
 
 func (InnerMode) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[3].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[4].Descriptor()
 }
 
 func (InnerMode) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[3]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[4]
 }
 
 func (x InnerMode) Number() protoreflect.EnumNumber {
@@ -272,14 +335,14 @@ func (x InnerMode) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use InnerMode.Descriptor instead.
 func (InnerMode) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{3}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{4}
 }
 
 // Command selects the closed-loop command type.
 type Command int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default COMMAND_FIXED_STEP.
 	Command_COMMAND_UNSPECIFIED Command = 0
 	// One bit per slot: up or down by step_db.
 	Command_COMMAND_FIXED_STEP Command = 1
@@ -321,11 +384,11 @@ func (x Command) String() string {
 }
 
 func (Command) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[4].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[5].Descriptor()
 }
 
 func (Command) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[4]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[5]
 }
 
 func (x Command) Number() protoreflect.EnumNumber {
@@ -334,14 +397,14 @@ func (x Command) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use Command.Descriptor instead.
 func (Command) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{4}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{5}
 }
 
 // InitialPower selects how each user's transmit power starts.
 type InitialPower int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default INITIAL_POWER_OPEN_LOOP.
 	InitialPower_INITIAL_POWER_UNSPECIFIED InitialPower = 0
 	// From an open-loop estimate of the path loss.
 	InitialPower_INITIAL_POWER_OPEN_LOOP InitialPower = 1
@@ -374,11 +437,11 @@ func (x InitialPower) String() string {
 }
 
 func (InitialPower) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[5].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[6].Descriptor()
 }
 
 func (InitialPower) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[5]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[6]
 }
 
 func (x InitialPower) Number() protoreflect.EnumNumber {
@@ -387,14 +450,14 @@ func (x InitialPower) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use InitialPower.Descriptor instead.
 func (InitialPower) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{5}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{6}
 }
 
 // LinkKind selects the form of the link curve.
 type LinkKind int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default LINK_KIND_LOGISTIC.
 	LinkKind_LINK_KIND_UNSPECIFIED LinkKind = 0
 	// Logistic: BLER(s) = 1/(1+exp((s-threshold_db)/slope_db)).
 	LinkKind_LINK_KIND_LOGISTIC LinkKind = 1
@@ -427,11 +490,11 @@ func (x LinkKind) String() string {
 }
 
 func (LinkKind) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[6].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[7].Descriptor()
 }
 
 func (LinkKind) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[6]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[7]
 }
 
 func (x LinkKind) Number() protoreflect.EnumNumber {
@@ -440,7 +503,7 @@ func (x LinkKind) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use LinkKind.Descriptor instead.
 func (LinkKind) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{6}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{7}
 }
 
 // EffectiveSir selects how a block's per-slot SIRs combine into one
@@ -448,7 +511,7 @@ func (LinkKind) EnumDescriptor() ([]byte, []int) {
 type EffectiveSir int32
 
 const (
-	// Not set; rejected.
+	// Not set: the default EFFECTIVE_SIR_LINEAR_MEAN.
 	EffectiveSir_EFFECTIVE_SIR_UNSPECIFIED EffectiveSir = 0
 	// Linear mean of the slot SIRs.
 	EffectiveSir_EFFECTIVE_SIR_LINEAR_MEAN EffectiveSir = 1
@@ -481,11 +544,11 @@ func (x EffectiveSir) String() string {
 }
 
 func (EffectiveSir) Descriptor() protoreflect.EnumDescriptor {
-	return file_fadeloop_v1_scenario_proto_enumTypes[7].Descriptor()
+	return file_fadeloop_v1_scenario_proto_enumTypes[8].Descriptor()
 }
 
 func (EffectiveSir) Type() protoreflect.EnumType {
-	return &file_fadeloop_v1_scenario_proto_enumTypes[7]
+	return &file_fadeloop_v1_scenario_proto_enumTypes[8]
 }
 
 func (x EffectiveSir) Number() protoreflect.EnumNumber {
@@ -494,7 +557,7 @@ func (x EffectiveSir) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use EffectiveSir.Descriptor instead.
 func (EffectiveSir) EnumDescriptor() ([]byte, []int) {
-	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{7}
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{8}
 }
 
 // Scenario is one uplink power-control simulation: a receiver, the user
@@ -507,17 +570,22 @@ type Scenario struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Free-form label, echoed in reports. At most 128 characters.
 	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
-	// The base-station receiver all users share.
+	// The base-station receiver all users share. Unset means every receiver
+	// field at its default.
 	Receiver *Receiver `protobuf:"bytes,2,opt,name=receiver,proto3" json:"receiver,omitempty"`
 	// User groups; 1 to 64 groups.
 	Groups []*UserGroup `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty"`
-	// Inner (closed) loop settings, the same for every user.
+	// Inner (closed) loop settings, the same for every user. Unset means
+	// every field at its default.
 	InnerLoop *InnerLoop `protobuf:"bytes,4,opt,name=inner_loop,json=innerLoop,proto3" json:"inner_loop,omitempty"`
-	// Outer loop (SIR-target) settings, the same for every user.
+	// Outer loop (SIR-target) settings, the same for every user. Unset means
+	// the outer loop off with a fixed 0 dB target and default limits.
 	OuterLoop *OuterLoop `protobuf:"bytes,5,opt,name=outer_loop,json=outerLoop,proto3" json:"outer_loop,omitempty"`
 	// Link curve: block error probability against effective block SIR.
+	// Unset means LOGISTIC with threshold 0 dB and slope 1 dB.
 	Link *LinkCurve `protobuf:"bytes,6,opt,name=link,proto3" json:"link,omitempty"`
-	// Run length, seed, replications and statistics settings.
+	// Run length, seed, replications and statistics settings. Unset means
+	// 10 s, seed 0, one replication and the default statistics.
 	Run           *RunSettings `protobuf:"bytes,7,opt,name=run,proto3" json:"run,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -606,10 +674,12 @@ func (x *Scenario) GetRun() *RunSettings {
 type Receiver struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Chip rate in Hz (spread bandwidth); sets the thermal noise bandwidth and
-	// the processing gain. (0, 1e10]; 0 means the default 3.84e6.
+	// the processing gain. (0, 1e10]; 0 means the default 3.84e6 (3GPP UTRA
+	// FDD chip rate).
 	ChipRateHz float64 `protobuf:"fixed64,1,opt,name=chip_rate_hz,json=chipRateHz,proto3" json:"chip_rate_hz,omitempty"`
 	// User bit rate in bit/s; processing gain G_p = chip_rate_hz/bit_rate_bps.
-	// (0, chip_rate_hz]; 0 means the default 12.2e3.
+	// (0, chip_rate_hz]; 0 means the default 12.2e3 (AMR 12.2 kbit/s
+	// speech, 3GPP).
 	BitRateBps float64 `protobuf:"fixed64,2,opt,name=bit_rate_bps,json=bitRateBps,proto3" json:"bit_rate_bps,omitempty"`
 	// Receiver noise figure in dB; thermal noise
 	// N = -174 dBm/Hz + 10·log10(chip_rate_hz) + noise_figure_db. [0, 30].
@@ -623,8 +693,16 @@ type Receiver struct {
 	// Length in slots of the moving average applied to the SIR estimate.
 	// [1, 1000]; 0 means the default 1 (no averaging).
 	SirAveragingSlots int32 `protobuf:"varint,6,opt,name=sir_averaging_slots,json=sirAveragingSlots,proto3" json:"sir_averaging_slots,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// How the taps of each group's profile become RAKE fingers. 0 means the
+	// default RAKE_FINGERS_CHIP_RESOLVED.
+	RakeFingers RakeFingers `protobuf:"varint,7,opt,name=rake_fingers,json=rakeFingers,proto3,enum=fadeloop.v1.RakeFingers" json:"rake_fingers,omitempty"`
+	// Most fingers combined per user with RAKE_FINGERS_CHIP_RESOLVED (the
+	// strongest resolvable paths are kept; with a line-of-sight group the
+	// first one always). [1, 64]; 0 means the default 4 (common practice for
+	// base-station RAKE receivers).
+	MaxFingers    int32 `protobuf:"varint,8,opt,name=max_fingers,json=maxFingers,proto3" json:"max_fingers,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Receiver) Reset() {
@@ -699,13 +777,28 @@ func (x *Receiver) GetSirAveragingSlots() int32 {
 	return 0
 }
 
+func (x *Receiver) GetRakeFingers() RakeFingers {
+	if x != nil {
+		return x.RakeFingers
+	}
+	return RakeFingers_RAKE_FINGERS_UNSPECIFIED
+}
+
+func (x *Receiver) GetMaxFingers() int32 {
+	if x != nil {
+		return x.MaxFingers
+	}
+	return 0
+}
+
 // SpeedShare is one speed of a group's mix with its weight.
 type SpeedShare struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Mobile speed in km/h; Doppler f_D = v·f_c/c. [0, 1000].
 	SpeedKmh float64 `protobuf:"fixed64,1,opt,name=speed_kmh,json=speedKmh,proto3" json:"speed_kmh,omitempty"`
 	// Relative weight (> 0, finite); users are assigned to speeds
-	// deterministically in proportion to the weights. (0, 1e6].
+	// deterministically in proportion to the weights. (0, 1e6]; 0 in every
+	// entry of a group means equal weights (1).
 	Weight        float64 `protobuf:"fixed64,2,opt,name=weight,proto3" json:"weight,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -815,6 +908,8 @@ func (x *Tap) GetPowerDb() float64 {
 type PathLoss struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The model; the parameters below are used by the models that need them.
+	// 0 means PATH_LOSS_MODEL_LOG_DISTANCE; LOG_DISTANCE with ref_distance_m,
+	// ref_loss_db and exponent all 0 means 52.9 dB at 10 m, exponent 3.76.
 	Model PathLossModel `protobuf:"varint,1,opt,name=model,proto3,enum=fadeloop.v1.PathLossModel" json:"model,omitempty"`
 	// Reference distance d0 in m (LOG_DISTANCE). [0, 1e5].
 	RefDistanceM float64 `protobuf:"fixed64,2,opt,name=ref_distance_m,json=refDistanceM,proto3" json:"ref_distance_m,omitempty"`
@@ -823,10 +918,10 @@ type PathLoss struct {
 	// Path-loss exponent n (LOG_DISTANCE). [0, 10].
 	Exponent float64 `protobuf:"fixed64,4,opt,name=exponent,proto3" json:"exponent,omitempty"`
 	// Base-station antenna height in m (Hata models). [0, 1000]; 0 means the
-	// default 30.
+	// default 30 (common practice; Hata's range is 30-200 m).
 	BaseHeightM float64 `protobuf:"fixed64,5,opt,name=base_height_m,json=baseHeightM,proto3" json:"base_height_m,omitempty"`
 	// Mobile antenna height in m (Hata models). [0, 100]; 0 means the
-	// default 1.5.
+	// default 1.5 (common practice; Hata's reference mobile height).
 	MobileHeightM float64 `protobuf:"fixed64,6,opt,name=mobile_height_m,json=mobileHeightM,proto3" json:"mobile_height_m,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -912,39 +1007,48 @@ type UserGroup struct {
 	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
 	// Number of users in the group. [1, 4096].
 	Count int32 `protobuf:"varint,2,opt,name=count,proto3" json:"count,omitempty"`
-	// How the users are placed.
+	// How the users are placed; 0 means PLACEMENT_EXPLICIT when distances_m
+	// is given, else PLACEMENT_UNIFORM_AREA when max_distance_m is given.
 	Placement Placement `protobuf:"varint,3,opt,name=placement,proto3,enum=fadeloop.v1.Placement" json:"placement,omitempty"`
 	// Distances in m from the receiver, one per user (PLACEMENT_EXPLICIT,
 	// length == count); each in (0, 1e6].
 	DistancesM []float64 `protobuf:"fixed64,4,rep,packed,name=distances_m,json=distancesM,proto3" json:"distances_m,omitempty"`
 	// Inner radius in m of the placement (uniform placements), 0 < min <= max.
-	// [0, 1e6].
+	// [0, 1e6]; 0 means the default min(35, max_distance_m) (minimum distance
+	// of the 3GPP TR 25.942 macro-cell scenario (memory)).
 	MinDistanceM float64 `protobuf:"fixed64,5,opt,name=min_distance_m,json=minDistanceM,proto3" json:"min_distance_m,omitempty"`
 	// Outer radius in m of the placement (uniform placements). [0, 1e6].
 	MaxDistanceM float64 `protobuf:"fixed64,6,opt,name=max_distance_m,json=maxDistanceM,proto3" json:"max_distance_m,omitempty"`
-	// Speed mix of the group; 1 to 16 entries.
+	// Speed mix of the group; 1 to 16 entries. When every weight is 0 the
+	// speeds share the users equally.
 	Speeds []*SpeedShare `protobuf:"bytes,7,rep,name=speeds,proto3" json:"speeds,omitempty"`
-	// Carrier frequency in Hz. [1e6, 1e11]; 0 means the default 2e9.
+	// Carrier frequency in Hz. [1e6, 1e11]; 0 means the default 2e9
+	// (common practice, UMTS band).
 	CarrierFrequencyHz float64 `protobuf:"fixed64,8,opt,name=carrier_frequency_hz,json=carrierFrequencyHz,proto3" json:"carrier_frequency_hz,omitempty"`
 	// Built-in tap-delay profile: FLAT, EPA, EVA, ETU, PEDA or VEHA
-	// (case-insensitive). Exactly one of profile and custom_taps is set.
+	// (case-insensitive). At most one of profile and custom_taps is set;
+	// neither means the default FLAT (one Rayleigh tap).
 	Profile string `protobuf:"bytes,9,opt,name=profile,proto3" json:"profile,omitempty"`
 	// Custom tap-delay profile, 1 to 64 taps, delays strictly ascending.
-	// Exactly one of profile and custom_taps is set.
+	// At most one of profile and custom_taps is set.
 	CustomTaps []*Tap `protobuf:"bytes,10,rep,name=custom_taps,json=customTaps,proto3" json:"custom_taps,omitempty"`
 	// Rician K factor of the first tap in dB, used when los is true. [-50, 50].
 	RicianKDb float64 `protobuf:"fixed64,11,opt,name=rician_k_db,json=ricianKDb,proto3" json:"rician_k_db,omitempty"`
 	// First tap has a line-of-sight component (Rician with rician_k_db).
 	Los bool `protobuf:"varint,12,opt,name=los,proto3" json:"los,omitempty"`
-	// Fading generator (GENERATOR_DEFAULT is the engine's choice).
+	// Fading generator; 0 means the default GENERATOR_DEFAULT (the engine's
+	// choice).
 	Generator Generator `protobuf:"varint,13,opt,name=generator,proto3,enum=fadeloop.v1.Generator" json:"generator,omitempty"`
 	// Log-normal shadowing standard deviation in dB; 0 disables shadowing.
 	// [0, 20].
 	ShadowingSigmaDb float64 `protobuf:"fixed64,14,opt,name=shadowing_sigma_db,json=shadowingSigmaDb,proto3" json:"shadowing_sigma_db,omitempty"`
 	// Shadowing decorrelation distance in m (correlation 1/e, Gudmundson).
-	// (0, 1e5]; 0 means the default 50 when shadowing is on.
+	// (0, 1e5]; 0 means the default 50 when shadowing is on
+	// (common practice for urban macro cells).
 	ShadowingDecorrelationM float64 `protobuf:"fixed64,15,opt,name=shadowing_decorrelation_m,json=shadowingDecorrelationM,proto3" json:"shadowing_decorrelation_m,omitempty"`
-	// Path-loss model of the group.
+	// Path-loss model of the group. Unset means LOG_DISTANCE 52.9 dB at
+	// 10 m with exponent 3.76 (128.1 + 37.6·log10(d/1 km), 3GPP TR 25.942
+	// macro cell at 2 GHz (memory)).
 	PathLoss *PathLoss `protobuf:"bytes,16,opt,name=path_loss,json=pathLoss,proto3" json:"path_loss,omitempty"`
 	// Voice-like activity factor a (fraction of slots transmitting).
 	// (0, 1]; 0 means the default 1 (always on).
@@ -1126,16 +1230,20 @@ func (x *UserGroup) GetSinusoids() int32 {
 // InnerLoop is the closed (inner) power-control loop, one update per slot.
 type InnerLoop struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Inner-loop mode.
+	// Inner-loop mode; 0 means the default INNER_MODE_CLOSED_LOOP.
 	Mode InnerMode `protobuf:"varint,1,opt,name=mode,proto3,enum=fadeloop.v1.InnerMode" json:"mode,omitempty"`
-	// Command type (used in INNER_MODE_CLOSED_LOOP).
+	// Command type (used in INNER_MODE_CLOSED_LOOP); 0 means the default
+	// COMMAND_FIXED_STEP. MULTI_LEVEL with no levels_db and thresholds_db
+	// means levels [-1, 0, 1, 3] dB (3GPP TS 36.213 §5.1.1.1 (memory)) and
+	// thresholds [-3, -0.5, 0.5] dB (common practice).
 	Command Command `protobuf:"varint,2,opt,name=command,proto3,enum=fadeloop.v1.Command" json:"command,omitempty"`
 	// Slot rate in Hz: one inner-loop update per slot, T = 1/update_rate_hz.
-	// (0, 1e5]; 0 means the default 1500. The Doppler of every user must stay
+	// (0, 1e5]; 0 means the default 1500 (3GPP TS 25.214,
+	// 15 slots per 10 ms frame (memory)). The Doppler of every user must stay
 	// below half of it.
 	UpdateRateHz float64 `protobuf:"fixed64,3,opt,name=update_rate_hz,json=updateRateHz,proto3" json:"update_rate_hz,omitempty"`
 	// Power-control step in dB (fixed step; base step of ADAPTIVE).
-	// (0, 10]; 0 means the default 1.
+	// (0, 10]; 0 means the default 1 (3GPP TS 25.214 algorithm 1 (memory)).
 	StepDb float64 `protobuf:"fixed64,4,opt,name=step_db,json=stepDb,proto3" json:"step_db,omitempty"`
 	// Command levels in dB of MULTI_LEVEL, ascending, e.g. [-1, 0, 1, 3]; at
 	// most 16, each in [-20, 20].
@@ -1149,11 +1257,13 @@ type InnerLoop struct {
 	// Probability that a command is received in error. [0, 0.5].
 	CommandErrorProb float64 `protobuf:"fixed64,8,opt,name=command_error_prob,json=commandErrorProb,proto3" json:"command_error_prob,omitempty"`
 	// Minimum transmit power in dBm. [-100, 60], < max_power_dbm; both
-	// limits 0 means the defaults [-50, 24] dBm.
+	// limits 0 means the defaults [-50, 24] dBm (24 dBm: 3GPP power class 3
+	// (memory); -50 dBm: common practice).
 	MinPowerDbm float64 `protobuf:"fixed64,9,opt,name=min_power_dbm,json=minPowerDbm,proto3" json:"min_power_dbm,omitempty"`
 	// Maximum transmit power in dBm. [-100, 60].
 	MaxPowerDbm float64 `protobuf:"fixed64,10,opt,name=max_power_dbm,json=maxPowerDbm,proto3" json:"max_power_dbm,omitempty"`
-	// How the transmit power starts.
+	// How the transmit power starts; 0 means the default
+	// INITIAL_POWER_OPEN_LOOP.
 	InitialPower InitialPower `protobuf:"varint,11,opt,name=initial_power,json=initialPower,proto3,enum=fadeloop.v1.InitialPower" json:"initial_power,omitempty"`
 	// Initial transmit power in dBm (INITIAL_POWER_FIXED). [-100, 60].
 	InitialPowerDbm float64 `protobuf:"fixed64,12,opt,name=initial_power_dbm,json=initialPowerDbm,proto3" json:"initial_power_dbm,omitempty"`
@@ -1289,15 +1399,18 @@ type OuterLoop struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Outer loop on; when off the SIR target stays at initial_target_db.
 	Enabled bool `protobuf:"varint,1,opt,name=enabled,proto3" json:"enabled,omitempty"`
-	// Block error rate target tau. (0, 1); 0 means the default 0.1.
+	// Block error rate target tau. (0, 1); 0 means the default 0.1 (common
+	// practice for speech).
 	BlerTarget float64 `protobuf:"fixed64,2,opt,name=bler_target,json=blerTarget,proto3" json:"bler_target,omitempty"`
-	// Block length B in slots. [1, 100000]; 0 means the default 15.
+	// Block length B in slots. [1, 100000]; 0 means the default 15 (one
+	// 10 ms frame at 1500 Hz).
 	BlockSlots int32 `protobuf:"varint,3,opt,name=block_slots,json=blockSlots,proto3" json:"block_slots,omitempty"`
 	// Target up step in dB on a block error; the down step is
-	// up_step_db·tau/(1-tau). (0, 10]; 0 means the default 0.5.
+	// up_step_db·tau/(1-tau). (0, 10]; 0 means the default 0.5
+	// (common practice).
 	UpStepDb float64 `protobuf:"fixed64,4,opt,name=up_step_db,json=upStepDb,proto3" json:"up_step_db,omitempty"`
 	// Lowest SIR target in dB. [-30, 50], <= max_target_db; both limits 0
-	// means the defaults [-10, 30] dB.
+	// means the defaults [-10, 30] dB (common practice).
 	MinTargetDb float64 `protobuf:"fixed64,5,opt,name=min_target_db,json=minTargetDb,proto3" json:"min_target_db,omitempty"`
 	// Highest SIR target in dB. [-30, 50].
 	MaxTargetDb float64 `protobuf:"fixed64,6,opt,name=max_target_db,json=maxTargetDb,proto3" json:"max_target_db,omitempty"`
@@ -1453,15 +1566,17 @@ func (x *LinkPoint) GetBler() float64 {
 // LinkCurve maps a block's effective SIR to its block error probability.
 type LinkCurve struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Curve form.
+	// Curve form; 0 means the default LINK_KIND_LOGISTIC.
 	Kind LinkKind `protobuf:"varint,1,opt,name=kind,proto3,enum=fadeloop.v1.LinkKind" json:"kind,omitempty"`
 	// SIR in dB where BLER = 0.5 (LOGISTIC). [-30, 50].
 	ThresholdDb float64 `protobuf:"fixed64,2,opt,name=threshold_db,json=thresholdDb,proto3" json:"threshold_db,omitempty"`
-	// Logistic slope in dB (LOGISTIC). (0, 20]; 0 means the default 1.
+	// Logistic slope in dB (LOGISTIC). (0, 20]; 0 means the default 1
+	// (common practice).
 	SlopeDb float64 `protobuf:"fixed64,3,opt,name=slope_db,json=slopeDb,proto3" json:"slope_db,omitempty"`
 	// Points of a TABLE curve: at most 256, SIR ascending, BLER non-increasing.
 	Table []*LinkPoint `protobuf:"bytes,4,rep,name=table,proto3" json:"table,omitempty"`
-	// How slot SIRs combine into the block's effective SIR.
+	// How slot SIRs combine into the block's effective SIR; 0 means the
+	// default EFFECTIVE_SIR_LINEAR_MEAN.
 	EffectiveSir EffectiveSir `protobuf:"varint,5,opt,name=effective_sir,json=effectiveSir,proto3,enum=fadeloop.v1.EffectiveSir" json:"effective_sir,omitempty"`
 	// EESM beta (linear, EFFECTIVE_SIR_EESM). (0, 1000]; 0 means the
 	// default 1.
@@ -1545,11 +1660,12 @@ func (x *LinkCurve) GetEesmBeta() float64 {
 // RunSettings fixes the run length, the seed and the statistics.
 type RunSettings struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Slots per replication, warm-up included. Exactly one of slots and
-	// duration_s is set. [0, 1e9].
+	// Slots per replication, warm-up included. At most one of slots and
+	// duration_s is set; neither means duration_s 10 s (common practice).
+	// [0, 1e9].
 	Slots int64 `protobuf:"varint,1,opt,name=slots,proto3" json:"slots,omitempty"`
 	// Simulated time per replication in s, warm-up included
-	// (slots = round(duration_s·update_rate_hz)). Exactly one of slots and
+	// (slots = round(duration_s·update_rate_hz)). At most one of slots and
 	// duration_s is set. [0, 1e6].
 	DurationS float64 `protobuf:"fixed64,2,opt,name=duration_s,json=durationS,proto3" json:"duration_s,omitempty"`
 	// First slots of each replication excluded from the figures, < the run's
@@ -1561,12 +1677,14 @@ type RunSettings struct {
 	// the default 1.
 	Replications int32 `protobuf:"varint,5,opt,name=replications,proto3" json:"replications,omitempty"`
 	// Outage margin in dB: outage when SIR < target - margin. (0, 30]; 0 means
-	// the default 3 dB.
+	// the default 3 dB (common practice).
 	OutageMarginDb float64 `protobuf:"fixed64,6,opt,name=outage_margin_db,json=outageMarginDb,proto3" json:"outage_margin_db,omitempty"`
 	// Number of distance bins for the per-bin figures. [1, 64]; 0 means the
 	// default 4.
 	DistanceBins int32 `protobuf:"varint,7,opt,name=distance_bins,json=distanceBins,proto3" json:"distance_bins,omitempty"`
-	// Batches for batch-means confidence intervals; 0 means the default,
+	// Batches for batch-means confidence intervals; 0 means the default 20
+	// (the fewest batch means with a usable Student t interval, common
+	// practice),
 	// otherwise [20, 10000].
 	Batches       int32 `protobuf:"varint,8,opt,name=batches,proto3" json:"batches,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -1663,18 +1781,18 @@ var File_fadeloop_v1_scenario_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\n" +
-	"\x1afadeloop/v1/scenario.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\"\x85\x03\n" +
+	"\x1afadeloop/v1/scenario.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\"\xdd\x02\n" +
 	"\bScenario\x12\x1c\n" +
-	"\x04name\x18\x01 \x01(\tB\b\xbaH\x05r\x03\x18\x80\x01R\x04name\x129\n" +
-	"\breceiver\x18\x02 \x01(\v2\x15.fadeloop.v1.ReceiverB\x06\xbaH\x03\xc8\x01\x01R\breceiver\x12:\n" +
+	"\x04name\x18\x01 \x01(\tB\b\xbaH\x05r\x03\x18\x80\x01R\x04name\x121\n" +
+	"\breceiver\x18\x02 \x01(\v2\x15.fadeloop.v1.ReceiverR\breceiver\x12:\n" +
 	"\x06groups\x18\x03 \x03(\v2\x16.fadeloop.v1.UserGroupB\n" +
-	"\xbaH\a\x92\x01\x04\b\x01\x10@R\x06groups\x12=\n" +
+	"\xbaH\a\x92\x01\x04\b\x01\x10@R\x06groups\x125\n" +
 	"\n" +
-	"inner_loop\x18\x04 \x01(\v2\x16.fadeloop.v1.InnerLoopB\x06\xbaH\x03\xc8\x01\x01R\tinnerLoop\x12=\n" +
+	"inner_loop\x18\x04 \x01(\v2\x16.fadeloop.v1.InnerLoopR\tinnerLoop\x125\n" +
 	"\n" +
-	"outer_loop\x18\x05 \x01(\v2\x16.fadeloop.v1.OuterLoopB\x06\xbaH\x03\xc8\x01\x01R\touterLoop\x122\n" +
-	"\x04link\x18\x06 \x01(\v2\x16.fadeloop.v1.LinkCurveB\x06\xbaH\x03\xc8\x01\x01R\x04link\x122\n" +
-	"\x03run\x18\a \x01(\v2\x18.fadeloop.v1.RunSettingsB\x06\xbaH\x03\xc8\x01\x01R\x03run\"\x99\x03\n" +
+	"outer_loop\x18\x05 \x01(\v2\x16.fadeloop.v1.OuterLoopR\touterLoop\x12*\n" +
+	"\x04link\x18\x06 \x01(\v2\x16.fadeloop.v1.LinkCurveR\x04link\x12*\n" +
+	"\x03run\x18\a \x01(\v2\x18.fadeloop.v1.RunSettingsR\x03run\"\x8f\x04\n" +
 	"\bReceiver\x12<\n" +
 	"\fchip_rate_hz\x18\x01 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00 _\xa0\x02B!\x00\x00\x00\x00\x00\x00\x00\x00R\n" +
 	"chipRateHz\x12<\n" +
@@ -1684,28 +1802,29 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\x10other_cell_ratio\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00R\x0eotherCellRatio\x12N\n" +
 	"\x17sir_estimation_error_db\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x00\x00\x00R\x14sirEstimationErrorDb\x12=\n" +
 	"\x13sir_averaging_slots\x18\x06 \x01(\x05B\r\xbaH\n" +
-	"\xd8\x01\x01\x1a\x05\x18\xe8\a(\x01R\x11sirAveragingSlots\"s\n" +
+	"\xd8\x01\x01\x1a\x05\x18\xe8\a(\x01R\x11sirAveragingSlots\x12E\n" +
+	"\frake_fingers\x18\a \x01(\x0e2\x18.fadeloop.v1.RakeFingersB\b\xbaH\x05\x82\x01\x02\x10\x01R\vrakeFingers\x12-\n" +
+	"\vmax_fingers\x18\b \x01(\x05B\f\xbaH\t\xd8\x01\x01\x1a\x04\x18@(\x01R\n" +
+	"maxFingers\"v\n" +
 	"\n" +
 	"SpeedShare\x124\n" +
-	"\tspeed_kmh\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\bspeedKmh\x12/\n" +
-	"\x06weight\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00R\x06weight\"m\n" +
+	"\tspeed_kmh\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\bspeedKmh\x122\n" +
+	"\x06weight\x18\x02 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00R\x06weight\"m\n" +
 	"\x03Tap\x122\n" +
 	"\bdelay_ns\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00R\adelayNs\x122\n" +
-	"\bpower_db\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00Y\xc0R\apowerDb\"\xf3\x02\n" +
-	"\bPathLoss\x12<\n" +
-	"\x05model\x18\x01 \x01(\x0e2\x1a.fadeloop.v1.PathLossModelB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\x05model\x12=\n" +
+	"\bpower_db\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00Y\xc0R\apowerDb\"\xf1\x02\n" +
+	"\bPathLoss\x12:\n" +
+	"\x05model\x18\x01 \x01(\x0e2\x1a.fadeloop.v1.PathLossModelB\b\xbaH\x05\x82\x01\x02\x10\x01R\x05model\x12=\n" +
 	"\x0eref_distance_m\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00R\frefDistanceM\x127\n" +
 	"\vref_loss_db\x18\x03 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00R\trefLossDb\x123\n" +
 	"\bexponent\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00R\bexponent\x12;\n" +
 	"\rbase_height_m\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\vbaseHeightM\x12?\n" +
-	"\x0fmobile_height_m\x18\x06 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00R\rmobileHeightM\"\xf3\b\n" +
+	"\x0fmobile_height_m\x18\x06 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00R\rmobileHeightM\"\xe5\b\n" +
 	"\tUserGroup\x12\x1b\n" +
 	"\x04name\x18\x01 \x01(\tB\a\xbaH\x04r\x02\x18@R\x04name\x12 \n" +
 	"\x05count\x18\x02 \x01(\x05B\n" +
-	"\xbaH\a\x1a\x05\x18\x80 (\x01R\x05count\x12@\n" +
-	"\tplacement\x18\x03 \x01(\x0e2\x16.fadeloop.v1.PlacementB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\tplacement\x12@\n" +
+	"\xbaH\a\x1a\x05\x18\x80 (\x01R\x05count\x12>\n" +
+	"\tplacement\x18\x03 \x01(\x0e2\x16.fadeloop.v1.PlacementB\b\xbaH\x05\x82\x01\x02\x10\x01R\tplacement\x12@\n" +
 	"\vdistances_m\x18\x04 \x03(\x01B\x1f\xbaH\x1c\x92\x01\x19\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00R\n" +
 	"distancesM\x12=\n" +
 	"\x0emin_distance_m\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00R\fminDistanceM\x12=\n" +
@@ -1718,23 +1837,20 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	" \x03(\v2\x10.fadeloop.v1.TapB\b\xbaH\x05\x92\x01\x02\x10@R\n" +
 	"customTaps\x127\n" +
 	"\vrician_k_db\x18\v \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0R\tricianKDb\x12\x10\n" +
-	"\x03los\x18\f \x01(\bR\x03los\x12@\n" +
-	"\tgenerator\x18\r \x01(\x0e2\x16.fadeloop.v1.GeneratorB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\tgenerator\x12E\n" +
+	"\x03los\x18\f \x01(\bR\x03los\x12>\n" +
+	"\tgenerator\x18\r \x01(\x0e2\x16.fadeloop.v1.GeneratorB\b\xbaH\x05\x82\x01\x02\x10\x01R\tgenerator\x12E\n" +
 	"\x12shadowing_sigma_db\x18\x0e \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x00\x00\x00R\x10shadowingSigmaDb\x12V\n" +
-	"\x19shadowing_decorrelation_m\x18\x0f \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00R\x17shadowingDecorrelationM\x12:\n" +
-	"\tpath_loss\x18\x10 \x01(\v2\x15.fadeloop.v1.PathLossB\x06\xbaH\x03\xc8\x01\x01R\bpathLoss\x12C\n" +
+	"\x19shadowing_decorrelation_m\x18\x0f \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00R\x17shadowingDecorrelationM\x122\n" +
+	"\tpath_loss\x18\x10 \x01(\v2\x15.fadeloop.v1.PathLossR\bpathLoss\x12C\n" +
 	"\x0factivity_factor\x18\x11 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00R\x0eactivityFactor\x12D\n" +
 	"\x10mean_burst_slots\x18\x12 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\xd0\x12cA)\x00\x00\x00\x00\x00\x00\xf0?R\x0emeanBurstSlots\x12(\n" +
 	"\tsinusoids\x18\x13 \x01(\x05B\n" +
-	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids:\x1d\xbaH\x1a\"\x18\n" +
+	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids:\x1b\xbaH\x18\"\x16\n" +
 	"\aprofile\n" +
-	"\vcustom_taps\x10\x01\"\xc9\x06\n" +
-	"\tInnerLoop\x126\n" +
-	"\x04mode\x18\x01 \x01(\x0e2\x16.fadeloop.v1.InnerModeB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\x04mode\x12:\n" +
-	"\acommand\x18\x02 \x01(\x0e2\x14.fadeloop.v1.CommandB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\acommand\x12@\n" +
+	"\vcustom_taps\"\xc3\x06\n" +
+	"\tInnerLoop\x124\n" +
+	"\x04mode\x18\x01 \x01(\x0e2\x16.fadeloop.v1.InnerModeB\b\xbaH\x05\x82\x01\x02\x10\x01R\x04mode\x128\n" +
+	"\acommand\x18\x02 \x01(\x0e2\x14.fadeloop.v1.CommandB\b\xbaH\x05\x82\x01\x02\x10\x01R\acommand\x12@\n" +
 	"\x0eupdate_rate_hz\x18\x03 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00R\fupdateRateHz\x123\n" +
 	"\astep_db\x18\x04 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x00$@!\x00\x00\x00\x00\x00\x00\x00\x00R\x06stepDb\x12;\n" +
 	"\tlevels_db\x18\x05 \x03(\x01B\x1e\xbaH\x1b\x92\x01\x18\x10\x10\"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x004\xc0R\blevelsDb\x12C\n" +
@@ -1744,9 +1860,8 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\x12command_error_prob\x18\b \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xe0?)\x00\x00\x00\x00\x00\x00\x00\x00R\x10commandErrorProb\x12;\n" +
 	"\rmin_power_dbm\x18\t \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0R\vminPowerDbm\x12;\n" +
 	"\rmax_power_dbm\x18\n" +
-	" \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0R\vmaxPowerDbm\x12J\n" +
-	"\rinitial_power\x18\v \x01(\x0e2\x19.fadeloop.v1.InitialPowerB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\finitialPower\x12C\n" +
+	" \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0R\vmaxPowerDbm\x12H\n" +
+	"\rinitial_power\x18\v \x01(\x0e2\x19.fadeloop.v1.InitialPowerB\b\xbaH\x05\x82\x01\x02\x10\x01R\finitialPower\x12C\n" +
 	"\x11initial_power_dbm\x18\f \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0R\x0finitialPowerDbm\x12?\n" +
 	"\x0ffixed_power_dbm\x18\r \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0R\rfixedPowerDbm\"\xbb\x03\n" +
 	"\tOuterLoop\x12\x18\n" +
@@ -1763,16 +1878,14 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\x13freeze_at_max_power\x18\b \x01(\bR\x10freezeAtMaxPower\"h\n" +
 	"\tLinkPoint\x12.\n" +
 	"\x06sir_db\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00I\xc0R\x05sirDb\x12+\n" +
-	"\x04bler\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00R\x04bler\"\xf3\x02\n" +
-	"\tLinkCurve\x125\n" +
-	"\x04kind\x18\x01 \x01(\x0e2\x15.fadeloop.v1.LinkKindB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\x04kind\x12:\n" +
+	"\x04bler\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00R\x04bler\"\xef\x02\n" +
+	"\tLinkCurve\x123\n" +
+	"\x04kind\x18\x01 \x01(\x0e2\x15.fadeloop.v1.LinkKindB\b\xbaH\x05\x82\x01\x02\x10\x01R\x04kind\x12:\n" +
 	"\fthreshold_db\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0R\vthresholdDb\x125\n" +
 	"\bslope_db\x18\x03 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x004@!\x00\x00\x00\x00\x00\x00\x00\x00R\aslopeDb\x127\n" +
-	"\x05table\x18\x04 \x03(\v2\x16.fadeloop.v1.LinkPointB\t\xbaH\x06\x92\x01\x03\x10\x80\x02R\x05table\x12J\n" +
-	"\reffective_sir\x18\x05 \x01(\x0e2\x19.fadeloop.v1.EffectiveSirB\n" +
-	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\feffectiveSir\x127\n" +
-	"\teesm_beta\x18\x06 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@!\x00\x00\x00\x00\x00\x00\x00\x00R\beesmBeta\"\xa0\x03\n" +
+	"\x05table\x18\x04 \x03(\v2\x16.fadeloop.v1.LinkPointB\t\xbaH\x06\x92\x01\x03\x10\x80\x02R\x05table\x12H\n" +
+	"\reffective_sir\x18\x05 \x01(\x0e2\x19.fadeloop.v1.EffectiveSirB\b\xbaH\x05\x82\x01\x02\x10\x01R\feffectiveSir\x127\n" +
+	"\teesm_beta\x18\x06 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@!\x00\x00\x00\x00\x00\x00\x00\x00R\beesmBeta\"\x9e\x03\n" +
 	"\vRunSettings\x12#\n" +
 	"\x05slots\x18\x01 \x01(\x03B\r\xbaH\n" +
 	"\"\b\x18\x80\x94\xeb\xdc\x03(\x00R\x05slots\x126\n" +
@@ -1785,10 +1898,14 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\x10outage_margin_db\x18\x06 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00\x00>@!\x00\x00\x00\x00\x00\x00\x00\x00R\x0eoutageMarginDb\x121\n" +
 	"\rdistance_bins\x18\a \x01(\x05B\f\xbaH\t\xd8\x01\x01\x1a\x04\x18@(\x01R\fdistanceBins\x12'\n" +
 	"\abatches\x18\b \x01(\x05B\r\xbaH\n" +
-	"\xd8\x01\x01\x1a\x05\x18\x90N(\x14R\abatches:\x1a\xbaH\x17\"\x15\n" +
+	"\xd8\x01\x01\x1a\x05\x18\x90N(\x14R\abatches:\x18\xbaH\x15\"\x13\n" +
 	"\x05slots\n" +
 	"\n" +
-	"duration_s\x10\x01*z\n" +
+	"duration_s*m\n" +
+	"\vRakeFingers\x12\x1c\n" +
+	"\x18RAKE_FINGERS_UNSPECIFIED\x10\x00\x12\x1e\n" +
+	"\x1aRAKE_FINGERS_CHIP_RESOLVED\x10\x01\x12 \n" +
+	"\x1cRAKE_FINGERS_IDEAL_EVERY_TAP\x10\x02*z\n" +
 	"\tPlacement\x12\x19\n" +
 	"\x15PLACEMENT_UNSPECIFIED\x10\x00\x12\x16\n" +
 	"\x12PLACEMENT_EXPLICIT\x10\x01\x12\x1e\n" +
@@ -1844,53 +1961,55 @@ func file_fadeloop_v1_scenario_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_scenario_proto_rawDescData
 }
 
-var file_fadeloop_v1_scenario_proto_enumTypes = make([]protoimpl.EnumInfo, 8)
+var file_fadeloop_v1_scenario_proto_enumTypes = make([]protoimpl.EnumInfo, 9)
 var file_fadeloop_v1_scenario_proto_msgTypes = make([]protoimpl.MessageInfo, 11)
 var file_fadeloop_v1_scenario_proto_goTypes = []any{
-	(Placement)(0),      // 0: fadeloop.v1.Placement
-	(Generator)(0),      // 1: fadeloop.v1.Generator
-	(PathLossModel)(0),  // 2: fadeloop.v1.PathLossModel
-	(InnerMode)(0),      // 3: fadeloop.v1.InnerMode
-	(Command)(0),        // 4: fadeloop.v1.Command
-	(InitialPower)(0),   // 5: fadeloop.v1.InitialPower
-	(LinkKind)(0),       // 6: fadeloop.v1.LinkKind
-	(EffectiveSir)(0),   // 7: fadeloop.v1.EffectiveSir
-	(*Scenario)(nil),    // 8: fadeloop.v1.Scenario
-	(*Receiver)(nil),    // 9: fadeloop.v1.Receiver
-	(*SpeedShare)(nil),  // 10: fadeloop.v1.SpeedShare
-	(*Tap)(nil),         // 11: fadeloop.v1.Tap
-	(*PathLoss)(nil),    // 12: fadeloop.v1.PathLoss
-	(*UserGroup)(nil),   // 13: fadeloop.v1.UserGroup
-	(*InnerLoop)(nil),   // 14: fadeloop.v1.InnerLoop
-	(*OuterLoop)(nil),   // 15: fadeloop.v1.OuterLoop
-	(*LinkPoint)(nil),   // 16: fadeloop.v1.LinkPoint
-	(*LinkCurve)(nil),   // 17: fadeloop.v1.LinkCurve
-	(*RunSettings)(nil), // 18: fadeloop.v1.RunSettings
+	(RakeFingers)(0),    // 0: fadeloop.v1.RakeFingers
+	(Placement)(0),      // 1: fadeloop.v1.Placement
+	(Generator)(0),      // 2: fadeloop.v1.Generator
+	(PathLossModel)(0),  // 3: fadeloop.v1.PathLossModel
+	(InnerMode)(0),      // 4: fadeloop.v1.InnerMode
+	(Command)(0),        // 5: fadeloop.v1.Command
+	(InitialPower)(0),   // 6: fadeloop.v1.InitialPower
+	(LinkKind)(0),       // 7: fadeloop.v1.LinkKind
+	(EffectiveSir)(0),   // 8: fadeloop.v1.EffectiveSir
+	(*Scenario)(nil),    // 9: fadeloop.v1.Scenario
+	(*Receiver)(nil),    // 10: fadeloop.v1.Receiver
+	(*SpeedShare)(nil),  // 11: fadeloop.v1.SpeedShare
+	(*Tap)(nil),         // 12: fadeloop.v1.Tap
+	(*PathLoss)(nil),    // 13: fadeloop.v1.PathLoss
+	(*UserGroup)(nil),   // 14: fadeloop.v1.UserGroup
+	(*InnerLoop)(nil),   // 15: fadeloop.v1.InnerLoop
+	(*OuterLoop)(nil),   // 16: fadeloop.v1.OuterLoop
+	(*LinkPoint)(nil),   // 17: fadeloop.v1.LinkPoint
+	(*LinkCurve)(nil),   // 18: fadeloop.v1.LinkCurve
+	(*RunSettings)(nil), // 19: fadeloop.v1.RunSettings
 }
 var file_fadeloop_v1_scenario_proto_depIdxs = []int32{
-	9,  // 0: fadeloop.v1.Scenario.receiver:type_name -> fadeloop.v1.Receiver
-	13, // 1: fadeloop.v1.Scenario.groups:type_name -> fadeloop.v1.UserGroup
-	14, // 2: fadeloop.v1.Scenario.inner_loop:type_name -> fadeloop.v1.InnerLoop
-	15, // 3: fadeloop.v1.Scenario.outer_loop:type_name -> fadeloop.v1.OuterLoop
-	17, // 4: fadeloop.v1.Scenario.link:type_name -> fadeloop.v1.LinkCurve
-	18, // 5: fadeloop.v1.Scenario.run:type_name -> fadeloop.v1.RunSettings
-	2,  // 6: fadeloop.v1.PathLoss.model:type_name -> fadeloop.v1.PathLossModel
-	0,  // 7: fadeloop.v1.UserGroup.placement:type_name -> fadeloop.v1.Placement
-	10, // 8: fadeloop.v1.UserGroup.speeds:type_name -> fadeloop.v1.SpeedShare
-	11, // 9: fadeloop.v1.UserGroup.custom_taps:type_name -> fadeloop.v1.Tap
-	1,  // 10: fadeloop.v1.UserGroup.generator:type_name -> fadeloop.v1.Generator
-	12, // 11: fadeloop.v1.UserGroup.path_loss:type_name -> fadeloop.v1.PathLoss
-	3,  // 12: fadeloop.v1.InnerLoop.mode:type_name -> fadeloop.v1.InnerMode
-	4,  // 13: fadeloop.v1.InnerLoop.command:type_name -> fadeloop.v1.Command
-	5,  // 14: fadeloop.v1.InnerLoop.initial_power:type_name -> fadeloop.v1.InitialPower
-	6,  // 15: fadeloop.v1.LinkCurve.kind:type_name -> fadeloop.v1.LinkKind
-	16, // 16: fadeloop.v1.LinkCurve.table:type_name -> fadeloop.v1.LinkPoint
-	7,  // 17: fadeloop.v1.LinkCurve.effective_sir:type_name -> fadeloop.v1.EffectiveSir
-	18, // [18:18] is the sub-list for method output_type
-	18, // [18:18] is the sub-list for method input_type
-	18, // [18:18] is the sub-list for extension type_name
-	18, // [18:18] is the sub-list for extension extendee
-	0,  // [0:18] is the sub-list for field type_name
+	10, // 0: fadeloop.v1.Scenario.receiver:type_name -> fadeloop.v1.Receiver
+	14, // 1: fadeloop.v1.Scenario.groups:type_name -> fadeloop.v1.UserGroup
+	15, // 2: fadeloop.v1.Scenario.inner_loop:type_name -> fadeloop.v1.InnerLoop
+	16, // 3: fadeloop.v1.Scenario.outer_loop:type_name -> fadeloop.v1.OuterLoop
+	18, // 4: fadeloop.v1.Scenario.link:type_name -> fadeloop.v1.LinkCurve
+	19, // 5: fadeloop.v1.Scenario.run:type_name -> fadeloop.v1.RunSettings
+	0,  // 6: fadeloop.v1.Receiver.rake_fingers:type_name -> fadeloop.v1.RakeFingers
+	3,  // 7: fadeloop.v1.PathLoss.model:type_name -> fadeloop.v1.PathLossModel
+	1,  // 8: fadeloop.v1.UserGroup.placement:type_name -> fadeloop.v1.Placement
+	11, // 9: fadeloop.v1.UserGroup.speeds:type_name -> fadeloop.v1.SpeedShare
+	12, // 10: fadeloop.v1.UserGroup.custom_taps:type_name -> fadeloop.v1.Tap
+	2,  // 11: fadeloop.v1.UserGroup.generator:type_name -> fadeloop.v1.Generator
+	13, // 12: fadeloop.v1.UserGroup.path_loss:type_name -> fadeloop.v1.PathLoss
+	4,  // 13: fadeloop.v1.InnerLoop.mode:type_name -> fadeloop.v1.InnerMode
+	5,  // 14: fadeloop.v1.InnerLoop.command:type_name -> fadeloop.v1.Command
+	6,  // 15: fadeloop.v1.InnerLoop.initial_power:type_name -> fadeloop.v1.InitialPower
+	7,  // 16: fadeloop.v1.LinkCurve.kind:type_name -> fadeloop.v1.LinkKind
+	17, // 17: fadeloop.v1.LinkCurve.table:type_name -> fadeloop.v1.LinkPoint
+	8,  // 18: fadeloop.v1.LinkCurve.effective_sir:type_name -> fadeloop.v1.EffectiveSir
+	19, // [19:19] is the sub-list for method output_type
+	19, // [19:19] is the sub-list for method input_type
+	19, // [19:19] is the sub-list for extension type_name
+	19, // [19:19] is the sub-list for extension extendee
+	0,  // [0:19] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_scenario_proto_init() }
@@ -1903,7 +2022,7 @@ func file_fadeloop_v1_scenario_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_scenario_proto_rawDesc), len(file_fadeloop_v1_scenario_proto_rawDesc)),
-			NumEnums:      8,
+			NumEnums:      9,
 			NumMessages:   11,
 			NumExtensions: 0,
 			NumServices:   0,
