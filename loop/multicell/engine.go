@@ -1,11 +1,12 @@
 package multicell
 
 import (
+	"cmp"
 	"context"
 	"math"
 	"math/rand/v2"
 	"runtime"
-	"sort"
+	"slices"
 	"sync"
 
 	"github.com/fadeloop/fadeloop/fading"
@@ -121,6 +122,15 @@ type rep struct {
 	fullBuf  [][]float64
 	stats    *collector
 	shadowSD float64
+	blockN   int    // slots in the current fading block
+	cands    []cand // active-set evaluation, reused
+	keep     []int
+}
+
+// cand is a candidate cell of an active set and its slow gain.
+type cand struct {
+	c int
+	g float64
 }
 
 func runReplication(ctx context.Context, cfg Config, r int) (*repResult, error) {
@@ -257,7 +267,9 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	return rp, nil
 }
 
-// fillFading generates the next n slots of fast fading of every leg slot.
+// fillFading generates the next n slots of fast fading of every leg in use
+// (a leg slot's process advances only while it carries a link: its samples
+// stay a stationary Rayleigh process, continued where it stopped).
 func (rp *rep) fillFading(n int) {
 	if rp.full {
 		for i, ch := range rp.fullCh {
@@ -265,9 +277,11 @@ func (rp *rep) fillFading(n int) {
 		}
 		return
 	}
+	rp.blockN = n
 	for u := range rp.users {
-		for l, ch := range rp.users[u].legCh {
-			if ch != nil {
+		us := &rp.users[u]
+		for l, ch := range us.legCh {
+			if ch != nil && us.legs[l] >= 0 {
 				ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
 			}
 		}
@@ -339,21 +353,21 @@ func (rp *rep) clamp(p float64) float64 { return math.Min(rp.pmax, math.Max(rp.p
 func (rp *rep) updateActiveSets(first bool) {
 	h := rp.cfg.Handover
 	U := rp.U
-	type cand struct {
-		c int
-		g float64
+	if rp.cands == nil {
+		rp.cands = make([]cand, rp.C)
+		rp.keep = make([]int, 0, maxLegsPerUser)
 	}
-	cands := make([]cand, rp.C)
+	cands := rp.cands
 	for u := range rp.users {
 		us := &rp.users[u]
 		for c := 0; c < rp.C; c++ {
 			cands[c] = cand{c, rp.slow[c*U+u]}
 		}
-		sort.Slice(cands, func(i, j int) bool {
-			if cands[i].g != cands[j].g {
-				return cands[i].g > cands[j].g
+		slices.SortFunc(cands, func(x, y cand) int {
+			if x.g != y.g {
+				return cmp.Compare(y.g, x.g)
 			}
-			return cands[i].c < cands[j].c
+			return x.c - y.c
 		})
 		bestDB := 10 * math.Log10(cands[0].g)
 		addDB, dropDB := h.WindowDB-h.HysteresisDB/2, h.WindowDB+h.HysteresisDB/2
@@ -380,7 +394,7 @@ func (rp *rep) updateActiveSets(first bool) {
 		}
 		// Keep at most MaxActive: the best cell, then the strongest others
 		// within the add window or already in the set and inside the drop window.
-		keep := make([]int, 0, h.MaxActive)
+		keep := rp.keep[:0]
 		for _, cd := range cands {
 			if len(keep) == h.MaxActive {
 				break
@@ -409,6 +423,10 @@ func (rp *rep) updateActiveSets(first bool) {
 				if us.legs[l] < 0 {
 					us.legs[l] = c
 					us.legAcc[l], us.legN[l] = 0, 0
+					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 {
+						// A leg joining mid-block gets this block's samples now.
+						ch.FillGains(rp.fade[u*maxLegsPerUser+l][:rp.blockN])
+					}
 					break
 				}
 			}
