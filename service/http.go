@@ -40,7 +40,8 @@ import (
 //     ends the stream with a line {"error": {...}}). See httpRoutes.
 //
 // JSON field names are the proto field names (step_db, update_rate_hz), as in
-// scenario files; unknown fields are rejected, as they are in scenario files.
+// scenario files; unknown fields are rejected, as they are in scenario files;
+// zero values are written out (a point of index 0 has "index": "0").
 
 // httpRoute is one plain /v1/ route and the RPC behind it.
 type httpRoute struct {
@@ -71,7 +72,7 @@ func (s *Server) HTTPHandler() (http.Handler, error) {
 	limit := uint32(s.cfg.MaxRecvMessageBytes)
 	newCodec := func(res vanguard.TypeResolver) vanguard.Codec {
 		return &vanguard.JSONCodec{
-			MarshalOptions:   protojson.MarshalOptions{Resolver: res, UseProtoNames: true},
+			MarshalOptions:   protojson.MarshalOptions{Resolver: res, UseProtoNames: true, EmitUnpopulated: true},
 			UnmarshalOptions: protojson.UnmarshalOptions{Resolver: res},
 		}
 	}
