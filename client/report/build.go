@@ -124,7 +124,7 @@ func estimate(e *pb.Estimate, scale float64, dec int) string {
 	if e == nil {
 		return "–"
 	}
-	return num(scale*e.GetValue(), dec) + " [" + num(scale*e.GetCiLow(), dec) + ", " + num(scale*e.GetCiHigh(), dec) + "]"
+	return num(scale*e.GetValue(), dec) + " [" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
 }
 
 // repEstimate is "mean [low, high]" scaled; the mean alone below 2 replications.
@@ -135,7 +135,7 @@ func repEstimate(e *pb.ReplicationEstimate, scale float64, dec int) string {
 	if e.GetN() < 2 {
 		return num(scale*e.GetMean(), dec)
 	}
-	return num(scale*e.GetMean(), dec) + " [" + num(scale*e.GetLow(), dec) + ", " + num(scale*e.GetHigh(), dec) + "]"
+	return num(scale*e.GetMean(), dec) + " [" + num(scale*e.GetLow(), dec) + ",\u00a0" + num(scale*e.GetHigh(), dec) + "]"
 }
 
 func numCols(n int, from ...int) []bool {
@@ -460,7 +460,8 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 	}
 	t := table{Caption: "Every grid point (value [95 % CI]); the lowest-outage point is marked.", Head: []string{"point"}}
 	for _, a := range s.Axes {
-		t.Head = append(t.Head, a.GetPath())
+		// A break opportunity after each dot: long field paths wrap there.
+		t.Head = append(t.Head, strings.ReplaceAll(a.GetPath(), ".", ".\u200b"))
 	}
 	for _, fd := range shortFigures {
 		t.Head = append(t.Head, fd.label)

@@ -32,7 +32,7 @@ h2 { font-size: 19px; margin: 30px 0 10px; padding-bottom: 4px; border-bottom: 1
 table { border-collapse: collapse; font-size: 13px; }
 caption { caption-side: top; text-align: left; color: var(--muted); padding: 0 0 4px; font-size: 13px; }
 th, td { padding: 3px 9px; border-bottom: 1px solid var(--rule); vertical-align: top; }
-th { text-align: left; background: var(--band); font-weight: bold; overflow-wrap: anywhere; }
+th { text-align: left; background: var(--band); font-weight: bold; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
 tr.mark td { background: var(--ok-bg); font-weight: bold; }
 .notes p { margin: 4px 0; font-size: 14px; }
@@ -53,7 +53,8 @@ footer { margin-top: 32px; color: var(--muted); font-size: 12px; border-top: 1px
   table { font-size: 8.5pt; }
   .tablewrap { overflow: visible; }
   tr, .verdict, .caution { break-inside: avoid; page-break-inside: avoid; }
-  svg.plot { max-width: 100%; border: none; }
+  svg.plot { max-width: 100%; max-height: 150mm; border: none; }
+  figure { margin: 4mm 0; }
   pre { font-size: 8pt; }
   .verdict, .caution, tr.mark td, th { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
