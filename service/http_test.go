@@ -281,3 +281,78 @@ func TestHTTPCheckChannelREST(t *testing.T) {
 		t.Fatal("no check lines")
 	}
 }
+
+// TestHTTPAdmissionAndCancel: an HTTP call takes a run slot like a gRPC
+// call (a full server turns it away with 429), and a client that goes away
+// cancels the computation on the server.
+func TestHTTPAdmissionAndCancel(t *testing.T) {
+	gate := make(chan struct{})
+	entered := make(chan struct{}, 4)
+	ended := make(chan error, 4)
+	cfg := Config{MaxConcurrentRuns: 1, QueueLength: -1}
+	cfg.testHook = func(ctx context.Context, _ string) {
+		entered <- struct{}{}
+		select {
+		case <-gate:
+			ended <- nil
+		case <-ctx.Done():
+			ended <- ctx.Err()
+		}
+	}
+	env := startEnv(t, viaLoopback, cfg)
+	base := startHTTP(t, env)
+	body := jsonBody(t, &pb.SimulateRequest{Scenario: sweepBase(t)})
+
+	// 1. A gRPC call holds the only run slot: the HTTP call is turned away.
+	grpcDone := make(chan error, 1)
+	go func() {
+		st, err := env.sim.Simulate(context.Background(), &pb.SimulateRequest{Scenario: sweepBase(t)})
+		if err == nil {
+			_, err = drain(st.Recv)
+		}
+		grpcDone <- err
+	}()
+	<-entered
+	resp, b := post(t, base+"/v1/simulate", "application/json", body)
+	if resp.StatusCode != http.StatusTooManyRequests || !strings.Contains(string(b), "resource_exhausted") {
+		t.Fatalf("with the run slot taken: status %d %s, want 429 resource_exhausted", resp.StatusCode, b)
+	}
+	close(gate)
+	if err := <-grpcDone; err != nil {
+		t.Fatalf("the gRPC call failed: %v", err)
+	}
+	<-ended
+
+	// 2. An HTTP call whose client goes away is cancelled on the server.
+	gate2 := make(chan struct{}) // never opened
+	cfg2 := Config{}
+	cfg2.testHook = func(ctx context.Context, _ string) {
+		entered <- struct{}{}
+		select {
+		case <-gate2:
+			ended <- nil
+		case <-ctx.Done():
+			ended <- ctx.Err()
+		}
+	}
+	env2 := startEnv(t, viaLoopback, cfg2)
+	base2 := startHTTP(t, env2)
+	ctx, cancel := context.WithCancel(context.Background())
+	req, _ := http.NewRequestWithContext(ctx, http.MethodPost, base2+"/v1/simulate", bytes.NewReader(body))
+	req.Header.Set("Content-Type", "application/json")
+	errc := make(chan error, 1)
+	go func() {
+		resp, err := http.DefaultClient.Do(req)
+		if err == nil {
+			_, err = io.ReadAll(resp.Body)
+			resp.Body.Close()
+		}
+		errc <- err
+	}()
+	<-entered
+	cancel()
+	if err := <-ended; err == nil {
+		t.Fatal("the server's call was not cancelled when the HTTP client went away")
+	}
+	<-errc
+}
