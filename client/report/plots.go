@@ -160,7 +160,11 @@ func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution {
 	}
 	var out []plots.ErrorDistribution
 	for i, b := range bins {
-		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d users)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers())}
+		users := "users"
+		if b.GetFigures().GetUsers() == 1 {
+			users = "user"
+		}
+		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d %s)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers(), users)}
 		for _, t := range rep.GetTraces() {
 			x := dist[t.GetUser()]
 			if !(x >= b.GetMinDistanceM() && (x < b.GetMaxDistanceM() || (i == len(bins)-1 && x <= b.GetMaxDistanceM()))) {
