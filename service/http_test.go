@@ -280,6 +280,14 @@ func TestHTTPCheckChannelREST(t *testing.T) {
 	if len(m.GetLines()) == 0 {
 		t.Fatal("no check lines")
 	}
+	resp, err := http.Get(base + "/healthz")
+	if err != nil {
+		t.Fatal(err)
+	}
+	resp.Body.Close()
+	if resp.StatusCode != 200 {
+		t.Errorf("/healthz: status %d", resp.StatusCode)
+	}
 }
 
 // TestHTTPAdmissionAndCancel: an HTTP call takes a run slot like a gRPC

@@ -92,7 +92,7 @@ func TestBrowserRender(t *testing.T) {
 		}
 	})
 
-	for _, tc := range []struct{ file, kind string }{{"run.json", "run"}, {"sweep.json", "sweep"}, {"tune.json", "tune"}, {"cap.json", "capacity"}} {
+	for _, tc := range []struct{ file, kind string }{{"run.json", "run"}, {"sweep.json", "sweep"}, {"sweep_heat.json", "sweep-heatmap"}, {"tune.json", "tune"}, {"cap.json", "capacity"}} {
 		t.Run(tc.kind, func(t *testing.T) {
 			page := render(t, readFixture(t, tc.file))
 			htmlPath := filepath.Join(dir, tc.kind+".html")
