@@ -323,6 +323,16 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		if bler > 0 {
 			line += fmt.Sprintf(" against a target of %s %%", num(100*bler, 2))
 		}
+		ol := sc.GetOuterLoop()
+		be := agg.GetBlerTargetError()
+		switch {
+		case ol != nil && !ol.GetEnabled() && bler > 0:
+			line += " (outer loop off: the SIR target is fixed, the BLER target is for reference)"
+		case ol.GetEnabled() && be != nil && (be.GetCiLow() > 0 || be.GetCiHigh() < 0):
+			d.Verdict.Class = "warn"
+			line += fmt.Sprintf("; the outer loop did not hold it: achieved − target %s %% [%s, %s] excludes 0",
+				num(100*be.GetValue(), 2), num(100*be.GetCiLow(), 2), num(100*be.GetCiHigh(), 2))
+		}
 		d.Verdict.Lines = append(d.Verdict.Lines, line+".",
 			fmt.Sprintf("Mean Tx power %s dBm, time at maximum power %s %%, mean noise rise %s dB.",
 				estimate(agg.GetTxPowerMeanDbm(), 1, 2), estimate(agg.GetMaxPowerFraction(), 100, 2), estimate(agg.GetNoiseRiseMeanDb(), 1, 2)))

@@ -304,3 +304,44 @@ func TestInputErrors(t *testing.T) {
 		})
 	}
 }
+
+// TestRunVerdictBLER: with the outer loop on, a BLER whose difference to the
+// target excludes 0 turns the verdict to a warning; within its interval, or
+// with the outer loop off, it does not.
+func TestRunVerdictBLER(t *testing.T) {
+	cases := []struct {
+		name          string
+		enabled       bool
+		lo, val, hi   float64
+		class, saying string
+	}{
+		{"held", true, -0.002, 0.001, 0.004, "ok", "against a target of 10.00 %."},
+		{"above target", true, 0.01, 0.02, 0.03, "warn", "did not hold it"},
+		{"below target", true, -0.06, -0.05, -0.04, "warn", "did not hold it"},
+		{"outer loop off", false, -0.06, -0.05, -0.04, "ok", "outer loop off"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			rep := &pb.RunReport{
+				Aggregate: &pb.Figures{
+					Users:             2,
+					OutageProbability: &pb.Estimate{Value: 0.01, CiLow: 0.005, CiHigh: 0.02},
+					AchievedBler:      &pb.Estimate{Value: 0.1 + tc.val, CiLow: 0.1 + tc.lo, CiHigh: 0.1 + tc.hi},
+					BlerTargetError:   &pb.Estimate{Value: tc.val, CiLow: tc.lo, CiHigh: tc.hi},
+				},
+				NormalisedScenario: &pb.Scenario{Name: "two users", OuterLoop: &pb.OuterLoop{Enabled: tc.enabled, BlerTarget: 0.1}},
+				Seed:               3,
+			}
+			d, err := build(Input{Run: rep})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if d.Verdict.Class != tc.class {
+				t.Errorf("verdict class %q, want %q (%v)", d.Verdict.Class, tc.class, d.Verdict.Lines)
+			}
+			if !strings.Contains(strings.Join(d.Verdict.Lines, "\n"), tc.saying) {
+				t.Errorf("verdict does not say %q: %v", tc.saying, d.Verdict.Lines)
+			}
+		})
+	}
+}
