@@ -146,9 +146,7 @@ func locate(sf *client.ScenarioFile, prefix string, err error) error {
 	return err
 }
 
-func runRun(ctx context.Context, e *env, args []string) error {
-	c := lookup("run")
-	fs := e.newFlagSet(c)
+func runRun(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.register(fs)
 	perUser := fs.Bool("per-user", false, "also print the figures of every user")
@@ -156,86 +154,85 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance); repeatable")
 	traceUsers := fs.String("trace-users", "", "comma-separated user `INDICES` to trace (default: nearest, median, farthest)")
 	tracePoints := fs.Int("trace-points", 1500, "about `N` samples per traced user")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	if err := plotSpecs.check("traces", "traces", "cdf", "distance"); err != nil {
-		return err
-	}
-	users, err := parseIndexList(*traceUsers)
-	if err != nil {
-		return badInputf("--trace-users: %v", err)
-	}
-	if *tracePoints < 10 {
-		return badInputf("--trace-points %d: must be >= 10", *tracePoints)
-	}
-	sf, err := loadScenario(args)
-	if err != nil {
-		return err
-	}
-	sc := proto.Clone(sf.Scenario).(*pb.Scenario)
-	if err := ov.apply(sc); err != nil {
-		return err
-	}
-	req := &pb.SimulateRequest{Scenario: sc}
-	if plotSpecs.needs("traces", "cdf") {
-		req.Traces = &pb.TraceOptions{DecimationSlots: decimationFor(sc, *tracePoints)}
-		switch {
-		case plotSpecs.onlyTraces() && len(users) > 0:
-			req.Traces.Users = users
-		case totalUsers(sc) > maxTracedUsers:
-			// The engine traces at most 64 users: take them evenly
-			// spread over the user indices.
-			n, k := totalUsers(sc), max(1, maxTracedUsers-len(users))
-			for i := range k {
-				req.Traces.Users = append(req.Traces.Users, int32(i*n/k))
-			}
-			req.Traces.Users = append(req.Traces.Users, users...)
-			slices.Sort(req.Traces.Users)
-			req.Traces.Users = slices.Compact(req.Traces.Users)
+	return func(ctx context.Context, args []string) error {
+		var err error
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
 		}
-	}
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	prog := e.newProgress("user-slots/s")
-	rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
-	prog.done()
-	if err != nil {
-		return locate(sf, "scenario", err)
-	}
-	switch e.g.format {
-	case "json":
-		b, err := marshalJSON(rep)
+		if err := plotSpecs.check("traces", "traces", "cdf", "distance"); err != nil {
+			return err
+		}
+		users, err := parseIndexList(*traceUsers)
+		if err != nil {
+			return badInputf("--trace-users: %v", err)
+		}
+		if *tracePoints < 10 {
+			return badInputf("--trace-points %d: must be >= 10", *tracePoints)
+		}
+		sf, err := loadScenario(args)
 		if err != nil {
 			return err
 		}
-		out.Writer().Write(b)
-	case "csv":
-		if err := writeRunCSV(out.Writer(), rep); err != nil {
+		sc := proto.Clone(sf.Scenario).(*pb.Scenario)
+		if err := ov.apply(sc); err != nil {
 			return err
 		}
-	default:
-		writeRunTable(out.Writer(), rep, *perUser)
-	}
-	if err := out.commit(); err != nil {
-		return err
-	}
-	for _, ps := range plotSpecs {
-		if err := plotRun(ps, rep, users); err != nil {
-			return fmt.Errorf("plot %s: %w", ps.file, err)
+		req := &pb.SimulateRequest{Scenario: sc}
+		if plotSpecs.needs("traces", "cdf") {
+			req.Traces = &pb.TraceOptions{DecimationSlots: decimationFor(sc, *tracePoints)}
+			switch {
+			case plotSpecs.onlyTraces() && len(users) > 0:
+				req.Traces.Users = users
+			case totalUsers(sc) > maxTracedUsers:
+				// The engine traces at most 64 users: take them evenly
+				// spread over the user indices.
+				n, k := totalUsers(sc), max(1, maxTracedUsers-len(users))
+				for i := range k {
+					req.Traces.Users = append(req.Traces.Users, int32(i*n/k))
+				}
+				req.Traces.Users = append(req.Traces.Users, users...)
+				slices.Sort(req.Traces.Users)
+				req.Traces.Users = slices.Compact(req.Traces.Users)
+			}
 		}
-		if !e.g.quiet {
-			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+		out, cl, release, err := e.session()
+		if err != nil {
+			return err
 		}
+		defer release()
+		prog := e.newProgress("user-slots/s")
+		rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
+		prog.done()
+		if err != nil {
+			return locate(sf, "scenario", err)
+		}
+		switch e.g.format {
+		case "json":
+			b, err := marshalJSON(rep)
+			if err != nil {
+				return err
+			}
+			out.Writer().Write(b)
+		case "csv":
+			if err := writeRunCSV(out.Writer(), rep); err != nil {
+				return err
+			}
+		default:
+			writeRunTable(out.Writer(), rep, *perUser)
+		}
+		if err := out.commit(); err != nil {
+			return err
+		}
+		for _, ps := range plotSpecs {
+			if err := plotRun(ps, rep, users); err != nil {
+				return fmt.Errorf("plot %s: %w", ps.file, err)
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+			}
+		}
+		return nil
 	}
-	return nil
 }
 
 // maxTracedUsers is the most users one run traces.

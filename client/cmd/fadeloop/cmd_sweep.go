@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"encoding/json"
+	"flag"
 	"fmt"
 	"io"
 	"math"
@@ -107,9 +108,7 @@ func (a *axisList) Set(v string) error {
 	return nil
 }
 
-func runSweep(ctx context.Context, e *env, args []string) error {
-	c := lookup("sweep")
-	fs := e.newFlagSet(c)
+func runSweep(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.register(fs)
 	var axes axisList
@@ -121,132 +120,131 @@ func runSweep(ctx context.Context, e *env, args []string) error {
 	objective := fs.String("objective", "std", "heat map `OBJECTIVE`: std (SIR error std), outage, power (mean Tx power) or bler (|BLER − target|)")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf); repeatable")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf"); err != nil {
-		return err
-	}
-	if _, ok := sweepObjectives[*objective]; !ok {
-		return badInputf("--objective %q: must be one of std, outage, power, bler", *objective)
-	}
-	req := &pb.SweepRequest{}
-	var gridFile *client.SourceFile
-	if *grid != "" {
-		data, err := os.ReadFile(*grid)
-		if err != nil {
-			return badInput{err}
-		}
-		if gridFile, err = client.ParseMessage(*grid, data, req); err != nil {
+	return func(ctx context.Context, args []string) error {
+		var err error
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
-	}
-	var sf *client.ScenarioFile
-	if len(args) > 0 || req.Base == nil {
-		if sf, err = loadScenario(args); err != nil {
+		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf"); err != nil {
 			return err
 		}
-		req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-	}
-	if err := ov.apply(req.Base); err != nil {
-		return err
-	}
-	req.Axes = append(req.Axes, axes...)
-	if len(req.Axes) == 0 {
-		return badInputf("no axes: give --axis PATH=VALUES or a --grid file")
-	}
-	if *points != "" {
-		req.PointIndices = nil
-		for _, f := range strings.Split(*points, ",") {
-			v, err := strconv.ParseInt(strings.TrimSpace(f), 10, 64)
-			if err != nil || v < 0 {
-				return badInputf("--points: %q is not a grid index", f)
+		if _, ok := sweepObjectives[*objective]; !ok {
+			return badInputf("--objective %q: must be one of std, outage, power, bler", *objective)
+		}
+		req := &pb.SweepRequest{}
+		var gridFile *client.SourceFile
+		if *grid != "" {
+			data, err := os.ReadFile(*grid)
+			if err != nil {
+				return badInput{err}
 			}
-			req.PointIndices = append(req.PointIndices, v)
+			if gridFile, err = client.ParseMessage(*grid, data, req); err != nil {
+				return err
+			}
 		}
-	}
-	switch *seedMode {
-	case "common":
-		req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
-	case "per-point":
-		req.SeedMode = pb.SeedMode_SEED_MODE_PER_POINT
-	case "":
-		if req.SeedMode == pb.SeedMode_SEED_MODE_UNSPECIFIED {
+		var sf *client.ScenarioFile
+		if len(args) > 0 || req.Base == nil {
+			if sf, err = loadScenario(args); err != nil {
+				return err
+			}
+			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
+		}
+		if err := ov.apply(req.Base); err != nil {
+			return err
+		}
+		req.Axes = append(req.Axes, axes...)
+		if len(req.Axes) == 0 {
+			return badInputf("no axes: give --axis PATH=VALUES or a --grid file")
+		}
+		if *points != "" {
+			req.PointIndices = nil
+			for _, f := range strings.Split(*points, ",") {
+				v, err := strconv.ParseInt(strings.TrimSpace(f), 10, 64)
+				if err != nil || v < 0 {
+					return badInputf("--points: %q is not a grid index", f)
+				}
+				req.PointIndices = append(req.PointIndices, v)
+			}
+		}
+		switch *seedMode {
+		case "common":
 			req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
-		}
-	default:
-		return badInputf("--seed-mode %q: must be common or per-point", *seedMode)
-	}
-	if *detailed {
-		req.Detailed = true
-	}
-	for _, ps := range plotSpecs {
-		if err := checkSweepPlot(ps, req.Axes); err != nil {
-			return err
-		}
-	}
-	total := int64(len(req.PointIndices))
-	if total == 0 {
-		total = 1
-		for _, a := range req.Axes {
-			total *= int64(len(a.GetValues()))
-		}
-	}
-
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	prog := e.newProgress("user-slots/s")
-	call := cl.Sweep(ctx, req)
-	var pts []*pb.SweepPoint
-	var userSlots float64
-	for p, err := range call.Points() {
-		if err != nil {
-			prog.done()
-			if inv, ok := client.AsInvalidInput(err); ok {
-				return sweepLocate(sf, gridFile, inv)
+		case "per-point":
+			req.SeedMode = pb.SeedMode_SEED_MODE_PER_POINT
+		case "":
+			if req.SeedMode == pb.SeedMode_SEED_MODE_UNSPECIFIED {
+				req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
 			}
+		default:
+			return badInputf("--seed-mode %q: must be common or per-point", *seedMode)
+		}
+		if *detailed {
+			req.Detailed = true
+		}
+		for _, ps := range plotSpecs {
+			if err := checkSweepPlot(ps, req.Axes); err != nil {
+				return err
+			}
+		}
+		total := int64(len(req.PointIndices))
+		if total == 0 {
+			total = 1
+			for _, a := range req.Axes {
+				total *= int64(len(a.GetValues()))
+			}
+		}
+
+		out, cl, release, err := e.session()
+		if err != nil {
 			return err
 		}
-		pts = append(pts, p)
-		userSlots += float64(p.GetReport().GetSimulatedUserSlots())
-		el := prog.now().Sub(prog.start).Seconds()
-		prog.update(float64(len(pts))/float64(total), userSlots/math.Max(el, 1e-9))
-	}
-	prog.done()
-	sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
-	sum := call.Summary()
-	switch e.g.format {
-	case "json":
-		if err := writeSweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
+		defer release()
+		prog := e.newProgress("user-slots/s")
+		call := cl.Sweep(ctx, req)
+		var pts []*pb.SweepPoint
+		var userSlots float64
+		for p, err := range call.Points() {
+			if err != nil {
+				prog.done()
+				if inv, ok := client.AsInvalidInput(err); ok {
+					return sweepLocate(sf, gridFile, inv)
+				}
+				return err
+			}
+			pts = append(pts, p)
+			userSlots += float64(p.GetReport().GetSimulatedUserSlots())
+			el := prog.now().Sub(prog.start).Seconds()
+			prog.update(float64(len(pts))/float64(total), userSlots/math.Max(el, 1e-9))
+		}
+		prog.done()
+		sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
+		sum := call.Summary()
+		switch e.g.format {
+		case "json":
+			if err := writeSweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
+				return err
+			}
+		case "csv":
+			if err := writeSweepCSV(out.Writer(), req.Axes, pts); err != nil {
+				return err
+			}
+		default:
+			writeSweepTable(out.Writer(), req, pts, sum)
+		}
+		if err := out.commit(); err != nil {
 			return err
 		}
-	case "csv":
-		if err := writeSweepCSV(out.Writer(), req.Axes, pts); err != nil {
-			return err
+		title := req.GetBase().GetName()
+		for _, ps := range plotSpecs {
+			if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
+				return fmt.Errorf("plot %s: %w", ps.file, err)
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+			}
 		}
-	default:
-		writeSweepTable(out.Writer(), req, pts, sum)
+		return nil
 	}
-	if err := out.commit(); err != nil {
-		return err
-	}
-	title := req.GetBase().GetName()
-	for _, ps := range plotSpecs {
-		if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
-			return fmt.Errorf("plot %s: %w", ps.file, err)
-		}
-		if !e.g.quiet {
-			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
-		}
-	}
-	return nil
 }
 
 // sweepLocate maps a Sweep's field violations to the scenario file (base.*)

@@ -221,9 +221,7 @@ func readRequestFile(path string, m proto.Message) (*client.SourceFile, error) {
 	return client.ParseMessage(path, data, m)
 }
 
-func runTune(ctx context.Context, e *env, args []string) error {
-	c := lookup("tune")
-	fs := e.newFlagSet(c)
+func runTune(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	runSettingFlags(fs, &ov)
 	var axes tuneAxisList
@@ -244,145 +242,144 @@ func runTune(ctx context.Context, e *env, args []string) error {
 	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	if err := plotSpecs.check("auto", "auto", "heatmap", "steps"); err != nil {
-		return err
-	}
-	req := &pb.TuneRequest{}
-	var reqFile *client.SourceFile
-	if *request != "" {
-		if reqFile, err = readRequestFile(*request, req); err != nil {
+	return func(ctx context.Context, args []string) error {
+		var err error
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
-	}
-	var sf *client.ScenarioFile
-	if len(args) > 0 || req.Base == nil {
-		if sf, err = loadScenario(args); err != nil {
+		if err := plotSpecs.check("auto", "auto", "heatmap", "steps"); err != nil {
 			return err
 		}
-		req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-	}
-	if err := ov.apply(req.Base); err != nil {
-		return err
-	}
-	req.Axes = append(req.Axes, axes...)
-	if len(req.Axes) == 0 {
-		return badInputf("no axes: give --axis PATH=VALUES (e.g. --axis inner_loop.step_db=0.5,1,2) or a --request file")
-	}
-	req.Conditions = append(req.Conditions, conds...)
-	if *speeds != "" {
-		for _, f := range strings.Split(*speeds, ",") {
-			v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-			if err != nil {
-				return badInputf("--speeds: %q is not a speed in km/h", f)
+		req := &pb.TuneRequest{}
+		var reqFile *client.SourceFile
+		if *request != "" {
+			if reqFile, err = readRequestFile(*request, req); err != nil {
+				return err
 			}
-			cd := &pb.Condition{Name: strconv.FormatFloat(v, 'g', 6, 64) + " km/h", Weight: 1}
-			for g := range req.Base.GetGroups() {
-				cd.Overrides = append(cd.Overrides, &pb.Override{Path: fmt.Sprintf("groups[%d].speeds[0].speed_kmh", g),
-					Value: &pb.Override_Number{Number: v}})
+		}
+		var sf *client.ScenarioFile
+		if len(args) > 0 || req.Base == nil {
+			if sf, err = loadScenario(args); err != nil {
+				return err
 			}
-			req.Conditions = append(req.Conditions, cd)
+			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
 		}
-	}
-	if req.Objective == nil {
-		req.Objective = &pb.Objective{}
-	}
-	switch {
-	case *objective != "":
-		k, ok := tuneObjectives[*objective]
-		if !ok {
-			return badInputf("--objective %q: must be one of std, outage, power", *objective)
-		}
-		req.Objective.Kind = k
-	case req.Objective.Kind == pb.ObjectiveKind_OBJECTIVE_KIND_UNSPECIFIED && reqFile == nil:
-		req.Objective.Kind = pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD
-	}
-	setF := func(dst *float64, v float64) {
-		if v != 0 {
-			*dst = v
-		}
-	}
-	setF(&req.Objective.OutageLimit, *outageLimit)
-	setF(&req.Objective.BlerTolerance, *blerTol)
-	setF(&req.Objective.IndifferenceZone, *indiff)
-	setF(&req.Confidence, *confidence)
-	if req.Budget == nil {
-		req.Budget = &pb.TuneBudget{}
-	}
-	for _, b := range []struct {
-		dst  *int32
-		v    int
-		name string
-	}{{&req.Budget.MinReplications, *minReps, "min-reps"}, {&req.Budget.MaxReplications, *maxReps, "max-reps"},
-		{&req.Budget.BatchReplications, *batchReps, "batch-reps"}} {
-		if b.v < 0 || b.v > math.MaxInt32 {
-			return badInputf("--%s %d: must be >= 0", b.name, b.v)
-		}
-		if b.v != 0 {
-			*b.dst = int32(b.v)
-		}
-	}
-	if *maxUS != 0 {
-		req.Budget.MaxUserSlots = *maxUS
-	}
-	if *noBaseline {
-		req.SkipBaseline = true
-	}
-	for _, ps := range plotSpecs {
-		if err := checkTunePlot(ps, req.Axes); err != nil {
+		if err := ov.apply(req.Base); err != nil {
 			return err
 		}
-	}
+		req.Axes = append(req.Axes, axes...)
+		if len(req.Axes) == 0 {
+			return badInputf("no axes: give --axis PATH=VALUES (e.g. --axis inner_loop.step_db=0.5,1,2) or a --request file")
+		}
+		req.Conditions = append(req.Conditions, conds...)
+		if *speeds != "" {
+			for _, f := range strings.Split(*speeds, ",") {
+				v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+				if err != nil {
+					return badInputf("--speeds: %q is not a speed in km/h", f)
+				}
+				cd := &pb.Condition{Name: strconv.FormatFloat(v, 'g', 6, 64) + " km/h", Weight: 1}
+				for g := range req.Base.GetGroups() {
+					cd.Overrides = append(cd.Overrides, &pb.Override{Path: fmt.Sprintf("groups[%d].speeds[0].speed_kmh", g),
+						Value: &pb.Override_Number{Number: v}})
+				}
+				req.Conditions = append(req.Conditions, cd)
+			}
+		}
+		if req.Objective == nil {
+			req.Objective = &pb.Objective{}
+		}
+		switch {
+		case *objective != "":
+			k, ok := tuneObjectives[*objective]
+			if !ok {
+				return badInputf("--objective %q: must be one of std, outage, power", *objective)
+			}
+			req.Objective.Kind = k
+		case req.Objective.Kind == pb.ObjectiveKind_OBJECTIVE_KIND_UNSPECIFIED && reqFile == nil:
+			req.Objective.Kind = pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD
+		}
+		setF := func(dst *float64, v float64) {
+			if v != 0 {
+				*dst = v
+			}
+		}
+		setF(&req.Objective.OutageLimit, *outageLimit)
+		setF(&req.Objective.BlerTolerance, *blerTol)
+		setF(&req.Objective.IndifferenceZone, *indiff)
+		setF(&req.Confidence, *confidence)
+		if req.Budget == nil {
+			req.Budget = &pb.TuneBudget{}
+		}
+		for _, b := range []struct {
+			dst  *int32
+			v    int
+			name string
+		}{{&req.Budget.MinReplications, *minReps, "min-reps"}, {&req.Budget.MaxReplications, *maxReps, "max-reps"},
+			{&req.Budget.BatchReplications, *batchReps, "batch-reps"}} {
+			if b.v < 0 || b.v > math.MaxInt32 {
+				return badInputf("--%s %d: must be >= 0", b.name, b.v)
+			}
+			if b.v != 0 {
+				*b.dst = int32(b.v)
+			}
+		}
+		if *maxUS != 0 {
+			req.Budget.MaxUserSlots = *maxUS
+		}
+		if *noBaseline {
+			req.SkipBaseline = true
+		}
+		for _, ps := range plotSpecs {
+			if err := checkTunePlot(ps, req.Axes); err != nil {
+				return err
+			}
+		}
 
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	worst := worstRuns(req)
-	prog := e.newProgress("user-slots/s")
-	rec, err := cl.Tune(ctx, req, func(p *pb.SearchProgress) {
-		prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
-	})
-	prog.done()
-	if err != nil {
-		if inv, ok := client.AsInvalidInput(err); ok {
-			return searchLocate(sf, reqFile, inv)
-		}
-		return err
-	}
-	switch e.g.format {
-	case "json":
-		b, err := marshalJSON(rec)
+		out, cl, release, err := e.session()
 		if err != nil {
 			return err
 		}
-		out.Writer().Write(b)
-	case "csv":
-		if err := writeTuneCSV(out.Writer(), rec); err != nil {
+		defer release()
+		worst := worstRuns(req)
+		prog := e.newProgress("user-slots/s")
+		rec, err := cl.Tune(ctx, req, func(p *pb.SearchProgress) {
+			prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
+		})
+		prog.done()
+		if err != nil {
+			if inv, ok := client.AsInvalidInput(err); ok {
+				return searchLocate(sf, reqFile, inv)
+			}
 			return err
 		}
-	default:
-		writeTuneTable(out.Writer(), req, rec)
-	}
-	if err := out.commit(); err != nil {
-		return err
-	}
-	for _, ps := range plotSpecs {
-		if err := plotTune(ps, req.GetBase().GetName(), req.Axes, rec); err != nil {
-			return fmt.Errorf("plot %s: %w", ps.file, err)
+		switch e.g.format {
+		case "json":
+			b, err := marshalJSON(rec)
+			if err != nil {
+				return err
+			}
+			out.Writer().Write(b)
+		case "csv":
+			if err := writeTuneCSV(out.Writer(), rec); err != nil {
+				return err
+			}
+		default:
+			writeTuneTable(out.Writer(), req, rec)
 		}
-		if !e.g.quiet {
-			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+		if err := out.commit(); err != nil {
+			return err
 		}
+		for _, ps := range plotSpecs {
+			if err := plotTune(ps, req.GetBase().GetName(), req.Axes, rec); err != nil {
+				return fmt.Errorf("plot %s: %w", ps.file, err)
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+			}
+		}
+		return nil
 	}
-	return nil
 }
 
 // searchLocate maps a Tune or Capacity call's field violations to the
@@ -843,9 +840,7 @@ func plotTune(ps plotSpec, title string, axes []*pb.SweepAxis, rec *pb.Recommend
 	return fig.Save(ps.file)
 }
 
-func runCapacity(ctx context.Context, e *env, args []string) error {
-	c := lookup("capacity")
-	fs := e.newFlagSet(c)
+func runCapacity(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	runSettingFlags(fs, &ov)
 	request := fs.String("request", "", "capacity request `FILE` (protojson CapacityRequest in JSON or YAML)")
@@ -856,100 +851,99 @@ func runCapacity(ctx context.Context, e *env, args []string) error {
 	reps := fs.Int("replications", 0, "replications `N` per evaluated count (0: 4)")
 	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	req := &pb.CapacityRequest{}
-	var reqFile *client.SourceFile
-	if *request != "" {
-		if reqFile, err = readRequestFile(*request, req); err != nil {
+	return func(ctx context.Context, args []string) error {
+		var err error
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
-	}
-	var sf *client.ScenarioFile
-	if len(args) > 0 || req.Base == nil {
-		if sf, err = loadScenario(args); err != nil {
+		req := &pb.CapacityRequest{}
+		var reqFile *client.SourceFile
+		if *request != "" {
+			if reqFile, err = readRequestFile(*request, req); err != nil {
+				return err
+			}
+		}
+		var sf *client.ScenarioFile
+		if len(args) > 0 || req.Base == nil {
+			if sf, err = loadScenario(args); err != nil {
+				return err
+			}
+			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
+		}
+		if err := ov.apply(req.Base); err != nil {
 			return err
 		}
-		req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-	}
-	if err := ov.apply(req.Base); err != nil {
-		return err
-	}
-	for _, x := range []struct {
-		dst  *int32
-		v    int
-		name string
-	}{{&req.MinCount, *minCount, "min-count"}, {&req.MaxCount, *maxCount, "max-count"}, {&req.Replications, *reps, "replications"}} {
-		if x.v < 0 || x.v > math.MaxInt32 {
-			return badInputf("--%s %d: must be >= 0", x.name, x.v)
+		for _, x := range []struct {
+			dst  *int32
+			v    int
+			name string
+		}{{&req.MinCount, *minCount, "min-count"}, {&req.MaxCount, *maxCount, "max-count"}, {&req.Replications, *reps, "replications"}} {
+			if x.v < 0 || x.v > math.MaxInt32 {
+				return badInputf("--%s %d: must be >= 0", x.name, x.v)
+			}
+			if x.v != 0 {
+				*x.dst = int32(x.v)
+			}
 		}
-		if x.v != 0 {
-			*x.dst = int32(x.v)
+		if *group >= 0 {
+			if *group > math.MaxInt32 {
+				return badInputf("--group %d: too large", *group)
+			}
+			req.Group = int32(*group)
 		}
-	}
-	if *group >= 0 {
-		if *group > math.MaxInt32 {
-			return badInputf("--group %d: too large", *group)
+		if *outage != 0 {
+			req.OutageLimit = *outage
 		}
-		req.Group = int32(*group)
-	}
-	if *outage != 0 {
-		req.OutageLimit = *outage
-	}
-	if req.OutageLimit == 0 {
-		return badInputf("--outage-limit is required (the largest acceptable outage, e.g. 0.05)")
-	}
-	if *confidence != 0 {
-		req.Confidence = *confidence
-	}
-	if *maxUS != 0 {
-		req.MaxUserSlots = *maxUS
-	}
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	hi := int(req.GetMaxCount())
-	if hi == 0 {
-		hi = 4096
-	}
-	r := float64(req.GetReplications())
-	if r == 0 {
-		r = 4
-	}
-	worst := float64(2+2*bits.Len(uint(hi))) * r
-	prog := e.newProgress("user-slots/s")
-	res, err := cl.Capacity(ctx, req, func(p *pb.SearchProgress) {
-		prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
-	})
-	prog.done()
-	if err != nil {
-		if inv, ok := client.AsInvalidInput(err); ok {
-			return searchLocate(sf, reqFile, inv)
+		if req.OutageLimit == 0 {
+			return badInputf("--outage-limit is required (the largest acceptable outage, e.g. 0.05)")
 		}
-		return err
-	}
-	switch e.g.format {
-	case "json":
-		b, err := marshalJSON(res)
+		if *confidence != 0 {
+			req.Confidence = *confidence
+		}
+		if *maxUS != 0 {
+			req.MaxUserSlots = *maxUS
+		}
+		out, cl, release, err := e.session()
 		if err != nil {
 			return err
 		}
-		out.Writer().Write(b)
-	case "csv":
-		if err := writeCapacityCSV(out.Writer(), res); err != nil {
+		defer release()
+		hi := int(req.GetMaxCount())
+		if hi == 0 {
+			hi = 4096
+		}
+		r := float64(req.GetReplications())
+		if r == 0 {
+			r = 4
+		}
+		worst := float64(2+2*bits.Len(uint(hi))) * r
+		prog := e.newProgress("user-slots/s")
+		res, err := cl.Capacity(ctx, req, func(p *pb.SearchProgress) {
+			prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
+		})
+		prog.done()
+		if err != nil {
+			if inv, ok := client.AsInvalidInput(err); ok {
+				return searchLocate(sf, reqFile, inv)
+			}
 			return err
 		}
-	default:
-		writeCapacityTable(out.Writer(), req, res)
+		switch e.g.format {
+		case "json":
+			b, err := marshalJSON(res)
+			if err != nil {
+				return err
+			}
+			out.Writer().Write(b)
+		case "csv":
+			if err := writeCapacityCSV(out.Writer(), res); err != nil {
+				return err
+			}
+		default:
+			writeCapacityTable(out.Writer(), req, res)
+		}
+		return out.commit()
 	}
-	return out.commit()
 }
 
 func writeCapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult) {
