@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"image/png"
 	"io"
+	"log/slog"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -25,6 +26,7 @@ import (
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/plots"
 	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 // The tests run the real binary in its own process, built once per test
@@ -607,19 +609,38 @@ func TestCanonicalCopy(t *testing.T) {
 	}
 }
 
-// TestTapCounts: the bench's tap counts agree with package fading's
-// built-in profiles.
+// TestTapCounts: the bench's tap counts, taken from the server's info RPC,
+// agree with package fading's built-in profiles.
 func TestTapCounts(t *testing.T) {
+	cl, err := client.Embedded(service.Config{Logger: slog.New(slog.DiscardHandler)}, client.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer cl.Close()
+	info, err := cl.ServerInfo(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
 	for _, name := range fading.BuiltinProfileNames() {
 		p, err := fading.BuiltinProfile(name)
 		if err != nil {
 			t.Fatal(err)
 		}
 		sc, _ := client.ParseScenario("x", []byte("groups: [{count: 2, profile: "+name+"}]"))
-		got, err := tapsPerUser(sc.Scenario)
+		got, err := tapsPerUser(sc.Scenario, info.GetProfiles())
 		if err != nil || int(got) != len(p.Taps) {
 			t.Errorf("%s: tapsPerUser %v (%v), fading has %d taps", name, got, err, len(p.Taps))
 		}
+	}
+	// Mixed groups: (2·1 + 6·7)/8 paths per user (FLAT one tap, EPA seven,
+	// TS 36.101 Annex B.2 (memory)).
+	sc, _ := client.ParseScenario("x", []byte("groups: [{count: 2, profile: FLAT}, {count: 6, profile: epa}]"))
+	if got, err := tapsPerUser(sc.Scenario, info.GetProfiles()); err != nil || got != 44.0/8 {
+		t.Errorf("mixed groups: %v (%v), want 5.5", got, err)
+	}
+	sc, _ = client.ParseScenario("x", []byte("groups: [{count: 2, profile: NOSUCH}]"))
+	if _, err := tapsPerUser(sc.Scenario, info.GetProfiles()); err == nil {
+		t.Error("unknown profile accepted")
 	}
 }
 

@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"runtime"
 	"runtime/debug"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -113,15 +114,19 @@ func runBench(e *env, fs *flag.FlagSet) action {
 		if err := ov.apply(sc); err != nil {
 			return err
 		}
-		taps, err := tapsPerUser(sc)
-		if err != nil {
-			return err
-		}
 		out, cl, release, err := e.session()
 		if err != nil {
 			return err
 		}
 		defer release()
+		info, err := cl.ServerInfo(ctx)
+		if err != nil {
+			return err
+		}
+		taps, err := tapsPerUser(sc, info.GetProfiles())
+		if err != nil {
+			return err
+		}
 		var runs []benchRun
 		for i := range *repeat {
 			prog := e.newProgress("user-slots/s")
@@ -183,22 +188,22 @@ func runBench(e *env, fs *flag.FlagSet) action {
 	}
 }
 
-// tapsPerUser is the mean number of fading paths per user.
-func tapsPerUser(sc *pb.Scenario) (float64, error) {
-	builtin := map[string]int{"FLAT": 1, "EPA": 7, "EVA": 9, "ETU": 9, "PEDA": 4, "VEHA": 6}
+// tapsPerUser is the mean number of fading paths per user, with the tap
+// counts of the built-in profiles as the server reports them.
+func tapsPerUser(sc *pb.Scenario, profiles []*pb.BuiltinProfile) (float64, error) {
 	users, paths := 0, 0
 	for i, g := range sc.GetGroups() {
 		n := len(g.GetCustomTaps())
 		if n == 0 {
-			name := strings.ToUpper(strings.TrimSpace(g.GetProfile()))
+			name := strings.TrimSpace(g.GetProfile())
 			if name == "" {
 				name = "FLAT"
 			}
-			k, ok := builtin[name]
-			if !ok {
-				return 0, badInputf("groups[%d].profile %q: not a built-in profile", i, g.GetProfile())
+			k := slices.IndexFunc(profiles, func(p *pb.BuiltinProfile) bool { return strings.EqualFold(p.GetName(), name) })
+			if k < 0 {
+				return 0, badInputf("groups[%d].profile %q: not a built-in profile of the server", i, g.GetProfile())
 			}
-			n = k
+			n = len(profiles[k].GetTaps())
 		}
 		users += int(g.GetCount())
 		paths += n * int(g.GetCount())

@@ -178,28 +178,18 @@ func runRun(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		req := &pb.SimulateRequest{Scenario: sc}
-		if plotSpecs.needs("traces", "cdf") {
-			req.Traces = &pb.TraceOptions{DecimationSlots: decimationFor(sc, *tracePoints)}
-			switch {
-			case plotSpecs.onlyTraces() && len(users) > 0:
-				req.Traces.Users = users
-			case totalUsers(sc) > maxTracedUsers:
-				// The engine traces at most 64 users: take them evenly
-				// spread over the user indices.
-				n, k := totalUsers(sc), max(1, maxTracedUsers-len(users))
-				for i := range k {
-					req.Traces.Users = append(req.Traces.Users, int32(i*n/k))
-				}
-				req.Traces.Users = append(req.Traces.Users, users...)
-				slices.Sort(req.Traces.Users)
-				req.Traces.Users = slices.Compact(req.Traces.Users)
-			}
-		}
 		out, cl, release, err := e.session()
 		if err != nil {
 			return err
 		}
 		defer release()
+		if plotSpecs.needs("traces", "cdf") {
+			info, err := cl.ServerInfo(ctx)
+			if err != nil {
+				return err
+			}
+			req.Traces = traceRequest(sc, info.GetLimits().GetMaxTracedUsers(), *tracePoints, users, plotSpecs.onlyTraces())
+		}
 		prog := e.newProgress("user-slots/s")
 		rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
 		prog.done()
@@ -235,15 +225,28 @@ func runRun(e *env, fs *flag.FlagSet) action {
 	}
 }
 
-// maxTracedUsers is the most users one run traces.
-const maxTracedUsers = 64
-
-func totalUsers(sc *pb.Scenario) int {
+// traceRequest asks for traces of the given users (only traces plots) or,
+// when more users than the server traces (maxTraced) exist, of maxTraced
+// users spread evenly over the indices plus the given ones.
+func traceRequest(sc *pb.Scenario, maxTraced int32, points int, users []int32, onlyTraces bool) *pb.TraceOptions {
+	tr := &pb.TraceOptions{DecimationSlots: decimationFor(sc, points)}
 	n := 0
 	for _, g := range sc.GetGroups() {
 		n += int(g.GetCount())
 	}
-	return n
+	switch {
+	case onlyTraces && len(users) > 0:
+		tr.Users = users
+	case n > int(maxTraced):
+		k := max(1, int(maxTraced)-len(users))
+		for i := range k {
+			tr.Users = append(tr.Users, int32(i*n/k))
+		}
+		tr.Users = append(tr.Users, users...)
+		slices.Sort(tr.Users)
+		tr.Users = slices.Compact(tr.Users)
+	}
+	return tr
 }
 
 // decimationFor picks the trace decimation giving about n samples per user.

@@ -33,13 +33,15 @@ is sorted by grid index. With --seed-mode common (the default) every point
 uses the base seed, so differences between points are paired and sharp.
 
 An axis is PATH=V1,V2,... or PATH=FROM:TO:COUNT (COUNT values evenly spaced,
-both ends included). PATH is a numeric scenario field with proto names, e.g.
+both ends included; PATH=FROM:TO:COUNT:log spaces them geometrically); the
+server expands ranges and checks them against its limits ("fadeloop info").
+PATH is a numeric scenario field with proto names, e.g.
 inner_loop.step_db, inner_loop.update_rate_hz, inner_loop.feedback_delay_slots,
 outer_loop.up_step_db, outer_loop.bler_target, groups[0].speeds[0].speed_kmh,
 groups[1].count.
 
 A --grid file is the protojson form (JSON or YAML) of fadeloop.v1.SweepRequest:
-axes (path, values), point_indices, seed_mode, detailed, and optionally base
+axes (path, values or first, last, count, log), point_indices, seed_mode, detailed, and optionally base
 (used when no scenario file is given).
 
 Output formats:
@@ -69,50 +71,11 @@ Examples:
 	})
 }
 
-// axisList is the repeatable --axis flag.
-type axisList []*pb.SweepAxis
-
-func (a *axisList) String() string { return fmt.Sprint(len(*a), " axes") }
-
-func (a *axisList) Set(v string) error {
-	path, vals, ok := strings.Cut(v, "=")
-	path = strings.TrimSpace(path)
-	if !ok || path == "" || strings.TrimSpace(vals) == "" {
-		return fmt.Errorf("want PATH=V1,V2,... or PATH=FROM:TO:COUNT")
-	}
-	ax := &pb.SweepAxis{Path: path}
-	if parts := strings.Split(vals, ":"); len(parts) == 3 {
-		from, e1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
-		to, e2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
-		n, e3 := strconv.Atoi(strings.TrimSpace(parts[2]))
-		if e1 != nil || e2 != nil || e3 != nil || n < 1 || n > 1024 {
-			return fmt.Errorf("range %q: want FROM:TO:COUNT with numbers and 1 <= COUNT <= 1024", vals)
-		}
-		for i := range n {
-			x := from
-			if n > 1 {
-				x = from + (to-from)*float64(i)/float64(n-1)
-			}
-			ax.Values = append(ax.Values, math.Round(x*1e9)/1e9)
-		}
-	} else {
-		for _, f := range strings.Split(vals, ",") {
-			x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-			if err != nil {
-				return fmt.Errorf("value %q is not a number", f)
-			}
-			ax.Values = append(ax.Values, x)
-		}
-	}
-	*a = append(*a, ax)
-	return nil
-}
-
 func runSweep(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.register(fs)
 	var axes axisList
-	fs.Var(&axes, "axis", "grid axis `PATH=V1,V2,...` or PATH=FROM:TO:COUNT; repeatable")
+	fs.Var(&axes, "axis", "grid axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	grid := fs.String("grid", "", "sweep `FILE` (protojson SweepRequest in JSON or YAML) with axes and options")
 	points := fs.String("points", "", "compute only these grid `INDICES` (comma-separated) to resume or split a sweep")
 	seedMode := fs.String("seed-mode", "", "`MODE` common (every point uses the base seed: paired) or per-point (default common)")
@@ -190,7 +153,7 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		if total == 0 {
 			total = 1
 			for _, a := range req.Axes {
-				total *= int64(len(a.GetValues()))
+				total *= int64(max(len(a.GetValues()), int(a.GetCount())))
 			}
 		}
 

@@ -129,46 +129,6 @@ func runSettingFlags(fs *flag.FlagSet, ov *scenarioOverrides) {
 	})
 }
 
-// tuneAxisList is the repeatable --axis flag of tune: listed values, or a
-// range the server resolves (first, last, count, optionally log).
-type tuneAxisList []*pb.SweepAxis
-
-func (a *tuneAxisList) String() string { return fmt.Sprint(len(*a), " axes") }
-
-func (a *tuneAxisList) Set(v string) error {
-	path, vals, ok := strings.Cut(v, "=")
-	path = strings.TrimSpace(path)
-	if !ok || path == "" || strings.TrimSpace(vals) == "" {
-		return fmt.Errorf("want PATH=V1,V2,..., PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log")
-	}
-	ax := &pb.SweepAxis{Path: path}
-	if parts := strings.Split(vals, ":"); len(parts) == 3 || len(parts) == 4 {
-		from, e1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
-		to, e2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
-		n, e3 := strconv.Atoi(strings.TrimSpace(parts[2]))
-		if e1 != nil || e2 != nil || e3 != nil || n < 1 || n > 1000 {
-			return fmt.Errorf("range %q: want FROM:TO:COUNT[:log] with numbers and 1 <= COUNT <= 1000", vals)
-		}
-		if len(parts) == 4 {
-			if strings.TrimSpace(parts[3]) != "log" {
-				return fmt.Errorf("range %q: the fourth part may only be \"log\"", vals)
-			}
-			ax.Log = true
-		}
-		ax.First, ax.Last, ax.Count = from, to, int32(n)
-	} else {
-		for _, f := range strings.Split(vals, ",") {
-			x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-			if err != nil {
-				return fmt.Errorf("value %q is not a number", f)
-			}
-			ax.Values = append(ax.Values, x)
-		}
-	}
-	*a = append(*a, ax)
-	return nil
-}
-
 // conditionList is the repeatable --condition flag.
 type conditionList []*pb.Condition
 
@@ -224,7 +184,7 @@ func readRequestFile(path string, m proto.Message) (*client.SourceFile, error) {
 func runTune(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	runSettingFlags(fs, &ov)
-	var axes tuneAxisList
+	var axes axisList
 	fs.Var(&axes, "axis", "candidate axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	var conds conditionList
 	fs.Var(&conds, "condition", "condition `NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...]`; repeatable")

@@ -112,10 +112,10 @@ func TestHelpers(t *testing.T) {
 	if err := a.Set("inner_loop.step_db=0.5:2:4"); err != nil {
 		t.Fatal(err)
 	}
-	if v := a[0].GetValues(); len(v) != 4 || v[0] != 0.5 || v[1] != 1 || v[3] != 2 {
-		t.Errorf("range axis values %v, want [0.5 1 1.5 2]", v)
+	if ax := a[0]; len(ax.GetValues()) != 0 || ax.GetFirst() != 0.5 || ax.GetLast() != 2 || ax.GetCount() != 4 || ax.GetLog() {
+		t.Errorf("range axis %v, want first 0.5, last 2, count 4 (the server expands it)", ax)
 	}
-	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2"} {
+	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2", "p=1:2:3:lin"} {
 		if err := (&axisList{}).Set(bad); err == nil {
 			t.Errorf("axis %q accepted", bad)
 		}

@@ -1,0 +1,90 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"strconv"
+	"strings"
+)
+
+func init() {
+	register(&command{
+		order:   95,
+		name:    "info",
+		summary: "print the server's versions, limits and built-in channel profiles",
+		usage:   "",
+		details: `Asks the server (or the embedded one) for its engine and API versions, the
+limits it enforces on requests (users, groups, grid points, axis values,
+traced users, message sizes, work per call) and its built-in tap-delay
+profiles with their taps.
+
+Output formats: table; json (the fadeloop.v1 GetServerInfoResponse).
+
+Examples:
+  fadeloop info
+  fadeloop --server 127.0.0.1:7443 info --format json`,
+		run: runInfo,
+	})
+}
+
+func runInfo(e *env, _ *flag.FlagSet) action {
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return badInputf("unexpected arguments: %s", strings.Join(args, " "))
+		}
+		if err := e.g.checkFormat("table", "json"); err != nil {
+			return err
+		}
+		out, cl, release, err := e.session()
+		if err != nil {
+			return err
+		}
+		defer release()
+		info, err := cl.ServerInfo(ctx)
+		if err != nil {
+			return err
+		}
+		w := out.Writer()
+		if e.g.format == "json" {
+			b, err := marshalJSON(info)
+			if err != nil {
+				return err
+			}
+			w.Write(b)
+			return out.commit()
+		}
+		fmt.Fprintf(w, "engine %s, API %s\n\n", info.GetEngineVersion(), info.GetApiVersion())
+		l := info.GetLimits()
+		t := newTable("limit", "value").alignRight(1)
+		for _, r := range []struct {
+			name string
+			v    int64
+		}{
+			{"users per scenario", int64(l.GetMaxUsers())},
+			{"groups per scenario", int64(l.GetMaxGroups())},
+			{"slots per replication", l.GetMaxSlots()},
+			{"grid points", int64(l.GetMaxGridPoints())},
+			{"values per axis", int64(l.GetMaxAxisValues())},
+			{"traced users per run", int64(l.GetMaxTracedUsers())},
+			{"received message (bytes)", l.GetMaxRecvMessageBytes()},
+			{"sent message (bytes)", l.GetMaxSendMessageBytes()},
+			{"work per call (tap-slots)", l.GetMaxCostTapSlots()},
+		} {
+			t.add(r.name, groupDigits(r.v))
+		}
+		t.write(w)
+		fmt.Fprintln(w)
+		pt := newTable("profile", "taps", "delays (ns)", "powers (dB)").alignRight(1)
+		for _, p := range info.GetProfiles() {
+			var d, pw []string
+			for _, tp := range p.GetTaps() {
+				d = append(d, strconv.FormatFloat(tp.GetDelayNs(), 'g', -1, 64))
+				pw = append(pw, strconv.FormatFloat(tp.GetPowerDb(), 'g', -1, 64))
+			}
+			pt.add(p.GetName(), strconv.Itoa(len(p.GetTaps())), strings.Join(d, " "), strings.Join(pw, " "))
+		}
+		pt.write(w)
+		return out.commit()
+	}
+}
