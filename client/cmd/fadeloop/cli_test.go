@@ -25,6 +25,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/plots"
+	"github.com/fadeloop/fadeloop/client/render"
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/service"
 )
@@ -226,8 +227,8 @@ func TestRunFormats(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if strings.Join(rows[0], ",") != strings.Join(runCSVHeader(), ",") {
-		t.Errorf("CSV header %v, want %v", rows[0], runCSVHeader())
+	if strings.Join(rows[0], ",") != strings.Join(render.RunCSVHeader(), ",") {
+		t.Errorf("CSV header %v, want %v", rows[0], render.RunCSVHeader())
 	}
 	scopes := map[string]int{}
 	for _, row := range rows[1:] {

@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -243,18 +244,18 @@ func writeTraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int
 		name = "custom"
 	}
 	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)\n\n",
-		links, groupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
-	t := newTable("tap", "mean power (dB)", "share of total (%)").alignRight(0, 1, 2)
+		links, render.GroupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
+	t := render.NewTable("tap", "mean power (dB)", "share of total (%)").AlignRight(0, 1, 2)
 	total := 0.0
 	for _, p := range power {
 		total += p
 	}
 	for l, p := range power {
 		m := p / float64(max(count, 1))
-		t.add(strconv.Itoa(l), num(10*math.Log10(m), 2), num(100*p/total, 1))
+		t.Add(strconv.Itoa(l), render.Num(10*math.Log10(m), 2), render.Num(100*p/total, 1))
 	}
-	t.add("all", num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
-	t.write(w)
+	t.Add("all", render.Num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
+	t.Write(w)
 	fmt.Fprintln(w, "\n(each link's taps have unit total mean power: 0 dB expected in the last row)")
 }
 
@@ -290,7 +291,7 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 		w := out.Writer()
 		switch e.g.format {
 		case "json":
-			b, err := marshalJSON(resp)
+			b, err := render.MarshalJSON(resp)
 			if err != nil {
 				return err
 			}
@@ -299,7 +300,7 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 			cw := csv.NewWriter(w)
 			cw.Write([]string{"name", "measured", "theory", "tolerance", "unit", "pass"})
 			for _, l := range resp.GetLines() {
-				cw.Write([]string{l.GetName(), csvNum(l.GetMeasured()), csvNum(l.GetTheory()), csvNum(l.GetTolerance()), l.GetUnit(), strconv.FormatBool(l.GetPass())})
+				cw.Write([]string{l.GetName(), render.CSVNum(l.GetMeasured()), render.CSVNum(l.GetTheory()), render.CSVNum(l.GetTolerance()), l.GetUnit(), strconv.FormatBool(l.GetPass())})
 			}
 			cw.Flush()
 			if err := cw.Error(); err != nil {
@@ -313,15 +314,15 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 			fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f), generator %s\n",
 				name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz(), ch.generator)
 			fmt.Fprintf(w, "%d links × %g Doppler periods each\n\n", resp.GetLinks(), resp.GetDopplerPeriods())
-			t := newTable("check", "measured", "theory", "tolerance", "unit", "result").alignRight(1, 2, 3)
+			t := render.NewTable("check", "measured", "theory", "tolerance", "unit", "result").AlignRight(1, 2, 3)
 			for _, l := range resp.GetLines() {
 				res := "pass"
 				if !l.GetPass() {
 					res = "FAIL"
 				}
-				t.add(l.GetName(), sig(l.GetMeasured()), sig(l.GetTheory()), "±"+sig(l.GetTolerance()), l.GetUnit(), res)
+				t.Add(l.GetName(), sig(l.GetMeasured()), sig(l.GetTheory()), "±"+sig(l.GetTolerance()), l.GetUnit(), res)
 			}
-			t.write(w)
+			t.Write(w)
 			verdict := "all checks pass"
 			if !resp.GetPass() {
 				verdict = "SOME CHECKS FAIL"

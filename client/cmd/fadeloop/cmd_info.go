@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+
+	"github.com/fadeloop/fadeloop/client/render"
 )
 
 func init() {
@@ -47,7 +49,7 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 		}
 		w := out.Writer()
 		if e.g.format == "json" {
-			b, err := marshalJSON(info)
+			b, err := render.MarshalJSON(info)
 			if err != nil {
 				return err
 			}
@@ -56,7 +58,7 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 		}
 		fmt.Fprintf(w, "engine %s, API %s\n\n", info.GetEngineVersion(), info.GetApiVersion())
 		l := info.GetLimits()
-		t := newTable("limit", "value").alignRight(1)
+		t := render.NewTable("limit", "value").AlignRight(1)
 		for _, r := range []struct {
 			name string
 			v    int64
@@ -71,20 +73,20 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 			{"sent message (bytes)", l.GetMaxSendMessageBytes()},
 			{"work per call (tap-slots)", l.GetMaxCostTapSlots()},
 		} {
-			t.add(r.name, groupDigits(r.v))
+			t.Add(r.name, render.GroupDigits(r.v))
 		}
-		t.write(w)
+		t.Write(w)
 		fmt.Fprintln(w)
-		pt := newTable("profile", "taps", "delays (ns)", "powers (dB)").alignRight(1)
+		pt := render.NewTable("profile", "taps", "delays (ns)", "powers (dB)").AlignRight(1)
 		for _, p := range info.GetProfiles() {
 			var d, pw []string
 			for _, tp := range p.GetTaps() {
 				d = append(d, strconv.FormatFloat(tp.GetDelayNs(), 'g', -1, 64))
 				pw = append(pw, strconv.FormatFloat(tp.GetPowerDb(), 'g', -1, 64))
 			}
-			pt.add(p.GetName(), strconv.Itoa(len(p.GetTaps())), strings.Join(d, " "), strings.Join(pw, " "))
+			pt.Add(p.GetName(), strconv.Itoa(len(p.GetTaps())), strings.Join(d, " "), strings.Join(pw, " "))
 		}
-		pt.write(w)
+		pt.Write(w)
 		return out.commit()
 	}
 }

@@ -16,6 +16,7 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -162,8 +163,8 @@ func runBench(e *env, fs *flag.FlagSet) action {
 			cw := csv.NewWriter(w)
 			cw.Write([]string{"run", "users", "taps_per_user", "user_slots", "wall_time_s", "user_slots_per_s", "path_samples_per_s"})
 			for _, r := range runs {
-				cw.Write([]string{strconv.Itoa(r.Run), strconv.Itoa(r.Users), csvNum(r.TapsPerUser), strconv.FormatInt(r.UserSlots, 10),
-					csvNum(r.WallTimeS), csvNum(r.UserSlotsPerS), csvNum(r.PathSamplesPerS)})
+				cw.Write([]string{strconv.Itoa(r.Run), strconv.Itoa(r.Users), render.CSVNum(r.TapsPerUser), strconv.FormatInt(r.UserSlots, 10),
+					render.CSVNum(r.WallTimeS), render.CSVNum(r.UserSlotsPerS), render.CSVNum(r.PathSamplesPerS)})
 			}
 			cw.Flush()
 		default:
@@ -175,14 +176,14 @@ func runBench(e *env, fs *flag.FlagSet) action {
 				where += fmt.Sprintf(", GOMAXPROCS %d", runtime.GOMAXPROCS(0))
 			}
 			fmt.Fprintf(w, "%s — %s\n\n", sc.GetName(), where)
-			t := newTable("run", "users", "user-slots", "wall time (s)", "user-slots/s", "path-samples/s").alignRight(0, 1, 2, 3, 4, 5)
+			t := render.NewTable("run", "users", "user-slots", "wall time (s)", "user-slots/s", "path-samples/s").AlignRight(0, 1, 2, 3, 4, 5)
 			for _, r := range runs {
-				t.add(strconv.Itoa(r.Run), strconv.Itoa(r.Users), groupDigits(r.UserSlots), num(r.WallTimeS, 3),
-					fmtRate(r.UserSlotsPerS, ""), fmtRate(r.PathSamplesPerS, ""))
+				t.Add(strconv.Itoa(r.Run), strconv.Itoa(r.Users), render.GroupDigits(r.UserSlots), render.Num(r.WallTimeS, 3),
+					render.FmtRate(r.UserSlotsPerS, ""), render.FmtRate(r.PathSamplesPerS, ""))
 			}
-			t.write(w)
-			fmt.Fprintf(w, "\nbest: %s, %s (%.3g taps per user)\n", fmtRate(best.UserSlotsPerS, "user-slots/s"),
-				fmtRate(best.PathSamplesPerS, "path-samples/s"), taps)
+			t.Write(w)
+			fmt.Fprintf(w, "\nbest: %s, %s (%.3g taps per user)\n", render.FmtRate(best.UserSlotsPerS, "user-slots/s"),
+				render.FmtRate(best.PathSamplesPerS, "path-samples/s"), taps)
 		}
 		return out.commit()
 	}

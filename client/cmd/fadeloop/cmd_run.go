@@ -3,10 +3,8 @@ package main
 import (
 	"context"
 	_ "embed"
-	"encoding/csv"
 	"flag"
 	"fmt"
-	"io"
 	"slices"
 	"strconv"
 	"strings"
@@ -14,6 +12,7 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -40,7 +39,7 @@ Output formats:
   csv    one row per scope: columns scope (aggregate|bin|user), index, group,
          distance_m, min_distance_m, max_distance_m, users, user_slots, then
          for every figure F its value F, F_ci_low and F_ci_high; figures in
-         order: ` + wrap(strings.Join(figureKeys(), ", "), 62, "         ") + `.
+         order: ` + render.Wrap(strings.Join(render.FigureKeys(), ", "), 62, "         ") + `.
          Probabilities are fractions (0..1), powers dBm, SIR and noise rise dB.
   json   the fadeloop.v1 RunReport message in protojson with proto field names.
 
@@ -58,14 +57,6 @@ Examples:
   fadeloop --server 127.0.0.1:7443 run cell.json --format json`,
 		run: runRun,
 	})
-}
-
-func figureKeys() []string {
-	var k []string
-	for _, f := range figures {
-		k = append(k, f.key)
-	}
-	return k
 }
 
 // scenarioOverrides are the run-setting flags shared by run, sweep and
@@ -198,17 +189,17 @@ func runRun(e *env, fs *flag.FlagSet) action {
 		}
 		switch e.g.format {
 		case "json":
-			b, err := marshalJSON(rep)
+			b, err := render.MarshalJSON(rep)
 			if err != nil {
 				return err
 			}
 			out.Writer().Write(b)
 		case "csv":
-			if err := writeRunCSV(out.Writer(), rep); err != nil {
+			if err := render.RunCSV(out.Writer(), rep); err != nil {
 				return err
 			}
 		default:
-			writeRunTable(out.Writer(), rep, *perUser)
+			render.RunTable(out.Writer(), rep, *perUser)
 		}
 		if err := out.commit(); err != nil {
 			return err
@@ -273,132 +264,4 @@ func parseIndexList(s string) ([]int32, error) {
 		out = append(out, int32(v))
 	}
 	return out, nil
-}
-
-func groupName(rep *pb.RunReport, g int32) string {
-	gs := rep.GetNormalisedScenario().GetGroups()
-	if int(g) < len(gs) && gs[g].GetName() != "" {
-		return gs[g].GetName()
-	}
-	return fmt.Sprintf("group %d", g)
-}
-
-func writeRunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
-	sc := rep.GetNormalisedScenario()
-	agg := rep.GetAggregate()
-	if sc.GetName() != "" {
-		fmt.Fprintln(w, sc.GetName())
-	}
-	fmt.Fprintf(w, "%d users, %s slots × %d replication(s) after %s warm-up slots, seed %d, engine %s\n",
-		agg.GetUsers(), groupDigits(rep.GetSlots()), rep.GetReplications(),
-		groupDigits(sc.GetRun().GetWarmupSlots()), rep.GetSeed(), rep.GetEngineVersion())
-	fmt.Fprintf(w, "%s user-slots simulated in %.2f s (%s)\n",
-		groupDigits(rep.GetSimulatedUserSlots()), rep.GetWallTimeS(), fmtRate(rep.GetUserSlotsPerS(), "user-slots/s"))
-	if f := rep.GetFeasibility(); f.GetInfeasible() {
-		fmt.Fprintf(w, "\nINFEASIBLE LOAD: %s", f.GetReason())
-		if f.GetSpectralRadius() > 0 {
-			fmt.Fprintf(w, " (spectral radius %.3f)", f.GetSpectralRadius())
-		}
-		if len(f.GetUsers()) > 0 {
-			fmt.Fprintf(w, "; users %v cannot reach the target", f.GetUsers())
-		}
-		fmt.Fprintln(w)
-	}
-	fmt.Fprintln(w)
-	t := newTable("figure", "value", "95 % CI").alignRight(1)
-	for _, f := range figures {
-		e := f.get(agg)
-		if e == nil {
-			continue
-		}
-		t.add(f.label, num(f.scale*e.GetValue(), f.dec),
-			"["+num(f.scale*e.GetCiLow(), f.dec)+", "+num(f.scale*e.GetCiHigh(), f.dec)+"]")
-	}
-	t.write(w)
-
-	cols := []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
-		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}
-	if bins := rep.GetDistanceBins(); len(bins) > 0 {
-		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per distance bin (value ±95 % CI half-width):")
-		h := []string{"distance (m)", "users"}
-		for _, k := range cols {
-			h = append(h, shortLabel(k))
-		}
-		bt := newTable(h...).alignRight(1, 2, 3, 4, 5, 6, 7, 8)
-		for _, b := range bins {
-			row := []string{num(b.GetMinDistanceM(), 0) + "–" + num(b.GetMaxDistanceM(), 0), strconv.Itoa(int(b.GetFigures().GetUsers()))}
-			for _, k := range cols {
-				f, _ := figureByKey(k)
-				row = append(row, cell(f, f.get(b.GetFigures())))
-			}
-			bt.add(row...)
-		}
-		bt.write(w)
-	}
-	if perUser {
-		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per user (value ±95 % CI half-width):")
-		h := []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}
-		for _, k := range cols {
-			h = append(h, shortLabel(k))
-		}
-		ut := newTable(h...).alignRight(0, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11)
-		for _, u := range rep.GetUsers() {
-			row := []string{strconv.Itoa(int(u.GetUser())), groupName(rep, u.GetGroup()), num(u.GetDistanceM(), 0),
-				num(u.GetSpeedKmh(), 0), num(u.GetPathLossDb(), 1)}
-			for _, k := range cols {
-				f, _ := figureByKey(k)
-				row = append(row, cell(f, f.get(u.GetFigures())))
-			}
-			ut.add(row...)
-		}
-		ut.write(w)
-	}
-}
-
-// groupDigits writes an integer with thin groups of three: 90 000.
-func groupDigits(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, r := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(' ')
-		}
-		b.WriteRune(r)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
-}
-
-// runCSVHeader is the header of `run --format csv`.
-func runCSVHeader() []string {
-	return append([]string{"scope", "index", "group", "distance_m", "min_distance_m", "max_distance_m", "users", "user_slots"},
-		figureCSVHeader()...)
-}
-
-func writeRunCSV(w io.Writer, rep *pb.RunReport) error {
-	cw := csv.NewWriter(w)
-	cw.Write(runCSVHeader())
-	agg := rep.GetAggregate()
-	cw.Write(append([]string{"aggregate", "", "", "", "", "", strconv.Itoa(int(agg.GetUsers())),
-		strconv.FormatInt(agg.GetUserSlots(), 10)}, figureCSVCells(agg)...))
-	for _, b := range rep.GetDistanceBins() {
-		f := b.GetFigures()
-		cw.Write(append([]string{"bin", strconv.Itoa(int(b.GetBin())), "", "", csvNum(b.GetMinDistanceM()),
-			csvNum(b.GetMaxDistanceM()), strconv.Itoa(int(f.GetUsers())), strconv.FormatInt(f.GetUserSlots(), 10)},
-			figureCSVCells(f)...))
-	}
-	for _, u := range rep.GetUsers() {
-		f := u.GetFigures()
-		cw.Write(append([]string{"user", strconv.Itoa(int(u.GetUser())), groupName(rep, u.GetGroup()),
-			csvNum(u.GetDistanceM()), "", "", strconv.Itoa(int(f.GetUsers())), strconv.FormatInt(f.GetUserSlots(), 10)},
-			figureCSVCells(f)...))
-	}
-	cw.Flush()
-	return cw.Error()
 }

@@ -48,3 +48,39 @@ func (a *axisList) Set(v string) error {
 	*a = append(*a, ax)
 	return nil
 }
+
+// conditionList is the repeatable --condition flag.
+type conditionList []*pb.Condition
+
+func (c *conditionList) String() string { return fmt.Sprint(len(*c), " conditions") }
+
+func (c *conditionList) Set(v string) error {
+	head, body, ok := strings.Cut(v, ":")
+	if !ok || strings.TrimSpace(head) == "" || strings.TrimSpace(body) == "" {
+		return fmt.Errorf("want NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...]")
+	}
+	cd := &pb.Condition{Name: strings.TrimSpace(head), Weight: 1}
+	if name, w, ok := strings.Cut(head, "@"); ok {
+		x, err := strconv.ParseFloat(strings.TrimSpace(w), 64)
+		if err != nil {
+			return fmt.Errorf("weight %q is not a number", w)
+		}
+		cd.Name, cd.Weight = strings.TrimSpace(name), x
+	}
+	for _, kv := range strings.Split(body, ",") {
+		p, val, ok := strings.Cut(kv, "=")
+		p, val = strings.TrimSpace(p), strings.TrimSpace(val)
+		if !ok || p == "" || val == "" {
+			return fmt.Errorf("override %q: want PATH=VALUE", kv)
+		}
+		o := &pb.Override{Path: p}
+		if x, err := strconv.ParseFloat(val, 64); err == nil {
+			o.Value = &pb.Override_Number{Number: x}
+		} else {
+			o.Value = &pb.Override_Text{Text: val}
+		}
+		cd.Overrides = append(cd.Overrides, o)
+	}
+	*c = append(*c, cd)
+	return nil
+}

@@ -241,28 +241,6 @@ func commandNames() string {
 	return strings.Join(append(n, "completion", "man", "help"), ", ")
 }
 
-// wrap breaks text into lines of at most width runes (words are not
-// split), joining them with a newline and indent; existing newlines stay.
-func wrap(text string, width int, indent string) string {
-	var out []string
-	for _, para := range strings.Split(text, "\n") {
-		line := ""
-		for _, word := range strings.Fields(para) {
-			if line != "" && len([]rune(line))+1+len([]rune(word)) > width {
-				out = append(out, line)
-				line = word
-				continue
-			}
-			if line != "" {
-				line += " "
-			}
-			line += word
-		}
-		out = append(out, line)
-	}
-	return strings.Join(out, "\n"+indent)
-}
-
 // badInput marks an error as the user's input (exit 2).
 type badInput struct{ err error }
 

@@ -5,6 +5,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/fadeloop/fadeloop/client/render"
 )
 
 // fakeClock advances by hand.
@@ -80,11 +82,11 @@ func TestProgressQuiet(t *testing.T) {
 }
 
 func TestTableAlignment(t *testing.T) {
-	tb := newTable("name", "value (dB)", "note").alignRight(1)
-	tb.add("a", "1.00", "x")
-	tb.add("longer name", "-12.50", "")
+	tb := render.NewTable("name", "value (dB)", "note").AlignRight(1)
+	tb.Add("a", "1.00", "x")
+	tb.Add("longer name", "-12.50", "")
 	var b bytes.Buffer
-	tb.write(&b)
+	tb.Write(&b)
 	want := "name         value (dB)  note\n" +
 		"a                  1.00  x\n" +
 		"longer name      -12.50\n"
@@ -98,14 +100,14 @@ func TestHelpers(t *testing.T) {
 		in   int64
 		want string
 	}{{0, "0"}, {999, "999"}, {1000, "1 000"}, {90000, "90 000"}, {1234567, "1 234 567"}, {-4500, "-4 500"}} {
-		if got := groupDigits(c.in); got != c.want {
+		if got := render.GroupDigits(c.in); got != c.want {
 			t.Errorf("groupDigits(%d) = %q, want %q", c.in, got, c.want)
 		}
 	}
-	if got := num(-0.0001, 2); got != "0.00" {
+	if got := render.Num(-0.0001, 2); got != "0.00" {
 		t.Errorf("num(-0.0001, 2) = %q, want 0.00", got)
 	}
-	if got := fmtRate(1.23e7, "u/s"); got != "12.30 M u/s" {
+	if got := render.FmtRate(1.23e7, "u/s"); got != "12.30 M u/s" {
 		t.Errorf("fmtRate = %q", got)
 	}
 	var a axisList
@@ -120,7 +122,7 @@ func TestHelpers(t *testing.T) {
 			t.Errorf("axis %q accepted", bad)
 		}
 	}
-	if got := wrap("aa bb cc dd", 5, "  "); got != "aa bb\n  cc dd" {
+	if got := render.Wrap("aa bb cc dd", 5, "  "); got != "aa bb\n  cc dd" {
 		t.Errorf("wrap = %q", got)
 	}
 }
