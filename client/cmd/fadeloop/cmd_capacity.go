@@ -3,12 +3,10 @@ package main
 import (
 	"context"
 	"flag"
+	"io"
 	"math"
 	"math/bits"
 
-	"google.golang.org/protobuf/proto"
-
-	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -56,7 +54,7 @@ Examples:
 
 func runCapacity(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
-	runSettingFlags(fs, &ov)
+	ov.registerSlotsSeed(fs)
 	request := fs.String("request", "", "capacity request `FILE` (protojson CapacityRequest in JSON or YAML)")
 	group := fs.Int("group", -1, "index `G` of the group whose count is scaled (default 0)")
 	outage := fs.Float64("outage-limit", 0, "largest acceptable aggregate outage `P` (fraction, e.g. 0.05); required")
@@ -66,25 +64,12 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
 	return func(ctx context.Context, args []string) error {
-		var err error
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
 		req := &pb.CapacityRequest{}
-		var reqFile *client.SourceFile
-		if *request != "" {
-			if reqFile, err = readRequestFile(*request, req); err != nil {
-				return err
-			}
-		}
-		var sf *client.ScenarioFile
-		if len(args) > 0 || req.Base == nil {
-			if sf, err = loadScenario(args); err != nil {
-				return err
-			}
-			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-		}
-		if err := ov.apply(req.Base); err != nil {
+		sf, reqFile, err := loadRequest(*request, req, &req.Base, args, &ov)
+		if err != nil {
 			return err
 		}
 		for _, x := range []struct {
@@ -132,31 +117,14 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		}
 		worst := float64(2+2*bits.Len(uint(hi))) * r
 		prog := e.newProgress("user-slots/s")
-		res, err := cl.Capacity(ctx, req, func(p *pb.SearchProgress) {
-			prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
-		})
+		res, err := cl.Capacity(ctx, req, searchProgress(prog, worst))
 		prog.done()
 		if err != nil {
-			if inv, ok := client.AsInvalidInput(err); ok {
-				return searchLocate(sf, reqFile, inv)
-			}
-			return err
+			return searchError(sf, reqFile, err)
 		}
-		switch e.g.format {
-		case "json":
-			b, err := render.MarshalJSON(res)
-			if err != nil {
-				return err
-			}
-			out.Writer().Write(b)
-		case "csv":
-			if err := render.CapacityCSV(out.Writer(), res); err != nil {
-				return err
-			}
-		default:
-			render.CapacityTable(out.Writer(), req, res)
-		}
-		if err := out.commit(); err != nil {
+		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
+			func(w io.Writer) { render.CapacityTable(w, req, res) })
+		if err != nil {
 			return err
 		}
 		if res.GetBelowRange() {

@@ -6,7 +6,6 @@ import (
 	"encoding/csv"
 	"errors"
 	"flag"
-	"fmt"
 	"io"
 	"math"
 	"strconv"
@@ -137,10 +136,8 @@ func runTrace(e *env, fs *flag.FlagSet) action {
 	samples := fs.Int64("samples", 15000, "samples per link `N`")
 	chunk := fs.Int("chunk-samples", 0, "samples per link in each streamed chunk (`N`, 0: the server's choice)")
 	return func(ctx context.Context, args []string) error {
-		var err error
-		rest := args
-		if len(rest) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		if err := e.g.checkFormat("table", "csv", "bin"); err != nil {
 			return err
@@ -232,31 +229,10 @@ func runTrace(e *env, fs *flag.FlagSet) action {
 			}
 		}
 		if e.g.format == "table" {
-			writeTraceSummary(w, spec, *links, got, power, count)
+			render.TraceSummary(w, spec, *links, got, power, count)
 		}
 		return out.commit()
 	}
-}
-
-func writeTraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, power []float64, count int64) {
-	name := spec.GetProfile()
-	if name == "" {
-		name = "custom"
-	}
-	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)\n\n",
-		links, render.GroupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
-	t := render.NewTable("tap", "mean power (dB)", "share of total (%)").AlignRight(0, 1, 2)
-	total := 0.0
-	for _, p := range power {
-		total += p
-	}
-	for l, p := range power {
-		m := p / float64(max(count, 1))
-		t.Add(strconv.Itoa(l), render.Num(10*math.Log10(m), 2), render.Num(100*p/total, 1))
-	}
-	t.Add("all", render.Num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
-	t.Write(w)
-	fmt.Fprintln(w, "\n(each link's taps have unit total mean power: 0 dB expected in the last row)")
 }
 
 func runCheck(e *env, fs *flag.FlagSet) action {
@@ -266,10 +242,8 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 	periods := fs.Float64("doppler-periods", 0, "record length of each link in Doppler periods 1/f_D, `N` in [20, 20000] (0: the default, 250)")
 	sigmas := fs.Float64("sigmas", 0, "tolerance of each line in standard errors, `N` in [1, 10] (0: the default, 4)")
 	return func(ctx context.Context, args []string) error {
-		var err error
-		rest := args
-		if len(rest) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -288,48 +262,9 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 		if err != nil {
 			return err
 		}
-		w := out.Writer()
-		switch e.g.format {
-		case "json":
-			b, err := render.MarshalJSON(resp)
-			if err != nil {
-				return err
-			}
-			w.Write(b)
-		case "csv":
-			cw := csv.NewWriter(w)
-			cw.Write([]string{"name", "measured", "theory", "tolerance", "unit", "pass"})
-			for _, l := range resp.GetLines() {
-				cw.Write([]string{l.GetName(), render.CSVNum(l.GetMeasured()), render.CSVNum(l.GetTheory()), render.CSVNum(l.GetTolerance()), l.GetUnit(), strconv.FormatBool(l.GetPass())})
-			}
-			cw.Flush()
-			if err := cw.Error(); err != nil {
-				return err
-			}
-		default:
-			name := spec.GetProfile()
-			if name == "" {
-				name = "custom"
-			}
-			fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f), generator %s\n",
-				name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz(), ch.generator)
-			fmt.Fprintf(w, "%d links × %g Doppler periods each\n\n", resp.GetLinks(), resp.GetDopplerPeriods())
-			t := render.NewTable("check", "measured", "theory", "tolerance", "unit", "result").AlignRight(1, 2, 3)
-			for _, l := range resp.GetLines() {
-				res := "pass"
-				if !l.GetPass() {
-					res = "FAIL"
-				}
-				t.Add(l.GetName(), sig(l.GetMeasured()), sig(l.GetTheory()), "±"+sig(l.GetTolerance()), l.GetUnit(), res)
-			}
-			t.Write(w)
-			verdict := "all checks pass"
-			if !resp.GetPass() {
-				verdict = "SOME CHECKS FAIL"
-			}
-			fmt.Fprintf(w, "\n%s\n", verdict)
-		}
-		if err := out.commit(); err != nil {
+		err = e.emit(out, resp, func(w io.Writer) error { return render.CheckCSV(w, resp) },
+			func(w io.Writer) { render.CheckTable(w, spec, ch.generator, resp) })
+		if err != nil {
 			return err
 		}
 		if !resp.GetPass() {
@@ -337,12 +272,4 @@ func runCheck(e *env, fs *flag.FlagSet) action {
 		}
 		return nil
 	}
-}
-
-// sig formats with four significant digits.
-func sig(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "–"
-	}
-	return strconv.FormatFloat(v, 'g', 4, 64)
 }

@@ -32,8 +32,8 @@ Examples:
 
 func runInfo(e *env, _ *flag.FlagSet) action {
 	return func(ctx context.Context, args []string) error {
-		if len(args) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(args, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		if err := e.g.checkFormat("table", "json"); err != nil {
 			return err

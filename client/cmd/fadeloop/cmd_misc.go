@@ -217,10 +217,8 @@ func tapsPerUser(sc *pb.Scenario, profiles []*pb.BuiltinProfile) (float64, error
 
 func runExample(e *env, fs *flag.FlagSet) action {
 	return func(_ context.Context, args []string) error {
-		var err error
-		rest := args
-		if len(rest) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		if err := e.g.checkFormat("table", "yaml", "json"); err != nil {
 			return badInputf("--format %q: example writes yaml (the default) or json", e.g.format)
@@ -253,9 +251,8 @@ var version = ""
 
 func runVersion(e *env, fs *flag.FlagSet) action {
 	return func(ctx context.Context, args []string) error {
-		rest := args
-		if len(rest) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		fmt.Fprintf(e.stdout, "fadeloop %s\n%s %s/%s, API fadeloop.v1\n", versionString(), runtime.Version(), runtime.GOOS, runtime.GOARCH)
 		if e.g.server != "" {

@@ -5,6 +5,7 @@ import (
 	_ "embed"
 	"flag"
 	"fmt"
+	"io"
 	"slices"
 	"strconv"
 	"strings"
@@ -69,6 +70,13 @@ type scenarioOverrides struct {
 }
 
 func (o *scenarioOverrides) register(fs *flag.FlagSet) {
+	o.registerSlotsSeed(fs)
+	fs.IntVar(&o.replications, "replications", 0, "run `N` replications instead of the file's (0: keep)")
+}
+
+// registerSlotsSeed binds --slots and --seed only (tune and capacity: their
+// budget decides the replications).
+func (o *scenarioOverrides) registerSlotsSeed(fs *flag.FlagSet) {
 	fs.Int64Var(&o.slots, "slots", 0, "run `N` slots per replication instead of the file's run length (0: keep)")
 	fs.Func("seed", "use seed `N` instead of the file's run.seed", func(s string) error {
 		v, err := strconv.ParseUint(s, 10, 64)
@@ -78,7 +86,6 @@ func (o *scenarioOverrides) register(fs *flag.FlagSet) {
 		o.seed, o.seedSet = v, true
 		return nil
 	})
-	fs.IntVar(&o.replications, "replications", 0, "run `N` replications instead of the file's (0: keep)")
 }
 
 // apply changes sc's run settings as asked; the warm-up is cut to a fifth
@@ -146,7 +153,6 @@ func runRun(e *env, fs *flag.FlagSet) action {
 	traceUsers := fs.String("trace-users", "", "comma-separated user `INDICES` to trace (default: nearest, median, farthest)")
 	tracePoints := fs.Int("trace-points", 1500, "about `N` samples per traced user")
 	return func(ctx context.Context, args []string) error {
-		var err error
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
@@ -187,21 +193,9 @@ func runRun(e *env, fs *flag.FlagSet) action {
 		if err != nil {
 			return locate(sf, "scenario", err)
 		}
-		switch e.g.format {
-		case "json":
-			b, err := render.MarshalJSON(rep)
-			if err != nil {
-				return err
-			}
-			out.Writer().Write(b)
-		case "csv":
-			if err := render.RunCSV(out.Writer(), rep); err != nil {
-				return err
-			}
-		default:
-			render.RunTable(out.Writer(), rep, *perUser)
-		}
-		if err := out.commit(); err != nil {
+		err = e.emit(out, rep, func(w io.Writer) error { return render.RunCSV(w, rep) },
+			func(w io.Writer) { render.RunTable(w, rep, *perUser) })
+		if err != nil {
 			return err
 		}
 		for _, ps := range plotSpecs {

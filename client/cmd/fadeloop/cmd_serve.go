@@ -6,7 +6,6 @@ import (
 	"flag"
 	"log/slog"
 	"net"
-	"strings"
 	"time"
 
 	"github.com/fadeloop/fadeloop/service"
@@ -45,10 +44,8 @@ func runServe(e *env, fs *flag.FlagSet) action {
 	drain := fs.Duration("drain-timeout", time.Minute, "on Ctrl-C or SIGTERM, how long calls in flight may run (`DURATION`)")
 	logLevel := fs.String("log-level", "info", "log `LEVEL`: debug, info, warn or error")
 	return func(ctx context.Context, args []string) error {
-		var err error
-		rest := args
-		if len(rest) > 0 {
-			return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
+		if err := noArgs(args); err != nil {
+			return err
 		}
 		var lv slog.Level
 		if err := lv.UnmarshalText([]byte(*logLevel)); err != nil {

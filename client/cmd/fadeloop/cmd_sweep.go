@@ -5,12 +5,9 @@ import (
 	"flag"
 	"fmt"
 	"math"
-	"os"
 	"sort"
 	"strconv"
 	"strings"
-
-	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
@@ -82,7 +79,6 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf); repeatable")
 	return func(ctx context.Context, args []string) error {
-		var err error
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
@@ -93,24 +89,8 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 			return badInputf("--objective %q: must be one of std, outage, power, bler", *objective)
 		}
 		req := &pb.SweepRequest{}
-		var gridFile *client.SourceFile
-		if *grid != "" {
-			data, err := os.ReadFile(*grid)
-			if err != nil {
-				return badInput{err}
-			}
-			if gridFile, err = client.ParseMessage(*grid, data, req); err != nil {
-				return err
-			}
-		}
-		var sf *client.ScenarioFile
-		if len(args) > 0 || req.Base == nil {
-			if sf, err = loadScenario(args); err != nil {
-				return err
-			}
-			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-		}
-		if err := ov.apply(req.Base); err != nil {
+		sf, gridFile, err := loadRequest(*grid, req, &req.Base, args, &ov)
+		if err != nil {
 			return err
 		}
 		req.Axes = append(req.Axes, axes...)

@@ -4,12 +4,10 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"io"
 	"math"
-	"os"
 	"strconv"
 	"strings"
-
-	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
@@ -80,20 +78,6 @@ Examples:
 	})
 }
 
-// runSettingFlags are the run-setting flags of tune and capacity (the
-// budget decides the replications, so there is no --replications).
-func runSettingFlags(fs *flag.FlagSet, ov *scenarioOverrides) {
-	fs.Int64Var(&ov.slots, "slots", 0, "run `N` slots per replication instead of the file's run length (0: keep)")
-	fs.Func("seed", "use seed `N` instead of the file's run.seed", func(s string) error {
-		v, err := strconv.ParseUint(s, 10, 64)
-		if err != nil {
-			return fmt.Errorf("must be a whole number >= 0")
-		}
-		ov.seed, ov.seedSet = v, true
-		return nil
-	})
-}
-
 // tuneObjectives maps --objective to the proto kind.
 var tuneObjectives = map[string]pb.ObjectiveKind{
 	"std":    pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD,
@@ -101,18 +85,9 @@ var tuneObjectives = map[string]pb.ObjectiveKind{
 	"power":  pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER,
 }
 
-// readRequestFile parses a protojson request file (JSON or YAML) into m.
-func readRequestFile(path string, m proto.Message) (*client.SourceFile, error) {
-	data, err := os.ReadFile(path)
-	if err != nil {
-		return nil, badInput{err}
-	}
-	return client.ParseMessage(path, data, m)
-}
-
 func runTune(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
-	runSettingFlags(fs, &ov)
+	ov.registerSlotsSeed(fs)
 	var axes axisList
 	fs.Var(&axes, "axis", "candidate axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	var conds conditionList
@@ -132,7 +107,6 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
 	return func(ctx context.Context, args []string) error {
-		var err error
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
@@ -140,20 +114,8 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		req := &pb.TuneRequest{}
-		var reqFile *client.SourceFile
-		if *request != "" {
-			if reqFile, err = readRequestFile(*request, req); err != nil {
-				return err
-			}
-		}
-		var sf *client.ScenarioFile
-		if len(args) > 0 || req.Base == nil {
-			if sf, err = loadScenario(args); err != nil {
-				return err
-			}
-			req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-		}
-		if err := ov.apply(req.Base); err != nil {
+		sf, reqFile, err := loadRequest(*request, req, &req.Base, args, &ov)
+		if err != nil {
 			return err
 		}
 		req.Axes = append(req.Axes, axes...)
@@ -232,31 +194,14 @@ func runTune(e *env, fs *flag.FlagSet) action {
 		defer release()
 		worst := worstRuns(req)
 		prog := e.newProgress("user-slots/s")
-		rec, err := cl.Tune(ctx, req, func(p *pb.SearchProgress) {
-			prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
-		})
+		rec, err := cl.Tune(ctx, req, searchProgress(prog, worst))
 		prog.done()
 		if err != nil {
-			if inv, ok := client.AsInvalidInput(err); ok {
-				return searchLocate(sf, reqFile, inv)
-			}
-			return err
+			return searchError(sf, reqFile, err)
 		}
-		switch e.g.format {
-		case "json":
-			b, err := render.MarshalJSON(rec)
-			if err != nil {
-				return err
-			}
-			out.Writer().Write(b)
-		case "csv":
-			if err := render.TuneCSV(out.Writer(), rec); err != nil {
-				return err
-			}
-		default:
-			render.TuneTable(out.Writer(), req, rec)
-		}
-		if err := out.commit(); err != nil {
+		err = e.emit(out, rec, func(w io.Writer) error { return render.TuneCSV(w, rec) },
+			func(w io.Writer) { render.TuneTable(w, req, rec) })
+		if err != nil {
 			return err
 		}
 		for _, ps := range plotSpecs {
