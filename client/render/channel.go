@@ -29,8 +29,7 @@ func CheckTable(w io.Writer, spec *pb.ChannelSpec, generator string, resp *pb.Ch
 	if name == "" {
 		name = "custom"
 	}
-	fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f), generator %s\n",
-		name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz(), generator)
+	fmt.Fprintf(w, "channel self-check: profile %s, %s, generator %s\n", name, fading(spec), generator)
 	fmt.Fprintf(w, "%d links × %g Doppler periods each\n\n", resp.GetLinks(), resp.GetDopplerPeriods())
 	t := NewTable("check", "measured", "theory", "tolerance", "unit", "result").AlignRight(1, 2, 3)
 	for _, l := range resp.GetLines() {
@@ -63,8 +62,7 @@ func TraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, p
 	if name == "" {
 		name = "custom"
 	}
-	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)\n\n",
-		links, GroupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
+	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, %s\n\n", links, GroupDigits(samples), name, fading(spec))
 	t := NewTable("tap", "mean power (dB)", "share of total (%)").AlignRight(0, 1, 2)
 	total := 0.0
 	for _, p := range power {
@@ -77,4 +75,14 @@ func TraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, p
 	t.Add("all", Num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
 	t.Write(w)
 	fmt.Fprintln(w, "\n(each link's taps have unit total mean power: 0 dB expected in the last row)")
+}
+
+// fading describes the spec's time variation as sent: the Doppler
+// frequency and its product with the sample period, or the speed and
+// carrier the server turns into it.
+func fading(spec *pb.ChannelSpec) string {
+	if spec.GetSpeedKmh() > 0 {
+		return fmt.Sprintf("%g km/h at %g GHz carrier, sampled at %.0f Hz", spec.GetSpeedKmh(), spec.GetCarrierHz()/1e9, spec.GetSampleRateHz())
+	}
+	return fmt.Sprintf("f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)", spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
 }

@@ -109,7 +109,12 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		defer release()
 		hi := int(req.GetMaxCount())
 		if hi == 0 {
-			hi = 4096
+			// Doubling upward ends at the server's user limit at the latest.
+			info, err := cl.ServerInfo(ctx)
+			if err != nil {
+				return err
+			}
+			hi = int(info.GetLimits().GetMaxUsers())
 		}
 		r := float64(req.GetReplications())
 		if r == 0 {

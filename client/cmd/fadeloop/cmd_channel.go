@@ -15,9 +15,6 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// speedOfLightMps converts speed to Doppler: f_D = v·f_c/c.
-const speedOfLightMps = 299792458.0
-
 func init() {
 	register(&command{
 		order:   50,
@@ -75,7 +72,7 @@ type channelFlags struct {
 
 func (c *channelFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&c.dopplerHz, "doppler-hz", 0, "maximum Doppler f_D in `Hz` (instead of --speed-kmh)")
-	fs.Float64Var(&c.speedKmh, "speed-kmh", 30, "mobile speed in `km/h`; f_D = v·f_c/c")
+	fs.Float64Var(&c.speedKmh, "speed-kmh", 30, "mobile speed in `km/h` (the server sets f_D = v·f_c/c)")
 	fs.Float64Var(&c.carrierHz, "carrier-hz", 2e9, "carrier frequency in `Hz` for --speed-kmh")
 	fs.Float64Var(&c.rateHz, "rate-hz", 1500, "sample rate in `Hz` (the power-control update rate)")
 	fs.StringVar(&c.profile, "profile", "FLAT", "tap profile `NAME`: FLAT, EPA, EVA, ETU, PEDA or VEHA")
@@ -97,8 +94,9 @@ func (c *channelFlags) spec(e *env) (*pb.ChannelSpec, error) {
 			return nil, badInputf("give --doppler-hz or --speed-kmh, not both")
 		}
 		s.DopplerHz = c.dopplerHz
-	} else {
-		s.DopplerHz = c.speedKmh / 3.6 * c.carrierHz / speedOfLightMps
+	} else if c.speedKmh != 0 {
+		// The server turns speed and carrier into the Doppler frequency.
+		s.SpeedKmh, s.CarrierHz = c.speedKmh, c.carrierHz
 	}
 	switch c.generator {
 	case "default":
