@@ -38,15 +38,11 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 		if err := e.g.checkFormat("table", "json"); err != nil {
 			return err
 		}
-		out, cl, release, err := e.session()
+		out, _, release, info, err := e.infoSession(ctx)
 		if err != nil {
 			return err
 		}
 		defer release()
-		info, err := cl.ServerInfo(ctx)
-		if err != nil {
-			return err
-		}
 		w := out.Writer()
 		if e.g.format == "json" {
 			b, err := render.MarshalJSON(info)

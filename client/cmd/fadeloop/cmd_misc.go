@@ -115,15 +115,11 @@ func runBench(e *env, fs *flag.FlagSet) action {
 		if err := ov.apply(sc); err != nil {
 			return err
 		}
-		out, cl, release, err := e.session()
+		out, cl, release, info, err := e.infoSession(ctx)
 		if err != nil {
 			return err
 		}
 		defer release()
-		info, err := cl.ServerInfo(ctx)
-		if err != nil {
-			return err
-		}
 		taps, err := tapsPerUser(sc, info.GetProfiles())
 		if err != nil {
 			return err

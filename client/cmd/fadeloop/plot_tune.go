@@ -109,13 +109,7 @@ func plotTune(ps plotSpec, title string, axes []*pb.SweepAxis, rec *pb.Recommend
 			for _, cr := range crs {
 				f := cr.GetFigures()
 				o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-				l.StepDB = append(l.StepDB, coord(cr.GetCandidate(), stepPath))
-				l.OutagePct = append(l.OutagePct, 100*o.GetMean())
-				l.OutageLowPct = append(l.OutageLowPct, 100*o.GetLow())
-				l.OutageHighPct = append(l.OutageHighPct, 100*o.GetHigh())
-				l.ErrorStdDB = append(l.ErrorStdDB, s.GetMean())
-				l.ErrorStdLowDB = append(l.ErrorStdLowDB, s.GetLow())
-				l.ErrorStdHighDB = append(l.ErrorStdHighDB, s.GetHigh())
+				l.Add(coord(cr.GetCandidate(), stepPath), o.GetMean(), o.GetLow(), o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
 			}
 			ls = append(ls, l)
 		}

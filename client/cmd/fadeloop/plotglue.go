@@ -237,13 +237,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 			}
 			f := p.GetReport().GetAggregate()
 			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-			l.StepDB = append(l.StepDB, c[si])
-			l.OutagePct = append(l.OutagePct, 100*o.GetValue())
-			l.OutageLowPct = append(l.OutageLowPct, 100*o.GetCiLow())
-			l.OutageHighPct = append(l.OutageHighPct, 100*o.GetCiHigh())
-			l.ErrorStdDB = append(l.ErrorStdDB, s.GetValue())
-			l.ErrorStdLowDB = append(l.ErrorStdLowDB, s.GetCiLow())
-			l.ErrorStdHighDB = append(l.ErrorStdHighDB, s.GetCiHigh())
+			l.Add(c[si], o.GetValue(), o.GetCiLow(), o.GetCiHigh(), s.GetValue(), s.GetCiLow(), s.GetCiHigh())
 		}
 		sort.Float64s(order)
 		var ls []plots.StepLine

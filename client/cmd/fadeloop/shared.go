@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"io"
 	"math"
 	"os"
@@ -86,4 +87,18 @@ func noArgs(args []string) error {
 		return badInputf("unexpected arguments: %s", strings.Join(args, " "))
 	}
 	return nil
+}
+
+// infoSession opens a session (see env.session) and asks the server for
+// its versions, limits and profiles.
+func (e *env) infoSession(ctx context.Context) (out *output, cl *client.Client, release func(), info *pb.GetServerInfoResponse, err error) {
+	out, cl, release, err = e.session()
+	if err != nil {
+		return nil, nil, nil, nil, err
+	}
+	if info, err = cl.ServerInfo(ctx); err != nil {
+		release()
+		return nil, nil, nil, nil, err
+	}
+	return out, cl, release, info, nil
 }
