@@ -61,6 +61,10 @@ func TestCompletionManVersion(t *testing.T) {
 			t.Errorf("man page of %s: %v", c.name, err)
 		}
 	}
+	// Single-dash long flags, as the earlier parser read them.
+	if code, out, se := runIn("-format=json", "example", "-out", "-"); code != exitOK || !strings.HasPrefix(strings.TrimSpace(out), "{") {
+		t.Errorf("-format=json example -out -: exit %d\n%s%s", code, out, se)
+	}
 	if code, out, _ := runIn("--version"); code != exitOK || !strings.HasPrefix(out, "fadeloop ") {
 		t.Errorf("--version: exit %d, %q", code, out)
 	}

@@ -103,7 +103,7 @@ func main() {
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	e := &env{stdout: stdout, stderr: stderr, g: &globals{}}
 	root := newRoot(e)
-	root.SetArgs(args)
+	root.SetArgs(doubleDash(root, args))
 	root.SetOut(stdout)
 	root.SetErr(stderr)
 	c, err := root.ExecuteContextC(ctx)
@@ -112,6 +112,35 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		name = c.Name()
 	}
 	return report(stderr, name, err)
+}
+
+// doubleDash rewrites single-dash long flags (-slots 3000, -format=csv),
+// which the earlier flag parser read, to the double-dash form; arguments
+// after "--" and single letters (-h) stay as they are.
+func doubleDash(root *cobra.Command, args []string) []string {
+	names := map[string]bool{}
+	var walk func(c *cobra.Command)
+	walk = func(c *cobra.Command) {
+		c.Flags().VisitAll(func(f *pflag.Flag) { names[f.Name] = true })
+		c.PersistentFlags().VisitAll(func(f *pflag.Flag) { names[f.Name] = true })
+		for _, sub := range c.Commands() {
+			walk(sub)
+		}
+	}
+	walk(root)
+	out := make([]string, len(args))
+	for i, a := range args {
+		out[i] = a
+		if a == "--" {
+			copy(out[i:], args[i:])
+			break
+		}
+		name, _, _ := strings.Cut(strings.TrimPrefix(a, "-"), "=")
+		if len(a) > 2 && a[0] == '-' && a[1] != '-' && len(name) > 1 && names[name] {
+			out[i] = "-" + a
+		}
+	}
+	return out
 }
 
 // newRoot builds the command tree: every registered command, completion
