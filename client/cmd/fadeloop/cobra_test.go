@@ -6,8 +6,12 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"regexp"
+	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/fadeloop/fadeloop/fading"
 )
 
 // runIn runs the program in this process and returns exit status and
@@ -73,5 +77,26 @@ func TestCompletionManVersion(t *testing.T) {
 	}
 	if code, _, se := runIn("--format", "csv", "nosuch"); code != exitBadInput || !strings.Contains(se, `unknown command "nosuch"`) {
 		t.Errorf("unknown command: exit %d\n%s", code, se)
+	}
+}
+
+// TestInfoCommand: the info table lists every built-in profile of package
+// fading with its tap count (EPA: 7 taps, TS 36.101 Annex B.2 (memory)).
+func TestInfoCommand(t *testing.T) {
+	code, out, se := runIn("info")
+	if code != exitOK {
+		t.Fatalf("info: exit %d\n%s", code, se)
+	}
+	for _, name := range fading.BuiltinProfileNames() {
+		p, _ := fading.BuiltinProfile(name)
+		if !regexp.MustCompile(`(?m)^` + name + ` +` + strconv.Itoa(len(p.Taps)) + ` `).MatchString(out) {
+			t.Errorf("info lacks %s with %d taps:\n%s", name, len(p.Taps), out)
+		}
+	}
+	if !strings.Contains(out, "traced users per run") || !regexp.MustCompile(`(?m)^EPA +7 `).MatchString(out) {
+		t.Errorf("info table:\n%s", out)
+	}
+	if code, _, _ := runIn("info", "extra"); code != exitBadInput {
+		t.Errorf("info extra: exit %d, want 2", code)
 	}
 }
