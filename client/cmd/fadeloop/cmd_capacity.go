@@ -25,8 +25,8 @@ upward from --min-count until a count fails. The analytic pole capacity
 (Gilhousen et al. 1991) and the pole of the engine's own interference
 equation are printed beside the simulated figure. The group's placement
 must be uniform. Without --max-count the worst case (doubling up to the
-engine's limit of 4096 users) is what the server's cost bound is checked
-against, and it often exceeds it: give --max-count or --max-user-slots.
+server's user limit, see "fadeloop info") is what the server's cost bound
+is checked against, and it often exceeds it: give --max-count or --max-user-slots.
 
 A --request file is the protojson form (JSON or YAML) of
 fadeloop.v1.CapacityRequest; flags override its fields.
