@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"flag"
 	"fmt"
 	"os"
 	"strings"
@@ -36,15 +37,16 @@ Examples:
 	})
 }
 
-func runReport(_ context.Context, e *env, args []string) error {
-	c := lookup("report")
-	fs := e.newFlagSet(c)
+func runReport(e *env, fs *flag.FlagSet) action {
 	scenario := fs.String("scenario", "", "scenario `FILE` (JSON or YAML) to show with a sweep, tune or capacity result")
 	title := fs.String("title", "", "page `TITLE` (default: the scenario's name)")
-	rest, err := parseFlags(fs, args)
-	if err != nil {
-		return err
+	return func(_ context.Context, rest []string) error {
+		return writeHTMLReport(e, rest, *scenario, *title)
 	}
+}
+
+// writeHTMLReport reads one result file and writes its HTML report.
+func writeHTMLReport(e *env, rest []string, scenario, title string) error {
 	if len(rest) != 1 {
 		return badInputf("report takes one RESULT.json (got %d arguments: %s)", len(rest), strings.Join(rest, " "))
 	}
@@ -57,11 +59,11 @@ func runReport(_ context.Context, e *env, args []string) error {
 	if err != nil {
 		return badInputf("%s: %v", rest[0], err)
 	}
-	in.Source, in.Title, in.Created = rest[0], *title, time.Now()
-	if *scenario != "" {
-		sf, err := client.LoadScenarioFile(*scenario)
+	in.Source, in.Title, in.Created = rest[0], title, time.Now()
+	if scenario != "" {
+		sf, err := client.LoadScenarioFile(scenario)
 		if err != nil {
-			return badInputf("--scenario %s: %v", *scenario, err)
+			return badInputf("--scenario %s: %v", scenario, err)
 		}
 		in.Scenario = sf.Scenario
 		if in.Sweep != nil {
