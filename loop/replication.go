@@ -41,7 +41,8 @@ type replication struct {
 	blockB  int64
 	blkLeft int64 // slots left in the current block
 
-	col *collector
+	col    *collector
+	inputs slotInputs // the slices col reads each slot
 
 	trace    *tracer
 	idealBad int64 // slots where the joint ideal solution was infeasible
@@ -154,6 +155,8 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 	rp.blockB = int64(sc.OuterLoop.BlockSlots)
 	rp.blkLeft = rp.blockB
 	rp.col = newCollector(sh)
+	rp.inputs = slotInputs{sirLin: rp.sir, invTarget: rp.bank.invTarget, powerMW: rp.bank.p, receivedMW: rp.rx,
+		effSIRSum: rp.effAcc, effSIRCount: rp.effN, maxPowerMW: rp.bank.pmax}
 	if r == 0 && len(topt.Users) > 0 {
 		rp.trace = newTracer(topt, sh.total)
 	}
@@ -186,5 +189,12 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 	if err != nil {
 		return nil, err
 	}
-	return rp.col.result(rp), nil
+	res := rp.col.result()
+	res.idealBad = rp.idealBad
+	res.targetDB = append([]float64(nil), rp.bank.targetDB...)
+	if rp.trace != nil {
+		res.traces = rp.trace.out
+		res.traceCut = rp.trace.truncated
+	}
+	return res, nil
 }

@@ -53,14 +53,14 @@ func (rp *replication) runBlock(buf *genBuf) {
 			}
 			X := sh.f1*tot + sh.noiseMW
 			nr = X / sh.noiseMW
-			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.pending == 0 && (sh.hk == nil || !sh.hk.noFast) {
+			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.unconverged == 0 && (sh.hk == nil || !sh.hk.noFast) {
 				// Fast path: SIR, figures and block accumulation in one pass.
-				rp.col.slotFused(rp, X)
+				rp.col.slotFused(&rp.inputs, X)
 				fused = true
 			} else {
 				gp := sh.gp
 				for u, r := range rx {
-					sir[u] = gp * r / (X - r)
+					sir[u] = sirOf(gp, r, X)
 				}
 			}
 		}
@@ -94,15 +94,21 @@ func (rp *replication) runBlock(buf *genBuf) {
 		if fused {
 			rp.col.slotTail(t, nr)
 		} else {
-			rp.col.slot(t, rp, nr, act)
+			rp.col.slot(t, &rp.inputs, nr, act)
 			rp.accumulate(act)
 		}
 		if rp.trace != nil {
-			rp.trace.slot(t, rp, act)
+			rp.trace.slot(t, rp.sir, rp.bank.targetDB, rp.bank.p, rp.gcol, act)
 		}
 		rp.blockCheck(t)
 	}
 }
+
+// sirOf is the SIR of a user at the shared receiver: G_p·r/(X − r), with r
+// the user's received power and X = (1+f)·Σ r + N the total interference
+// plus noise including the user itself (mW); G_p is the processing gain.
+// The one place this formula is written.
+func sirOf(gp, r, X float64) float64 { return gp * r / (X - r) }
 
 // accumulate adds this slot to each active user's block accumulator of
 // the effective SIR.
