@@ -135,7 +135,7 @@ func newCollector(sh *shared) *collector {
 	c.statSum = make([]float64, (n+c.sets)*nStat)
 	c.statSumSq = make([]float64, (n+c.sets)*nStat)
 	c.statBatches = make([]int32, (n+c.sets)*nStat)
-	c.batchCount = sh.sc.Run.Batches
+	c.batchCount = sh.batches
 	c.measuredSlots = sh.total - sh.warm
 	c.nextBatchEnd = sh.warm + c.measuredSlots/int64(c.batchCount)
 	if c.nextBatchEnd == sh.warm {

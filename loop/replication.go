@@ -190,6 +190,9 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 		return nil, err
 	}
 	res := rp.col.result()
+	if rp.sh.pool != nil {
+		rp.sh.pool.addCollector(rp.col)
+	}
 	res.idealBad = rp.idealBad
 	res.targetDB = append([]float64(nil), rp.bank.targetDB...)
 	if rp.trace != nil {

@@ -11,13 +11,22 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// Estimate is a point estimate with its 95 % confidence interval. Within
-// one replication the interval comes from batch means over time (Student t
-// over the batches); with several replications, from the spread across
-// replications (Student t over them). Proportions use the Wilson score
-// interval with the effective sample size implied by that spread. When no
-// spread is available (one batch, one replication) the interval collapses
-// to the value.
+// Estimate is a point estimate with its 95 % confidence interval, always
+// inside the quantity's range. With one replication the interval comes
+// from batch means over time (batches spanning >= BatchDecorrelationTimes
+// decorrelation times, see effectiveBatches); with several replications the
+// value is pooled over all replications' samples and the interval comes
+// from the spread of the per-replication values. Means and percentiles use
+// Student t over the batches or replications (Student 1908), clamped to the
+// quantity's physical range (Tx power within [min, max] dBm, noise rise
+// >= 0 dB); proportions use the Wilson score interval (Wilson 1927) on the
+// effective sample size p(1−p)/se² with the t quantile in place of z
+// (Korn & Graubard 1998, memory), capped at the number of decorrelation
+// times observed; the SIR-error std and the convergence time, which are
+// positive, use Student t on the log scale (delta method: half-width
+// t·se/value), so their intervals never go below zero. When no spread is
+// available (one batch and one replication) the interval collapses to the
+// value.
 type Estimate struct {
 	Value  float64 `json:"value"`
 	CILow  float64 `json:"ci_low"`
@@ -150,26 +159,31 @@ var (
 
 const z95 = 1.959963984540054
 
-// wilson is the Wilson score interval of a proportion p with n samples.
-func wilson(p, n float64) (lo, hi float64) {
+// wilson is the Wilson score interval of a proportion p with n samples and
+// quantile z (Wilson, J. Am. Stat. Assoc. 22, 1927); always inside [0, 1].
+func wilson(p, n, z float64) (lo, hi float64) {
 	if !(n > 0) {
 		return p, p
 	}
-	z2 := z95 * z95
+	z2 := z * z
 	den := 1 + z2/n
 	c := (p + z2/(2*n)) / den
-	h := z95 * math.Sqrt(p*(1-p)/n+z2/(4*n*n)) / den
+	h := z * math.Sqrt(p*(1-p)/n+z2/(4*n*n)) / den
 	return math.Max(0, c-h), math.Min(1, c+h)
 }
 
-// combined is one statistic over replications: value, standard error and
-// its degrees of freedom.
+// combined is one statistic of a set: value, standard error and its
+// degrees of freedom.
 type combined struct {
 	v, se float64
 	dof   int
 	ok    bool
 }
 
+// combine is the statistic over replications: with one, its own value
+// and batch-means standard error; with R > 1, the mean of the values, the
+// standard error of that mean from their spread and R−1 degrees of freedom
+// (the caller replaces the value by the pooled one where it has it).
 func combine(vals []float64, ses []float64, dofs []int) combined {
 	R := len(vals)
 	if R == 0 {
@@ -191,23 +205,84 @@ func combine(vals []float64, ses []float64, dofs []int) combined {
 	return combined{v: m, se: math.Sqrt(v / float64(R)), dof: R - 1, ok: true}
 }
 
-func (c combined) estimate() Estimate {
+// half is the t half-width (0 without spread).
+func (c combined) half() float64 {
 	h := tQuantile(c.dof) * c.se
 	if c.dof == 0 || !(h >= 0) {
-		h = 0
+		return 0
 	}
+	return h
+}
+
+// estimate is value ± t·se (a quantity without limits).
+func (c combined) estimate() Estimate {
+	h := c.half()
 	return Estimate{Value: c.v, CILow: c.v - h, CIHigh: c.v + h}
 }
 
-// proportion is the Wilson interval with n_eff = p(1−p)/se², capped at the
-// sample count.
-func (c combined) proportion(samples float64) Estimate {
-	nEff := samples
+// within is value ± t·se clamped to the quantity's range [lo, hi].
+func (c combined) within(lo, hi float64) Estimate {
+	e := c.estimate()
+	e.Value = min(max(e.Value, lo), hi)
+	e.CILow = min(max(e.CILow, lo), e.Value)
+	e.CIHigh = max(min(e.CIHigh, hi), e.Value)
+	return e
+}
+
+// positive is the interval of a positive quantity on the log scale:
+// value·exp(±t·se/value) (delta method), never below zero.
+func (c combined) positive() Estimate {
+	if !(c.v > 0) {
+		return Estimate{Value: math.Max(c.v, 0), CILow: math.Max(c.v, 0), CIHigh: math.Max(c.v, 0)}
+	}
+	h := c.half() / c.v
+	return Estimate{Value: c.v, CILow: c.v * math.Exp(-h), CIHigh: c.v * math.Exp(h)}
+}
+
+// proportion is the Wilson interval with n_eff = p(1−p)/se² (the sample
+// size a binomial proportion with this standard error would have), capped
+// at the samples, and the t quantile of the spread's degrees of freedom (z
+// without spread). When the spread says nothing (p = 0 or 1, or equal
+// values in every batch), n_eff is the independent samples indep (one per
+// decorrelation time), not the correlated samples.
+func (c combined) proportion(samples, indep float64) Estimate {
+	nEff := math.Min(samples, indep)
 	if c.se > 0 && c.v > 0 && c.v < 1 {
 		nEff = math.Min(samples, c.v*(1-c.v)/(c.se*c.se))
 	}
-	lo, hi := wilson(c.v, nEff)
-	return Estimate{Value: c.v, CILow: lo, CIHigh: hi}
+	z := z95
+	if c.dof > 0 {
+		z = tQuantile(c.dof)
+	}
+	v := min(max(c.v, 0), 1)
+	lo, hi := wilson(v, nEff, z)
+	return Estimate{Value: v, CILow: min(lo, v), CIHigh: max(hi, v)}
+}
+
+// independentSamples bounds the independent samples among n user-slots
+// (or n blocks of blockSlots slots): one per decorrelation time.
+func (sh *shared) independentSamples(n int64, slotsEach float64) float64 {
+	x := float64(n)
+	if sh.decorrSlots > slotsEach {
+		x *= slotsEach / sh.decorrSlots
+	}
+	return math.Max(x, 1)
+}
+
+// pooledValues are the point values of set i over all replications (pool):
+// percentiles, mean and std from the pooled histograms, proportions and
+// the mean power from the summed counts (in replication order).
+func (sh *shared) pooledValues(results []*repResult, i int) [nStat]float64 {
+	var cnt, out, mx, blk, errs int64
+	var psum float64
+	for _, r := range results {
+		s := &r.sets[i]
+		cnt, out, mx, blk, errs, psum = cnt+s.slots, out+s.outage, mx+s.atMax, blk+s.blocks, errs+s.blockErrs, psum+s.powSumMW
+	}
+	var hsS, hsP histStats
+	sh.pool.sir[i].stats(sh.sl, &hsS)
+	sh.pool.pow[i].stats(sh.pl, &hsP)
+	return pointValues(&hsS, &hsP, cnt, out, mx, blk, errs, psum)
 }
 
 // figures combines set i of every replication.
@@ -215,6 +290,10 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	R := len(results)
 	vals, ses := make([]float64, 0, R), make([]float64, 0, R)
 	dofs := make([]int, 0, R)
+	var pooled [nStat]float64
+	if sh.pool != nil {
+		pooled = sh.pooledValues(results, i)
+	}
 	stat := func(st int) combined {
 		vals, ses, dofs = vals[:0], ses[:0], dofs[:0]
 		for _, r := range results {
@@ -225,7 +304,11 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 				dofs = append(dofs, s.dof[st])
 			}
 		}
-		return combine(vals, ses, dofs)
+		c := combine(vals, ses, dofs)
+		if sh.pool != nil && c.ok {
+			c.v = pooled[st]
+		}
+		return c
 	}
 	var f Figures
 	var slots, blocks int64
@@ -233,20 +316,20 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		slots += r.sets[i].slots
 		blocks += r.sets[i].blocks
 	}
+	il := sh.sc.InnerLoop
 	f.Users = results[0].sets[i].users
 	f.UserSlots = slots
 	f.SIRErrorMeanDB = stat(stSIRMean).estimate()
-	f.SIRErrorStdDB = stat(stSIRStd).estimate()
-	f.SIRErrorPercentilesDB = percentiles(stat, stSIRQ)
-	f.TxPowerPercentilesDBm = percentiles(stat, stPowQ)
-	f.OutageProbability = stat(stOutage).proportion(float64(slots))
-	b := stat(stBLER)
-	f.AchievedBLER = b.proportion(float64(blocks))
+	f.SIRErrorStdDB = stat(stSIRStd).positive()
+	f.SIRErrorPercentilesDB = percentiles(stat, stSIRQ, math.Inf(-1), math.Inf(1))
+	f.TxPowerPercentilesDBm = percentiles(stat, stPowQ, il.MinPowerDBm, il.MaxPowerDBm)
+	f.OutageProbability = stat(stOutage).proportion(float64(slots), sh.independentSamples(slots, 1))
+	f.AchievedBLER = stat(stBLER).proportion(float64(blocks), sh.independentSamples(blocks, float64(sh.sc.OuterLoop.BlockSlots)))
 	tau := sh.sc.OuterLoop.BLERTarget
 	f.BLERTargetError = Estimate{f.AchievedBLER.Value - tau, f.AchievedBLER.CILow - tau, f.AchievedBLER.CIHigh - tau}
-	f.TxPowerMeanDBm = stat(stPowMean).estimate()
-	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots))
-	// Noise rise: the receiver's.
+	f.TxPowerMeanDBm = stat(stPowMean).within(il.MinPowerDBm, il.MaxPowerDBm)
+	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots), sh.independentSamples(slots, 1))
+	// Noise rise: the receiver's, >= 0 dB.
 	var nm, np, nmSE, npSE []float64
 	var nd []int
 	for _, r := range results {
@@ -254,9 +337,16 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		nmSE, npSE = append(nmSE, r.nrSE[0]), append(npSE, r.nrSE[1])
 		nd = append(nd, r.nrDof)
 	}
-	f.NoiseRiseMeanDB = combine(nm, nmSE, nd).estimate()
-	f.NoiseRiseP95DB = combine(np, npSE, nd).estimate()
-	// Convergence: across replications for a user, across users for a set.
+	cm, cp := combine(nm, nmSE, nd), combine(np, npSE, nd)
+	if sh.pool != nil {
+		var hn histStats
+		sh.pool.rise.stats(sh.nl, &hn)
+		cm.v, cp.v = hn.mean, hn.q[3]
+	}
+	f.NoiseRiseMeanDB = cm.within(0, math.Inf(1))
+	f.NoiseRiseP95DB = cp.within(0, math.Inf(1))
+	// Convergence: across replications for a user, across users for a set
+	// (each user's time averaged over the replications); positive.
 	var cv []float64
 	if i < sh.n {
 		for _, r := range results {
@@ -276,19 +366,15 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	if len(cv) > 0 {
 		zero := make([]float64, len(cv))
 		dz := make([]int, len(cv))
-		if len(cv) == 1 {
-			f.ConvergenceTimeS = combine(cv, zero[:1], dz[:1]).estimate()
-		} else {
-			f.ConvergenceTimeS = combine(cv, zero, dz).estimate()
-		}
+		f.ConvergenceTimeS = combine(cv, zero, dz).positive()
 	}
 	return f
 }
 
-func percentiles(stat func(int) combined, base int) Percentiles {
+func percentiles(stat func(int) combined, base int, lo, hi float64) Percentiles {
 	return Percentiles{
-		P1: stat(base).estimate(), P5: stat(base + 1).estimate(), P50: stat(base + 2).estimate(),
-		P95: stat(base + 3).estimate(), P99: stat(base + 4).estimate(),
+		P1: stat(base).within(lo, hi), P5: stat(base + 1).within(lo, hi), P50: stat(base + 2).within(lo, hi),
+		P95: stat(base + 3).within(lo, hi), P99: stat(base + 4).within(lo, hi),
 	}
 }
 
@@ -318,6 +404,9 @@ func (sh *shared) report(results []*repResult) *Report {
 			MaxDistanceM: sh.binEdges[b+1], Figures: sh.figures(results, n+b)})
 	}
 	rep.Aggregate = sh.figures(results, n+sh.nbins)
+	if sh.batchNote != "" && len(results) == 1 {
+		rep.Notes = append(rep.Notes, sh.batchNote)
+	}
 	if results[0].traces != nil {
 		rep.Traces = results[0].traces
 		if results[0].traceCut {

@@ -7,8 +7,12 @@ import "math"
 // degrees of freedom (K−1 batches), and the sample sizes.
 type setResult struct {
 	users  int
-	slots  int64
+	slots  int64 // active measured user-slots
 	blocks int64
+	// Counts behind the proportions and the mean power, for pooling
+	// replications in replication order.
+	outage, atMax, blockErrs int64
+	powSumMW                 float64
 	val    [nStat]float64
 	se     [nStat]float64
 	dof    [nStat]int
@@ -32,21 +36,29 @@ type repResult struct {
 	traceCut  bool
 }
 
-func (c *collector) setValues(i int, hsS, hsP *histStats, cnt, out, mx, blk, errs int64, psum float64) setResult {
-	r := setResult{slots: cnt, blocks: blk}
+// pointValues are the statistics of a set over a run from its SIR-error
+// and Tx-power histograms and counters (slots, outage, at max, blocks,
+// block errors, Σ power in mW).
+func pointValues(hsS, hsP *histStats, cnt, out, mx, blk, errs int64, psum float64) (val [nStat]float64) {
 	if cnt > 0 {
-		r.val[stSIRMean], r.val[stSIRStd] = hsS.mean, hsS.std
+		val[stSIRMean], val[stSIRStd] = hsS.mean, hsS.std
 		for q := range 5 {
-			r.val[stSIRQ+q] = hsS.q[q]
-			r.val[stPowQ+q] = hsP.q[q]
+			val[stSIRQ+q] = hsS.q[q]
+			val[stPowQ+q] = hsP.q[q]
 		}
-		r.val[stOutage] = float64(out) / float64(cnt)
-		r.val[stMaxFrac] = float64(mx) / float64(cnt)
-		r.val[stPowMean] = linToDB(psum / float64(cnt))
+		val[stOutage] = float64(out) / float64(cnt)
+		val[stMaxFrac] = float64(mx) / float64(cnt)
+		val[stPowMean] = linToDB(psum / float64(cnt))
 		if blk > 0 {
-			r.val[stBLER] = float64(errs) / float64(blk)
+			val[stBLER] = float64(errs) / float64(blk)
 		}
 	}
+	return val
+}
+
+func (c *collector) setValues(i int, hsS, hsP *histStats, cnt, out, mx, blk, errs int64, psum float64) setResult {
+	r := setResult{slots: cnt, blocks: blk, outage: out, atMax: mx, blockErrs: errs, powSumMW: psum}
+	r.val = pointValues(hsS, hsP, cnt, out, mx, blk, errs, psum)
 	for st := 0; st < nStat; st++ {
 		j := i*nStat + st
 		k := int(c.statBatches[j])

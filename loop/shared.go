@@ -28,6 +28,11 @@ type shared struct {
 	marginLin  float64
 	convW      int
 	convTolDB  float64
+
+	decorrSlots float64 // longest decorrelation time of a user, slots (decorrelationSlots)
+	batches     int     // batches per replication (effectiveBatches)
+	batchNote   string  // why batches differs from run.batches, or ""
+	pool        *pool   // histograms pooled over replications (nil with one replication)
 }
 
 // Convergence rule: a user has converged at the first slot where the mean
@@ -60,12 +65,20 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	}
 	s.sl = layoutForDB(-48, 48, m)
 	s.pl = layoutForDB(il.MinPowerDBm, il.MaxPowerDBm, m)
+	s.pl.limitDB(il.MinPowerDBm, il.MaxPowerDBm) // Tx power never leaves [min, max]
 	s.nl = layoutForDB(0, 60, 9)
 	s.marginLin = dbToLin(-sc.Run.OutageMarginDB)
 	s.convW = max(1, int(math.Round(ConvergenceWindowS*s.rateHz)))
 	s.convTolDB = ConvergenceToleranceDB
+	if hk == nil || (hk.static == nil && hk.matrix == nil) { // hooks replace fading by static gains
+		s.decorrSlots = decorrelationSlots(sc, users, s.rateHz)
+	}
+	s.batches, s.batchNote = effectiveBatches(sc.Run.Batches, s.total-s.warm, s.decorrSlots)
 	// Distance bins: equal width over the users' distance range.
 	s.nbins = sc.Run.DistanceBins
+	if sc.Run.Replications > 1 {
+		s.pool = newPool(s.n + s.nbins + 1)
+	}
 	dmin, dmax := math.Inf(1), math.Inf(-1)
 	for _, u := range users {
 		dmin, dmax = math.Min(dmin, u.distanceM), math.Max(dmax, u.distanceM)
