@@ -373,8 +373,8 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 
 func percentiles(stat func(int) combined, base int, lo, hi float64) Percentiles {
 	return Percentiles{
-		P1: stat(base).within(lo, hi), P5: stat(base + 1).within(lo, hi), P50: stat(base + 2).within(lo, hi),
-		P95: stat(base + 3).within(lo, hi), P99: stat(base + 4).within(lo, hi),
+		P1: stat(base).within(lo, hi), P5: stat(base+1).within(lo, hi), P50: stat(base+2).within(lo, hi),
+		P95: stat(base+3).within(lo, hi), P99: stat(base+4).within(lo, hi),
 	}
 }
 

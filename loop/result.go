@@ -13,11 +13,11 @@ type setResult struct {
 	// replications in replication order.
 	outage, atMax, blockErrs int64
 	powSumMW                 float64
-	val    [nStat]float64
-	se     [nStat]float64
-	dof    [nStat]int
-	ok     [nStat]bool
-	conv   float64 // mean convergence time over the set's users, s
+	val                      [nStat]float64
+	se                       [nStat]float64
+	dof                      [nStat]int
+	ok                       [nStat]bool
+	conv                     float64 // mean convergence time over the set's users, s
 }
 
 // repResult is one replication's figures.
