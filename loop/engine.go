@@ -139,6 +139,9 @@ func run(ctx context.Context, sc Scenario, opts RunOptions, hk *hooks) (*Report,
 		}
 	}
 	sh := newShared(sc, users, hk)
+	if fz, ok := sh.preRunFeasibility(); !ok {
+		return sh.infeasibleReport(fz, start), nil
+	}
 	R := sc.Run.Replications
 	total := sc.TotalSlots()
 	totalWork := int64(len(users)) * total * int64(R)

@@ -3,11 +3,9 @@ package loop
 import (
 	"fmt"
 	"math"
-	"sort"
-	"strings"
 	"sync"
+	"time"
 
-	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
@@ -436,81 +434,21 @@ func (sh *shared) report(results []*repResult) *Report {
 	return rep
 }
 
-// loadFactor is (1+f)·Σ_i a_i·γ_i/(G_p+γ_i) for targets in dB.
-func (sh *shared) loadFactor(targetDB func(u int) float64) float64 {
-	s := 0.0
-	for u := 0; u < sh.n; u++ {
-		g := dbToLin(targetDB(u))
-		a := sh.sc.Groups[sh.users[u].group].ActivityFactor
-		s += a * g / (sh.gp + g)
+// infeasibleReport is the Report of a run found infeasible before any slot
+// was simulated: no figures (zero, no users or bins), the feasibility
+// verdict, and what reproduces it.
+func (sh *shared) infeasibleReport(fz Feasibility, start time.Time) *Report {
+	rep := &Report{
+		NormalisedScenario: sh.sc,
+		Seed:               sh.sc.Run.Seed,
+		EngineVersion:      EngineVersion,
+		Replications:       sh.sc.Run.Replications,
+		Users:              []UserFigures{},
+		DistanceBins:       []DistanceBinFigures{},
+		Traces:             []UserTrace{},
+		Feasibility:        fz,
+		Notes:              []string{"infeasible load found before the run: no slots simulated, no figures"},
 	}
-	return sh.f1 * s
-}
-
-func (sh *shared) feasibility(results []*repResult, rep *Report) Feasibility {
-	var fz Feasibility
-	var reasons []string
-	mode := sh.sc.InnerLoop.Mode
-	if sh.hk != nil && sh.hk.matrix != nil {
-		fz.SpectralRadius = spectralRadius(sh.hk.matrix, dbToLin(sh.sc.OuterLoop.InitialTargetDB))
-		if fz.SpectralRadius >= 1 {
-			reasons = append(reasons, fmt.Sprintf("spectral radius of the normalised link-gain matrix at the target is %.4g >= 1: no powers reach the target (Foschini & Miljanic 1993)", fz.SpectralRadius))
-		}
-	} else {
-		l0 := sh.loadFactor(func(int) float64 { return sh.sc.OuterLoop.InitialTargetDB })
-		l1 := sh.loadFactor(func(u int) float64 { return results[0].targetDB[u] })
-		fz.LoadFactor = math.Max(l0, l1)
-		if fz.LoadFactor >= 1 {
-			reasons = append(reasons, fmt.Sprintf("pole capacity exceeded: load factor (1+f)·Σ a·γ/(G_p+γ) = %.4g >= 1, no powers give every user its target", fz.LoadFactor))
-		}
-	}
-	if mode == InnerModeClosedLoop || mode == InnerModeIdeal {
-		for _, u := range rep.Users {
-			if u.Figures.MaxPowerFraction.Value >= 0.5 && u.Figures.OutageProbability.Value >= 0.5 {
-				fz.Users = append(fz.Users, u.User)
-			}
-		}
-		if len(fz.Users) > 0 {
-			reasons = append(reasons, fmt.Sprintf("%d users are pinned at max_power_dbm below target (at maximum power and in outage in >= 50 %% of slots)", len(fz.Users)))
-		}
-	}
-	if mode == InnerModeIdeal {
-		var bad int64
-		for _, r := range results {
-			bad += r.idealBad
-		}
-		if fr := float64(bad) / float64(sh.total*int64(len(results))); fr > 0.01 {
-			reasons = append(reasons, fmt.Sprintf("the ideal joint power solution does not exist in %.3g %% of slots", 100*fr))
-		}
-	}
-	sort.Ints(fz.Users)
-	if fz.Users == nil {
-		fz.Users = []int{}
-	}
-	fz.Infeasible = len(reasons) > 0
-	fz.Reason = strings.Join(reasons, "; ")
-	return fz
-}
-
-// spectralRadius is ρ(F) with F_ij = γ·G_ij/G_ii for j ≠ i, 0 on the
-// diagonal (gonum mat eigenvalues).
-func spectralRadius(G [][]float64, gamma float64) float64 {
-	n := len(G)
-	F := mat.NewDense(n, n, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			if i != j {
-				F.Set(i, j, gamma*G[i][j]/G[i][i])
-			}
-		}
-	}
-	var e mat.Eigen
-	if !e.Factorize(F, mat.EigenNone) {
-		return math.NaN()
-	}
-	r := 0.0
-	for _, v := range e.Values(nil) {
-		r = math.Max(r, math.Hypot(real(v), imag(v)))
-	}
-	return r
+	rep.WallTimeS = time.Since(start).Seconds()
+	return rep
 }
