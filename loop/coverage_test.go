@@ -2,8 +2,8 @@ package loop
 
 import (
 	"context"
-	"fmt"
 	"math"
+	"sort"
 	"testing"
 )
 
@@ -160,7 +160,13 @@ func TestIntervalCoverage(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			cov, n := measureCoverage(t, c, m, 40)
-			for name, v := range cov {
+			names := make([]string, 0, len(cov))
+			for name := range cov {
+				names = append(names, name)
+			}
+			sort.Strings(names)
+			for _, name := range names {
+				v := cov[name]
 				t.Logf("%-20s coverage %.3f over %d runs", name, v, n[name])
 				if v < minCov {
 					t.Errorf("%s: coverage %.3f < %.3f (nominal 0.95, %d runs)", name, v, minCov, n[name])
@@ -168,5 +174,4 @@ func TestIntervalCoverage(t *testing.T) {
 			}
 		})
 	}
-	_ = fmt.Sprint
 }
