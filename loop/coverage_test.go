@@ -149,17 +149,21 @@ func TestIntervalCoverage(t *testing.T) {
 		{"slow-2rep", 3, 2, 6000, false},
 		{"slow-5rep", 3, 5, 3000, false},
 	}
+	longFactor := int64(40)
 	if testing.Short() {
 		m = 120
-		if raceEnabled {
-			m = 60
-		}
 		cases = []coverageCase{cases[1], cases[2], cases[4]}
+		if raceEnabled {
+			// Under the race detector (CI): the case where the old
+			// normal-quantile intervals failed worst (0.69 for outage).
+			m, longFactor = 40, 10
+			cases = []coverageCase{{"slow-2rep", 3, 2, 6000, false}}
+		}
 	}
 	minCov := 0.95 - 4*math.Sqrt(0.95*0.05/float64(m))
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			cov, n := measureCoverage(t, c, m, 40)
+			cov, n := measureCoverage(t, c, m, longFactor)
 			names := make([]string, 0, len(cov))
 			for name := range cov {
 				names = append(names, name)

@@ -33,7 +33,9 @@ func TestReplicationsPooled(t *testing.T) {
 	}
 	w := func(a, b float64) float64 { return (n1*a + n2*b) / N }
 	m := w(single[0].SIRErrorMeanDB.Value, single[1].SIRErrorMeanDB.Value)
-	sq := func(f Figures) float64 { return f.SIRErrorStdDB.Value*f.SIRErrorStdDB.Value + f.SIRErrorMeanDB.Value*f.SIRErrorMeanDB.Value }
+	sq := func(f Figures) float64 {
+		return f.SIRErrorStdDB.Value*f.SIRErrorStdDB.Value + f.SIRErrorMeanDB.Value*f.SIRErrorMeanDB.Value
+	}
 	std := math.Sqrt(w(sq(single[0]), sq(single[1])) - m*m)
 	pow := linToDB(w(dbToLin(single[0].TxPowerMeanDBm.Value), dbToLin(single[1].TxPowerMeanDBm.Value)))
 	for _, c := range []struct {
