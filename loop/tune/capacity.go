@@ -285,7 +285,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			return false, err
 		}
 		fg := figures(samples, conf)
-		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg, Pass: fg.OutageProb.Mean <= req.OutageLimit}
+		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg, Pass: fg.InfeasibleReplications == 0 && fg.OutageProb.Mean <= req.OutageLimit}
 		memo[n] = p
 		return p.Pass, nil
 	}

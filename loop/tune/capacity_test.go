@@ -133,6 +133,10 @@ func meanOutage(t *testing.T, base loop.Scenario, n, reps int) float64 {
 		if err != nil {
 			t.Fatal(err)
 		}
+		if rep.Feasibility.Infeasible && rep.SimulatedUserSlots == 0 {
+			sum++ // found infeasible before the run (no figures): every user fails
+			continue
+		}
 		sum += rep.Aggregate.OutageProbability.Value
 	}
 	return sum / float64(reps)
