@@ -14,7 +14,7 @@ import (
 
 // EngineVersion identifies the engine that produced a Report; it changes
 // whenever the same (scenario, seed) could give different figures.
-const EngineVersion = "fadeloop-loop/1.0.0"
+const EngineVersion = "fadeloop-loop/1.1.0"
 
 // Random stream kinds of package loop (fading.NewStream; fading's own kinds
 // are below 100). Index is 0 for all of them.
