@@ -41,9 +41,13 @@ func (c *collector) endBatch() {
 		c.setPowSum[i] = 0
 	}
 	if c.fullScan {
+		// The fast path did not track the used bins: find them.
+		ss, ps := sh.sl.size(), sh.pl.size()
 		for u := 0; u < n; u++ {
-			c.sirLo[u], c.sirHi[u] = 0, int32(sh.sl.size()-1)
-			c.powLo[u], c.powHi[u] = 0, int32(sh.pl.size()-1)
+			lo, hi := usedRange(c.sirBatch[u*c.sirStride : u*c.sirStride+ss])
+			c.sirLo[u], c.sirHi[u] = int32(lo), int32(hi)
+			lo, hi = usedRange(c.powBatch[u*c.powStride : u*c.powStride+ps])
+			c.powLo[u], c.powHi[u] = int32(lo), int32(hi)
 		}
 		c.fullScan = false
 	}
