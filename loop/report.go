@@ -245,12 +245,12 @@ func (c combined) positive() Estimate {
 // decorrelation time), not the correlated samples.
 func (c combined) proportion(samples, indep float64) Estimate {
 	nEff := math.Min(samples, indep)
+	z := z95 // binomial on the independent samples: no variance estimated
 	if c.se > 0 && c.v > 0 && c.v < 1 {
 		nEff = math.Min(samples, c.v*(1-c.v)/(c.se*c.se))
-	}
-	z := z95
-	if c.dof > 0 {
-		z = tQuantile(c.dof)
+		if c.dof > 0 {
+			z = tQuantile(c.dof) // the variance comes from dof+1 values
+		}
 	}
 	v := min(max(c.v, 0), 1)
 	lo, hi := wilson(v, nEff, z)
@@ -258,13 +258,15 @@ func (c combined) proportion(samples, indep float64) Estimate {
 }
 
 // independentSamples bounds the independent samples among n user-slots
-// (or n blocks of blockSlots slots): one per decorrelation time.
-func (sh *shared) independentSamples(n int64, slotsEach float64) float64 {
+// (or n blocks of slotsEach slots) of a set of users over reps
+// replications: one per decorrelation time, and at least one per user and
+// replication (users' channels and replications are independent).
+func (sh *shared) independentSamples(n int64, slotsEach float64, users, reps int) float64 {
 	x := float64(n)
 	if sh.decorrSlots > slotsEach {
 		x *= slotsEach / sh.decorrSlots
 	}
-	return math.Max(x, 1)
+	return math.Min(float64(n), math.Max(x, float64(users*reps)))
 }
 
 // pooledValues are the point values of set i over all replications (pool):
@@ -321,12 +323,12 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	f.SIRErrorStdDB = stat(stSIRStd).positive()
 	f.SIRErrorPercentilesDB = percentiles(stat, stSIRQ, math.Inf(-1), math.Inf(1))
 	f.TxPowerPercentilesDBm = percentiles(stat, stPowQ, il.MinPowerDBm, il.MaxPowerDBm)
-	f.OutageProbability = stat(stOutage).proportion(float64(slots), sh.independentSamples(slots, 1))
-	f.AchievedBLER = stat(stBLER).proportion(float64(blocks), sh.independentSamples(blocks, float64(sh.sc.OuterLoop.BlockSlots)))
+	f.OutageProbability = stat(stOutage).proportion(float64(slots), sh.independentSamples(slots, 1, f.Users, R))
+	f.AchievedBLER = stat(stBLER).proportion(float64(blocks), sh.independentSamples(blocks, float64(sh.sc.OuterLoop.BlockSlots), f.Users, R))
 	tau := sh.sc.OuterLoop.BLERTarget
 	f.BLERTargetError = Estimate{f.AchievedBLER.Value - tau, f.AchievedBLER.CILow - tau, f.AchievedBLER.CIHigh - tau}
 	f.TxPowerMeanDBm = stat(stPowMean).within(il.MinPowerDBm, il.MaxPowerDBm)
-	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots), sh.independentSamples(slots, 1))
+	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots), sh.independentSamples(slots, 1, f.Users, R))
 	// Noise rise: the receiver's, >= 0 dB.
 	var nm, np, nmSE, npSE []float64
 	var nd []int
