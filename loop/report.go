@@ -438,7 +438,7 @@ func (sh *shared) report(results []*repResult) *Report {
 
 // infeasibleReport is the Report of a run found infeasible before any slot
 // was simulated: no figures (zero, no users or bins), the feasibility
-// verdict, and what reproduces it.
+// verdict, the user count (Aggregate.Users) and what reproduces it.
 func (sh *shared) infeasibleReport(fz Feasibility, start time.Time) *Report {
 	rep := &Report{
 		NormalisedScenario: sh.sc,
@@ -451,6 +451,7 @@ func (sh *shared) infeasibleReport(fz Feasibility, start time.Time) *Report {
 		Feasibility:        fz,
 		Notes:              []string{"infeasible load found before the run: no slots simulated, no figures"},
 	}
+	rep.Aggregate.Users = sh.n
 	rep.WallTimeS = time.Since(start).Seconds()
 	return rep
 }
