@@ -22,22 +22,8 @@ type pooledHist struct {
 	n      uint64
 }
 
-func (h *pooledHist) add(counts []uint64, lo, hi int) {
-	if lo > hi {
-		return
-	}
-	if h.counts == nil {
-		h.counts = make([]uint64, len(counts))
-		h.lo, h.hi = lo, hi
-	}
-	h.lo, h.hi = min(h.lo, lo), max(h.hi, hi)
-	for j := lo; j <= hi; j++ {
-		h.counts[j] += counts[j]
-		h.n += counts[j]
-	}
-}
-
-func (h *pooledHist) add32(counts []uint32, lo, hi int) {
+// addCounts adds the counts of bins [lo, hi] to h.
+func addCounts[T uint32 | uint64](h *pooledHist, counts []T, lo, hi int) {
 	if lo > hi {
 		return
 	}
@@ -71,15 +57,15 @@ func (p *pool) addCollector(c *collector) {
 	defer p.mu.Unlock()
 	n := c.users
 	for u := 0; u < n; u++ {
-		p.sir[u].add32(c.sirCum[u*c.sirStride:(u+1)*c.sirStride], int(c.sirLoCum[u]), int(c.sirHiCum[u]))
-		p.pow[u].add32(c.powCum[u*c.powStride:(u+1)*c.powStride], int(c.powLoCum[u]), int(c.powHiCum[u]))
+		addCounts(&p.sir[u], c.sirCum[u*c.sirStride:(u+1)*c.sirStride], int(c.sirLoCum[u]), int(c.sirHiCum[u]))
+		addCounts(&p.pow[u], c.powCum[u*c.powStride:(u+1)*c.powStride], int(c.powLoCum[u]), int(c.powHiCum[u]))
 	}
 	for s := 0; s < c.sets; s++ {
 		if c.setSIRCum[s] == nil {
 			continue
 		}
-		p.sir[n+s].add(c.setSIRCum[s], c.setSIRLoCum[s], c.setSIRHiCum[s])
-		p.pow[n+s].add(c.setPowCum[s], c.setPowLoCum[s], c.setPowHiCum[s])
+		addCounts(&p.sir[n+s], c.setSIRCum[s], c.setSIRLoCum[s], c.setSIRHiCum[s])
+		addCounts(&p.pow[n+s], c.setPowCum[s], c.setPowLoCum[s], c.setPowHiCum[s])
 	}
-	p.rise.add(c.riseCum, c.riseLoCum, c.riseHiCum)
+	addCounts(&p.rise, c.riseCum, c.riseLoCum, c.riseHiCum)
 }
