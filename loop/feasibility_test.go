@@ -58,7 +58,7 @@ func TestInfeasibleBeforeRun(t *testing.T) {
 // counted with their index and distance ranges, and at most MaxListedUsers
 // are listed.
 func TestPinnedUsersSummarised(t *testing.T) {
-	sc := baseScenario(100, 3000)
+	sc := baseScenario(40, 2000)
 	sc.Groups[0].MaxDistanceM = 20000 // far users cannot reach 5 dB at 24 dBm
 	sc.Run.Replications = 1
 	rep := mustRun(t, sc, nil, RunOptions{})

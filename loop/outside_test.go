@@ -134,7 +134,7 @@ func TestFoschiniMiljanicScenario(t *testing.T) {
 // scenario, stated in shared/bench/peer_numba.py: SIR error std 1.9830 ±
 // 0.0018 dB, outage 0.0453 ± 0.0002, mean Tx power 11.970 ± 0.007 dBm
 // (mean of 10 seeds of 60 s ± the 95 % half-width, t with 9 dof). Sized for
-// CI: 12 s of the cell (8 s under -race). Tolerance: 4 combined standard
+// CI: 12 s of the cell (6 s under -race). Tolerance: 4 combined standard
 // errors (ours from our batch-means interval, t quantile removed; the
 // peer's from its stated half-width / t(0.975, 9) = 2.262), i.e. a false
 // alarm about once in 16 000 runs (DEVELOPERS.md "How test tolerances are
@@ -143,7 +143,7 @@ func TestCanonicalAgainstPeer(t *testing.T) {
 	sc := CanonicalScenario()
 	sc.Run.Slots = 18000
 	if raceEnabled {
-		sc.Run.Slots = 12000
+		sc.Run.Slots = 9000
 	}
 	rep := mustRun(t, sc, nil, RunOptions{})
 	a := rep.Aggregate
