@@ -44,10 +44,10 @@ func (c *collector) endBatch() {
 		// The fast path did not track the used bins: find them.
 		ss, ps := sh.sl.size(), sh.pl.size()
 		for u := 0; u < n; u++ {
-			lo, hi := usedRange(c.sirBatch[u*c.sirStride : u*c.sirStride+ss])
-			c.sirLo[u], c.sirHi[u] = int32(lo), int32(hi)
-			lo, hi = usedRange(c.powBatch[u*c.powStride : u*c.powStride+ps])
-			c.powLo[u], c.powHi[u] = int32(lo), int32(hi)
+			lo, hi := usedRange(c.sir.batch[u*c.sir.stride : u*c.sir.stride+ss])
+			c.sir.lo[u], c.sir.hi[u] = int32(lo), int32(hi)
+			lo, hi = usedRange(c.pow.batch[u*c.pow.stride : u*c.pow.stride+ps])
+			c.pow.lo[u], c.pow.hi[u] = int32(lo), int32(hi)
 		}
 		c.fullScan = false
 	}
@@ -58,19 +58,9 @@ func (c *collector) endBatch() {
 			continue
 		}
 		bin := sh.users[u].bin
-		lo, hi := int(c.sirLo[u]), int(c.sirHi[u])
-		scanMerge(sh.sl, c.sirBatch[u*c.sirStride:(u+1)*c.sirStride], c.sirCum[u*c.sirStride:(u+1)*c.sirStride], c.setSIRBatch[bin], c.setSIRBatch[agg], lo, hi, uint64(cnt), &hs)
-		c.setSIRLo[bin], c.setSIRHi[bin] = min(c.setSIRLo[bin], lo), max(c.setSIRHi[bin], hi)
-		c.setSIRLo[agg], c.setSIRHi[agg] = min(c.setSIRLo[agg], lo), max(c.setSIRHi[agg], hi)
-		c.sirLoCum[u], c.sirHiCum[u] = min(c.sirLoCum[u], c.sirLo[u]), max(c.sirHiCum[u], c.sirHi[u])
-		c.sirLo[u], c.sirHi[u] = math.MaxInt32, -1
+		c.sir.mergeUser(u, bin, agg, cnt, &hs)
 		var ps histStats
-		plo, phi := int(c.powLo[u]), int(c.powHi[u])
-		scanMerge(sh.pl, c.powBatch[u*c.powStride:(u+1)*c.powStride], c.powCum[u*c.powStride:(u+1)*c.powStride], c.setPowBatch[bin], c.setPowBatch[agg], plo, phi, uint64(cnt), &ps)
-		c.setPowLo[bin], c.setPowHi[bin] = min(c.setPowLo[bin], plo), max(c.setPowHi[bin], phi)
-		c.setPowLo[agg], c.setPowHi[agg] = min(c.setPowLo[agg], plo), max(c.setPowHi[agg], phi)
-		c.powLoCum[u], c.powHiCum[u] = min(c.powLoCum[u], c.powLo[u]), max(c.powHiCum[u], c.powHi[u])
-		c.powLo[u], c.powHi[u] = math.MaxInt32, -1
+		c.pow.mergeUser(u, bin, agg, cnt, &ps)
 		for q := range 5 {
 			c.fold(u, stPowQ+q, ps.q[q])
 		}
@@ -97,15 +87,9 @@ func (c *collector) endBatch() {
 		if sb[0] == 0 {
 			continue
 		}
-		lo, hi := c.setSIRLo[s], c.setSIRHi[s]
-		scanMerge(sh.sl, c.setSIRBatch[s], c.setSIRCum[s], nil, nil, lo, hi, uint64(sb[0]), &hs)
-		c.setSIRLoCum[s], c.setSIRHiCum[s] = min(c.setSIRLoCum[s], lo), max(c.setSIRHiCum[s], hi)
-		c.setSIRLo[s], c.setSIRHi[s] = math.MaxInt, -1
+		c.sir.mergeSet(s, sb[0], &hs)
 		var ps histStats
-		plo, phi := c.setPowLo[s], c.setPowHi[s]
-		scanMerge(sh.pl, c.setPowBatch[s], c.setPowCum[s], nil, nil, plo, phi, uint64(sb[0]), &ps)
-		c.setPowLoCum[s], c.setPowHiCum[s] = min(c.setPowLoCum[s], plo), max(c.setPowHiCum[s], phi)
-		c.setPowLo[s], c.setPowHi[s] = math.MaxInt, -1
+		c.pow.mergeSet(s, sb[0], &ps)
 		i := n + s
 		for q := range 5 {
 			c.fold(i, stPowQ+q, ps.q[q])

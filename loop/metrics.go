@@ -24,15 +24,8 @@ const (
 type collector struct {
 	shared *shared
 	users  int
-	// Row strides of the per-user histograms (user-major, padded).
-	sirStride, powStride int
-
-	// Per-user histograms of the SIR error ratio (sir*) and the Tx power in
-	// mW (pow*): the current batch and the cumulative one, and the used
-	// index ranges of each (batch, cumulative).
-	sirBatch, sirCum, powBatch, powCum     []uint32
-	sirLo, sirHi, powLo, powHi             []int32
-	sirLoCum, sirHiCum, powLoCum, powHiCum []int32
+	// Histograms of the SIR error ratio and of the Tx power (mW).
+	sir, pow quantityHists
 
 	// Per-user counters of the current batch and cumulative: active
 	// measured slots, slots in outage, slots at max power, blocks, block
@@ -43,13 +36,10 @@ type collector struct {
 	cumPowSum                                                        []float64
 
 	// Sets: one per distance bin, then the aggregate (sets−1).
-	sets                                               int
-	setUsers                                           []int
-	setSIRBatch, setSIRCum, setPowBatch, setPowCum     [][]uint64
-	setSIRLo, setSIRHi, setPowLo, setPowHi             []int
-	setSIRLoCum, setSIRHiCum, setPowLoCum, setPowHiCum []int
-	setBatchCounts                                     []int64   // per set: slots, outage, at max, blocks, block errors of the batch
-	setPowSum                                          []float64 // per set: Σ Tx power (mW) of the batch
+	sets           int
+	setUsers       []int
+	setBatchCounts []int64   // per set: slots, outage, at max, blocks, block errors of the batch
+	setPowSum      []float64 // per set: Σ Tx power (mW) of the batch
 
 	// Receiver noise rise: histograms, used ranges, slot counts, and the
 	// batch sums (and sums of squares) of its (mean, p95) in dB.
@@ -80,22 +70,75 @@ type collector struct {
 	quantiles []float64
 }
 
-func newCollector(sh *shared) *collector {
-	n := sh.n
-	c := &collector{shared: sh, users: n, sirStride: padStride(sh.sl.size(), 4), powStride: padStride(sh.pl.size(), 4), quantiles: quantileSpec[:]}
-	c.sirBatch = make([]uint32, n*c.sirStride)
-	c.sirCum = make([]uint32, n*c.sirStride)
-	c.powBatch = make([]uint32, n*c.powStride)
-	c.powCum = make([]uint32, n*c.powStride)
-	mk32 := func(v int32) []int32 {
-		s := make([]int32, n)
+// quantityHists are the histograms of one quantity (SIR error ratio or Tx
+// power): per user the current batch and the cumulative counts (user-major
+// rows of stride bins) with the used index range of each, and the same per
+// set (distance bins, then the aggregate).
+type quantityHists struct {
+	layout                           *histLayout
+	stride                           int
+	batch, cum                       []uint32
+	lo, hi, loCum, hiCum             []int32
+	setBatch, setCum                 [][]uint64 // nil for sets without users
+	setLo, setHi, setLoCum, setHiCum []int
+}
+
+func newQuantityHists(l *histLayout, users int, setUsers []int) quantityHists {
+	q := quantityHists{layout: l, stride: padStride(l.size(), 4)}
+	q.batch = make([]uint32, users*q.stride)
+	q.cum = make([]uint32, users*q.stride)
+	fill32 := func(v int32) []int32 {
+		s := make([]int32, users)
 		for i := range s {
 			s[i] = v
 		}
 		return s
 	}
-	c.sirLo, c.sirHi, c.powLo, c.powHi = mk32(math.MaxInt32), mk32(-1), mk32(math.MaxInt32), mk32(-1)
-	c.sirLoCum, c.sirHiCum, c.powLoCum, c.powHiCum = mk32(math.MaxInt32), mk32(-1), mk32(math.MaxInt32), mk32(-1)
+	q.lo, q.hi, q.loCum, q.hiCum = fill32(math.MaxInt32), fill32(-1), fill32(math.MaxInt32), fill32(-1)
+	sets := len(setUsers)
+	q.setBatch, q.setCum = make([][]uint64, sets), make([][]uint64, sets)
+	for i, k := range setUsers {
+		if k > 0 {
+			q.setBatch[i], q.setCum[i] = make([]uint64, q.stride), make([]uint64, q.stride)
+		}
+	}
+	fill := func(v int) []int {
+		s := make([]int, sets)
+		for i := range s {
+			s[i] = v
+		}
+		return s
+	}
+	q.setLo, q.setHi, q.setLoCum, q.setHiCum = fill(math.MaxInt), fill(-1), fill(math.MaxInt), fill(-1)
+	return q
+}
+
+// mergeUser summarises user u's batch histogram into out, adds it to the
+// user's cumulative histogram and to its distance bin's and the
+// aggregate's batch histograms, and resets the batch range.
+func (q *quantityHists) mergeUser(u, bin, agg int, cnt int64, out *histStats) {
+	lo, hi := int(q.lo[u]), int(q.hi[u])
+	row := q.stride * u
+	scanMerge(q.layout, q.batch[row:row+q.stride], q.cum[row:row+q.stride], q.setBatch[bin], q.setBatch[agg], lo, hi, uint64(cnt), out)
+	for _, s := range [2]int{bin, agg} {
+		q.setLo[s], q.setHi[s] = min(q.setLo[s], lo), max(q.setHi[s], hi)
+	}
+	q.loCum[u], q.hiCum[u] = min(q.loCum[u], q.lo[u]), max(q.hiCum[u], q.hi[u])
+	q.lo[u], q.hi[u] = math.MaxInt32, -1
+}
+
+// mergeSet summarises set s's batch histogram into out, adds it to the
+// set's cumulative histogram and resets the batch range.
+func (q *quantityHists) mergeSet(s int, cnt int64, out *histStats) {
+	lo, hi := q.setLo[s], q.setHi[s]
+	scanMerge(q.layout, q.setBatch[s], q.setCum[s], nil, nil, lo, hi, uint64(cnt), out)
+	q.setLoCum[s], q.setHiCum[s] = min(q.setLoCum[s], lo), max(q.setHiCum[s], hi)
+	q.setLo[s], q.setHi[s] = math.MaxInt, -1
+}
+
+func newCollector(sh *shared) *collector {
+	n := sh.n
+	c := &collector{shared: sh, users: n, quantiles: quantileSpec[:]}
 	for _, p := range []*[]int64{&c.batchSlots, &c.batchOutage, &c.batchAtMax, &c.batchBlocks, &c.batchBlockErrs, &c.cumSlots, &c.cumOutage, &c.cumAtMax, &c.cumBlocks, &c.cumBlockErrs} {
 		*p = make([]int64, n)
 	}
@@ -107,26 +150,8 @@ func newCollector(sh *shared) *collector {
 		c.setUsers[u.bin]++
 		c.setUsers[c.sets-1]++
 	}
-	// Set histograms only for sets with users (empty distance bins get none).
-	mkSet := func(size int) [][]uint64 {
-		s := make([][]uint64, c.sets)
-		for i := range s {
-			if c.setUsers[i] > 0 {
-				s[i] = make([]uint64, size)
-			}
-		}
-		return s
-	}
-	c.setSIRBatch, c.setSIRCum, c.setPowBatch, c.setPowCum = mkSet(c.sirStride), mkSet(c.sirStride), mkSet(c.powStride), mkSet(c.powStride)
-	mkI := func(v int) []int {
-		s := make([]int, c.sets)
-		for i := range s {
-			s[i] = v
-		}
-		return s
-	}
-	c.setSIRLo, c.setSIRHi, c.setPowLo, c.setPowHi = mkI(math.MaxInt), mkI(-1), mkI(math.MaxInt), mkI(-1)
-	c.setSIRLoCum, c.setSIRHiCum, c.setPowLoCum, c.setPowHiCum = mkI(math.MaxInt), mkI(-1), mkI(math.MaxInt), mkI(-1)
+	c.sir = newQuantityHists(sh.sl, n, c.setUsers)
+	c.pow = newQuantityHists(sh.pl, n, c.setUsers)
 	c.setBatchCounts = make([]int64, c.sets*5)
 	c.setPowSum = make([]float64, c.sets)
 	c.riseBatch = make([]uint64, sh.nl.size())
@@ -183,10 +208,10 @@ func (c *collector) slot(t int64, in *slotInputs, nr float64, act []uint8) {
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
-	ss, ps := c.sirStride, c.powStride
-	sLo, sHi, pLo, pHi := c.sirLo[:n], c.sirHi[:n], c.powLo[:n], c.powHi[:n]
+	ss, ps := c.sir.stride, c.pow.stride
+	sLo, sHi, pLo, pHi := c.sir.lo[:n], c.sir.hi[:n], c.pow.lo[:n], c.pow.hi[:n]
 	bOut, bMax, bPsum, bCnt := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n], c.batchSlots[:n]
-	sB, pB := c.sirBatch, c.powBatch
+	sB, pB := c.sir.batch, c.pow.batch
 	for u, s := range sir {
 		if act != nil && act[u] == 0 {
 			continue
@@ -248,9 +273,9 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
 	gp := sh.gp
-	ss, ps := c.sirStride, c.powStride
+	ss, ps := c.sir.stride, c.pow.stride
 	bOut, bMax, bPsum, bCnt := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n], c.batchSlots[:n]
-	sB, pB := c.sirBatch, c.powBatch
+	sB, pB := c.sir.batch, c.pow.batch
 	// The fast path does not track the used bin range: the batch end scans
 	// whole histograms instead (cheaper than two min/max per value).
 	c.fullScan = true

@@ -57,15 +57,15 @@ func (p *pool) addCollector(c *collector) {
 	defer p.mu.Unlock()
 	n := c.users
 	for u := 0; u < n; u++ {
-		addCounts(&p.sir[u], c.sirCum[u*c.sirStride:(u+1)*c.sirStride], int(c.sirLoCum[u]), int(c.sirHiCum[u]))
-		addCounts(&p.pow[u], c.powCum[u*c.powStride:(u+1)*c.powStride], int(c.powLoCum[u]), int(c.powHiCum[u]))
+		addCounts(&p.sir[u], c.sir.cum[u*c.sir.stride:(u+1)*c.sir.stride], int(c.sir.loCum[u]), int(c.sir.hiCum[u]))
+		addCounts(&p.pow[u], c.pow.cum[u*c.pow.stride:(u+1)*c.pow.stride], int(c.pow.loCum[u]), int(c.pow.hiCum[u]))
 	}
 	for s := 0; s < c.sets; s++ {
-		if c.setSIRCum[s] == nil {
+		if c.sir.setCum[s] == nil {
 			continue
 		}
-		addCounts(&p.sir[n+s], c.setSIRCum[s], c.setSIRLoCum[s], c.setSIRHiCum[s])
-		addCounts(&p.pow[n+s], c.setPowCum[s], c.setPowLoCum[s], c.setPowHiCum[s])
+		addCounts(&p.sir[n+s], c.sir.setCum[s], c.sir.setLoCum[s], c.sir.setHiCum[s])
+		addCounts(&p.pow[n+s], c.pow.setCum[s], c.pow.setLoCum[s], c.pow.setHiCum[s])
 	}
 	addCounts(&p.rise, c.riseCum, c.riseLoCum, c.riseHiCum)
 }
