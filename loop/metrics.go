@@ -83,18 +83,20 @@ type quantityHists struct {
 	setLo, setHi, setLoCum, setHiCum []int
 }
 
+// filled is a slice of n copies of v.
+func filled[T any](n int, v T) []T {
+	s := make([]T, n)
+	for i := range s {
+		s[i] = v
+	}
+	return s
+}
+
 func newQuantityHists(l *histLayout, users int, setUsers []int) quantityHists {
 	q := quantityHists{layout: l, stride: padStride(l.size(), 4)}
 	q.batch = make([]uint32, users*q.stride)
 	q.cum = make([]uint32, users*q.stride)
-	fill32 := func(v int32) []int32 {
-		s := make([]int32, users)
-		for i := range s {
-			s[i] = v
-		}
-		return s
-	}
-	q.lo, q.hi, q.loCum, q.hiCum = fill32(math.MaxInt32), fill32(-1), fill32(math.MaxInt32), fill32(-1)
+	q.lo, q.hi, q.loCum, q.hiCum = filled(users, int32(math.MaxInt32)), filled(users, int32(-1)), filled(users, int32(math.MaxInt32)), filled(users, int32(-1))
 	sets := len(setUsers)
 	q.setBatch, q.setCum = make([][]uint64, sets), make([][]uint64, sets)
 	for i, k := range setUsers {
@@ -102,14 +104,7 @@ func newQuantityHists(l *histLayout, users int, setUsers []int) quantityHists {
 			q.setBatch[i], q.setCum[i] = make([]uint64, q.stride), make([]uint64, q.stride)
 		}
 	}
-	fill := func(v int) []int {
-		s := make([]int, sets)
-		for i := range s {
-			s[i] = v
-		}
-		return s
-	}
-	q.setLo, q.setHi, q.setLoCum, q.setHiCum = fill(math.MaxInt), fill(-1), fill(math.MaxInt), fill(-1)
+	q.setLo, q.setHi, q.setLoCum, q.setHiCum = filled(sets, math.MaxInt), filled(sets, -1), filled(sets, math.MaxInt), filled(sets, -1)
 	return q
 }
 
