@@ -87,12 +87,17 @@ type DistanceBinFigures struct {
 // ρ(F) >= 1, Foschini & Miljanic 1993) — or when users stay pinned at
 // maximum power below target (at max power and in outage in at least half
 // of the measured slots), or when the ideal mode's joint solution does not
-// exist in more than 1 % of slots.
+// exist in more than 1 % of slots. The pole bound at the lowest targets the
+// run can use (the fixed target, or min_target_db with the outer loop) is
+// checked before any slot is simulated: such a run returns at once with no
+// figures (SimulatedUserSlots = 0, no users or bins). Users lists at most
+// MaxListedUsers indices; Reason gives the count and the index and
+// distance ranges of all of them.
 type Feasibility struct {
 	Infeasible     bool    `json:"infeasible"`
 	Reason         string  `json:"reason"`
 	SpectralRadius float64 `json:"spectral_radius"` // ρ(F) of the link-gain matrix, when computed (static matrix runs)
-	Users          []int   `json:"users"`           // users that cannot reach the target, when known
+	Users          []int   `json:"users"`           // users that cannot reach the target, when known (at most MaxListedUsers, sorted)
 	LoadFactor     float64 `json:"load_factor"`     // (1+f)·Σ a_i·γ_i/(G_p+γ_i), the larger of initial and final targets
 }
 
