@@ -156,7 +156,7 @@ func TestIntervalCoverage(t *testing.T) {
 		if raceEnabled {
 			// Under the race detector (CI): the case where the old
 			// normal-quantile intervals failed worst (0.69 for outage).
-			m, longFactor = 30, 6
+			m, longFactor = 24, 5
 			cases = []coverageCase{{"slow-2rep", 3, 2, 6000, false}}
 		}
 	}
