@@ -179,3 +179,45 @@ func TestIntervalCoverage(t *testing.T) {
 		})
 	}
 }
+
+// TestIntervalsInRangeEverywhere: every interval of every set (users,
+// distance bins, aggregate) holds its value and stays inside its range, in
+// the rich scenario (3 replications, activity, outer loop) and in a slow
+// two-replication cell whose Tx power sits at its cap.
+func TestIntervalsInRangeEverywhere(t *testing.T) {
+	capped := coverageScenario(coverageCase{"capped", 3, 2, 4000, false}, 11)
+	capped.InnerLoop.MaxPowerDBm = 0
+	for _, sc := range []Scenario{richScenario(), capped} {
+		rep := mustRun(t, sc, nil, RunOptions{})
+		sets := []*Figures{&rep.Aggregate}
+		for i := range rep.Users {
+			sets = append(sets, &rep.Users[i].Figures)
+		}
+		for i := range rep.DistanceBins {
+			sets = append(sets, &rep.DistanceBins[i].Figures)
+		}
+		atCap := false
+		for k, f := range sets {
+			all := coverageFigures(f)
+			for name, e := range map[string]Estimate{"tx_power_p99_dbm": f.TxPowerPercentilesDBm.P99, "tx_power_p1_dbm": f.TxPowerPercentilesDBm.P1,
+				"tx_power_p50_dbm": f.TxPowerPercentilesDBm.P50, "noise_rise_p95_db": f.NoiseRiseP95DB} {
+				all[name] = e
+			}
+			for name, e := range all {
+				if name == "tx_power_p99_dbm" || name == "tx_power_p1_dbm" || name == "tx_power_p50_dbm" {
+					name = "tx_power_p95_dbm" // same range rule
+				}
+				if name == "noise_rise_p95_db" {
+					name = "noise_rise_mean_db"
+				}
+				if !inRange(name, e, sc) {
+					t.Errorf("%s set %d: %s interval %+v outside its range", sc.Name, k, name, e)
+				}
+			}
+			atCap = atCap || f.TxPowerPercentilesDBm.P99.Value == sc.InnerLoop.MaxPowerDBm
+		}
+		if sc.InnerLoop.MaxPowerDBm == 0 && !atCap {
+			t.Errorf("capped cell: no set has its Tx p99 at the cap; the check did not exercise the limit")
+		}
+	}
+}
