@@ -42,7 +42,7 @@ func (c *collector) endBatch() {
 	}
 	if c.fullScan {
 		// The fast path did not track the used bins: find them.
-		ss, ps := sh.sl.size(), sh.pl.size()
+		ss, ps := sh.sirLayout.size(), sh.powLayout.size()
 		for u := 0; u < n; u++ {
 			lo, hi := usedRange(c.sir.batch[u*c.sir.stride : u*c.sir.stride+ss])
 			c.sir.lo[u], c.sir.hi[u] = int32(lo), int32(hi)
@@ -97,7 +97,7 @@ func (c *collector) endBatch() {
 		c.foldHist(i, &hs, linToDB(c.setPowSum[s]/float64(sb[0])), sb[1], sb[2], sb[3], sb[4])
 	}
 	if c.riseSlots > 0 {
-		scanMerge(sh.nl, c.riseBatch, c.riseCum, nil, nil, c.riseLo, c.riseHi, uint64(c.riseSlots), &hs)
+		scanMerge(sh.riseLayout, c.riseBatch, c.riseCum, nil, nil, c.riseLo, c.riseHi, uint64(c.riseSlots), &hs)
 		c.riseLoCum, c.riseHiCum = min(c.riseLoCum, c.riseLo), max(c.riseHiCum, c.riseHi)
 		c.riseLo, c.riseHi = math.MaxInt, -1
 		c.riseBatchSum[0] += hs.mean

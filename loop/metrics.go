@@ -145,12 +145,12 @@ func newCollector(sh *shared) *collector {
 		c.setUsers[u.bin]++
 		c.setUsers[c.sets-1]++
 	}
-	c.sir = newQuantityHists(sh.sl, n, c.setUsers)
-	c.pow = newQuantityHists(sh.pl, n, c.setUsers)
+	c.sir = newQuantityHists(sh.sirLayout, n, c.setUsers)
+	c.pow = newQuantityHists(sh.powLayout, n, c.setUsers)
 	c.setBatchCounts = make([]int64, c.sets*5)
 	c.setPowSum = make([]float64, c.sets)
-	c.riseBatch = make([]uint64, sh.nl.size())
-	c.riseCum = make([]uint64, sh.nl.size())
+	c.riseBatch = make([]uint64, sh.riseLayout.size())
+	c.riseCum = make([]uint64, sh.riseLayout.size())
 	c.riseLo, c.riseHi, c.riseLoCum, c.riseHiCum = math.MaxInt, -1, math.MaxInt, -1
 	c.statSum = make([]float64, (n+c.sets)*nStat)
 	c.statSumSq = make([]float64, (n+c.sets)*nStat)
@@ -199,7 +199,7 @@ func (c *collector) slot(t int64, in *slotInputs, nr float64, act []uint8) {
 	if t < sh.warm {
 		return
 	}
-	sl, pl := sh.sl, sh.pl
+	sl, pl := sh.sirLayout, sh.powLayout
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
@@ -238,7 +238,7 @@ func (c *collector) slot(t int64, in *slotInputs, nr float64, act []uint8) {
 // slotTail records the slot's noise rise and closes a batch when due.
 func (c *collector) slotTail(t int64, nr float64) {
 	sh := c.shared
-	kn := sh.nl.index(nr)
+	kn := sh.riseLayout.index(nr)
 	c.riseBatch[kn]++
 	c.riseLo, c.riseHi = min(c.riseLo, kn), max(c.riseHi, kn)
 	c.riseSlots++
@@ -263,7 +263,7 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	sir := in.sirLin[:n]
 	inv := in.invTarget[:n]
 	acc, cnt := in.effSIRSum[:n], in.effSIRCount[:n]
-	sl, pl := sh.sl, sh.pl
+	sl, pl := sh.sirLayout, sh.powLayout
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
@@ -302,7 +302,7 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 // the last convW slots (from the start, warm-up included).
 func (c *collector) convergence(t int64, sir, inv []float64, act []uint8) {
 	w := c.shared.convW
-	sl := c.shared.sl
+	sl := c.shared.sirLayout
 	tol := c.shared.convTolDB
 	for u, s := range sir {
 		if c.convergedAt[u] >= 0 || (act != nil && act[u] == 0) {

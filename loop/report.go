@@ -145,8 +145,8 @@ func (sh *shared) pooledValues(results []*repResult, i int) [nStat]float64 {
 		cnt, out, mx, blk, errs, psum = cnt+s.slots, out+s.outage, mx+s.atMax, blk+s.blocks, errs+s.blockErrs, psum+s.powSumMW
 	}
 	var hsS, hsP histStats
-	sh.pool.sir[i].stats(sh.sl, &hsS)
-	sh.pool.pow[i].stats(sh.pl, &hsP)
+	sh.pool.sir[i].stats(sh.sirLayout, &hsS)
+	sh.pool.pow[i].stats(sh.powLayout, &hsP)
 	return pointValues(&hsS, &hsP, cnt, out, mx, blk, errs, psum)
 }
 
@@ -205,7 +205,7 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	cm, cp := combine(nm, nmSE, nd), combine(np, npSE, nd)
 	if sh.pool != nil {
 		var hn histStats
-		sh.pool.rise.stats(sh.nl, &hn)
+		sh.pool.rise.stats(sh.riseLayout, &hn)
 		cm.v, cp.v = hn.mean, hn.q[3]
 	}
 	f.NoiseRiseMeanDB = cm.within(0, math.Inf(1))

@@ -94,8 +94,8 @@ func (c *collector) result() *repResult {
 	res := &repResult{sets: make([]setResult, n+c.sets)}
 	var hsS, hsP histStats
 	for u := 0; u < n; u++ {
-		scanStats(sh.sl, c.sir.cum[u*c.sir.stride:(u+1)*c.sir.stride], int(c.sir.loCum[u]), int(c.sir.hiCum[u]), uint64(c.cumSlots[u]), c.quantiles, &hsS, nil)
-		scanStats(sh.pl, c.pow.cum[u*c.pow.stride:(u+1)*c.pow.stride], int(c.pow.loCum[u]), int(c.pow.hiCum[u]), uint64(c.cumSlots[u]), c.quantiles, &hsP, nil)
+		scanStats(sh.sirLayout, c.sir.cum[u*c.sir.stride:(u+1)*c.sir.stride], int(c.sir.loCum[u]), int(c.sir.hiCum[u]), uint64(c.cumSlots[u]), c.quantiles, &hsS, nil)
+		scanStats(sh.powLayout, c.pow.cum[u*c.pow.stride:(u+1)*c.pow.stride], int(c.pow.loCum[u]), int(c.pow.hiCum[u]), uint64(c.cumSlots[u]), c.quantiles, &hsP, nil)
 		res.sets[u] = c.setValues(u, &hsS, &hsP, c.cumSlots[u], c.cumOutage[u], c.cumAtMax[u], c.cumBlocks[u], c.cumBlockErrs[u], c.cumPowSum[u])
 		res.sets[u].users = 1
 	}
@@ -112,15 +112,15 @@ func (c *collector) result() *repResult {
 				psum += c.cumPowSum[u]
 			}
 		}
-		scanStats(sh.sl, c.sir.setCum[s], c.sir.setLoCum[s], c.sir.setHiCum[s], uint64(cnt), c.quantiles, &hsS, nil)
-		scanStats(sh.pl, c.pow.setCum[s], c.pow.setLoCum[s], c.pow.setHiCum[s], uint64(cnt), c.quantiles, &hsP, nil)
+		scanStats(sh.sirLayout, c.sir.setCum[s], c.sir.setLoCum[s], c.sir.setHiCum[s], uint64(cnt), c.quantiles, &hsS, nil)
+		scanStats(sh.powLayout, c.pow.setCum[s], c.pow.setLoCum[s], c.pow.setHiCum[s], uint64(cnt), c.quantiles, &hsP, nil)
 		res.sets[n+s] = c.setValues(n+s, &hsS, &hsP, cnt, out, mx, blk, errs, psum)
 		res.sets[n+s].users = c.setUsers[s]
 	}
 	agg := c.sir.setCum[c.sets-1]
 	res.underOver = int64(agg[0] + agg[len(agg)-1])
 	var hn histStats
-	scanStats(sh.nl, c.riseCum, c.riseLoCum, c.riseHiCum, uint64(c.riseSlotsCum), c.quantiles, &hn, nil)
+	scanStats(sh.riseLayout, c.riseCum, c.riseLoCum, c.riseHiCum, uint64(c.riseSlotsCum), c.quantiles, &hn, nil)
 	res.nrMean, res.nrP95 = hn.mean, hn.q[3]
 	if k := c.riseBatches; k > 1 {
 		for i := range 2 {

@@ -22,12 +22,12 @@ type shared struct {
 	profile []fading.Profile // per group
 	initP   []float64        // initial power per user, mW
 
-	sl, pl, nl *histLayout // SIR ratio, Tx power (mW), noise rise
-	nbins      int
-	binEdges   []float64
-	marginLin  float64
-	convW      int
-	convTolDB  float64
+	sirLayout, powLayout, riseLayout *histLayout // SIR-error ratio, Tx power (mW), noise rise
+	nbins                            int
+	binEdges                         []float64
+	marginLin                        float64
+	convW                            int
+	convTolDB                        float64
 
 	decorrSlots float64 // longest decorrelation time of a user, slots (decorrelationSlots)
 	batches     int     // batches per replication (effectiveBatches)
@@ -63,10 +63,10 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	for nb := len(users); nb > 512 && m > 5; nb /= 2 {
 		m--
 	}
-	s.sl = layoutForDB(-48, 48, m)
-	s.pl = layoutForDB(il.MinPowerDBm, il.MaxPowerDBm, m)
-	s.pl.limitDB(il.MinPowerDBm, il.MaxPowerDBm) // Tx power never leaves [min, max]
-	s.nl = layoutForDB(0, 60, 9)
+	s.sirLayout = layoutForDB(-48, 48, m)
+	s.powLayout = layoutForDB(il.MinPowerDBm, il.MaxPowerDBm, m)
+	s.powLayout.limitDB(il.MinPowerDBm, il.MaxPowerDBm) // Tx power never leaves [min, max]
+	s.riseLayout = layoutForDB(0, 60, 9)
 	s.marginLin = dbToLin(-sc.Run.OutageMarginDB)
 	s.convW = max(1, int(math.Round(ConvergenceWindowS*s.rateHz)))
 	s.convTolDB = ConvergenceToleranceDB
