@@ -17,14 +17,14 @@ func TestAxisResolve(t *testing.T) {
 		bad  string // substring of the violation field, "" = valid
 	}{
 		{"list", Axis{Path: "inner_loop.step_db", Values: []float64{2, 0.5, 1}}, []float64{2, 0.5, 1}, ""},
-		{"linear", Axis{Path: "inner_loop.feedback_delay_slots", From: 0, To: 4, Count: 5}, []float64{0, 1, 2, 3, 4}, ""},
-		{"log", Axis{Path: "inner_loop.update_rate_hz", From: 100, To: 1600, Count: 5, Log: true}, []float64{100, 200, 400, 800, 1600}, ""},
-		{"single", Axis{Path: "inner_loop.step_db", From: 3, To: 9, Count: 1}, []float64{3}, ""},
+		{"linear", Axis{Path: "inner_loop.feedback_delay_slots", First: 0, Last: 4, Count: 5}, []float64{0, 1, 2, 3, 4}, ""},
+		{"log", Axis{Path: "inner_loop.update_rate_hz", First: 100, Last: 1600, Count: 5, Log: true}, []float64{100, 200, 400, 800, 1600}, ""},
+		{"single", Axis{Path: "inner_loop.step_db", First: 3, Last: 9, Count: 1}, []float64{3}, ""},
 		{"both", Axis{Path: "x", Values: []float64{1}, Count: 2}, nil, "axes[0].count"},
 		{"dup", Axis{Path: "x", Values: []float64{1, 1}}, nil, "axes[0].values[1]"},
 		{"nan", Axis{Path: "x", Values: []float64{math.NaN()}}, nil, "axes[0].values[0]"},
 		{"no count", Axis{Path: "x"}, nil, "axes[0].count"},
-		{"log negative", Axis{Path: "x", From: -1, To: 2, Count: 3, Log: true}, nil, "axes[0].from"},
+		{"log negative", Axis{Path: "x", First: -1, Last: 2, Count: 3, Log: true}, nil, "axes[0].first"},
 		{"no path", Axis{Values: []float64{1}}, nil, "axes[0].path"},
 	}
 	for _, tc := range tests {
