@@ -220,21 +220,6 @@ func TestSweepBadInput(t *testing.T) {
 	}
 }
 
-func TestSweepCoordinatesRowMajor(t *testing.T) {
-	g := &sweepGrid{axes: []*pb.SweepAxis{{Values: make([]float64, 3)}, {Values: make([]float64, 4)}, {Values: make([]float64, 2)}}}
-	seen := map[[3]int]bool{}
-	for i := range int64(24) {
-		c := g.coordinates(i)
-		if want := int64(c[0]*8 + c[1]*2 + c[2]); want != i {
-			t.Fatalf("index %d -> %v -> %d", i, c, want)
-		}
-		seen[[3]int{c[0], c[1], c[2]}] = true
-	}
-	if len(seen) != 24 {
-		t.Errorf("%d distinct coordinates of 24", len(seen))
-	}
-}
-
 // TestSweepCancellationStopsPromptly measures how long a cancelled sweep's
 // points keep working. With one point at a time it must stop within 100 ms;
 // with points on both cores the figure is logged too (on a saturated shared

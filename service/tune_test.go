@@ -428,10 +428,10 @@ func TestSweepRangeAxis(t *testing.T) {
 			t.Errorf("point %d: range axis gives %v, listed values %v", i, byRange[i].GetCoordinates(), listed[i].GetCoordinates())
 		}
 	}
-	// 1001 range values pass the proto rule (at most 1024) but not the
-	// grid's limit of 1000 values per axis.
+	// 1025 range values break the one limit of values per axis
+	// (tune.MaxAxisValues, the same number in the .proto rule).
 	st, err := env.sim.Sweep(context.Background(), &pb.SweepRequest{Base: tinyTuneBase(t),
-		Axes: []*pb.SweepAxis{{Path: "inner_loop.step_db", Count: 1001, First: 1, Last: 2}}, SeedMode: pb.SeedMode_SEED_MODE_COMMON})
+		Axes: []*pb.SweepAxis{{Path: "inner_loop.step_db", Count: tune.MaxAxisValues + 1, First: 1, Last: 2}}, SeedMode: pb.SeedMode_SEED_MODE_COMMON})
 	if err == nil {
 		_, err = drain(st.Recv)
 	}

@@ -150,3 +150,18 @@ func TestOverridesAndClone(t *testing.T) {
 		}
 	}
 }
+
+func TestGridOffsetsRowMajor(t *testing.T) {
+	g := &Grid{Axes: make([]Axis, 3), values: [][]float64{make([]float64, 3), make([]float64, 4), make([]float64, 2)}, size: 24}
+	seen := map[[3]int]bool{}
+	for i := range 24 {
+		c := g.Offsets(i)
+		if want := c[0]*8 + c[1]*2 + c[2]; want != i {
+			t.Fatalf("index %d -> %v -> %d", i, c, want)
+		}
+		seen[[3]int{c[0], c[1], c[2]}] = true
+	}
+	if len(seen) != 24 {
+		t.Errorf("%d distinct coordinates of 24", len(seen))
+	}
+}
