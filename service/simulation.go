@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 	"fmt"
+	"log/slog"
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
@@ -222,6 +223,8 @@ func (h *simulationServer) Sweep(req *pb.SweepRequest, stream pb.SimulationServi
 		if vs, ok := violationsOf(err, ""); ok {
 			return s.reject(vs)
 		}
+		s.cfg.Logger.DebugContext(ctx, "sweep stopped", slog.Int64("points_started", sum.PointsStarted),
+			slog.Int64("points_computed", sum.PointsComputed), slog.String("cause", err.Error()))
 		return statusFromError(ctx, err)
 	}
 	wall := sum.Wall.Seconds()

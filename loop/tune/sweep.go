@@ -242,7 +242,11 @@ type SweepOptions struct {
 
 // SweepSummary is the effort of a finished sweep.
 type SweepSummary struct {
-	GridPoints     int64         `json:"grid_points"`
+	GridPoints int64 `json:"grid_points"`
+	// PointsStarted counts the points whose run started; after a cancel
+	// no point starts, so it exceeds PointsComputed by at most the points
+	// that were running.
+	PointsStarted  int64         `json:"points_started"`
 	PointsComputed int64         `json:"points_computed"`
 	UserSlots      int64         `json:"simulated_user_slots"`
 	Wall           time.Duration `json:"-"`
@@ -253,7 +257,8 @@ type SweepSummary struct {
 // (each point's content is deterministic, its arrival order is not). The
 // first error (a point's, onPoint's or ctx's) stops the workers: no new
 // point starts, running points see a cancelled context, and Sweep returns
-// that error once every worker has stopped.
+// that error, with the summary of the work done, once every worker has
+// stopped.
 func Sweep(ctx context.Context, plan *SweepPlan, opt SweepOptions, onPoint func(*SweepPoint) error) (SweepSummary, error) {
 	start := time.Now()
 	sum := SweepSummary{GridPoints: int64(plan.GridSize())}
@@ -294,11 +299,15 @@ func Sweep(ctx context.Context, plan *SweepPlan, opt SweepOptions, onPoint func(
 				}
 				i := next
 				next++
+				sum.PointsStarted++
 				mu.Unlock()
 				sp, err := runPoint(runCtx, plan.base, plan.grid, plan.index(i), plan.mode)
 				mu.Lock()
 				switch {
 				case firstErr != nil:
+				case runCtx.Err() != nil:
+					// Finished as the call ended: not handed over.
+					fail(runCtx.Err())
 				case err != nil:
 					fail(err)
 				default:
