@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"buf.build/gen/go/bufbuild/protovalidate/protocolbuffers/go/buf/validate"
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/protobuf/proto"
 	"google.golang.org/protobuf/reflect/protoreflect"
@@ -495,4 +496,48 @@ func TestServerCapsCallDuration(t *testing.T) {
 	env := startEnv(t, viaBufconn, Config{MaxCallDuration: 100 * time.Millisecond})
 	_, _, err := simulate(context.Background(), env, &pb.SimulateRequest{Scenario: longScenario()})
 	wantCode(t, err, codes.DeadlineExceeded)
+}
+
+// TestViolationsCapped replays the 1.9 MB request of NaN distances whose
+// 262 000 violations once broke the connection: the rejection lists the
+// first MaxViolations and one entry counting the rest, and stays small.
+// The short suite sends 4 groups (16 384 violations), the full one 64
+// (262 144).
+func TestViolationsCapped(t *testing.T) {
+	env := startEnv(t, viaLoopback, Config{})
+	sc := smallScenario(t)
+	g := sc.Groups[0]
+	sc.Groups = nil
+	groups := 64
+	if testing.Short() {
+		groups = 4
+	}
+	for range groups {
+		gg := proto.Clone(g).(*pb.UserGroup)
+		gg.Count = 4096
+		gg.Placement = pb.Placement_PLACEMENT_EXPLICIT
+		gg.DistancesM = make([]float64, 4096)
+		for i := range gg.DistancesM {
+			gg.DistancesM[i] = math.NaN()
+		}
+		sc.Groups = append(sc.Groups, gg)
+	}
+	req := &pb.SimulateRequest{Scenario: sc}
+	_, _, err := simulate(context.Background(), env, req)
+	st := wantCode(t, err, codes.InvalidArgument)
+	var n int
+	var last string
+	for _, d := range st.Details() {
+		if br, ok := d.(*errdetails.BadRequest); ok {
+			n = len(br.GetFieldViolations())
+			last = br.GetFieldViolations()[n-1].GetDescription()
+		}
+	}
+	if n != MaxViolations+1 || !strings.Contains(last, "more violations not listed") {
+		t.Errorf("%d violations, last %q; want %d and a count of the rest", n, last, MaxViolations+1)
+	}
+	if size := proto.Size(st.Proto()); size > 64<<10 {
+		t.Errorf("the rejection of a %d-byte request is %d bytes, want <= 64 KiB", proto.Size(req), size)
+	}
+	t.Logf("request %d bytes, rejection %d bytes, last entry %q", proto.Size(req), proto.Size(st.Proto()), last)
 }
