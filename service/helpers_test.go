@@ -3,9 +3,15 @@ package service
 import (
 	"context"
 	"errors"
+	"go/ast"
+	"go/parser"
+	"go/token"
 	"io"
+	"io/fs"
 	"log/slog"
 	"net"
+	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"testing"
@@ -171,5 +177,79 @@ func drain[T any](recv func() (*T, error)) ([]*T, error) {
 			return out, err
 		}
 		out = append(out, m)
+	}
+}
+
+// TestOnlyServiceCreatesStatuses enforces the design rule "only service
+// speaks status codes": outside package service (and the generated gRPC
+// stubs, whose Unimplemented handlers are grpc's own), no non-test file may
+// import google.golang.org/grpc/status or codes, except the client, which
+// may read statuses (status.FromError, status.Convert, codes.X) but not
+// create them (status.New, Newf, Error, Errorf, FromProto, ErrorProto).
+func TestOnlyServiceCreatesStatuses(t *testing.T) {
+	const (
+		statusPkg = "google.golang.org/grpc/status"
+		codesPkg  = "google.golang.org/grpc/codes"
+	)
+	creators := map[string]bool{"New": true, "Newf": true, "Error": true, "Errorf": true, "FromProto": true, "ErrorProto": true}
+	root := ".."
+	checked := 0
+	err := filepath.WalkDir(root, func(path string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(root, path)
+		if d.IsDir() {
+			if rel == "service" || (rel != "." && strings.HasPrefix(d.Name(), ".")) || d.Name() == "testdata" {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if !strings.HasSuffix(path, ".go") || strings.HasSuffix(path, "_test.go") || strings.HasSuffix(path, "_grpc.pb.go") {
+			return nil
+		}
+		f, err := parser.ParseFile(token.NewFileSet(), path, nil, parser.ImportsOnly)
+		if err != nil {
+			return err
+		}
+		checked++
+		statusName := ""
+		for _, imp := range f.Imports {
+			p, _ := strconv.Unquote(imp.Path.Value)
+			if p != statusPkg && p != codesPkg {
+				continue
+			}
+			if !strings.HasPrefix(filepath.ToSlash(rel), "client/") {
+				t.Errorf("%s imports %s: only package service speaks gRPC status codes", rel, p)
+			}
+			if p == statusPkg {
+				statusName = "status"
+				if imp.Name != nil {
+					statusName = imp.Name.Name
+				}
+			}
+		}
+		if statusName == "" {
+			return nil
+		}
+		full, err := parser.ParseFile(token.NewFileSet(), path, nil, 0)
+		if err != nil {
+			return err
+		}
+		ast.Inspect(full, func(n ast.Node) bool {
+			if sel, ok := n.(*ast.SelectorExpr); ok {
+				if id, ok := sel.X.(*ast.Ident); ok && id.Name == statusName && creators[sel.Sel.Name] {
+					t.Errorf("%s calls %s.%s: the client may read statuses, not create them", rel, statusName, sel.Sel.Name)
+				}
+			}
+			return true
+		})
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if checked < 50 {
+		t.Fatalf("checked only %d files: the walk missed the module", checked)
 	}
 }
