@@ -58,7 +58,7 @@ func violationsOf(err error, prefix string) ([]Violation, bool) {
 	}
 	var pe *fading.ParamError
 	if errors.As(err, &pe) {
-		return []Violation{{Field: apiPath(prefix, pe.Param), Description: pe.Rule}}, true
+		return []Violation{{Field: apiPath(prefix, pe.Path), Description: pe.Rule}}, true
 	}
 	return nil, false
 }

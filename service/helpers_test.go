@@ -9,6 +9,7 @@ import (
 	"io"
 	"io/fs"
 	"log/slog"
+	"math"
 	"net"
 	"path/filepath"
 	"strconv"
@@ -24,6 +25,8 @@ import (
 	"google.golang.org/grpc/status"
 	"google.golang.org/grpc/test/bufconn"
 
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -251,5 +254,46 @@ func TestOnlyServiceCreatesStatuses(t *testing.T) {
 	}
 	if checked < 50 {
 		t.Fatalf("checked only %d files: the walk missed the module", checked)
+	}
+}
+
+// TestDomainPathsToAPIPaths checks the one mapping from domain error paths
+// to request paths (violationsOf, apiPath): fading parameters arrive as
+// snake_case API paths, loop and tune paths get the request prefix, the
+// engine's trace options move to "traces.".
+func TestDomainPathsToAPIPaths(t *testing.T) {
+	ok := fading.ChannelConfig{DopplerHz: 10, SampleRateHz: 1500, Profile: fading.Profile{Taps: []fading.Tap{{DelayNs: 0, PowerDB: 0}}}}
+	if err := ok.Validate(); err != nil {
+		t.Fatalf("valid channel rejected: %v", err)
+	}
+	bad := func(f func(*fading.ChannelConfig)) error {
+		c := ok
+		c.Profile.Taps = append([]fading.Tap(nil), ok.Profile.Taps...)
+		f(&c)
+		return c.Validate()
+	}
+	tests := []struct {
+		name   string
+		err    error
+		prefix string
+		want   string
+	}{
+		{"fading Doppler", bad(func(c *fading.ChannelConfig) { c.DopplerHz = 1000 }), "channel.", "channel.doppler_hz"},
+		{"fading Rician K", bad(func(c *fading.ChannelConfig) { c.LOS, c.RicianKDB = true, 1e6 }), "", "rician_k_db"},
+		{"fading tap delay", bad(func(c *fading.ChannelConfig) { c.Profile.Taps[0].DelayNs = math.NaN() }), "", "profile.taps[0].delay_ns"},
+		{"loop scenario field", loop.Violations{{Field: "groups[0].count", Rule: "r"}}, "scenario.", "scenario.groups[0].count"},
+		{"loop trace option", loop.Violations{{Field: "trace.users[3]", Rule: "r"}}, "scenario.", "traces.users[3]"},
+		{"tune request field", loop.Violations{{Field: "axes[1].first", Rule: "r"}}, "", "axes[1].first"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			vs, ok := violationsOf(tc.err, tc.prefix)
+			if !ok || len(vs) != 1 || vs[0].Field != tc.want {
+				t.Errorf("violationsOf(%v) = %v, %v; want field %q", tc.err, vs, ok, tc.want)
+			}
+		})
+	}
+	if _, ok := violationsOf(errors.New("plain"), ""); ok {
+		t.Error("a plain error counted as field violations")
 	}
 }
