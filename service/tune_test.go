@@ -16,6 +16,8 @@ import (
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -616,8 +618,9 @@ func TestSweepPerPointOverhead(t *testing.T) {
 	}
 }
 
-// TestOneLimitOfAxisValues checks that the .proto rules of SweepAxis use
-// the grid's limits (tune.MaxAxisValues, tune.MaxAxes): one set of limits.
+// TestOneLimitOfAxisValues checks that the .proto rules use the domain's
+// limits (tune.MaxAxisValues, tune.MaxAxes, tune.MaxGridPoints,
+// loop.MaxUsers, fading.MaxSinusoids): one set of limits.
 func TestOneLimitOfAxisValues(t *testing.T) {
 	rules := func(msg protoreflect.MessageDescriptor, field string) *validate.FieldRules {
 		fd := msg.Fields().ByName(protoreflect.Name(field))
@@ -640,5 +643,17 @@ func TestOneLimitOfAxisValues(t *testing.T) {
 	}
 	if got := rules((&pb.SweepRequest{}).ProtoReflect().Descriptor(), "point_indices").GetRepeated().GetMaxItems(); got != tune.MaxGridPoints {
 		t.Errorf("SweepRequest.point_indices max_items %d, tune.MaxGridPoints %d", got, tune.MaxGridPoints)
+	}
+	// The scenario's limits that once disagreed (group count 1024 vs 1000,
+	// sinusoids 1024 vs 256).
+	group := (&pb.UserGroup{}).ProtoReflect().Descriptor()
+	if got := rules(group, "count").GetInt32().GetLte(); got != loop.MaxUsers {
+		t.Errorf("UserGroup.count lte %d, loop.MaxUsers %d", got, loop.MaxUsers)
+	}
+	if got := rules(group, "sinusoids").GetInt32().GetLte(); got != fading.MaxSinusoids {
+		t.Errorf("UserGroup.sinusoids lte %d, fading.MaxSinusoids %d", got, fading.MaxSinusoids)
+	}
+	if got := rules((&pb.ChannelSpec{}).ProtoReflect().Descriptor(), "sinusoids").GetInt32().GetLte(); got != fading.MaxSinusoids {
+		t.Errorf("ChannelSpec.sinusoids lte %d, fading.MaxSinusoids %d", got, fading.MaxSinusoids)
 	}
 }

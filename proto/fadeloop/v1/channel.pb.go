@@ -47,7 +47,7 @@ type ChannelSpec struct {
 	// Fading generator.
 	Generator Generator `protobuf:"varint,8,opt,name=generator,proto3,enum=fadeloop.v1.Generator" json:"generator,omitempty"`
 	// Sinusoids per branch of the sum-of-sinusoids generator; 0 means the
-	// generator's default. [0, 1024].
+	// generator's default. [0, 256].
 	Sinusoids     int32 `protobuf:"varint,9,opt,name=sinusoids,proto3" json:"sinusoids,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -644,7 +644,7 @@ const file_fadeloop_v1_channel_proto_rawDesc = "" +
 	"\tgenerator\x18\b \x01(\x0e2\x16.fadeloop.v1.GeneratorB\n" +
 	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\tgenerator\x12(\n" +
 	"\tsinusoids\x18\t \x01(\x05B\n" +
-	"\xbaH\a\x1a\x05\x18\x80\b(\x00R\tsinusoids:\x1d\xbaH\x1a\"\x18\n" +
+	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids:\x1d\xbaH\x1a\"\x18\n" +
 	"\aprofile\n" +
 	"\vcustom_taps\x10\x01\"\xe1\x01\n" +
 	"\x12StreamGainsRequest\x12:\n" +
