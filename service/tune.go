@@ -368,9 +368,8 @@ func tuneResponseBytes(req tune.Request, k int64) int64 {
 }
 
 // checkCapacity validates a Capacity request before any work: the .proto
-// rules, the base scenario, then the capacity search's own rules (it runs
-// the search on a cancelled context, which validates everything and stops
-// before the first simulation).
+// rules, the base scenario, then the capacity search's own rules
+// (tune.CheckCapacity, which runs nothing).
 func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, []Violation) {
 	vs := s.validator.check(req, "")
 	if req.GetBase() == nil {
@@ -383,10 +382,7 @@ func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, [
 	if vs = mergeViolations(vs, checkBase(creq.Base)); len(vs) > 0 {
 		return creq, vs
 	}
-	dry, cancel := context.WithCancel(context.Background())
-	cancel()
-	_, err := tune.Capacity(dry, creq, tune.Options{Parallelism: 1})
-	if tvs, ok := searchViolations(err, nil, nil); ok {
+	if tvs, ok := searchViolations(tune.CheckCapacity(creq), nil, nil); ok {
 		return creq, tvs
 	}
 	return creq, nil

@@ -183,6 +183,84 @@ func CapacityCost(req CapacityRequest) Cost {
 	return Cost{Runs: runs, TapSlots: satAdd(satMul(us, taps), satMul(runs, RunOverheadTapSlots))}
 }
 
+// capacitySettings are a checked capacity request's resolved settings.
+type capacitySettings struct {
+	base                      loop.Scenario // normalised, run.replications 1
+	others, top, lo, hi, reps int
+	conf                      float64
+}
+
+// check validates req as Capacity does (every rule, the base scenario at
+// the lowest count), without running anything.
+func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
+	var set capacitySettings
+	var v loop.Violations
+	add := func(f, format string, args ...any) {
+		v = append(v, loop.Violation{Field: f, Rule: fmt.Sprintf(format, args...)})
+	}
+	base := cloneScenario(req.Base)
+	base.Normalise()
+	if req.Group < 0 || req.Group >= len(base.Groups) {
+		add("group", "must index a group of the base scenario (0..%d), got %d", len(base.Groups)-1, req.Group)
+		return set, v
+	}
+	if base.Groups[req.Group].Placement == loop.PlacementExplicit {
+		add("group", "group %d has explicit distances; the capacity search needs a uniform placement to scale its count", req.Group)
+	}
+	if !(req.OutageLimit > 0 && req.OutageLimit < 1) {
+		add("outage_limit", "must be in (0, 1), got %g", req.OutageLimit)
+	}
+	others := base.Users() - max(base.Groups[req.Group].Count, 0)
+	top := loop.MaxUsers - others
+	lo, hi := req.MinCount, req.MaxCount
+	if lo == 0 {
+		lo = 1
+	}
+	if lo < 1 || lo > top {
+		add("min_count", "must be in [1, %d], got %d", top, req.MinCount)
+	}
+	if hi != 0 && (hi < lo || hi > top) {
+		add("max_count", "must be in [min_count, %d] or 0, got %d", top, req.MaxCount)
+	}
+	reps := req.Replications
+	if reps == 0 {
+		reps = 4
+	}
+	if reps < 1 || reps > 1000 {
+		add("replications", "must be in [1, 1000], got %d", req.Replications)
+	}
+	conf := req.Confidence
+	if conf == 0 {
+		conf = DefaultConfidence
+	}
+	if !(conf >= 0.5 && conf <= 0.9999) {
+		add("confidence", "must be in [0.5, 0.9999], got %g", req.Confidence)
+	}
+	if req.MaxUserSlots < 0 {
+		add("max_user_slots", "must be >= 0, got %d", req.MaxUserSlots)
+	}
+	if len(v) > 0 {
+		return set, v
+	}
+	base.Run.Replications = 1
+	probe := cloneScenario(base)
+	probe.Groups[req.Group].Count = lo
+	if vv := probe.Validate(); len(vv) > 0 {
+		return set, vv
+	}
+	set = capacitySettings{base: base, others: others, top: top, lo: lo, hi: hi, reps: reps, conf: conf}
+	return set, nil
+}
+
+// CheckCapacity validates req as Capacity does, without running it: the
+// group, outage limit, count range, replications, confidence, budget and
+// the base scenario at the lowest count. Bad input returns
+// loop.Violations naming request fields.
+func CheckCapacity(req CapacityRequest) error {
+	_, v := req.check()
+	return v.Err()
+}
+
 // prefixed returns v with prefix before every field path.
 func prefixed(prefix string, v loop.Violations) loop.Violations {
 	out := make(loop.Violations, len(v))
