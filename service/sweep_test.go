@@ -273,3 +273,59 @@ func TestSweepCancellationStopsPromptly(t *testing.T) {
 		t.Logf("parallelism %d: %d points started, %d handed over before the server saw the cancel", par, started, computed)
 	}
 }
+
+// TestSweepAndTuneNamedAndGroupAxes sweeps an enum field by name and a
+// group-level speed (every speed of group 0), and tunes over the enum by
+// name: the points and candidates carry the names and labels that say what
+// was varied, and the runs use those settings.
+func TestSweepAndTuneNamedAndGroupAxes(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{})
+	base := tinyTuneBase(t)
+	axes := []*pb.SweepAxis{
+		{Path: "inner_loop.command", Names: []string{"COMMAND_FIXED_STEP", "COMMAND_ADAPTIVE"}},
+		{Path: "groups[0].speed_kmh", Values: []float64{3, 120}},
+	}
+	points, sum, err := sweep(t, env, &pb.SweepRequest{Base: base, Axes: axes, SeedMode: pb.SeedMode_SEED_MODE_COMMON, Detailed: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.GetPointsComputed() != 4 {
+		t.Fatalf("%d points computed, want 4", sum.GetPointsComputed())
+	}
+	p := points[3]
+	if got := p.GetLabel(); got != "command=COMMAND_ADAPTIVE, groups[0].speed_kmh (every speed)=120" {
+		t.Errorf("label %q", got)
+	}
+	if n := p.GetCoordinateNames(); len(n) != 2 || n[0] != "COMMAND_ADAPTIVE" || n[1] != "" {
+		t.Errorf("coordinate names %q", n)
+	}
+	if c := p.GetCoordinates(); len(c) != 2 || c[0] != 1 || c[1] != 120 {
+		t.Errorf("coordinates %v, want [1 120] (the name's position, the speed)", c)
+	}
+	ns := p.GetReport().GetNormalisedScenario()
+	if ns.GetInnerLoop().GetCommand() != pb.Command_COMMAND_ADAPTIVE {
+		t.Errorf("point 3 ran command %v", ns.GetInnerLoop().GetCommand())
+	}
+	for _, s := range ns.GetGroups()[0].GetSpeeds() {
+		if s.GetSpeedKmh() != 120 {
+			t.Errorf("point 3 speeds %v, want every speed 120", ns.GetGroups()[0].GetSpeeds())
+		}
+	}
+	_, rec, err := tuneCall(context.Background(), env, &pb.TuneRequest{Base: base, Axes: axes[:1],
+		Objective: &pb.Objective{Kind: pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD},
+		Budget:    &pb.TuneBudget{MaxReplications: 2}, SkipBaseline: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var texts []string
+	for _, c := range rec.GetCandidates() {
+		texts = append(texts, c.GetCoords()[0].GetText())
+	}
+	if strings.Join(texts, ",") != "COMMAND_FIXED_STEP,COMMAND_ADAPTIVE" {
+		t.Errorf("tune candidates %v, want the two commands by name", texts)
+	}
+	// A name the enum does not have is rejected at its place in the axis.
+	_, _, err = sweep(t, env, &pb.SweepRequest{Base: base, SeedMode: pb.SeedMode_SEED_MODE_COMMON,
+		Axes: []*pb.SweepAxis{{Path: "inner_loop.command", Names: []string{"COMMAND_FIXED_STEP", "COMMAND_BOGUS"}}}})
+	wantInvalid(t, err, "axes[0].names[1]")
+}

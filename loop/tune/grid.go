@@ -22,6 +22,10 @@ const (
 	MaxAxes = 8
 )
 
+// StepPath is the field path of the inner loop's step size, the axis the
+// tie rule, the reasons and the CLI's step plots single out.
+const StepPath = "inner_loop.step_db"
+
 // Axis is one searched scenario field: Path is its json-tag path (the proto
 // field path, e.g. "inner_loop.step_db", "groups[0].speeds[0].speed_kmh",
 // or "groups[1].speed_kmh" for every speed of group 1 at once).
