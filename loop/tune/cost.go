@@ -124,9 +124,7 @@ func TuneCost(req Request) (Cost, error) {
 		sc.Normalise()
 		one := sc.Cost()
 		sim += float64(k+b) * float64(reps) * float64(one)
-		if us := int64(sc.Users()) * sc.TotalSlots(); us > 0 {
-			maxTaps = max(maxTaps, (one+us-1)/us)
-		}
+		maxTaps = max(maxTaps, tapsPerUser(sc))
 	}
 	if len(v) > 0 {
 		return Cost{}, v
@@ -169,16 +167,7 @@ func CapacityCost(req CapacityRequest) Cost {
 	if req.MaxUserSlots > 0 && req.MaxUserSlots < us {
 		us = req.MaxUserSlots
 	}
-	taps := int64(1)
-	for _, g := range base.Groups {
-		probe := base.Clone()
-		probe.Groups = []loop.UserGroup{g}
-		probe.Groups[0].Count = 1
-		probe.Run.Replications = 1
-		if s := probe.TotalSlots(); s > 0 {
-			taps = max(taps, probe.Cost()/s)
-		}
-	}
+	taps := tapsPerUser(base)
 	runs := satMul(steps, reps)
 	return Cost{Runs: runs, TapSlots: satAdd(satMul(us, taps), satMul(runs, RunOverheadTapSlots))}
 }
@@ -259,6 +248,18 @@ func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
 func CheckCapacity(req CapacityRequest) error {
 	_, v := req.check()
 	return v.Err()
+}
+
+// tapsPerUser is the most fading taps of one user of sc (at least 1), the
+// factor from user-slots to tap-slots in loop.Scenario.Cost.
+func tapsPerUser(sc loop.Scenario) int64 {
+	taps := int64(1)
+	for _, g := range sc.Groups {
+		one := loop.Scenario{Groups: []loop.UserGroup{g}, Run: loop.RunSettings{Slots: 1, Replications: 1}}
+		one.Groups[0].Count = 1
+		taps = max(taps, one.Cost())
+	}
+	return taps
 }
 
 // prefixed returns v with prefix before every field path.
