@@ -473,9 +473,12 @@ type SweepRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The base scenario; each point is the base with the axis values set.
 	Base *Scenario `protobuf:"bytes,1,opt,name=base,proto3" json:"base,omitempty"`
-	// Grid axes, 1 to 8. The grid is their Cartesian product, indexed in
-	// row-major order (the last axis varies fastest): index = sum over axes a
-	// of i_a · prod over later axes b of len(values_b).
+	// Grid axes, 1 to 8. The grid is their Cartesian product, at most 100000
+	// points (the same limit as Tune's candidates), indexed in row-major
+	// order (the last axis varies fastest): index = sum over axes a of
+	// i_a · prod over later axes b of len(values_b). Each point is charged
+	// its simulated tap-slots plus 50000 tap-slots of run overhead per
+	// replication against the server's cost bound, before any point is built.
 	Axes []*SweepAxis `protobuf:"bytes,2,rep,name=axes,proto3" json:"axes,omitempty"`
 	// Grid indices to compute (e.g. to resume or to spread a sweep over
 	// servers); empty means every point. At most 100000 entries, each a
