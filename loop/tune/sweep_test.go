@@ -237,8 +237,28 @@ func TestTuneCostWithoutExpansion(t *testing.T) {
 	if allocs > 100000 {
 		t.Errorf("TuneCost made %.0f allocations, want far fewer than one per candidate", allocs)
 	}
+	t.Logf("TuneCost of 100000 candidates × 5 conditions: %.0f allocations", allocs)
 	_, err = TuneCost(Request{Base: tinySweepBase(), Axes: []Axis{{Path: "inner_loop.no_such", Values: []float64{1}}}})
 	if err == nil || !strings.Contains(err.Error(), "axes[0].path") {
 		t.Errorf("bad path: err %v", err)
+	}
+}
+
+// TestSweepCheckStopsOnCancel: the per-point check that runs after
+// admission stops under a cancelled context before building the points.
+func TestSweepCheckStopsOnCancel(t *testing.T) {
+	plan, err := PlanSweep(SweepRequest{Base: tinySweepBase(), SeedMode: SeedModeCommon, Axes: []Axis{
+		{Path: "inner_loop.step_db", First: 0.1, Last: 5, Count: 1000}, {Path: "receiver.noise_figure_db", First: 0, Last: 9, Count: 100}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if err := plan.Check(ctx); !errors.Is(err, context.Canceled) {
+		t.Errorf("Check on a cancelled context: %v, want context.Canceled", err)
+	}
+	sum, err := Sweep(ctx, plan, SweepOptions{Check: true}, func(*SweepPoint) error { t.Error("a point ran"); return nil })
+	if !errors.Is(err, context.Canceled) || sum.PointsStarted != 0 {
+		t.Errorf("Sweep on a cancelled context: %v, %d points started", err, sum.PointsStarted)
 	}
 }
