@@ -47,7 +47,7 @@ type ChannelSpec struct {
 	// Fading generator.
 	Generator Generator `protobuf:"varint,8,opt,name=generator,proto3,enum=fadeloop.v1.Generator" json:"generator,omitempty"`
 	// Sinusoids per branch of the sum-of-sinusoids generator; 0 means the
-	// generator's default. [0, 1024].
+	// generator's default. [0, 256].
 	Sinusoids int32 `protobuf:"varint,9,opt,name=sinusoids,proto3" json:"sinusoids,omitempty"`
 	// Mobile speed in km/h, an alternative to doppler_hz (leave doppler_hz
 	// 0): the server sets f_D = v·f_c/c from speed_kmh and carrier_hz.
@@ -664,7 +664,7 @@ const file_fadeloop_v1_channel_proto_rawDesc = "" +
 	"\tgenerator\x18\b \x01(\x0e2\x16.fadeloop.v1.GeneratorB\n" +
 	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\tgenerator\x12(\n" +
 	"\tsinusoids\x18\t \x01(\x05B\n" +
-	"\xbaH\a\x1a\x05\x18\x80\b(\x00R\tsinusoids\x124\n" +
+	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids\x124\n" +
 	"\tspeed_kmh\x18\n" +
 	" \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\bspeedKmh\x126\n" +
 	"\n" +
