@@ -419,4 +419,3 @@ func (c Condition) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
 	}
 	return sc, nil
 }
-
