@@ -40,7 +40,7 @@ func TestRunDaemonServesThenDrains(t *testing.T) {
 		if err != nil {
 			t.Fatalf("RunDaemon: %v", err)
 		}
-	case <-time.After(10 * time.Second):
+	case <-time.After(guard):
 		t.Fatal("RunDaemon did not return after its context ended")
 	}
 	for _, want := range []string{"metrics listening", "draining", "stopped"} {
