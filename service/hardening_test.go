@@ -89,7 +89,10 @@ func TestStreamGainsNonReaderIsCut(t *testing.T) {
 		want string
 	}{
 		{"idle timeout", Config{StreamIdleTimeout: 200 * time.Millisecond}, "stream_idle_timeout"},
-		{"call cap", Config{MaxCallDuration: 500 * time.Millisecond}, "max_call_duration"},
+		// The cap is long enough for the generator to fill the flow-control
+		// window first, so that the handler is blocked in Send when the cap
+		// passes (the case that held both slots before).
+		{"call cap", Config{MaxCallDuration: 3 * time.Second}, "max_call_duration"},
 	}
 	for _, tr := range transports {
 		for _, c := range cases {
