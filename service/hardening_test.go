@@ -15,6 +15,7 @@ import (
 	"runtime"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -502,5 +503,46 @@ func TestReflectionCanBeTurnedOff(t *testing.T) {
 	wantCode(t, err, codes.Unimplemented)
 	if _, ok := env.srv.GRPC().GetServiceInfo()["grpc.reflection.v1.ServerReflection"]; ok {
 		t.Error("reflection registered")
+	}
+}
+
+// Attack: a Lockstep client that keeps sending slots but never reads the
+// replies blocks the server in Send once flow control is exhausted. The
+// idle timeout covers Send too, so the stream is cut and its place freed.
+func TestLockstepNonReaderIsCut(t *testing.T) {
+	env := startEnv(t, viaLoopback, Config{MaxLockstepStreams: 1, StreamIdleTimeout: 300 * time.Millisecond, abortGrace: 50 * time.Millisecond})
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	st, err := env.loop.Lockstep(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Send(lockstepConfig(1)); err != nil {
+		t.Fatal(err)
+	}
+	eventually(t, "Lockstep stream open", func() bool { return env.srv.lockstep.n.Load() == 1 })
+	// Send slots without reading (bounded by count). Once the server has
+	// cut the stream its trailers wait behind replies the client does not
+	// read, so the client may block in Send: that is the client's own
+	// stall; the server has released the stream. Cancelling the client's
+	// context ends the sender.
+	const maxSlots = 2_000_000
+	var sent atomic.Int64
+	senderDone := make(chan struct{})
+	go func() {
+		defer close(senderDone)
+		for i := int64(0); i < maxSlots; i++ {
+			if st.Send(slotMsg(i, 3)) != nil {
+				return
+			}
+			sent.Store(i + 1)
+		}
+	}()
+	eventually(t, "Lockstep place freed", func() bool { return env.srv.lockstep.n.Load() == 0 })
+	cancel()
+	<-senderDone
+	t.Logf("client sent %d slots without reading before the cut", sent.Load())
+	if err := runLockstep(t, env, lockstepConfig(1), slotMsg(0, 3)); err != nil {
+		t.Fatalf("Lockstep after the cut: %v", err)
 	}
 }

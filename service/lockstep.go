@@ -202,18 +202,20 @@ func (sess *lockstepSession) step(m *pb.LockstepSlot) *pb.LockstepResponse {
 func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 	s := l.s
 	ctx := stream.Context()
-	releaseClient, err := s.perClient.acquire(peerKey(ctx))
-	if err != nil {
-		s.metrics.rejected.WithLabelValues("busy").Inc()
-		return err
-	}
-	defer releaseClient()
 	release, err := s.lockstep.acquire()
 	if err != nil {
 		s.metrics.rejected.WithLabelValues("busy").Inc()
 		return err
 	}
 	defer release()
+	// Released before the server-wide place (deferred calls run last
+	// first): once the server-wide count drops, the client's share has.
+	releaseClient, err := s.perClient.acquire(peerKey(ctx))
+	if err != nil {
+		s.metrics.rejected.WithLabelValues("busy").Inc()
+		return err
+	}
+	defer releaseClient()
 	// A shutdown ends the stream (its client reconnects elsewhere); an idle
 	// client is cut after StreamIdleTimeout. Both free the stream's place.
 	stopDrain := context.AfterFunc(s.drainCtx, func() {
@@ -244,10 +246,11 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 	}
 	ci := infoFrom(ctx)
 	ci.cost.Store(int64(len(sess.ctls)))
+	// The idle timer runs while the stream waits for the client: in Recv
+	// for its next slot, and in Send when it does not read the replies.
 	for {
 		idle.Reset(idleTimeout)
 		req, err := stream.Recv()
-		idle.Stop()
 		if errors.Is(err, io.EOF) {
 			return nil
 		}
@@ -264,7 +267,9 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 		if vs := sess.checkSlot(slot); len(vs) > 0 {
 			return s.reject(vs)
 		}
-		if err := stream.Send(sess.step(slot)); err != nil {
+		err = stream.Send(sess.step(slot))
+		idle.Stop()
+		if err != nil {
 			return statusFromError(ctx, err)
 		}
 		ci.userSlots.Add(int64(len(sess.ctls)))
