@@ -1,0 +1,65 @@
+package jobs
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"time"
+
+	"github.com/nats-io/nats-server/v2/server"
+)
+
+// Embedded is a NATS server with JetStream running inside the process, for
+// the no-setup single-machine mode. It listens on a free loopback port.
+type Embedded struct {
+	srv *server.Server
+}
+
+// DefaultStoreDir is the on-disk store of the embedded server:
+// <user cache dir>/fadeloop/queue (os.UserCacheDir, e.g. ~/.cache on Linux).
+func DefaultStoreDir() (string, error) {
+	d, err := os.UserCacheDir()
+	if err != nil {
+		return "", fmt.Errorf("jobs: no user cache directory for the queue store (give one explicitly): %w", err)
+	}
+	return filepath.Join(d, "fadeloop", "queue"), nil
+}
+
+// StartEmbedded starts an embedded server storing its streams under dir
+// (created if missing). Only one process may use a store at a time.
+func StartEmbedded(dir string) (*Embedded, error) {
+	if dir == "" {
+		return nil, errors.New("jobs: StartEmbedded needs a store directory")
+	}
+	if err := os.MkdirAll(dir, 0o700); err != nil {
+		return nil, fmt.Errorf("jobs: queue store: %w", err)
+	}
+	srv, err := server.NewServer(&server.Options{
+		ServerName: "fadeloop-embedded",
+		Host:       "127.0.0.1",
+		Port:       server.RANDOM_PORT,
+		JetStream:  true,
+		StoreDir:   dir,
+		NoSigs:     true,
+		NoLog:      true,
+	})
+	if err != nil {
+		return nil, fmt.Errorf("jobs: embedded queue server: %w", err)
+	}
+	srv.Start()
+	if !srv.ReadyForConnections(30 * time.Second) {
+		srv.Shutdown()
+		return nil, errors.New("jobs: embedded queue server did not start within 30s")
+	}
+	return &Embedded{srv: srv}, nil
+}
+
+// URL is the server's client URL (nats://127.0.0.1:PORT).
+func (e *Embedded) URL() string { return e.srv.ClientURL() }
+
+// Shutdown stops the server; its store stays on disk.
+func (e *Embedded) Shutdown() {
+	e.srv.Shutdown()
+	e.srv.WaitForShutdown()
+}
