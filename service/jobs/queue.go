@@ -141,9 +141,9 @@ func open(ctx context.Context, nc *nats.Conn, cfg Config) (*Queue, error) {
 		name string
 	}{{&q.results, ResultBucket}, {&q.jobsKV, JobBucket}} {
 		*b.kv, err = js.CreateOrUpdateKeyValue(ctx, jetstream.KeyValueConfig{
-			Bucket:   b.name,
-			Storage:  jetstream.FileStorage,
-			Replicas: cfg.Replicas,
+			Bucket:       b.name,
+			Storage:      jetstream.FileStorage,
+			Replicas:     cfg.Replicas,
 			MaxValueSize: 8 << 20,
 		})
 		if err != nil {

@@ -1,0 +1,306 @@
+package jobs
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// TestPointSeed checks the per-point seed rule against SplitMix64's
+// reference outputs for seed 0 (Vigna, splitmix64.c: the first two outputs
+// are 0xE220A8397B1DCDAF and 0x6E789E6AA1B965F4) (memory): point i's seed is
+// the (i+1)-th output of the generator seeded with the base seed.
+func TestPointSeed(t *testing.T) {
+	for _, c := range []struct {
+		seed    uint64
+		i       int
+		perPt   bool
+		want    uint64
+		comment string
+	}{
+		{0, 0, true, 0xE220A8397B1DCDAF, "first SplitMix64 output, seed 0"},
+		{0, 1, true, 0x6E789E6AA1B965F4, "second SplitMix64 output, seed 0"},
+		{12345, 5, false, 12345, "common seed"},
+	} {
+		if got := PointSeed(c.seed, c.i, c.perPt); got != c.want {
+			t.Errorf("%s: PointSeed(%d, %d, %v) = %#x, want %#x", c.comment, c.seed, c.i, c.perPt, got, c.want)
+		}
+	}
+}
+
+// TestPrepare: the job ID depends only on the normalised request, and bad
+// input names the field.
+func TestPrepare(t *testing.T) {
+	a, _ := mustPrepare(t, tinySpec(1500, 2))
+	s := tinySpec(1500, 2)
+	s.Axes[0].Values = nil
+	s.Axes[0].From, s.Axes[0].To, s.Axes[0].Count = 0.25, 0.5, 2 // same values as a range
+	b, _ := mustPrepare(t, s)
+	if a.ID != b.ID {
+		t.Errorf("same grid as values and as a range: IDs %s and %s differ", a.ID, b.ID)
+	}
+	s = tinySpec(1500, 2)
+	s.PerPointSeed = false
+	c, _ := mustPrepare(t, s)
+	if c.ID == a.ID {
+		t.Errorf("seed mode does not change the job ID")
+	}
+	for _, bad := range []struct {
+		mut   func(*SweepSpec)
+		field string
+	}{
+		{func(s *SweepSpec) { s.Axes[0].Path = "inner_loop.no_such" }, "axes[0].path"},
+		{func(s *SweepSpec) { s.Points = []int{0, 99} }, "points[1]"},
+		{func(s *SweepSpec) { s.Points = []int{1, 1} }, "points[1]"},
+		{func(s *SweepSpec) { s.Base.Run.Slots = -1 }, "base.run.slots"},
+		{func(s *SweepSpec) { s.Axes[0].Values = []float64{-1} }, "axes"},
+	} {
+		s := tinySpec(1500, 2)
+		bad.mut(&s)
+		_, err := Prepare(s)
+		var vs loop.Violations
+		if !errors.As(err, &vs) {
+			t.Errorf("want violations for %s, got %v", bad.field, err)
+			continue
+		}
+		found := false
+		for _, v := range vs {
+			found = found || strings.HasPrefix(v.Field, bad.field)
+		}
+		if !found {
+			t.Errorf("violations %v do not name %s", vs, bad.field)
+		}
+	}
+}
+
+// collect runs Results to completion and returns the canonical results.
+func collect(t *testing.T, ctx context.Context, j *Job) map[int]Result {
+	t.Helper()
+	got := map[int]Result{}
+	err := j.Results(ctx, func(r Result) error {
+		if _, dup := got[r.Index]; dup {
+			t.Errorf("result %d delivered twice", r.Index)
+		}
+		got[r.Index] = r
+		return nil
+	})
+	if err != nil {
+		t.Fatalf("Results: %v (%d of %d)", err, len(got), j.Units())
+	}
+	return got
+}
+
+func startWorker(t *testing.T, q *Queue, o WorkerOptions) (stop func()) {
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		_ = q.RunWorker(ctx, o)
+	}()
+	return func() { cancel(); <-done }
+}
+
+// TestQueueMatchesDirect: every point through the embedded queue with two
+// concurrent workers is bit-identical to computing it directly.
+func TestQueueMatchesDirect(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	e, q := embedded(t, t.TempDir(), Config{AckWait: 2 * time.Second})
+	defer e.Shutdown()
+	defer q.Close()
+	p, us := mustPrepare(t, tinySpec(1500, 3))
+	want := directResults(t, us)
+	j, si, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if si != (SubmitInfo{Units: 6, Queued: 6}) {
+		t.Errorf("first submission: %+v, want 6 units all queued", si)
+	}
+	stop := startWorker(t, q, WorkerOptions{Concurrency: 2})
+	defer stop()
+	got := collect(t, ctx, j)
+	if len(got) != len(want) {
+		t.Fatalf("%d results, want %d", len(got), len(want))
+	}
+	for i, w := range want {
+		if c := canon(t, got[i]); c != w {
+			t.Errorf("point %d through the queue differs from the direct run:\n%s\n%s", i, c, w)
+		}
+	}
+	st, err := q.Status(ctx, j.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.Done != 6 || st.Failed != 0 || st.Pending != 0 || st.Info.State != StateRunning {
+		t.Errorf("status %+v, want 6 done", st)
+	}
+	// A second submission of the same request queues nothing.
+	_, si, err = q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if si != (SubmitInfo{Units: 6, Done: 6}) {
+		t.Errorf("resubmitting a finished job: %+v, want 6 done, none queued", si)
+	}
+}
+
+// TestResumeAfterSubmitterStops: the submitter and its embedded server stop
+// after a few results; the same request on the same store reports those as
+// done, queues only the rest, and ends with the uninterrupted run's results.
+func TestResumeAfterSubmitterStops(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	dir := t.TempDir()
+	p, us := mustPrepare(t, tinySpec(1500, 4))
+	want := directResults(t, us)
+
+	e, q := embedded(t, dir, Config{AckWait: 2 * time.Second})
+	j, _, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stop := startWorker(t, q, WorkerOptions{})
+	first := 0
+	stopAfter := errors.New("submitter stops")
+	err = j.Results(ctx, func(Result) error {
+		first++
+		if first == 3 {
+			return stopAfter
+		}
+		return nil
+	})
+	if !errors.Is(err, stopAfter) {
+		t.Fatalf("Results: %v", err)
+	}
+	stop()
+	q.Close()
+	e.Shutdown()
+
+	e, q = embedded(t, dir, Config{AckWait: 2 * time.Second})
+	defer e.Shutdown()
+	defer q.Close()
+	j, si, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if si.Done < 3 || si.Done+si.Queued != 8 || si.Retried != 0 {
+		t.Errorf("resume: %+v, want at least 3 done and the rest of 8 queued", si)
+	}
+	t.Logf("resume found %d done, queued %d", si.Done, si.Queued)
+	stop = startWorker(t, q, WorkerOptions{Concurrency: 2})
+	defer stop()
+	got := collect(t, ctx, j)
+	for i, w := range want {
+		if c := canon(t, got[i]); c != w {
+			t.Errorf("point %d after the resume differs from the uninterrupted run", i)
+		}
+	}
+}
+
+// TestFailingUnit: a unit that always fails is tried MaxAttempts times,
+// then stored as failed with its error; the job completes with the others.
+// A resubmission queues the failed unit again.
+func TestFailingUnit(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	e, q := embedded(t, t.TempDir(), Config{AckWait: 2 * time.Second, MaxAttempts: 2})
+	defer e.Shutdown()
+	defer q.Close()
+	p, us := mustPrepare(t, tinySpec(1500, 2))
+	var mu sync.Mutex
+	tries := map[int]int{}
+	run := func(ctx context.Context, u Unit) (*loop.Report, error) {
+		mu.Lock()
+		tries[u.Index]++
+		mu.Unlock()
+		if u.Index == 2 {
+			return nil, fmt.Errorf("injected failure of unit %d", u.Index)
+		}
+		return RunUnit(ctx, u)
+	}
+	j, _, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stop := startWorker(t, q, WorkerOptions{run: run})
+	got := collect(t, ctx, j)
+	stop()
+	for i := range 4 {
+		r := got[i]
+		switch {
+		case i == 2 && (r.Status != StatusFailed || r.Error != "injected failure of unit 2" || r.Attempts != 2 || r.Report != nil):
+			t.Errorf("unit 2: status %q error %q attempts %d, want failed with its error after 2 attempts", r.Status, r.Error, r.Attempts)
+		case i != 2 && (r.Status != StatusDone || r.Report == nil):
+			t.Errorf("unit %d: status %q, want done", i, r.Status)
+		}
+	}
+	mu.Lock()
+	if tries[2] != 2 {
+		t.Errorf("failing unit ran %d times, want MaxAttempts = 2", tries[2])
+	}
+	mu.Unlock()
+	st, err := q.Status(ctx, j.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.Done != 3 || st.Failed != 1 || st.Pending != 0 {
+		t.Errorf("status %+v, want 3 done, 1 failed", st)
+	}
+	_, si, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if si != (SubmitInfo{Units: 4, Done: 3, Retried: 1, Queued: 1}) {
+		t.Errorf("resubmission: %+v, want the failed unit queued again", si)
+	}
+}
+
+// TestCancel: a cancelled job's queued units are removed and its
+// submitter's Results ends with ErrCancelled; a worker started afterwards
+// computes nothing of it.
+func TestCancel(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	e, q := embedded(t, t.TempDir(), Config{AckWait: 2 * time.Second})
+	defer e.Shutdown()
+	defer q.Close()
+	defer func(d time.Duration) { stallAfter = d }(stallAfter)
+	stallAfter = 300 * time.Millisecond
+	p, us := mustPrepare(t, tinySpec(1500, 2))
+	j, _, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	errc := make(chan error, 1)
+	go func() { errc <- j.Results(ctx, func(Result) error { return nil }) }()
+	if err := q.Cancel(ctx, j.ID); err != nil {
+		t.Fatal(err)
+	}
+	if err := <-errc; !errors.Is(err, ErrCancelled) {
+		t.Errorf("Results after Cancel: %v, want ErrCancelled", err)
+	}
+	si, err := q.stream.Info(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if si.State.Msgs != 0 {
+		t.Errorf("%d units still queued after Cancel", si.State.Msgs)
+	}
+	st, err := q.Status(ctx, j.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.Info.State != StateCancelled || st.Done != 0 || st.Pending != 4 {
+		t.Errorf("status after cancel %+v", st)
+	}
+	if err := q.Cancel(ctx, "0123"); !errors.Is(err, ErrUnknownJob) {
+		t.Errorf("Cancel of an unknown job: %v, want ErrUnknownJob", err)
+	}
+}
