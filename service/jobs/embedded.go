@@ -29,6 +29,11 @@ func DefaultStoreDir() (string, error) {
 // StartEmbedded starts an embedded server storing its streams under dir
 // (created if missing). Only one process may use a store at a time.
 func StartEmbedded(dir string) (*Embedded, error) {
+	return startServer(dir, server.RANDOM_PORT)
+}
+
+// startServer starts an embedded server on 127.0.0.1:port.
+func startServer(dir string, port int) (*Embedded, error) {
 	if dir == "" {
 		return nil, errors.New("jobs: StartEmbedded needs a store directory")
 	}
@@ -38,7 +43,7 @@ func StartEmbedded(dir string) (*Embedded, error) {
 	srv, err := server.NewServer(&server.Options{
 		ServerName: "fadeloop-embedded",
 		Host:       "127.0.0.1",
-		Port:       server.RANDOM_PORT,
+		Port:       port,
 		JetStream:  true,
 		StoreDir:   dir,
 		NoSigs:     true,
