@@ -104,6 +104,9 @@ func tlsConfig(certFile, keyFile, caFile string) (*tls.Config, error) {
 }
 
 func run(args []string, stderr io.Writer) error {
+	if len(args) > 0 && args[0] == "worker" {
+		return runWorker(args[1:], stderr) // worker.go
+	}
 	o, err := parseFlags(args, stderr)
 	if err != nil {
 		if errors.Is(err, flag.ErrHelp) {
