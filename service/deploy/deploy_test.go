@@ -2,8 +2,8 @@ package deploy
 
 import (
 	"bufio"
-	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"os"
 	"regexp"
@@ -12,6 +12,7 @@ import (
 
 	appsv1 "k8s.io/api/apps/v1"
 	corev1 "k8s.io/api/core/v1"
+	kjson "sigs.k8s.io/json"
 	"sigs.k8s.io/yaml"
 )
 
@@ -56,9 +57,7 @@ func manifests(t *testing.T) map[string]any {
 			default:
 				t.Fatalf("%s document %d: unexpected %s %s", file, i, meta.APIVersion, meta.Kind)
 			}
-			dec := json.NewDecoder(bytes.NewReader(js))
-			dec.DisallowUnknownFields()
-			if err := dec.Decode(obj); err != nil {
+			if err := strictDecode(js, obj); err != nil {
 				t.Fatalf("%s document %d (%s %s): %v", file, i, meta.Kind, meta.Metadata.Name, err)
 			}
 			key := meta.Kind + "/" + meta.Metadata.Name
@@ -88,11 +87,29 @@ func TestStrictDecodeCatchesTypos(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	dec := json.NewDecoder(bytes.NewReader(js))
-	dec.DisallowUnknownFields()
-	if err := dec.Decode(&appsv1.Deployment{}); err == nil || !strings.Contains(err.Error(), "replica") {
+	if err := strictDecode(js, &appsv1.Deployment{}); err == nil || !strings.Contains(err.Error(), "replica") {
 		t.Errorf("misspelt spec.replica decoded without error: %v", err)
 	}
+	// Go's encoding/json matches field names case-insensitively; the
+	// Kubernetes API server does not, nor does strictDecode.
+	js, err = yaml.YAMLToJSON([]byte("apiVersion: apps/v1\nkind: StatefulSet\nspec:\n  servicename: nats\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := strictDecode(js, &appsv1.StatefulSet{}); err == nil || !strings.Contains(err.Error(), "servicename") {
+		t.Errorf("wrongly cased spec.servicename decoded without error: %v", err)
+	}
+}
+
+// strictDecode decodes js into obj as the Kubernetes API server does
+// (sigs.k8s.io/json: case-sensitive field names), failing on unknown or
+// duplicate fields.
+func strictDecode(js []byte, obj any) error {
+	strict, err := kjson.UnmarshalStrict(js, obj)
+	if err != nil {
+		return err
+	}
+	return errors.Join(strict...)
 }
 
 // flagNames are the flags fadeloopd and `fadeloopd worker` define, read
