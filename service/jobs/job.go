@@ -111,6 +111,45 @@ func (q *Queue) Submit(ctx context.Context, kind Kind, units []Unit, spec any) (
 	}); err != nil {
 		return nil, SubmitInfo{}, fmt.Errorf("jobs: clearing queued units: %w", err)
 	}
+	// Publish asynchronously (one round trip for all, not one per unit);
+	// any unit whose publication is not confirmed is published again
+	// synchronously (the message ID makes a repeat harmless).
+	type pending struct {
+		u   Unit
+		b   []byte
+		id  string
+		ack jetstream.PubAckFuture
+	}
+	var pend []pending
+	flush := func() error {
+		select {
+		case <-q.js.PublishAsyncComplete():
+		case <-time.After(30 * time.Second):
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		for _, pu := range pend {
+			ok := false
+			if pu.ack != nil {
+				select {
+				case <-pu.ack.Ok():
+					ok = true
+				default:
+				}
+			}
+			if !ok {
+				if err := retry(ctx, func(c context.Context) error {
+					_, err := q.js.Publish(c, subject, pu.b, jetstream.WithMsgID(pu.id))
+					return err
+				}); err != nil {
+					return fmt.Errorf("jobs: queueing unit %s: %w", pu.u.ID(), err)
+				}
+			}
+			si.Queued++
+		}
+		pend = pend[:0]
+		return nil
+	}
 	for _, u := range units {
 		if stored[u.Index] == StatusDone {
 			continue
@@ -119,17 +158,25 @@ func (q *Queue) Submit(ctx context.Context, kind Kind, units []Unit, spec any) (
 		if err != nil {
 			return nil, SubmitInfo{}, fmt.Errorf("jobs: encoding unit %s: %w", u.ID(), err)
 		}
-		msgID := fmt.Sprintf("%s.%d", u.ID(), info.Submissions)
-		if err := retry(ctx, func(c context.Context) error {
-			_, err := q.js.Publish(c, subject, b, jetstream.WithMsgID(msgID))
-			return err
-		}); err != nil {
-			return nil, SubmitInfo{}, fmt.Errorf("jobs: queueing unit %s: %w", u.ID(), err)
+		pu := pending{u: u, b: b, id: fmt.Sprintf("%s.%d", u.ID(), info.Submissions)}
+		pu.ack, _ = q.js.PublishAsync(subject, b, jetstream.WithMsgID(pu.id))
+		pend = append(pend, pu)
+		if len(pend) == publishBatch {
+			if err := flush(); err != nil {
+				return nil, SubmitInfo{}, err
+			}
 		}
-		si.Queued++
+	}
+	if err := flush(); err != nil {
+		return nil, SubmitInfo{}, err
 	}
 	return j, si, nil
 }
+
+// publishBatch is how many units are published before waiting for their
+// confirmations (below the client's limit of outstanding asynchronous
+// publications).
+var publishBatch = 1000
 
 // Units is the number of units of the job.
 func (j *Job) Units() int { return len(j.indices) }

@@ -116,6 +116,8 @@ func TestQueueMatchesDirect(t *testing.T) {
 	defer q.Close()
 	p, us := mustPrepare(t, tinySpec(1500, 3))
 	want := directResults(t, us)
+	defer func(n int) { publishBatch = n }(publishBatch)
+	publishBatch = 4 // two confirmation rounds for 6 units
 	j, si, err := q.Submit(ctx, KindSweepPoint, us, p.Spec)
 	if err != nil {
 		t.Fatal(err)
