@@ -1,12 +1,15 @@
 package client
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -16,6 +19,51 @@ import (
 	"github.com/fadeloop/fadeloop/loop/tune"
 	"github.com/fadeloop/fadeloop/service/jobs"
 )
+
+// TestMain lets the test binary act as a sweep submitter process that a
+// test kills (see TestJobQueueSubmitterKilled).
+func TestMain(m *testing.M) {
+	if os.Getenv("FADELOOP_CLIENT_TEST_ROLE") == "submitter" {
+		os.Exit(submitterMain())
+	}
+	os.Exit(m.Run())
+}
+
+// submitterMain runs the test sweep on the embedded queue in
+// $FADELOOP_TEST_STORE into the CSV $FADELOOP_TEST_OUT, printing "row N"
+// after each row is on disk.
+func submitterMain() int {
+	ctx := context.Background()
+	jq, err := OpenJobQueue(ctx, JobQueueOptions{StoreDir: os.Getenv("FADELOOP_TEST_STORE"), Workers: 1})
+	if err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		return 1
+	}
+	defer jq.Close()
+	spec := jobSpec()
+	f, err := CreateSweepFile(os.Getenv("FADELOOP_TEST_OUT"), SweepFileCSV, spec.Axes)
+	if err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		return 1
+	}
+	n := 0
+	_, err = jq.Sweep(ctx, spec, SweepJobOptions{OnResult: func(r jobs.Result) error {
+		if err := f.Write(r); err != nil {
+			return err
+		}
+		n++
+		fmt.Printf("row %d\n", n)
+		if n == 3 {
+			time.Sleep(time.Hour) // wait here to be killed
+		}
+		return nil
+	}})
+	if err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		return 1
+	}
+	return 0
+}
 
 // jobSpec is a tiny per-point-seeded sweep of 8 points.
 func jobSpec() jobs.SweepSpec {
@@ -118,6 +166,50 @@ func TestJobQueueResumeCSV(t *testing.T) {
 	}
 	if n := bytes.Count(c, []byte("\n")); n != 9 {
 		t.Errorf("final CSV has %d lines, want 9", n)
+	}
+}
+
+// TestJobQueueSubmitterKilled: a submitter process with its embedded queue
+// is killed (SIGKILL) after 3 rows; its file holds those rows, and the
+// same sweep run again on the store resumes and ends with the
+// uninterrupted run's CSV.
+func TestJobQueueSubmitterKilled(t *testing.T) {
+	dir := t.TempDir()
+	store, part := filepath.Join(dir, "store"), filepath.Join(dir, "part.csv")
+	cmd := exec.Command(os.Args[0], "-test.run=^$")
+	cmd.Env = append(os.Environ(), "FADELOOP_CLIENT_TEST_ROLE=submitter", "FADELOOP_TEST_STORE="+store, "FADELOOP_TEST_OUT="+part)
+	out, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	cmd.Stderr = os.Stderr
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	sc := bufio.NewScanner(out)
+	for sc.Scan() && sc.Text() != "row 3" {
+	}
+	if err := cmd.Process.Kill(); err != nil {
+		t.Fatal(err)
+	}
+	_ = cmd.Wait()
+	b, _ := os.ReadFile(part)
+	if rows, err := csv.NewReader(bytes.NewReader(b)).ReadAll(); err != nil || len(rows) != 4 {
+		t.Fatalf("killed submitter left %d CSV rows (%v), want header + 3:\n%s", len(rows), err, b)
+	}
+	res, err := runSweepToFile(t, store, part, SweepFileCSV, 0)
+	if err != nil || !res.Complete || res.AlreadyDone < 3 || res.Queued != 8-res.AlreadyDone {
+		t.Fatalf("re-run after the kill: %+v, %v; want at least the 3 written points done and only the rest queued", res, err)
+	}
+	t.Logf("re-run after the kill: %d already done, %d queued", res.AlreadyDone, res.Queued)
+	whole := filepath.Join(dir, "whole.csv")
+	if _, err := runSweepToFile(t, filepath.Join(dir, "storeW"), whole, SweepFileCSV, 0); err != nil {
+		t.Fatal(err)
+	}
+	a, _ := os.ReadFile(whole)
+	c, _ := os.ReadFile(part)
+	if !bytes.Equal(a, c) {
+		t.Errorf("CSV after kill and re-run differs from the uninterrupted one:\n%s\n---\n%s", a, c)
 	}
 }
 

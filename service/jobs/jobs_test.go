@@ -6,10 +6,12 @@ import (
 	"fmt"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/tune"
 )
 
 // TestPointSeed checks the per-point seed rule against SplitMix64's
@@ -304,5 +306,70 @@ func TestCancel(t *testing.T) {
 	}
 	if err := q.Cancel(ctx, "0123"); !errors.Is(err, ErrUnknownJob) {
 		t.Errorf("Cancel of an unknown job: %v, want ErrUnknownJob", err)
+	}
+}
+
+// TestRunTuneReplication: a coordinator's replication unit (candidate ×
+// condition × replication) sent through Queue.Run gives the report of a
+// direct run, and a second Run returns the stored result without
+// recomputing it.
+func TestRunTuneReplication(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	e, q := embedded(t, t.TempDir(), Config{AckWait: 2 * time.Second})
+	defer e.Shutdown()
+	defer q.Close()
+	base := tinyBase(1500)
+	base.Normalise()
+	cand := tune.Point{Index: 1, Coords: []tune.Coord{{Path: "inner_loop.step_db", Value: 0.5}}}
+	cond := tune.Condition{Name: "fast", Weight: 1, Overrides: []tune.Override{{Path: "groups[0].speeds[0].speed_kmh", Value: 120}}}
+	const job = "tune-test"
+	var units []Unit
+	for r := range 3 {
+		u, err := TuneReplicationUnit(job, 0, base, cand, 1, cond, r, tune.ReplicationSeed(9, 0, r))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if u.Index, err = ScenarioIndex(u.Scenario); err != nil {
+			t.Fatal(err)
+		}
+		units = append(units, u)
+	}
+	if units[0].Index == units[1].Index {
+		t.Fatalf("replications 0 and 1 share the unit index %d", units[0].Index)
+	}
+	var runs atomic.Int32
+	stop := startWorker(t, q, WorkerOptions{Concurrency: 2, run: func(ctx context.Context, u Unit) (*loop.Report, error) {
+		runs.Add(1)
+		return RunUnit(ctx, u)
+	}})
+	defer stop()
+	for pass := range 2 {
+		var wg sync.WaitGroup
+		reps := make([]*loop.Report, len(units))
+		errs := make([]error, len(units))
+		for i, u := range units {
+			wg.Add(1)
+			go func() { defer wg.Done(); reps[i], errs[i] = q.Run(ctx, u) }()
+		}
+		wg.Wait()
+		for i, u := range units {
+			if errs[i] != nil {
+				t.Fatalf("pass %d unit %d: %v", pass, i, errs[i])
+			}
+			want, err := RunUnit(ctx, u)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if canon(t, Result{Report: reps[i]}) != canon(t, Result{Report: want}) {
+				t.Errorf("pass %d: replication %d through the queue differs from the direct run", pass, i)
+			}
+			if got := reps[i].Seed; got != tune.ReplicationSeed(9, 0, i) {
+				t.Errorf("replication %d ran with seed %d", i, got)
+			}
+		}
+	}
+	if n := runs.Load(); n != 3 {
+		t.Errorf("workers ran %d units for 3 replications asked twice, want 3", n)
 	}
 }
