@@ -13,7 +13,8 @@ import (
 // Embedded is a NATS server with JetStream running inside the process, for
 // the no-setup single-machine mode. It listens on a free loopback port.
 type Embedded struct {
-	srv *server.Server
+	srv    *server.Server
+	unlock func()
 }
 
 // DefaultStoreDir is the on-disk store of the embedded server:
@@ -27,7 +28,8 @@ func DefaultStoreDir() (string, error) {
 }
 
 // StartEmbedded starts an embedded server storing its streams under dir
-// (created if missing). Only one process may use a store at a time.
+// (created if missing). Only one process may use a store at a time: a
+// second one gets an error saying the store is in use.
 func StartEmbedded(dir string) (*Embedded, error) {
 	return startServer(dir, server.RANDOM_PORT)
 }
@@ -40,6 +42,10 @@ func startServer(dir string, port int) (*Embedded, error) {
 	if err := os.MkdirAll(dir, 0o700); err != nil {
 		return nil, fmt.Errorf("jobs: queue store: %w", err)
 	}
+	unlock, err := lockStore(dir)
+	if err != nil {
+		return nil, err
+	}
 	srv, err := server.NewServer(&server.Options{
 		ServerName: "fadeloop-embedded",
 		Host:       "127.0.0.1",
@@ -50,14 +56,16 @@ func startServer(dir string, port int) (*Embedded, error) {
 		NoLog:      true,
 	})
 	if err != nil {
+		unlock()
 		return nil, fmt.Errorf("jobs: embedded queue server: %w", err)
 	}
 	srv.Start()
 	if !srv.ReadyForConnections(30 * time.Second) {
 		srv.Shutdown()
+		unlock()
 		return nil, errors.New("jobs: embedded queue server did not start within 30s")
 	}
-	return &Embedded{srv: srv}, nil
+	return &Embedded{srv: srv, unlock: unlock}, nil
 }
 
 // URL is the server's client URL (nats://127.0.0.1:PORT).
@@ -67,4 +75,5 @@ func (e *Embedded) URL() string { return e.srv.ClientURL() }
 func (e *Embedded) Shutdown() {
 	e.srv.Shutdown()
 	e.srv.WaitForShutdown()
+	e.unlock()
 }

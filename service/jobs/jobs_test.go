@@ -373,3 +373,25 @@ func TestRunTuneReplication(t *testing.T) {
 		t.Errorf("workers ran %d units for 3 replications asked twice, want 3", n)
 	}
 }
+
+// TestStoreInUse: a second embedded server on a store in use is refused
+// with a clear error; after Shutdown the store can be opened again.
+func TestStoreInUse(t *testing.T) {
+	dir := t.TempDir()
+	e, err := StartEmbedded(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e2, err := StartEmbedded(dir); err == nil || !strings.Contains(err.Error(), "in use by another fadeloop process") {
+		if e2 != nil {
+			e2.Shutdown()
+		}
+		t.Errorf("second server on the same store: %v, want an in-use error", err)
+	}
+	e.Shutdown()
+	e, err = StartEmbedded(dir)
+	if err != nil {
+		t.Fatalf("store after Shutdown: %v", err)
+	}
+	e.Shutdown()
+}
