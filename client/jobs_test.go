@@ -143,6 +143,7 @@ func TestJobQueueResumeCSV(t *testing.T) {
 		t.Errorf("interrupted run left %d rows (%v), want header + 3 points:\n%s", len(rows), rerr, b)
 	}
 	msg := out.Describe(err, part)
+	t.Logf("interrupted: %s", msg)
 	for _, want := range []string{"interrupted", "3 of 8 points stored in " + part, "5 remaining", "run the same command again"} {
 		if !strings.Contains(msg, want) {
 			t.Errorf("message %q lacks %q", msg, want)
@@ -159,6 +160,7 @@ func TestJobQueueResumeCSV(t *testing.T) {
 	if out.AlreadyDone < 3 || out.Queued != 8-out.AlreadyDone {
 		t.Errorf("resumed run: %d already done, %d queued; want at least 3 done and only the rest queued", out.AlreadyDone, out.Queued)
 	}
+	t.Logf("resumed: %s", out.Describe(nil, part))
 	a, _ := os.ReadFile(whole)
 	c, _ := os.ReadFile(part)
 	if !bytes.Equal(a, c) {
