@@ -3,7 +3,6 @@ package client
 import (
 	"bufio"
 	"encoding/csv"
-	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -18,7 +17,7 @@ import (
 // Formats of SweepFile.
 const (
 	SweepFileCSV   = "csv"   // one header row, then one row per point
-	SweepFileJSONL = "jsonl" // one jobs.Result (deterministic fields) per line
+	SweepFileJSONL = "jsonl" // one jobs.Result (deterministic fields, jobs.EncodeResult) per line
 )
 
 // SweepFile writes the points of a queued sweep to a file as they arrive,
@@ -88,7 +87,7 @@ func (s *SweepFile) write(r jobs.Result) error {
 	if s.format == SweepFileCSV {
 		return s.cw.Write(SweepCSVRow(r))
 	}
-	b, err := json.Marshal(r.Deterministic())
+	b, err := jobs.EncodeResult(r.Deterministic())
 	if err != nil {
 		return err
 	}

@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -230,8 +229,8 @@ func TestJobQueueJSONLAndStatus(t *testing.T) {
 		t.Fatalf("%d lines, want 8", len(lines))
 	}
 	for i, l := range lines {
-		var r jobs.Result
-		if err := json.Unmarshal([]byte(l), &r); err != nil || r.Index != i || r.Status != jobs.StatusDone || r.Report == nil {
+		r, err := jobs.DecodeResult([]byte(l))
+		if err != nil || r.Index != i || r.Status != jobs.StatusDone || r.Report == nil {
 			t.Errorf("line %d: index %d status %q (%v)", i, r.Index, r.Status, err)
 		}
 	}

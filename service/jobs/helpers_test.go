@@ -2,7 +2,6 @@ package jobs
 
 import (
 	"context"
-	"encoding/json"
 	"testing"
 	"time"
 
@@ -83,15 +82,15 @@ func directResults(t testing.TB, us []Unit) map[int]string {
 // canon is the JSON of r's deterministic fields after a JSON round trip.
 func canon(t testing.TB, r Result) string {
 	t.Helper()
-	b, err := json.Marshal(r.Deterministic())
+	b, err := EncodeResult(r.Deterministic())
 	if err != nil {
 		t.Fatal(err)
 	}
-	var back Result
-	if err := json.Unmarshal(b, &back); err != nil {
+	back, err := DecodeResult(b)
+	if err != nil {
 		t.Fatal(err)
 	}
-	b2, err := json.Marshal(back)
+	b2, err := EncodeResult(back)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -234,8 +234,8 @@ func (q *Queue) scan(ctx context.Context, id string, fn func(Result) error) erro
 				if e == nil {
 					return nil
 				}
-				var r Result
-				if err := json.Unmarshal(e.Value(), &r); err != nil {
+				r, err := DecodeResult(e.Value())
+				if err != nil {
 					return fmt.Errorf("jobs: result %s: %w", e.Key(), err)
 				}
 				if err := fn(r); err != nil {
@@ -306,8 +306,8 @@ func (j *Job) watch(ctx context.Context, seen map[int]bool, fn func(Result) erro
 			if err != nil || !j.indices[idx] || seen[idx] {
 				continue
 			}
-			var r Result
-			if err := json.Unmarshal(e.Value(), &r); err != nil {
+			r, err := DecodeResult(e.Value())
+			if err != nil {
 				return fmt.Errorf("jobs: result %s: %w", e.Key(), err)
 			}
 			seen[idx] = true

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -394,4 +395,34 @@ func TestStoreInUse(t *testing.T) {
 		t.Fatalf("store after Shutdown: %v", err)
 	}
 	e.Shutdown()
+}
+
+// TestNonFiniteRoundTrip: NaN and ±Inf anywhere in a report survive the
+// JSON storage exactly, and the stored form is valid JSON.
+func TestNonFiniteRoundTrip(t *testing.T) {
+	rep := &loop.Report{Seed: 3, WallTimeS: 1.5}
+	rep.Aggregate.ConvergenceTimeS = loop.Estimate{Value: math.NaN(), CILow: math.Inf(-1), CIHigh: math.Inf(1)}
+	rep.Users = []loop.UserFigures{{User: 0, DistanceM: 12.5}, {User: 1, DopplerHz: math.NaN()}}
+	rep.Users[1].Figures.SIRErrorMeanDB.Value = 0.25
+	b, err := EncodeResult(Result{Job: "j", Index: 1, Status: StatusDone, Report: rep})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !math.IsNaN(rep.Aggregate.ConvergenceTimeS.Value) || !math.IsNaN(rep.Users[1].DopplerHz) {
+		t.Errorf("encoding changed the caller's report")
+	}
+	r, err := DecodeResult(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := r.Report
+	switch {
+	case !math.IsNaN(g.Aggregate.ConvergenceTimeS.Value), !math.IsInf(g.Aggregate.ConvergenceTimeS.CILow, -1),
+		!math.IsInf(g.Aggregate.ConvergenceTimeS.CIHigh, 1), !math.IsNaN(g.Users[1].DopplerHz):
+		t.Errorf("non-finite values not restored: %+v %+v", g.Aggregate.ConvergenceTimeS, g.Users[1])
+	case g.Users[0].DistanceM != 12.5 || g.Users[1].Figures.SIRErrorMeanDB.Value != 0.25 || g.WallTimeS != 1.5 || g.Seed != 3:
+		t.Errorf("finite values changed: %+v", g)
+	case r.NonFinite != nil:
+		t.Errorf("decoded result keeps NonFinite %v", r.NonFinite)
+	}
 }

@@ -105,8 +105,8 @@ func (q *Queue) runOnce(ctx context.Context, u Unit, key string, queued *bool) (
 				timer.Reset(runStall)
 				continue
 			}
-			var r Result
-			if err := json.Unmarshal(e.Value(), &r); err != nil {
+			r, err := DecodeResult(e.Value())
+			if err != nil {
 				return Result{}, fmt.Errorf("jobs: result %s: %w", key, err)
 			}
 			if r.Status == StatusFailed && !*queued {

@@ -4,7 +4,6 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"sort"
 
@@ -170,6 +169,9 @@ type Result struct {
 	Attempts int `json:"attempts"`
 	// Worker names the worker that stored the result.
 	Worker string `json:"worker"`
+	// NonFinite lists the report's NaN and ±Inf values (stored only;
+	// decoded results have them back in Report).
+	NonFinite []NonFinite `json:"non_finite,omitempty"`
 }
 
 // Deterministic returns a copy of r without the fields that depend on the
@@ -183,6 +185,3 @@ func (r Result) Deterministic() Result {
 	}
 	return r
 }
-
-// errNotFinite is returned when a report cannot be stored exactly.
-var errNotFinite = errors.New("report holds a non-finite number")

@@ -6,9 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
-	"math"
 	"os"
-	"reflect"
 	"sync"
 	"time"
 
@@ -121,8 +119,8 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 			_ = msg.Nak()
 			return
 		}
-		if err == nil {
-			err = checkFinite(rep)
+		if err == nil && rep == nil {
+			err = errors.New("no report")
 		}
 		if err != nil {
 			if attempt < q.cfg.MaxAttempts {
@@ -135,10 +133,10 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 			res.Status, res.Report = StatusDone, rep
 		}
 	}
-	b, err := json.Marshal(res)
+	b, err := EncodeResult(res)
 	if err != nil {
 		res.Status, res.Error, res.Report = StatusFailed, "encoding the result: "+err.Error(), nil
-		b, _ = json.Marshal(res)
+		b, _ = EncodeResult(res)
 	}
 	err = retry(ctx, func(c context.Context) error {
 		_, err := q.results.Create(c, key, b)
@@ -180,42 +178,4 @@ func (q *Queue) compute(ctx context.Context, o WorkerOptions, msg jetstream.Msg,
 	}()
 	defer func() { close(done); wg.Wait() }()
 	return o.run(ctx, u)
-}
-
-// checkFinite fails for a report with NaN or ±Inf anywhere (JSON cannot
-// hold them, and a stored result must decode to exactly what was computed).
-func checkFinite(rep *loop.Report) error {
-	if rep == nil {
-		return errors.New("no report")
-	}
-	var bad bool
-	var walk func(v reflect.Value)
-	walk = func(v reflect.Value) {
-		if bad {
-			return
-		}
-		switch v.Kind() {
-		case reflect.Float32, reflect.Float64:
-			if f := v.Float(); math.IsNaN(f) || math.IsInf(f, 0) {
-				bad = true
-			}
-		case reflect.Struct:
-			for i := 0; i < v.NumField(); i++ {
-				walk(v.Field(i))
-			}
-		case reflect.Slice, reflect.Array:
-			for i := 0; i < v.Len(); i++ {
-				walk(v.Index(i))
-			}
-		case reflect.Pointer:
-			if !v.IsNil() {
-				walk(v.Elem())
-			}
-		}
-	}
-	walk(reflect.ValueOf(rep))
-	if bad {
-		return errNotFinite
-	}
-	return nil
 }
