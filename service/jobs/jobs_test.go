@@ -426,3 +426,29 @@ func TestNonFiniteRoundTrip(t *testing.T) {
 		t.Errorf("decoded result keeps NonFinite %v", r.NonFinite)
 	}
 }
+
+// TestConnectKeepsExistingSetup: a client connecting with default settings
+// uses the queue as it was created (ack deadline, replicas), never
+// changing it.
+func TestConnectKeepsExistingSetup(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	e, q := embedded(t, t.TempDir(), Config{AckWait: 2 * time.Second})
+	defer e.Shutdown()
+	defer q.Close()
+	q2, err := Connect(ctx, e.URL(), Config{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer q2.Close()
+	if got := q2.Config().AckWait; got != 2*time.Second {
+		t.Errorf("second client's ack deadline %v, want the existing 2s", got)
+	}
+	ci, err := q2.cons.Info(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ci.Config.AckWait != 2*time.Second || ci.Config.MaxDeliver != -1 {
+		t.Errorf("consumer changed by the second client: ack wait %v, max deliver %d", ci.Config.AckWait, ci.Config.MaxDeliver)
+	}
+}

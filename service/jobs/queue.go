@@ -38,13 +38,15 @@ type Config struct {
 	// acknowledgement or an extension before it is redelivered (a killed
 	// worker's unit comes back after at most this long); workers extend it
 	// every AckWait/3 while they compute. Default DefaultAckWait; at least
-	// 1 s.
+	// 1 s. It applies when this process creates the consumer; otherwise the
+	// existing consumer's deadline is used.
 	AckWait time.Duration
 	// MaxAttempts is how many deliveries a unit gets; the last failure is
 	// stored as a failed result. Default DefaultMaxAttempts; 1 to 100.
 	MaxAttempts int
 	// Replicas is the JetStream replica count of the stream and buckets
-	// (3 on a 3-node cluster). Default DefaultReplicas.
+	// (3 on a 3-node cluster), used when this process creates them.
+	// Default DefaultReplicas.
 	Replicas int
 }
 
@@ -81,8 +83,9 @@ type Queue struct {
 }
 
 // Connect connects to the NATS server at url (nats://host:port, a comma
-// list for a cluster) and creates or opens the stream, consumer and
-// buckets. The connection reconnects for ever on loss (a restarted server
+// list for a cluster) and opens the stream, consumer and buckets, creating
+// the missing ones with cfg (existing ones are used unchanged, and the
+// consumer's ack deadline replaces cfg.AckWait). The connection reconnects for ever on loss (a restarted server
 // is picked up again); Close ends it.
 func Connect(ctx context.Context, url string, cfg Config) (*Queue, error) {
 	cfg, err := cfg.withDefaults()
@@ -108,46 +111,61 @@ func open(ctx context.Context, nc *nats.Conn, cfg Config) (*Queue, error) {
 		return nil, err
 	}
 	q := &Queue{nc: nc, js: js, cfg: cfg}
-	q.stream, err = js.CreateOrUpdateStream(ctx, jetstream.StreamConfig{
-		Name:        UnitStream,
-		Description: "fadeloop work units (sweep points, tune replications)",
-		Subjects:    []string{UnitSubjectPrefix + "*"},
-		Retention:   jetstream.WorkQueuePolicy,
-		Storage:     jetstream.FileStorage,
-		Replicas:    cfg.Replicas,
-		Duplicates:  2 * time.Minute,
-	})
+	// Existing objects are used as they are: a client with default settings
+	// must not change what the cluster's operator set up (replicas, ack
+	// deadline); only missing objects are created with cfg.
+	q.stream, err = js.Stream(ctx, UnitStream)
+	if errors.Is(err, jetstream.ErrStreamNotFound) {
+		q.stream, err = js.CreateStream(ctx, jetstream.StreamConfig{
+			Name:        UnitStream,
+			Description: "fadeloop work units (sweep points, tune replications)",
+			Subjects:    []string{UnitSubjectPrefix + "*"},
+			Retention:   jetstream.WorkQueuePolicy,
+			Storage:     jetstream.FileStorage,
+			Replicas:    cfg.Replicas,
+			Duplicates:  2 * time.Minute,
+		})
+	}
 	if err != nil {
-		return nil, fmt.Errorf("jobs: creating stream %s: %w", UnitStream, err)
+		return nil, fmt.Errorf("jobs: stream %s: %w", UnitStream, err)
 	}
 	// Deliveries are unlimited at the server: the worker itself stores a
-	// failed result on delivery MaxAttempts (even when every earlier
+	// failed result on delivery MaxAttempts+1 (even when every earlier
 	// delivery was lost with its worker), so no unit is left unanswered.
-	q.cons, err = q.stream.CreateOrUpdateConsumer(ctx, jetstream.ConsumerConfig{
-		Durable:       WorkerConsumer,
-		Description:   "fadeloop workers",
-		AckPolicy:     jetstream.AckExplicitPolicy,
-		AckWait:       cfg.AckWait,
-		MaxDeliver:    -1,
-		MaxAckPending: 10000,
-		FilterSubject: UnitSubjectPrefix + "*",
-		Replicas:      cfg.Replicas,
-	})
+	q.cons, err = q.stream.Consumer(ctx, WorkerConsumer)
+	if errors.Is(err, jetstream.ErrConsumerNotFound) {
+		q.cons, err = q.stream.CreateConsumer(ctx, jetstream.ConsumerConfig{
+			Durable:       WorkerConsumer,
+			Description:   "fadeloop workers",
+			AckPolicy:     jetstream.AckExplicitPolicy,
+			AckWait:       cfg.AckWait,
+			MaxDeliver:    -1,
+			MaxAckPending: 10000,
+			FilterSubject: UnitSubjectPrefix + "*",
+			Replicas:      cfg.Replicas,
+		})
+	}
 	if err != nil {
-		return nil, fmt.Errorf("jobs: creating consumer %s: %w", WorkerConsumer, err)
+		return nil, fmt.Errorf("jobs: consumer %s: %w", WorkerConsumer, err)
+	}
+	if aw := q.cons.CachedInfo().Config.AckWait; aw > 0 {
+		q.cfg.AckWait = aw // the deadline the server applies
 	}
 	for _, b := range []struct {
 		kv   *jetstream.KeyValue
 		name string
 	}{{&q.results, ResultBucket}, {&q.jobsKV, JobBucket}} {
-		*b.kv, err = js.CreateOrUpdateKeyValue(ctx, jetstream.KeyValueConfig{
-			Bucket:       b.name,
-			Storage:      jetstream.FileStorage,
-			Replicas:     cfg.Replicas,
-			MaxValueSize: 8 << 20,
-		})
+		*b.kv, err = js.KeyValue(ctx, b.name)
+		if errors.Is(err, jetstream.ErrBucketNotFound) {
+			*b.kv, err = js.CreateKeyValue(ctx, jetstream.KeyValueConfig{
+				Bucket:       b.name,
+				Storage:      jetstream.FileStorage,
+				Replicas:     cfg.Replicas,
+				MaxValueSize: 8 << 20,
+			})
+		}
 		if err != nil {
-			return nil, fmt.Errorf("jobs: creating bucket %s: %w", b.name, err)
+			return nil, fmt.Errorf("jobs: bucket %s: %w", b.name, err)
 		}
 	}
 	return q, nil

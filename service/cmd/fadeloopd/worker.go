@@ -40,7 +40,7 @@ func parseWorkerFlags(args []string, stderr io.Writer) (*workerOptions, error) {
 	}
 	fs.StringVar(&o.queue, "queue", "", "NATS server URL, nats://HOST:PORT (a comma list for a cluster); required")
 	fs.IntVar(&o.concurrency, "concurrency", 1, "units computed at once (each engine run already uses every core)")
-	fs.DurationVar(&o.ackWait, "ack-wait", jobs.DefaultAckWait, "redelivery deadline of a unit whose worker stops answering (extended while it computes); must match the other workers'")
+	fs.DurationVar(&o.ackWait, "ack-wait", jobs.DefaultAckWait, "redelivery deadline of a unit whose worker stops answering (extended while it computes); applies when this worker creates the queue, else the queue's own deadline is used")
 	fs.IntVar(&o.maxAttempts, "max-attempts", jobs.DefaultMaxAttempts, "deliveries of a unit before it is stored as failed with its error")
 	fs.IntVar(&o.repl, "replicas", jobs.DefaultReplicas, "JetStream replicas of the stream and buckets when this worker creates them (3 on a 3-node cluster)")
 	fs.StringVar(&o.name, "name", "", "worker name stored with its results (default host:pid)")
