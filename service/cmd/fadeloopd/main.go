@@ -62,6 +62,9 @@ func run(args []string, stderr io.Writer) error {
 }
 
 func runEnv(args []string, stderr io.Writer, getenv func(string) (string, bool)) error {
+	if len(args) > 0 && args[0] == "worker" {
+		return runWorker(args[1:], stderr) // worker.go
+	}
 	d, err := parseFlags(args, stderr, getenv)
 	if err != nil {
 		if errors.Is(err, flag.ErrHelp) {
