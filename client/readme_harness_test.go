@@ -67,9 +67,12 @@ func TestREADMEUpdatedLines(t *testing.T) {
 	}{
 		{"no elision: the whole output",
 			[]string{"old"}, act},
-		{"matching: masked figures refreshed, elisions kept",
+		{"matching: the README's timings and elisions kept",
 			[]string{"title", "in 0.14 s", "...", "done"},
-			[]string{"title", "in 0.20 s", "...", "done"}},
+			[]string{"title", "in 0.14 s", "...", "done"}},
+		{"changed: a line differing only in timings keeps the README's",
+			[]string{"title", "in 0.14 s", "", "old"},
+			[]string{"title", "in 0.14 s", "", "per user:", "0  x  1.25", "1  x  1.50", "2  x  1.75", "done"}},
 		{"changed: head and tail from the output, the middle placed by its first line",
 			[]string{"title", "...", "per user:", "0  x  9.99", "   ...", "done"},
 			[]string{"title", "...", "per user:", "0  x  1.25", "   ...", "done"}},
@@ -82,6 +85,12 @@ func TestREADMEUpdatedLines(t *testing.T) {
 		if !reflect.DeepEqual(got, c.want) {
 			t.Errorf("%s:\n got %q\nwant %q", c.name, got, c.want)
 		}
+	}
+	*updateTimings = true
+	got, _ := updatedLines([]string{"title", "in 0.14 s", "...", "done"}, act)
+	*updateTimings = false
+	if want := []string{"title", "in 0.20 s", "...", "done"}; !reflect.DeepEqual(got, want) {
+		t.Errorf("-update-timings: got %q, want %q", got, want)
 	}
 	if _, err := updatedLines([]string{"title", "...", "no such line", "...", "done"}, act); err == nil {
 		t.Error("an unplaceable segment was accepted")

@@ -36,8 +36,8 @@ package client_test
 // Lines are compared after the masks in readmeMasks replace timings and
 // throughput (wall times, "in 0.14 s", "M user-slots/s", timestamps, temp
 // directories, loopback ports) on both sides; progress lines ("progress:
-// ..." on standard error, whose count depends on speed) are dropped from the
-// output. Everything else must match exactly.
+// ..." from the CLI, "progress 52.1% ..." from the Python example: their
+// count depends on speed) are dropped from the output. Everything else must match exactly.
 //
 // # Blocks with a server
 //
@@ -48,12 +48,19 @@ package client_test
 // expected lines are compared with the first lines it prints by the time it
 // accepts connections; otherwise the harness starts `fadeloopd -listen
 // 127.0.0.1:PORT -metrics-listen ""` itself, before the first command. The
-// server gets SIGTERM when the block ends.
+// server gets SIGTERM when the block ends. In the output, the live address
+// is written back as the README's (the block's first loopback address), so
+// that -update keeps "127.0.0.1:8470" where the README has it.
 //
 // # -update
 //
 // With -update, each marked block's output lines are replaced by the real
-// run's, keeping the README's elisions: the lines before the first "..."
+// run's, keeping the README's elisions. A step whose output already matches
+// (under the masks) is left as it is, so that timings measured on a quiet
+// machine are not replaced by a busy machine's; -update-timings rewrites
+// those too. Line by line likewise: where the output changed, a line that
+// differs from the README's only in masked timings keeps the README's
+// text. Around elisions, the lines before the first "..."
 // are the first lines of the real output, the lines after the last are its
 // last lines, and a segment between two elisions is placed where its first
 // line (numbers aside) reappears in the output. Only output lines inside
@@ -76,7 +83,10 @@ import (
 	"time"
 )
 
-var updateREADME = flag.Bool("update", false, "rewrite the README's marked output blocks from real runs")
+var (
+	updateREADME  = flag.Bool("update", false, "rewrite the README's marked output blocks from real runs")
+	updateTimings = flag.Bool("update-timings", false, "with -update, also rewrite lines that differ only in masked timings")
+)
 
 // readmeMasks are applied, in order, to every expected and every actual
 // line before they are compared: each replaces a timing or throughput
@@ -209,6 +219,27 @@ func shapeKey(s string) string {
 	return strings.Join(strings.Fields(numberRE.ReplaceAllString(maskLine(s), "#")), " ")
 }
 
+// keepLine is the line -update writes for an expected line placed at an
+// actual one: the README's when the two differ only in masked timings
+// (unless -update-timings), the real one otherwise.
+func keepLine(expected, actual string) string {
+	if !*updateTimings && maskLine(expected) == maskLine(actual) {
+		return expected
+	}
+	return actual
+}
+
+// keepLines applies keepLine to lines placed one for one.
+func keepLines(expected, actual []string) []string {
+	out := append([]string(nil), actual...)
+	for i := range out {
+		if i < len(expected) {
+			out[i] = keepLine(expected[i], out[i])
+		}
+	}
+	return out
+}
+
 // updatedLines is the expected block rewritten from actual output, keeping
 // the elisions (see the package comment). It fails when a segment between
 // two elisions cannot be placed.
@@ -219,7 +250,7 @@ func updatedLines(expected, actual []string) ([]string, error) {
 			if p < 0 {
 				out[i] = expected[i]
 			} else {
-				out[i] = actual[p]
+				out[i] = keepLine(expected[i], actual[p])
 			}
 		}
 		return out, nil
@@ -239,13 +270,13 @@ func updatedLines(expected, actual []string) ([]string, error) {
 	}
 	segs = append(segs, cur)
 	if len(elisions) == 0 {
-		return append([]string(nil), actual...), nil
+		return keepLines(expected, actual), nil
 	}
 	first, last := len(segs[0]), len(segs[len(segs)-1])
 	if first+last > len(actual) {
 		return nil, fmt.Errorf("real output has %d lines, fewer than the %d kept around the elisions", len(actual), first+last)
 	}
-	out := append([]string(nil), actual[:first]...)
+	out := keepLines(segs[0], actual[:first])
 	a := first
 	end := len(actual) - last
 	for k := 1; k < len(segs)-1; k++ {
@@ -265,11 +296,11 @@ func updatedLines(expected, actual []string) ([]string, error) {
 		if found < 0 {
 			return nil, fmt.Errorf("cannot place the lines after elision %d (starting %q) in the real output; edit the README block by hand", k, seg[0])
 		}
-		out = append(out, actual[found:found+len(seg)]...)
+		out = append(out, keepLines(seg, actual[found:found+len(seg)])...)
 		a = found + len(seg)
 	}
 	out = append(out, elisions[len(elisions)-1])
-	out = append(out, actual[end:]...)
+	out = append(out, keepLines(segs[len(segs)-1], actual[end:])...)
 	return out, nil
 }
 
@@ -324,6 +355,7 @@ var (
 	goRunDRE   = regexp.MustCompile(`\bgo run \./service/cmd/fadeloopd\b`)
 	loopbackRE = regexp.MustCompile(`127\.0\.0\.1:(?:[0-9]+|PORT)\b`)
 	serverCmd  = regexp.MustCompile(`^(?:fadeloop serve|fadeloopd)\b`)
+	progressRE = regexp.MustCompile(`^progress(?:: | +[0-9.]+%)`)
 )
 
 // rewriteCommand turns a README command into the one run: the built
@@ -346,7 +378,7 @@ func outputLines(out string) []string {
 	}
 	var lines []string
 	for _, l := range strings.Split(out, "\n") {
-		if strings.HasPrefix(l, "progress: ") {
+		if progressRE.MatchString(l) {
 			continue
 		}
 		lines = append(lines, l)
@@ -449,13 +481,18 @@ func runBlock(t *testing.T, env readmeEnv, b readmeBlock) [][]string {
 		}
 	}
 	outs := make([][]string, len(b.steps))
-	addr := ""
+	addr, readmeAddr := "", ""
 	steps := b.steps
 	if b.withServer {
 		addr = freeLoopbackAddr(t)
+		for _, s := range steps {
+			if readmeAddr = loopbackRE.FindString(s.cmd); readmeAddr != "" {
+				break
+			}
+		}
 		if serverCmd.MatchString(rewriteCommand(steps[0].cmd, "")) {
 			out := startServer(t, dir, procEnv, rewriteCommand(steps[0].cmd, addr), addr)
-			lines := outputLines(out)
+			lines := outputLines(strings.ReplaceAll(out, addr, readmeAddr))
 			// A server's lines are compared with the first ones it prints
 			// (as many as the README shows, at least one).
 			if n := max(len(steps[0].expected), 1); len(lines) > n {
@@ -481,7 +518,11 @@ func runBlock(t *testing.T, env readmeEnv, b readmeBlock) [][]string {
 			t.Fatalf("README.md:%d: %s: %v", s.cmdLine+1, s.cmd, err)
 		}
 		t.Logf("README.md:%d: %s (%.2f s)", s.cmdLine+1, s.cmd, time.Since(start).Seconds())
-		outs[off+i] = outputLines(out.String())
+		text := out.String()
+		if addr != "" && readmeAddr != "" {
+			text = strings.ReplaceAll(text, addr, readmeAddr)
+		}
+		outs[off+i] = outputLines(text)
 	}
 	return outs
 }
