@@ -109,6 +109,8 @@ var readmeMasks = []struct {
 	{regexp.MustCompile(`127\.0\.0\.1:(?:[0-9]+|PORT)`), "127.0.0.1:<PORT>"},
 	// Temporary directories.
 	{regexp.MustCompile(`/tmp/[^\s:'"]*`), "<TMP>"},
+	// A bench row's wall time and two rates ("0.207      27.88 M         83.65 M").
+	{regexp.MustCompile(`[0-9]+\.[0-9]+ +[0-9.]+ [kMG] +[0-9.]+ [kMG]$`), "<T> <R> <R>"},
 	// The core count of the machine.
 	{regexp.MustCompile(`GOMAXPROCS [0-9]+`), "GOMAXPROCS <N>"},
 }
