@@ -511,6 +511,7 @@ func runBlock(t *testing.T, env readmeEnv, b readmeBlock) [][]string {
 		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Minute)
 		c := exec.CommandContext(ctx, "sh", "-c", rewriteCommand(s.cmd, addr))
 		c.Dir, c.Env = dir, procEnv
+		c.WaitDelay = 10 * time.Second // a child left holding the output pipe
 		var out bytes.Buffer
 		c.Stdout, c.Stderr = &out, &out
 		start := time.Now()
