@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"encoding/json"
 	"errors"
+	"flag"
 	"fmt"
 	"os"
 	"regexp"
@@ -14,6 +15,8 @@ import (
 	corev1 "k8s.io/api/core/v1"
 	kjson "sigs.k8s.io/json"
 	"sigs.k8s.io/yaml"
+
+	"github.com/fadeloop/fadeloop/service"
 )
 
 // manifests decodes every document of every manifest strictly (unknown or
@@ -118,7 +121,12 @@ func flagNames(t *testing.T) map[string]bool {
 	t.Helper()
 	re := regexp.MustCompile(`fs\.\w+Var\(&o\.\w+, "([a-z-]+)"`)
 	out := map[string]bool{}
-	for _, f := range []string{"../cmd/fadeloopd/main.go", "../cmd/fadeloopd/worker.go"} {
+	// The server's flags: the one flag set of fadeloopd and `fadeloop serve`.
+	fs := flag.NewFlagSet("fadeloopd", flag.ContinueOnError)
+	service.NewDaemonFlags().Register(fs)
+	fs.VisitAll(func(f *flag.Flag) { out[f.Name] = true })
+	// The worker's flags (package main of fadeloopd: read from its source).
+	for _, f := range []string{"../cmd/fadeloopd/worker.go"} {
 		b, err := os.ReadFile(f)
 		if err != nil {
 			t.Fatal(err)
