@@ -1,0 +1,21 @@
+// Package multicell simulates the uplink of a hexagonal multi-cell layout in
+// which every cell's receiver sees every user, so that the other-cell
+// interference ratio f, the noise rise of each cell and the outage at the
+// cell edge come out of the simulation instead of being assumed.
+//
+// Model (see Config for every parameter, its unit, range and source):
+// 1, 7 or 19 sites, omni or three sectors (antenna −min(12(θ/70°)², 20) dB),
+// optional wrap-around; users dropped uniformly in each site's hexagon;
+// log-distance path loss and log-normal shadowing to every site, correlated
+// between sites and in distance travelled (Gudmundson); an active set of
+// the cells within a handover window of the best; Rayleigh fast fading on
+// the links of the active set (toward the other cells the slow gain, or
+// every link fading for small layouts); one closed loop per cell of the
+// active set, the user raising its power only when every cell says up; the
+// jump-rule outer loop on the selection-combined block result; optional
+// open-loop power setting under the closed loop.
+//
+// The package is pure Go (fading, loop, gonum); it never imports grpc or
+// generated code. Every draw comes from fading.NewStream streams derived
+// from the seed, so a report is identical whatever GOMAXPROCS is.
+package multicell

@@ -1,0 +1,245 @@
+package multicell
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"math"
+	"runtime"
+	"strings"
+	"testing"
+
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// smallLayout is a 7-site layout with fast fading on the active-set links
+// and the outer loop on, for the engine's behavioural tests.
+func smallLayout() Config {
+	return Config{
+		Layout:    Layout{Sites: 7, SectorsPerSite: 3, InterSiteDistanceM: 800, WrapAround: true},
+		Groups:    []Group{{CountPerCell: 2, SpeedKmh: 30, Profile: "PEDA"}, {Name: "cars", CountPerCell: 1, SpeedKmh: 90}},
+		Channel:   Channel{ShadowingDB: 8, SiteCorrelation: 0.5},
+		Handover:  Handover{WindowDB: 4, HysteresisDB: 1, MaxActive: 3, UpdateSlots: 150},
+		InnerLoop: InnerLoop{FeedbackDelaySlots: 1, CommandErrorProb: 0.04, SIREstimationErrorDB: 1},
+		OuterLoop: loop.OuterLoop{Enabled: true, InitialTargetDB: 6},
+		Run:       RunSettings{Slots: 900, WarmupSlots: 300, Replications: 2, Seed: 3, Batches: 4},
+	}
+}
+
+// TestDeterministicAcrossCores: the report is bit-identical whatever
+// GOMAXPROCS is (replications run in parallel and merge in order).
+func TestDeterministicAcrossCores(t *testing.T) {
+	var out [2][]byte
+	for i, procs := range []int{1, 2} {
+		old := runtime.GOMAXPROCS(procs)
+		rep, err := Run(context.Background(), smallLayout())
+		runtime.GOMAXPROCS(old)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out[i], _ = json.Marshal(rep)
+	}
+	if string(out[0]) != string(out[1]) {
+		t.Fatal("reports differ between GOMAXPROCS 1 and 2")
+	}
+}
+
+// TestFiguresInRange: every proportion and its interval lie in [0, 1], the
+// SIR error std interval is non-negative, the outer loop holds the BLER
+// target within its interval's reach, and soft handover occurs.
+func TestFiguresInRange(t *testing.T) {
+	cfg := smallLayout()
+	cfg.Run.Slots = 3000
+	rep, err := Run(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := rep.Overall
+	props := map[string]loop.Estimate{"outage": o.OutageProbability, "soft handover": o.SoftHandoverShare,
+		"at max": o.TimeAtMaxPower, "at max edge": o.TimeAtMaxEdge, "BLER": o.AchievedBLER}
+	for i := 0; i < LegStates; i++ {
+		props["outage by legs"] = o.OutageByLegs[i]
+		props["leg share"] = o.LegShare[i]
+	}
+	for name, e := range props {
+		if !(e.CILow >= 0 && e.CILow <= e.Value && e.Value <= e.CIHigh && e.CIHigh <= 1) {
+			t.Errorf("%s: %v outside [0, 1] or not ordered", name, e)
+		}
+	}
+	if o.SIRErrorStdDB.CILow < 0 {
+		t.Errorf("SIR error std interval %v below 0", o.SIRErrorStdDB)
+	}
+	if o.SoftHandoverShare.Value <= 0.05 {
+		t.Errorf("soft handover share %.3f: expected users in soft handover with a 4 dB window", o.SoftHandoverShare.Value)
+	}
+	// Jump rule: the achieved BLER equals the target at equilibrium
+	// (Sampath, Kumar & Holtzman, IEEE VTC 1997). The 2 × 2700-slot run has
+	// 2·2700/15·63 ≈ 22 700 blocks; 0.1 ± 4 standard errors of a proportion
+	// over about 1/3 of them as independent (target correlation) is ±0.012.
+	if math.Abs(o.AchievedBLER.Value-0.1) > 0.015 {
+		t.Errorf("achieved BLER %.4f, want 0.1 ± 0.015", o.AchievedBLER.Value)
+	}
+	var sum float64
+	for _, s := range o.LegShare {
+		sum += s.Value
+	}
+	if math.Abs(sum-1) > 1e-9 {
+		t.Errorf("leg shares sum to %g", sum)
+	}
+}
+
+// TestCombiningRule: a user in soft handover lowers its power when any cell
+// of its active set says down and raises it only when every cell says up
+// (3GPP TS 25.214 §5.1.2.2.3 (memory)).
+func TestCombiningRule(t *testing.T) {
+	cfg := Config{
+		Layout:    Layout{Sites: 7, SectorsPerSite: 1, InterSiteDistanceM: 1000},
+		Groups:    []Group{{CountPerCell: 1}},
+		Channel:   Channel{FastFading: FastFadingNone},
+		Handover:  Handover{MaxActive: 2},
+		OuterLoop: loop.OuterLoop{InitialTargetDB: 5},
+		Run:       RunSettings{Slots: 10, Batches: 4},
+	}
+	cfg.Normalise()
+	if vs := cfg.Validate(); len(vs) > 0 {
+		t.Fatal(vs)
+	}
+	for _, tc := range []struct {
+		name    string
+		aboveDB [2]float64 // each leg's SIR relative to the target
+		wantDB  float64    // power change
+	}{
+		{"both up", [2]float64{-10, -10}, +1},
+		{"one says down", [2]float64{-10, +10}, -1},
+		{"both down", [2]float64{+10, +10}, -1},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rp, err := newRep(cfg, 1, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			rp.updateSlowGains(0)
+			rp.updateActiveSets(true)
+			us := &rp.users[0]
+			us.legs = [maxLegsPerUser]int{0, 1, -1, -1, -1, -1, -1, -1}
+			us.nLegs, us.best = 2, 0
+			// Silence every other user and set the two legs' gains so that
+			// each leg's SIR is the target times 10^(aboveDB/10).
+			for u := 1; u < rp.U; u++ {
+				rp.users[u].p = 1e-30
+			}
+			us.p = 1
+			for leg, c := range []int{0, 1} {
+				// SIR = W/R · p g / N  → g = SIR·N/(W/R·p).
+				rp.slow[c*rp.U] = us.target * dbToLin(tc.aboveDB[leg]) * rp.noiseMW / rp.pg
+			}
+			rp.slot(1, 0)
+			got := 10 * math.Log10(us.p)
+			if math.Abs(got-tc.wantDB) > 1e-9 {
+				t.Errorf("power moved %+.3f dB, want %+.0f dB", got, tc.wantDB)
+			}
+		})
+	}
+}
+
+// TestValidation: every broken rule is named with its field path.
+func TestValidation(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		edit  func(*Config)
+		field string
+	}{
+		{"sites", func(c *Config) { c.Layout.Sites = 5 }, "layout.sites"},
+		{"sectors", func(c *Config) { c.Layout.SectorsPerSite = 2 }, "layout.sectors_per_site"},
+		{"wrap one site", func(c *Config) { c.Layout.Sites, c.Layout.WrapAround = 1, true }, "layout.wrap_around"},
+		{"count", func(c *Config) { c.Groups[0].CountPerCell = 0 }, "groups[0].count_per_cell"},
+		{"profile", func(c *Config) { c.Groups[0].Profile = "NOPE" }, "groups[0].profile"},
+		{"too many users", func(c *Config) { c.Layout.Sites, c.Groups[0].CountPerCell = 19, 1000 }, "groups"},
+		{"full fading too big", func(c *Config) { c.Channel.FastFading = FastFadingFull; c.Groups[0].CountPerCell = 200 }, "channel.fast_fading"},
+		{"window", func(c *Config) { c.Handover.WindowDB = 30 }, "handover.window_db"},
+		{"max active", func(c *Config) { c.Handover.MaxActive = 9 }, "handover.max_active"},
+		{"warm-up", func(c *Config) { c.Run.WarmupSlots = c.Run.Slots }, "run.warmup_slots"},
+		{"NaN exponent", func(c *Config) { c.Channel.PathLossExponent = math.NaN() }, "channel.path_loss_exponent"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			cfg := smallLayout()
+			tc.edit(&cfg)
+			_, err := Run(context.Background(), cfg)
+			var vs loop.Violations
+			if !errors.As(err, &vs) {
+				t.Fatalf("got %v, want loop.Violations", err)
+			}
+			found := false
+			for _, v := range vs {
+				found = found || v.Field == tc.field
+			}
+			if !found {
+				t.Errorf("violations %v do not name %s", vs, tc.field)
+			}
+		})
+	}
+}
+
+// TestCancel: a cancelled context stops the run with its error.
+func TestCancel(t *testing.T) {
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := Run(ctx, smallLayout()); !errors.Is(err, context.Canceled) {
+		t.Fatalf("got %v, want context.Canceled", err)
+	}
+}
+
+// TestMemoryDoesNotGrowWithRunLength: allocations are made at set-up only;
+// a run four times as long allocates the same (the slot loop allocates
+// nothing, active-set updates reuse their buffers).
+func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
+	allocs := func(slots int64) float64 {
+		cfg := smallLayout()
+		cfg.Run.Replications = 1
+		cfg.Run.Slots = slots
+		return testing.AllocsPerRun(2, func() {
+			if _, err := Run(context.Background(), cfg); err != nil {
+				t.Fatal(err)
+			}
+		})
+	}
+	short, long := allocs(600), allocs(2400)
+	if long > short+4 {
+		t.Errorf("allocations grow with run length: %.0f for 600 slots, %.0f for 2400", short, long)
+	}
+}
+
+// BenchmarkMultiCell1140 is the multi-cell size of the issue: 19 sites × 3
+// sectors × 20 users (1140 users) at 1500 Hz, one second per operation;
+// it reports user-slots/s.
+func BenchmarkMultiCell1140(b *testing.B) {
+	cfg := Config{
+		Layout:    Layout{Sites: 19, SectorsPerSite: 3, InterSiteDistanceM: 1000, WrapAround: true},
+		Groups:    []Group{{CountPerCell: 20, SpeedKmh: 30}},
+		Channel:   Channel{ShadowingDB: 8, SiteCorrelation: 0.5},
+		Handover:  Handover{WindowDB: 4, HysteresisDB: 1, MaxActive: 3},
+		OuterLoop: loop.OuterLoop{InitialTargetDB: 5},
+		Run:       RunSettings{Slots: 1500, WarmupSlots: 300, Seed: 1},
+	}
+	b.ReportAllocs()
+	var userSlots int64
+	for i := 0; i < b.N; i++ {
+		rep, err := Run(context.Background(), cfg)
+		if err != nil {
+			b.Fatal(err)
+		}
+		userSlots += rep.SimulatedUserSlots
+	}
+	b.ReportMetric(float64(userSlots)/b.Elapsed().Seconds(), "user-slots/s")
+}
+
+// sanity: the cell names used in reports.
+func TestCellNames(t *testing.T) {
+	l := Layout{Sites: 7, SectorsPerSite: 3}
+	if got := l.CellName(5); got != "S1/2" {
+		t.Errorf("CellName(5) = %q", got)
+	}
+	if !strings.HasPrefix(Layout{Sites: 7, SectorsPerSite: 1}.CellName(3), "S3") {
+		t.Error("omni names")
+	}
+}

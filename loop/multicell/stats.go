@@ -1,0 +1,329 @@
+package multicell
+
+import (
+	"math"
+
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// sums are the additive statistics of one unit (a batch of slots of one
+// replication, or a whole replication).
+type sums struct {
+	slots                            float64
+	userSlots, outage, atMax         float64
+	edgeSlots, edgeAtMax             float64
+	legSlots, legOutage, legAtMax    [LegStates]float64
+	sirErrDB, sirErrDB2, txDBm       float64
+	blocks, blockErrs                float64
+	ownMW, otherMW, noiseRiseDB      float64 // over every cell
+	cellOwnMW, cellOtherMW, cellRise []float64
+	cellServed                       []float64
+}
+
+func newSums(cells int) sums {
+	return sums{cellOwnMW: make([]float64, cells), cellOtherMW: make([]float64, cells),
+		cellRise: make([]float64, cells), cellServed: make([]float64, cells)}
+}
+
+func (s *sums) add(o *sums) {
+	s.slots += o.slots
+	s.userSlots += o.userSlots
+	s.outage += o.outage
+	s.atMax += o.atMax
+	s.edgeSlots += o.edgeSlots
+	s.edgeAtMax += o.edgeAtMax
+	for i := range s.legSlots {
+		s.legSlots[i] += o.legSlots[i]
+		s.legOutage[i] += o.legOutage[i]
+		s.legAtMax[i] += o.legAtMax[i]
+	}
+	s.sirErrDB += o.sirErrDB
+	s.sirErrDB2 += o.sirErrDB2
+	s.txDBm += o.txDBm
+	s.blocks += o.blocks
+	s.blockErrs += o.blockErrs
+	s.ownMW += o.ownMW
+	s.otherMW += o.otherMW
+	s.noiseRiseDB += o.noiseRiseDB
+	for c := range s.cellOwnMW {
+		s.cellOwnMW[c] += o.cellOwnMW[c]
+		s.cellOtherMW[c] += o.cellOtherMW[c]
+		s.cellRise[c] += o.cellRise[c]
+		s.cellServed[c] += o.cellServed[c]
+	}
+}
+
+// collector gathers one replication's statistics.
+type collector struct {
+	batches   []sums
+	cur       int   // current batch
+	measured  int64 // measured slots so far
+	perBatch  float64
+	ratioHist [][]uint32 // per cell: per-slot other/own in dB
+	riseHist  [][]uint32 // per cell: per-slot noise rise in dB
+	marginLin float64
+	pmax      float64
+	users     []userAcc // replication 0 only
+	p         []float64 // reused power vector
+}
+
+type userAcc struct{ slots, outage, legs, txDBm float64 }
+
+func newCollector(rp *rep, r int) *collector {
+	nb := rp.cfg.Run.Batches
+	c := &collector{batches: make([]sums, nb), marginLin: math.Pow(10, -rp.cfg.Run.OutageMarginDB/10), pmax: rp.pmax}
+	for i := range c.batches {
+		c.batches[i] = newSums(rp.C)
+	}
+	c.perBatch = float64(rp.cfg.Run.Slots-rp.cfg.Run.WarmupSlots) / float64(nb)
+	c.ratioHist = make([][]uint32, rp.C)
+	c.riseHist = make([][]uint32, rp.C)
+	for i := range c.ratioHist {
+		c.ratioHist[i] = make([]uint32, histBins)
+		c.riseHist[i] = make([]uint32, histBins)
+	}
+	if r == 0 {
+		c.users = make([]userAcc, rp.U)
+	}
+	return c
+}
+
+func histIndex(db float64) int {
+	i := int((db - histLoDB) / histBinsDB)
+	return min(histBins-1, max(0, i))
+}
+
+// user records one user-slot.
+func (c *collector) user(u int, us *user, sir, p float64) {
+	b := &c.batches[c.cur]
+	out := 0.0
+	if sir < us.target*c.marginLin {
+		out = 1
+	}
+	mx := 0.0
+	if p >= c.pmax*(1-1e-12) {
+		mx = 1
+	}
+	li := min(us.nLegs, LegStates) - 1
+	errDB := 10*math.Log10(math.Max(sir, 1e-30)) - us.targetDB
+	txDBm := 10 * math.Log10(p)
+	b.userSlots++
+	b.outage += out
+	b.atMax += mx
+	if us.edge {
+		b.edgeSlots++
+		b.edgeAtMax += mx
+	}
+	b.legSlots[li]++
+	b.legOutage[li] += out
+	b.legAtMax[li] += mx
+	b.sirErrDB += errDB
+	b.sirErrDB2 += errDB * errDB
+	b.txDBm += txDBm
+	b.cellServed[us.best]++
+	if c.users != nil {
+		a := &c.users[u]
+		a.slots++
+		a.outage += out
+		a.legs += float64(us.nLegs)
+		a.txDBm += txDBm
+	}
+}
+
+// block records one combined block result.
+func (c *collector) block(err bool) {
+	b := &c.batches[c.cur]
+	b.blocks++
+	if err {
+		b.blockErrs++
+	}
+}
+
+// cells records the cells' interference of one slot and closes the slot.
+func (c *collector) cells(rp *rep) {
+	b := &c.batches[c.cur]
+	b.slots++
+	for k := 0; k < rp.C; k++ {
+		own := rp.own[k]
+		other := math.Max(0, rp.rx[k]-rp.noiseMW-own)
+		rise := 10 * math.Log10(rp.rx[k]/rp.noiseMW)
+		b.ownMW += own
+		b.otherMW += other
+		b.noiseRiseDB += rise
+		b.cellOwnMW[k] += own
+		b.cellOtherMW[k] += other
+		b.cellRise[k] += rise
+		if own > 0 {
+			c.ratioHist[k][histIndex(10*math.Log10(math.Max(other/own, 1e-30)))]++
+		}
+		c.riseHist[k][histIndex(rise)]++
+	}
+	c.measured++
+	if float64(c.measured) >= float64(c.cur+1)*c.perBatch && c.cur < len(c.batches)-1 {
+		c.cur++
+	}
+}
+
+// repResult is one replication's statistics.
+type repResult struct {
+	batches   []sums
+	total     sums
+	ratioHist [][]uint32
+	riseHist  [][]uint32
+	users     []userAcc
+	points    []UserPoint
+	userSlots int64
+}
+
+func (c *collector) result(rp *rep) *repResult {
+	res := &repResult{batches: c.batches, total: newSums(rp.C), ratioHist: c.ratioHist, riseHist: c.riseHist, users: c.users}
+	for i := range c.batches {
+		res.total.add(&c.batches[i])
+	}
+	res.userSlots = int64(rp.U) * rp.cfg.Run.Slots
+	if c.users != nil {
+		for u, us := range rp.users {
+			a := c.users[u]
+			pt := UserPoint{XM: us.x, YM: us.y, Group: us.group, BestCell: us.best}
+			if a.slots > 0 {
+				pt.MeanLegs = a.legs / a.slots
+				pt.OutageProbability = a.outage / a.slots
+				pt.TxPowerMeanDBm = a.txDBm / a.slots
+			}
+			res.points = append(res.points, pt)
+		}
+	}
+	return res
+}
+
+// histPercentile is the q-quantile of a dB histogram (bin centre), as a
+// linear ratio when lin is set.
+func histPercentile(h []uint32, q float64) float64 {
+	var n uint64
+	for _, x := range h {
+		n += uint64(x)
+	}
+	if n == 0 {
+		return math.NaN()
+	}
+	want := q * float64(n)
+	var cum uint64
+	for i, x := range h {
+		cum += uint64(x)
+		if float64(cum) >= want {
+			return histLoDB + (float64(i)+0.5)*histBinsDB
+		}
+	}
+	return histHiDB
+}
+
+// merge combines the replications into the report.
+func merge(cfg Config, res []*repResult) *Report {
+	C := cfg.Layout.Cells()
+	units := make([]*sums, 0)
+	if len(res) == 1 {
+		for i := range res[0].batches {
+			units = append(units, &res[0].batches[i])
+		}
+	} else {
+		for _, r := range res {
+			units = append(units, &r.total)
+		}
+	}
+	total := newSums(C)
+	var userSlots int64
+	for _, r := range res {
+		total.add(&r.total)
+		userSlots += r.userSlots
+	}
+	ratio := func(num, den func(*sums) float64) loop.Estimate {
+		xs := make([]float64, 0, len(units))
+		for _, u := range units {
+			if den(u) > 0 {
+				xs = append(xs, num(u)/den(u))
+			}
+		}
+		e := meanInterval(xs)
+		if d := den(&total); d > 0 {
+			v := num(&total) / d
+			h := (e.CIHigh - e.CILow) / 2
+			e = loop.Estimate{Value: v, CILow: v - h, CIHigh: v + h}
+		}
+		return e
+	}
+	prop := func(hit, n func(*sums) float64) loop.Estimate {
+		ps := make([]float64, 0, len(units))
+		for _, u := range units {
+			if n(u) > 0 {
+				ps = append(ps, hit(u)/n(u))
+			}
+		}
+		return proportionInterval(hit(&total), n(&total), ps)
+	}
+	nonNeg := func(e loop.Estimate) loop.Estimate {
+		e.CILow = math.Max(0, e.CILow)
+		return e
+	}
+	rep := &Report{Config: cfg, Users: len(res[0].points), MeasuredSlots: cfg.Run.Slots - cfg.Run.WarmupSlots, SimulatedUserSlots: userSlots}
+	if rep.Users == 0 {
+		rep.Users = int(res[0].userSlots / cfg.Run.Slots)
+	}
+	o := &rep.Overall
+	o.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.otherMW }, func(s *sums) float64 { return s.ownMW }))
+	o.NoiseRiseDB = ratio(func(s *sums) float64 { return s.noiseRiseDB }, func(s *sums) float64 { return s.slots * float64(C) })
+	o.OutageProbability = prop(func(s *sums) float64 { return s.outage }, func(s *sums) float64 { return s.userSlots })
+	o.SoftHandoverShare = prop(func(s *sums) float64 { return s.userSlots - s.legSlots[0] }, func(s *sums) float64 { return s.userSlots })
+	o.TimeAtMaxPower = prop(func(s *sums) float64 { return s.atMax }, func(s *sums) float64 { return s.userSlots })
+	o.TimeAtMaxEdge = prop(func(s *sums) float64 { return s.edgeAtMax }, func(s *sums) float64 { return s.edgeSlots })
+	for i := 0; i < LegStates; i++ {
+		o.OutageByLegs[i] = prop(func(s *sums) float64 { return s.legOutage[i] }, func(s *sums) float64 { return s.legSlots[i] })
+		o.LegShare[i] = prop(func(s *sums) float64 { return s.legSlots[i] }, func(s *sums) float64 { return s.userSlots })
+		o.TimeAtMaxByLegs[i] = prop(func(s *sums) float64 { return s.legAtMax[i] }, func(s *sums) float64 { return s.legSlots[i] })
+	}
+	o.SIRErrorMeanDB = ratio(func(s *sums) float64 { return s.sirErrDB }, func(s *sums) float64 { return s.userSlots })
+	std := func(s *sums) float64 {
+		m := s.sirErrDB / s.userSlots
+		return math.Sqrt(math.Max(0, s.sirErrDB2/s.userSlots-m*m))
+	}
+	stds := make([]float64, 0, len(units))
+	for _, u := range units {
+		if u.userSlots > 0 {
+			stds = append(stds, std(u))
+		}
+	}
+	se := meanInterval(stds)
+	v := std(&total)
+	h := (se.CIHigh - se.CILow) / 2
+	o.SIRErrorStdDB = loop.Estimate{Value: v, CILow: math.Max(0, v-h), CIHigh: v + h}
+	o.TxPowerMeanDBm = ratio(func(s *sums) float64 { return s.txDBm }, func(s *sums) float64 { return s.userSlots })
+	o.AchievedBLER = prop(func(s *sums) float64 { return s.blockErrs }, func(s *sums) float64 { return s.blocks })
+
+	all := make([]uint32, histBins)
+	for c := 0; c < C; c++ {
+		ratioH := make([]uint32, histBins)
+		riseH := make([]uint32, histBins)
+		for _, r := range res {
+			for i := range ratioH {
+				ratioH[i] += r.ratioHist[c][i]
+				riseH[i] += r.riseHist[c][i]
+			}
+		}
+		for i := range all {
+			all[i] += ratioH[i]
+		}
+		cf := CellFigures{Name: cfg.Layout.CellName(c), Site: c / cfg.Layout.SectorsPerSite}
+		cf.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.cellOtherMW[c] }, func(s *sums) float64 { return s.cellOwnMW[c] }))
+		cf.NoiseRiseDB = ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots })
+		cf.OtherToOwnP50 = math.Pow(10, histPercentile(ratioH, 0.5)/10)
+		cf.OtherToOwnP95 = math.Pow(10, histPercentile(ratioH, 0.95)/10)
+		cf.NoiseRiseP95DB = histPercentile(riseH, 0.95)
+		if total.slots > 0 {
+			cf.ServedUsers = total.cellServed[c] / total.slots
+		}
+		rep.Cells = append(rep.Cells, cf)
+	}
+	o.OtherToOwnSpreadP5 = math.Pow(10, histPercentile(all, 0.05)/10)
+	o.OtherToOwnSpreadP95 = math.Pow(10, histPercentile(all, 0.95)/10)
+	rep.UserPoints = res[0].points
+	return rep
+}
