@@ -124,6 +124,7 @@ type Report struct {
 	Traces             []UserTrace          `json:"traces"`
 	Notes              []string             `json:"notes"`         // caveats of this run (e.g. values beyond the histogram range)
 	GroupFingers       []GroupFingers       `json:"group_fingers"` // per group: taps, paths resolvable at the chip rate, fingers combined
+	Layout             *LayoutReport        `json:"layout"`        // multi-cell figures (layout.sites set), else nil
 }
 
 // tQuantile is the two-sided 95 % Student t quantile with dof degrees of
