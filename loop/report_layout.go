@@ -23,21 +23,21 @@ type LayoutReport struct {
 
 // LayoutOverall are the layout-wide figures of a multi-cell run.
 type LayoutOverall struct {
-	OtherToOwn          Estimate            `json:"other_to_own"`           // Σ other-cell / Σ own-cell interference over every cell, linear
-	NoiseRiseDB         Estimate            `json:"noise_rise_db"`          // mean over cells and slots of 10 log10(I0/N0), dB
-	OutageProbability   Estimate            `json:"outage_probability"`     // user-slots with combined SIR below target − margin
-	OutageByLegs        [LegStates]Estimate `json:"outage_by_legs"`         // outage among user-slots with 1, 2, ≥3 legs
-	LegShare            [LegStates]Estimate `json:"leg_share"`              // share of user-slots with 1, 2, ≥3 legs
-	SoftHandoverShare   Estimate            `json:"soft_handover_share"`    // share of user-slots with ≥ 2 legs
-	TimeAtMaxPower      Estimate            `json:"time_at_max_power"`      // share of user-slots at maximum power
-	TimeAtMaxByLegs     [LegStates]Estimate `json:"time_at_max_by_legs"`    // the same among 1, 2, ≥3 legs
-	TimeAtMaxEdge       Estimate            `json:"time_at_max_edge"`       // among users farther than 0.8·D/2 from their site
-	SIRErrorMeanDB      Estimate            `json:"sir_error_mean_db"`      // combined SIR − target, dB
-	SIRErrorStdDB       Estimate            `json:"sir_error_std_db"`       // dB
-	TxPowerMeanDBm      Estimate            `json:"tx_power_mean_dbm"`      // mean of the transmit power in dBm
-	AchievedBLER        Estimate            `json:"achieved_bler"`          // selection-combined block error rate
-	OtherToOwnSpreadP5  float64             `json:"other_to_own_spread_p5"` // 5th percentile over cells and slots of the per-slot ratio
-	OtherToOwnSpreadP95 float64             `json:"other_to_own_spread_p95"`
+	OtherToOwn          Estimate   `json:"other_to_own"`           // Σ other-cell / Σ own-cell interference over every cell, linear
+	NoiseRiseDB         Estimate   `json:"noise_rise_db"`          // mean over cells and slots of 10 log10(I0/N0), dB
+	OutageProbability   Estimate   `json:"outage_probability"`     // user-slots with combined SIR below target − margin
+	OutageByLegs        []Estimate `json:"outage_by_legs"`         // outage among user-slots with 1, 2, ≥3 legs
+	LegShare            []Estimate `json:"leg_share"`              // share of user-slots with 1, 2, ≥3 legs
+	SoftHandoverShare   Estimate   `json:"soft_handover_share"`    // share of user-slots with ≥ 2 legs
+	TimeAtMaxPower      Estimate   `json:"time_at_max_power"`      // share of user-slots at maximum power
+	TimeAtMaxByLegs     []Estimate `json:"time_at_max_by_legs"`    // the same among 1, 2, ≥3 legs
+	TimeAtMaxEdge       Estimate   `json:"time_at_max_edge"`       // among users farther than 0.8·D/2 from their site
+	SIRErrorMeanDB      Estimate   `json:"sir_error_mean_db"`      // combined SIR − target, dB
+	SIRErrorStdDB       Estimate   `json:"sir_error_std_db"`       // dB
+	TxPowerMeanDBm      Estimate   `json:"tx_power_mean_dbm"`      // mean of the transmit power in dBm
+	AchievedBLER        Estimate   `json:"achieved_bler"`          // selection-combined block error rate
+	OtherToOwnSpreadP5  float64    `json:"other_to_own_spread_p5"` // 5th percentile over cells and slots of the per-slot ratio
+	OtherToOwnSpreadP95 float64    `json:"other_to_own_spread_p95"`
 }
 
 // LayoutCell are one cell's figures of a multi-cell run.

@@ -275,6 +275,9 @@ func merge(cfg Config, res []*repResult) *Report {
 	o.SoftHandoverShare = prop(func(s *sums) float64 { return s.userSlots - s.legSlots[0] }, func(s *sums) float64 { return s.userSlots })
 	o.TimeAtMaxPower = prop(func(s *sums) float64 { return s.atMax }, func(s *sums) float64 { return s.userSlots })
 	o.TimeAtMaxEdge = prop(func(s *sums) float64 { return s.edgeAtMax }, func(s *sums) float64 { return s.edgeSlots })
+	o.OutageByLegs = make([]loop.Estimate, LegStates)
+	o.LegShare = make([]loop.Estimate, LegStates)
+	o.TimeAtMaxByLegs = make([]loop.Estimate, LegStates)
 	for i := 0; i < LegStates; i++ {
 		o.OutageByLegs[i] = prop(func(s *sums) float64 { return s.legOutage[i] }, func(s *sums) float64 { return s.legSlots[i] })
 		o.LegShare[i] = prop(func(s *sums) float64 { return s.legSlots[i] }, func(s *sums) float64 { return s.userSlots })
