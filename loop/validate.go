@@ -510,7 +510,7 @@ func (c *checker) run(sc Scenario) {
 
 // Cost is the work of a run in tap-user-slots: Σ_groups count × fingers ×
 // slots × replications (slots warm-up included; fingers as simulated, see
-// Receiver.RakeFingers), the users × slots × taps bound the service
+// Receiver.RakeFingers; in multi-cell mode × cells × max_active legs), the users × slots × taps bound the service
 // enforces. It saturates at math.MaxInt64 and never panics; an invalid
 // scenario may give any value.
 func (sc Scenario) Cost() int64 {
@@ -522,6 +522,10 @@ func (sc Scenario) Cost() int64 {
 		}
 	}
 	x := tapUsers * float64(sc.TotalSlots()) * float64(max(sc.Run.Replications, 1))
+	if sc.MultiCell() {
+		// Every cell's users, each with up to max_active faded legs.
+		x *= float64(sc.Layout.Cells()) * float64(max(sc.Layout.Handover.MaxActive, 1))
+	}
 	if x >= math.MaxInt64 {
 		return math.MaxInt64
 	}

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -132,7 +133,7 @@ func (h *simulationServer) Simulate(req *pb.SimulateRequest, stream pb.Simulatio
 			}
 		}
 	}
-	rep, err := loop.Run(ctx, sc, loop.RunOptions{Progress: post, ProgressEvery: interval, Trace: topts})
+	rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{Progress: post, ProgressEvery: interval, Trace: topts})
 	close(mailbox)
 	sendErr := <-sendDone
 	if err != nil {
@@ -394,7 +395,7 @@ func (s *Server) sweepPoint(ctx context.Context, g *sweepGrid, p int64, detailed
 			// Checked before any work; reaching here is a server bug.
 			return fmt.Errorf("grid point %d became invalid: %v", p, vs)
 		}
-		rep, err := loop.Run(ctx, sc, loop.RunOptions{})
+		rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{})
 		if err != nil {
 			return err
 		}

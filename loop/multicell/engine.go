@@ -176,9 +176,14 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rate := cfg.InnerLoop.UpdateRateHz
 	u := 0
 	for gi, grp := range cfg.Groups {
-		prof, err := fading.BuiltinProfile(grp.Profile)
+		fs, err := cfg.fingers(gi)
 		if err != nil {
 			return nil, loop.Violations{{Field: "groups.profile", Rule: err.Error()}}
+		}
+		prof := fs.Profile
+		capturedDB := 0.0
+		if fs.CapturedFraction > 0 && fs.CapturedFraction < 1 {
+			capturedDB = 10 * math.Log10(fs.CapturedFraction)
 		}
 		fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
 		k := math.Exp(-grp.SpeedKmh / 3.6 * float64(cfg.Channel.ShadowingSlots) / rate / cfg.Channel.DecorrelationM)
@@ -200,7 +205,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 				for k := range g.sites {
 					_, _, dist := g.offset(k, us.x, us.y)
 					dist = math.Max(dist, cfg.Channel.MinDistanceM)
-					us.pathDB[k] = -(cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
+					us.pathDB[k] = capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
 				}
 				us.antLin = make([]float64, C)
 				for c := range g.cells {
@@ -251,7 +256,8 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		rp.fullBuf = make([][]float64, C*U)
 		for u, us := range rp.users {
 			grp := cfg.Groups[us.group]
-			prof, _ := fading.BuiltinProfile(grp.Profile)
+			fs, _ := cfg.fingers(us.group)
+			prof := fs.Profile
 			fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
 			for c := 0; c < C; c++ {
 				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fdHz, SampleRateHz: rate, Profile: prof}, seed, u*maxLegsPerUser*64+c)
