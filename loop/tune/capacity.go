@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // PoleParams are the inputs of the pole-capacity estimate of a CDMA cell.
@@ -205,7 +206,12 @@ type CapacityResult struct {
 
 // Capacity finds, by bisection over the count of one group with common
 // random numbers, the largest count whose mean outage is at or below the
-// limit, and puts the analytic pole capacity beside it. Bad requests return
+// limit, and puts the analytic pole capacity beside it. With a layout
+// (multi-cell mode) the count is users per cell, outage and noise rise are
+// the layout-wide figures (noise rise: mean over cells), and the pole is
+// that of an isolated cell (f = receiver.other_cell_ratio = 0): the gap to
+// the simulated count shows what the simulated other-cell interference
+// costs. Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
 	return capacityWith(ctx, req, opt, runScenario)
@@ -235,8 +241,14 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	if !(nrLim > 0 && nrLim <= 40) {
 		add("noise_rise_limit_db", "must be in [0, 40] dB (0: the default %g dB), got %g", DefaultNoiseRiseLimitDB, req.NoiseRiseLimitDB)
 	}
-	others := base.Users() - max(base.Groups[req.Group].Count, 0)
+	// In multi-cell mode counts are per cell: others and top are per cell
+	// too, top also bounded by the multi-cell engine's limits.
+	cells := base.Layout.Cells()
+	others := base.Users()/cells - max(base.Groups[req.Group].Count, 0)
 	top := loop.MaxUsers - others
+	if base.MultiCell() {
+		top = min(multicell.MaxGroupSize, multicell.MaxUsers/cells-others)
+	}
 	lo, hi := req.MinCount, req.MaxCount
 	if lo == 0 {
 		lo = 1
@@ -422,6 +434,11 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		res.LimitedBy = failures(fail)
 	}
 	res.Headline, res.Reason = capacityReason(res, fail)
+	if base.MultiCell() {
+		// Counts, totals and the isolated-cell pole are per cell.
+		res.Headline = strings.ReplaceAll(res.Headline, " users", " users per cell")
+		res.Reason = strings.ReplaceAll(res.Reason, " users", " users per cell")
+	}
 	return res, nil
 }
 
