@@ -103,7 +103,7 @@ func TestMultiCellTune(t *testing.T) {
 func TestMultiCellCapacity(t *testing.T) {
 	base := multiBase()
 	base.Run.Slots, base.Run.WarmupSlots = 600, 150
-	base.OuterLoop.InitialTargetDB = 7 // a high target: the cells fill quickly
+	base.OuterLoop.InitialTargetDB = 7    // a high target: the cells fill quickly
 	base.Groups[0].Speeds[0].SpeedKmh = 3 // the 1 dB loop tracks 3 km/h: the noise rise binds
 	req := CapacityRequest{Base: base, OutageLimit: 0.05, NoiseRiseLimitDB: 6, Replications: 2, MaxCount: 24}
 	res, err := Capacity(context.Background(), req, Options{})
