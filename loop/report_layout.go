@@ -50,6 +50,9 @@ type LayoutCell struct {
 	NoiseRiseDB    Estimate `json:"noise_rise_db"`
 	NoiseRiseP95DB float64  `json:"noise_rise_p95_db"`
 	ServedUsers    float64  `json:"served_users"` // mean number of users whose best cell this is
+	SiteXM         float64  `json:"site_x_m"`     // the cell's site position in m (central site at the origin)
+	SiteYM         float64  `json:"site_y_m"`
+	BoresightDeg   float64  `json:"boresight_deg"` // sector boresight, degrees anticlockwise from +x; 0 for an omni cell
 }
 
 // LayoutUserPoint is one user of replication 0 for maps: position in m

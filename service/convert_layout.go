@@ -128,6 +128,9 @@ func layoutReportToProto(r *loop.LayoutReport) *pb.LayoutReport {
 			NoiseRiseDb:    estimateToProto(c.NoiseRiseDB),
 			NoiseRiseP95Db: c.NoiseRiseP95DB,
 			ServedUsers:    c.ServedUsers,
+			SiteXM:         c.SiteXM,
+			SiteYM:         c.SiteYM,
+			BoresightDeg:   c.BoresightDeg,
 		})
 	}
 	for _, u := range r.UserPoints {
@@ -177,6 +180,9 @@ func layoutReportFromProto(m *pb.LayoutReport) *loop.LayoutReport {
 			NoiseRiseDB:    estimateFromProto(c.GetNoiseRiseDb()),
 			NoiseRiseP95DB: c.GetNoiseRiseP95Db(),
 			ServedUsers:    c.GetServedUsers(),
+			SiteXM:         c.GetSiteXM(),
+			SiteYM:         c.GetSiteYM(),
+			BoresightDeg:   c.GetBoresightDeg(),
 		})
 	}
 	for _, u := range m.GetUserPoints() {

@@ -302,6 +302,7 @@ func merge(cfg Config, res []*repResult) *Report {
 	o.AchievedBLER = prop(func(s *sums) float64 { return s.blockErrs }, func(s *sums) float64 { return s.blocks })
 
 	all := make([]uint32, histBins)
+	geo := newGeometry(cfg.Layout)
 	for c := 0; c < C; c++ {
 		ratioH := make([]uint32, histBins)
 		riseH := make([]uint32, histBins)
@@ -315,6 +316,10 @@ func merge(cfg Config, res []*repResult) *Report {
 			all[i] += ratioH[i]
 		}
 		cf := CellFigures{Name: cfg.Layout.CellName(c), Site: c / cfg.Layout.SectorsPerSite}
+		cf.SiteXM, cf.SiteYM = geo.sites[cf.Site].x, geo.sites[cf.Site].y
+		if b := geo.cells[c].boresight; !math.IsNaN(b) {
+			cf.BoresightDeg = b * 180 / math.Pi
+		}
 		cf.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.cellOtherMW[c] }, func(s *sums) float64 { return s.cellOwnMW[c] }))
 		cf.NoiseRiseDB = ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots })
 		cf.OtherToOwnP50 = math.Pow(10, histPercentile(ratioH, 0.5)/10)

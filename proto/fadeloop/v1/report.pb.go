@@ -1134,7 +1134,13 @@ type LayoutCell struct {
 	// 95th percentile of the noise rise, dB.
 	NoiseRiseP95Db float64 `protobuf:"fixed64,7,opt,name=noise_rise_p95_db,json=noiseRiseP95Db,proto3" json:"noise_rise_p95_db,omitempty"`
 	// Mean number of users whose best cell this is.
-	ServedUsers   float64 `protobuf:"fixed64,8,opt,name=served_users,json=servedUsers,proto3" json:"served_users,omitempty"`
+	ServedUsers float64 `protobuf:"fixed64,8,opt,name=served_users,json=servedUsers,proto3" json:"served_users,omitempty"`
+	// The cell's site position in m, central site at the origin.
+	SiteXM float64 `protobuf:"fixed64,9,opt,name=site_x_m,json=siteXM,proto3" json:"site_x_m,omitempty"`
+	// The cell's site position in m.
+	SiteYM float64 `protobuf:"fixed64,10,opt,name=site_y_m,json=siteYM,proto3" json:"site_y_m,omitempty"`
+	// Sector boresight in degrees anticlockwise from +x; 0 for an omni cell.
+	BoresightDeg  float64 `protobuf:"fixed64,11,opt,name=boresight_deg,json=boresightDeg,proto3" json:"boresight_deg,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1221,6 +1227,27 @@ func (x *LayoutCell) GetNoiseRiseP95Db() float64 {
 func (x *LayoutCell) GetServedUsers() float64 {
 	if x != nil {
 		return x.ServedUsers
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetSiteXM() float64 {
+	if x != nil {
+		return x.SiteXM
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetSiteYM() float64 {
+	if x != nil {
+		return x.SiteYM
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetBoresightDeg() float64 {
+	if x != nil {
+		return x.BoresightDeg
 	}
 	return 0
 }
@@ -1526,7 +1553,7 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\x11tx_power_mean_dbm\x18\f \x01(\v2\x15.fadeloop.v1.EstimateR\x0etxPowerMeanDbm\x12:\n" +
 	"\rachieved_bler\x18\r \x01(\v2\x15.fadeloop.v1.EstimateR\fachievedBler\x122\n" +
 	"\x16other_to_own_spread_p5\x18\x0e \x01(\x01R\x12otherToOwnSpreadP5\x124\n" +
-	"\x17other_to_own_spread_p95\x18\x0f \x01(\x01R\x13otherToOwnSpreadP95\"\xc8\x02\n" +
+	"\x17other_to_own_spread_p95\x18\x0f \x01(\x01R\x13otherToOwnSpreadP95\"\xa1\x03\n" +
 	"\n" +
 	"LayoutCell\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x12\n" +
@@ -1537,7 +1564,11 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\x10other_to_own_p95\x18\x05 \x01(\x01R\rotherToOwnP95\x129\n" +
 	"\rnoise_rise_db\x18\x06 \x01(\v2\x15.fadeloop.v1.EstimateR\vnoiseRiseDb\x12)\n" +
 	"\x11noise_rise_p95_db\x18\a \x01(\x01R\x0enoiseRiseP95Db\x12!\n" +
-	"\fserved_users\x18\b \x01(\x01R\vservedUsers\"\xdd\x01\n" +
+	"\fserved_users\x18\b \x01(\x01R\vservedUsers\x12\x18\n" +
+	"\bsite_x_m\x18\t \x01(\x01R\x06siteXM\x12\x18\n" +
+	"\bsite_y_m\x18\n" +
+	" \x01(\x01R\x06siteYM\x12#\n" +
+	"\rboresight_deg\x18\v \x01(\x01R\fboresightDeg\"\xdd\x01\n" +
 	"\x0fLayoutUserPoint\x12\x0f\n" +
 	"\x03x_m\x18\x01 \x01(\x01R\x02xM\x12\x0f\n" +
 	"\x03y_m\x18\x02 \x01(\x01R\x02yM\x12\x14\n" +
