@@ -53,6 +53,12 @@ func TestRunScenarioMultiCell(t *testing.T) {
 	if rep.Layout == nil || !reflect.DeepEqual(rep.Layout.Overall, want.Overall) || !reflect.DeepEqual(rep.Layout.Cells, want.Cells) {
 		t.Fatal("layout section differs from multicell.Run of the converted config")
 	}
+	for _, c := range rep.Layout.Cells {
+		// Noise rise I0/N0 ≥ 1: its interval stays at or above 0 dB.
+		if c.NoiseRiseDB.CILow < 0 || c.OtherToOwn.CILow < 0 {
+			t.Errorf("cell %s: interval below the range: noise rise %+v, f %+v", c.Name, c.NoiseRiseDB, c.OtherToOwn)
+		}
+	}
 	if got := len(rep.Layout.Cells); got != 21 {
 		t.Errorf("cells = %d, want 7 sites × 3 sectors = 21", got)
 	}

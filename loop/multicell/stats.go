@@ -270,7 +270,7 @@ func merge(cfg Config, res []*repResult) *Report {
 	}
 	o := &rep.Overall
 	o.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.otherMW }, func(s *sums) float64 { return s.ownMW }))
-	o.NoiseRiseDB = ratio(func(s *sums) float64 { return s.noiseRiseDB }, func(s *sums) float64 { return s.slots * float64(C) })
+	o.NoiseRiseDB = nonNeg(ratio(func(s *sums) float64 { return s.noiseRiseDB }, func(s *sums) float64 { return s.slots * float64(C) }))
 	o.OutageProbability = prop(func(s *sums) float64 { return s.outage }, func(s *sums) float64 { return s.userSlots })
 	o.SoftHandoverShare = prop(func(s *sums) float64 { return s.userSlots - s.legSlots[0] }, func(s *sums) float64 { return s.userSlots })
 	o.TimeAtMaxPower = prop(func(s *sums) float64 { return s.atMax }, func(s *sums) float64 { return s.userSlots })
@@ -321,7 +321,7 @@ func merge(cfg Config, res []*repResult) *Report {
 			cf.BoresightDeg = b * 180 / math.Pi
 		}
 		cf.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.cellOtherMW[c] }, func(s *sums) float64 { return s.cellOwnMW[c] }))
-		cf.NoiseRiseDB = ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots })
+		cf.NoiseRiseDB = nonNeg(ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots }))
 		cf.OtherToOwnP50 = math.Pow(10, histPercentile(ratioH, 0.5)/10)
 		cf.OtherToOwnP95 = math.Pow(10, histPercentile(ratioH, 0.95)/10)
 		cf.NoiseRiseP95DB = histPercentile(riseH, 0.95)

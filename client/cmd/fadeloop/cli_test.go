@@ -156,6 +156,9 @@ func TestRunEveryScenario(t *testing.T) {
 			for _, g := range sf.Scenario.GetGroups() {
 				users += int(g.GetCount())
 			}
+			if l := sf.Scenario.GetLayout(); l.GetSites() > 0 {
+				users *= int(l.GetSites() * max(1, l.GetSectorsPerSite())) // counts are per cell
+			}
 			if rep.Aggregate.Users != users {
 				t.Errorf("report has %d users, file %d", rep.Aggregate.Users, users)
 			}
@@ -657,4 +660,37 @@ func TestHelpAndExample(t *testing.T) {
 	if !strings.HasPrefix(v.stdout, "fadeloop ") {
 		t.Errorf("version: %q", v.stdout)
 	}
+}
+
+// TestMultiCellRunAndMap: the multi-cell example runs from the CLI, prints
+// the layout figures (overall, by handover state, per cell) and draws the
+// map; testdata/scenarios/harbour_town.json is the example's JSON form.
+func TestMultiCellRunAndMap(t *testing.T) {
+	dir := os.Getenv("FADELOOP_PLOT_DIR")
+	if dir == "" {
+		dir = t.TempDir()
+	}
+	j := ok(t, "example", "--multi-cell", "--format", "json")
+	b, err := os.ReadFile(filepath.Join(repoRoot, "testdata/scenarios/harbour_town.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if j.stdout != string(b) {
+		t.Error("testdata/scenarios/harbour_town.json differs from fadeloop example --multi-cell --format json")
+	}
+	r := ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "2", "--quiet",
+		"--plot", "map="+filepath.Join(dir, "map.png"), "--plot", "map-power="+filepath.Join(dir, "map-power.svg"))
+	for _, want := range []string{"fadeloop-multicell", "other-cell / own-cell interference f", "soft-handover share (%)",
+		"by handover state", "S6/2", "noise rise 95th pct (dB)", "do not replace the operator's planning"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("run table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	if strings.Contains(r.stdout, "convergence time") {
+		t.Error("the multi-cell table prints a figure the engine does not compute")
+	}
+	checkPNG(t, filepath.Join(dir, "map.png"))
+	checkSVG(t, filepath.Join(dir, "map-power.svg"))
+	// A map needs a layout.
+	fl(t, "run", "testdata/scenarios/small.json", "--slots", "300", "--quiet", "--plot", "map="+filepath.Join(dir, "x.png")).want(t, 2)
 }

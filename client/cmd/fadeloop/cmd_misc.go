@@ -56,9 +56,13 @@ Examples:
 YAML (or, with --format json, as protojson). Edit it and pass it to run,
 sweep or bench.
 
+With --multi-cell, writes a multi-cell example instead: an invented harbour
+town on 7 three-sector sites with soft handover (layout section).
+
 Examples:
   fadeloop example > cell.yaml
-  fadeloop example --format json --out cell.json`,
+  fadeloop example --format json --out cell.json
+  fadeloop example --multi-cell > town.yaml`,
 		run: runExample,
 	})
 	register(&command{
@@ -214,6 +218,7 @@ func tapsPerUser(sc *pb.Scenario) (float64, error) {
 func runExample(_ context.Context, e *env, args []string) error {
 	c := lookup("example")
 	fs := e.newFlagSet(c)
+	multi := fs.Bool("multi-cell", false, "write the multi-cell example (a layout of sites with soft handover)")
 	rest, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -229,8 +234,12 @@ func runExample(_ context.Context, e *env, args []string) error {
 		return err
 	}
 	defer out.discard()
+	name, yaml := defaultScenarioName, defaultScenarioYAML
+	if *multi {
+		name, yaml = multiCellScenarioName, multiCellScenarioYAML
+	}
 	if e.g.format == "json" {
-		sf, err := client.ParseScenario(defaultScenarioName, defaultScenarioYAML)
+		sf, err := client.ParseScenario(name, yaml)
 		if err != nil {
 			return err
 		}
@@ -240,7 +249,7 @@ func runExample(_ context.Context, e *env, args []string) error {
 		}
 		out.Writer().Write(b)
 	} else {
-		out.Writer().Write(defaultScenarioYAML)
+		out.Writer().Write(yaml)
 	}
 	return out.commit()
 }

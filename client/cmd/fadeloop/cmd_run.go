@@ -153,7 +153,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	ov.register(fs)
 	perUser := fs.Bool("per-user", false, "also print the figures of every user")
 	var plotSpecs plotList
-	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance); repeatable")
+	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance; multi-cell: map (users by outage), map-power); repeatable")
 	traceUsers := fs.String("trace-users", "", "comma-separated user `INDICES` to trace (default: nearest, median, farthest)")
 	tracePoints := fs.Int("trace-points", 1500, "about `N` samples per traced user")
 	args, err := parseFlags(fs, args)
@@ -163,7 +163,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 		return err
 	}
-	if err := plotSpecs.check("traces", "traces", "cdf", "distance"); err != nil {
+	if err := plotSpecs.check("traces", "traces", "cdf", "distance", "map", "map-power"); err != nil {
 		return err
 	}
 	users, err := parseIndexList(*traceUsers)
@@ -182,6 +182,12 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	req := &pb.SimulateRequest{Scenario: sc}
+	if sc.GetLayout().GetSites() != 0 && plotSpecs.needs("traces", "cdf", "distance") {
+		return badInputf("--plot: a multi-cell scenario draws map and map-power (traces, cdf and distance are single-cell plots)")
+	}
+	if sc.GetLayout().GetSites() == 0 && plotSpecs.needs("map", "map-power") {
+		return badInputf("--plot map: the scenario has no layout (set layout.sites; see fadeloop example --multi-cell)")
+	}
 	if plotSpecs.needs("traces", "cdf") {
 		req.Traces = &pb.TraceOptions{DecimationSlots: decimationFor(sc, *tracePoints)}
 		switch {
@@ -308,13 +314,14 @@ func writeRunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	t := newTable("figure", "value", "95 % CI").alignRight(1)
 	for _, f := range figures {
 		e := f.get(agg)
-		if e == nil {
+		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.key]) {
 			continue
 		}
 		t.add(f.label, num(f.scale*e.GetValue(), f.dec),
 			"["+num(f.scale*e.GetCiLow(), f.dec)+", "+num(f.scale*e.GetCiHigh(), f.dec)+"]")
 	}
 	t.write(w)
+	writeLayoutTable(w, rep)
 
 	cols := []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
 		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}

@@ -88,6 +88,8 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 		fig, err = plots.Traces("Traces — "+title, runTraces(rep, users))
 	case "cdf":
 		fig, err = plots.SIRErrorCDF("SIR error distribution per distance bin — "+title, runBinErrors(rep))
+	case "map", "map-power":
+		fig, err = layoutMap(title, ps.kind, rep)
 	case "distance":
 		minP, maxP := math.NaN(), math.NaN()
 		if il := rep.GetNormalisedScenario().GetInnerLoop(); il != nil {
