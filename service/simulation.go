@@ -403,6 +403,9 @@ func (s *Server) sweepPoint(ctx context.Context, g *sweepGrid, p int64, detailed
 		m := ReportToProto(rep)
 		if !detailed {
 			m.Users, m.DistanceBins, m.NormalisedScenario, m.Traces = nil, nil, nil, nil
+			if m.Layout != nil {
+				m.Layout.UserPoints = nil // per-user, like users
+			}
 		}
 		idx := g.coordinates(p)
 		coords := make([]float64, len(idx))
