@@ -160,3 +160,45 @@ func LayoutMap(title string, d LayoutMapData) (*Figure, error) {
 	bar.Add(&plotter.ColorBar{ColorMap: cmap, Vertical: true, Colors: 64})
 	return &Figure{Title: title, panels: [][]*plot.Plot{{p.done()}}, side: bar}, nil
 }
+
+// LayoutLine is one line of LayoutSweep: the other-cell interference ratio
+// f and the outage with their 95 % intervals at each x.
+type LayoutLine struct {
+	Label                            string
+	X                                []float64
+	F, FLow, FHigh                   []float64
+	OutagePct, OutageLow, OutageHigh []float64
+}
+
+// LayoutSweep draws the multi-cell figures of a sweep against one axis
+// (e.g. the handover window or the inner-loop step): the measured
+// other-cell to own-cell interference ratio f (left) and the outage
+// (right), one line per value of a second axis, with 95 % intervals.
+func LayoutSweep(title, xLabel string, lines []LayoutLine) (*Figure, error) {
+	left := newPanel("Other-cell / own-cell interference f", xLabel, "f (linear)")
+	right := newPanel("Outage", xLabel, "outage (%)")
+	n := 0
+	var all []float64
+	for i, ln := range lines {
+		if len(ln.X) == 0 {
+			continue
+		}
+		if err := addLinePoints(left, i, ln.Label, ln.X, ln.F, ln.FLow, ln.FHigh); err != nil {
+			return nil, err
+		}
+		if err := addLinePoints(right, i, ln.Label, ln.X, ln.OutagePct, ln.OutageLow, ln.OutageHigh); err != nil {
+			return nil, err
+		}
+		all = append(all, ln.X...)
+		n++
+	}
+	if n == 0 {
+		return nil, ErrNoData
+	}
+	for _, p := range []*panel{left, right} {
+		p.Y.Min = math.Min(p.Y.Min, 0)
+		p.Y.Max += 0.25 * (p.Y.Max - p.Y.Min)
+		p.X.Tick.Marker = valueTicks(all)
+	}
+	return &Figure{Title: title, panels: [][]*plot.Plot{{left.done(), right.done()}}}, nil
+}

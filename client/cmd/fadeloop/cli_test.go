@@ -671,11 +671,15 @@ func TestMultiCellRunAndMap(t *testing.T) {
 		dir = t.TempDir()
 	}
 	j := ok(t, "example", "--multi-cell", "--format", "json")
-	b, err := os.ReadFile(filepath.Join(repoRoot, "testdata/scenarios/harbour_town.json"))
+	fromFile, err := client.LoadScenarioFile(filepath.Join(repoRoot, "testdata/scenarios/harbour_town.json"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if j.stdout != string(b) {
+	fromExample, err := client.ParseScenario("example", []byte(j.stdout))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !proto.Equal(fromFile.Scenario, fromExample.Scenario) {
 		t.Error("testdata/scenarios/harbour_town.json differs from fadeloop example --multi-cell --format json")
 	}
 	r := ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "2", "--quiet",
@@ -693,4 +697,17 @@ func TestMultiCellRunAndMap(t *testing.T) {
 	checkSVG(t, filepath.Join(dir, "map-power.svg"))
 	// A map needs a layout.
 	fl(t, "run", "testdata/scenarios/small.json", "--slots", "300", "--quiet", "--plot", "map="+filepath.Join(dir, "x.png")).want(t, 2)
+}
+
+// TestMultiCellSweepPlot: a sweep over the handover window and the step
+// draws f and outage against the window.
+func TestMultiCellSweepPlot(t *testing.T) {
+	dir := t.TempDir()
+	ok(t, "sweep", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "1", "--quiet",
+		"--axis", "layout.handover.window_db=0,6", "--axis", "inner_loop.step_db=0.5,2",
+		"--plot", "layout="+filepath.Join(dir, "layout.png"))
+	checkPNG(t, filepath.Join(dir, "layout.png"))
+	// Needs a layout.
+	fl(t, "sweep", "testdata/scenarios/small.json", "--slots", "300", "--quiet",
+		"--axis", "inner_loop.step_db=0.5,2", "--plot", "layout="+filepath.Join(dir, "x.png")).want(t, 2)
 }

@@ -4,7 +4,9 @@ import (
 	_ "embed"
 	"fmt"
 	"io"
+	"sort"
 	"strconv"
+	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -124,4 +126,56 @@ func layoutMap(title, kind string, rep *pb.RunReport) (*plots.Figure, error) {
 		what = "Tx power"
 	}
 	return plots.LayoutMap(title+" — users by "+what+" (replication 0, "+strconv.Itoa(len(d.Users))+" users)", d)
+}
+
+// layoutSweepFigure draws f and the outage of a multi-cell sweep against
+// its first axis, one line per value of the second.
+func layoutSweepFigure(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) (*plots.Figure, error) {
+	if len(axes) < 1 || len(axes) > 2 {
+		return nil, badInputf("a layout plot needs one or two axes")
+	}
+	lines := map[float64]*plots.LayoutLine{}
+	var order []float64
+	for _, p := range pts {
+		l := p.GetReport().GetLayout()
+		if l == nil {
+			return nil, badInputf("--plot layout needs a multi-cell scenario (layout.sites set)")
+		}
+		c := p.GetCoordinates()
+		key, label := 0.0, "all"
+		if len(axes) == 2 {
+			key, label = c[1], axisLabel(axes[1], c[1])
+		}
+		ln := lines[key]
+		if ln == nil {
+			ln = &plots.LayoutLine{Label: label}
+			lines[key] = ln
+			order = append(order, key)
+		}
+		f, o := l.GetOverall().GetOtherToOwn(), l.GetOverall().GetOutageProbability()
+		ln.X = append(ln.X, c[0])
+		ln.F, ln.FLow, ln.FHigh = append(ln.F, f.GetValue()), append(ln.FLow, f.GetCiLow()), append(ln.FHigh, f.GetCiHigh())
+		ln.OutagePct = append(ln.OutagePct, 100*o.GetValue())
+		ln.OutageLow = append(ln.OutageLow, 100*o.GetCiLow())
+		ln.OutageHigh = append(ln.OutageHigh, 100*o.GetCiHigh())
+	}
+	sort.Float64s(order)
+	var ls []plots.LayoutLine
+	for _, k := range order {
+		ls = append(ls, *lines[k])
+	}
+	x := axes[0].GetPath()
+	return plots.LayoutSweep("Multi-cell figures against "+x+" — "+title, axisTitle(x), ls)
+}
+
+// axisTitle is an axis label with its unit from a field path:
+// "layout.handover.window_db" → "window (dB)".
+func axisTitle(path string) string {
+	short := path[strings.LastIndexByte(path, '.')+1:]
+	for _, u := range []struct{ suf, unit string }{{"_dbm", "dBm"}, {"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_m", "m"}, {"_s", "s"}} {
+		if strings.HasSuffix(short, u.suf) {
+			return strings.ReplaceAll(strings.TrimSuffix(short, u.suf), "_", " ") + " (" + u.unit + ")"
+		}
+	}
+	return strings.ReplaceAll(short, "_", " ")
 }

@@ -291,6 +291,10 @@ func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 		paths[a.GetPath()]++
 	}
 	switch kind {
+	case "layout":
+		if len(axes) < 1 || len(axes) > 2 {
+			return badInputf("--plot layout=%s needs one or two axes (x, then one line per value of the second)", ps.file)
+		}
 	case "steps":
 		if paths[stepPath] != 1 || len(axes) > 2 {
 			return badInputf("--plot steps=%s needs the axis %s and at most one other axis (one line per value)", ps.file, stepPath)
@@ -314,6 +318,8 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		err error
 	)
 	switch kind {
+	case "layout":
+		fig, err = layoutSweepFigure(title, axes, pts)
 	case "cdf":
 		var ds []plots.ErrorDistribution
 		for _, p := range pts {
