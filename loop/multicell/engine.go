@@ -284,15 +284,50 @@ func (rp *rep) fillFading(n int) {
 		return
 	}
 	rp.blockN = n
-	for u := range rp.users {
-		us := &rp.users[u]
-		for l, ch := range us.legCh {
-			if ch != nil && us.legs[l] >= 0 {
-				ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
+	// Every leg's channel is its own stream, so users split over
+	// goroutines give the same samples whatever the split (determinism
+	// across GOMAXPROCS).
+	fill := func(lo, hi int) {
+		for u := lo; u < hi; u++ {
+			us := &rp.users[u]
+			for l, ch := range us.legCh {
+				if ch != nil && us.legs[l] >= 0 {
+					ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
+				}
 			}
 		}
 	}
+	parts := min(runtime.GOMAXPROCS(0), rp.U/minUsersPerFillPart)
+	if parts < 2 || rp.cfg.Run.Replications > 1 {
+		fill(0, rp.U) // replications already run in parallel
+		return
+	}
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	var panicked any
+	for i := 1; i < parts; i++ {
+		wg.Add(1)
+		go func(lo, hi int) {
+			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					mu.Lock()
+					panicked = p
+					mu.Unlock()
+				}
+			}()
+			fill(lo, hi)
+		}(i*rp.U/parts, (i+1)*rp.U/parts)
+	}
+	fill(0, rp.U/parts)
+	wg.Wait()
+	if panicked != nil {
+		panic(panicked) // recovered by Run as a PanicError
+	}
 }
+
+// minUsersPerFillPart is the fewest users per goroutine of fillFading.
+const minUsersPerFillPart = 64
 
 // updateSlowGains advances shadowing (Gudmundson AR(1) per part) and
 // recomputes every slow gain.

@@ -44,6 +44,28 @@ func TestDeterministicAcrossCores(t *testing.T) {
 	}
 }
 
+// TestDeterministicParallelFading: one replication large enough that its
+// fading is generated on several goroutines gives the same report with
+// GOMAXPROCS 1 and 2.
+func TestDeterministicParallelFading(t *testing.T) {
+	cfg := smallLayout()
+	cfg.Groups[0].CountPerCell = 7 // 7 sites × 3 sectors × 8 users = 168 ≥ 2·minUsersPerFillPart
+	cfg.Run = RunSettings{Slots: 300, WarmupSlots: 60, Replications: 1, Seed: 9, Batches: 4}
+	var out [2][]byte
+	for i, procs := range []int{1, 2} {
+		old := runtime.GOMAXPROCS(procs)
+		rep, err := Run(context.Background(), cfg)
+		runtime.GOMAXPROCS(old)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out[i], _ = json.Marshal(rep)
+	}
+	if string(out[0]) != string(out[1]) {
+		t.Fatal("reports differ between GOMAXPROCS 1 and 2")
+	}
+}
+
 // TestFiguresInRange: every proportion and its interval lie in [0, 1], the
 // SIR error std interval is non-negative, the outer loop holds the BLER
 // target within its interval's reach, and soft handover occurs.
