@@ -215,6 +215,13 @@ func TestCancel(t *testing.T) {
 // a run four times as long allocates the same (the slot loop allocates
 // nothing, active-set updates reuse their buffers).
 func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
+	if raceEnabled {
+		// Under -race the counts drift by a few dozen between 600 and 2400
+		// slots with the engine unchanged (measured before and after the
+		// parallel fading fill); without -race they do not, and that run
+		// is the check.
+		t.Skip("allocation counts are not meaningful under -race")
+	}
 	allocs := func(slots int64) float64 {
 		cfg := smallLayout()
 		cfg.Run.Replications = 1
