@@ -122,8 +122,10 @@ type rep struct {
 	fullBuf  [][]float64
 	stats    *collector
 	shadowSD float64
-	blockN   int    // slots in the current fading block
-	cands    []cand // active-set evaluation, reused
+	blockN   int      // slots in the current fading block
+	fillWork chan int // block length to the fading helper (startFillHelper); nil without one
+	fillDone chan any // the helper's completion: its panic value or nil
+	cands    []cand   // active-set evaluation, reused
 	keep     []int
 }
 
@@ -139,6 +141,7 @@ func runReplication(ctx context.Context, cfg Config, r int) (*repResult, error) 
 	if err != nil {
 		return nil, err
 	}
+	defer rp.startFillHelper()()
 	total := cfg.Run.Slots
 	for t0 := int64(0); t0 < total; t0 += blockSlots {
 		if err := ctx.Err(); err != nil {
@@ -284,46 +287,54 @@ func (rp *rep) fillFading(n int) {
 		return
 	}
 	rp.blockN = n
-	// Every leg's channel is its own stream, so users split over
-	// goroutines give the same samples whatever the split (determinism
-	// across GOMAXPROCS).
-	fill := func(lo, hi int) {
-		for u := lo; u < hi; u++ {
-			us := &rp.users[u]
-			for l, ch := range us.legCh {
-				if ch != nil && us.legs[l] >= 0 {
-					ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
-				}
+	if rp.fillWork != nil {
+		// The helper fills users [U/2, U), this goroutine [0, U/2).
+		rp.fillWork <- n
+		rp.fillRange(0, rp.U/2, n)
+		if pv := <-rp.fillDone; pv != nil {
+			panic(pv) // recovered by Run as a PanicError
+		}
+		return
+	}
+	rp.fillRange(0, rp.U, n)
+}
+
+// fillRange fills the next n slots of the legs in use of users [lo, hi).
+func (rp *rep) fillRange(lo, hi, n int) {
+	for u := lo; u < hi; u++ {
+		us := &rp.users[u]
+		for l, ch := range us.legCh {
+			if ch != nil && us.legs[l] >= 0 {
+				ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
 			}
 		}
 	}
-	parts := min(runtime.GOMAXPROCS(0), rp.U/minUsersPerFillPart)
-	if parts < 2 || rp.cfg.Run.Replications > 1 {
-		fill(0, rp.U) // replications already run in parallel
-		return
+}
+
+// startFillHelper starts, for a replication run alone (replications 1,
+// else replications already run in parallel) on two or more cores with at
+// least 2·minUsersPerFillPart users, a goroutine that fills the second half
+// of the users' fading each block. Every leg's channel is its own stream,
+// so the samples, and the report, are the same whatever the split
+// (determinism across GOMAXPROCS); the channels order the memory. It
+// allocates nothing per block. The returned function stops it.
+func (rp *rep) startFillHelper() func() {
+	if runtime.GOMAXPROCS(0) < 2 || rp.cfg.Run.Replications > 1 || rp.full || rp.U < 2*minUsersPerFillPart {
+		return func() {}
 	}
-	var wg sync.WaitGroup
-	var mu sync.Mutex
-	var panicked any
-	for i := 1; i < parts; i++ {
-		wg.Add(1)
-		go func(lo, hi int) {
-			defer wg.Done()
-			defer func() {
-				if p := recover(); p != nil {
-					mu.Lock()
-					panicked = p
-					mu.Unlock()
-				}
+	rp.fillWork = make(chan int)
+	rp.fillDone = make(chan any)
+	go func() {
+		for n := range rp.fillWork {
+			var pv any
+			func() {
+				defer func() { pv = recover() }()
+				rp.fillRange(rp.U/2, rp.U, n)
 			}()
-			fill(lo, hi)
-		}(i*rp.U/parts, (i+1)*rp.U/parts)
-	}
-	fill(0, rp.U/parts)
-	wg.Wait()
-	if panicked != nil {
-		panic(panicked) // recovered by Run as a PanicError
-	}
+			rp.fillDone <- pv
+		}
+	}()
+	return func() { close(rp.fillWork) }
 }
 
 // minUsersPerFillPart is the fewest users per goroutine of fillFading.

@@ -222,19 +222,24 @@ func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
 		// is the check.
 		t.Skip("allocation counts are not meaningful under -race")
 	}
-	allocs := func(slots int64) float64 {
-		cfg := smallLayout()
-		cfg.Run.Replications = 1
-		cfg.Run.Slots = slots
-		return testing.AllocsPerRun(2, func() {
-			if _, err := Run(context.Background(), cfg); err != nil {
-				t.Fatal(err)
-			}
-		})
-	}
-	short, long := allocs(600), allocs(2400)
-	if long > short+4 {
-		t.Errorf("allocations grow with run length: %.0f for 600 slots, %.0f for 2400", short, long)
+	// 63 users, and 168 users whose fading a helper goroutine shares
+	// (startFillHelper, with GOMAXPROCS ≥ 2).
+	for _, perCell := range []int{2, 7} {
+		allocs := func(slots int64) float64 {
+			cfg := smallLayout()
+			cfg.Groups[0].CountPerCell = perCell
+			cfg.Run.Replications = 1
+			cfg.Run.Slots = slots
+			return testing.AllocsPerRun(2, func() {
+				if _, err := Run(context.Background(), cfg); err != nil {
+					t.Fatal(err)
+				}
+			})
+		}
+		short, long := allocs(600), allocs(2400)
+		if long > short+4 {
+			t.Errorf("%d per cell: allocations grow with run length: %.0f for 600 slots, %.0f for 2400", perCell, short, long)
+		}
 	}
 }
 
