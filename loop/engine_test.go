@@ -247,12 +247,15 @@ func TestIdealNearFar(t *testing.T) {
 }
 
 // TestIdealPowerRise: ideal inversion of L-branch MRC Rayleigh fading
-// (noise-limited, one user) costs E[1/g] = L/(L−1) in mean power.
+// (noise-limited, one user) costs E[1/g] = L/(L−1) in mean power
+// (ORACLES.md, derived from the Gamma distribution). Short (CI) mode: L = 4
+// only, 60 000 slots at f_D·T = 0.12, about 18 000 decorrelation times; 1/g
+// has a coefficient of variation of 0.71 for L = 4, so the standard error
+// is about 0.02 dB, and the check (within twice the run's own 95 %
+// interval, about 4 standard errors) stays meaningful.
 func TestIdealPowerRise(t *testing.T) {
-	if testing.Short() {
-		t.Skip("long statistical run")
-	}
-	for _, c := range []struct {
+	slots := int64(400000)
+	cases := []struct {
 		taps   int
 		riseDB float64
 		tolDB  float64
@@ -263,8 +266,12 @@ func TestIdealPowerRise(t *testing.T) {
 		// loose 0.4 dB tolerance is meaningful at 400 000 slots.
 		{4, 10 * math.Log10(4.0/3), 0},
 		{2, 10 * math.Log10(2), 0.4},
-	} {
-		sc := baseScenario(1, 400000)
+	}
+	if testing.Short() {
+		slots, cases = 60000, cases[:1]
+	}
+	for _, c := range cases {
+		sc := baseScenario(1, slots)
 		sc.Groups[0].Profile = ""
 		for l := 0; l < c.taps; l++ {
 			sc.Groups[0].CustomTaps = append(sc.Groups[0].CustomTaps, Tap{DelayNs: float64(1000 * l)}) // 1 µs apart: resolvable at 3.84 Mchip/s
@@ -279,8 +286,9 @@ func TestIdealPowerRise(t *testing.T) {
 			(sc.Receiver.ProcessingGain() * dbToLin(-rep.Users[0].PathLossDB)))
 		e := rep.Aggregate.TxPowerMeanDBm
 		rise := e.Value - base
+		t.Logf("L=%d: power rise %.4f dB [%.4f, %.4f], want %.4f", c.taps, rise, e.CILow-base, e.CIHigh-base, c.riseDB)
 		if c.tolDB == 0 {
-			if !within(e, base+c.riseDB, 2) {
+			if h := e.CIHigh - e.CILow; !(h > 0 && h < 0.2) || !within(e, base+c.riseDB, 2) {
 				t.Errorf("L=%d: power rise %.3f dB, want %.3f (CI %+v)", c.taps, rise, c.riseDB, e)
 			}
 		} else if math.Abs(rise-c.riseDB) > c.tolDB {

@@ -20,6 +20,9 @@ type histLayout struct {
 	nb       int       // in-range bins
 	edgesDB  []float64 // nb+1 edges in dB of the in-range bins; edgesDB[j] is the lower edge of index j+1
 	centerDB []float64 // nb+2 representative values in dB, under- and overflow at the range ends
+	// Physical limits of the quantity in dB (±Inf when none): bin edges,
+	// and so percentiles, are clamped to them (limitDB).
+	minDB, maxDB float64
 }
 
 // newHistLayout covers [2^eMin, 2^eMax) with 2^m bins per octave.
@@ -27,7 +30,7 @@ func newHistLayout(eMin, eMax int, m uint) *histLayout {
 	if eMax <= eMin {
 		eMax = eMin + 1
 	}
-	l := &histLayout{shift: 52 - m}
+	l := &histLayout{shift: 52 - m, minDB: math.Inf(-1), maxDB: math.Inf(1)}
 	base := (eMin + 1023) << m
 	l.base1 = base - 1
 	l.nb = (eMax - eMin) << m
@@ -66,16 +69,23 @@ func (l *histLayout) index(x float64) int {
 	return k
 }
 
+// limitDB sets the physical limits of the quantity (e.g. a transmit
+// power is never outside [min_power_dbm, max_power_dbm]): the bin holding
+// a limit is cut there, so interpolated percentiles stay inside.
+func (l *histLayout) limitDB(lo, hi float64) { l.minDB, l.maxDB = lo, hi }
+
 // binEdges returns the dB edges of index j (under- and overflow collapse to
-// the range ends).
+// the range ends), clamped to the physical limits.
 func (l *histLayout) binEdges(j int) (lo, hi float64) {
 	switch {
 	case j <= 0:
-		return l.edgesDB[0], l.edgesDB[0]
+		lo, hi = l.edgesDB[0], l.edgesDB[0]
 	case j > l.nb:
-		return l.edgesDB[l.nb], l.edgesDB[l.nb]
+		lo, hi = l.edgesDB[l.nb], l.edgesDB[l.nb]
+	default:
+		lo, hi = l.edgesDB[j-1], l.edgesDB[j]
 	}
-	return l.edgesDB[j-1], l.edgesDB[j]
+	return min(max(lo, l.minDB), l.maxDB), min(max(hi, l.minDB), l.maxDB)
 }
 
 // quantileSpec are the percentiles reported, as fractions.
@@ -143,4 +153,37 @@ func scanStats[T uint32 | uint64](l *histLayout, c []T, lo, hi int, n uint64, qs
 		v = 0
 	}
 	out.std = math.Sqrt(v)
+}
+
+// usedRange returns the first and last non-zero index of c (lo > hi when
+// every count is zero). It tests eight bins per step, so finding the few
+// occupied bins of a wide histogram costs a fraction of a full scan.
+func usedRange(c []uint32) (lo, hi int) {
+	n := len(c)
+	lo = 0
+	for lo+8 <= n {
+		s := c[lo : lo+8 : lo+8]
+		if s[0]|s[1]|s[2]|s[3]|s[4]|s[5]|s[6]|s[7] != 0 {
+			break
+		}
+		lo += 8
+	}
+	for lo < n && c[lo] == 0 {
+		lo++
+	}
+	if lo == n {
+		return 0, -1
+	}
+	hi = n - 1
+	for hi-7 > lo {
+		s := c[hi-7 : hi+1 : hi+1]
+		if s[0]|s[1]|s[2]|s[3]|s[4]|s[5]|s[6]|s[7] != 0 {
+			break
+		}
+		hi -= 8
+	}
+	for c[hi] == 0 {
+		hi--
+	}
+	return lo, hi
 }

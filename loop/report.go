@@ -3,21 +3,25 @@ package loop
 import (
 	"fmt"
 	"math"
-	"sort"
-	"strings"
-	"sync"
-
-	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distuv"
+	"time"
 )
 
-// Estimate is a point estimate with its 95 % confidence interval. Within
-// one replication the interval comes from batch means over time (Student t
-// over the batches); with several replications, from the spread across
-// replications (Student t over them). Proportions use the Wilson score
-// interval with the effective sample size implied by that spread. When no
-// spread is available (one batch, one replication) the interval collapses
-// to the value.
+// Estimate is a point estimate with its 95 % confidence interval, always
+// inside the quantity's range. With one replication the interval comes
+// from batch means over time (batches spanning >= BatchDecorrelationTimes
+// decorrelation times, see effectiveBatches); with several replications the
+// value is pooled over all replications' samples and the interval comes
+// from the spread of the per-replication values. Means and percentiles use
+// Student t over the batches or replications (Student 1908), clamped to the
+// quantity's physical range (Tx power within [min, max] dBm, noise rise
+// >= 0 dB); proportions use the Wilson score interval (Wilson 1927) on the
+// effective sample size p(1−p)/se² with the t quantile in place of z
+// (Korn & Graubard 1998, memory), capped at the number of decorrelation
+// times observed; the SIR-error std and the convergence time, which are
+// positive, use Student t on the log scale (delta method: half-width
+// t·se/value), so their intervals never go below zero. When no spread is
+// available (one batch and one replication) the interval collapses to the
+// value.
 type Estimate struct {
 	Value  float64 `json:"value"`
 	CILow  float64 `json:"ci_low"`
@@ -83,12 +87,17 @@ type DistanceBinFigures struct {
 // ρ(F) >= 1, Foschini & Miljanic 1993) — or when users stay pinned at
 // maximum power below target (at max power and in outage in at least half
 // of the measured slots), or when the ideal mode's joint solution does not
-// exist in more than 1 % of slots.
+// exist in more than 1 % of slots. The pole bound at the lowest targets the
+// run can use (the fixed target, or min_target_db with the outer loop) is
+// checked before any slot is simulated: such a run returns at once with no
+// figures (SimulatedUserSlots = 0, no users or bins). Users lists at most
+// MaxListedUsers indices; Reason gives the count and the index and
+// distance ranges of all of them.
 type Feasibility struct {
 	Infeasible     bool    `json:"infeasible"`
 	Reason         string  `json:"reason"`
 	SpectralRadius float64 `json:"spectral_radius"` // ρ(F) of the link-gain matrix, when computed (static matrix runs)
-	Users          []int   `json:"users"`           // users that cannot reach the target, when known
+	Users          []int   `json:"users"`           // users that cannot reach the target, when known (at most MaxListedUsers, sorted)
 	LoadFactor     float64 `json:"load_factor"`     // (1+f)·Σ a_i·γ_i/(G_p+γ_i), the larger of initial and final targets
 }
 
@@ -127,89 +136,20 @@ type Report struct {
 	Layout             *LayoutReport        `json:"layout"`        // multi-cell figures (layout.sites set), else nil
 }
 
-// tQuantile is the two-sided 95 % Student t quantile with dof degrees of
-// freedom (gonum distuv).
-func tQuantile(dof int) float64 {
-	if dof <= 0 {
-		return 0
+// pooledValues are the point values of set i over all replications (pool):
+// percentiles, mean and std from the pooled histograms, proportions and
+// the mean power from the summed counts (in replication order).
+func (sh *shared) pooledValues(results []*repResult, i int) [nStat]float64 {
+	var cnt, out, mx, blk, errs int64
+	var psum float64
+	for _, r := range results {
+		s := &r.sets[i]
+		cnt, out, mx, blk, errs, psum = cnt+s.slots, out+s.outage, mx+s.atMax, blk+s.blocks, errs+s.blockErrs, psum+s.powSumMW
 	}
-	tqMu.Lock()
-	defer tqMu.Unlock()
-	if q, ok := tqCache[dof]; ok {
-		return q
-	}
-	q := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(dof)}.Quantile(0.975)
-	if len(tqCache) < 4096 {
-		tqCache[dof] = q
-	}
-	return q
-}
-
-var (
-	tqMu    sync.Mutex
-	tqCache = map[int]float64{}
-)
-
-const z95 = 1.959963984540054
-
-// wilson is the Wilson score interval of a proportion p with n samples.
-func wilson(p, n float64) (lo, hi float64) {
-	if !(n > 0) {
-		return p, p
-	}
-	z2 := z95 * z95
-	den := 1 + z2/n
-	c := (p + z2/(2*n)) / den
-	h := z95 * math.Sqrt(p*(1-p)/n+z2/(4*n*n)) / den
-	return math.Max(0, c-h), math.Min(1, c+h)
-}
-
-// combined is one statistic over replications: value, standard error and
-// its degrees of freedom.
-type combined struct {
-	v, se float64
-	dof   int
-	ok    bool
-}
-
-func combine(vals []float64, ses []float64, dofs []int) combined {
-	R := len(vals)
-	if R == 0 {
-		return combined{}
-	}
-	if R == 1 {
-		return combined{v: vals[0], se: ses[0], dof: dofs[0], ok: true}
-	}
-	m := 0.0
-	for _, x := range vals {
-		m += x
-	}
-	m /= float64(R)
-	v := 0.0
-	for _, x := range vals {
-		v += (x - m) * (x - m)
-	}
-	v /= float64(R - 1)
-	return combined{v: m, se: math.Sqrt(v / float64(R)), dof: R - 1, ok: true}
-}
-
-func (c combined) estimate() Estimate {
-	h := tQuantile(c.dof) * c.se
-	if c.dof == 0 || !(h >= 0) {
-		h = 0
-	}
-	return Estimate{Value: c.v, CILow: c.v - h, CIHigh: c.v + h}
-}
-
-// proportion is the Wilson interval with n_eff = p(1−p)/se², capped at the
-// sample count.
-func (c combined) proportion(samples float64) Estimate {
-	nEff := samples
-	if c.se > 0 && c.v > 0 && c.v < 1 {
-		nEff = math.Min(samples, c.v*(1-c.v)/(c.se*c.se))
-	}
-	lo, hi := wilson(c.v, nEff)
-	return Estimate{Value: c.v, CILow: lo, CIHigh: hi}
+	var hsS, hsP histStats
+	sh.pool.sir[i].stats(sh.sirLayout, &hsS)
+	sh.pool.pow[i].stats(sh.powLayout, &hsP)
+	return pointValues(&hsS, &hsP, cnt, out, mx, blk, errs, psum)
 }
 
 // figures combines set i of every replication.
@@ -217,6 +157,10 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	R := len(results)
 	vals, ses := make([]float64, 0, R), make([]float64, 0, R)
 	dofs := make([]int, 0, R)
+	var pooled [nStat]float64
+	if sh.pool != nil {
+		pooled = sh.pooledValues(results, i)
+	}
 	stat := func(st int) combined {
 		vals, ses, dofs = vals[:0], ses[:0], dofs[:0]
 		for _, r := range results {
@@ -227,7 +171,11 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 				dofs = append(dofs, s.dof[st])
 			}
 		}
-		return combine(vals, ses, dofs)
+		c := combine(vals, ses, dofs)
+		if sh.pool != nil && c.ok {
+			c.v = pooled[st]
+		}
+		return c
 	}
 	var f Figures
 	var slots, blocks int64
@@ -235,20 +183,20 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		slots += r.sets[i].slots
 		blocks += r.sets[i].blocks
 	}
+	il := sh.sc.InnerLoop
 	f.Users = results[0].sets[i].users
 	f.UserSlots = slots
 	f.SIRErrorMeanDB = stat(stSIRMean).estimate()
-	f.SIRErrorStdDB = stat(stSIRStd).estimate()
-	f.SIRErrorPercentilesDB = percentiles(stat, stSIRQ)
-	f.TxPowerPercentilesDBm = percentiles(stat, stPowQ)
-	f.OutageProbability = stat(stOutage).proportion(float64(slots))
-	b := stat(stBLER)
-	f.AchievedBLER = b.proportion(float64(blocks))
+	f.SIRErrorStdDB = stat(stSIRStd).positive()
+	f.SIRErrorPercentilesDB = percentiles(stat, stSIRQ, math.Inf(-1), math.Inf(1))
+	f.TxPowerPercentilesDBm = percentiles(stat, stPowQ, il.MinPowerDBm, il.MaxPowerDBm)
+	f.OutageProbability = stat(stOutage).proportion(float64(slots), sh.independentSamples(slots, 1, f.Users, R))
+	f.AchievedBLER = stat(stBLER).proportion(float64(blocks), sh.independentSamples(blocks, float64(sh.sc.OuterLoop.BlockSlots), f.Users, R))
 	tau := sh.sc.OuterLoop.BLERTarget
 	f.BLERTargetError = Estimate{f.AchievedBLER.Value - tau, f.AchievedBLER.CILow - tau, f.AchievedBLER.CIHigh - tau}
-	f.TxPowerMeanDBm = stat(stPowMean).estimate()
-	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots))
-	// Noise rise: the receiver's.
+	f.TxPowerMeanDBm = stat(stPowMean).within(il.MinPowerDBm, il.MaxPowerDBm)
+	f.MaxPowerFraction = stat(stMaxFrac).proportion(float64(slots), sh.independentSamples(slots, 1, f.Users, R))
+	// Noise rise: the receiver's, >= 0 dB.
 	var nm, np, nmSE, npSE []float64
 	var nd []int
 	for _, r := range results {
@@ -256,9 +204,16 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		nmSE, npSE = append(nmSE, r.nrSE[0]), append(npSE, r.nrSE[1])
 		nd = append(nd, r.nrDof)
 	}
-	f.NoiseRiseMeanDB = combine(nm, nmSE, nd).estimate()
-	f.NoiseRiseP95DB = combine(np, npSE, nd).estimate()
-	// Convergence: across replications for a user, across users for a set.
+	cm, cp := combine(nm, nmSE, nd), combine(np, npSE, nd)
+	if sh.pool != nil {
+		var hn histStats
+		sh.pool.rise.stats(sh.riseLayout, &hn)
+		cm.v, cp.v = hn.mean, hn.q[3]
+	}
+	f.NoiseRiseMeanDB = cm.within(0, math.Inf(1))
+	f.NoiseRiseP95DB = cp.within(0, math.Inf(1))
+	// Convergence: across replications for a user, across users for a set
+	// (each user's time averaged over the replications); positive.
 	var cv []float64
 	if i < sh.n {
 		for _, r := range results {
@@ -278,19 +233,15 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 	if len(cv) > 0 {
 		zero := make([]float64, len(cv))
 		dz := make([]int, len(cv))
-		if len(cv) == 1 {
-			f.ConvergenceTimeS = combine(cv, zero[:1], dz[:1]).estimate()
-		} else {
-			f.ConvergenceTimeS = combine(cv, zero, dz).estimate()
-		}
+		f.ConvergenceTimeS = combine(cv, zero, dz).positive()
 	}
 	return f
 }
 
-func percentiles(stat func(int) combined, base int) Percentiles {
+func percentiles(stat func(int) combined, base int, lo, hi float64) Percentiles {
 	return Percentiles{
-		P1: stat(base).estimate(), P5: stat(base + 1).estimate(), P50: stat(base + 2).estimate(),
-		P95: stat(base + 3).estimate(), P99: stat(base + 4).estimate(),
+		P1: stat(base).within(lo, hi), P5: stat(base+1).within(lo, hi), P50: stat(base+2).within(lo, hi),
+		P95: stat(base+3).within(lo, hi), P99: stat(base+4).within(lo, hi),
 	}
 }
 
@@ -321,6 +272,9 @@ func (sh *shared) report(results []*repResult) *Report {
 			MaxDistanceM: sh.binEdges[b+1], Figures: sh.figures(results, n+b)})
 	}
 	rep.Aggregate = sh.figures(results, n+sh.nbins)
+	if sh.batchNote != "" && len(results) == 1 {
+		rep.Notes = append(rep.Notes, sh.batchNote)
+	}
 	if results[0].traces != nil {
 		rep.Traces = results[0].traces
 		if results[0].traceCut {
@@ -350,81 +304,22 @@ func (sh *shared) report(results []*repResult) *Report {
 	return rep
 }
 
-// loadFactor is (1+f)·Σ_i a_i·γ_i/(G_p+γ_i) for targets in dB.
-func (sh *shared) loadFactor(targetDB func(u int) float64) float64 {
-	s := 0.0
-	for u := 0; u < sh.n; u++ {
-		g := dbToLin(targetDB(u))
-		a := sh.sc.Groups[sh.users[u].group].ActivityFactor
-		s += a * g / (sh.gp + g)
+// infeasibleReport is the Report of a run found infeasible before any slot
+// was simulated: no figures (zero, no users or bins), the feasibility
+// verdict, the user count (Aggregate.Users) and what reproduces it.
+func (sh *shared) infeasibleReport(fz Feasibility, start time.Time) *Report {
+	rep := &Report{
+		NormalisedScenario: sh.sc,
+		Seed:               sh.sc.Run.Seed,
+		EngineVersion:      EngineVersion,
+		Replications:       sh.sc.Run.Replications,
+		Users:              []UserFigures{},
+		DistanceBins:       []DistanceBinFigures{},
+		Traces:             []UserTrace{},
+		Feasibility:        fz,
+		Notes:              []string{"infeasible load found before the run: no slots simulated, no figures"},
 	}
-	return sh.f1 * s
-}
-
-func (sh *shared) feasibility(results []*repResult, rep *Report) Feasibility {
-	var fz Feasibility
-	var reasons []string
-	mode := sh.sc.InnerLoop.Mode
-	if sh.hk != nil && sh.hk.matrix != nil {
-		fz.SpectralRadius = spectralRadius(sh.hk.matrix, dbToLin(sh.sc.OuterLoop.InitialTargetDB))
-		if fz.SpectralRadius >= 1 {
-			reasons = append(reasons, fmt.Sprintf("spectral radius of the normalised link-gain matrix at the target is %.4g >= 1: no powers reach the target (Foschini & Miljanic 1993)", fz.SpectralRadius))
-		}
-	} else {
-		l0 := sh.loadFactor(func(int) float64 { return sh.sc.OuterLoop.InitialTargetDB })
-		l1 := sh.loadFactor(func(u int) float64 { return results[0].targetDB[u] })
-		fz.LoadFactor = math.Max(l0, l1)
-		if fz.LoadFactor >= 1 {
-			reasons = append(reasons, fmt.Sprintf("pole capacity exceeded: load factor (1+f)·Σ a·γ/(G_p+γ) = %.4g >= 1, no powers give every user its target", fz.LoadFactor))
-		}
-	}
-	if mode == InnerModeClosedLoop || mode == InnerModeIdeal {
-		for _, u := range rep.Users {
-			if u.Figures.MaxPowerFraction.Value >= 0.5 && u.Figures.OutageProbability.Value >= 0.5 {
-				fz.Users = append(fz.Users, u.User)
-			}
-		}
-		if len(fz.Users) > 0 {
-			reasons = append(reasons, fmt.Sprintf("%d users are pinned at max_power_dbm below target (at maximum power and in outage in >= 50 %% of slots)", len(fz.Users)))
-		}
-	}
-	if mode == InnerModeIdeal {
-		var bad int64
-		for _, r := range results {
-			bad += r.idealBad
-		}
-		if fr := float64(bad) / float64(sh.total*int64(len(results))); fr > 0.01 {
-			reasons = append(reasons, fmt.Sprintf("the ideal joint power solution does not exist in %.3g %% of slots", 100*fr))
-		}
-	}
-	sort.Ints(fz.Users)
-	if fz.Users == nil {
-		fz.Users = []int{}
-	}
-	fz.Infeasible = len(reasons) > 0
-	fz.Reason = strings.Join(reasons, "; ")
-	return fz
-}
-
-// spectralRadius is ρ(F) with F_ij = γ·G_ij/G_ii for j ≠ i, 0 on the
-// diagonal (gonum mat eigenvalues).
-func spectralRadius(G [][]float64, gamma float64) float64 {
-	n := len(G)
-	F := mat.NewDense(n, n, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			if i != j {
-				F.Set(i, j, gamma*G[i][j]/G[i][i])
-			}
-		}
-	}
-	var e mat.Eigen
-	if !e.Factorize(F, mat.EigenNone) {
-		return math.NaN()
-	}
-	r := 0.0
-	for _, v := range e.Values(nil) {
-		r = math.Max(r, math.Hypot(real(v), imag(v)))
-	}
-	return r
+	rep.Aggregate.Users = sh.n
+	rep.WallTimeS = time.Since(start).Seconds()
+	return rep
 }

@@ -19,7 +19,7 @@ func TestCanonicalScenarioValid(t *testing.T) {
 	if v := sc.Validate(); len(v) != 0 {
 		t.Fatalf("canonical scenario invalid: %v", v)
 	}
-	n := cloneScenario(sc)
+	n := sc.Clone()
 	n.Normalise()
 	if !reflect.DeepEqual(n, sc) {
 		t.Errorf("canonical scenario is not normalised:\n got %+v\nwant %+v", n, sc)

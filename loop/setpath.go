@@ -12,6 +12,8 @@ import (
 // SetPath sets the numeric field (float, int or uint) of sc named by its
 // json-tag path, e.g. "inner_loop.step_db", "groups[0].count",
 // "groups[0].speeds[0].speed_kmh" — the axes of sweeps and of the tuner.
+// The group-level path "groups[i].speed_kmh" (see IsGroupSpeedPath) sets
+// the speed_kmh of every entry of group i's speed mix, keeping the weights.
 // Integer fields take integral values within their range only. It returns
 // an error naming the path for an unknown field, an index out of range, a
 // non-numeric field (strings, bools, enums, lists) or a value the field
@@ -22,6 +24,9 @@ func SetPath(sc *Scenario, path string, value float64) error {
 	}
 	if path == "" {
 		return fmt.Errorf("empty field path")
+	}
+	if IsGroupSpeedPath(path) {
+		return setGroupSpeed(sc, path, value)
 	}
 	v, _, _, err := resolvePath(sc, path)
 	if err != nil {
@@ -53,6 +58,38 @@ func SetPath(sc *Scenario, path string, value float64) error {
 		v.SetUint(uint64(value))
 	default:
 		return fmt.Errorf("field path %q: %s field is not numeric", path, v.Kind())
+	}
+	return nil
+}
+
+// GroupSpeedField is the last element of a group-level speed path.
+const GroupSpeedField = "speed_kmh"
+
+// IsGroupSpeedPath reports whether path is the group-level speed path
+// "groups[i].speed_kmh" (i a non-negative integer): one value for every
+// speed of the group's speed mix.
+func IsGroupSpeedPath(path string) bool {
+	head, ok := strings.CutSuffix(path, "."+GroupSpeedField)
+	if !ok || strings.Contains(head, ".") {
+		return false
+	}
+	name, idx, err := splitIndex(head)
+	return err == nil && name == "groups" && len(idx) == 1
+}
+
+// setGroupSpeed sets every speed of the group named by a group-level speed
+// path; sc is unchanged on error.
+func setGroupSpeed(sc *Scenario, path string, value float64) error {
+	_, idx, _ := splitIndex(strings.TrimSuffix(path, "."+GroupSpeedField))
+	g := idx[0]
+	if g >= len(sc.Groups) {
+		return fmt.Errorf("field path %q: index %d out of range for \"groups\" (length %d)", path, g, len(sc.Groups))
+	}
+	if len(sc.Groups[g].Speeds) == 0 {
+		return fmt.Errorf("field path %q: group %d has no speeds to set", path, g)
+	}
+	for i := range sc.Groups[g].Speeds {
+		sc.Groups[g].Speeds[i].SpeedKmh = value
 	}
 	return nil
 }

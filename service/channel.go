@@ -27,8 +27,12 @@ const chunkTargetBytes = 512 << 10
 // resolving a built-in profile name. Bad input is returned as violations
 // with field paths under prefix (e.g. "channel.").
 func channelConfigFromProto(m *pb.ChannelSpec, prefix string) (fading.ChannelConfig, []Violation) {
+	doppler, vs := dopplerFromProto(m, prefix)
+	if len(vs) > 0 {
+		return fading.ChannelConfig{}, vs
+	}
 	cfg := fading.ChannelConfig{
-		DopplerHz:    m.GetDopplerHz(),
+		DopplerHz:    doppler,
 		SampleRateHz: m.GetSampleRateHz(),
 		RicianKDB:    m.GetRicianKDb(),
 		LOS:          m.GetLos(),
@@ -58,9 +62,31 @@ func channelConfigFromProto(m *pb.ChannelSpec, prefix string) (fading.ChannelCon
 		cfg.Profile = p
 	}
 	if err := cfg.Validate(); err != nil {
-		return cfg, []Violation{{Field: prefix + fadingParamPath(err, len(m.GetCustomTaps()) > 0), Description: paramRule(err)}}
+		path := fadingParamPath(err, len(m.GetCustomTaps()) > 0)
+		if path == "doppler_hz" && m.GetSpeedKmh() > 0 {
+			path = "speed_kmh"
+		}
+		return cfg, []Violation{{Field: prefix + path, Description: paramRule(err)}}
 	}
 	return cfg, nil
+}
+
+// dopplerFromProto is the spec's maximum Doppler in Hz: doppler_hz, or
+// fading.DopplerHz(speed_kmh, carrier_hz) when a speed is given instead.
+func dopplerFromProto(m *pb.ChannelSpec, prefix string) (float64, []Violation) {
+	if m.GetSpeedKmh() == 0 {
+		if m.GetCarrierHz() != 0 {
+			return 0, []Violation{{Field: prefix + "carrier_hz", Description: "must be 0 unless speed_kmh is set"}}
+		}
+		return m.GetDopplerHz(), nil
+	}
+	if m.GetDopplerHz() != 0 {
+		return 0, []Violation{{Field: prefix + "speed_kmh", Description: "must be 0 when doppler_hz is set (give one of them)"}}
+	}
+	if m.GetCarrierHz() <= 0 {
+		return 0, []Violation{{Field: prefix + "carrier_hz", Description: "must be > 0 with speed_kmh"}}
+	}
+	return fading.DopplerHz(m.GetSpeedKmh(), m.GetCarrierHz()), nil
 }
 
 var tapsParam = regexp.MustCompile(`^Profile\.Taps\[(\d+)\]\.(DelayNs|PowerDB)$`)

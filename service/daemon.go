@@ -52,6 +52,7 @@ func ServerTLSConfig(certFile, keyFile, clientCAFile string) (*tls.Config, error
 type DaemonOptions struct {
 	Listen        string        // gRPC listen address host:port; port 0 picks a free port (logged as grpc_addr)
 	MetricsListen string        // Prometheus /metrics HTTP listen address; empty: no metrics listener
+	HTTPListen    string        // HTTP/JSON listen address (Connect, gRPC-Web, /v1/ routes; see Server.HTTPHandler); empty: none
 	DrainTimeout  time.Duration // how long in-flight calls may run after ctx ends before they are cancelled
 }
 
@@ -86,6 +87,14 @@ func RunDaemon(ctx, stop context.Context, srv *Server, o DaemonOptions) error {
 			}
 		}()
 		logger.Info("metrics listening", slog.String("metrics_addr", mlis.Addr().String()))
+	}
+	if o.HTTPListen != "" {
+		stopHTTP, err := serveHTTPFront(srv, o.HTTPListen, logger)
+		if err != nil {
+			lis.Close()
+			return err
+		}
+		defer stopHTTP()
 	}
 	tc := srv.Config().TLS
 	logger.Info("listening", slog.String("grpc_addr", lis.Addr().String()), slog.Bool("tls", tc != nil),

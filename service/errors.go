@@ -12,6 +12,9 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/types/known/durationpb"
+
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
 )
 
 // Violation is one broken rule of a request: the field path (proto field
@@ -22,11 +25,61 @@ type Violation struct {
 	Description string
 }
 
-// invalidArgument returns an INVALID_ARGUMENT status carrying every
-// violation as a google.rpc.BadRequest field violation. Violations are
-// sorted by field path and de-duplicated (same field and description).
+// MaxViolations caps the field violations of one error: the first
+// MaxViolations (sorted by field path) are listed, then one entry at
+// field "" counts the rest, so that no rejection outgrows a message (a
+// request of 262 000 bad distances once broke the connection).
+const MaxViolations = 50
+
+// apiPath maps a field path reported by the domain (package loop, tune or
+// fading; proto field paths relative to the domain object) to the path in
+// the request: prefix (where the domain object sits, e.g. "scenario.",
+// "base.", "") before it, except the engine's trace options ("trace.…"),
+// which the request carries at "traces.…". It is the one mapping from
+// domain paths to API paths; every handler uses it through violationsOf.
+func apiPath(prefix, field string) string {
+	if rest, ok := strings.CutPrefix(field, "trace."); ok {
+		return "traces." + rest
+	}
+	return prefix + field
+}
+
+// violationsOf returns the field violations err carries (loop.Violations
+// or a *fading.ParamError) at their request paths (apiPath), and whether
+// it carries any.
+func violationsOf(err error, prefix string) ([]Violation, bool) {
+	var lvs loop.Violations
+	if errors.As(err, &lvs) {
+		out := make([]Violation, len(lvs))
+		for i, v := range lvs {
+			out[i] = Violation{Field: apiPath(prefix, v.Field), Description: v.Rule}
+		}
+		return out, true
+	}
+	var pe *fading.ParamError
+	if errors.As(err, &pe) {
+		return []Violation{{Field: apiPath(prefix, pe.Path), Description: pe.Rule}}, true
+	}
+	return nil, false
+}
+
+// capViolations keeps the first MaxViolations of vs and adds one entry
+// counting the rest.
+func capViolations(vs []Violation) []Violation {
+	if len(vs) <= MaxViolations {
+		return vs
+	}
+	rest := len(vs) - MaxViolations
+	return append(vs[:MaxViolations:MaxViolations], Violation{Field: "",
+		Description: fmt.Sprintf("%d more violations not listed (at most %d are)", rest, MaxViolations)})
+}
+
+// invalidArgument returns an INVALID_ARGUMENT status carrying the
+// violations as google.rpc.BadRequest field violations: sorted by field
+// path, de-duplicated (same field and description) and capped at
+// MaxViolations plus one entry counting the rest.
 func invalidArgument(vs []Violation) error {
-	vs = dedupe(vs)
+	vs = capViolations(dedupe(vs))
 	br := &errdetails.BadRequest{}
 	var msg strings.Builder
 	msg.WriteString("invalid request:")

@@ -3,9 +3,16 @@ package service
 import (
 	"context"
 	"errors"
+	"go/ast"
+	"go/parser"
+	"go/token"
 	"io"
+	"io/fs"
 	"log/slog"
+	"math"
 	"net"
+	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"testing"
@@ -18,6 +25,8 @@ import (
 	"google.golang.org/grpc/status"
 	"google.golang.org/grpc/test/bufconn"
 
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -171,5 +180,120 @@ func drain[T any](recv func() (*T, error)) ([]*T, error) {
 			return out, err
 		}
 		out = append(out, m)
+	}
+}
+
+// TestOnlyServiceCreatesStatuses enforces the design rule "only service
+// speaks status codes": outside package service (and the generated gRPC
+// stubs, whose Unimplemented handlers are grpc's own), no non-test file may
+// import google.golang.org/grpc/status or codes, except the client, which
+// may read statuses (status.FromError, status.Convert, codes.X) but not
+// create them (status.New, Newf, Error, Errorf, FromProto, ErrorProto).
+func TestOnlyServiceCreatesStatuses(t *testing.T) {
+	const (
+		statusPkg = "google.golang.org/grpc/status"
+		codesPkg  = "google.golang.org/grpc/codes"
+	)
+	creators := map[string]bool{"New": true, "Newf": true, "Error": true, "Errorf": true, "FromProto": true, "ErrorProto": true}
+	root := ".."
+	checked := 0
+	err := filepath.WalkDir(root, func(path string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(root, path)
+		if d.IsDir() {
+			if rel == "service" || (rel != "." && strings.HasPrefix(d.Name(), ".")) || d.Name() == "testdata" {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if !strings.HasSuffix(path, ".go") || strings.HasSuffix(path, "_test.go") || strings.HasSuffix(path, "_grpc.pb.go") {
+			return nil
+		}
+		f, err := parser.ParseFile(token.NewFileSet(), path, nil, parser.ImportsOnly)
+		if err != nil {
+			return err
+		}
+		checked++
+		statusName := ""
+		for _, imp := range f.Imports {
+			p, _ := strconv.Unquote(imp.Path.Value)
+			if p != statusPkg && p != codesPkg {
+				continue
+			}
+			if !strings.HasPrefix(filepath.ToSlash(rel), "client/") {
+				t.Errorf("%s imports %s: only package service speaks gRPC status codes", rel, p)
+			}
+			if p == statusPkg {
+				statusName = "status"
+				if imp.Name != nil {
+					statusName = imp.Name.Name
+				}
+			}
+		}
+		if statusName == "" {
+			return nil
+		}
+		full, err := parser.ParseFile(token.NewFileSet(), path, nil, 0)
+		if err != nil {
+			return err
+		}
+		ast.Inspect(full, func(n ast.Node) bool {
+			if sel, ok := n.(*ast.SelectorExpr); ok {
+				if id, ok := sel.X.(*ast.Ident); ok && id.Name == statusName && creators[sel.Sel.Name] {
+					t.Errorf("%s calls %s.%s: the client may read statuses, not create them", rel, statusName, sel.Sel.Name)
+				}
+			}
+			return true
+		})
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if checked < 50 {
+		t.Fatalf("checked only %d files: the walk missed the module", checked)
+	}
+}
+
+// TestDomainPathsToAPIPaths checks the one mapping from domain error paths
+// to request paths (violationsOf, apiPath): fading parameters arrive as
+// snake_case API paths, loop and tune paths get the request prefix, the
+// engine's trace options move to "traces.".
+func TestDomainPathsToAPIPaths(t *testing.T) {
+	ok := fading.ChannelConfig{DopplerHz: 10, SampleRateHz: 1500, Profile: fading.Profile{Taps: []fading.Tap{{DelayNs: 0, PowerDB: 0}}}}
+	if err := ok.Validate(); err != nil {
+		t.Fatalf("valid channel rejected: %v", err)
+	}
+	bad := func(f func(*fading.ChannelConfig)) error {
+		c := ok
+		c.Profile.Taps = append([]fading.Tap(nil), ok.Profile.Taps...)
+		f(&c)
+		return c.Validate()
+	}
+	tests := []struct {
+		name   string
+		err    error
+		prefix string
+		want   string
+	}{
+		{"fading Doppler", bad(func(c *fading.ChannelConfig) { c.DopplerHz = 1000 }), "channel.", "channel.doppler_hz"},
+		{"fading Rician K", bad(func(c *fading.ChannelConfig) { c.LOS, c.RicianKDB = true, 1e6 }), "", "rician_k_db"},
+		{"fading tap delay", bad(func(c *fading.ChannelConfig) { c.Profile.Taps[0].DelayNs = math.NaN() }), "", "profile.taps[0].delay_ns"},
+		{"loop scenario field", loop.Violations{{Field: "groups[0].count", Rule: "r"}}, "scenario.", "scenario.groups[0].count"},
+		{"loop trace option", loop.Violations{{Field: "trace.users[3]", Rule: "r"}}, "scenario.", "traces.users[3]"},
+		{"tune request field", loop.Violations{{Field: "axes[1].first", Rule: "r"}}, "", "axes[1].first"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			vs, ok := violationsOf(tc.err, tc.prefix)
+			if !ok || len(vs) != 1 || vs[0].Field != tc.want {
+				t.Errorf("violationsOf(%v) = %v, %v; want field %q", tc.err, vs, ok, tc.want)
+			}
+		})
+	}
+	if _, ok := violationsOf(errors.New("plain"), ""); ok {
+		t.Error("a plain error counted as field violations")
 	}
 }

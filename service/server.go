@@ -134,6 +134,7 @@ func NewServer(cfg Config) (*Server, error) {
 	pb.RegisterChannelServiceServer(s.grpc, &channelServer{s: s})
 	pb.RegisterSimulationServiceServer(s.grpc, &simulationServer{s: s})
 	pb.RegisterLoopServiceServer(s.grpc, &loopServer{s: s})
+	pb.RegisterInfoServiceServer(s.grpc, &infoServer{s: s})
 	healthpb.RegisterHealthServer(s.grpc, &healthService{Server: s.health, drained: s.drained})
 	reflection.Register(s.grpc)
 	s.metrics.grpc.InitializeMetrics(s.grpc)

@@ -57,7 +57,7 @@ func TestHealthAndReflection(t *testing.T) {
 		t.Run(string(tr), func(t *testing.T) {
 			env := startEnv(t, tr, Config{})
 			hc := healthpb.NewHealthClient(env.conn)
-			for _, svc := range []string{"", "fadeloop.v1.ChannelService", "fadeloop.v1.SimulationService", "fadeloop.v1.LoopService"} {
+			for _, svc := range []string{"", "fadeloop.v1.ChannelService", "fadeloop.v1.SimulationService", "fadeloop.v1.LoopService", "fadeloop.v1.InfoService"} {
 				r, err := hc.Check(context.Background(), &healthpb.HealthCheckRequest{Service: svc})
 				if err != nil {
 					t.Fatalf("health %q: %v", svc, err)
@@ -83,7 +83,7 @@ func TestHealthAndReflection(t *testing.T) {
 				got[s.GetName()] = true
 			}
 			for _, want := range []string{"fadeloop.v1.ChannelService", "fadeloop.v1.SimulationService",
-				"fadeloop.v1.LoopService", "grpc.health.v1.Health"} {
+				"fadeloop.v1.LoopService", "fadeloop.v1.InfoService", "grpc.health.v1.Health"} {
 				if !got[want] {
 					t.Errorf("reflection does not list %s (got %v)", want, got)
 				}

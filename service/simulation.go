@@ -2,14 +2,13 @@ package service
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"strings"
-	"sync"
+	"log/slog"
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/loop/multicell"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -52,24 +51,6 @@ func traceOptions(m *pb.TraceOptions, n int, slots int64, maxBytes int) (loop.Tr
 			len(users), d, bytes, maxBytes)})
 	}
 	return loop.TraceOptions{Users: users, Decimation: d}, vs
-}
-
-// engineViolations maps the violations returned by loop.Run to request
-// field paths: scenario fields under prefix, trace options under "traces.".
-func engineViolations(err error, prefix string) ([]Violation, bool) {
-	var lvs loop.Violations
-	if !errors.As(err, &lvs) {
-		return nil, false
-	}
-	out := make([]Violation, len(lvs))
-	for i, v := range lvs {
-		f := prefix + v.Field
-		if strings.HasPrefix(v.Field, "trace.") {
-			f = "traces." + strings.TrimPrefix(v.Field, "trace.")
-		}
-		out[i] = Violation{Field: f, Description: v.Rule}
-	}
-	return out, true
 }
 
 // progressToProto converts an engine progress event.
@@ -137,7 +118,7 @@ func (h *simulationServer) Simulate(req *pb.SimulateRequest, stream pb.Simulatio
 	close(mailbox)
 	sendErr := <-sendDone
 	if err != nil {
-		if vs, ok := engineViolations(err, "scenario."); ok {
+		if vs, ok := violationsOf(err, "scenario."); ok {
 			return s.reject(vs)
 		}
 		return statusFromError(ctx, err)
@@ -156,135 +137,111 @@ func (s *Server) countRun(ctx context.Context, rep *loop.Report) {
 	s.metrics.runRate.Set(rep.UserSlotsPerS)
 }
 
-// maxGridPoints bounds the size of a sweep grid.
-const maxGridPoints = 1 << 24
-
-// sweepGrid is a validated sweep.
-type sweepGrid struct {
-	base    *pb.Scenario
-	axes    []*pb.SweepAxis
-	size    int64
-	points  []int64 // indices to compute, ascending request order
-	seed    uint64
-	perSeed bool
+// SweepRequestFromProto converts a fadeloop.v1 SweepRequest to the
+// domain's sweep request. It does not validate.
+func SweepRequestFromProto(m *pb.SweepRequest) tune.SweepRequest {
+	r := tune.SweepRequest{
+		Base:     ScenarioFromProto(m.GetBase()),
+		Indices:  m.GetPointIndices(),
+		SeedMode: tune.SeedMode(m.GetSeedMode()),
+	}
+	for _, a := range m.GetAxes() {
+		r.Axes = append(r.Axes, AxisFromProto(a))
+	}
+	return r
 }
-
-// coordinates returns the axis value indices of grid index i (row-major,
-// last axis fastest).
-func (g *sweepGrid) coordinates(i int64) []int {
-	idx := make([]int, len(g.axes))
-	for a := len(g.axes) - 1; a >= 0; a-- {
-		n := int64(len(g.axes[a].GetValues()))
-		idx[a] = int(i % n)
-		i /= n
-	}
-	return idx
-}
-
-// pointSeed is the seed of grid point i: the base seed (SEED_MODE_COMMON)
-// or SplitMix64 of seed + (i+1)·0x9E3779B97F4A7C15 (SEED_MODE_PER_POINT).
-func (g *sweepGrid) pointSeed(i int64) uint64 {
-	if !g.perSeed {
-		return g.seed
-	}
-	z := g.seed + uint64(i+1)*0x9E3779B97F4A7C15
-	z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9
-	z = (z ^ (z >> 27)) * 0x94D049BB133111EB
-	return z ^ (z >> 31)
-}
-
-// scenario builds grid point i: the base with every axis value set, the
-// point's seed, normalised. It returns the engine's violations mapped to
-// request fields.
-func (g *sweepGrid) scenario(i int64) (loop.Scenario, []Violation) {
-	sc := ScenarioFromProto(g.base)
-	idx := g.coordinates(i)
-	var vs []Violation
-	for a, ax := range g.axes {
-		if err := loop.SetPath(&sc, ax.GetPath(), ax.GetValues()[idx[a]]); err != nil {
-			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].values[%d]", a, idx[a]), Description: err.Error()})
-		}
-	}
-	if len(vs) > 0 {
-		return sc, vs
-	}
-	sc.Run.Seed = g.pointSeed(i)
-	sc.Normalise()
-	for _, v := range sc.Validate() {
-		field := "base." + v.Field
-		for a, ax := range g.axes {
-			if ax.GetPath() == v.Field {
-				field = fmt.Sprintf("axes[%d].values[%d]", a, idx[a])
-			}
-		}
-		vs = append(vs, Violation{Field: field, Description: fmt.Sprintf("at grid point %d: %s: %s", i, v.Field, v.Rule)})
-	}
-	return sc, vs
-}
-
-// maxSweepViolations caps the violations reported for one sweep.
-const maxSweepViolations = 100
 
 // checkSweep validates a sweep request before any work: the .proto rules,
-// the base scenario, every axis path and value, the point indices, and
-// every point to compute. It returns the grid and the total cost.
-func (s *Server) checkSweep(req *pb.SweepRequest) (*sweepGrid, int64, []Violation) {
-	vs := s.validator.check(req, "")
+// then tune.PlanSweep (base scenario, axes, each axis value, indices),
+// which also bounds the cost without expanding the grid.
+func (s *Server) checkSweep(req *pb.SweepRequest) (*tune.SweepPlan, []Violation) {
+	if vs := s.validator.check(req, ""); len(vs) > 0 {
+		return nil, vs
+	}
+	if vs := checkAxisForms(req.GetAxes()); len(vs) > 0 {
+		return nil, vs
+	}
+	plan, err := tune.PlanSweep(SweepRequestFromProto(req))
+	if err != nil {
+		vs, ok := violationsOf(err, "")
+		if !ok {
+			vs = []Violation{{Field: "axes", Description: err.Error()}}
+		}
+		return nil, vs
+	}
+	return plan, nil
+}
+
+// sweepPointToProto converts one computed point; without detailed only
+// the aggregate, feasibility and run counts of its report are kept.
+func sweepPointToProto(p *tune.SweepPoint, detailed bool) *pb.SweepPoint {
+	m := ReportToProto(p.Report)
+	if !detailed {
+		m.Users, m.DistanceBins, m.NormalisedScenario, m.Traces = nil, nil, nil, nil
+		if m.Layout != nil {
+			m.Layout.UserPoints = nil // per-user, like users
+		}
+	}
+	out := &pb.SweepPoint{Index: p.Index, Seed: p.Seed, Report: m, Label: p.Point.Label()}
+	var named bool
+	for _, c := range p.Point.Coords {
+		out.Coordinates = append(out.Coordinates, c.Value)
+		out.CoordinateNames = append(out.CoordinateNames, c.Text)
+		named = named || c.Text != ""
+	}
+	if !named {
+		out.CoordinateNames = nil
+	}
+	return out
+}
+
+// Sweep runs the grid points on tune.Sweep's worker pool and streams each
+// as it finishes. The cost is checked before any point is built; the
+// check of every point's scenario runs inside admission, under the call's
+// context.
+func (h *simulationServer) Sweep(req *pb.SweepRequest, stream pb.SimulationService_SweepServer) error {
+	s := h.s
+	ctx := stream.Context()
+	plan, vs := s.checkSweep(req)
 	if len(vs) > 0 {
-		return nil, 0, vs
+		return s.reject(vs)
 	}
-	if _, bvs := domainScenario(req.GetBase(), "base."); len(bvs) > 0 {
-		return nil, 0, bvs
+	release, err := s.admit(ctx, "Sweep", plan.Cost().TapSlots)
+	if err != nil {
+		return err
 	}
-	// Range axes (first, last, count) become listed values (tune.go).
-	axes, avs := resolveSweepAxes(req.GetAxes())
-	if len(avs) > 0 {
-		return nil, 0, avs
-	}
-	g := &sweepGrid{base: req.GetBase(), axes: axes, size: 1,
-		seed: req.GetBase().GetRun().GetSeed(), perSeed: req.GetSeedMode() == pb.SeedMode_SEED_MODE_PER_POINT}
-	for a, ax := range g.axes {
-		probe := ScenarioFromProto(g.base)
-		if err := loop.SetPath(&probe, ax.GetPath(), ax.GetValues()[0]); err != nil {
-			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].path", a), Description: err.Error()})
+	defer release()
+	s.hook(ctx, "Sweep")
+
+	var sum tune.SweepSummary
+	err = <-goSafe(s.cfg.Logger, ctx, func() error {
+		var err error
+		sum, err = tune.Sweep(ctx, plan, tune.SweepOptions{Parallelism: s.cfg.EngineParallelism, Check: true},
+			func(p *tune.SweepPoint) error {
+				s.countRun(ctx, p.Report)
+				return stream.Send(&pb.SweepResponse{Event: &pb.SweepResponse_Point{Point: sweepPointToProto(p, req.GetDetailed())}})
+			})
+		return err
+	})
+	if err != nil {
+		if vs, ok := violationsOf(err, ""); ok {
+			return s.reject(vs)
 		}
-		g.size = satMul(g.size, int64(len(ax.GetValues())))
+		s.cfg.Logger.DebugContext(ctx, "sweep stopped", slog.Int64("points_started", sum.PointsStarted),
+			slog.Int64("points_computed", sum.PointsComputed), slog.String("cause", err.Error()))
+		return statusFromError(ctx, err)
 	}
-	if len(vs) > 0 {
-		return nil, 0, vs
+	wall := sum.Wall.Seconds()
+	out := &pb.SweepSummary{
+		GridPoints:         sum.GridPoints,
+		PointsComputed:     sum.PointsComputed,
+		WallTimeS:          wall,
+		SimulatedUserSlots: sum.UserSlots,
 	}
-	if g.size > maxGridPoints {
-		return nil, 0, []Violation{{Field: "axes", Description: fmt.Sprintf(
-			"the grid has %d points, more than the limit %d", g.size, maxGridPoints)}}
+	if wall > 0 {
+		out.UserSlotsPerS = float64(sum.UserSlots) / wall
 	}
-	if idx := req.GetPointIndices(); len(idx) > 0 {
-		for i, p := range idx {
-			if p >= g.size {
-				vs = append(vs, Violation{Field: fmt.Sprintf("point_indices[%d]", i), Description: fmt.Sprintf(
-					"must be a grid index in [0, %d), got %d", g.size, p)})
-			}
-		}
-		g.points = idx
-	} else {
-		g.points = make([]int64, g.size)
-		for i := range g.points {
-			g.points[i] = int64(i)
-		}
-	}
-	if len(vs) > 0 {
-		return nil, 0, vs
-	}
-	var cost int64
-	for _, p := range g.points {
-		sc, pvs := g.scenario(p)
-		vs = append(vs, pvs...)
-		if len(vs) >= maxSweepViolations {
-			vs = append(vs[:maxSweepViolations], Violation{Field: "axes", Description: "more invalid grid points not listed"})
-			break
-		}
-		cost = satAdd(cost, sc.Cost())
-	}
-	return g, cost, vs
+	return statusFromError(ctx, stream.Send(&pb.SweepResponse{Event: &pb.SweepResponse_Summary{Summary: out}}))
 }
 
 func satAdd(a, b int64) int64 {
@@ -292,130 +249,4 @@ func satAdd(a, b int64) int64 {
 		return 1<<63 - 1
 	}
 	return a + b
-}
-
-// sweepResult is one finished point.
-type sweepResult struct {
-	point *pb.SweepPoint
-	slots int64
-	err   error
-}
-
-// Sweep runs the grid points in parallel and streams each as it finishes.
-func (h *simulationServer) Sweep(req *pb.SweepRequest, stream pb.SimulationService_SweepServer) error {
-	s := h.s
-	ctx := stream.Context()
-	start := time.Now()
-	g, cost, vs := s.checkSweep(req)
-	if len(vs) > 0 {
-		return s.reject(vs)
-	}
-	release, err := s.admit(ctx, "Sweep", cost)
-	if err != nil {
-		return err
-	}
-	defer release()
-	s.hook(ctx, "Sweep")
-
-	runCtx, cancel := context.WithCancel(ctx)
-	defer cancel()
-	jobs := make(chan int64)
-	results := make(chan sweepResult)
-	workers := min(s.cfg.EngineParallelism, len(g.points))
-	var wg sync.WaitGroup
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for p := range jobs {
-				r := s.sweepPoint(runCtx, g, p, req.GetDetailed())
-				select {
-				case results <- r:
-				case <-runCtx.Done():
-					return
-				}
-			}
-		}()
-	}
-	go func() {
-		defer close(jobs)
-		for _, p := range g.points {
-			select {
-			case jobs <- p:
-			case <-runCtx.Done():
-				return
-			}
-		}
-	}()
-	go func() {
-		wg.Wait()
-		close(results)
-	}()
-	var done, userSlots int64
-	var firstErr error
-	for r := range results {
-		if firstErr != nil {
-			continue
-		}
-		if r.err == nil {
-			r.err = stream.Send(&pb.SweepResponse{Event: &pb.SweepResponse_Point{Point: r.point}})
-		}
-		if r.err != nil {
-			firstErr = r.err
-			cancel()
-			continue
-		}
-		done++
-		userSlots += r.slots
-	}
-	if firstErr != nil {
-		return statusFromError(ctx, firstErr)
-	}
-	if err := ctx.Err(); err != nil {
-		return statusFromError(ctx, err)
-	}
-	wall := time.Since(start).Seconds()
-	sum := &pb.SweepSummary{
-		GridPoints:         g.size,
-		PointsComputed:     done,
-		WallTimeS:          wall,
-		SimulatedUserSlots: userSlots,
-	}
-	if wall > 0 {
-		sum.UserSlotsPerS = float64(userSlots) / wall
-	}
-	return statusFromError(ctx, stream.Send(&pb.SweepResponse{Event: &pb.SweepResponse_Summary{Summary: sum}}))
-}
-
-// sweepPoint runs one grid point; a panic in the engine becomes INTERNAL.
-func (s *Server) sweepPoint(ctx context.Context, g *sweepGrid, p int64, detailed bool) (res sweepResult) {
-	errc := goSafe(s.cfg.Logger, ctx, func() error {
-		sc, vs := g.scenario(p)
-		if len(vs) > 0 {
-			// Checked before any work; reaching here is a server bug.
-			return fmt.Errorf("grid point %d became invalid: %v", p, vs)
-		}
-		rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{})
-		if err != nil {
-			return err
-		}
-		s.countRun(ctx, rep)
-		m := ReportToProto(rep)
-		if !detailed {
-			m.Users, m.DistanceBins, m.NormalisedScenario, m.Traces = nil, nil, nil, nil
-			if m.Layout != nil {
-				m.Layout.UserPoints = nil // per-user, like users
-			}
-		}
-		idx := g.coordinates(p)
-		coords := make([]float64, len(idx))
-		for a, k := range idx {
-			coords[a] = g.axes[a].GetValues()[k]
-		}
-		res.point = &pb.SweepPoint{Index: p, Coordinates: coords, Seed: sc.Run.Seed, Report: m}
-		res.slots = rep.SimulatedUserSlots
-		return nil
-	})
-	res.err = <-errc
-	return res
 }

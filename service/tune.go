@@ -4,7 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math/bits"
+	"google.golang.org/protobuf/proto"
 	"strings"
 	"sync"
 	"time"
@@ -13,7 +13,6 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
-	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -23,14 +22,15 @@ import (
 // on top of package loop/tune, with the validation, cost bound, admission,
 // cancellation and error mapping of Simulate and Sweep.
 
-// AxisFromProto converts a grid axis: listed values, or the range first,
+// AxisFromProto converts a grid axis: listed values, listed names, or the range first,
 // last, count (log: geometric spacing).
 func AxisFromProto(m *pb.SweepAxis) tune.Axis {
 	return tune.Axis{
 		Path:   m.GetPath(),
 		Values: cloneFloats(m.GetValues()),
-		From:   m.GetFirst(),
-		To:     m.GetLast(),
+		Names:  append([]string(nil), m.GetNames()...),
+		First:  m.GetFirst(),
+		Last:   m.GetLast(),
 		Count:  int(m.GetCount()),
 		Log:    m.GetLog(),
 	}
@@ -138,7 +138,7 @@ func tuneFiguresToProto(f tune.Figures) *pb.TuneFigures {
 func gridPointToProto(p tune.Point) *pb.GridPoint {
 	m := &pb.GridPoint{Index: i32(p.Index)}
 	for _, c := range p.Coords {
-		m.Coords = append(m.Coords, &pb.Coord{Path: c.Path, Value: c.Value})
+		m.Coords = append(m.Coords, &pb.Coord{Path: c.Path, Value: c.Value, Text: c.Text})
 	}
 	return m
 }
@@ -299,8 +299,7 @@ var tuneRequestFields = map[string]bool{
 }
 
 // searchViolations maps the loop.Violations of a Tune or Capacity request
-// to request field paths: the tuner's own fields keep their path (with the
-// range fields of an axis renamed to the proto's first and last); a
+// to request field paths: the tuner's own fields keep their path; a
 // scenario field that an axis or a condition override sets is reported
 // at that axis or override; any other scenario field under "base.".
 func searchViolations(err error, axes []*pb.SweepAxis, conds []*pb.Condition) ([]Violation, bool) {
@@ -316,15 +315,9 @@ func searchViolations(err error, axes []*pb.SweepAxis, conds []*pb.Condition) ([
 			head = head[:i]
 		}
 		switch {
-		case head == "axes":
-			if strings.HasSuffix(f, ".from") {
-				f = strings.TrimSuffix(f, "from") + "first"
-			} else if strings.HasSuffix(f, ".to") {
-				f = strings.TrimSuffix(f, "to") + "last"
-			}
 		case tuneRequestFields[head]:
 		default:
-			f = "base." + f
+			f = apiPath("base.", f)
 			for a, ax := range axes {
 				if ax.GetPath() == v.Field {
 					f = fmt.Sprintf("axes[%d]", a)
@@ -343,37 +336,21 @@ func searchViolations(err error, axes []*pb.SweepAxis, conds []*pb.Condition) ([
 	return out, true
 }
 
-// maxTapsPerUser is the largest number of taps of any group of sc under any
-// of the conditions (at least 1): the factor from user-slots to tap-slots
-// in the cost bound.
-func maxTapsPerUser(base loop.Scenario, conds []tune.Condition) int64 {
-	scs := []loop.Scenario{base}
-	for _, c := range conds {
-		if sc, err := c.ApplyTo(base); err == nil {
-			scs = append(scs, sc)
-		}
-	}
-	n := 1
-	for _, sc := range scs {
-		for _, g := range sc.Groups {
-			k := len(g.CustomTaps)
-			if k == 0 {
-				if p, err := fading.BuiltinProfile(g.Profile); err == nil {
-					k = len(p.Taps)
-				}
-			}
-			n = max(n, k)
-		}
-	}
-	return int64(n)
+// checkBase validates the converted base scenario of a search request
+// (a normalised copy), reporting at "base.…".
+func checkBase(base loop.Scenario) []Violation {
+	b := base.Clone()
+	b.Normalise()
+	vs, _ := violationsOf(b.Validate().Err(), "base.")
+	return vs
 }
 
 // checkTune validates a Tune request before any work: the .proto rules, the
-// base scenario, then the tuner's own rules for the axes, conditions,
-// objective and budget and every candidate scenario. It returns the
-// tuner's request and its worst-case cost in tap-slots: the tuner's
-// worst-case user-slots (tune.Request.WorstCaseUserSlots) times the most
-// taps of any user.
+// base scenario (converted once), then tune.TuneCost: the tuner's own rules
+// for the axes, conditions, objective and budget, and the bound on its work,
+// without building a candidate. It also bounds the size of the answer
+// (tuneResponseBytes) by the server's message limit. It returns the
+// tuner's request and its cost in tap-slots.
 func (s *Server) checkTune(req *pb.TuneRequest) (tune.Request, int64, []Violation) {
 	vs := s.validator.check(req, "")
 	if req.GetBase() == nil {
@@ -382,61 +359,58 @@ func (s *Server) checkTune(req *pb.TuneRequest) (tune.Request, int64, []Violatio
 		}
 		return tune.Request{}, 0, vs
 	}
-	_, bvs := domainScenario(req.GetBase(), "base.")
-	if vs = mergeViolations(vs, bvs); len(vs) > 0 {
-		return tune.Request{}, 0, vs
+	treq := TuneRequestFromProto(req)
+	if vs = mergeViolations(vs, checkBase(treq.Base)); len(vs) > 0 {
+		return treq, 0, vs
 	}
 	if vs := checkAxisForms(req.GetAxes()); len(vs) > 0 {
-		return tune.Request{}, 0, vs
+		return treq, 0, vs
 	}
-	treq := TuneRequestFromProto(req)
-	us, err := treq.WorstCaseUserSlots()
+	cost, err := tune.TuneCost(treq)
 	if err != nil {
 		if tvs, ok := searchViolations(err, req.GetAxes(), req.GetConditions()); ok {
 			return treq, 0, tvs
 		}
 		return treq, 0, []Violation{{Field: "axes", Description: err.Error()}}
 	}
-	return treq, satMul(us, maxTapsPerUser(treq.Base, treq.Conditions)), nil
+	if n, limit := tuneResponseBytes(treq, cost.Points), int64(s.cfg.MaxSendMessageBytes); n > limit {
+		return treq, 0, []Violation{{Field: "axes", Description: fmt.Sprintf(
+			"the recommendation for %d candidates × %d conditions would take about %d bytes, more than the server's maximum message size %d; use fewer candidates or conditions",
+			cost.Points, max(len(treq.Conditions), 1), n, limit)}}
+	}
+	return treq, cost.TapSlots, nil
 }
 
-// capacityCost bounds the work of a capacity search in tap-slots. The
-// doubling evaluates counts lo, 2·lo, ... up to hi (the group's largest
-// count: max_count, or the engine's user limit), together at most 2·hi
-// users of the group; the bisection at most ⌈log₂ hi⌉ + 1 more counts, each
-// at most hi; every evaluation also runs the other groups' users. Each
-// count costs replications runs; with max_user_slots set, at most that
-// many user-slots are spent.
-func capacityCost(req tune.CapacityRequest) int64 {
-	base := tune.CloneScenario(req.Base)
-	base.Normalise()
-	if req.Group < 0 || req.Group >= len(base.Groups) {
-		return 0
+// tuneResponseBytes bounds the encoded size of the Recommendation of a
+// Tune over k candidates: every candidate's grid point, its overall row
+// and, per condition, its row with every figure, each sized by encoding a
+// worst-case row (every number set, the longest axis names), plus the
+// per-condition parts and a margin for the texts.
+func tuneResponseBytes(req tune.Request, k int64) int64 {
+	est := &pb.ReplicationEstimate{Mean: 1.5, Low: 1.5, High: 1.5, N: 1 << 30}
+	fig := &pb.TuneFigures{SirErrorMeanDb: est, SirErrorStdDb: est, OutageProbability: est, AchievedBler: est,
+		BlerTarget: 0.1, TxPowerMeanDbm: est, MaxPowerFraction: est, NoiseRiseMeanDb: est, InfeasibleReplications: 1 << 30}
+	row := &pb.CandidateResult{Candidate: 1 << 30, Objective: est, DiffToBest: est, Status: pb.CandidateStatus(1), Feasible: true}
+	overall := int64(proto.Size(row)) + 4
+	row.Figures = fig
+	perCond := int64(proto.Size(row)) + 4
+	gp := &pb.GridPoint{Index: 1 << 30}
+	for _, a := range req.Axes {
+		longest := 0
+		for _, n := range a.Names {
+			longest = max(longest, len(n))
+		}
+		gp.Coords = append(gp.Coords, &pb.Coord{Path: a.Path, Value: 1.5, Text: strings.Repeat("x", longest)})
 	}
-	others := int64(base.Users() - max(base.Groups[req.Group].Count, 0))
-	hi := req.MaxCount
-	if hi <= 0 {
-		hi = loop.MaxUsers - int(others)
-	}
-	hi = max(hi, 1)
-	reps := req.Replications
-	if reps <= 0 {
-		reps = 4
-	}
-	bisect := int64(bits.Len(uint(hi)) + 1)
-	doubling := int64(bits.Len(uint(hi)) + 1)
-	users := 2*int64(hi) + bisect*int64(hi) + (doubling+bisect)*others
-	us := satMul(satMul(users, int64(reps)), base.TotalSlots())
-	if req.MaxUserSlots > 0 && req.MaxUserSlots < us {
-		us = req.MaxUserSlots
-	}
-	return satMul(us, maxTapsPerUser(base, nil))
+	point := int64(proto.Size(gp)) + 4
+	conds := int64(max(len(req.Conditions), 1))
+	perCondFixed := int64(proto.Size(&pb.ConditionResult{Baseline: &pb.Baseline{Figures: fig, Gain: est}})) + 2048
+	return satAdd(satMul(k, point+overall+conds*perCond), conds*perCondFixed+8192)
 }
 
 // checkCapacity validates a Capacity request before any work: the .proto
-// rules, the base scenario, then the capacity search's own rules (it runs
-// the search on a cancelled context, which validates everything and stops
-// before the first simulation).
+// rules, the base scenario, then the capacity search's own rules
+// (tune.CheckCapacity, which runs nothing).
 func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, []Violation) {
 	vs := s.validator.check(req, "")
 	if req.GetBase() == nil {
@@ -445,15 +419,11 @@ func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, [
 		}
 		return tune.CapacityRequest{}, vs
 	}
-	_, bvs := domainScenario(req.GetBase(), "base.")
-	if vs = mergeViolations(vs, bvs); len(vs) > 0 {
-		return tune.CapacityRequest{}, vs
-	}
 	creq := CapacityRequestFromProto(req)
-	dry, cancel := context.WithCancel(context.Background())
-	cancel()
-	_, err := tune.Capacity(dry, creq, tune.Options{Parallelism: 1})
-	if tvs, ok := searchViolations(err, nil, nil); ok {
+	if vs = mergeViolations(vs, checkBase(creq.Base)); len(vs) > 0 {
+		return creq, vs
+	}
+	if tvs, ok := searchViolations(tune.CheckCapacity(creq), nil, nil); ok {
 		return creq, tvs
 	}
 	return creq, nil
@@ -611,7 +581,7 @@ func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.Simulatio
 	if len(vs) > 0 {
 		return s.reject(vs)
 	}
-	release, err := s.admit(ctx, "Capacity", capacityCost(creq))
+	release, err := s.admit(ctx, "Capacity", tune.CapacityCost(creq).TapSlots)
 	if err != nil {
 		return err
 	}
@@ -640,45 +610,22 @@ func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.Simulatio
 		Result: CapacityResultToProto(res, wall)}}))
 }
 
-// checkAxisForms checks that every axis lists values or gives a range
-// (count >= 1), not both.
+// checkAxisForms checks that every axis lists values, lists names or gives
+// a range (count >= 1), only one of them.
 func checkAxisForms(axes []*pb.SweepAxis) []Violation {
 	var vs []Violation
 	for i, a := range axes {
 		switch {
-		case len(a.GetValues()) == 0 && a.GetCount() == 0:
+		case len(a.GetValues()) == 0 && len(a.GetNames()) == 0 && a.GetCount() == 0:
 			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].values", i),
-				Description: "must list 1 to 1024 values, or give a range instead (first, last, count >= 1)"})
-		case len(a.GetValues()) > 0 && a.GetCount() != 0:
+				Description: fmt.Sprintf("must list 1 to %d values or names, or give a range instead (first, last, count >= 1)", tune.MaxAxisValues)})
+		case len(a.GetValues()) > 0 && len(a.GetNames()) > 0:
+			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].names", i),
+				Description: "give either values or names, not both"})
+		case (len(a.GetValues()) > 0 || len(a.GetNames()) > 0) && a.GetCount() != 0:
 			vs = append(vs, Violation{Field: fmt.Sprintf("axes[%d].count", i),
-				Description: "give either values or a range (first, last, count), not both"})
+				Description: "give either listed values (or names) or a range (first, last, count), not both"})
 		}
 	}
 	return vs
-}
-
-// resolveSweepAxes returns the axes of a sweep with every range axis
-// (values empty; first, last, count) replaced by its listed values, the
-// same values the tuner's grid gives; listed axes are returned as they
-// are.
-func resolveSweepAxes(axes []*pb.SweepAxis) ([]*pb.SweepAxis, []Violation) {
-	if vs := checkAxisForms(axes); len(vs) > 0 {
-		return nil, vs
-	}
-	out := make([]*pb.SweepAxis, len(axes))
-	var vs []Violation
-	for i, a := range axes {
-		if len(a.GetValues()) > 0 {
-			out[i] = a
-			continue
-		}
-		vals, lvs := AxisFromProto(a).Resolve(fmt.Sprintf("axes[%d]", i))
-		if len(lvs) > 0 {
-			tvs, _ := searchViolations(lvs, nil, nil)
-			vs = append(vs, tvs...)
-			continue
-		}
-		out[i] = &pb.SweepAxis{Path: a.GetPath(), Values: vals}
-	}
-	return out, vs
 }

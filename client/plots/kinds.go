@@ -247,6 +247,19 @@ type StepLine struct {
 	ErrorStdHighDB []float64
 }
 
+// Add appends one point: the step in dB, the outage probability as a
+// fraction (0..1) with its interval, and the SIR error std in dB with its
+// interval; outage is stored in per cent.
+func (l *StepLine) Add(stepDB, outage, outageLow, outageHigh, stdDB, stdLowDB, stdHighDB float64) {
+	l.StepDB = append(l.StepDB, stepDB)
+	l.OutagePct = append(l.OutagePct, 100*outage)
+	l.OutageLowPct = append(l.OutageLowPct, 100*outageLow)
+	l.OutageHighPct = append(l.OutageHighPct, 100*outageHigh)
+	l.ErrorStdDB = append(l.ErrorStdDB, stdDB)
+	l.ErrorStdLowDB = append(l.ErrorStdLowDB, stdLowDB)
+	l.ErrorStdHighDB = append(l.ErrorStdHighDB, stdHighDB)
+}
+
 // StepSensitivity draws outage (left) and SIR error std (right) against the
 // inner-loop step size, one line per speed.
 func StepSensitivity(title string, lines []StepLine) (*Figure, error) {

@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/loop"
-	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // PoleParams are the inputs of the pole-capacity estimate of a CDMA cell.
@@ -72,7 +71,7 @@ func PoleCapacity(p PoleParams) (float64, error) {
 // receiver.other_cell_ratio, one sector (the simulation models one
 // omnidirectional receiver).
 func PoleParamsOf(sc loop.Scenario) PoleParams {
-	sc = cloneScenario(sc)
+	sc = sc.Clone()
 	sc.Normalise()
 	var nu, n float64
 	for _, g := range sc.Groups {
@@ -218,73 +217,11 @@ func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityR
 }
 
 func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
-	var v loop.Violations
-	add := func(f, format string, args ...any) {
-		v = append(v, loop.Violation{Field: f, Rule: fmt.Sprintf(format, args...)})
-	}
-	base := cloneScenario(req.Base)
-	base.Normalise()
-	if req.Group < 0 || req.Group >= len(base.Groups) {
-		add("group", "must index a group of the base scenario (0..%d), got %d", len(base.Groups)-1, req.Group)
-		return nil, v
-	}
-	if base.Groups[req.Group].Placement == loop.PlacementExplicit {
-		add("group", "group %d has explicit distances; the capacity search needs a uniform placement to scale its count", req.Group)
-	}
-	if !(req.OutageLimit > 0 && req.OutageLimit < 1) {
-		add("outage_limit", "must be in (0, 1), got %g", req.OutageLimit)
-	}
-	nrLim := req.NoiseRiseLimitDB
-	if nrLim == 0 {
-		nrLim = DefaultNoiseRiseLimitDB
-	}
-	if !(nrLim > 0 && nrLim <= 40) {
-		add("noise_rise_limit_db", "must be in [0, 40] dB (0: the default %g dB), got %g", DefaultNoiseRiseLimitDB, req.NoiseRiseLimitDB)
-	}
-	// In multi-cell mode counts are per cell: others and top are per cell
-	// too, top also bounded by the multi-cell engine's limits.
-	cells := base.Layout.Cells()
-	others := base.Users()/cells - max(base.Groups[req.Group].Count, 0)
-	top := loop.MaxUsers - others
-	if base.MultiCell() {
-		top = min(multicell.MaxGroupSize, multicell.MaxUsers/cells-others)
-	}
-	lo, hi := req.MinCount, req.MaxCount
-	if lo == 0 {
-		lo = 1
-	}
-	if lo < 1 || lo > top {
-		add("min_count", "must be in [1, %d], got %d", top, req.MinCount)
-	}
-	if hi != 0 && (hi < lo || hi > top) {
-		add("max_count", "must be in [min_count, %d] or 0, got %d", top, req.MaxCount)
-	}
-	reps := req.Replications
-	if reps == 0 {
-		reps = 4
-	}
-	if reps < 1 || reps > 1000 {
-		add("replications", "must be in [1, 1000], got %d", req.Replications)
-	}
-	conf := req.Confidence
-	if conf == 0 {
-		conf = DefaultConfidence
-	}
-	if !(conf >= 0.5 && conf <= 0.9999) {
-		add("confidence", "must be in [0.5, 0.9999], got %g", req.Confidence)
-	}
-	if req.MaxUserSlots < 0 {
-		add("max_user_slots", "must be >= 0, got %d", req.MaxUserSlots)
-	}
+	set, v := req.check()
 	if len(v) > 0 {
 		return nil, v
 	}
-	base.Run.Replications = 1
-	probe := cloneScenario(base)
-	probe.Groups[req.Group].Count = lo
-	if vv := probe.Validate(); len(vv) > 0 {
-		return nil, vv
-	}
+	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
 	par := opt.Parallelism
 	if par <= 0 {
 		par = runtime.GOMAXPROCS(0)
@@ -306,7 +243,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		if p, ok := memo[n]; ok {
 			return p.Pass, nil
 		}
-		sc := cloneScenario(base)
+		sc := base.Clone()
 		sc.Groups[req.Group].Count = n
 		if vv := sc.Validate(); len(vv) > 0 {
 			for i := range vv {

@@ -134,6 +134,12 @@ func direct(t *testing.T, base loop.Scenario, n, reps int) (outage, noiseRiseDB 
 		if err != nil {
 			t.Fatal(err)
 		}
+		if rep.Feasibility.Infeasible && rep.SimulatedUserSlots == 0 {
+			// found infeasible before the run (no figures): every user fails
+			outage += 1 / float64(reps)
+			infeasible = true
+			continue
+		}
 		outage += rep.Aggregate.OutageProbability.Value / float64(reps)
 		noiseRiseDB += rep.Aggregate.NoiseRiseMeanDB.Value / float64(reps)
 		infeasible = infeasible || rep.Feasibility.Infeasible

@@ -18,7 +18,7 @@ func ExampleTune() {
 		Base: base,
 		Axes: []tune.Axis{
 			{Path: "inner_loop.step_db", Values: []float64{0.5, 1, 2}},
-			{Path: "inner_loop.update_rate_hz", From: 500, To: 1500, Count: 3},
+			{Path: "inner_loop.update_rate_hz", First: 500, Last: 1500, Count: 3},
 		},
 		Conditions: []tune.Condition{
 			{Name: "3 km/h", Weight: 2, Overrides: []tune.Override{{Path: "groups[0].speeds[0].speed_kmh", Value: 3}}},

@@ -3,45 +3,75 @@ package tune
 import (
 	"fmt"
 	"math"
-	"reflect"
 	"strconv"
 	"strings"
 
 	"github.com/fadeloop/fadeloop/loop"
 )
 
-// Limits of the grid machinery.
+// Limits of the grid machinery, shared by Sweep and Tune.
 const (
-	// MaxAxisValues is the most values one axis may have.
-	MaxAxisValues = 1000
+	// MaxAxisValues is the most values one axis may have (listed numbers,
+	// listed names or a range count); the .proto rules of SweepAxis use the
+	// same number (service tests check that they agree).
+	MaxAxisValues = 1024
 	// MaxGridPoints is the most points a grid may have (product of the axis
-	// lengths).
+	// lengths), for a sweep as for the tuner's candidates.
 	MaxGridPoints = 100000
+	// MaxAxes is the most axes of one grid.
+	MaxAxes = 8
 )
 
+// StepPath is the field path of the inner loop's step size, the axis the
+// tie rule, the reasons and the CLI's step plots single out.
+const StepPath = "inner_loop.step_db"
+
 // Axis is one searched scenario field: Path is its json-tag path (the proto
-// field path, e.g. "inner_loop.step_db", "groups[0].speeds[0].speed_kmh"),
-// set through loop.SetPath, so any numeric field works (integer fields take
-// integral values only).
+// field path, e.g. "inner_loop.step_db", "groups[0].speeds[0].speed_kmh",
+// or "groups[1].speed_kmh" for every speed of group 1 at once).
 //
-// The values are either the explicit list Values (1 to MaxAxisValues distinct
-// finite numbers, kept in the given order) or, when Values is empty, Count
-// points from From to To inclusive: linearly spaced,
-// v_i = From + i·(To−From)/(Count−1), or with Log geometrically spaced,
-// v_i = From·(To/From)^(i/(Count−1)) (From, To > 0). Count 1 gives From.
-// Integer fields need integral range points (e.g. From 0, To 4, Count 5).
+// The values are one of:
+//   - Values: an explicit list of 1 to MaxAxisValues finite numbers, kept in
+//     the given order, set through loop.SetPath (integer fields take
+//     integral values only);
+//   - Names: an explicit list of 1 to MaxAxisValues texts, set through
+//     loop.SetTextPath: enum value names (e.g. "COMMAND_FIXED_STEP",
+//     "COMMAND_ADAPTIVE" for "inner_loop.command") or strings (e.g. "EPA",
+//     "EVA" for "groups[0].profile");
+//   - a range of Count points from First to Last inclusive: linearly spaced,
+//     v_i = First + i·(Last−First)/(Count−1), or with Log geometrically
+//     spaced, v_i = First·(Last/First)^(i/(Count−1)) (First, Last > 0).
+//     Count 1 gives First. Integer fields need integral range points.
 type Axis struct {
 	Path   string    `json:"path"`
 	Values []float64 `json:"values"`
-	From   float64   `json:"from"`
-	To     float64   `json:"to"`
+	Names  []string  `json:"names"`
+	First  float64   `json:"first"`
+	Last   float64   `json:"last"`
 	Count  int       `json:"count"`
 	Log    bool      `json:"log"`
 }
 
-// Resolve returns the axis values; prefix is the field path of the axis in
-// the request (e.g. "axes[1]") used in violations.
+// Len returns the number of values of a (listed values, listed names or
+// the range count) without resolving them.
+func (a Axis) Len() int {
+	switch {
+	case len(a.Values) > 0:
+		return len(a.Values)
+	case len(a.Names) > 0:
+		return len(a.Names)
+	}
+	return a.Count
+}
+
+// Resolve returns the numeric values of the axis (nil for a Names axis);
+// prefix is the field path of the axis in the request (e.g. "axes[1]")
+// used in violations. Listed values and names must be distinct.
 func (a Axis) Resolve(prefix string) ([]float64, loop.Violations) {
+	return a.resolve(prefix, true)
+}
+
+func (a Axis) resolve(prefix string, distinct bool) ([]float64, loop.Violations) {
 	var v loop.Violations
 	add := func(f, format string, args ...any) {
 		v = append(v, loop.Violation{Field: prefix + "." + f, Rule: fmt.Sprintf(format, args...)})
@@ -49,19 +79,38 @@ func (a Axis) Resolve(prefix string) ([]float64, loop.Violations) {
 	if strings.TrimSpace(a.Path) == "" {
 		add("path", "must name a scenario field, e.g. inner_loop.step_db")
 	}
+	forms := 0
+	for _, set := range []bool{len(a.Values) > 0, len(a.Names) > 0, a.Count != 0} {
+		if set {
+			forms++
+		}
+	}
+	if forms > 1 {
+		add("count", "give one of values, names or a range (first, last, count), not several")
+		return nil, v
+	}
+	if n := a.Len(); n > MaxAxisValues {
+		add(map[bool]string{true: "values", false: "names"}[len(a.Values) > 0], "at most %d values, got %d", MaxAxisValues, n)
+		return nil, v
+	}
+	if len(a.Names) > 0 {
+		seen := make(map[string]bool, len(a.Names))
+		for i, s := range a.Names {
+			if strings.TrimSpace(s) == "" {
+				add(fmt.Sprintf("names[%d]", i), "must not be empty")
+			} else if distinct && seen[s] {
+				add(fmt.Sprintf("names[%d]", i), "duplicate name %q", s)
+			}
+			seen[s] = true
+		}
+		return nil, v
+	}
 	if len(a.Values) > 0 {
-		if a.Count != 0 {
-			add("count", "give either values or a range (from, to, count), not both")
-		}
-		if len(a.Values) > MaxAxisValues {
-			add("values", "at most %d values, got %d", MaxAxisValues, len(a.Values))
-			return nil, v
-		}
 		seen := make(map[float64]bool, len(a.Values))
 		for i, x := range a.Values {
 			if math.IsNaN(x) || math.IsInf(x, 0) {
 				add(fmt.Sprintf("values[%d]", i), "must be finite, got %g", x)
-			} else if seen[x] {
+			} else if distinct && seen[x] {
 				add(fmt.Sprintf("values[%d]", i), "duplicate value %g", x)
 			}
 			seen[x] = true
@@ -73,15 +122,15 @@ func (a Axis) Resolve(prefix string) ([]float64, loop.Violations) {
 	}
 	switch {
 	case a.Count < 1 || a.Count > MaxAxisValues:
-		add("count", "must be in [1, %d] when no values are listed, got %d", MaxAxisValues, a.Count)
-	case math.IsNaN(a.From) || math.IsInf(a.From, 0):
-		add("from", "must be finite, got %g", a.From)
-	case math.IsNaN(a.To) || math.IsInf(a.To, 0):
-		add("to", "must be finite, got %g", a.To)
-	case a.Log && !(a.From > 0 && a.To > 0):
-		add("from", "a log range needs from > 0 and to > 0, got %g and %g", a.From, a.To)
-	case a.Count > 1 && a.From == a.To:
-		add("to", "must differ from from when count > 1, got %g twice", a.To)
+		add("count", "must be in [1, %d] when no values or names are listed, got %d", MaxAxisValues, a.Count)
+	case math.IsNaN(a.First) || math.IsInf(a.First, 0):
+		add("first", "must be finite, got %g", a.First)
+	case math.IsNaN(a.Last) || math.IsInf(a.Last, 0):
+		add("last", "must be finite, got %g", a.Last)
+	case a.Log && !(a.First > 0 && a.Last > 0):
+		add("first", "a log range needs first > 0 and last > 0, got %g and %g", a.First, a.Last)
+	case a.Count > 1 && a.First == a.Last:
+		add("last", "must differ from first when count > 1, got %g twice", a.Last)
 	}
 	if len(v) > 0 {
 		return nil, v
@@ -89,27 +138,46 @@ func (a Axis) Resolve(prefix string) ([]float64, loop.Violations) {
 	out := make([]float64, a.Count)
 	for i := range out {
 		if a.Count == 1 {
-			out[i] = a.From
+			out[i] = a.First
 			continue
 		}
 		f := float64(i) / float64(a.Count-1)
 		if a.Log {
-			out[i] = a.From * math.Pow(a.To/a.From, f)
+			out[i] = a.First * math.Pow(a.Last/a.First, f)
 		} else {
-			out[i] = a.From + f*(a.To-a.From)
+			out[i] = a.First + f*(a.Last-a.First)
 		}
 	}
-	out[len(out)-1] = a.To
+	out[len(out)-1] = a.Last
 	if a.Count == 1 {
-		out[0] = a.From
+		out[0] = a.First
 	}
 	return out, nil
 }
 
 // Coord is one coordinate of a grid point: the field path and its value.
+// On a Names axis Text is the name set and Value its position in the axis'
+// list (0, 1, ...), which orders text values for tie rules.
 type Coord struct {
 	Path  string  `json:"path"`
 	Value float64 `json:"value"`
+	Text  string  `json:"text"`
+}
+
+// apply sets the coordinate on sc.
+func (c Coord) apply(sc *loop.Scenario) error {
+	if c.Text != "" {
+		return loop.SetTextPath(sc, c.Path, c.Text)
+	}
+	return loop.SetPath(sc, c.Path, c.Value)
+}
+
+// valueText is the coordinate's value as a label shows it.
+func (c Coord) valueText() string {
+	if c.Text != "" {
+		return c.Text
+	}
+	return strconv.FormatFloat(c.Value, 'g', 6, 64)
 }
 
 // Point is one grid point. Index is its place in the grid's stable order
@@ -120,11 +188,11 @@ type Point struct {
 	Coords []Coord `json:"coords"`
 }
 
-// Apply sets every coordinate of p on sc through loop.SetPath. sc may be
-// left partly changed on error; apply to a copy.
+// Apply sets every coordinate of p on sc through loop.SetPath or
+// loop.SetTextPath. sc may be left partly changed on error; apply to a copy.
 func (p Point) Apply(sc *loop.Scenario) error {
 	for _, c := range p.Coords {
-		if err := loop.SetPath(sc, c.Path, c.Value); err != nil {
+		if err := c.apply(sc); err != nil {
 			return err
 		}
 	}
@@ -135,7 +203,7 @@ func (p Point) Apply(sc *loop.Scenario) error {
 // applied; base is never changed. This is how a sweep builds the scenario
 // of grid point p.
 func (p Point) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
-	sc := cloneScenario(base)
+	sc := base.Clone()
 	if err := p.Apply(&sc); err != nil {
 		return loop.Scenario{}, err
 	}
@@ -152,63 +220,98 @@ func (p Point) Value(path string) (float64, bool) {
 	return 0, false
 }
 
-// Label is "path=value, path=value" with the paths shortened to their last
-// element (e.g. "step_db=0.5, update_rate_hz=1500"); "base setting" when p
-// has no coordinates.
+// Label is "name=value, name=value" saying exactly what was varied: a
+// top-level block's field is shortened to its last element (e.g.
+// "step_db=0.5, update_rate_hz=1500", "command=COMMAND_ADAPTIVE"); a field
+// inside a list keeps its full path ("groups[0].speeds[1].speed_kmh=30"),
+// and a group-level speed says it set every speed of that group
+// ("groups[1].speed_kmh (every speed)=30"). "base setting" when p has no
+// coordinates.
 func (p Point) Label() string {
 	if len(p.Coords) == 0 {
 		return "base setting"
 	}
 	parts := make([]string, len(p.Coords))
 	for i, c := range p.Coords {
-		name := c.Path
-		if j := strings.LastIndexByte(name, '.'); j >= 0 {
-			name = name[j+1:]
-		}
-		parts[i] = name + "=" + strconv.FormatFloat(c.Value, 'g', 6, 64)
+		parts[i] = AxisLabel(c.Path) + "=" + c.valueText()
 	}
 	return strings.Join(parts, ", ")
 }
 
+// AxisLabel is the name of the field at path in point labels and table
+// headers (see Point.Label).
+func AxisLabel(path string) string {
+	if strings.ContainsRune(path, '[') {
+		if loop.IsGroupSpeedPath(path) {
+			return path + " (every speed)"
+		}
+		return path
+	}
+	if j := strings.LastIndexByte(path, '.'); j >= 0 {
+		return path[j+1:]
+	}
+	return path
+}
+
 // Grid is the Cartesian product of its axes, in a stable order (see Point).
+// It holds the resolved values of each axis, never the points: Point(i)
+// builds one point on demand, so a grid of any size costs memory in the
+// sum of its axis lengths.
 type Grid struct {
 	Axes   []Axis      `json:"axes"`
-	values [][]float64 // resolved values per axis
+	values [][]float64 // resolved numeric values per axis (nil for a Names axis)
 	size   int
 }
 
-// NewGrid resolves and checks the axes (violations carry the paths
-// "axes[i]...") and checks every axis path against base with loop.SetPath
-// using the axis' first value. With no axes the grid has one point, the base
-// setting.
+// NewGrid resolves and checks the axes for the tuner (values and names of
+// one axis distinct; violations carry the paths "axes[i]..."), and checks
+// every axis path against base with its first value. With no axes the grid
+// has one point, the base setting.
 func NewGrid(base loop.Scenario, axes []Axis) (*Grid, error) {
+	return newGrid(base, axes, true)
+}
+
+// newGrid is NewGrid; distinct says whether an axis may repeat a value
+// (a sweep may, e.g. to replicate a point under per-point seeds).
+func newGrid(base loop.Scenario, axes []Axis, distinct bool) (*Grid, error) {
 	var v loop.Violations
+	if len(axes) > MaxAxes {
+		return nil, loop.Violations{{Field: "axes", Rule: fmt.Sprintf("at most %d axes, got %d", MaxAxes, len(axes))}}
+	}
 	g := &Grid{Axes: append([]Axis(nil), axes...), values: make([][]float64, len(axes)), size: 1}
 	seen := map[string]int{}
 	for i, a := range axes {
 		p := fmt.Sprintf("axes[%d]", i)
-		vals, vv := a.Resolve(p)
+		vals, vv := a.resolve(p, distinct)
 		v = append(v, vv...)
 		if j, dup := seen[a.Path]; dup && a.Path != "" {
 			v = append(v, loop.Violation{Field: p + ".path", Rule: fmt.Sprintf("%q is already axis %d", a.Path, j)})
 		}
 		seen[a.Path] = i
-		if vals == nil {
+		if len(vv) > 0 {
 			continue
 		}
-		probe := cloneScenario(base)
-		if err := loop.SetPath(&probe, a.Path, vals[0]); err != nil && a.Path != "" {
+		first := Coord{Path: a.Path}
+		if len(a.Names) > 0 {
+			first.Text = a.Names[0]
+		} else {
+			first.Value = vals[0]
+		}
+		probe := base.Clone()
+		if err := first.apply(&probe); err != nil {
 			v = append(v, loop.Violation{Field: p + ".path", Rule: err.Error()})
 		}
 		g.values[i] = vals
-		g.Axes[i].Values = vals
-		g.Axes[i].From, g.Axes[i].To, g.Axes[i].Count, g.Axes[i].Log = 0, 0, 0, false
+		if vals != nil {
+			g.Axes[i].Values = vals
+			g.Axes[i].First, g.Axes[i].Last, g.Axes[i].Count, g.Axes[i].Log = 0, 0, 0, false
+		}
 		if g.size <= MaxGridPoints {
-			g.size *= len(vals)
+			g.size *= a.Len()
 		}
 	}
 	if len(v) == 0 && g.size > MaxGridPoints {
-		v = append(v, loop.Violation{Field: "axes", Rule: fmt.Sprintf("the grid has more than %d points", MaxGridPoints)})
+		v = append(v, loop.Violation{Field: "axes", Rule: fmt.Sprintf("the grid has more than %d points (product of the axis lengths)", MaxGridPoints)})
 	}
 	if len(v) > 0 {
 		return nil, v
@@ -219,23 +322,52 @@ func NewGrid(base loop.Scenario, axes []Axis) (*Grid, error) {
 // Size is the number of grid points.
 func (g *Grid) Size() int { return g.size }
 
-// Point returns grid point i, 0 <= i < Size() (it panics outside: a
-// programmer error).
-func (g *Grid) Point(i int) Point {
+// axisLen is the number of values of axis a.
+func (g *Grid) axisLen(a int) int {
+	if g.values[a] != nil {
+		return len(g.values[a])
+	}
+	return len(g.Axes[a].Names)
+}
+
+// coord is value k of axis a.
+func (g *Grid) coord(a, k int) Coord {
+	if g.values[a] != nil {
+		return Coord{Path: g.Axes[a].Path, Value: g.values[a][k]}
+	}
+	return Coord{Path: g.Axes[a].Path, Value: float64(k), Text: g.Axes[a].Names[k]}
+}
+
+// Offsets returns the position on each axis of grid point i (row-major,
+// last axis fastest), 0 <= i < Size(); it panics outside (a programmer
+// error).
+func (g *Grid) Offsets(i int) []int {
 	if i < 0 || i >= g.size {
 		panic(fmt.Sprintf("tune: grid point %d out of range [0, %d)", i, g.size))
 	}
-	p := Point{Index: i, Coords: make([]Coord, len(g.values))}
+	idx := make([]int, len(g.values))
 	rem := i
 	for a := len(g.values) - 1; a >= 0; a-- {
-		n := len(g.values[a])
-		p.Coords[a] = Coord{Path: g.Axes[a].Path, Value: g.values[a][rem%n]}
+		n := g.axisLen(a)
+		idx[a] = rem % n
 		rem /= n
+	}
+	return idx
+}
+
+// Point returns grid point i, 0 <= i < Size() (it panics outside: a
+// programmer error).
+func (g *Grid) Point(i int) Point {
+	idx := g.Offsets(i)
+	p := Point{Index: i, Coords: make([]Coord, len(idx))}
+	for a, k := range idx {
+		p.Coords[a] = g.coord(a, k)
 	}
 	return p
 }
 
-// Points returns every grid point in order.
+// Points returns every grid point in order. It materialises the grid: call
+// it only after the request's cost was admitted (see TuneCost).
 func (g *Grid) Points() []Point {
 	out := make([]Point, g.size)
 	for i := range out {
@@ -256,10 +388,7 @@ type Override struct {
 
 // Apply sets the override on sc.
 func (o Override) Apply(sc *loop.Scenario) error {
-	if o.Text != "" {
-		return loop.SetTextPath(sc, o.Path, o.Text)
-	}
-	return loop.SetPath(sc, o.Path, o.Value)
+	return Coord{Path: o.Path, Value: o.Value, Text: o.Text}.apply(sc)
 }
 
 // Condition is one operating condition the tuner must do well in: a set of
@@ -284,64 +413,9 @@ func (c Condition) Apply(sc *loop.Scenario) error {
 // ApplyTo returns a deep copy of base with the condition applied; base is
 // never changed.
 func (c Condition) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
-	sc := cloneScenario(base)
+	sc := base.Clone()
 	if err := c.Apply(&sc); err != nil {
 		return loop.Scenario{}, err
 	}
 	return sc, nil
-}
-
-// CloneScenario returns a deep copy of sc: no slice is shared with it, so
-// changing the copy never changes sc.
-func CloneScenario(sc loop.Scenario) loop.Scenario { return cloneScenario(sc) }
-
-// cloneScenario returns a deep copy of sc (no slice shared with it).
-func cloneScenario(sc loop.Scenario) loop.Scenario {
-	var out loop.Scenario
-	deepCopy(reflect.ValueOf(&out).Elem(), reflect.ValueOf(sc))
-	return out
-}
-
-func deepCopy(dst, src reflect.Value) {
-	switch src.Kind() {
-	case reflect.Struct:
-		for i := 0; i < src.NumField(); i++ {
-			if dst.Field(i).CanSet() {
-				deepCopy(dst.Field(i), src.Field(i))
-			}
-		}
-	case reflect.Slice:
-		if src.IsNil() {
-			dst.Set(reflect.Zero(src.Type()))
-			return
-		}
-		s := reflect.MakeSlice(src.Type(), src.Len(), src.Len())
-		for i := 0; i < src.Len(); i++ {
-			deepCopy(s.Index(i), src.Index(i))
-		}
-		dst.Set(s)
-	case reflect.Pointer:
-		if src.IsNil() {
-			dst.Set(reflect.Zero(src.Type()))
-			return
-		}
-		p := reflect.New(src.Type().Elem())
-		deepCopy(p.Elem(), src.Elem())
-		dst.Set(p)
-	case reflect.Map:
-		if src.IsNil() {
-			dst.Set(reflect.Zero(src.Type()))
-			return
-		}
-		m := reflect.MakeMapWithSize(src.Type(), src.Len())
-		it := src.MapRange()
-		for it.Next() {
-			val := reflect.New(src.Type().Elem()).Elem()
-			deepCopy(val, it.Value())
-			m.SetMapIndex(it.Key(), val)
-		}
-		dst.Set(m)
-	default:
-		dst.Set(src)
-	}
 }

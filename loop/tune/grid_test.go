@@ -17,14 +17,14 @@ func TestAxisResolve(t *testing.T) {
 		bad  string // substring of the violation field, "" = valid
 	}{
 		{"list", Axis{Path: "inner_loop.step_db", Values: []float64{2, 0.5, 1}}, []float64{2, 0.5, 1}, ""},
-		{"linear", Axis{Path: "inner_loop.feedback_delay_slots", From: 0, To: 4, Count: 5}, []float64{0, 1, 2, 3, 4}, ""},
-		{"log", Axis{Path: "inner_loop.update_rate_hz", From: 100, To: 1600, Count: 5, Log: true}, []float64{100, 200, 400, 800, 1600}, ""},
-		{"single", Axis{Path: "inner_loop.step_db", From: 3, To: 9, Count: 1}, []float64{3}, ""},
+		{"linear", Axis{Path: "inner_loop.feedback_delay_slots", First: 0, Last: 4, Count: 5}, []float64{0, 1, 2, 3, 4}, ""},
+		{"log", Axis{Path: "inner_loop.update_rate_hz", First: 100, Last: 1600, Count: 5, Log: true}, []float64{100, 200, 400, 800, 1600}, ""},
+		{"single", Axis{Path: "inner_loop.step_db", First: 3, Last: 9, Count: 1}, []float64{3}, ""},
 		{"both", Axis{Path: "x", Values: []float64{1}, Count: 2}, nil, "axes[0].count"},
 		{"dup", Axis{Path: "x", Values: []float64{1, 1}}, nil, "axes[0].values[1]"},
 		{"nan", Axis{Path: "x", Values: []float64{math.NaN()}}, nil, "axes[0].values[0]"},
 		{"no count", Axis{Path: "x"}, nil, "axes[0].count"},
-		{"log negative", Axis{Path: "x", From: -1, To: 2, Count: 3, Log: true}, nil, "axes[0].from"},
+		{"log negative", Axis{Path: "x", First: -1, Last: 2, Count: 3, Log: true}, nil, "axes[0].first"},
 		{"no path", Axis{Values: []float64{1}}, nil, "axes[0].path"},
 	}
 	for _, tc := range tests {
@@ -128,7 +128,7 @@ func TestOverridesAndClone(t *testing.T) {
 		{Path: "inner_loop.mode", Text: "INNER_MODE_FIXED_POWER"},
 		{Path: "groups[0].count", Value: 8},
 	}}
-	sc := cloneScenario(base)
+	sc := base.Clone()
 	if err := c.Apply(&sc); err != nil {
 		t.Fatal(err)
 	}
@@ -144,9 +144,24 @@ func TestOverridesAndClone(t *testing.T) {
 		{Path: "inner_loop.mode", Text: "NOPE"},
 		{Path: "groups[2].profile", Text: "EVA"},
 	} {
-		s := cloneScenario(base)
+		s := base.Clone()
 		if err := o.Apply(&s); err == nil || !strings.Contains(err.Error(), o.Path) {
 			t.Errorf("override %+v: err %v, want one naming the path", o, err)
 		}
+	}
+}
+
+func TestGridOffsetsRowMajor(t *testing.T) {
+	g := &Grid{Axes: make([]Axis, 3), values: [][]float64{make([]float64, 3), make([]float64, 4), make([]float64, 2)}, size: 24}
+	seen := map[[3]int]bool{}
+	for i := range 24 {
+		c := g.Offsets(i)
+		if want := c[0]*8 + c[1]*2 + c[2]; want != i {
+			t.Fatalf("index %d -> %v -> %d", i, c, want)
+		}
+		seen[[3]int{c[0], c[1], c[2]}] = true
+	}
+	if len(seen) != 24 {
+		t.Errorf("%d distinct coordinates of 24", len(seen))
 	}
 }

@@ -9,6 +9,14 @@ import (
 	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
+// Scores of a load found infeasible before the run (see sampleOf): worse
+// than any load the engine can carry (an SIR error spread of 100 dB, a
+// noise rise of 100 dB).
+const (
+	InfeasibleSIRErrorDB  = 100
+	InfeasibleNoiseRiseDB = 100
+)
+
 // runScenario runs one replication of sc (sc.Run.Replications is 1 and
 // sc.Run.Seed the replication's seed) through multicell.RunScenario — the
 // single-cell engine loop.Run, or the multi-cell engine when layout.sites is
@@ -25,7 +33,27 @@ func runScenario(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 // sampleOf extracts the per-replication figures from a one-replication
 // report. A figure the engine could not compute (NaN) is an error: the
 // comparison would be meaningless.
+//
+// A load that the engine found infeasible before simulating (no slots run,
+// no figures) is scored as the worst a carried load can be, so that it
+// never ranks ahead of one: every user in outage and at maximum power,
+// every block in error, and the SIR error at InfeasibleSIRErrorDB (mean
+// −InfeasibleSIRErrorDB, std InfeasibleSIRErrorDB) and the noise rise at
+// InfeasibleNoiseRiseDB; Sample.Infeasible says so.
 func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
+	if rep.Feasibility.Infeasible && rep.SimulatedUserSlots == 0 {
+		return Sample{
+			SIRErrorMeanDB: -InfeasibleSIRErrorDB,
+			SIRErrorStdDB:  InfeasibleSIRErrorDB,
+			OutageProb:     1,
+			BLER:           1,
+			BLERTarget:     map[bool]float64{true: sc.OuterLoop.BLERTarget}[sc.OuterLoop.Enabled],
+			TxPowerMeanDBm: sc.InnerLoop.MaxPowerDBm,
+			TimeAtMaxPower: 1,
+			NoiseRiseDB:    InfeasibleNoiseRiseDB,
+			Infeasible:     true,
+		}, nil
+	}
 	a := rep.Aggregate
 	s := Sample{
 		SIRErrorMeanDB: a.SIRErrorMeanDB.Value,

@@ -603,7 +603,7 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 	var v loop.Violations
 	out := make([][]loop.Scenario, len(pts))
 	for c, cd := range conds {
-		sc := cloneScenario(base)
+		sc := base.Clone()
 		for j, o := range cd.Overrides {
 			if err := o.Apply(&sc); err != nil {
 				v = append(v, loop.Violation{Field: fmt.Sprintf("conditions[%d].overrides[%d].path", c, j), Rule: err.Error()})
@@ -617,7 +617,7 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 	for k, p := range pts {
 		out[k] = make([]loop.Scenario, len(conds))
 		for c, cd := range conds {
-			sc := cloneScenario(base)
+			sc := base.Clone()
 			_ = cd.Apply(&sc) // checked above
 			if err := p.Apply(&sc); err != nil {
 				v = append(v, loop.Violation{Field: "axes", Rule: err.Error()})
@@ -839,7 +839,7 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 	var jobs []job
 	var cost int64
 	for c, cd := range set.conds {
-		sc := cloneScenario(req.Base)
+		sc := req.Base.Clone()
 		if err := cd.Apply(&sc); err != nil {
 			return err
 		}

@@ -6,17 +6,14 @@ import (
 	"encoding/csv"
 	"errors"
 	"flag"
-	"fmt"
 	"io"
 	"math"
 	"strconv"
 	"strings"
 
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
-
-// speedOfLightMps converts speed to Doppler: f_D = v·f_c/c.
-const speedOfLightMps = 299792458.0
 
 func init() {
 	register(&command{
@@ -75,7 +72,7 @@ type channelFlags struct {
 
 func (c *channelFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&c.dopplerHz, "doppler-hz", 0, "maximum Doppler f_D in `Hz` (instead of --speed-kmh)")
-	fs.Float64Var(&c.speedKmh, "speed-kmh", 30, "mobile speed in `km/h`; f_D = v·f_c/c")
+	fs.Float64Var(&c.speedKmh, "speed-kmh", 30, "mobile speed in `km/h` (the server sets f_D = v·f_c/c)")
 	fs.Float64Var(&c.carrierHz, "carrier-hz", 2e9, "carrier frequency in `Hz` for --speed-kmh")
 	fs.Float64Var(&c.rateHz, "rate-hz", 1500, "sample rate in `Hz` (the power-control update rate)")
 	fs.StringVar(&c.profile, "profile", "FLAT", "tap profile `NAME`: FLAT, EPA, EVA, ETU, PEDA or VEHA")
@@ -88,18 +85,18 @@ func (c *channelFlags) register(fs *flag.FlagSet) {
 	fs.Uint64Var(&c.seed, "seed", 1, "`SEED` of the random streams")
 }
 
-func (c *channelFlags) spec(fs *flag.FlagSet) (*pb.ChannelSpec, error) {
+func (c *channelFlags) spec(e *env) (*pb.ChannelSpec, error) {
 	s := &pb.ChannelSpec{SampleRateHz: c.rateHz, RicianKDb: c.ricianKDB, Los: c.los,
 		LosAngleRad: c.losAngleRad, Sinusoids: int32(c.sinusoids)}
-	set := map[string]bool{}
-	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
-	if set["doppler-hz"] {
-		if set["speed-kmh"] {
+	set := e.flagGiven
+	if set("doppler-hz") {
+		if set("speed-kmh") {
 			return nil, badInputf("give --doppler-hz or --speed-kmh, not both")
 		}
 		s.DopplerHz = c.dopplerHz
-	} else {
-		s.DopplerHz = c.speedKmh / 3.6 * c.carrierHz / speedOfLightMps
+	} else if c.speedKmh != 0 {
+		// The server turns speed and carrier into the Doppler frequency.
+		s.SpeedKmh, s.CarrierHz = c.speedKmh, c.carrierHz
 	}
 	switch c.generator {
 	case "default":
@@ -112,7 +109,7 @@ func (c *channelFlags) spec(fs *flag.FlagSet) (*pb.ChannelSpec, error) {
 		return nil, badInputf("--generator %q: must be default, sos or spectral", c.generator)
 	}
 	if c.taps != "" {
-		if set["profile"] {
+		if set("profile") {
 			return nil, badInputf("give --profile or --taps, not both")
 		}
 		for _, t := range strings.Split(c.taps, ",") {
@@ -130,223 +127,147 @@ func (c *channelFlags) spec(fs *flag.FlagSet) (*pb.ChannelSpec, error) {
 	return s, nil
 }
 
-func runTrace(ctx context.Context, e *env, args []string) error {
-	c := lookup("trace")
-	fs := e.newFlagSet(c)
+func runTrace(e *env, fs *flag.FlagSet) action {
 	var ch channelFlags
 	ch.register(fs)
 	links := fs.Int("links", 1, "number of independent links `K`")
 	samples := fs.Int64("samples", 15000, "samples per link `N`")
 	chunk := fs.Int("chunk-samples", 0, "samples per link in each streamed chunk (`N`, 0: the server's choice)")
-	rest, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if len(rest) > 0 {
-		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
-	}
-	if err := e.g.checkFormat("table", "csv", "bin"); err != nil {
-		return err
-	}
-	if e.g.format == "bin" && (e.g.out == "" || e.g.out == "-") && isTerminal(e.stdout) {
-		return badInputf("--format bin writes raw binary: give --out FILE")
-	}
-	spec, err := ch.spec(fs)
-	if err != nil {
-		return err
-	}
-	req := &pb.StreamGainsRequest{Channel: spec, Links: int32(*links), Samples: *samples, Seed: ch.seed, ChunkSamples: int32(*chunk)}
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	prog := e.newProgress("samples/s")
-	w := out.Writer()
-	var cw *csv.Writer
-	if e.g.format == "csv" {
-		cw = csv.NewWriter(w)
-		cw.Write([]string{"link", "sample", "tap", "re", "im", "power_db"})
-	}
-	var (
-		power  []float64 // per tap
-		count  int64
-		taps   int
-		buf    []byte
-		got    int64
-		target = float64(*samples)
-	)
-	for chunk, err := range cl.StreamGains(ctx, req) {
-		if err != nil {
-			prog.done()
+	return func(ctx context.Context, args []string) error {
+		if err := noArgs(args); err != nil {
 			return err
 		}
-		if taps == 0 {
-			taps = chunk.Taps
-			power = make([]float64, taps)
+		if err := e.g.checkFormat("table", "csv", "bin"); err != nil {
+			return err
 		}
-		switch e.g.format {
-		case "csv":
-			for k := range chunk.Links {
-				for s := range chunk.Samples {
-					for l := range chunk.Taps {
-						g := chunk.At(k, s, l)
-						re, im := float64(real(g)), float64(imag(g))
-						cw.Write([]string{strconv.Itoa(k), strconv.FormatInt(chunk.SampleOffset+int64(s), 10), strconv.Itoa(l),
-							strconv.FormatFloat(re, 'g', 8, 32), strconv.FormatFloat(im, 'g', 8, 32),
-							strconv.FormatFloat(10*math.Log10(re*re+im*im), 'f', 3, 64)})
-					}
-				}
-			}
-		case "bin":
-			buf = buf[:0]
-			for s := range chunk.Samples {
-				for k := range chunk.Links {
-					for l := range chunk.Taps {
-						g := chunk.At(k, s, l)
-						buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(real(g)))
-						buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(imag(g)))
-					}
-				}
-			}
-			if _, err := w.Write(buf); err != nil {
+		if e.g.format == "bin" && (e.g.out == "" || e.g.out == "-") && isTerminal(e.stdout) {
+			return badInputf("--format bin writes raw binary: give --out FILE")
+		}
+		spec, err := ch.spec(e)
+		if err != nil {
+			return err
+		}
+		req := &pb.StreamGainsRequest{Channel: spec, Links: int32(*links), Samples: *samples, Seed: ch.seed, ChunkSamples: int32(*chunk)}
+		out, cl, release, err := e.session()
+		if err != nil {
+			return err
+		}
+		defer release()
+		prog := e.newProgress("samples/s")
+		w := out.Writer()
+		var cw *csv.Writer
+		if e.g.format == "csv" {
+			cw = csv.NewWriter(w)
+			cw.Write([]string{"link", "sample", "tap", "re", "im", "power_db"})
+		}
+		var (
+			power  []float64 // per tap
+			count  int64
+			taps   int
+			buf    []byte
+			got    int64
+			target = float64(*samples)
+		)
+		for chunk, err := range cl.StreamGains(ctx, req) {
+			if err != nil {
+				prog.done()
 				return err
 			}
-		default:
-			for k := range chunk.Links {
-				for s := range chunk.Samples {
-					for l := range chunk.Taps {
-						g := chunk.At(k, s, l)
-						power[l] += float64(real(g))*float64(real(g)) + float64(imag(g))*float64(imag(g))
+			if taps == 0 {
+				taps = chunk.Taps
+				power = make([]float64, taps)
+			}
+			switch e.g.format {
+			case "csv":
+				for k := range chunk.Links {
+					for s := range chunk.Samples {
+						for l := range chunk.Taps {
+							g := chunk.At(k, s, l)
+							re, im := float64(real(g)), float64(imag(g))
+							cw.Write([]string{strconv.Itoa(k), strconv.FormatInt(chunk.SampleOffset+int64(s), 10), strconv.Itoa(l),
+								strconv.FormatFloat(re, 'g', 8, 32), strconv.FormatFloat(im, 'g', 8, 32),
+								strconv.FormatFloat(10*math.Log10(re*re+im*im), 'f', 3, 64)})
+						}
 					}
 				}
+			case "bin":
+				buf = buf[:0]
+				for s := range chunk.Samples {
+					for k := range chunk.Links {
+						for l := range chunk.Taps {
+							g := chunk.At(k, s, l)
+							buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(real(g)))
+							buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(imag(g)))
+						}
+					}
+				}
+				if _, err := w.Write(buf); err != nil {
+					return err
+				}
+			default:
+				for k := range chunk.Links {
+					for s := range chunk.Samples {
+						for l := range chunk.Taps {
+							g := chunk.At(k, s, l)
+							power[l] += float64(real(g))*float64(real(g)) + float64(imag(g))*float64(imag(g))
+						}
+					}
+				}
+				count += int64(chunk.Links * chunk.Samples)
 			}
-			count += int64(chunk.Links * chunk.Samples)
+			got += int64(chunk.Samples)
+			el := prog.now().Sub(prog.start).Seconds()
+			prog.update(float64(got)/target, float64(got)*float64(*links)/math.Max(el, 1e-9))
 		}
-		got += int64(chunk.Samples)
-		el := prog.now().Sub(prog.start).Seconds()
-		prog.update(float64(got)/target, float64(got)*float64(*links)/math.Max(el, 1e-9))
-	}
-	prog.done()
-	if cw != nil {
-		cw.Flush()
-		if err := cw.Error(); err != nil {
-			return err
+		prog.done()
+		if cw != nil {
+			cw.Flush()
+			if err := cw.Error(); err != nil {
+				return err
+			}
 		}
+		if e.g.format == "table" {
+			render.TraceSummary(w, spec, *links, got, power, count)
+		}
+		return out.commit()
 	}
-	if e.g.format == "table" {
-		writeTraceSummary(w, spec, *links, got, power, count)
-	}
-	return out.commit()
 }
 
-func writeTraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, power []float64, count int64) {
-	name := spec.GetProfile()
-	if name == "" {
-		name = "custom"
-	}
-	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f)\n\n",
-		links, groupDigits(samples), name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz())
-	t := newTable("tap", "mean power (dB)", "share of total (%)").alignRight(0, 1, 2)
-	total := 0.0
-	for _, p := range power {
-		total += p
-	}
-	for l, p := range power {
-		m := p / float64(max(count, 1))
-		t.add(strconv.Itoa(l), num(10*math.Log10(m), 2), num(100*p/total, 1))
-	}
-	t.add("all", num(10*math.Log10(total/float64(max(count, 1))), 2), "100.0")
-	t.write(w)
-	fmt.Fprintln(w, "\n(each link's taps have unit total mean power: 0 dB expected in the last row)")
-}
-
-func runCheck(ctx context.Context, e *env, args []string) error {
-	c := lookup("check")
-	fs := e.newFlagSet(c)
+func runCheck(e *env, fs *flag.FlagSet) action {
 	var ch channelFlags
 	ch.register(fs)
 	links := fs.Int("links", 0, "independent links (realisations) per statistic, `N` in [8, 4096] (0: the server's default, 128)")
 	periods := fs.Float64("doppler-periods", 0, "record length of each link in Doppler periods 1/f_D, `N` in [20, 20000] (0: the default, 250)")
 	sigmas := fs.Float64("sigmas", 0, "tolerance of each line in standard errors, `N` in [1, 10] (0: the default, 4)")
-	rest, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if len(rest) > 0 {
-		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	spec, err := ch.spec(fs)
-	if err != nil {
-		return err
-	}
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Links: int32(*links),
-		DopplerPeriods: *periods, Seed: ch.seed, Sigmas: *sigmas})
-	if err != nil {
-		return err
-	}
-	w := out.Writer()
-	switch e.g.format {
-	case "json":
-		b, err := marshalJSON(resp)
+	return func(ctx context.Context, args []string) error {
+		if err := noArgs(args); err != nil {
+			return err
+		}
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		spec, err := ch.spec(e)
 		if err != nil {
 			return err
 		}
-		w.Write(b)
-	case "csv":
-		cw := csv.NewWriter(w)
-		cw.Write([]string{"name", "measured", "theory", "tolerance", "unit", "pass"})
-		for _, l := range resp.GetLines() {
-			cw.Write([]string{l.GetName(), csvNum(l.GetMeasured()), csvNum(l.GetTheory()), csvNum(l.GetTolerance()), l.GetUnit(), strconv.FormatBool(l.GetPass())})
-		}
-		cw.Flush()
-		if err := cw.Error(); err != nil {
+		out, cl, release, err := e.session()
+		if err != nil {
 			return err
 		}
-	default:
-		name := spec.GetProfile()
-		if name == "" {
-			name = "custom"
+		defer release()
+		resp, err := cl.CheckChannel(ctx, &pb.CheckChannelRequest{Channel: spec, Links: int32(*links),
+			DopplerPeriods: *periods, Seed: ch.seed, Sigmas: *sigmas})
+		if err != nil {
+			return err
 		}
-		fmt.Fprintf(w, "channel self-check: profile %s, f_D = %.2f Hz at %.0f Hz (f_D·T = %.4f), generator %s\n",
-			name, spec.GetDopplerHz(), spec.GetSampleRateHz(), spec.GetDopplerHz()/spec.GetSampleRateHz(), ch.generator)
-		fmt.Fprintf(w, "%d links × %g Doppler periods each\n\n", resp.GetLinks(), resp.GetDopplerPeriods())
-		t := newTable("check", "measured", "theory", "tolerance", "unit", "result").alignRight(1, 2, 3)
-		for _, l := range resp.GetLines() {
-			res := "pass"
-			if !l.GetPass() {
-				res = "FAIL"
-			}
-			t.add(l.GetName(), sig(l.GetMeasured()), sig(l.GetTheory()), "±"+sig(l.GetTolerance()), l.GetUnit(), res)
+		err = e.emit(out, resp, func(w io.Writer) error { return render.CheckCSV(w, resp) },
+			func(w io.Writer) { render.CheckTable(w, spec, ch.generator, resp) })
+		if err != nil {
+			return err
 		}
-		t.write(w)
-		verdict := "all checks pass"
 		if !resp.GetPass() {
-			verdict = "SOME CHECKS FAIL"
+			return errors.New("channel self-check failed")
 		}
-		fmt.Fprintf(w, "\n%s\n", verdict)
+		return nil
 	}
-	if err := out.commit(); err != nil {
-		return err
-	}
-	if !resp.GetPass() {
-		return errors.New("channel self-check failed")
-	}
-	return nil
-}
-
-// sig formats with four significant digits.
-func sig(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "–"
-	}
-	return strconv.FormatFloat(v, 'g', 4, 64)
 }

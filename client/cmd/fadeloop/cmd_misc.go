@@ -5,15 +5,18 @@ import (
 	_ "embed"
 	"encoding/csv"
 	"encoding/json"
+	"flag"
 	"fmt"
 	"runtime"
 	"runtime/debug"
+	"slices"
 	"strconv"
 	"strings"
 
 	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -91,120 +94,117 @@ type benchRun struct {
 	PathSamplesPerS float64 `json:"path_samples_per_s"`
 }
 
-func runBench(ctx context.Context, e *env, args []string) error {
-	c := lookup("bench")
-	fs := e.newFlagSet(c)
+func runBench(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.register(fs)
 	repeat := fs.Int("repeat", 3, "number of runs `N`; the best is reported")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	if *repeat < 1 {
-		return badInputf("--repeat %d: must be >= 1", *repeat)
-	}
-	var sf *client.ScenarioFile
-	if len(args) == 0 {
-		sf, err = client.ParseScenario("canonical scenario (built in)", canonicalJSON)
-	} else {
-		sf, err = loadScenario(args)
-	}
-	if err != nil {
-		return err
-	}
-	sc := proto.Clone(sf.Scenario).(*pb.Scenario)
-	if err := ov.apply(sc); err != nil {
-		return err
-	}
-	taps, err := tapsPerUser(sc)
-	if err != nil {
-		return err
-	}
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	var runs []benchRun
-	for i := range *repeat {
-		prog := e.newProgress("user-slots/s")
-		rep, err := cl.Simulate(ctx, &pb.SimulateRequest{Scenario: sc}, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
-		prog.done()
-		if err != nil {
-			return locate(sf, "scenario", err)
+	return func(ctx context.Context, args []string) error {
+		var err error
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
 		}
-		r := benchRun{Run: i + 1, Users: int(rep.GetAggregate().GetUsers()), TapsPerUser: taps,
-			UserSlots: rep.GetSimulatedUserSlots(), WallTimeS: rep.GetWallTimeS(), UserSlotsPerS: rep.GetUserSlotsPerS()}
-		r.PathSamplesPerS = r.UserSlotsPerS * taps
-		runs = append(runs, r)
-	}
-	best := runs[0]
-	for _, r := range runs {
-		if r.UserSlotsPerS > best.UserSlotsPerS {
-			best = r
+		if *repeat < 1 {
+			return badInputf("--repeat %d: must be >= 1", *repeat)
 		}
-	}
-	w := out.Writer()
-	switch e.g.format {
-	case "json":
-		b, err := json.MarshalIndent(struct {
-			Scenario string     `json:"scenario"`
-			Runs     []benchRun `json:"runs"`
-			Best     benchRun   `json:"best"`
-		}{sc.GetName(), runs, best}, "", "  ")
+		var sf *client.ScenarioFile
+		if len(args) == 0 {
+			sf, err = client.ParseScenario("canonical scenario (built in)", canonicalJSON)
+		} else {
+			sf, err = loadScenario(args)
+		}
 		if err != nil {
 			return err
 		}
-		fmt.Fprintf(w, "%s\n", b)
-	case "csv":
-		cw := csv.NewWriter(w)
-		cw.Write([]string{"run", "users", "taps_per_user", "user_slots", "wall_time_s", "user_slots_per_s", "path_samples_per_s"})
+		sc := proto.Clone(sf.Scenario).(*pb.Scenario)
+		if err := ov.apply(sc); err != nil {
+			return err
+		}
+		out, cl, release, info, err := e.infoSession(ctx)
+		if err != nil {
+			return err
+		}
+		defer release()
+		taps, err := tapsPerUser(sc, info.GetProfiles())
+		if err != nil {
+			return err
+		}
+		var runs []benchRun
+		for i := range *repeat {
+			prog := e.newProgress("user-slots/s")
+			rep, err := cl.Simulate(ctx, &pb.SimulateRequest{Scenario: sc}, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
+			prog.done()
+			if err != nil {
+				return locate(sf, "scenario", err)
+			}
+			r := benchRun{Run: i + 1, Users: int(rep.GetAggregate().GetUsers()), TapsPerUser: taps,
+				UserSlots: rep.GetSimulatedUserSlots(), WallTimeS: rep.GetWallTimeS(), UserSlotsPerS: rep.GetUserSlotsPerS()}
+			r.PathSamplesPerS = r.UserSlotsPerS * taps
+			runs = append(runs, r)
+		}
+		best := runs[0]
 		for _, r := range runs {
-			cw.Write([]string{strconv.Itoa(r.Run), strconv.Itoa(r.Users), csvNum(r.TapsPerUser), strconv.FormatInt(r.UserSlots, 10),
-				csvNum(r.WallTimeS), csvNum(r.UserSlotsPerS), csvNum(r.PathSamplesPerS)})
+			if r.UserSlotsPerS > best.UserSlotsPerS {
+				best = r
+			}
 		}
-		cw.Flush()
-	default:
-		where := "embedded server (this process)"
-		if e.g.server != "" {
-			where = "server " + e.g.server
+		w := out.Writer()
+		switch e.g.format {
+		case "json":
+			b, err := json.MarshalIndent(struct {
+				Scenario string     `json:"scenario"`
+				Runs     []benchRun `json:"runs"`
+				Best     benchRun   `json:"best"`
+			}{sc.GetName(), runs, best}, "", "  ")
+			if err != nil {
+				return err
+			}
+			fmt.Fprintf(w, "%s\n", b)
+		case "csv":
+			cw := csv.NewWriter(w)
+			cw.Write([]string{"run", "users", "taps_per_user", "user_slots", "wall_time_s", "user_slots_per_s", "path_samples_per_s"})
+			for _, r := range runs {
+				cw.Write([]string{strconv.Itoa(r.Run), strconv.Itoa(r.Users), render.CSVNum(r.TapsPerUser), strconv.FormatInt(r.UserSlots, 10),
+					render.CSVNum(r.WallTimeS), render.CSVNum(r.UserSlotsPerS), render.CSVNum(r.PathSamplesPerS)})
+			}
+			cw.Flush()
+		default:
+			where := "embedded server (this process)"
+			if e.g.server != "" {
+				where = "server " + e.g.server
+			}
+			if e.g.server == "" {
+				where += fmt.Sprintf(", GOMAXPROCS %d", runtime.GOMAXPROCS(0))
+			}
+			fmt.Fprintf(w, "%s — %s\n\n", sc.GetName(), where)
+			t := render.NewTable("run", "users", "user-slots", "wall time (s)", "user-slots/s", "path-samples/s").AlignRight(0, 1, 2, 3, 4, 5)
+			for _, r := range runs {
+				t.Add(strconv.Itoa(r.Run), strconv.Itoa(r.Users), render.GroupDigits(r.UserSlots), render.Num(r.WallTimeS, 3),
+					render.FmtRate(r.UserSlotsPerS, ""), render.FmtRate(r.PathSamplesPerS, ""))
+			}
+			t.Write(w)
+			fmt.Fprintf(w, "\nbest: %s, %s (%.3g taps per user)\n", render.FmtRate(best.UserSlotsPerS, "user-slots/s"),
+				render.FmtRate(best.PathSamplesPerS, "path-samples/s"), taps)
 		}
-		if e.g.server == "" {
-			where += fmt.Sprintf(", GOMAXPROCS %d", runtime.GOMAXPROCS(0))
-		}
-		fmt.Fprintf(w, "%s — %s\n\n", sc.GetName(), where)
-		t := newTable("run", "users", "user-slots", "wall time (s)", "user-slots/s", "path-samples/s").alignRight(0, 1, 2, 3, 4, 5)
-		for _, r := range runs {
-			t.add(strconv.Itoa(r.Run), strconv.Itoa(r.Users), groupDigits(r.UserSlots), num(r.WallTimeS, 3),
-				fmtRate(r.UserSlotsPerS, ""), fmtRate(r.PathSamplesPerS, ""))
-		}
-		t.write(w)
-		fmt.Fprintf(w, "\nbest: %s, %s (%.3g taps per user)\n", fmtRate(best.UserSlotsPerS, "user-slots/s"),
-			fmtRate(best.PathSamplesPerS, "path-samples/s"), taps)
+		return out.commit()
 	}
-	return out.commit()
 }
 
-// tapsPerUser is the mean number of fading paths per user.
-func tapsPerUser(sc *pb.Scenario) (float64, error) {
-	builtin := map[string]int{"FLAT": 1, "EPA": 7, "EVA": 9, "ETU": 9, "PEDA": 4, "VEHA": 6}
+// tapsPerUser is the mean number of fading paths per user, with the tap
+// counts of the built-in profiles as the server reports them.
+func tapsPerUser(sc *pb.Scenario, profiles []*pb.BuiltinProfile) (float64, error) {
 	users, paths := 0, 0
 	for i, g := range sc.GetGroups() {
 		n := len(g.GetCustomTaps())
 		if n == 0 {
-			name := strings.ToUpper(strings.TrimSpace(g.GetProfile()))
+			name := strings.TrimSpace(g.GetProfile())
 			if name == "" {
 				name = "FLAT"
 			}
-			k, ok := builtin[name]
-			if !ok {
-				return 0, badInputf("groups[%d].profile %q: not a built-in profile", i, g.GetProfile())
+			k := slices.IndexFunc(profiles, func(p *pb.BuiltinProfile) bool { return strings.EqualFold(p.GetName(), name) })
+			if k < 0 {
+				return 0, badInputf("groups[%d].profile %q: not a built-in profile of the server", i, g.GetProfile())
 			}
-			n = k
+			n = len(profiles[k].GetTaps())
 		}
 		users += int(g.GetCount())
 		paths += n * int(g.GetCount())
@@ -215,59 +215,70 @@ func tapsPerUser(sc *pb.Scenario) (float64, error) {
 	return float64(paths) / float64(users), nil
 }
 
-func runExample(_ context.Context, e *env, args []string) error {
-	c := lookup("example")
-	fs := e.newFlagSet(c)
+func runExample(e *env, fs *flag.FlagSet) action {
 	multi := fs.Bool("multi-cell", false, "write the multi-cell example (a layout of sites with soft handover)")
-	rest, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if len(rest) > 0 {
-		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
-	}
-	if err := e.g.checkFormat("table", "yaml", "json"); err != nil {
-		return badInputf("--format %q: example writes yaml (the default) or json", e.g.format)
-	}
-	out, err := e.openOutput()
-	if err != nil {
-		return err
-	}
-	defer out.discard()
-	name, yaml := defaultScenarioName, defaultScenarioYAML
-	if *multi {
-		name, yaml = multiCellScenarioName, multiCellScenarioYAML
-	}
-	if e.g.format == "json" {
-		sf, err := client.ParseScenario(name, yaml)
+	return func(_ context.Context, args []string) error {
+		if err := noArgs(args); err != nil {
+			return err
+		}
+		if err := e.g.checkFormat("table", "yaml", "json"); err != nil {
+			return badInputf("--format %q: example writes yaml (the default) or json", e.g.format)
+		}
+		out, err := e.openOutput()
 		if err != nil {
 			return err
 		}
-		b, err := client.MarshalScenarioJSON(sf.Scenario)
-		if err != nil {
-			return err
+		defer out.discard()
+		name, yaml := defaultScenarioName, defaultScenarioYAML
+		if *multi {
+			name, yaml = multiCellScenarioName, multiCellScenarioYAML
 		}
-		out.Writer().Write(b)
-	} else {
-		out.Writer().Write(yaml)
+		if e.g.format == "json" {
+			sf, err := client.ParseScenario(name, yaml)
+			if err != nil {
+				return err
+			}
+			b, err := client.MarshalScenarioJSON(sf.Scenario)
+			if err != nil {
+				return err
+			}
+			out.Writer().Write(b)
+		} else {
+			out.Writer().Write(yaml)
+		}
+		return out.commit()
 	}
-	return out.commit()
 }
 
 // version is set at build time with -ldflags "-X main.version=v1.2.3";
 // otherwise the module build information is used.
 var version = ""
 
-func runVersion(ctx context.Context, e *env, args []string) error {
-	c := lookup("version")
-	fs := e.newFlagSet(c)
-	rest, err := parseFlags(fs, args)
-	if err != nil {
-		return err
+func runVersion(e *env, fs *flag.FlagSet) action {
+	return func(ctx context.Context, args []string) error {
+		if err := noArgs(args); err != nil {
+			return err
+		}
+		fmt.Fprintf(e.stdout, "fadeloop %s\n%s %s/%s, API fadeloop.v1\n", versionString(), runtime.Version(), runtime.GOOS, runtime.GOARCH)
+		if e.g.server != "" {
+			cl, err := e.connect()
+			if err != nil {
+				return err
+			}
+			defer cl.Close()
+			st, err := cl.Health(ctx)
+			if err != nil {
+				return err
+			}
+			fmt.Fprintf(e.stdout, "server %s: %s\n", e.g.server, st)
+		}
+		return nil
 	}
-	if len(rest) > 0 {
-		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
-	}
+}
+
+// versionString is the program's version: the one set at build time, else
+// the module's, with the VCS revision when known.
+func versionString() string {
 	v, rev := version, ""
 	if bi, ok := debug.ReadBuildInfo(); ok {
 		if v == "" {
@@ -282,22 +293,8 @@ func runVersion(ctx context.Context, e *env, args []string) error {
 	if v == "" {
 		v = "(devel)"
 	}
-	fmt.Fprintf(e.stdout, "fadeloop %s", v)
 	if rev != "" {
-		fmt.Fprintf(e.stdout, " (%s)", rev[:min(12, len(rev))])
+		v += " (" + rev[:min(12, len(rev))] + ")"
 	}
-	fmt.Fprintf(e.stdout, "\n%s %s/%s, API fadeloop.v1\n", runtime.Version(), runtime.GOOS, runtime.GOARCH)
-	if e.g.server != "" {
-		cl, err := e.connect()
-		if err != nil {
-			return err
-		}
-		defer cl.Close()
-		st, err := cl.Health(ctx)
-		if err != nil {
-			return err
-		}
-		fmt.Fprintf(e.stdout, "server %s: %s\n", e.g.server, st)
-	}
-	return nil
+	return v
 }

@@ -3,9 +3,9 @@ package main
 import (
 	"context"
 	"errors"
+	"flag"
 	"log/slog"
 	"net"
-	"strings"
 	"time"
 
 	"github.com/fadeloop/fadeloop/service"
@@ -36,43 +36,39 @@ Examples:
 	})
 }
 
-func runServe(ctx context.Context, e *env, args []string) error {
-	c := lookup("serve")
-	fs := e.newFlagSet(c)
+func runServe(e *env, fs *flag.FlagSet) action {
 	listen := fs.String("listen", "127.0.0.1:8470", "gRPC listen `ADDR` (port 0 picks a free port, printed on stderr)")
 	metricsListen := fs.String("metrics-listen", "", "Prometheus metrics HTTP listen `ADDR` serving /metrics (empty: none)")
 	maxCost := fs.Int64("max-cost", service.DefaultMaxCost, "cost bound of one call in tap-slots (`N`)")
 	maxRuns := fs.Int("max-concurrent-runs", 0, "runs executing at once (`N`, 0: GOMAXPROCS)")
 	drain := fs.Duration("drain-timeout", time.Minute, "on Ctrl-C or SIGTERM, how long calls in flight may run (`DURATION`)")
 	logLevel := fs.String("log-level", "info", "log `LEVEL`: debug, info, warn or error")
-	rest, err := parseFlags(fs, args)
-	if err != nil {
+	return func(ctx context.Context, args []string) error {
+		if err := noArgs(args); err != nil {
+			return err
+		}
+		var lv slog.Level
+		if err := lv.UnmarshalText([]byte(*logLevel)); err != nil {
+			return badInputf("--log-level: %v", err)
+		}
+		logger := slog.New(slog.NewTextHandler(e.stderr, &slog.HandlerOptions{Level: lv}))
+		tc, err := service.ServerTLSConfig(e.g.tls.CertFile, e.g.tls.KeyFile, e.g.tls.CAFile)
+		if err != nil {
+			return badInputf("TLS flags (--tls-cert, --tls-key, --tls-ca): %v", err)
+		}
+		srv, err := service.NewServer(service.Config{MaxCost: *maxCost, MaxConcurrentRuns: *maxRuns, TLS: tc, Logger: logger})
+		if err != nil {
+			return badInput{err}
+		}
+		err = service.RunDaemon(ctx, context.Background(), srv, service.DaemonOptions{
+			Listen:        *listen,
+			MetricsListen: *metricsListen,
+			DrainTimeout:  *drain,
+		})
+		var opErr *net.OpError
+		if errors.As(err, &opErr) && opErr.Op == "listen" {
+			return badInput{err}
+		}
 		return err
 	}
-	if len(rest) > 0 {
-		return badInputf("unexpected arguments: %s", strings.Join(rest, " "))
-	}
-	var lv slog.Level
-	if err := lv.UnmarshalText([]byte(*logLevel)); err != nil {
-		return badInputf("--log-level: %v", err)
-	}
-	logger := slog.New(slog.NewTextHandler(e.stderr, &slog.HandlerOptions{Level: lv}))
-	tc, err := service.ServerTLSConfig(e.g.tls.CertFile, e.g.tls.KeyFile, e.g.tls.CAFile)
-	if err != nil {
-		return badInputf("TLS flags (--tls-cert, --tls-key, --tls-ca): %v", err)
-	}
-	srv, err := service.NewServer(service.Config{MaxCost: *maxCost, MaxConcurrentRuns: *maxRuns, TLS: tc, Logger: logger})
-	if err != nil {
-		return badInput{err}
-	}
-	err = service.RunDaemon(ctx, context.Background(), srv, service.DaemonOptions{
-		Listen:        *listen,
-		MetricsListen: *metricsListen,
-		DrainTimeout:  *drain,
-	})
-	var opErr *net.OpError
-	if errors.As(err, &opErr) && opErr.Op == "listen" {
-		return badInput{err}
-	}
-	return err
 }

@@ -2,19 +2,15 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
-	"encoding/json"
+	"flag"
 	"fmt"
-	"io"
 	"math"
-	"os"
 	"sort"
 	"strconv"
 	"strings"
 
-	"google.golang.org/protobuf/proto"
-
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -32,13 +28,15 @@ is sorted by grid index. With --seed-mode common (the default) every point
 uses the base seed, so differences between points are paired and sharp.
 
 An axis is PATH=V1,V2,... or PATH=FROM:TO:COUNT (COUNT values evenly spaced,
-both ends included). PATH is a numeric scenario field with proto names, e.g.
+both ends included; PATH=FROM:TO:COUNT:log spaces them geometrically); the
+server expands ranges and checks them against its limits ("fadeloop info").
+PATH is a numeric scenario field with proto names, e.g.
 inner_loop.step_db, inner_loop.update_rate_hz, inner_loop.feedback_delay_slots,
 outer_loop.up_step_db, outer_loop.bler_target, groups[0].speeds[0].speed_kmh,
 groups[1].count.
 
 A --grid file is the protojson form (JSON or YAML) of fadeloop.v1.SweepRequest:
-axes (path, values), point_indices, seed_mode, detailed, and optionally base
+axes (path, values or first, last, count, log), point_indices, seed_mode, detailed, and optionally base
 (used when no scenario file is given).
 
 Output formats:
@@ -68,52 +66,11 @@ Examples:
 	})
 }
 
-// axisList is the repeatable --axis flag.
-type axisList []*pb.SweepAxis
-
-func (a *axisList) String() string { return fmt.Sprint(len(*a), " axes") }
-
-func (a *axisList) Set(v string) error {
-	path, vals, ok := strings.Cut(v, "=")
-	path = strings.TrimSpace(path)
-	if !ok || path == "" || strings.TrimSpace(vals) == "" {
-		return fmt.Errorf("want PATH=V1,V2,... or PATH=FROM:TO:COUNT")
-	}
-	ax := &pb.SweepAxis{Path: path}
-	if parts := strings.Split(vals, ":"); len(parts) == 3 {
-		from, e1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
-		to, e2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
-		n, e3 := strconv.Atoi(strings.TrimSpace(parts[2]))
-		if e1 != nil || e2 != nil || e3 != nil || n < 1 || n > 1024 {
-			return fmt.Errorf("range %q: want FROM:TO:COUNT with numbers and 1 <= COUNT <= 1024", vals)
-		}
-		for i := range n {
-			x := from
-			if n > 1 {
-				x = from + (to-from)*float64(i)/float64(n-1)
-			}
-			ax.Values = append(ax.Values, math.Round(x*1e9)/1e9)
-		}
-	} else {
-		for _, f := range strings.Split(vals, ",") {
-			x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-			if err != nil {
-				return fmt.Errorf("value %q is not a number", f)
-			}
-			ax.Values = append(ax.Values, x)
-		}
-	}
-	*a = append(*a, ax)
-	return nil
-}
-
-func runSweep(ctx context.Context, e *env, args []string) error {
-	c := lookup("sweep")
-	fs := e.newFlagSet(c)
+func runSweep(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.register(fs)
 	var axes axisList
-	fs.Var(&axes, "axis", "grid axis `PATH=V1,V2,...` or PATH=FROM:TO:COUNT; repeatable")
+	fs.Var(&axes, "axis", "grid axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	grid := fs.String("grid", "", "sweep `FILE` (protojson SweepRequest in JSON or YAML) with axes and options")
 	points := fs.String("points", "", "compute only these grid `INDICES` (comma-separated) to resume or split a sweep")
 	seedMode := fs.String("seed-mode", "", "`MODE` common (every point uses the base seed: paired) or per-point (default common)")
@@ -121,132 +78,114 @@ func runSweep(ctx context.Context, e *env, args []string) error {
 	objective := fs.String("objective", "std", "heat map `OBJECTIVE`: std (SIR error std), outage, power (mean Tx power) or bler (|BLER − target|)")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf; multi-cell: layout (f and outage against the first axis)); repeatable")
-	args, err := parseFlags(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := e.g.checkFormat("table", "csv", "json"); err != nil {
-		return err
-	}
-	if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf", "layout"); err != nil {
-		return err
-	}
-	if _, ok := sweepObjectives[*objective]; !ok {
-		return badInputf("--objective %q: must be one of std, outage, power, bler", *objective)
-	}
-	req := &pb.SweepRequest{}
-	var gridFile *client.SourceFile
-	if *grid != "" {
-		data, err := os.ReadFile(*grid)
+	return func(ctx context.Context, args []string) error {
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf", "layout"); err != nil {
+			return err
+		}
+		if _, ok := sweepObjectives[*objective]; !ok {
+			return badInputf("--objective %q: must be one of std, outage, power, bler", *objective)
+		}
+		req := &pb.SweepRequest{}
+		sf, gridFile, err := loadRequest(*grid, req, &req.Base, args, &ov)
 		if err != nil {
-			return badInput{err}
-		}
-		if gridFile, err = client.ParseMessage(*grid, data, req); err != nil {
 			return err
 		}
-	}
-	var sf *client.ScenarioFile
-	if len(args) > 0 || req.Base == nil {
-		if sf, err = loadScenario(args); err != nil {
-			return err
+		req.Axes = append(req.Axes, axes...)
+		if len(req.Axes) == 0 {
+			return badInputf("no axes: give --axis PATH=VALUES or a --grid file")
 		}
-		req.Base = proto.Clone(sf.Scenario).(*pb.Scenario)
-	}
-	if err := ov.apply(req.Base); err != nil {
-		return err
-	}
-	req.Axes = append(req.Axes, axes...)
-	if len(req.Axes) == 0 {
-		return badInputf("no axes: give --axis PATH=VALUES or a --grid file")
-	}
-	if *points != "" {
-		req.PointIndices = nil
-		for _, f := range strings.Split(*points, ",") {
-			v, err := strconv.ParseInt(strings.TrimSpace(f), 10, 64)
-			if err != nil || v < 0 {
-				return badInputf("--points: %q is not a grid index", f)
+		if *points != "" {
+			req.PointIndices = nil
+			for _, f := range strings.Split(*points, ",") {
+				v, err := strconv.ParseInt(strings.TrimSpace(f), 10, 64)
+				if err != nil || v < 0 {
+					return badInputf("--points: %q is not a grid index", f)
+				}
+				req.PointIndices = append(req.PointIndices, v)
 			}
-			req.PointIndices = append(req.PointIndices, v)
 		}
-	}
-	switch *seedMode {
-	case "common":
-		req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
-	case "per-point":
-		req.SeedMode = pb.SeedMode_SEED_MODE_PER_POINT
-	case "":
-		if req.SeedMode == pb.SeedMode_SEED_MODE_UNSPECIFIED {
+		switch *seedMode {
+		case "common":
 			req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
-		}
-	default:
-		return badInputf("--seed-mode %q: must be common or per-point", *seedMode)
-	}
-	if *detailed {
-		req.Detailed = true
-	}
-	for _, ps := range plotSpecs {
-		if err := checkSweepPlot(ps, req.Axes); err != nil {
-			return err
-		}
-	}
-	total := int64(len(req.PointIndices))
-	if total == 0 {
-		total = 1
-		for _, a := range req.Axes {
-			total *= int64(len(a.GetValues()))
-		}
-	}
-
-	out, cl, release, err := e.session()
-	if err != nil {
-		return err
-	}
-	defer release()
-	prog := e.newProgress("user-slots/s")
-	call := cl.Sweep(ctx, req)
-	var pts []*pb.SweepPoint
-	var userSlots float64
-	for p, err := range call.Points() {
-		if err != nil {
-			prog.done()
-			if inv, ok := client.AsInvalidInput(err); ok {
-				return sweepLocate(sf, gridFile, inv)
+		case "per-point":
+			req.SeedMode = pb.SeedMode_SEED_MODE_PER_POINT
+		case "":
+			if req.SeedMode == pb.SeedMode_SEED_MODE_UNSPECIFIED {
+				req.SeedMode = pb.SeedMode_SEED_MODE_COMMON
 			}
+		default:
+			return badInputf("--seed-mode %q: must be common or per-point", *seedMode)
+		}
+		if *detailed {
+			req.Detailed = true
+		}
+		for _, ps := range plotSpecs {
+			if err := checkSweepPlot(ps, req.Axes); err != nil {
+				return err
+			}
+		}
+		total := int64(len(req.PointIndices))
+		if total == 0 {
+			total = 1
+			for _, a := range req.Axes {
+				total *= int64(max(len(a.GetValues()), int(a.GetCount())))
+			}
+		}
+
+		out, cl, release, err := e.session()
+		if err != nil {
 			return err
 		}
-		pts = append(pts, p)
-		userSlots += float64(p.GetReport().GetSimulatedUserSlots())
-		el := prog.now().Sub(prog.start).Seconds()
-		prog.update(float64(len(pts))/float64(total), userSlots/math.Max(el, 1e-9))
-	}
-	prog.done()
-	sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
-	sum := call.Summary()
-	switch e.g.format {
-	case "json":
-		if err := writeSweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
+		defer release()
+		prog := e.newProgress("user-slots/s")
+		call := cl.Sweep(ctx, req)
+		var pts []*pb.SweepPoint
+		var userSlots float64
+		for p, err := range call.Points() {
+			if err != nil {
+				prog.done()
+				if inv, ok := client.AsInvalidInput(err); ok {
+					return sweepLocate(sf, gridFile, inv)
+				}
+				return err
+			}
+			pts = append(pts, p)
+			userSlots += float64(p.GetReport().GetSimulatedUserSlots())
+			el := prog.now().Sub(prog.start).Seconds()
+			prog.update(float64(len(pts))/float64(total), userSlots/math.Max(el, 1e-9))
+		}
+		prog.done()
+		sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
+		sum := call.Summary()
+		switch e.g.format {
+		case "json":
+			if err := render.SweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
+				return err
+			}
+		case "csv":
+			if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
+				return err
+			}
+		default:
+			render.SweepTable(out.Writer(), req, pts, sum)
+		}
+		if err := out.commit(); err != nil {
 			return err
 		}
-	case "csv":
-		if err := writeSweepCSV(out.Writer(), req.Axes, pts); err != nil {
-			return err
+		title := req.GetBase().GetName()
+		for _, ps := range plotSpecs {
+			if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
+				return fmt.Errorf("plot %s: %w", ps.file, err)
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+			}
 		}
-	default:
-		writeSweepTable(out.Writer(), req, pts, sum)
+		return nil
 	}
-	if err := out.commit(); err != nil {
-		return err
-	}
-	title := req.GetBase().GetName()
-	for _, ps := range plotSpecs {
-		if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
-			return fmt.Errorf("plot %s: %w", ps.file, err)
-		}
-		if !e.g.quiet {
-			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
-		}
-	}
-	return nil
 }
 
 // sweepLocate maps a Sweep's field violations to the scenario file (base.*)
@@ -281,111 +220,4 @@ func sweepLocate(sf *client.ScenarioFile, grid *client.SourceFile, inv *client.I
 		}
 	}
 	return all
-}
-
-var sweepTableFigures = []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
-	"tx_power_mean_dbm", "max_power_fraction", "noise_rise_mean_db"}
-
-func writeSweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) {
-	if n := req.GetBase().GetName(); n != "" {
-		fmt.Fprintln(w, n)
-	}
-	if sum != nil {
-		fmt.Fprintf(w, "%d of %d grid points, %s user-slots in %.2f s (%s)\n\n", sum.GetPointsComputed(), sum.GetGridPoints(),
-			groupDigits(sum.GetSimulatedUserSlots()), sum.GetWallTimeS(), fmtRate(sum.GetUserSlotsPerS(), "user-slots/s"))
-	}
-	h := []string{"point"}
-	for _, a := range req.GetAxes() {
-		h = append(h, a.GetPath())
-	}
-	for _, k := range sweepTableFigures {
-		h = append(h, shortLabel(k))
-	}
-	h = append(h, "load")
-	t := newTable(h...)
-	for i := 0; i < len(h)-1; i++ {
-		t.alignRight(i)
-	}
-	for _, p := range pts {
-		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
-		for _, c := range p.GetCoordinates() {
-			row = append(row, strconv.FormatFloat(c, 'g', 6, 64))
-		}
-		for _, k := range sweepTableFigures {
-			f, _ := figureByKey(k)
-			row = append(row, cell(f, f.get(p.GetReport().GetAggregate())))
-		}
-		load := "ok"
-		if p.GetReport().GetFeasibility().GetInfeasible() {
-			load = "INFEASIBLE"
-		}
-		t.add(append(row, load)...)
-	}
-	t.write(w)
-}
-
-// sweepCSVHeader is the header of `sweep --format csv`.
-func sweepCSVHeader(axes []*pb.SweepAxis) []string {
-	h := []string{"index", "seed"}
-	for _, a := range axes {
-		h = append(h, a.GetPath())
-	}
-	h = append(h, "feasible", "users", "user_slots")
-	return append(h, figureCSVHeader()...)
-}
-
-func writeSweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint) error {
-	cw := csv.NewWriter(w)
-	cw.Write(sweepCSVHeader(axes))
-	for _, p := range pts {
-		agg := p.GetReport().GetAggregate()
-		row := []string{strconv.FormatInt(p.GetIndex(), 10), strconv.FormatUint(p.GetSeed(), 10)}
-		for _, c := range p.GetCoordinates() {
-			row = append(row, csvNum(c))
-		}
-		row = append(row, strconv.FormatBool(!p.GetReport().GetFeasibility().GetInfeasible()),
-			strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
-		cw.Write(append(row, figureCSVCells(agg)...))
-	}
-	cw.Flush()
-	return cw.Error()
-}
-
-func writeSweepJSON(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
-	doc := struct {
-		Axes    []json.RawMessage `json:"axes"`
-		Points  []json.RawMessage `json:"points"`
-		Summary json.RawMessage   `json:"summary,omitempty"`
-	}{Axes: []json.RawMessage{}, Points: []json.RawMessage{}}
-	for _, a := range axes {
-		b, err := compactJSON(a)
-		if err != nil {
-			return err
-		}
-		doc.Axes = append(doc.Axes, b)
-	}
-	for _, p := range pts {
-		b, err := compactJSON(p)
-		if err != nil {
-			return err
-		}
-		doc.Points = append(doc.Points, b)
-	}
-	if sum != nil {
-		b, err := compactJSON(sum)
-		if err != nil {
-			return err
-		}
-		doc.Summary = b
-	}
-	raw, err := json.Marshal(doc)
-	if err != nil {
-		return err
-	}
-	b, err := indentJSON(raw)
-	if err != nil {
-		return err
-	}
-	_, err = w.Write(b)
-	return err
 }

@@ -26,12 +26,6 @@ type globals struct {
 	progress string
 }
 
-var globalFlagNames = map[string]bool{
-	"server": true, "tls": true, "tls-ca": true, "tls-cert": true, "tls-key": true,
-	"tls-server-name": true, "format": true, "out": true, "quiet": true, "timeout": true,
-	"progress": true,
-}
-
 // register binds the global flags into fs (the top-level set and every
 // command's set share the same variables, so they may come before or after
 // the command name).
@@ -163,13 +157,22 @@ func (o *output) discard() {
 
 // report prints err for a person and returns the exit status.
 func report(stderr io.Writer, cmd string, err error) int {
-	if err == nil || errors.Is(err, errHelp) {
+	if err == nil {
 		return exitOK
+	}
+	prefix := "fadeloop " + cmd
+	if cmd == "" {
+		prefix = "fadeloop"
+	}
+	var cu constraintsUnmet
+	if errors.As(err, &cu) {
+		fmt.Fprintf(stderr, "%s: no candidate meets the constraints: %s\n", prefix, cu.reason)
+		return exitConstraintsUnmet
 	}
 	var sfe *client.ScenarioFileError
 	if errors.As(err, &sfe) {
 		fmt.Fprintln(stderr, sfe.Error())
-		fmt.Fprintf(stderr, "fadeloop %s: %d problem(s) in %s\n", cmd, len(sfe.Violations), sfe.File)
+		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", cmd, len(sfe.Violations), sfe.File)
 		return exitBadInput
 	}
 	if inv, ok := client.AsInvalidInput(err); ok {
@@ -179,23 +182,29 @@ func report(stderr io.Writer, cmd string, err error) int {
 		if len(inv.Violations) == 0 {
 			fmt.Fprintln(stderr, inv.Message)
 		}
-		fmt.Fprintf(stderr, "fadeloop %s: the server rejected the request\n", cmd)
+		fmt.Fprintf(stderr, "%s: the server rejected the request\n", prefix)
 		return exitBadInput
 	}
 	var bi badInput
 	if errors.As(err, &bi) {
-		fmt.Fprintf(stderr, "fadeloop %s: %v\n", cmd, bi.err)
+		fmt.Fprintf(stderr, "%s: %v\n", prefix, bi.err)
 		return exitBadInput
 	}
 	if client.IsCanceled(err) {
-		fmt.Fprintf(stderr, "fadeloop %s: cancelled\n", cmd)
+		fmt.Fprintf(stderr, "%s: cancelled\n", prefix)
 		return exitFailure
 	}
 	var un unreachable
 	if errors.As(err, &un) || client.IsUnreachable(err) {
-		fmt.Fprintf(stderr, "fadeloop %s: server unreachable: %s\n", cmd, client.Describe(err))
+		fmt.Fprintf(stderr, "%s: server unreachable: %s\n", prefix, client.Describe(err))
 		return exitUnreachable
 	}
-	fmt.Fprintf(stderr, "fadeloop %s: %s\n", cmd, client.Describe(err))
+	fmt.Fprintf(stderr, "%s: %s\n", prefix, client.Describe(err))
 	return exitFailure
 }
+
+// constraintsUnmet: the search ran and its report was written, but no
+// candidate meets the constraints (exit 4).
+type constraintsUnmet struct{ reason string }
+
+func (c constraintsUnmet) Error() string { return "no candidate meets the constraints: " + c.reason }

@@ -8,10 +8,18 @@
 //	fadeloop sweep cell.yaml --axis inner_loop.step_db=0.5,1,2 --format csv --out steps.csv
 //	fadeloop check --speed-kmh 120 --profile EVA
 //	fadeloop serve --listen 127.0.0.1:7443
+//	fadeloop completion bash > /etc/bash_completion.d/fadeloop
+//	fadeloop man ./man1
+//
+// Commands, help, shell completion and man pages come from
+// github.com/spf13/cobra; every command's flags may also be set through
+// the environment (see envPrefix).
 //
 // Exit status: 0 success; 2 bad input (every problem printed as
 // "path: rule", with the file and line for scenario files); 3 server
-// unreachable; 1 anything else, including a run cancelled with Ctrl-C.
+// unreachable; 4 tune or capacity found no candidate meeting the
+// constraints (the report is still written); 1 anything else, including a
+// run cancelled with Ctrl-C.
 package main
 
 import (
@@ -25,6 +33,9 @@ import (
 	"sort"
 	"strings"
 	"syscall"
+
+	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 )
 
 // Exit codes.
@@ -33,7 +44,26 @@ const (
 	exitFailure     = 1
 	exitBadInput    = 2
 	exitUnreachable = 3
+	// exitConstraintsUnmet: tune or capacity ran, but no candidate meets
+	// the constraints (Recommendation.constraints_unmet); the report is
+	// written as usual.
+	exitConstraintsUnmet = 4
 )
+
+// envPrefix starts the environment variable of every flag: FADELOOP_ and
+// the flag name in upper case with '-' turned into '_' (--tls-ca:
+// FADELOOP_TLS_CA). A flag given on the command line wins over the
+// variable.
+const envPrefix = "FADELOOP_"
+
+// envName is the environment variable that may set flag name.
+func envName(flagName string) string {
+	return envPrefix + strings.ToUpper(strings.ReplaceAll(flagName, "-", "_"))
+}
+
+// action runs a command on its positional arguments, after its flags
+// (bound when the command was built) have been parsed.
+type action func(ctx context.Context, args []string) error
 
 // command is one subcommand.
 type command struct {
@@ -42,27 +72,25 @@ type command struct {
 	summary string
 	usage   string // argument synopsis after the command name
 	details string // description and examples, printed by --help
-	run     func(ctx context.Context, env *env, args []string) error
+	// run binds the command's own flags into fs and returns what to do
+	// once they are parsed.
+	run func(e *env, fs *flag.FlagSet) action
 }
 
 var commands []*command
 
 func register(c *command) { commands = append(commands, c) }
 
-func lookup(name string) *command {
-	for _, c := range commands {
-		if c.name == name {
-			return c
-		}
-	}
-	return nil
-}
-
 // env is what every command gets: output streams and the global options.
 type env struct {
 	stdout, stderr io.Writer
 	g              *globals
+	given          map[string]bool // flags set on the command line or from the environment
 }
+
+// flagGiven reports whether flag name was set on the command line or from
+// its environment variable.
+func (e *env) flagGiven(name string) bool { return e.given[name] }
 
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
@@ -73,43 +101,159 @@ func main() {
 
 // run is the whole program; it returns the exit status.
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
-	g := &globals{}
-	fs := flag.NewFlagSet("fadeloop", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	g.register(fs)
-	fs.Usage = func() {}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			mainUsage(stdout, fs)
-			return exitOK
-		}
-		fmt.Fprintln(stderr, `run "fadeloop --help" for the commands and flags`)
-		return exitBadInput
+	e := &env{stdout: stdout, stderr: stderr, g: &globals{}}
+	root := newRoot(e)
+	root.SetArgs(doubleDash(root, args))
+	root.SetOut(stdout)
+	root.SetErr(stderr)
+	c, err := root.ExecuteContextC(ctx)
+	name := ""
+	if c != nil && c != root {
+		name = c.Name()
 	}
-	rest := fs.Args()
-	if len(rest) == 0 {
-		mainUsage(stderr, fs)
-		return exitBadInput
-	}
-	name := rest[0]
-	if name == "help" {
-		if len(rest) > 1 {
-			if c := lookup(rest[1]); c != nil {
-				return run(ctx, []string{c.name, "--help"}, stdout, stderr)
-			}
-		}
-		mainUsage(stdout, fs)
-		return exitOK
-	}
-	c := lookup(name)
-	if c == nil {
-		fmt.Fprintf(stderr, "fadeloop: unknown command %q (commands: %s)\n", name, commandNames())
-		return exitBadInput
-	}
-	e := &env{stdout: stdout, stderr: stderr, g: g}
-	err := c.run(ctx, e, rest[1:])
-	return report(stderr, c.name, err)
+	return report(stderr, name, err)
 }
+
+// doubleDash rewrites single-dash long flags (-slots 3000, -format=csv),
+// which the earlier flag parser read, to the double-dash form; arguments
+// after "--" and single letters (-h) stay as they are.
+func doubleDash(root *cobra.Command, args []string) []string {
+	names := map[string]bool{}
+	var walk func(c *cobra.Command)
+	walk = func(c *cobra.Command) {
+		c.Flags().VisitAll(func(f *pflag.Flag) { names[f.Name] = true })
+		c.PersistentFlags().VisitAll(func(f *pflag.Flag) { names[f.Name] = true })
+		for _, sub := range c.Commands() {
+			walk(sub)
+		}
+	}
+	walk(root)
+	out := make([]string, len(args))
+	for i, a := range args {
+		out[i] = a
+		if a == "--" {
+			copy(out[i:], args[i:])
+			break
+		}
+		name, _, _ := strings.Cut(strings.TrimPrefix(a, "-"), "=")
+		if len(a) > 2 && a[0] == '-' && a[1] != '-' && len(name) > 1 && names[name] {
+			out[i] = "-" + a
+		}
+	}
+	return out
+}
+
+// newRoot builds the command tree: every registered command, completion
+// (from cobra) and man.
+func newRoot(e *env) *cobra.Command {
+	cobra.EnableCommandSorting = false
+	root := &cobra.Command{
+		Use:   "fadeloop [global flags] <command> [flags] [arguments]",
+		Short: "uplink power-control simulation against a fadeloop server or an embedded one",
+		Long: `fadeloop simulates uplink transmit power control (inner and outer loop) over
+fading channels with near-far users, against a fadeloop server or an
+embedded one.
+
+Simulated settings do not replace the operator's radio planning, the
+regulatory limits on transmit power and exposure, or licensed practice.
+
+Environment: every flag may also be set as FADELOOP_ followed by its name in
+upper case with '-' turned into '_' (FADELOOP_SERVER, FADELOOP_FORMAT,
+FADELOOP_TIMEOUT, FADELOOP_TLS_CA, ...). A flag on the command line wins.
+
+Exit status: 0 success; 2 bad input; 3 server unreachable; 4 tune or
+capacity found no candidate meeting the constraints (report still written);
+1 otherwise (including a call cancelled with Ctrl-C).`,
+		Version:           versionString(),
+		SilenceErrors:     true,
+		SilenceUsage:      true,
+		Args:              cobra.ArbitraryArgs,
+		PersistentPreRunE: func(c *cobra.Command, _ []string) error { return applyEnv(c.Flags()) },
+		RunE: func(c *cobra.Command, args []string) error {
+			if len(args) > 0 {
+				return badInputf("unknown command %q (commands: %s)", args[0], commandNames())
+			}
+			// No command: the usage on standard error, exit 2.
+			c.SetOut(e.stderr)
+			c.Usage()
+			return badInputf("no command given")
+		},
+	}
+	root.SetVersionTemplate("fadeloop {{.Version}}\n")
+	root.SetUsageTemplate(usageTemplate)
+	root.SetHelpTemplate(helpTemplate)
+	root.SetFlagErrorFunc(func(_ *cobra.Command, err error) error { return badInput{err} })
+	gfs := flag.NewFlagSet("fadeloop", flag.ContinueOnError)
+	e.g.register(gfs)
+	root.PersistentFlags().AddGoFlagSet(gfs)
+
+	for _, c := range sortedCommands() {
+		fs := flag.NewFlagSet(c.name, flag.ContinueOnError)
+		act := c.run(e, fs)
+		use := c.name + " [flags]"
+		if c.usage != "" {
+			use += " " + c.usage
+		}
+		cc := &cobra.Command{
+			Use:   use,
+			Short: c.summary,
+			Long:  strings.TrimSpace(c.summary) + "\n\n" + strings.TrimRight(c.details, "\n"),
+			RunE: func(cc *cobra.Command, args []string) error {
+				e.given = map[string]bool{}
+				cc.Flags().Visit(func(f *pflag.Flag) { e.given[f.Name] = true })
+				return act(cc.Context(), args)
+			},
+		}
+		cc.Flags().AddGoFlagSet(fs)
+		root.AddCommand(cc)
+	}
+	root.AddCommand(newManCommand(root))
+	return root
+}
+
+// applyEnv sets every flag not given on the command line from its
+// environment variable (see envName), if that is set.
+func applyEnv(fs *pflag.FlagSet) error {
+	var err error
+	fs.VisitAll(func(f *pflag.Flag) {
+		if err != nil || f.Changed || f.Name == "help" || f.Name == "version" {
+			return
+		}
+		v, ok := os.LookupEnv(envName(f.Name))
+		if !ok {
+			return
+		}
+		if e := fs.Set(f.Name, v); e != nil {
+			err = badInputf("%s=%q (for --%s): %v", envName(f.Name), v, f.Name, e)
+		}
+	})
+	return err
+}
+
+// helpTemplate is the --help layout of every command: usage line,
+// description with examples, subcommands, own flags, global flags.
+const helpTemplate = "Usage: {{.UseLine}}{{with .Long}}\n\n{{.}}{{end}}" + flagsTemplate
+
+// usageTemplate is helpTemplate without the description.
+const usageTemplate = "Usage: {{.UseLine}}" + flagsTemplate
+
+const flagsTemplate = `{{if .HasAvailableSubCommands}}
+
+Commands:
+{{range .Commands}}{{if (or .IsAvailableCommand (eq .Name "help"))}}  {{rpad .Name .NamePadding }} {{.Short}}
+{{end}}{{end}}{{end}}{{if .HasParent}}{{if .HasAvailableLocalFlags}}
+
+Flags:
+{{.LocalFlags.FlagUsagesWrapped 80 | trimTrailingWhitespaces}}{{end}}{{if .HasAvailableInheritedFlags}}
+
+Global flags:
+{{.InheritedFlags.FlagUsagesWrapped 80 | trimTrailingWhitespaces}}{{end}}{{else}}
+
+Global flags (also accepted after the command):
+{{.LocalFlags.FlagUsagesWrapped 80 | trimTrailingWhitespaces}}
+
+Run "fadeloop <command> --help" for a command's flags and examples.{{end}}
+`
 
 // sortedCommands lists the commands in their documented order.
 func sortedCommands() []*command {
@@ -123,146 +267,8 @@ func commandNames() string {
 	for _, c := range sortedCommands() {
 		n = append(n, c.name)
 	}
-	return strings.Join(n, ", ")
+	return strings.Join(append(n, "completion", "man", "help"), ", ")
 }
-
-func mainUsage(w io.Writer, fs *flag.FlagSet) {
-	fmt.Fprintf(w, `fadeloop simulates uplink transmit power control (inner and outer loop) over
-fading channels with near-far users, against a fadeloop server or an
-embedded one.
-
-Usage: fadeloop [global flags] <command> [flags] [arguments]
-
-Commands:
-`)
-	for _, c := range sortedCommands() {
-		fmt.Fprintf(w, "  %-9s %s\n", c.name, c.summary)
-	}
-	fmt.Fprintf(w, "\nGlobal flags (also accepted after the command):\n")
-	printFlags(w, fs)
-	fmt.Fprintf(w, `
-Run "fadeloop <command> --help" for a command's flags and examples.
-
-Exit status: 0 success; 2 bad input; 3 server unreachable; 1 otherwise
-(including a call cancelled with Ctrl-C).
-`)
-}
-
-// printFlags prints a flag set's flags with two leading dashes, the usage
-// text wrapped at 80 columns.
-func printFlags(w io.Writer, fs *flag.FlagSet) {
-	const col = 25
-	fs.VisitAll(func(f *flag.Flag) {
-		name, usage := flag.UnquoteUsage(f)
-		line := "  --" + f.Name
-		if name != "" {
-			line += " " + name
-		}
-		if len(line) < col-1 {
-			line += strings.Repeat(" ", col-len(line))
-		} else {
-			line += "\n" + strings.Repeat(" ", col)
-		}
-		if f.DefValue != "" && f.DefValue != "false" && f.DefValue != "0" && f.DefValue != "0s" && f.DefValue != "[]" {
-			usage += fmt.Sprintf(" (default %s)", f.DefValue)
-		}
-		line += wrap(usage, 80-col, strings.Repeat(" ", col))
-		fmt.Fprintln(w, line)
-	})
-}
-
-// wrap breaks text into lines of at most width runes (words are not
-// split), joining them with a newline and indent; existing newlines stay.
-func wrap(text string, width int, indent string) string {
-	var out []string
-	for _, para := range strings.Split(text, "\n") {
-		line := ""
-		for _, word := range strings.Fields(para) {
-			if line != "" && len([]rune(line))+1+len([]rune(word)) > width {
-				out = append(out, line)
-				line = word
-				continue
-			}
-			if line != "" {
-				line += " "
-			}
-			line += word
-		}
-		out = append(out, line)
-	}
-	return strings.Join(out, "\n"+indent)
-}
-
-// newFlagSet makes a command's flag set with the global flags included and
-// a --help text built from the command's usage and details.
-func (e *env) newFlagSet(c *command) *flag.FlagSet {
-	fs := flag.NewFlagSet(c.name, flag.ContinueOnError)
-	fs.SetOutput(e.stderr)
-	fs.Usage = func() {
-		w := e.stdout
-		fmt.Fprintf(w, "Usage: fadeloop %s [flags] %s\n\n%s\n", c.name, c.usage, strings.TrimSpace(c.summary))
-		if c.details != "" {
-			fmt.Fprintf(w, "\n%s\n", strings.TrimRight(c.details, "\n"))
-		}
-		own := flag.NewFlagSet("", flag.ContinueOnError)
-		glob := flag.NewFlagSet("", flag.ContinueOnError)
-		fs.VisitAll(func(f *flag.Flag) {
-			if globalFlagNames[f.Name] {
-				glob.Var(f.Value, f.Name, f.Usage)
-			} else {
-				own.Var(f.Value, f.Name, f.Usage)
-			}
-		})
-		if own.NFlag() >= 0 {
-			n := 0
-			own.VisitAll(func(*flag.Flag) { n++ })
-			if n > 0 {
-				fmt.Fprintf(w, "\nFlags:\n")
-				printFlagsDefaults(w, own, fs)
-			}
-		}
-		fmt.Fprintf(w, "\nGlobal flags:\n")
-		printFlagsDefaults(w, glob, fs)
-	}
-	e.g.register(fs)
-	return fs
-}
-
-// printFlagsDefaults prints sub's flags with the defaults recorded in full.
-func printFlagsDefaults(w io.Writer, sub, full *flag.FlagSet) {
-	sub.VisitAll(func(f *flag.Flag) {
-		if orig := full.Lookup(f.Name); orig != nil {
-			f.DefValue = orig.DefValue
-		}
-	})
-	printFlags(w, sub)
-}
-
-// parseFlags parses a command's flags, allowing flags and arguments in any
-// order ("run cell.yaml --slots 3000" and "run --slots 3000 cell.yaml").
-func parseFlags(fs *flag.FlagSet, args []string) ([]string, error) {
-	var positional []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				return nil, errHelp
-			}
-			return nil, badInput{err}
-		}
-		args = fs.Args()
-		if len(args) == 0 {
-			return positional, nil
-		}
-		if args[0] == "--" {
-			return append(positional, args[1:]...), nil
-		}
-		positional = append(positional, args[0])
-		args = args[1:]
-	}
-}
-
-// errHelp: --help was asked for and printed.
-var errHelp = errors.New("help printed")
 
 // badInput marks an error as the user's input (exit 2).
 type badInput struct{ err error }
@@ -271,3 +277,8 @@ func (b badInput) Error() string { return b.err.Error() }
 func (b badInput) Unwrap() error { return b.err }
 
 func badInputf(format string, a ...any) error { return badInput{fmt.Errorf(format, a...)} }
+
+func isBadInput(err error) bool {
+	var bi badInput
+	return errors.As(err, &bi)
+}

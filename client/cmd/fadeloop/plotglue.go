@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
+	"github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -85,9 +86,9 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 	)
 	switch ps.kind {
 	case "traces":
-		fig, err = plots.Traces("Traces — "+title, runTraces(rep, users))
+		fig, err = plots.Traces("Traces — "+title, render.RunTraces(rep, users))
 	case "cdf":
-		fig, err = plots.SIRErrorCDF("SIR error distribution per distance bin — "+title, runBinErrors(rep))
+		fig, err = plots.SIRErrorCDF("SIR error distribution per distance bin — "+title, render.RunBinErrors(rep))
 	case "map", "map-power":
 		fig, err = layoutMap(title, ps.kind, rep)
 	case "distance":
@@ -95,7 +96,7 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 		if il := rep.GetNormalisedScenario().GetInnerLoop(); il != nil {
 			minP, maxP = il.GetMinPowerDbm(), il.GetMaxPowerDbm()
 		}
-		fig, err = plots.PowerVsDistance("Tx power against distance — "+title, runDistancePoints(rep), minP, maxP, "5th–95th percentile")
+		fig, err = plots.PowerVsDistance("Tx power against distance — "+title, render.RunDistancePoints(rep), minP, maxP, "5th–95th percentile")
 	default:
 		return fmt.Errorf("unknown plot kind %q", ps.kind)
 	}
@@ -103,128 +104,6 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 		return err
 	}
 	return fig.Save(ps.file)
-}
-
-// traceUsersDefault picks the nearest, the median and the farthest user.
-func traceUsersDefault(rep *pb.RunReport) []int32 {
-	us := slices.Clone(rep.GetUsers())
-	if len(us) == 0 {
-		return nil
-	}
-	sort.SliceStable(us, func(i, j int) bool { return us[i].GetDistanceM() < us[j].GetDistanceM() })
-	pick := []int32{us[0].GetUser(), us[len(us)/2].GetUser(), us[len(us)-1].GetUser()}
-	return slices.Compact(pick)
-}
-
-func runTraces(rep *pb.RunReport, users []int32) []plots.Trace {
-	if len(users) == 0 {
-		users = traceUsersDefault(rep)
-	}
-	rate := rep.GetNormalisedScenario().GetInnerLoop().GetUpdateRateHz()
-	if !(rate > 0) {
-		rate = 1
-	}
-	byUser := map[int32]*pb.UserTrace{}
-	for _, t := range rep.GetTraces() {
-		byUser[t.GetUser()] = t
-	}
-	info := map[int32]*pb.UserFigures{}
-	for _, u := range rep.GetUsers() {
-		info[u.GetUser()] = u
-	}
-	var out []plots.Trace
-	for _, u := range users {
-		t := byUser[u]
-		if t == nil {
-			continue
-		}
-		label := fmt.Sprintf("user %d", u)
-		if ui := info[u]; ui != nil {
-			label = fmt.Sprintf("user %d (%s, %s m, %s km/h)", u, groupName(rep, ui.GetGroup()), num(ui.GetDistanceM(), 0), num(ui.GetSpeedKmh(), 0))
-		}
-		tr := plots.Trace{Label: label}
-		for i, s := range t.GetSlots() {
-			tr.TimeS = append(tr.TimeS, float64(s)/rate)
-			tr.SIRDB = append(tr.SIRDB, at32(t.GetSirDb(), i))
-			tr.TargetDB = append(tr.TargetDB, at32(t.GetTargetDb(), i))
-			tr.TxPowerDBM = append(tr.TxPowerDBM, at32(t.GetTxPowerDbm(), i))
-		}
-		out = append(out, tr)
-	}
-	return out
-}
-
-func at32(v []float32, i int) float64 {
-	if i < len(v) {
-		return float64(v[i])
-	}
-	return math.NaN()
-}
-
-// runBinErrors gives the SIR error distribution of each distance bin: the
-// empirical distribution of the traced samples (after warm-up) when traces
-// are present, else the bin's reported percentiles.
-func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution {
-	bins := rep.GetDistanceBins()
-	warm := rep.GetNormalisedScenario().GetRun().GetWarmupSlots()
-	dist := map[int32]float64{}
-	for _, u := range rep.GetUsers() {
-		dist[u.GetUser()] = u.GetDistanceM()
-	}
-	var out []plots.ErrorDistribution
-	for i, b := range bins {
-		users := "users"
-		if b.GetFigures().GetUsers() == 1 {
-			users = "user"
-		}
-		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d %s)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers(), users)}
-		for _, t := range rep.GetTraces() {
-			x := dist[t.GetUser()]
-			in := x >= b.GetMinDistanceM() && (x < b.GetMaxDistanceM() || (i == len(bins)-1 && x <= b.GetMaxDistanceM()))
-			if !in {
-				continue
-			}
-			for k, s := range t.GetSlots() {
-				if s < warm || k >= len(t.GetSirDb()) || k >= len(t.GetTargetDb()) {
-					continue
-				}
-				d.SamplesDB = append(d.SamplesDB, float64(t.GetSirDb()[k]-t.GetTargetDb()[k]))
-			}
-		}
-		if len(d.SamplesDB) == 0 {
-			d.Quantiles = quantiles(b.GetFigures().GetSirErrorPercentilesDb())
-		}
-		out = append(out, d)
-	}
-	if len(out) == 0 {
-		out = append(out, plots.ErrorDistribution{Label: "all users", Quantiles: quantiles(rep.GetAggregate().GetSirErrorPercentilesDb())})
-	}
-	return out
-}
-
-func quantiles(p *pb.Percentiles) []plots.Quantile {
-	if p == nil {
-		return nil
-	}
-	return []plots.Quantile{
-		{P: 0.01, ValueDB: p.GetP1().GetValue()}, {P: 0.05, ValueDB: p.GetP5().GetValue()},
-		{P: 0.5, ValueDB: p.GetP50().GetValue()}, {P: 0.95, ValueDB: p.GetP95().GetValue()},
-		{P: 0.99, ValueDB: p.GetP99().GetValue()},
-	}
-}
-
-func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
-	var pts []plots.DistancePoint
-	for _, u := range rep.GetUsers() {
-		f := u.GetFigures()
-		p := plots.DistancePoint{Group: groupName(rep, u.GetGroup()), DistanceM: u.GetDistanceM(),
-			TxMeanDBM: f.GetTxPowerMeanDbm().GetValue()}
-		if pc := f.GetTxPowerPercentilesDbm(); pc != nil {
-			p.TxLowDBM, p.TxHighDBM, p.HasPercent = pc.GetP5().GetValue(), pc.GetP95().GetValue(), true
-		}
-		pts = append(pts, p)
-	}
-	return pts
 }
 
 // sweepObjective is the quantity a sweep heat map shows.
@@ -330,7 +209,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 				}
 			}
 			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
-				Quantiles: quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
+				Quantiles: render.Quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
 		}
 		if len(ds) > 8 {
 			return badInputf("a cdf plot shows at most 8 candidates; this sweep has %d points (use --points or fewer values)", len(ds))
@@ -366,13 +245,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 			}
 			f := p.GetReport().GetAggregate()
 			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-			l.StepDB = append(l.StepDB, c[si])
-			l.OutagePct = append(l.OutagePct, 100*o.GetValue())
-			l.OutageLowPct = append(l.OutageLowPct, 100*o.GetCiLow())
-			l.OutageHighPct = append(l.OutageHighPct, 100*o.GetCiHigh())
-			l.ErrorStdDB = append(l.ErrorStdDB, s.GetValue())
-			l.ErrorStdLowDB = append(l.ErrorStdLowDB, s.GetCiLow())
-			l.ErrorStdHighDB = append(l.ErrorStdHighDB, s.GetCiHigh())
+			l.Add(c[si], o.GetValue(), o.GetCiLow(), o.GetCiHigh(), s.GetValue(), s.GetCiLow(), s.GetCiHigh())
 		}
 		sort.Float64s(order)
 		var ls []plots.StepLine
@@ -407,7 +280,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 				g.Value[r][c] = math.NaN()
 			}
 		}
-		f, _ := figureByKey(obj.key)
+		f, _ := render.FigureByKey(obj.key)
 		for _, p := range pts {
 			c := p.GetCoordinates()
 			col := slices.Index(g.StepDB, c[si])
@@ -415,7 +288,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 			if col < 0 || row < 0 {
 				continue
 			}
-			v := obj.scale * f.get(p.GetReport().GetAggregate()).GetValue()
+			v := obj.scale * f.Get(p.GetReport().GetAggregate()).GetValue()
 			if objective == "bler" {
 				v = math.Abs(v)
 			}

@@ -7,6 +7,8 @@ import (
 	"os"
 	"strings"
 	"time"
+
+	"github.com/fadeloop/fadeloop/client/render"
 )
 
 // progress shows how far a long call has come on standard error: a bar
@@ -72,7 +74,7 @@ func (p *progress) update(frac, rate float64) {
 		const width = 30
 		n := int(frac * width)
 		bar := strings.Repeat("█", n) + strings.Repeat("░", width-n)
-		fmt.Fprintf(p.w, "\r%s %5.1f%%  %s  %s left ", bar, 100*frac, fmtRate(rate, p.unit), left)
+		fmt.Fprintf(p.w, "\r%s %5.1f%%  %s  %s left ", bar, 100*frac, render.FmtRate(rate, p.unit), left)
 		p.drawn = true
 	case "lines":
 		// Quick calls print nothing; the closing 100 % line only follows
@@ -84,7 +86,7 @@ func (p *progress) update(frac, rate float64) {
 			return
 		}
 		p.drawn = true
-		fmt.Fprintf(p.w, "progress: %5.1f%% done, %s, %s left\n", 100*frac, fmtRate(rate, p.unit), left)
+		fmt.Fprintf(p.w, "progress: %5.1f%% done, %s, %s left\n", 100*frac, render.FmtRate(rate, p.unit), left)
 	}
 	p.last = now
 	p.lastFrac = frac
@@ -99,21 +101,6 @@ func (p *progress) done() {
 		fmt.Fprintf(p.w, "\r%s\r", strings.Repeat(" ", 78))
 		p.drawn = false
 	}
-}
-
-// fmtRate writes a rate with an SI prefix: "12.3 M user-slots/s".
-func fmtRate(rate float64, unit string) string {
-	switch {
-	case math.IsNaN(rate) || rate <= 0:
-		return "– " + unit
-	case rate >= 1e9:
-		return fmt.Sprintf("%.2f G %s", rate/1e9, unit)
-	case rate >= 1e6:
-		return fmt.Sprintf("%.2f M %s", rate/1e6, unit)
-	case rate >= 1e3:
-		return fmt.Sprintf("%.1f k %s", rate/1e3, unit)
-	}
-	return fmt.Sprintf("%.1f %s", rate, unit)
 }
 
 func fmtDuration(d time.Duration) string {

@@ -5,6 +5,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/fadeloop/fadeloop/client/render"
 )
 
 // fakeClock advances by hand.
@@ -80,11 +82,11 @@ func TestProgressQuiet(t *testing.T) {
 }
 
 func TestTableAlignment(t *testing.T) {
-	tb := newTable("name", "value (dB)", "note").alignRight(1)
-	tb.add("a", "1.00", "x")
-	tb.add("longer name", "-12.50", "")
+	tb := render.NewTable("name", "value (dB)", "note").AlignRight(1)
+	tb.Add("a", "1.00", "x")
+	tb.Add("longer name", "-12.50", "")
 	var b bytes.Buffer
-	tb.write(&b)
+	tb.Write(&b)
 	want := "name         value (dB)  note\n" +
 		"a                  1.00  x\n" +
 		"longer name      -12.50\n"
@@ -98,29 +100,29 @@ func TestHelpers(t *testing.T) {
 		in   int64
 		want string
 	}{{0, "0"}, {999, "999"}, {1000, "1 000"}, {90000, "90 000"}, {1234567, "1 234 567"}, {-4500, "-4 500"}} {
-		if got := groupDigits(c.in); got != c.want {
+		if got := render.GroupDigits(c.in); got != c.want {
 			t.Errorf("groupDigits(%d) = %q, want %q", c.in, got, c.want)
 		}
 	}
-	if got := num(-0.0001, 2); got != "0.00" {
+	if got := render.Num(-0.0001, 2); got != "0.00" {
 		t.Errorf("num(-0.0001, 2) = %q, want 0.00", got)
 	}
-	if got := fmtRate(1.23e7, "u/s"); got != "12.30 M u/s" {
+	if got := render.FmtRate(1.23e7, "u/s"); got != "12.30 M u/s" {
 		t.Errorf("fmtRate = %q", got)
 	}
 	var a axisList
 	if err := a.Set("inner_loop.step_db=0.5:2:4"); err != nil {
 		t.Fatal(err)
 	}
-	if v := a[0].GetValues(); len(v) != 4 || v[0] != 0.5 || v[1] != 1 || v[3] != 2 {
-		t.Errorf("range axis values %v, want [0.5 1 1.5 2]", v)
+	if ax := a[0]; len(ax.GetValues()) != 0 || ax.GetFirst() != 0.5 || ax.GetLast() != 2 || ax.GetCount() != 4 || ax.GetLog() {
+		t.Errorf("range axis %v, want first 0.5, last 2, count 4 (the server expands it)", ax)
 	}
-	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2"} {
+	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2", "p=1:2:3:lin"} {
 		if err := (&axisList{}).Set(bad); err == nil {
 			t.Errorf("axis %q accepted", bad)
 		}
 	}
-	if got := wrap("aa bb cc dd", 5, "  "); got != "aa bb\n  cc dd" {
+	if got := render.Wrap("aa bb cc dd", 5, "  "); got != "aa bb\n  cc dd" {
 		t.Errorf("wrap = %q", got)
 	}
 }

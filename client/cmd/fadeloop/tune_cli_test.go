@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"encoding/csv"
 	"encoding/json"
+	"errors"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -206,5 +208,41 @@ func TestTuneInterruptCancels(t *testing.T) {
 	case <-time.After(10 * time.Second):
 		cmd.Process.Kill()
 		t.Fatal("still running 10 s after SIGINT")
+	}
+}
+
+// TestConstraintsUnmetExit4: a capacity search whose smallest count already
+// misses the outage limit writes its report and exits 4, apart from bad
+// input (2) and an unreachable server (3). The counts are above the pole
+// capacity the command itself prints for this scenario (82.9 users,
+// Gilhousen et al. 1991), so no count can keep outage at 0.01 %.
+func TestConstraintsUnmetExit4(t *testing.T) {
+	args := []string{"capacity", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
+		"--outage-limit", "0.0001", "--min-count", "90", "--max-count", "100", "--replications", "2", "--format", "json"}
+	r := fl(t, args...)
+	if r.code != exitConstraintsUnmet || !strings.Contains(r.stderr, "no candidate meets the constraints") {
+		t.Fatalf("exit %d, want 4\n%s", r.code, r.stderr)
+	}
+	res := &pb.CapacityResult{}
+	if err := protojson.Unmarshal([]byte(r.stdout), res); err != nil || !res.GetBelowRange() {
+		t.Errorf("report not written or not below range: %v, %v", err, res)
+	}
+}
+
+func TestTuneConstraints(t *testing.T) {
+	unmet := &pb.Decision{ConstraintsUnmet: true, Reason: "r"}
+	for _, c := range []struct {
+		rec  *pb.Recommendation
+		want bool
+	}{
+		{&pb.Recommendation{Overall: &pb.Decision{}}, false},
+		{&pb.Recommendation{Overall: unmet}, true},
+		{&pb.Recommendation{Overall: &pb.Decision{}, Conditions: []*pb.ConditionResult{{Name: "fast", Decision: unmet}}}, true},
+	} {
+		err := tuneConstraints(c.rec)
+		var cu constraintsUnmet
+		if got := errors.As(err, &cu); got != c.want || report(io.Discard, "tune", err) != map[bool]int{true: exitConstraintsUnmet, false: exitOK}[c.want] {
+			t.Errorf("%v: %v, want unmet %v", c.rec, err, c.want)
+		}
 	}
 }

@@ -47,8 +47,14 @@ type ChannelSpec struct {
 	// Fading generator.
 	Generator Generator `protobuf:"varint,8,opt,name=generator,proto3,enum=fadeloop.v1.Generator" json:"generator,omitempty"`
 	// Sinusoids per branch of the sum-of-sinusoids generator; 0 means the
-	// generator's default. [0, 1024].
-	Sinusoids     int32 `protobuf:"varint,9,opt,name=sinusoids,proto3" json:"sinusoids,omitempty"`
+	// generator's default. [0, 256].
+	Sinusoids int32 `protobuf:"varint,9,opt,name=sinusoids,proto3" json:"sinusoids,omitempty"`
+	// Mobile speed in km/h, an alternative to doppler_hz (leave doppler_hz
+	// 0): the server sets f_D = v·f_c/c from speed_kmh and carrier_hz.
+	// [0, 1000].
+	SpeedKmh float64 `protobuf:"fixed64,10,opt,name=speed_kmh,json=speedKmh,proto3" json:"speed_kmh,omitempty"`
+	// Carrier frequency in Hz for speed_kmh; required with it. [0, 1e11].
+	CarrierHz     float64 `protobuf:"fixed64,11,opt,name=carrier_hz,json=carrierHz,proto3" json:"carrier_hz,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -142,6 +148,20 @@ func (x *ChannelSpec) GetGenerator() Generator {
 func (x *ChannelSpec) GetSinusoids() int32 {
 	if x != nil {
 		return x.Sinusoids
+	}
+	return 0
+}
+
+func (x *ChannelSpec) GetSpeedKmh() float64 {
+	if x != nil {
+		return x.SpeedKmh
+	}
+	return 0
+}
+
+func (x *ChannelSpec) GetCarrierHz() float64 {
+	if x != nil {
+		return x.CarrierHz
 	}
 	return 0
 }
@@ -630,7 +650,7 @@ var File_fadeloop_v1_channel_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_channel_proto_rawDesc = "" +
 	"\n" +
-	"\x19fadeloop/v1/channel.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x1afadeloop/v1/scenario.proto\"\xf7\x03\n" +
+	"\x19fadeloop/v1/channel.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x1afadeloop/v1/scenario.proto\"\xe5\x04\n" +
 	"\vChannelSpec\x126\n" +
 	"\n" +
 	"doppler_hz\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00R\tdopplerHz\x12=\n" +
@@ -644,7 +664,11 @@ const file_fadeloop_v1_channel_proto_rawDesc = "" +
 	"\tgenerator\x18\b \x01(\x0e2\x16.fadeloop.v1.GeneratorB\n" +
 	"\xbaH\a\x82\x01\x04\x10\x01 \x00R\tgenerator\x12(\n" +
 	"\tsinusoids\x18\t \x01(\x05B\n" +
-	"\xbaH\a\x1a\x05\x18\x80\b(\x00R\tsinusoids:\x1d\xbaH\x1a\"\x18\n" +
+	"\xbaH\a\x1a\x05\x18\x80\x02(\x00R\tsinusoids\x124\n" +
+	"\tspeed_kmh\x18\n" +
+	" \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00R\bspeedKmh\x126\n" +
+	"\n" +
+	"carrier_hz\x18\v \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\xe8vH7B)\x00\x00\x00\x00\x00\x00\x00\x00R\tcarrierHz:\x1d\xbaH\x1a\"\x18\n" +
 	"\aprofile\n" +
 	"\vcustom_taps\x10\x01\"\xe1\x01\n" +
 	"\x12StreamGainsRequest\x12:\n" +

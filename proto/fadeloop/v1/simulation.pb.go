@@ -379,7 +379,12 @@ type SweepAxis struct {
 	Count int32 `protobuf:"varint,5,opt,name=count,proto3" json:"count,omitempty"`
 	// Geometric range spacing v_i = first·(last/first)^(i/(count−1))
 	// (first, last > 0) instead of linear.
-	Log           bool `protobuf:"varint,6,opt,name=log,proto3" json:"log,omitempty"`
+	Log bool `protobuf:"varint,6,opt,name=log,proto3" json:"log,omitempty"`
+	// Text values along the axis instead of numbers, at most 1024, each
+	// non-empty: enum value names (e.g. COMMAND_FIXED_STEP, COMMAND_ADAPTIVE
+	// for path inner_loop.command) or strings (e.g. EPA, EVA for
+	// groups[0].profile). Give one of values, names or a range.
+	Names         []string `protobuf:"bytes,7,rep,name=names,proto3" json:"names,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -456,14 +461,24 @@ func (x *SweepAxis) GetLog() bool {
 	return false
 }
 
+func (x *SweepAxis) GetNames() []string {
+	if x != nil {
+		return x.Names
+	}
+	return nil
+}
+
 // SweepRequest runs a grid of scenarios around a base.
 type SweepRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The base scenario; each point is the base with the axis values set.
 	Base *Scenario `protobuf:"bytes,1,opt,name=base,proto3" json:"base,omitempty"`
-	// Grid axes, 1 to 8. The grid is their Cartesian product, indexed in
-	// row-major order (the last axis varies fastest): index = sum over axes a
-	// of i_a · prod over later axes b of len(values_b).
+	// Grid axes, 1 to 8. The grid is their Cartesian product, at most 100000
+	// points (the same limit as Tune's candidates), indexed in row-major
+	// order (the last axis varies fastest): index = sum over axes a of
+	// i_a · prod over later axes b of len(values_b). Each point is charged
+	// its simulated tap-slots plus 50000 tap-slots of run overhead per
+	// replication against the server's cost bound, before any point is built.
 	Axes []*SweepAxis `protobuf:"bytes,2,rep,name=axes,proto3" json:"axes,omitempty"`
 	// Grid indices to compute (e.g. to resume or to spread a sweep over
 	// servers); empty means every point. At most 100000 entries, each a
@@ -672,7 +687,14 @@ type SweepPoint struct {
 	// The seed the point ran with.
 	Seed uint64 `protobuf:"varint,3,opt,name=seed,proto3" json:"seed,omitempty"`
 	// The point's report.
-	Report        *RunReport `protobuf:"bytes,4,opt,name=report,proto3" json:"report,omitempty"`
+	Report *RunReport `protobuf:"bytes,4,opt,name=report,proto3" json:"report,omitempty"`
+	// The point's text value on each axis, in axis order: the name set on a
+	// names axis (its coordinate is then the name's position in the list),
+	// empty on a numeric axis.
+	CoordinateNames []string `protobuf:"bytes,5,rep,name=coordinate_names,json=coordinateNames,proto3" json:"coordinate_names,omitempty"`
+	// What the point varied, e.g. "step_db=0.5, groups[1].speed_kmh (every
+	// speed)=30, command=COMMAND_ADAPTIVE".
+	Label         string `protobuf:"bytes,6,opt,name=label,proto3" json:"label,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -733,6 +755,20 @@ func (x *SweepPoint) GetReport() *RunReport {
 		return x.Report
 	}
 	return nil
+}
+
+func (x *SweepPoint) GetCoordinateNames() []string {
+	if x != nil {
+		return x.CoordinateNames
+	}
+	return nil
+}
+
+func (x *SweepPoint) GetLabel() string {
+	if x != nil {
+		return x.Label
+	}
+	return ""
 }
 
 // SweepSummary closes a sweep stream.
@@ -925,7 +961,7 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\x10SimulateResponse\x123\n" +
 	"\bprogress\x18\x01 \x01(\v2\x15.fadeloop.v1.ProgressH\x00R\bprogress\x120\n" +
 	"\x06report\x18\x02 \x01(\v2\x16.fadeloop.v1.RunReportH\x00R\x06reportB\a\n" +
-	"\x05event\"\xc4\x01\n" +
+	"\x05event\"\xed\x01\n" +
 	"\tSweepAxis\x12\x1e\n" +
 	"\x04path\x18\x01 \x01(\tB\n" +
 	"\xbaH\ar\x05\x10\x01\x18\x80\x02R\x04path\x12'\n" +
@@ -934,7 +970,8 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\x04last\x18\x04 \x01(\x01B\a\xbaH\x04\x12\x02@\x01R\x04last\x12 \n" +
 	"\x05count\x18\x05 \x01(\x05B\n" +
 	"\xbaH\a\x1a\x05\x18\x80\b(\x00R\x05count\x12\x10\n" +
-	"\x03log\x18\x06 \x01(\bR\x03log\"\x8e\x02\n" +
+	"\x03log\x18\x06 \x01(\bR\x03log\x12'\n" +
+	"\x05names\x18\a \x03(\tB\x11\xbaH\x0e\x92\x01\v\x10\x80\b\"\x06r\x04\x10\x01\x18@R\x05names\"\x8e\x02\n" +
 	"\fSweepRequest\x121\n" +
 	"\x04base\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\x04base\x126\n" +
 	"\x04axes\x18\x02 \x03(\v2\x16.fadeloop.v1.SweepAxisB\n" +
@@ -955,13 +992,15 @@ const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"confidence\x12/\n" +
 	"\x06budget\x18\x06 \x01(\v2\x17.fadeloop.v1.TuneBudgetR\x06budget\x12#\n" +
 	"\rskip_baseline\x18\a \x01(\bR\fskipBaseline\x12=\n" +
-	"\x14progress_interval_ms\x18\b \x01(\x05B\v\xbaH\b\x1a\x06\x18\xe0\xd4\x03(\x00R\x12progressIntervalMs\"\x88\x01\n" +
+	"\x14progress_interval_ms\x18\b \x01(\x05B\v\xbaH\b\x1a\x06\x18\xe0\xd4\x03(\x00R\x12progressIntervalMs\"\xc9\x01\n" +
 	"\n" +
 	"SweepPoint\x12\x14\n" +
 	"\x05index\x18\x01 \x01(\x03R\x05index\x12 \n" +
 	"\vcoordinates\x18\x02 \x03(\x01R\vcoordinates\x12\x12\n" +
 	"\x04seed\x18\x03 \x01(\x04R\x04seed\x12.\n" +
-	"\x06report\x18\x04 \x01(\v2\x16.fadeloop.v1.RunReportR\x06report\"\xd3\x01\n" +
+	"\x06report\x18\x04 \x01(\v2\x16.fadeloop.v1.RunReportR\x06report\x12)\n" +
+	"\x10coordinate_names\x18\x05 \x03(\tR\x0fcoordinateNames\x12\x14\n" +
+	"\x05label\x18\x06 \x01(\tR\x05label\"\xd3\x01\n" +
 	"\fSweepSummary\x12\x1f\n" +
 	"\vgrid_points\x18\x01 \x01(\x03R\n" +
 	"gridPoints\x12'\n" +

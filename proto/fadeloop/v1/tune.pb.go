@@ -901,8 +901,12 @@ type Coord struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Field path of the axis.
 	Path string `protobuf:"bytes,1,opt,name=path,proto3" json:"path,omitempty"`
-	// Value on that axis, in the field's unit.
-	Value         float64 `protobuf:"fixed64,2,opt,name=value,proto3" json:"value,omitempty"`
+	// Value on that axis, in the field's unit; on a names axis the position
+	// of the name in the axis' list.
+	Value float64 `protobuf:"fixed64,2,opt,name=value,proto3" json:"value,omitempty"`
+	// The name set on a names axis (an enum value name or a string); empty
+	// on a numeric axis.
+	Text          string `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -949,6 +953,13 @@ func (x *Coord) GetValue() float64 {
 		return x.Value
 	}
 	return 0
+}
+
+func (x *Coord) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
 }
 
 // GridPoint is one candidate setting: a point of the grid of axes.
@@ -2835,10 +2846,11 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x11tx_power_mean_dbm\x18\x06 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x0etxPowerMeanDbm\x12N\n" +
 	"\x12max_power_fraction\x18\a \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x10maxPowerFraction\x12M\n" +
 	"\x12noise_rise_mean_db\x18\b \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x0fnoiseRiseMeanDb\x127\n" +
-	"\x17infeasible_replications\x18\t \x01(\x05R\x16infeasibleReplications\"1\n" +
+	"\x17infeasible_replications\x18\t \x01(\x05R\x16infeasibleReplications\"E\n" +
 	"\x05Coord\x12\x12\n" +
 	"\x04path\x18\x01 \x01(\tR\x04path\x12\x14\n" +
-	"\x05value\x18\x02 \x01(\x01R\x05value\"M\n" +
+	"\x05value\x18\x02 \x01(\x01R\x05value\x12\x12\n" +
+	"\x04text\x18\x03 \x01(\tR\x04text\"M\n" +
 	"\tGridPoint\x12\x14\n" +
 	"\x05index\x18\x01 \x01(\x05R\x05index\x12*\n" +
 	"\x06coords\x18\x02 \x03(\v2\x12.fadeloop.v1.CoordR\x06coords\"\xb9\x02\n" +

@@ -34,6 +34,7 @@ func main() {
 
 type options struct {
 	listen, metricsListen        string
+	httpListen                   string
 	tlsCert, tlsKey, clientCA    string
 	maxCost                      int64
 	maxRuns, queueLen            int
@@ -51,6 +52,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.SetOutput(stderr)
 	fs.StringVar(&o.listen, "listen", "127.0.0.1:8470", "gRPC listen address (host:port; port 0 picks a free port)")
 	fs.StringVar(&o.metricsListen, "metrics-listen", "127.0.0.1:8471", "Prometheus metrics HTTP listen address, serving /metrics (empty: no metrics listener)")
+	fs.StringVar(&o.httpListen, "http-listen", "", "HTTP/JSON listen address: Connect, gRPC-Web and /v1/ routes for curl and browsers (empty: none)")
 	fs.StringVar(&o.tlsCert, "tls-cert", "", "PEM server certificate chain file (serve TLS; needs -tls-key)")
 	fs.StringVar(&o.tlsKey, "tls-key", "", "PEM private key file of -tls-cert")
 	fs.StringVar(&o.clientCA, "client-ca", "", "PEM CA bundle: require and verify client certificates (mutual TLS; needs -tls-cert)")
@@ -164,6 +166,7 @@ func run(args []string, stderr io.Writer) error {
 	return service.RunDaemon(ctx, stop, srv, service.DaemonOptions{
 		Listen:        o.listen,
 		MetricsListen: o.metricsListen,
+		HTTPListen:    o.httpListen,
 		DrainTimeout:  o.drainTimeout,
 	})
 }

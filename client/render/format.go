@@ -1,4 +1,4 @@
-package main
+package render
 
 import (
 	"bytes"
@@ -16,29 +16,57 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// table collects rows and prints them with aligned columns: text left,
+// FigureKeys lists the CSV column stems of the figures in CSV order.
+func FigureKeys() []string {
+	var k []string
+	for _, f := range figures {
+		k = append(k, f.Key)
+	}
+	return k
+}
+
+// GroupDigits writes an integer with thin groups of three: 90 000.
+func GroupDigits(n int64) string {
+	s := strconv.FormatInt(n, 10)
+	neg := strings.HasPrefix(s, "-")
+	s = strings.TrimPrefix(s, "-")
+	var b strings.Builder
+	for i, r := range s {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			b.WriteByte(' ')
+		}
+		b.WriteRune(r)
+	}
+	if neg {
+		return "-" + b.String()
+	}
+	return b.String()
+}
+
+// Table collects rows and prints them with aligned columns: text left,
 // numbers right, two spaces between columns.
-type table struct {
+type Table struct {
 	header []string
 	right  []bool
 	rows   [][]string
 }
 
-func newTable(header ...string) *table {
-	return &table{header: header, right: make([]bool, len(header))}
+// NewTable starts a table with the given column heads.
+func NewTable(header ...string) *Table {
+	return &Table{header: header, right: make([]bool, len(header))}
 }
 
 // alignRight marks columns (by index) as right-aligned.
-func (t *table) alignRight(cols ...int) *table {
+func (t *Table) AlignRight(cols ...int) *Table {
 	for _, c := range cols {
 		t.right[c] = true
 	}
 	return t
 }
 
-func (t *table) add(cells ...string) { t.rows = append(t.rows, cells) }
+func (t *Table) Add(cells ...string) { t.rows = append(t.rows, cells) }
 
-func (t *table) write(w io.Writer) {
+func (t *Table) Write(w io.Writer) {
 	widths := make([]int, len(t.header))
 	for i, h := range t.header {
 		widths[i] = utf8.RuneCountInString(h)
@@ -78,8 +106,8 @@ func (t *table) write(w io.Writer) {
 	}
 }
 
-// num formats a float for tables: fixed decimals, "–" for NaN.
-func num(v float64, decimals int) string {
+// Num formats a float for tables: fixed decimals, "–" for NaN.
+func Num(v float64, decimals int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "–"
 	}
@@ -90,19 +118,19 @@ func num(v float64, decimals int) string {
 	return s
 }
 
-// csvNum formats a float for CSV and JSON-free scripts: shortest exact
+// CSVNum formats a float for CSV and JSON-free scripts: shortest exact
 // representation, empty for NaN.
-func csvNum(v float64) string {
+func CSVNum(v float64) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return ""
 	}
 	return strconv.FormatFloat(v, 'g', -1, 64)
 }
 
-// marshalJSON writes a message as stable, indented JSON with proto field
+// MarshalJSON writes a message as stable, indented JSON with proto field
 // names. protojson's own whitespace is deliberately unstable, so the output
 // is re-indented by encoding/json.
-func marshalJSON(m proto.Message) ([]byte, error) {
+func MarshalJSON(m proto.Message) ([]byte, error) {
 	raw, err := protojson.MarshalOptions{UseProtoNames: true}.Marshal(m)
 	if err != nil {
 		return nil, err
@@ -132,13 +160,13 @@ func compactJSON(m proto.Message) (json.RawMessage, error) {
 	return b.Bytes(), nil
 }
 
-// figure is one column of the report tables and CSV files.
-type figure struct {
-	key   string  // CSV column stem, the proto field name (percentiles: with _p1 etc.)
-	label string  // table label with unit
-	scale float64 // table value = scale × value (e.g. 100 for %)
-	dec   int     // table decimals
-	get   func(*pb.Figures) *pb.Estimate
+// Figure is one column of the report tables and CSV files.
+type Figure struct {
+	Key   string  // CSV column stem, the proto field name (percentiles: with _p1 etc.)
+	Label string  // table label with unit
+	Scale float64 // table value = scale × value (e.g. 100 for %)
+	Dec   int     // table decimals
+	Get   func(*pb.Figures) *pb.Estimate
 }
 
 func pct(get func(*pb.Percentiles) *pb.Estimate, of func(*pb.Figures) *pb.Percentiles) func(*pb.Figures) *pb.Estimate {
@@ -151,7 +179,7 @@ var (
 )
 
 // figures lists every figure of a Figures message in CSV order.
-var figures = []figure{
+var figures = []Figure{
 	{"sir_error_mean_db", "SIR error mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb},
 	{"sir_error_std_db", "SIR error std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb},
 	{"sir_error_p1_db", "SIR error 1st pct (dB)", 1, 2, pct((*pb.Percentiles).GetP1, sirPct)},
@@ -191,17 +219,18 @@ func shortLabel(key string) string {
 	if l, ok := shortLabels[key]; ok {
 		return l
 	}
-	f, _ := figureByKey(key)
-	return f.label
+	f, _ := FigureByKey(key)
+	return f.Label
 }
 
-func figureByKey(key string) (figure, bool) {
+// FigureByKey returns the figure whose CSV stem is key.
+func FigureByKey(key string) (Figure, bool) {
 	for _, f := range figures {
-		if f.key == key {
+		if f.Key == key {
 			return f, true
 		}
 	}
-	return figure{}, false
+	return Figure{}, false
 }
 
 // figureCSVHeader is the figure columns of the CSV files: each figure's
@@ -209,7 +238,7 @@ func figureByKey(key string) (figure, bool) {
 func figureCSVHeader() []string {
 	var h []string
 	for _, f := range figures {
-		h = append(h, f.key, f.key+"_ci_low", f.key+"_ci_high")
+		h = append(h, f.Key, f.Key+"_ci_low", f.Key+"_ci_high")
 	}
 	return h
 }
@@ -217,27 +246,64 @@ func figureCSVHeader() []string {
 func figureCSVCells(fs *pb.Figures) []string {
 	var c []string
 	for _, f := range figures {
-		e := f.get(fs)
+		e := f.Get(fs)
 		if e == nil {
 			c = append(c, "", "", "")
 			continue
 		}
-		c = append(c, csvNum(e.GetValue()), csvNum(e.GetCiLow()), csvNum(e.GetCiHigh()))
+		c = append(c, CSVNum(e.GetValue()), CSVNum(e.GetCiLow()), CSVNum(e.GetCiHigh()))
 	}
 	return c
 }
 
 // cell formats an estimate for a table: "1.98 ±0.03" (half-width of the
 // 95 % interval; asymmetric intervals show the larger side).
-func cell(f figure, e *pb.Estimate) string {
+func cell(f Figure, e *pb.Estimate) string {
 	if e == nil {
 		return "–"
 	}
-	v := f.scale * e.GetValue()
-	lo, hi := f.scale*e.GetCiLow(), f.scale*e.GetCiHigh()
+	v := f.Scale * e.GetValue()
+	lo, hi := f.Scale*e.GetCiLow(), f.Scale*e.GetCiHigh()
 	hw := math.Max(v-lo, hi-v)
 	if math.IsNaN(hw) || (lo == 0 && hi == 0 && v != 0) {
-		return num(v, f.dec)
+		return Num(v, f.Dec)
 	}
-	return num(v, f.dec) + " ±" + num(hw, f.dec)
+	return Num(v, f.Dec) + " ±" + Num(hw, f.Dec)
+}
+
+// Wrap breaks text into lines of at most width runes (words are not
+// split), joining them with a newline and indent; existing newlines stay.
+func Wrap(text string, width int, indent string) string {
+	var out []string
+	for _, para := range strings.Split(text, "\n") {
+		line := ""
+		for _, word := range strings.Fields(para) {
+			if line != "" && len([]rune(line))+1+len([]rune(word)) > width {
+				out = append(out, line)
+				line = word
+				continue
+			}
+			if line != "" {
+				line += " "
+			}
+			line += word
+		}
+		out = append(out, line)
+	}
+	return strings.Join(out, "\n"+indent)
+}
+
+// FmtRate writes a rate with an SI prefix: "12.3 M user-slots/s".
+func FmtRate(rate float64, unit string) string {
+	switch {
+	case math.IsNaN(rate) || rate <= 0:
+		return "– " + unit
+	case rate >= 1e9:
+		return fmt.Sprintf("%.2f G %s", rate/1e9, unit)
+	case rate >= 1e6:
+		return fmt.Sprintf("%.2f M %s", rate/1e6, unit)
+	case rate >= 1e3:
+		return fmt.Sprintf("%.1f k %s", rate/1e3, unit)
+	}
+	return fmt.Sprintf("%.1f %s", rate, unit)
 }

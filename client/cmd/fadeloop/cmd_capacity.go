@@ -1,0 +1,141 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"io"
+	"math"
+	"math/bits"
+
+	"github.com/fadeloop/fadeloop/client/render"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+func init() {
+	register(&command{
+		order:   31,
+		name:    "capacity",
+		summary: "find the most users a setting carries at an outage limit, beside the pole capacity",
+		usage:   "[SCENARIO.yaml|.json]",
+		details: `Bisects the user count of one group (--group) of the scenario (the file, or
+the built-in default) for the largest count whose mean aggregate outage
+over --replications stays at or below --outage-limit, with the same seeds at
+every count (common random numbers). Without --max-count the search doubles
+upward from --min-count until a count fails. The analytic pole capacity
+(Gilhousen et al. 1991) and the pole of the engine's own interference
+equation are printed beside the simulated figure. The group's placement
+must be uniform. Without --max-count the worst case (doubling up to the
+server's user limit, see "fadeloop info") is what the server's cost bound
+is checked against, and it often exceeds it: give --max-count or --max-user-slots.
+
+A --request file is the protojson form (JSON or YAML) of
+fadeloop.v1.CapacityRequest; flags override its fields.
+
+Output formats:
+  table  the capacity, the pole estimates with their inputs, every
+         evaluated count with its figures, the reason and the effort
+  csv    one row per evaluated count: count, total_users, pass (true|false),
+         n, then for every figure F of sir_error_mean_db, sir_error_std_db,
+         outage_probability, achieved_bler, tx_power_mean_dbm,
+         max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high
+  json   the fadeloop.v1 CapacityResult in protojson with proto field names
+
+Exit status 4 (after the output is written) when even the smallest count
+tried exceeds the outage limit.
+
+Examples:
+  fadeloop capacity --outage-limit 0.2 --max-count 256
+  fadeloop capacity testdata/scenarios/indoor_outer_loop.yaml --outage-limit 0.05 --max-count 256
+  fadeloop capacity cell.yaml --group 1 --outage-limit 0.02 --max-count 200 \
+      --replications 8 --format csv --out capacity.csv`,
+		run: runCapacity,
+	})
+}
+
+func runCapacity(e *env, fs *flag.FlagSet) action {
+	var ov scenarioOverrides
+	ov.registerSlotsSeed(fs)
+	request := fs.String("request", "", "capacity request `FILE` (protojson CapacityRequest in JSON or YAML)")
+	group := fs.Int("group", -1, "index `G` of the group whose count is scaled (default 0)")
+	outage := fs.Float64("outage-limit", 0, "largest acceptable aggregate outage `P` (fraction, e.g. 0.05); required")
+	minCount := fs.Int("min-count", 0, "smallest group count `N` tried (0: 1)")
+	maxCount := fs.Int("max-count", 0, "largest group count `N` tried (0: double upward until a count fails)")
+	reps := fs.Int("replications", 0, "replications `N` per evaluated count (0: 4)")
+	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
+	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
+	return func(ctx context.Context, args []string) error {
+		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		req := &pb.CapacityRequest{}
+		sf, reqFile, err := loadRequest(*request, req, &req.Base, args, &ov)
+		if err != nil {
+			return err
+		}
+		for _, x := range []struct {
+			dst  *int32
+			v    int
+			name string
+		}{{&req.MinCount, *minCount, "min-count"}, {&req.MaxCount, *maxCount, "max-count"}, {&req.Replications, *reps, "replications"}} {
+			if x.v < 0 || x.v > math.MaxInt32 {
+				return badInputf("--%s %d: must be >= 0", x.name, x.v)
+			}
+			if x.v != 0 {
+				*x.dst = int32(x.v)
+			}
+		}
+		if *group >= 0 {
+			if *group > math.MaxInt32 {
+				return badInputf("--group %d: too large", *group)
+			}
+			req.Group = int32(*group)
+		}
+		if *outage != 0 {
+			req.OutageLimit = *outage
+		}
+		if req.OutageLimit == 0 {
+			return badInputf("--outage-limit is required (the largest acceptable outage, e.g. 0.05)")
+		}
+		if *confidence != 0 {
+			req.Confidence = *confidence
+		}
+		if *maxUS != 0 {
+			req.MaxUserSlots = *maxUS
+		}
+		out, cl, release, err := e.session()
+		if err != nil {
+			return err
+		}
+		defer release()
+		hi := int(req.GetMaxCount())
+		if hi == 0 {
+			// Doubling upward ends at the server's user limit at the latest.
+			info, err := cl.ServerInfo(ctx)
+			if err != nil {
+				return err
+			}
+			hi = int(info.GetLimits().GetMaxUsers())
+		}
+		r := float64(req.GetReplications())
+		if r == 0 {
+			r = 4
+		}
+		worst := float64(2+2*bits.Len(uint(hi))) * r
+		prog := e.newProgress("user-slots/s")
+		res, err := cl.Capacity(ctx, req, searchProgress(prog, worst))
+		prog.done()
+		if err != nil {
+			return searchError(sf, reqFile, err)
+		}
+		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
+			func(w io.Writer) { render.CapacityTable(w, req, res) })
+		if err != nil {
+			return err
+		}
+		if res.GetBelowRange() {
+			// Even the smallest count tried exceeds the outage limit.
+			return constraintsUnmet{reason: res.GetReason()}
+		}
+		return nil
+	}
+}

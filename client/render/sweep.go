@@ -1,0 +1,123 @@
+package render
+
+import (
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"io"
+	"strconv"
+
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+var sweepTableFigures = []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
+	"tx_power_mean_dbm", "max_power_fraction", "noise_rise_mean_db"}
+
+// SweepTable writes one row per sweep point: index, axis values and the main
+// figures with their interval half-widths.
+func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) {
+	if n := req.GetBase().GetName(); n != "" {
+		fmt.Fprintln(w, n)
+	}
+	if sum != nil {
+		fmt.Fprintf(w, "%d of %d grid points, %s user-slots in %.2f s (%s)\n\n", sum.GetPointsComputed(), sum.GetGridPoints(),
+			GroupDigits(sum.GetSimulatedUserSlots()), sum.GetWallTimeS(), FmtRate(sum.GetUserSlotsPerS(), "user-slots/s"))
+	}
+	h := []string{"point"}
+	for _, a := range req.GetAxes() {
+		h = append(h, a.GetPath())
+	}
+	for _, k := range sweepTableFigures {
+		h = append(h, shortLabel(k))
+	}
+	h = append(h, "load")
+	t := NewTable(h...)
+	for i := 0; i < len(h)-1; i++ {
+		t.AlignRight(i)
+	}
+	for _, p := range pts {
+		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
+		for _, c := range p.GetCoordinates() {
+			row = append(row, strconv.FormatFloat(c, 'g', 6, 64))
+		}
+		for _, k := range sweepTableFigures {
+			f, _ := FigureByKey(k)
+			row = append(row, cell(f, f.Get(p.GetReport().GetAggregate())))
+		}
+		load := "ok"
+		if p.GetReport().GetFeasibility().GetInfeasible() {
+			load = "INFEASIBLE"
+		}
+		t.Add(append(row, load)...)
+	}
+	t.Write(w)
+}
+
+// SweepCSVHeader is the header of `sweep --format csv`.
+func sweepCSVHeader(axes []*pb.SweepAxis) []string {
+	h := []string{"index", "seed"}
+	for _, a := range axes {
+		h = append(h, a.GetPath())
+	}
+	h = append(h, "feasible", "users", "user_slots")
+	return append(h, figureCSVHeader()...)
+}
+
+// SweepCSV writes one row per sweep point under SweepCSVHeader.
+func SweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint) error {
+	cw := csv.NewWriter(w)
+	cw.Write(sweepCSVHeader(axes))
+	for _, p := range pts {
+		agg := p.GetReport().GetAggregate()
+		row := []string{strconv.FormatInt(p.GetIndex(), 10), strconv.FormatUint(p.GetSeed(), 10)}
+		for _, c := range p.GetCoordinates() {
+			row = append(row, CSVNum(c))
+		}
+		row = append(row, strconv.FormatBool(!p.GetReport().GetFeasibility().GetInfeasible()),
+			strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
+		cw.Write(append(row, figureCSVCells(agg)...))
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// SweepJSON writes {"axes", "points", "summary"} in protojson with proto
+// field names.
+func SweepJSON(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
+	doc := struct {
+		Axes    []json.RawMessage `json:"axes"`
+		Points  []json.RawMessage `json:"points"`
+		Summary json.RawMessage   `json:"summary,omitempty"`
+	}{Axes: []json.RawMessage{}, Points: []json.RawMessage{}}
+	for _, a := range axes {
+		b, err := compactJSON(a)
+		if err != nil {
+			return err
+		}
+		doc.Axes = append(doc.Axes, b)
+	}
+	for _, p := range pts {
+		b, err := compactJSON(p)
+		if err != nil {
+			return err
+		}
+		doc.Points = append(doc.Points, b)
+	}
+	if sum != nil {
+		b, err := compactJSON(sum)
+		if err != nil {
+			return err
+		}
+		doc.Summary = b
+	}
+	raw, err := json.Marshal(doc)
+	if err != nil {
+		return err
+	}
+	b, err := indentJSON(raw)
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(b)
+	return err
+}

@@ -1,0 +1,446 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"html/template"
+	"math"
+	"slices"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/fadeloop/fadeloop/client/plots"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// The figures of a report are the same as the CLI's --plot figures, drawn
+// by client/plots from the API messages.
+
+const (
+	stepPath = "inner_loop.step_db"
+	ratePath = "inner_loop.update_rate_hz"
+)
+
+// figure is one inline SVG plot with its caption.
+type figure struct {
+	Caption string
+	SVG     template.HTML
+}
+
+// svgOf encodes fig as SVG and strips the XML prolog so that it can sit in
+// HTML; the SVG keeps its viewBox, so CSS can scale it to the page width.
+func svgOf(fig *plots.Figure) (template.HTML, error) {
+	var b bytes.Buffer
+	if err := fig.Encode(&b, "svg"); err != nil {
+		return "", err
+	}
+	s := b.String()
+	if i := strings.Index(s, "<svg"); i >= 0 {
+		s = s[i:]
+	}
+	// Scale to the container: width/height in pt would fix the size.
+	s = strings.Replace(s, `<svg width="`, `<svg role="img" class="plot" data-width="`, 1)
+	s = strings.Replace(s, `" height="`, `" data-height="`, 1)
+	return template.HTML(s), nil // #nosec: produced by gonum/plot's SVG canvas from numbers and our labels, escaped by it
+}
+
+// addFigure draws fig (or skips it when there is nothing to draw).
+func addFigure(out *[]figure, caption string, fig *plots.Figure, err error) error {
+	if err == plots.ErrNoData || (err == nil && fig == nil) {
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("plot %q: %w", caption, err)
+	}
+	svg, err := svgOf(fig)
+	if err != nil {
+		return fmt.Errorf("plot %q: %w", caption, err)
+	}
+	*out = append(*out, figure{Caption: caption, SVG: svg})
+	return nil
+}
+
+// titled joins a plot title and the scenario name (when there is one).
+func titled(what, name string) string {
+	if name == "" {
+		return what
+	}
+	return what + " — " + name
+}
+
+// runFigures: traces (when the report has them), the SIR error
+// distribution per distance bin, and Tx power against distance.
+func runFigures(rep *pb.RunReport) ([]figure, error) {
+	title := rep.GetNormalisedScenario().GetName()
+	var out []figure
+	if len(rep.GetTraces()) > 0 {
+		fig, err := plots.Traces(titled("Traces", title), runTraces(rep))
+		if err := addFigure(&out, "SIR, SIR target and Tx power against time for the nearest, the median and the farthest traced user.", fig, err); err != nil {
+			return nil, err
+		}
+	}
+	fig, err := plots.SIRErrorCDF(titled("SIR error distribution per distance bin", title), runBinErrors(rep))
+	if err := addFigure(&out, "Distribution of the SIR error (SIR − target) per distance bin, on a normal-probability scale.", fig, err); err != nil {
+		return nil, err
+	}
+	if len(rep.GetUsers()) > 0 {
+		minP, maxP := math.NaN(), math.NaN()
+		if il := rep.GetNormalisedScenario().GetInnerLoop(); il != nil {
+			minP, maxP = il.GetMinPowerDbm(), il.GetMaxPowerDbm()
+		}
+		fig, err := plots.PowerVsDistance(titled("Tx power against distance", title), runDistancePoints(rep), minP, maxP, "5th–95th percentile")
+		if err := addFigure(&out, "Mean transmit power of each user against its distance, with the 5th–95th percentile range and the power limits.", fig, err); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+func groupName(sc *pb.Scenario, g int32) string {
+	if gs := sc.GetGroups(); g >= 0 && int(g) < len(gs) && gs[g].GetName() != "" {
+		return gs[g].GetName()
+	}
+	return "group " + strconv.Itoa(int(g))
+}
+
+func runTraces(rep *pb.RunReport) []plots.Trace {
+	us := slices.Clone(rep.GetUsers())
+	sort.SliceStable(us, func(i, j int) bool { return us[i].GetDistanceM() < us[j].GetDistanceM() })
+	traced := map[int32]*pb.UserTrace{}
+	for _, t := range rep.GetTraces() {
+		traced[t.GetUser()] = t
+	}
+	var withTrace []*pb.UserFigures
+	for _, u := range us {
+		if traced[u.GetUser()] != nil {
+			withTrace = append(withTrace, u)
+		}
+	}
+	if len(withTrace) == 0 {
+		return nil
+	}
+	pick := slices.Compact([]*pb.UserFigures{withTrace[0], withTrace[len(withTrace)/2], withTrace[len(withTrace)-1]})
+	rate := rep.GetNormalisedScenario().GetInnerLoop().GetUpdateRateHz()
+	if !(rate > 0) {
+		rate = 1
+	}
+	var out []plots.Trace
+	for _, u := range pick {
+		t := traced[u.GetUser()]
+		tr := plots.Trace{Label: fmt.Sprintf("user %d (%s, %s m, %s km/h)", u.GetUser(),
+			groupName(rep.GetNormalisedScenario(), u.GetGroup()), num(u.GetDistanceM(), 0), num(u.GetSpeedKmh(), 0))}
+		for i, s := range t.GetSlots() {
+			tr.TimeS = append(tr.TimeS, float64(s)/rate)
+			tr.SIRDB = append(tr.SIRDB, at32(t.GetSirDb(), i))
+			tr.TargetDB = append(tr.TargetDB, at32(t.GetTargetDb(), i))
+			tr.TxPowerDBM = append(tr.TxPowerDBM, at32(t.GetTxPowerDbm(), i))
+		}
+		out = append(out, tr)
+	}
+	return out
+}
+
+func at32(v []float32, i int) float64 {
+	if i < len(v) {
+		return float64(v[i])
+	}
+	return math.NaN()
+}
+
+// runBinErrors: the empirical distribution of the traced samples after
+// warm-up per distance bin when traces are present, else the bin's
+// reported percentiles.
+func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution {
+	bins := rep.GetDistanceBins()
+	warm := rep.GetNormalisedScenario().GetRun().GetWarmupSlots()
+	dist := map[int32]float64{}
+	for _, u := range rep.GetUsers() {
+		dist[u.GetUser()] = u.GetDistanceM()
+	}
+	var out []plots.ErrorDistribution
+	for i, b := range bins {
+		users := "users"
+		if b.GetFigures().GetUsers() == 1 {
+			users = "user"
+		}
+		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d %s)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers(), users)}
+		for _, t := range rep.GetTraces() {
+			x := dist[t.GetUser()]
+			if !(x >= b.GetMinDistanceM() && (x < b.GetMaxDistanceM() || (i == len(bins)-1 && x <= b.GetMaxDistanceM()))) {
+				continue
+			}
+			for k, s := range t.GetSlots() {
+				if s < warm || k >= len(t.GetSirDb()) || k >= len(t.GetTargetDb()) {
+					continue
+				}
+				d.SamplesDB = append(d.SamplesDB, float64(t.GetSirDb()[k]-t.GetTargetDb()[k]))
+			}
+		}
+		if len(d.SamplesDB) == 0 {
+			d.Quantiles = quantiles(b.GetFigures().GetSirErrorPercentilesDb())
+		}
+		out = append(out, d)
+	}
+	if len(out) == 0 {
+		out = append(out, plots.ErrorDistribution{Label: "all users", Quantiles: quantiles(rep.GetAggregate().GetSirErrorPercentilesDb())})
+	}
+	return out
+}
+
+func quantiles(p *pb.Percentiles) []plots.Quantile {
+	if p == nil {
+		return nil
+	}
+	return []plots.Quantile{
+		{P: 0.01, ValueDB: p.GetP1().GetValue()}, {P: 0.05, ValueDB: p.GetP5().GetValue()},
+		{P: 0.5, ValueDB: p.GetP50().GetValue()}, {P: 0.95, ValueDB: p.GetP95().GetValue()},
+		{P: 0.99, ValueDB: p.GetP99().GetValue()},
+	}
+}
+
+func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
+	var pts []plots.DistancePoint
+	for _, u := range rep.GetUsers() {
+		f := u.GetFigures()
+		p := plots.DistancePoint{Group: groupName(rep.GetNormalisedScenario(), u.GetGroup()), DistanceM: u.GetDistanceM(),
+			TxMeanDBM: f.GetTxPowerMeanDbm().GetValue()}
+		if pc := f.GetTxPowerPercentilesDbm(); pc != nil {
+			p.TxLowDBM, p.TxHighDBM, p.HasPercent = pc.GetP5().GetValue(), pc.GetP95().GetValue(), true
+		}
+		pts = append(pts, p)
+	}
+	return pts
+}
+
+// axisLabel is "step 0.5 dB" for a value v of axis path p.
+func axisLabel(p string, v float64) string {
+	short := p[strings.LastIndexByte(p, '.')+1:]
+	unit := ""
+	for _, u := range []struct{ suf, unit string }{{"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_dbm", "dBm"}, {"_m", "m"}, {"_s", "s"}} {
+		if strings.HasSuffix(short, u.suf) {
+			short, unit = strings.TrimSuffix(short, u.suf), " "+u.unit
+			break
+		}
+	}
+	short = strings.ReplaceAll(short, "_", " ")
+	if short == "speed" {
+		return strconv.FormatFloat(v, 'g', 4, 64) + unit
+	}
+	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
+}
+
+// sweepFigures: a heat map of outage over step × update rate, outage and
+// SIR error std against step size (one line per value of the other axis),
+// or the SIR error distribution per point (at most 8 points).
+func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]figure, error) {
+	si, ri := -1, -1
+	for i, a := range axes {
+		switch a.GetPath() {
+		case stepPath:
+			si = i
+		case ratePath:
+			ri = i
+		}
+	}
+	var out []figure
+	switch {
+	case len(axes) == 2 && si >= 0 && ri >= 0:
+		g := plots.ObjectiveGrid{Objective: "outage (%)", LowerIsBetter: true}
+		for _, p := range pts {
+			g.StepDB = append(g.StepDB, p.GetCoordinates()[si])
+			g.UpdateRateHz = append(g.UpdateRateHz, p.GetCoordinates()[ri])
+		}
+		slices.Sort(g.StepDB)
+		slices.Sort(g.UpdateRateHz)
+		g.StepDB, g.UpdateRateHz = slices.Compact(g.StepDB), slices.Compact(g.UpdateRateHz)
+		g.Value = nanGrid(len(g.UpdateRateHz), len(g.StepDB))
+		for _, p := range pts {
+			c := p.GetCoordinates()
+			col, row := slices.Index(g.StepDB, c[si]), slices.Index(g.UpdateRateHz, c[ri])
+			g.Value[row][col] = 100 * p.GetReport().GetAggregate().GetOutageProbability().GetValue()
+		}
+		fig, err := plots.HeatMap(titled("outage (%) over step × update rate", title), g)
+		if err := addFigure(&out, "Outage of every grid point over inner-loop step size and update rate; the best cell is outlined.", fig, err); err != nil {
+			return nil, err
+		}
+	case si >= 0 && len(axes) <= 2:
+		oi := -1
+		for i := range axes {
+			if i != si {
+				oi = i
+			}
+		}
+		lines := map[float64]*plots.StepLine{}
+		var order []float64
+		for _, p := range pts {
+			c := p.GetCoordinates()
+			key, label := 0.0, "all"
+			if oi >= 0 {
+				key, label = c[oi], axisLabel(axes[oi].GetPath(), c[oi])
+			}
+			l := lines[key]
+			if l == nil {
+				l = &plots.StepLine{Label: label}
+				lines[key] = l
+				order = append(order, key)
+			}
+			f := p.GetReport().GetAggregate()
+			appendStep(l, c[si], 100*f.GetOutageProbability().GetValue(), 100*f.GetOutageProbability().GetCiLow(), 100*f.GetOutageProbability().GetCiHigh(),
+				f.GetSirErrorStdDb().GetValue(), f.GetSirErrorStdDb().GetCiLow(), f.GetSirErrorStdDb().GetCiHigh())
+		}
+		sort.Float64s(order)
+		var ls []plots.StepLine
+		for _, k := range order {
+			ls = append(ls, sortedStepLine(*lines[k]))
+		}
+		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size", title), ls)
+		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
+			return nil, err
+		}
+	case len(pts) <= 8:
+		var ds []plots.ErrorDistribution
+		for _, p := range pts {
+			var parts []string
+			for i, a := range axes {
+				if i < len(p.GetCoordinates()) {
+					parts = append(parts, axisLabel(a.GetPath(), p.GetCoordinates()[i]))
+				}
+			}
+			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
+				Quantiles: quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
+		}
+		fig, err := plots.SIRErrorCDF(titled("SIR error distribution per point", title), ds)
+		if err := addFigure(&out, "Distribution of the SIR error of every grid point (from its reported percentiles).", fig, err); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+func nanGrid(rows, cols int) [][]float64 {
+	v := make([][]float64, rows)
+	for r := range v {
+		v[r] = make([]float64, cols)
+		for c := range v[r] {
+			v[r][c] = math.NaN()
+		}
+	}
+	return v
+}
+
+func appendStep(l *plots.StepLine, step, o, olo, ohi, s, slo, shi float64) {
+	l.StepDB = append(l.StepDB, step)
+	l.OutagePct, l.OutageLowPct, l.OutageHighPct = append(l.OutagePct, o), append(l.OutageLowPct, olo), append(l.OutageHighPct, ohi)
+	l.ErrorStdDB, l.ErrorStdLowDB, l.ErrorStdHighDB = append(l.ErrorStdDB, s), append(l.ErrorStdLowDB, slo), append(l.ErrorStdHighDB, shi)
+}
+
+func sortedStepLine(l plots.StepLine) plots.StepLine {
+	idx := make([]int, len(l.StepDB))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return l.StepDB[idx[a]] < l.StepDB[idx[b]] })
+	perm := func(v []float64) []float64 {
+		out := make([]float64, len(v))
+		for i, j := range idx {
+			out[i] = v[j]
+		}
+		return out
+	}
+	return plots.StepLine{Label: l.Label, StepDB: perm(l.StepDB),
+		OutagePct: perm(l.OutagePct), OutageLowPct: perm(l.OutageLowPct), OutageHighPct: perm(l.OutageHighPct),
+		ErrorStdDB: perm(l.ErrorStdDB), ErrorStdLowDB: perm(l.ErrorStdLowDB), ErrorStdHighDB: perm(l.ErrorStdHighDB)}
+}
+
+// tuneFigures: the objective over step × update rate (when those are the
+// two axes), or outage and SIR error std against step size per condition
+// (when the step size is the only axis).
+func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
+	cands := rec.GetCandidates()
+	paths := map[string]int{}
+	if len(cands) > 0 {
+		for _, c := range cands[0].GetCoords() {
+			paths[c.GetPath()]++
+		}
+	}
+	coord := func(k int32, path string) float64 {
+		if k < 0 || int(k) >= len(cands) {
+			return math.NaN()
+		}
+		for _, c := range cands[k].GetCoords() {
+			if c.GetPath() == path {
+				return c.GetValue()
+			}
+		}
+		return math.NaN()
+	}
+	var out []figure
+	switch {
+	case len(paths) == 2 && paths[stepPath] == 1 && paths[ratePath] == 1:
+		scale, _, unit, name := objectiveUnit(rec.GetObjective().GetKind())
+		g := plots.ObjectiveGrid{Objective: name + " (" + unit + ")", LowerIsBetter: true}
+		if len(rec.GetConditions()) > 1 {
+			g.Objective = "weighted " + g.Objective
+		}
+		for i := range cands {
+			g.StepDB = append(g.StepDB, coord(int32(i), stepPath))
+			g.UpdateRateHz = append(g.UpdateRateHz, coord(int32(i), ratePath))
+		}
+		slices.Sort(g.StepDB)
+		slices.Sort(g.UpdateRateHz)
+		g.StepDB, g.UpdateRateHz = slices.Compact(g.StepDB), slices.Compact(g.UpdateRateHz)
+		g.Value = nanGrid(len(g.UpdateRateHz), len(g.StepDB))
+		for _, cr := range rec.GetOverallCandidates() {
+			col := slices.Index(g.StepDB, coord(cr.GetCandidate(), stepPath))
+			row := slices.Index(g.UpdateRateHz, coord(cr.GetCandidate(), ratePath))
+			if col >= 0 && row >= 0 {
+				g.Value[row][col] = scale * cr.GetObjective().GetMean()
+			}
+		}
+		fig, err := plots.HeatMap(titled(g.Objective+" over step × update rate", title), g)
+		if err := addFigure(&out, "The objective of every candidate over step size and update rate; the best cell is outlined.", fig, err); err != nil {
+			return nil, err
+		}
+	case len(paths) == 1 && paths[stepPath] == 1:
+		var ls []plots.StepLine
+		for _, c := range rec.GetConditions() {
+			l := plots.StepLine{Label: c.GetName()}
+			for _, cr := range c.GetCandidates() {
+				f := cr.GetFigures()
+				o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
+				appendStep(&l, coord(cr.GetCandidate(), stepPath), 100*o.GetMean(), 100*o.GetLow(), 100*o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
+			}
+			ls = append(ls, sortedStepLine(l))
+		}
+		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size per condition", title), ls)
+		if err := addFigure(&out, "Outage and SIR error standard deviation of every candidate per condition, with their intervals.", fig, err); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+// objectiveUnit returns the display scale, decimals, unit and name of an
+// objective.
+func objectiveUnit(k pb.ObjectiveKind) (scale float64, dec int, unit, name string) {
+	switch k {
+	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
+		return 100, 3, "%", "outage"
+	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
+		return 1, 2, "dBm", "mean Tx power"
+	}
+	return 1, 3, "dB", "SIR error std"
+}
+
+// num formats v with dec decimals; NaN and ±Inf as "–".
+func num(v float64, dec int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "–"
+	}
+	s := strconv.FormatFloat(v, 'f', dec, 64)
+	if s == "-0" || strings.Trim(s, "-0.") == "" && strings.HasPrefix(s, "-") {
+		s = s[1:]
+	}
+	return s
+}
