@@ -93,6 +93,7 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 // set. A service compares TapSlots with its bound before Tune builds the
 // grid.
 func TuneCost(req Request) (Cost, error) {
+	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell() // as Tune
 	grid, err := NewGrid(req.Base, req.Axes)
 	if err != nil {
 		return Cost{}, err
@@ -269,6 +270,14 @@ func tapsPerUser(sc loop.Scenario) int64 {
 		one := loop.Scenario{Groups: []loop.UserGroup{g}, Run: loop.RunSettings{Slots: 1, Replications: 1}}
 		one.Groups[0].Count = 1
 		taps = max(taps, one.Cost())
+	}
+	if sc.MultiCell() {
+		// Each user fades on up to max_active legs.
+		legs := sc.Layout.Handover.MaxActive
+		if legs <= 0 {
+			legs = loop.DefaultMaxActive
+		}
+		taps *= int64(legs)
 	}
 	return taps
 }
