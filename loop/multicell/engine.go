@@ -550,8 +550,8 @@ func (rp *rep) slot(t int64, k int) {
 			if c == us.best {
 				rp.own[c] += sig
 			}
-			sir := rp.pg * sig / math.Max(rp.rx[c]-sig, rp.noiseMW)
-			bestSIR = math.Max(bestSIR, sir)
+			sir := rp.pg * sig / fmax(rp.rx[c]-sig, rp.noiseMW)
+			bestSIR = fmax(bestSIR, sir)
 			us.legAcc[l] += sir
 			us.legN[l]++
 			if il.Mode == InnerModeClosedLoop {
@@ -635,9 +635,9 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 		return
 	}
 	if cmd > 0 {
-		us.p = math.Min(rp.pmax, us.p*rp.upLin)
+		us.p = fmin(rp.pmax, us.p*rp.upLin)
 	} else {
-		us.p = math.Max(rp.pmin, us.p*rp.downLin)
+		us.p = fmax(rp.pmin, us.p*rp.downLin)
 	}
 }
 
@@ -656,6 +656,22 @@ func (rp *rep) powers() []float64 {
 func (us *user) setTarget(db float64) {
 	us.targetDB = db
 	us.target = dbToLin(db)
+}
+
+// fmax and fmin are math.Max and math.Min for the engine's finite values
+// (no NaN or signed-zero handling: a plain comparison, cheaper per slot).
+func fmax(a, b float64) float64 {
+	if a > b {
+		return a
+	}
+	return b
+}
+
+func fmin(a, b float64) float64 {
+	if a < b {
+		return a
+	}
+	return b
 }
 
 // dbToLin is 10^(x/10).

@@ -105,7 +105,7 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 		mx = 1
 	}
 	li := min(us.nLegs, LegStates) - 1
-	errDB := 10*math.Log10(math.Max(sir, 1e-30)) - us.targetDB
+	errDB := 10*math.Log10(fmax(sir, 1e-30)) - us.targetDB
 	txDBm := 10 * math.Log10(p)
 	b.userSlots++
 	b.outage += out
