@@ -94,6 +94,7 @@ type user struct {
 	nLegs    int
 	best     int // best cell (largest slow gain) of the active set
 	p        float64
+	pDB      float64 // 10 log10(p), dBm (setP, or ± step_db per closed-loop step)
 	targetDB float64
 	target   float64 // 10^(targetDB/10)
 	cmds     []int8  // delay line of combined commands (+1 up, −1 down)
@@ -388,7 +389,7 @@ func (rp *rep) openLoopEstimate(u int, start bool) {
 		us.olEstDB[keep-1] = est
 	}
 	if start {
-		us.p = rp.clamp(math.Pow(10, rp.openLoopDBm(us)/10))
+		us.setP(rp.clamp(math.Pow(10, rp.openLoopDBm(us)/10)))
 	}
 }
 
@@ -595,7 +596,7 @@ func (rp *rep) slot(t int64, k int) {
 		switch il.Mode {
 		case InnerModeIdeal:
 			if bestSIR > 0 {
-				us.p = rp.clamp(us.p * us.target / bestSIR)
+				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
 		default:
 			d := len(us.cmds)
@@ -631,14 +632,30 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 		if pDBm <= rp.cfg.InnerLoop.MaxPowerDBm && pDBm >= rp.cfg.InnerLoop.MinPowerDBm {
 			us.olCorrDB = next
 		}
-		us.p = rp.clamp(dbToLin(base + us.olCorrDB))
+		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
 		return
 	}
+	// One step: the dB value follows by ±step_db without a logarithm,
+	// exact again at a limit.
 	if cmd > 0 {
-		us.p = fmin(rp.pmax, us.p*rp.upLin)
+		if np := us.p * rp.upLin; np < rp.pmax {
+			us.p, us.pDB = np, us.pDB+rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmax)
+		}
 	} else {
-		us.p = fmax(rp.pmin, us.p*rp.downLin)
+		if np := us.p * rp.downLin; np > rp.pmin {
+			us.p, us.pDB = np, us.pDB-rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmin)
+		}
 	}
+}
+
+// setP sets the transmit power in mW and its dBm value pDB.
+func (us *user) setP(p float64) {
+	us.p = p
+	us.pDB = 10 * math.Log10(p)
 }
 
 // powers returns the users' transmit powers of this slot (mW) in a reused slice.

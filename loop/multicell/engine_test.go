@@ -277,3 +277,44 @@ func TestCellNames(t *testing.T) {
 		t.Error("omni names")
 	}
 }
+
+// TestPowerDBTracksPower: the dBm value the engine keeps by adding ±step
+// stays equal to 10 log10 of the linear power (to rounding) over a run
+// with closed-loop steps, limits and the open loop.
+func TestPowerDBTracksPower(t *testing.T) {
+	for _, open := range []bool{false, true} {
+		cfg := smallLayout()
+		cfg.InnerLoop.MaxPowerDBm = -15 // many users sit at the limit
+		cfg.OpenLoop.Enabled = open
+		cfg.Normalise()
+		rp, err := newRep(cfg, 5, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for t0 := int64(0); t0 < 3000; t0 += blockSlots {
+			rp.fillFading(blockSlots)
+			for k := 0; k < blockSlots; k++ {
+				tt := t0 + int64(k)
+				if tt%int64(cfg.Channel.ShadowingSlots) == 0 {
+					rp.updateSlowGains(tt)
+				}
+				if tt%int64(cfg.Handover.UpdateSlots) == 0 {
+					rp.updateActiveSets(tt == 0)
+				}
+				rp.slot(tt, k)
+			}
+		}
+		atMax := 0
+		for u, us := range rp.users {
+			if d := math.Abs(us.pDB - 10*math.Log10(us.p)); d > 1e-9 {
+				t.Fatalf("open loop %v, user %d: pDB %.12f, 10 log10 p %.12f", open, u, us.pDB, 10*math.Log10(us.p))
+			}
+			if us.p == rp.pmax {
+				atMax++
+			}
+		}
+		if atMax == 0 {
+			t.Errorf("open loop %v: no user at max power; the limit path is not exercised", open)
+		}
+	}
+}

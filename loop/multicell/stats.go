@@ -106,7 +106,7 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 	}
 	li := min(us.nLegs, LegStates) - 1
 	errDB := 10*math.Log10(fmax(sir, 1e-30)) - us.targetDB
-	txDBm := 10 * math.Log10(p)
+	txDBm := us.pDB // = 10 log10(p), kept by the engine
 	b.userSlots++
 	b.outage += out
 	b.atMax += mx
