@@ -95,6 +95,10 @@ type Options struct {
 	// NoServiceConfig leaves out the built-in service config (retries and
 	// round_robin); a config from name resolution then applies.
 	NoServiceConfig bool
+	// BearerToken, when not empty, is sent with every call as
+	// "authorization: Bearer TOKEN" (a server started with a token
+	// requires it); see WithBearerToken.
+	BearerToken string
 }
 
 // Dial connects to a fadeloop server at address: "host:port", or any gRPC
@@ -124,6 +128,9 @@ func Dial(address string, opts Options) (*Client, error) {
 	}
 	if !opts.NoServiceConfig {
 		dopts = append(dopts, grpc.WithDefaultServiceConfig(ServiceConfig))
+	}
+	if opts.BearerToken != "" {
+		dopts = append(dopts, WithBearerToken(opts.BearerToken, tlsCfg != nil))
 	}
 	dopts = append(dopts, opts.DialOptions...)
 	conn, err := grpc.NewClient(address, dopts...)

@@ -6,9 +6,15 @@ import (
 	"fmt"
 	"math"
 	"regexp"
+	"runtime/debug"
 	"strings"
 	"sync"
+	"sync/atomic"
+	"time"
 	"unsafe"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
 
 	"github.com/fadeloop/fadeloop/fading"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -235,6 +241,7 @@ func (c *channelServer) StreamGains(req *pb.StreamGainsRequest, stream pb.Channe
 			}
 			n := int(min(int64(chunk), total-off))
 			fillGains(chans, b.samples, n, taps, workers)
+			s.gainsFilled.Add(int64(n))
 			if !isLittleEndian {
 				encodeLE(b.bytes, b.samples[:n*links*taps])
 			}
@@ -251,12 +258,24 @@ func (c *channelServer) StreamGains(req *pb.StreamGainsRequest, stream pb.Channe
 	})
 	var sent int64
 	resp := &pb.StreamGainsResponse{Links: int32(links), Taps: int32(taps)}
+	// A client that stops reading blocks Send once flow control is
+	// exhausted; after StreamIdleTimeout the stream is cut (see endStream).
+	idleTimeout := s.cfg.StreamIdleTimeout
+	idle := time.AfterFunc(idleTimeout, func() {
+		endStream(ctx, status.Errorf(codes.DeadlineExceeded,
+			"the client took no StreamGains chunk for %s (stream_idle_timeout); stream closed", idleTimeout))
+	})
+	idle.Stop()
+	defer idle.Stop()
 	for b := range ready {
 		resp.ChunkIndex = b.index
 		resp.SampleOffset = b.offset
 		resp.Samples = int32(b.n)
 		resp.Gains = b.bytes[:b.n*perSample]
-		if err := stream.Send(resp); err != nil {
+		idle.Reset(idleTimeout)
+		err := stream.Send(resp)
+		idle.Stop()
+		if err != nil {
 			cancel()
 			for range ready {
 			}
@@ -274,7 +293,9 @@ func (c *channelServer) StreamGains(req *pb.StreamGainsRequest, stream pb.Channe
 }
 
 // fillGains writes n samples of every link into dst ([link][sample][tap]),
-// splitting the links over workers goroutines.
+// splitting the links over workers goroutines. A panic in a worker is
+// re-raised in the caller (whose goroutine recovers it into INTERNAL), so
+// that it cannot kill the server.
 func fillGains(chans []*fading.Channel, dst []complex64, n, taps, workers int) {
 	per := n * taps
 	if workers <= 1 || len(chans) == 1 {
@@ -284,16 +305,36 @@ func fillGains(chans []*fading.Channel, dst []complex64, n, taps, workers int) {
 		return
 	}
 	var wg sync.WaitGroup
+	var panicked atomic.Pointer[workerPanic]
 	for w := range workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					panicked.CompareAndSwap(nil, &workerPanic{value: p, stack: debug.Stack()})
+				}
+			}()
 			for k := w; k < len(chans); k += workers {
 				chans[k].FillTaps(dst[k*per : (k+1)*per])
 			}
 		}()
 	}
 	wg.Wait()
+	if p := panicked.Load(); p != nil {
+		panic(p)
+	}
+}
+
+// workerPanic carries a worker goroutine's panic and stack to the goroutine
+// that started it.
+type workerPanic struct {
+	value any
+	stack []byte
+}
+
+func (p *workerPanic) Error() string {
+	return fmt.Sprintf("%v (in a worker goroutine:\n%s)", p.value, p.stack)
 }
 
 // encodeLE writes x as little-endian float32 pairs (big-endian machines).

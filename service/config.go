@@ -40,6 +40,21 @@ const (
 	// DefaultKeepaliveMinTime is the shortest client keepalive ping interval
 	// the server tolerates.
 	DefaultKeepaliveMinTime = 10 * time.Second
+	// DefaultStreamIdleTimeout is how long a stream may wait for its client:
+	// for StreamGains to take the next chunk, for Lockstep to send the next
+	// message.
+	DefaultStreamIdleTimeout = 2 * time.Minute
+	// DefaultMaxStreamsPerConnection bounds the calls open at once on one
+	// client connection (HTTP/2 SETTINGS_MAX_CONCURRENT_STREAMS); further
+	// calls wait in the client until one ends.
+	DefaultMaxStreamsPerConnection = 128
+	// DefaultMaxHealthWatchers bounds the grpc.health.v1 Watch streams open
+	// at once on a server.
+	DefaultMaxHealthWatchers = 1024
+	// DefaultStreamAbortGrace is how long a stream handler whose call has
+	// ended (cap, idle timeout, drain) gets to return by itself before the
+	// stream is closed under it.
+	DefaultStreamAbortGrace = time.Second
 	// DefaultProgressInterval is the default interval between progress
 	// events of Simulate.
 	DefaultProgressInterval = 250 * time.Millisecond
@@ -66,6 +81,29 @@ type Config struct {
 	// MaxLockstepStreams bounds concurrent Lockstep streams (default
 	// DefaultMaxLockstepStreams).
 	MaxLockstepStreams int
+	// MaxLockstepStreamsPerClient is the share of MaxLockstepStreams one
+	// client (one peer IP address) may hold at once, so that one client
+	// cannot lock the others out (default max(1, MaxLockstepStreams/4)).
+	MaxLockstepStreamsPerClient int
+	// StreamIdleTimeout ends a stream whose client stops reading
+	// (StreamGains: one chunk not taken within it) or sending (Lockstep: no
+	// message within it) with DEADLINE_EXCEEDED, releasing its slot
+	// (default DefaultStreamIdleTimeout).
+	StreamIdleTimeout time.Duration
+	// MaxStreamsPerConnection bounds the calls open at once on one
+	// connection (default DefaultMaxStreamsPerConnection).
+	MaxStreamsPerConnection int
+	// MaxHealthWatchers bounds the health Watch streams open at once;
+	// beyond it Watch gets RESOURCE_EXHAUSTED (default
+	// DefaultMaxHealthWatchers).
+	MaxHealthWatchers int
+	// AuthToken, when not empty, is the bearer token every call but the
+	// health checks must carry ("authorization: Bearer TOKEN" metadata);
+	// others get UNAUTHENTICATED. It is compared in constant time and never
+	// logged. Use it with TLS off loopback: plaintext exposes the token.
+	AuthToken string
+	// DisableReflection leaves the server reflection service out.
+	DisableReflection bool
 	// MaxCallDuration caps every call's deadline (default
 	// DefaultMaxCallDuration).
 	MaxCallDuration time.Duration
@@ -93,6 +131,9 @@ type Config struct {
 	// EngineParallelism is the number of sweep points computed at once;
 	// default runtime.GOMAXPROCS(0).
 	EngineParallelism int
+
+	// abortGrace overrides DefaultStreamAbortGrace (tests).
+	abortGrace time.Duration
 
 	// testHook, when set, is called by every handler after admission with
 	// the method name; tests use it to inject panics and delays.
@@ -129,6 +170,21 @@ func (c Config) withDefaults() (Config, error) {
 	}
 	if c.MaxLockstepStreams <= 0 {
 		c.MaxLockstepStreams = DefaultMaxLockstepStreams
+	}
+	if c.MaxLockstepStreamsPerClient <= 0 {
+		c.MaxLockstepStreamsPerClient = max(1, c.MaxLockstepStreams/4)
+	}
+	if c.StreamIdleTimeout <= 0 {
+		c.StreamIdleTimeout = DefaultStreamIdleTimeout
+	}
+	if c.MaxStreamsPerConnection <= 0 {
+		c.MaxStreamsPerConnection = DefaultMaxStreamsPerConnection
+	}
+	if c.MaxHealthWatchers <= 0 {
+		c.MaxHealthWatchers = DefaultMaxHealthWatchers
+	}
+	if c.abortGrace <= 0 {
+		c.abortGrace = DefaultStreamAbortGrace
 	}
 	if c.MaxCallDuration <= 0 {
 		c.MaxCallDuration = DefaultMaxCallDuration

@@ -9,6 +9,7 @@ import (
 	"log/slog"
 	"net"
 	"net/http"
+	"net/http/pprof"
 	"os"
 	"time"
 )
@@ -52,14 +53,50 @@ func ServerTLSConfig(certFile, keyFile, clientCAFile string) (*tls.Config, error
 type DaemonOptions struct {
 	Listen        string        // gRPC listen address host:port; port 0 picks a free port (logged as grpc_addr)
 	MetricsListen string        // Prometheus /metrics HTTP listen address; empty: no metrics listener
+	PprofListen   string        // net/http/pprof listen address, loopback only; empty: none
 	HTTPListen    string        // HTTP/JSON listen address (Connect, gRPC-Web, /v1/ routes; see Server.HTTPHandler); empty: none
-	DrainTimeout  time.Duration // how long in-flight calls may run after ctx ends before they are cancelled
+	DrainTimeout  time.Duration // how long in-flight calls may run after the drain notice before they are cancelled
 }
 
-// RunDaemon serves srv on o.Listen (and its metrics on o.MetricsListen)
-// until ctx ends, then drains it: health turns NOT_SERVING and in-flight
-// calls finish, for at most o.DrainTimeout or until stop ends, whichever is
-// first; remaining calls are then cancelled. It logs "listening" with the
+// checkLoopback accepts a host:port whose host is a loopback IP address or
+// "localhost" (the profiler exposes internals and must not be reachable
+// from the network).
+func checkLoopback(addr string) error {
+	host, _, err := net.SplitHostPort(addr)
+	if err != nil {
+		return err
+	}
+	if host == "localhost" {
+		return nil
+	}
+	if ip := net.ParseIP(host); ip != nil && ip.IsLoopback() {
+		return nil
+	}
+	return fmt.Errorf("%q is not a loopback address (use 127.0.0.1:PORT or [::1]:PORT)", addr)
+}
+
+// serveHTTP serves h on addr in the background and returns the server and
+// its bound address.
+func serveHTTP(logger *slog.Logger, what, addr string, h http.Handler) (*http.Server, string, error) {
+	lis, err := net.Listen("tcp", addr)
+	if err != nil {
+		return nil, "", fmt.Errorf("%s listen %s: %w", what, addr, err)
+	}
+	hs := &http.Server{Handler: h, ReadHeaderTimeout: 10 * time.Second}
+	go func() {
+		if err := hs.Serve(lis); err != nil && !errors.Is(err, http.ErrServerClosed) {
+			logger.Error(what+" listener failed", slog.String("error", err.Error()))
+		}
+	}()
+	return hs, lis.Addr().String(), nil
+}
+
+// RunDaemon serves srv on o.Listen (its metrics on o.MetricsListen, the
+// profiler on o.PprofListen) until ctx ends, then drains it: health turns
+// NOT_SERVING for Config.DrainNotice while calls are still accepted, then
+// new calls are refused and in-flight ones finish, for at most
+// o.DrainTimeout more or until stop ends, whichever is first; remaining
+// calls are then cancelled. It logs "listening" with the
 // bound address, "draining" and "stopped" through the server's logger.
 // fadeloopd and `fadeloop serve` both run their server through it.
 func RunDaemon(ctx, stop context.Context, srv *Server, o DaemonOptions) error {
@@ -71,27 +108,51 @@ func RunDaemon(ctx, stop context.Context, srv *Server, o DaemonOptions) error {
 	if err != nil {
 		return fmt.Errorf("listen %s: %w", o.Listen, err)
 	}
-	var metricsSrv *http.Server
-	if o.MetricsListen != "" {
-		mlis, err := net.Listen("tcp", o.MetricsListen)
-		if err != nil {
-			lis.Close()
-			return fmt.Errorf("metrics listen %s: %w", o.MetricsListen, err)
+	var side []*http.Server // metrics and profiler listeners
+	closeSide := func() {
+		for _, hs := range side {
+			sctx, scancel := context.WithTimeout(context.Background(), 5*time.Second)
+			_ = hs.Shutdown(sctx)
+			scancel()
 		}
+	}
+	if o.MetricsListen != "" {
 		mux := http.NewServeMux()
 		mux.Handle("/metrics", srv.MetricsHandler())
-		metricsSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
-		go func() {
-			if err := metricsSrv.Serve(mlis); err != nil && !errors.Is(err, http.ErrServerClosed) {
-				logger.Error("metrics listener failed", slog.String("error", err.Error()))
-			}
-		}()
-		logger.Info("metrics listening", slog.String("metrics_addr", mlis.Addr().String()))
+		hs, addr, err := serveHTTP(logger, "metrics", o.MetricsListen, mux)
+		if err != nil {
+			lis.Close()
+			return err
+		}
+		side = append(side, hs)
+		logger.Info("metrics listening", slog.String("metrics_addr", addr))
+	}
+	if o.PprofListen != "" {
+		if err := checkLoopback(o.PprofListen); err != nil {
+			lis.Close()
+			closeSide()
+			return fmt.Errorf("pprof listen: %w", err)
+		}
+		mux := http.NewServeMux()
+		mux.HandleFunc("/debug/pprof/", pprof.Index)
+		mux.HandleFunc("/debug/pprof/cmdline", pprof.Cmdline)
+		mux.HandleFunc("/debug/pprof/profile", pprof.Profile)
+		mux.HandleFunc("/debug/pprof/symbol", pprof.Symbol)
+		mux.HandleFunc("/debug/pprof/trace", pprof.Trace)
+		hs, addr, err := serveHTTP(logger, "pprof", o.PprofListen, mux)
+		if err != nil {
+			lis.Close()
+			closeSide()
+			return err
+		}
+		side = append(side, hs)
+		logger.Info("pprof listening", slog.String("pprof_addr", addr))
 	}
 	if o.HTTPListen != "" {
 		stopHTTP, err := serveHTTPFront(srv, o.HTTPListen, logger)
 		if err != nil {
 			lis.Close()
+			closeSide()
 			return err
 		}
 		defer stopHTTP()
@@ -106,16 +167,12 @@ func RunDaemon(ctx, stop context.Context, srv *Server, o DaemonOptions) error {
 	case err := <-serveErr:
 		return err
 	case <-ctx.Done():
-		logger.Info("draining", slog.Duration("drain_timeout", o.DrainTimeout))
+		logger.Info("draining", slog.Duration("drain_notice", srv.Config().DrainNotice), slog.Duration("drain_timeout", o.DrainTimeout))
 	}
-	dctx, cancel := context.WithTimeout(stop, o.DrainTimeout)
+	dctx, cancel := context.WithTimeout(stop, srv.Config().DrainNotice+o.DrainTimeout)
 	defer cancel()
 	drainErr := srv.Shutdown(dctx)
-	if metricsSrv != nil {
-		mctx, mcancel := context.WithTimeout(context.Background(), 5*time.Second)
-		_ = metricsSrv.Shutdown(mctx)
-		mcancel()
-	}
+	closeSide()
 	if err := <-serveErr; err != nil {
 		return err
 	}

@@ -41,7 +41,7 @@ func fuzzSeeds(t testing.TB) map[string]struct {
 	sc := smallScenario(t)
 	ls := slotMsg(0, 3, 4)
 	ls.GetSlot().Blocks = []*pb.BlockResult{{User: 1, Error: true}}
-	return map[string]struct {
+	seeds := map[string]struct {
 		kind uint8
 		msg  proto.Message
 	}{
@@ -51,6 +51,86 @@ func fuzzSeeds(t testing.TB) map[string]struct {
 		"sweep-small":     {fuzzSweep, &pb.SweepRequest{Base: sweepBase(t), Axes: sweepAxes()[:1], SeedMode: pb.SeedMode_SEED_MODE_COMMON}},
 		"lockstep-config": {fuzzLockstepFirst, lockstepConfig(2)},
 		"lockstep-slot":   {fuzzLockstepSlot, ls},
+	}
+	// Simulate seeds that reach the engine under the fuzz server's cost
+	// bound (TestFuzzSeedsReachEngine checks it): the JSON scenarios of
+	// testdata shrunk to a few users and slots, and small.json with each
+	// inner-loop mode and command, the EESM effective SIR and the outer
+	// loop off, so that mutations start from every engine path.
+	for name, sc := range engineSeedScenarios(t) {
+		seeds["simulate-"+name] = struct {
+			kind uint8
+			msg  proto.Message
+		}{fuzzSimulate, &pb.SimulateRequest{Scenario: sc, Traces: &pb.TraceOptions{DecimationSlots: 50}}}
+	}
+	return seeds
+}
+
+// shrink cuts a scenario to at most two users per group and 400 slots with
+// one replication.
+func shrink(sc *pb.Scenario) *pb.Scenario {
+	sc = proto.Clone(sc).(*pb.Scenario)
+	for _, g := range sc.GetGroups() {
+		if g.GetCount() > 2 {
+			g.Count = 2
+		}
+	}
+	if r := sc.GetRun(); r != nil {
+		r.Slots, r.WarmupSlots, r.Replications, r.Batches = 400, 40, 1, 20
+		r.DurationS = 0
+	}
+	return sc
+}
+
+func engineSeedScenarios(t testing.TB) map[string]*pb.Scenario {
+	out := map[string]*pb.Scenario{}
+	for _, name := range []string{"canonical", "dense_urban_macro", "motorway_120kmh"} {
+		out[name] = shrink(readScenario(t, name+".json"))
+	}
+	base := shrink(smallScenario(t))
+	variant := func(name string, edit func(sc *pb.Scenario)) {
+		sc := proto.Clone(base).(*pb.Scenario)
+		edit(sc)
+		out[name] = sc
+	}
+	variant("fixed-power", func(sc *pb.Scenario) { sc.InnerLoop.Mode = pb.InnerMode_INNER_MODE_FIXED_POWER })
+	variant("ideal", func(sc *pb.Scenario) { sc.InnerLoop.Mode = pb.InnerMode_INNER_MODE_IDEAL })
+	variant("multi-level", func(sc *pb.Scenario) { sc.InnerLoop.Command = pb.Command_COMMAND_MULTI_LEVEL })
+	variant("adaptive", func(sc *pb.Scenario) { sc.InnerLoop.Command = pb.Command_COMMAND_ADAPTIVE })
+	variant("eesm", func(sc *pb.Scenario) { sc.Link.EffectiveSir = pb.EffectiveSir_EFFECTIVE_SIR_EESM })
+	variant("outer-off", func(sc *pb.Scenario) { sc.OuterLoop.Enabled = false })
+	return out
+}
+
+// fuzzConfig is the server configuration of FuzzRequests: a tiny cost
+// bound so that each input runs in milliseconds.
+func fuzzConfig() Config {
+	return Config{MaxCost: 2e5, MaxCallDuration: 5 * time.Second, QueueTimeout: time.Second}
+}
+
+// TestFuzzSeedsReachEngine: every Simulate seed of the fuzz corpus is a
+// valid request within the fuzz server's cost bound, so the fuzzer's
+// mutations start inside the engine rather than at validation or
+// admission.
+func TestFuzzSeedsReachEngine(t *testing.T) {
+	env := startEnv(t, viaBufconn, fuzzConfig())
+	n := 0
+	for name, s := range fuzzSeeds(t) {
+		if s.kind != fuzzSimulate {
+			continue
+		}
+		n++
+		_, rep, err := simulate(context.Background(), env, s.msg.(*pb.SimulateRequest))
+		if err != nil {
+			t.Errorf("seed %s: %v", name, err)
+			continue
+		}
+		if rep.GetSimulatedUserSlots() == 0 {
+			t.Errorf("seed %s: no user-slots simulated", name)
+		}
+	}
+	if n < 10 {
+		t.Errorf("%d Simulate seeds, want at least 10", n)
 	}
 }
 
@@ -128,7 +208,7 @@ func FuzzRequests(f *testing.F) {
 	f.Add(uint8(fuzzSimulate), []byte{0x0a, 0x00})
 	f.Add(uint8(fuzzLockstepSlot), []byte{0x12, 0x02, 0x08, 0x05})
 
-	env := startEnv(f, viaBufconn, Config{MaxCost: 2e5, MaxCallDuration: 5 * time.Second, QueueTimeout: time.Second})
+	env := startEnv(f, viaBufconn, fuzzConfig())
 	f.Fuzz(func(t *testing.T, kind uint8, data []byte) {
 		kind %= fuzzKinds
 		ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)

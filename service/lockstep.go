@@ -1,17 +1,69 @@
 package service
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io"
 	"math"
+	"net"
 	"strings"
+	"sync"
+	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/peer"
 	"google.golang.org/grpc/status"
 )
+
+// clientShare bounds the Lockstep streams one client (peer IP address) may
+// hold at once: a share of max_lockstep_streams, so that one client opening
+// streams and leaving them idle cannot lock every other client out.
+type clientShare struct {
+	mu    sync.Mutex
+	open  map[string]int
+	limit int
+	retry time.Duration
+}
+
+func newClientShare(limit int, retry time.Duration) *clientShare {
+	return &clientShare{open: map[string]int{}, limit: limit, retry: retry}
+}
+
+// acquire takes one stream of client's share, or returns RESOURCE_EXHAUSTED.
+func (c *clientShare) acquire(client string) (func(), error) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.open[client] >= c.limit {
+		return nil, overloaded(fmt.Sprintf(
+			"too many Lockstep streams from this client: %d open (max_lockstep_streams_per_client); close one or retry later", c.limit), c.retry)
+	}
+	c.open[client]++
+	return func() {
+		c.mu.Lock()
+		defer c.mu.Unlock()
+		if c.open[client]--; c.open[client] <= 0 {
+			delete(c.open, client)
+		}
+	}, nil
+}
+
+// peerKey is the client identity of a call for per-client shares: the
+// peer's IP address (all connections of one host share it), or the whole
+// address when it has no host part (in-memory transports).
+func peerKey(ctx context.Context) string {
+	p, ok := peer.FromContext(ctx)
+	if !ok || p.Addr == nil {
+		return ""
+	}
+	a := p.Addr.String()
+	if h, _, err := net.SplitHostPort(a); err == nil {
+		return h
+	}
+	return a
+}
 
 // loopServer implements fadeloop.v1.LoopService.
 type loopServer struct {
@@ -156,6 +208,26 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 		return err
 	}
 	defer release()
+	// Released before the server-wide place (deferred calls run last
+	// first): once the server-wide count drops, the client's share has.
+	releaseClient, err := s.perClient.acquire(peerKey(ctx))
+	if err != nil {
+		s.metrics.rejected.WithLabelValues("busy").Inc()
+		return err
+	}
+	defer releaseClient()
+	// A shutdown ends the stream (its client reconnects elsewhere); an idle
+	// client is cut after StreamIdleTimeout. Both free the stream's place.
+	stopDrain := context.AfterFunc(s.drainCtx, func() {
+		endStream(ctx, status.Error(codes.Unavailable, "server is shutting down; reconnect (to another replica) and resend the configuration"))
+	})
+	defer stopDrain()
+	idleTimeout := s.cfg.StreamIdleTimeout
+	idle := time.AfterFunc(idleTimeout, func() {
+		endStream(ctx, status.Errorf(codes.DeadlineExceeded,
+			"no Lockstep message from the client for %s (stream_idle_timeout); stream closed", idleTimeout))
+	})
+	defer idle.Stop()
 	s.hook(ctx, "Lockstep")
 
 	first, err := stream.Recv()
@@ -174,7 +246,10 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 	}
 	ci := infoFrom(ctx)
 	ci.cost.Store(int64(len(sess.ctls)))
+	// The idle timer runs while the stream waits for the client: in Recv
+	// for its next slot, and in Send when it does not read the replies.
 	for {
+		idle.Reset(idleTimeout)
 		req, err := stream.Recv()
 		if errors.Is(err, io.EOF) {
 			return nil
@@ -192,7 +267,9 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 		if vs := sess.checkSlot(slot); len(vs) > 0 {
 			return s.reject(vs)
 		}
-		if err := stream.Send(sess.step(slot)); err != nil {
+		err = stream.Send(sess.step(slot))
+		idle.Stop()
+		if err != nil {
 			return statusFromError(ctx, err)
 		}
 		ci.userSlots.Add(int64(len(sess.ctls)))

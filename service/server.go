@@ -23,7 +23,9 @@ import (
 
 // Server is a fadeloop gRPC server: ChannelService, SimulationService and
 // LoopService with validation, cost bound, admission control, logging,
-// panic recovery and metrics, plus grpc.health.v1 and server reflection.
+// panic recovery and metrics, plus grpc.health.v1 and server reflection
+// (unless Config.DisableReflection). Optional bearer-token authentication
+// (Config.AuthToken) covers every service but health.
 //
 // Typical use, in a daemon or in-process (the CLI's embedded mode):
 //
@@ -38,10 +40,18 @@ type Server struct {
 	metrics   *metrics
 	runs      *admission
 	lockstep  *limiter
+	perClient *clientShare
 	validator *protoValidator
 	draining  atomic.Bool
 	drained   chan struct{} // closed when health watchers should end
 	drainOnce sync.Once
+	// drainCtx ends when drained closes: open Lockstep streams end then
+	// (UNAVAILABLE), so that an idle one does not hold the shutdown open.
+	drainCtx    context.Context
+	drainCancel context.CancelFunc
+	// gainsFilled counts StreamGains samples per link generated (tests
+	// measure the work done after a cancel with it).
+	gainsFilled atomic.Int64
 }
 
 // healthService is grpc's health server whose Watch streams end when the
@@ -91,23 +101,38 @@ func NewServer(cfg Config) (*Server, error) {
 		metrics:   newMetrics(),
 		runs:      newAdmission(cfg.MaxConcurrentRuns, cfg.QueueLength, cfg.QueueTimeout, cfg.RetryAfter),
 		lockstep:  &limiter{limit: int64(cfg.MaxLockstepStreams), retry: cfg.RetryAfter},
+		perClient: newClientShare(cfg.MaxLockstepStreamsPerClient, cfg.RetryAfter),
 		validator: v,
 		drained:   make(chan struct{}),
 	}
+	s.drainCtx, s.drainCancel = context.WithCancel(context.Background())
 	s.runs.onWait = func(d int) { s.metrics.queued.Add(float64(d)) }
 
 	rec := recoveryHandler(cfg.Logger)
+	unary := []grpc.UnaryServerInterceptor{
+		s.metrics.grpc.UnaryServerInterceptor(),
+		loggingUnary(cfg.Logger, cfg.MaxCallDuration),
+		decodeUnary,
+	}
+	watchers := &watchLimit{limit: int64(cfg.MaxHealthWatchers), retry: cfg.RetryAfter}
+	stream := []grpc.StreamServerInterceptor{
+		s.metrics.grpc.StreamServerInterceptor(),
+		loggingStream(cfg.Logger, cfg.MaxCallDuration, cfg.abortGrace),
+		watchers.stream,
+	}
+	if cfg.AuthToken != "" {
+		a := newTokenAuth(cfg.AuthToken)
+		unary = append(unary, a.unary)
+		stream = append(stream, a.stream)
+	}
+	unary = append(unary, recovery.UnaryServerInterceptor(rec))
+	stream = append(stream, recovery.StreamServerInterceptor(rec))
 	opts := []grpc.ServerOption{
-		grpc.ChainUnaryInterceptor(
-			s.metrics.grpc.UnaryServerInterceptor(),
-			loggingUnary(cfg.Logger, cfg.MaxCallDuration),
-			recovery.UnaryServerInterceptor(rec),
-		),
-		grpc.ChainStreamInterceptor(
-			s.metrics.grpc.StreamServerInterceptor(),
-			loggingStream(cfg.Logger, cfg.MaxCallDuration),
-			recovery.StreamServerInterceptor(rec),
-		),
+		grpc.ChainUnaryInterceptor(unary...),
+		grpc.ChainStreamInterceptor(stream...),
+		// Undecodable requests are INVALID_ARGUMENT, not INTERNAL.
+		grpc.ForceServerCodecV2(newLenientCodec()),
+		grpc.MaxConcurrentStreams(uint32(cfg.MaxStreamsPerConnection)),
 		grpc.MaxRecvMsgSize(cfg.MaxRecvMessageBytes),
 		grpc.MaxSendMsgSize(cfg.MaxSendMessageBytes),
 		grpc.KeepaliveEnforcementPolicy(keepalive.EnforcementPolicy{
@@ -136,7 +161,9 @@ func NewServer(cfg Config) (*Server, error) {
 	pb.RegisterLoopServiceServer(s.grpc, &loopServer{s: s})
 	pb.RegisterInfoServiceServer(s.grpc, &infoServer{s: s})
 	healthpb.RegisterHealthServer(s.grpc, &healthService{Server: s.health, drained: s.drained})
-	reflection.Register(s.grpc)
+	if !cfg.DisableReflection {
+		reflection.Register(s.grpc)
+	}
 	s.metrics.grpc.InitializeMetrics(s.grpc)
 
 	s.health.SetServingStatus("", healthpb.HealthCheckResponse_SERVING)
@@ -169,7 +196,9 @@ func (s *Server) MetricsHandler() http.Handler { return s.metrics.handler() }
 
 // Shutdown drains the server: health turns NOT_SERVING (health watchers
 // are told, then their streams end), and after Config.DrainNotice no new
-// calls are accepted while in-flight calls run to completion. When ctx ends
+// calls are accepted while in-flight calls run to completion; open Lockstep
+// streams (interactive, without an end of their own) are then ended with
+// UNAVAILABLE so that their clients reconnect elsewhere. When ctx ends
 // first the remaining calls are cancelled and Shutdown returns ctx's error.
 func (s *Server) Shutdown(ctx context.Context) error {
 	s.draining.Store(true)
@@ -182,7 +211,7 @@ func (s *Server) Shutdown(ctx context.Context) error {
 		}
 		t.Stop()
 	}
-	s.drainOnce.Do(func() { close(s.drained) })
+	s.drainOnce.Do(s.markDrained)
 	done := make(chan struct{})
 	go func() {
 		s.grpc.GracefulStop()
@@ -198,11 +227,17 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	}
 }
 
+// markDrained ends health watchers and open Lockstep streams.
+func (s *Server) markDrained() {
+	close(s.drained)
+	s.drainCancel()
+}
+
 // Stop closes every connection and cancels every call at once.
 func (s *Server) Stop() {
 	s.draining.Store(true)
 	s.health.Shutdown()
-	s.drainOnce.Do(func() { close(s.drained) })
+	s.drainOnce.Do(s.markDrained)
 	s.grpc.Stop()
 }
 

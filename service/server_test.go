@@ -217,7 +217,7 @@ func TestGracefulShutdownCompletesInFlightCall(t *testing.T) {
 			<-entered
 			shut := make(chan error, 1)
 			go func() {
-				ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+				ctx, cancel := context.WithTimeout(context.Background(), guard)
 				defer cancel()
 				shut <- env.srv.Shutdown(ctx)
 			}()

@@ -157,6 +157,15 @@ func (p *SweepPlan) scenario(idx int64) (loop.Scenario, error) {
 // pointScenario builds grid point idx of g on base (normalised): the axis
 // values set, run.seed = PointSeed, normalised and validated.
 func pointScenario(base loop.Scenario, g *Grid, idx int64, mode SeedMode) (loop.Scenario, error) {
+	return PointScenario(base, g, idx, mode)
+}
+
+// PointScenario is the one home of a sweep point's scenario: grid point idx
+// of g applied to a copy of base (normalised), run.seed = PointSeed(base
+// run.seed, idx, mode), normalised and validated. RunPoint runs it; the
+// durable queue (service/jobs) ships it to its workers. Violations name the
+// grid point.
+func PointScenario(base loop.Scenario, g *Grid, idx int64, mode SeedMode) (loop.Scenario, error) {
 	pt := g.Point(int(idx))
 	sc, err := pt.ApplyTo(base)
 	if err != nil {
