@@ -114,6 +114,9 @@ func run(ctx context.Context, sc Scenario, opts RunOptions, hk *hooks) (*Report,
 	sc = sc.Clone()
 	sc.Normalise()
 	v := sc.Validate()
+	if sc.MultiCell() && len(v) == 0 {
+		v = append(v, Violation{"layout.sites", "a multi-cell scenario runs on the multi-cell engine (multicell.RunScenario), not loop.Run"})
+	}
 	if opts.Trace.Decimation < 0 {
 		v = append(v, Violation{"trace.decimation", fmt.Sprintf("must be >= 1, got %d", opts.Trace.Decimation)})
 	}

@@ -35,15 +35,25 @@ func groupFingerSet(sc Scenario, g int) fading.FingerSet {
 			p.Taps = append(p.Taps, fading.Tap{DelayNs: t.DelayNs, PowerDB: t.PowerDB})
 		}
 	}
+	return FingerSetFor(p, sc.Receiver, grp.LOS, grp.RicianKDB)
+}
+
+// FingerSetFor is the one place a tap-delay profile p becomes the RAKE
+// fingers of receiver r (single-cell engine and loop/multicell): unless r
+// is RAKE_FINGERS_IDEAL_EVERY_TAP, fading.ResolveFingers at r.ChipRateHz
+// with r.MaxFingers; with the ideal receiver p as is (every tap a finger,
+// kDB on the first tap when los, all power captured). On an invalid input
+// it returns p unmerged and never panics.
+func FingerSetFor(p fading.Profile, r Receiver, los bool, kDB float64) fading.FingerSet {
 	ideal := fading.FingerSet{Profile: p, Resolvable: len(p.Taps), CapturedFraction: 1}
-	if grp.LOS {
-		ideal.RicianKDB = grp.RicianKDB
+	if los {
+		ideal.RicianKDB = kDB
 	}
-	fs, err := fading.ResolveFingers(p, sc.Receiver.ChipRateHz, sc.Receiver.MaxFingers, grp.LOS, grp.RicianKDB)
+	fs, err := fading.ResolveFingers(p, r.ChipRateHz, r.MaxFingers, los, kDB)
 	if err != nil {
 		return ideal
 	}
-	if sc.Receiver.RakeFingers == RakeFingersIdealEveryTap {
+	if r.RakeFingers == RakeFingersIdealEveryTap {
 		ideal.Resolvable = fs.Resolvable
 		return ideal
 	}

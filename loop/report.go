@@ -133,6 +133,7 @@ type Report struct {
 	Traces             []UserTrace          `json:"traces"`
 	Notes              []string             `json:"notes"`         // caveats of this run (e.g. values beyond the histogram range)
 	GroupFingers       []GroupFingers       `json:"group_fingers"` // per group: taps, paths resolvable at the chip rate, fingers combined
+	Layout             *LayoutReport        `json:"layout"`        // multi-cell figures (layout.sites set), else nil
 }
 
 // pooledValues are the point values of set i over all replications (pool):

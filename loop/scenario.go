@@ -21,6 +21,7 @@ type Scenario struct {
 	OuterLoop OuterLoop   `json:"outer_loop"` // outer-loop settings, shared by all users
 	Link      LinkCurve   `json:"link"`       // link abstraction
 	Run       RunSettings `json:"run"`        // length, seed, replications, statistics
+	Layout    Layout      `json:"layout"`     // multi-cell layout; unset (sites 0): one cell with other_cell_ratio
 }
 
 // Receiver is the base-station receiver all users share.
@@ -345,6 +346,7 @@ func (sc *Scenario) Normalise() {
 	if rs.Batches == 0 {
 		rs.Batches = DefaultBatches
 	}
+	sc.normaliseLayout()
 }
 
 // TotalSlots is the number of slots per replication, warm-up included:
@@ -362,7 +364,8 @@ func (sc Scenario) TotalSlots() int64 {
 }
 
 // Users is the total number of users over all groups (negative counts
-// count as 0).
+// count as 0); in multi-cell mode every group's count is per cell, so the
+// sum is multiplied by the layout's cells.
 func (sc Scenario) Users() int {
 	n := 0
 	for _, g := range sc.Groups {
@@ -370,7 +373,7 @@ func (sc Scenario) Users() int {
 			n += g.Count
 		}
 	}
-	return n
+	return n * sc.Layout.Cells()
 }
 
 // ProcessingGain is G_p = chip_rate_hz / bit_rate_bps (linear).

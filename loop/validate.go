@@ -125,7 +125,7 @@ func (sc Scenario) Validate() Violations {
 	}
 	total := 0
 	for i, g := range sc.Groups {
-		c.group(fmt.Sprintf("groups[%d]", i), g, il.UpdateRateHz, rateOK)
+		c.group(fmt.Sprintf("groups[%d]", i), g, il.UpdateRateHz, rateOK, sc.MultiCell())
 		if g.Count > 0 {
 			total += min(g.Count, MaxUsers+1)
 		}
@@ -138,10 +138,13 @@ func (sc Scenario) Validate() Violations {
 	c.outer(sc.OuterLoop)
 	c.link(sc.Link)
 	c.run(sc)
+	if sc.MultiCell() {
+		c.validateLayout(sc)
+	}
 	return c.v
 }
 
-func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK bool) {
+func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK, multiCell bool) {
 	if len(g.Name) > 64 {
 		c.add(p+".name", "must be at most 64 characters, got %d", len(g.Name))
 	}
@@ -152,7 +155,12 @@ func (c *checker) group(p string, g UserGroup, rateHz float64, rateOK bool) {
 	}
 	// Placement and the distance range it implies.
 	dmin, dmax := math.NaN(), math.NaN()
-	switch g.Placement {
+	placement := g.Placement
+	if multiCell && placement == PlacementUnspecified && len(g.DistancesM) == 0 && g.MinDistanceM == 0 && g.MaxDistanceM == 0 {
+		placement = -1 // users are dropped in every cell of the layout
+	}
+	switch placement {
+	case -1:
 	case PlacementExplicit:
 		if countOK && len(g.DistancesM) != g.Count {
 			c.add(p+".distances_m", "must list exactly count (%d) distances for PLACEMENT_EXPLICIT, got %d", g.Count, len(g.DistancesM))
@@ -502,7 +510,7 @@ func (c *checker) run(sc Scenario) {
 
 // Cost is the work of a run in tap-user-slots: Σ_groups count × fingers ×
 // slots × replications (slots warm-up included; fingers as simulated, see
-// Receiver.RakeFingers), the users × slots × taps bound the service
+// Receiver.RakeFingers; in multi-cell mode × cells × max_active legs), the users × slots × taps bound the service
 // enforces. It saturates at math.MaxInt64 and never panics; an invalid
 // scenario may give any value.
 func (sc Scenario) Cost() int64 {
@@ -514,6 +522,10 @@ func (sc Scenario) Cost() int64 {
 		}
 	}
 	x := tapUsers * float64(sc.TotalSlots()) * float64(max(sc.Run.Replications, 1))
+	if sc.MultiCell() {
+		// Every cell's users, each with up to max_active faded legs.
+		x *= float64(sc.Layout.Cells()) * float64(max(sc.Layout.Handover.MaxActive, 1))
+	}
 	if x >= math.MaxInt64 {
 		return math.MaxInt64
 	}

@@ -23,6 +23,7 @@ func ReportToProto(r *loop.Report) *pb.RunReport {
 		WallTimeS:          r.WallTimeS,
 		UserSlotsPerS:      r.UserSlotsPerS,
 		Notes:              append([]string(nil), r.Notes...),
+		Layout:             layoutReportToProto(r.Layout),
 	}
 	if len(r.Users) > 0 {
 		m.Users = make([]*pb.UserFigures, len(r.Users))
@@ -139,6 +140,7 @@ func ReportFromProto(m *pb.RunReport) *loop.Report {
 		WallTimeS:          m.GetWallTimeS(),
 		UserSlotsPerS:      m.GetUserSlotsPerS(),
 		Notes:              append([]string(nil), m.GetNotes()...),
+		Layout:             layoutReportFromProto(m.GetLayout()),
 	}
 	f := m.GetFeasibility()
 	r.Feasibility = loop.Feasibility{

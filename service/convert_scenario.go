@@ -24,6 +24,7 @@ func ScenarioFromProto(m *pb.Scenario) loop.Scenario {
 		OuterLoop: outerLoopFromProto(m.GetOuterLoop()),
 		Link:      linkFromProto(m.GetLink()),
 		Run:       runFromProto(m.GetRun()),
+		Layout:    layoutFromProto(m.GetLayout()),
 	}
 	if gs := m.GetGroups(); len(gs) > 0 {
 		sc.Groups = make([]loop.UserGroup, len(gs))
@@ -189,6 +190,7 @@ func ScenarioToProto(sc loop.Scenario) *pb.Scenario {
 			DistanceBins:   i32(sc.Run.DistanceBins),
 			Batches:        i32(sc.Run.Batches),
 		},
+		Layout: layoutToProto(sc.Layout),
 	}
 	for _, g := range sc.Groups {
 		m.Groups = append(m.Groups, groupToProto(g))

@@ -35,6 +35,7 @@ func TestEnumsMirror(t *testing.T) {
 		{pb.LinkKind(0).Descriptor(), func(i int) string { return loop.LinkKind(i).String() }},
 		{pb.EffectiveSir(0).Descriptor(), func(i int) string { return loop.EffectiveSIR(i).String() }},
 		{pb.RakeFingers(0).Descriptor(), func(i int) string { return loop.RakeFingers(i).String() }},
+		{pb.FastFading(0).Descriptor(), func(i int) string { return loop.FastFading(i).String() }},
 	}
 	for _, c := range cases {
 		vals := c.desc.Values()

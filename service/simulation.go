@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -113,7 +114,7 @@ func (h *simulationServer) Simulate(req *pb.SimulateRequest, stream pb.Simulatio
 			}
 		}
 	}
-	rep, err := loop.Run(ctx, sc, loop.RunOptions{Progress: post, ProgressEvery: interval, Trace: topts})
+	rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{Progress: post, ProgressEvery: interval, Trace: topts})
 	close(mailbox)
 	sendErr := <-sendDone
 	if err != nil {
@@ -177,6 +178,9 @@ func sweepPointToProto(p *tune.SweepPoint, detailed bool) *pb.SweepPoint {
 	m := ReportToProto(p.Report)
 	if !detailed {
 		m.Users, m.DistanceBins, m.NormalisedScenario, m.Traces = nil, nil, nil, nil
+		if m.Layout != nil {
+			m.Layout.UserPoints = nil // per-user, like users
+		}
 	}
 	out := &pb.SweepPoint{Index: p.Index, Seed: p.Seed, Report: m, Label: p.Point.Label()}
 	var named bool

@@ -21,15 +21,19 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		gname = fmt.Sprintf(" (%q)", req.GetBase().GetGroups()[g].GetName())
 	}
 	limit := 100 * req.GetOutageLimit()
+	all := "users in all"
+	if req.GetBase().GetLayout().GetSites() != 0 {
+		all = "users per cell (isolated-cell pole below)" // multi-cell: counts are per cell
+	}
 	switch {
 	case res.GetBelowRange():
 		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: below the smallest count tried\n", g, gname, limit)
 	case res.GetAtRangeTop():
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: at least %d in the group, %d users in all (the largest count tried passes)\n",
-			g, gname, limit, res.GetCount(), res.GetTotalUsers())
+		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: at least %d in the group, %d %s (the largest count tried passes)\n",
+			g, gname, limit, res.GetCount(), res.GetTotalUsers(), all)
 	default:
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: %d in the group, %d users in all\n",
-			g, gname, limit, res.GetCount(), res.GetTotalUsers())
+		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: %d in the group, %d %s\n",
+			g, gname, limit, res.GetCount(), res.GetTotalUsers(), all)
 	}
 	if res.GetPoleError() == "" {
 		pp := res.GetPoleParams()

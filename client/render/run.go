@@ -44,13 +44,14 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	t := NewTable("figure", "value", "95 % CI").AlignRight(1)
 	for _, f := range figures {
 		e := f.Get(agg)
-		if e == nil {
+		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
 			continue
 		}
 		t.Add(f.Label, Num(f.Scale*e.GetValue(), f.Dec),
 			"["+Num(f.Scale*e.GetCiLow(), f.Dec)+", "+Num(f.Scale*e.GetCiHigh(), f.Dec)+"]")
 	}
 	t.Write(w)
+	LayoutTable(w, rep)
 
 	cols := []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
 		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}

@@ -27,7 +27,8 @@ type Config struct {
 
 // Group is a user population: CountPerCell users per cell (so
 // CountPerCell·SectorsPerSite per site hexagon), at SpeedKmh, over a
-// built-in tap-delay profile (each tap a RAKE finger; see fading.BuiltinProfile).
+// built-in tap-delay profile whose taps become RAKE fingers as in one cell
+// (loop.FingerSetFor with the Receiver's rake_fingers and max_fingers).
 type Group struct {
 	Name         string  `json:"name"`
 	CountPerCell int     `json:"count_per_cell"` // [1, 1000]
@@ -37,10 +38,26 @@ type Group struct {
 
 // Receiver is each cell's receiver: processing gain W/R = chip_rate_hz /
 // bit_rate_bps, thermal noise −174 dBm/Hz + 10 log10(W) + noise figure.
+// Each leg's channel has one tap per RAKE finger, resolved from the group's
+// profile exactly as in the single-cell engine (loop.FingerSetFor: taps
+// less than one chip apart merge, at most max_fingers kept, unless
+// RAKE_FINGERS_IDEAL_EVERY_TAP); the power of dropped fingers is lost from
+// the user's gain toward every cell.
 type Receiver struct {
-	ChipRateHz    float64 `json:"chip_rate_hz"`    // W, default 3.84e6
-	BitRateBps    float64 `json:"bit_rate_bps"`    // R, default 12.2e3
-	NoiseFigureDB float64 `json:"noise_figure_db"` // [0, 30]; default 5 (common practice)
+	ChipRateHz    float64          `json:"chip_rate_hz"`    // W, default 3.84e6
+	BitRateBps    float64          `json:"bit_rate_bps"`    // R, default 12.2e3
+	NoiseFigureDB float64          `json:"noise_figure_db"` // [0, 30]; default 5 (common practice)
+	RakeFingers   loop.RakeFingers `json:"rake_fingers"`    // default RAKE_FINGERS_CHIP_RESOLVED
+	MaxFingers    int              `json:"max_fingers"`     // [1, 64]; default loop.DefaultMaxFingers
+}
+
+// fingers is group g's finger set at this receiver (loop.FingerSetFor).
+func (c Config) fingers(g int) (fading.FingerSet, error) {
+	p, err := fading.BuiltinProfile(c.Groups[g].Profile)
+	if err != nil {
+		return fading.FingerSet{}, err
+	}
+	return loop.FingerSetFor(p, loop.Receiver{ChipRateHz: c.Receiver.ChipRateHz, RakeFingers: c.Receiver.RakeFingers, MaxFingers: c.Receiver.MaxFingers}, false, 0), nil
 }
 
 // Channel is the propagation model: log-distance path loss
@@ -168,6 +185,10 @@ func (c *Config) Normalise() {
 	setF(&c.Receiver.ChipRateHz, loop.DefaultChipRateHz)
 	setF(&c.Receiver.BitRateBps, loop.DefaultBitRateBps)
 	setF(&c.Receiver.NoiseFigureDB, 5)
+	if c.Receiver.RakeFingers == loop.RakeFingersUnspecified {
+		c.Receiver.RakeFingers = loop.RakeFingersChipResolved
+	}
+	setI(&c.Receiver.MaxFingers, loop.DefaultMaxFingers)
 	setF(&c.Channel.PathLossExponent, 3.76)
 	setF(&c.Channel.LossAt1kmDB, 128.1)
 	setF(&c.Channel.MinDistanceM, 35)
@@ -246,6 +267,12 @@ func (c Config) Validate() loop.Violations {
 	in("receiver.chip_rate_hz", c.Receiver.ChipRateHz, 1e3, 1e9, " Hz")
 	in("receiver.bit_rate_bps", c.Receiver.BitRateBps, 1, c.Receiver.ChipRateHz, " bit/s")
 	in("receiver.noise_figure_db", c.Receiver.NoiseFigureDB, 0, 30, " dB")
+	if c.Receiver.RakeFingers != loop.RakeFingersChipResolved && c.Receiver.RakeFingers != loop.RakeFingersIdealEveryTap {
+		add("receiver.rake_fingers", "must be RAKE_FINGERS_CHIP_RESOLVED or RAKE_FINGERS_IDEAL_EVERY_TAP, got %d", c.Receiver.RakeFingers)
+	}
+	if c.Receiver.MaxFingers < 1 || c.Receiver.MaxFingers > fading.MaxFingers {
+		add("receiver.max_fingers", "must be in [1, %d], got %d", fading.MaxFingers, c.Receiver.MaxFingers)
+	}
 	in("channel.path_loss_exponent", c.Channel.PathLossExponent, 2, 6, "")
 	in("channel.loss_at_1km_db", c.Channel.LossAt1kmDB, 60, 200, " dB")
 	in("channel.min_distance_m", c.Channel.MinDistanceM, 1, math.Min(1000, c.Layout.InterSiteDistanceM/4), " m")

@@ -10,10 +10,19 @@
 // between sites and in distance travelled (Gudmundson); an active set of
 // the cells within a handover window of the best; Rayleigh fast fading on
 // the links of the active set (toward the other cells the slow gain, or
-// every link fading for small layouts); one closed loop per cell of the
+// every link fading for small layouts), each leg with one tap per RAKE
+// finger resolved from the group's profile exactly as in one cell
+// (loop.FingerSetFor: the receiver's rake_fingers and max_fingers at its
+// chip rate); one closed loop per cell of the
 // active set, the user raising its power only when every cell says up; the
 // jump-rule outer loop on the selection-combined block result; optional
 // open-loop power setting under the closed loop.
+//
+// A loop.Scenario with layout.sites set is a multi-cell scenario:
+// RunScenario is the one dispatch point between this engine and loop.Run
+// (used by loop/tune and the service), FromScenario converts the scenario
+// and ToLoopReport returns the report as a loop.Report with its Layout
+// section and the common figures filled.
 //
 // The package is pure Go (fading, loop, gonum); it never imports grpc or
 // generated code. Every draw comes from fading.NewStream streams derived

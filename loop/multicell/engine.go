@@ -94,6 +94,7 @@ type user struct {
 	nLegs    int
 	best     int // best cell (largest slow gain) of the active set
 	p        float64
+	pDB      float64 // 10 log10(p), dBm (setP, or ± step_db per closed-loop step)
 	targetDB float64
 	target   float64 // 10^(targetDB/10)
 	cmds     []int8  // delay line of combined commands (+1 up, −1 down)
@@ -122,8 +123,10 @@ type rep struct {
 	fullBuf  [][]float64
 	stats    *collector
 	shadowSD float64
-	blockN   int    // slots in the current fading block
-	cands    []cand // active-set evaluation, reused
+	blockN   int      // slots in the current fading block
+	fillWork chan int // block length to the fading helper (startFillHelper); nil without one
+	fillDone chan any // the helper's completion: its panic value or nil
+	cands    []cand   // active-set evaluation, reused
 	keep     []int
 }
 
@@ -139,6 +142,7 @@ func runReplication(ctx context.Context, cfg Config, r int) (*repResult, error) 
 	if err != nil {
 		return nil, err
 	}
+	defer rp.startFillHelper()()
 	total := cfg.Run.Slots
 	for t0 := int64(0); t0 < total; t0 += blockSlots {
 		if err := ctx.Err(); err != nil {
@@ -176,9 +180,14 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rate := cfg.InnerLoop.UpdateRateHz
 	u := 0
 	for gi, grp := range cfg.Groups {
-		prof, err := fading.BuiltinProfile(grp.Profile)
+		fs, err := cfg.fingers(gi)
 		if err != nil {
 			return nil, loop.Violations{{Field: "groups.profile", Rule: err.Error()}}
+		}
+		prof := fs.Profile
+		capturedDB := 0.0
+		if fs.CapturedFraction > 0 && fs.CapturedFraction < 1 {
+			capturedDB = 10 * math.Log10(fs.CapturedFraction)
 		}
 		fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
 		k := math.Exp(-grp.SpeedKmh / 3.6 * float64(cfg.Channel.ShadowingSlots) / rate / cfg.Channel.DecorrelationM)
@@ -200,7 +209,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 				for k := range g.sites {
 					_, _, dist := g.offset(k, us.x, us.y)
 					dist = math.Max(dist, cfg.Channel.MinDistanceM)
-					us.pathDB[k] = -(cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
+					us.pathDB[k] = capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
 				}
 				us.antLin = make([]float64, C)
 				for c := range g.cells {
@@ -251,7 +260,8 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		rp.fullBuf = make([][]float64, C*U)
 		for u, us := range rp.users {
 			grp := cfg.Groups[us.group]
-			prof, _ := fading.BuiltinProfile(grp.Profile)
+			fs, _ := cfg.fingers(us.group)
+			prof := fs.Profile
 			fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
 			for c := 0; c < C; c++ {
 				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fdHz, SampleRateHz: rate, Profile: prof}, seed, u*maxLegsPerUser*64+c)
@@ -278,7 +288,21 @@ func (rp *rep) fillFading(n int) {
 		return
 	}
 	rp.blockN = n
-	for u := range rp.users {
+	if rp.fillWork != nil {
+		// The helper fills users [U/2, U), this goroutine [0, U/2).
+		rp.fillWork <- n
+		rp.fillRange(0, rp.U/2, n)
+		if pv := <-rp.fillDone; pv != nil {
+			panic(pv) // recovered by Run as a PanicError
+		}
+		return
+	}
+	rp.fillRange(0, rp.U, n)
+}
+
+// fillRange fills the next n slots of the legs in use of users [lo, hi).
+func (rp *rep) fillRange(lo, hi, n int) {
+	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		for l, ch := range us.legCh {
 			if ch != nil && us.legs[l] >= 0 {
@@ -287,6 +311,35 @@ func (rp *rep) fillFading(n int) {
 		}
 	}
 }
+
+// startFillHelper starts, for a replication run alone (replications 1,
+// else replications already run in parallel) on two or more cores with at
+// least 2·minUsersPerFillPart users, a goroutine that fills the second half
+// of the users' fading each block. Every leg's channel is its own stream,
+// so the samples, and the report, are the same whatever the split
+// (determinism across GOMAXPROCS); the channels order the memory. It
+// allocates nothing per block. The returned function stops it.
+func (rp *rep) startFillHelper() func() {
+	if runtime.GOMAXPROCS(0) < 2 || rp.cfg.Run.Replications > 1 || rp.full || rp.U < 2*minUsersPerFillPart {
+		return func() {}
+	}
+	rp.fillWork = make(chan int)
+	rp.fillDone = make(chan any)
+	go func() {
+		for n := range rp.fillWork {
+			var pv any
+			func() {
+				defer func() { pv = recover() }()
+				rp.fillRange(rp.U/2, rp.U, n)
+			}()
+			rp.fillDone <- pv
+		}
+	}()
+	return func() { close(rp.fillWork) }
+}
+
+// minUsersPerFillPart is the fewest users per goroutine of fillFading.
+const minUsersPerFillPart = 64
 
 // updateSlowGains advances shadowing (Gudmundson AR(1) per part) and
 // recomputes every slow gain.
@@ -336,7 +389,7 @@ func (rp *rep) openLoopEstimate(u int, start bool) {
 		us.olEstDB[keep-1] = est
 	}
 	if start {
-		us.p = rp.clamp(math.Pow(10, rp.openLoopDBm(us)/10))
+		us.setP(rp.clamp(math.Pow(10, rp.openLoopDBm(us)/10)))
 	}
 }
 
@@ -498,8 +551,8 @@ func (rp *rep) slot(t int64, k int) {
 			if c == us.best {
 				rp.own[c] += sig
 			}
-			sir := rp.pg * sig / math.Max(rp.rx[c]-sig, rp.noiseMW)
-			bestSIR = math.Max(bestSIR, sir)
+			sir := rp.pg * sig / fmax(rp.rx[c]-sig, rp.noiseMW)
+			bestSIR = fmax(bestSIR, sir)
 			us.legAcc[l] += sir
 			us.legN[l]++
 			if il.Mode == InnerModeClosedLoop {
@@ -543,7 +596,7 @@ func (rp *rep) slot(t int64, k int) {
 		switch il.Mode {
 		case InnerModeIdeal:
 			if bestSIR > 0 {
-				us.p = rp.clamp(us.p * us.target / bestSIR)
+				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
 		default:
 			d := len(us.cmds)
@@ -579,14 +632,30 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 		if pDBm <= rp.cfg.InnerLoop.MaxPowerDBm && pDBm >= rp.cfg.InnerLoop.MinPowerDBm {
 			us.olCorrDB = next
 		}
-		us.p = rp.clamp(dbToLin(base + us.olCorrDB))
+		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
 		return
 	}
+	// One step: the dB value follows by ±step_db without a logarithm,
+	// exact again at a limit.
 	if cmd > 0 {
-		us.p = math.Min(rp.pmax, us.p*rp.upLin)
+		if np := us.p * rp.upLin; np < rp.pmax {
+			us.p, us.pDB = np, us.pDB+rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmax)
+		}
 	} else {
-		us.p = math.Max(rp.pmin, us.p*rp.downLin)
+		if np := us.p * rp.downLin; np > rp.pmin {
+			us.p, us.pDB = np, us.pDB-rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmin)
+		}
 	}
+}
+
+// setP sets the transmit power in mW and its dBm value pDB.
+func (us *user) setP(p float64) {
+	us.p = p
+	us.pDB = 10 * math.Log10(p)
 }
 
 // powers returns the users' transmit powers of this slot (mW) in a reused slice.
@@ -604,6 +673,22 @@ func (rp *rep) powers() []float64 {
 func (us *user) setTarget(db float64) {
 	us.targetDB = db
 	us.target = dbToLin(db)
+}
+
+// fmax and fmin are math.Max and math.Min for the engine's finite values
+// (no NaN or signed-zero handling: a plain comparison, cheaper per slot).
+func fmax(a, b float64) float64 {
+	if a > b {
+		return a
+	}
+	return b
+}
+
+func fmin(a, b float64) float64 {
+	if a < b {
+		return a
+	}
+	return b
 }
 
 // dbToLin is 10^(x/10).

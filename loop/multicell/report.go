@@ -29,50 +29,15 @@ type Report struct {
 
 // LegStates are the handover states reported separately: one, two, and
 // three or more cells in the active set.
-const LegStates = 3
+const LegStates = loop.LegStates
 
-// OverallFigures are the layout-wide figures.
-type OverallFigures struct {
-	OtherToOwn          loop.Estimate            `json:"other_to_own"`           // Σ other-cell / Σ own-cell interference over every cell, linear
-	NoiseRiseDB         loop.Estimate            `json:"noise_rise_db"`          // mean over cells and slots of 10 log10(I0/N0), dB
-	OutageProbability   loop.Estimate            `json:"outage_probability"`     // user-slots with combined SIR below target − margin
-	OutageByLegs        [LegStates]loop.Estimate `json:"outage_by_legs"`         // outage among user-slots with 1, 2, ≥3 legs
-	LegShare            [LegStates]loop.Estimate `json:"leg_share"`              // share of user-slots with 1, 2, ≥3 legs
-	SoftHandoverShare   loop.Estimate            `json:"soft_handover_share"`    // share of user-slots with ≥ 2 legs
-	TimeAtMaxPower      loop.Estimate            `json:"time_at_max_power"`      // share of user-slots at maximum power
-	TimeAtMaxByLegs     [LegStates]loop.Estimate `json:"time_at_max_by_legs"`    // the same among 1, 2, ≥3 legs
-	TimeAtMaxEdge       loop.Estimate            `json:"time_at_max_edge"`       // among users farther than 0.8·D/2 from the nearest site
-	SIRErrorMeanDB      loop.Estimate            `json:"sir_error_mean_db"`      // combined SIR − target, dB
-	SIRErrorStdDB       loop.Estimate            `json:"sir_error_std_db"`       // dB
-	TxPowerMeanDBm      loop.Estimate            `json:"tx_power_mean_dbm"`      // mean of the transmit power in dBm
-	AchievedBLER        loop.Estimate            `json:"achieved_bler"`          // selection-combined block error rate
-	OtherToOwnSpreadP5  float64                  `json:"other_to_own_spread_p5"` // 5th percentile over cells and slots of the per-slot ratio
-	OtherToOwnSpreadP95 float64                  `json:"other_to_own_spread_p95"`
-}
-
-// CellFigures are one cell's figures.
-type CellFigures struct {
-	Name           string        `json:"name"` // "S3" or "S3/2" (site 3, sector 2)
-	Site           int           `json:"site"`
-	OtherToOwn     loop.Estimate `json:"other_to_own"`
-	OtherToOwnP50  float64       `json:"other_to_own_p50"` // median of the per-slot ratio
-	OtherToOwnP95  float64       `json:"other_to_own_p95"`
-	NoiseRiseDB    loop.Estimate `json:"noise_rise_db"`
-	NoiseRiseP95DB float64       `json:"noise_rise_p95_db"`
-	ServedUsers    float64       `json:"served_users"` // mean number of users whose best cell this is
-}
-
-// UserPoint is one user of replication 0 for maps: position, best cell at
-// the end, mean legs, and its own outage and mean power.
-type UserPoint struct {
-	XM                float64 `json:"x_m"`
-	YM                float64 `json:"y_m"`
-	Group             int     `json:"group"`
-	BestCell          int     `json:"best_cell"`
-	MeanLegs          float64 `json:"mean_legs"`
-	OutageProbability float64 `json:"outage_probability"`
-	TxPowerMeanDBm    float64 `json:"tx_power_mean_dbm"`
-}
+// The figure types live in package loop (the report section of a Scenario
+// with a layout, mirrored by the fadeloop.v1 RunReport.layout message).
+type (
+	OverallFigures = loop.LayoutOverall   // layout-wide figures
+	CellFigures    = loop.LayoutCell      // one cell's figures
+	UserPoint      = loop.LayoutUserPoint // one user of replication 0, for maps
+)
 
 // tq is the 97.5 % quantile of Student's t with dof ≥ 1 degrees of freedom
 // (gonum distuv.StudentsT).

@@ -105,8 +105,8 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 		mx = 1
 	}
 	li := min(us.nLegs, LegStates) - 1
-	errDB := 10*math.Log10(math.Max(sir, 1e-30)) - us.targetDB
-	txDBm := 10 * math.Log10(p)
+	errDB := 10*math.Log10(fmax(sir, 1e-30)) - us.targetDB
+	txDBm := us.pDB // = 10 log10(p), kept by the engine
 	b.userSlots++
 	b.outage += out
 	b.atMax += mx
@@ -270,11 +270,14 @@ func merge(cfg Config, res []*repResult) *Report {
 	}
 	o := &rep.Overall
 	o.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.otherMW }, func(s *sums) float64 { return s.ownMW }))
-	o.NoiseRiseDB = ratio(func(s *sums) float64 { return s.noiseRiseDB }, func(s *sums) float64 { return s.slots * float64(C) })
+	o.NoiseRiseDB = nonNeg(ratio(func(s *sums) float64 { return s.noiseRiseDB }, func(s *sums) float64 { return s.slots * float64(C) }))
 	o.OutageProbability = prop(func(s *sums) float64 { return s.outage }, func(s *sums) float64 { return s.userSlots })
 	o.SoftHandoverShare = prop(func(s *sums) float64 { return s.userSlots - s.legSlots[0] }, func(s *sums) float64 { return s.userSlots })
 	o.TimeAtMaxPower = prop(func(s *sums) float64 { return s.atMax }, func(s *sums) float64 { return s.userSlots })
 	o.TimeAtMaxEdge = prop(func(s *sums) float64 { return s.edgeAtMax }, func(s *sums) float64 { return s.edgeSlots })
+	o.OutageByLegs = make([]loop.Estimate, LegStates)
+	o.LegShare = make([]loop.Estimate, LegStates)
+	o.TimeAtMaxByLegs = make([]loop.Estimate, LegStates)
 	for i := 0; i < LegStates; i++ {
 		o.OutageByLegs[i] = prop(func(s *sums) float64 { return s.legOutage[i] }, func(s *sums) float64 { return s.legSlots[i] })
 		o.LegShare[i] = prop(func(s *sums) float64 { return s.legSlots[i] }, func(s *sums) float64 { return s.userSlots })
@@ -299,6 +302,7 @@ func merge(cfg Config, res []*repResult) *Report {
 	o.AchievedBLER = prop(func(s *sums) float64 { return s.blockErrs }, func(s *sums) float64 { return s.blocks })
 
 	all := make([]uint32, histBins)
+	geo := newGeometry(cfg.Layout)
 	for c := 0; c < C; c++ {
 		ratioH := make([]uint32, histBins)
 		riseH := make([]uint32, histBins)
@@ -312,8 +316,12 @@ func merge(cfg Config, res []*repResult) *Report {
 			all[i] += ratioH[i]
 		}
 		cf := CellFigures{Name: cfg.Layout.CellName(c), Site: c / cfg.Layout.SectorsPerSite}
+		cf.SiteXM, cf.SiteYM = geo.sites[cf.Site].x, geo.sites[cf.Site].y
+		if b := geo.cells[c].boresight; !math.IsNaN(b) {
+			cf.BoresightDeg = b * 180 / math.Pi
+		}
 		cf.OtherToOwn = nonNeg(ratio(func(s *sums) float64 { return s.cellOtherMW[c] }, func(s *sums) float64 { return s.cellOwnMW[c] }))
-		cf.NoiseRiseDB = ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots })
+		cf.NoiseRiseDB = nonNeg(ratio(func(s *sums) float64 { return s.cellRise[c] }, func(s *sums) float64 { return s.slots }))
 		cf.OtherToOwnP50 = math.Pow(10, histPercentile(ratioH, 0.5)/10)
 		cf.OtherToOwnP95 = math.Pow(10, histPercentile(ratioH, 0.95)/10)
 		cf.NoiseRiseP95DB = histPercentile(riseH, 0.95)

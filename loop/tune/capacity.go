@@ -205,7 +205,12 @@ type CapacityResult struct {
 
 // Capacity finds, by bisection over the count of one group with common
 // random numbers, the largest count whose mean outage is at or below the
-// limit, and puts the analytic pole capacity beside it. Bad requests return
+// limit, and puts the analytic pole capacity beside it. With a layout
+// (multi-cell mode) the count is users per cell, outage and noise rise are
+// the layout-wide figures (noise rise: mean over cells), and the pole is
+// that of an isolated cell (f = receiver.other_cell_ratio = 0): the gap to
+// the simulated count shows what the simulated other-cell interference
+// costs. Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
 	return capacityWith(ctx, req, opt, runScenario)
@@ -366,6 +371,11 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		res.LimitedBy = failures(fail)
 	}
 	res.Headline, res.Reason = capacityReason(res, fail)
+	if base.MultiCell() {
+		// Counts, totals and the isolated-cell pole are per cell.
+		res.Headline = strings.ReplaceAll(res.Headline, " users", " users per cell")
+		res.Reason = strings.ReplaceAll(res.Reason, " users", " users per cell")
+	}
 	return res, nil
 }
 

@@ -7,6 +7,7 @@ import (
 	"math/bits"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // RunOverheadTapSlots is the fixed cost of one engine run (building,
@@ -92,6 +93,7 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 // set. A service compares TapSlots with its bound before Tune builds the
 // grid.
 func TuneCost(req Request) (Cost, error) {
+	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell() // as Tune
 	grid, err := NewGrid(req.Base, req.Axes)
 	if err != nil {
 		return Cost{}, err
@@ -151,10 +153,11 @@ func CapacityCost(req CapacityRequest) Cost {
 	if req.Group < 0 || req.Group >= len(base.Groups) {
 		return Cost{}
 	}
-	others := int64(base.Users() - max(base.Groups[req.Group].Count, 0))
+	cells := int64(base.Layout.Cells()) // multi-cell: counts are per cell
+	others := int64(base.Users())/cells - int64(max(base.Groups[req.Group].Count, 0))
 	hi := req.MaxCount
 	if hi <= 0 {
-		hi = loop.MaxUsers - int(others)
+		hi = capacityTop(base, int(others))
 	}
 	hi = max(hi, 1)
 	reps := int64(req.Replications)
@@ -162,7 +165,7 @@ func CapacityCost(req CapacityRequest) Cost {
 		reps = 4
 	}
 	steps := int64(2 * (bits.Len(uint(hi)) + 1))
-	users := 2*int64(hi) + int64(bits.Len(uint(hi))+1)*int64(hi) + steps*others
+	users := (2*int64(hi) + int64(bits.Len(uint(hi))+1)*int64(hi) + steps*others) * cells
 	us := satMul(satMul(users, reps), base.TotalSlots())
 	if req.MaxUserSlots > 0 && req.MaxUserSlots < us {
 		us = req.MaxUserSlots
@@ -207,8 +210,9 @@ func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
 	if !(nrLim > 0 && nrLim <= 40) {
 		add("noise_rise_limit_db", "must be in [0, 40] dB (0: the default %g dB), got %g", DefaultNoiseRiseLimitDB, req.NoiseRiseLimitDB)
 	}
-	others := base.Users() - max(base.Groups[req.Group].Count, 0)
-	top := loop.MaxUsers - others
+	// In multi-cell mode counts are per cell: others and top are per cell.
+	others := base.Users()/base.Layout.Cells() - max(base.Groups[req.Group].Count, 0)
+	top := capacityTop(base, others)
 	lo, hi := req.MinCount, req.MaxCount
 	if lo == 0 {
 		lo = 1
@@ -267,6 +271,14 @@ func tapsPerUser(sc loop.Scenario) int64 {
 		one.Groups[0].Count = 1
 		taps = max(taps, one.Cost())
 	}
+	if sc.MultiCell() {
+		// Each user fades on up to max_active legs.
+		legs := sc.Layout.Handover.MaxActive
+		if legs <= 0 {
+			legs = loop.DefaultMaxActive
+		}
+		taps *= int64(legs)
+	}
 	return taps
 }
 
@@ -321,4 +333,14 @@ func satAdd(a, b int64) int64 {
 		return math.MaxInt64
 	}
 	return a + b
+}
+
+// capacityTop is the largest count of the scaled group: the engine's user
+// limit less the other groups' users, per cell in multi-cell mode (also
+// within the multi-cell engine's per-cell and layout limits).
+func capacityTop(base loop.Scenario, others int) int {
+	if base.MultiCell() {
+		return min(multicell.MaxGroupSize, multicell.MaxUsers/base.Layout.Cells()-others)
+	}
+	return loop.MaxUsers - others
 }

@@ -67,6 +67,14 @@
 // FIXED_POWER) on the recommended candidate's seeds, and the Recommendation
 // reports the effort spent against the equal-allocation alternative.
 //
+// # Multi-cell scenarios
+//
+// Every run goes through multicell.RunScenario: a base scenario with a
+// layout (layout.sites set) runs on the multi-cell engine and is scored on
+// its layout-wide figures; axes and overrides may name layout fields
+// (layout.handover.window_db, …). Such a tune has no fixed-power baseline,
+// and a capacity search counts users per cell.
+//
 // # Capacity
 //
 // Capacity bisects the count of one group for the largest count whose mean

@@ -6,6 +6,7 @@ import (
 	"math"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // Scores of a load found infeasible before the run (see sampleOf): worse
@@ -16,11 +17,13 @@ const (
 	InfeasibleNoiseRiseDB = 100
 )
 
-// runScenario runs one replication of sc with loop.Run (sc.Run.Replications
-// is 1 and sc.Run.Seed the replication's seed) and takes the aggregate
-// figures of the report.
+// runScenario runs one replication of sc (sc.Run.Replications is 1 and
+// sc.Run.Seed the replication's seed) through multicell.RunScenario — the
+// single-cell engine loop.Run, or the multi-cell engine when layout.sites is
+// set — and takes the aggregate figures of the report (in multi-cell mode
+// the layout-wide figures).
 func runScenario(ctx context.Context, sc *loop.Scenario) (Sample, error) {
-	rep, err := loop.Run(ctx, *sc, loop.RunOptions{})
+	rep, err := multicell.RunScenario(ctx, *sc, loop.RunOptions{})
 	if err != nil {
 		return Sample{}, err
 	}

@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // MaxSweepViolations caps the violations one sweep check collects; the
@@ -233,7 +234,7 @@ func runPoint(ctx context.Context, base loop.Scenario, g *Grid, idx int64, mode 
 	if err != nil {
 		return nil, err
 	}
-	rep, err := loop.Run(ctx, sc, loop.RunOptions{})
+	rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{}) // single- or multi-cell engine
 	if err != nil {
 		return nil, err
 	}

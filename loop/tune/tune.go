@@ -85,7 +85,9 @@ type Request struct {
 	Confidence float64 `json:"confidence"`
 	// Budget bounds the effort.
 	Budget Budget `json:"budget"`
-	// SkipBaseline leaves out the fixed-power baseline runs.
+	// SkipBaseline leaves out the fixed-power baseline runs. A multi-cell
+	// base (layout.sites set) never has one: the multi-cell engine runs the
+	// closed loop or the ideal bound only.
 	SkipBaseline bool `json:"skip_baseline"`
 }
 
@@ -648,6 +650,7 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 // set. A service compares it with its cost bound before any work. It
 // saturates at math.MaxInt64.
 func (req Request) WorstCaseUserSlots() (int64, error) {
+	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell()
 	grid, err := NewGrid(req.Base, req.Axes)
 	if err != nil {
 		return 0, err
@@ -692,6 +695,7 @@ func Tune(ctx context.Context, req Request, opt Options) (*Recommendation, error
 }
 
 func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
+	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell()
 	grid, err := NewGrid(req.Base, req.Axes)
 	if err != nil {
 		return nil, err

@@ -159,6 +159,9 @@ func TestRunEveryScenario(t *testing.T) {
 			for _, g := range sf.Scenario.GetGroups() {
 				users += int(g.GetCount())
 			}
+			if l := sf.Scenario.GetLayout(); l.GetSites() > 0 {
+				users *= int(l.GetSites() * max(1, l.GetSectorsPerSite())) // counts are per cell
+			}
 			if rep.Aggregate.Users != users {
 				t.Errorf("report has %d users, file %d", rep.Aggregate.Users, users)
 			}
@@ -705,4 +708,54 @@ func TestHelpAndExample(t *testing.T) {
 	if !strings.HasPrefix(v.stdout, "fadeloop ") {
 		t.Errorf("version: %q", v.stdout)
 	}
+}
+
+// TestMultiCellRunAndMap: the multi-cell example runs from the CLI, prints
+// the layout figures (overall, by handover state, per cell) and draws the
+// map; testdata/scenarios/harbour_town.json is the example's JSON form.
+func TestMultiCellRunAndMap(t *testing.T) {
+	dir := os.Getenv("FADELOOP_PLOT_DIR")
+	if dir == "" {
+		dir = t.TempDir()
+	}
+	j := ok(t, "example", "--multi-cell", "--format", "json")
+	fromFile, err := client.LoadScenarioFile(filepath.Join(repoRoot, "testdata/scenarios/harbour_town.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	fromExample, err := client.ParseScenario("example", []byte(j.stdout))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !proto.Equal(fromFile.Scenario, fromExample.Scenario) {
+		t.Error("testdata/scenarios/harbour_town.json differs from fadeloop example --multi-cell --format json")
+	}
+	r := ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "2", "--quiet",
+		"--plot", "map="+filepath.Join(dir, "map.png"), "--plot", "map-power="+filepath.Join(dir, "map-power.svg"))
+	for _, want := range []string{"fadeloop-multicell", "other-cell / own-cell interference f", "soft-handover share (%)",
+		"by handover state", "S6/2", "noise rise 95th pct (dB)", "do not replace the operator's planning"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("run table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	if strings.Contains(r.stdout, "convergence time") {
+		t.Error("the multi-cell table prints a figure the engine does not compute")
+	}
+	checkPNG(t, filepath.Join(dir, "map.png"))
+	checkSVG(t, filepath.Join(dir, "map-power.svg"))
+	// A map needs a layout.
+	fl(t, "run", "testdata/scenarios/small.json", "--slots", "300", "--quiet", "--plot", "map="+filepath.Join(dir, "x.png")).want(t, 2)
+}
+
+// TestMultiCellSweepPlot: a sweep over the handover window and the step
+// draws f and outage against the window.
+func TestMultiCellSweepPlot(t *testing.T) {
+	dir := t.TempDir()
+	ok(t, "sweep", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "1", "--quiet",
+		"--axis", "layout.handover.window_db=0,6", "--axis", "inner_loop.step_db=0.5,2",
+		"--plot", "layout="+filepath.Join(dir, "layout.png"))
+	checkPNG(t, filepath.Join(dir, "layout.png"))
+	// Needs a layout.
+	fl(t, "sweep", "testdata/scenarios/small.json", "--slots", "300", "--quiet",
+		"--axis", "inner_loop.step_db=0.5,2", "--plot", "layout="+filepath.Join(dir, "x.png")).want(t, 2)
 }

@@ -59,9 +59,13 @@ Examples:
 YAML (or, with --format json, as protojson). Edit it and pass it to run,
 sweep or bench.
 
+With --multi-cell, writes a multi-cell example instead: an invented harbour
+town on 7 three-sector sites with soft handover (layout section).
+
 Examples:
   fadeloop example > cell.yaml
-  fadeloop example --format json --out cell.json`,
+  fadeloop example --format json --out cell.json
+  fadeloop example --multi-cell > town.yaml`,
 		run: runExample,
 	})
 	register(&command{
@@ -212,6 +216,7 @@ func tapsPerUser(sc *pb.Scenario, profiles []*pb.BuiltinProfile) (float64, error
 }
 
 func runExample(e *env, fs *flag.FlagSet) action {
+	multi := fs.Bool("multi-cell", false, "write the multi-cell example (a layout of sites with soft handover)")
 	return func(_ context.Context, args []string) error {
 		if err := noArgs(args); err != nil {
 			return err
@@ -224,8 +229,12 @@ func runExample(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		defer out.discard()
+		name, yaml := defaultScenarioName, defaultScenarioYAML
+		if *multi {
+			name, yaml = multiCellScenarioName, multiCellScenarioYAML
+		}
 		if e.g.format == "json" {
-			sf, err := client.ParseScenario(defaultScenarioName, defaultScenarioYAML)
+			sf, err := client.ParseScenario(name, yaml)
 			if err != nil {
 				return err
 			}
@@ -235,7 +244,7 @@ func runExample(e *env, fs *flag.FlagSet) action {
 			}
 			out.Writer().Write(b)
 		} else {
-			out.Writer().Write(defaultScenarioYAML)
+			out.Writer().Write(yaml)
 		}
 		return out.commit()
 	}

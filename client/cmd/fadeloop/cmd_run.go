@@ -149,14 +149,14 @@ func runRun(e *env, fs *flag.FlagSet) action {
 	ov.register(fs)
 	perUser := fs.Bool("per-user", false, "also print the figures of every user")
 	var plotSpecs plotList
-	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance); repeatable")
+	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance; multi-cell: map (users by outage), map-power); repeatable")
 	traceUsers := fs.String("trace-users", "", "comma-separated user `INDICES` to trace (default: nearest, median, farthest)")
 	tracePoints := fs.Int("trace-points", 1500, "about `N` samples per traced user")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
-		if err := plotSpecs.check("traces", "traces", "cdf", "distance"); err != nil {
+		if err := plotSpecs.check("traces", "traces", "cdf", "distance", "map", "map-power"); err != nil {
 			return err
 		}
 		users, err := parseIndexList(*traceUsers)
@@ -175,6 +175,12 @@ func runRun(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		req := &pb.SimulateRequest{Scenario: sc}
+		if sc.GetLayout().GetSites() != 0 && plotSpecs.needs("traces", "cdf", "distance") {
+			return badInputf("--plot: a multi-cell scenario draws map and map-power (traces, cdf and distance are single-cell plots)")
+		}
+		if sc.GetLayout().GetSites() == 0 && plotSpecs.needs("map", "map-power") {
+			return badInputf("--plot map: the scenario has no layout (set layout.sites; see fadeloop example --multi-cell)")
+		}
 		out, cl, release, err := e.session()
 		if err != nil {
 			return err

@@ -77,12 +77,12 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	detailed := fs.Bool("detailed", false, "keep per-user and per-bin figures in each point (json output)")
 	objective := fs.String("objective", "std", "heat map `OBJECTIVE`: std (SIR error std), outage, power (mean Tx power) or bler (|BLER − target|)")
 	var plotSpecs plotList
-	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf); repeatable")
+	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf; multi-cell: layout (f and outage against the first axis)); repeatable")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
-		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf"); err != nil {
+		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf", "layout"); err != nil {
 			return err
 		}
 		if _, ok := sweepObjectives[*objective]; !ok {

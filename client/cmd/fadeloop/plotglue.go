@@ -89,6 +89,8 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 		fig, err = plots.Traces("Traces — "+title, render.RunTraces(rep, users))
 	case "cdf":
 		fig, err = plots.SIRErrorCDF("SIR error distribution per distance bin — "+title, render.RunBinErrors(rep))
+	case "map", "map-power":
+		fig, err = layoutMap(title, ps.kind, rep)
 	case "distance":
 		minP, maxP := math.NaN(), math.NaN()
 		if il := rep.GetNormalisedScenario().GetInnerLoop(); il != nil {
@@ -168,6 +170,10 @@ func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 		paths[a.GetPath()]++
 	}
 	switch kind {
+	case "layout":
+		if len(axes) < 1 || len(axes) > 2 {
+			return badInputf("--plot layout=%s needs one or two axes (x, then one line per value of the second)", ps.file)
+		}
 	case "steps":
 		if paths[stepPath] != 1 || len(axes) > 2 {
 			return badInputf("--plot steps=%s needs the axis %s and at most one other axis (one line per value)", ps.file, stepPath)
@@ -191,6 +197,8 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		err error
 	)
 	switch kind {
+	case "layout":
+		fig, err = layoutSweepFigure(title, axes, pts)
 	case "cdf":
 		var ds []plots.ErrorDistribution
 		for _, p := range pts {

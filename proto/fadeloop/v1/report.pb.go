@@ -723,7 +723,10 @@ type RunReport struct {
 	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
 	// Per group: the profile's taps, the paths the receiver resolves at its
 	// chip rate and the fingers it combines.
-	GroupFingers  []*GroupFingers `protobuf:"bytes,15,rep,name=group_fingers,json=groupFingers,proto3" json:"group_fingers,omitempty"`
+	GroupFingers []*GroupFingers `protobuf:"bytes,15,rep,name=group_fingers,json=groupFingers,proto3" json:"group_fingers,omitempty"`
+	// Multi-cell figures, for a scenario with a layout; unset otherwise. The
+	// figures above are filled too (aggregate from the layout's figures).
+	Layout        *LayoutReport `protobuf:"bytes,16,opt,name=layout,proto3" json:"layout,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -863,6 +866,492 @@ func (x *RunReport) GetGroupFingers() []*GroupFingers {
 	return nil
 }
 
+func (x *RunReport) GetLayout() *LayoutReport {
+	if x != nil {
+		return x.Layout
+	}
+	return nil
+}
+
+// LayoutReport is the multi-cell section of a report: layout-wide figures,
+// per cell, and one point per user of replication 0 for maps. other_to_own
+// is the measured ratio of the interference a cell receives from users
+// served by other cells to that from its own users. Intervals are 95 %
+// (batch means with one replication, replications otherwise; Wilson for
+// proportions).
+type LayoutReport struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Layout-wide figures.
+	Overall *LayoutOverall `protobuf:"bytes,1,opt,name=overall,proto3" json:"overall,omitempty"`
+	// Per cell, in cell order.
+	Cells []*LayoutCell `protobuf:"bytes,2,rep,name=cells,proto3" json:"cells,omitempty"`
+	// Users of replication 0.
+	UserPoints    []*LayoutUserPoint `protobuf:"bytes,3,rep,name=user_points,json=userPoints,proto3" json:"user_points,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LayoutReport) Reset() {
+	*x = LayoutReport{}
+	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LayoutReport) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LayoutReport) ProtoMessage() {}
+
+func (x *LayoutReport) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LayoutReport.ProtoReflect.Descriptor instead.
+func (*LayoutReport) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{8}
+}
+
+func (x *LayoutReport) GetOverall() *LayoutOverall {
+	if x != nil {
+		return x.Overall
+	}
+	return nil
+}
+
+func (x *LayoutReport) GetCells() []*LayoutCell {
+	if x != nil {
+		return x.Cells
+	}
+	return nil
+}
+
+func (x *LayoutReport) GetUserPoints() []*LayoutUserPoint {
+	if x != nil {
+		return x.UserPoints
+	}
+	return nil
+}
+
+// LayoutOverall are the layout-wide figures. The *_by_legs and leg_share
+// lists have three entries: 1, 2 and 3 or more cells in the active set.
+type LayoutOverall struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Σ other-cell / Σ own-cell interference over every cell (linear).
+	OtherToOwn *Estimate `protobuf:"bytes,1,opt,name=other_to_own,json=otherToOwn,proto3" json:"other_to_own,omitempty"`
+	// Mean over cells and slots of the noise rise, dB.
+	NoiseRiseDb *Estimate `protobuf:"bytes,2,opt,name=noise_rise_db,json=noiseRiseDb,proto3" json:"noise_rise_db,omitempty"`
+	// Share of user-slots with combined SIR below target - margin.
+	OutageProbability *Estimate `protobuf:"bytes,3,opt,name=outage_probability,json=outageProbability,proto3" json:"outage_probability,omitempty"`
+	// Outage by handover state.
+	OutageByLegs []*Estimate `protobuf:"bytes,4,rep,name=outage_by_legs,json=outageByLegs,proto3" json:"outage_by_legs,omitempty"`
+	// Share of user-slots by handover state.
+	LegShare []*Estimate `protobuf:"bytes,5,rep,name=leg_share,json=legShare,proto3" json:"leg_share,omitempty"`
+	// Share of user-slots with two or more cells in the active set.
+	SoftHandoverShare *Estimate `protobuf:"bytes,6,opt,name=soft_handover_share,json=softHandoverShare,proto3" json:"soft_handover_share,omitempty"`
+	// Share of user-slots at maximum power.
+	TimeAtMaxPower *Estimate `protobuf:"bytes,7,opt,name=time_at_max_power,json=timeAtMaxPower,proto3" json:"time_at_max_power,omitempty"`
+	// Share at maximum power by handover state.
+	TimeAtMaxByLegs []*Estimate `protobuf:"bytes,8,rep,name=time_at_max_by_legs,json=timeAtMaxByLegs,proto3" json:"time_at_max_by_legs,omitempty"`
+	// Share at maximum power among users farther than 0.8·D/2 from their
+	// site.
+	TimeAtMaxEdge *Estimate `protobuf:"bytes,9,opt,name=time_at_max_edge,json=timeAtMaxEdge,proto3" json:"time_at_max_edge,omitempty"`
+	// Mean combined SIR minus target, dB.
+	SirErrorMeanDb *Estimate `protobuf:"bytes,10,opt,name=sir_error_mean_db,json=sirErrorMeanDb,proto3" json:"sir_error_mean_db,omitempty"`
+	// Standard deviation of the SIR error, dB.
+	SirErrorStdDb *Estimate `protobuf:"bytes,11,opt,name=sir_error_std_db,json=sirErrorStdDb,proto3" json:"sir_error_std_db,omitempty"`
+	// Mean transmit power, dBm.
+	TxPowerMeanDbm *Estimate `protobuf:"bytes,12,opt,name=tx_power_mean_dbm,json=txPowerMeanDbm,proto3" json:"tx_power_mean_dbm,omitempty"`
+	// Selection-combined block error rate.
+	AchievedBler *Estimate `protobuf:"bytes,13,opt,name=achieved_bler,json=achievedBler,proto3" json:"achieved_bler,omitempty"`
+	// 5th percentile over cells and slots of the per-slot other-to-own ratio.
+	OtherToOwnSpreadP5 float64 `protobuf:"fixed64,14,opt,name=other_to_own_spread_p5,json=otherToOwnSpreadP5,proto3" json:"other_to_own_spread_p5,omitempty"`
+	// 95th percentile of the same.
+	OtherToOwnSpreadP95 float64 `protobuf:"fixed64,15,opt,name=other_to_own_spread_p95,json=otherToOwnSpreadP95,proto3" json:"other_to_own_spread_p95,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
+}
+
+func (x *LayoutOverall) Reset() {
+	*x = LayoutOverall{}
+	mi := &file_fadeloop_v1_report_proto_msgTypes[9]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LayoutOverall) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LayoutOverall) ProtoMessage() {}
+
+func (x *LayoutOverall) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_report_proto_msgTypes[9]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LayoutOverall.ProtoReflect.Descriptor instead.
+func (*LayoutOverall) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{9}
+}
+
+func (x *LayoutOverall) GetOtherToOwn() *Estimate {
+	if x != nil {
+		return x.OtherToOwn
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetNoiseRiseDb() *Estimate {
+	if x != nil {
+		return x.NoiseRiseDb
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetOutageProbability() *Estimate {
+	if x != nil {
+		return x.OutageProbability
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetOutageByLegs() []*Estimate {
+	if x != nil {
+		return x.OutageByLegs
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetLegShare() []*Estimate {
+	if x != nil {
+		return x.LegShare
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetSoftHandoverShare() *Estimate {
+	if x != nil {
+		return x.SoftHandoverShare
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetTimeAtMaxPower() *Estimate {
+	if x != nil {
+		return x.TimeAtMaxPower
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetTimeAtMaxByLegs() []*Estimate {
+	if x != nil {
+		return x.TimeAtMaxByLegs
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetTimeAtMaxEdge() *Estimate {
+	if x != nil {
+		return x.TimeAtMaxEdge
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetSirErrorMeanDb() *Estimate {
+	if x != nil {
+		return x.SirErrorMeanDb
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetSirErrorStdDb() *Estimate {
+	if x != nil {
+		return x.SirErrorStdDb
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetTxPowerMeanDbm() *Estimate {
+	if x != nil {
+		return x.TxPowerMeanDbm
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetAchievedBler() *Estimate {
+	if x != nil {
+		return x.AchievedBler
+	}
+	return nil
+}
+
+func (x *LayoutOverall) GetOtherToOwnSpreadP5() float64 {
+	if x != nil {
+		return x.OtherToOwnSpreadP5
+	}
+	return 0
+}
+
+func (x *LayoutOverall) GetOtherToOwnSpreadP95() float64 {
+	if x != nil {
+		return x.OtherToOwnSpreadP95
+	}
+	return 0
+}
+
+// LayoutCell are one cell's figures.
+type LayoutCell struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// "S3" (omni site 3) or "S3/2" (site 3, sector 2).
+	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	// Site index.
+	Site int32 `protobuf:"varint,2,opt,name=site,proto3" json:"site,omitempty"`
+	// Other-cell to own-cell interference ratio (linear).
+	OtherToOwn *Estimate `protobuf:"bytes,3,opt,name=other_to_own,json=otherToOwn,proto3" json:"other_to_own,omitempty"`
+	// Median of the per-slot ratio.
+	OtherToOwnP50 float64 `protobuf:"fixed64,4,opt,name=other_to_own_p50,json=otherToOwnP50,proto3" json:"other_to_own_p50,omitempty"`
+	// 95th percentile of the per-slot ratio.
+	OtherToOwnP95 float64 `protobuf:"fixed64,5,opt,name=other_to_own_p95,json=otherToOwnP95,proto3" json:"other_to_own_p95,omitempty"`
+	// Mean noise rise, dB.
+	NoiseRiseDb *Estimate `protobuf:"bytes,6,opt,name=noise_rise_db,json=noiseRiseDb,proto3" json:"noise_rise_db,omitempty"`
+	// 95th percentile of the noise rise, dB.
+	NoiseRiseP95Db float64 `protobuf:"fixed64,7,opt,name=noise_rise_p95_db,json=noiseRiseP95Db,proto3" json:"noise_rise_p95_db,omitempty"`
+	// Mean number of users whose best cell this is.
+	ServedUsers float64 `protobuf:"fixed64,8,opt,name=served_users,json=servedUsers,proto3" json:"served_users,omitempty"`
+	// The cell's site position in m, central site at the origin.
+	SiteXM float64 `protobuf:"fixed64,9,opt,name=site_x_m,json=siteXM,proto3" json:"site_x_m,omitempty"`
+	// The cell's site position in m.
+	SiteYM float64 `protobuf:"fixed64,10,opt,name=site_y_m,json=siteYM,proto3" json:"site_y_m,omitempty"`
+	// Sector boresight in degrees anticlockwise from +x; 0 for an omni cell.
+	BoresightDeg  float64 `protobuf:"fixed64,11,opt,name=boresight_deg,json=boresightDeg,proto3" json:"boresight_deg,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LayoutCell) Reset() {
+	*x = LayoutCell{}
+	mi := &file_fadeloop_v1_report_proto_msgTypes[10]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LayoutCell) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LayoutCell) ProtoMessage() {}
+
+func (x *LayoutCell) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_report_proto_msgTypes[10]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LayoutCell.ProtoReflect.Descriptor instead.
+func (*LayoutCell) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{10}
+}
+
+func (x *LayoutCell) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *LayoutCell) GetSite() int32 {
+	if x != nil {
+		return x.Site
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetOtherToOwn() *Estimate {
+	if x != nil {
+		return x.OtherToOwn
+	}
+	return nil
+}
+
+func (x *LayoutCell) GetOtherToOwnP50() float64 {
+	if x != nil {
+		return x.OtherToOwnP50
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetOtherToOwnP95() float64 {
+	if x != nil {
+		return x.OtherToOwnP95
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetNoiseRiseDb() *Estimate {
+	if x != nil {
+		return x.NoiseRiseDb
+	}
+	return nil
+}
+
+func (x *LayoutCell) GetNoiseRiseP95Db() float64 {
+	if x != nil {
+		return x.NoiseRiseP95Db
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetServedUsers() float64 {
+	if x != nil {
+		return x.ServedUsers
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetSiteXM() float64 {
+	if x != nil {
+		return x.SiteXM
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetSiteYM() float64 {
+	if x != nil {
+		return x.SiteYM
+	}
+	return 0
+}
+
+func (x *LayoutCell) GetBoresightDeg() float64 {
+	if x != nil {
+		return x.BoresightDeg
+	}
+	return 0
+}
+
+// LayoutUserPoint is one user of replication 0, for maps.
+type LayoutUserPoint struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Position in m, central site at the origin.
+	XM float64 `protobuf:"fixed64,1,opt,name=x_m,json=xM,proto3" json:"x_m,omitempty"`
+	// Position in m.
+	YM float64 `protobuf:"fixed64,2,opt,name=y_m,json=yM,proto3" json:"y_m,omitempty"`
+	// Group index.
+	Group int32 `protobuf:"varint,3,opt,name=group,proto3" json:"group,omitempty"`
+	// Best cell at the end of the run.
+	BestCell int32 `protobuf:"varint,4,opt,name=best_cell,json=bestCell,proto3" json:"best_cell,omitempty"`
+	// Mean number of cells in the active set.
+	MeanLegs float64 `protobuf:"fixed64,5,opt,name=mean_legs,json=meanLegs,proto3" json:"mean_legs,omitempty"`
+	// The user's outage probability.
+	OutageProbability float64 `protobuf:"fixed64,6,opt,name=outage_probability,json=outageProbability,proto3" json:"outage_probability,omitempty"`
+	// The user's mean transmit power, dBm.
+	TxPowerMeanDbm float64 `protobuf:"fixed64,7,opt,name=tx_power_mean_dbm,json=txPowerMeanDbm,proto3" json:"tx_power_mean_dbm,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
+}
+
+func (x *LayoutUserPoint) Reset() {
+	*x = LayoutUserPoint{}
+	mi := &file_fadeloop_v1_report_proto_msgTypes[11]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LayoutUserPoint) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LayoutUserPoint) ProtoMessage() {}
+
+func (x *LayoutUserPoint) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_report_proto_msgTypes[11]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LayoutUserPoint.ProtoReflect.Descriptor instead.
+func (*LayoutUserPoint) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{11}
+}
+
+func (x *LayoutUserPoint) GetXM() float64 {
+	if x != nil {
+		return x.XM
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetYM() float64 {
+	if x != nil {
+		return x.YM
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetGroup() int32 {
+	if x != nil {
+		return x.Group
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetBestCell() int32 {
+	if x != nil {
+		return x.BestCell
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetMeanLegs() float64 {
+	if x != nil {
+		return x.MeanLegs
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetOutageProbability() float64 {
+	if x != nil {
+		return x.OutageProbability
+	}
+	return 0
+}
+
+func (x *LayoutUserPoint) GetTxPowerMeanDbm() float64 {
+	if x != nil {
+		return x.TxPowerMeanDbm
+	}
+	return 0
+}
+
 // GroupFingers is what the receiver makes of one group's tap-delay profile
 // (see Receiver.rake_fingers).
 type GroupFingers struct {
@@ -889,7 +1378,7 @@ type GroupFingers struct {
 
 func (x *GroupFingers) Reset() {
 	*x = GroupFingers{}
-	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	mi := &file_fadeloop_v1_report_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -901,7 +1390,7 @@ func (x *GroupFingers) String() string {
 func (*GroupFingers) ProtoMessage() {}
 
 func (x *GroupFingers) ProtoReflect() protoreflect.Message {
-	mi := &file_fadeloop_v1_report_proto_msgTypes[8]
+	mi := &file_fadeloop_v1_report_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -914,7 +1403,7 @@ func (x *GroupFingers) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GroupFingers.ProtoReflect.Descriptor instead.
 func (*GroupFingers) Descriptor() ([]byte, []int) {
-	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{8}
+	return file_fadeloop_v1_report_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *GroupFingers) GetGroup() int32 {
@@ -1023,7 +1512,7 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\ttarget_db\x18\x04 \x03(\x02R\btargetDb\x12 \n" +
 	"\ftx_power_dbm\x18\x05 \x03(\x02R\n" +
 	"txPowerDbm\x12&\n" +
-	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xaf\x05\n" +
+	"\x0fchannel_gain_db\x18\x06 \x03(\x02R\rchannelGainDb\"\xe2\x05\n" +
 	"\tRunReport\x122\n" +
 	"\taggregate\x18\x01 \x01(\v2\x14.fadeloop.v1.FiguresR\taggregate\x12.\n" +
 	"\x05users\x18\x02 \x03(\v2\x18.fadeloop.v1.UserFiguresR\x05users\x12D\n" +
@@ -1040,7 +1529,54 @@ const file_fadeloop_v1_report_proto_rawDesc = "" +
 	"\x10user_slots_per_s\x18\f \x01(\x01R\ruserSlotsPerS\x12.\n" +
 	"\x06traces\x18\r \x03(\v2\x16.fadeloop.v1.UserTraceR\x06traces\x12\x14\n" +
 	"\x05notes\x18\x0e \x03(\tR\x05notes\x12>\n" +
-	"\rgroup_fingers\x18\x0f \x03(\v2\x19.fadeloop.v1.GroupFingersR\fgroupFingers\"\xd4\x01\n" +
+	"\rgroup_fingers\x18\x0f \x03(\v2\x19.fadeloop.v1.GroupFingersR\fgroupFingers\x121\n" +
+	"\x06layout\x18\x10 \x01(\v2\x19.fadeloop.v1.LayoutReportR\x06layout\"\xb2\x01\n" +
+	"\fLayoutReport\x124\n" +
+	"\aoverall\x18\x01 \x01(\v2\x1a.fadeloop.v1.LayoutOverallR\aoverall\x12-\n" +
+	"\x05cells\x18\x02 \x03(\v2\x17.fadeloop.v1.LayoutCellR\x05cells\x12=\n" +
+	"\vuser_points\x18\x03 \x03(\v2\x1c.fadeloop.v1.LayoutUserPointR\n" +
+	"userPoints\"\xb2\a\n" +
+	"\rLayoutOverall\x127\n" +
+	"\fother_to_own\x18\x01 \x01(\v2\x15.fadeloop.v1.EstimateR\n" +
+	"otherToOwn\x129\n" +
+	"\rnoise_rise_db\x18\x02 \x01(\v2\x15.fadeloop.v1.EstimateR\vnoiseRiseDb\x12D\n" +
+	"\x12outage_probability\x18\x03 \x01(\v2\x15.fadeloop.v1.EstimateR\x11outageProbability\x12;\n" +
+	"\x0eoutage_by_legs\x18\x04 \x03(\v2\x15.fadeloop.v1.EstimateR\foutageByLegs\x122\n" +
+	"\tleg_share\x18\x05 \x03(\v2\x15.fadeloop.v1.EstimateR\blegShare\x12E\n" +
+	"\x13soft_handover_share\x18\x06 \x01(\v2\x15.fadeloop.v1.EstimateR\x11softHandoverShare\x12@\n" +
+	"\x11time_at_max_power\x18\a \x01(\v2\x15.fadeloop.v1.EstimateR\x0etimeAtMaxPower\x12C\n" +
+	"\x13time_at_max_by_legs\x18\b \x03(\v2\x15.fadeloop.v1.EstimateR\x0ftimeAtMaxByLegs\x12>\n" +
+	"\x10time_at_max_edge\x18\t \x01(\v2\x15.fadeloop.v1.EstimateR\rtimeAtMaxEdge\x12@\n" +
+	"\x11sir_error_mean_db\x18\n" +
+	" \x01(\v2\x15.fadeloop.v1.EstimateR\x0esirErrorMeanDb\x12>\n" +
+	"\x10sir_error_std_db\x18\v \x01(\v2\x15.fadeloop.v1.EstimateR\rsirErrorStdDb\x12@\n" +
+	"\x11tx_power_mean_dbm\x18\f \x01(\v2\x15.fadeloop.v1.EstimateR\x0etxPowerMeanDbm\x12:\n" +
+	"\rachieved_bler\x18\r \x01(\v2\x15.fadeloop.v1.EstimateR\fachievedBler\x122\n" +
+	"\x16other_to_own_spread_p5\x18\x0e \x01(\x01R\x12otherToOwnSpreadP5\x124\n" +
+	"\x17other_to_own_spread_p95\x18\x0f \x01(\x01R\x13otherToOwnSpreadP95\"\xa1\x03\n" +
+	"\n" +
+	"LayoutCell\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x12\n" +
+	"\x04site\x18\x02 \x01(\x05R\x04site\x127\n" +
+	"\fother_to_own\x18\x03 \x01(\v2\x15.fadeloop.v1.EstimateR\n" +
+	"otherToOwn\x12'\n" +
+	"\x10other_to_own_p50\x18\x04 \x01(\x01R\rotherToOwnP50\x12'\n" +
+	"\x10other_to_own_p95\x18\x05 \x01(\x01R\rotherToOwnP95\x129\n" +
+	"\rnoise_rise_db\x18\x06 \x01(\v2\x15.fadeloop.v1.EstimateR\vnoiseRiseDb\x12)\n" +
+	"\x11noise_rise_p95_db\x18\a \x01(\x01R\x0enoiseRiseP95Db\x12!\n" +
+	"\fserved_users\x18\b \x01(\x01R\vservedUsers\x12\x18\n" +
+	"\bsite_x_m\x18\t \x01(\x01R\x06siteXM\x12\x18\n" +
+	"\bsite_y_m\x18\n" +
+	" \x01(\x01R\x06siteYM\x12#\n" +
+	"\rboresight_deg\x18\v \x01(\x01R\fboresightDeg\"\xdd\x01\n" +
+	"\x0fLayoutUserPoint\x12\x0f\n" +
+	"\x03x_m\x18\x01 \x01(\x01R\x02xM\x12\x0f\n" +
+	"\x03y_m\x18\x02 \x01(\x01R\x02yM\x12\x14\n" +
+	"\x05group\x18\x03 \x01(\x05R\x05group\x12\x1b\n" +
+	"\tbest_cell\x18\x04 \x01(\x05R\bbestCell\x12\x1b\n" +
+	"\tmean_legs\x18\x05 \x01(\x01R\bmeanLegs\x12-\n" +
+	"\x12outage_probability\x18\x06 \x01(\x01R\x11outageProbability\x12)\n" +
+	"\x11tx_power_mean_dbm\x18\a \x01(\x01R\x0etxPowerMeanDbm\"\xd4\x01\n" +
 	"\fGroupFingers\x12\x14\n" +
 	"\x05group\x18\x01 \x01(\x05R\x05group\x12\x12\n" +
 	"\x04taps\x18\x02 \x01(\x05R\x04taps\x12)\n" +
@@ -1061,7 +1597,7 @@ func file_fadeloop_v1_report_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_report_proto_rawDescData
 }
 
-var file_fadeloop_v1_report_proto_msgTypes = make([]protoimpl.MessageInfo, 9)
+var file_fadeloop_v1_report_proto_msgTypes = make([]protoimpl.MessageInfo, 13)
 var file_fadeloop_v1_report_proto_goTypes = []any{
 	(*Estimate)(nil),           // 0: fadeloop.v1.Estimate
 	(*Percentiles)(nil),        // 1: fadeloop.v1.Percentiles
@@ -1071,8 +1607,12 @@ var file_fadeloop_v1_report_proto_goTypes = []any{
 	(*Feasibility)(nil),        // 5: fadeloop.v1.Feasibility
 	(*UserTrace)(nil),          // 6: fadeloop.v1.UserTrace
 	(*RunReport)(nil),          // 7: fadeloop.v1.RunReport
-	(*GroupFingers)(nil),       // 8: fadeloop.v1.GroupFingers
-	(*Scenario)(nil),           // 9: fadeloop.v1.Scenario
+	(*LayoutReport)(nil),       // 8: fadeloop.v1.LayoutReport
+	(*LayoutOverall)(nil),      // 9: fadeloop.v1.LayoutOverall
+	(*LayoutCell)(nil),         // 10: fadeloop.v1.LayoutCell
+	(*LayoutUserPoint)(nil),    // 11: fadeloop.v1.LayoutUserPoint
+	(*GroupFingers)(nil),       // 12: fadeloop.v1.GroupFingers
+	(*Scenario)(nil),           // 13: fadeloop.v1.Scenario
 }
 var file_fadeloop_v1_report_proto_depIdxs = []int32{
 	0,  // 0: fadeloop.v1.Percentiles.p1:type_name -> fadeloop.v1.Estimate
@@ -1098,14 +1638,33 @@ var file_fadeloop_v1_report_proto_depIdxs = []int32{
 	3,  // 20: fadeloop.v1.RunReport.users:type_name -> fadeloop.v1.UserFigures
 	4,  // 21: fadeloop.v1.RunReport.distance_bins:type_name -> fadeloop.v1.DistanceBinFigures
 	5,  // 22: fadeloop.v1.RunReport.feasibility:type_name -> fadeloop.v1.Feasibility
-	9,  // 23: fadeloop.v1.RunReport.normalised_scenario:type_name -> fadeloop.v1.Scenario
+	13, // 23: fadeloop.v1.RunReport.normalised_scenario:type_name -> fadeloop.v1.Scenario
 	6,  // 24: fadeloop.v1.RunReport.traces:type_name -> fadeloop.v1.UserTrace
-	8,  // 25: fadeloop.v1.RunReport.group_fingers:type_name -> fadeloop.v1.GroupFingers
-	26, // [26:26] is the sub-list for method output_type
-	26, // [26:26] is the sub-list for method input_type
-	26, // [26:26] is the sub-list for extension type_name
-	26, // [26:26] is the sub-list for extension extendee
-	0,  // [0:26] is the sub-list for field type_name
+	12, // 25: fadeloop.v1.RunReport.group_fingers:type_name -> fadeloop.v1.GroupFingers
+	8,  // 26: fadeloop.v1.RunReport.layout:type_name -> fadeloop.v1.LayoutReport
+	9,  // 27: fadeloop.v1.LayoutReport.overall:type_name -> fadeloop.v1.LayoutOverall
+	10, // 28: fadeloop.v1.LayoutReport.cells:type_name -> fadeloop.v1.LayoutCell
+	11, // 29: fadeloop.v1.LayoutReport.user_points:type_name -> fadeloop.v1.LayoutUserPoint
+	0,  // 30: fadeloop.v1.LayoutOverall.other_to_own:type_name -> fadeloop.v1.Estimate
+	0,  // 31: fadeloop.v1.LayoutOverall.noise_rise_db:type_name -> fadeloop.v1.Estimate
+	0,  // 32: fadeloop.v1.LayoutOverall.outage_probability:type_name -> fadeloop.v1.Estimate
+	0,  // 33: fadeloop.v1.LayoutOverall.outage_by_legs:type_name -> fadeloop.v1.Estimate
+	0,  // 34: fadeloop.v1.LayoutOverall.leg_share:type_name -> fadeloop.v1.Estimate
+	0,  // 35: fadeloop.v1.LayoutOverall.soft_handover_share:type_name -> fadeloop.v1.Estimate
+	0,  // 36: fadeloop.v1.LayoutOverall.time_at_max_power:type_name -> fadeloop.v1.Estimate
+	0,  // 37: fadeloop.v1.LayoutOverall.time_at_max_by_legs:type_name -> fadeloop.v1.Estimate
+	0,  // 38: fadeloop.v1.LayoutOverall.time_at_max_edge:type_name -> fadeloop.v1.Estimate
+	0,  // 39: fadeloop.v1.LayoutOverall.sir_error_mean_db:type_name -> fadeloop.v1.Estimate
+	0,  // 40: fadeloop.v1.LayoutOverall.sir_error_std_db:type_name -> fadeloop.v1.Estimate
+	0,  // 41: fadeloop.v1.LayoutOverall.tx_power_mean_dbm:type_name -> fadeloop.v1.Estimate
+	0,  // 42: fadeloop.v1.LayoutOverall.achieved_bler:type_name -> fadeloop.v1.Estimate
+	0,  // 43: fadeloop.v1.LayoutCell.other_to_own:type_name -> fadeloop.v1.Estimate
+	0,  // 44: fadeloop.v1.LayoutCell.noise_rise_db:type_name -> fadeloop.v1.Estimate
+	45, // [45:45] is the sub-list for method output_type
+	45, // [45:45] is the sub-list for method input_type
+	45, // [45:45] is the sub-list for extension type_name
+	45, // [45:45] is the sub-list for extension extendee
+	0,  // [0:45] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_report_proto_init() }
@@ -1120,7 +1679,7 @@ func file_fadeloop_v1_report_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_report_proto_rawDesc), len(file_fadeloop_v1_report_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   9,
+			NumMessages:   13,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -560,6 +560,64 @@ func (EffectiveSir) EnumDescriptor() ([]byte, []int) {
 	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{8}
 }
 
+// FastFading selects which links of a layout fade.
+type FastFading int32
+
+const (
+	// Not set: FAST_FADING_SLOW_TOWARD_OTHERS.
+	FastFading_FAST_FADING_UNSPECIFIED FastFading = 0
+	// Path loss and shadowing only.
+	FastFading_FAST_FADING_NONE FastFading = 1
+	// Rayleigh fading on the links of the active set; toward every other
+	// cell the slow gain (the fast fading of many interferers averages out).
+	FastFading_FAST_FADING_SLOW_TOWARD_OTHERS FastFading = 2
+	// Every link fades (users × cells at most 8192).
+	FastFading_FAST_FADING_FULL FastFading = 3
+)
+
+// Enum value maps for FastFading.
+var (
+	FastFading_name = map[int32]string{
+		0: "FAST_FADING_UNSPECIFIED",
+		1: "FAST_FADING_NONE",
+		2: "FAST_FADING_SLOW_TOWARD_OTHERS",
+		3: "FAST_FADING_FULL",
+	}
+	FastFading_value = map[string]int32{
+		"FAST_FADING_UNSPECIFIED":        0,
+		"FAST_FADING_NONE":               1,
+		"FAST_FADING_SLOW_TOWARD_OTHERS": 2,
+		"FAST_FADING_FULL":               3,
+	}
+)
+
+func (x FastFading) Enum() *FastFading {
+	p := new(FastFading)
+	*p = x
+	return p
+}
+
+func (x FastFading) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (FastFading) Descriptor() protoreflect.EnumDescriptor {
+	return file_fadeloop_v1_scenario_proto_enumTypes[9].Descriptor()
+}
+
+func (FastFading) Type() protoreflect.EnumType {
+	return &file_fadeloop_v1_scenario_proto_enumTypes[9]
+}
+
+func (x FastFading) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use FastFading.Descriptor instead.
+func (FastFading) EnumDescriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{9}
+}
+
 // Scenario is one uplink power-control simulation: a receiver, the user
 // groups sharing it, the inner and outer loop, the link curve that turns a
 // block's SIR into a block error probability, and the run settings. It
@@ -586,7 +644,12 @@ type Scenario struct {
 	Link *LinkCurve `protobuf:"bytes,6,opt,name=link,proto3" json:"link,omitempty"`
 	// Run length, seed, replications and statistics settings. Unset means
 	// 10 s, seed 0, one replication and the default statistics.
-	Run           *RunSettings `protobuf:"bytes,7,opt,name=run,proto3" json:"run,omitempty"`
+	Run *RunSettings `protobuf:"bytes,7,opt,name=run,proto3" json:"run,omitempty"`
+	// Multi-cell layout. Unset (sites 0) means one cell whose other-cell
+	// interference is receiver.other_cell_ratio; set, the run simulates every
+	// cell and reports RunReport.layout (see Layout for how the other fields
+	// apply).
+	Layout        *Layout `protobuf:"bytes,8,opt,name=layout,proto3" json:"layout,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -666,6 +729,13 @@ func (x *Scenario) GetLink() *LinkCurve {
 func (x *Scenario) GetRun() *RunSettings {
 	if x != nil {
 		return x.Run
+	}
+	return nil
+}
+
+func (x *Scenario) GetLayout() *Layout {
+	if x != nil {
+		return x.Layout
 	}
 	return nil
 }
@@ -1777,11 +1847,396 @@ func (x *RunSettings) GetBatches() int32 {
 	return 0
 }
 
+// Layout makes a scenario multi-cell: a hexagonal layout of sites in which
+// every cell's receiver sees every user, so that the other-cell
+// interference ratio, each cell's noise rise and the outage at the cell
+// edge are simulated. The rest of the scenario keeps its meaning: each
+// group's count is its users per cell, dropped uniformly in every cell, with
+// one speed and a built-in profile (one carrier for all groups); the
+// receiver (RAKE settings included) is every cell's; the inner loop
+// (CLOSED_LOOP with FIXED_STEP, or IDEAL) runs in every cell of a user's
+// active set and the user raises its power only when every cell says up
+// (3GPP TS 25.214 combining of commands from different radio link sets
+// (memory)); the outer loop runs on the selection-combined block result;
+// the link curve is LOGISTIC. receiver.other_cell_ratio must be 0.
+type Layout struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Sites: 0 (single cell) or 1, 7 or 19 hexagonal sites (centre and one or
+	// two rings).
+	Sites int32 `protobuf:"varint,1,opt,name=sites,proto3" json:"sites,omitempty"`
+	// Sectors per site: 1 (omni) or 3 (boresights 30°, 150°, 270°; antenna
+	// -min(12(θ/70°)², 20) dB, 3GPP TR 36.942 (memory)); 0 means 1.
+	SectorsPerSite int32 `protobuf:"varint,2,opt,name=sectors_per_site,json=sectorsPerSite,proto3" json:"sectors_per_site,omitempty"`
+	// Inter-site distance D in m, [50, 100000]; 0 means 1000 (common
+	// practice).
+	InterSiteDistanceM float64 `protobuf:"fixed64,3,opt,name=inter_site_distance_m,json=interSiteDistanceM,proto3" json:"inter_site_distance_m,omitempty"`
+	// Take every distance to the nearest image of a site (7 or 19 sites), so
+	// that every cell sees full rings of neighbours.
+	WrapAround bool `protobuf:"varint,4,opt,name=wrap_around,json=wrapAround,proto3" json:"wrap_around,omitempty"`
+	// Path loss, shadowing and fast fading toward every site.
+	Propagation *LayoutPropagation `protobuf:"bytes,5,opt,name=propagation,proto3" json:"propagation,omitempty"`
+	// Active set (soft handover).
+	Handover *Handover `protobuf:"bytes,6,opt,name=handover,proto3" json:"handover,omitempty"`
+	// Open-loop power setting under the closed loop.
+	OpenLoop      *OpenLoopSetting `protobuf:"bytes,7,opt,name=open_loop,json=openLoop,proto3" json:"open_loop,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Layout) Reset() {
+	*x = Layout{}
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[11]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Layout) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Layout) ProtoMessage() {}
+
+func (x *Layout) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[11]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Layout.ProtoReflect.Descriptor instead.
+func (*Layout) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{11}
+}
+
+func (x *Layout) GetSites() int32 {
+	if x != nil {
+		return x.Sites
+	}
+	return 0
+}
+
+func (x *Layout) GetSectorsPerSite() int32 {
+	if x != nil {
+		return x.SectorsPerSite
+	}
+	return 0
+}
+
+func (x *Layout) GetInterSiteDistanceM() float64 {
+	if x != nil {
+		return x.InterSiteDistanceM
+	}
+	return 0
+}
+
+func (x *Layout) GetWrapAround() bool {
+	if x != nil {
+		return x.WrapAround
+	}
+	return false
+}
+
+func (x *Layout) GetPropagation() *LayoutPropagation {
+	if x != nil {
+		return x.Propagation
+	}
+	return nil
+}
+
+func (x *Layout) GetHandover() *Handover {
+	if x != nil {
+		return x.Handover
+	}
+	return nil
+}
+
+func (x *Layout) GetOpenLoop() *OpenLoopSetting {
+	if x != nil {
+		return x.OpenLoop
+	}
+	return nil
+}
+
+// LayoutPropagation is the propagation toward every site: log-distance path
+// loss L = loss_at_1km_db + 10·n·log10(d / 1 km) for d >= min_distance_m,
+// log-normal shadowing correlated between sites (s_k = √ρ·a + √(1-ρ)·b_k)
+// and in distance travelled (Gudmundson).
+type LayoutPropagation struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Path-loss exponent n, [2, 6]; 0 means 3.76 (3GPP TR 25.942 (memory)).
+	PathLossExponent float64 `protobuf:"fixed64,1,opt,name=path_loss_exponent,json=pathLossExponent,proto3" json:"path_loss_exponent,omitempty"`
+	// Loss at 1 km in dB, [60, 200]; 0 means 128.1 (3GPP TR 25.942, 2 GHz
+	// (memory)).
+	LossAt_1KmDb float64 `protobuf:"fixed64,2,opt,name=loss_at_1km_db,json=lossAt1kmDb,proto3" json:"loss_at_1km_db,omitempty"`
+	// Minimum distance in m, [1, min(1000, D/4)]; 0 means 35 (3GPP TR 25.942
+	// (memory)).
+	MinDistanceM float64 `protobuf:"fixed64,3,opt,name=min_distance_m,json=minDistanceM,proto3" json:"min_distance_m,omitempty"`
+	// Shadowing standard deviation in dB, [0, 20]; 0: none.
+	ShadowingDb float64 `protobuf:"fixed64,4,opt,name=shadowing_db,json=shadowingDb,proto3" json:"shadowing_db,omitempty"`
+	// Shadowing correlation between sites, [0, 1] (0.5 is common practice).
+	SiteCorrelation float64 `protobuf:"fixed64,5,opt,name=site_correlation,json=siteCorrelation,proto3" json:"site_correlation,omitempty"`
+	// Gudmundson decorrelation distance in m, (0, 10000]; 0 means 50.
+	DecorrelationM float64 `protobuf:"fixed64,6,opt,name=decorrelation_m,json=decorrelationM,proto3" json:"decorrelation_m,omitempty"`
+	// Slots between shadowing updates, [1, 10000]; 0 means 15 (10 ms at
+	// 1500 Hz).
+	ShadowingSlots int32 `protobuf:"varint,7,opt,name=shadowing_slots,json=shadowingSlots,proto3" json:"shadowing_slots,omitempty"`
+	// Which links fade; unset means FAST_FADING_SLOW_TOWARD_OTHERS.
+	FastFading    FastFading `protobuf:"varint,8,opt,name=fast_fading,json=fastFading,proto3,enum=fadeloop.v1.FastFading" json:"fast_fading,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LayoutPropagation) Reset() {
+	*x = LayoutPropagation{}
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[12]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LayoutPropagation) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LayoutPropagation) ProtoMessage() {}
+
+func (x *LayoutPropagation) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[12]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LayoutPropagation.ProtoReflect.Descriptor instead.
+func (*LayoutPropagation) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{12}
+}
+
+func (x *LayoutPropagation) GetPathLossExponent() float64 {
+	if x != nil {
+		return x.PathLossExponent
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetLossAt_1KmDb() float64 {
+	if x != nil {
+		return x.LossAt_1KmDb
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetMinDistanceM() float64 {
+	if x != nil {
+		return x.MinDistanceM
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetShadowingDb() float64 {
+	if x != nil {
+		return x.ShadowingDb
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetSiteCorrelation() float64 {
+	if x != nil {
+		return x.SiteCorrelation
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetDecorrelationM() float64 {
+	if x != nil {
+		return x.DecorrelationM
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetShadowingSlots() int32 {
+	if x != nil {
+		return x.ShadowingSlots
+	}
+	return 0
+}
+
+func (x *LayoutPropagation) GetFastFading() FastFading {
+	if x != nil {
+		return x.FastFading
+	}
+	return FastFading_FAST_FADING_UNSPECIFIED
+}
+
+// Handover is the active set: the cells whose slow gain is within window_db
+// of the best (join within window_db - hysteresis_db/2, leave below
+// window_db + hysteresis_db/2; 3GPP TS 25.331 events 1A/1B (memory)), at
+// most max_active, re-evaluated every update_slots slots. max_active 1 with
+// window 0 is hard handover.
+type Handover struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Handover window in dB, [0, 20] (3 is common practice).
+	WindowDb float64 `protobuf:"fixed64,1,opt,name=window_db,json=windowDb,proto3" json:"window_db,omitempty"`
+	// Hysteresis in dB, [0, 10].
+	HysteresisDb float64 `protobuf:"fixed64,2,opt,name=hysteresis_db,json=hysteresisDb,proto3" json:"hysteresis_db,omitempty"`
+	// Most cells in the active set, [1, 6]; 0 means 3 (common practice).
+	MaxActive int32 `protobuf:"varint,3,opt,name=max_active,json=maxActive,proto3" json:"max_active,omitempty"`
+	// Slots between active-set updates, [1, 100000]; 0 means 300 (200 ms at
+	// 1500 Hz).
+	UpdateSlots   int32 `protobuf:"varint,4,opt,name=update_slots,json=updateSlots,proto3" json:"update_slots,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Handover) Reset() {
+	*x = Handover{}
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[13]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Handover) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Handover) ProtoMessage() {}
+
+func (x *Handover) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[13]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Handover.ProtoReflect.Descriptor instead.
+func (*Handover) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{13}
+}
+
+func (x *Handover) GetWindowDb() float64 {
+	if x != nil {
+		return x.WindowDb
+	}
+	return 0
+}
+
+func (x *Handover) GetHysteresisDb() float64 {
+	if x != nil {
+		return x.HysteresisDb
+	}
+	return 0
+}
+
+func (x *Handover) GetMaxActive() int32 {
+	if x != nil {
+		return x.MaxActive
+	}
+	return 0
+}
+
+func (x *Handover) GetUpdateSlots() int32 {
+	if x != nil {
+		return x.UpdateSlots
+	}
+	return 0
+}
+
+// OpenLoopSetting is open-loop power control under the closed loop: the
+// user sets P = target + I0_est - G_est from its estimate of the slow gain
+// to its best cell (true gain plus a log-normal error, delay_slots old) and
+// the thermal noise plus assumed_noise_rise_db; the closed loop adds its
+// corrections on top.
+type OpenLoopSetting struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Use open-loop setting.
+	Enabled bool `protobuf:"varint,1,opt,name=enabled,proto3" json:"enabled,omitempty"`
+	// Standard deviation of the path-gain estimation error in dB, [0, 20].
+	EstimationErrorDb float64 `protobuf:"fixed64,2,opt,name=estimation_error_db,json=estimationErrorDb,proto3" json:"estimation_error_db,omitempty"`
+	// Age of the estimate in slots, [0, 100000].
+	DelaySlots int32 `protobuf:"varint,3,opt,name=delay_slots,json=delaySlots,proto3" json:"delay_slots,omitempty"`
+	// Assumed noise rise in dB, [0, 30]; 0 means 3 (common practice).
+	AssumedNoiseRiseDb float64 `protobuf:"fixed64,4,opt,name=assumed_noise_rise_db,json=assumedNoiseRiseDb,proto3" json:"assumed_noise_rise_db,omitempty"`
+	unknownFields      protoimpl.UnknownFields
+	sizeCache          protoimpl.SizeCache
+}
+
+func (x *OpenLoopSetting) Reset() {
+	*x = OpenLoopSetting{}
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[14]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *OpenLoopSetting) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*OpenLoopSetting) ProtoMessage() {}
+
+func (x *OpenLoopSetting) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_scenario_proto_msgTypes[14]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use OpenLoopSetting.ProtoReflect.Descriptor instead.
+func (*OpenLoopSetting) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_scenario_proto_rawDescGZIP(), []int{14}
+}
+
+func (x *OpenLoopSetting) GetEnabled() bool {
+	if x != nil {
+		return x.Enabled
+	}
+	return false
+}
+
+func (x *OpenLoopSetting) GetEstimationErrorDb() float64 {
+	if x != nil {
+		return x.EstimationErrorDb
+	}
+	return 0
+}
+
+func (x *OpenLoopSetting) GetDelaySlots() int32 {
+	if x != nil {
+		return x.DelaySlots
+	}
+	return 0
+}
+
+func (x *OpenLoopSetting) GetAssumedNoiseRiseDb() float64 {
+	if x != nil {
+		return x.AssumedNoiseRiseDb
+	}
+	return 0
+}
+
 var File_fadeloop_v1_scenario_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\n" +
-	"\x1afadeloop/v1/scenario.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\"\xdd\x02\n" +
+	"\x1afadeloop/v1/scenario.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\"\x8a\x03\n" +
 	"\bScenario\x12\x1c\n" +
 	"\x04name\x18\x01 \x01(\tB\b\xbaH\x05r\x03\x18\x80\x01R\x04name\x121\n" +
 	"\breceiver\x18\x02 \x01(\v2\x15.fadeloop.v1.ReceiverR\breceiver\x12:\n" +
@@ -1792,7 +2247,8 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\n" +
 	"outer_loop\x18\x05 \x01(\v2\x16.fadeloop.v1.OuterLoopR\touterLoop\x12*\n" +
 	"\x04link\x18\x06 \x01(\v2\x16.fadeloop.v1.LinkCurveR\x04link\x12*\n" +
-	"\x03run\x18\a \x01(\v2\x18.fadeloop.v1.RunSettingsR\x03run\"\x8f\x04\n" +
+	"\x03run\x18\a \x01(\v2\x18.fadeloop.v1.RunSettingsR\x03run\x12+\n" +
+	"\x06layout\x18\b \x01(\v2\x13.fadeloop.v1.LayoutR\x06layout\"\x8f\x04\n" +
 	"\bReceiver\x12<\n" +
 	"\fchip_rate_hz\x18\x01 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00 _\xa0\x02B!\x00\x00\x00\x00\x00\x00\x00\x00R\n" +
 	"chipRateHz\x12<\n" +
@@ -1901,7 +2357,39 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\xd8\x01\x01\x1a\x05\x18\x90N(\x14R\abatches:\x18\xbaH\x15\"\x13\n" +
 	"\x05slots\n" +
 	"\n" +
-	"duration_s*m\n" +
+	"duration_s\"\x84\x03\n" +
+	"\x06Layout\x12#\n" +
+	"\x05sites\x18\x01 \x01(\x05B\r\xbaH\n" +
+	"\x1a\b0\x000\x010\a0\x13R\x05sites\x125\n" +
+	"\x10sectors_per_site\x18\x02 \x01(\x05B\v\xbaH\b\x1a\x060\x000\x010\x03R\x0esectorsPerSite\x12M\n" +
+	"\x15inter_site_distance_m\x18\x03 \x01(\x01B\x1a\xbaH\x17\xd8\x01\x01\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00I@R\x12interSiteDistanceM\x12\x1f\n" +
+	"\vwrap_around\x18\x04 \x01(\bR\n" +
+	"wrapAround\x12@\n" +
+	"\vpropagation\x18\x05 \x01(\v2\x1e.fadeloop.v1.LayoutPropagationR\vpropagation\x121\n" +
+	"\bhandover\x18\x06 \x01(\v2\x15.fadeloop.v1.HandoverR\bhandover\x129\n" +
+	"\topen_loop\x18\a \x01(\v2\x1c.fadeloop.v1.OpenLoopSettingR\bopenLoop\"\x98\x03\n" +
+	"\x11LayoutPropagation\x12,\n" +
+	"\x12path_loss_exponent\x18\x01 \x01(\x01R\x10pathLossExponent\x12#\n" +
+	"\x0eloss_at_1km_db\x18\x02 \x01(\x01R\vlossAt1kmDb\x12$\n" +
+	"\x0emin_distance_m\x18\x03 \x01(\x01R\fminDistanceM\x12:\n" +
+	"\fshadowing_db\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x00\x00\x00R\vshadowingDb\x12B\n" +
+	"\x10site_correlation\x18\x05 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00R\x0fsiteCorrelation\x12'\n" +
+	"\x0fdecorrelation_m\x18\x06 \x01(\x01R\x0edecorrelationM\x12'\n" +
+	"\x0fshadowing_slots\x18\a \x01(\x05R\x0eshadowingSlots\x128\n" +
+	"\vfast_fading\x18\b \x01(\x0e2\x17.fadeloop.v1.FastFadingR\n" +
+	"fastFading\"\xd8\x01\n" +
+	"\bHandover\x124\n" +
+	"\twindow_db\x18\x01 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x00\x00\x00R\bwindowDb\x12<\n" +
+	"\rhysteresis_db\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00R\fhysteresisDb\x12(\n" +
+	"\n" +
+	"max_active\x18\x03 \x01(\x05B\t\xbaH\x06\x1a\x04\x18\x06(\x00R\tmaxActive\x12.\n" +
+	"\fupdate_slots\x18\x04 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xa0\x8d\x06(\x00R\vupdateSlots\"\xee\x01\n" +
+	"\x0fOpenLoopSetting\x12\x18\n" +
+	"\aenabled\x18\x01 \x01(\bR\aenabled\x12G\n" +
+	"\x13estimation_error_db\x18\x02 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x004@)\x00\x00\x00\x00\x00\x00\x00\x00R\x11estimationErrorDb\x12,\n" +
+	"\vdelay_slots\x18\x03 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xa0\x8d\x06(\x00R\n" +
+	"delaySlots\x12J\n" +
+	"\x15assumed_noise_rise_db\x18\x04 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@)\x00\x00\x00\x00\x00\x00\x00\x00R\x12assumedNoiseRiseDb*m\n" +
 	"\vRakeFingers\x12\x1c\n" +
 	"\x18RAKE_FINGERS_UNSPECIFIED\x10\x00\x12\x1e\n" +
 	"\x1aRAKE_FINGERS_CHIP_RESOLVED\x10\x01\x12 \n" +
@@ -1947,7 +2435,13 @@ const file_fadeloop_v1_scenario_proto_rawDesc = "" +
 	"\fEffectiveSir\x12\x1d\n" +
 	"\x19EFFECTIVE_SIR_UNSPECIFIED\x10\x00\x12\x1d\n" +
 	"\x19EFFECTIVE_SIR_LINEAR_MEAN\x10\x01\x12\x16\n" +
-	"\x12EFFECTIVE_SIR_EESM\x10\x02B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
+	"\x12EFFECTIVE_SIR_EESM\x10\x02*y\n" +
+	"\n" +
+	"FastFading\x12\x1b\n" +
+	"\x17FAST_FADING_UNSPECIFIED\x10\x00\x12\x14\n" +
+	"\x10FAST_FADING_NONE\x10\x01\x12\"\n" +
+	"\x1eFAST_FADING_SLOW_TOWARD_OTHERS\x10\x02\x12\x14\n" +
+	"\x10FAST_FADING_FULL\x10\x03B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
 var (
 	file_fadeloop_v1_scenario_proto_rawDescOnce sync.Once
@@ -1961,55 +2455,65 @@ func file_fadeloop_v1_scenario_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_scenario_proto_rawDescData
 }
 
-var file_fadeloop_v1_scenario_proto_enumTypes = make([]protoimpl.EnumInfo, 9)
-var file_fadeloop_v1_scenario_proto_msgTypes = make([]protoimpl.MessageInfo, 11)
+var file_fadeloop_v1_scenario_proto_enumTypes = make([]protoimpl.EnumInfo, 10)
+var file_fadeloop_v1_scenario_proto_msgTypes = make([]protoimpl.MessageInfo, 15)
 var file_fadeloop_v1_scenario_proto_goTypes = []any{
-	(RakeFingers)(0),    // 0: fadeloop.v1.RakeFingers
-	(Placement)(0),      // 1: fadeloop.v1.Placement
-	(Generator)(0),      // 2: fadeloop.v1.Generator
-	(PathLossModel)(0),  // 3: fadeloop.v1.PathLossModel
-	(InnerMode)(0),      // 4: fadeloop.v1.InnerMode
-	(Command)(0),        // 5: fadeloop.v1.Command
-	(InitialPower)(0),   // 6: fadeloop.v1.InitialPower
-	(LinkKind)(0),       // 7: fadeloop.v1.LinkKind
-	(EffectiveSir)(0),   // 8: fadeloop.v1.EffectiveSir
-	(*Scenario)(nil),    // 9: fadeloop.v1.Scenario
-	(*Receiver)(nil),    // 10: fadeloop.v1.Receiver
-	(*SpeedShare)(nil),  // 11: fadeloop.v1.SpeedShare
-	(*Tap)(nil),         // 12: fadeloop.v1.Tap
-	(*PathLoss)(nil),    // 13: fadeloop.v1.PathLoss
-	(*UserGroup)(nil),   // 14: fadeloop.v1.UserGroup
-	(*InnerLoop)(nil),   // 15: fadeloop.v1.InnerLoop
-	(*OuterLoop)(nil),   // 16: fadeloop.v1.OuterLoop
-	(*LinkPoint)(nil),   // 17: fadeloop.v1.LinkPoint
-	(*LinkCurve)(nil),   // 18: fadeloop.v1.LinkCurve
-	(*RunSettings)(nil), // 19: fadeloop.v1.RunSettings
+	(RakeFingers)(0),          // 0: fadeloop.v1.RakeFingers
+	(Placement)(0),            // 1: fadeloop.v1.Placement
+	(Generator)(0),            // 2: fadeloop.v1.Generator
+	(PathLossModel)(0),        // 3: fadeloop.v1.PathLossModel
+	(InnerMode)(0),            // 4: fadeloop.v1.InnerMode
+	(Command)(0),              // 5: fadeloop.v1.Command
+	(InitialPower)(0),         // 6: fadeloop.v1.InitialPower
+	(LinkKind)(0),             // 7: fadeloop.v1.LinkKind
+	(EffectiveSir)(0),         // 8: fadeloop.v1.EffectiveSir
+	(FastFading)(0),           // 9: fadeloop.v1.FastFading
+	(*Scenario)(nil),          // 10: fadeloop.v1.Scenario
+	(*Receiver)(nil),          // 11: fadeloop.v1.Receiver
+	(*SpeedShare)(nil),        // 12: fadeloop.v1.SpeedShare
+	(*Tap)(nil),               // 13: fadeloop.v1.Tap
+	(*PathLoss)(nil),          // 14: fadeloop.v1.PathLoss
+	(*UserGroup)(nil),         // 15: fadeloop.v1.UserGroup
+	(*InnerLoop)(nil),         // 16: fadeloop.v1.InnerLoop
+	(*OuterLoop)(nil),         // 17: fadeloop.v1.OuterLoop
+	(*LinkPoint)(nil),         // 18: fadeloop.v1.LinkPoint
+	(*LinkCurve)(nil),         // 19: fadeloop.v1.LinkCurve
+	(*RunSettings)(nil),       // 20: fadeloop.v1.RunSettings
+	(*Layout)(nil),            // 21: fadeloop.v1.Layout
+	(*LayoutPropagation)(nil), // 22: fadeloop.v1.LayoutPropagation
+	(*Handover)(nil),          // 23: fadeloop.v1.Handover
+	(*OpenLoopSetting)(nil),   // 24: fadeloop.v1.OpenLoopSetting
 }
 var file_fadeloop_v1_scenario_proto_depIdxs = []int32{
-	10, // 0: fadeloop.v1.Scenario.receiver:type_name -> fadeloop.v1.Receiver
-	14, // 1: fadeloop.v1.Scenario.groups:type_name -> fadeloop.v1.UserGroup
-	15, // 2: fadeloop.v1.Scenario.inner_loop:type_name -> fadeloop.v1.InnerLoop
-	16, // 3: fadeloop.v1.Scenario.outer_loop:type_name -> fadeloop.v1.OuterLoop
-	18, // 4: fadeloop.v1.Scenario.link:type_name -> fadeloop.v1.LinkCurve
-	19, // 5: fadeloop.v1.Scenario.run:type_name -> fadeloop.v1.RunSettings
-	0,  // 6: fadeloop.v1.Receiver.rake_fingers:type_name -> fadeloop.v1.RakeFingers
-	3,  // 7: fadeloop.v1.PathLoss.model:type_name -> fadeloop.v1.PathLossModel
-	1,  // 8: fadeloop.v1.UserGroup.placement:type_name -> fadeloop.v1.Placement
-	11, // 9: fadeloop.v1.UserGroup.speeds:type_name -> fadeloop.v1.SpeedShare
-	12, // 10: fadeloop.v1.UserGroup.custom_taps:type_name -> fadeloop.v1.Tap
-	2,  // 11: fadeloop.v1.UserGroup.generator:type_name -> fadeloop.v1.Generator
-	13, // 12: fadeloop.v1.UserGroup.path_loss:type_name -> fadeloop.v1.PathLoss
-	4,  // 13: fadeloop.v1.InnerLoop.mode:type_name -> fadeloop.v1.InnerMode
-	5,  // 14: fadeloop.v1.InnerLoop.command:type_name -> fadeloop.v1.Command
-	6,  // 15: fadeloop.v1.InnerLoop.initial_power:type_name -> fadeloop.v1.InitialPower
-	7,  // 16: fadeloop.v1.LinkCurve.kind:type_name -> fadeloop.v1.LinkKind
-	17, // 17: fadeloop.v1.LinkCurve.table:type_name -> fadeloop.v1.LinkPoint
-	8,  // 18: fadeloop.v1.LinkCurve.effective_sir:type_name -> fadeloop.v1.EffectiveSir
-	19, // [19:19] is the sub-list for method output_type
-	19, // [19:19] is the sub-list for method input_type
-	19, // [19:19] is the sub-list for extension type_name
-	19, // [19:19] is the sub-list for extension extendee
-	0,  // [0:19] is the sub-list for field type_name
+	11, // 0: fadeloop.v1.Scenario.receiver:type_name -> fadeloop.v1.Receiver
+	15, // 1: fadeloop.v1.Scenario.groups:type_name -> fadeloop.v1.UserGroup
+	16, // 2: fadeloop.v1.Scenario.inner_loop:type_name -> fadeloop.v1.InnerLoop
+	17, // 3: fadeloop.v1.Scenario.outer_loop:type_name -> fadeloop.v1.OuterLoop
+	19, // 4: fadeloop.v1.Scenario.link:type_name -> fadeloop.v1.LinkCurve
+	20, // 5: fadeloop.v1.Scenario.run:type_name -> fadeloop.v1.RunSettings
+	21, // 6: fadeloop.v1.Scenario.layout:type_name -> fadeloop.v1.Layout
+	0,  // 7: fadeloop.v1.Receiver.rake_fingers:type_name -> fadeloop.v1.RakeFingers
+	3,  // 8: fadeloop.v1.PathLoss.model:type_name -> fadeloop.v1.PathLossModel
+	1,  // 9: fadeloop.v1.UserGroup.placement:type_name -> fadeloop.v1.Placement
+	12, // 10: fadeloop.v1.UserGroup.speeds:type_name -> fadeloop.v1.SpeedShare
+	13, // 11: fadeloop.v1.UserGroup.custom_taps:type_name -> fadeloop.v1.Tap
+	2,  // 12: fadeloop.v1.UserGroup.generator:type_name -> fadeloop.v1.Generator
+	14, // 13: fadeloop.v1.UserGroup.path_loss:type_name -> fadeloop.v1.PathLoss
+	4,  // 14: fadeloop.v1.InnerLoop.mode:type_name -> fadeloop.v1.InnerMode
+	5,  // 15: fadeloop.v1.InnerLoop.command:type_name -> fadeloop.v1.Command
+	6,  // 16: fadeloop.v1.InnerLoop.initial_power:type_name -> fadeloop.v1.InitialPower
+	7,  // 17: fadeloop.v1.LinkCurve.kind:type_name -> fadeloop.v1.LinkKind
+	18, // 18: fadeloop.v1.LinkCurve.table:type_name -> fadeloop.v1.LinkPoint
+	8,  // 19: fadeloop.v1.LinkCurve.effective_sir:type_name -> fadeloop.v1.EffectiveSir
+	22, // 20: fadeloop.v1.Layout.propagation:type_name -> fadeloop.v1.LayoutPropagation
+	23, // 21: fadeloop.v1.Layout.handover:type_name -> fadeloop.v1.Handover
+	24, // 22: fadeloop.v1.Layout.open_loop:type_name -> fadeloop.v1.OpenLoopSetting
+	9,  // 23: fadeloop.v1.LayoutPropagation.fast_fading:type_name -> fadeloop.v1.FastFading
+	24, // [24:24] is the sub-list for method output_type
+	24, // [24:24] is the sub-list for method input_type
+	24, // [24:24] is the sub-list for extension type_name
+	24, // [24:24] is the sub-list for extension extendee
+	0,  // [0:24] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_scenario_proto_init() }
@@ -2022,8 +2526,8 @@ func file_fadeloop_v1_scenario_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_scenario_proto_rawDesc), len(file_fadeloop_v1_scenario_proto_rawDesc)),
-			NumEnums:      9,
-			NumMessages:   11,
+			NumEnums:      10,
+			NumMessages:   15,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -1,0 +1,6 @@
+//go:build race
+
+package multicell
+
+// raceEnabled reports a -race build.
+const raceEnabled = true
