@@ -315,7 +315,7 @@ func regime(x float64) int {
 // stepHint explains the chosen step from the condition's f_D·T range and
 // the measured differences to the neighbouring steps.
 func stepHint(rec *Recommendation, c int) string {
-	const path = "inner_loop.step_db"
+	const path = StepPath
 	cr := rec.Conditions[c]
 	d := cr.Decision
 	p := rec.Candidates[d.Best]

@@ -408,7 +408,7 @@ var tiePriority = []struct {
 	path string
 	asc  bool
 }{
-	{"inner_loop.step_db", true},
+	{StepPath, true},
 	{"inner_loop.update_rate_hz", true},
 	{"outer_loop.up_step_db", true},
 	{"inner_loop.feedback_delay_slots", false},

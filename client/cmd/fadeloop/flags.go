@@ -8,8 +8,8 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// axisList is the repeatable --axis flag of sweep and tune: listed values,
-// or a range (first, last, count, optionally log) that the server expands
+// axisList is the repeatable --axis flag of sweep and tune: listed values
+// (numbers, or enum names such as COMMAND_ADAPTIVE), or a range (first, last, count, optionally log) that the server expands
 // and checks against its limits.
 type axisList []*pb.SweepAxis
 
@@ -37,13 +37,26 @@ func (a *axisList) Set(v string) error {
 		}
 		ax.First, ax.Last, ax.Count = from, to, int32(n)
 	} else {
+		// Numbers, or names for an enum field (e.g.
+		// inner_loop.command=COMMAND_FIXED_STEP,COMMAND_ADAPTIVE); the
+		// server checks the names against the field's enum.
+		var names []string
 		for _, f := range strings.Split(vals, ",") {
-			x, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+			f = strings.TrimSpace(f)
+			x, err := strconv.ParseFloat(f, 64)
 			if err != nil {
-				return fmt.Errorf("value %q is not a number", f)
+				if f == "" || strings.ContainsAny(f, " =:") {
+					return fmt.Errorf("value %q is neither a number nor an enum name", f)
+				}
+				names = append(names, f)
+				continue
 			}
 			ax.Values = append(ax.Values, x)
 		}
+		if len(names) > 0 && len(ax.Values) > 0 {
+			return fmt.Errorf("values %q mix numbers and names; an axis takes either", vals)
+		}
+		ax.Names = names
 	}
 	*a = append(*a, ax)
 	return nil

@@ -9,6 +9,7 @@ import (
 	"log/slog"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/fadeloop/fadeloop/client"
@@ -24,6 +25,9 @@ type globals struct {
 	quiet    bool
 	timeout  time.Duration
 	progress string
+	// tokenFile names the file of the bearer token sent with every call
+	// (--auth-token-file).
+	tokenFile string
 }
 
 // register binds the global flags into fs (the top-level set and every
@@ -42,6 +46,7 @@ func (g *globals) register(fs *flag.FlagSet) {
 	fs.StringVar(&g.tls.CertFile, "tls-cert", g.tls.CertFile, "client certificate PEM `FILE` for mutual TLS (with --tls-key)")
 	fs.StringVar(&g.tls.KeyFile, "tls-key", g.tls.KeyFile, "client key PEM `FILE` for mutual TLS (with --tls-cert)")
 	fs.StringVar(&g.tls.ServerName, "tls-server-name", g.tls.ServerName, "`NAME` to check in the server certificate instead of the host")
+	fs.StringVar(&g.tokenFile, "auth-token-file", g.tokenFile, "`FILE` holding the bearer token the server requires (fadeloopd -auth-token-file); never printed")
 	fs.StringVar(&g.format, "format", g.format, "output `FORMAT`: table, csv or json")
 	fs.StringVar(&g.out, "out", g.out, "write the output to `FILE` instead of standard output")
 	fs.BoolVar(&g.quiet, "quiet", g.quiet, "no progress output on standard error")
@@ -61,6 +66,19 @@ func (g *globals) checkFormat(allowed ...string) error {
 // connect opens the client: remote with --server, embedded otherwise.
 func (e *env) connect() (*client.Client, error) {
 	opts := client.Options{TLS: e.g.tls, CallTimeout: e.g.timeout}
+	if e.g.tokenFile != "" {
+		b, err := os.ReadFile(e.g.tokenFile)
+		if err != nil {
+			return nil, badInputf("--auth-token-file: %v", err)
+		}
+		opts.BearerToken = strings.TrimSpace(string(b))
+		if opts.BearerToken == "" {
+			return nil, badInputf("--auth-token-file %s: the file is empty", e.g.tokenFile)
+		}
+		if e.g.server == "" {
+			return nil, badInputf("--auth-token-file needs --server (the embedded server has no token)")
+		}
+	}
 	if e.g.server == "" {
 		if e.g.tls != (client.TLSOptions{}) {
 			return nil, badInputf("TLS flags need --server (the embedded server is in-process)")
