@@ -426,7 +426,10 @@ func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason 
 	var first string
 	switch {
 	case res.BelowRange:
-		p := &res.Evaluated[0]
+		// The requested smallest count failed, so the search went below
+		// it: every evaluated count is at most MinCount, which is the
+		// largest of them.
+		p := &res.Evaluated[len(res.Evaluated)-1]
 		headline = fmt.Sprintf("Capacity: below the range tried: %d users already miss %s%s.", p.TotalUsers, limits, by)
 		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p))
 	case res.AtRangeTop:

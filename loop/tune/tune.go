@@ -130,12 +130,12 @@ func figures(xs []Sample, conf float64) Figures {
 	}
 	fg := Figures{
 		SIRErrorMeanDB: meanCI(col(func(s Sample) float64 { return s.SIRErrorMeanDB }), conf),
-		SIRErrorStdDB:  meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf),
+		SIRErrorStdDB:  clampEstimate(meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf), 0, math.Inf(1)),
 		OutageProb:     clampEstimate(meanCI(col(func(s Sample) float64 { return s.OutageProb }), conf), 0, 1),
 		BLER:           clampEstimate(meanCI(col(func(s Sample) float64 { return s.BLER }), conf), 0, 1),
 		TxPowerMeanDBm: meanCI(col(func(s Sample) float64 { return s.TxPowerMeanDBm }), conf),
 		TimeAtMaxPower: clampEstimate(meanCI(col(func(s Sample) float64 { return s.TimeAtMaxPower }), conf), 0, 1),
-		NoiseRiseDB:    meanCI(col(func(s Sample) float64 { return s.NoiseRiseDB }), conf),
+		NoiseRiseDB:    clampEstimate(meanCI(col(func(s Sample) float64 { return s.NoiseRiseDB }), conf), 0, math.Inf(1)), // I0/N0 >= 1
 	}
 	if len(xs) > 0 {
 		fg.BLERTarget = xs[0].BLERTarget
