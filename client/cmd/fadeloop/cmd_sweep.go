@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
@@ -78,8 +79,24 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	objective := fs.String("objective", "std", "heat map `OBJECTIVE`: std (SIR error std), outage, power (mean Tx power) or bler (|BLER − target|)")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf); repeatable")
+	reportFile := fs.String("report", "", "write an HTML report of the sweep to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.register(fs)
 	return func(ctx context.Context, args []string) error {
-		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+		if qf.active() {
+			if err := qf.check(e.g); err != nil {
+				return err
+			}
+			if qf.status != "" || qf.cancel != "" {
+				if len(args) > 0 || len(axes) > 0 || *grid != "" {
+					return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
+				}
+				return queueControl(ctx, e, &qf)
+			}
+			if len(plotSpecs) > 0 {
+				return badInputf("--plot is not available with --queue (plots come from the direct path: run without --queue)")
+			}
+		} else if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
 		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf"); err != nil {
@@ -126,6 +143,12 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 			if err := checkSweepPlot(ps, req.Axes); err != nil {
 				return err
 			}
+		}
+		if *reportFile != "" && !strings.EqualFold(filepath.Ext(*reportFile), ".html") {
+			return badInputf("--report %q: must end in .html", *reportFile)
+		}
+		if qf.active() {
+			return runQueuedSweep(ctx, e, &qf, req, *reportFile, sf, gridFile)
 		}
 		total := int64(len(req.PointIndices))
 		if total == 0 {
@@ -174,6 +197,14 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		}
 		if err := out.commit(); err != nil {
 			return err
+		}
+		if *reportFile != "" {
+			if err := writeSweepReport(*reportFile, req, pts, sum); err != nil {
+				return err
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote report to %s\n", *reportFile)
+			}
 		}
 		title := req.GetBase().GetName()
 		for _, ps := range plotSpecs {
