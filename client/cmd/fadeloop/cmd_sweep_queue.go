@@ -104,8 +104,12 @@ func queueControl(ctx context.Context, e *env, q *sweepQueueFlags) error {
 	if err != nil {
 		return queueJobError(id, err)
 	}
+	state := st.Info.State
+	if state != jobs.StateCancelled && st.Pending == 0 && st.Done+st.Failed == st.Info.Units {
+		state = "complete"
+	}
 	fmt.Fprintf(e.stdout, "job %s: %s, %d points: %d done, %d failed, %d pending (submitted %d times, last change %s)\n",
-		st.Info.ID, st.Info.State, st.Info.Units, st.Done, st.Failed, st.Pending, st.Info.Submissions,
+		st.Info.ID, state, st.Info.Units, st.Done, st.Failed, st.Pending, st.Info.Submissions,
 		st.Info.Updated.UTC().Format("2006-01-02 15:04:05 UTC"))
 	return nil
 }
@@ -322,6 +326,9 @@ func writeFileAtomic(path string, data []byte) error {
 		return err
 	}
 	if err := tmp.Close(); err != nil {
+		return err
+	}
+	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
 		return err
 	}
 	return os.Rename(tmp.Name(), path)
