@@ -55,6 +55,29 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
   cdf      SIR error distribution per point (at most 8 points)
   auto     heatmap for step × rate, steps for step (× one axis), else cdf
 
+Durable sweeps (--queue): the sweep runs as a batch job over a NATS
+JetStream work queue. --queue local starts a NATS server inside this process
+with its store under the user cache directory (--store DIR elsewhere) and one
+worker per core (--workers N); --queue nats://HOST:PORT[,...] uses an external
+NATS and the workers attached to it ("fadeloopd worker"). Each point is stored
+as it finishes and written to --out (csv, or jsonl for FILE.jsonl or --format
+jsonl) at once; the finished file is rewritten in grid order. An interrupted
+run (Ctrl-C, --timeout, queue lost) leaves every finished row in the file and
+says how many points are stored and how many remain; running the same command
+again resumes the job (the job ID is a hash of the request, so the same
+command finds it) and computes only the missing points.
+  --status JOB   state and counts of a job (with the same --queue/--store)
+  --cancel JOB   drop a job's queued points; stored points stay
+The queued CSV has the columns index, seed, one per axis, status, error,
+feasible, users, user_slots, then every figure F as F, F_ci_low, F_ci_high.
+Without --queue the points run directly on the server (--server ADDR) or on
+an embedded one, and are written when the sweep ends: fine for small grids.
+
+--report FILE.html writes an HTML report of the sweep (either path).
+
+Simulated settings do not replace the operator's radio planning, regulatory
+limits on transmit power and exposure, or licensed practice.
+
 Examples:
   fadeloop sweep --axis inner_loop.step_db=0.25,0.5,1,2 --slots 15000
   fadeloop sweep cell.yaml --axis inner_loop.step_db=0.5:3:6 \
@@ -62,7 +85,10 @@ Examples:
   fadeloop sweep cell.yaml --axis inner_loop.step_db=0.5,1,2 \
       --axis inner_loop.update_rate_hz=500,1000,1500 --plot heat.svg --objective outage
   fadeloop sweep cell.yaml --grid grid.yaml --format csv --out points.csv
-  fadeloop sweep cell.yaml --grid grid.yaml --points 4,5,6   # resume or split a sweep`,
+  fadeloop sweep cell.yaml --grid grid.yaml --points 4,5,6   # resume or split a sweep
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue local --out steps.csv
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue nats://10.0.0.5:4222 --out steps.csv
+  fadeloop sweep --status JOB --queue local`,
 		run: runSweep,
 	})
 }
