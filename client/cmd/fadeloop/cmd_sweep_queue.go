@@ -15,7 +15,6 @@ import (
 	"github.com/fadeloop/fadeloop/client"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	"github.com/fadeloop/fadeloop/loop"
-	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 	"github.com/fadeloop/fadeloop/service/jobs"
@@ -177,7 +176,8 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 		return err
 	}
 	spec := sweepSpec(req)
-	if _, err := jobs.Prepare(spec); err != nil {
+	prep, err := jobs.Prepare(spec)
+	if err != nil {
 		return queueInvalid(sf, gridFile, err)
 	}
 	if e.g.timeout > 0 {
@@ -190,12 +190,7 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 		return err
 	}
 	defer jq.Close()
-	axes := make([]tune.Axis, len(spec.Axes))
-	copy(axes, spec.Axes)
-	if p, err := jobs.Prepare(spec); err == nil {
-		axes = p.Spec.Axes // resolved values
-	}
-	file, err := client.CreateSweepFile(e.g.out, format, axes)
+	file, err := client.CreateSweepFile(e.g.out, format, prep.Spec.Axes) // axes resolved to values
 	if err != nil {
 		return badInput{err}
 	}

@@ -190,6 +190,13 @@ func TestSweepQueueFlags(t *testing.T) {
 	if !strings.Contains(r.stderr, "unreachable") {
 		t.Errorf("unreachable queue: %q", r.stderr)
 	}
+	// A value outside the field's range is bad input naming the field, as
+	// on the direct path; nothing is queued.
+	r = fl(t, "sweep", "--axis", "inner_loop.step_db=-1,2", "--queue", "local", "--store", filepath.Join(dir, "s"), "--out", out)
+	r.want(t, 2)
+	if !strings.Contains(r.stderr, "inner_loop.step_db") || !strings.Contains(r.stderr, "(0, 10] dB") || strings.Contains(r.stderr, "queued") {
+		t.Errorf("invalid axis value on the queue path: %q", r.stderr)
+	}
 	for _, c := range []struct {
 		args []string
 		want string
