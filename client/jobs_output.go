@@ -100,9 +100,18 @@ func (s *SweepFile) write(r jobs.Result) error {
 // temporary file renamed over it, so the file is never partly written) and
 // closes it.
 func (s *SweepFile) Finish() error {
+	mode := os.FileMode(0o644)
+	if fi, err := s.f.Stat(); err == nil {
+		mode = fi.Mode().Perm() // the file keeps the mode it was created with (umask applied)
+	}
 	s.f.Close()
 	tmp, err := os.CreateTemp(filepath.Dir(s.path), ".sweep-*")
 	if err != nil {
+		return err
+	}
+	if err := tmp.Chmod(mode); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
 		return err
 	}
 	defer os.Remove(tmp.Name())

@@ -249,3 +249,46 @@ func TestJobQueueJSONLAndStatus(t *testing.T) {
 		t.Errorf("cancel of an unknown job: %v", err)
 	}
 }
+
+// TestSweepFileFinishOrderAndMode: Finish rewrites the rows in grid order
+// and the finished file keeps the mode the file was created with (not the
+// 0600 of a temporary file).
+func TestSweepFileFinishOrderAndMode(t *testing.T) {
+	dir := t.TempDir()
+	ref := filepath.Join(dir, "ref")
+	if err := os.WriteFile(ref, nil, 0o666); err != nil {
+		t.Fatal(err)
+	}
+	want, err := os.Stat(ref)
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(dir, "p.csv")
+	axes := []tune.Axis{{Path: "inner_loop.step_db", Values: []float64{1, 2, 3}}}
+	f, err := CreateSweepFile(path, SweepFileCSV, axes)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, i := range []int{2, 0, 1} {
+		r := jobs.Result{Index: i, Status: jobs.StatusFailed, Error: "x",
+			Point: tune.Point{Index: i, Coords: []tune.Coord{{Path: "inner_loop.step_db", Value: float64(i + 1)}}}}
+		if err := f.Write(r); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := f.Finish(); err != nil {
+		t.Fatal(err)
+	}
+	got, err := os.Stat(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Mode().Perm() != want.Mode().Perm() {
+		t.Errorf("finished file mode %v, want %v (as created)", got.Mode().Perm(), want.Mode().Perm())
+	}
+	b, _ := os.ReadFile(path)
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	if len(lines) != 4 || !strings.HasPrefix(lines[1], "0,") || !strings.HasPrefix(lines[2], "1,") || !strings.HasPrefix(lines[3], "2,") {
+		t.Errorf("finished file not in grid order:\n%s", b)
+	}
+}

@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
@@ -54,6 +55,29 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
   cdf      SIR error distribution per point (at most 8 points)
   auto     heatmap for step × rate, steps for step (× one axis), else cdf
 
+Durable sweeps (--queue): the sweep runs as a batch job over a NATS
+JetStream work queue. --queue local starts a NATS server inside this process
+with its store under the user cache directory (--store DIR elsewhere) and one
+worker per core (--workers N); --queue nats://HOST:PORT[,...] uses an external
+NATS and the workers attached to it ("fadeloopd worker"). Each point is stored
+as it finishes and written to --out (csv, or jsonl for FILE.jsonl or --format
+jsonl) at once; the finished file is rewritten in grid order. An interrupted
+run (Ctrl-C, --timeout, queue lost) leaves every finished row in the file and
+says how many points are stored and how many remain; running the same command
+again resumes the job (the job ID is a hash of the request, so the same
+command finds it) and computes only the missing points.
+  --status JOB   state and counts of a job (with the same --queue/--store)
+  --cancel JOB   drop a job's queued points; stored points stay
+The queued CSV has the columns index, seed, one per axis, status, error,
+feasible, users, user_slots, then every figure F as F, F_ci_low, F_ci_high.
+Without --queue the points run directly on the server (--server ADDR) or on
+an embedded one, and are written when the sweep ends: fine for small grids.
+
+--report FILE.html writes an HTML report of the sweep (either path).
+
+Simulated settings do not replace the operator's radio planning, regulatory
+limits on transmit power and exposure, or licensed practice.
+
 Examples:
   fadeloop sweep --axis inner_loop.step_db=0.25,0.5,1,2 --slots 15000
   fadeloop sweep cell.yaml --axis inner_loop.step_db=0.5:3:6 \
@@ -61,7 +85,10 @@ Examples:
   fadeloop sweep cell.yaml --axis inner_loop.step_db=0.5,1,2 \
       --axis inner_loop.update_rate_hz=500,1000,1500 --plot heat.svg --objective outage
   fadeloop sweep cell.yaml --grid grid.yaml --format csv --out points.csv
-  fadeloop sweep cell.yaml --grid grid.yaml --points 4,5,6   # resume or split a sweep`,
+  fadeloop sweep cell.yaml --grid grid.yaml --points 4,5,6   # resume or split a sweep
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue local --out steps.csv
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue nats://10.0.0.5:4222 --out steps.csv
+  fadeloop sweep --status JOB --queue local`,
 		run: runSweep,
 	})
 }
@@ -78,8 +105,24 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	objective := fs.String("objective", "std", "heat map `OBJECTIVE`: std (SIR error std), outage, power (mean Tx power) or bler (|BLER − target|)")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, steps, heatmap, cdf; multi-cell: layout (f and outage against the first axis)); repeatable")
+	reportFile := fs.String("report", "", "write an HTML report of the sweep to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.register(fs)
 	return func(ctx context.Context, args []string) error {
-		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+		if qf.active() {
+			if err := qf.check(e.g); err != nil {
+				return err
+			}
+			if qf.status != "" || qf.cancel != "" {
+				if len(args) > 0 || len(axes) > 0 || *grid != "" {
+					return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
+				}
+				return queueControl(ctx, e, &qf)
+			}
+			if len(plotSpecs) > 0 {
+				return badInputf("--plot is not available with --queue (plots come from the direct path: run without --queue)")
+			}
+		} else if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
 		}
 		if err := plotSpecs.check("auto", "auto", "steps", "heatmap", "cdf", "layout"); err != nil {
@@ -126,6 +169,12 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 			if err := checkSweepPlot(ps, req.Axes); err != nil {
 				return err
 			}
+		}
+		if *reportFile != "" && !strings.EqualFold(filepath.Ext(*reportFile), ".html") {
+			return badInputf("--report %q: must end in .html", *reportFile)
+		}
+		if qf.active() {
+			return runQueuedSweep(ctx, e, &qf, req, *reportFile, sf, gridFile)
 		}
 		total := int64(len(req.PointIndices))
 		if total == 0 {
@@ -174,6 +223,14 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		}
 		if err := out.commit(); err != nil {
 			return err
+		}
+		if *reportFile != "" {
+			if err := writeSweepReport(*reportFile, req, pts, sum); err != nil {
+				return err
+			}
+			if !e.g.quiet {
+				fmt.Fprintf(e.stderr, "wrote report to %s\n", *reportFile)
+			}
 		}
 		title := req.GetBase().GetName()
 		for _, ps := range plotSpecs {
