@@ -318,7 +318,8 @@ func (sess *lockstepSession) step(m *pb.LockstepSlot) *pb.LockstepResponse {
 }
 
 // slotErrorReply is the in-stream answer to a refused slot message
-// (reply_on_slot_error): the slot index it carried and the violations.
+// (reply_on_slot_error): the slot index expected (to be sent again) and the
+// violations.
 func slotErrorReply(slot int64, vs []Violation) *pb.LockstepResponse {
 	vs = capViolations(dedupe(vs))
 	e := &pb.LockstepSlotError{}
@@ -400,7 +401,7 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 			}
 			// A per-slot data error: answered on the stream, no state changed.
 			s.metrics.rejected.WithLabelValues("invalid").Inc()
-			err = stream.Send(slotErrorReply(slot.GetSlot(), vs))
+			err = stream.Send(slotErrorReply(sess.next, vs))
 			idle.Stop()
 			if err != nil {
 				return statusFromError(ctx, err)

@@ -472,7 +472,8 @@ func (*LockstepRequest_Slot) isLockstepRequest_Message() {}
 // LockstepResponse answers one slot.
 type LockstepResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The slot answered.
+	// The slot answered; with slot_error, the slot index expected next (the
+	// one to send again, corrected).
 	Slot int64 `protobuf:"varint,1,opt,name=slot,proto3" json:"slot,omitempty"`
 	// Each user's power-control command in dB as sent (e.g. +1 or -1 for a
 	// fixed 1 dB step; one of levels_db for MULTI_LEVEL).
@@ -483,8 +484,8 @@ type LockstepResponse struct {
 	// Each user's current SIR target in dB.
 	TargetDb []float64 `protobuf:"fixed64,4,rep,packed,name=target_db,json=targetDb,proto3" json:"target_db,omitempty"`
 	// Set instead of the figures above when the slot message was refused
-	// (only with LockstepConfig.reply_on_slot_error): no state changed, send
-	// the slot (index slot) again, corrected.
+	// (only with LockstepConfig.reply_on_slot_error): no state changed; send
+	// slot number `slot` again, corrected.
 	SlotError *LockstepSlotError `protobuf:"bytes,5,opt,name=slot_error,json=slotError,proto3" json:"slot_error,omitempty"`
 	// Each user's state in this slot: empty while every user of the stream
 	// has always been active (the common case keeps the message small); from
