@@ -30,7 +30,8 @@ const (
 	LockstepUserState_LOCKSTEP_USER_STATE_UNSPECIFIED LockstepUserState = 0
 	// Active in this slot: the command was decided from its measurement.
 	LockstepUserState_LOCKSTEP_USER_STATE_ACTIVE LockstepUserState = 1
-	// Inactive in this slot (LockstepSlot.inactive_users): power and target held.
+	// Inactive in this slot (LockstepSlot.inactive_users): no new command,
+	// target held.
 	LockstepUserState_LOCKSTEP_USER_STATE_INACTIVE LockstepUserState = 2
 	// Joined after this slot: the power is its first transmit power.
 	LockstepUserState_LOCKSTEP_USER_STATE_JOINED LockstepUserState = 3
@@ -291,9 +292,10 @@ type LockstepSlot struct {
 	// CRC results of blocks that ended in this slot, at most one per user.
 	Blocks []*BlockResult `protobuf:"bytes,3,rep,name=blocks,proto3" json:"blocks,omitempty"`
 	// Users inactive in this slot (no transmission, e.g. DTX or idle): their
-	// sir_db entry is ignored (any value), no command is decided, their power
-	// and target hold, and a block result for them is refused. Each index in
-	// [0, users), at most once.
+	// sir_db entry is ignored (any value), no new command is decided
+	// (commands already in the feedback delay line still arrive and change
+	// the power), the target holds, and a block result for them is refused.
+	// Each index in [0, users), at most once.
 	InactiveUsers []int32 `protobuf:"varint,4,rep,packed,name=inactive_users,json=inactiveUsers,proto3" json:"inactive_users,omitempty"`
 	// Users that join after this slot: they take the next indices (users,
 	// users+1, ...), their first transmit power is in this slot's response,
