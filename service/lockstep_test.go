@@ -427,6 +427,9 @@ func TestLockstepSlotErrorReply(t *testing.T) {
 					for _, v := range se.GetViolations() {
 						found = found || v.GetField() == b.field
 					}
+					if b.name == "SIR NaN" && se.GetViolations()[0].GetDescription() != "must be finite and in [-100, 100] dB, got NaN" {
+						t.Errorf("%s: description %q", b.name, se.GetViolations()[0].GetDescription())
+					}
 					if !found || r.GetSlot() != slot {
 						t.Fatalf("%s: slot_error %v (slot %d) does not name %q or the slot expected (%d)", b.name, se, r.GetSlot(), b.field, slot)
 					}
