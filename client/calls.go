@@ -236,7 +236,9 @@ func (s *LockstepSession) Step(sirDB []float64, blocks []*pb.BlockResult) (*pb.L
 	if err != nil {
 		return nil, wrapError(err)
 	}
-	s.next++
+	if resp.GetSlotError() == nil { // a refused slot (reply_on_slot_error) is sent again
+		s.next++
+	}
 	return resp, nil
 }
 

@@ -465,6 +465,23 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) Decision {
 	return Decision{CommandDB: b.commandDB(0), PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
 }
 
+// StepInactive processes one slot in which the user does not transmit
+// (DTX, idle): no measurement, no new command (CommandDB 0), no
+// estimation-error or command-error draw; the SIR-averaging window keeps
+// its samples; commands already in the feedback delay line still arrive and
+// change the power (a command from slot t changes slot t+1+D whatever the
+// user does meanwhile); the target holds. INNER_MODE_IDEAL and
+// FIXED_POWER hold the power. It allocates nothing.
+func (c *Controller) StepInactive() Decision {
+	b := c.b
+	if b.mode == InnerModeClosedLoop {
+		c.off[0] = 0 // active mask of one user: inactive
+		b.decide(c.meas[:], nil, c.off[:])
+		b.apply()
+	}
+	return Decision{PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+}
+
 // String describes the controller's settings briefly.
 func (c *Controller) String() string {
 	return fmt.Sprintf("controller(%s, %s, delay %d)", c.b.mode, c.b.cmd, c.b.d1-1)

@@ -71,13 +71,27 @@ type loopServer struct {
 	s *Server
 }
 
+// maxLockstepUsers bounds a Lockstep stream's users, configured and
+// joined together (LockstepConfig.users max_items).
+const maxLockstepUsers = 4096
+
 // lockstepSession is one configured Lockstep stream.
 type lockstepSession struct {
-	ctls    []*loop.Controller
-	next    int64 // slot index expected next
-	blockAt []int64
-	errs    []bool
-	resp    *pb.LockstepResponse
+	ctls      []*loop.Controller
+	rcv       loop.Receiver
+	seed      uint64
+	next      int64 // slot index expected next
+	replyErrs bool  // reply_on_slot_error
+	// Per-user marks of the slot being checked, stamped with gen so that a
+	// refused message leaves no trace: block result, inactive, leaving.
+	gen                       int64
+	blockAt, inactAt, leaveAt []int64
+	errs                      []bool
+	left                      []bool
+	joining                   []*loop.Controller // built by checkSlot, added by step
+	states                    []pb.LockstepUserState
+	anyState                  bool // some user was not ACTIVE in some slot: user_state is sent
+	resp                      *pb.LockstepResponse
 }
 
 // newLockstepSession validates the configuration and builds one
@@ -88,20 +102,17 @@ func (s *Server) newLockstepSession(req *pb.LockstepRequest) (*lockstepSession, 
 		return nil, vs
 	}
 	cfg := req.GetConfig()
-	rcv := receiverFromProto(cfg.GetReceiver())
+	sess := &lockstepSession{
+		rcv:       receiverFromProto(cfg.GetReceiver()),
+		seed:      cfg.GetSeed(),
+		replyErrs: cfg.GetReplyOnSlotError(),
+		resp:      &pb.LockstepResponse{},
+	}
 	var vs []Violation
-	sess := &lockstepSession{}
-	n := len(cfg.GetUsers())
 	for i, u := range cfg.GetUsers() {
-		sc := loop.Scenario{
-			Receiver:  rcv,
-			InnerLoop: innerLoopFromProto(u.GetInnerLoop()),
-			OuterLoop: outerLoopFromProto(u.GetOuterLoop()),
-		}
-		sc.Normalise()
-		ctl, err := loop.NewController(sc.InnerLoop, sc.OuterLoop, sc.Receiver, u.GetPathLossDb(), cfg.GetSeed(), i)
+		ctl, err := sess.newController(u, i)
 		if err != nil {
-			vs = append(vs, controllerViolations(err, i)...)
+			vs = append(vs, controllerViolations(err, fmt.Sprintf("config.users[%d].", i))...)
 			continue
 		}
 		sess.ctls = append(sess.ctls, ctl)
@@ -109,30 +120,51 @@ func (s *Server) newLockstepSession(req *pb.LockstepRequest) (*lockstepSession, 
 	if len(vs) > 0 {
 		return nil, vs
 	}
-	sess.blockAt = make([]int64, n)
-	for i := range sess.blockAt {
-		sess.blockAt[i] = -1
-	}
-	sess.errs = make([]bool, n)
-	sess.resp = &pb.LockstepResponse{
-		CommandDb:  make([]float64, n),
-		TxPowerDbm: make([]float64, n),
-		TargetDb:   make([]float64, n),
-	}
+	sess.grow(len(sess.ctls))
 	return sess, nil
 }
 
-// controllerViolations maps loop.NewController's violations of user i to
-// request field paths.
-func controllerViolations(err error, i int) []Violation {
-	user := fmt.Sprintf("config.users[%d].", i)
+// newController builds user i's controller from its settings, normalised
+// like a scenario's; its random streams are those of user index i.
+func (sess *lockstepSession) newController(u *pb.LockstepUser, i int) (*loop.Controller, error) {
+	sc := loop.Scenario{
+		Receiver:  sess.rcv,
+		InnerLoop: innerLoopFromProto(u.GetInnerLoop()),
+		OuterLoop: outerLoopFromProto(u.GetOuterLoop()),
+	}
+	sc.Normalise()
+	return loop.NewController(sc.InnerLoop, sc.OuterLoop, sc.Receiver, u.GetPathLossDb(), sess.seed, i)
+}
+
+// grow extends the per-user state to n users (joins happen rarely; the
+// per-slot path does not allocate).
+func (sess *lockstepSession) grow(n int) {
+	for len(sess.blockAt) < n {
+		sess.blockAt = append(sess.blockAt, -1)
+		sess.inactAt = append(sess.inactAt, -1)
+		sess.leaveAt = append(sess.leaveAt, -1)
+		sess.errs = append(sess.errs, false)
+		sess.left = append(sess.left, false)
+		sess.states = append(sess.states, pb.LockstepUserState_LOCKSTEP_USER_STATE_ACTIVE)
+	}
+	r := sess.resp
+	for len(r.CommandDb) < n {
+		r.CommandDb = append(r.CommandDb, 0)
+		r.TxPowerDbm = append(r.TxPowerDbm, 0)
+		r.TargetDb = append(r.TargetDb, 0)
+	}
+}
+
+// controllerViolations maps loop.NewController's violations of one user
+// (request path prefix, e.g. "config.users[3].") to request field paths.
+func controllerViolations(err error, prefix string) []Violation {
 	var lvs loop.Violations
 	if !errors.As(err, &lvs) {
-		return []Violation{{Field: strings.TrimSuffix(user, "."), Description: err.Error()}}
+		return []Violation{{Field: strings.TrimSuffix(prefix, "."), Description: err.Error()}}
 	}
 	out := make([]Violation, len(lvs))
 	for j, v := range lvs {
-		field := user + v.Field
+		field := prefix + v.Field
 		if strings.HasPrefix(v.Field, "receiver.") {
 			field = "config." + v.Field
 		}
@@ -141,37 +173,89 @@ func controllerViolations(err error, i int) []Violation {
 	return out
 }
 
-// checkSlot validates one slot message against the session: the .proto
-// rules (finite SIRs in range, non-negative indices) are checked here by
-// hand, on the hot path, with the same bounds.
-func (sess *lockstepSession) checkSlot(m *pb.LockstepSlot) []Violation {
+// checkSlot validates one slot message against the session without
+// changing any controller: the .proto rules (finite SIRs in range,
+// non-negative indices) are checked here by hand, on the hot path, with the
+// same bounds. Joining users' controllers are built into sess.joining.
+func (s *Server) checkSlot(sess *lockstepSession, m *pb.LockstepSlot) []Violation {
 	var vs []Violation
+	sess.gen++
+	gen := sess.gen
+	n := len(sess.ctls)
 	if m.GetSlot() != sess.next {
 		vs = append(vs, Violation{Field: "slot.slot", Description: fmt.Sprintf(
 			"slots must arrive in order: expected slot %d, got %d", sess.next, m.GetSlot())})
 	}
+	// userIndex checks one index list entry and stamps it in at.
+	userIndex := func(field string, u int32, at []int64, what string) bool {
+		switch {
+		case u < 0 || int(u) >= n:
+			vs = append(vs, Violation{Field: field, Description: fmt.Sprintf(
+				"must be a user index in [0, %d), got %d", n, u)})
+		case at[u] == gen:
+			vs = append(vs, Violation{Field: field, Description: fmt.Sprintf(
+				"user %d is listed more than once in %s", u, what)})
+		default:
+			at[u] = gen
+			return true
+		}
+		return false
+	}
+	for j, u := range m.GetInactiveUsers() {
+		userIndex(fmt.Sprintf("slot.inactive_users[%d]", j), u, sess.inactAt, "inactive_users")
+	}
+	for j, u := range m.GetLeaveUsers() {
+		f := fmt.Sprintf("slot.leave_users[%d]", j)
+		if userIndex(f, u, sess.leaveAt, "leave_users") && sess.left[u] {
+			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d has already left", u)})
+		}
+	}
 	sir := m.GetSirDb()
-	if len(sir) != len(sess.ctls) {
+	if len(sir) != n {
 		vs = append(vs, Violation{Field: "slot.sir_db", Description: fmt.Sprintf(
-			"wrong user count: %d SIR values for %d configured users", len(sir), len(sess.ctls))})
+			"wrong user count: %d SIR values for %d users (configured and joined, left ones included)", len(sir), n)})
 	}
 	for i, x := range sir {
+		if i < n && (sess.left[i] || sess.inactAt[i] == gen) {
+			continue // ignored
+		}
 		if !(x >= -100 && x <= 100) {
 			vs = append(vs, Violation{Field: fmt.Sprintf("slot.sir_db[%d]", i), Description: fmt.Sprintf(
 				"must be finite and in [-100, 100] dB, got %g", x)})
 		}
 	}
 	for j, b := range m.GetBlocks() {
+		f := fmt.Sprintf("slot.blocks[%d].user", j)
 		u := b.GetUser()
+		if !userIndex(f, u, sess.blockAt, "blocks") {
+			continue
+		}
 		switch {
-		case u < 0 || int(u) >= len(sess.ctls):
-			vs = append(vs, Violation{Field: fmt.Sprintf("slot.blocks[%d].user", j), Description: fmt.Sprintf(
-				"must be a configured user in [0, %d), got %d", len(sess.ctls), u)})
-		case sess.blockAt[u] == m.GetSlot():
-			vs = append(vs, Violation{Field: fmt.Sprintf("slot.blocks[%d].user", j), Description: fmt.Sprintf(
-				"user %d has more than one block result in slot %d", u, m.GetSlot())})
-		default:
-			sess.blockAt[u] = m.GetSlot()
+		case sess.left[u]:
+			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d has left; no block result is accepted", u)})
+		case sess.inactAt[u] == gen:
+			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d is inactive in slot %d (inactive_users); no block can end", u, m.GetSlot())})
+		}
+	}
+	sess.joining = sess.joining[:0]
+	if js := m.GetJoinUsers(); len(js) > 0 {
+		if n+len(js) > maxLockstepUsers {
+			vs = append(vs, Violation{Field: "slot.join_users", Description: fmt.Sprintf(
+				"%d users would join %d: at most %d users per stream", len(js), n, maxLockstepUsers)})
+			return vs
+		}
+		for j, u := range js {
+			prefix := fmt.Sprintf("slot.join_users[%d].", j)
+			if jv := s.validator.check(u, prefix); len(jv) > 0 {
+				vs = append(vs, jv...)
+				continue
+			}
+			ctl, err := sess.newController(u, n+j)
+			if err != nil {
+				vs = append(vs, controllerViolations(err, prefix)...)
+				continue
+			}
+			sess.joining = append(sess.joining, ctl)
 		}
 	}
 	return vs
@@ -179,23 +263,70 @@ func (sess *lockstepSession) checkSlot(m *pb.LockstepSlot) []Violation {
 
 // step runs every controller for one validated slot and fills the response.
 func (sess *lockstepSession) step(m *pb.LockstepSlot) *pb.LockstepResponse {
+	gen := sess.gen
 	for _, b := range m.GetBlocks() {
 		sess.errs[b.GetUser()] = b.GetError()
 	}
 	sir := m.GetSirDb()
 	r := sess.resp
 	slot := m.GetSlot()
+	notActive := len(m.GetInactiveUsers()) > 0 || len(m.GetLeaveUsers()) > 0 || len(sess.joining) > 0
 	for i, c := range sess.ctls {
-		var blockErr *bool
-		if sess.blockAt[i] == slot {
-			blockErr = &sess.errs[i]
+		st := pb.LockstepUserState_LOCKSTEP_USER_STATE_ACTIVE
+		switch {
+		case sess.left[i]:
+			r.CommandDb[i] = 0
+			st = pb.LockstepUserState_LOCKSTEP_USER_STATE_LEFT
+		case sess.inactAt[i] == gen:
+			d := c.StepInactive()
+			r.CommandDb[i], r.TxPowerDbm[i], r.TargetDb[i] = d.CommandDB, d.PowerDBm, d.TargetDB
+			st = pb.LockstepUserState_LOCKSTEP_USER_STATE_INACTIVE
+		default:
+			var blockErr *bool
+			if sess.blockAt[i] == gen {
+				blockErr = &sess.errs[i]
+			}
+			d := c.Step(sir[i], blockErr)
+			r.CommandDb[i], r.TxPowerDbm[i], r.TargetDb[i] = d.CommandDB, d.PowerDBm, d.TargetDB
 		}
-		d := c.Step(sir[i], blockErr)
-		r.CommandDb[i], r.TxPowerDbm[i], r.TargetDb[i] = d.CommandDB, d.PowerDBm, d.TargetDB
+		if sess.leaveAt[i] == gen {
+			sess.left[i] = true
+			st = pb.LockstepUserState_LOCKSTEP_USER_STATE_LEFT
+		}
+		sess.states[i] = st
+	}
+	if len(sess.joining) > 0 {
+		n := len(sess.ctls)
+		sess.ctls = append(sess.ctls, sess.joining...)
+		sess.joining = sess.joining[:0]
+		sess.grow(len(sess.ctls))
+		for i := n; i < len(sess.ctls); i++ {
+			c := sess.ctls[i]
+			r.CommandDb[i], r.TxPowerDbm[i], r.TargetDb[i] = 0, c.PowerDBm(), c.TargetDB()
+			sess.states[i] = pb.LockstepUserState_LOCKSTEP_USER_STATE_JOINED
+		}
+	}
+	if notActive {
+		sess.anyState = true
+	}
+	if sess.anyState {
+		r.UserState = sess.states
 	}
 	r.Slot = slot
 	sess.next++
 	return r
+}
+
+// slotErrorReply is the in-stream answer to a refused slot message
+// (reply_on_slot_error): the slot index expected (to be sent again) and the
+// violations.
+func slotErrorReply(slot int64, vs []Violation) *pb.LockstepResponse {
+	vs = capViolations(dedupe(vs))
+	e := &pb.LockstepSlotError{}
+	for _, v := range vs {
+		e.Violations = append(e.Violations, &pb.LockstepFieldViolation{Field: v.Field, Description: v.Description})
+	}
+	return &pb.LockstepResponse{Slot: slot, SlotError: e}
 }
 
 // Lockstep runs the controllers of an external simulator slot by slot.
@@ -264,10 +395,24 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 			}
 			return s.reject([]Violation{{Field: "slot", Description: "message carries neither config nor slot"}})
 		}
-		if vs := sess.checkSlot(slot); len(vs) > 0 {
-			return s.reject(vs)
+		if vs := s.checkSlot(sess, slot); len(vs) > 0 {
+			if !sess.replyErrs {
+				return s.reject(vs)
+			}
+			// A per-slot data error: answered on the stream, no state changed.
+			s.metrics.rejected.WithLabelValues("invalid").Inc()
+			err = stream.Send(slotErrorReply(sess.next, vs))
+			idle.Stop()
+			if err != nil {
+				return statusFromError(ctx, err)
+			}
+			continue
 		}
+		joined := len(sess.joining) > 0
 		err = stream.Send(sess.step(slot))
+		if joined {
+			ci.cost.Store(int64(len(sess.ctls)))
+		}
 		idle.Stop()
 		if err != nil {
 			return statusFromError(ctx, err)

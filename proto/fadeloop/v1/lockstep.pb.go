@@ -22,6 +22,68 @@ const (
 	_ = protoimpl.EnforceVersion(protoimpl.MaxVersion - 20)
 )
 
+// LockstepUserState is a user's state in a LockstepResponse.
+type LockstepUserState int32
+
+const (
+	// Not used.
+	LockstepUserState_LOCKSTEP_USER_STATE_UNSPECIFIED LockstepUserState = 0
+	// Active in this slot: the command was decided from its measurement.
+	LockstepUserState_LOCKSTEP_USER_STATE_ACTIVE LockstepUserState = 1
+	// Inactive in this slot (LockstepSlot.inactive_users): no new command,
+	// target held.
+	LockstepUserState_LOCKSTEP_USER_STATE_INACTIVE LockstepUserState = 2
+	// Joined after this slot: the power is its first transmit power.
+	LockstepUserState_LOCKSTEP_USER_STATE_JOINED LockstepUserState = 3
+	// Left (LockstepSlot.leave_users, in this or an earlier slot).
+	LockstepUserState_LOCKSTEP_USER_STATE_LEFT LockstepUserState = 4
+)
+
+// Enum value maps for LockstepUserState.
+var (
+	LockstepUserState_name = map[int32]string{
+		0: "LOCKSTEP_USER_STATE_UNSPECIFIED",
+		1: "LOCKSTEP_USER_STATE_ACTIVE",
+		2: "LOCKSTEP_USER_STATE_INACTIVE",
+		3: "LOCKSTEP_USER_STATE_JOINED",
+		4: "LOCKSTEP_USER_STATE_LEFT",
+	}
+	LockstepUserState_value = map[string]int32{
+		"LOCKSTEP_USER_STATE_UNSPECIFIED": 0,
+		"LOCKSTEP_USER_STATE_ACTIVE":      1,
+		"LOCKSTEP_USER_STATE_INACTIVE":    2,
+		"LOCKSTEP_USER_STATE_JOINED":      3,
+		"LOCKSTEP_USER_STATE_LEFT":        4,
+	}
+)
+
+func (x LockstepUserState) Enum() *LockstepUserState {
+	p := new(LockstepUserState)
+	*p = x
+	return p
+}
+
+func (x LockstepUserState) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (LockstepUserState) Descriptor() protoreflect.EnumDescriptor {
+	return file_fadeloop_v1_lockstep_proto_enumTypes[0].Descriptor()
+}
+
+func (LockstepUserState) Type() protoreflect.EnumType {
+	return &file_fadeloop_v1_lockstep_proto_enumTypes[0]
+}
+
+func (x LockstepUserState) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use LockstepUserState.Descriptor instead.
+func (LockstepUserState) EnumDescriptor() ([]byte, []int) {
+	return file_fadeloop_v1_lockstep_proto_rawDescGZIP(), []int{0}
+}
+
 // LockstepUser is one controlled user's settings.
 type LockstepUser struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -96,9 +158,14 @@ type LockstepConfig struct {
 	Seed uint64 `protobuf:"varint,2,opt,name=seed,proto3" json:"seed,omitempty"`
 	// Receiver-side SIR estimate settings applied to the measured SIRs:
 	// estimation error and averaging (other receiver fields are not used).
-	Receiver      *Receiver `protobuf:"bytes,3,opt,name=receiver,proto3" json:"receiver,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Receiver *Receiver `protobuf:"bytes,3,opt,name=receiver,proto3" json:"receiver,omitempty"`
+	// Answer a bad slot message with a LockstepResponse whose slot_error
+	// names the fields, keep every controller's state unchanged and expect
+	// the same slot index again, instead of ending the stream with
+	// INVALID_ARGUMENT. Off by default.
+	ReplyOnSlotError bool `protobuf:"varint,4,opt,name=reply_on_slot_error,json=replyOnSlotError,proto3" json:"reply_on_slot_error,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *LockstepConfig) Reset() {
@@ -150,6 +217,13 @@ func (x *LockstepConfig) GetReceiver() *Receiver {
 		return x.Receiver
 	}
 	return nil
+}
+
+func (x *LockstepConfig) GetReplyOnSlotError() bool {
+	if x != nil {
+		return x.ReplyOnSlotError
+	}
+	return false
 }
 
 // BlockResult is the CRC outcome of one user's block that ended in a slot.
@@ -216,7 +290,23 @@ type LockstepSlot struct {
 	// finite and in [-100, 100].
 	SirDb []float64 `protobuf:"fixed64,2,rep,packed,name=sir_db,json=sirDb,proto3" json:"sir_db,omitempty"`
 	// CRC results of blocks that ended in this slot, at most one per user.
-	Blocks        []*BlockResult `protobuf:"bytes,3,rep,name=blocks,proto3" json:"blocks,omitempty"`
+	Blocks []*BlockResult `protobuf:"bytes,3,rep,name=blocks,proto3" json:"blocks,omitempty"`
+	// Users inactive in this slot (no transmission, e.g. DTX or idle): their
+	// sir_db entry is ignored (any value), no new command is decided
+	// (commands already in the feedback delay line still arrive and change
+	// the power), the target holds, and a block result for them is refused.
+	// Each index in [0, users), at most once.
+	InactiveUsers []int32 `protobuf:"varint,4,rep,packed,name=inactive_users,json=inactiveUsers,proto3" json:"inactive_users,omitempty"`
+	// Users that join after this slot: they take the next indices (users,
+	// users+1, ...), their first transmit power is in this slot's response,
+	// and every later slot carries a sir_db entry for each. The total of
+	// joined and configured users may not exceed 4096.
+	JoinUsers []*LockstepUser `protobuf:"bytes,5,rep,name=join_users,json=joinUsers,proto3" json:"join_users,omitempty"`
+	// Users that leave after this slot (handed over or switched off): their
+	// index stays reserved and never reused, later slots still carry a
+	// placeholder sir_db entry (ignored), and the responses repeat their last
+	// power and target with command 0. Each index in [0, users), at most once.
+	LeaveUsers    []int32 `protobuf:"varint,6,rep,packed,name=leave_users,json=leaveUsers,proto3" json:"leave_users,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -268,6 +358,27 @@ func (x *LockstepSlot) GetSirDb() []float64 {
 func (x *LockstepSlot) GetBlocks() []*BlockResult {
 	if x != nil {
 		return x.Blocks
+	}
+	return nil
+}
+
+func (x *LockstepSlot) GetInactiveUsers() []int32 {
+	if x != nil {
+		return x.InactiveUsers
+	}
+	return nil
+}
+
+func (x *LockstepSlot) GetJoinUsers() []*LockstepUser {
+	if x != nil {
+		return x.JoinUsers
+	}
+	return nil
+}
+
+func (x *LockstepSlot) GetLeaveUsers() []int32 {
+	if x != nil {
+		return x.LeaveUsers
 	}
 	return nil
 }
@@ -363,7 +474,8 @@ func (*LockstepRequest_Slot) isLockstepRequest_Message() {}
 // LockstepResponse answers one slot.
 type LockstepResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The slot answered.
+	// The slot answered; with slot_error, the slot index expected next (the
+	// one to send again, corrected).
 	Slot int64 `protobuf:"varint,1,opt,name=slot,proto3" json:"slot,omitempty"`
 	// Each user's power-control command in dB as sent (e.g. +1 or -1 for a
 	// fixed 1 dB step; one of levels_db for MULTI_LEVEL).
@@ -372,7 +484,16 @@ type LockstepResponse struct {
 	// effect in the next slot (feedback delay and power limits included).
 	TxPowerDbm []float64 `protobuf:"fixed64,3,rep,packed,name=tx_power_dbm,json=txPowerDbm,proto3" json:"tx_power_dbm,omitempty"`
 	// Each user's current SIR target in dB.
-	TargetDb      []float64 `protobuf:"fixed64,4,rep,packed,name=target_db,json=targetDb,proto3" json:"target_db,omitempty"`
+	TargetDb []float64 `protobuf:"fixed64,4,rep,packed,name=target_db,json=targetDb,proto3" json:"target_db,omitempty"`
+	// Set instead of the figures above when the slot message was refused
+	// (only with LockstepConfig.reply_on_slot_error): no state changed; send
+	// slot number `slot` again, corrected.
+	SlotError *LockstepSlotError `protobuf:"bytes,5,opt,name=slot_error,json=slotError,proto3" json:"slot_error,omitempty"`
+	// Each user's state in this slot: empty while every user of the stream
+	// has always been active (the common case keeps the message small); from
+	// the first slot with an inactive, joining or leaving user on, one entry
+	// per user in every response.
+	UserState     []LockstepUserState `protobuf:"varint,6,rep,packed,name=user_state,json=userState,proto3,enum=fadeloop.v1.LockstepUserState" json:"user_state,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -435,6 +556,122 @@ func (x *LockstepResponse) GetTargetDb() []float64 {
 	return nil
 }
 
+func (x *LockstepResponse) GetSlotError() *LockstepSlotError {
+	if x != nil {
+		return x.SlotError
+	}
+	return nil
+}
+
+func (x *LockstepResponse) GetUserState() []LockstepUserState {
+	if x != nil {
+		return x.UserState
+	}
+	return nil
+}
+
+// LockstepSlotError names what was wrong with a refused slot message.
+type LockstepSlotError struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// One violation per bad field; field paths are relative to the request
+	// (e.g. "slot.sir_db[3]", "slot.blocks[0].user").
+	Violations    []*LockstepFieldViolation `protobuf:"bytes,1,rep,name=violations,proto3" json:"violations,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LockstepSlotError) Reset() {
+	*x = LockstepSlotError{}
+	mi := &file_fadeloop_v1_lockstep_proto_msgTypes[6]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LockstepSlotError) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LockstepSlotError) ProtoMessage() {}
+
+func (x *LockstepSlotError) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_lockstep_proto_msgTypes[6]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LockstepSlotError.ProtoReflect.Descriptor instead.
+func (*LockstepSlotError) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_lockstep_proto_rawDescGZIP(), []int{6}
+}
+
+func (x *LockstepSlotError) GetViolations() []*LockstepFieldViolation {
+	if x != nil {
+		return x.Violations
+	}
+	return nil
+}
+
+// LockstepFieldViolation is one bad field of a refused slot message.
+type LockstepFieldViolation struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Field path in the request, e.g. "slot.sir_db[3]".
+	Field string `protobuf:"bytes,1,opt,name=field,proto3" json:"field,omitempty"`
+	// The rule broken and the value received.
+	Description   string `protobuf:"bytes,2,opt,name=description,proto3" json:"description,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LockstepFieldViolation) Reset() {
+	*x = LockstepFieldViolation{}
+	mi := &file_fadeloop_v1_lockstep_proto_msgTypes[7]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LockstepFieldViolation) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LockstepFieldViolation) ProtoMessage() {}
+
+func (x *LockstepFieldViolation) ProtoReflect() protoreflect.Message {
+	mi := &file_fadeloop_v1_lockstep_proto_msgTypes[7]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LockstepFieldViolation.ProtoReflect.Descriptor instead.
+func (*LockstepFieldViolation) Descriptor() ([]byte, []int) {
+	return file_fadeloop_v1_lockstep_proto_rawDescGZIP(), []int{7}
+}
+
+func (x *LockstepFieldViolation) GetField() string {
+	if x != nil {
+		return x.Field
+	}
+	return ""
+}
+
+func (x *LockstepFieldViolation) GetDescription() string {
+	if x != nil {
+		return x.Description
+	}
+	return ""
+}
+
 var File_fadeloop_v1_lockstep_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_lockstep_proto_rawDesc = "" +
@@ -446,29 +683,52 @@ const file_fadeloop_v1_lockstep_proto_rawDesc = "" +
 	"\n" +
 	"outer_loop\x18\x02 \x01(\v2\x16.fadeloop.v1.OuterLoopB\x06\xbaH\x03\xc8\x01\x01R\touterLoop\x129\n" +
 	"\fpath_loss_db\x18\x03 \x01(\x01B\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00R\n" +
-	"pathLossDb\"\x95\x01\n" +
+	"pathLossDb\"\xc4\x01\n" +
 	"\x0eLockstepConfig\x12<\n" +
 	"\x05users\x18\x01 \x03(\v2\x19.fadeloop.v1.LockstepUserB\v\xbaH\b\x92\x01\x05\b\x01\x10\x80 R\x05users\x12\x12\n" +
 	"\x04seed\x18\x02 \x01(\x04R\x04seed\x121\n" +
-	"\breceiver\x18\x03 \x01(\v2\x15.fadeloop.v1.ReceiverR\breceiver\"@\n" +
+	"\breceiver\x18\x03 \x01(\v2\x15.fadeloop.v1.ReceiverR\breceiver\x12-\n" +
+	"\x13reply_on_slot_error\x18\x04 \x01(\bR\x10replyOnSlotError\"@\n" +
 	"\vBlockResult\x12\x1b\n" +
 	"\x04user\x18\x01 \x01(\x05B\a\xbaH\x04\x1a\x02(\x00R\x04user\x12\x14\n" +
-	"\x05error\x18\x02 \x01(\bR\x05error\"\xa2\x01\n" +
+	"\x05error\x18\x02 \x01(\bR\x05error\"\xc5\x02\n" +
 	"\fLockstepSlot\x12\x1b\n" +
 	"\x04slot\x18\x01 \x01(\x03B\a\xbaH\x04\"\x02(\x00R\x04slot\x128\n" +
 	"\x06sir_db\x18\x02 \x03(\x01B!\xbaH\x1e\x92\x01\x1b\b\x01\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00Y\xc0R\x05sirDb\x12;\n" +
-	"\x06blocks\x18\x03 \x03(\v2\x18.fadeloop.v1.BlockResultB\t\xbaH\x06\x92\x01\x03\x10\x80 R\x06blocks\"\x8b\x01\n" +
+	"\x06blocks\x18\x03 \x03(\v2\x18.fadeloop.v1.BlockResultB\t\xbaH\x06\x92\x01\x03\x10\x80 R\x06blocks\x120\n" +
+	"\x0einactive_users\x18\x04 \x03(\x05B\t\xbaH\x06\x92\x01\x03\x10\x80 R\rinactiveUsers\x12C\n" +
+	"\n" +
+	"join_users\x18\x05 \x03(\v2\x19.fadeloop.v1.LockstepUserB\t\xbaH\x06\x92\x01\x03\x10\x80 R\tjoinUsers\x12*\n" +
+	"\vleave_users\x18\x06 \x03(\x05B\t\xbaH\x06\x92\x01\x03\x10\x80 R\n" +
+	"leaveUsers\"\x8b\x01\n" +
 	"\x0fLockstepRequest\x125\n" +
 	"\x06config\x18\x01 \x01(\v2\x1b.fadeloop.v1.LockstepConfigH\x00R\x06config\x12/\n" +
 	"\x04slot\x18\x02 \x01(\v2\x19.fadeloop.v1.LockstepSlotH\x00R\x04slotB\x10\n" +
-	"\amessage\x12\x05\xbaH\x02\b\x01\"\x84\x01\n" +
+	"\amessage\x12\x05\xbaH\x02\b\x01\"\x82\x02\n" +
 	"\x10LockstepResponse\x12\x12\n" +
 	"\x04slot\x18\x01 \x01(\x03R\x04slot\x12\x1d\n" +
 	"\n" +
 	"command_db\x18\x02 \x03(\x01R\tcommandDb\x12 \n" +
 	"\ftx_power_dbm\x18\x03 \x03(\x01R\n" +
 	"txPowerDbm\x12\x1b\n" +
-	"\ttarget_db\x18\x04 \x03(\x01R\btargetDb2Z\n" +
+	"\ttarget_db\x18\x04 \x03(\x01R\btargetDb\x12=\n" +
+	"\n" +
+	"slot_error\x18\x05 \x01(\v2\x1e.fadeloop.v1.LockstepSlotErrorR\tslotError\x12=\n" +
+	"\n" +
+	"user_state\x18\x06 \x03(\x0e2\x1e.fadeloop.v1.LockstepUserStateR\tuserState\"X\n" +
+	"\x11LockstepSlotError\x12C\n" +
+	"\n" +
+	"violations\x18\x01 \x03(\v2#.fadeloop.v1.LockstepFieldViolationR\n" +
+	"violations\"P\n" +
+	"\x16LockstepFieldViolation\x12\x14\n" +
+	"\x05field\x18\x01 \x01(\tR\x05field\x12 \n" +
+	"\vdescription\x18\x02 \x01(\tR\vdescription*\xb8\x01\n" +
+	"\x11LockstepUserState\x12#\n" +
+	"\x1fLOCKSTEP_USER_STATE_UNSPECIFIED\x10\x00\x12\x1e\n" +
+	"\x1aLOCKSTEP_USER_STATE_ACTIVE\x10\x01\x12 \n" +
+	"\x1cLOCKSTEP_USER_STATE_INACTIVE\x10\x02\x12\x1e\n" +
+	"\x1aLOCKSTEP_USER_STATE_JOINED\x10\x03\x12\x1c\n" +
+	"\x18LOCKSTEP_USER_STATE_LEFT\x10\x042Z\n" +
 	"\vLoopService\x12K\n" +
 	"\bLockstep\x12\x1c.fadeloop.v1.LockstepRequest\x1a\x1d.fadeloop.v1.LockstepResponse(\x010\x01B;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 
@@ -484,33 +744,41 @@ func file_fadeloop_v1_lockstep_proto_rawDescGZIP() []byte {
 	return file_fadeloop_v1_lockstep_proto_rawDescData
 }
 
-var file_fadeloop_v1_lockstep_proto_msgTypes = make([]protoimpl.MessageInfo, 6)
+var file_fadeloop_v1_lockstep_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
+var file_fadeloop_v1_lockstep_proto_msgTypes = make([]protoimpl.MessageInfo, 8)
 var file_fadeloop_v1_lockstep_proto_goTypes = []any{
-	(*LockstepUser)(nil),     // 0: fadeloop.v1.LockstepUser
-	(*LockstepConfig)(nil),   // 1: fadeloop.v1.LockstepConfig
-	(*BlockResult)(nil),      // 2: fadeloop.v1.BlockResult
-	(*LockstepSlot)(nil),     // 3: fadeloop.v1.LockstepSlot
-	(*LockstepRequest)(nil),  // 4: fadeloop.v1.LockstepRequest
-	(*LockstepResponse)(nil), // 5: fadeloop.v1.LockstepResponse
-	(*InnerLoop)(nil),        // 6: fadeloop.v1.InnerLoop
-	(*OuterLoop)(nil),        // 7: fadeloop.v1.OuterLoop
-	(*Receiver)(nil),         // 8: fadeloop.v1.Receiver
+	(LockstepUserState)(0),         // 0: fadeloop.v1.LockstepUserState
+	(*LockstepUser)(nil),           // 1: fadeloop.v1.LockstepUser
+	(*LockstepConfig)(nil),         // 2: fadeloop.v1.LockstepConfig
+	(*BlockResult)(nil),            // 3: fadeloop.v1.BlockResult
+	(*LockstepSlot)(nil),           // 4: fadeloop.v1.LockstepSlot
+	(*LockstepRequest)(nil),        // 5: fadeloop.v1.LockstepRequest
+	(*LockstepResponse)(nil),       // 6: fadeloop.v1.LockstepResponse
+	(*LockstepSlotError)(nil),      // 7: fadeloop.v1.LockstepSlotError
+	(*LockstepFieldViolation)(nil), // 8: fadeloop.v1.LockstepFieldViolation
+	(*InnerLoop)(nil),              // 9: fadeloop.v1.InnerLoop
+	(*OuterLoop)(nil),              // 10: fadeloop.v1.OuterLoop
+	(*Receiver)(nil),               // 11: fadeloop.v1.Receiver
 }
 var file_fadeloop_v1_lockstep_proto_depIdxs = []int32{
-	6, // 0: fadeloop.v1.LockstepUser.inner_loop:type_name -> fadeloop.v1.InnerLoop
-	7, // 1: fadeloop.v1.LockstepUser.outer_loop:type_name -> fadeloop.v1.OuterLoop
-	0, // 2: fadeloop.v1.LockstepConfig.users:type_name -> fadeloop.v1.LockstepUser
-	8, // 3: fadeloop.v1.LockstepConfig.receiver:type_name -> fadeloop.v1.Receiver
-	2, // 4: fadeloop.v1.LockstepSlot.blocks:type_name -> fadeloop.v1.BlockResult
-	1, // 5: fadeloop.v1.LockstepRequest.config:type_name -> fadeloop.v1.LockstepConfig
-	3, // 6: fadeloop.v1.LockstepRequest.slot:type_name -> fadeloop.v1.LockstepSlot
-	4, // 7: fadeloop.v1.LoopService.Lockstep:input_type -> fadeloop.v1.LockstepRequest
-	5, // 8: fadeloop.v1.LoopService.Lockstep:output_type -> fadeloop.v1.LockstepResponse
-	8, // [8:9] is the sub-list for method output_type
-	7, // [7:8] is the sub-list for method input_type
-	7, // [7:7] is the sub-list for extension type_name
-	7, // [7:7] is the sub-list for extension extendee
-	0, // [0:7] is the sub-list for field type_name
+	9,  // 0: fadeloop.v1.LockstepUser.inner_loop:type_name -> fadeloop.v1.InnerLoop
+	10, // 1: fadeloop.v1.LockstepUser.outer_loop:type_name -> fadeloop.v1.OuterLoop
+	1,  // 2: fadeloop.v1.LockstepConfig.users:type_name -> fadeloop.v1.LockstepUser
+	11, // 3: fadeloop.v1.LockstepConfig.receiver:type_name -> fadeloop.v1.Receiver
+	3,  // 4: fadeloop.v1.LockstepSlot.blocks:type_name -> fadeloop.v1.BlockResult
+	1,  // 5: fadeloop.v1.LockstepSlot.join_users:type_name -> fadeloop.v1.LockstepUser
+	2,  // 6: fadeloop.v1.LockstepRequest.config:type_name -> fadeloop.v1.LockstepConfig
+	4,  // 7: fadeloop.v1.LockstepRequest.slot:type_name -> fadeloop.v1.LockstepSlot
+	7,  // 8: fadeloop.v1.LockstepResponse.slot_error:type_name -> fadeloop.v1.LockstepSlotError
+	0,  // 9: fadeloop.v1.LockstepResponse.user_state:type_name -> fadeloop.v1.LockstepUserState
+	8,  // 10: fadeloop.v1.LockstepSlotError.violations:type_name -> fadeloop.v1.LockstepFieldViolation
+	5,  // 11: fadeloop.v1.LoopService.Lockstep:input_type -> fadeloop.v1.LockstepRequest
+	6,  // 12: fadeloop.v1.LoopService.Lockstep:output_type -> fadeloop.v1.LockstepResponse
+	12, // [12:13] is the sub-list for method output_type
+	11, // [11:12] is the sub-list for method input_type
+	11, // [11:11] is the sub-list for extension type_name
+	11, // [11:11] is the sub-list for extension extendee
+	0,  // [0:11] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_lockstep_proto_init() }
@@ -528,13 +796,14 @@ func file_fadeloop_v1_lockstep_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fadeloop_v1_lockstep_proto_rawDesc), len(file_fadeloop_v1_lockstep_proto_rawDesc)),
-			NumEnums:      0,
-			NumMessages:   6,
+			NumEnums:      1,
+			NumMessages:   8,
 			NumExtensions: 0,
 			NumServices:   1,
 		},
 		GoTypes:           file_fadeloop_v1_lockstep_proto_goTypes,
 		DependencyIndexes: file_fadeloop_v1_lockstep_proto_depIdxs,
+		EnumInfos:         file_fadeloop_v1_lockstep_proto_enumTypes,
 		MessageInfos:      file_fadeloop_v1_lockstep_proto_msgTypes,
 	}.Build()
 	File_fadeloop_v1_lockstep_proto = out.File

@@ -32,9 +32,13 @@ type LoopServiceClient interface {
 	// Lockstep: the first request configures the controllers (inner and outer
 	// loop per user, seed); each following request carries one slot's
 	// measurements, and the service answers each with one response carrying
-	// every user's command, new transmit power and SIR target. A missing
-	// configuration, a wrong user count or an out-of-order slot ends the
-	// stream with INVALID_ARGUMENT naming the field.
+	// every user's command, new transmit power and SIR target. A missing or
+	// repeated configuration ends the stream with INVALID_ARGUMENT naming the
+	// field. A bad slot message (wrong user count, out-of-order slot, SIR out
+	// of range, unknown user index) ends the stream the same way, unless the
+	// configuration sets reply_on_slot_error: then the service answers it
+	// with a LockstepResponse carrying slot_error, changes no state, and
+	// waits for that slot again.
 	Lockstep(ctx context.Context, opts ...grpc.CallOption) (grpc.BidiStreamingClient[LockstepRequest, LockstepResponse], error)
 }
 
@@ -69,9 +73,13 @@ type LoopServiceServer interface {
 	// Lockstep: the first request configures the controllers (inner and outer
 	// loop per user, seed); each following request carries one slot's
 	// measurements, and the service answers each with one response carrying
-	// every user's command, new transmit power and SIR target. A missing
-	// configuration, a wrong user count or an out-of-order slot ends the
-	// stream with INVALID_ARGUMENT naming the field.
+	// every user's command, new transmit power and SIR target. A missing or
+	// repeated configuration ends the stream with INVALID_ARGUMENT naming the
+	// field. A bad slot message (wrong user count, out-of-order slot, SIR out
+	// of range, unknown user index) ends the stream the same way, unless the
+	// configuration sets reply_on_slot_error: then the service answers it
+	// with a LockstepResponse carrying slot_error, changes no state, and
+	// waits for that slot again.
 	Lockstep(grpc.BidiStreamingServer[LockstepRequest, LockstepResponse]) error
 	mustEmbedUnimplementedLoopServiceServer()
 }

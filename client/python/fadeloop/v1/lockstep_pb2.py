@@ -3,6 +3,7 @@
 
 import sys
 _b=sys.version_info[0]<3 and (lambda x:x) or (lambda x:x.encode('latin1'))
+from google.protobuf.internal import enum_type_wrapper
 from google.protobuf import descriptor as _descriptor
 from google.protobuf import message as _message
 from google.protobuf import reflection as _reflection
@@ -21,10 +22,50 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/lockstep.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x1a\x66\x61\x64\x65loop/v1/lockstep.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"\xa5\x01\n\x0cLockstepUser\x12\x32\n\ninner_loop\x18\x01 \x01(\x0b\x32\x16.fadeloop.v1.InnerLoopB\x06\xbaH\x03\xc8\x01\x01\x12\x32\n\nouter_loop\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.OuterLoopB\x06\xbaH\x03\xc8\x01\x01\x12-\n\x0cpath_loss_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00\"~\n\x0eLockstepConfig\x12\x35\n\x05users\x18\x01 \x03(\x0b\x32\x19.fadeloop.v1.LockstepUserB\x0b\xbaH\x08\x92\x01\x05\x08\x01\x10\x80 \x12\x0c\n\x04seed\x18\x02 \x01(\x04\x12\'\n\x08receiver\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Receiver\"3\n\x0b\x42lockResult\x12\x15\n\x04user\x18\x01 \x01(\x05\x42\x07\xbaH\x04\x1a\x02(\x00\x12\r\n\x05\x65rror\x18\x02 \x01(\x08\"\x8d\x01\n\x0cLockstepSlot\x12\x15\n\x04slot\x18\x01 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\x12\x31\n\x06sir_db\x18\x02 \x03(\x01\x42!\xbaH\x1e\x92\x01\x1b\x08\x01\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00Y\xc0\x12\x33\n\x06\x62locks\x18\x03 \x03(\x0b\x32\x18.fadeloop.v1.BlockResultB\t\xbaH\x06\x92\x01\x03\x10\x80 \"}\n\x0fLockstepRequest\x12-\n\x06\x63onfig\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.LockstepConfigH\x00\x12)\n\x04slot\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.LockstepSlotH\x00\x42\x10\n\x07message\x12\x05\xbaH\x02\x08\x01\"]\n\x10LockstepResponse\x12\x0c\n\x04slot\x18\x01 \x01(\x03\x12\x12\n\ncommand_db\x18\x02 \x03(\x01\x12\x14\n\x0ctx_power_dbm\x18\x03 \x03(\x01\x12\x11\n\ttarget_db\x18\x04 \x03(\x01\x32Z\n\x0bLoopService\x12K\n\x08Lockstep\x12\x1c.fadeloop.v1.LockstepRequest\x1a\x1d.fadeloop.v1.LockstepResponse(\x01\x30\x01\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x1a\x66\x61\x64\x65loop/v1/lockstep.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"\xa5\x01\n\x0cLockstepUser\x12\x32\n\ninner_loop\x18\x01 \x01(\x0b\x32\x16.fadeloop.v1.InnerLoopB\x06\xbaH\x03\xc8\x01\x01\x12\x32\n\nouter_loop\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.OuterLoopB\x06\xbaH\x03\xc8\x01\x01\x12-\n\x0cpath_loss_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00\"\x9b\x01\n\x0eLockstepConfig\x12\x35\n\x05users\x18\x01 \x03(\x0b\x32\x19.fadeloop.v1.LockstepUserB\x0b\xbaH\x08\x92\x01\x05\x08\x01\x10\x80 \x12\x0c\n\x04seed\x18\x02 \x01(\x04\x12\'\n\x08receiver\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Receiver\x12\x1b\n\x13reply_on_slot_error\x18\x04 \x01(\x08\"3\n\x0b\x42lockResult\x12\x15\n\x04user\x18\x01 \x01(\x05\x42\x07\xbaH\x04\x1a\x02(\x00\x12\r\n\x05\x65rror\x18\x02 \x01(\x08\"\x8a\x02\n\x0cLockstepSlot\x12\x15\n\x04slot\x18\x01 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\x12\x31\n\x06sir_db\x18\x02 \x03(\x01\x42!\xbaH\x1e\x92\x01\x1b\x08\x01\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00Y\xc0\x12\x33\n\x06\x62locks\x18\x03 \x03(\x0b\x32\x18.fadeloop.v1.BlockResultB\t\xbaH\x06\x92\x01\x03\x10\x80 \x12!\n\x0einactive_users\x18\x04 \x03(\x05\x42\t\xbaH\x06\x92\x01\x03\x10\x80 \x12\x38\n\njoin_users\x18\x05 \x03(\x0b\x32\x19.fadeloop.v1.LockstepUserB\t\xbaH\x06\x92\x01\x03\x10\x80 \x12\x1e\n\x0bleave_users\x18\x06 \x03(\x05\x42\t\xbaH\x06\x92\x01\x03\x10\x80 \"}\n\x0fLockstepRequest\x12-\n\x06\x63onfig\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.LockstepConfigH\x00\x12)\n\x04slot\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.LockstepSlotH\x00\x42\x10\n\x07message\x12\x05\xbaH\x02\x08\x01\"\xc5\x01\n\x10LockstepResponse\x12\x0c\n\x04slot\x18\x01 \x01(\x03\x12\x12\n\ncommand_db\x18\x02 \x03(\x01\x12\x14\n\x0ctx_power_dbm\x18\x03 \x03(\x01\x12\x11\n\ttarget_db\x18\x04 \x03(\x01\x12\x32\n\nslot_error\x18\x05 \x01(\x0b\x32\x1e.fadeloop.v1.LockstepSlotError\x12\x32\n\nuser_state\x18\x06 \x03(\x0e\x32\x1e.fadeloop.v1.LockstepUserState\"L\n\x11LockstepSlotError\x12\x37\n\nviolations\x18\x01 \x03(\x0b\x32#.fadeloop.v1.LockstepFieldViolation\"<\n\x16LockstepFieldViolation\x12\r\n\x05\x66ield\x18\x01 \x01(\t\x12\x13\n\x0b\x64\x65scription\x18\x02 \x01(\t*\xb8\x01\n\x11LockstepUserState\x12#\n\x1fLOCKSTEP_USER_STATE_UNSPECIFIED\x10\x00\x12\x1e\n\x1aLOCKSTEP_USER_STATE_ACTIVE\x10\x01\x12 \n\x1cLOCKSTEP_USER_STATE_INACTIVE\x10\x02\x12\x1e\n\x1aLOCKSTEP_USER_STATE_JOINED\x10\x03\x12\x1c\n\x18LOCKSTEP_USER_STATE_LEFT\x10\x04\x32Z\n\x0bLoopService\x12K\n\x08Lockstep\x12\x1c.fadeloop.v1.LockstepRequest\x1a\x1d.fadeloop.v1.LockstepResponse(\x01\x30\x01\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[buf_dot_validate_dot_validate__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_scenario__pb2.DESCRIPTOR,])
 
+_LOCKSTEPUSERSTATE = _descriptor.EnumDescriptor(
+  name='LockstepUserState',
+  full_name='fadeloop.v1.LockstepUserState',
+  filename=None,
+  file=DESCRIPTOR,
+  values=[
+    _descriptor.EnumValueDescriptor(
+      name='LOCKSTEP_USER_STATE_UNSPECIFIED', index=0, number=0,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='LOCKSTEP_USER_STATE_ACTIVE', index=1, number=1,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='LOCKSTEP_USER_STATE_INACTIVE', index=2, number=2,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='LOCKSTEP_USER_STATE_JOINED', index=3, number=3,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='LOCKSTEP_USER_STATE_LEFT', index=4, number=4,
+      options=None,
+      type=None),
+  ],
+  containing_type=None,
+  options=None,
+  serialized_start=1216,
+  serialized_end=1400,
+)
+_sym_db.RegisterEnumDescriptor(_LOCKSTEPUSERSTATE)
+
+LockstepUserState = enum_type_wrapper.EnumTypeWrapper(_LOCKSTEPUSERSTATE)
+LOCKSTEP_USER_STATE_UNSPECIFIED = 0
+LOCKSTEP_USER_STATE_ACTIVE = 1
+LOCKSTEP_USER_STATE_INACTIVE = 2
+LOCKSTEP_USER_STATE_JOINED = 3
+LOCKSTEP_USER_STATE_LEFT = 4
 
 
 
@@ -101,6 +142,13 @@ _LOCKSTEPCONFIG = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='reply_on_slot_error', full_name='fadeloop.v1.LockstepConfig.reply_on_slot_error', index=3,
+      number=4, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -113,8 +161,8 @@ _LOCKSTEPCONFIG = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=268,
-  serialized_end=394,
+  serialized_start=269,
+  serialized_end=424,
 )
 
 
@@ -151,8 +199,8 @@ _BLOCKRESULT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=396,
-  serialized_end=447,
+  serialized_start=426,
+  serialized_end=477,
 )
 
 
@@ -184,6 +232,27 @@ _LOCKSTEPSLOT = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 ')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='inactive_users', full_name='fadeloop.v1.LockstepSlot.inactive_users', index=3,
+      number=4, type=5, cpp_type=1, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 ')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='join_users', full_name='fadeloop.v1.LockstepSlot.join_users', index=4,
+      number=5, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 ')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='leave_users', full_name='fadeloop.v1.LockstepSlot.leave_users', index=5,
+      number=6, type=5, cpp_type=1, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 ')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -196,8 +265,8 @@ _LOCKSTEPSLOT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=450,
-  serialized_end=591,
+  serialized_start=480,
+  serialized_end=746,
 )
 
 
@@ -237,8 +306,8 @@ _LOCKSTEPREQUEST = _descriptor.Descriptor(
       name='message', full_name='fadeloop.v1.LockstepRequest.message',
       index=0, containing_type=None, fields=[], options=_descriptor._ParseOptions(descriptor_pb2.OneofOptions(), _b('\272H\002\010\001'))),
   ],
-  serialized_start=593,
-  serialized_end=718,
+  serialized_start=748,
+  serialized_end=873,
 )
 
 
@@ -277,6 +346,20 @@ _LOCKSTEPRESPONSE = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='slot_error', full_name='fadeloop.v1.LockstepResponse.slot_error', index=4,
+      number=5, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='user_state', full_name='fadeloop.v1.LockstepResponse.user_state', index=5,
+      number=6, type=14, cpp_type=8, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -289,8 +372,77 @@ _LOCKSTEPRESPONSE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=720,
-  serialized_end=813,
+  serialized_start=876,
+  serialized_end=1073,
+)
+
+
+_LOCKSTEPSLOTERROR = _descriptor.Descriptor(
+  name='LockstepSlotError',
+  full_name='fadeloop.v1.LockstepSlotError',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='violations', full_name='fadeloop.v1.LockstepSlotError.violations', index=0,
+      number=1, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=1075,
+  serialized_end=1151,
+)
+
+
+_LOCKSTEPFIELDVIOLATION = _descriptor.Descriptor(
+  name='LockstepFieldViolation',
+  full_name='fadeloop.v1.LockstepFieldViolation',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='field', full_name='fadeloop.v1.LockstepFieldViolation.field', index=0,
+      number=1, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='description', full_name='fadeloop.v1.LockstepFieldViolation.description', index=1,
+      number=2, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=1153,
+  serialized_end=1213,
 )
 
 _LOCKSTEPUSER.fields_by_name['inner_loop'].message_type = fadeloop_dot_v1_dot_scenario__pb2._INNERLOOP
@@ -298,6 +450,7 @@ _LOCKSTEPUSER.fields_by_name['outer_loop'].message_type = fadeloop_dot_v1_dot_sc
 _LOCKSTEPCONFIG.fields_by_name['users'].message_type = _LOCKSTEPUSER
 _LOCKSTEPCONFIG.fields_by_name['receiver'].message_type = fadeloop_dot_v1_dot_scenario__pb2._RECEIVER
 _LOCKSTEPSLOT.fields_by_name['blocks'].message_type = _BLOCKRESULT
+_LOCKSTEPSLOT.fields_by_name['join_users'].message_type = _LOCKSTEPUSER
 _LOCKSTEPREQUEST.fields_by_name['config'].message_type = _LOCKSTEPCONFIG
 _LOCKSTEPREQUEST.fields_by_name['slot'].message_type = _LOCKSTEPSLOT
 _LOCKSTEPREQUEST.oneofs_by_name['message'].fields.append(
@@ -306,12 +459,18 @@ _LOCKSTEPREQUEST.fields_by_name['config'].containing_oneof = _LOCKSTEPREQUEST.on
 _LOCKSTEPREQUEST.oneofs_by_name['message'].fields.append(
   _LOCKSTEPREQUEST.fields_by_name['slot'])
 _LOCKSTEPREQUEST.fields_by_name['slot'].containing_oneof = _LOCKSTEPREQUEST.oneofs_by_name['message']
+_LOCKSTEPRESPONSE.fields_by_name['slot_error'].message_type = _LOCKSTEPSLOTERROR
+_LOCKSTEPRESPONSE.fields_by_name['user_state'].enum_type = _LOCKSTEPUSERSTATE
+_LOCKSTEPSLOTERROR.fields_by_name['violations'].message_type = _LOCKSTEPFIELDVIOLATION
 DESCRIPTOR.message_types_by_name['LockstepUser'] = _LOCKSTEPUSER
 DESCRIPTOR.message_types_by_name['LockstepConfig'] = _LOCKSTEPCONFIG
 DESCRIPTOR.message_types_by_name['BlockResult'] = _BLOCKRESULT
 DESCRIPTOR.message_types_by_name['LockstepSlot'] = _LOCKSTEPSLOT
 DESCRIPTOR.message_types_by_name['LockstepRequest'] = _LOCKSTEPREQUEST
 DESCRIPTOR.message_types_by_name['LockstepResponse'] = _LOCKSTEPRESPONSE
+DESCRIPTOR.message_types_by_name['LockstepSlotError'] = _LOCKSTEPSLOTERROR
+DESCRIPTOR.message_types_by_name['LockstepFieldViolation'] = _LOCKSTEPFIELDVIOLATION
+DESCRIPTOR.enum_types_by_name['LockstepUserState'] = _LOCKSTEPUSERSTATE
 _sym_db.RegisterFileDescriptor(DESCRIPTOR)
 
 LockstepUser = _reflection.GeneratedProtocolMessageType('LockstepUser', (_message.Message,), dict(
@@ -356,6 +515,20 @@ LockstepResponse = _reflection.GeneratedProtocolMessageType('LockstepResponse', 
   ))
 _sym_db.RegisterMessage(LockstepResponse)
 
+LockstepSlotError = _reflection.GeneratedProtocolMessageType('LockstepSlotError', (_message.Message,), dict(
+  DESCRIPTOR = _LOCKSTEPSLOTERROR,
+  __module__ = 'fadeloop.v1.lockstep_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LockstepSlotError)
+  ))
+_sym_db.RegisterMessage(LockstepSlotError)
+
+LockstepFieldViolation = _reflection.GeneratedProtocolMessageType('LockstepFieldViolation', (_message.Message,), dict(
+  DESCRIPTOR = _LOCKSTEPFIELDVIOLATION,
+  __module__ = 'fadeloop.v1.lockstep_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LockstepFieldViolation)
+  ))
+_sym_db.RegisterMessage(LockstepFieldViolation)
+
 
 DESCRIPTOR.has_options = True
 DESCRIPTOR._options = _descriptor._ParseOptions(descriptor_pb2.FileOptions(), _b('Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1'))
@@ -375,6 +548,12 @@ _LOCKSTEPSLOT.fields_by_name['sir_db'].has_options = True
 _LOCKSTEPSLOT.fields_by_name['sir_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\036\222\001\033\010\001\020\200 \"\024\022\022\031\000\000\000\000\000\000Y@)\000\000\000\000\000\000Y\300'))
 _LOCKSTEPSLOT.fields_by_name['blocks'].has_options = True
 _LOCKSTEPSLOT.fields_by_name['blocks']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 '))
+_LOCKSTEPSLOT.fields_by_name['inactive_users'].has_options = True
+_LOCKSTEPSLOT.fields_by_name['inactive_users']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 '))
+_LOCKSTEPSLOT.fields_by_name['join_users'].has_options = True
+_LOCKSTEPSLOT.fields_by_name['join_users']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 '))
+_LOCKSTEPSLOT.fields_by_name['leave_users'].has_options = True
+_LOCKSTEPSLOT.fields_by_name['leave_users']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200 '))
 _LOCKSTEPREQUEST.oneofs_by_name['message'].has_options = True
 _LOCKSTEPREQUEST.oneofs_by_name['message']._options = _descriptor._ParseOptions(descriptor_pb2.OneofOptions(), _b('\272H\002\010\001'))
 
@@ -384,8 +563,8 @@ _LOOPSERVICE = _descriptor.ServiceDescriptor(
   file=DESCRIPTOR,
   index=0,
   options=None,
-  serialized_start=815,
-  serialized_end=905,
+  serialized_start=1402,
+  serialized_end=1492,
   methods=[
   _descriptor.MethodDescriptor(
     name='Lockstep',
