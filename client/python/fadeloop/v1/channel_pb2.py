@@ -21,7 +21,7 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/channel.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x19\x66\x61\x64\x65loop/v1/channel.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"\x96\x03\n\x0b\x43hannelSpec\x12+\n\ndoppler_hz\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0esample_rate_hz\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x84\xd7\x97\x41!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x18\n\x07profile\x18\x03 \x01(\tB\x07\xbaH\x04r\x02\x18\x10\x12/\n\x0b\x63ustom_taps\x18\x04 \x03(\x0b\x32\x10.fadeloop.v1.TapB\x08\xbaH\x05\x92\x01\x02\x10@\x12,\n\x0brician_k_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12\x0b\n\x03los\x18\x06 \x01(\x08\x12.\n\rlos_angle_rad\x18\x07 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x18-DT\xfb!\x19@)\x18-DT\xfb!\x19\xc0\x12\x35\n\tgenerator\x18\x08 \x01(\x0e\x32\x16.fadeloop.v1.GeneratorB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x1d\n\tsinusoids\x18\t \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x08(\x00:\x1d\xbaH\x1a\"\x18\n\x07profile\n\x0b\x63ustom_taps\x10\x01\"\xb4\x01\n\x12StreamGainsRequest\x12\x31\n\x07\x63hannel\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01\x12\x19\n\x05links\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x01\x12\x1e\n\x07samples\x18\x03 \x01(\x03\x42\r\xbaH\n\"\x08\x18\x80\xc8\xaf\xa0%(\x01\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12\"\n\rchunk_samples\x18\x05 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\x80\x80@(\x00\"~\n\x13StreamGainsResponse\x12\x13\n\x0b\x63hunk_index\x18\x01 \x01(\x03\x12\x15\n\rsample_offset\x18\x02 \x01(\x03\x12\x0f\n\x07samples\x18\x03 \x01(\x05\x12\r\n\x05links\x18\x04 \x01(\x05\x12\x0c\n\x04taps\x18\x05 \x01(\x05\x12\r\n\x05gains\x18\x06 \x01(\x0c\"\xde\x01\n\x13\x43heckChannelRequest\x12\x31\n\x07\x63hannel\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01\x12\x1f\n\x05links\x18\x02 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x80 (\x08\x12\x36\n\x0f\x64oppler_periods\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x88\xd3@)\x00\x00\x00\x00\x00\x00\x34@\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12-\n\x06sigmas\x18\x05 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\xf0?\"\xb6\x01\n\tCheckLine\x12\x0c\n\x04name\x18\x01 \x01(\t\x12\x10\n\x08measured\x18\x02 \x01(\x01\x12\x0e\n\x06theory\x18\x03 \x01(\x01\x12\x11\n\ttolerance\x18\x04 \x01(\x01\x12\x0c\n\x04pass\x18\x05 \x01(\x08\x12\x0c\n\x04unit\x18\x06 \x01(\t\x12\x0c\n\x04kind\x18\x07 \x01(\t\x12\x0b\n\x03\x61rg\x18\x08 \x01(\x01\x12\x10\n\x08\x62ranches\x18\t \x01(\x05\x12\x0c\n\x04\x66\x64_t\x18\n \x01(\x01\x12\x0f\n\x07periods\x18\x0b \x01(\x01\"s\n\x14\x43heckChannelResponse\x12%\n\x05lines\x18\x01 \x03(\x0b\x32\x16.fadeloop.v1.CheckLine\x12\x0c\n\x04pass\x18\x02 \x01(\x08\x12\r\n\x05links\x18\x03 \x01(\x05\x12\x17\n\x0f\x64oppler_periods\x18\x04 \x01(\x01\x32\xb9\x01\n\x0e\x43hannelService\x12R\n\x0bStreamGains\x12\x1f.fadeloop.v1.StreamGainsRequest\x1a .fadeloop.v1.StreamGainsResponse0\x01\x12S\n\x0c\x43heckChannel\x12 .fadeloop.v1.CheckChannelRequest\x1a!.fadeloop.v1.CheckChannelResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x19\x66\x61\x64\x65loop/v1/channel.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"\xef\x03\n\x0b\x43hannelSpec\x12+\n\ndoppler_hz\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0esample_rate_hz\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x84\xd7\x97\x41!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x18\n\x07profile\x18\x03 \x01(\tB\x07\xbaH\x04r\x02\x18\x10\x12/\n\x0b\x63ustom_taps\x18\x04 \x03(\x0b\x32\x10.fadeloop.v1.TapB\x08\xbaH\x05\x92\x01\x02\x10@\x12,\n\x0brician_k_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12\x0b\n\x03los\x18\x06 \x01(\x08\x12.\n\rlos_angle_rad\x18\x07 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x18-DT\xfb!\x19@)\x18-DT\xfb!\x19\xc0\x12\x35\n\tgenerator\x18\x08 \x01(\x0e\x32\x16.fadeloop.v1.GeneratorB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x1d\n\tsinusoids\x18\t \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x02(\x00\x12*\n\tspeed_kmh\x18\n \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12+\n\ncarrier_hz\x18\x0b \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\xe8vH7B)\x00\x00\x00\x00\x00\x00\x00\x00:\x1d\xbaH\x1a\"\x18\n\x07profile\n\x0b\x63ustom_taps\x10\x01\"\xb4\x01\n\x12StreamGainsRequest\x12\x31\n\x07\x63hannel\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01\x12\x19\n\x05links\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x01\x12\x1e\n\x07samples\x18\x03 \x01(\x03\x42\r\xbaH\n\"\x08\x18\x80\xc8\xaf\xa0%(\x01\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12\"\n\rchunk_samples\x18\x05 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\x80\x80@(\x00\"~\n\x13StreamGainsResponse\x12\x13\n\x0b\x63hunk_index\x18\x01 \x01(\x03\x12\x15\n\rsample_offset\x18\x02 \x01(\x03\x12\x0f\n\x07samples\x18\x03 \x01(\x05\x12\r\n\x05links\x18\x04 \x01(\x05\x12\x0c\n\x04taps\x18\x05 \x01(\x05\x12\r\n\x05gains\x18\x06 \x01(\x0c\"\xde\x01\n\x13\x43heckChannelRequest\x12\x31\n\x07\x63hannel\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.ChannelSpecB\x06\xbaH\x03\xc8\x01\x01\x12\x1f\n\x05links\x18\x02 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x80 (\x08\x12\x36\n\x0f\x64oppler_periods\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x88\xd3@)\x00\x00\x00\x00\x00\x00\x34@\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12-\n\x06sigmas\x18\x05 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\xf0?\"\xb6\x01\n\tCheckLine\x12\x0c\n\x04name\x18\x01 \x01(\t\x12\x10\n\x08measured\x18\x02 \x01(\x01\x12\x0e\n\x06theory\x18\x03 \x01(\x01\x12\x11\n\ttolerance\x18\x04 \x01(\x01\x12\x0c\n\x04pass\x18\x05 \x01(\x08\x12\x0c\n\x04unit\x18\x06 \x01(\t\x12\x0c\n\x04kind\x18\x07 \x01(\t\x12\x0b\n\x03\x61rg\x18\x08 \x01(\x01\x12\x10\n\x08\x62ranches\x18\t \x01(\x05\x12\x0c\n\x04\x66\x64_t\x18\n \x01(\x01\x12\x0f\n\x07periods\x18\x0b \x01(\x01\"s\n\x14\x43heckChannelResponse\x12%\n\x05lines\x18\x01 \x03(\x0b\x32\x16.fadeloop.v1.CheckLine\x12\x0c\n\x04pass\x18\x02 \x01(\x08\x12\r\n\x05links\x18\x03 \x01(\x05\x12\x17\n\x0f\x64oppler_periods\x18\x04 \x01(\x01\x32\xb9\x01\n\x0e\x43hannelService\x12R\n\x0bStreamGains\x12\x1f.fadeloop.v1.StreamGainsRequest\x1a .fadeloop.v1.StreamGainsResponse0\x01\x12S\n\x0c\x43heckChannel\x12 .fadeloop.v1.CheckChannelRequest\x1a!.fadeloop.v1.CheckChannelResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[buf_dot_validate_dot_validate__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_scenario__pb2.DESCRIPTOR,])
 
@@ -97,7 +97,21 @@ _CHANNELSPEC = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200\010(\000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200\002(\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='speed_kmh', full_name='fadeloop.v1.ChannelSpec.speed_kmh', index=9,
+      number=10, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000@\217@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='carrier_hz', full_name='fadeloop.v1.ChannelSpec.carrier_hz', index=10,
+      number=11, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\350vH7B)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -111,7 +125,7 @@ _CHANNELSPEC = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=100,
-  serialized_end=506,
+  serialized_end=595,
 )
 
 
@@ -169,8 +183,8 @@ _STREAMGAINSREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=509,
-  serialized_end=689,
+  serialized_start=598,
+  serialized_end=778,
 )
 
 
@@ -235,8 +249,8 @@ _STREAMGAINSRESPONSE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=691,
-  serialized_end=817,
+  serialized_start=780,
+  serialized_end=906,
 )
 
 
@@ -294,8 +308,8 @@ _CHECKCHANNELREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=820,
-  serialized_end=1042,
+  serialized_start=909,
+  serialized_end=1131,
 )
 
 
@@ -395,8 +409,8 @@ _CHECKLINE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1045,
-  serialized_end=1227,
+  serialized_start=1134,
+  serialized_end=1316,
 )
 
 
@@ -447,8 +461,8 @@ _CHECKCHANNELRESPONSE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1229,
-  serialized_end=1344,
+  serialized_start=1318,
+  serialized_end=1433,
 )
 
 _CHANNELSPEC.fields_by_name['custom_taps'].message_type = fadeloop_dot_v1_dot_scenario__pb2._TAP
@@ -524,7 +538,11 @@ _CHANNELSPEC.fields_by_name['los_angle_rad']._options = _descriptor._ParseOption
 _CHANNELSPEC.fields_by_name['generator'].has_options = True
 _CHANNELSPEC.fields_by_name['generator']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
 _CHANNELSPEC.fields_by_name['sinusoids'].has_options = True
-_CHANNELSPEC.fields_by_name['sinusoids']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200\010(\000'))
+_CHANNELSPEC.fields_by_name['sinusoids']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200\002(\000'))
+_CHANNELSPEC.fields_by_name['speed_kmh'].has_options = True
+_CHANNELSPEC.fields_by_name['speed_kmh']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000@\217@)\000\000\000\000\000\000\000\000'))
+_CHANNELSPEC.fields_by_name['carrier_hz'].has_options = True
+_CHANNELSPEC.fields_by_name['carrier_hz']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\350vH7B)\000\000\000\000\000\000\000\000'))
 _CHANNELSPEC.has_options = True
 _CHANNELSPEC._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\032\"\030\n\007profile\n\013custom_taps\020\001'))
 _STREAMGAINSREQUEST.fields_by_name['channel'].has_options = True
@@ -550,8 +568,8 @@ _CHANNELSERVICE = _descriptor.ServiceDescriptor(
   file=DESCRIPTOR,
   index=0,
   options=None,
-  serialized_start=1347,
-  serialized_end=1532,
+  serialized_start=1436,
+  serialized_end=1621,
   methods=[
   _descriptor.MethodDescriptor(
     name='StreamGains',

@@ -20,7 +20,7 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/report.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x18\x66\x61\x64\x65loop/v1/report.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\":\n\x08\x45stimate\x12\r\n\x05value\x18\x01 \x01(\x01\x12\x0e\n\x06\x63i_low\x18\x02 \x01(\x01\x12\x0f\n\x07\x63i_high\x18\x03 \x01(\x01\"\xbf\x01\n\x0bPercentiles\x12!\n\x02p1\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12!\n\x02p5\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p50\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p95\x18\x04 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p99\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\"\x97\x05\n\x07\x46igures\x12\x30\n\x11sir_error_mean_db\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12/\n\x10sir_error_std_db\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12:\n\x18sir_error_percentiles_db\x18\x03 \x01(\x0b\x32\x18.fadeloop.v1.Percentiles\x12\x31\n\x12outage_probability\x18\x04 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12,\n\rachieved_bler\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11\x62ler_target_error\x18\x06 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11tx_power_mean_dbm\x18\x07 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12:\n\x18tx_power_percentiles_dbm\x18\x08 \x01(\x0b\x32\x18.fadeloop.v1.Percentiles\x12\x31\n\x12max_power_fraction\x18\t \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x31\n\x12noise_rise_mean_db\x18\n \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11noise_rise_p95_db\x18\x0b \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x31\n\x12\x63onvergence_time_s\x18\x0c \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\r\n\x05users\x18\r \x01(\x05\x12\x12\n\nuser_slots\x18\x0e \x01(\x03\"\xa2\x01\n\x0bUserFigures\x12\x0c\n\x04user\x18\x01 \x01(\x05\x12\r\n\x05group\x18\x02 \x01(\x05\x12\x12\n\ndistance_m\x18\x03 \x01(\x01\x12\x11\n\tspeed_kmh\x18\x04 \x01(\x01\x12\x12\n\ndoppler_hz\x18\x05 \x01(\x01\x12\x14\n\x0cpath_loss_db\x18\x06 \x01(\x01\x12%\n\x07\x66igures\x18\x07 \x01(\x0b\x32\x14.fadeloop.v1.Figures\"x\n\x12\x44istanceBinFigures\x12\x0b\n\x03\x62in\x18\x01 \x01(\x05\x12\x16\n\x0emin_distance_m\x18\x02 \x01(\x01\x12\x16\n\x0emax_distance_m\x18\x03 \x01(\x01\x12%\n\x07\x66igures\x18\x04 \x01(\x0b\x32\x14.fadeloop.v1.Figures\"n\n\x0b\x46\x65\x61sibility\x12\x12\n\ninfeasible\x18\x01 \x01(\x08\x12\x0e\n\x06reason\x18\x02 \x01(\t\x12\x17\n\x0fspectral_radius\x18\x03 \x01(\x01\x12\r\n\x05users\x18\x04 \x03(\x05\x12\x13\n\x0bload_factor\x18\x05 \x01(\x01\"z\n\tUserTrace\x12\x0c\n\x04user\x18\x01 \x01(\x05\x12\r\n\x05slots\x18\x02 \x03(\x03\x12\x0e\n\x06sir_db\x18\x03 \x03(\x02\x12\x11\n\ttarget_db\x18\x04 \x03(\x02\x12\x14\n\x0ctx_power_dbm\x18\x05 \x03(\x02\x12\x17\n\x0f\x63hannel_gain_db\x18\x06 \x03(\x02\"\xc7\x03\n\tRunReport\x12\'\n\taggregate\x18\x01 \x01(\x0b\x32\x14.fadeloop.v1.Figures\x12\'\n\x05users\x18\x02 \x03(\x0b\x32\x18.fadeloop.v1.UserFigures\x12\x36\n\rdistance_bins\x18\x03 \x03(\x0b\x32\x1f.fadeloop.v1.DistanceBinFigures\x12-\n\x0b\x66\x65\x61sibility\x18\x04 \x01(\x0b\x32\x18.fadeloop.v1.Feasibility\x12\x32\n\x13normalised_scenario\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Scenario\x12\x0c\n\x04seed\x18\x06 \x01(\x04\x12\x16\n\x0e\x65ngine_version\x18\x07 \x01(\t\x12\x14\n\x0creplications\x18\x08 \x01(\x05\x12\r\n\x05slots\x18\t \x01(\x03\x12\x1c\n\x14simulated_user_slots\x18\n \x01(\x03\x12\x13\n\x0bwall_time_s\x18\x0b \x01(\x01\x12\x18\n\x10user_slots_per_s\x18\x0c \x01(\x01\x12&\n\x06traces\x18\r \x03(\x0b\x32\x16.fadeloop.v1.UserTrace\x12\r\n\x05notes\x18\x0e \x03(\tB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x18\x66\x61\x64\x65loop/v1/report.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\":\n\x08\x45stimate\x12\r\n\x05value\x18\x01 \x01(\x01\x12\x0e\n\x06\x63i_low\x18\x02 \x01(\x01\x12\x0f\n\x07\x63i_high\x18\x03 \x01(\x01\"\xbf\x01\n\x0bPercentiles\x12!\n\x02p1\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12!\n\x02p5\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p50\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p95\x18\x04 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\"\n\x03p99\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\"\x97\x05\n\x07\x46igures\x12\x30\n\x11sir_error_mean_db\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12/\n\x10sir_error_std_db\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12:\n\x18sir_error_percentiles_db\x18\x03 \x01(\x0b\x32\x18.fadeloop.v1.Percentiles\x12\x31\n\x12outage_probability\x18\x04 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12,\n\rachieved_bler\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11\x62ler_target_error\x18\x06 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11tx_power_mean_dbm\x18\x07 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12:\n\x18tx_power_percentiles_dbm\x18\x08 \x01(\x0b\x32\x18.fadeloop.v1.Percentiles\x12\x31\n\x12max_power_fraction\x18\t \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x31\n\x12noise_rise_mean_db\x18\n \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11noise_rise_p95_db\x18\x0b \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x31\n\x12\x63onvergence_time_s\x18\x0c \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\r\n\x05users\x18\r \x01(\x05\x12\x12\n\nuser_slots\x18\x0e \x01(\x03\"\xa2\x01\n\x0bUserFigures\x12\x0c\n\x04user\x18\x01 \x01(\x05\x12\r\n\x05group\x18\x02 \x01(\x05\x12\x12\n\ndistance_m\x18\x03 \x01(\x01\x12\x11\n\tspeed_kmh\x18\x04 \x01(\x01\x12\x12\n\ndoppler_hz\x18\x05 \x01(\x01\x12\x14\n\x0cpath_loss_db\x18\x06 \x01(\x01\x12%\n\x07\x66igures\x18\x07 \x01(\x0b\x32\x14.fadeloop.v1.Figures\"x\n\x12\x44istanceBinFigures\x12\x0b\n\x03\x62in\x18\x01 \x01(\x05\x12\x16\n\x0emin_distance_m\x18\x02 \x01(\x01\x12\x16\n\x0emax_distance_m\x18\x03 \x01(\x01\x12%\n\x07\x66igures\x18\x04 \x01(\x0b\x32\x14.fadeloop.v1.Figures\"n\n\x0b\x46\x65\x61sibility\x12\x12\n\ninfeasible\x18\x01 \x01(\x08\x12\x0e\n\x06reason\x18\x02 \x01(\t\x12\x17\n\x0fspectral_radius\x18\x03 \x01(\x01\x12\r\n\x05users\x18\x04 \x03(\x05\x12\x13\n\x0bload_factor\x18\x05 \x01(\x01\"z\n\tUserTrace\x12\x0c\n\x04user\x18\x01 \x01(\x05\x12\r\n\x05slots\x18\x02 \x03(\x03\x12\x0e\n\x06sir_db\x18\x03 \x03(\x02\x12\x11\n\ttarget_db\x18\x04 \x03(\x02\x12\x14\n\x0ctx_power_dbm\x18\x05 \x03(\x02\x12\x17\n\x0f\x63hannel_gain_db\x18\x06 \x03(\x02\"\xa4\x04\n\tRunReport\x12\'\n\taggregate\x18\x01 \x01(\x0b\x32\x14.fadeloop.v1.Figures\x12\'\n\x05users\x18\x02 \x03(\x0b\x32\x18.fadeloop.v1.UserFigures\x12\x36\n\rdistance_bins\x18\x03 \x03(\x0b\x32\x1f.fadeloop.v1.DistanceBinFigures\x12-\n\x0b\x66\x65\x61sibility\x18\x04 \x01(\x0b\x32\x18.fadeloop.v1.Feasibility\x12\x32\n\x13normalised_scenario\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Scenario\x12\x0c\n\x04seed\x18\x06 \x01(\x04\x12\x16\n\x0e\x65ngine_version\x18\x07 \x01(\t\x12\x14\n\x0creplications\x18\x08 \x01(\x05\x12\r\n\x05slots\x18\t \x01(\x03\x12\x1c\n\x14simulated_user_slots\x18\n \x01(\x03\x12\x13\n\x0bwall_time_s\x18\x0b \x01(\x01\x12\x18\n\x10user_slots_per_s\x18\x0c \x01(\x01\x12&\n\x06traces\x18\r \x03(\x0b\x32\x16.fadeloop.v1.UserTrace\x12\r\n\x05notes\x18\x0e \x03(\t\x12\x30\n\rgroup_fingers\x18\x0f \x03(\x0b\x32\x19.fadeloop.v1.GroupFingers\x12)\n\x06layout\x18\x10 \x01(\x0b\x32\x19.fadeloop.v1.LayoutReport\"\x96\x01\n\x0cLayoutReport\x12+\n\x07overall\x18\x01 \x01(\x0b\x32\x1a.fadeloop.v1.LayoutOverall\x12&\n\x05\x63\x65lls\x18\x02 \x03(\x0b\x32\x17.fadeloop.v1.LayoutCell\x12\x31\n\x0buser_points\x18\x03 \x03(\x0b\x32\x1c.fadeloop.v1.LayoutUserPoint\"\xc5\x05\n\rLayoutOverall\x12+\n\x0cother_to_own\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12,\n\rnoise_rise_db\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x31\n\x12outage_probability\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12-\n\x0eoutage_by_legs\x18\x04 \x03(\x0b\x32\x15.fadeloop.v1.Estimate\x12(\n\tleg_share\x18\x05 \x03(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x32\n\x13soft_handover_share\x18\x06 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11time_at_max_power\x18\x07 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x32\n\x13time_at_max_by_legs\x18\x08 \x03(\x0b\x32\x15.fadeloop.v1.Estimate\x12/\n\x10time_at_max_edge\x18\t \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11sir_error_mean_db\x18\n \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12/\n\x10sir_error_std_db\x18\x0b \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x30\n\x11tx_power_mean_dbm\x18\x0c \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12,\n\rachieved_bler\x18\r \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x1e\n\x16other_to_own_spread_p5\x18\x0e \x01(\x01\x12\x1f\n\x17other_to_own_spread_p95\x18\x0f \x01(\x01\"\xa3\x02\n\nLayoutCell\x12\x0c\n\x04name\x18\x01 \x01(\t\x12\x0c\n\x04site\x18\x02 \x01(\x05\x12+\n\x0cother_to_own\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x18\n\x10other_to_own_p50\x18\x04 \x01(\x01\x12\x18\n\x10other_to_own_p95\x18\x05 \x01(\x01\x12,\n\rnoise_rise_db\x18\x06 \x01(\x0b\x32\x15.fadeloop.v1.Estimate\x12\x19\n\x11noise_rise_p95_db\x18\x07 \x01(\x01\x12\x14\n\x0cserved_users\x18\x08 \x01(\x01\x12\x10\n\x08site_x_m\x18\t \x01(\x01\x12\x10\n\x08site_y_m\x18\n \x01(\x01\x12\x15\n\rboresight_deg\x18\x0b \x01(\x01\"\x97\x01\n\x0fLayoutUserPoint\x12\x0b\n\x03x_m\x18\x01 \x01(\x01\x12\x0b\n\x03y_m\x18\x02 \x01(\x01\x12\r\n\x05group\x18\x03 \x01(\x05\x12\x11\n\tbest_cell\x18\x04 \x01(\x05\x12\x11\n\tmean_legs\x18\x05 \x01(\x01\x12\x1a\n\x12outage_probability\x18\x06 \x01(\x01\x12\x19\n\x11tx_power_mean_dbm\x18\x07 \x01(\x01\"\x8c\x01\n\x0cGroupFingers\x12\r\n\x05group\x18\x01 \x01(\x05\x12\x0c\n\x04taps\x18\x02 \x01(\x05\x12\x18\n\x10resolvable_paths\x18\x03 \x01(\x05\x12\x0f\n\x07\x66ingers\x18\x04 \x01(\x05\x12\x19\n\x11\x63\x61ptured_power_db\x18\x05 \x01(\x01\x12\x19\n\x11\x66irst_finger_k_db\x18\x06 \x01(\x01\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[fadeloop_dot_v1_dot_scenario__pb2.DESCRIPTOR,])
 
@@ -608,6 +608,20 @@ _RUNREPORT = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='group_fingers', full_name='fadeloop.v1.RunReport.group_fingers', index=14,
+      number=15, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='layout', full_name='fadeloop.v1.RunReport.layout', index=15,
+      number=16, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -621,7 +635,421 @@ _RUNREPORT = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=1513,
-  serialized_end=1968,
+  serialized_end=2061,
+)
+
+
+_LAYOUTREPORT = _descriptor.Descriptor(
+  name='LayoutReport',
+  full_name='fadeloop.v1.LayoutReport',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='overall', full_name='fadeloop.v1.LayoutReport.overall', index=0,
+      number=1, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='cells', full_name='fadeloop.v1.LayoutReport.cells', index=1,
+      number=2, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='user_points', full_name='fadeloop.v1.LayoutReport.user_points', index=2,
+      number=3, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2064,
+  serialized_end=2214,
+)
+
+
+_LAYOUTOVERALL = _descriptor.Descriptor(
+  name='LayoutOverall',
+  full_name='fadeloop.v1.LayoutOverall',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='other_to_own', full_name='fadeloop.v1.LayoutOverall.other_to_own', index=0,
+      number=1, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_db', full_name='fadeloop.v1.LayoutOverall.noise_rise_db', index=1,
+      number=2, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_probability', full_name='fadeloop.v1.LayoutOverall.outage_probability', index=2,
+      number=3, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_by_legs', full_name='fadeloop.v1.LayoutOverall.outage_by_legs', index=3,
+      number=4, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='leg_share', full_name='fadeloop.v1.LayoutOverall.leg_share', index=4,
+      number=5, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='soft_handover_share', full_name='fadeloop.v1.LayoutOverall.soft_handover_share', index=5,
+      number=6, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='time_at_max_power', full_name='fadeloop.v1.LayoutOverall.time_at_max_power', index=6,
+      number=7, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='time_at_max_by_legs', full_name='fadeloop.v1.LayoutOverall.time_at_max_by_legs', index=7,
+      number=8, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='time_at_max_edge', full_name='fadeloop.v1.LayoutOverall.time_at_max_edge', index=8,
+      number=9, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='sir_error_mean_db', full_name='fadeloop.v1.LayoutOverall.sir_error_mean_db', index=9,
+      number=10, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='sir_error_std_db', full_name='fadeloop.v1.LayoutOverall.sir_error_std_db', index=10,
+      number=11, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='tx_power_mean_dbm', full_name='fadeloop.v1.LayoutOverall.tx_power_mean_dbm', index=11,
+      number=12, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='achieved_bler', full_name='fadeloop.v1.LayoutOverall.achieved_bler', index=12,
+      number=13, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='other_to_own_spread_p5', full_name='fadeloop.v1.LayoutOverall.other_to_own_spread_p5', index=13,
+      number=14, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='other_to_own_spread_p95', full_name='fadeloop.v1.LayoutOverall.other_to_own_spread_p95', index=14,
+      number=15, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2217,
+  serialized_end=2926,
+)
+
+
+_LAYOUTCELL = _descriptor.Descriptor(
+  name='LayoutCell',
+  full_name='fadeloop.v1.LayoutCell',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='name', full_name='fadeloop.v1.LayoutCell.name', index=0,
+      number=1, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='site', full_name='fadeloop.v1.LayoutCell.site', index=1,
+      number=2, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='other_to_own', full_name='fadeloop.v1.LayoutCell.other_to_own', index=2,
+      number=3, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='other_to_own_p50', full_name='fadeloop.v1.LayoutCell.other_to_own_p50', index=3,
+      number=4, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='other_to_own_p95', full_name='fadeloop.v1.LayoutCell.other_to_own_p95', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_db', full_name='fadeloop.v1.LayoutCell.noise_rise_db', index=5,
+      number=6, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_p95_db', full_name='fadeloop.v1.LayoutCell.noise_rise_p95_db', index=6,
+      number=7, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='served_users', full_name='fadeloop.v1.LayoutCell.served_users', index=7,
+      number=8, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='site_x_m', full_name='fadeloop.v1.LayoutCell.site_x_m', index=8,
+      number=9, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='site_y_m', full_name='fadeloop.v1.LayoutCell.site_y_m', index=9,
+      number=10, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='boresight_deg', full_name='fadeloop.v1.LayoutCell.boresight_deg', index=10,
+      number=11, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2929,
+  serialized_end=3220,
+)
+
+
+_LAYOUTUSERPOINT = _descriptor.Descriptor(
+  name='LayoutUserPoint',
+  full_name='fadeloop.v1.LayoutUserPoint',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='x_m', full_name='fadeloop.v1.LayoutUserPoint.x_m', index=0,
+      number=1, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='y_m', full_name='fadeloop.v1.LayoutUserPoint.y_m', index=1,
+      number=2, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='group', full_name='fadeloop.v1.LayoutUserPoint.group', index=2,
+      number=3, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='best_cell', full_name='fadeloop.v1.LayoutUserPoint.best_cell', index=3,
+      number=4, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='mean_legs', full_name='fadeloop.v1.LayoutUserPoint.mean_legs', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_probability', full_name='fadeloop.v1.LayoutUserPoint.outage_probability', index=5,
+      number=6, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='tx_power_mean_dbm', full_name='fadeloop.v1.LayoutUserPoint.tx_power_mean_dbm', index=6,
+      number=7, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=3223,
+  serialized_end=3374,
+)
+
+
+_GROUPFINGERS = _descriptor.Descriptor(
+  name='GroupFingers',
+  full_name='fadeloop.v1.GroupFingers',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='group', full_name='fadeloop.v1.GroupFingers.group', index=0,
+      number=1, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='taps', full_name='fadeloop.v1.GroupFingers.taps', index=1,
+      number=2, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='resolvable_paths', full_name='fadeloop.v1.GroupFingers.resolvable_paths', index=2,
+      number=3, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='fingers', full_name='fadeloop.v1.GroupFingers.fingers', index=3,
+      number=4, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='captured_power_db', full_name='fadeloop.v1.GroupFingers.captured_power_db', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='first_finger_k_db', full_name='fadeloop.v1.GroupFingers.first_finger_k_db', index=5,
+      number=6, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=3377,
+  serialized_end=3517,
 )
 
 _PERCENTILES.fields_by_name['p1'].message_type = _ESTIMATE
@@ -649,6 +1077,26 @@ _RUNREPORT.fields_by_name['distance_bins'].message_type = _DISTANCEBINFIGURES
 _RUNREPORT.fields_by_name['feasibility'].message_type = _FEASIBILITY
 _RUNREPORT.fields_by_name['normalised_scenario'].message_type = fadeloop_dot_v1_dot_scenario__pb2._SCENARIO
 _RUNREPORT.fields_by_name['traces'].message_type = _USERTRACE
+_RUNREPORT.fields_by_name['group_fingers'].message_type = _GROUPFINGERS
+_RUNREPORT.fields_by_name['layout'].message_type = _LAYOUTREPORT
+_LAYOUTREPORT.fields_by_name['overall'].message_type = _LAYOUTOVERALL
+_LAYOUTREPORT.fields_by_name['cells'].message_type = _LAYOUTCELL
+_LAYOUTREPORT.fields_by_name['user_points'].message_type = _LAYOUTUSERPOINT
+_LAYOUTOVERALL.fields_by_name['other_to_own'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['noise_rise_db'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['outage_probability'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['outage_by_legs'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['leg_share'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['soft_handover_share'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['time_at_max_power'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['time_at_max_by_legs'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['time_at_max_edge'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['sir_error_mean_db'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['sir_error_std_db'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['tx_power_mean_dbm'].message_type = _ESTIMATE
+_LAYOUTOVERALL.fields_by_name['achieved_bler'].message_type = _ESTIMATE
+_LAYOUTCELL.fields_by_name['other_to_own'].message_type = _ESTIMATE
+_LAYOUTCELL.fields_by_name['noise_rise_db'].message_type = _ESTIMATE
 DESCRIPTOR.message_types_by_name['Estimate'] = _ESTIMATE
 DESCRIPTOR.message_types_by_name['Percentiles'] = _PERCENTILES
 DESCRIPTOR.message_types_by_name['Figures'] = _FIGURES
@@ -657,6 +1105,11 @@ DESCRIPTOR.message_types_by_name['DistanceBinFigures'] = _DISTANCEBINFIGURES
 DESCRIPTOR.message_types_by_name['Feasibility'] = _FEASIBILITY
 DESCRIPTOR.message_types_by_name['UserTrace'] = _USERTRACE
 DESCRIPTOR.message_types_by_name['RunReport'] = _RUNREPORT
+DESCRIPTOR.message_types_by_name['LayoutReport'] = _LAYOUTREPORT
+DESCRIPTOR.message_types_by_name['LayoutOverall'] = _LAYOUTOVERALL
+DESCRIPTOR.message_types_by_name['LayoutCell'] = _LAYOUTCELL
+DESCRIPTOR.message_types_by_name['LayoutUserPoint'] = _LAYOUTUSERPOINT
+DESCRIPTOR.message_types_by_name['GroupFingers'] = _GROUPFINGERS
 _sym_db.RegisterFileDescriptor(DESCRIPTOR)
 
 Estimate = _reflection.GeneratedProtocolMessageType('Estimate', (_message.Message,), dict(
@@ -714,6 +1167,41 @@ RunReport = _reflection.GeneratedProtocolMessageType('RunReport', (_message.Mess
   # @@protoc_insertion_point(class_scope:fadeloop.v1.RunReport)
   ))
 _sym_db.RegisterMessage(RunReport)
+
+LayoutReport = _reflection.GeneratedProtocolMessageType('LayoutReport', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUTREPORT,
+  __module__ = 'fadeloop.v1.report_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LayoutReport)
+  ))
+_sym_db.RegisterMessage(LayoutReport)
+
+LayoutOverall = _reflection.GeneratedProtocolMessageType('LayoutOverall', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUTOVERALL,
+  __module__ = 'fadeloop.v1.report_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LayoutOverall)
+  ))
+_sym_db.RegisterMessage(LayoutOverall)
+
+LayoutCell = _reflection.GeneratedProtocolMessageType('LayoutCell', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUTCELL,
+  __module__ = 'fadeloop.v1.report_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LayoutCell)
+  ))
+_sym_db.RegisterMessage(LayoutCell)
+
+LayoutUserPoint = _reflection.GeneratedProtocolMessageType('LayoutUserPoint', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUTUSERPOINT,
+  __module__ = 'fadeloop.v1.report_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LayoutUserPoint)
+  ))
+_sym_db.RegisterMessage(LayoutUserPoint)
+
+GroupFingers = _reflection.GeneratedProtocolMessageType('GroupFingers', (_message.Message,), dict(
+  DESCRIPTOR = _GROUPFINGERS,
+  __module__ = 'fadeloop.v1.report_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.GroupFingers)
+  ))
+_sym_db.RegisterMessage(GroupFingers)
 
 
 DESCRIPTOR.has_options = True

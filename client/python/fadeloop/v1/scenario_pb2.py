@@ -21,10 +21,37 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/scenario.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x1a\x66\x61\x64\x65loop/v1/scenario.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\"\xcc\x02\n\x08Scenario\x12\x16\n\x04name\x18\x01 \x01(\tB\x08\xbaH\x05r\x03\x18\x80\x01\x12/\n\x08receiver\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.ReceiverB\x06\xbaH\x03\xc8\x01\x01\x12\x32\n\x06groups\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.UserGroupB\n\xbaH\x07\x92\x01\x04\x08\x01\x10@\x12\x32\n\ninner_loop\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.InnerLoopB\x06\xbaH\x03\xc8\x01\x01\x12\x32\n\nouter_loop\x18\x05 \x01(\x0b\x32\x16.fadeloop.v1.OuterLoopB\x06\xbaH\x03\xc8\x01\x01\x12,\n\x04link\x18\x06 \x01(\x0b\x32\x16.fadeloop.v1.LinkCurveB\x06\xbaH\x03\xc8\x01\x01\x12-\n\x03run\x18\x07 \x01(\x0b\x32\x18.fadeloop.v1.RunSettingsB\x06\xbaH\x03\xc8\x01\x01\"\xc2\x02\n\x08Receiver\x12\x33\n\x0c\x63hip_rate_hz\x18\x01 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00 _\xa0\x02\x42!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x33\n\x0c\x62it_rate_bps\x18\x02 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00 _\xa0\x02\x42!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x0fnoise_figure_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x31\n\x10other_cell_ratio\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x38\n\x17sir_estimation_error_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12-\n\x13sir_averaging_slots\x18\x06 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\xe8\x07(\x01\"a\n\nSpeedShare\x12*\n\tspeed_kmh\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\'\n\x06weight\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\"[\n\x03Tap\x12)\n\x08\x64\x65lay_ns\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12)\n\x08power_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00Y\xc0\"\xad\x02\n\x08PathLoss\x12\x35\n\x05model\x18\x01 \x01(\x0e\x32\x1a.fadeloop.v1.PathLossModelB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12/\n\x0eref_distance_m\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00\x12,\n\x0bref_loss_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00\x12)\n\x08\x65xponent\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rbase_height_m\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x0fmobile_height_m\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00\"\x93\x07\n\tUserGroup\x12\x15\n\x04name\x18\x01 \x01(\tB\x07\xbaH\x04r\x02\x18@\x12\x19\n\x05\x63ount\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x01\x12\x35\n\tplacement\x18\x03 \x01(\x0e\x32\x16.fadeloop.v1.PlacementB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x34\n\x0b\x64istances_m\x18\x04 \x03(\x01\x42\x1f\xbaH\x1c\x92\x01\x19\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0emin_distance_m\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0emax_distance_m\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x33\n\x06speeds\x18\x07 \x03(\x0b\x32\x17.fadeloop.v1.SpeedShareB\n\xbaH\x07\x92\x01\x04\x08\x01\x10\x10\x12;\n\x14\x63\x61rrier_frequency_hz\x18\x08 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\xe8vH7B)\x00\x00\x00\x00\x80\x84.A\x12\x18\n\x07profile\x18\t \x01(\tB\x07\xbaH\x04r\x02\x18\x10\x12/\n\x0b\x63ustom_taps\x18\n \x03(\x0b\x32\x10.fadeloop.v1.TapB\x08\xbaH\x05\x92\x01\x02\x10@\x12,\n\x0brician_k_db\x18\x0b \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12\x0b\n\x03los\x18\x0c \x01(\x08\x12\x35\n\tgenerator\x18\r \x01(\x0e\x32\x16.fadeloop.v1.GeneratorB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x33\n\x12shadowing_sigma_db\x18\x0e \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12@\n\x19shadowing_decorrelation_m\x18\x0f \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\tpath_loss\x18\x10 \x01(\x0b\x32\x15.fadeloop.v1.PathLossB\x06\xbaH\x03\xc8\x01\x01\x12\x36\n\x0f\x61\x63tivity_factor\x18\x11 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x37\n\x10mean_burst_slots\x18\x12 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\xd0\x12\x63\x41)\x00\x00\x00\x00\x00\x00\xf0?\x12\x1d\n\tsinusoids\x18\x13 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x02(\x00:\x1d\xbaH\x1a\"\x18\n\x07profile\n\x0b\x63ustom_taps\x10\x01\"\xa4\x05\n\tInnerLoop\x12\x30\n\x04mode\x18\x01 \x01(\x0e\x32\x16.fadeloop.v1.InnerModeB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x31\n\x07\x63ommand\x18\x02 \x01(\x0e\x32\x14.fadeloop.v1.CommandB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x35\n\x0eupdate_rate_hz\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\x07step_db\x18\x04 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x31\n\tlevels_db\x18\x05 \x03(\x01\x42\x1e\xbaH\x1b\x92\x01\x18\x10\x10\"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x34\xc0\x12\x35\n\rthresholds_db\x18\x06 \x03(\x01\x42\x1e\xbaH\x1b\x92\x01\x18\x10\x0f\"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12(\n\x14\x66\x65\x65\x64\x62\x61\x63k_delay_slots\x18\x07 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\xe8\x07(\x00\x12\x33\n\x12\x63ommand_error_prob\x18\x08 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xe0?)\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rmin_power_dbm\x18\t \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12.\n\rmax_power_dbm\x18\n \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12<\n\rinitial_power\x18\x0b \x01(\x0e\x32\x19.fadeloop.v1.InitialPowerB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x32\n\x11initial_power_dbm\x18\x0c \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12\x30\n\x0f\x66ixed_power_dbm\x18\r \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\"\xdc\x02\n\tOuterLoop\x12\x0f\n\x07\x65nabled\x18\x01 \x01(\x08\x12\x32\n\x0b\x62ler_target\x18\x02 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12&\n\x0b\x62lock_slots\x18\x03 \x01(\x05\x42\x11\xbaH\x03\xd8\x01\x01\xbaH\x08\x1a\x06\x18\xa0\x8d\x06(\x01\x12\x31\n\nup_step_db\x18\x04 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@!\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rmin_target_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12.\n\rmax_target_db\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12\x32\n\x11initial_target_db\x18\x07 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12\x1b\n\x13\x66reeze_at_max_power\x18\x08 \x01(\x08\"[\n\tLinkPoint\x12\'\n\x06sir_db\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00I\xc0\x12%\n\x04\x62ler\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00\"\xbe\x02\n\tLinkCurve\x12/\n\x04kind\x18\x01 \x01(\x0e\x32\x15.fadeloop.v1.LinkKindB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12-\n\x0cthreshold_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12/\n\x08slope_db\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x05table\x18\x04 \x03(\x0b\x32\x16.fadeloop.v1.LinkPointB\t\xbaH\x06\x92\x01\x03\x10\x80\x02\x12<\n\reffective_sir\x18\x05 \x01(\x0e\x32\x19.fadeloop.v1.EffectiveSirB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x30\n\teesm_beta\x18\x06 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@!\x00\x00\x00\x00\x00\x00\x00\x00\"\xd2\x02\n\x0bRunSettings\x12\x1c\n\x05slots\x18\x01 \x01(\x03\x42\r\xbaH\n\"\x08\x18\x80\x94\xeb\xdc\x03(\x00\x12+\n\nduration_s\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12\"\n\x0cwarmup_slots\x18\x03 \x01(\x03\x42\x0c\xbaH\t\"\x07\x18\x80\xc2\xd7/(\x00\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12&\n\x0creplications\x18\x05 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x01\x12\x37\n\x10outage_margin_db\x18\x06 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@!\x00\x00\x00\x00\x00\x00\x00\x00\x12&\n\rdistance_bins\x18\x07 \x01(\x05\x42\x0f\xbaH\x03\xd8\x01\x01\xbaH\x06\x1a\x04\x18@(\x01\x12!\n\x07\x62\x61tches\x18\x08 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x14:\x1a\xbaH\x17\"\x15\n\x05slots\n\nduration_s\x10\x01*z\n\tPlacement\x12\x19\n\x15PLACEMENT_UNSPECIFIED\x10\x00\x12\x16\n\x12PLACEMENT_EXPLICIT\x10\x01\x12\x1e\n\x1aPLACEMENT_UNIFORM_DISTANCE\x10\x02\x12\x1a\n\x16PLACEMENT_UNIFORM_AREA\x10\x03*u\n\tGenerator\x12\x19\n\x15GENERATOR_UNSPECIFIED\x10\x00\x12\x15\n\x11GENERATOR_DEFAULT\x10\x01\x12\x1e\n\x1aGENERATOR_SUM_OF_SINUSOIDS\x10\x02\x12\x16\n\x12GENERATOR_SPECTRAL\x10\x03*\xc4\x02\n\rPathLossModel\x12\x1f\n\x1bPATH_LOSS_MODEL_UNSPECIFIED\x10\x00\x12\x1e\n\x1aPATH_LOSS_MODEL_FREE_SPACE\x10\x01\x12 \n\x1cPATH_LOSS_MODEL_LOG_DISTANCE\x10\x02\x12\x1e\n\x1aPATH_LOSS_MODEL_HATA_URBAN\x10\x03\x12$\n PATH_LOSS_MODEL_HATA_URBAN_LARGE\x10\x04\x12!\n\x1dPATH_LOSS_MODEL_HATA_SUBURBAN\x10\x05\x12\x1d\n\x19PATH_LOSS_MODEL_HATA_OPEN\x10\x06\x12 \n\x1cPATH_LOSS_MODEL_COST231_HATA\x10\x07\x12&\n\"PATH_LOSS_MODEL_COST231_HATA_METRO\x10\x08*u\n\tInnerMode\x12\x1a\n\x16INNER_MODE_UNSPECIFIED\x10\x00\x12\x1a\n\x16INNER_MODE_FIXED_POWER\x10\x01\x12\x14\n\x10INNER_MODE_IDEAL\x10\x02\x12\x1a\n\x16INNER_MODE_CLOSED_LOOP\x10\x03*i\n\x07\x43ommand\x12\x17\n\x13\x43OMMAND_UNSPECIFIED\x10\x00\x12\x16\n\x12\x43OMMAND_FIXED_STEP\x10\x01\x12\x17\n\x13\x43OMMAND_MULTI_LEVEL\x10\x02\x12\x14\n\x10\x43OMMAND_ADAPTIVE\x10\x03*c\n\x0cInitialPower\x12\x1d\n\x19INITIAL_POWER_UNSPECIFIED\x10\x00\x12\x1b\n\x17INITIAL_POWER_OPEN_LOOP\x10\x01\x12\x17\n\x13INITIAL_POWER_FIXED\x10\x02*R\n\x08LinkKind\x12\x19\n\x15LINK_KIND_UNSPECIFIED\x10\x00\x12\x16\n\x12LINK_KIND_LOGISTIC\x10\x01\x12\x13\n\x0fLINK_KIND_TABLE\x10\x02*d\n\x0c\x45\x66\x66\x65\x63tiveSir\x12\x1d\n\x19\x45\x46\x46\x45\x43TIVE_SIR_UNSPECIFIED\x10\x00\x12\x1d\n\x19\x45\x46\x46\x45\x43TIVE_SIR_LINEAR_MEAN\x10\x01\x12\x16\n\x12\x45\x46\x46\x45\x43TIVE_SIR_EESM\x10\x02\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x1a\x66\x61\x64\x65loop/v1/scenario.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\"\xc9\x02\n\x08Scenario\x12\x16\n\x04name\x18\x01 \x01(\tB\x08\xbaH\x05r\x03\x18\x80\x01\x12\'\n\x08receiver\x18\x02 \x01(\x0b\x32\x15.fadeloop.v1.Receiver\x12\x32\n\x06groups\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.UserGroupB\n\xbaH\x07\x92\x01\x04\x08\x01\x10@\x12*\n\ninner_loop\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.InnerLoop\x12*\n\nouter_loop\x18\x05 \x01(\x0b\x32\x16.fadeloop.v1.OuterLoop\x12$\n\x04link\x18\x06 \x01(\x0b\x32\x16.fadeloop.v1.LinkCurve\x12%\n\x03run\x18\x07 \x01(\x0b\x32\x18.fadeloop.v1.RunSettings\x12#\n\x06layout\x18\x08 \x01(\x0b\x32\x13.fadeloop.v1.Layout\"\xa2\x03\n\x08Receiver\x12\x33\n\x0c\x63hip_rate_hz\x18\x01 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00 _\xa0\x02\x42!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x33\n\x0c\x62it_rate_bps\x18\x02 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00 _\xa0\x02\x42!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x0fnoise_figure_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x31\n\x10other_cell_ratio\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x38\n\x17sir_estimation_error_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12-\n\x13sir_averaging_slots\x18\x06 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\xe8\x07(\x01\x12\x38\n\x0crake_fingers\x18\x07 \x01(\x0e\x32\x18.fadeloop.v1.RakeFingersB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12$\n\x0bmax_fingers\x18\x08 \x01(\x05\x42\x0f\xbaH\x03\xd8\x01\x01\xbaH\x06\x1a\x04\x18@(\x01\"g\n\nSpeedShare\x12*\n\tspeed_kmh\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12-\n\x06weight\x18\x02 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\"[\n\x03Tap\x12)\n\x08\x64\x65lay_ns\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12)\n\x08power_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00Y\xc0\"\xab\x02\n\x08PathLoss\x12\x33\n\x05model\x18\x01 \x01(\x0e\x32\x1a.fadeloop.v1.PathLossModelB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12/\n\x0eref_distance_m\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00\x00\x00\x12,\n\x0bref_loss_db\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\xc0r@)\x00\x00\x00\x00\x00\x00\x00\x00\x12)\n\x08\x65xponent\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rbase_height_m\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x0fmobile_height_m\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00Y@)\x00\x00\x00\x00\x00\x00\x00\x00\"\x85\x07\n\tUserGroup\x12\x15\n\x04name\x18\x01 \x01(\tB\x07\xbaH\x04r\x02\x18@\x12\x19\n\x05\x63ount\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x01\x12\x33\n\tplacement\x18\x03 \x01(\x0e\x32\x16.fadeloop.v1.PlacementB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12\x34\n\x0b\x64istances_m\x18\x04 \x03(\x01\x42\x1f\xbaH\x1c\x92\x01\x19\x10\x80 \"\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0emin_distance_m\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0emax_distance_m\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x33\n\x06speeds\x18\x07 \x03(\x0b\x32\x17.fadeloop.v1.SpeedShareB\n\xbaH\x07\x92\x01\x04\x08\x01\x10\x10\x12;\n\x14\x63\x61rrier_frequency_hz\x18\x08 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\xe8vH7B)\x00\x00\x00\x00\x80\x84.A\x12\x18\n\x07profile\x18\t \x01(\tB\x07\xbaH\x04r\x02\x18\x10\x12/\n\x0b\x63ustom_taps\x18\n \x03(\x0b\x32\x10.fadeloop.v1.TapB\x08\xbaH\x05\x92\x01\x02\x10@\x12,\n\x0brician_k_db\x18\x0b \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12\x0b\n\x03los\x18\x0c \x01(\x08\x12\x33\n\tgenerator\x18\r \x01(\x0e\x32\x16.fadeloop.v1.GeneratorB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12\x33\n\x12shadowing_sigma_db\x18\x0e \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12@\n\x19shadowing_decorrelation_m\x18\x0f \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00\x12(\n\tpath_loss\x18\x10 \x01(\x0b\x32\x15.fadeloop.v1.PathLoss\x12\x36\n\x0f\x61\x63tivity_factor\x18\x11 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x37\n\x10mean_burst_slots\x18\x12 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\xd0\x12\x63\x41)\x00\x00\x00\x00\x00\x00\xf0?\x12\x1d\n\tsinusoids\x18\x13 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x02(\x00:\x1b\xbaH\x18\"\x16\n\x07profile\n\x0b\x63ustom_taps\"\x9e\x05\n\tInnerLoop\x12.\n\x04mode\x18\x01 \x01(\x0e\x32\x16.fadeloop.v1.InnerModeB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12/\n\x07\x63ommand\x18\x02 \x01(\x0e\x32\x14.fadeloop.v1.CommandB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12\x35\n\x0eupdate_rate_hz\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@!\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\x07step_db\x18\x04 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x31\n\tlevels_db\x18\x05 \x03(\x01\x42\x1e\xbaH\x1b\x92\x01\x18\x10\x10\"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x34\xc0\x12\x35\n\rthresholds_db\x18\x06 \x03(\x01\x42\x1e\xbaH\x1b\x92\x01\x18\x10\x0f\"\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00I\xc0\x12(\n\x14\x66\x65\x65\x64\x62\x61\x63k_delay_slots\x18\x07 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\xe8\x07(\x00\x12\x33\n\x12\x63ommand_error_prob\x18\x08 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xe0?)\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rmin_power_dbm\x18\t \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12.\n\rmax_power_dbm\x18\n \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12:\n\rinitial_power\x18\x0b \x01(\x0e\x32\x19.fadeloop.v1.InitialPowerB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12\x32\n\x11initial_power_dbm\x18\x0c \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\x12\x30\n\x0f\x66ixed_power_dbm\x18\r \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00Y\xc0\"\xdc\x02\n\tOuterLoop\x12\x0f\n\x07\x65nabled\x18\x01 \x01(\x08\x12\x32\n\x0b\x62ler_target\x18\x02 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12&\n\x0b\x62lock_slots\x18\x03 \x01(\x05\x42\x11\xbaH\x03\xd8\x01\x01\xbaH\x08\x1a\x06\x18\xa0\x8d\x06(\x01\x12\x31\n\nup_step_db\x18\x04 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@!\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rmin_target_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12.\n\rmax_target_db\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12\x32\n\x11initial_target_db\x18\x07 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12\x1b\n\x13\x66reeze_at_max_power\x18\x08 \x01(\x08\"[\n\tLinkPoint\x12\'\n\x06sir_db\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00N@)\x00\x00\x00\x00\x00\x00I\xc0\x12%\n\x04\x62ler\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00\"\xba\x02\n\tLinkCurve\x12-\n\x04kind\x18\x01 \x01(\x0e\x32\x15.fadeloop.v1.LinkKindB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12-\n\x0cthreshold_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00I@)\x00\x00\x00\x00\x00\x00>\xc0\x12/\n\x08slope_db\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x30\n\x05table\x18\x04 \x03(\x0b\x32\x16.fadeloop.v1.LinkPointB\t\xbaH\x06\x92\x01\x03\x10\x80\x02\x12:\n\reffective_sir\x18\x05 \x01(\x0e\x32\x19.fadeloop.v1.EffectiveSirB\x08\xbaH\x05\x82\x01\x02\x10\x01\x12\x30\n\teesm_beta\x18\x06 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@!\x00\x00\x00\x00\x00\x00\x00\x00\"\xd0\x02\n\x0bRunSettings\x12\x1c\n\x05slots\x18\x01 \x01(\x03\x42\r\xbaH\n\"\x08\x18\x80\x94\xeb\xdc\x03(\x00\x12+\n\nduration_s\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A)\x00\x00\x00\x00\x00\x00\x00\x00\x12\"\n\x0cwarmup_slots\x18\x03 \x01(\x03\x42\x0c\xbaH\t\"\x07\x18\x80\xc2\xd7/(\x00\x12\x0c\n\x04seed\x18\x04 \x01(\x04\x12&\n\x0creplications\x18\x05 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x01\x12\x37\n\x10outage_margin_db\x18\x06 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@!\x00\x00\x00\x00\x00\x00\x00\x00\x12&\n\rdistance_bins\x18\x07 \x01(\x05\x42\x0f\xbaH\x03\xd8\x01\x01\xbaH\x06\x1a\x04\x18@(\x01\x12!\n\x07\x62\x61tches\x18\x08 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x14:\x18\xbaH\x15\"\x13\n\x05slots\n\nduration_s\"\xaf\x02\n\x06Layout\x12\x1c\n\x05sites\x18\x01 \x01(\x05\x42\r\xbaH\n\x1a\x08\x30\x00\x30\x01\x30\x07\x30\x13\x12%\n\x10sectors_per_site\x18\x02 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x30\x00\x30\x01\x30\x03\x12<\n\x15inter_site_distance_m\x18\x03 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00j\xf8@)\x00\x00\x00\x00\x00\x00I@\x12\x13\n\x0bwrap_around\x18\x04 \x01(\x08\x12\x33\n\x0bpropagation\x18\x05 \x01(\x0b\x32\x1e.fadeloop.v1.LayoutPropagation\x12\'\n\x08handover\x18\x06 \x01(\x0b\x32\x15.fadeloop.v1.Handover\x12/\n\topen_loop\x18\x07 \x01(\x0b\x32\x1c.fadeloop.v1.OpenLoopSetting\"\xa1\x02\n\x11LayoutPropagation\x12\x1a\n\x12path_loss_exponent\x18\x01 \x01(\x01\x12\x16\n\x0eloss_at_1km_db\x18\x02 \x01(\x01\x12\x16\n\x0emin_distance_m\x18\x03 \x01(\x01\x12-\n\x0cshadowing_db\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x31\n\x10site_correlation\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x17\n\x0f\x64\x65\x63orrelation_m\x18\x06 \x01(\x01\x12\x17\n\x0fshadowing_slots\x18\x07 \x01(\x05\x12,\n\x0b\x66\x61st_fading\x18\x08 \x01(\x0e\x32\x17.fadeloop.v1.FastFading\"\xa8\x01\n\x08Handover\x12*\n\twindow_db\x18\x01 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12.\n\rhysteresis_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x1d\n\nmax_active\x18\x03 \x01(\x05\x42\t\xbaH\x06\x1a\x04\x18\x06(\x00\x12!\n\x0cupdate_slots\x18\x04 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xa0\x8d\x06(\x00\"\xb2\x01\n\x0fOpenLoopSetting\x12\x0f\n\x07\x65nabled\x18\x01 \x01(\x08\x12\x34\n\x13\x65stimation_error_db\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x34@)\x00\x00\x00\x00\x00\x00\x00\x00\x12 \n\x0b\x64\x65lay_slots\x18\x03 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xa0\x8d\x06(\x00\x12\x36\n\x15\x61ssumed_noise_rise_db\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00>@)\x00\x00\x00\x00\x00\x00\x00\x00*m\n\x0bRakeFingers\x12\x1c\n\x18RAKE_FINGERS_UNSPECIFIED\x10\x00\x12\x1e\n\x1aRAKE_FINGERS_CHIP_RESOLVED\x10\x01\x12 \n\x1cRAKE_FINGERS_IDEAL_EVERY_TAP\x10\x02*z\n\tPlacement\x12\x19\n\x15PLACEMENT_UNSPECIFIED\x10\x00\x12\x16\n\x12PLACEMENT_EXPLICIT\x10\x01\x12\x1e\n\x1aPLACEMENT_UNIFORM_DISTANCE\x10\x02\x12\x1a\n\x16PLACEMENT_UNIFORM_AREA\x10\x03*u\n\tGenerator\x12\x19\n\x15GENERATOR_UNSPECIFIED\x10\x00\x12\x15\n\x11GENERATOR_DEFAULT\x10\x01\x12\x1e\n\x1aGENERATOR_SUM_OF_SINUSOIDS\x10\x02\x12\x16\n\x12GENERATOR_SPECTRAL\x10\x03*\xc4\x02\n\rPathLossModel\x12\x1f\n\x1bPATH_LOSS_MODEL_UNSPECIFIED\x10\x00\x12\x1e\n\x1aPATH_LOSS_MODEL_FREE_SPACE\x10\x01\x12 \n\x1cPATH_LOSS_MODEL_LOG_DISTANCE\x10\x02\x12\x1e\n\x1aPATH_LOSS_MODEL_HATA_URBAN\x10\x03\x12$\n PATH_LOSS_MODEL_HATA_URBAN_LARGE\x10\x04\x12!\n\x1dPATH_LOSS_MODEL_HATA_SUBURBAN\x10\x05\x12\x1d\n\x19PATH_LOSS_MODEL_HATA_OPEN\x10\x06\x12 \n\x1cPATH_LOSS_MODEL_COST231_HATA\x10\x07\x12&\n\"PATH_LOSS_MODEL_COST231_HATA_METRO\x10\x08*u\n\tInnerMode\x12\x1a\n\x16INNER_MODE_UNSPECIFIED\x10\x00\x12\x1a\n\x16INNER_MODE_FIXED_POWER\x10\x01\x12\x14\n\x10INNER_MODE_IDEAL\x10\x02\x12\x1a\n\x16INNER_MODE_CLOSED_LOOP\x10\x03*i\n\x07\x43ommand\x12\x17\n\x13\x43OMMAND_UNSPECIFIED\x10\x00\x12\x16\n\x12\x43OMMAND_FIXED_STEP\x10\x01\x12\x17\n\x13\x43OMMAND_MULTI_LEVEL\x10\x02\x12\x14\n\x10\x43OMMAND_ADAPTIVE\x10\x03*c\n\x0cInitialPower\x12\x1d\n\x19INITIAL_POWER_UNSPECIFIED\x10\x00\x12\x1b\n\x17INITIAL_POWER_OPEN_LOOP\x10\x01\x12\x17\n\x13INITIAL_POWER_FIXED\x10\x02*R\n\x08LinkKind\x12\x19\n\x15LINK_KIND_UNSPECIFIED\x10\x00\x12\x16\n\x12LINK_KIND_LOGISTIC\x10\x01\x12\x13\n\x0fLINK_KIND_TABLE\x10\x02*d\n\x0c\x45\x66\x66\x65\x63tiveSir\x12\x1d\n\x19\x45\x46\x46\x45\x43TIVE_SIR_UNSPECIFIED\x10\x00\x12\x1d\n\x19\x45\x46\x46\x45\x43TIVE_SIR_LINEAR_MEAN\x10\x01\x12\x16\n\x12\x45\x46\x46\x45\x43TIVE_SIR_EESM\x10\x02*y\n\nFastFading\x12\x1b\n\x17\x46\x41ST_FADING_UNSPECIFIED\x10\x00\x12\x14\n\x10\x46\x41ST_FADING_NONE\x10\x01\x12\"\n\x1e\x46\x41ST_FADING_SLOW_TOWARD_OTHERS\x10\x02\x12\x14\n\x10\x46\x41ST_FADING_FULL\x10\x03\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[buf_dot_validate_dot_validate__pb2.DESCRIPTOR,])
 
+_RAKEFINGERS = _descriptor.EnumDescriptor(
+  name='RakeFingers',
+  full_name='fadeloop.v1.RakeFingers',
+  filename=None,
+  file=DESCRIPTOR,
+  values=[
+    _descriptor.EnumValueDescriptor(
+      name='RAKE_FINGERS_UNSPECIFIED', index=0, number=0,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='RAKE_FINGERS_CHIP_RESOLVED', index=1, number=1,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='RAKE_FINGERS_IDEAL_EVERY_TAP', index=2, number=2,
+      options=None,
+      type=None),
+  ],
+  containing_type=None,
+  options=None,
+  serialized_start=4952,
+  serialized_end=5061,
+)
+_sym_db.RegisterEnumDescriptor(_RAKEFINGERS)
+
+RakeFingers = enum_type_wrapper.EnumTypeWrapper(_RAKEFINGERS)
 _PLACEMENT = _descriptor.EnumDescriptor(
   name='Placement',
   full_name='fadeloop.v1.Placement',
@@ -50,8 +77,8 @@ _PLACEMENT = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=3931,
-  serialized_end=4053,
+  serialized_start=5063,
+  serialized_end=5185,
 )
 _sym_db.RegisterEnumDescriptor(_PLACEMENT)
 
@@ -81,8 +108,8 @@ _GENERATOR = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4055,
-  serialized_end=4172,
+  serialized_start=5187,
+  serialized_end=5304,
 )
 _sym_db.RegisterEnumDescriptor(_GENERATOR)
 
@@ -132,8 +159,8 @@ _PATHLOSSMODEL = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4175,
-  serialized_end=4499,
+  serialized_start=5307,
+  serialized_end=5631,
 )
 _sym_db.RegisterEnumDescriptor(_PATHLOSSMODEL)
 
@@ -163,8 +190,8 @@ _INNERMODE = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4501,
-  serialized_end=4618,
+  serialized_start=5633,
+  serialized_end=5750,
 )
 _sym_db.RegisterEnumDescriptor(_INNERMODE)
 
@@ -194,8 +221,8 @@ _COMMAND = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4620,
-  serialized_end=4725,
+  serialized_start=5752,
+  serialized_end=5857,
 )
 _sym_db.RegisterEnumDescriptor(_COMMAND)
 
@@ -221,8 +248,8 @@ _INITIALPOWER = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4727,
-  serialized_end=4826,
+  serialized_start=5859,
+  serialized_end=5958,
 )
 _sym_db.RegisterEnumDescriptor(_INITIALPOWER)
 
@@ -248,8 +275,8 @@ _LINKKIND = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4828,
-  serialized_end=4910,
+  serialized_start=5960,
+  serialized_end=6042,
 )
 _sym_db.RegisterEnumDescriptor(_LINKKIND)
 
@@ -275,12 +302,46 @@ _EFFECTIVESIR = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4912,
-  serialized_end=5012,
+  serialized_start=6044,
+  serialized_end=6144,
 )
 _sym_db.RegisterEnumDescriptor(_EFFECTIVESIR)
 
 EffectiveSir = enum_type_wrapper.EnumTypeWrapper(_EFFECTIVESIR)
+_FASTFADING = _descriptor.EnumDescriptor(
+  name='FastFading',
+  full_name='fadeloop.v1.FastFading',
+  filename=None,
+  file=DESCRIPTOR,
+  values=[
+    _descriptor.EnumValueDescriptor(
+      name='FAST_FADING_UNSPECIFIED', index=0, number=0,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='FAST_FADING_NONE', index=1, number=1,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='FAST_FADING_SLOW_TOWARD_OTHERS', index=2, number=2,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='FAST_FADING_FULL', index=3, number=3,
+      options=None,
+      type=None),
+  ],
+  containing_type=None,
+  options=None,
+  serialized_start=6146,
+  serialized_end=6267,
+)
+_sym_db.RegisterEnumDescriptor(_FASTFADING)
+
+FastFading = enum_type_wrapper.EnumTypeWrapper(_FASTFADING)
+RAKE_FINGERS_UNSPECIFIED = 0
+RAKE_FINGERS_CHIP_RESOLVED = 1
+RAKE_FINGERS_IDEAL_EVERY_TAP = 2
 PLACEMENT_UNSPECIFIED = 0
 PLACEMENT_EXPLICIT = 1
 PLACEMENT_UNIFORM_DISTANCE = 2
@@ -315,6 +376,10 @@ LINK_KIND_TABLE = 2
 EFFECTIVE_SIR_UNSPECIFIED = 0
 EFFECTIVE_SIR_LINEAR_MEAN = 1
 EFFECTIVE_SIR_EESM = 2
+FAST_FADING_UNSPECIFIED = 0
+FAST_FADING_NONE = 1
+FAST_FADING_SLOW_TOWARD_OTHERS = 2
+FAST_FADING_FULL = 3
 
 
 
@@ -338,7 +403,7 @@ _SCENARIO = _descriptor.Descriptor(
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='groups', full_name='fadeloop.v1.Scenario.groups', index=2,
       number=3, type=11, cpp_type=10, label=3,
@@ -352,28 +417,35 @@ _SCENARIO = _descriptor.Descriptor(
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='outer_loop', full_name='fadeloop.v1.Scenario.outer_loop', index=4,
       number=5, type=11, cpp_type=10, label=1,
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='link', full_name='fadeloop.v1.Scenario.link', index=5,
       number=6, type=11, cpp_type=10, label=1,
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='run', full_name='fadeloop.v1.Scenario.run', index=6,
       number=7, type=11, cpp_type=10, label=1,
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='layout', full_name='fadeloop.v1.Scenario.layout', index=7,
+      number=8, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -387,7 +459,7 @@ _SCENARIO = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=73,
-  serialized_end=405,
+  serialized_end=402,
 )
 
 
@@ -440,6 +512,20 @@ _RECEIVER = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\007\032\005\030\350\007(\001')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='rake_fingers', full_name='fadeloop.v1.Receiver.rake_fingers', index=6,
+      number=7, type=14, cpp_type=8, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='max_fingers', full_name='fadeloop.v1.Receiver.max_fingers', index=7,
+      number=8, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\006\032\004\030@(\001')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -452,8 +538,8 @@ _RECEIVER = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=408,
-  serialized_end=730,
+  serialized_start=405,
+  serialized_end=823,
 )
 
 
@@ -477,7 +563,7 @@ _SPEEDSHARE = _descriptor.Descriptor(
       has_default_value=False, default_value=float(0),
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\200\204.A!\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\200\204.A!\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -490,8 +576,8 @@ _SPEEDSHARE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=732,
-  serialized_end=829,
+  serialized_start=825,
+  serialized_end=928,
 )
 
 
@@ -528,8 +614,8 @@ _TAP = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=831,
-  serialized_end=922,
+  serialized_start=930,
+  serialized_end=1021,
 )
 
 
@@ -546,7 +632,7 @@ _PATHLOSS = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='ref_distance_m', full_name='fadeloop.v1.PathLoss.ref_distance_m', index=1,
       number=2, type=1, cpp_type=5, label=1,
@@ -594,8 +680,8 @@ _PATHLOSS = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=925,
-  serialized_end=1226,
+  serialized_start=1024,
+  serialized_end=1323,
 )
 
 
@@ -626,7 +712,7 @@ _USERGROUP = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='distances_m', full_name='fadeloop.v1.UserGroup.distances_m', index=3,
       number=4, type=1, cpp_type=5, label=3,
@@ -696,7 +782,7 @@ _USERGROUP = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='shadowing_sigma_db', full_name='fadeloop.v1.UserGroup.shadowing_sigma_db', index=13,
       number=14, type=1, cpp_type=5, label=1,
@@ -717,7 +803,7 @@ _USERGROUP = _descriptor.Descriptor(
       has_default_value=False, default_value=None,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001')), file=DESCRIPTOR),
+      options=None, file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='activity_factor', full_name='fadeloop.v1.UserGroup.activity_factor', index=16,
       number=17, type=1, cpp_type=5, label=1,
@@ -745,14 +831,14 @@ _USERGROUP = _descriptor.Descriptor(
   nested_types=[],
   enum_types=[
   ],
-  options=_descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\032\"\030\n\007profile\n\013custom_taps\020\001')),
+  options=_descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\030\"\026\n\007profile\n\013custom_taps')),
   is_extendable=False,
   syntax='proto3',
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1229,
-  serialized_end=2144,
+  serialized_start=1326,
+  serialized_end=2227,
 )
 
 
@@ -769,14 +855,14 @@ _INNERLOOP = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='command', full_name='fadeloop.v1.InnerLoop.command', index=1,
       number=2, type=14, cpp_type=8, label=1,
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='update_rate_hz', full_name='fadeloop.v1.InnerLoop.update_rate_hz', index=2,
       number=3, type=1, cpp_type=5, label=1,
@@ -839,7 +925,7 @@ _INNERLOOP = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='initial_power_dbm', full_name='fadeloop.v1.InnerLoop.initial_power_dbm', index=11,
       number=12, type=1, cpp_type=5, label=1,
@@ -866,8 +952,8 @@ _INNERLOOP = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2147,
-  serialized_end=2823,
+  serialized_start=2230,
+  serialized_end=2900,
 )
 
 
@@ -946,8 +1032,8 @@ _OUTERLOOP = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2826,
-  serialized_end=3174,
+  serialized_start=2903,
+  serialized_end=3251,
 )
 
 
@@ -984,8 +1070,8 @@ _LINKPOINT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3176,
-  serialized_end=3267,
+  serialized_start=3253,
+  serialized_end=3344,
 )
 
 
@@ -1002,7 +1088,7 @@ _LINKCURVE = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='threshold_db', full_name='fadeloop.v1.LinkCurve.threshold_db', index=1,
       number=2, type=1, cpp_type=5, label=1,
@@ -1030,7 +1116,7 @@ _LINKCURVE = _descriptor.Descriptor(
       has_default_value=False, default_value=0,
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
-      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000')), file=DESCRIPTOR),
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001')), file=DESCRIPTOR),
     _descriptor.FieldDescriptor(
       name='eesm_beta', full_name='fadeloop.v1.LinkCurve.eesm_beta', index=5,
       number=6, type=1, cpp_type=5, label=1,
@@ -1050,8 +1136,8 @@ _LINKCURVE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3270,
-  serialized_end=3588,
+  serialized_start=3347,
+  serialized_end=3661,
 )
 
 
@@ -1124,14 +1210,271 @@ _RUNSETTINGS = _descriptor.Descriptor(
   nested_types=[],
   enum_types=[
   ],
-  options=_descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\027\"\025\n\005slots\n\nduration_s\020\001')),
+  options=_descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\025\"\023\n\005slots\n\nduration_s')),
   is_extendable=False,
   syntax='proto3',
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3591,
-  serialized_end=3929,
+  serialized_start=3664,
+  serialized_end=4000,
+)
+
+
+_LAYOUT = _descriptor.Descriptor(
+  name='Layout',
+  full_name='fadeloop.v1.Layout',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='sites', full_name='fadeloop.v1.Layout.sites', index=0,
+      number=1, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\n\032\0100\0000\0010\0070\023')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='sectors_per_site', full_name='fadeloop.v1.Layout.sectors_per_site', index=1,
+      number=2, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\0060\0000\0010\003')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='inter_site_distance_m', full_name='fadeloop.v1.Layout.inter_site_distance_m', index=2,
+      number=3, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000j\370@)\000\000\000\000\000\000I@')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='wrap_around', full_name='fadeloop.v1.Layout.wrap_around', index=3,
+      number=4, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='propagation', full_name='fadeloop.v1.Layout.propagation', index=4,
+      number=5, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='handover', full_name='fadeloop.v1.Layout.handover', index=5,
+      number=6, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='open_loop', full_name='fadeloop.v1.Layout.open_loop', index=6,
+      number=7, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=4003,
+  serialized_end=4306,
+)
+
+
+_LAYOUTPROPAGATION = _descriptor.Descriptor(
+  name='LayoutPropagation',
+  full_name='fadeloop.v1.LayoutPropagation',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='path_loss_exponent', full_name='fadeloop.v1.LayoutPropagation.path_loss_exponent', index=0,
+      number=1, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='loss_at_1km_db', full_name='fadeloop.v1.LayoutPropagation.loss_at_1km_db', index=1,
+      number=2, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='min_distance_m', full_name='fadeloop.v1.LayoutPropagation.min_distance_m', index=2,
+      number=3, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='shadowing_db', full_name='fadeloop.v1.LayoutPropagation.shadowing_db', index=3,
+      number=4, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='site_correlation', full_name='fadeloop.v1.LayoutPropagation.site_correlation', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000\360?)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='decorrelation_m', full_name='fadeloop.v1.LayoutPropagation.decorrelation_m', index=5,
+      number=6, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='shadowing_slots', full_name='fadeloop.v1.LayoutPropagation.shadowing_slots', index=6,
+      number=7, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='fast_fading', full_name='fadeloop.v1.LayoutPropagation.fast_fading', index=7,
+      number=8, type=14, cpp_type=8, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=4309,
+  serialized_end=4598,
+)
+
+
+_HANDOVER = _descriptor.Descriptor(
+  name='Handover',
+  full_name='fadeloop.v1.Handover',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='window_db', full_name='fadeloop.v1.Handover.window_db', index=0,
+      number=1, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='hysteresis_db', full_name='fadeloop.v1.Handover.hysteresis_db', index=1,
+      number=2, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000$@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='max_active', full_name='fadeloop.v1.Handover.max_active', index=2,
+      number=3, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\032\004\030\006(\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='update_slots', full_name='fadeloop.v1.Handover.update_slots', index=3,
+      number=4, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\240\215\006(\000')), file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=4601,
+  serialized_end=4769,
+)
+
+
+_OPENLOOPSETTING = _descriptor.Descriptor(
+  name='OpenLoopSetting',
+  full_name='fadeloop.v1.OpenLoopSetting',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='enabled', full_name='fadeloop.v1.OpenLoopSetting.enabled', index=0,
+      number=1, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='estimation_error_db', full_name='fadeloop.v1.OpenLoopSetting.estimation_error_db', index=1,
+      number=2, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='delay_slots', full_name='fadeloop.v1.OpenLoopSetting.delay_slots', index=2,
+      number=3, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\240\215\006(\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='assumed_noise_rise_db', full_name='fadeloop.v1.OpenLoopSetting.assumed_noise_rise_db', index=3,
+      number=4, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000>@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=4772,
+  serialized_end=4950,
 )
 
 _SCENARIO.fields_by_name['receiver'].message_type = _RECEIVER
@@ -1140,6 +1483,8 @@ _SCENARIO.fields_by_name['inner_loop'].message_type = _INNERLOOP
 _SCENARIO.fields_by_name['outer_loop'].message_type = _OUTERLOOP
 _SCENARIO.fields_by_name['link'].message_type = _LINKCURVE
 _SCENARIO.fields_by_name['run'].message_type = _RUNSETTINGS
+_SCENARIO.fields_by_name['layout'].message_type = _LAYOUT
+_RECEIVER.fields_by_name['rake_fingers'].enum_type = _RAKEFINGERS
 _PATHLOSS.fields_by_name['model'].enum_type = _PATHLOSSMODEL
 _USERGROUP.fields_by_name['placement'].enum_type = _PLACEMENT
 _USERGROUP.fields_by_name['speeds'].message_type = _SPEEDSHARE
@@ -1152,6 +1497,10 @@ _INNERLOOP.fields_by_name['initial_power'].enum_type = _INITIALPOWER
 _LINKCURVE.fields_by_name['kind'].enum_type = _LINKKIND
 _LINKCURVE.fields_by_name['table'].message_type = _LINKPOINT
 _LINKCURVE.fields_by_name['effective_sir'].enum_type = _EFFECTIVESIR
+_LAYOUT.fields_by_name['propagation'].message_type = _LAYOUTPROPAGATION
+_LAYOUT.fields_by_name['handover'].message_type = _HANDOVER
+_LAYOUT.fields_by_name['open_loop'].message_type = _OPENLOOPSETTING
+_LAYOUTPROPAGATION.fields_by_name['fast_fading'].enum_type = _FASTFADING
 DESCRIPTOR.message_types_by_name['Scenario'] = _SCENARIO
 DESCRIPTOR.message_types_by_name['Receiver'] = _RECEIVER
 DESCRIPTOR.message_types_by_name['SpeedShare'] = _SPEEDSHARE
@@ -1163,6 +1512,11 @@ DESCRIPTOR.message_types_by_name['OuterLoop'] = _OUTERLOOP
 DESCRIPTOR.message_types_by_name['LinkPoint'] = _LINKPOINT
 DESCRIPTOR.message_types_by_name['LinkCurve'] = _LINKCURVE
 DESCRIPTOR.message_types_by_name['RunSettings'] = _RUNSETTINGS
+DESCRIPTOR.message_types_by_name['Layout'] = _LAYOUT
+DESCRIPTOR.message_types_by_name['LayoutPropagation'] = _LAYOUTPROPAGATION
+DESCRIPTOR.message_types_by_name['Handover'] = _HANDOVER
+DESCRIPTOR.message_types_by_name['OpenLoopSetting'] = _OPENLOOPSETTING
+DESCRIPTOR.enum_types_by_name['RakeFingers'] = _RAKEFINGERS
 DESCRIPTOR.enum_types_by_name['Placement'] = _PLACEMENT
 DESCRIPTOR.enum_types_by_name['Generator'] = _GENERATOR
 DESCRIPTOR.enum_types_by_name['PathLossModel'] = _PATHLOSSMODEL
@@ -1171,6 +1525,7 @@ DESCRIPTOR.enum_types_by_name['Command'] = _COMMAND
 DESCRIPTOR.enum_types_by_name['InitialPower'] = _INITIALPOWER
 DESCRIPTOR.enum_types_by_name['LinkKind'] = _LINKKIND
 DESCRIPTOR.enum_types_by_name['EffectiveSir'] = _EFFECTIVESIR
+DESCRIPTOR.enum_types_by_name['FastFading'] = _FASTFADING
 _sym_db.RegisterFileDescriptor(DESCRIPTOR)
 
 Scenario = _reflection.GeneratedProtocolMessageType('Scenario', (_message.Message,), dict(
@@ -1250,23 +1605,41 @@ RunSettings = _reflection.GeneratedProtocolMessageType('RunSettings', (_message.
   ))
 _sym_db.RegisterMessage(RunSettings)
 
+Layout = _reflection.GeneratedProtocolMessageType('Layout', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUT,
+  __module__ = 'fadeloop.v1.scenario_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.Layout)
+  ))
+_sym_db.RegisterMessage(Layout)
+
+LayoutPropagation = _reflection.GeneratedProtocolMessageType('LayoutPropagation', (_message.Message,), dict(
+  DESCRIPTOR = _LAYOUTPROPAGATION,
+  __module__ = 'fadeloop.v1.scenario_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.LayoutPropagation)
+  ))
+_sym_db.RegisterMessage(LayoutPropagation)
+
+Handover = _reflection.GeneratedProtocolMessageType('Handover', (_message.Message,), dict(
+  DESCRIPTOR = _HANDOVER,
+  __module__ = 'fadeloop.v1.scenario_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.Handover)
+  ))
+_sym_db.RegisterMessage(Handover)
+
+OpenLoopSetting = _reflection.GeneratedProtocolMessageType('OpenLoopSetting', (_message.Message,), dict(
+  DESCRIPTOR = _OPENLOOPSETTING,
+  __module__ = 'fadeloop.v1.scenario_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.OpenLoopSetting)
+  ))
+_sym_db.RegisterMessage(OpenLoopSetting)
+
 
 DESCRIPTOR.has_options = True
 DESCRIPTOR._options = _descriptor._ParseOptions(descriptor_pb2.FileOptions(), _b('Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1'))
 _SCENARIO.fields_by_name['name'].has_options = True
 _SCENARIO.fields_by_name['name']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005r\003\030\200\001'))
-_SCENARIO.fields_by_name['receiver'].has_options = True
-_SCENARIO.fields_by_name['receiver']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
 _SCENARIO.fields_by_name['groups'].has_options = True
 _SCENARIO.fields_by_name['groups']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\222\001\004\010\001\020@'))
-_SCENARIO.fields_by_name['inner_loop'].has_options = True
-_SCENARIO.fields_by_name['inner_loop']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
-_SCENARIO.fields_by_name['outer_loop'].has_options = True
-_SCENARIO.fields_by_name['outer_loop']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
-_SCENARIO.fields_by_name['link'].has_options = True
-_SCENARIO.fields_by_name['link']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
-_SCENARIO.fields_by_name['run'].has_options = True
-_SCENARIO.fields_by_name['run']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
 _RECEIVER.fields_by_name['chip_rate_hz'].has_options = True
 _RECEIVER.fields_by_name['chip_rate_hz']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000 _\240\002B!\000\000\000\000\000\000\000\000'))
 _RECEIVER.fields_by_name['bit_rate_bps'].has_options = True
@@ -1279,16 +1652,20 @@ _RECEIVER.fields_by_name['sir_estimation_error_db'].has_options = True
 _RECEIVER.fields_by_name['sir_estimation_error_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000'))
 _RECEIVER.fields_by_name['sir_averaging_slots'].has_options = True
 _RECEIVER.fields_by_name['sir_averaging_slots']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\007\032\005\030\350\007(\001'))
+_RECEIVER.fields_by_name['rake_fingers'].has_options = True
+_RECEIVER.fields_by_name['rake_fingers']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
+_RECEIVER.fields_by_name['max_fingers'].has_options = True
+_RECEIVER.fields_by_name['max_fingers']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\006\032\004\030@(\001'))
 _SPEEDSHARE.fields_by_name['speed_kmh'].has_options = True
 _SPEEDSHARE.fields_by_name['speed_kmh']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000@\217@)\000\000\000\000\000\000\000\000'))
 _SPEEDSHARE.fields_by_name['weight'].has_options = True
-_SPEEDSHARE.fields_by_name['weight']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\200\204.A!\000\000\000\000\000\000\000\000'))
+_SPEEDSHARE.fields_by_name['weight']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\200\204.A!\000\000\000\000\000\000\000\000'))
 _TAP.fields_by_name['delay_ns'].has_options = True
 _TAP.fields_by_name['delay_ns']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\200\204.A)\000\000\000\000\000\000\000\000'))
 _TAP.fields_by_name['power_db'].has_options = True
 _TAP.fields_by_name['power_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000I@)\000\000\000\000\000\000Y\300'))
 _PATHLOSS.fields_by_name['model'].has_options = True
-_PATHLOSS.fields_by_name['model']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_PATHLOSS.fields_by_name['model']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _PATHLOSS.fields_by_name['ref_distance_m'].has_options = True
 _PATHLOSS.fields_by_name['ref_distance_m']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000j\370@)\000\000\000\000\000\000\000\000'))
 _PATHLOSS.fields_by_name['ref_loss_db'].has_options = True
@@ -1304,7 +1681,7 @@ _USERGROUP.fields_by_name['name']._options = _descriptor._ParseOptions(descripto
 _USERGROUP.fields_by_name['count'].has_options = True
 _USERGROUP.fields_by_name['count']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200 (\001'))
 _USERGROUP.fields_by_name['placement'].has_options = True
-_USERGROUP.fields_by_name['placement']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_USERGROUP.fields_by_name['placement']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _USERGROUP.fields_by_name['distances_m'].has_options = True
 _USERGROUP.fields_by_name['distances_m']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\034\222\001\031\020\200 \"\024\022\022\031\000\000\000\000\200\204.A!\000\000\000\000\000\000\000\000'))
 _USERGROUP.fields_by_name['min_distance_m'].has_options = True
@@ -1322,13 +1699,11 @@ _USERGROUP.fields_by_name['custom_taps']._options = _descriptor._ParseOptions(de
 _USERGROUP.fields_by_name['rician_k_db'].has_options = True
 _USERGROUP.fields_by_name['rician_k_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000I@)\000\000\000\000\000\000I\300'))
 _USERGROUP.fields_by_name['generator'].has_options = True
-_USERGROUP.fields_by_name['generator']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_USERGROUP.fields_by_name['generator']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _USERGROUP.fields_by_name['shadowing_sigma_db'].has_options = True
 _USERGROUP.fields_by_name['shadowing_sigma_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000'))
 _USERGROUP.fields_by_name['shadowing_decorrelation_m'].has_options = True
 _USERGROUP.fields_by_name['shadowing_decorrelation_m']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000j\370@!\000\000\000\000\000\000\000\000'))
-_USERGROUP.fields_by_name['path_loss'].has_options = True
-_USERGROUP.fields_by_name['path_loss']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
 _USERGROUP.fields_by_name['activity_factor'].has_options = True
 _USERGROUP.fields_by_name['activity_factor']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000\000\360?!\000\000\000\000\000\000\000\000'))
 _USERGROUP.fields_by_name['mean_burst_slots'].has_options = True
@@ -1336,11 +1711,11 @@ _USERGROUP.fields_by_name['mean_burst_slots']._options = _descriptor._ParseOptio
 _USERGROUP.fields_by_name['sinusoids'].has_options = True
 _USERGROUP.fields_by_name['sinusoids']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\032\005\030\200\002(\000'))
 _USERGROUP.has_options = True
-_USERGROUP._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\032\"\030\n\007profile\n\013custom_taps\020\001'))
+_USERGROUP._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\030\"\026\n\007profile\n\013custom_taps'))
 _INNERLOOP.fields_by_name['mode'].has_options = True
-_INNERLOOP.fields_by_name['mode']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_INNERLOOP.fields_by_name['mode']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _INNERLOOP.fields_by_name['command'].has_options = True
-_INNERLOOP.fields_by_name['command']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_INNERLOOP.fields_by_name['command']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _INNERLOOP.fields_by_name['update_rate_hz'].has_options = True
 _INNERLOOP.fields_by_name['update_rate_hz']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000j\370@!\000\000\000\000\000\000\000\000'))
 _INNERLOOP.fields_by_name['step_db'].has_options = True
@@ -1358,7 +1733,7 @@ _INNERLOOP.fields_by_name['min_power_dbm']._options = _descriptor._ParseOptions(
 _INNERLOOP.fields_by_name['max_power_dbm'].has_options = True
 _INNERLOOP.fields_by_name['max_power_dbm']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000N@)\000\000\000\000\000\000Y\300'))
 _INNERLOOP.fields_by_name['initial_power'].has_options = True
-_INNERLOOP.fields_by_name['initial_power']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_INNERLOOP.fields_by_name['initial_power']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _INNERLOOP.fields_by_name['initial_power_dbm'].has_options = True
 _INNERLOOP.fields_by_name['initial_power_dbm']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000N@)\000\000\000\000\000\000Y\300'))
 _INNERLOOP.fields_by_name['fixed_power_dbm'].has_options = True
@@ -1380,7 +1755,7 @@ _LINKPOINT.fields_by_name['sir_db']._options = _descriptor._ParseOptions(descrip
 _LINKPOINT.fields_by_name['bler'].has_options = True
 _LINKPOINT.fields_by_name['bler']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000\360?)\000\000\000\000\000\000\000\000'))
 _LINKCURVE.fields_by_name['kind'].has_options = True
-_LINKCURVE.fields_by_name['kind']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_LINKCURVE.fields_by_name['kind']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _LINKCURVE.fields_by_name['threshold_db'].has_options = True
 _LINKCURVE.fields_by_name['threshold_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000I@)\000\000\000\000\000\000>\300'))
 _LINKCURVE.fields_by_name['slope_db'].has_options = True
@@ -1388,7 +1763,7 @@ _LINKCURVE.fields_by_name['slope_db']._options = _descriptor._ParseOptions(descr
 _LINKCURVE.fields_by_name['table'].has_options = True
 _LINKCURVE.fields_by_name['table']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\222\001\003\020\200\002'))
 _LINKCURVE.fields_by_name['effective_sir'].has_options = True
-_LINKCURVE.fields_by_name['effective_sir']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\007\202\001\004\020\001 \000'))
+_LINKCURVE.fields_by_name['effective_sir']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\005\202\001\002\020\001'))
 _LINKCURVE.fields_by_name['eesm_beta'].has_options = True
 _LINKCURVE.fields_by_name['eesm_beta']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000@\217@!\000\000\000\000\000\000\000\000'))
 _RUNSETTINGS.fields_by_name['slots'].has_options = True
@@ -1406,5 +1781,29 @@ _RUNSETTINGS.fields_by_name['distance_bins']._options = _descriptor._ParseOption
 _RUNSETTINGS.fields_by_name['batches'].has_options = True
 _RUNSETTINGS.fields_by_name['batches']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\007\032\005\030\220N(\024'))
 _RUNSETTINGS.has_options = True
-_RUNSETTINGS._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\027\"\025\n\005slots\n\nduration_s\020\001'))
+_RUNSETTINGS._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\025\"\023\n\005slots\n\nduration_s'))
+_LAYOUT.fields_by_name['sites'].has_options = True
+_LAYOUT.fields_by_name['sites']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\n\032\0100\0000\0010\0070\023'))
+_LAYOUT.fields_by_name['sectors_per_site'].has_options = True
+_LAYOUT.fields_by_name['sectors_per_site']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\0060\0000\0010\003'))
+_LAYOUT.fields_by_name['inter_site_distance_m'].has_options = True
+_LAYOUT.fields_by_name['inter_site_distance_m']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\330\001\001\272H\024\022\022\031\000\000\000\000\000j\370@)\000\000\000\000\000\000I@'))
+_LAYOUTPROPAGATION.fields_by_name['shadowing_db'].has_options = True
+_LAYOUTPROPAGATION.fields_by_name['shadowing_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000'))
+_LAYOUTPROPAGATION.fields_by_name['site_correlation'].has_options = True
+_LAYOUTPROPAGATION.fields_by_name['site_correlation']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000\360?)\000\000\000\000\000\000\000\000'))
+_HANDOVER.fields_by_name['window_db'].has_options = True
+_HANDOVER.fields_by_name['window_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000'))
+_HANDOVER.fields_by_name['hysteresis_db'].has_options = True
+_HANDOVER.fields_by_name['hysteresis_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000$@)\000\000\000\000\000\000\000\000'))
+_HANDOVER.fields_by_name['max_active'].has_options = True
+_HANDOVER.fields_by_name['max_active']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\006\032\004\030\006(\000'))
+_HANDOVER.fields_by_name['update_slots'].has_options = True
+_HANDOVER.fields_by_name['update_slots']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\240\215\006(\000'))
+_OPENLOOPSETTING.fields_by_name['estimation_error_db'].has_options = True
+_OPENLOOPSETTING.fields_by_name['estimation_error_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\0004@)\000\000\000\000\000\000\000\000'))
+_OPENLOOPSETTING.fields_by_name['delay_slots'].has_options = True
+_OPENLOOPSETTING.fields_by_name['delay_slots']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\240\215\006(\000'))
+_OPENLOOPSETTING.fields_by_name['assumed_noise_rise_db'].has_options = True
+_OPENLOOPSETTING.fields_by_name['assumed_noise_rise_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000>@)\000\000\000\000\000\000\000\000'))
 # @@protoc_insertion_point(module_scope)

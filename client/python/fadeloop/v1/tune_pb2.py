@@ -22,7 +22,7 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/tune.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x16\x66\x61\x64\x65loop/v1/tune.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"j\n\x08Override\x12\x18\n\x04path\x18\x01 \x01(\tB\n\xbaH\x07r\x05\x10\x01\x18\x80\x02\x12\x19\n\x06number\x18\x02 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01H\x00\x12\x19\n\x04text\x18\x03 \x01(\tB\t\xbaH\x06r\x04\x10\x01\x18@H\x00\x42\x0e\n\x05value\x12\x05\xbaH\x02\x08\x01\"\x81\x01\n\tCondition\x12\x17\n\x04name\x18\x01 \x01(\tB\t\xbaH\x06r\x04\x10\x01\x18@\x12\'\n\x06weight\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x32\n\toverrides\x18\x03 \x03(\x0b\x32\x15.fadeloop.v1.OverrideB\x08\xbaH\x05\x92\x01\x02\x10@\"\x8c\x03\n\tObjective\x12\x34\n\x04kind\x18\x01 \x01(\x0e\x32\x1a.fadeloop.v1.ObjectiveKindB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12-\n\x0coutage_limit\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0e\x62ler_tolerance\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x32\n\x11indifference_zone\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00:\xb4\x01\xbaH\xb0\x01\x1a\xad\x01\n\x1fobjective.outage_limit_required\x12\x42outage_limit in (0, 1) is required for OBJECTIVE_KIND_MIN_TX_POWER\x1a\x46this.kind != 3 || (this.outage_limit > 0.0 && this.outage_limit < 1.0)\"\xa6\x01\n\nTuneBudget\x12*\n\x10min_replications\x18\x01 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x02\x12$\n\x10max_replications\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x90N(\x00\x12%\n\x12\x62\x61tch_replications\x18\x03 \x01(\x05\x42\t\xbaH\x06\x1a\x04\x18\x64(\x00\x12\x1f\n\x0emax_user_slots\x18\x04 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\"\x84\x01\n\x0eSearchProgress\x12\r\n\x05stage\x18\x01 \x01(\x05\x12\x1c\n\x14\x63\x61ndidates_remaining\x18\x02 \x01(\x05\x12\x19\n\x11replications_done\x18\x03 \x01(\x03\x12\x17\n\x0fuser_slots_done\x18\x04 \x01(\x03\x12\x11\n\telapsed_s\x18\x05 \x01(\x01\"I\n\x13ReplicationEstimate\x12\x0c\n\x04mean\x18\x01 \x01(\x01\x12\x0b\n\x03low\x18\x02 \x01(\x01\x12\x0c\n\x04high\x18\x03 \x01(\x01\x12\t\n\x01n\x18\x04 \x01(\x05\"\xec\x03\n\x0bTuneFigures\x12;\n\x11sir_error_mean_db\x18\x01 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12:\n\x10sir_error_std_db\x18\x02 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12outage_probability\x18\x03 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x37\n\rachieved_bler\x18\x04 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x13\n\x0b\x62ler_target\x18\x05 \x01(\x01\x12;\n\x11tx_power_mean_dbm\x18\x06 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12max_power_fraction\x18\x07 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12noise_rise_mean_db\x18\x08 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x1f\n\x17infeasible_replications\x18\t \x01(\x05\"$\n\x05\x43oord\x12\x0c\n\x04path\x18\x01 \x01(\t\x12\r\n\x05value\x18\x02 \x01(\x01\">\n\tGridPoint\x12\r\n\x05index\x18\x01 \x01(\x05\x12\"\n\x06\x63oords\x18\x02 \x03(\x0b\x32\x12.fadeloop.v1.Coord\"\xfc\x01\n\x0f\x43\x61ndidateResult\x12\x11\n\tcandidate\x18\x01 \x01(\x05\x12)\n\x07\x66igures\x18\x02 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\x12\x33\n\tobjective\x18\x03 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x36\n\x0c\x64iff_to_best\x18\x04 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12,\n\x06status\x18\x05 \x01(\x0e\x32\x1c.fadeloop.v1.CandidateStatus\x12\x10\n\x08\x66\x65\x61sible\x18\x06 \x01(\x08\"\xe6\x01\n\x08\x44\x65\x63ision\x12\x0c\n\x04\x62\x65st\x18\x01 \x01(\x05\x12\'\n\x07setting\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.GridPoint\x12\x10\n\x08\x64\x65\x63lared\x18\x03 \x01(\x08\x12\x0f\n\x07tie_set\x18\x04 \x03(\x05\x12\x0e\n\x06leader\x18\x05 \x01(\x05\x12\x11\n\trunner_up\x18\x06 \x01(\x05\x12\x32\n\x08\x65vidence\x18\x07 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x19\n\x11\x63onstraints_unmet\x18\x08 \x01(\x08\x12\x0e\n\x06reason\x18\t \x01(\t\"{\n\x08\x42\x61seline\x12)\n\x07\x66igures\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\x12.\n\x04gain\x18\x02 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x14\n\x0c\x62\x61rely_helps\x18\x03 \x01(\x08\"\xd0\x01\n\x0f\x43onditionResult\x12\x0c\n\x04name\x18\x01 \x01(\t\x12\x0e\n\x06weight\x18\x02 \x01(\x01\x12\'\n\x08\x64\x65\x63ision\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Decision\x12\x30\n\ncandidates\x18\x04 \x03(\x0b\x32\x1c.fadeloop.v1.CandidateResult\x12\'\n\x08\x62\x61seline\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Baseline\x12\x1b\n\x13\x64oppler_product_max\x18\x06 \x01(\x01\"\xda\x01\n\nTuneEffort\x12\x14\n\x0creplications\x18\x01 \x01(\x03\x12\x1d\n\x15\x62\x61seline_replications\x18\x02 \x01(\x03\x12\x12\n\nuser_slots\x18\x03 \x01(\x03\x12\x0e\n\x06stages\x18\x04 \x01(\x05\x12\x1d\n\x15max_replications_used\x18\x05 \x01(\x05\x12%\n\x1d\x65qual_allocation_replications\x18\x06 \x01(\x03\x12\x18\n\x10\x62udget_exhausted\x18\x07 \x01(\x08\x12\x13\n\x0bwall_time_s\x18\x08 \x01(\x01\"\xd8\x02\n\x0eRecommendation\x12)\n\tobjective\x18\x01 \x01(\x0b\x32\x16.fadeloop.v1.Objective\x12\x12\n\nconfidence\x18\x02 \x01(\x01\x12*\n\ncandidates\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.GridPoint\x12\x30\n\nconditions\x18\x04 \x03(\x0b\x32\x1c.fadeloop.v1.ConditionResult\x12&\n\x07overall\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Decision\x12\x38\n\x12overall_candidates\x18\x06 \x03(\x0b\x32\x1c.fadeloop.v1.CandidateResult\x12\'\n\x06\x65\x66\x66ort\x18\x07 \x01(\x0b\x32\x17.fadeloop.v1.TuneEffort\x12\x0c\n\x04seed\x18\x08 \x01(\x04\x12\x10\n\x08tie_rule\x18\t \x01(\t\"\x7f\n\x0cTuneResponse\x12/\n\x08progress\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.SearchProgressH\x00\x12\x35\n\x0erecommendation\x18\x02 \x01(\x0b\x32\x1b.fadeloop.v1.RecommendationH\x00\x42\x07\n\x05\x65vent\"\xe6\x02\n\x0f\x43\x61pacityRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12\x18\n\x05group\x18\x02 \x01(\x05\x42\t\xbaH\x06\x1a\x04\x18?(\x00\x12-\n\x0coutage_limit\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x1d\n\tmin_count\x18\x04 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x00\x12\x1d\n\tmax_count\x18\x05 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x00\x12 \n\x0creplications\x18\x06 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\xe8\x07(\x00\x12\x31\n\nconfidence\x18\x07 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?\x12\x1f\n\x0emax_user_slots\x18\x08 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\x12)\n\x14progress_interval_ms\x18\t \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\"\x8e\x01\n\nPoleParams\x12\x14\n\x0c\x63hip_rate_hz\x18\x01 \x01(\x01\x12\x14\n\x0c\x62it_rate_bps\x18\x02 \x01(\x01\x12\x10\n\x08\x65\x62_i0_db\x18\x03 \x01(\x01\x12\x17\n\x0f\x61\x63tivity_factor\x18\x04 \x01(\x01\x12\x18\n\x10other_cell_ratio\x18\x05 \x01(\x01\x12\x0f\n\x07sectors\x18\x06 \x01(\x01\"l\n\rCapacityPoint\x12\r\n\x05\x63ount\x18\x01 \x01(\x05\x12\x13\n\x0btotal_users\x18\x02 \x01(\x05\x12\x0c\n\x04pass\x18\x03 \x01(\x08\x12)\n\x07\x66igures\x18\x04 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\"\x88\x03\n\x0e\x43\x61pacityResult\x12\r\n\x05\x63ount\x18\x01 \x01(\x05\x12\x13\n\x0btotal_users\x18\x02 \x01(\x05\x12\x13\n\x0b\x62\x65low_range\x18\x03 \x01(\x08\x12\x14\n\x0c\x61t_range_top\x18\x04 \x01(\x08\x12-\n\tevaluated\x18\x05 \x03(\x0b\x32\x1a.fadeloop.v1.CapacityPoint\x12\x0c\n\x04pole\x18\x06 \x01(\x01\x12,\n\x0bpole_params\x18\x07 \x01(\x0b\x32\x17.fadeloop.v1.PoleParams\x12\x12\n\npole_error\x18\x08 \x01(\t\x12\x12\n\nmodel_pole\x18\t \x01(\x01\x12\x14\n\x0cnon_monotone\x18\n \x01(\x08\x12\x18\n\x10\x62udget_exhausted\x18\x0b \x01(\x08\x12\x15\n\rfailing_count\x18\x0c \x01(\x05\x12\x14\n\x0creplications\x18\r \x01(\x03\x12\x12\n\nuser_slots\x18\x0e \x01(\x03\x12\x0e\n\x06reason\x18\x0f \x01(\t\x12\x13\n\x0bwall_time_s\x18\x10 \x01(\x01\"{\n\x10\x43\x61pacityResponse\x12/\n\x08progress\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.SearchProgressH\x00\x12-\n\x06result\x18\x02 \x01(\x0b\x32\x1b.fadeloop.v1.CapacityResultH\x00\x42\x07\n\x05\x65vent*\x95\x01\n\rObjectiveKind\x12\x1e\n\x1aOBJECTIVE_KIND_UNSPECIFIED\x10\x00\x12$\n OBJECTIVE_KIND_MIN_SIR_ERROR_STD\x10\x01\x12\x1d\n\x19OBJECTIVE_KIND_MIN_OUTAGE\x10\x02\x12\x1f\n\x1bOBJECTIVE_KIND_MIN_TX_POWER\x10\x03*\x93\x01\n\x0f\x43\x61ndidateStatus\x12 \n\x1c\x43\x41NDIDATE_STATUS_UNSPECIFIED\x10\x00\x12\x1f\n\x1b\x43\x41NDIDATE_STATUS_CONTENDING\x10\x01\x12\x1c\n\x18\x43\x41NDIDATE_STATUS_DROPPED\x10\x02\x12\x1f\n\x1b\x43\x41NDIDATE_STATUS_EQUIVALENT\x10\x03\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x16\x66\x61\x64\x65loop/v1/tune.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\"j\n\x08Override\x12\x18\n\x04path\x18\x01 \x01(\tB\n\xbaH\x07r\x05\x10\x01\x18\x80\x02\x12\x19\n\x06number\x18\x02 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01H\x00\x12\x19\n\x04text\x18\x03 \x01(\tB\t\xbaH\x06r\x04\x10\x01\x18@H\x00\x42\x0e\n\x05value\x12\x05\xbaH\x02\x08\x01\"\x81\x01\n\tCondition\x12\x17\n\x04name\x18\x01 \x01(\tB\t\xbaH\x06r\x04\x10\x01\x18@\x12\'\n\x06weight\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x80\x84.A!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x32\n\toverrides\x18\x03 \x03(\x0b\x32\x15.fadeloop.v1.OverrideB\x08\xbaH\x05\x92\x01\x02\x10@\"\xf3\x03\n\tObjective\x12\x34\n\x04kind\x18\x01 \x01(\x0e\x32\x1a.fadeloop.v1.ObjectiveKindB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12-\n\x0coutage_limit\x18\x02 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0e\x62ler_tolerance\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00$@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x32\n\x11indifference_zone\x18\x04 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00@\x8f@)\x00\x00\x00\x00\x00\x00\x00\x00\x12\x34\n\x13noise_rise_limit_db\x18\x05 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x44@)\x00\x00\x00\x00\x00\x00\x00\x00\x12/\n\x0eoutage_warning\x18\x06 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\xf0?)\x00\x00\x00\x00\x00\x00\x00\x00:\xb4\x01\xbaH\xb0\x01\x1a\xad\x01\n\x1fobjective.outage_limit_required\x12\x42outage_limit in (0, 1) is required for OBJECTIVE_KIND_MIN_TX_POWER\x1a\x46this.kind != 3 || (this.outage_limit > 0.0 && this.outage_limit < 1.0)\"\xa6\x01\n\nTuneBudget\x12*\n\x10min_replications\x18\x01 \x01(\x05\x42\x10\xbaH\x03\xd8\x01\x01\xbaH\x07\x1a\x05\x18\x90N(\x02\x12$\n\x10max_replications\x18\x02 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x90N(\x00\x12%\n\x12\x62\x61tch_replications\x18\x03 \x01(\x05\x42\t\xbaH\x06\x1a\x04\x18\x64(\x00\x12\x1f\n\x0emax_user_slots\x18\x04 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\"\x84\x01\n\x0eSearchProgress\x12\r\n\x05stage\x18\x01 \x01(\x05\x12\x1c\n\x14\x63\x61ndidates_remaining\x18\x02 \x01(\x05\x12\x19\n\x11replications_done\x18\x03 \x01(\x03\x12\x17\n\x0fuser_slots_done\x18\x04 \x01(\x03\x12\x11\n\telapsed_s\x18\x05 \x01(\x01\"I\n\x13ReplicationEstimate\x12\x0c\n\x04mean\x18\x01 \x01(\x01\x12\x0b\n\x03low\x18\x02 \x01(\x01\x12\x0c\n\x04high\x18\x03 \x01(\x01\x12\t\n\x01n\x18\x04 \x01(\x05\"\xec\x03\n\x0bTuneFigures\x12;\n\x11sir_error_mean_db\x18\x01 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12:\n\x10sir_error_std_db\x18\x02 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12outage_probability\x18\x03 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x37\n\rachieved_bler\x18\x04 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x13\n\x0b\x62ler_target\x18\x05 \x01(\x01\x12;\n\x11tx_power_mean_dbm\x18\x06 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12max_power_fraction\x18\x07 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12<\n\x12noise_rise_mean_db\x18\x08 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x1f\n\x17infeasible_replications\x18\t \x01(\x05\"2\n\x05\x43oord\x12\x0c\n\x04path\x18\x01 \x01(\t\x12\r\n\x05value\x18\x02 \x01(\x01\x12\x0c\n\x04text\x18\x03 \x01(\t\">\n\tGridPoint\x12\r\n\x05index\x18\x01 \x01(\x05\x12\"\n\x06\x63oords\x18\x02 \x03(\x0b\x32\x12.fadeloop.v1.Coord\"\xfc\x01\n\x0f\x43\x61ndidateResult\x12\x11\n\tcandidate\x18\x01 \x01(\x05\x12)\n\x07\x66igures\x18\x02 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\x12\x33\n\tobjective\x18\x03 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x36\n\x0c\x64iff_to_best\x18\x04 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12,\n\x06status\x18\x05 \x01(\x0e\x32\x1c.fadeloop.v1.CandidateStatus\x12\x10\n\x08\x66\x65\x61sible\x18\x06 \x01(\x08\"r\n\x0b\x46igureLabel\x12\x0b\n\x03key\x18\x01 \x01(\t\x12\x0c\n\x04name\x18\x02 \x01(\t\x12\x0c\n\x04unit\x18\x03 \x01(\t\x12\x11\n\tdiff_unit\x18\x04 \x01(\t\x12\x15\n\rdisplay_scale\x18\x05 \x01(\x01\x12\x10\n\x08\x64\x65\x63imals\x18\x06 \x01(\x05\"~\n\x0e\x43onstraintMiss\x12\x11\n\tcondition\x18\x01 \x01(\t\x12\x0e\n\x06\x66igure\x18\x02 \x01(\t\x12\r\n\x05value\x18\x03 \x01(\x01\x12\r\n\x05limit\x18\x04 \x01(\x01\x12\r\n\x05upper\x18\x05 \x01(\x08\x12\x0e\n\x06\x65xcess\x18\x06 \x01(\x01\x12\x0c\n\x04text\x18\x07 \x01(\t\"G\n\x0f\x44\x65\x63isionWarning\x12&\n\x04kind\x18\x01 \x01(\x0e\x32\x18.fadeloop.v1.WarningKind\x12\x0c\n\x04text\x18\x02 \x01(\t\"\xe6\x03\n\x08\x44\x65\x63ision\x12\x0c\n\x04\x62\x65st\x18\x01 \x01(\x05\x12\'\n\x07setting\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.GridPoint\x12\x10\n\x08\x64\x65\x63lared\x18\x03 \x01(\x08\x12\x0f\n\x07tie_set\x18\x04 \x03(\x05\x12\x0e\n\x06leader\x18\x05 \x01(\x05\x12\x11\n\trunner_up\x18\x06 \x01(\x05\x12\x32\n\x08\x65vidence\x18\x07 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x19\n\x11\x63onstraints_unmet\x18\x08 \x01(\x08\x12\x0e\n\x06reason\x18\t \x01(\t\x12%\n\x07verdict\x18\n \x01(\x0e\x32\x14.fadeloop.v1.Verdict\x12\x10\n\x08ordering\x18\x0b \x03(\x05\x12+\n\tranked_by\x18\x0c \x01(\x0b\x32\x18.fadeloop.v1.FigureLabel\x12\x11\n\ttie_break\x18\r \x01(\t\x12+\n\x06misses\x18\x0e \x03(\x0b\x32\x1b.fadeloop.v1.ConstraintMiss\x12.\n\x08warnings\x18\x0f \x03(\x0b\x32\x1c.fadeloop.v1.DecisionWarning\x12\x10\n\x08headline\x18\x10 \x01(\t\x12\x16\n\x0erunner_up_line\x18\x11 \x01(\t\"\xb1\x02\n\x08\x42\x61seline\x12)\n\x07\x66igures\x18\x01 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\x12.\n\x04gain\x18\x02 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x14\n\x0c\x62\x61rely_helps\x18\x03 \x01(\x08\x12(\n\x06\x66igure\x18\x04 \x01(\x0b\x32\x18.fadeloop.v1.FigureLabel\x12/\n\x05\x66ixed\x18\x05 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x35\n\x0brecommended\x18\x06 \x01(\x0b\x32 .fadeloop.v1.ReplicationEstimate\x12\x0c\n\x04text\x18\x07 \x01(\t\x12\x14\n\x0c\x66ixed_misses\x18\x08 \x01(\x08\"\x81\x02\n\x0f\x43onditionResult\x12\x0c\n\x04name\x18\x01 \x01(\t\x12\x0e\n\x06weight\x18\x02 \x01(\x01\x12\'\n\x08\x64\x65\x63ision\x18\x03 \x01(\x0b\x32\x15.fadeloop.v1.Decision\x12\x30\n\ncandidates\x18\x04 \x03(\x0b\x32\x1c.fadeloop.v1.CandidateResult\x12\'\n\x08\x62\x61seline\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Baseline\x12\x1b\n\x13\x64oppler_product_max\x18\x06 \x01(\x01\x12\x1b\n\x13\x64oppler_product_min\x18\x07 \x01(\x01\x12\x12\n\nspeeds_kmh\x18\x08 \x03(\x01\"\xda\x01\n\nTuneEffort\x12\x14\n\x0creplications\x18\x01 \x01(\x03\x12\x1d\n\x15\x62\x61seline_replications\x18\x02 \x01(\x03\x12\x12\n\nuser_slots\x18\x03 \x01(\x03\x12\x0e\n\x06stages\x18\x04 \x01(\x05\x12\x1d\n\x15max_replications_used\x18\x05 \x01(\x05\x12%\n\x1d\x65qual_allocation_replications\x18\x06 \x01(\x03\x12\x18\n\x10\x62udget_exhausted\x18\x07 \x01(\x08\x12\x13\n\x0bwall_time_s\x18\x08 \x01(\x01\"\x93\x03\n\x0eRecommendation\x12)\n\tobjective\x18\x01 \x01(\x0b\x32\x16.fadeloop.v1.Objective\x12\x12\n\nconfidence\x18\x02 \x01(\x01\x12*\n\ncandidates\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.GridPoint\x12\x30\n\nconditions\x18\x04 \x03(\x0b\x32\x1c.fadeloop.v1.ConditionResult\x12&\n\x07overall\x18\x05 \x01(\x0b\x32\x15.fadeloop.v1.Decision\x12\x38\n\x12overall_candidates\x18\x06 \x03(\x0b\x32\x1c.fadeloop.v1.CandidateResult\x12\'\n\x06\x65\x66\x66ort\x18\x07 \x01(\x0b\x32\x17.fadeloop.v1.TuneEffort\x12\x0c\n\x04seed\x18\x08 \x01(\x04\x12\x10\n\x08tie_rule\x18\t \x01(\t\x12)\n\x07\x66igures\x18\n \x03(\x0b\x32\x18.fadeloop.v1.FigureLabel\x12\x0e\n\x06notice\x18\x0b \x01(\t\"\x7f\n\x0cTuneResponse\x12/\n\x08progress\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.SearchProgressH\x00\x12\x35\n\x0erecommendation\x18\x02 \x01(\x0b\x32\x1b.fadeloop.v1.RecommendationH\x00\x42\x07\n\x05\x65vent\"\x9c\x03\n\x0f\x43\x61pacityRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12\x18\n\x05group\x18\x02 \x01(\x05\x42\t\xbaH\x06\x1a\x04\x18?(\x00\x12-\n\x0coutage_limit\x18\x03 \x01(\x01\x42\x17\xbaH\x14\x12\x12\x11\x00\x00\x00\x00\x00\x00\xf0?!\x00\x00\x00\x00\x00\x00\x00\x00\x12\x1d\n\tmin_count\x18\x04 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x00\x12\x1d\n\tmax_count\x18\x05 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80 (\x00\x12 \n\x0creplications\x18\x06 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\xe8\x07(\x00\x12\x31\n\nconfidence\x18\x07 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?\x12\x1f\n\x0emax_user_slots\x18\x08 \x01(\x03\x42\x07\xbaH\x04\"\x02(\x00\x12)\n\x14progress_interval_ms\x18\t \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\x12\x34\n\x13noise_rise_limit_db\x18\n \x01(\x01\x42\x17\xbaH\x14\x12\x12\x19\x00\x00\x00\x00\x00\x00\x44@)\x00\x00\x00\x00\x00\x00\x00\x00\"\x8e\x01\n\nPoleParams\x12\x14\n\x0c\x63hip_rate_hz\x18\x01 \x01(\x01\x12\x14\n\x0c\x62it_rate_bps\x18\x02 \x01(\x01\x12\x10\n\x08\x65\x62_i0_db\x18\x03 \x01(\x01\x12\x17\n\x0f\x61\x63tivity_factor\x18\x04 \x01(\x01\x12\x18\n\x10other_cell_ratio\x18\x05 \x01(\x01\x12\x0f\n\x07sectors\x18\x06 \x01(\x01\"\xad\x01\n\rCapacityPoint\x12\r\n\x05\x63ount\x18\x01 \x01(\x05\x12\x13\n\x0btotal_users\x18\x02 \x01(\x05\x12\x0c\n\x04pass\x18\x03 \x01(\x08\x12)\n\x07\x66igures\x18\x04 \x01(\x0b\x32\x18.fadeloop.v1.TuneFigures\x12\x11\n\toutage_ok\x18\x05 \x01(\x08\x12\x15\n\rnoise_rise_ok\x18\x06 \x01(\x08\x12\x15\n\rload_feasible\x18\x07 \x01(\x08\"\xf1\x03\n\x0e\x43\x61pacityResult\x12\r\n\x05\x63ount\x18\x01 \x01(\x05\x12\x13\n\x0btotal_users\x18\x02 \x01(\x05\x12\x13\n\x0b\x62\x65low_range\x18\x03 \x01(\x08\x12\x14\n\x0c\x61t_range_top\x18\x04 \x01(\x08\x12-\n\tevaluated\x18\x05 \x03(\x0b\x32\x1a.fadeloop.v1.CapacityPoint\x12\x0c\n\x04pole\x18\x06 \x01(\x01\x12,\n\x0bpole_params\x18\x07 \x01(\x0b\x32\x17.fadeloop.v1.PoleParams\x12\x12\n\npole_error\x18\x08 \x01(\t\x12\x12\n\nmodel_pole\x18\t \x01(\x01\x12\x14\n\x0cnon_monotone\x18\n \x01(\x08\x12\x18\n\x10\x62udget_exhausted\x18\x0b \x01(\x08\x12\x15\n\rfailing_count\x18\x0c \x01(\x05\x12\x14\n\x0creplications\x18\r \x01(\x03\x12\x12\n\nuser_slots\x18\x0e \x01(\x03\x12\x0e\n\x06reason\x18\x0f \x01(\t\x12\x13\n\x0bwall_time_s\x18\x10 \x01(\x01\x12\x14\n\x0coutage_limit\x18\x11 \x01(\x01\x12\x1b\n\x13noise_rise_limit_db\x18\x12 \x01(\x01\x12\x12\n\nlimited_by\x18\x13 \x03(\t\x12\x10\n\x08headline\x18\x14 \x01(\t\x12\x0e\n\x06notice\x18\x15 \x01(\t\"{\n\x10\x43\x61pacityResponse\x12/\n\x08progress\x18\x01 \x01(\x0b\x32\x1b.fadeloop.v1.SearchProgressH\x00\x12-\n\x06result\x18\x02 \x01(\x0b\x32\x1b.fadeloop.v1.CapacityResultH\x00\x42\x07\n\x05\x65vent*\x95\x01\n\rObjectiveKind\x12\x1e\n\x1aOBJECTIVE_KIND_UNSPECIFIED\x10\x00\x12$\n OBJECTIVE_KIND_MIN_SIR_ERROR_STD\x10\x01\x12\x1d\n\x19OBJECTIVE_KIND_MIN_OUTAGE\x10\x02\x12\x1f\n\x1bOBJECTIVE_KIND_MIN_TX_POWER\x10\x03*\x93\x01\n\x0f\x43\x61ndidateStatus\x12 \n\x1c\x43\x41NDIDATE_STATUS_UNSPECIFIED\x10\x00\x12\x1f\n\x1b\x43\x41NDIDATE_STATUS_CONTENDING\x10\x01\x12\x1c\n\x18\x43\x41NDIDATE_STATUS_DROPPED\x10\x02\x12\x1f\n\x1b\x43\x41NDIDATE_STATUS_EQUIVALENT\x10\x03*z\n\x07Verdict\x12\x17\n\x13VERDICT_UNSPECIFIED\x10\x00\x12\x12\n\x0eVERDICT_WINNER\x10\x01\x12\x0f\n\x0bVERDICT_TIE\x10\x02\x12\x1d\n\x19VERDICT_CONSTRAINTS_UNMET\x10\x03\x12\x12\n\x0eVERDICT_SINGLE\x10\x04*\x8e\x01\n\x0bWarningKind\x12\x1c\n\x18WARNING_KIND_UNSPECIFIED\x10\x00\x12\x1c\n\x18WARNING_KIND_HIGH_OUTAGE\x10\x01\x12 \n\x1cWARNING_KIND_INFEASIBLE_LOAD\x10\x02\x12!\n\x1dWARNING_KIND_BUDGET_EXHAUSTED\x10\x03\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[buf_dot_validate_dot_validate__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_scenario__pb2.DESCRIPTOR,])
 
@@ -51,8 +51,8 @@ _OBJECTIVEKIND = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4369,
-  serialized_end=4518,
+  serialized_start=5575,
+  serialized_end=5724,
 )
 _sym_db.RegisterEnumDescriptor(_OBJECTIVEKIND)
 
@@ -82,12 +82,78 @@ _CANDIDATESTATUS = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=4521,
-  serialized_end=4668,
+  serialized_start=5727,
+  serialized_end=5874,
 )
 _sym_db.RegisterEnumDescriptor(_CANDIDATESTATUS)
 
 CandidateStatus = enum_type_wrapper.EnumTypeWrapper(_CANDIDATESTATUS)
+_VERDICT = _descriptor.EnumDescriptor(
+  name='Verdict',
+  full_name='fadeloop.v1.Verdict',
+  filename=None,
+  file=DESCRIPTOR,
+  values=[
+    _descriptor.EnumValueDescriptor(
+      name='VERDICT_UNSPECIFIED', index=0, number=0,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='VERDICT_WINNER', index=1, number=1,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='VERDICT_TIE', index=2, number=2,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='VERDICT_CONSTRAINTS_UNMET', index=3, number=3,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='VERDICT_SINGLE', index=4, number=4,
+      options=None,
+      type=None),
+  ],
+  containing_type=None,
+  options=None,
+  serialized_start=5876,
+  serialized_end=5998,
+)
+_sym_db.RegisterEnumDescriptor(_VERDICT)
+
+Verdict = enum_type_wrapper.EnumTypeWrapper(_VERDICT)
+_WARNINGKIND = _descriptor.EnumDescriptor(
+  name='WarningKind',
+  full_name='fadeloop.v1.WarningKind',
+  filename=None,
+  file=DESCRIPTOR,
+  values=[
+    _descriptor.EnumValueDescriptor(
+      name='WARNING_KIND_UNSPECIFIED', index=0, number=0,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='WARNING_KIND_HIGH_OUTAGE', index=1, number=1,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='WARNING_KIND_INFEASIBLE_LOAD', index=2, number=2,
+      options=None,
+      type=None),
+    _descriptor.EnumValueDescriptor(
+      name='WARNING_KIND_BUDGET_EXHAUSTED', index=3, number=3,
+      options=None,
+      type=None),
+  ],
+  containing_type=None,
+  options=None,
+  serialized_start=6001,
+  serialized_end=6143,
+)
+_sym_db.RegisterEnumDescriptor(_WARNINGKIND)
+
+WarningKind = enum_type_wrapper.EnumTypeWrapper(_WARNINGKIND)
 OBJECTIVE_KIND_UNSPECIFIED = 0
 OBJECTIVE_KIND_MIN_SIR_ERROR_STD = 1
 OBJECTIVE_KIND_MIN_OUTAGE = 2
@@ -96,6 +162,15 @@ CANDIDATE_STATUS_UNSPECIFIED = 0
 CANDIDATE_STATUS_CONTENDING = 1
 CANDIDATE_STATUS_DROPPED = 2
 CANDIDATE_STATUS_EQUIVALENT = 3
+VERDICT_UNSPECIFIED = 0
+VERDICT_WINNER = 1
+VERDICT_TIE = 2
+VERDICT_CONSTRAINTS_UNMET = 3
+VERDICT_SINGLE = 4
+WARNING_KIND_UNSPECIFIED = 0
+WARNING_KIND_HIGH_OUTAGE = 1
+WARNING_KIND_INFEASIBLE_LOAD = 2
+WARNING_KIND_BUDGET_EXHAUSTED = 3
 
 
 
@@ -227,6 +302,20 @@ _OBJECTIVE = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000@\217@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_limit_db', full_name='fadeloop.v1.Objective.noise_rise_limit_db', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000D@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_warning', full_name='fadeloop.v1.Objective.outage_warning', index=5,
+      number=6, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000\360?)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -240,7 +329,7 @@ _OBJECTIVE = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=337,
-  serialized_end=733,
+  serialized_end=836,
 )
 
 
@@ -291,8 +380,8 @@ _TUNEBUDGET = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=736,
-  serialized_end=902,
+  serialized_start=839,
+  serialized_end=1005,
 )
 
 
@@ -350,8 +439,8 @@ _SEARCHPROGRESS = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=905,
-  serialized_end=1037,
+  serialized_start=1008,
+  serialized_end=1140,
 )
 
 
@@ -402,8 +491,8 @@ _REPLICATIONESTIMATE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1039,
-  serialized_end=1112,
+  serialized_start=1142,
+  serialized_end=1215,
 )
 
 
@@ -489,8 +578,8 @@ _TUNEFIGURES = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1115,
-  serialized_end=1607,
+  serialized_start=1218,
+  serialized_end=1710,
 )
 
 
@@ -515,6 +604,13 @@ _COORD = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='text', full_name='fadeloop.v1.Coord.text', index=2,
+      number=3, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -527,8 +623,8 @@ _COORD = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1609,
-  serialized_end=1645,
+  serialized_start=1712,
+  serialized_end=1762,
 )
 
 
@@ -565,8 +661,8 @@ _GRIDPOINT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1647,
-  serialized_end=1709,
+  serialized_start=1764,
+  serialized_end=1826,
 )
 
 
@@ -631,8 +727,185 @@ _CANDIDATERESULT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1712,
-  serialized_end=1964,
+  serialized_start=1829,
+  serialized_end=2081,
+)
+
+
+_FIGURELABEL = _descriptor.Descriptor(
+  name='FigureLabel',
+  full_name='fadeloop.v1.FigureLabel',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='key', full_name='fadeloop.v1.FigureLabel.key', index=0,
+      number=1, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='name', full_name='fadeloop.v1.FigureLabel.name', index=1,
+      number=2, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='unit', full_name='fadeloop.v1.FigureLabel.unit', index=2,
+      number=3, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='diff_unit', full_name='fadeloop.v1.FigureLabel.diff_unit', index=3,
+      number=4, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='display_scale', full_name='fadeloop.v1.FigureLabel.display_scale', index=4,
+      number=5, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='decimals', full_name='fadeloop.v1.FigureLabel.decimals', index=5,
+      number=6, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2083,
+  serialized_end=2197,
+)
+
+
+_CONSTRAINTMISS = _descriptor.Descriptor(
+  name='ConstraintMiss',
+  full_name='fadeloop.v1.ConstraintMiss',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='condition', full_name='fadeloop.v1.ConstraintMiss.condition', index=0,
+      number=1, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='figure', full_name='fadeloop.v1.ConstraintMiss.figure', index=1,
+      number=2, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='value', full_name='fadeloop.v1.ConstraintMiss.value', index=2,
+      number=3, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='limit', full_name='fadeloop.v1.ConstraintMiss.limit', index=3,
+      number=4, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='upper', full_name='fadeloop.v1.ConstraintMiss.upper', index=4,
+      number=5, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='excess', full_name='fadeloop.v1.ConstraintMiss.excess', index=5,
+      number=6, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='text', full_name='fadeloop.v1.ConstraintMiss.text', index=6,
+      number=7, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2199,
+  serialized_end=2325,
+)
+
+
+_DECISIONWARNING = _descriptor.Descriptor(
+  name='DecisionWarning',
+  full_name='fadeloop.v1.DecisionWarning',
+  filename=None,
+  file=DESCRIPTOR,
+  containing_type=None,
+  fields=[
+    _descriptor.FieldDescriptor(
+      name='kind', full_name='fadeloop.v1.DecisionWarning.kind', index=0,
+      number=1, type=14, cpp_type=8, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='text', full_name='fadeloop.v1.DecisionWarning.text', index=1,
+      number=2, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+  ],
+  extensions=[
+  ],
+  nested_types=[],
+  enum_types=[
+  ],
+  options=None,
+  is_extendable=False,
+  syntax='proto3',
+  extension_ranges=[],
+  oneofs=[
+  ],
+  serialized_start=2327,
+  serialized_end=2398,
 )
 
 
@@ -706,6 +979,62 @@ _DECISION = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='verdict', full_name='fadeloop.v1.Decision.verdict', index=9,
+      number=10, type=14, cpp_type=8, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='ordering', full_name='fadeloop.v1.Decision.ordering', index=10,
+      number=11, type=5, cpp_type=1, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='ranked_by', full_name='fadeloop.v1.Decision.ranked_by', index=11,
+      number=12, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='tie_break', full_name='fadeloop.v1.Decision.tie_break', index=12,
+      number=13, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='misses', full_name='fadeloop.v1.Decision.misses', index=13,
+      number=14, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='warnings', full_name='fadeloop.v1.Decision.warnings', index=14,
+      number=15, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='headline', full_name='fadeloop.v1.Decision.headline', index=15,
+      number=16, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='runner_up_line', full_name='fadeloop.v1.Decision.runner_up_line', index=16,
+      number=17, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -718,8 +1047,8 @@ _DECISION = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1967,
-  serialized_end=2197,
+  serialized_start=2401,
+  serialized_end=2887,
 )
 
 
@@ -751,6 +1080,41 @@ _BASELINE = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='figure', full_name='fadeloop.v1.Baseline.figure', index=3,
+      number=4, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='fixed', full_name='fadeloop.v1.Baseline.fixed', index=4,
+      number=5, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='recommended', full_name='fadeloop.v1.Baseline.recommended', index=5,
+      number=6, type=11, cpp_type=10, label=1,
+      has_default_value=False, default_value=None,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='text', full_name='fadeloop.v1.Baseline.text', index=6,
+      number=7, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='fixed_misses', full_name='fadeloop.v1.Baseline.fixed_misses', index=7,
+      number=8, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -763,8 +1127,8 @@ _BASELINE = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2199,
-  serialized_end=2322,
+  serialized_start=2890,
+  serialized_end=3195,
 )
 
 
@@ -817,6 +1181,20 @@ _CONDITIONRESULT = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='doppler_product_min', full_name='fadeloop.v1.ConditionResult.doppler_product_min', index=6,
+      number=7, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='speeds_kmh', full_name='fadeloop.v1.ConditionResult.speeds_kmh', index=7,
+      number=8, type=1, cpp_type=5, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -829,8 +1207,8 @@ _CONDITIONRESULT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2325,
-  serialized_end=2533,
+  serialized_start=3198,
+  serialized_end=3455,
 )
 
 
@@ -909,8 +1287,8 @@ _TUNEEFFORT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2536,
-  serialized_end=2754,
+  serialized_start=3458,
+  serialized_end=3676,
 )
 
 
@@ -984,6 +1362,20 @@ _RECOMMENDATION = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='figures', full_name='fadeloop.v1.Recommendation.figures', index=9,
+      number=10, type=11, cpp_type=10, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='notice', full_name='fadeloop.v1.Recommendation.notice', index=10,
+      number=11, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -996,8 +1388,8 @@ _RECOMMENDATION = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=2757,
-  serialized_end=3101,
+  serialized_start=3679,
+  serialized_end=4082,
 )
 
 
@@ -1037,8 +1429,8 @@ _TUNERESPONSE = _descriptor.Descriptor(
       name='event', full_name='fadeloop.v1.TuneResponse.event',
       index=0, containing_type=None, fields=[]),
   ],
-  serialized_start=3103,
-  serialized_end=3230,
+  serialized_start=4084,
+  serialized_end=4211,
 )
 
 
@@ -1112,6 +1504,13 @@ _CAPACITYREQUEST = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\340\324\003(\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_limit_db', full_name='fadeloop.v1.CapacityRequest.noise_rise_limit_db', index=9,
+      number=10, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000D@)\000\000\000\000\000\000\000\000')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -1124,8 +1523,8 @@ _CAPACITYREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3233,
-  serialized_end=3591,
+  serialized_start=4214,
+  serialized_end=4626,
 )
 
 
@@ -1190,8 +1589,8 @@ _POLEPARAMS = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3594,
-  serialized_end=3736,
+  serialized_start=4629,
+  serialized_end=4771,
 )
 
 
@@ -1230,6 +1629,27 @@ _CAPACITYPOINT = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_ok', full_name='fadeloop.v1.CapacityPoint.outage_ok', index=4,
+      number=5, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_ok', full_name='fadeloop.v1.CapacityPoint.noise_rise_ok', index=5,
+      number=6, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='load_feasible', full_name='fadeloop.v1.CapacityPoint.load_feasible', index=6,
+      number=7, type=8, cpp_type=7, label=1,
+      has_default_value=False, default_value=False,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -1242,8 +1662,8 @@ _CAPACITYPOINT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3738,
-  serialized_end=3846,
+  serialized_start=4774,
+  serialized_end=4947,
 )
 
 
@@ -1366,6 +1786,41 @@ _CAPACITYRESULT = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='outage_limit', full_name='fadeloop.v1.CapacityResult.outage_limit', index=16,
+      number=17, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='noise_rise_limit_db', full_name='fadeloop.v1.CapacityResult.noise_rise_limit_db', index=17,
+      number=18, type=1, cpp_type=5, label=1,
+      has_default_value=False, default_value=float(0),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='limited_by', full_name='fadeloop.v1.CapacityResult.limited_by', index=18,
+      number=19, type=9, cpp_type=9, label=3,
+      has_default_value=False, default_value=[],
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='headline', full_name='fadeloop.v1.CapacityResult.headline', index=19,
+      number=20, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='notice', full_name='fadeloop.v1.CapacityResult.notice', index=20,
+      number=21, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -1378,8 +1833,8 @@ _CAPACITYRESULT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=3849,
-  serialized_end=4241,
+  serialized_start=4950,
+  serialized_end=5447,
 )
 
 
@@ -1419,8 +1874,8 @@ _CAPACITYRESPONSE = _descriptor.Descriptor(
       name='event', full_name='fadeloop.v1.CapacityResponse.event',
       index=0, containing_type=None, fields=[]),
   ],
-  serialized_start=4243,
-  serialized_end=4366,
+  serialized_start=5449,
+  serialized_end=5572,
 )
 
 _OVERRIDE.oneofs_by_name['value'].fields.append(
@@ -1443,10 +1898,18 @@ _CANDIDATERESULT.fields_by_name['figures'].message_type = _TUNEFIGURES
 _CANDIDATERESULT.fields_by_name['objective'].message_type = _REPLICATIONESTIMATE
 _CANDIDATERESULT.fields_by_name['diff_to_best'].message_type = _REPLICATIONESTIMATE
 _CANDIDATERESULT.fields_by_name['status'].enum_type = _CANDIDATESTATUS
+_DECISIONWARNING.fields_by_name['kind'].enum_type = _WARNINGKIND
 _DECISION.fields_by_name['setting'].message_type = _GRIDPOINT
 _DECISION.fields_by_name['evidence'].message_type = _REPLICATIONESTIMATE
+_DECISION.fields_by_name['verdict'].enum_type = _VERDICT
+_DECISION.fields_by_name['ranked_by'].message_type = _FIGURELABEL
+_DECISION.fields_by_name['misses'].message_type = _CONSTRAINTMISS
+_DECISION.fields_by_name['warnings'].message_type = _DECISIONWARNING
 _BASELINE.fields_by_name['figures'].message_type = _TUNEFIGURES
 _BASELINE.fields_by_name['gain'].message_type = _REPLICATIONESTIMATE
+_BASELINE.fields_by_name['figure'].message_type = _FIGURELABEL
+_BASELINE.fields_by_name['fixed'].message_type = _REPLICATIONESTIMATE
+_BASELINE.fields_by_name['recommended'].message_type = _REPLICATIONESTIMATE
 _CONDITIONRESULT.fields_by_name['decision'].message_type = _DECISION
 _CONDITIONRESULT.fields_by_name['candidates'].message_type = _CANDIDATERESULT
 _CONDITIONRESULT.fields_by_name['baseline'].message_type = _BASELINE
@@ -1456,6 +1919,7 @@ _RECOMMENDATION.fields_by_name['conditions'].message_type = _CONDITIONRESULT
 _RECOMMENDATION.fields_by_name['overall'].message_type = _DECISION
 _RECOMMENDATION.fields_by_name['overall_candidates'].message_type = _CANDIDATERESULT
 _RECOMMENDATION.fields_by_name['effort'].message_type = _TUNEEFFORT
+_RECOMMENDATION.fields_by_name['figures'].message_type = _FIGURELABEL
 _TUNERESPONSE.fields_by_name['progress'].message_type = _SEARCHPROGRESS
 _TUNERESPONSE.fields_by_name['recommendation'].message_type = _RECOMMENDATION
 _TUNERESPONSE.oneofs_by_name['event'].fields.append(
@@ -1486,6 +1950,9 @@ DESCRIPTOR.message_types_by_name['TuneFigures'] = _TUNEFIGURES
 DESCRIPTOR.message_types_by_name['Coord'] = _COORD
 DESCRIPTOR.message_types_by_name['GridPoint'] = _GRIDPOINT
 DESCRIPTOR.message_types_by_name['CandidateResult'] = _CANDIDATERESULT
+DESCRIPTOR.message_types_by_name['FigureLabel'] = _FIGURELABEL
+DESCRIPTOR.message_types_by_name['ConstraintMiss'] = _CONSTRAINTMISS
+DESCRIPTOR.message_types_by_name['DecisionWarning'] = _DECISIONWARNING
 DESCRIPTOR.message_types_by_name['Decision'] = _DECISION
 DESCRIPTOR.message_types_by_name['Baseline'] = _BASELINE
 DESCRIPTOR.message_types_by_name['ConditionResult'] = _CONDITIONRESULT
@@ -1499,6 +1966,8 @@ DESCRIPTOR.message_types_by_name['CapacityResult'] = _CAPACITYRESULT
 DESCRIPTOR.message_types_by_name['CapacityResponse'] = _CAPACITYRESPONSE
 DESCRIPTOR.enum_types_by_name['ObjectiveKind'] = _OBJECTIVEKIND
 DESCRIPTOR.enum_types_by_name['CandidateStatus'] = _CANDIDATESTATUS
+DESCRIPTOR.enum_types_by_name['Verdict'] = _VERDICT
+DESCRIPTOR.enum_types_by_name['WarningKind'] = _WARNINGKIND
 _sym_db.RegisterFileDescriptor(DESCRIPTOR)
 
 Override = _reflection.GeneratedProtocolMessageType('Override', (_message.Message,), dict(
@@ -1570,6 +2039,27 @@ CandidateResult = _reflection.GeneratedProtocolMessageType('CandidateResult', (_
   # @@protoc_insertion_point(class_scope:fadeloop.v1.CandidateResult)
   ))
 _sym_db.RegisterMessage(CandidateResult)
+
+FigureLabel = _reflection.GeneratedProtocolMessageType('FigureLabel', (_message.Message,), dict(
+  DESCRIPTOR = _FIGURELABEL,
+  __module__ = 'fadeloop.v1.tune_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.FigureLabel)
+  ))
+_sym_db.RegisterMessage(FigureLabel)
+
+ConstraintMiss = _reflection.GeneratedProtocolMessageType('ConstraintMiss', (_message.Message,), dict(
+  DESCRIPTOR = _CONSTRAINTMISS,
+  __module__ = 'fadeloop.v1.tune_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.ConstraintMiss)
+  ))
+_sym_db.RegisterMessage(ConstraintMiss)
+
+DecisionWarning = _reflection.GeneratedProtocolMessageType('DecisionWarning', (_message.Message,), dict(
+  DESCRIPTOR = _DECISIONWARNING,
+  __module__ = 'fadeloop.v1.tune_pb2'
+  # @@protoc_insertion_point(class_scope:fadeloop.v1.DecisionWarning)
+  ))
+_sym_db.RegisterMessage(DecisionWarning)
 
 Decision = _reflection.GeneratedProtocolMessageType('Decision', (_message.Message,), dict(
   DESCRIPTOR = _DECISION,
@@ -1673,6 +2163,10 @@ _OBJECTIVE.fields_by_name['bler_tolerance'].has_options = True
 _OBJECTIVE.fields_by_name['bler_tolerance']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000$@)\000\000\000\000\000\000\000\000'))
 _OBJECTIVE.fields_by_name['indifference_zone'].has_options = True
 _OBJECTIVE.fields_by_name['indifference_zone']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000@\217@)\000\000\000\000\000\000\000\000'))
+_OBJECTIVE.fields_by_name['noise_rise_limit_db'].has_options = True
+_OBJECTIVE.fields_by_name['noise_rise_limit_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000D@)\000\000\000\000\000\000\000\000'))
+_OBJECTIVE.fields_by_name['outage_warning'].has_options = True
+_OBJECTIVE.fields_by_name['outage_warning']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000\360?)\000\000\000\000\000\000\000\000'))
 _OBJECTIVE.has_options = True
 _OBJECTIVE._options = _descriptor._ParseOptions(descriptor_pb2.MessageOptions(), _b('\272H\260\001\032\255\001\n\037objective.outage_limit_required\022Boutage_limit in (0, 1) is required for OBJECTIVE_KIND_MIN_TX_POWER\032Fthis.kind != 3 || (this.outage_limit > 0.0 && this.outage_limit < 1.0)'))
 _TUNEBUDGET.fields_by_name['min_replications'].has_options = True
@@ -1701,4 +2195,6 @@ _CAPACITYREQUEST.fields_by_name['max_user_slots'].has_options = True
 _CAPACITYREQUEST.fields_by_name['max_user_slots']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\004\"\002(\000'))
 _CAPACITYREQUEST.fields_by_name['progress_interval_ms'].has_options = True
 _CAPACITYREQUEST.fields_by_name['progress_interval_ms']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\340\324\003(\000'))
+_CAPACITYREQUEST.fields_by_name['noise_rise_limit_db'].has_options = True
+_CAPACITYREQUEST.fields_by_name['noise_rise_limit_db']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\024\022\022\031\000\000\000\000\000\000D@)\000\000\000\000\000\000\000\000'))
 # @@protoc_insertion_point(module_scope)
