@@ -135,11 +135,13 @@ func enumString(names []string, v int) string {
 	return strconv.Itoa(v)
 }
 
-// enumParse accepts the proto value name or its decimal number.
+// enumParse accepts the proto value name (e.g. COMMAND_ADAPTIVE), the name
+// without its type prefix (ADAPTIVE, any case) or its decimal number.
 func enumParse(names []string, kind string, text []byte) (int, error) {
 	s := string(text)
+	prefix := strings.TrimSuffix(names[0], "UNSPECIFIED")
 	for i, n := range names {
-		if n == s {
+		if n == s || (i > 0 && n == prefix+strings.ToUpper(s)) {
 			return i, nil
 		}
 	}
