@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"strconv"
+	"strings"
 
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -31,17 +32,16 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	fmt.Fprintf(w, "%s user-slots simulated in %.2f s (%s)\n",
 		GroupDigits(rep.GetSimulatedUserSlots()), rep.GetWallTimeS(), FmtRate(rep.GetUserSlotsPerS(), "user-slots/s"))
 	if f := rep.GetFeasibility(); f.GetInfeasible() {
-		fmt.Fprintf(w, "\nINFEASIBLE LOAD: %s", f.GetReason())
-		if f.GetSpectralRadius() > 0 {
-			fmt.Fprintf(w, " (spectral radius %.3f)", f.GetSpectralRadius())
+		fmt.Fprintf(w, "\n%s\n", FeasibilityLine(f, agg.GetUsers()))
+		if rep.GetSimulatedUserSlots() == 0 {
+			// Judged infeasible before the run: nothing was simulated, so
+			// there are no figures to show (a table would be all zeros).
+			fmt.Fprintln(w, "No slots were simulated, so there are no figures: lower the load or the SIR target, or raise the power limit, and run again.")
+			return
 		}
-		if len(f.GetUsers()) > 0 {
-			fmt.Fprintf(w, "; users %v cannot reach the target", f.GetUsers())
-		}
-		fmt.Fprintln(w)
 	}
 	fmt.Fprintln(w)
-	t := NewTable("figure", "value", "95 % CI").AlignRight(1)
+	t := NewTable("figure", "value", "95 % interval").AlignRight(1)
 	for _, f := range figures {
 		e := f.Get(agg)
 		if e == nil {
@@ -56,7 +56,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
 		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per distance bin (value ±95 % CI half-width):")
+		fmt.Fprintln(w, "per distance bin (value [95 % interval]):")
 		h := []string{"distance (m)", "users"}
 		for _, k := range cols {
 			h = append(h, shortLabel(k))
@@ -74,7 +74,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	}
 	if perUser {
 		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per user (value ±95 % CI half-width):")
+		fmt.Fprintln(w, "per user (value [95 % interval]):")
 		h := []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}
 		for _, k := range cols {
 			h = append(h, shortLabel(k))
@@ -121,4 +121,43 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// FeasibilityLine is the feasibility verdict in one line: the server's
+// reason, the load factor and spectral radius (infeasible at or above 1)
+// and how many of the users cannot reach the SIR target within their
+// power limits.
+func FeasibilityLine(f *pb.Feasibility, users int32) string {
+	s := "INFEASIBLE LOAD: " + strings.TrimSuffix(f.GetReason(), ".")
+	var nums []string
+	if lf := f.GetLoadFactor(); lf > 0 {
+		nums = append(nums, fmt.Sprintf("load factor %.3f", lf))
+	}
+	if sr := f.GetSpectralRadius(); sr > 0 {
+		nums = append(nums, fmt.Sprintf("spectral radius %.3f", sr))
+	}
+	if len(nums) > 0 {
+		s += " (" + strings.Join(nums, ", ") + "; the bound is 1)"
+	}
+	if u := f.GetUsers(); len(u) > 0 {
+		of := ""
+		if users > 0 {
+			of = fmt.Sprintf(" of %d", users)
+		}
+		s += fmt.Sprintf("; %d%s users cannot reach the SIR target: %s", len(u), of, userList(u, 12))
+	}
+	return s + "."
+}
+
+// userList is "3, 7, 12, … (40 more)" with at most n indices.
+func userList(u []int32, n int) string {
+	var parts []string
+	for i, x := range u {
+		if i == n {
+			parts = append(parts, fmt.Sprintf("… (%d more)", len(u)-n))
+			break
+		}
+		parts = append(parts, strconv.Itoa(int(x)))
+	}
+	return strings.Join(parts, ", ")
 }

@@ -217,14 +217,24 @@ func runTune(e *env, fs *flag.FlagSet) action {
 }
 
 // tuneConstraints is constraintsUnmet (exit 4) when the overall verdict or
-// a condition's found no candidate meeting the objective's constraints.
+// a condition's is VERDICT_CONSTRAINTS_UNMET: no candidate meets the
+// objective's constraints. The message is the decision's own headline.
 func tuneConstraints(rec *pb.Recommendation) error {
-	if d := rec.GetOverall(); d.GetConstraintsUnmet() {
-		return constraintsUnmet{reason: d.GetReason()}
+	unmet := func(d *pb.Decision) bool {
+		return d.GetVerdict() == pb.Verdict_VERDICT_CONSTRAINTS_UNMET || d.GetConstraintsUnmet()
+	}
+	text := func(d *pb.Decision) string {
+		if h := d.GetHeadline(); h != "" {
+			return h
+		}
+		return d.GetReason()
+	}
+	if d := rec.GetOverall(); unmet(d) {
+		return constraintsUnmet{reason: text(d)}
 	}
 	for _, c := range rec.GetConditions() {
-		if d := c.GetDecision(); d.GetConstraintsUnmet() {
-			return constraintsUnmet{reason: "condition " + c.GetName() + ": " + d.GetReason()}
+		if d := c.GetDecision(); unmet(d) {
+			return constraintsUnmet{reason: "condition " + c.GetName() + ": " + text(d)}
 		}
 	}
 	return nil
