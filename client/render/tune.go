@@ -167,9 +167,9 @@ func DecisionLines(d *pb.Decision, tieRule string) []string {
 		for _, m := range d.GetMisses() {
 			t := m.GetText()
 			if m.GetCondition() != "" {
-				t = m.GetCondition() + ": " + t
+				t = "in " + m.GetCondition() + ": " + t
 			}
-			ls = append(ls, "  misses "+t)
+			ls = append(ls, "Closest setting misses, "+t)
 		}
 	}
 	if d.GetRunnerUpLine() != "" {
@@ -227,7 +227,13 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		}
 		return " (" + shortUnit(u) + ")"
 	}
-	t := NewTable("condition", "weight", "recommended", "verdict", labelHead(rb), "runner-up − recommended"+diffHead(rb),
+	objHead := labelHead(rb)
+	for _, c := range rec.GetConditions() {
+		if c.GetDecision().GetRankedBy().GetKey() != rb.GetKey() {
+			objHead = "ranked figure"
+		}
+	}
+	t := NewTable("condition", "weight", "recommended", "verdict", objHead, "runner-up − recommended"+diffHead(rb),
 		"fixed power", "gain over fixed", "f_D·T")
 	t.AlignRight(1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
@@ -261,8 +267,8 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			}
 		}
 		obj := labelCell(best.GetObjective(), dl)
-		if dl.GetKey() != rb.GetKey() {
-			obj += " " + dl.GetUnit()
+		if objHead != labelHead(rb) {
+			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
 		}
 		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(d.GetSetting()), VerdictName(d),
 			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
@@ -416,7 +422,7 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 		}
 	}
 	h = append(h, paths...)
-	h = append(h, "status", "feasible", "best", "objective", "objective_low", "objective_high",
+	h = append(h, "status", "feasible", "best", "verdict", "rank", "objective", "objective_low", "objective_high",
 		"diff_to_best", "diff_low", "diff_high", "n")
 	cw.Write(append(h, searchFigureHeader()...))
 	coords := func(k int32) []string {
@@ -431,29 +437,34 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 		}
 		return out
 	}
-	row := func(scope, cond string, weight float64, cr *pb.CandidateResult, best int32) {
+	// row writes a candidate of a scope; verdict is the scope decision's
+	// (VerdictKey, on every row of the scope) and rank the candidate's
+	// place in the decision's ordering (1 = recommended).
+	row := func(scope, cond string, weight float64, cr *pb.CandidateResult, d *pb.Decision, rank int) {
 		r := []string{scope, cond, CSVNum(weight), strconv.Itoa(int(cr.GetCandidate()))}
 		r = append(r, coords(cr.GetCandidate())...)
 		r = append(r, strings.TrimPrefix(strings.ToLower(cr.GetStatus().String()), "candidate_status_"),
-			strconv.FormatBool(cr.GetFeasible()), strconv.FormatBool(cr.GetCandidate() == best))
+			strconv.FormatBool(cr.GetFeasible()), strconv.FormatBool(cr.GetCandidate() == d.GetBest()),
+			VerdictKey(d), strconv.Itoa(rank))
 		r = append(r, estCells(cr.GetObjective())...)
 		r = append(r, estCells(cr.GetDiffToBest())...)
 		r = append(r, strconv.Itoa(int(cr.GetObjective().GetN())))
 		cw.Write(append(r, searchFigureCells(cr.GetFigures())...))
 	}
 	for _, c := range rec.GetConditions() {
-		for _, cr := range c.GetCandidates() {
-			row("condition", c.GetName(), c.GetWeight(), cr, c.GetDecision().GetBest())
+		d := c.GetDecision()
+		for i, cr := range ordered(d, c.GetCandidates()) {
+			row("condition", c.GetName(), c.GetWeight(), cr, d, i+1)
 		}
 		if b := c.GetBaseline(); b != nil {
 			r := []string{"baseline", c.GetName(), CSVNum(c.GetWeight()), ""}
 			r = append(r, coords(-1)...)
-			r = append(r, "", "", "false", "", "", "", "", "", "", strconv.Itoa(int(b.GetFigures().GetSirErrorStdDb().GetN())))
+			r = append(r, "", "", "false", "", "", "", "", "", "", "", "", strconv.Itoa(int(b.GetFigures().GetSirErrorStdDb().GetN())))
 			cw.Write(append(r, searchFigureCells(b.GetFigures())...))
 		}
 	}
-	for _, cr := range rec.GetOverallCandidates() {
-		row("overall", "", 1, cr, rec.GetOverall().GetBest())
+	for i, cr := range ordered(rec.GetOverall(), rec.GetOverallCandidates()) {
+		row("overall", "", 1, cr, rec.GetOverall(), i+1)
 	}
 	cw.Flush()
 	return cw.Error()
