@@ -11,6 +11,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
+	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -106,8 +107,12 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
+	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
 		if err := plotSpecs.check("auto", "auto", "heatmap", "steps"); err != nil {
@@ -211,6 +216,9 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			if !e.g.quiet {
 				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
 			}
+		}
+		if err := writeResultReport(e, *reportFile, htmlreport.Input{Tune: rec, TuneRequest: req, Source: "fadeloop tune"}); err != nil {
+			return err
 		}
 		return tuneConstraints(rec)
 	}
