@@ -26,19 +26,21 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	if sc.GetName() != "" {
 		fmt.Fprintln(w, sc.GetName())
 	}
+	if f := rep.GetFeasibility(); f.GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+		// Judged infeasible before the run: nothing was simulated, so
+		// there are no figures to show (a table would be all zeros).
+		fmt.Fprintf(w, "%d users, seed %d, engine %s: not simulated\n\n", agg.GetUsers(), rep.GetSeed(), rep.GetEngineVersion())
+		fmt.Fprintln(w, Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
+		fmt.Fprintln(w, "No figures: nothing was simulated.")
+		return
+	}
 	fmt.Fprintf(w, "%d users, %s slots × %d replication(s) after %s warm-up slots, seed %d, engine %s\n",
 		agg.GetUsers(), GroupDigits(rep.GetSlots()), rep.GetReplications(),
 		GroupDigits(sc.GetRun().GetWarmupSlots()), rep.GetSeed(), rep.GetEngineVersion())
 	fmt.Fprintf(w, "%s user-slots simulated in %.2f s (%s)\n",
 		GroupDigits(rep.GetSimulatedUserSlots()), rep.GetWallTimeS(), FmtRate(rep.GetUserSlotsPerS(), "user-slots/s"))
 	if f := rep.GetFeasibility(); f.GetInfeasible() {
-		fmt.Fprintf(w, "\n%s\n", FeasibilityLine(f, agg.GetUsers()))
-		if rep.GetSimulatedUserSlots() == 0 {
-			// Judged infeasible before the run: nothing was simulated, so
-			// there are no figures to show (a table would be all zeros).
-			fmt.Fprintln(w, "No slots were simulated, so there are no figures: lower the load or the SIR target, or raise the power limit, and run again.")
-			return
-		}
+		fmt.Fprintf(w, "\n%s\n", Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
 	}
 	fmt.Fprintln(w)
 	t := NewTable("figure", "value", "95 % interval").AlignRight(1)
@@ -105,8 +107,15 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	cw := csv.NewWriter(w)
 	cw.Write(RunCSVHeader())
 	agg := rep.GetAggregate()
+	cells := figureCSVCells(agg)
+	if rep.GetFeasibility().GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+		// Infeasible before the run: no figures, empty cells (not zeros).
+		for i := range cells {
+			cells[i] = ""
+		}
+	}
 	cw.Write(append([]string{"aggregate", "", "", "", "", "", strconv.Itoa(int(agg.GetUsers())),
-		strconv.FormatInt(agg.GetUserSlots(), 10)}, figureCSVCells(agg)...))
+		strconv.FormatInt(agg.GetUserSlots(), 10)}, cells...))
 	for _, b := range rep.GetDistanceBins() {
 		f := b.GetFigures()
 		cw.Write(append([]string{"bin", strconv.Itoa(int(b.GetBin())), "", "", CSVNum(b.GetMinDistanceM()),
@@ -130,10 +139,10 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 func FeasibilityLine(f *pb.Feasibility, users int32) string {
 	s := "INFEASIBLE LOAD: " + strings.TrimSuffix(f.GetReason(), ".")
 	var nums []string
-	if lf := f.GetLoadFactor(); lf > 0 {
+	if lf := f.GetLoadFactor(); lf > 0 && !strings.Contains(f.GetReason(), "load factor") {
 		nums = append(nums, fmt.Sprintf("load factor %.3f", lf))
 	}
-	if sr := f.GetSpectralRadius(); sr > 0 {
+	if sr := f.GetSpectralRadius(); sr > 0 && !strings.Contains(f.GetReason(), "spectral radius") {
 		nums = append(nums, fmt.Sprintf("spectral radius %.3f", sr))
 	}
 	if len(nums) > 0 {
