@@ -130,10 +130,10 @@ func VerdictKey(d *pb.Decision) string {
 	return strings.ToLower(strings.TrimPrefix(d.GetVerdict().String(), "VERDICT_"))
 }
 
-// ordered returns a scope's candidate results in the decision's ordering
+// OrderedCandidates returns a scope's candidate results in the decision's ordering
 // (recommended first); results the ordering does not name follow in
 // their own order.
-func ordered(d *pb.Decision, crs []*pb.CandidateResult) []*pb.CandidateResult {
+func OrderedCandidates(d *pb.Decision, crs []*pb.CandidateResult) []*pb.CandidateResult {
 	by := make(map[int32]*pb.CandidateResult, len(crs))
 	for _, cr := range crs {
 		by[cr.GetCandidate()] = cr
@@ -303,7 +303,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			ct.AlignRight(4 + i)
 		}
 		ct.AlignRight(4 + len(labels))
-		for _, cr := range ordered(d, c.GetCandidates()) {
+		for _, cr := range OrderedCandidates(d, c.GetCandidates()) {
 			mark := "  "
 			if cr.GetCandidate() == d.GetBest() {
 				mark = "* "
@@ -453,7 +453,7 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 	}
 	for _, c := range rec.GetConditions() {
 		d := c.GetDecision()
-		for i, cr := range ordered(d, c.GetCandidates()) {
+		for i, cr := range OrderedCandidates(d, c.GetCandidates()) {
 			row("condition", c.GetName(), c.GetWeight(), cr, d, i+1)
 		}
 		if b := c.GetBaseline(); b != nil {
@@ -463,7 +463,7 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 			cw.Write(append(r, searchFigureCells(b.GetFigures())...))
 		}
 	}
-	for i, cr := range ordered(rec.GetOverall(), rec.GetOverallCandidates()) {
+	for i, cr := range OrderedCandidates(rec.GetOverall(), rec.GetOverallCandidates()) {
 		row("overall", "", 1, cr, rec.GetOverall(), i+1)
 	}
 	cw.Flush()
