@@ -664,7 +664,7 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 	}
 
 	ct := table{Caption: fmt.Sprintf("Per condition: the best setting, its %s, the paired difference to the runner-up and the fixed-power baseline (%g %% intervals).", oname, 100*conf),
-		Head: []string{"condition", "weight", "best setting", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
+		Head: []string{"condition", "weight", "recommended", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
 	ct.Num = numCols(len(ct.Head), 1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
 		dc := c.GetDecision()
@@ -691,6 +691,18 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 			}
 			base = repEstimate(bf, gs, gd)
 			gain = num(gs*b.GetGain().GetMean(), gd)
+			if bl := b.GetFigure(); bl != nil {
+				// The baseline in the judged figure's own units (API label).
+				sc := bl.GetDisplayScale()
+				if sc == 0 {
+					sc = 1
+				}
+				base = repEstimate(b.GetFixed(), sc, int(bl.GetDecimals())) + " " + bl.GetUnit()
+				gain = repEstimate(b.GetGain(), sc, int(bl.GetDecimals())) + " " + bl.GetDiffUnit()
+				if b.GetFixedMisses() {
+					gain += " (fixed power misses the constraints)"
+				}
+			}
 			if b.GetBarelyHelps() {
 				gain += " (barely helps)"
 			}
