@@ -294,3 +294,50 @@ func TestTuneConstraintsFollowsTheVerdict(t *testing.T) {
 		}
 	}
 }
+
+// TestReportFlag: --report FILE.html on run, tune and capacity writes the
+// HTML report of the same result the command printed (the tune page
+// carries the API's headline); a name without .html is bad input (exit 2)
+// before any work.
+func TestReportFlag(t *testing.T) {
+	dir := t.TempDir()
+	cases := []struct {
+		args []string
+		want string // in the page
+	}{
+		{[]string{"run", "testdata/scenarios/small.json", "--slots", "600", "--quiet"}, "Figures"},
+		{append(append([]string{}, tuneArgs...), "--format", "json"), "Verdict: "},
+		{[]string{"capacity", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
+			"--outage-limit", "0.05", "--max-count", "8", "--replications", "2"}, "Capacity"},
+	}
+	for _, c := range cases {
+		page := filepath.Join(dir, c.args[0]+".html")
+		r := ok(t, append(c.args, "--report", page)...)
+		b, err := os.ReadFile(page)
+		if err != nil {
+			t.Fatalf("%s --report: %v", c.args[0], err)
+		}
+		html := string(b)
+		if !strings.HasPrefix(strings.TrimSpace(html), "<!DOCTYPE html>") || !strings.Contains(html, c.want) {
+			t.Errorf("%s report lacks %q (%d bytes)", c.args[0], c.want, len(html))
+		}
+		if c.args[0] == "tune" {
+			rec := &pb.Recommendation{}
+			if err := protojson.Unmarshal([]byte(r.stdout), rec); err != nil {
+				t.Fatal(err)
+			}
+			// html/template escapes some characters; compare a plain prefix.
+			h := rec.GetOverall().GetHeadline()
+			if len(h) > 20 {
+				h = h[:20]
+			}
+			if h == "" || !strings.Contains(html, h) {
+				t.Errorf("tune report lacks the API's headline %q", h)
+			}
+		}
+	}
+	r := fl(t, "run", "--slots", "600", "--report", filepath.Join(dir, "page.txt"))
+	if r.code != 2 || !strings.Contains(r.stderr, "FILE.html") {
+		t.Errorf("--report page.txt: exit %d, %s", r.code, r.stderr)
+	}
+}
