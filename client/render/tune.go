@@ -233,7 +233,11 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			objHead = "ranked figure"
 		}
 	}
-	t := NewTable("condition", "weight", "recommended", "verdict", objHead, "runner-up − recommended"+diffHead(rb),
+	diffH := "runner-up − recommended" + diffHead(rb)
+	if objHead != labelHead(rb) {
+		diffH = "runner-up − recommended" // mixed units: each cell carries its own
+	}
+	t := NewTable("condition", "weight", "recommended", "verdict", objHead, diffH,
 		"fixed power", "gain over fixed", "f_D·T")
 	t.AlignRight(1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
