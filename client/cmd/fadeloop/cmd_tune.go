@@ -41,13 +41,18 @@ fadeloop.v1.TuneRequest; flags add to it and override its objective,
 confidence and budget.
 
 Output formats:
-  table  the best setting overall and per condition, the runner-up with the
-         paired difference and its interval, the reason, the fixed-power
-         baseline, every candidate's figures, the effort
+  table  the verdict (winner, tie of N, constraints unmet, single setting)
+         and the API's lines: headline (an unmet constraint first, with
+         the closest setting's misses), runner-up, warnings, tie rule;
+         per condition the recommended setting first, then the rest in the
+         decision's ordering, values as "value [low, high]", the
+         fixed-power baseline, the effort
   csv    one row per condition × candidate, per condition baseline and per
          overall candidate: scope (condition|baseline|overall), condition,
          weight, candidate, one column per axis (named by its path), status,
-         feasible, best (true|false), objective, objective_low,
+         feasible, best (true|false), verdict (winner|tie|
+         constraints_unmet|single, of the row's scope), rank (1 =
+         recommended; rows in this order), objective, objective_low,
          objective_high, diff_to_best, diff_low, diff_high, n, then for every
          figure F of sir_error_mean_db, sir_error_std_db, outage_probability,
          achieved_bler, tx_power_mean_dbm, max_power_fraction,
@@ -56,9 +61,10 @@ Output formats:
   json   the fadeloop.v1 Recommendation in protojson with proto field names
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
-  heatmap  the overall objective over inner_loop.step_db × update_rate_hz
+  heatmap  the overall ranked figure over inner_loop.step_db × update_rate_hz,
+           the recommended setting outlined
   steps    outage and SIR error std against inner_loop.step_db, one line per
-           condition (step the only axis)
+           condition (step the only axis), each recommended step ringed
   auto     heatmap for step × rate, steps for step alone
 
 Exit status 4 (after the output is written) when no candidate meets the
