@@ -67,9 +67,10 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
            condition (step the only axis), each recommended step ringed
   auto     heatmap for step × rate, steps for step alone
 
-Exit status 4 (after the output is written) when no candidate meets the
-objective's constraints (the Tx-power objective's outage limit): the
-candidates were then ranked by outage instead.
+Exit status 4 (after the output is written) when the verdict, overall or
+of any condition, is "constraints unmet": no candidate meets the
+objective's constraints (outage limit, noise-rise limit, BLER band); the
+candidates were then ranked by their worst relative constraint excess.
 
 Examples:
   fadeloop tune --axis inner_loop.step_db=0.25,0.5,1,2 --speeds 3,30,120
