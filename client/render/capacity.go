@@ -25,7 +25,9 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 	case res.GetHeadline() != "":
 		// The API's own verdict line, printed first.
 		fmt.Fprintln(w, Wrap(res.GetHeadline(), 78, "  "))
-		fmt.Fprintf(w, "Group %d%s: %d in the group, %d users in all\n", g, gname, res.GetCount(), res.GetTotalUsers())
+		if !res.GetBelowRange() {
+			fmt.Fprintf(w, "Group %d%s: %d in the group, %d users in all\n", g, gname, res.GetCount(), res.GetTotalUsers())
+		}
 	case res.GetBelowRange():
 		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: below the smallest count tried\n", g, gname, limit)
 	case res.GetAtRangeTop():
