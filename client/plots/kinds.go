@@ -245,6 +245,9 @@ type StepLine struct {
 	ErrorStdDB     []float64
 	ErrorStdLowDB  []float64
 	ErrorStdHighDB []float64
+	// Recommended, when set (same length as StepDB), marks the points of
+	// the recommended setting with a ring in both panels.
+	Recommended []bool
 }
 
 // Add appends one point: the step in dB, the outage probability as a
@@ -266,6 +269,7 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 	left := newPanel("Outage", "step size (dB)", "outage (%)")
 	right := newPanel("SIR error spread", "step size (dB)", "SIR error std (dB)")
 	n := 0
+	marked := false
 	for i, ln := range lines {
 		if len(ln.StepDB) == 0 {
 			continue
@@ -275,6 +279,34 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 		}
 		if err := addLinePoints(right, i, ln.Label, ln.StepDB, ln.ErrorStdDB, ln.ErrorStdLowDB, ln.ErrorStdHighDB); err != nil {
 			return nil, err
+		}
+		if len(ln.Recommended) == len(ln.StepDB) {
+			var xo, yo, xs, ys []float64
+			for k, m := range ln.Recommended {
+				if m && k < len(ln.OutagePct) && k < len(ln.ErrorStdDB) {
+					xo, yo = append(xo, ln.StepDB[k]), append(yo, ln.OutagePct[k])
+					xs, ys = append(xs, ln.StepDB[k]), append(ys, ln.ErrorStdDB[k])
+				}
+			}
+			if len(xo) > 0 {
+				for _, pr := range []struct {
+					p    *panel
+					x, y []float64
+				}{{left, xo, yo}, {right, xs, ys}} {
+					sc, err := plotter.NewScatter(xy(pr.x, pr.y))
+					if err != nil {
+						return nil, err
+					}
+					sc.Shape = draw.RingGlyph{}
+					sc.Radius = vg.Points(9)
+					sc.Color = color.Black
+					pr.p.Add(sc)
+					if !marked {
+						pr.p.legend("recommended", sc)
+					}
+				}
+				marked = true
+			}
 		}
 		n++
 	}
@@ -353,6 +385,14 @@ type ObjectiveGrid struct {
 	UpdateRateHz  []float64
 	Value         [][]float64
 	LowerIsBetter bool
+	// Marked outlines the cell at MarkRow (update rate index) and MarkCol
+	// (step index) with the legend MarkLabel (e.g. "recommended") instead
+	// of the cell with the best value: a tuning decision's recommended
+	// setting, which inside a tie or under unmet constraints need not be
+	// the best value.
+	Marked           bool
+	MarkRow, MarkCol int
+	MarkLabel        string
 }
 
 // HeatMap draws the objective over the step × update-rate grid, each cell
@@ -421,8 +461,16 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 		lb.TextStyle[i].Color = color.Black
 	}
 	p.Add(lb)
+	markLabel := "best"
+	if g.Marked && g.MarkRow >= 0 && g.MarkRow < nr && g.MarkCol >= 0 && g.MarkCol < nc {
+		bestR, bestC = g.MarkRow, g.MarkCol
+		markLabel = g.MarkLabel
+		if markLabel == "" {
+			markLabel = "marked"
+		}
+	}
 	p.Add(cellOutline{c: float64(bestC), r: float64(bestR)})
-	p.legend("best", cellOutline{})
+	p.legend(markLabel, cellOutline{})
 	p.X.Tick.Marker = indexTicks(g.StepDB)
 	p.Y.Tick.Marker = indexTicks(g.UpdateRateHz)
 	p.X.Min, p.X.Max = -0.5, float64(nc)-0.5

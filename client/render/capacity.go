@@ -26,6 +26,12 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		all = "users per cell (isolated-cell pole below)" // multi-cell: counts are per cell
 	}
 	switch {
+	case res.GetHeadline() != "":
+		// The API's own verdict line, printed first.
+		fmt.Fprintln(w, Wrap(res.GetHeadline(), 78, "  "))
+		if !res.GetBelowRange() {
+			fmt.Fprintf(w, "Group %d%s: %d in the group, %d users in all\n", g, gname, res.GetCount(), res.GetTotalUsers())
+		}
 	case res.GetBelowRange():
 		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: below the smallest count tried\n", g, gname, limit)
 	case res.GetAtRangeTop():
@@ -44,35 +50,63 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		fmt.Fprintf(w, "Pole capacity: not available (%s)\n", res.GetPoleError())
 	}
 	fmt.Fprintln(w)
-	t := NewTable("count", "users", "outage (%)", "pass", "SIR err std (dB)", "BLER (%)", "Tx mean (dBm)", "at max (%)", "noise rise (dB)", "n")
-	t.AlignRight(0, 1, 2, 4, 5, 6, 7, 8, 9)
+	t := NewTable("count", "users", "limits", "outage (%)", "noise rise (dB)", "load", "SIR err std (dB)", "BLER (%)", "Tx mean (dBm)", "at max (%)", "n")
+	t.AlignRight(0, 1, 3, 4, 6, 7, 8, 9, 10)
 	for _, p := range res.GetEvaluated() {
 		f := p.GetFigures()
 		pass := "fail"
 		if p.GetPass() {
 			pass = "pass"
 		}
-		if p.GetCount() == res.GetCount() {
+		if p.GetCount() == res.GetCount() && !res.GetBelowRange() {
 			pass += " *"
 		}
-		t.Add(strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), estCell(f.GetOutageProbability(), 100, 3),
-			pass, estCell(f.GetSirErrorStdDb(), 1, 3), estCell(f.GetAchievedBler(), 100, 2), estCell(f.GetTxPowerMeanDbm(), 1, 2),
-			estCell(f.GetMaxPowerFraction(), 100, 2), estCell(f.GetNoiseRiseMeanDb(), 1, 2), strconv.Itoa(int(f.GetOutageProbability().GetN())))
+		// Each limit's own flag beside its figure: "ok" or "over".
+		flag := func(ok bool) string {
+			if ok {
+				return "ok"
+			}
+			return "over"
+		}
+		load := "feasible"
+		if !p.GetLoadFeasible() {
+			load = "infeasible"
+		}
+		t.Add(strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), pass,
+			estCell(f.GetOutageProbability(), 100, 2)+" "+flag(p.GetOutageOk()),
+			estCell(f.GetNoiseRiseMeanDb(), 1, 2)+" "+flag(p.GetNoiseRiseOk()), load,
+			estCell(f.GetSirErrorStdDb(), 1, 2), estCell(f.GetAchievedBler(), 100, 2), estCell(f.GetTxPowerMeanDbm(), 1, 2),
+			estCell(f.GetMaxPowerFraction(), 100, 2), strconv.Itoa(int(f.GetOutageProbability().GetN())))
 	}
 	t.Write(w)
+	fmt.Fprintf(w, "* the capacity found; values with their %g %% intervals [low, high]\n", 100*confidenceOf(req))
 	fmt.Fprintf(w, "\n%s\n", Wrap(res.GetReason(), 78, ""))
+	if n := res.GetNotice(); n != "" {
+		fmt.Fprintln(w, Wrap(n, 78, ""))
+	}
 	fmt.Fprintf(w, "Effort: %d replications, %s user-slots in %.2f s\n", res.GetReplications(), GroupDigits(res.GetUserSlots()), res.GetWallTimeS())
 }
 
 // CapacityCSV writes one row per evaluated count of a capacity search.
 func CapacityCSV(w io.Writer, res *pb.CapacityResult) error {
 	cw := csv.NewWriter(w)
-	cw.Write(append([]string{"count", "total_users", "pass", "n"}, searchFigureHeader()...))
+	cw.Write(append([]string{"count", "total_users", "pass", "outage_ok", "noise_rise_ok", "load_feasible", "capacity", "n"}, searchFigureHeader()...))
 	for _, p := range res.GetEvaluated() {
 		r := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), strconv.FormatBool(p.GetPass()),
+			strconv.FormatBool(p.GetOutageOk()), strconv.FormatBool(p.GetNoiseRiseOk()), strconv.FormatBool(p.GetLoadFeasible()),
+			strconv.FormatBool(p.GetCount() == res.GetCount() && !res.GetBelowRange()),
 			strconv.Itoa(int(p.GetFigures().GetOutageProbability().GetN()))}
 		cw.Write(append(r, searchFigureCells(p.GetFigures())...))
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// confidenceOf is a capacity request's confidence (0.95 when unset, the
+// server's default).
+func confidenceOf(req *pb.CapacityRequest) float64 {
+	if c := req.GetConfidence(); c > 0 {
+		return c
+	}
+	return 0.95
 }

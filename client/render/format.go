@@ -256,19 +256,24 @@ func figureCSVCells(fs *pb.Figures) []string {
 	return c
 }
 
-// cell formats an estimate for a table: "1.98 ±0.03" (half-width of the
-// 95 % interval; asymmetric intervals show the larger side).
+// cell formats an estimate for a table: "1.98 [1.95, 2.02]", the value and
+// its 95 % interval. Intervals may be asymmetric (Wilson for proportions,
+// log-scale for variances), so both ends are printed, never a ± half-width.
 func cell(f Figure, e *pb.Estimate) string {
 	if e == nil {
 		return "–"
 	}
 	v := f.Scale * e.GetValue()
 	lo, hi := f.Scale*e.GetCiLow(), f.Scale*e.GetCiHigh()
-	hw := math.Max(v-lo, hi-v)
-	if math.IsNaN(hw) || (lo == 0 && hi == 0 && v != 0) {
+	if math.IsNaN(lo) || math.IsNaN(hi) || (lo == 0 && hi == 0 && v != 0) {
 		return Num(v, f.Dec)
 	}
-	return Num(v, f.Dec) + " ±" + Num(hw, f.Dec)
+	return withInterval(v, lo, hi, f.Dec)
+}
+
+// withInterval is "v [lo, hi]" with dec decimals.
+func withInterval(v, lo, hi float64, dec int) string {
+	return Num(v, dec) + " [" + Num(lo, dec) + ", " + Num(hi, dec) + "]"
 }
 
 // Wrap breaks text into lines of at most width runes (words are not

@@ -1,6 +1,7 @@
 package render
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -135,4 +136,103 @@ func RunDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
 		pts = append(pts, p)
 	}
 	return pts
+}
+
+// Axis paths of the tuning plots.
+const (
+	StepPath = "inner_loop.step_db"
+	RatePath = "inner_loop.update_rate_hz"
+)
+
+// candidateCoord is candidate k's value on the axis path (NaN when absent).
+func candidateCoord(cands []*pb.GridPoint, k int32, path string) float64 {
+	if k < 0 || int(k) >= len(cands) {
+		return math.NaN()
+	}
+	for _, c := range cands[k].GetCoords() {
+		if c.GetPath() == path {
+			return c.GetValue()
+		}
+	}
+	return math.NaN()
+}
+
+// TuneObjectiveGrid is the overall ranked figure of every candidate over
+// step × update rate (ok only when the candidates have exactly those two
+// axes), in the units of the overall decision's ranked_by label, with the
+// recommended candidate (overall.best) outlined. The one conversion of a
+// Recommendation to a heat map, for the CLI's --plot and the HTML report.
+func TuneObjectiveGrid(rec *pb.Recommendation) (plots.ObjectiveGrid, bool) {
+	cands := rec.GetCandidates()
+	if len(cands) == 0 || len(cands[0].GetCoords()) != 2 {
+		return plots.ObjectiveGrid{}, false
+	}
+	var steps, rates []float64
+	for i := range cands {
+		steps = append(steps, candidateCoord(cands, int32(i), StepPath))
+		rates = append(rates, candidateCoord(cands, int32(i), RatePath))
+	}
+	for i := range steps {
+		if math.IsNaN(steps[i]) || math.IsNaN(rates[i]) {
+			return plots.ObjectiveGrid{}, false
+		}
+	}
+	slices.Sort(steps)
+	slices.Sort(rates)
+	ov := rec.GetOverall()
+	l := ov.GetRankedBy()
+	sc, _ := labelScale(l)
+	g := plots.ObjectiveGrid{Objective: labelHead(l), StepDB: slices.Compact(steps),
+		UpdateRateHz: slices.Compact(rates), LowerIsBetter: true}
+	if len(rec.GetConditions()) > 1 {
+		g.Objective = "weighted " + g.Objective
+	}
+	g.Value = make([][]float64, len(g.UpdateRateHz))
+	for r := range g.Value {
+		g.Value[r] = make([]float64, len(g.StepDB))
+		for c := range g.Value[r] {
+			g.Value[r][c] = math.NaN()
+		}
+	}
+	for _, cr := range rec.GetOverallCandidates() {
+		col := slices.Index(g.StepDB, candidateCoord(cands, cr.GetCandidate(), StepPath))
+		row := slices.Index(g.UpdateRateHz, candidateCoord(cands, cr.GetCandidate(), RatePath))
+		if col >= 0 && row >= 0 {
+			g.Value[row][col] = sc * cr.GetObjective().GetMean()
+		}
+	}
+	col := slices.Index(g.StepDB, candidateCoord(cands, ov.GetBest(), StepPath))
+	row := slices.Index(g.UpdateRateHz, candidateCoord(cands, ov.GetBest(), RatePath))
+	if col >= 0 && row >= 0 {
+		g.Marked, g.MarkRow, g.MarkCol = true, row, col
+		g.MarkLabel = "recommended (" + VerdictName(ov) + ")"
+	}
+	return g, true
+}
+
+// TuneStepLines is outage (%) and SIR error std (dB) with their intervals
+// against the step size, one line per condition, each condition's
+// recommended candidate marked (ok only when the step size is the only
+// axis). The one conversion of a Recommendation to a step plot.
+func TuneStepLines(rec *pb.Recommendation) ([]plots.StepLine, bool) {
+	cands := rec.GetCandidates()
+	if len(cands) == 0 || len(cands[0].GetCoords()) != 1 || cands[0].GetCoords()[0].GetPath() != StepPath {
+		return nil, false
+	}
+	var ls []plots.StepLine
+	for _, c := range rec.GetConditions() {
+		l := plots.StepLine{Label: c.GetName() + " (" + VerdictName(c.GetDecision()) + ")"}
+		crs := slices.Clone(c.GetCandidates())
+		slices.SortStableFunc(crs, func(a, b *pb.CandidateResult) int {
+			return cmp.Compare(candidateCoord(cands, a.GetCandidate(), StepPath), candidateCoord(cands, b.GetCandidate(), StepPath))
+		})
+		for _, cr := range crs {
+			f := cr.GetFigures()
+			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
+			l.Add(candidateCoord(cands, cr.GetCandidate(), StepPath), o.GetMean(), o.GetLow(), o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
+			l.Recommended = append(l.Recommended, cr.GetCandidate() == c.GetDecision().GetBest())
+		}
+		ls = append(ls, l)
+	}
+	return ls, true
 }

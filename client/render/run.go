@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"strconv"
+	"strings"
 
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -25,23 +26,24 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	if sc.GetName() != "" {
 		fmt.Fprintln(w, sc.GetName())
 	}
+	if f := rep.GetFeasibility(); f.GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+		// Judged infeasible before the run: nothing was simulated, so
+		// there are no figures to show (a table would be all zeros).
+		fmt.Fprintf(w, "%d users, seed %d, engine %s: not simulated\n\n", agg.GetUsers(), rep.GetSeed(), rep.GetEngineVersion())
+		fmt.Fprintln(w, Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
+		fmt.Fprintln(w, "No figures: nothing was simulated.")
+		return
+	}
 	fmt.Fprintf(w, "%d users, %s slots × %d replication(s) after %s warm-up slots, seed %d, engine %s\n",
 		agg.GetUsers(), GroupDigits(rep.GetSlots()), rep.GetReplications(),
 		GroupDigits(sc.GetRun().GetWarmupSlots()), rep.GetSeed(), rep.GetEngineVersion())
 	fmt.Fprintf(w, "%s user-slots simulated in %.2f s (%s)\n",
 		GroupDigits(rep.GetSimulatedUserSlots()), rep.GetWallTimeS(), FmtRate(rep.GetUserSlotsPerS(), "user-slots/s"))
 	if f := rep.GetFeasibility(); f.GetInfeasible() {
-		fmt.Fprintf(w, "\nINFEASIBLE LOAD: %s", f.GetReason())
-		if f.GetSpectralRadius() > 0 {
-			fmt.Fprintf(w, " (spectral radius %.3f)", f.GetSpectralRadius())
-		}
-		if len(f.GetUsers()) > 0 {
-			fmt.Fprintf(w, "; users %v cannot reach the target", f.GetUsers())
-		}
-		fmt.Fprintln(w)
+		fmt.Fprintf(w, "\n%s\n", Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
 	}
 	fmt.Fprintln(w)
-	t := NewTable("figure", "value", "95 % CI").AlignRight(1)
+	t := NewTable("figure", "value", "95 % interval").AlignRight(1)
 	for _, f := range figures {
 		e := f.Get(agg)
 		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
@@ -57,7 +59,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
 		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per distance bin (value ±95 % CI half-width):")
+		fmt.Fprintln(w, "per distance bin (value [95 % interval]):")
 		h := []string{"distance (m)", "users"}
 		for _, k := range cols {
 			h = append(h, shortLabel(k))
@@ -75,7 +77,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	}
 	if perUser {
 		fmt.Fprintln(w)
-		fmt.Fprintln(w, "per user (value ±95 % CI half-width):")
+		fmt.Fprintln(w, "per user (value [95 % interval]):")
 		h := []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}
 		for _, k := range cols {
 			h = append(h, shortLabel(k))
@@ -106,8 +108,15 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	cw := csv.NewWriter(w)
 	cw.Write(RunCSVHeader())
 	agg := rep.GetAggregate()
+	cells := figureCSVCells(agg)
+	if rep.GetFeasibility().GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+		// Infeasible before the run: no figures, empty cells (not zeros).
+		for i := range cells {
+			cells[i] = ""
+		}
+	}
 	cw.Write(append([]string{"aggregate", "", "", "", "", "", strconv.Itoa(int(agg.GetUsers())),
-		strconv.FormatInt(agg.GetUserSlots(), 10)}, figureCSVCells(agg)...))
+		strconv.FormatInt(agg.GetUserSlots(), 10)}, cells...))
 	for _, b := range rep.GetDistanceBins() {
 		f := b.GetFigures()
 		cw.Write(append([]string{"bin", strconv.Itoa(int(b.GetBin())), "", "", CSVNum(b.GetMinDistanceM()),
@@ -122,4 +131,43 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// FeasibilityLine is the feasibility verdict in one line: the server's
+// reason, the load factor and spectral radius (infeasible at or above 1)
+// and how many of the users cannot reach the SIR target within their
+// power limits.
+func FeasibilityLine(f *pb.Feasibility, users int32) string {
+	s := "INFEASIBLE LOAD: " + strings.TrimSuffix(f.GetReason(), ".")
+	var nums []string
+	if lf := f.GetLoadFactor(); lf > 0 && !strings.Contains(f.GetReason(), "load factor") {
+		nums = append(nums, fmt.Sprintf("load factor %.3f", lf))
+	}
+	if sr := f.GetSpectralRadius(); sr > 0 && !strings.Contains(f.GetReason(), "spectral radius") {
+		nums = append(nums, fmt.Sprintf("spectral radius %.3f", sr))
+	}
+	if len(nums) > 0 {
+		s += " (" + strings.Join(nums, ", ") + "; the bound is 1)"
+	}
+	if u := f.GetUsers(); len(u) > 0 {
+		of := ""
+		if users > 0 {
+			of = fmt.Sprintf(" of %d", users)
+		}
+		s += fmt.Sprintf("; %d%s users cannot reach the SIR target: %s", len(u), of, userList(u, 12))
+	}
+	return s + "."
+}
+
+// userList is "3, 7, 12, … (40 more)" with at most n indices.
+func userList(u []int32, n int) string {
+	var parts []string
+	for i, x := range u {
+		if i == n {
+			parts = append(parts, fmt.Sprintf("… (%d more)", len(u)-n))
+			break
+		}
+		parts = append(parts, strconv.Itoa(int(x)))
+	}
+	return strings.Join(parts, ", ")
 }

@@ -14,7 +14,7 @@ var sweepTableFigures = []string{"sir_error_mean_db", "sir_error_std_db", "outag
 	"tx_power_mean_dbm", "max_power_fraction", "noise_rise_mean_db"}
 
 // SweepTable writes one row per sweep point: index, axis values and the main
-// figures with their interval half-widths.
+// figures with their intervals as [low, high].
 func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) {
 	if n := req.GetBase().GetName(); n != "" {
 		fmt.Fprintln(w, n)

@@ -4,7 +4,6 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
-	"math"
 	"strconv"
 	"strings"
 
@@ -28,18 +27,67 @@ func pointLabel(p *pb.GridPoint) string {
 	return strings.Join(parts, ", ")
 }
 
-// ObjectiveUnit returns the table scale, decimals and unit of an objective.
+// ObjectiveUnit returns the table scale, decimals and unit of an
+// objective's figure, for callers without a Recommendation's FigureLabel
+// (which, where present, is the source of every unit: see FigureLabelOf).
 func ObjectiveUnit(k pb.ObjectiveKind) (scale float64, dec int, unit, name string) {
 	switch k {
 	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
-		return 100, 3, "%", "outage"
+		return 100, 2, "%", "outage"
 	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
 		return 1, 2, "dBm", "mean Tx power"
 	}
-	return 1, 3, "dB", "SIR error std"
+	return 1, 2, "dB", "SIR error std"
 }
 
-// estCell is "1.98 ±0.03" (larger side of the interval), scaled.
+// FigureLabelOf returns the label of the figure key among labels (a
+// Recommendation's figures); nil when absent.
+func FigureLabelOf(labels []*pb.FigureLabel, key string) *pb.FigureLabel {
+	for _, l := range labels {
+		if l.GetKey() == key {
+			return l
+		}
+	}
+	return nil
+}
+
+// labelScale is a label's display scale (1 when unset) and decimals.
+func labelScale(l *pb.FigureLabel) (float64, int) {
+	sc := l.GetDisplayScale()
+	if sc == 0 {
+		sc = 1
+	}
+	return sc, int(l.GetDecimals())
+}
+
+// shortUnit abbreviates a unit for a column head ("percentage points" is
+// "pp"; the legend under the table spells it out).
+func shortUnit(u string) string {
+	if u == "percentage points" {
+		return "pp"
+	}
+	return u
+}
+
+// labelHead is "mean Tx power (dBm)".
+func labelHead(l *pb.FigureLabel) string {
+	return l.GetName() + " (" + shortUnit(l.GetUnit()) + ")"
+}
+
+// labelCell is a value with its interval, "2.52 [2.47, 2.57]", in the
+// label's display units; diff selects the difference unit's scale (the
+// same display scale: dB stays dB, proportions become percentage points).
+func labelCell(e *pb.ReplicationEstimate, l *pb.FigureLabel) string {
+	if e == nil {
+		return "–"
+	}
+	sc, dec := labelScale(l)
+	return estCell(e, sc, dec)
+}
+
+// estCell is "1.98 [1.95, 2.02]", scaled: the value and its interval
+// (asymmetric intervals stay asymmetric); the value alone with fewer than
+// two replications.
 func estCell(e *pb.ReplicationEstimate, scale float64, dec int) string {
 	if e == nil {
 		return "–"
@@ -48,12 +96,7 @@ func estCell(e *pb.ReplicationEstimate, scale float64, dec int) string {
 	if e.GetN() < 2 {
 		return Num(v, dec)
 	}
-	return Num(v, dec) + " ±" + Num(math.Max(v-lo, hi-v), dec)
-}
-
-// interval is "[lo, hi]", scaled.
-func interval(e *pb.ReplicationEstimate, scale float64, dec int) string {
-	return "[" + Num(scale*e.GetLow(), dec) + ", " + Num(scale*e.GetHigh(), dec) + "]"
+	return withInterval(v, lo, hi, dec)
 }
 
 var statusNames = map[pb.CandidateStatus]string{
@@ -62,88 +105,144 @@ var statusNames = map[pb.CandidateStatus]string{
 	pb.CandidateStatus_CANDIDATE_STATUS_EQUIVALENT: "equivalent",
 }
 
-// verdictLine describes a decision in one line.
-func verdictLine(d *pb.Decision, cands []*pb.GridPoint) string {
-	s := pointLabel(d.GetSetting())
-	switch {
-	case d.GetDeclared():
-		s += "  (declared winner)"
-	case len(d.GetTieSet()) > 1:
-		s += fmt.Sprintf("  (tie of %d, picked by the tie rule)", len(d.GetTieSet()))
-	default:
-		s += "  (not separated from the runner-up at this budget)"
+// VerdictName is the verdict column of tables and CSV: "winner", "tie of
+// N", "constraints unmet", "single setting".
+func VerdictName(d *pb.Decision) string {
+	switch d.GetVerdict() {
+	case pb.Verdict_VERDICT_WINNER:
+		return "winner"
+	case pb.Verdict_VERDICT_TIE:
+		return fmt.Sprintf("tie of %d", len(d.GetTieSet()))
+	case pb.Verdict_VERDICT_CONSTRAINTS_UNMET:
+		return "constraints unmet"
+	case pb.Verdict_VERDICT_SINGLE:
+		return "single setting"
 	}
-	if d.GetConstraintsUnmet() {
-		s += "  [no candidate met the constraints; ranked by outage]"
-	}
-	return s
+	return "not stated"
 }
 
-// runnerUpLine is the runner-up with the paired difference and interval.
-func runnerUpLine(d *pb.Decision, cands []*pb.GridPoint, k pb.ObjectiveKind, conf float64) string {
-	ru := d.GetRunnerUp()
-	if ru < 0 || int(ru) >= len(cands) {
-		return "none (one candidate)"
+// VerdictKey is the machine-readable verdict of CSV files: "winner",
+// "tie", "constraints_unmet", "single" ("" when unset).
+func VerdictKey(d *pb.Decision) string {
+	if d.GetVerdict() == pb.Verdict_VERDICT_UNSPECIFIED {
+		return ""
 	}
-	scale, dec, unit, _ := ObjectiveUnit(k)
-	if d.GetConstraintsUnmet() {
-		scale, dec, unit = 100, 3, "%"
-	}
-	ev := d.GetEvidence()
-	than := ""
-	if l := d.GetLeader(); l != d.GetBest() && l >= 0 && int(l) < len(cands) {
-		than = " than the leader " + pointLabel(cands[l]) + " (best point estimate)"
-	}
-	line := fmt.Sprintf("%s: %s %s worse%s, %g %% interval %s, %d paired replications", pointLabel(cands[ru]),
-		Num(scale*ev.GetMean(), dec), unit, than, 100*conf, interval(ev, scale, dec), ev.GetN())
-	return line
+	return strings.ToLower(strings.TrimPrefix(d.GetVerdict().String(), "VERDICT_"))
 }
 
-// TuneTable writes a tuning recommendation for people: the chosen setting,
-// the evidence against the runner-up and every candidate.
+// OrderedCandidates returns a scope's candidate results in the decision's ordering
+// (recommended first); results the ordering does not name follow in
+// their own order.
+func OrderedCandidates(d *pb.Decision, crs []*pb.CandidateResult) []*pb.CandidateResult {
+	by := make(map[int32]*pb.CandidateResult, len(crs))
+	for _, cr := range crs {
+		by[cr.GetCandidate()] = cr
+	}
+	out := make([]*pb.CandidateResult, 0, len(crs))
+	seen := make(map[int32]bool, len(crs))
+	for _, k := range d.GetOrdering() {
+		if cr, ok := by[k]; ok && !seen[k] {
+			out = append(out, cr)
+			seen[k] = true
+		}
+	}
+	for _, cr := range crs {
+		if !seen[cr.GetCandidate()] {
+			out = append(out, cr)
+		}
+	}
+	return out
+}
+
+// DecisionLines are the lines every text output of a decision prints, in
+// the API's order: headline (an unmet constraint is said there first),
+// the closest setting's misses, the runner-up, each warning, and for a
+// tie the tie rule. None is composed here.
+func DecisionLines(d *pb.Decision, tieRule string) []string {
+	var ls []string
+	if d.GetHeadline() != "" {
+		ls = append(ls, d.GetHeadline())
+	}
+	if d.GetVerdict() == pb.Verdict_VERDICT_CONSTRAINTS_UNMET {
+		for _, m := range d.GetMisses() {
+			t := m.GetText()
+			if m.GetCondition() != "" {
+				t = "in " + m.GetCondition() + ": " + t
+			}
+			ls = append(ls, "Closest setting misses, "+t)
+		}
+	}
+	if d.GetRunnerUpLine() != "" {
+		ls = append(ls, d.GetRunnerUpLine())
+	}
+	for _, wn := range d.GetWarnings() {
+		ls = append(ls, wn.GetText())
+	}
+	if d.GetVerdict() == pb.Verdict_VERDICT_TIE && tieRule != "" {
+		ls = append(ls, "Tie rule: "+tieRule)
+	}
+	return ls
+}
+
+// TuneTable writes a tuning recommendation for people, every verdict,
+// sentence and unit taken from the Recommendation: the overall decision's
+// lines, one row per condition (its recommended setting and verdict), and
+// per condition every candidate, recommended first, in the decision's
+// ordering.
 func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
-	k := rec.GetObjective().GetKind()
-	scale, dec, unit, oname := ObjectiveUnit(k)
 	conf := rec.GetConfidence()
 	cands := rec.GetCandidates()
+	ov := rec.GetOverall()
 	if n := req.GetBase().GetName(); n != "" {
 		fmt.Fprintln(w, n)
 	}
+	objName := ov.GetRankedBy().GetName()
+	if l := FigureLabelOf(rec.GetFigures(), objectiveKey(rec.GetObjective().GetKind())); l != nil {
+		objName = l.GetName()
+	}
 	fmt.Fprintf(w, "minimise %s; %d candidates × %d conditions; confidence %g %%; seed %d\n\n",
-		oname, len(cands), len(rec.GetConditions()), 100*conf, rec.GetSeed())
-	ov := rec.GetOverall()
-	fmt.Fprintf(w, "Best overall:   %s\n", verdictLine(ov, cands))
+		objName, len(cands), len(rec.GetConditions()), 100*conf, rec.GetSeed())
+	fmt.Fprintf(w, "Verdict: %s\n", VerdictName(ov))
+	for _, l := range DecisionLines(ov, rec.GetTieRule()) {
+		fmt.Fprintln(w, Wrap(l, 78, "  "))
+	}
 	if len(rec.GetConditions()) > 1 {
 		var ws []string
 		for _, c := range rec.GetConditions() {
 			ws = append(ws, fmt.Sprintf("%s (weight %g)", c.GetName(), c.GetWeight()))
 		}
-		fmt.Fprintf(w, "                weighted over %s\n", strings.Join(ws, ", "))
+		fmt.Fprintln(w, Wrap("Weighted over "+strings.Join(ws, ", ")+".", 78, "  "))
 	}
-	fmt.Fprintf(w, "Runner-up:      %s\n", runnerUpLine(ov, cands, k, conf))
-	if len(ov.GetTieSet()) > 1 {
-		var ts []string
-		for _, i := range ov.GetTieSet() {
-			ts = append(ts, pointLabel(cands[i]))
-		}
-		fmt.Fprintf(w, "Tie set:        %s\n", strings.Join(ts, "; "))
+	if n := rec.GetNotice(); n != "" {
+		fmt.Fprintln(w, Wrap(n, 78, "  "))
 	}
-	fmt.Fprintf(w, "Why:            %s\n", Wrap(ov.GetReason(), 62, strings.Repeat(" ", 16)))
-	fmt.Fprintf(w, "Tie rule:       %s\n\n", Wrap(rec.GetTieRule(), 62, strings.Repeat(" ", 16)))
+	fmt.Fprintln(w)
 
-	t := NewTable("condition", "weight", "best setting", "verdict", oname+" ("+unit+")", "runner-up diff ("+unit+")",
+	pp := false
+	rb := ov.GetRankedBy()
+	diffHead := func(l *pb.FigureLabel) string {
+		u := l.GetDiffUnit()
+		if u == "percentage points" {
+			pp = true
+		}
+		return " (" + shortUnit(u) + ")"
+	}
+	objHead := labelHead(rb)
+	for _, c := range rec.GetConditions() {
+		if c.GetDecision().GetRankedBy().GetKey() != rb.GetKey() {
+			objHead = "ranked figure"
+		}
+	}
+	diffH := "runner-up − recommended" + diffHead(rb)
+	if objHead != labelHead(rb) {
+		diffH = "runner-up − recommended" // mixed units: each cell carries its own
+	}
+	t := NewTable("condition", "weight", "recommended", "verdict", objHead, diffH,
 		"fixed power", "gain over fixed", "f_D·T")
 	t.AlignRight(1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
 		d := c.GetDecision()
-		verdict := "winner"
-		switch {
-		case d.GetDeclared():
-		case len(d.GetTieSet()) > 1:
-			verdict = fmt.Sprintf("tie of %d", len(d.GetTieSet()))
-		default:
-			verdict = "not separated"
-		}
+		dl := d.GetRankedBy()
 		var best *pb.CandidateResult
 		for _, cr := range c.GetCandidates() {
 			if cr.GetCandidate() == d.GetBest() {
@@ -151,51 +250,91 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			}
 		}
 		diff := "–"
-		if d.GetRunnerUp() >= 0 {
-			diff = Num(scale*d.GetEvidence().GetMean(), dec) + " " + interval(d.GetEvidence(), scale, dec)
+		if d.GetRunnerUp() >= 0 && d.GetEvidence() != nil {
+			diff = labelCell(d.GetEvidence(), dl) + " " + shortUnit(dl.GetDiffUnit())
+			if dl.GetDiffUnit() == "percentage points" {
+				pp = true
+			}
 		}
 		base, gain := "–", "–"
 		if b := c.GetBaseline(); b != nil {
-			gs, gd := 100.0, 3
-			bf := b.GetFigures().GetOutageProbability()
-			if k == pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD {
-				gs, gd, bf = 1, 3, b.GetFigures().GetSirErrorStdDb()
+			bl := b.GetFigure()
+			base = labelCell(b.GetFixed(), bl) + " " + bl.GetUnit()
+			gain = labelCell(b.GetGain(), bl) + " " + shortUnit(bl.GetDiffUnit())
+			if bl.GetDiffUnit() == "percentage points" {
+				pp = true
 			}
-			base = estCell(bf, gs, gd)
-			gain = Num(gs*b.GetGain().GetMean(), gd)
-			if b.GetBarelyHelps() {
+			if b.GetFixedMisses() {
+				gain += " (fixed misses the constraints)"
+			} else if b.GetBarelyHelps() {
 				gain += " (barely helps)"
 			}
 		}
-		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(d.GetSetting()), verdict,
-			estCell(best.GetObjective(), scale, dec), diff, base, gain, Num(c.GetDopplerProductMax(), 4))
+		obj := labelCell(best.GetObjective(), dl)
+		if objHead != labelHead(rb) {
+			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
+		}
+		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(d.GetSetting()), VerdictName(d),
+			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
 	}
 	t.Write(w)
 	fmt.Fprintln(w)
+	figCols := []string{"sir_error_std_db", "outage_probability", "achieved_bler", "tx_power_mean_dbm", "noise_rise_mean_db"}
 	for _, c := range rec.GetConditions() {
-		fmt.Fprintf(w, "Condition %s: %s\n", c.GetName(), Wrap(c.GetDecision().GetReason(), 66, "  "))
-		ct := NewTable("  #", "setting", oname+" ("+unit+")", "diff to best", "SIR err std (dB)", "outage (%)",
-			"BLER (%)", "Tx mean (dBm)", "noise rise (dB)", "n", "status")
-		ct.AlignRight(0, 2, 3, 4, 5, 6, 7, 8, 9)
-		for _, cr := range c.GetCandidates() {
-			f := cr.GetFigures()
-			mark := ""
-			if cr.GetCandidate() == c.GetDecision().GetBest() {
-				mark = "*"
+		d := c.GetDecision()
+		dl := d.GetRankedBy()
+		fmt.Fprintf(w, "Condition %s: %s\n", c.GetName(), VerdictName(d))
+		for _, l := range DecisionLines(d, rec.GetTieRule()) {
+			fmt.Fprintln(w, Wrap(l, 76, "    "))
+		}
+		if b := c.GetBaseline(); b.GetText() != "" {
+			fmt.Fprintln(w, Wrap(b.GetText(), 76, "    "))
+		}
+		h := []string{"  #", "setting", labelHead(dl), "− recommended" + diffHead(dl)}
+		var labels []*pb.FigureLabel
+		for _, k := range figCols {
+			l := FigureLabelOf(rec.GetFigures(), k)
+			if l == nil || k == dl.GetKey() {
+				continue
+			}
+			labels = append(labels, l)
+			h = append(h, labelHead(l))
+		}
+		h = append(h, "n", "status")
+		ct := NewTable(h...)
+		ct.AlignRight(0, 2, 3)
+		for i := range labels {
+			ct.AlignRight(4 + i)
+		}
+		ct.AlignRight(4 + len(labels))
+		for _, cr := range OrderedCandidates(d, c.GetCandidates()) {
+			mark := "  "
+			if cr.GetCandidate() == d.GetBest() {
+				mark = "* "
 			}
 			status := statusNames[cr.GetStatus()]
 			if !cr.GetFeasible() {
-				status += ", infeasible"
+				status += ", misses constraints"
 			}
-			ct.Add(mark+strconv.Itoa(int(cr.GetCandidate())), pointLabel(cands[cr.GetCandidate()]),
-				estCell(cr.GetObjective(), scale, dec), Num(scale*cr.GetDiffToBest().GetMean(), dec),
-				estCell(f.GetSirErrorStdDb(), 1, 3), estCell(f.GetOutageProbability(), 100, 3),
-				estCell(f.GetAchievedBler(), 100, 2), estCell(f.GetTxPowerMeanDbm(), 1, 2),
-				estCell(f.GetNoiseRiseMeanDb(), 1, 2), strconv.Itoa(int(cr.GetObjective().GetN())), status)
+			row := []string{mark + strconv.Itoa(int(cr.GetCandidate())), pointLabel(cands[cr.GetCandidate()]),
+				labelCell(cr.GetObjective(), dl), labelCell(cr.GetDiffToBest(), dl)}
+			if cr.GetCandidate() == d.GetBest() {
+				row[3] = "–"
+			}
+			for _, l := range labels {
+				row = append(row, labelCell(tuneFigure(cr.GetFigures(), l.GetKey()), l))
+			}
+			row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
+			ct.Add(row...)
 		}
 		ct.Write(w)
 		fmt.Fprintln(w)
 	}
+	fmt.Fprintf(w, "* recommended setting; values with their %g %% intervals [low, high]", 100*conf)
+	if pp {
+		fmt.Fprint(w, "; pp = percentage points")
+	}
+	fmt.Fprintln(w)
 	ef := rec.GetEffort()
 	fmt.Fprintf(w, "Effort: %d candidate runs + %d fixed-power runs in %d rounds (at most %d replications of one candidate);\n",
 		ef.GetReplications(), ef.GetBaselineReplications(), ef.GetStages(), ef.GetMaxReplicationsUsed())
@@ -209,6 +348,27 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		fmt.Fprint(w, "; stopped by the budget")
 	}
 	fmt.Fprintln(w)
+}
+
+// objectiveKey is the TuneFigures key of an objective's figure.
+func objectiveKey(k pb.ObjectiveKind) string {
+	switch k {
+	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
+		return "outage_probability"
+	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
+		return "tx_power_mean_dbm"
+	}
+	return "sir_error_std_db"
+}
+
+// tuneFigure returns the figure of fs named by key (a searchFigures key).
+func tuneFigure(fs *pb.TuneFigures, key string) *pb.ReplicationEstimate {
+	for _, f := range searchFigures {
+		if f.Key == key {
+			return f.Get(fs)
+		}
+	}
+	return nil
 }
 
 // searchFigures are the figures of the tune and capacity CSV files.
@@ -266,7 +426,7 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 		}
 	}
 	h = append(h, paths...)
-	h = append(h, "status", "feasible", "best", "objective", "objective_low", "objective_high",
+	h = append(h, "status", "feasible", "best", "verdict", "rank", "objective", "objective_low", "objective_high",
 		"diff_to_best", "diff_low", "diff_high", "n")
 	cw.Write(append(h, searchFigureHeader()...))
 	coords := func(k int32) []string {
@@ -281,29 +441,34 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 		}
 		return out
 	}
-	row := func(scope, cond string, weight float64, cr *pb.CandidateResult, best int32) {
+	// row writes a candidate of a scope; verdict is the scope decision's
+	// (VerdictKey, on every row of the scope) and rank the candidate's
+	// place in the decision's ordering (1 = recommended).
+	row := func(scope, cond string, weight float64, cr *pb.CandidateResult, d *pb.Decision, rank int) {
 		r := []string{scope, cond, CSVNum(weight), strconv.Itoa(int(cr.GetCandidate()))}
 		r = append(r, coords(cr.GetCandidate())...)
 		r = append(r, strings.TrimPrefix(strings.ToLower(cr.GetStatus().String()), "candidate_status_"),
-			strconv.FormatBool(cr.GetFeasible()), strconv.FormatBool(cr.GetCandidate() == best))
+			strconv.FormatBool(cr.GetFeasible()), strconv.FormatBool(cr.GetCandidate() == d.GetBest()),
+			VerdictKey(d), strconv.Itoa(rank))
 		r = append(r, estCells(cr.GetObjective())...)
 		r = append(r, estCells(cr.GetDiffToBest())...)
 		r = append(r, strconv.Itoa(int(cr.GetObjective().GetN())))
 		cw.Write(append(r, searchFigureCells(cr.GetFigures())...))
 	}
 	for _, c := range rec.GetConditions() {
-		for _, cr := range c.GetCandidates() {
-			row("condition", c.GetName(), c.GetWeight(), cr, c.GetDecision().GetBest())
+		d := c.GetDecision()
+		for i, cr := range OrderedCandidates(d, c.GetCandidates()) {
+			row("condition", c.GetName(), c.GetWeight(), cr, d, i+1)
 		}
 		if b := c.GetBaseline(); b != nil {
 			r := []string{"baseline", c.GetName(), CSVNum(c.GetWeight()), ""}
 			r = append(r, coords(-1)...)
-			r = append(r, "", "", "false", "", "", "", "", "", "", strconv.Itoa(int(b.GetFigures().GetSirErrorStdDb().GetN())))
+			r = append(r, "", "", "false", "", "", "", "", "", "", "", "", strconv.Itoa(int(b.GetFigures().GetSirErrorStdDb().GetN())))
 			cw.Write(append(r, searchFigureCells(b.GetFigures())...))
 		}
 	}
-	for _, cr := range rec.GetOverallCandidates() {
-		row("overall", "", 1, cr, rec.GetOverall().GetBest())
+	for i, cr := range OrderedCandidates(rec.GetOverall(), rec.GetOverallCandidates()) {
+		row("overall", "", 1, cr, rec.GetOverall(), i+1)
 	}
 	cw.Flush()
 	return cw.Error()

@@ -11,6 +11,7 @@ import (
 
 	"google.golang.org/protobuf/encoding/protojson"
 
+	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -311,7 +312,11 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		d.Verdict = verdict{Class: "bad", Headline: "Infeasible load: the users cannot all reach their SIR target."}
 		d.Verdict.Lines = append(d.Verdict.Lines, f.GetReason())
 		if lf := f.GetLoadFactor(); lf > 0 {
-			d.Verdict.Lines = append(d.Verdict.Lines, "load factor "+num(lf, 3)+", spectral radius "+num(f.GetSpectralRadius(), 3))
+			l := "load factor " + num(lf, 3)
+			if sr := f.GetSpectralRadius(); sr > 0 {
+				l += ", spectral radius " + num(sr, 3)
+			}
+			d.Verdict.Lines = append(d.Verdict.Lines, l+" (infeasible at 1 or more)")
 		}
 	} else {
 		out := agg.GetOutageProbability()
@@ -336,6 +341,17 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		d.Verdict.Lines = append(d.Verdict.Lines, line+".",
 			fmt.Sprintf("Mean Tx power %s dBm, time at maximum power %s %%, mean noise rise %s dB.",
 				estimate(agg.GetTxPowerMeanDbm(), 1, 2), estimate(agg.GetMaxPowerFraction(), 100, 2), estimate(agg.GetNoiseRiseMeanDb(), 1, 2)))
+	}
+	if f.GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+		// Infeasible before the run: nothing simulated, so no figures,
+		// tables or plots (they would be all zeros).
+		d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d users: not simulated, no figures.", agg.GetUsers()))
+		d.Repro = [][2]string{
+			{"seed", strconv.FormatUint(rep.GetSeed(), 10)},
+			{"engine version", orMissing(rep.GetEngineVersion())},
+			{"user-slots simulated", "0"},
+		}
+		return nil
 	}
 	d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d users, %s slots × %d replication(s) after %s warm-up slots.",
 		agg.GetUsers(), thousands(rep.GetSlots()), rep.GetReplications(), thousands(sc.GetRun().GetWarmupSlots())))
@@ -587,6 +603,20 @@ func decisionText(dc *pb.Decision) (string, string) {
 	return "not separated from the runner-up at this budget", "warn"
 }
 
+// verdictClass is the colour class of a decision's verdict.
+func verdictClass(dc *pb.Decision) string {
+	switch dc.GetVerdict() {
+	case pb.Verdict_VERDICT_CONSTRAINTS_UNMET:
+		return "bad"
+	case pb.Verdict_VERDICT_TIE:
+		return "warn"
+	}
+	if len(dc.GetWarnings()) > 0 {
+		return "warn"
+	}
+	return "ok"
+}
+
 func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine string) error {
 	k := rec.GetObjective().GetKind()
 	scale, dec, unit, oname := objectiveUnit(k)
@@ -595,6 +625,14 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 	ov := rec.GetOverall()
 	state, class := decisionText(ov)
 	d.Verdict = verdict{Class: class, Headline: "Use " + pointLabel(ov.GetSetting()) + " (" + state + ")"}
+	if ov.GetVerdict() != pb.Verdict_VERDICT_UNSPECIFIED {
+		// The API's own verdict and lines (helper V's Decision fields),
+		// in the CLI's order: headline, misses, runner-up, warnings, tie
+		// rule; nothing composed here.
+		lines := clirender.DecisionLines(ov, rec.GetTieRule())
+		d.Verdict = verdict{Class: verdictClass(ov), Headline: "Verdict: " + clirender.VerdictName(ov)}
+		d.Verdict.Lines = append(d.Verdict.Lines, lines...)
+	}
 	if len(rec.GetConditions()) > 1 {
 		var ws []string
 		for _, c := range rec.GetConditions() {
@@ -602,33 +640,38 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 		}
 		d.Verdict.Lines = append(d.Verdict.Lines, "Weighted over "+strings.Join(ws, ", ")+".")
 	}
-	if ru := ov.GetRunnerUp(); ru >= 0 && int(ru) < len(cands) {
-		ev := ov.GetEvidence()
-		d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Runner-up %s: %s %s worse on %s, %g %% interval [%s, %s], %d paired replications.",
-			pointLabel(cands[ru]), num(scale*ev.GetMean(), dec), unit, oname, 100*conf,
-			num(scale*ev.GetLow(), dec), num(scale*ev.GetHigh(), dec), ev.GetN()))
-	} else {
-		d.Verdict.Lines = append(d.Verdict.Lines, "No runner-up (one candidate).")
-	}
-	if ts := ov.GetTieSet(); len(ts) > 1 {
-		var names []string
-		for _, i := range ts {
-			if int(i) < len(cands) {
-				names = append(names, pointLabel(cands[i]))
-			}
+	if ov.GetVerdict() == pb.Verdict_VERDICT_UNSPECIFIED {
+		if ru := ov.GetRunnerUp(); ru >= 0 && int(ru) < len(cands) {
+			ev := ov.GetEvidence()
+			d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Runner-up %s: %s %s worse on %s, %g %% interval [%s, %s], %d paired replications.",
+				pointLabel(cands[ru]), num(scale*ev.GetMean(), dec), unit, oname, 100*conf,
+				num(scale*ev.GetLow(), dec), num(scale*ev.GetHigh(), dec), ev.GetN()))
+		} else {
+			d.Verdict.Lines = append(d.Verdict.Lines, "No runner-up (one candidate).")
 		}
-		d.Verdict.Lines = append(d.Verdict.Lines, "Tie set: "+strings.Join(names, "; ")+". Tie rule: "+rec.GetTieRule())
-	}
-	if r := ov.GetReason(); r != "" {
-		d.Verdict.Lines = append(d.Verdict.Lines, "Why: "+r)
+		if ts := ov.GetTieSet(); len(ts) > 1 {
+			var names []string
+			for _, i := range ts {
+				if int(i) < len(cands) {
+					names = append(names, pointLabel(cands[i]))
+				}
+			}
+			d.Verdict.Lines = append(d.Verdict.Lines, "Tie set: "+strings.Join(names, "; ")+". Tie rule: "+rec.GetTieRule())
+		}
+		if r := ov.GetReason(); r != "" {
+			d.Verdict.Lines = append(d.Verdict.Lines, "Why: "+r)
+		}
 	}
 
 	ct := table{Caption: fmt.Sprintf("Per condition: the best setting, its %s, the paired difference to the runner-up and the fixed-power baseline (%g %% intervals).", oname, 100*conf),
-		Head: []string{"condition", "weight", "best setting", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
+		Head: []string{"condition", "weight", "recommended", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
 	ct.Num = numCols(len(ct.Head), 1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
 		dc := c.GetDecision()
 		v, _ := decisionText(dc)
+		if dc.GetVerdict() != pb.Verdict_VERDICT_UNSPECIFIED {
+			v = clirender.VerdictName(dc)
+		}
 		var best *pb.CandidateResult
 		for _, cr := range c.GetCandidates() {
 			if cr.GetCandidate() == dc.GetBest() {
@@ -648,6 +691,18 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 			}
 			base = repEstimate(bf, gs, gd)
 			gain = num(gs*b.GetGain().GetMean(), gd)
+			if bl := b.GetFigure(); bl != nil {
+				// The baseline in the judged figure's own units (API label).
+				sc := bl.GetDisplayScale()
+				if sc == 0 {
+					sc = 1
+				}
+				base = repEstimate(b.GetFixed(), sc, int(bl.GetDecimals())) + " " + bl.GetUnit()
+				gain = repEstimate(b.GetGain(), sc, int(bl.GetDecimals())) + " " + bl.GetDiffUnit()
+				if b.GetFixedMisses() {
+					gain += " (fixed power misses the constraints)"
+				}
+			}
 			if b.GetBarelyHelps() {
 				gain += " (barely helps)"
 			}
@@ -665,10 +720,10 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 
 	cs := section{ID: "candidates", Heading: "Candidates"}
 	if oc := rec.GetOverallCandidates(); len(oc) > 0 && len(rec.GetConditions()) > 1 {
-		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", oc, cands, ov.GetBest(), k, true))
+		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), cands, ov.GetBest(), k, true))
 	}
 	for _, c := range rec.GetConditions() {
-		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its best setting is marked.", c.GetCandidates(), cands, c.GetDecision().GetBest(), k, false))
+		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), cands, c.GetDecision().GetBest(), k, false))
 	}
 	d.Sections = append(d.Sections, cs)
 

@@ -11,6 +11,7 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
+	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -357,64 +358,17 @@ func sortedStepLine(l plots.StepLine) plots.StepLine {
 // two axes), or outage and SIR error std against step size per condition
 // (when the step size is the only axis).
 func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
-	cands := rec.GetCandidates()
-	paths := map[string]int{}
-	if len(cands) > 0 {
-		for _, c := range cands[0].GetCoords() {
-			paths[c.GetPath()]++
-		}
-	}
-	coord := func(k int32, path string) float64 {
-		if k < 0 || int(k) >= len(cands) {
-			return math.NaN()
-		}
-		for _, c := range cands[k].GetCoords() {
-			if c.GetPath() == path {
-				return c.GetValue()
-			}
-		}
-		return math.NaN()
-	}
 	var out []figure
-	switch {
-	case len(paths) == 2 && paths[stepPath] == 1 && paths[ratePath] == 1:
-		scale, _, unit, name := objectiveUnit(rec.GetObjective().GetKind())
-		g := plots.ObjectiveGrid{Objective: name + " (" + unit + ")", LowerIsBetter: true}
-		if len(rec.GetConditions()) > 1 {
-			g.Objective = "weighted " + g.Objective
-		}
-		for i := range cands {
-			g.StepDB = append(g.StepDB, coord(int32(i), stepPath))
-			g.UpdateRateHz = append(g.UpdateRateHz, coord(int32(i), ratePath))
-		}
-		slices.Sort(g.StepDB)
-		slices.Sort(g.UpdateRateHz)
-		g.StepDB, g.UpdateRateHz = slices.Compact(g.StepDB), slices.Compact(g.UpdateRateHz)
-		g.Value = nanGrid(len(g.UpdateRateHz), len(g.StepDB))
-		for _, cr := range rec.GetOverallCandidates() {
-			col := slices.Index(g.StepDB, coord(cr.GetCandidate(), stepPath))
-			row := slices.Index(g.UpdateRateHz, coord(cr.GetCandidate(), ratePath))
-			if col >= 0 && row >= 0 {
-				g.Value[row][col] = scale * cr.GetObjective().GetMean()
-			}
-		}
+	// The conversion lives in client/render (one home for the CLI's --plot
+	// and this report); the recommended candidate is the marked one.
+	if g, ok := clirender.TuneObjectiveGrid(rec); ok {
 		fig, err := plots.HeatMap(titled(g.Objective+" over step × update rate", title), g)
-		if err := addFigure(&out, "The objective of every candidate over step size and update rate; the best cell is outlined.", fig, err); err != nil {
+		if err := addFigure(&out, "The ranked figure of every candidate over step size and update rate; the recommended setting is outlined.", fig, err); err != nil {
 			return nil, err
 		}
-	case len(paths) == 1 && paths[stepPath] == 1:
-		var ls []plots.StepLine
-		for _, c := range rec.GetConditions() {
-			l := plots.StepLine{Label: c.GetName()}
-			for _, cr := range c.GetCandidates() {
-				f := cr.GetFigures()
-				o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-				appendStep(&l, coord(cr.GetCandidate(), stepPath), 100*o.GetMean(), 100*o.GetLow(), 100*o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
-			}
-			ls = append(ls, sortedStepLine(l))
-		}
+	} else if ls, ok := clirender.TuneStepLines(rec); ok {
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size per condition", title), ls)
-		if err := addFigure(&out, "Outage and SIR error standard deviation of every candidate per condition, with their intervals.", fig, err); err != nil {
+		if err := addFigure(&out, "Outage and SIR error standard deviation of every candidate per condition, with their intervals; the recommended setting of each condition is ringed.", fig, err); err != nil {
 			return nil, err
 		}
 	}

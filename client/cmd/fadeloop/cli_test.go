@@ -187,7 +187,7 @@ func TestRunDefault(t *testing.T) {
 	}
 	r := ok(t, args...)
 	for _, want := range []string{"suburban macro cell", "figure", "SIR error std (dB)", "outage (%)",
-		"Tx power mean (dBm)", "per distance bin", "95 % CI"} {
+		"Tx power mean (dBm)", "per distance bin", "95 % interval"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("table lacks %q:\n%s", want, r.stdout)
 		}

@@ -8,6 +8,7 @@ import (
 	"math/bits"
 
 	"github.com/fadeloop/fadeloop/client/render"
+	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -63,8 +64,12 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	reps := fs.Int("replications", 0, "replications `N` per evaluated count (0: 4)")
 	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
+	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
 		req := &pb.CapacityRequest{}
@@ -130,6 +135,9 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
 			func(w io.Writer) { render.CapacityTable(w, req, res) })
 		if err != nil {
+			return err
+		}
+		if err := writeResultReport(e, *reportFile, htmlreport.Input{Capacity: res, CapacityRequest: req, Source: "fadeloop capacity"}); err != nil {
 			return err
 		}
 		if res.GetBelowRange() {

@@ -14,6 +14,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
+	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -33,7 +34,8 @@ func init() {
 "fadeloop example" for it with comments) and prints the aggregate figures,
 the figures per distance bin and, with --per-user, per user. Every figure
 carries its 95 % confidence interval (batch means over time and
-replications), shown as ±half-width in tables.
+replications), shown as [low, high] in tables (intervals of proportions and spreads
+are asymmetric). With --report FILE.html the HTML report is written too.
 
 Output formats:
   table  aligned tables for people
@@ -152,8 +154,12 @@ func runRun(e *env, fs *flag.FlagSet) action {
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds traces, cdf, distance; multi-cell: map (users by outage), map-power); repeatable")
 	traceUsers := fs.String("trace-users", "", "comma-separated user `INDICES` to trace (default: nearest, median, farthest)")
 	tracePoints := fs.Int("trace-points", 1500, "about `N` samples per traced user")
+	reportFile := fs.String("report", "", "also write the HTML report (figures, plots, scenario) to `FILE.html`")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
 		if err := plotSpecs.check("traces", "traces", "cdf", "distance", "map", "map-power"); err != nil {
@@ -186,12 +192,12 @@ func runRun(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		defer release()
-		if plotSpecs.needs("traces", "cdf") {
+		if plotSpecs.needs("traces", "cdf") || *reportFile != "" {
 			info, err := cl.ServerInfo(ctx)
 			if err != nil {
 				return err
 			}
-			req.Traces = traceRequest(sc, info.GetLimits().GetMaxTracedUsers(), *tracePoints, users, plotSpecs.onlyTraces())
+			req.Traces = traceRequest(sc, info.GetLimits().GetMaxTracedUsers(), *tracePoints, users, plotSpecs.onlyTraces() && *reportFile == "")
 		}
 		prog := e.newProgress("user-slots/s")
 		rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
@@ -212,7 +218,7 @@ func runRun(e *env, fs *flag.FlagSet) action {
 				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
 			}
 		}
-		return nil
+		return writeResultReport(e, *reportFile, htmlreport.Input{Run: rep, Source: "fadeloop run"})
 	}
 }
 

@@ -41,7 +41,7 @@ axes (path, values or first, last, count, log), point_indices, seed_mode, detail
 (used when no scenario file is given).
 
 Output formats:
-  table  one row per point: index, axis values, main figures (±95 % CI)
+  table  one row per point: index, axis values, main figures with their 95 % CI [low, high]
   csv    columns index, seed, one column per axis (named by its path), feasible
          (true|false), users, user_slots, then for every figure F its value F,
          F_ci_low and F_ci_high (same figures and units as "run --format csv")

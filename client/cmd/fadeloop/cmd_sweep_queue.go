@@ -1,13 +1,11 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"errors"
 	"flag"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -297,34 +295,5 @@ func queuedPoints(rows []jobs.Result) []*pb.SweepPoint {
 
 // writeSweepReport writes the HTML report of a sweep (direct or queued).
 func writeSweepReport(path string, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
-	var b bytes.Buffer
-	err := htmlreport.Write(&b, htmlreport.Input{Sweep: &htmlreport.Sweep{Base: req.GetBase(), Axes: req.GetAxes(), Points: pts, Summary: sum}})
-	if err == nil {
-		err = writeFileAtomic(path, b.Bytes())
-	}
-	if err != nil {
-		return fmt.Errorf("report %s: %w", path, err)
-	}
-	return nil
-}
-
-// writeFileAtomic writes data to path through a temporary file renamed over
-// it, so the file is never left half written.
-func writeFileAtomic(path string, data []byte) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), ".report-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), path)
+	return writeReportFile(path, htmlreport.Input{Sweep: &htmlreport.Sweep{Base: req.GetBase(), Axes: req.GetAxes(), Points: pts, Summary: sum}})
 }

@@ -11,6 +11,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
+	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -40,13 +41,18 @@ fadeloop.v1.TuneRequest; flags add to it and override its objective,
 confidence and budget.
 
 Output formats:
-  table  the best setting overall and per condition, the runner-up with the
-         paired difference and its interval, the reason, the fixed-power
-         baseline, every candidate's figures, the effort
+  table  the verdict (winner, tie of N, constraints unmet, single setting)
+         and the API's lines: headline (an unmet constraint first, with
+         the closest setting's misses), runner-up, warnings, tie rule;
+         per condition the recommended setting first, then the rest in the
+         decision's ordering, values as "value [low, high]", the
+         fixed-power baseline, the effort
   csv    one row per condition × candidate, per condition baseline and per
          overall candidate: scope (condition|baseline|overall), condition,
          weight, candidate, one column per axis (named by its path), status,
-         feasible, best (true|false), objective, objective_low,
+         feasible, best (true|false), verdict (winner|tie|
+         constraints_unmet|single, of the row's scope), rank (1 =
+         recommended; rows in this order), objective, objective_low,
          objective_high, diff_to_best, diff_low, diff_high, n, then for every
          figure F of sir_error_mean_db, sir_error_std_db, outage_probability,
          achieved_bler, tx_power_mean_dbm, max_power_fraction,
@@ -55,14 +61,16 @@ Output formats:
   json   the fadeloop.v1 Recommendation in protojson with proto field names
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
-  heatmap  the overall objective over inner_loop.step_db × update_rate_hz
+  heatmap  the overall ranked figure over inner_loop.step_db × update_rate_hz,
+           the recommended setting outlined
   steps    outage and SIR error std against inner_loop.step_db, one line per
-           condition (step the only axis)
+           condition (step the only axis), each recommended step ringed
   auto     heatmap for step × rate, steps for step alone
 
-Exit status 4 (after the output is written) when no candidate meets the
-objective's constraints (the Tx-power objective's outage limit): the
-candidates were then ranked by outage instead.
+Exit status 4 (after the output is written) when the verdict, overall or
+of any condition, is "constraints unmet": no candidate meets the
+objective's constraints (outage limit, noise-rise limit, BLER band); the
+candidates were then ranked by their worst relative constraint excess.
 
 Examples:
   fadeloop tune --axis inner_loop.step_db=0.25,0.5,1,2 --speeds 3,30,120
@@ -106,8 +114,12 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
+	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
+			return err
+		}
+		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
 		if err := plotSpecs.check("auto", "auto", "heatmap", "steps"); err != nil {
@@ -212,19 +224,32 @@ func runTune(e *env, fs *flag.FlagSet) action {
 				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
 			}
 		}
+		if err := writeResultReport(e, *reportFile, htmlreport.Input{Tune: rec, TuneRequest: req, Source: "fadeloop tune"}); err != nil {
+			return err
+		}
 		return tuneConstraints(rec)
 	}
 }
 
 // tuneConstraints is constraintsUnmet (exit 4) when the overall verdict or
-// a condition's found no candidate meeting the objective's constraints.
+// a condition's is VERDICT_CONSTRAINTS_UNMET: no candidate meets the
+// objective's constraints. The message is the decision's own headline.
 func tuneConstraints(rec *pb.Recommendation) error {
-	if d := rec.GetOverall(); d.GetConstraintsUnmet() {
-		return constraintsUnmet{reason: d.GetReason()}
+	unmet := func(d *pb.Decision) bool {
+		return d.GetVerdict() == pb.Verdict_VERDICT_CONSTRAINTS_UNMET || d.GetConstraintsUnmet()
+	}
+	text := func(d *pb.Decision) string {
+		if h := d.GetHeadline(); h != "" {
+			return h
+		}
+		return d.GetReason()
+	}
+	if d := rec.GetOverall(); unmet(d) {
+		return constraintsUnmet{reason: text(d)}
 	}
 	for _, c := range rec.GetConditions() {
-		if d := c.GetDecision(); d.GetConstraintsUnmet() {
-			return constraintsUnmet{reason: "condition " + c.GetName() + ": " + d.GetReason()}
+		if d := c.GetDecision(); unmet(d) {
+			return constraintsUnmet{reason: "condition " + c.GetName() + ": " + text(d)}
 		}
 	}
 	return nil

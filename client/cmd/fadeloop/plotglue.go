@@ -3,13 +3,17 @@ package main
 import (
 	"fmt"
 	"math"
+	"os"
+	"path/filepath"
 	"slices"
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/fadeloop/fadeloop/client/plots"
 	"github.com/fadeloop/fadeloop/client/render"
+	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -325,4 +329,57 @@ func sortStepLine(l *plots.StepLine) {
 	}
 	l.StepDB, l.OutagePct, l.OutageLowPct, l.OutageHighPct = perm(l.StepDB), perm(l.OutagePct), perm(l.OutageLowPct), perm(l.OutageHighPct)
 	l.ErrorStdDB, l.ErrorStdLowDB, l.ErrorStdHighDB = perm(l.ErrorStdDB), perm(l.ErrorStdLowDB), perm(l.ErrorStdHighDB)
+}
+
+// checkReportPath rejects, before any work, a --report FILE that is not
+// an .html file.
+func checkReportPath(path string) error {
+	if path == "" {
+		return nil
+	}
+	if !strings.EqualFold(filepath.Ext(path), ".html") && !strings.EqualFold(filepath.Ext(path), ".htm") {
+		return badInputf("--report %s: the report is an HTML page; name it FILE.html", path)
+	}
+	return nil
+}
+
+// writeResultReport writes the HTML report of a result (client/report) to
+// path (see writeReportFile) and says so unless --quiet.
+func writeResultReport(e *env, path string, in htmlreport.Input) error {
+	if path == "" {
+		return nil
+	}
+	if err := writeReportFile(path, in); err != nil {
+		return err
+	}
+	if !e.g.quiet {
+		fmt.Fprintf(e.stderr, "wrote report to %s\n", path)
+	}
+	return nil
+}
+
+// writeReportFile writes the HTML report into a temporary file beside path,
+// renamed into place when complete, so a failed write never leaves half a
+// page. It is the one writer of --report for every command.
+func writeReportFile(path string, in htmlreport.Input) error {
+	in.Created = time.Now()
+	tmp, err := os.CreateTemp(filepath.Dir(path), ".fadeloop-report-*.html")
+	if err != nil {
+		return fmt.Errorf("--report %s: %w", path, err)
+	}
+	defer os.Remove(tmp.Name())
+	if err := htmlreport.Write(tmp, in); err != nil {
+		tmp.Close()
+		return fmt.Errorf("--report %s: %w", path, err)
+	}
+	if err := tmp.Close(); err != nil {
+		return fmt.Errorf("--report %s: %w", path, err)
+	}
+	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
+		return fmt.Errorf("--report %s: %w", path, err)
+	}
+	if err := os.Rename(tmp.Name(), path); err != nil {
+		return fmt.Errorf("--report %s: %w", path, err)
+	}
+	return nil
 }

@@ -41,12 +41,13 @@ func stripEffortTiming(t *testing.T, s string) string {
 
 func TestTuneCommand(t *testing.T) {
 	r := ok(t, tuneArgs...)
-	for _, want := range []string{"Best overall:", "Runner-up:", "Why:", "Tie rule:", "3 km/h", "60 km/h",
-		"fixed power", "Condition 3 km/h:", "Effort:", "equal allocation"} {
+	for _, want := range []string{"Verdict: ", "Runner-up:", "3 km/h", "60 km/h",
+		"fixed power", "Condition 3 km/h:", "Effort:", "equal allocation", "[low, high]"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("tune table lacks %q:\n%s", want, r.stdout)
 		}
 	}
+	table := r.stdout
 
 	r = ok(t, append(tuneArgs, "--format", "csv")...)
 	rows, err := csv.NewReader(strings.NewReader(r.stdout)).ReadAll()
@@ -77,6 +78,22 @@ func TestTuneCommand(t *testing.T) {
 	}
 	if len(rec.GetCandidates()) != 2 || len(rec.GetConditions()) != 2 || rec.GetOverall().GetSetting() == nil {
 		t.Errorf("recommendation: %d candidates, %d conditions", len(rec.GetCandidates()), len(rec.GetConditions()))
+	}
+	// The table prints the API's own sentences (whitespace aside: the table
+	// wraps them) and never a "winner" the verdict does not state.
+	flat := strings.Join(strings.Fields(table), " ")
+	ov := rec.GetOverall()
+	lines := []string{ov.GetHeadline(), ov.GetRunnerUpLine()}
+	for _, w := range ov.GetWarnings() {
+		lines = append(lines, w.GetText())
+	}
+	for _, l := range lines {
+		if l == "" || !strings.Contains(flat, strings.Join(strings.Fields(l), " ")) {
+			t.Errorf("tune table lacks the API's line %q:\n%s", l, table)
+		}
+	}
+	if ov.GetVerdict() != pb.Verdict_VERDICT_WINNER && strings.Contains(strings.ToLower(table), "winner") {
+		t.Errorf("verdict %v but the table says winner:\n%s", ov.GetVerdict(), table)
 	}
 	addr := startServe(t)
 	b := ok(t, append([]string{"--server", addr}, append(tuneArgs, "--format", "json")...)...)
@@ -116,7 +133,7 @@ func TestCapacityCommand(t *testing.T) {
 	args := []string{"capacity", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
 		"--outage-limit", "0.05", "--max-count", "32", "--replications", "2"}
 	r := ok(t, args...)
-	for _, want := range []string{"Capacity of group 0", "Pole capacity (Gilhousen et al. 1991)", "count", "pass", "Effort:"} {
+	for _, want := range []string{"Capacity", "Group 0", "Pole capacity (Gilhousen et al. 1991)", "count", "pass", "Effort:"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("capacity table lacks %q:\n%s", want, r.stdout)
 		}
@@ -244,5 +261,83 @@ func TestTuneConstraints(t *testing.T) {
 		if got := errors.As(err, &cu); got != c.want || report(io.Discard, "tune", err) != map[bool]int{true: exitConstraintsUnmet, false: exitOK}[c.want] {
 			t.Errorf("%v: %v, want unmet %v", c.rec, err, c.want)
 		}
+	}
+}
+
+// TestTuneConstraintsFollowsTheVerdict: exit status 4 follows the verdict
+// field of the overall decision or of any condition, and its message is
+// the decision's headline.
+func TestTuneConstraintsFollowsTheVerdict(t *testing.T) {
+	unmet := &pb.Decision{Verdict: pb.Verdict_VERDICT_CONSTRAINTS_UNMET, Headline: "Constraints unmet: closest step_db=1."}
+	win := &pb.Decision{Verdict: pb.Verdict_VERDICT_WINNER, Headline: "Winner: step_db=1."}
+	tests := []struct {
+		name string
+		rec  *pb.Recommendation
+		want string // "" for no error
+	}{
+		{"winner", &pb.Recommendation{Overall: win, Conditions: []*pb.ConditionResult{{Name: "a", Decision: win}}}, ""},
+		{"overall unmet", &pb.Recommendation{Overall: unmet}, "Constraints unmet: closest step_db=1."},
+		{"one condition unmet", &pb.Recommendation{Overall: win, Conditions: []*pb.ConditionResult{{Name: "a", Decision: win}, {Name: "b", Decision: unmet}}},
+			"condition b: Constraints unmet"},
+		{"tie", &pb.Recommendation{Overall: &pb.Decision{Verdict: pb.Verdict_VERDICT_TIE, TieSet: []int32{0, 1}}}, ""},
+	}
+	for _, tc := range tests {
+		err := tuneConstraints(tc.rec)
+		var cu constraintsUnmet
+		switch {
+		case tc.want == "" && err != nil:
+			t.Errorf("%s: %v, want no error", tc.name, err)
+		case tc.want != "" && (!errors.As(err, &cu) || !strings.Contains(err.Error(), tc.want)):
+			t.Errorf("%s: %v, want constraintsUnmet with %q", tc.name, err, tc.want)
+		case tc.want != "" && report(io.Discard, "tune", err) != exitConstraintsUnmet:
+			t.Errorf("%s: exit status not 4", tc.name)
+		}
+	}
+}
+
+// TestReportFlag: --report FILE.html on run, tune and capacity writes the
+// HTML report of the same result the command printed (the tune page
+// carries the API's headline); a name without .html is bad input (exit 2)
+// before any work.
+func TestReportFlag(t *testing.T) {
+	dir := t.TempDir()
+	cases := []struct {
+		args []string
+		want string // in the page
+	}{
+		{[]string{"run", "testdata/scenarios/small.json", "--slots", "600", "--quiet"}, "Figures"},
+		{append(append([]string{}, tuneArgs...), "--format", "json"), "Verdict: "},
+		{[]string{"capacity", "testdata/scenarios/small.json", "--slots", "600", "--quiet",
+			"--outage-limit", "0.05", "--max-count", "8", "--replications", "2"}, "Capacity"},
+	}
+	for _, c := range cases {
+		page := filepath.Join(dir, c.args[0]+".html")
+		r := ok(t, append(c.args, "--report", page)...)
+		b, err := os.ReadFile(page)
+		if err != nil {
+			t.Fatalf("%s --report: %v", c.args[0], err)
+		}
+		html := string(b)
+		if !strings.HasPrefix(strings.TrimSpace(html), "<!DOCTYPE html>") || !strings.Contains(html, c.want) {
+			t.Errorf("%s report lacks %q (%d bytes)", c.args[0], c.want, len(html))
+		}
+		if c.args[0] == "tune" {
+			rec := &pb.Recommendation{}
+			if err := protojson.Unmarshal([]byte(r.stdout), rec); err != nil {
+				t.Fatal(err)
+			}
+			// html/template escapes some characters; compare a plain prefix.
+			h := rec.GetOverall().GetHeadline()
+			if len(h) > 20 {
+				h = h[:20]
+			}
+			if h == "" || !strings.Contains(html, h) {
+				t.Errorf("tune report lacks the API's headline %q", h)
+			}
+		}
+	}
+	r := fl(t, "run", "--slots", "600", "--report", filepath.Join(dir, "page.txt"))
+	if r.code != 2 || !strings.Contains(r.stderr, "FILE.html") {
+		t.Errorf("--report page.txt: exit %d, %s", r.code, r.stderr)
 	}
 }
