@@ -37,8 +37,8 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	}
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
-		for _, c := range p.GetCoordinates() {
-			row = append(row, strconv.FormatFloat(c, 'g', 6, 64))
+		for i, c := range p.GetCoordinates() {
+			row = append(row, coordinateText(p, i, c, func(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }))
 		}
 		for _, k := range sweepTableFigures {
 			f, _ := FigureByKey(k)
@@ -70,8 +70,8 @@ func SweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint) error {
 	for _, p := range pts {
 		agg := p.GetReport().GetAggregate()
 		row := []string{strconv.FormatInt(p.GetIndex(), 10), strconv.FormatUint(p.GetSeed(), 10)}
-		for _, c := range p.GetCoordinates() {
-			row = append(row, CSVNum(c))
+		for i, c := range p.GetCoordinates() {
+			row = append(row, coordinateText(p, i, c, CSVNum))
 		}
 		row = append(row, strconv.FormatBool(!p.GetReport().GetFeasibility().GetInfeasible()),
 			strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
@@ -120,4 +120,13 @@ func SweepJSON(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint, sum *pb.
 	}
 	_, err = w.Write(b)
 	return err
+}
+
+// coordinateText is point p's value on axis i: the name on a names axis
+// (e.g. COMMAND_ADAPTIVE), else the number c formatted by num.
+func coordinateText(p *pb.SweepPoint, i int, c float64, num func(float64) string) string {
+	if names := p.GetCoordinateNames(); i < len(names) && names[i] != "" {
+		return names[i]
+	}
+	return num(c)
 }
