@@ -393,6 +393,15 @@ type ObjectiveGrid struct {
 	Marked           bool
 	MarkRow, MarkCol int
 	MarkLabel        string
+	// Infeasible[r][c] marks a cell whose load the scenario's interference
+	// equation cannot carry: it is drawn grey with the word "infeasible"
+	// instead of a number and is never the best cell (nil: none).
+	Infeasible [][]bool
+}
+
+// infeasible reports whether cell (r, c) is marked infeasible.
+func (g ObjectiveGrid) infeasible(r, c int) bool {
+	return r < len(g.Infeasible) && c < len(g.Infeasible[r]) && g.Infeasible[r][c]
 }
 
 // HeatMap draws the objective over the step × update-rate grid, each cell
@@ -410,7 +419,7 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 			return nil, fmt.Errorf("heat map row %d has %d values, want %d", r, len(g.Value[r]), nc)
 		}
 		for c, v := range g.Value[r] {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
+			if math.IsNaN(v) || math.IsInf(v, 0) || g.infeasible(r, c) {
 				continue
 			}
 			lo, hi = math.Min(lo, v), math.Max(hi, v)
@@ -421,7 +430,10 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 		}
 	}
 	if bestR < 0 {
-		return nil, ErrNoData
+		if len(g.Infeasible) == 0 {
+			return nil, ErrNoData
+		}
+		lo, hi = 0, 1 // every cell infeasible: grey cells, no best cell
 	}
 	if hi == lo {
 		hi = lo + 1
@@ -433,7 +445,19 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 	cmap.SetMin(lo)
 	cmap.SetMax(hi)
 	const ncolors = 64
-	hm := plotter.NewHeatMap(gridXYZ{g}, cmap.Palette(ncolors))
+	shown := g
+	if len(g.Infeasible) > 0 {
+		shown.Value = make([][]float64, nr)
+		for r := range g.Value {
+			shown.Value[r] = slices.Clone(g.Value[r])
+			for c := range shown.Value[r] {
+				if g.infeasible(r, c) {
+					shown.Value[r][c] = math.NaN()
+				}
+			}
+		}
+	}
+	hm := plotter.NewHeatMap(gridXYZ{shown}, cmap.Palette(ncolors))
 	hm.Min, hm.Max = lo, hi
 	hm.NaN = color.Gray{Y: 235}
 
@@ -443,7 +467,10 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 	for r := range g.Value {
 		for c, v := range g.Value[r] {
 			s := "—"
-			if !math.IsNaN(v) {
+			switch {
+			case g.infeasible(r, c):
+				s = "infeasible"
+			case !math.IsNaN(v):
 				s = cellText(v)
 			}
 			labels.XYs = append(labels.XYs, plotter.XY{X: float64(c), Y: float64(r)})
@@ -469,8 +496,10 @@ func HeatMap(title string, g ObjectiveGrid) (*Figure, error) {
 			markLabel = "marked"
 		}
 	}
-	p.Add(cellOutline{c: float64(bestC), r: float64(bestR)})
-	p.legend(markLabel, cellOutline{})
+	if bestR >= 0 {
+		p.Add(cellOutline{c: float64(bestC), r: float64(bestR)})
+		p.legend(markLabel, cellOutline{})
+	}
 	p.X.Tick.Marker = indexTicks(g.StepDB)
 	p.Y.Tick.Marker = indexTicks(g.UpdateRateHz)
 	p.X.Min, p.X.Max = -0.5, float64(nc)-0.5

@@ -26,7 +26,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	if sc.GetName() != "" {
 		fmt.Fprintln(w, sc.GetName())
 	}
-	if f := rep.GetFeasibility(); f.GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+	if f := rep.GetFeasibility(); notSimulated(rep) {
 		// Judged infeasible before the run: nothing was simulated, so
 		// there are no figures to show (a table would be all zeros).
 		fmt.Fprintf(w, "%d users, seed %d, engine %s: not simulated\n\n", agg.GetUsers(), rep.GetSeed(), rep.GetEngineVersion())
@@ -109,7 +109,7 @@ func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	cw.Write(RunCSVHeader())
 	agg := rep.GetAggregate()
 	cells := figureCSVCells(agg)
-	if rep.GetFeasibility().GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
+	if notSimulated(rep) {
 		// Infeasible before the run: no figures, empty cells (not zeros).
 		for i := range cells {
 			cells[i] = ""

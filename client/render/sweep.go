@@ -40,8 +40,13 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		for i, c := range p.GetCoordinates() {
 			row = append(row, coordinateText(p, i, c, func(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }))
 		}
+		unsimulated := notSimulated(p.GetReport())
 		for _, k := range sweepTableFigures {
 			f, _ := FigureByKey(k)
+			if unsimulated {
+				row = append(row, "—") // infeasible load: not run, no figure
+				continue
+			}
 			row = append(row, cell(f, f.Get(p.GetReport().GetAggregate())))
 		}
 		load := "ok"
@@ -75,6 +80,10 @@ func SweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint) error {
 		}
 		row = append(row, strconv.FormatBool(!p.GetReport().GetFeasibility().GetInfeasible()),
 			strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
+		if notSimulated(p.GetReport()) {
+			cw.Write(append(row, make([]string, len(figureCSVHeader()))...)) // infeasible load: empty cells, not zeros
+			continue
+		}
 		cw.Write(append(row, figureCSVCells(agg)...))
 	}
 	cw.Flush()
@@ -129,4 +138,10 @@ func coordinateText(p *pb.SweepPoint, i int, c float64, num func(float64) string
 		return names[i]
 	}
 	return num(c)
+}
+
+// notSimulated reports a load found infeasible before the run: the report
+// has no figures (every figure would read 0).
+func notSimulated(rep *pb.RunReport) bool {
+	return rep.GetFeasibility().GetInfeasible() && rep.GetSimulatedUserSlots() == 0
 }

@@ -278,7 +278,9 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		}
 		g := plots.ObjectiveGrid{Objective: obj.label, StepDB: sortedValues(axes[si]), UpdateRateHz: sortedValues(axes[ri]), LowerIsBetter: obj.lower}
 		g.Value = make([][]float64, len(g.UpdateRateHz))
+		g.Infeasible = make([][]bool, len(g.UpdateRateHz))
 		for r := range g.Value {
+			g.Infeasible[r] = make([]bool, len(g.StepDB))
 			g.Value[r] = make([]float64, len(g.StepDB))
 			for c := range g.Value[r] {
 				g.Value[r][c] = math.NaN()
@@ -297,6 +299,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 				v = math.Abs(v)
 			}
 			g.Value[row][col] = v
+			g.Infeasible[row][col] = p.GetReport().GetFeasibility().GetInfeasible()
 		}
 		fig, err = plots.HeatMap(obj.label+" over step × update rate — "+title, g)
 	default:
