@@ -117,7 +117,12 @@ func TestHelpers(t *testing.T) {
 	if ax := a[0]; len(ax.GetValues()) != 0 || ax.GetFirst() != 0.5 || ax.GetLast() != 2 || ax.GetCount() != 4 || ax.GetLog() {
 		t.Errorf("range axis %v, want first 0.5, last 2, count 4 (the server expands it)", ax)
 	}
-	for _, bad := range []string{"x", "p=", "p=a,b", "p=1:2:0", "=1,2", "p=1:2:3:lin"} {
+	// Names are taken for enum axes (the server checks them), but not mixed
+	// with numbers, nor empty or with separators inside.
+	if err := (&axisList{}).Set("inner_loop.command=FIXED_STEP,ADAPTIVE"); err != nil {
+		t.Errorf("enum axis by names: %v", err)
+	}
+	for _, bad := range []string{"x", "p=", "p=a,1", "p=a,,b", "p=a b", "p=1:2:0", "=1,2", "p=1:2:3:lin"} {
 		if err := (&axisList{}).Set(bad); err == nil {
 			t.Errorf("axis %q accepted", bad)
 		}
