@@ -345,8 +345,8 @@ func openLoopPowerMW(targetDB, noiseMW, processingGain, pathLossDB, pminMW, pmax
 	return p
 }
 
-// Decision is a Controller's answer to one slot.
-type Decision struct {
+// ControlDecision is a Controller's answer to one slot.
+type ControlDecision struct {
 	CommandDB float64 // command decided from the slot's measurement, nominal dB (e.g. ±step_db, one of levels_db); 0 outside CLOSED_LOOP
 	PowerDBm  float64 // transmit power for the next slot (feedback delay and power limits included), dBm
 	TargetDB  float64 // SIR target after the slot's outer-loop update, dB
@@ -434,7 +434,7 @@ func (c *Controller) TargetDB() float64 { return c.b.targetDB[0] }
 // Receiver's estimation error and averaging are applied on top). It returns
 // the command decided, the transmit power of the next slot and the target.
 // A non-finite measurement is treated as a very low SIR (−100 dB).
-func (c *Controller) Step(measuredSIRdB float64, blockError *bool) Decision {
+func (c *Controller) Step(measuredSIRdB float64, blockError *bool) ControlDecision {
 	b := c.b
 	if blockError != nil {
 		b.blockEnd(0, *blockError)
@@ -462,7 +462,7 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) Decision {
 		b.decide(c.meas[:], off, nil)
 	}
 	b.apply()
-	return Decision{CommandDB: b.commandDB(0), PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{CommandDB: b.commandDB(0), PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
 }
 
 // StepInactive processes one slot in which the user does not transmit
@@ -472,14 +472,14 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) Decision {
 // change the power (a command from slot t changes slot t+1+D whatever the
 // user does meanwhile); the target holds. INNER_MODE_IDEAL and
 // FIXED_POWER hold the power. It allocates nothing.
-func (c *Controller) StepInactive() Decision {
+func (c *Controller) StepInactive() ControlDecision {
 	b := c.b
 	if b.mode == InnerModeClosedLoop {
 		c.off[0] = 0 // active mask of one user: inactive
 		b.decide(c.meas[:], nil, c.off[:])
 		b.apply()
 	}
-	return Decision{PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
 }
 
 // String describes the controller's settings briefly.

@@ -117,7 +117,7 @@ func CapacityRequestFromProto(m *pb.CapacityRequest) tune.CapacityRequest {
 	}
 }
 
-func replicationEstimateToProto(e tune.Estimate) *pb.ReplicationEstimate {
+func replicationEstimateToProto(e tune.ReplicationEstimate) *pb.ReplicationEstimate {
 	return &pb.ReplicationEstimate{Mean: e.Mean, Low: e.Low, High: e.High, N: i32(e.N)}
 }
 
@@ -125,7 +125,7 @@ func tuneFiguresToProto(f tune.Figures) *pb.TuneFigures {
 	return &pb.TuneFigures{
 		SirErrorMeanDb:         replicationEstimateToProto(f.SIRErrorMeanDB),
 		SirErrorStdDb:          replicationEstimateToProto(f.SIRErrorStdDB),
-		OutageProbability:      replicationEstimateToProto(f.OutageProb),
+		OutageProbability:      replicationEstimateToProto(f.OutageProbability),
 		AchievedBler:           replicationEstimateToProto(f.BLER),
 		BlerTarget:             f.BLERTarget,
 		TxPowerMeanDbm:         replicationEstimateToProto(f.TxPowerMeanDBm),

@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"fmt"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	"html/template"
 	"math"
 	"slices"
@@ -19,8 +20,8 @@ import (
 // by client/plots from the API messages.
 
 const (
-	stepPath = "inner_loop.step_db"
-	ratePath = "inner_loop.update_rate_hz"
+	stepPath = tune.StepPath
+	ratePath = tune.RatePath
 )
 
 // figure is one inline SVG plot with its caption.

@@ -277,7 +277,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		}
 		fg := figures(samples, conf)
 		p := &CapacityPoint{Count: n, TotalUsers: others + n, Figures: fg,
-			OutageOK:     fg.OutageProb.Mean <= req.OutageLimit,
+			OutageOK:     fg.OutageProbability.Mean <= req.OutageLimit,
 			NoiseRiseOK:  fg.NoiseRiseDB.Mean <= nrLim,
 			LoadFeasible: fg.InfeasibleReplications == 0,
 		}
@@ -397,10 +397,10 @@ func failures(p *CapacityPoint) []string {
 // pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40 users".
 func pointText(p *CapacityPoint) string {
 	o, n := FigureLabelOf(FigureOutage), FigureLabelOf(FigureNoiseRise)
-	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d users", o.Value(p.Figures.OutageProb.Mean), o.Interval(p.Figures.OutageProb),
+	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d users", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
 		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers)
 	if k := p.Figures.InfeasibleReplications; k > 0 {
-		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProb.N)
+		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProbability.N)
 	}
 	return s
 }

@@ -51,7 +51,7 @@ func capToy(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	}
 	n := float64(sc.Users())
 	z := fading.NewStream(sc.Run.Seed, 0, 0, 1).NormFloat64()
-	return Sample{OutageProb: math.Min(1, 0.002*math.Exp(n/8)*(1+0.1*z)), UserSlots: int64(n) * sc.TotalSlots()}, nil
+	return Sample{OutageProbability: math.Min(1, 0.002*math.Exp(n/8)*(1+0.1*z)), UserSlots: int64(n) * sc.TotalSlots()}, nil
 }
 
 func capRequest(limit float64) CapacityRequest {
@@ -80,7 +80,7 @@ func TestCapacityBisectionToy(t *testing.T) {
 			for r := 0; r < 3; r++ {
 				sc.Run.Seed = ReplicationSeed(capRequest(lim).Base.Run.Seed, 0, r)
 				s, _ := capToy(context.Background(), &sc)
-				sum += s.OutageProb
+				sum += s.OutageProbability
 			}
 			if pass := sum/3 <= lim; pass != (d == 0) {
 				t.Errorf("limit %g: N=%d+%d gives outage %.4g", lim, res.Count, d, sum/3)
@@ -249,7 +249,7 @@ func capLoadToy(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	if eta := n / 40; eta < 1 {
 		s.NoiseRiseDB = -10 * math.Log10(1-eta)
 	} else {
-		s.NoiseRiseDB, s.Infeasible, s.OutageProb = 30, true, 0.01
+		s.NoiseRiseDB, s.Infeasible, s.OutageProbability = 30, true, 0.01
 	}
 	return s, err
 }
@@ -302,7 +302,7 @@ func TestCapacityLimitsToy(t *testing.T) {
 				for r := 0; r < req.Replications; r++ {
 					sc.Run.Seed = ReplicationSeed(req.Base.Run.Seed, 0, r)
 					x, _ := capLoadToy(context.Background(), &sc)
-					out += x.OutageProb / float64(req.Replications)
+					out += x.OutageProbability / float64(req.Replications)
 					nr += x.NoiseRiseDB / float64(req.Replications)
 					inf = inf || x.Infeasible
 				}
@@ -320,9 +320,9 @@ func TestCapacityLimitsToy(t *testing.T) {
 			}
 			for _, p := range res.Evaluated {
 				f := p.Figures
-				if p.Pass && (f.NoiseRiseDB.Mean > lim || f.InfeasibleReplications > 0 || f.OutageProb.Mean > tc.outage) {
+				if p.Pass && (f.NoiseRiseDB.Mean > lim || f.InfeasibleReplications > 0 || f.OutageProbability.Mean > tc.outage) {
 					t.Errorf("count %d passes with noise rise %.2f dB (limit %g), %d infeasible, outage %.4g",
-						p.Count, f.NoiseRiseDB.Mean, lim, f.InfeasibleReplications, f.OutageProb.Mean)
+						p.Count, f.NoiseRiseDB.Mean, lim, f.InfeasibleReplications, f.OutageProbability.Mean)
 				}
 				if p.Pass != (p.OutageOK && p.NoiseRiseOK && p.LoadFeasible) {
 					t.Errorf("count %d: pass %v with %+v", p.Count, p.Pass, p)

@@ -175,7 +175,7 @@ func TestEngineConstrained(t *testing.T) {
 		tieLess: func(a, b int) bool { return a < b },
 		run: func(ctx context.Context, k, c, r int) (Sample, error) {
 			z := fading.NewStream(5, k, r, 1).NormFloat64()
-			return Sample{TxPowerMeanDBm: pw[k] + 0.1*z, OutageProb: math.Max(0, out[k]+0.001*z), UserSlots: 1}, nil
+			return Sample{TxPowerMeanDBm: pw[k] + 0.1*z, OutageProbability: math.Max(0, out[k]+0.001*z), UserSlots: 1}, nil
 		},
 	}
 	res, err := e.search(context.Background())

@@ -26,6 +26,10 @@ const (
 // tie rule, the reasons and the CLI's step plots single out.
 const StepPath = "inner_loop.step_db"
 
+// RatePath is the inner-loop update rate field, in Hz; tune plots and the
+// tie rule read it.
+const RatePath = "inner_loop.update_rate_hz"
+
 // Axis is one searched scenario field: Path is its json-tag path (the proto
 // field path, e.g. "inner_loop.step_db", "groups[0].speeds[0].speed_kmh",
 // or "groups[1].speed_kmh" for every speed of group 1 at once).

@@ -65,7 +65,7 @@ func TestMultiCellSweepAxes(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if s.OutageProb != rep.Aggregate.OutageProbability.Value || s.NoiseRiseDB != rep.Layout.Overall.NoiseRiseDB.Value {
+		if s.OutageProbability != rep.Aggregate.OutageProbability.Value || s.NoiseRiseDB != rep.Layout.Overall.NoiseRiseDB.Value {
 			t.Errorf("%s: tune sample %+v differs from the layout figures", p.Label(), s)
 		}
 	}

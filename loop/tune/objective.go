@@ -153,7 +153,7 @@ func (o Objective) outageWarning() float64 {
 func (o Objective) Excess(s Sample) float64 {
 	m := math.Inf(-1)
 	if o.OutageLimit > 0 {
-		m = math.Max(m, (s.OutageProb-o.OutageLimit)/o.OutageLimit)
+		m = math.Max(m, (s.OutageProbability-o.OutageLimit)/o.OutageLimit)
 	}
 	if o.NoiseRiseLimitDB > 0 {
 		m = math.Max(m, (s.NoiseRiseDB-o.NoiseRiseLimitDB)/o.NoiseRiseLimitDB)
@@ -189,7 +189,7 @@ func (o Objective) score(s Sample) float64 {
 	case ObjectiveMinSIRErrorStd:
 		return s.SIRErrorStdDB
 	case ObjectiveMinOutage:
-		return s.OutageProb
+		return s.OutageProbability
 	default:
 		return s.TxPowerMeanDBm
 	}

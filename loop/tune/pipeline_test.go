@@ -35,11 +35,11 @@ func toyEval(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	std += sc.Receiver.SIREstimationErrorDB
 	std += 0.1*common + 0.02*own
 	return Sample{
-		SIRErrorStdDB:  std,
-		OutageProb:     math.Min(1, 0.01*std),
-		TxPowerMeanDBm: 10 + std,
-		NoiseRiseDB:    2 + step,
-		UserSlots:      int64(sc.Users()) * sc.TotalSlots(),
+		SIRErrorStdDB:     std,
+		OutageProbability: math.Min(1, 0.01*std),
+		TxPowerMeanDBm:    10 + std,
+		NoiseRiseDB:       2 + step,
+		UserSlots:         int64(sc.Users()) * sc.TotalSlots(),
 	}, nil
 }
 

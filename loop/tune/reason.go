@@ -98,12 +98,12 @@ func (l FigureLabel) Value(x float64) string { return l.num(x) + " " + l.Unit }
 func (l FigureLabel) Diff(x float64) string { return l.num(x) + " " + l.DiffUnit }
 
 // Interval is "[low, high] unit" of an estimate of the value.
-func (l FigureLabel) Interval(e Estimate) string {
+func (l FigureLabel) Interval(e ReplicationEstimate) string {
 	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.Unit
 }
 
 // DiffInterval is "[low, high] unit" of an estimate of a difference.
-func (l FigureLabel) DiffInterval(e Estimate) string {
+func (l FigureLabel) DiffInterval(e ReplicationEstimate) string {
 	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.DiffUnit
 }
 
@@ -143,8 +143,8 @@ func missesOf(o Objective, name string, f Figures) []ConstraintMiss {
 		m.Text = fmt.Sprintf("%s %s against %s %s (%s %s)", l.Name, l.Value(v), rel, l.Value(lim), l.Diff(m.Excess), side)
 		out = append(out, m)
 	}
-	if lim := o.OutageLimit; lim > 0 && f.OutageProb.Mean > lim {
-		add(FigureOutage, f.OutageProb.Mean, lim, true)
+	if lim := o.OutageLimit; lim > 0 && f.OutageProbability.Mean > lim {
+		add(FigureOutage, f.OutageProbability.Mean, lim, true)
 	}
 	if lim := o.NoiseRiseLimitDB; lim > 0 && f.NoiseRiseDB.Mean > lim {
 		add(FigureNoiseRise, f.NoiseRiseDB.Mean, lim, true)
@@ -186,11 +186,11 @@ func finishDecision(rec *Recommendation, d *Decision, conds []int, cands []Candi
 		if overall || len(rec.Conditions) > 1 {
 			where = " in " + strconv.Quote(cond.Name)
 		}
-		if w := o.outageWarning(); w < 1 && f.OutageProb.Mean > w {
-			highOut = append(highOut, pct(f.OutageProb.Mean)+where)
+		if w := o.outageWarning(); w < 1 && f.OutageProbability.Mean > w {
+			highOut = append(highOut, pct(f.OutageProbability.Mean)+where)
 		}
 		if f.InfeasibleReplications > 0 {
-			infeas = append(infeas, fmt.Sprintf("%d of %d replications%s", f.InfeasibleReplications, f.OutageProb.N, where))
+			infeas = append(infeas, fmt.Sprintf("%d of %d replications%s", f.InfeasibleReplications, f.OutageProbability.N, where))
 		}
 	}
 	best := label(rec, d.Best)
@@ -421,7 +421,7 @@ func baselineText(rec *Recommendation, c int, bl *Baseline) string {
 	best := cr.Candidates[cr.Decision.Best].Figures
 	if l.Key == FigureTxPowerMean {
 		s := fmt.Sprintf("Fixed power: mean Tx power %s with outage %s; the recommended setting: %s with outage %s, %s.",
-			l.Value(bl.Fixed.Mean), pct(bl.Figures.OutageProb.Mean), l.Value(bl.Recommended.Mean), pct(best.OutageProb.Mean), gain)
+			l.Value(bl.Fixed.Mean), pct(bl.Figures.OutageProbability.Mean), l.Value(bl.Recommended.Mean), pct(best.OutageProbability.Mean), gain)
 		if ms := missesOf(rec.Objective, cr.Name, bl.Figures); len(ms) > 0 {
 			var t []string
 			for _, m := range ms {

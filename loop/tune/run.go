@@ -43,28 +43,28 @@ func runScenario(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
 	if rep.Feasibility.Infeasible && rep.SimulatedUserSlots == 0 {
 		return Sample{
-			SIRErrorMeanDB: -InfeasibleSIRErrorDB,
-			SIRErrorStdDB:  InfeasibleSIRErrorDB,
-			OutageProb:     1,
-			BLER:           1,
-			BLERTarget:     map[bool]float64{true: sc.OuterLoop.BLERTarget}[sc.OuterLoop.Enabled],
-			TxPowerMeanDBm: sc.InnerLoop.MaxPowerDBm,
-			TimeAtMaxPower: 1,
-			NoiseRiseDB:    InfeasibleNoiseRiseDB,
-			Infeasible:     true,
+			SIRErrorMeanDB:    -InfeasibleSIRErrorDB,
+			SIRErrorStdDB:     InfeasibleSIRErrorDB,
+			OutageProbability: 1,
+			BLER:              1,
+			BLERTarget:        map[bool]float64{true: sc.OuterLoop.BLERTarget}[sc.OuterLoop.Enabled],
+			TxPowerMeanDBm:    sc.InnerLoop.MaxPowerDBm,
+			TimeAtMaxPower:    1,
+			NoiseRiseDB:       InfeasibleNoiseRiseDB,
+			Infeasible:        true,
 		}, nil
 	}
 	a := rep.Aggregate
 	s := Sample{
-		SIRErrorMeanDB: a.SIRErrorMeanDB.Value,
-		SIRErrorStdDB:  a.SIRErrorStdDB.Value,
-		OutageProb:     a.OutageProbability.Value,
-		BLER:           a.AchievedBLER.Value,
-		TxPowerMeanDBm: a.TxPowerMeanDBm.Value,
-		TimeAtMaxPower: a.MaxPowerFraction.Value,
-		NoiseRiseDB:    a.NoiseRiseMeanDB.Value,
-		UserSlots:      rep.SimulatedUserSlots,
-		Infeasible:     rep.Feasibility.Infeasible,
+		SIRErrorMeanDB:    a.SIRErrorMeanDB.Value,
+		SIRErrorStdDB:     a.SIRErrorStdDB.Value,
+		OutageProbability: a.OutageProbability.Value,
+		BLER:              a.AchievedBLER.Value,
+		TxPowerMeanDBm:    a.TxPowerMeanDBm.Value,
+		TimeAtMaxPower:    a.MaxPowerFraction.Value,
+		NoiseRiseDB:       a.NoiseRiseMeanDB.Value,
+		UserSlots:         rep.SimulatedUserSlots,
+		Infeasible:        rep.Feasibility.Infeasible,
 	}
 	if sc.OuterLoop.Enabled {
 		s.BLERTarget = sc.OuterLoop.BLERTarget
@@ -74,7 +74,7 @@ func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
 		v    float64
 	}{
 		{"sir_error_mean_db", s.SIRErrorMeanDB}, {"sir_error_std_db", s.SIRErrorStdDB},
-		{"outage_probability", s.OutageProb}, {"tx_power_mean_dbm", s.TxPowerMeanDBm},
+		{"outage_probability", s.OutageProbability}, {"tx_power_mean_dbm", s.TxPowerMeanDBm},
 	} {
 		if math.IsNaN(x.v) || math.IsInf(x.v, 0) {
 			return Sample{}, fmt.Errorf("tune: the engine returned %s = %g (seed %d)", x.name, x.v, sc.Run.Seed)

@@ -20,9 +20,9 @@ type Sample struct {
 	// measured slots, dB.
 	SIRErrorMeanDB float64 `json:"sir_error_mean_db"`
 	SIRErrorStdDB  float64 `json:"sir_error_std_db"`
-	// OutageProb: fraction of user-slots with SIR below target minus the
+	// OutageProbability: fraction of user-slots with SIR below target minus the
 	// outage margin, [0, 1].
-	OutageProb float64 `json:"outage_probability"`
+	OutageProbability float64 `json:"outage_probability"`
 	// BLER: achieved block error rate, [0, 1]; BLERTarget the outer loop's
 	// target τ, or 0 when the outer loop is off (no BLER constraint then).
 	BLER       float64 `json:"achieved_bler"`
@@ -226,7 +226,7 @@ func (e *engine) feasCond(k, c int, conf float64) feas {
 		f.clearlyOut = f.clearlyOut || o.Low > lim
 	}
 	if lim := e.obj.OutageLimit; lim > 0 {
-		upper(func(x Sample) float64 { return x.OutageProb }, lim)
+		upper(func(x Sample) float64 { return x.OutageProbability }, lim)
 	}
 	if lim := e.obj.NoiseRiseLimitDB; lim > 0 {
 		upper(func(x Sample) float64 { return x.NoiseRiseDB }, lim)
@@ -266,14 +266,14 @@ func (e *engine) feasibility(s, k int, conf float64) feas {
 // scopeOutcome is the decision in one scope at the stated confidence.
 type scopeOutcome struct {
 	best, chosen, runnerUp int
-	evidence               Estimate // paired diff runner-up − best
+	evidence               ReplicationEstimate // paired diff runner-up − best
 	declared               bool
 	tieSet                 []int
 	fallback               bool  // constraints met by no candidate: ranked by Objective.Excess
 	ordering               []int // chosen first, then the rest of the tie set, then by class and diff
 	status                 []CandidateStatus
-	score                  []Estimate // objective per candidate
-	diff                   []Estimate // paired diff k − best (final: k − chosen)
+	score                  []ReplicationEstimate // objective per candidate
+	diff                   []ReplicationEstimate // paired diff k − best (final: k − chosen)
 	feasible               []bool
 	undecided              []bool
 }
@@ -288,8 +288,8 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 	}
 	o := scopeOutcome{
 		status:    make([]CandidateStatus, e.nK),
-		score:     make([]Estimate, e.nK),
-		diff:      make([]Estimate, e.nK),
+		score:     make([]ReplicationEstimate, e.nK),
+		diff:      make([]ReplicationEstimate, e.nK),
 		feasible:  make([]bool, e.nK),
 		undecided: make([]bool, e.nK),
 		runnerUp:  -1,
@@ -376,7 +376,7 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 		}
 	}
 	o.status[best] = StatusContending
-	o.diff[best] = Estimate{N: o.score[best].N}
+	o.diff[best] = ReplicationEstimate{N: o.score[best].N}
 	if !final {
 		if e.constrained() {
 			if !o.fallback && !fs[best].clearlyIn {
@@ -437,7 +437,7 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 	ch := o.chosen
 	for k := 0; k < e.nK; k++ {
 		if k == ch {
-			o.diff[k] = Estimate{N: o.score[k].N}
+			o.diff[k] = ReplicationEstimate{N: o.score[k].N}
 			continue
 		}
 		o.diff[k], buf = pairedDiff(sc[ch], sc[k], e.conf, buf)
@@ -471,7 +471,7 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 	o.ordering = append([]int{ch}, o.ordering...)
 	o.status[ch] = StatusContending
 	o.runnerUp = -1
-	o.evidence = Estimate{}
+	o.evidence = ReplicationEstimate{}
 	if len(o.ordering) > 1 {
 		o.runnerUp = o.ordering[1]
 		o.evidence = o.diff[o.runnerUp]

@@ -6,7 +6,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// Estimate is a figure estimated from independent replications, with a
+// ReplicationEstimate is a figure estimated from independent replications, with a
 // two-sided confidence interval.
 //
 // Mean is the sample mean of the per-replication values; [Low, High] is the
@@ -14,7 +14,7 @@ import (
 // of the request (s the sample standard deviation over the n replications).
 // N is the number of replications behind the estimate. With N < 2 there is no
 // interval and Low = High = Mean. Units are those of the figure it carries.
-type Estimate struct {
+type ReplicationEstimate struct {
 	Mean float64 `json:"mean"`
 	Low  float64 `json:"low"`
 	High float64 `json:"high"`
@@ -22,10 +22,10 @@ type Estimate struct {
 }
 
 // Excludes reports whether v lies outside the interval [Low, High].
-func (e Estimate) Excludes(v float64) bool { return v < e.Low || v > e.High }
+func (e ReplicationEstimate) Excludes(v float64) bool { return v < e.Low || v > e.High }
 
 // HalfWidth is (High − Low)/2.
-func (e Estimate) HalfWidth() float64 { return (e.High - e.Low) / 2 }
+func (e ReplicationEstimate) HalfWidth() float64 { return (e.High - e.Low) / 2 }
 
 // tQuantile returns the p-quantile of Student's t distribution with nu
 // degrees of freedom (gonum distuv.StudentsT).
@@ -38,10 +38,10 @@ func tQuantile(p float64, nu int) float64 {
 
 // meanCI returns the Student-t interval of the mean of xs at confidence conf.
 // The sum is taken in index order, so the result depends only on the values.
-func meanCI(xs []float64, conf float64) Estimate {
+func meanCI(xs []float64, conf float64) ReplicationEstimate {
 	n := len(xs)
 	if n == 0 {
-		return Estimate{Mean: math.NaN(), Low: math.NaN(), High: math.NaN()}
+		return ReplicationEstimate{Mean: math.NaN(), Low: math.NaN(), High: math.NaN()}
 	}
 	var sum float64
 	for _, x := range xs {
@@ -49,7 +49,7 @@ func meanCI(xs []float64, conf float64) Estimate {
 	}
 	m := sum / float64(n)
 	if n < 2 {
-		return Estimate{Mean: m, Low: m, High: m, N: n}
+		return ReplicationEstimate{Mean: m, Low: m, High: m, N: n}
 	}
 	var ss float64
 	for _, x := range xs {
@@ -58,13 +58,13 @@ func meanCI(xs []float64, conf float64) Estimate {
 	}
 	sd := math.Sqrt(ss / float64(n-1))
 	h := tQuantile(0.5+conf/2, n-1) * sd / math.Sqrt(float64(n))
-	return Estimate{Mean: m, Low: m - h, High: m + h, N: n}
+	return ReplicationEstimate{Mean: m, Low: m - h, High: m + h, N: n}
 }
 
 // pairedDiff returns the paired-t interval of mean(b_r − a_r) over the first
 // n = min(len(a), len(b)) replications (common random numbers: replication r
 // of both used the same seed). Positive means b is larger than a.
-func pairedDiff(a, b []float64, conf float64, buf []float64) (Estimate, []float64) {
+func pairedDiff(a, b []float64, conf float64, buf []float64) (ReplicationEstimate, []float64) {
 	n := min(len(a), len(b))
 	buf = buf[:0]
 	for r := 0; r < n; r++ {
@@ -74,7 +74,7 @@ func pairedDiff(a, b []float64, conf float64, buf []float64) (Estimate, []float6
 }
 
 // clampEstimate limits an estimate of a probability to [0, 1].
-func clampEstimate(e Estimate, lo, hi float64) Estimate {
+func clampEstimate(e ReplicationEstimate, lo, hi float64) ReplicationEstimate {
 	e.Low = math.Max(lo, e.Low)
 	e.High = math.Min(hi, e.High)
 	e.Mean = math.Min(hi, math.Max(lo, e.Mean))

@@ -105,15 +105,15 @@ type Options struct {
 // Figures is every figure of one candidate under one condition, each with
 // its interval over replications at the request's confidence.
 type Figures struct {
-	SIRErrorMeanDB Estimate `json:"sir_error_mean_db"`
-	SIRErrorStdDB  Estimate `json:"sir_error_std_db"`
-	OutageProb     Estimate `json:"outage_probability"`
-	BLER           Estimate `json:"achieved_bler"`
+	SIRErrorMeanDB    ReplicationEstimate `json:"sir_error_mean_db"`
+	SIRErrorStdDB     ReplicationEstimate `json:"sir_error_std_db"`
+	OutageProbability ReplicationEstimate `json:"outage_probability"`
+	BLER              ReplicationEstimate `json:"achieved_bler"`
 	// BLERTarget is the outer loop's τ (0 when the outer loop is off).
-	BLERTarget     float64  `json:"bler_target"`
-	TxPowerMeanDBm Estimate `json:"tx_power_mean_dbm"`
-	TimeAtMaxPower Estimate `json:"max_power_fraction"`
-	NoiseRiseDB    Estimate `json:"noise_rise_mean_db"`
+	BLERTarget     float64             `json:"bler_target"`
+	TxPowerMeanDBm ReplicationEstimate `json:"tx_power_mean_dbm"`
+	TimeAtMaxPower ReplicationEstimate `json:"max_power_fraction"`
+	NoiseRiseDB    ReplicationEstimate `json:"noise_rise_mean_db"`
 	// InfeasibleReplications counts replications the engine flagged as
 	// infeasible load.
 	InfeasibleReplications int `json:"infeasible_replications"`
@@ -129,13 +129,13 @@ func figures(xs []Sample, conf float64) Figures {
 		return out
 	}
 	fg := Figures{
-		SIRErrorMeanDB: meanCI(col(func(s Sample) float64 { return s.SIRErrorMeanDB }), conf),
-		SIRErrorStdDB:  clampEstimate(meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf), 0, math.Inf(1)),
-		OutageProb:     clampEstimate(meanCI(col(func(s Sample) float64 { return s.OutageProb }), conf), 0, 1),
-		BLER:           clampEstimate(meanCI(col(func(s Sample) float64 { return s.BLER }), conf), 0, 1),
-		TxPowerMeanDBm: meanCI(col(func(s Sample) float64 { return s.TxPowerMeanDBm }), conf),
-		TimeAtMaxPower: clampEstimate(meanCI(col(func(s Sample) float64 { return s.TimeAtMaxPower }), conf), 0, 1),
-		NoiseRiseDB:    clampEstimate(meanCI(col(func(s Sample) float64 { return s.NoiseRiseDB }), conf), 0, math.Inf(1)), // I0/N0 >= 1
+		SIRErrorMeanDB:    meanCI(col(func(s Sample) float64 { return s.SIRErrorMeanDB }), conf),
+		SIRErrorStdDB:     clampEstimate(meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf), 0, math.Inf(1)),
+		OutageProbability: clampEstimate(meanCI(col(func(s Sample) float64 { return s.OutageProbability }), conf), 0, 1),
+		BLER:              clampEstimate(meanCI(col(func(s Sample) float64 { return s.BLER }), conf), 0, 1),
+		TxPowerMeanDBm:    meanCI(col(func(s Sample) float64 { return s.TxPowerMeanDBm }), conf),
+		TimeAtMaxPower:    clampEstimate(meanCI(col(func(s Sample) float64 { return s.TimeAtMaxPower }), conf), 0, 1),
+		NoiseRiseDB:       clampEstimate(meanCI(col(func(s Sample) float64 { return s.NoiseRiseDB }), conf), 0, math.Inf(1)), // I0/N0 >= 1
 	}
 	if len(xs) > 0 {
 		fg.BLERTarget = xs[0].BLERTarget
@@ -159,11 +159,11 @@ type CandidateResult struct {
 	// conditions): the objective's figure, or the worst relative constraint
 	// excess (Objective.Excess) when no candidate met the constraints
 	// (Decision.RankedBy names it).
-	Objective Estimate `json:"objective"`
+	Objective ReplicationEstimate `json:"objective"`
 	// DiffToBest is the paired difference of Objective, this candidate minus
 	// the recommended candidate (Decision.Best), over their common
 	// replications, in RankedBy's difference unit (zero for Best itself).
-	DiffToBest Estimate `json:"diff_to_best"`
+	DiffToBest ReplicationEstimate `json:"diff_to_best"`
 	// Status in the sequential procedure.
 	Status CandidateStatus `json:"status"`
 	// Feasible: the point estimates meet the objective's constraints
@@ -292,8 +292,8 @@ type Decision struct {
 	// RunnerUp is Ordering[1] (-1 with one candidate) and Evidence the
 	// paired difference runner-up minus Best on RankedBy, with its interval
 	// at the stated confidence (positive: the runner-up is worse).
-	RunnerUp int      `json:"runner_up"`
-	Evidence Estimate `json:"evidence"`
+	RunnerUp int                 `json:"runner_up"`
+	Evidence ReplicationEstimate `json:"evidence"`
 	// ConstraintsUnmet: no candidate met the constraints (the verdict is
 	// VerdictConstraintsUnmet); candidates were ranked by their worst
 	// relative constraint excess.
@@ -329,13 +329,13 @@ type Baseline struct {
 	Figure FigureLabel `json:"figure"`
 	// Fixed and Recommended are the judged figure at fixed power and at
 	// the recommended setting, in Figure's stored unit.
-	Fixed       Estimate `json:"fixed"`
-	Recommended Estimate `json:"recommended"`
+	Fixed       ReplicationEstimate `json:"fixed"`
+	Recommended ReplicationEstimate `json:"recommended"`
 	// Gain is the paired improvement of the recommended setting over fixed
 	// power on the judged figure (fixed minus recommended; positive = power
 	// control helps), in Figure's difference unit: dB for SIR error std and
 	// for Tx power (power saved), a probability for outage.
-	Gain Estimate `json:"gain"`
+	Gain ReplicationEstimate `json:"gain"`
 	// BarelyHelps: Gain's interval reaches zero, or Gain is below
 	// BarelyHelpsFraction of the fixed-power figure (SIR error std, outage)
 	// or below BarelyHelpsPowerDB (Tx power). Never set when FixedMisses.
@@ -409,7 +409,7 @@ var tiePriority = []struct {
 	asc  bool
 }{
 	{StepPath, true},
-	{"inner_loop.update_rate_hz", true},
+	{RatePath, true},
 	{"outer_loop.up_step_db", true},
 	{"inner_loop.feedback_delay_slots", false},
 }
@@ -424,7 +424,7 @@ func tieKey(a, b Point) string {
 			continue
 		}
 		switch {
-		case tp.path == "inner_loop.update_rate_hz":
+		case tp.path == RatePath:
 			return "lower inner_loop.update_rate_hz"
 		case tp.asc:
 			return "smaller " + tp.path

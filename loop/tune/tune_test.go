@@ -261,7 +261,7 @@ func TestMinTxPowerConstrained(t *testing.T) {
 		t.Fatalf("no feasible setting: %s", cr.Decision.Reason)
 	}
 	ok := func(f Figures) bool {
-		return f.OutageProb.Mean <= obj.OutageLimit && f.BLER.Mean >= 0.07 && f.BLER.Mean <= 0.13
+		return f.OutageProbability.Mean <= obj.OutageLimit && f.BLER.Mean >= 0.07 && f.BLER.Mean <= 0.13
 	}
 	best := cr.Candidates[cr.Decision.Best]
 	if !best.Feasible || !ok(best.Figures) {
@@ -476,7 +476,7 @@ func TestHighOutageWarning(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			out := rec.Conditions[0].Candidates[rec.Overall.Best].Figures.OutageProb.Mean
+			out := rec.Conditions[0].Candidates[rec.Overall.Best].Figures.OutageProbability.Mean
 			var got bool
 			for _, w := range rec.Overall.Warnings {
 				if w.Kind == WarningHighOutage {
@@ -595,7 +595,7 @@ func TestDroppedFeasibleCandidateRevived(t *testing.T) {
 		e.samples[k] = [][]Sample{nil}
 		for r := 0; r < 4; r++ {
 			z := fading.NewStream(1, k, r, 1).NormFloat64()
-			e.samples[k][0] = append(e.samples[k][0], Sample{TxPowerMeanDBm: 20 - float64(k) + 0.1*z, OutageProb: outage[k] + 0.001*z})
+			e.samples[k][0] = append(e.samples[k][0], Sample{TxPowerMeanDBm: 20 - float64(k) + 0.1*z, OutageProbability: outage[k] + 0.001*z})
 		}
 	}
 	e.dropped = [][]bool{{true, false, false}}
@@ -630,7 +630,7 @@ func TestConstraintsUnmetReal(t *testing.T) {
 		d.Misses[0].Limit != 0.001 || !strings.HasPrefix(d.Reason, "Constraints unmet") {
 		t.Fatalf("verdict %v, misses %+v, reason %s", d.Verdict, d.Misses, d.Reason)
 	}
-	got := rec.Conditions[0].Candidates[d.Best].Figures.OutageProb.Mean
+	got := rec.Conditions[0].Candidates[d.Best].Figures.OutageProbability.Mean
 	if m := d.Misses[0]; math.Abs(m.Value-got) > 1e-12 || math.Abs(m.Excess-(got-0.001)) > 1e-12 {
 		t.Errorf("miss %+v, want value %g and excess %g", m, got, got-0.001)
 	}

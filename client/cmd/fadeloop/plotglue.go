@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	"math"
 	"os"
 	"path/filepath"
@@ -126,8 +127,8 @@ var sweepObjectives = map[string]sweepObjective{
 }
 
 const (
-	stepPath = "inner_loop.step_db"
-	ratePath = "inner_loop.update_rate_hz"
+	stepPath = tune.StepPath
+	ratePath = tune.RatePath
 )
 
 // autoSweepPlot picks the plot kind from the axes: a heat map for step ×
