@@ -6,6 +6,8 @@ import (
 	"math"
 	"slices"
 	"sort"
+	"strconv"
+	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -235,4 +237,23 @@ func TuneStepLines(rec *pb.Recommendation) ([]plots.StepLine, bool) {
 		ls = append(ls, l)
 	}
 	return ls, true
+}
+
+// AxisValueLabel is the plot label of value v of the axis at field path p,
+// e.g. "step 0.5 dB" for inner_loop.step_db, "30 km/h" for a speed: the
+// last path element without its unit suffix, then the value and the unit.
+func AxisValueLabel(p string, v float64) string {
+	short := p[strings.LastIndexByte(p, '.')+1:]
+	unit := ""
+	for _, u := range []struct{ suf, unit string }{{"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_dbm", "dBm"}, {"_m", "m"}, {"_s", "s"}} {
+		if strings.HasSuffix(short, u.suf) {
+			short, unit = strings.TrimSuffix(short, u.suf), " "+u.unit
+			break
+		}
+	}
+	short = strings.ReplaceAll(short, "_", " ")
+	if short == "speed" {
+		return strconv.FormatFloat(v, 'g', 4, 64) + unit
+	}
+	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
 }

@@ -106,131 +106,17 @@ func groupName(sc *pb.Scenario, g int32) string {
 	return "group " + strconv.Itoa(int(g))
 }
 
-func runTraces(rep *pb.RunReport) []plots.Trace {
-	us := slices.Clone(rep.GetUsers())
-	sort.SliceStable(us, func(i, j int) bool { return us[i].GetDistanceM() < us[j].GetDistanceM() })
-	traced := map[int32]*pb.UserTrace{}
-	for _, t := range rep.GetTraces() {
-		traced[t.GetUser()] = t
-	}
-	var withTrace []*pb.UserFigures
-	for _, u := range us {
-		if traced[u.GetUser()] != nil {
-			withTrace = append(withTrace, u)
-		}
-	}
-	if len(withTrace) == 0 {
-		return nil
-	}
-	pick := slices.Compact([]*pb.UserFigures{withTrace[0], withTrace[len(withTrace)/2], withTrace[len(withTrace)-1]})
-	rate := rep.GetNormalisedScenario().GetInnerLoop().GetUpdateRateHz()
-	if !(rate > 0) {
-		rate = 1
-	}
-	var out []plots.Trace
-	for _, u := range pick {
-		t := traced[u.GetUser()]
-		tr := plots.Trace{Label: fmt.Sprintf("user %d (%s, %s m, %s km/h)", u.GetUser(),
-			groupName(rep.GetNormalisedScenario(), u.GetGroup()), num(u.GetDistanceM(), 0), num(u.GetSpeedKmh(), 0))}
-		for i, s := range t.GetSlots() {
-			tr.TimeS = append(tr.TimeS, float64(s)/rate)
-			tr.SIRDB = append(tr.SIRDB, at32(t.GetSirDb(), i))
-			tr.TargetDB = append(tr.TargetDB, at32(t.GetTargetDb(), i))
-			tr.TxPowerDBM = append(tr.TxPowerDBM, at32(t.GetTxPowerDbm(), i))
-		}
-		out = append(out, tr)
-	}
-	return out
-}
+// runTraces, runBinErrors, runDistancePoints and axisLabel are the CLI's
+// plot inputs (client/render), so a report draws what --plot draws.
+func runTraces(rep *pb.RunReport) []plots.Trace { return clirender.RunTraces(rep, nil) }
 
-func at32(v []float32, i int) float64 {
-	if i < len(v) {
-		return float64(v[i])
-	}
-	return math.NaN()
-}
-
-// runBinErrors: the empirical distribution of the traced samples after
-// warm-up per distance bin when traces are present, else the bin's
-// reported percentiles.
-func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution {
-	bins := rep.GetDistanceBins()
-	warm := rep.GetNormalisedScenario().GetRun().GetWarmupSlots()
-	dist := map[int32]float64{}
-	for _, u := range rep.GetUsers() {
-		dist[u.GetUser()] = u.GetDistanceM()
-	}
-	var out []plots.ErrorDistribution
-	for i, b := range bins {
-		users := "users"
-		if b.GetFigures().GetUsers() == 1 {
-			users = "user"
-		}
-		d := plots.ErrorDistribution{Label: fmt.Sprintf("%s–%s m (%d %s)", num(b.GetMinDistanceM(), 0), num(b.GetMaxDistanceM(), 0), b.GetFigures().GetUsers(), users)}
-		for _, t := range rep.GetTraces() {
-			x := dist[t.GetUser()]
-			if !(x >= b.GetMinDistanceM() && (x < b.GetMaxDistanceM() || (i == len(bins)-1 && x <= b.GetMaxDistanceM()))) {
-				continue
-			}
-			for k, s := range t.GetSlots() {
-				if s < warm || k >= len(t.GetSirDb()) || k >= len(t.GetTargetDb()) {
-					continue
-				}
-				d.SamplesDB = append(d.SamplesDB, float64(t.GetSirDb()[k]-t.GetTargetDb()[k]))
-			}
-		}
-		if len(d.SamplesDB) == 0 {
-			d.Quantiles = quantiles(b.GetFigures().GetSirErrorPercentilesDb())
-		}
-		out = append(out, d)
-	}
-	if len(out) == 0 {
-		out = append(out, plots.ErrorDistribution{Label: "all users", Quantiles: quantiles(rep.GetAggregate().GetSirErrorPercentilesDb())})
-	}
-	return out
-}
-
-func quantiles(p *pb.Percentiles) []plots.Quantile {
-	if p == nil {
-		return nil
-	}
-	return []plots.Quantile{
-		{P: 0.01, ValueDB: p.GetP1().GetValue()}, {P: 0.05, ValueDB: p.GetP5().GetValue()},
-		{P: 0.5, ValueDB: p.GetP50().GetValue()}, {P: 0.95, ValueDB: p.GetP95().GetValue()},
-		{P: 0.99, ValueDB: p.GetP99().GetValue()},
-	}
-}
+func runBinErrors(rep *pb.RunReport) []plots.ErrorDistribution { return clirender.RunBinErrors(rep) }
 
 func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
-	var pts []plots.DistancePoint
-	for _, u := range rep.GetUsers() {
-		f := u.GetFigures()
-		p := plots.DistancePoint{Group: groupName(rep.GetNormalisedScenario(), u.GetGroup()), DistanceM: u.GetDistanceM(),
-			TxMeanDBM: f.GetTxPowerMeanDbm().GetValue()}
-		if pc := f.GetTxPowerPercentilesDbm(); pc != nil {
-			p.TxLowDBM, p.TxHighDBM, p.HasPercent = pc.GetP5().GetValue(), pc.GetP95().GetValue(), true
-		}
-		pts = append(pts, p)
-	}
-	return pts
+	return clirender.RunDistancePoints(rep)
 }
 
-// axisLabel is "step 0.5 dB" for a value v of axis path p.
-func axisLabel(p string, v float64) string {
-	short := p[strings.LastIndexByte(p, '.')+1:]
-	unit := ""
-	for _, u := range []struct{ suf, unit string }{{"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_dbm", "dBm"}, {"_m", "m"}, {"_s", "s"}} {
-		if strings.HasSuffix(short, u.suf) {
-			short, unit = strings.TrimSuffix(short, u.suf), " "+u.unit
-			break
-		}
-	}
-	short = strings.ReplaceAll(short, "_", " ")
-	if short == "speed" {
-		return strconv.FormatFloat(v, 'g', 4, 64) + unit
-	}
-	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
-}
+func axisLabel(p string, v float64) string { return clirender.AxisValueLabel(p, v) }
 
 // sweepFigures: a heat map of outage over step × update rate, outage and
 // SIR error std against step size (one line per value of the other axis),
@@ -310,7 +196,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 				}
 			}
 			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
-				Quantiles: quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
+				Quantiles: clirender.Quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
 		}
 		fig, err := plots.SIRErrorCDF(titled("SIR error distribution per point", title), ds)
 		if err := addFigure(&out, "Distribution of the SIR error of every grid point (from its reported percentiles).", fig, err); err != nil {

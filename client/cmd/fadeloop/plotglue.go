@@ -8,7 +8,6 @@ import (
 	"path/filepath"
 	"slices"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 
@@ -147,22 +146,7 @@ func autoSweepPlot(axes []*pb.SweepAxis) string {
 	return "cdf"
 }
 
-func axisLabel(a *pb.SweepAxis, v float64) string {
-	p := a.GetPath()
-	short := p[strings.LastIndexByte(p, '.')+1:]
-	unit := ""
-	for _, u := range []struct{ suf, unit string }{{"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_dbm", "dBm"}, {"_m", "m"}, {"_s", "s"}} {
-		if strings.HasSuffix(short, u.suf) {
-			short, unit = strings.TrimSuffix(short, u.suf), " "+u.unit
-			break
-		}
-	}
-	short = strings.ReplaceAll(short, "_", " ")
-	if short == "speed" {
-		return strconv.FormatFloat(v, 'g', 4, 64) + unit
-	}
-	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
-}
+func axisLabel(a *pb.SweepAxis, v float64) string { return render.AxisValueLabel(a.GetPath(), v) }
 
 // checkSweepPlot rejects, before any work, a plot the axes cannot give.
 func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
