@@ -25,6 +25,16 @@ func tQuantile(dof int) float64 {
 	return q
 }
 
+// StudentT95 is the two-sided 95 % Student t quantile with dof degrees of
+// freedom (gonum distuv, cached), 0 for dof <= 0: the quantile of every
+// interval of the engines (loop and loop/multicell).
+func StudentT95(dof int) float64 { return tQuantile(dof) }
+
+// WilsonInterval is the Wilson score interval of a proportion p with n
+// samples and quantile z (Wilson, J. Am. Stat. Assoc. 22, 1927), inside
+// [0, 1]; (p, p) when n <= 0.
+func WilsonInterval(p, n, z float64) (lo, hi float64) { return wilson(p, n, z) }
+
 var (
 	tqMu    sync.Mutex
 	tqCache = map[int]float64{}

@@ -263,6 +263,35 @@ func (l *StepLine) Add(stepDB, outage, outageLow, outageHigh, stdDB, stdLowDB, s
 	l.ErrorStdHighDB = append(l.ErrorStdHighDB, stdHighDB)
 }
 
+// SortByStep orders the points by step size (stable), every column with
+// them; it builds new slices, so a copy of l keeps the old order.
+func (l *StepLine) SortByStep() {
+	idx := make([]int, len(l.StepDB))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return l.StepDB[idx[a]] < l.StepDB[idx[b]] })
+	perm := func(v []float64) []float64 {
+		if len(v) != len(idx) {
+			return v
+		}
+		out := make([]float64, len(v))
+		for i, j := range idx {
+			out[i] = v[j]
+		}
+		return out
+	}
+	l.StepDB, l.OutagePct, l.OutageLowPct, l.OutageHighPct = perm(l.StepDB), perm(l.OutagePct), perm(l.OutageLowPct), perm(l.OutageHighPct)
+	l.ErrorStdDB, l.ErrorStdLowDB, l.ErrorStdHighDB = perm(l.ErrorStdDB), perm(l.ErrorStdLowDB), perm(l.ErrorStdHighDB)
+	if len(l.Recommended) == len(idx) {
+		rec := make([]bool, len(idx))
+		for i, j := range idx {
+			rec[i] = l.Recommended[j]
+		}
+		l.Recommended = rec
+	}
+}
+
 // StepSensitivity draws outage (left) and SIR error std (right) against the
 // inner-loop step size, one line per speed.
 func StepSensitivity(title string, lines []StepLine) (*Figure, error) {

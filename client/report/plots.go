@@ -174,13 +174,15 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 				order = append(order, key)
 			}
 			f := p.GetReport().GetAggregate()
-			appendStep(l, c[si], 100*f.GetOutageProbability().GetValue(), 100*f.GetOutageProbability().GetCiLow(), 100*f.GetOutageProbability().GetCiHigh(),
+			l.Add(c[si], f.GetOutageProbability().GetValue(), f.GetOutageProbability().GetCiLow(), f.GetOutageProbability().GetCiHigh(),
 				f.GetSirErrorStdDb().GetValue(), f.GetSirErrorStdDb().GetCiLow(), f.GetSirErrorStdDb().GetCiHigh())
 		}
 		sort.Float64s(order)
 		var ls []plots.StepLine
 		for _, k := range order {
-			ls = append(ls, sortedStepLine(*lines[k]))
+			l := *lines[k]
+			l.SortByStep()
+			ls = append(ls, l)
 		}
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size", title), ls)
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
@@ -215,30 +217,6 @@ func nanGrid(rows, cols int) [][]float64 {
 		}
 	}
 	return v
-}
-
-func appendStep(l *plots.StepLine, step, o, olo, ohi, s, slo, shi float64) {
-	l.StepDB = append(l.StepDB, step)
-	l.OutagePct, l.OutageLowPct, l.OutageHighPct = append(l.OutagePct, o), append(l.OutageLowPct, olo), append(l.OutageHighPct, ohi)
-	l.ErrorStdDB, l.ErrorStdLowDB, l.ErrorStdHighDB = append(l.ErrorStdDB, s), append(l.ErrorStdLowDB, slo), append(l.ErrorStdHighDB, shi)
-}
-
-func sortedStepLine(l plots.StepLine) plots.StepLine {
-	idx := make([]int, len(l.StepDB))
-	for i := range idx {
-		idx[i] = i
-	}
-	sort.SliceStable(idx, func(a, b int) bool { return l.StepDB[idx[a]] < l.StepDB[idx[b]] })
-	perm := func(v []float64) []float64 {
-		out := make([]float64, len(v))
-		for i, j := range idx {
-			out[i] = v[j]
-		}
-		return out
-	}
-	return plots.StepLine{Label: l.Label, StepDB: perm(l.StepDB),
-		OutagePct: perm(l.OutagePct), OutageLowPct: perm(l.OutageLowPct), OutageHighPct: perm(l.OutageHighPct),
-		ErrorStdDB: perm(l.ErrorStdDB), ErrorStdLowDB: perm(l.ErrorStdLowDB), ErrorStdHighDB: perm(l.ErrorStdHighDB)}
 }
 
 // tuneFigures: the objective over step × update rate (when those are the

@@ -4,7 +4,6 @@ import (
 	"math"
 
 	"github.com/fadeloop/fadeloop/loop"
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Report is a multi-cell run's result. Ratios and noise rise are measured,
@@ -39,12 +38,6 @@ type (
 	UserPoint      = loop.LayoutUserPoint // one user of replication 0, for maps
 )
 
-// tq is the 97.5 % quantile of Student's t with dof ≥ 1 degrees of freedom
-// (gonum distuv.StudentsT).
-func tq(dof int) float64 {
-	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(dof)}.Quantile(0.975)
-}
-
 // meanInterval is the mean of units xs (batches or replications) with the
 // Student-t interval over them.
 func meanInterval(xs []float64) loop.Estimate {
@@ -65,7 +58,7 @@ func meanInterval(xs []float64) loop.Estimate {
 		v += (x - m) * (x - m)
 	}
 	se := math.Sqrt(v / (n - 1) / n)
-	h := tq(len(xs)-1) * se
+	h := loop.StudentT95(len(xs)-1) * se
 	return loop.Estimate{Value: m, CILow: m - h, CIHigh: m + h}
 }
 
@@ -97,11 +90,8 @@ func proportionInterval(hits, trials float64, ps []float64) loop.Estimate {
 	}
 	z := 1.959963984540054
 	if k >= 2 {
-		z = tq(k - 1)
+		z = loop.StudentT95(k - 1)
 	}
-	z2 := z * z
-	den := 1 + z2/neff
-	c := (p + z2/(2*neff)) / den
-	h := z * math.Sqrt(p*(1-p)/neff+z2/(4*neff*neff)) / den
-	return loop.Estimate{Value: p, CILow: math.Max(0, c-h), CIHigh: math.Min(1, c+h)}
+	lo, hi := loop.WilsonInterval(p, neff, z)
+	return loop.Estimate{Value: p, CILow: lo, CIHigh: hi}
 }

@@ -240,7 +240,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		var ls []plots.StepLine
 		for _, k := range order {
 			l := lines[k]
-			sortStepLine(l)
+			l.SortByStep()
 			ls = append(ls, *l)
 		}
 		fig, err = plots.StepSensitivity("Outage and SIR error spread against step size — "+title, ls)
@@ -300,23 +300,6 @@ func sortedValues(a *pb.SweepAxis) []float64 {
 	v := slices.Clone(a.GetValues())
 	slices.Sort(v)
 	return slices.Compact(v)
-}
-
-func sortStepLine(l *plots.StepLine) {
-	idx := make([]int, len(l.StepDB))
-	for i := range idx {
-		idx[i] = i
-	}
-	sort.SliceStable(idx, func(a, b int) bool { return l.StepDB[idx[a]] < l.StepDB[idx[b]] })
-	perm := func(v []float64) []float64 {
-		out := make([]float64, len(v))
-		for i, j := range idx {
-			out[i] = v[j]
-		}
-		return out
-	}
-	l.StepDB, l.OutagePct, l.OutageLowPct, l.OutageHighPct = perm(l.StepDB), perm(l.OutagePct), perm(l.OutageLowPct), perm(l.OutageHighPct)
-	l.ErrorStdDB, l.ErrorStdLowDB, l.ErrorStdHighDB = perm(l.ErrorStdDB), perm(l.ErrorStdLowDB), perm(l.ErrorStdHighDB)
 }
 
 // checkReportPath rejects, before any work, a --report FILE that is not
