@@ -213,7 +213,7 @@ type CapacityResult struct {
 // costs. Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
-	return capacityWith(ctx, req, opt, runScenario)
+	return capacityWith(ctx, req, opt, evaluatorFor(opt))
 }
 
 func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {

@@ -100,6 +100,28 @@ type Options struct {
 	// Parallelism is the most runs in flight; 0 means GOMAXPROCS. The result
 	// does not depend on it.
 	Parallelism int
+	// RunReplication, when set, runs one replication (one fully built,
+	// seeded scenario) in place of the in-process engine
+	// (multicell.RunScenario), e.g. on a work queue's workers. It must
+	// return the report the engine would return for sc, so that the result
+	// does not depend on where replications run. Nil runs in process.
+	RunReplication func(ctx context.Context, sc loop.Scenario) (*loop.Report, error)
+}
+
+// evaluatorFor returns the evaluator of opt: opt.RunReplication when set,
+// else the in-process engine.
+func evaluatorFor(opt Options) evaluator {
+	if opt.RunReplication == nil {
+		return runScenario
+	}
+	run := opt.RunReplication
+	return func(ctx context.Context, sc *loop.Scenario) (Sample, error) {
+		rep, err := run(ctx, *sc)
+		if err != nil {
+			return Sample{}, err
+		}
+		return sampleOf(sc, rep)
+	}
 }
 
 // Figures is every figure of one candidate under one condition, each with
@@ -691,7 +713,7 @@ func (req Request) WorstCaseUserSlots() (int64, error) {
 // cancelled ctx stops every run and returns ctx.Err(). The result is
 // identical for identical requests whatever opt.Parallelism or GOMAXPROCS.
 func Tune(ctx context.Context, req Request, opt Options) (*Recommendation, error) {
-	return tuneWith(ctx, req, opt, runScenario)
+	return tuneWith(ctx, req, opt, evaluatorFor(opt))
 }
 
 func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {

@@ -14,6 +14,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // flatSingle is one user at 300 m on a flat Rayleigh channel, no other-cell
@@ -635,4 +636,33 @@ func TestConstraintsUnmetReal(t *testing.T) {
 		t.Errorf("miss %+v, want value %g and excess %g", m, got, got-0.001)
 	}
 	t.Log(d.Headline)
+}
+
+// TestRunReplicationHook: a tune whose replications run through
+// Options.RunReplication (as on a work queue) gives the same recommendation
+// as the in-process engine, and every replication goes through the hook.
+func TestRunReplicationHook(t *testing.T) {
+	req := tuneRequestSmall()
+	req.Base.Run.Slots = 1500
+	want, err := Tune(context.Background(), req, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var calls atomic.Int64
+	got, err := Tune(context.Background(), req, Options{RunReplication: func(ctx context.Context, sc loop.Scenario) (*loop.Report, error) {
+		calls.Add(1)
+		return multicell.RunScenario(ctx, sc, loop.RunOptions{})
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, _ := json.Marshal(want)
+	b, _ := json.Marshal(got)
+	if !bytes.Equal(a, b) {
+		t.Error("recommendation through RunReplication differs from the in-process one")
+	}
+	// The search's replications plus the fixed-power baseline's.
+	if n := calls.Load(); n <= int64(got.Effort.Replications) {
+		t.Errorf("hook ran %d replications, the search alone used %d", n, got.Effort.Replications)
+	}
 }
