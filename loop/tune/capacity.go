@@ -5,7 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
+	"math/bits"
 	"sort"
 	"strings"
 
@@ -222,11 +222,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		return nil, v
 	}
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
-	par := opt.Parallelism
-	if par <= 0 {
-		par = runtime.GOMAXPROCS(0)
-	}
-	e := &engine{parallel: par, progress: opt.Progress}
+	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}
 	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}
 	res.PoleParams = PoleParamsOf(base)
 	if pc, err := PoleCapacity(res.PoleParams); err != nil {
@@ -239,7 +235,10 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	}
 	memo := map[int]*CapacityPoint{}
 	seed := base.Run.Seed
-	eval1 := func(n int, remaining int) (bool, error) {
+	// eval1 evaluates count n; remaining is the number of counts left in
+	// the bisection bracket (progress) and after the most counts the
+	// search can evaluate after this one (fraction done).
+	eval1 := func(n, remaining, after int) (bool, error) {
 		if p, ok := memo[n]; ok {
 			return p.Pass, nil
 		}
@@ -260,9 +259,8 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			jobs[r] = job{k: n, r: r}
 		}
 		samples := make([]Sample, reps)
-		e.mu.Lock()
 		e.remain = remaining
-		e.mu.Unlock()
+		e.left = reps * (1 + after)
 		err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
 			s := sc
 			s.Run.Seed = ReplicationSeed(seed, 0, j.r)
@@ -285,7 +283,25 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		memo[n] = p
 		return p.Pass, nil
 	}
-	ok, err := eval1(lo, 0)
+	// The most counts the bisection of the bracket (a, b) (a passes, b
+	// fails) evaluates: ⌈log₂(b−a)⌉.
+	bisect := func(a, b int) int { return bits.Len(uint(max(b-a, 1) - 1)) }
+	// The most counts the doubling from a passing count a up to top, and
+	// the bisection after it, evaluate.
+	doubling := func(a int) int {
+		d := 0
+		for c := a; c < top; c = min(2*c, top) {
+			d++
+		}
+		return d + bisect(a, top)
+	}
+	first := bisect(0, lo) // lo fails: bisect below it
+	if hi != 0 {
+		first = max(first, 1+bisect(lo, hi))
+	} else {
+		first = max(first, doubling(lo))
+	}
+	ok, err := eval1(lo, 0, first)
 	if err != nil {
 		return nil, err
 	}
@@ -298,7 +314,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			hi = lo
 			lo = 0
 		case hi != 0:
-			ok, err := eval1(hi, hi-lo-1)
+			ok, err := eval1(hi, hi-lo-1, bisect(lo, hi))
 			if err != nil {
 				return err
 			}
@@ -316,7 +332,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 					hi = lo
 					break
 				}
-				ok, err := eval1(next, 0)
+				ok, err := eval1(next, 0, max(doubling(next), bisect(lo, next)))
 				if err != nil {
 					return err
 				}
@@ -329,7 +345,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		}
 		for hi-lo > 1 {
 			mid := lo + (hi-lo)/2
-			ok, err := eval1(mid, hi-lo-1)
+			ok, err := eval1(mid, hi-lo-1, max(bisect(lo, mid), bisect(mid, hi)))
 			if err != nil {
 				return err
 			}
@@ -376,6 +392,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		res.Headline = strings.ReplaceAll(res.Headline, " users", " users per cell")
 		res.Reason = strings.ReplaceAll(res.Reason, " users", " users per cell")
 	}
+	e.report(true)
 	return res, nil
 }
 

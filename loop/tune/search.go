@@ -2,14 +2,10 @@ package tune
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"math"
-	"runtime"
 	"sort"
-	"sync"
 
-	"github.com/fadeloop/fadeloop/loop"
 )
 
 // Sample is the figures of one replication of one candidate under one
@@ -88,6 +84,14 @@ type Progress struct {
 	ReplicationsDone int `json:"replications_done"`
 	// UserSlotsDone is the simulated work so far (users × slots).
 	UserSlotsDone int64 `json:"user_slots_done"`
+	// FractionDone is ReplicationsDone over the most runs the search can
+	// take, re-bounded as it goes (Tune: MaxReplications of every candidate
+	// not yet dropped for good plus the baseline runs, no more than the
+	// budget left buys; Capacity: the replications of the counts the
+	// bisection bracket can still need), [0, 1]. It never decreases, stays
+	// below 1 while runs go on and is exactly 1 in the last report, when
+	// the answer is ready.
+	FractionDone float64 `json:"fraction_done"`
 }
 
 // Effort is the work a search spent.
@@ -154,10 +158,14 @@ type engine struct {
 	stage   int
 	remain  int
 
-	mu       sync.Mutex
-	progDone int
-	progWork int64
-	extraRep int // baseline runs counted in progress
+	// Progress (written between rounds and by the pool's serialised
+	// done callback).
+	progDone     int     // runs finished
+	progWork     int64   // their user-slots
+	left         int     // the most runs the search can still take
+	frac         float64 // the last reported fraction done
+	baselineRuns int     // the most fixed-power baseline runs (0: none)
+	minRunCost   int64   // user-slots of the cheapest run (budget bound)
 }
 
 func (e *engine) nScopes() int {
@@ -481,63 +489,16 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 
 type job struct{ k, c, r int }
 
-// runJobs runs the jobs in parallel (up to e.parallel goroutines) and stores
-// each sample at its (k, c, r) place, so the merge order is fixed.
+// runJobs runs the jobs on the package's worker pool (up to e.parallel at
+// once), reports progress after each, and then stores each sample at its
+// (k, c, r) place in job order, so the merge order is fixed whatever the
+// parallelism. Nothing is stored when a job fails.
 func (e *engine) runJobs(ctx context.Context, jobs []job, work func(ctx context.Context, j job) (Sample, error), store func(j job, s Sample)) error {
-	if len(jobs) == 0 {
-		return nil
-	}
-	ctx2, cancel := context.WithCancel(ctx)
-	defer cancel()
-	out := make([]Sample, len(jobs))
-	errs := make([]error, len(jobs))
-	var next int
-	var nmu sync.Mutex
-	var wg sync.WaitGroup
-	nw := min(max(1, e.parallel), len(jobs))
-	for w := 0; w < nw; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				nmu.Lock()
-				i := next
-				next++
-				nmu.Unlock()
-				if i >= len(jobs) || ctx2.Err() != nil {
-					return
-				}
-				s, err := safeWork(ctx2, jobs[i], work)
-				if err != nil {
-					errs[i] = err
-					cancel()
-					return
-				}
-				out[i] = s
-				e.mu.Lock()
-				e.progDone++
-				e.progWork += s.UserSlots
-				p := Progress{Stage: e.stage, CandidatesRemaining: e.remain, ReplicationsDone: e.progDone, UserSlotsDone: e.progWork}
-				if e.progress != nil {
-					e.progress(p)
-				}
-				e.mu.Unlock()
-			}
-		}()
-	}
-	wg.Wait()
-	if err := ctx.Err(); err != nil {
+	out, err := collect(ctx, len(jobs), e.parallel,
+		func(ctx context.Context, i int) (Sample, error) { return work(ctx, jobs[i]) },
+		func(_ int, s Sample) { e.tick(s.UserSlots) })
+	if err != nil {
 		return err
-	}
-	for _, err := range errs {
-		if err != nil && !errors.Is(err, context.Canceled) {
-			return err
-		}
-	}
-	for _, err := range errs {
-		if err != nil {
-			return err
-		}
 	}
 	for i, j := range jobs {
 		store(j, out[i])
@@ -545,15 +506,61 @@ func (e *engine) runJobs(ctx context.Context, jobs []job, work func(ctx context.
 	return nil
 }
 
-// safeWork runs one job, turning a panic (a programmer error) into a
-// *loop.PanicError so that the tuning fails instead of the process.
-func safeWork(ctx context.Context, j job, work func(ctx context.Context, j job) (Sample, error)) (s Sample, err error) {
-	defer func() {
-		if v := recover(); v != nil {
-			err = loop.NewPanicError(v)
+// tick counts one finished run (userSlots of work) and reports progress.
+// The pool serialises its calls.
+func (e *engine) tick(userSlots int64) {
+	e.progDone++
+	e.progWork += userSlots
+	e.left = max(e.left-1, 0)
+	e.report(false)
+}
+
+// report calls the progress callback, if any. FractionDone is the runs
+// done over the runs done plus e.left, the most runs the search can still
+// take; it never decreases, stays below 1 while the search runs and is 1
+// exactly in the final report.
+func (e *engine) report(final bool) {
+	if e.progress == nil {
+		return
+	}
+	f := 1.0
+	if !final {
+		f = 0
+		if all := e.progDone + e.left; all > 0 {
+			f = float64(e.progDone) / float64(all)
 		}
-	}()
-	return work(ctx, j)
+		f = min(max(f, e.frac), math.Nextafter(1, 0))
+	}
+	e.frac = f
+	e.progress(Progress{Stage: e.stage, CandidatesRemaining: e.remain, ReplicationsDone: e.progDone,
+		UserSlotsDone: e.progWork, FractionDone: f})
+}
+
+// candidateRunsLeft is the most candidate runs the sequential procedure can
+// still start: MaxReplications less the replications so far of every
+// (candidate, condition) that is not dropped for good (dropped in its
+// condition and, with several conditions, across conditions too), and no
+// more than the budget left buys at the cheapest run.
+func (e *engine) candidateRunsLeft() int {
+	left := 0
+	nS := e.nScopes()
+	for k := 0; k < e.nK; k++ {
+		for c := 0; c < e.nC; c++ {
+			if e.dropped[c][k] && (nS == e.nC || e.dropped[e.nC][k]) {
+				continue
+			}
+			left += max(e.maxReps-len(e.samples[k][c]), 0)
+		}
+	}
+	return e.budgetCap(left)
+}
+
+// budgetCap bounds n runs by what the budget left buys at the cheapest run.
+func (e *engine) budgetCap(n int) int {
+	if e.maxUserSlots > 0 && e.minRunCost > 0 {
+		n = min(n, int(max(e.maxUserSlots-e.effort.UserSlots, 0)/e.minRunCost))
+	}
+	return n
 }
 
 func (e *engine) cost(jobs []job) int64 {
@@ -567,9 +574,6 @@ func (e *engine) cost(jobs []job) int64 {
 // search runs the sequential procedure and returns the final outcome per
 // scope.
 func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
-	if e.parallel <= 0 {
-		e.parallel = runtime.GOMAXPROCS(0)
-	}
 	nS := e.nScopes()
 	e.samples = make([][][]Sample, e.nK)
 	for k := range e.samples {
@@ -602,6 +606,7 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 		return nil, &BudgetError{Field: "budget.max_user_slots", NeedUserSlots: need, LimitUserSlots: e.maxUserSlots}
 	}
 	e.remain = e.nK
+	e.left = e.candidateRunsLeft() + e.baselineRuns
 	if err := e.runJobs(ctx, jobs, work, store); err != nil {
 		return nil, err
 	}
@@ -650,7 +655,6 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 			e.effort.BudgetExhausted = true
 			break
 		}
-		e.mu.Lock()
 		e.stage++
 		e.remain = 0
 		for _, r := range remaining {
@@ -658,13 +662,14 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 				e.remain++
 			}
 		}
-		e.mu.Unlock()
+		e.left = e.candidateRunsLeft() + e.baselineRuns
 		if err := e.runJobs(ctx, jobs, work, store); err != nil {
 			return nil, err
 		}
 		e.effort.Stages++
 	}
 	e.effort.EqualAllocationReplications = e.nK * e.nC * e.effort.MaxReplicationsUsed
+	e.left = e.budgetCap(e.baselineRuns)
 	out := make([]scopeOutcome, nS)
 	for s := 0; s < nS; s++ {
 		out[s] = e.decide(s, true)

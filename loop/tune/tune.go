@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"runtime"
 	"sort"
 
 	"github.com/fadeloop/fadeloop/fading"
@@ -487,6 +486,28 @@ func tieLess(a, b Point) bool {
 // set, normalised and valid) and returns its figures.
 type evaluator func(ctx context.Context, sc *loop.Scenario) (Sample, error)
 
+// minRunCost is the user-slots of the cheapest run of a tune over the
+// candidate scenarios scs ([k][c]): a candidate's, or the fixed-power
+// baseline's of a condition (the condition applied to the base: the
+// baseline changes no field that sets the work).
+func minRunCost(req Request, scs [][]loop.Scenario, conds []Condition) int64 {
+	m := int64(math.MaxInt64)
+	for k := range scs {
+		for c := range scs[k] {
+			m = min(m, userSlots(&scs[k][c]))
+		}
+	}
+	if !req.SkipBaseline {
+		for _, cd := range conds {
+			if sc, err := cd.ApplyTo(req.Base); err == nil {
+				sc.Normalise()
+				m = min(m, userSlots(&sc))
+			}
+		}
+	}
+	return m
+}
+
 // userSlots is the work of one replication of sc.
 func userSlots(sc *loop.Scenario) int64 {
 	return int64(sc.Users()) * sc.TotalSlots()
@@ -741,14 +762,15 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 		tieLess:      func(a, b int) bool { return tieLess(pts[a], pts[b]) },
 		parallel:     opt.Parallelism,
 		progress:     opt.Progress,
+		minRunCost:   minRunCost(req, scs, set.conds),
 		run: func(ctx context.Context, k, c, r int) (Sample, error) {
 			sc := scs[k][c]
 			sc.Run.Seed = ReplicationSeed(seed, c, r)
 			return eval(ctx, &sc)
 		},
 	}
-	if e.parallel <= 0 {
-		e.parallel = runtime.GOMAXPROCS(0)
+	if !req.SkipBaseline {
+		e.baselineRuns = len(set.conds) * set.maxReps
 	}
 	outs, err := e.search(ctx)
 	if err != nil {
@@ -807,6 +829,7 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 	}
 	finishDecision(rec, &rec.Overall, all, rec.OverallCandidates)
 	rec.Overall.Reason = overallReason(rec)
+	e.report(true)
 	return rec, nil
 }
 
@@ -893,10 +916,12 @@ func runBaselines(ctx context.Context, req Request, set settings, e *engine, out
 			cost += int64(set.minReps) * userSlots(&bases[c])
 		}
 		if e.effort.UserSlots+cost > set.maxUserSlots {
+			e.left = 0
 			return nil
 		}
 	}
 	samples := make([][]Sample, len(set.conds))
+	e.left = len(jobs)
 	err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
 		sc := bases[j.c]
 		sc.Run.Seed = ReplicationSeed(seed, j.c, j.r)

@@ -213,7 +213,8 @@ func TestTuneProgressAndCancel(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want := int64(rec.Effort.Replications + rec.Effort.BaselineReplications); last.Load() != want || events.Load() != want {
+	// One event per run, and the final one (fraction done 1).
+	if want := int64(rec.Effort.Replications + rec.Effort.BaselineReplications); last.Load() != want || events.Load() != want+1 {
 		t.Errorf("progress: %d events, last %d, want %d", events.Load(), last.Load(), want)
 	}
 	ctx, cancel := context.WithCancel(context.Background())
