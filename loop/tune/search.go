@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-
 )
 
 // Sample is the figures of one replication of one candidate under one
