@@ -472,11 +472,12 @@ func newSearchProgress(intervalMs int32, send func(*pb.SearchProgress) error) *s
 	return p
 }
 
-// post is the tune.Options.Progress callback.
+// post is the tune.Options.Progress callback. The last event of a search
+// (fraction done 1) is always forwarded.
 func (p *searchProgress) post(tp tune.Progress) {
 	now := time.Now()
 	p.mu.Lock()
-	if !p.last.IsZero() && now.Sub(p.last) < p.interval {
+	if tp.FractionDone < 1 && !p.last.IsZero() && now.Sub(p.last) < p.interval {
 		p.mu.Unlock()
 		return
 	}
@@ -488,6 +489,7 @@ func (p *searchProgress) post(tp tune.Progress) {
 		ReplicationsDone:    int64(tp.ReplicationsDone),
 		UserSlotsDone:       tp.UserSlotsDone,
 		ElapsedS:            now.Sub(p.start).Seconds(),
+		FractionDone:        tp.FractionDone,
 	}
 	for {
 		select {
