@@ -345,40 +345,41 @@ func checkBase(base loop.Scenario) []Violation {
 	return vs
 }
 
-// checkTune validates a Tune request before any work: the .proto rules, the
-// base scenario (converted once), then tune.TuneCost: the tuner's own rules
-// for the axes, conditions, objective and budget, and the bound on its work,
-// without building a candidate. It also bounds the size of the answer
-// (tuneResponseBytes) by the server's message limit. It returns the
-// tuner's request and its cost in tap-slots.
-func (s *Server) checkTune(req *pb.TuneRequest) (tune.Request, int64, []Violation) {
+// checkTune validates a Tune request before any work, converting it once:
+// the .proto rules, the base scenario, then tune.PlanTune: the tuner's own
+// rules for the axes, conditions, objective and budget, and the bound on
+// its work, without building a candidate. It also bounds the size of the
+// answer (tuneResponseBytes) by the server's message limit. It returns the
+// tuner's plan, which the handler runs after admission.
+func (s *Server) checkTune(req *pb.TuneRequest) (*tune.TunePlan, []Violation) {
 	vs := s.validator.check(req, "")
 	if req.GetBase() == nil {
 		if len(vs) == 0 {
 			vs = append(vs, Violation{Field: "base", Description: "value is required"})
 		}
-		return tune.Request{}, 0, vs
+		return nil, vs
 	}
 	treq := TuneRequestFromProto(req)
 	if vs = mergeViolations(vs, checkBase(treq.Base)); len(vs) > 0 {
-		return treq, 0, vs
+		return nil, vs
 	}
 	if vs := checkAxisForms(req.GetAxes()); len(vs) > 0 {
-		return treq, 0, vs
+		return nil, vs
 	}
-	cost, err := tune.TuneCost(treq)
+	plan, err := tune.PlanTune(treq)
 	if err != nil {
 		if tvs, ok := searchViolations(err, req.GetAxes(), req.GetConditions()); ok {
-			return treq, 0, tvs
+			return nil, tvs
 		}
-		return treq, 0, []Violation{{Field: "axes", Description: err.Error()}}
+		return nil, []Violation{{Field: "axes", Description: err.Error()}}
 	}
+	cost := plan.Cost()
 	if n, limit := tuneResponseBytes(treq, cost.Points), int64(s.cfg.MaxSendMessageBytes); n > limit {
-		return treq, 0, []Violation{{Field: "axes", Description: fmt.Sprintf(
+		return nil, []Violation{{Field: "axes", Description: fmt.Sprintf(
 			"the recommendation for %d candidates × %d conditions would take about %d bytes, more than the server's maximum message size %d; use fewer candidates or conditions",
 			cost.Points, max(len(treq.Conditions), 1), n, limit)}}
 	}
-	return treq, cost.TapSlots, nil
+	return plan, nil
 }
 
 // tuneResponseBytes bounds the encoded size of the Recommendation of a
@@ -408,25 +409,30 @@ func tuneResponseBytes(req tune.Request, k int64) int64 {
 	return satAdd(satMul(k, point+overall+conds*perCond), conds*perCondFixed+8192)
 }
 
-// checkCapacity validates a Capacity request before any work: the .proto
-// rules, the base scenario, then the capacity search's own rules
-// (tune.CheckCapacity, which runs nothing).
-func (s *Server) checkCapacity(req *pb.CapacityRequest) (tune.CapacityRequest, []Violation) {
+// checkCapacity validates a Capacity request before any work, converting
+// it once: the .proto rules, the base scenario, then the capacity search's
+// own rules and the bound on its work (tune.PlanCapacity, which runs
+// nothing). It returns the plan, which the handler runs after admission.
+func (s *Server) checkCapacity(req *pb.CapacityRequest) (*tune.CapacityPlan, []Violation) {
 	vs := s.validator.check(req, "")
 	if req.GetBase() == nil {
 		if len(vs) == 0 {
 			vs = append(vs, Violation{Field: "base", Description: "value is required"})
 		}
-		return tune.CapacityRequest{}, vs
+		return nil, vs
 	}
 	creq := CapacityRequestFromProto(req)
 	if vs = mergeViolations(vs, checkBase(creq.Base)); len(vs) > 0 {
-		return creq, vs
+		return nil, vs
 	}
-	if tvs, ok := searchViolations(tune.CheckCapacity(creq), nil, nil); ok {
-		return creq, tvs
+	plan, err := tune.PlanCapacity(creq)
+	if err != nil {
+		if tvs, ok := searchViolations(err, nil, nil); ok {
+			return nil, tvs
+		}
+		return nil, []Violation{{Field: "base", Description: err.Error()}}
 	}
-	return creq, nil
+	return plan, nil
 }
 
 // budgetExhausted maps a *tune.BudgetError to RESOURCE_EXHAUSTED naming the
@@ -540,11 +546,11 @@ func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService
 	s := h.s
 	ctx := stream.Context()
 	start := time.Now()
-	treq, cost, vs := s.checkTune(req)
+	plan, vs := s.checkTune(req)
 	if len(vs) > 0 {
 		return s.reject(vs)
 	}
-	release, err := s.admit(ctx, "Tune", cost)
+	release, err := s.admit(ctx, "Tune", plan.Cost().TapSlots)
 	if err != nil {
 		return err
 	}
@@ -557,7 +563,7 @@ func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService
 	var rec *tune.Recommendation
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		rec, err = tune.Tune(ctx, treq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		rec, err = plan.Run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
 		return err
 	})
 	sendErr := prog.close()
@@ -579,11 +585,11 @@ func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.Simulatio
 	s := h.s
 	ctx := stream.Context()
 	start := time.Now()
-	creq, vs := s.checkCapacity(req)
+	plan, vs := s.checkCapacity(req)
 	if len(vs) > 0 {
 		return s.reject(vs)
 	}
-	release, err := s.admit(ctx, "Capacity", tune.CapacityCost(creq).TapSlots)
+	release, err := s.admit(ctx, "Capacity", plan.Cost().TapSlots)
 	if err != nil {
 		return err
 	}
@@ -596,7 +602,7 @@ func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.Simulatio
 	var res *tune.CapacityResult
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		res, err = tune.Capacity(ctx, creq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		res, err = plan.Run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
 		return err
 	})
 	sendErr := prog.close()

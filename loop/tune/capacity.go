@@ -212,15 +212,26 @@ type CapacityResult struct {
 // the simulated count shows what the simulated other-cell interference
 // costs. Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
+// It is PlanCapacity followed by CapacityPlan.Run.
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
 	return capacityWith(ctx, req, opt, evaluatorFor(opt))
 }
 
 func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
-	set, v := req.check()
-	if len(v) > 0 {
-		return nil, v
+	p, err := PlanCapacity(req)
+	if err != nil {
+		return nil, err
 	}
+	return p.run(ctx, opt, eval)
+}
+
+// Run answers the plan's request as Capacity does.
+func (p *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult, error) {
+	return p.run(ctx, opt, evaluatorFor(opt))
+}
+
+func (plan *CapacityPlan) run(ctx context.Context, opt Options, eval evaluator) (*CapacityResult, error) {
+	req, set := plan.req, plan.set
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
 	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}
 	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}

@@ -79,7 +79,29 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 	return heavy, v
 }
 
-// TuneCost validates req's grid, conditions, objective and budget and
+// TunePlan is a checked tuning request: its grid, resolved settings and
+// the bound on its work, found without building a candidate scenario
+// beyond one probe per axis value and one per condition. Run answers it.
+type TunePlan struct {
+	req  Request // SkipBaseline resolved
+	grid *Grid
+	set  settings
+	cost Cost
+}
+
+// Cost is the bound on the plan's work (see PlanTune).
+func (p *TunePlan) Cost() Cost { return p.cost }
+
+// TuneCost is PlanTune(req).Cost().
+func TuneCost(req Request) (Cost, error) {
+	p, err := PlanTune(req)
+	if err != nil {
+		return Cost{}, err
+	}
+	return p.cost, nil
+}
+
+// PlanTune validates req's grid, conditions, objective and budget and
 // bounds the work of Tune(req) without building a candidate scenario
 // beyond one probe per axis value and one per condition: with K
 // candidates, C conditions and R = max_replications,
@@ -90,17 +112,17 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 //
 // where cost₁ is loop.Scenario.Cost of one replication; the simulated part
 // is capped at budget.max_user_slots × the most taps per user when that is
-// set. A service compares TapSlots with its bound before Tune builds the
-// grid.
-func TuneCost(req Request) (Cost, error) {
-	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell() // as Tune
+// set. A service compares TapSlots with its bound before it runs the plan
+// (TunePlan.Run builds the candidates).
+func PlanTune(req Request) (*TunePlan, error) {
+	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell()
 	grid, err := NewGrid(req.Base, req.Axes)
 	if err != nil {
-		return Cost{}, err
+		return nil, err
 	}
 	set, v := req.check(grid.Size())
 	if len(v) > 0 {
-		return Cost{}, v
+		return nil, v
 	}
 	base := req.Base.Clone()
 	heavy, _ := probeAxes(base, grid, false)
@@ -129,13 +151,14 @@ func TuneCost(req Request) (Cost, error) {
 		maxTaps = max(maxTaps, tapsPerUser(sc))
 	}
 	if len(v) > 0 {
-		return Cost{}, v
+		return nil, v
 	}
 	if set.maxUserSlots > 0 {
 		sim = math.Min(sim, float64(set.maxUserSlots)*float64(maxTaps))
 	}
 	runs := satMul(satMul(k+b, int64(len(set.conds))), reps)
-	return Cost{Points: k, Runs: runs, TapSlots: satAdd(sat(sim), satMul(runs, RunOverheadTapSlots))}, nil
+	cost := Cost{Points: k, Runs: runs, TapSlots: satAdd(sat(sim), satMul(runs, RunOverheadTapSlots))}
+	return &TunePlan{req: req, grid: grid, set: set, cost: cost}, nil
 }
 
 // CapacityCost bounds the work of Capacity(req) in tap-slots without
@@ -258,9 +281,30 @@ func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
 // the base scenario at the lowest count. Bad input returns
 // loop.Violations naming request fields.
 func CheckCapacity(req CapacityRequest) error {
-	_, v := req.check()
-	return v.Err()
+	_, err := PlanCapacity(req)
+	return err
 }
+
+// CapacityPlan is a checked capacity request: its resolved settings and
+// the bound on its work. Run answers it.
+type CapacityPlan struct {
+	req  CapacityRequest
+	set  capacitySettings
+	cost Cost
+}
+
+// PlanCapacity validates req as CheckCapacity does and bounds its work
+// (CapacityCost), running nothing.
+func PlanCapacity(req CapacityRequest) (*CapacityPlan, error) {
+	set, v := req.check()
+	if len(v) > 0 {
+		return nil, v
+	}
+	return &CapacityPlan{req: req, set: set, cost: CapacityCost(req)}, nil
+}
+
+// Cost is the bound on the plan's work (CapacityCost).
+func (p *CapacityPlan) Cost() Cost { return p.cost }
 
 // tapsPerUser is the most fading taps of one user of sc (at least 1), the
 // factor from user-slots to tap-slots in loop.Scenario.Cost.

@@ -733,21 +733,30 @@ func (req Request) WorstCaseUserSlots() (int64, error) {
 // field; a budget too small for the first round returns *BudgetError; a
 // cancelled ctx stops every run and returns ctx.Err(). The result is
 // identical for identical requests whatever opt.Parallelism or GOMAXPROCS.
+// It is PlanTune followed by TunePlan.Run.
 func Tune(ctx context.Context, req Request, opt Options) (*Recommendation, error) {
 	return tuneWith(ctx, req, opt, evaluatorFor(opt))
 }
 
 func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
-	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell()
-	grid, err := NewGrid(req.Base, req.Axes)
+	p, err := PlanTune(req)
 	if err != nil {
 		return nil, err
 	}
+	return p.run(ctx, opt, eval)
+}
+
+// Run answers the plan's request as Tune does: it builds and validates
+// every candidate scenario under every condition (a violation of a
+// combination of axis values and overrides is reported here, after
+// admission), then runs the search.
+func (p *TunePlan) Run(ctx context.Context, opt Options) (*Recommendation, error) {
+	return p.run(ctx, opt, evaluatorFor(opt))
+}
+
+func (p *TunePlan) run(ctx context.Context, opt Options, eval evaluator) (*Recommendation, error) {
+	req, grid, set := p.req, p.grid, p.set
 	pts := grid.Points()
-	set, v := req.check(len(pts))
-	if len(v) > 0 {
-		return nil, v
-	}
 	scs, v := buildScenarios(req.Base, pts, set.conds)
 	if len(v) > 0 {
 		return nil, v
