@@ -686,47 +686,6 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 	return out, nil
 }
 
-// WorstCaseUserSlots validates req and returns the most users × slots Tune
-// can simulate for it: every candidate under every condition at
-// MaxReplications, plus the fixed-power baseline at MaxReplications per
-// condition (unless skipped), bounded by Budget.MaxUserSlots when that is
-// set. A service compares it with its cost bound before any work. It
-// saturates at math.MaxInt64.
-func (req Request) WorstCaseUserSlots() (int64, error) {
-	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell()
-	grid, err := NewGrid(req.Base, req.Axes)
-	if err != nil {
-		return 0, err
-	}
-	pts := grid.Points()
-	set, v := req.check(len(pts))
-	if len(v) > 0 {
-		return 0, v
-	}
-	scs, v := buildScenarios(req.Base, pts, set.conds)
-	if len(v) > 0 {
-		return 0, v
-	}
-	var total float64
-	for k := range scs {
-		for c := range scs[k] {
-			total += float64(set.maxReps) * float64(userSlots(&scs[k][c]))
-		}
-	}
-	if !req.SkipBaseline {
-		for c := range set.conds {
-			total += float64(set.maxReps) * float64(userSlots(&scs[0][c]))
-		}
-	}
-	if set.maxUserSlots > 0 && total > float64(set.maxUserSlots) {
-		return set.maxUserSlots, nil
-	}
-	if total >= math.MaxInt64 {
-		return math.MaxInt64, nil
-	}
-	return int64(total), nil
-}
-
 // Tune answers req: every candidate of the grid under every condition, with
 // common random numbers and sequential allocation of replications (see the
 // package documentation). Bad requests return loop.Violations naming each
