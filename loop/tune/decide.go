@@ -1,7 +1,6 @@
 package tune
 
 import (
-	"fmt"
 	"math"
 	"sort"
 )
@@ -131,19 +130,6 @@ const (
 	// indifference zone; no more replications were needed to place it.
 	StatusEquivalent
 )
-
-// String returns a short name.
-func (s CandidateStatus) String() string {
-	switch s {
-	case StatusContending:
-		return "contending"
-	case StatusDropped:
-		return "dropped"
-	case StatusEquivalent:
-		return "equivalent"
-	}
-	return fmt.Sprintf("CandidateStatus(%d)", int(s))
-}
 
 func (e *engine) constrained() bool { return e.obj.constrained() }
 

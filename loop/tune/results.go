@@ -1,7 +1,6 @@
 package tune
 
 import (
-	"fmt"
 	"math"
 	"sort"
 
@@ -104,21 +103,6 @@ const (
 	// VerdictSingle: there was only one candidate; nothing was compared.
 	VerdictSingle
 )
-
-// String returns the short label used in tables, e.g. "winner".
-func (v Verdict) String() string {
-	switch v {
-	case VerdictWinner:
-		return "winner"
-	case VerdictTie:
-		return "tie"
-	case VerdictConstraintsUnmet:
-		return "constraints unmet"
-	case VerdictSingle:
-		return "single setting"
-	}
-	return fmt.Sprintf("Verdict(%d)", int(v))
-}
 
 // ConstraintMiss is by how much a candidate misses one constraint in one
 // condition, on the point estimates.
