@@ -15,61 +15,37 @@ const TieRule = "smaller inner_loop.step_db, then lower inner_loop.update_rate_h
 	"then smaller outer_loop.up_step_db, then longer inner_loop.feedback_delay_slots, " +
 	"then smaller values of the other axes in axis order, then grid order"
 
+// tiePriority is TieRule's list of keys: the field, whether the smaller
+// value goes first, and the word for that side.
 var tiePriority = []struct {
 	path string
 	asc  bool
+	word string
 }{
-	{StepPath, true},
-	{RatePath, true},
-	{"outer_loop.up_step_db", true},
-	{"inner_loop.feedback_delay_slots", false},
+	{StepPath, true, "smaller"},
+	{RatePath, true, "lower"},
+	{"outer_loop.up_step_db", true, "smaller"},
+	{"inner_loop.feedback_delay_slots", false, "longer"},
 }
 
-// tieKey names the TieRule key that puts a before b, e.g. "smaller
-// inner_loop.step_db".
-func tieKey(a, b Point) string {
+// tieOrder compares grid points a and b by TieRule: less says a comes
+// first, key names the rule that decides, e.g. "smaller
+// inner_loop.step_db" ("grid order" when only the index does).
+func tieOrder(a, b Point) (less bool, key string) {
 	for _, tp := range tiePriority {
 		va, oka := a.Value(tp.path)
 		vb, okb := b.Value(tp.path)
 		if !oka || !okb || va == vb {
 			continue
 		}
-		switch {
-		case tp.path == RatePath:
-			return "lower inner_loop.update_rate_hz"
-		case tp.asc:
-			return "smaller " + tp.path
-		default:
-			return "longer " + tp.path
-		}
+		return (va < vb) == tp.asc, tp.word + " " + tp.path
 	}
 	for i := range a.Coords {
 		if a.Coords[i].Value != b.Coords[i].Value {
-			return "smaller " + a.Coords[i].Path
+			return a.Coords[i].Value < b.Coords[i].Value, "smaller " + a.Coords[i].Path
 		}
 	}
-	return "grid order"
-}
-
-// tieLess orders grid points by TieRule.
-func tieLess(a, b Point) bool {
-	for _, tp := range tiePriority {
-		va, oka := a.Value(tp.path)
-		vb, okb := b.Value(tp.path)
-		if !oka || !okb || va == vb {
-			continue
-		}
-		if tp.asc {
-			return va < vb
-		}
-		return va > vb
-	}
-	for i := range a.Coords {
-		if a.Coords[i].Value != b.Coords[i].Value {
-			return a.Coords[i].Value < b.Coords[i].Value
-		}
-	}
-	return a.Index < b.Index
+	return a.Index < b.Index, "grid order"
 }
 
 func decision(o scopeOutcome, pts []Point, obj Objective) Decision {
@@ -109,7 +85,7 @@ func decision(o scopeOutcome, pts []Point, obj Objective) Decision {
 				}
 			}
 		}
-		d.TieBreak = tieKey(pts[o.chosen], pts[other])
+		_, d.TieBreak = tieOrder(pts[o.chosen], pts[other])
 	}
 	return d
 }

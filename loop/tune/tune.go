@@ -53,10 +53,13 @@ func (p *TunePlan) run(ctx context.Context, opt Options, eval evaluator) (*Recom
 		minReps: set.minReps, maxReps: set.maxReps, batch: set.batchReps,
 		maxUserSlots: set.maxUserSlots,
 		jobCost:      func(k, c int) int64 { return userSlots(&scs[k][c]) },
-		tieLess:      func(a, b int) bool { return tieLess(pts[a], pts[b]) },
-		parallel:     opt.Parallelism,
-		progress:     opt.Progress,
-		minRunCost:   minRunCost(req, scs, set.conds),
+		tieLess: func(a, b int) bool {
+			less, _ := tieOrder(pts[a], pts[b])
+			return less
+		},
+		parallel:   opt.Parallelism,
+		progress:   opt.Progress,
+		minRunCost: minRunCost(req, scs, set.conds),
 		run: func(ctx context.Context, k, c, r int) (Sample, error) {
 			sc := scs[k][c]
 			sc.Run.Seed = ReplicationSeed(seed, c, r)
