@@ -272,82 +272,91 @@ func (s *Server) searchError(ctx context.Context, err error, axes []*pb.SweepAxi
 	return statusFromError(ctx, err)
 }
 
-// Tune searches the grid of settings and streams progress, then the
-// recommendation.
-func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService_TuneServer) error {
-	s := h.s
-	ctx := stream.Context()
-	start := time.Now()
-	plan, vs := s.checkTune(req)
-	if len(vs) > 0 {
-		return s.reject(vs)
-	}
-	release, err := s.admit(ctx, "Tune", plan.Cost().TapSlots)
+// searchCall is one checked Tune or Capacity call: its cost and how to
+// run its plan, count its work and send its progress and answer.
+type searchCall[R any] struct {
+	method       string
+	cost         int64 // tap-slots
+	intervalMs   int32
+	run          func(ctx context.Context, opt tune.Options) (R, error)
+	userSlots    func(R) int64
+	sendProgress func(*pb.SearchProgress) error
+	sendAnswer   func(ans R, wall time.Duration) error
+	// axes and conds map violations found while running (searchViolations).
+	axes  []*pb.SweepAxis
+	conds []*pb.Condition
+}
+
+// serveSearch admits a checked search, runs it with its progress on the
+// stream, and sends its answer; start is when the call began.
+func serveSearch[R any](ctx context.Context, s *Server, start time.Time, c searchCall[R]) error {
+	release, err := s.admit(ctx, c.method, c.cost)
 	if err != nil {
 		return err
 	}
 	defer release()
-	s.hook(ctx, "Tune")
+	s.hook(ctx, c.method)
 
-	prog := newSearchProgress(req.GetProgressIntervalMs(), func(m *pb.SearchProgress) error {
-		return stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Progress{Progress: m}})
-	})
-	var rec *tune.Recommendation
+	prog := newSearchProgress(c.intervalMs, c.sendProgress)
+	var ans R
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		rec, err = plan.Run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		ans, err = c.run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
 		return err
 	})
 	sendErr := prog.close()
 	if err != nil {
-		return s.searchError(ctx, err, req.GetAxes(), req.GetConditions())
+		return s.searchError(ctx, err, c.axes, c.conds)
 	}
 	if sendErr != nil {
 		return statusFromError(ctx, sendErr)
 	}
 	wall := time.Since(start)
-	s.countSearch(ctx, rec.Effort.UserSlots, wall)
-	return statusFromError(ctx, stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Recommendation{
-		Recommendation: RecommendationToProto(rec, wall)}}))
+	s.countSearch(ctx, c.userSlots(ans), wall)
+	return statusFromError(ctx, c.sendAnswer(ans, wall))
+}
+
+// Tune searches the grid of settings and streams progress, then the
+// recommendation.
+func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService_TuneServer) error {
+	start := time.Now()
+	plan, vs := h.s.checkTune(req)
+	if len(vs) > 0 {
+		return h.s.reject(vs)
+	}
+	return serveSearch(stream.Context(), h.s, start, searchCall[*tune.Recommendation]{
+		method: "Tune", cost: plan.Cost().TapSlots, intervalMs: req.GetProgressIntervalMs(),
+		run:       plan.Run,
+		userSlots: func(r *tune.Recommendation) int64 { return r.Effort.UserSlots },
+		sendProgress: func(m *pb.SearchProgress) error {
+			return stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Progress{Progress: m}})
+		},
+		sendAnswer: func(r *tune.Recommendation, wall time.Duration) error {
+			return stream.Send(&pb.TuneResponse{Event: &pb.TuneResponse_Recommendation{Recommendation: RecommendationToProto(r, wall)}})
+		},
+		axes: req.GetAxes(), conds: req.GetConditions(),
+	})
 }
 
 // Capacity bisects the group's user count and streams progress, then the
 // result.
 func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.SimulationService_CapacityServer) error {
-	s := h.s
-	ctx := stream.Context()
 	start := time.Now()
-	plan, vs := s.checkCapacity(req)
+	plan, vs := h.s.checkCapacity(req)
 	if len(vs) > 0 {
-		return s.reject(vs)
+		return h.s.reject(vs)
 	}
-	release, err := s.admit(ctx, "Capacity", plan.Cost().TapSlots)
-	if err != nil {
-		return err
-	}
-	defer release()
-	s.hook(ctx, "Capacity")
-
-	prog := newSearchProgress(req.GetProgressIntervalMs(), func(m *pb.SearchProgress) error {
-		return stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Progress{Progress: m}})
+	return serveSearch(stream.Context(), h.s, start, searchCall[*tune.CapacityResult]{
+		method: "Capacity", cost: plan.Cost().TapSlots, intervalMs: req.GetProgressIntervalMs(),
+		run:       plan.Run,
+		userSlots: func(r *tune.CapacityResult) int64 { return r.UserSlots },
+		sendProgress: func(m *pb.SearchProgress) error {
+			return stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Progress{Progress: m}})
+		},
+		sendAnswer: func(r *tune.CapacityResult, wall time.Duration) error {
+			return stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Result{Result: CapacityResultToProto(r, wall)}})
+		},
 	})
-	var res *tune.CapacityResult
-	err = <-goSafe(s.cfg.Logger, ctx, func() error {
-		var err error
-		res, err = plan.Run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
-		return err
-	})
-	sendErr := prog.close()
-	if err != nil {
-		return s.searchError(ctx, err, nil, nil)
-	}
-	if sendErr != nil {
-		return statusFromError(ctx, sendErr)
-	}
-	wall := time.Since(start)
-	s.countSearch(ctx, res.UserSlots, wall)
-	return statusFromError(ctx, stream.Send(&pb.CapacityResponse{Event: &pb.CapacityResponse_Result{
-		Result: CapacityResultToProto(res, wall)}}))
 }
 
 // checkAxisForms checks that every axis lists values, lists names or gives
