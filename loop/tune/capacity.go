@@ -214,23 +214,16 @@ type CapacityResult struct {
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
 // It is PlanCapacity followed by CapacityPlan.Run.
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
-	return capacityWith(ctx, req, opt, evaluatorFor(opt))
-}
-
-func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
 	p, err := PlanCapacity(req)
 	if err != nil {
 		return nil, err
 	}
-	return p.run(ctx, opt, eval)
+	return p.Run(ctx, opt)
 }
 
 // Run answers the plan's request as Capacity does.
-func (p *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult, error) {
-	return p.run(ctx, opt, evaluatorFor(opt))
-}
-
-func (plan *CapacityPlan) run(ctx context.Context, opt Options, eval evaluator) (*CapacityResult, error) {
+func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult, error) {
+	eval := evaluatorFor(opt)
 	req, set := plan.req, plan.set
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
 	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}

@@ -222,7 +222,7 @@ func PlanCapacity(req CapacityRequest) (*CapacityPlan, error) {
 }
 
 // Cost is the bound on the plan's work (CapacityCost).
-func (p *CapacityPlan) Cost() Cost { return p.cost }
+func (plan *CapacityPlan) Cost() Cost { return plan.cost }
 
 // tapsPerUser is the most fading taps of one user of sc (at least 1), the
 // factor from user-slots to tap-slots in loop.Scenario.Cost.

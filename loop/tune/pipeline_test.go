@@ -43,6 +43,18 @@ func toyEval(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	}, nil
 }
 
+// tuneWith is Tune with eval in place of the engine.
+func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
+	opt.eval = eval
+	return Tune(ctx, req, opt)
+}
+
+// capacityWith is Capacity with eval in place of the engine.
+func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
+	opt.eval = eval
+	return Capacity(ctx, req, opt)
+}
+
 func toyRequest() Request {
 	base := loop.CanonicalScenario()
 	base.Groups[0].Count = 1

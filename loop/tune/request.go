@@ -94,11 +94,17 @@ type Options struct {
 	// return the report the engine would return for sc, so that the result
 	// does not depend on where replications run. Nil runs in process.
 	RunReplication func(ctx context.Context, sc loop.Scenario) (*loop.Report, error)
+
+	// eval, when set, replaces the engine and RunReplication (tests).
+	eval evaluator
 }
 
 // evaluatorFor returns the evaluator of opt: opt.RunReplication when set,
 // else the in-process engine.
 func evaluatorFor(opt Options) evaluator {
+	if opt.eval != nil {
+		return opt.eval
+	}
 	if opt.RunReplication == nil {
 		return runScenario
 	}

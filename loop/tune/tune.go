@@ -20,15 +20,11 @@ import (
 // identical for identical requests whatever opt.Parallelism or GOMAXPROCS.
 // It is PlanTune followed by TunePlan.Run.
 func Tune(ctx context.Context, req Request, opt Options) (*Recommendation, error) {
-	return tuneWith(ctx, req, opt, evaluatorFor(opt))
-}
-
-func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
 	p, err := PlanTune(req)
 	if err != nil {
 		return nil, err
 	}
-	return p.run(ctx, opt, eval)
+	return p.Run(ctx, opt)
 }
 
 // Run answers the plan's request as Tune does: it builds and validates
@@ -36,10 +32,7 @@ func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*R
 // combination of axis values and overrides is reported here, after
 // admission), then runs the search.
 func (p *TunePlan) Run(ctx context.Context, opt Options) (*Recommendation, error) {
-	return p.run(ctx, opt, evaluatorFor(opt))
-}
-
-func (p *TunePlan) run(ctx context.Context, opt Options, eval evaluator) (*Recommendation, error) {
+	eval := evaluatorFor(opt)
 	req, grid, set := p.req, p.grid, p.set
 	pts := grid.Points()
 	scs, v := buildScenarios(req.Base, pts, set.conds)
