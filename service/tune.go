@@ -184,29 +184,18 @@ func budgetExhausted(be *tune.BudgetError) error {
 // one-slot mailbox (a slow reader never stalls the search: older events are
 // replaced by newer ones), at most one event per interval.
 type searchProgress struct {
+	*latestSender[*pb.SearchProgress]
 	start    time.Time
 	interval time.Duration
-	mailbox  chan *pb.SearchProgress
-	done     chan error
 	mu       sync.Mutex
 	last     time.Time
 }
 
 func newSearchProgress(intervalMs int32, send func(*pb.SearchProgress) error) *searchProgress {
-	p := &searchProgress{start: time.Now(), interval: DefaultProgressInterval,
-		mailbox: make(chan *pb.SearchProgress, 1), done: make(chan error, 1)}
+	p := &searchProgress{latestSender: newLatestSender(send), start: time.Now(), interval: DefaultProgressInterval}
 	if intervalMs > 0 {
 		p.interval = time.Duration(intervalMs) * time.Millisecond
 	}
-	go func() {
-		var err error
-		for m := range p.mailbox {
-			if err == nil {
-				err = send(m)
-			}
-		}
-		p.done <- err
-	}()
 	return p
 }
 
@@ -221,31 +210,14 @@ func (p *searchProgress) post(tp tune.Progress) {
 	}
 	p.last = now
 	p.mu.Unlock()
-	m := &pb.SearchProgress{
+	p.latestSender.post(&pb.SearchProgress{
 		Stage:               i32(tp.Stage),
 		CandidatesRemaining: i32(tp.CandidatesRemaining),
 		ReplicationsDone:    int64(tp.ReplicationsDone),
 		UserSlotsDone:       tp.UserSlotsDone,
 		ElapsedS:            now.Sub(p.start).Seconds(),
 		FractionDone:        tp.FractionDone,
-	}
-	for {
-		select {
-		case p.mailbox <- m:
-			return
-		default:
-		}
-		select {
-		case <-p.mailbox:
-		default:
-		}
-	}
-}
-
-// close stops the sender and returns its first send error.
-func (p *searchProgress) close() error {
-	close(p.mailbox)
-	return <-p.done
+	})
 }
 
 // countSearch records a finished search's work in the metrics and the call
