@@ -390,12 +390,11 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 	if fail != nil {
 		res.LimitedBy = failures(fail)
 	}
-	res.Headline, res.Reason = capacityReason(res, fail)
+	unit := "users"
 	if base.MultiCell() {
-		// Counts, totals and the isolated-cell pole are per cell.
-		res.Headline = strings.ReplaceAll(res.Headline, " users", " users per cell")
-		res.Reason = strings.ReplaceAll(res.Reason, " users", " users per cell")
+		unit = "users per cell" // counts, totals and the isolated-cell pole
 	}
+	res.Headline, res.Reason = capacityReason(res, fail, unit)
 	e.report(true)
 	return res, nil
 }
@@ -415,18 +414,21 @@ func failures(p *CapacityPoint) []string {
 	return out
 }
 
-// pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40 users".
-func pointText(p *CapacityPoint) string {
+// pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40
+// users" (unit: "users", or "users per cell" in multi-cell mode).
+func pointText(p *CapacityPoint, unit string) string {
 	o, n := FigureLabelOf(FigureOutage), FigureLabelOf(FigureNoiseRise)
-	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d users", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
-		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers)
+	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d %s", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
+		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers, unit)
 	if k := p.Figures.InfeasibleReplications; k > 0 {
 		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProbability.N)
 	}
 	return s
 }
 
-func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason string) {
+// capacityReason is the headline and reason of res; unit names the counts
+// ("users", or "users per cell" in multi-cell mode).
+func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string) (headline, reason string) {
 	nl := FigureLabelOf(FigureNoiseRise)
 	limits := fmt.Sprintf("outage ≤ %s, noise rise ≤ %s, feasible load", pct(res.OutageLimit), nl.Value(res.NoiseRiseLimitDB))
 	var at *CapacityPoint
@@ -451,22 +453,22 @@ func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason 
 		// it: every evaluated count is at most MinCount, which is the
 		// largest of them.
 		p := &res.Evaluated[len(res.Evaluated)-1]
-		headline = fmt.Sprintf("Capacity: below the range tried: %d users already miss %s%s.", p.TotalUsers, limits, by)
-		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p))
+		headline = fmt.Sprintf("Capacity: below the range tried: %d %s already miss %s%s.", p.TotalUsers, unit, limits, by)
+		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p, unit))
 	case res.AtRangeTop:
-		headline = fmt.Sprintf("Capacity: at least %d users (%s); the largest count tried passes.", res.TotalUsers, limits)
-		first = fmt.Sprintf("All %d users tried meet the limits (%s).", res.TotalUsers, pointText(at))
+		headline = fmt.Sprintf("Capacity: at least %d %s (%s); the largest count tried passes.", res.TotalUsers, unit, limits)
+		first = fmt.Sprintf("All %d %s tried meet the limits (%s).", res.TotalUsers, unit, pointText(at, unit))
 	default:
-		headline = fmt.Sprintf("Capacity: %d users (%s)%s.", res.TotalUsers, limits, by)
-		first = fmt.Sprintf("Up to %d users meet the limits (%s)", res.TotalUsers, pointText(at))
+		headline = fmt.Sprintf("Capacity: %d %s (%s)%s.", res.TotalUsers, unit, limits, by)
+		first = fmt.Sprintf("Up to %d %s meet the limits (%s)", res.TotalUsers, unit, pointText(at, unit))
 		if fail != nil {
-			first += fmt.Sprintf("; %d users miss them (%s)", fail.TotalUsers, pointText(fail))
+			first += fmt.Sprintf("; %d %s miss them (%s)", fail.TotalUsers, unit, pointText(fail, unit))
 		}
 		first += "."
 	}
 	var pole string
 	if res.PoleError == "" {
-		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, res.ModelPole)
+		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f %s; the pole of this model's own interference equation: %.1f %s. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, unit, res.ModelPole, unit)
 	}
 	var nm string
 	if res.BudgetExhausted {
