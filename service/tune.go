@@ -68,13 +68,26 @@ func searchViolations(err error, axes []*pb.SweepAxis, conds []*pb.Condition) ([
 	return out, true
 }
 
-// checkBase validates the converted base scenario of a search request
-// (a normalised copy), reporting at "base.…".
-func checkBase(base loop.Scenario) []Violation {
-	b := base.Clone()
+// convertSearch checks a Tune or Capacity request's .proto rules, converts
+// it once (conv) and validates the base scenario of the conversion (a
+// normalised copy, reporting at "base.…").
+func convertSearch[R any](s *Server, req interface {
+	proto.Message
+	GetBase() *pb.Scenario
+}, conv func() R, base func(R) loop.Scenario) (R, []Violation) {
+	var out R
+	vs := s.validator.check(req, "")
+	if req.GetBase() == nil {
+		if len(vs) == 0 {
+			vs = append(vs, Violation{Field: "base", Description: "value is required"})
+		}
+		return out, vs
+	}
+	out = conv()
+	b := base(out).Clone()
 	b.Normalise()
-	vs, _ := violationsOf(b.Validate().Err(), "base.")
-	return vs
+	bvs, _ := violationsOf(b.Validate().Err(), "base.")
+	return out, mergeViolations(vs, bvs)
 }
 
 // checkTune validates a Tune request before any work, converting it once:
@@ -84,15 +97,9 @@ func checkBase(base loop.Scenario) []Violation {
 // answer (tuneResponseBytes) by the server's message limit. It returns the
 // tuner's plan, which the handler runs after admission.
 func (s *Server) checkTune(req *pb.TuneRequest) (*tune.TunePlan, []Violation) {
-	vs := s.validator.check(req, "")
-	if req.GetBase() == nil {
-		if len(vs) == 0 {
-			vs = append(vs, Violation{Field: "base", Description: "value is required"})
-		}
-		return nil, vs
-	}
-	treq := TuneRequestFromProto(req)
-	if vs = mergeViolations(vs, checkBase(treq.Base)); len(vs) > 0 {
+	treq, vs := convertSearch(s, req, func() tune.Request { return TuneRequestFromProto(req) },
+		func(r tune.Request) loop.Scenario { return r.Base })
+	if len(vs) > 0 {
 		return nil, vs
 	}
 	if vs := checkAxisForms(req.GetAxes()); len(vs) > 0 {
@@ -146,15 +153,9 @@ func tuneResponseBytes(req tune.Request, k int64) int64 {
 // own rules and the bound on its work (tune.PlanCapacity, which runs
 // nothing). It returns the plan, which the handler runs after admission.
 func (s *Server) checkCapacity(req *pb.CapacityRequest) (*tune.CapacityPlan, []Violation) {
-	vs := s.validator.check(req, "")
-	if req.GetBase() == nil {
-		if len(vs) == 0 {
-			vs = append(vs, Violation{Field: "base", Description: "value is required"})
-		}
-		return nil, vs
-	}
-	creq := CapacityRequestFromProto(req)
-	if vs = mergeViolations(vs, checkBase(creq.Base)); len(vs) > 0 {
+	creq, vs := convertSearch(s, req, func() tune.CapacityRequest { return CapacityRequestFromProto(req) },
+		func(r tune.CapacityRequest) loop.Scenario { return r.Base })
+	if len(vs) > 0 {
 		return nil, vs
 	}
 	plan, err := tune.PlanCapacity(creq)
