@@ -155,15 +155,17 @@ func TestFractionDone(t *testing.T) {
 	record := func(ps *[]Progress) Options {
 		return Options{Parallelism: 2, Progress: func(p Progress) { *ps = append(*ps, p) }}
 	}
+	// The toy evaluator (pipeline_test.go) keeps this quick under -race:
+	// 5 candidates × 3 conditions, 2 replications in the first round.
 	tunes := map[string]func() Request{
-		"tune": tuneRequestSmall,
+		"tune": toyRequest,
 		"tune budget": func() Request {
-			r := tuneRequestSmall()
-			r.Budget.MaxUserSlots = 500000
+			r := toyRequest()
+			r.Budget.MaxUserSlots = 120000 // the first round (90 000) and a short baseline
 			return r
 		},
 		"tune no baseline, one condition": func() Request {
-			r := tuneRequestSmall()
+			r := toyRequest()
 			r.Conditions = nil
 			r.SkipBaseline = true
 			return r
@@ -171,17 +173,21 @@ func TestFractionDone(t *testing.T) {
 	}
 	for name, req := range tunes {
 		var ps []Progress
-		rec, err := Tune(context.Background(), req(), record(&ps))
+		rec, err := tuneWith(context.Background(), req(), record(&ps), toyEval)
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
 		}
 		checkFractions(t, name, ps)
+		if budget := req().Budget.MaxUserSlots > 0; budget != rec.Effort.BudgetExhausted {
+			t.Errorf("%s: budget exhausted %v, want %v", name, rec.Effort.BudgetExhausted, budget)
+		}
 		if got, want := ps[len(ps)-1].ReplicationsDone, rec.Effort.Replications+rec.Effort.BaselineReplications; got != want {
 			t.Errorf("%s: last event counts %d runs, want %d", name, got, want)
 		}
 		// The first run's fraction is at most one over the first round.
-		if f, most := ps[0].FractionDone, 1/float64(6*max(len(req().Conditions), 1)*3); f > most+1e-12 {
-			t.Errorf("%s: first fraction %g, want at most %g", name, f, most)
+		firstRound := 5 * max(len(req().Conditions), 1) * DefaultMinReplications
+		if f := ps[0].FractionDone; f > 1/float64(firstRound)+1e-12 {
+			t.Errorf("%s: first fraction %g, want at most 1/%d", name, f, firstRound)
 		}
 	}
 	caps := map[string]func() CapacityRequest{

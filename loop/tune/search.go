@@ -170,8 +170,7 @@ func (e *engine) report(final bool) {
 // candidateRunsLeft is the most candidate runs the sequential procedure can
 // still start: MaxReplications less the replications so far of every
 // (candidate, condition) that is not dropped for good (dropped in its
-// condition and, with several conditions, across conditions too), and no
-// more than the budget left buys at the cheapest run.
+// condition and, with several conditions, across conditions too).
 func (e *engine) candidateRunsLeft() int {
 	left := 0
 	nS := e.nScopes()
@@ -183,10 +182,11 @@ func (e *engine) candidateRunsLeft() int {
 			left += max(e.maxReps-len(e.samples[k][c]), 0)
 		}
 	}
-	return e.budgetCap(left)
+	return left
 }
 
-// budgetCap bounds n runs by what the budget left buys at the cheapest run.
+// budgetCap bounds n runs by what the budget left buys at the cheapest run
+// (candidates and baseline share the budget).
 func (e *engine) budgetCap(n int) int {
 	if e.maxUserSlots > 0 && e.minRunCost > 0 {
 		n = min(n, int(max(e.maxUserSlots-e.effort.UserSlots, 0)/e.minRunCost))
@@ -237,7 +237,7 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 		return nil, &BudgetError{Field: "budget.max_user_slots", NeedUserSlots: need, LimitUserSlots: e.maxUserSlots}
 	}
 	e.remain = e.nK
-	e.left = e.candidateRunsLeft() + e.baselineRuns
+	e.left = e.budgetCap(e.candidateRunsLeft() + e.baselineRuns)
 	if err := e.runJobs(ctx, jobs, work, store); err != nil {
 		return nil, err
 	}
@@ -293,7 +293,7 @@ func (e *engine) search(ctx context.Context) ([]scopeOutcome, error) {
 				e.remain++
 			}
 		}
-		e.left = e.candidateRunsLeft() + e.baselineRuns
+		e.left = e.budgetCap(e.candidateRunsLeft() + e.baselineRuns)
 		if err := e.runJobs(ctx, jobs, work, store); err != nil {
 			return nil, err
 		}
