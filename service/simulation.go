@@ -53,6 +53,51 @@ func traceOptions(m *pb.TraceOptions, n int, slots int64, maxBytes int) (loop.Tr
 	return loop.TraceOptions{Users: users, Decimation: d}, vs
 }
 
+// latestSender sends values on its own goroutine through a one-slot
+// mailbox, so that a slow reader never stalls the producer: a value not yet
+// sent is replaced by a newer one, and the last value posted is always
+// sent. post must not be called concurrently.
+type latestSender[T any] struct {
+	mailbox chan T
+	done    chan error
+}
+
+func newLatestSender[T any](send func(T) error) *latestSender[T] {
+	l := &latestSender[T]{mailbox: make(chan T, 1), done: make(chan error, 1)}
+	go func() {
+		var err error
+		for v := range l.mailbox {
+			if err == nil {
+				err = send(v)
+			}
+		}
+		l.done <- err
+	}()
+	return l
+}
+
+// post queues v for sending in place of any value not yet sent.
+func (l *latestSender[T]) post(v T) {
+	for {
+		select {
+		case l.mailbox <- v:
+			return
+		default:
+		}
+		select {
+		case <-l.mailbox:
+		default:
+		}
+	}
+}
+
+// close sends what is queued, stops the sender and returns its first send
+// error.
+func (l *latestSender[T]) close() error {
+	close(l.mailbox)
+	return <-l.done
+}
+
 // progressToProto converts an engine progress event.
 func progressToProto(p loop.Progress) *pb.Progress {
 	return &pb.Progress{
@@ -86,37 +131,12 @@ func (h *simulationServer) Simulate(req *pb.SimulateRequest, stream pb.Simulatio
 	if ms := req.GetProgressIntervalMs(); ms > 0 {
 		interval = time.Duration(ms) * time.Millisecond
 	}
-	// Progress events go through a one-slot mailbox to a sender goroutine,
-	// so that a slow reader never stalls the engine (older events are
-	// replaced by newer ones).
-	mailbox := make(chan *pb.Progress, 1)
-	sendDone := make(chan error, 1)
-	go func() {
-		var err error
-		for p := range mailbox {
-			if err == nil {
-				err = stream.Send(&pb.SimulateResponse{Event: &pb.SimulateResponse_Progress{Progress: p}})
-			}
-		}
-		sendDone <- err
-	}()
-	post := func(p loop.Progress) {
-		m := progressToProto(p)
-		for {
-			select {
-			case mailbox <- m:
-				return
-			default:
-			}
-			select {
-			case <-mailbox:
-			default:
-			}
-		}
-	}
+	prog := newLatestSender(func(p *pb.Progress) error {
+		return stream.Send(&pb.SimulateResponse{Event: &pb.SimulateResponse_Progress{Progress: p}})
+	})
+	post := func(p loop.Progress) { prog.post(progressToProto(p)) }
 	rep, err := multicell.RunScenario(ctx, sc, loop.RunOptions{Progress: post, ProgressEvery: interval, Trace: topts})
-	close(mailbox)
-	sendErr := <-sendDone
+	sendErr := prog.close()
 	if err != nil {
 		if vs, ok := violationsOf(err, "scenario."); ok {
 			return s.reject(vs)

@@ -139,17 +139,36 @@ func TestTuneMatchesDirectCall(t *testing.T) {
 			if len(prog) == 0 {
 				t.Fatal("no progress events")
 			}
-			for i := 1; i < len(prog); i++ {
-				if prog[i].GetReplicationsDone() < prog[i-1].GetReplicationsDone() {
-					t.Errorf("progress went backwards: %v then %v", prog[i-1], prog[i])
-				}
-			}
+			checkSearchProgress(t, prog)
 			last := prog[len(prog)-1]
 			total := rec.GetEffort().GetReplications() + rec.GetEffort().GetBaselineReplications()
-			if last.GetReplicationsDone() > total || last.GetCandidatesRemaining() > 3 {
-				t.Errorf("last progress %v beyond the effort (%d runs, 3 candidates)", last, total)
+			if last.GetReplicationsDone() != total || last.GetCandidatesRemaining() > 3 {
+				t.Errorf("last progress %v: want every run of the effort (%d runs), at most 3 candidates", last, total)
 			}
 		})
+	}
+}
+
+// checkSearchProgress checks a search's progress events as the stream
+// carries them (some may be dropped by the interval and the one-slot
+// mailbox): replications and fraction done never decrease, the fraction
+// stays in [0, 1] and below 1 until the last event, which is exactly 1.
+func checkSearchProgress(t *testing.T, prog []*pb.SearchProgress) {
+	t.Helper()
+	if len(prog) == 0 {
+		t.Fatal("no progress events")
+	}
+	for i, p := range prog {
+		f := p.GetFractionDone()
+		if f < 0 || f > 1 || (f >= 1 && i < len(prog)-1) {
+			t.Errorf("event %d of %d: fraction done %g", i, len(prog), f)
+		}
+		if i > 0 && (p.GetReplicationsDone() < prog[i-1].GetReplicationsDone() || f < prog[i-1].GetFractionDone()) {
+			t.Errorf("progress went backwards: %v then %v", prog[i-1], p)
+		}
+	}
+	if f := prog[len(prog)-1].GetFractionDone(); f != 1 {
+		t.Errorf("last fraction done %g, want exactly 1", f)
 	}
 }
 
@@ -183,8 +202,12 @@ func TestCapacityMatchesDirectCall(t *testing.T) {
 				t.Fatalf("Capacity differs from tune.Capacity:\ngot  %v\nwant %v", got, want)
 			}
 			if len(res.GetEvaluated()) < 2 || res.GetPole() <= 0 || res.GetReason() == "" || len(prog) == 0 {
-				t.Errorf("result shape: %d counts, pole %g, reason %q, %d progress events",
+				t.Fatalf("result shape: %d counts, pole %g, reason %q, %d progress events",
 					len(res.GetEvaluated()), res.GetPole(), res.GetReason(), len(prog))
+			}
+			checkSearchProgress(t, prog)
+			if last := prog[len(prog)-1]; last.GetReplicationsDone() != res.GetReplications() {
+				t.Errorf("last progress %v: want every run (%d)", last, res.GetReplications())
 			}
 		})
 	}

@@ -5,7 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
+	"math/bits"
 	"sort"
 	"strings"
 
@@ -212,21 +212,21 @@ type CapacityResult struct {
 // the simulated count shows what the simulated other-cell interference
 // costs. Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
+// It is PlanCapacity followed by CapacityPlan.Run.
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
-	return capacityWith(ctx, req, opt, evaluatorFor(opt))
+	p, err := PlanCapacity(req)
+	if err != nil {
+		return nil, err
+	}
+	return p.Run(ctx, opt)
 }
 
-func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
-	set, v := req.check()
-	if len(v) > 0 {
-		return nil, v
-	}
+// Run answers the plan's request as Capacity does.
+func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult, error) {
+	eval := evaluatorFor(opt)
+	req, set := plan.req, plan.set
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
-	par := opt.Parallelism
-	if par <= 0 {
-		par = runtime.GOMAXPROCS(0)
-	}
-	e := &engine{parallel: par, progress: opt.Progress}
+	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}
 	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}
 	res.PoleParams = PoleParamsOf(base)
 	if pc, err := PoleCapacity(res.PoleParams); err != nil {
@@ -239,7 +239,10 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	}
 	memo := map[int]*CapacityPoint{}
 	seed := base.Run.Seed
-	eval1 := func(n int, remaining int) (bool, error) {
+	// eval1 evaluates count n; remaining is the number of counts left in
+	// the bisection bracket (progress) and after the most counts the
+	// search can evaluate after this one (fraction done).
+	eval1 := func(n, remaining, after int) (bool, error) {
 		if p, ok := memo[n]; ok {
 			return p.Pass, nil
 		}
@@ -260,9 +263,8 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			jobs[r] = job{k: n, r: r}
 		}
 		samples := make([]Sample, reps)
-		e.mu.Lock()
 		e.remain = remaining
-		e.mu.Unlock()
+		e.left = reps * (1 + after)
 		err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
 			s := sc
 			s.Run.Seed = ReplicationSeed(seed, 0, j.r)
@@ -285,7 +287,25 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		memo[n] = p
 		return p.Pass, nil
 	}
-	ok, err := eval1(lo, 0)
+	// The most counts the bisection of the bracket (a, b) (a passes, b
+	// fails) evaluates: ⌈log₂(b−a)⌉.
+	bisect := func(a, b int) int { return bits.Len(uint(max(b-a, 1) - 1)) }
+	// The most counts the doubling from a passing count a up to top, and
+	// the bisection after it, evaluate.
+	doubling := func(a int) int {
+		d := 0
+		for c := a; c < top; c = min(2*c, top) {
+			d++
+		}
+		return d + bisect(a, top)
+	}
+	first := bisect(0, lo) // lo fails: bisect below it
+	if hi != 0 {
+		first = max(first, 1+bisect(lo, hi))
+	} else {
+		first = max(first, doubling(lo))
+	}
+	ok, err := eval1(lo, 0, first)
 	if err != nil {
 		return nil, err
 	}
@@ -298,7 +318,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 			hi = lo
 			lo = 0
 		case hi != 0:
-			ok, err := eval1(hi, hi-lo-1)
+			ok, err := eval1(hi, hi-lo-1, bisect(lo, hi))
 			if err != nil {
 				return err
 			}
@@ -316,7 +336,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 					hi = lo
 					break
 				}
-				ok, err := eval1(next, 0)
+				ok, err := eval1(next, 0, max(doubling(next), bisect(lo, next)))
 				if err != nil {
 					return err
 				}
@@ -329,7 +349,7 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 		}
 		for hi-lo > 1 {
 			mid := lo + (hi-lo)/2
-			ok, err := eval1(mid, hi-lo-1)
+			ok, err := eval1(mid, hi-lo-1, max(bisect(lo, mid), bisect(mid, hi)))
 			if err != nil {
 				return err
 			}
@@ -370,12 +390,12 @@ func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval ev
 	if fail != nil {
 		res.LimitedBy = failures(fail)
 	}
-	res.Headline, res.Reason = capacityReason(res, fail)
+	unit := "users"
 	if base.MultiCell() {
-		// Counts, totals and the isolated-cell pole are per cell.
-		res.Headline = strings.ReplaceAll(res.Headline, " users", " users per cell")
-		res.Reason = strings.ReplaceAll(res.Reason, " users", " users per cell")
+		unit = "users per cell" // counts, totals and the isolated-cell pole
 	}
+	res.Headline, res.Reason = capacityReason(res, fail, unit)
+	e.report(true)
 	return res, nil
 }
 
@@ -394,18 +414,21 @@ func failures(p *CapacityPoint) []string {
 	return out
 }
 
-// pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40 users".
-func pointText(p *CapacityPoint) string {
+// pointText is "outage 3.10 % [2.80, 3.40] %, noise rise 4.20 dB at 40
+// users" (unit: "users", or "users per cell" in multi-cell mode).
+func pointText(p *CapacityPoint, unit string) string {
 	o, n := FigureLabelOf(FigureOutage), FigureLabelOf(FigureNoiseRise)
-	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d users", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
-		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers)
+	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d %s", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
+		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers, unit)
 	if k := p.Figures.InfeasibleReplications; k > 0 {
 		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProbability.N)
 	}
 	return s
 }
 
-func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason string) {
+// capacityReason is the headline and reason of res; unit names the counts
+// ("users", or "users per cell" in multi-cell mode).
+func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string) (headline, reason string) {
 	nl := FigureLabelOf(FigureNoiseRise)
 	limits := fmt.Sprintf("outage ≤ %s, noise rise ≤ %s, feasible load", pct(res.OutageLimit), nl.Value(res.NoiseRiseLimitDB))
 	var at *CapacityPoint
@@ -430,22 +453,22 @@ func capacityReason(res *CapacityResult, fail *CapacityPoint) (headline, reason 
 		// it: every evaluated count is at most MinCount, which is the
 		// largest of them.
 		p := &res.Evaluated[len(res.Evaluated)-1]
-		headline = fmt.Sprintf("Capacity: below the range tried: %d users already miss %s%s.", p.TotalUsers, limits, by)
-		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p))
+		headline = fmt.Sprintf("Capacity: below the range tried: %d %s already miss %s%s.", p.TotalUsers, unit, limits, by)
+		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p, unit))
 	case res.AtRangeTop:
-		headline = fmt.Sprintf("Capacity: at least %d users (%s); the largest count tried passes.", res.TotalUsers, limits)
-		first = fmt.Sprintf("All %d users tried meet the limits (%s).", res.TotalUsers, pointText(at))
+		headline = fmt.Sprintf("Capacity: at least %d %s (%s); the largest count tried passes.", res.TotalUsers, unit, limits)
+		first = fmt.Sprintf("All %d %s tried meet the limits (%s).", res.TotalUsers, unit, pointText(at, unit))
 	default:
-		headline = fmt.Sprintf("Capacity: %d users (%s)%s.", res.TotalUsers, limits, by)
-		first = fmt.Sprintf("Up to %d users meet the limits (%s)", res.TotalUsers, pointText(at))
+		headline = fmt.Sprintf("Capacity: %d %s (%s)%s.", res.TotalUsers, unit, limits, by)
+		first = fmt.Sprintf("Up to %d %s meet the limits (%s)", res.TotalUsers, unit, pointText(at, unit))
 		if fail != nil {
-			first += fmt.Sprintf("; %d users miss them (%s)", fail.TotalUsers, pointText(fail))
+			first += fmt.Sprintf("; %d %s miss them (%s)", fail.TotalUsers, unit, pointText(fail, unit))
 		}
 		first += "."
 	}
 	var pole string
 	if res.PoleError == "" {
-		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users; the pole of this model's own interference equation: %.1f users. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, res.ModelPole)
+		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f %s; the pole of this model's own interference equation: %.1f %s. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, unit, res.ModelPole, unit)
 	}
 	var nm string
 	if res.BudgetExhausted {

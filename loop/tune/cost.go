@@ -79,65 +79,6 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 	return heavy, v
 }
 
-// TuneCost validates req's grid, conditions, objective and budget and
-// bounds the work of Tune(req) without building a candidate scenario
-// beyond one probe per axis value and one per condition: with K
-// candidates, C conditions and R = max_replications,
-//
-//	runs      = (K + B)·C·R   (B = 1 with the fixed-power baseline, else 0)
-//	tap-slots = Σ_c (K + B)·R·cost₁(heaviest candidate under c)
-//	            + runs·RunOverheadTapSlots,
-//
-// where cost₁ is loop.Scenario.Cost of one replication; the simulated part
-// is capped at budget.max_user_slots × the most taps per user when that is
-// set. A service compares TapSlots with its bound before Tune builds the
-// grid.
-func TuneCost(req Request) (Cost, error) {
-	req.SkipBaseline = req.SkipBaseline || req.Base.MultiCell() // as Tune
-	grid, err := NewGrid(req.Base, req.Axes)
-	if err != nil {
-		return Cost{}, err
-	}
-	set, v := req.check(grid.Size())
-	if len(v) > 0 {
-		return Cost{}, v
-	}
-	base := req.Base.Clone()
-	heavy, _ := probeAxes(base, grid, false)
-	k := int64(grid.Size())
-	b := int64(0)
-	if !req.SkipBaseline {
-		b = 1
-	}
-	reps := int64(set.maxReps)
-	var sim float64
-	maxTaps := int64(1)
-	for c, cd := range set.conds {
-		// The condition first, then the candidate's axis values (as Tune
-		// builds its scenarios).
-		sc := base.Clone()
-		for j, o := range cd.Overrides {
-			if err := o.Apply(&sc); err != nil {
-				v = append(v, loop.Violation{Field: fmt.Sprintf("conditions[%d].overrides[%d].path", c, j), Rule: err.Error()})
-			}
-		}
-		_ = heavy.Apply(&sc) // an axis value that does not apply fails at build time, after admission
-		sc.Run.Replications = 1
-		sc.Normalise()
-		one := sc.Cost()
-		sim += float64(k+b) * float64(reps) * float64(one)
-		maxTaps = max(maxTaps, tapsPerUser(sc))
-	}
-	if len(v) > 0 {
-		return Cost{}, v
-	}
-	if set.maxUserSlots > 0 {
-		sim = math.Min(sim, float64(set.maxUserSlots)*float64(maxTaps))
-	}
-	runs := satMul(satMul(k+b, int64(len(set.conds))), reps)
-	return Cost{Points: k, Runs: runs, TapSlots: satAdd(sat(sim), satMul(runs, RunOverheadTapSlots))}, nil
-}
-
 // CapacityCost bounds the work of Capacity(req) in tap-slots without
 // running it. The doubling evaluates counts lo, 2·lo, ... up to hi (the
 // group's largest count: max_count, or the engine's user limit), together
@@ -258,9 +199,30 @@ func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
 // the base scenario at the lowest count. Bad input returns
 // loop.Violations naming request fields.
 func CheckCapacity(req CapacityRequest) error {
-	_, v := req.check()
-	return v.Err()
+	_, err := PlanCapacity(req)
+	return err
 }
+
+// CapacityPlan is a checked capacity request: its resolved settings and
+// the bound on its work. Run answers it.
+type CapacityPlan struct {
+	req  CapacityRequest
+	set  capacitySettings
+	cost Cost
+}
+
+// PlanCapacity validates req as CheckCapacity does and bounds its work
+// (CapacityCost), running nothing.
+func PlanCapacity(req CapacityRequest) (*CapacityPlan, error) {
+	set, v := req.check()
+	if len(v) > 0 {
+		return nil, v
+	}
+	return &CapacityPlan{req: req, set: set, cost: CapacityCost(req)}, nil
+}
+
+// Cost is the bound on the plan's work (CapacityCost).
+func (plan *CapacityPlan) Cost() Cost { return plan.cost }
 
 // tapsPerUser is the most fading taps of one user of sc (at least 1), the
 // factor from user-slots to tap-slots in loop.Scenario.Cost.

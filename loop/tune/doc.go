@@ -9,7 +9,8 @@
 // with a list of values or a range and a count; a Grid is the Cartesian
 // product of its axes in a stable row-major order (last axis fastest), and a
 // Point is applied to a copy of the base scenario with loop.SetPath. The
-// Sweep RPC uses the same machinery. A Condition is a weighted set of
+// Sweep RPC uses the same machinery (PlanSweep, Sweep), and Sweep, Tune and
+// Capacity run on one worker pool (pool.go). A Condition is a weighted set of
 // Overrides (numbers through loop.SetPath, strings and enums such as
 // "groups[0].profile" or "inner_loop.mode" through loop.SetTextPath).
 //
@@ -83,6 +84,15 @@
 // replication flagged infeasible, with the same replication seeds at every
 // count (common random numbers), and reports PoleCapacity (Gilhousen et al.,
 // IEEE Trans. Veh. Technol. 40(2), 1991) beside it.
+//
+// # Plans and progress
+//
+// PlanSweep, PlanTune and PlanCapacity check a request and bound its work
+// (Cost) without running it; a service admits the plan and runs it (Sweep,
+// TunePlan.Run, CapacityPlan.Run), so each request is checked once. Tune
+// and Capacity report Progress after every run, with FractionDone: the
+// runs done over the most the search can still take, never decreasing and
+// exactly 1 in the last report.
 //
 // Everything is deterministic in the request: results are identical
 // whatever GOMAXPROCS or Options.Parallelism is (runs write to fixed slots

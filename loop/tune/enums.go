@@ -14,6 +14,34 @@ var (
 	warningKindNames     = []string{"WARNING_KIND_UNSPECIFIED", "WARNING_KIND_HIGH_OUTAGE", "WARNING_KIND_INFEASIBLE_LOAD", "WARNING_KIND_BUDGET_EXHAUSTED"}
 )
 
+// Labels of the enumerations in text (reasons, tables, errors): String.
+var (
+	objectiveKindLabels   = []string{ObjectiveMinSIRErrorStd: "SIR error std", ObjectiveMinOutage: "outage probability", ObjectiveMinTxPower: "mean Tx power"}
+	candidateStatusLabels = []string{StatusContending: "contending", StatusDropped: "dropped", StatusEquivalent: "equivalent"}
+	verdictLabels         = []string{VerdictWinner: "winner", VerdictTie: "tie", VerdictConstraintsUnmet: "constraints unmet", VerdictSingle: "single setting"}
+)
+
+// enumLabel is labels[v], or "kind(v)" for a value without a label.
+func enumLabel(labels []string, kind string, v int) string {
+	if v >= 0 && v < len(labels) && labels[v] != "" {
+		return labels[v]
+	}
+	return fmt.Sprintf("%s(%d)", kind, v)
+}
+
+// String returns the name used in reasons and errors, e.g. "SIR error std".
+func (k ObjectiveKind) String() string {
+	return enumLabel(objectiveKindLabels, "ObjectiveKind", int(k))
+}
+
+// String returns a short name, e.g. "dropped".
+func (s CandidateStatus) String() string {
+	return enumLabel(candidateStatusLabels, "CandidateStatus", int(s))
+}
+
+// String returns the short label used in tables, e.g. "winner".
+func (v Verdict) String() string { return enumLabel(verdictLabels, "Verdict", int(v)) }
+
 func parseEnum(names []string, kind string, b []byte) (int, error) {
 	s := string(b)
 	for i, n := range names {

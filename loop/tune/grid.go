@@ -206,9 +206,13 @@ func (p Point) Apply(sc *loop.Scenario) error {
 // ApplyTo returns a deep copy of base (no slice shared with it) with p
 // applied; base is never changed. This is how a sweep builds the scenario
 // of grid point p.
-func (p Point) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
+func (p Point) ApplyTo(base loop.Scenario) (loop.Scenario, error) { return applyTo(p, base) }
+
+// applyTo returns a deep copy of base with x applied (Point, Condition);
+// base is never changed.
+func applyTo(x interface{ Apply(*loop.Scenario) error }, base loop.Scenario) (loop.Scenario, error) {
 	sc := base.Clone()
-	if err := p.Apply(&sc); err != nil {
+	if err := x.Apply(&sc); err != nil {
 		return loop.Scenario{}, err
 	}
 	return sc, nil
@@ -416,10 +420,4 @@ func (c Condition) Apply(sc *loop.Scenario) error {
 
 // ApplyTo returns a deep copy of base with the condition applied; base is
 // never changed.
-func (c Condition) ApplyTo(base loop.Scenario) (loop.Scenario, error) {
-	sc := base.Clone()
-	if err := c.Apply(&sc); err != nil {
-		return loop.Scenario{}, err
-	}
-	return sc, nil
-}
+func (c Condition) ApplyTo(base loop.Scenario) (loop.Scenario, error) { return applyTo(c, base) }

@@ -1,7 +1,6 @@
 package tune
 
 import (
-	"fmt"
 	"math"
 )
 
@@ -23,19 +22,6 @@ const (
 	// achieved BLER within Objective.BLERTolerance of its target.
 	ObjectiveMinTxPower
 )
-
-// String returns the name used in reasons and errors.
-func (k ObjectiveKind) String() string {
-	switch k {
-	case ObjectiveMinSIRErrorStd:
-		return "SIR error std"
-	case ObjectiveMinOutage:
-		return "outage probability"
-	case ObjectiveMinTxPower:
-		return "mean Tx power"
-	}
-	return fmt.Sprintf("ObjectiveKind(%d)", int(k))
-}
 
 // DefaultOutageWarning is the outage probability above which a recommended
 // setting carries a high-outage warning when Objective.OutageWarning is 0:

@@ -43,6 +43,18 @@ func toyEval(ctx context.Context, sc *loop.Scenario) (Sample, error) {
 	}, nil
 }
 
+// tuneWith is Tune with eval in place of the engine.
+func tuneWith(ctx context.Context, req Request, opt Options, eval evaluator) (*Recommendation, error) {
+	opt.eval = eval
+	return Tune(ctx, req, opt)
+}
+
+// capacityWith is Capacity with eval in place of the engine.
+func capacityWith(ctx context.Context, req CapacityRequest, opt Options, eval evaluator) (*CapacityResult, error) {
+	opt.eval = eval
+	return Capacity(ctx, req, opt)
+}
+
 func toyRequest() Request {
 	base := loop.CanonicalScenario()
 	base.Groups[0].Count = 1
@@ -148,24 +160,26 @@ func TestTuneSingleCandidate(t *testing.T) {
 	}
 }
 
-func TestWorstCaseUserSlots(t *testing.T) {
+// TuneCost bounds the runs and the work of the search it plans: 5
+// candidates × 3 conditions + 3 baselines, 32 replications each, of 1
+// user × 3000 slots; with a budget the simulated part is at most the
+// budget times the taps of a user.
+func TestTuneCostBoundsTheSearch(t *testing.T) {
 	req := toyRequest()
-	// 5 candidates × 3 conditions + 3 baselines, 32 replications each, of
-	// 1 user × 3000 slots.
-	got, err := req.WorstCaseUserSlots()
-	if want := int64((5*3 + 3) * DefaultMaxReplications * 3000); err != nil || got != want {
-		t.Errorf("worst case %d (%v), want %d", got, err, want)
+	c, err := TuneCost(req)
+	if want := int64((5*3 + 3) * DefaultMaxReplications); err != nil || c.Runs != want || c.Points != 5 {
+		t.Fatalf("cost %+v (%v), want %d runs of 5 candidates", c, err, want)
 	}
-	req.Budget.MaxUserSlots = 1000
-	if got, _ := req.WorstCaseUserSlots(); got != 1000 {
-		t.Errorf("bounded worst case %d, want 1000", got)
-	}
-	rec, err := tuneWith(context.Background(), toyRequest(), Options{}, toyEval)
+	rec, err := tuneWith(context.Background(), req, Options{}, toyEval)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if w, _ := toyRequest().WorstCaseUserSlots(); rec.Effort.UserSlots > w {
-		t.Errorf("spent %d user-slots, worst case %d", rec.Effort.UserSlots, w)
+	if runs := int64(rec.Effort.Replications + rec.Effort.BaselineReplications); runs > c.Runs || rec.Effort.UserSlots > c.TapSlots {
+		t.Errorf("spent %d runs and %d user-slots, cost bound %+v", runs, rec.Effort.UserSlots, c)
+	}
+	req.Budget.MaxUserSlots = 1000
+	if b, _ := TuneCost(req); b.TapSlots != 1000*tapsPerUser(req.Base)+c.Runs*RunOverheadTapSlots {
+		t.Errorf("bounded cost %+v, want 1000 user-slots × %d taps plus the run overhead", b, tapsPerUser(req.Base))
 	}
 }
 

@@ -87,3 +87,31 @@ func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
 	}
 	return s, nil
 }
+
+// Sample is the figures of one replication of one candidate under one
+// condition, as the engine reports them for that run (aggregate over users).
+type Sample struct {
+	// SIRErrorMeanDB and SIRErrorStdDB: mean and standard deviation of
+	// the SIR error (true SIR minus the current target) over users and
+	// measured slots, dB.
+	SIRErrorMeanDB float64 `json:"sir_error_mean_db"`
+	SIRErrorStdDB  float64 `json:"sir_error_std_db"`
+	// OutageProbability: fraction of user-slots with SIR below target minus the
+	// outage margin, [0, 1].
+	OutageProbability float64 `json:"outage_probability"`
+	// BLER: achieved block error rate, [0, 1]; BLERTarget the outer loop's
+	// target τ, or 0 when the outer loop is off (no BLER constraint then).
+	BLER       float64 `json:"achieved_bler"`
+	BLERTarget float64 `json:"bler_target"`
+	// TxPowerMeanDBm: mean transmit power over users and slots, dBm.
+	TxPowerMeanDBm float64 `json:"tx_power_mean_dbm"`
+	// TimeAtMaxPower: fraction of user-slots at maximum power, [0, 1].
+	TimeAtMaxPower float64 `json:"max_power_fraction"`
+	// NoiseRiseDB: mean noise rise at the receiver, dB.
+	NoiseRiseDB float64 `json:"noise_rise_mean_db"`
+	// UserSlots simulated (users × slots, warm-up included).
+	UserSlots int64 `json:"user_slots"`
+	// Infeasible is set when the engine reported that the users cannot all
+	// reach their target.
+	Infeasible bool `json:"infeasible"`
+}

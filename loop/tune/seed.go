@@ -1,5 +1,7 @@
 package tune
 
+import "github.com/fadeloop/fadeloop/fading"
+
 // SeedMode says which seed each sweep point runs with. The numbers are
 // those of the fadeloop.v1 SeedMode enum.
 type SeedMode int
@@ -41,4 +43,16 @@ func PointSeed(seed uint64, index int64, mode SeedMode) uint64 {
 		return seed
 	}
 	return SplitMix64(seed, uint64(index))
+}
+
+// streamReplicationSeed is the stream kind of the per-replication seeds.
+const streamReplicationSeed fading.StreamKind = 901
+
+// ReplicationSeed is the seed of replication r under condition c of a
+// search seeded with seed: the first Uint64 of fading.NewStream(seed, c, r,
+// 901). Every candidate under condition c uses it for replication r (common
+// random numbers), and so does the fixed-power baseline; the capacity search
+// uses condition 0 for every user count.
+func ReplicationSeed(seed uint64, c, r int) uint64 {
+	return fading.NewStream(seed, c, r, streamReplicationSeed).Uint64()
 }

@@ -3,8 +3,6 @@ package tune
 import (
 	"context"
 	"fmt"
-	"runtime"
-	"sync"
 	"time"
 
 	"github.com/fadeloop/fadeloop/loop"
@@ -219,17 +217,14 @@ func RunPoint(ctx context.Context, base loop.Scenario, axes []Axis, index int64,
 	if index < 0 || index >= int64(g.Size()) {
 		return nil, loop.Violations{{Field: "point_indices", Rule: fmt.Sprintf("must be a grid index in [0, %d), got %d", g.Size(), index)}}
 	}
-	return runPoint(ctx, b, g, index, seedMode)
+	return safeCall(ctx, 0, func(ctx context.Context, _ int) (*SweepPoint, error) {
+		return runPoint(ctx, b, g, index, seedMode)
+	})
 }
 
-// runPoint runs grid point idx, turning an engine panic into a
-// *loop.PanicError.
-func runPoint(ctx context.Context, base loop.Scenario, g *Grid, idx int64, mode SeedMode) (sp *SweepPoint, err error) {
-	defer func() {
-		if r := recover(); r != nil {
-			sp, err = nil, loop.NewPanicError(r)
-		}
-	}()
+// runPoint runs grid point idx; its callers turn an engine panic into a
+// *loop.PanicError (safeCall, runPool).
+func runPoint(ctx context.Context, base loop.Scenario, g *Grid, idx int64, mode SeedMode) (*SweepPoint, error) {
 	sc, err := pointScenario(base, g, idx, mode)
 	if err != nil {
 		return nil, err
@@ -262,13 +257,13 @@ type SweepSummary struct {
 	Wall           time.Duration `json:"-"`
 }
 
-// Sweep computes the plan's points on a pool of opt.Parallelism workers and
-// hands each finished point to onPoint, serialised, in completion order
-// (each point's content is deterministic, its arrival order is not). The
-// first error (a point's, onPoint's or ctx's) stops the workers: no new
-// point starts, running points see a cancelled context, and Sweep returns
-// that error, with the summary of the work done, once every worker has
-// stopped.
+// Sweep computes the plan's points on the package's worker pool (runPool)
+// of opt.Parallelism workers and hands each finished point to onPoint,
+// serialised, in completion order (each point's content is deterministic,
+// its arrival order is not). The first error (a point's, onPoint's or
+// ctx's) stops the workers: no new point starts, running points see a
+// cancelled context, and Sweep returns that error, with the summary of the
+// work done, once every worker has stopped.
 func Sweep(ctx context.Context, plan *SweepPlan, opt SweepOptions, onPoint func(*SweepPoint) error) (SweepSummary, error) {
 	start := time.Now()
 	sum := SweepSummary{GridPoints: int64(plan.GridSize())}
@@ -277,65 +272,18 @@ func Sweep(ctx context.Context, plan *SweepPlan, opt SweepOptions, onPoint func(
 			return sum, err
 		}
 	}
-	par := opt.Parallelism
-	if par <= 0 {
-		par = runtime.GOMAXPROCS(0)
-	}
-	n := plan.Points()
-	par = max(min(par, n), 1)
-	runCtx, cancel := context.WithCancel(ctx)
-	defer cancel()
-	var (
-		mu       sync.Mutex
-		next     int
-		firstErr error
-		wg       sync.WaitGroup
-	)
-	fail := func(err error) {
-		if firstErr == nil {
-			firstErr = err
-			cancel()
-		}
-	}
-	for range par {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				mu.Lock()
-				if firstErr != nil || next >= n || runCtx.Err() != nil {
-					mu.Unlock()
-					return
-				}
-				i := next
-				next++
-				sum.PointsStarted++
-				mu.Unlock()
-				sp, err := runPoint(runCtx, plan.base, plan.grid, plan.index(i), plan.mode)
-				mu.Lock()
-				switch {
-				case firstErr != nil:
-				case runCtx.Err() != nil:
-					// Finished as the call ended: not handed over.
-					fail(runCtx.Err())
-				case err != nil:
-					fail(err)
-				default:
-					if err := onPoint(sp); err != nil {
-						fail(err)
-					} else {
-						sum.PointsComputed++
-						sum.UserSlots += sp.Report.SimulatedUserSlots
-					}
-				}
-				mu.Unlock()
+	st, err := runPool(ctx, plan.Points(), opt.Parallelism,
+		func(ctx context.Context, i int) (*SweepPoint, error) {
+			return runPoint(ctx, plan.base, plan.grid, plan.index(i), plan.mode)
+		},
+		func(_ int, sp *SweepPoint) error {
+			if err := onPoint(sp); err != nil {
+				return err
 			}
-		}()
-	}
-	wg.Wait()
+			sum.UserSlots += sp.Report.SimulatedUserSlots
+			return nil
+		})
+	sum.PointsStarted, sum.PointsComputed = int64(st.Started), int64(st.Finished)
 	sum.Wall = time.Since(start)
-	if firstErr == nil {
-		firstErr = ctx.Err()
-	}
-	return sum, firstErr
+	return sum, err
 }

@@ -5,7 +5,6 @@ import (
 	"flag"
 	"io"
 	"math"
-	"math/bits"
 
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
@@ -112,22 +111,8 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		defer release()
-		hi := int(req.GetMaxCount())
-		if hi == 0 {
-			// Doubling upward ends at the server's user limit at the latest.
-			info, err := cl.ServerInfo(ctx)
-			if err != nil {
-				return err
-			}
-			hi = int(info.GetLimits().GetMaxUsers())
-		}
-		r := float64(req.GetReplications())
-		if r == 0 {
-			r = 4
-		}
-		worst := float64(2+2*bits.Len(uint(hi))) * r
 		prog := e.newProgress("user-slots/s")
-		res, err := cl.Capacity(ctx, req, searchProgress(prog, worst))
+		res, err := cl.Capacity(ctx, req, searchProgress(prog))
 		prog.done()
 		if err != nil {
 			return searchError(sf, reqFile, err)

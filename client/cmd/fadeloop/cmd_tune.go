@@ -204,9 +204,8 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		defer release()
-		worst := worstRuns(req)
 		prog := e.newProgress("user-slots/s")
-		rec, err := cl.Tune(ctx, req, searchProgress(prog, worst))
+		rec, err := cl.Tune(ctx, req, searchProgress(prog))
 		prog.done()
 		if err != nil {
 			return searchError(sf, reqFile, err)
@@ -273,28 +272,4 @@ func searchLocate(sf *client.ScenarioFile, req *client.SourceFile, inv *client.I
 		return inv
 	}
 	return sf.Locate("base", inv.Violations)
-}
-
-// worstRuns is the most runs the search can take (every candidate under
-// every condition at max_replications, plus the baselines): the progress
-// bar's whole; the sequential procedure usually stops well before.
-func worstRuns(req *pb.TuneRequest) float64 {
-	k := 1.0
-	for _, a := range req.GetAxes() {
-		n := len(a.GetValues())
-		if n == 0 {
-			n = int(a.GetCount())
-		}
-		k *= float64(max(n, 1))
-	}
-	c := float64(max(len(req.GetConditions()), 1))
-	r := float64(req.GetBudget().GetMaxReplications())
-	if r == 0 {
-		r = math.Max(32, float64(req.GetBudget().GetMinReplications()))
-	}
-	w := k * c * r
-	if !req.GetSkipBaseline() {
-		w += c * r
-	}
-	return w
 }

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/client/render"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
 // progress shows how far a long call has come on standard error: a bar
@@ -100,6 +101,15 @@ func (p *progress) done() {
 	if p.mode == "bar" && p.drawn {
 		fmt.Fprintf(p.w, "\r%s\r", strings.Repeat(" ", 78))
 		p.drawn = false
+	}
+}
+
+// searchProgress shows the progress of a Tune or Capacity call: the
+// server's fraction done (the search re-bounds the work it can still take
+// as it goes) and the simulated user-slots per second.
+func searchProgress(prog *progress) func(*pb.SearchProgress) {
+	return func(p *pb.SearchProgress) {
+		prog.update(p.GetFractionDone(), float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
 	}
 }
 

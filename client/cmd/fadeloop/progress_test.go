@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/client/render"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
 // fakeClock advances by hand.
@@ -35,6 +36,21 @@ func TestProgressBar(t *testing.T) {
 	p.done()
 	if !strings.HasPrefix(b.String(), "\r") || strings.TrimSpace(b.String()) != "" {
 		t.Errorf("done did not clear the bar: %q", b.String())
+	}
+}
+
+// TestSearchProgressShowsServerFraction: a Tune or Capacity progress event
+// is shown at the server's fraction_done (no estimate of the work on the
+// client side), with the rate from user_slots_done and elapsed_s.
+func TestSearchProgressShowsServerFraction(t *testing.T) {
+	p, b, clk := newTestProgress("bar")
+	clk.t = clk.t.Add(10 * time.Second)
+	searchProgress(p)(&pb.SearchProgress{ReplicationsDone: 7, FractionDone: 0.4, UserSlotsDone: 3e7, ElapsedS: 10})
+	got := b.String()
+	for _, want := range []string{" 40.0%", "3.00 M user-slots/s", "0:15 left"} {
+		if !strings.Contains(got, want) {
+			t.Errorf("bar %q lacks %q", got, want)
+		}
 	}
 }
 

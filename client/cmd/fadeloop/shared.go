@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"io"
-	"math"
 	"os"
 	"strings"
 
@@ -62,14 +61,6 @@ func loadRequest(path string, req proto.Message, base **pb.Scenario, args []stri
 		return nil, nil, err
 	}
 	return sf, rf, nil
-}
-
-// searchProgress shows the progress of a Tune or Capacity call against
-// worst, the most replications the search can take.
-func searchProgress(prog *progress, worst float64) func(*pb.SearchProgress) {
-	return func(p *pb.SearchProgress) {
-		prog.update(float64(p.GetReplicationsDone())/worst, float64(p.GetUserSlotsDone())/math.Max(p.GetElapsedS(), 1e-9))
-	}
 }
 
 // searchError maps a Tune or Capacity call's field violations to the files

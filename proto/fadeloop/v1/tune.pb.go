@@ -631,7 +631,15 @@ type SearchProgress struct {
 	// Simulated users × slots so far (warm-up included).
 	UserSlotsDone int64 `protobuf:"varint,4,opt,name=user_slots_done,json=userSlotsDone,proto3" json:"user_slots_done,omitempty"`
 	// Wall-clock time since the search started, in s.
-	ElapsedS      float64 `protobuf:"fixed64,5,opt,name=elapsed_s,json=elapsedS,proto3" json:"elapsed_s,omitempty"`
+	ElapsedS float64 `protobuf:"fixed64,5,opt,name=elapsed_s,json=elapsedS,proto3" json:"elapsed_s,omitempty"`
+	// Fraction of the search done, [0, 1]: replications_done over the most
+	// runs the search can still take, re-bounded as it goes (Tune: every
+	// candidate not yet dropped for good up to max_replications, plus the
+	// fixed-power baseline, no more than the budget left buys; Capacity: the
+	// replications of the counts the bisection bracket can still need). It
+	// never decreases and is exactly 1 in the last event, when the answer is
+	// ready.
+	FractionDone  float64 `protobuf:"fixed64,6,opt,name=fraction_done,json=fractionDone,proto3" json:"fraction_done,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -697,6 +705,13 @@ func (x *SearchProgress) GetUserSlotsDone() int64 {
 func (x *SearchProgress) GetElapsedS() float64 {
 	if x != nil {
 		return x.ElapsedS
+	}
+	return 0
+}
+
+func (x *SearchProgress) GetFractionDone() float64 {
+	if x != nil {
+		return x.FractionDone
 	}
 	return 0
 }
@@ -2824,13 +2839,14 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x10max_replications\x18\x02 \x01(\x05B\n" +
 	"\xbaH\a\x1a\x05\x18\x90N(\x00R\x0fmaxReplications\x128\n" +
 	"\x12batch_replications\x18\x03 \x01(\x05B\t\xbaH\x06\x1a\x04\x18d(\x00R\x11batchReplications\x12-\n" +
-	"\x0emax_user_slots\x18\x04 \x01(\x03B\a\xbaH\x04\"\x02(\x00R\fmaxUserSlots\"\xcb\x01\n" +
+	"\x0emax_user_slots\x18\x04 \x01(\x03B\a\xbaH\x04\"\x02(\x00R\fmaxUserSlots\"\xf0\x01\n" +
 	"\x0eSearchProgress\x12\x14\n" +
 	"\x05stage\x18\x01 \x01(\x05R\x05stage\x121\n" +
 	"\x14candidates_remaining\x18\x02 \x01(\x05R\x13candidatesRemaining\x12+\n" +
 	"\x11replications_done\x18\x03 \x01(\x03R\x10replicationsDone\x12&\n" +
 	"\x0fuser_slots_done\x18\x04 \x01(\x03R\ruserSlotsDone\x12\x1b\n" +
-	"\telapsed_s\x18\x05 \x01(\x01R\belapsedS\"]\n" +
+	"\telapsed_s\x18\x05 \x01(\x01R\belapsedS\x12#\n" +
+	"\rfraction_done\x18\x06 \x01(\x01R\ffractionDone\"]\n" +
 	"\x13ReplicationEstimate\x12\x12\n" +
 	"\x04mean\x18\x01 \x01(\x01R\x04mean\x12\x10\n" +
 	"\x03low\x18\x02 \x01(\x01R\x03low\x12\x12\n" +
