@@ -14,14 +14,26 @@ const (
 	StreamLOS       StreamKind = 3 // phase of the line-of-sight component
 )
 
-// splitmix64 is the finaliser of Steele, Lea & Flood's SplitMix64 generator
-// (OOPSLA 2014), used here as a bijective 64-bit hash.
-func splitmix64(x uint64) uint64 {
-	x += 0x9e3779b97f4a7c15
-	x = (x ^ (x >> 30)) * 0xbf58476d1ce4e5b9
-	x = (x ^ (x >> 27)) * 0x94d049bb133111eb
-	return x ^ (x >> 31)
+// splitMixGamma is SplitMix64's increment, the odd integer nearest
+// 2^64/φ (Steele, Lea & Flood, "Fast splittable pseudorandom number
+// generators", OOPSLA 2014).
+const splitMixGamma = 0x9e3779b97f4a7c15
+
+// SplitMix64 returns output n (n = 0, 1, ...) of the SplitMix64 generator
+// started at state seed: the finaliser (Stafford's Mix13, as in Steele, Lea
+// & Flood, OOPSLA 2014) of seed + (n+1)·0x9E3779B97F4A7C15. It is the one
+// SplitMix64 of the module: seeds derived from seeds (sweep points,
+// replications) and the hash chain of NewStream all use it.
+func SplitMix64(seed, n uint64) uint64 {
+	z := seed + (n+1)*splitMixGamma
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	return z ^ (z >> 31)
 }
+
+// splitmix64 is SplitMix64's first output from state x, used as a bijective
+// 64-bit hash.
+func splitmix64(x uint64) uint64 { return SplitMix64(x, 0) }
 
 // NewStream returns the deterministic random stream of process (user, index,
 // kind) of a run seeded with seed: a math/rand/v2 PCG generator whose two

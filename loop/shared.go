@@ -96,14 +96,11 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	return s
 }
 
-// repSeed is the seed of replication r: the run seed itself for r = 0, a
-// splitmix64 mix of (seed, r) otherwise.
+// repSeed is the seed of replication r: the run seed itself for r = 0, the
+// SplitMix64 mix of seed + r·γ (fading.SplitMix64(seed, r−1)) otherwise.
 func repSeed(seed uint64, r int) uint64 {
 	if r == 0 {
 		return seed
 	}
-	z := seed + uint64(r)*0x9e3779b97f4a7c15
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	return z ^ (z >> 31)
+	return fading.SplitMix64(seed, uint64(r-1))
 }
