@@ -65,60 +65,10 @@ type scenarioView struct {
 	JSON string
 }
 
-// figureDef is one row of a figures table: label (with unit), scale to the
-// shown unit, decimals and getter.
-type figureDef struct {
-	label string
-	scale float64
-	dec   int
-	get   func(*pb.Figures) *pb.Estimate
-}
-
-func pctOf(get func(*pb.Percentiles) *pb.Estimate, of func(*pb.Figures) *pb.Percentiles) func(*pb.Figures) *pb.Estimate {
-	return func(f *pb.Figures) *pb.Estimate { return get(of(f)) }
-}
-
-var (
-	sirPct = (*pb.Figures).GetSirErrorPercentilesDb
-	txPct  = (*pb.Figures).GetTxPowerPercentilesDbm
-)
-
-// allFigures is every figure of a Figures message, in the CLI's order and
-// with its labels.
-var allFigures = []figureDef{
-	{"SIR error mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb},
-	{"SIR error std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb},
-	{"SIR error 1st pct (dB)", 1, 2, pctOf((*pb.Percentiles).GetP1, sirPct)},
-	{"SIR error 5th pct (dB)", 1, 2, pctOf((*pb.Percentiles).GetP5, sirPct)},
-	{"SIR error median (dB)", 1, 2, pctOf((*pb.Percentiles).GetP50, sirPct)},
-	{"SIR error 95th pct (dB)", 1, 2, pctOf((*pb.Percentiles).GetP95, sirPct)},
-	{"SIR error 99th pct (dB)", 1, 2, pctOf((*pb.Percentiles).GetP99, sirPct)},
-	{"outage (%)", 100, 2, (*pb.Figures).GetOutageProbability},
-	{"achieved BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler},
-	{"BLER − target (%)", 100, 2, (*pb.Figures).GetBlerTargetError},
-	{"Tx power mean (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm},
-	{"Tx power 1st pct (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP1, txPct)},
-	{"Tx power 5th pct (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP5, txPct)},
-	{"Tx power median (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP50, txPct)},
-	{"Tx power 95th pct (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP95, txPct)},
-	{"Tx power 99th pct (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP99, txPct)},
-	{"time at max power (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction},
-	{"noise rise mean (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb},
-	{"noise rise 95th pct (dB)", 1, 2, (*pb.Figures).GetNoiseRiseP95Db},
-	{"convergence time (s)", 1, 3, (*pb.Figures).GetConvergenceTimeS},
-}
-
-// shortFigures are the columns of the per-bin, per-user and sweep tables.
-var shortFigures = []figureDef{
-	{"SIR err mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb},
-	{"SIR err std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb},
-	{"outage (%)", 100, 2, (*pb.Figures).GetOutageProbability},
-	{"BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler},
-	{"Tx mean (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm},
-	{"Tx p95 (dBm)", 1, 2, pctOf((*pb.Percentiles).GetP95, txPct)},
-	{"at max (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction},
-	{"noise rise (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb},
-}
+// detailFigures are the figure columns of the per-bin, per-user and sweep
+// tables (labels, scales and decimals: client/render, the one home of
+// figure labels).
+var detailFigures = append(append([]string(nil), clirender.RunDetailFigures...), "noise_rise_mean_db")
 
 // estimate is "v [lo, hi]" scaled; "–" when absent.
 func estimate(e *pb.Estimate, scale float64, dec int) string {
@@ -126,6 +76,20 @@ func estimate(e *pb.Estimate, scale float64, dec int) string {
 		return "–"
 	}
 	return num(scale*e.GetValue(), dec) + " [" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
+}
+
+// figureEstimate is the figure key of fs as "v [lo, hi]" in its display
+// scale and decimals.
+func figureEstimate(key string, fs *pb.Figures) string {
+	f := clirender.MustFigure(key)
+	return estimate(f.Get(fs), f.Scale, f.Dec)
+}
+
+// searchEstimate is the figure key of fs as "mean [low, high]" in its
+// display scale and decimals.
+func searchEstimate(key string, fs *pb.TuneFigures) string {
+	f := clirender.MustFigure(key)
+	return repEstimate(clirender.SearchFigure(fs, key), f.Scale, f.Dec)
 }
 
 // repEstimate is "mean [low, high]" scaled; the mean alone below 2 replications.
@@ -358,24 +322,24 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	d.Verdict.Lines = append(d.Verdict.Lines, rep.GetNotes()...)
 
 	t := table{Caption: "Aggregate figures over all users, with 95 % confidence intervals.", Head: []string{"figure", "value", "95 % CI low", "95 % CI high"}, Num: numCols(4, 1, 2, 3)}
-	for _, fd := range allFigures {
-		e := fd.get(agg)
+	for _, fd := range clirender.Figures() {
+		e := fd.Get(agg)
 		if e == nil {
 			continue
 		}
-		t.add(false, fd.label, num(fd.scale*e.GetValue(), fd.dec), num(fd.scale*e.GetCiLow(), fd.dec), num(fd.scale*e.GetCiHigh(), fd.dec))
+		t.add(false, fd.Label, num(fd.Scale*e.GetValue(), fd.Dec), num(fd.Scale*e.GetCiLow(), fd.Dec), num(fd.Scale*e.GetCiHigh(), fd.Dec))
 	}
 	s := section{ID: "figures", Heading: "Figures", Tables: []table{t}}
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
 		bt := table{Caption: "Per distance bin (value [95 % CI]).", Head: []string{"distance (m)", "users"}}
-		for _, fd := range shortFigures {
-			bt.Head = append(bt.Head, fd.label)
+		for _, k := range detailFigures {
+			bt.Head = append(bt.Head, clirender.MustFigure(k).Head())
 		}
 		bt.Num = numCols(len(bt.Head), rangeFrom(1, len(bt.Head))...)
 		for _, b := range bins {
 			row := []string{num(b.GetMinDistanceM(), 0) + "–" + num(b.GetMaxDistanceM(), 0), strconv.Itoa(int(b.GetFigures().GetUsers()))}
-			for _, fd := range shortFigures {
-				row = append(row, estimate(fd.get(b.GetFigures()), fd.scale, fd.dec))
+			for _, k := range detailFigures {
+				row = append(row, figureEstimate(k, b.GetFigures()))
 			}
 			bt.add(false, row...)
 		}
@@ -391,14 +355,14 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	}
 	if us := rep.GetUsers(); len(us) > 0 {
 		ut := table{Caption: "Per user (value [95 % CI]).", Head: []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}}
-		for _, fd := range shortFigures {
-			ut.Head = append(ut.Head, fd.label)
+		for _, k := range detailFigures {
+			ut.Head = append(ut.Head, clirender.MustFigure(k).Head())
 		}
 		ut.Num = numCols(len(ut.Head), append([]int{0}, rangeFrom(2, len(ut.Head))...)...)
 		for _, u := range us {
 			row := []string{strconv.Itoa(int(u.GetUser())), groupName(sc, u.GetGroup()), num(u.GetDistanceM(), 0), num(u.GetSpeedKmh(), 0), num(u.GetPathLossDb(), 1)}
-			for _, fd := range shortFigures {
-				row = append(row, estimate(fd.get(u.GetFigures()), fd.scale, fd.dec))
+			for _, k := range detailFigures {
+				row = append(row, figureEstimate(k, u.GetFigures()))
 			}
 			ut.add(false, row...)
 		}
@@ -489,8 +453,8 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		// A break opportunity after each dot: long field paths wrap there.
 		t.Head = append(t.Head, strings.ReplaceAll(a.GetPath(), ".", ".\u200b"))
 	}
-	for _, fd := range shortFigures {
-		t.Head = append(t.Head, fd.label)
+	for _, k := range detailFigures {
+		t.Head = append(t.Head, clirender.MustFigure(k).Head())
 	}
 	t.Head = append(t.Head, "load")
 	t.Num = numCols(len(t.Head), rangeFrom(0, len(t.Head)-1)...)
@@ -503,8 +467,8 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 			}
 			row = append(row, strconv.FormatFloat(v, 'g', 6, 64))
 		}
-		for _, fd := range shortFigures {
-			row = append(row, estimate(fd.get(p.GetReport().GetAggregate()), fd.scale, fd.dec))
+		for _, k := range detailFigures {
+			row = append(row, figureEstimate(k, p.GetReport().GetAggregate()))
 		}
 		load := "ok"
 		if p.GetReport().GetFeasibility().GetInfeasible() {
@@ -619,7 +583,7 @@ func verdictClass(dc *pb.Decision) string {
 
 func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine string) error {
 	k := rec.GetObjective().GetKind()
-	scale, dec, unit, oname := objectiveUnit(k)
+	scale, dec, unit, oname := objectiveUnit(rec)
 	conf := rec.GetConfidence()
 	cands := rec.GetCandidates()
 	ov := rec.GetOverall()
@@ -720,10 +684,10 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 
 	cs := section{ID: "candidates", Heading: "Candidates"}
 	if oc := rec.GetOverallCandidates(); len(oc) > 0 && len(rec.GetConditions()) > 1 {
-		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), cands, ov.GetBest(), k, true))
+		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), rec, ov.GetBest(), true))
 	}
 	for _, c := range rec.GetConditions() {
-		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), cands, c.GetDecision().GetBest(), k, false))
+		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), rec, c.GetDecision().GetBest(), false))
 	}
 	d.Sections = append(d.Sections, cs)
 
@@ -763,30 +727,22 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 // candidateTable lists candidates with their objective, the difference to
 // the best and their figures (the figure that is the objective is not
 // repeated). overall: the weighted table, which has no per-figure values.
-func candidateTable(caption string, crs []*pb.CandidateResult, cands []*pb.GridPoint, best int32, k pb.ObjectiveKind, overall bool) table {
-	scale, dec, unit, oname := objectiveUnit(k)
-	type col struct {
-		head  string
-		get   func(*pb.TuneFigures) *pb.ReplicationEstimate
-		scale float64
-		dec   int
-		kind  pb.ObjectiveKind
-	}
-	cols := []col{
-		{"SIR err std (dB)", (*pb.TuneFigures).GetSirErrorStdDb, 1, 3, pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD},
-		{"outage (%)", (*pb.TuneFigures).GetOutageProbability, 100, 3, pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE},
-		{"BLER (%)", (*pb.TuneFigures).GetAchievedBler, 100, 2, pb.ObjectiveKind_OBJECTIVE_KIND_UNSPECIFIED},
-		{"Tx mean (dBm)", (*pb.TuneFigures).GetTxPowerMeanDbm, 1, 2, pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER},
-		{"noise rise (dB)", (*pb.TuneFigures).GetNoiseRiseMeanDb, 1, 2, pb.ObjectiveKind_OBJECTIVE_KIND_UNSPECIFIED},
+func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommendation, best int32, overall bool) table {
+	cands := rec.GetCandidates()
+	scale, dec, unit, oname := objectiveUnit(rec)
+	okey := clirender.ObjectiveKey(rec.GetObjective().GetKind())
+	var cols []*pb.FigureLabel
+	for _, key := range clirender.CandidateFigures {
+		if key != okey {
+			cols = append(cols, clirender.SearchLabel(rec.GetFigures(), key))
+		}
 	}
 	if overall {
 		cols = nil
 	}
 	t := table{Caption: caption, Head: []string{"#", "setting", oname + " (" + unit + ")", "diff to best (" + unit + ")"}}
 	for _, c := range cols {
-		if c.kind != k {
-			t.Head = append(t.Head, c.head)
-		}
+		t.Head = append(t.Head, clirender.LabelHead(c))
 	}
 	t.Head = append(t.Head, "n", "status")
 	t.Num = numCols(len(t.Head), append([]int{0}, rangeFrom(2, len(t.Head)-1)...)...)
@@ -803,9 +759,7 @@ func candidateTable(caption string, crs []*pb.CandidateResult, cands []*pb.GridP
 		row := []string{strconv.Itoa(int(cr.GetCandidate())), label,
 			repEstimate(cr.GetObjective(), scale, dec), num(scale*cr.GetDiffToBest().GetMean(), dec)}
 		for _, c := range cols {
-			if c.kind != k {
-				row = append(row, repEstimate(c.get(f), c.scale, c.dec))
-			}
+			row = append(row, repEstimate(clirender.SearchFigure(f, c.GetKey()), c.GetDisplayScale(), int(c.GetDecimals())))
 		}
 		row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
 		t.add(cr.GetCandidate() == best, row...)
@@ -858,8 +812,12 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		d.Verdict.Lines = append(d.Verdict.Lines, "The user-slot budget ran out before the search finished.")
 	}
 	t := table{Caption: "Every count evaluated (mean [interval] over replications); the capacity is marked.",
-		Head: []string{"count", "users", "outage (%)", "pass", "SIR err std (dB)", "BLER (%)", "Tx mean (dBm)", "at max (%)", "noise rise (dB)"}}
-	t.Num = numCols(len(t.Head), 0, 1, 2, 4, 5, 6, 7, 8)
+		Head: []string{"count", "users", clirender.MustFigure("outage_probability").Head(), "pass"}}
+	capCols := append(append([]string(nil), clirender.CapacityFigures...), "noise_rise_mean_db")
+	for _, k := range capCols {
+		t.Head = append(t.Head, clirender.MustFigure(k).Head())
+	}
+	t.Num = numCols(len(t.Head), append([]int{0, 1, 2}, rangeFrom(4, len(t.Head))...)...)
 	ev := append([]*pb.CapacityPoint(nil), res.GetEvaluated()...)
 	sort.SliceStable(ev, func(i, j int) bool { return ev[i].GetCount() < ev[j].GetCount() })
 	for _, p := range ev {
@@ -868,10 +826,11 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		if p.GetPass() {
 			pass = "pass"
 		}
-		t.add(p.GetCount() == res.GetCount() && !res.GetBelowRange(), strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())),
-			repEstimate(f.GetOutageProbability(), 100, 3), pass, repEstimate(f.GetSirErrorStdDb(), 1, 3),
-			repEstimate(f.GetAchievedBler(), 100, 2), repEstimate(f.GetTxPowerMeanDbm(), 1, 2),
-			repEstimate(f.GetMaxPowerFraction(), 100, 2), repEstimate(f.GetNoiseRiseMeanDb(), 1, 2))
+		row := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), searchEstimate("outage_probability", f), pass}
+		for _, k := range capCols {
+			row = append(row, searchEstimate(k, f))
+		}
+		t.add(p.GetCount() == res.GetCount() && !res.GetBelowRange(), row...)
 	}
 	d.Sections = append(d.Sections, section{ID: "evaluated", Heading: "Counts evaluated", Tables: []table{t}})
 	seed := "not recorded in this result"

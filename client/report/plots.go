@@ -240,16 +240,12 @@ func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
 	return out, nil
 }
 
-// objectiveUnit returns the display scale, decimals, unit and name of an
-// objective.
-func objectiveUnit(k pb.ObjectiveKind) (scale float64, dec int, unit, name string) {
-	switch k {
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
-		return 100, 3, "%", "outage"
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
-		return 1, 2, "dBm", "mean Tx power"
-	}
-	return 1, 3, "dB", "SIR error std"
+// objectiveUnit returns the display scale, decimals, unit and name of a
+// recommendation's ranked figure: the API's label (client/render's when an
+// older result lacks it).
+func objectiveUnit(rec *pb.Recommendation) (scale float64, dec int, unit, name string) {
+	l := clirender.SearchLabel(rec.GetFigures(), clirender.ObjectiveKey(rec.GetObjective().GetKind()))
+	return l.GetDisplayScale(), int(l.GetDecimals()), l.GetUnit(), l.GetName()
 }
 
 // num formats v with dec decimals; NaN and ±Inf as "–".

@@ -5,8 +5,8 @@ import (
 	"testing"
 
 	"github.com/fadeloop/fadeloop/client"
-	"github.com/fadeloop/fadeloop/service"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 // TestTraceSamplesAsBefore: the trace decimation is now the engine's

@@ -110,19 +110,32 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 	return fig.Save(ps.file)
 }
 
-// sweepObjective is the quantity a sweep heat map shows.
+// sweepObjective is the quantity a sweep heat map shows: a figure (its
+// label and scale from client/render), lower is better; abs shows its
+// magnitude.
 type sweepObjective struct {
 	key   string
-	label string
-	scale float64
 	lower bool
+	abs   bool
 }
 
 var sweepObjectives = map[string]sweepObjective{
-	"std":    {"sir_error_std_db", "SIR error std (dB)", 1, true},
-	"outage": {"outage_probability", "outage (%)", 100, true},
-	"power":  {"tx_power_mean_dbm", "mean Tx power (dBm)", 1, true},
-	"bler":   {"bler_target_error", "|BLER − target| (%)", 100, true},
+	"std":    {"sir_error_std_db", true, false},
+	"outage": {"outage_probability", true, false},
+	"power":  {"tx_power_mean_dbm", true, false},
+	"bler":   {"bler_target_error", true, true},
+}
+
+// label is the heat map's title of the objective: the figure's label,
+// "|…|" around its name for a magnitude.
+func (o sweepObjective) label() string {
+	l := render.MustFigure(o.key).Label
+	if o.abs {
+		if i := strings.LastIndex(l, " ("); i > 0 {
+			return "|" + l[:i] + "|" + l[i:]
+		}
+	}
+	return l
 }
 
 const (
@@ -261,7 +274,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		if si < 0 || ri < 0 || len(axes) != 2 {
 			return badInputf("a heatmap plot needs exactly the axes %s and %s", stepPath, ratePath)
 		}
-		g := plots.ObjectiveGrid{Objective: obj.label, StepDB: sortedValues(axes[si]), UpdateRateHz: sortedValues(axes[ri]), LowerIsBetter: obj.lower}
+		g := plots.ObjectiveGrid{Objective: obj.label(), StepDB: sortedValues(axes[si]), UpdateRateHz: sortedValues(axes[ri]), LowerIsBetter: obj.lower}
 		g.Value = make([][]float64, len(g.UpdateRateHz))
 		g.Infeasible = make([][]bool, len(g.UpdateRateHz))
 		for r := range g.Value {
@@ -271,7 +284,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 				g.Value[r][c] = math.NaN()
 			}
 		}
-		f, _ := render.FigureByKey(obj.key)
+		f := render.MustFigure(obj.key)
 		for _, p := range pts {
 			c := p.GetCoordinates()
 			col := slices.Index(g.StepDB, c[si])
@@ -279,14 +292,14 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 			if col < 0 || row < 0 {
 				continue
 			}
-			v := obj.scale * f.Get(p.GetReport().GetAggregate()).GetValue()
-			if objective == "bler" {
+			v := f.Scale * f.Get(p.GetReport().GetAggregate()).GetValue()
+			if obj.abs {
 				v = math.Abs(v)
 			}
 			g.Value[row][col] = v
 			g.Infeasible[row][col] = p.GetReport().GetFeasibility().GetInfeasible()
 		}
-		fig, err = plots.HeatMap(obj.label+" over step × update rate — "+title, g)
+		fig, err = plots.HeatMap(obj.label()+" over step × update rate — "+title, g)
 	default:
 		return badInputf("unknown plot kind %q", kind)
 	}
