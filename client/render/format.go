@@ -16,15 +16,19 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// GroupDigits writes an integer with thin groups of three: 90 000.
-func GroupDigits(n int64) string {
+// GroupDigits writes an integer with groups of three: 90 000.
+func GroupDigits(n int64) string { return GroupDigitsSep(n, " ") }
+
+// GroupDigitsSep writes an integer with groups of three separated by sep
+// (e.g. a narrow no-break space in HTML).
+func GroupDigitsSep(n int64, sep string) string {
 	s := strconv.FormatInt(n, 10)
 	neg := strings.HasPrefix(s, "-")
 	s = strings.TrimPrefix(s, "-")
 	var b strings.Builder
 	for i, r := range s {
 		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(' ')
+			b.WriteString(sep)
 		}
 		b.WriteRune(r)
 	}

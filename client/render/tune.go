@@ -10,9 +10,9 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// pointLabel is "step_db=0.5, update_rate_hz=1500" ("base setting" without
+// PointLabel is "step_db=0.5, update_rate_hz=1500" ("base setting" without
 // axes).
-func pointLabel(p *pb.GridPoint) string {
+func PointLabel(p *pb.GridPoint) string {
 	if p == nil || len(p.GetCoords()) == 0 {
 		return "base setting"
 	}
@@ -80,6 +80,10 @@ var statusNames = map[pb.CandidateStatus]string{
 	pb.CandidateStatus_CANDIDATE_STATUS_DROPPED:    "dropped",
 	pb.CandidateStatus_CANDIDATE_STATUS_EQUIVALENT: "equivalent",
 }
+
+// StatusName is a candidate status in tables: "contending", "dropped",
+// "equivalent" ("" when unset).
+func StatusName(s pb.CandidateStatus) string { return statusNames[s] }
 
 // VerdictName is the verdict column of tables and CSV: "winner", "tie of
 // N", "constraints unmet", "single setting".
@@ -250,7 +254,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		if objHead != LabelHead(rb) {
 			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
 		}
-		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(d.GetSetting()), VerdictName(d),
+		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), PointLabel(d.GetSetting()), VerdictName(d),
 			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
 	}
 	t.Write(w)
@@ -287,11 +291,11 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			if cr.GetCandidate() == d.GetBest() {
 				mark = "* "
 			}
-			status := statusNames[cr.GetStatus()]
+			status := StatusName(cr.GetStatus())
 			if !cr.GetFeasible() {
 				status += ", misses constraints"
 			}
-			row := []string{mark + strconv.Itoa(int(cr.GetCandidate())), pointLabel(cands[cr.GetCandidate()]),
+			row := []string{mark + strconv.Itoa(int(cr.GetCandidate())), PointLabel(cands[cr.GetCandidate()]),
 				labelCell(cr.GetObjective(), dl), labelCell(cr.GetDiffToBest(), dl)}
 			if cr.GetCandidate() == d.GetBest() {
 				row[3] = "–"

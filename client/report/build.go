@@ -4,11 +4,10 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
-	"strconv"
-	"strings"
 
 	"google.golang.org/protobuf/encoding/protojson"
 
+	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -99,22 +98,8 @@ func rangeFrom(a, b int) []int {
 	return v
 }
 
-func thousands(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteString("\u202f")
-		}
-		b.WriteRune(c)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
-}
+// thousands groups digits with narrow no-break spaces: 90 000.
+func thousands(n int64) string { return clirender.GroupDigitsSep(n, "\u202f") }
 
 func build(in Input) (*doc, error) {
 	kind, err := in.kind()

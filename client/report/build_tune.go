@@ -11,28 +11,6 @@ import (
 
 // The page of a tuning recommendation: verdict, conditions, candidates.
 
-// pointLabel is "step_db=0.5, update_rate_hz=1500" for a candidate.
-func pointLabel(p *pb.GridPoint) string {
-	if p == nil || len(p.GetCoords()) == 0 {
-		return "base setting"
-	}
-	var parts []string
-	for _, c := range p.GetCoords() {
-		name := c.GetPath()
-		if i := strings.LastIndexByte(name, '.'); i >= 0 {
-			name = name[i+1:]
-		}
-		parts = append(parts, name+"="+strconv.FormatFloat(c.GetValue(), 'g', 6, 64))
-	}
-	return strings.Join(parts, ", ")
-}
-
-var statusNames = map[pb.CandidateStatus]string{
-	pb.CandidateStatus_CANDIDATE_STATUS_CONTENDING: "contending",
-	pb.CandidateStatus_CANDIDATE_STATUS_DROPPED:    "dropped",
-	pb.CandidateStatus_CANDIDATE_STATUS_EQUIVALENT: "equivalent",
-}
-
 func decisionText(dc *pb.Decision) (string, string) {
 	switch {
 	case dc.GetConstraintsUnmet():
@@ -66,7 +44,7 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 	cands := rec.GetCandidates()
 	ov := rec.GetOverall()
 	state, class := decisionText(ov)
-	d.Verdict = verdict{Class: class, Headline: "Use " + pointLabel(ov.GetSetting()) + " (" + state + ")"}
+	d.Verdict = verdict{Class: class, Headline: "Use " + clirender.PointLabel(ov.GetSetting()) + " (" + state + ")"}
 	if ov.GetVerdict() != pb.Verdict_VERDICT_UNSPECIFIED {
 		// The API's own verdict and lines (helper V's Decision fields),
 		// in the CLI's order: headline, misses, runner-up, warnings, tie
@@ -86,7 +64,7 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 		if ru := ov.GetRunnerUp(); ru >= 0 && int(ru) < len(cands) {
 			ev := ov.GetEvidence()
 			d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Runner-up %s: %s %s worse on %s, %g %% interval [%s, %s], %d paired replications.",
-				pointLabel(cands[ru]), num(scale*ev.GetMean(), dec), unit, oname, 100*conf,
+				clirender.PointLabel(cands[ru]), num(scale*ev.GetMean(), dec), unit, oname, 100*conf,
 				num(scale*ev.GetLow(), dec), num(scale*ev.GetHigh(), dec), ev.GetN()))
 		} else {
 			d.Verdict.Lines = append(d.Verdict.Lines, "No runner-up (one candidate).")
@@ -95,7 +73,7 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 			var names []string
 			for _, i := range ts {
 				if int(i) < len(cands) {
-					names = append(names, pointLabel(cands[i]))
+					names = append(names, clirender.PointLabel(cands[i]))
 				}
 			}
 			d.Verdict.Lines = append(d.Verdict.Lines, "Tie set: "+strings.Join(names, "; ")+". Tie rule: "+rec.GetTieRule())
@@ -149,7 +127,7 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 				gain += " (barely helps)"
 			}
 		}
-		ct.add(false, c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(dc.GetSetting()), v,
+		ct.add(false, c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), clirender.PointLabel(dc.GetSetting()), v,
 			repEstimate(best.GetObjective(), scale, dec), diff, base, gain, num(c.GetDopplerProductMax(), 4))
 	}
 	s := section{ID: "conditions", Heading: "Conditions", Tables: []table{ct}}
@@ -226,13 +204,13 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 	t.Num = numCols(len(t.Head), append([]int{0}, rangeFrom(2, len(t.Head)-1)...)...)
 	for _, cr := range crs {
 		f := cr.GetFigures()
-		status := statusNames[cr.GetStatus()]
+		status := clirender.StatusName(cr.GetStatus())
 		if !cr.GetFeasible() {
 			status += ", infeasible"
 		}
 		label := "candidate " + strconv.Itoa(int(cr.GetCandidate()))
 		if i := cr.GetCandidate(); i >= 0 && int(i) < len(cands) {
-			label = pointLabel(cands[i])
+			label = clirender.PointLabel(cands[i])
 		}
 		row := []string{strconv.Itoa(int(cr.GetCandidate())), label,
 			repEstimate(cr.GetObjective(), scale, dec), num(scale*cr.GetDiffToBest().GetMean(), dec)}

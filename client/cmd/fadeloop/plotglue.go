@@ -7,7 +7,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"sort"
 	"strings"
 	"time"
 
@@ -202,59 +201,15 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 	case "layout":
 		fig, err = layoutSweepFigure(title, axes, pts)
 	case "cdf":
-		var ds []plots.ErrorDistribution
-		for _, p := range pts {
-			var parts []string
-			for i, a := range axes {
-				if i < len(p.GetCoordinates()) {
-					parts = append(parts, axisLabel(a, p.GetCoordinates()[i]))
-				}
-			}
-			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
-				Quantiles: render.Quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
-		}
+		ds := render.SweepErrorDistributions(axes, pts)
 		if len(ds) > 8 {
 			return badInputf("a cdf plot shows at most 8 candidates; this sweep has %d points (use --points or fewer values)", len(ds))
 		}
 		fig, err = plots.SIRErrorCDF("SIR error distribution per candidate — "+title, ds)
 	case "steps":
-		si, oi := -1, -1
-		for i, a := range axes {
-			if a.GetPath() == stepPath {
-				si = i
-			} else {
-				oi = i
-			}
-		}
-		if si < 0 || len(axes) > 2 {
+		ls, ok := render.SweepStepLines(axes, pts)
+		if !ok {
 			return badInputf("a steps plot needs the axis %s and at most one other axis (one line per value)", stepPath)
-		}
-		lines := map[float64]*plots.StepLine{}
-		var order []float64
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			key := 0.0
-			label := "all"
-			if oi >= 0 {
-				key = c[oi]
-				label = axisLabel(axes[oi], key)
-			}
-			l := lines[key]
-			if l == nil {
-				l = &plots.StepLine{Label: label}
-				lines[key] = l
-				order = append(order, key)
-			}
-			f := p.GetReport().GetAggregate()
-			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-			l.Add(c[si], o.GetValue(), o.GetCiLow(), o.GetCiHigh(), s.GetValue(), s.GetCiLow(), s.GetCiHigh())
-		}
-		sort.Float64s(order)
-		var ls []plots.StepLine
-		for _, k := range order {
-			l := lines[k]
-			l.SortByStep()
-			ls = append(ls, *l)
 		}
 		fig, err = plots.StepSensitivity("Outage and SIR error spread against step size — "+title, ls)
 	case "heatmap":
@@ -262,43 +217,11 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		if !ok {
 			return badInputf("--objective %q: must be one of std, outage, power, bler", objective)
 		}
-		si, ri := -1, -1
-		for i, a := range axes {
-			switch a.GetPath() {
-			case stepPath:
-				si = i
-			case ratePath:
-				ri = i
-			}
-		}
-		if si < 0 || ri < 0 || len(axes) != 2 {
+		g, ok := render.SweepHeatGrid(axes, pts, obj.key, obj.abs)
+		if !ok {
 			return badInputf("a heatmap plot needs exactly the axes %s and %s", stepPath, ratePath)
 		}
-		g := plots.ObjectiveGrid{Objective: obj.label(), StepDB: sortedValues(axes[si]), UpdateRateHz: sortedValues(axes[ri]), LowerIsBetter: obj.lower}
-		g.Value = make([][]float64, len(g.UpdateRateHz))
-		g.Infeasible = make([][]bool, len(g.UpdateRateHz))
-		for r := range g.Value {
-			g.Infeasible[r] = make([]bool, len(g.StepDB))
-			g.Value[r] = make([]float64, len(g.StepDB))
-			for c := range g.Value[r] {
-				g.Value[r][c] = math.NaN()
-			}
-		}
-		f := render.MustFigure(obj.key)
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			col := slices.Index(g.StepDB, c[si])
-			row := slices.Index(g.UpdateRateHz, c[ri])
-			if col < 0 || row < 0 {
-				continue
-			}
-			v := f.Scale * f.Get(p.GetReport().GetAggregate()).GetValue()
-			if obj.abs {
-				v = math.Abs(v)
-			}
-			g.Value[row][col] = v
-			g.Infeasible[row][col] = p.GetReport().GetFeasibility().GetInfeasible()
-		}
+		g.Objective, g.LowerIsBetter = obj.label(), obj.lower
 		fig, err = plots.HeatMap(obj.label()+" over step × update rate — "+title, g)
 	default:
 		return badInputf("unknown plot kind %q", kind)
@@ -307,12 +230,6 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		return err
 	}
 	return fig.Save(ps.file)
-}
-
-func sortedValues(a *pb.SweepAxis) []float64 {
-	v := slices.Clone(a.GetValues())
-	slices.Sort(v)
-	return slices.Compact(v)
 }
 
 // checkReportPath rejects, before any work, a --report FILE that is not
