@@ -157,10 +157,13 @@ func compactJSON(m proto.Message) (json.RawMessage, error) {
 
 // figureCSVHeader is the figure columns of the CSV files: each figure's
 // value, then its 95 % confidence interval.
-func figureCSVHeader() []string {
+func figureCSVHeader() []string { return csvHeader(figures, "_ci_low", "_ci_high") }
+
+// csvHeader is each figure's key, then key+low and key+high.
+func csvHeader(figs []Figure, low, high string) []string {
 	var h []string
-	for _, f := range figures {
-		h = append(h, f.Key, f.Key+"_ci_low", f.Key+"_ci_high")
+	for _, f := range figs {
+		h = append(h, f.Key, f.Key+low, f.Key+high)
 	}
 	return h
 }

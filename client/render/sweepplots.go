@@ -13,6 +13,23 @@ import (
 // The plot inputs of a sweep, for the CLI's --plot and the HTML report
 // alike (one conversion of sweep points to plots).
 
+// AutoSweepPlot picks a sweep's plot from its axes: "heatmap" for step ×
+// update rate, "steps" for the step size and at most one other axis, "cdf"
+// otherwise (the CLI's --plot auto and the HTML report).
+func AutoSweepPlot(axes []*pb.SweepAxis) string {
+	paths := map[string]bool{}
+	for _, a := range axes {
+		paths[a.GetPath()] = true
+	}
+	switch {
+	case len(axes) == 2 && paths[StepPath] && paths[RatePath]:
+		return "heatmap"
+	case paths[StepPath] && len(axes) <= 2:
+		return "steps"
+	}
+	return "cdf"
+}
+
 // SweepStepLines is outage and SIR error std with their 95 % intervals
 // against the step size, one line per value of the other axis (one line,
 // "all", without one); ok is false unless the axes are the step size and

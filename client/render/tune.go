@@ -329,13 +329,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	fmt.Fprintln(w)
 }
 
-func searchFigureHeader() []string {
-	var h []string
-	for _, f := range searchFigures {
-		h = append(h, f.Key, f.Key+"_low", f.Key+"_high")
-	}
-	return h
-}
+func searchFigureHeader() []string { return csvHeader(searchFigures, "_low", "_high") }
 
 func searchFigureCells(fs *pb.TuneFigures) []string {
 	var c []string

@@ -3,7 +3,6 @@ package report
 import (
 	"bytes"
 	"fmt"
-	"github.com/fadeloop/fadeloop/loop/tune"
 	"html/template"
 	"math"
 	"strconv"
@@ -16,11 +15,6 @@ import (
 
 // The figures of a report are the same as the CLI's --plot figures, drawn
 // by client/plots from the API messages.
-
-const (
-	stepPath = tune.StepPath
-	ratePath = tune.RatePath
-)
 
 // figure is one inline SVG plot with its caption.
 type figure struct {
@@ -118,24 +112,15 @@ func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
 // SIR error std against step size (one line per value of the other axis),
 // or the SIR error distribution per point (at most 8 points).
 func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]figure, error) {
-	si, ri := -1, -1
-	for i, a := range axes {
-		switch a.GetPath() {
-		case stepPath:
-			si = i
-		case ratePath:
-			ri = i
-		}
-	}
 	var out []figure
-	switch {
-	case len(axes) == 2 && si >= 0 && ri >= 0:
+	switch kind := clirender.AutoSweepPlot(axes); {
+	case kind == "heatmap":
 		g, _ := clirender.SweepHeatGrid(axes, pts, "outage_probability", false)
 		fig, err := plots.HeatMap(titled(g.Objective+" over step × update rate", title), g)
 		if err := addFigure(&out, "Outage of every grid point over inner-loop step size and update rate; the best cell is outlined.", fig, err); err != nil {
 			return nil, err
 		}
-	case si >= 0 && len(axes) <= 2:
+	case kind == "steps":
 		ls, _ := clirender.SweepStepLines(axes, pts)
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size", title), ls)
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {

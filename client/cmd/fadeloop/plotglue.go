@@ -142,29 +142,13 @@ const (
 	ratePath = tune.RatePath
 )
 
-// autoSweepPlot picks the plot kind from the axes: a heat map for step ×
-// update rate, step curves for step × one other axis, CDFs otherwise.
-func autoSweepPlot(axes []*pb.SweepAxis) string {
-	paths := map[string]bool{}
-	for _, a := range axes {
-		paths[a.GetPath()] = true
-	}
-	switch {
-	case len(axes) == 2 && paths[stepPath] && paths[ratePath]:
-		return "heatmap"
-	case paths[stepPath] && len(axes) <= 2:
-		return "steps"
-	}
-	return "cdf"
-}
-
 func axisLabel(a *pb.SweepAxis, v float64) string { return render.AxisValueLabel(a.GetPath(), v) }
 
 // checkSweepPlot rejects, before any work, a plot the axes cannot give.
 func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = autoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes)
 	}
 	paths := map[string]int{}
 	for _, a := range axes {
@@ -191,7 +175,7 @@ func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint, objective string) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = autoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes)
 	}
 	var (
 		fig *plots.Figure
