@@ -45,8 +45,11 @@ type Progress struct {
 
 // TraceOptions asks for decimated per-user traces of replication 0.
 type TraceOptions struct {
-	Users      []int // user indices (0-based, group order) to trace; at most 64
-	Decimation int   // keep one slot in Decimation, >= 1 (0 means 1)
+	Users      []int // user indices (0-based, group order) to trace; at most MaxTracedUsers
+	Decimation int   // keep one slot in Decimation, >= 1 (0: by SamplesPerUser, else 1)
+	// SamplesPerUser, used when Decimation is 0, asks for about this many
+	// samples per traced user; the decimation is TraceDecimation's. >= 0.
+	SamplesPerUser int
 }
 
 // RunOptions are the options of Run that do not change its figures.
@@ -120,8 +123,11 @@ func run(ctx context.Context, sc Scenario, opts RunOptions, hk *hooks) (*Report,
 	if opts.Trace.Decimation < 0 {
 		v = append(v, Violation{"trace.decimation", fmt.Sprintf("must be >= 1, got %d", opts.Trace.Decimation)})
 	}
-	if len(opts.Trace.Users) > 64 {
-		v = append(v, Violation{"trace.users", fmt.Sprintf("must list at most 64 users, got %d", len(opts.Trace.Users))})
+	if opts.Trace.SamplesPerUser < 0 {
+		v = append(v, Violation{"trace.samples_per_user", fmt.Sprintf("must be >= 0, got %d", opts.Trace.SamplesPerUser)})
+	}
+	if len(opts.Trace.Users) > MaxTracedUsers {
+		v = append(v, Violation{"trace.users", fmt.Sprintf("must list at most %d users, got %d", MaxTracedUsers, len(opts.Trace.Users))})
 	}
 	nUsers := sc.Users()
 	for i, u := range opts.Trace.Users {

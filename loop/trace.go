@@ -21,8 +21,42 @@ type tracer struct {
 	truncated bool
 }
 
+// MaxTracedUsers is the most users one run traces (TraceOptions.Users).
+const MaxTracedUsers = 64
+
+// MaxTraceDecimation is the largest decimation TraceDecimation picks (and
+// the API accepts): one sample every 10⁶ slots.
+const MaxTraceDecimation = 1_000_000
+
+// TraceDecimation is the engine's rule for a trace of about samplesPerUser
+// samples per user over a replication of totalSlots slots (warm-up
+// included, Scenario.TotalSlots): one sample every
+// max(1, ⌊totalSlots / samplesPerUser⌋) slots, at most MaxTraceDecimation,
+// so a trace holds between samplesPerUser and about 2·samplesPerUser
+// samples (all slots when totalSlots < 2·samplesPerUser). samplesPerUser
+// <= 0 gives 1.
+func TraceDecimation(totalSlots int64, samplesPerUser int) int {
+	if samplesPerUser <= 0 {
+		return 1
+	}
+	return int(max(1, min(totalSlots/int64(samplesPerUser), MaxTraceDecimation)))
+}
+
+// DecimationFor is the decimation these options give a replication of
+// totalSlots slots: Decimation when set, else TraceDecimation's by
+// SamplesPerUser, else 1.
+func (o TraceOptions) DecimationFor(totalSlots int64) int {
+	switch {
+	case o.Decimation > 0:
+		return o.Decimation
+	case o.SamplesPerUser > 0:
+		return TraceDecimation(totalSlots, o.SamplesPerUser)
+	}
+	return 1
+}
+
 func newTracer(o TraceOptions, total int64) *tracer {
-	d := int64(max(o.Decimation, 1))
+	d := int64(o.DecimationFor(total))
 	tr := &tracer{users: o.Users, dec: d}
 	capN := int(min(total/d+1, 1<<16))
 	for _, u := range o.Users {

@@ -125,8 +125,22 @@ func (d *DaemonFlags) Register(fs *flag.FlagSet) {
 	num(&d.EngineParallelism, "engine-parallelism", "sweep points and gain links `N` computed at once per call (0: GOMAXPROCS)")
 	d.names = append(d.names, "reflection")
 	fs.BoolVar(&d.Reflection, "reflection", d.Reflection, "serve gRPC server reflection (-reflection=false to turn it off)")
-	str(&d.LogLevel, "log-level", "log `LEVEL`: debug, info, warn or error")
-	str(&d.LogFormat, "log-format", "log `FORMAT`: json or text")
+	str(&d.LogLevel, "log-level", logLevelUsage)
+	str(&d.LogFormat, "log-format", logFormatUsage)
+}
+
+// Usage of the log flags, the daemon's and its worker's.
+const (
+	logLevelUsage  = "log `LEVEL`: debug, info, warn or error"
+	logFormatUsage = "log `FORMAT`: json or text"
+)
+
+// RegisterLogFlags binds -log-level and -log-format alone, with the
+// daemon's defaults and wording (for `fadeloopd worker`, whose other flags
+// are its own); Logger then builds the logger.
+func (d *DaemonFlags) RegisterLogFlags(fs *flag.FlagSet) {
+	fs.StringVar(&d.LogLevel, "log-level", d.LogLevel, logLevelUsage)
+	fs.StringVar(&d.LogFormat, "log-format", d.LogFormat, logFormatUsage)
 }
 
 // Resolve is called after fs.Parse: every flag not given on the command

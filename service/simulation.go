@@ -19,16 +19,17 @@ type simulationServer struct {
 }
 
 // maxTraceUsers is the engine's limit on traced users.
-const maxTraceUsers = 64
+const maxTraceUsers = loop.MaxTracedUsers
 
 // traceOptions converts the request's trace options for a scenario with n
 // users and slots slots per replication, checking that the traces fit in
 // one message of maxBytes.
 func traceOptions(m *pb.TraceOptions, n int, slots int64, maxBytes int) (loop.TraceOptions, []Violation) {
-	d := int(m.GetDecimationSlots())
-	if d == 0 {
+	topts := loop.TraceOptions{Decimation: int(m.GetDecimationSlots()), SamplesPerUser: int(m.GetSamplesPerUser())}
+	if topts.Decimation == 0 && topts.SamplesPerUser == 0 {
 		return loop.TraceOptions{}, nil
 	}
+	d := topts.DecimationFor(slots)
 	var vs []Violation
 	users := make([]int, 0, len(m.GetUsers()))
 	for i, u := range m.GetUsers() {
@@ -46,11 +47,16 @@ func traceOptions(m *pb.TraceOptions, n int, slots int64, maxBytes int) (loop.Tr
 	// Each traced sample costs 8 (slot) + 4·4 (float32s) bytes, plus framing.
 	samples := int64(len(users)) * (slots/int64(d) + 1)
 	if bytes := samples * 26; bytes > int64(maxBytes)/2 {
-		vs = append(vs, Violation{Field: "traces.decimation_slots", Description: fmt.Sprintf(
-			"traces of %d users at one sample every %d slots take about %d bytes, more than half the server's maximum message size %d; raise the decimation or trace fewer users",
+		field := "traces.decimation_slots"
+		if topts.Decimation == 0 {
+			field = "traces.samples_per_user"
+		}
+		vs = append(vs, Violation{Field: field, Description: fmt.Sprintf(
+			"traces of %d users at one sample every %d slots take about %d bytes, more than half the server's maximum message size %d; raise the decimation, ask for fewer samples or trace fewer users",
 			len(users), d, bytes, maxBytes)})
 	}
-	return loop.TraceOptions{Users: users, Decimation: d}, vs
+	topts.Users = users
+	return topts, vs
 }
 
 // latestSender sends values on its own goroutine through a one-slot

@@ -50,8 +50,15 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		fmt.Fprintf(w, "Pole capacity: not available (%s)\n", res.GetPoleError())
 	}
 	fmt.Fprintln(w)
-	t := NewTable("count", "users", "limits", "outage (%)", "noise rise (dB)", "load", "SIR err std (dB)", "BLER (%)", "Tx mean (dBm)", "at max (%)", "n")
-	t.AlignRight(0, 1, 3, 4, 6, 7, 8, 9, 10)
+	h := []string{"count", "users", "limits", shortLabel("outage_probability"), shortLabel("noise_rise_mean_db"), "load"}
+	for _, k := range CapacityFigures {
+		h = append(h, shortLabel(k))
+	}
+	t := NewTable(append(h, "n")...)
+	t.AlignRight(0, 1, 3, 4)
+	for i := 6; i <= len(h); i++ {
+		t.AlignRight(i)
+	}
 	for _, p := range res.GetEvaluated() {
 		f := p.GetFigures()
 		pass := "fail"
@@ -72,11 +79,13 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		if !p.GetLoadFeasible() {
 			load = "infeasible"
 		}
-		t.Add(strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), pass,
-			estCell(f.GetOutageProbability(), 100, 2)+" "+flag(p.GetOutageOk()),
-			estCell(f.GetNoiseRiseMeanDb(), 1, 2)+" "+flag(p.GetNoiseRiseOk()), load,
-			estCell(f.GetSirErrorStdDb(), 1, 2), estCell(f.GetAchievedBler(), 100, 2), estCell(f.GetTxPowerMeanDbm(), 1, 2),
-			estCell(f.GetMaxPowerFraction(), 100, 2), strconv.Itoa(int(f.GetOutageProbability().GetN())))
+		row := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), pass,
+			SearchCell(f, "outage_probability") + " " + flag(p.GetOutageOk()),
+			SearchCell(f, "noise_rise_mean_db") + " " + flag(p.GetNoiseRiseOk()), load}
+		for _, k := range CapacityFigures {
+			row = append(row, SearchCell(f, k))
+		}
+		t.Add(append(row, strconv.Itoa(int(f.GetOutageProbability().GetN())))...)
 	}
 	t.Write(w)
 	fmt.Fprintf(w, "* the capacity found; values with their %g %% intervals [low, high]\n", 100*confidenceOf(req))

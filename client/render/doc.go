@@ -4,7 +4,9 @@
 //
 // Each figure has one column stem, the proto field name (e.g.
 // outage_probability), used in every CSV header; tables show the same
-// figure under its label with unit (Figures, FigureByKey). Probabilities
+// figure under its label with unit (labels.go: Figures, FigureByKey, the
+// client's one home of figure labels, used by client/report too; tune
+// outputs prefer the API's FigureLabel where a message carries it). Probabilities
 // are fractions in CSV and JSON, per cent in tables; powers in dBm, SIR and
 // noise rise in dB.
 //

@@ -16,24 +16,19 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// FigureKeys lists the CSV column stems of the figures in CSV order.
-func FigureKeys() []string {
-	var k []string
-	for _, f := range figures {
-		k = append(k, f.Key)
-	}
-	return k
-}
+// GroupDigits writes an integer with groups of three: 90 000.
+func GroupDigits(n int64) string { return GroupDigitsSep(n, " ") }
 
-// GroupDigits writes an integer with thin groups of three: 90 000.
-func GroupDigits(n int64) string {
+// GroupDigitsSep writes an integer with groups of three separated by sep
+// (e.g. a narrow no-break space in HTML).
+func GroupDigitsSep(n int64, sep string) string {
 	s := strconv.FormatInt(n, 10)
 	neg := strings.HasPrefix(s, "-")
 	s = strings.TrimPrefix(s, "-")
 	var b strings.Builder
 	for i, r := range s {
 		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(' ')
+			b.WriteString(sep)
 		}
 		b.WriteRune(r)
 	}
@@ -160,85 +155,15 @@ func compactJSON(m proto.Message) (json.RawMessage, error) {
 	return b.Bytes(), nil
 }
 
-// Figure is one column of the report tables and CSV files.
-type Figure struct {
-	Key   string  // CSV column stem, the proto field name (percentiles: with _p1 etc.)
-	Label string  // table label with unit
-	Scale float64 // table value = scale × value (e.g. 100 for %)
-	Dec   int     // table decimals
-	Get   func(*pb.Figures) *pb.Estimate
-}
-
-func pct(get func(*pb.Percentiles) *pb.Estimate, of func(*pb.Figures) *pb.Percentiles) func(*pb.Figures) *pb.Estimate {
-	return func(f *pb.Figures) *pb.Estimate { return get(of(f)) }
-}
-
-var (
-	sirPct = (*pb.Figures).GetSirErrorPercentilesDb
-	txPct  = (*pb.Figures).GetTxPowerPercentilesDbm
-)
-
-// figures lists every figure of a Figures message in CSV order.
-var figures = []Figure{
-	{"sir_error_mean_db", "SIR error mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb},
-	{"sir_error_std_db", "SIR error std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb},
-	{"sir_error_p1_db", "SIR error 1st pct (dB)", 1, 2, pct((*pb.Percentiles).GetP1, sirPct)},
-	{"sir_error_p5_db", "SIR error 5th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP5, sirPct)},
-	{"sir_error_p50_db", "SIR error median (dB)", 1, 2, pct((*pb.Percentiles).GetP50, sirPct)},
-	{"sir_error_p95_db", "SIR error 95th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP95, sirPct)},
-	{"sir_error_p99_db", "SIR error 99th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP99, sirPct)},
-	{"outage_probability", "outage (%)", 100, 2, (*pb.Figures).GetOutageProbability},
-	{"achieved_bler", "achieved BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler},
-	{"bler_target_error", "BLER − target (%)", 100, 2, (*pb.Figures).GetBlerTargetError},
-	{"tx_power_mean_dbm", "Tx power mean (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm},
-	{"tx_power_p1_dbm", "Tx power 1st pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP1, txPct)},
-	{"tx_power_p5_dbm", "Tx power 5th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP5, txPct)},
-	{"tx_power_p50_dbm", "Tx power median (dBm)", 1, 2, pct((*pb.Percentiles).GetP50, txPct)},
-	{"tx_power_p95_dbm", "Tx power 95th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP95, txPct)},
-	{"tx_power_p99_dbm", "Tx power 99th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP99, txPct)},
-	{"max_power_fraction", "time at max power (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction},
-	{"noise_rise_mean_db", "noise rise mean (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb},
-	{"noise_rise_p95_db", "noise rise 95th pct (dB)", 1, 2, (*pb.Figures).GetNoiseRiseP95Db},
-	{"convergence_time_s", "convergence time (s)", 1, 3, (*pb.Figures).GetConvergenceTimeS},
-}
-
-// shortLabels are the column heads of the narrower per-bin, per-user and
-// sweep tables.
-var shortLabels = map[string]string{
-	"sir_error_mean_db":  "SIR err mean (dB)",
-	"sir_error_std_db":   "SIR err std (dB)",
-	"outage_probability": "outage (%)",
-	"achieved_bler":      "BLER (%)",
-	"tx_power_mean_dbm":  "Tx mean (dBm)",
-	"tx_power_p95_dbm":   "Tx p95 (dBm)",
-	"max_power_fraction": "at max (%)",
-	"noise_rise_mean_db": "noise rise (dB)",
-}
-
-func shortLabel(key string) string {
-	if l, ok := shortLabels[key]; ok {
-		return l
-	}
-	f, _ := FigureByKey(key)
-	return f.Label
-}
-
-// FigureByKey returns the figure whose CSV stem is key.
-func FigureByKey(key string) (Figure, bool) {
-	for _, f := range figures {
-		if f.Key == key {
-			return f, true
-		}
-	}
-	return Figure{}, false
-}
-
 // figureCSVHeader is the figure columns of the CSV files: each figure's
 // value, then its 95 % confidence interval.
-func figureCSVHeader() []string {
+func figureCSVHeader() []string { return csvHeader(figures, "_ci_low", "_ci_high") }
+
+// csvHeader is each figure's key, then key+low and key+high.
+func csvHeader(figs []Figure, low, high string) []string {
 	var h []string
-	for _, f := range figures {
-		h = append(h, f.Key, f.Key+"_ci_low", f.Key+"_ci_high")
+	for _, f := range figs {
+		h = append(h, f.Key, f.Key+low, f.Key+high)
 	}
 	return h
 }

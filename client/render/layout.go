@@ -42,8 +42,9 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 	}
 	row("other-cell / own-cell interference f", o.GetOtherToOwn(), 1, 3)
 	t.Add("f 5th–95th pct over cells and slots", Num(o.GetOtherToOwnSpreadP5(), 3)+" – "+Num(o.GetOtherToOwnSpreadP95(), 3), "")
-	row("noise rise mean (dB)", o.GetNoiseRiseDb(), 1, 2)
-	row("outage (%)", o.GetOutageProbability(), 100, 2)
+	fig := func(key string, e *pb.Estimate) { f := MustFigure(key); row(f.Label, e, f.Scale, f.Dec) }
+	fig("noise_rise_mean_db", o.GetNoiseRiseDb())
+	fig("outage_probability", o.GetOutageProbability())
 	row("soft-handover share (%)", o.GetSoftHandoverShare(), 100, 1)
 	row("time at max power (%)", o.GetTimeAtMaxPower(), 100, 2)
 	row("time at max power, cell edge (%)", o.GetTimeAtMaxEdge(), 100, 2)
@@ -97,14 +98,15 @@ func LayoutMapData(rep *pb.RunReport, power bool) (plots.LayoutMapData, error) {
 		d.Cells = append(d.Cells, plots.MapCell{Name: c.GetName(), SiteXM: c.GetSiteXM(), SiteYM: c.GetSiteYM(),
 			Sector: sectors, BoresightDeg: c.GetBoresightDeg()})
 	}
-	d.ValueLabel = "outage (%)"
+	f := MustFigure("outage_probability")
 	if power {
-		d.ValueLabel = "mean Tx power (dBm)"
+		f = MustFigure("tx_power_mean_dbm")
 	}
+	d.ValueLabel = f.Label
 	for _, u := range l.GetUserPoints() {
-		v := 100 * u.GetOutageProbability()
+		v := f.Scale * u.GetOutageProbability()
 		if power {
-			v = u.GetTxPowerMeanDbm()
+			v = f.Scale * u.GetTxPowerMeanDbm()
 		}
 		d.Users = append(d.Users, plots.MapUser{XM: u.GetXM(), YM: u.GetYM(), Value: v})
 	}

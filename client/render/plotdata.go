@@ -184,7 +184,7 @@ func TuneObjectiveGrid(rec *pb.Recommendation) (plots.ObjectiveGrid, bool) {
 	ov := rec.GetOverall()
 	l := ov.GetRankedBy()
 	sc, _ := labelScale(l)
-	g := plots.ObjectiveGrid{Objective: labelHead(l), StepDB: slices.Compact(steps),
+	g := plots.ObjectiveGrid{Objective: LabelHead(l), StepDB: slices.Compact(steps),
 		UpdateRateHz: slices.Compact(rates), LowerIsBetter: true}
 	if len(rec.GetConditions()) > 1 {
 		g.Objective = "weighted " + g.Objective

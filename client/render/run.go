@@ -55,8 +55,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	t.Write(w)
 	LayoutTable(w, rep)
 
-	cols := []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
-		"tx_power_mean_dbm", "tx_power_p95_dbm", "max_power_fraction"}
+	cols := RunDetailFigures
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
 		fmt.Fprintln(w)
 		fmt.Fprintln(w, "per distance bin (value [95 % interval]):")

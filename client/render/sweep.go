@@ -10,9 +10,6 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-var sweepTableFigures = []string{"sir_error_mean_db", "sir_error_std_db", "outage_probability", "achieved_bler",
-	"tx_power_mean_dbm", "max_power_fraction", "noise_rise_mean_db"}
-
 // SweepTable writes one row per sweep point: index, axis values and the main
 // figures with their intervals as [low, high].
 func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) {
@@ -27,7 +24,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for _, a := range req.GetAxes() {
 		h = append(h, a.GetPath())
 	}
-	for _, k := range sweepTableFigures {
+	for _, k := range SweepTableFigures {
 		h = append(h, shortLabel(k))
 	}
 	h = append(h, "load")
@@ -41,7 +38,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 			row = append(row, coordinateText(p, i, c, func(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }))
 		}
 		unsimulated := notSimulated(p.GetReport())
-		for _, k := range sweepTableFigures {
+		for _, k := range SweepTableFigures {
 			f, _ := FigureByKey(k)
 			if unsimulated {
 				row = append(row, "—") // infeasible load: not run, no figure

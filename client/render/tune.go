@@ -10,9 +10,9 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
-// pointLabel is "step_db=0.5, update_rate_hz=1500" ("base setting" without
+// PointLabel is "step_db=0.5, update_rate_hz=1500" ("base setting" without
 // axes).
-func pointLabel(p *pb.GridPoint) string {
+func PointLabel(p *pb.GridPoint) string {
 	if p == nil || len(p.GetCoords()) == 0 {
 		return "base setting"
 	}
@@ -25,30 +25,6 @@ func pointLabel(p *pb.GridPoint) string {
 		parts = append(parts, name+"="+strconv.FormatFloat(c.GetValue(), 'g', 6, 64))
 	}
 	return strings.Join(parts, ", ")
-}
-
-// ObjectiveUnit returns the table scale, decimals and unit of an
-// objective's figure, for callers without a Recommendation's FigureLabel
-// (which, where present, is the source of every unit: see FigureLabelOf).
-func ObjectiveUnit(k pb.ObjectiveKind) (scale float64, dec int, unit, name string) {
-	switch k {
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
-		return 100, 2, "%", "outage"
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
-		return 1, 2, "dBm", "mean Tx power"
-	}
-	return 1, 2, "dB", "SIR error std"
-}
-
-// FigureLabelOf returns the label of the figure key among labels (a
-// Recommendation's figures); nil when absent.
-func FigureLabelOf(labels []*pb.FigureLabel, key string) *pb.FigureLabel {
-	for _, l := range labels {
-		if l.GetKey() == key {
-			return l
-		}
-	}
-	return nil
 }
 
 // labelScale is a label's display scale (1 when unset) and decimals.
@@ -69,8 +45,8 @@ func shortUnit(u string) string {
 	return u
 }
 
-// labelHead is "mean Tx power (dBm)".
-func labelHead(l *pb.FigureLabel) string {
+// LabelHead is "mean Tx power (dBm)", a column head from an API label.
+func LabelHead(l *pb.FigureLabel) string {
 	return l.GetName() + " (" + shortUnit(l.GetUnit()) + ")"
 }
 
@@ -104,6 +80,10 @@ var statusNames = map[pb.CandidateStatus]string{
 	pb.CandidateStatus_CANDIDATE_STATUS_DROPPED:    "dropped",
 	pb.CandidateStatus_CANDIDATE_STATUS_EQUIVALENT: "equivalent",
 }
+
+// StatusName is a candidate status in tables: "contending", "dropped",
+// "equivalent" ("" when unset).
+func StatusName(s pb.CandidateStatus) string { return statusNames[s] }
 
 // VerdictName is the verdict column of tables and CSV: "winner", "tie of
 // N", "constraints unmet", "single setting".
@@ -197,7 +177,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		fmt.Fprintln(w, n)
 	}
 	objName := ov.GetRankedBy().GetName()
-	if l := FigureLabelOf(rec.GetFigures(), objectiveKey(rec.GetObjective().GetKind())); l != nil {
+	if l := FigureLabelOf(rec.GetFigures(), ObjectiveKey(rec.GetObjective().GetKind())); l != nil {
 		objName = l.GetName()
 	}
 	fmt.Fprintf(w, "minimise %s; %d candidates × %d conditions; confidence %g %%; seed %d\n\n",
@@ -227,14 +207,14 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		}
 		return " (" + shortUnit(u) + ")"
 	}
-	objHead := labelHead(rb)
+	objHead := LabelHead(rb)
 	for _, c := range rec.GetConditions() {
 		if c.GetDecision().GetRankedBy().GetKey() != rb.GetKey() {
 			objHead = "ranked figure"
 		}
 	}
 	diffH := "runner-up − recommended" + diffHead(rb)
-	if objHead != labelHead(rb) {
+	if objHead != LabelHead(rb) {
 		diffH = "runner-up − recommended" // mixed units: each cell carries its own
 	}
 	t := NewTable("condition", "weight", "recommended", "verdict", objHead, diffH,
@@ -271,15 +251,14 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			}
 		}
 		obj := labelCell(best.GetObjective(), dl)
-		if objHead != labelHead(rb) {
+		if objHead != LabelHead(rb) {
 			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
 		}
-		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), pointLabel(d.GetSetting()), VerdictName(d),
+		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), PointLabel(d.GetSetting()), VerdictName(d),
 			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
 	}
 	t.Write(w)
 	fmt.Fprintln(w)
-	figCols := []string{"sir_error_std_db", "outage_probability", "achieved_bler", "tx_power_mean_dbm", "noise_rise_mean_db"}
 	for _, c := range rec.GetConditions() {
 		d := c.GetDecision()
 		dl := d.GetRankedBy()
@@ -290,15 +269,15 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		if b := c.GetBaseline(); b.GetText() != "" {
 			fmt.Fprintln(w, Wrap(b.GetText(), 76, "    "))
 		}
-		h := []string{"  #", "setting", labelHead(dl), "− recommended" + diffHead(dl)}
+		h := []string{"  #", "setting", LabelHead(dl), "− recommended" + diffHead(dl)}
 		var labels []*pb.FigureLabel
-		for _, k := range figCols {
+		for _, k := range CandidateFigures {
 			l := FigureLabelOf(rec.GetFigures(), k)
 			if l == nil || k == dl.GetKey() {
 				continue
 			}
 			labels = append(labels, l)
-			h = append(h, labelHead(l))
+			h = append(h, LabelHead(l))
 		}
 		h = append(h, "n", "status")
 		ct := NewTable(h...)
@@ -312,17 +291,17 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			if cr.GetCandidate() == d.GetBest() {
 				mark = "* "
 			}
-			status := statusNames[cr.GetStatus()]
+			status := StatusName(cr.GetStatus())
 			if !cr.GetFeasible() {
 				status += ", misses constraints"
 			}
-			row := []string{mark + strconv.Itoa(int(cr.GetCandidate())), pointLabel(cands[cr.GetCandidate()]),
+			row := []string{mark + strconv.Itoa(int(cr.GetCandidate())), PointLabel(cands[cr.GetCandidate()]),
 				labelCell(cr.GetObjective(), dl), labelCell(cr.GetDiffToBest(), dl)}
 			if cr.GetCandidate() == d.GetBest() {
 				row[3] = "–"
 			}
 			for _, l := range labels {
-				row = append(row, labelCell(tuneFigure(cr.GetFigures(), l.GetKey()), l))
+				row = append(row, labelCell(SearchFigure(cr.GetFigures(), l.GetKey()), l))
 			}
 			row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
 			ct.Add(row...)
@@ -350,48 +329,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	fmt.Fprintln(w)
 }
 
-// objectiveKey is the TuneFigures key of an objective's figure.
-func objectiveKey(k pb.ObjectiveKind) string {
-	switch k {
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
-		return "outage_probability"
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
-		return "tx_power_mean_dbm"
-	}
-	return "sir_error_std_db"
-}
-
-// tuneFigure returns the figure of fs named by key (a searchFigures key).
-func tuneFigure(fs *pb.TuneFigures, key string) *pb.ReplicationEstimate {
-	for _, f := range searchFigures {
-		if f.Key == key {
-			return f.Get(fs)
-		}
-	}
-	return nil
-}
-
-// searchFigures are the figures of the tune and capacity CSV files.
-var searchFigures = []struct {
-	Key string
-	Get func(*pb.TuneFigures) *pb.ReplicationEstimate
-}{
-	{"sir_error_mean_db", (*pb.TuneFigures).GetSirErrorMeanDb},
-	{"sir_error_std_db", (*pb.TuneFigures).GetSirErrorStdDb},
-	{"outage_probability", (*pb.TuneFigures).GetOutageProbability},
-	{"achieved_bler", (*pb.TuneFigures).GetAchievedBler},
-	{"tx_power_mean_dbm", (*pb.TuneFigures).GetTxPowerMeanDbm},
-	{"max_power_fraction", (*pb.TuneFigures).GetMaxPowerFraction},
-	{"noise_rise_mean_db", (*pb.TuneFigures).GetNoiseRiseMeanDb},
-}
-
-func searchFigureHeader() []string {
-	var h []string
-	for _, f := range searchFigures {
-		h = append(h, f.Key, f.Key+"_low", f.Key+"_high")
-	}
-	return h
-}
+func searchFigureHeader() []string { return csvHeader(searchFigures, "_low", "_high") }
 
 func searchFigureCells(fs *pb.TuneFigures) []string {
 	var c []string
@@ -400,7 +338,7 @@ func searchFigureCells(fs *pb.TuneFigures) []string {
 			c = append(c, "", "", "")
 			continue
 		}
-		e := f.Get(fs)
+		e := f.Search(fs)
 		c = append(c, CSVNum(e.GetMean()), CSVNum(e.GetLow()), CSVNum(e.GetHigh()))
 	}
 	return c

@@ -3,11 +3,8 @@ package report
 import (
 	"bytes"
 	"fmt"
-	"github.com/fadeloop/fadeloop/loop/tune"
 	"html/template"
 	"math"
-	"slices"
-	"sort"
 	"strconv"
 	"strings"
 
@@ -18,11 +15,6 @@ import (
 
 // The figures of a report are the same as the CLI's --plot figures, drawn
 // by client/plots from the API messages.
-
-const (
-	stepPath = tune.StepPath
-	ratePath = tune.RatePath
-)
 
 // figure is one inline SVG plot with its caption.
 type figure struct {
@@ -106,7 +98,7 @@ func groupName(sc *pb.Scenario, g int32) string {
 	return "group " + strconv.Itoa(int(g))
 }
 
-// runTraces, runBinErrors, runDistancePoints and axisLabel are the CLI's
+// runTraces, runBinErrors and runDistancePoints are the CLI's
 // plot inputs (client/render), so a report draws what --plot draws.
 func runTraces(rep *pb.RunReport) []plots.Trace { return clirender.RunTraces(rep, nil) }
 
@@ -116,107 +108,32 @@ func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
 	return clirender.RunDistancePoints(rep)
 }
 
-func axisLabel(p string, v float64) string { return clirender.AxisValueLabel(p, v) }
-
 // sweepFigures: a heat map of outage over step × update rate, outage and
 // SIR error std against step size (one line per value of the other axis),
 // or the SIR error distribution per point (at most 8 points).
 func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]figure, error) {
-	si, ri := -1, -1
-	for i, a := range axes {
-		switch a.GetPath() {
-		case stepPath:
-			si = i
-		case ratePath:
-			ri = i
-		}
-	}
 	var out []figure
-	switch {
-	case len(axes) == 2 && si >= 0 && ri >= 0:
-		g := plots.ObjectiveGrid{Objective: "outage (%)", LowerIsBetter: true}
-		for _, p := range pts {
-			g.StepDB = append(g.StepDB, p.GetCoordinates()[si])
-			g.UpdateRateHz = append(g.UpdateRateHz, p.GetCoordinates()[ri])
-		}
-		slices.Sort(g.StepDB)
-		slices.Sort(g.UpdateRateHz)
-		g.StepDB, g.UpdateRateHz = slices.Compact(g.StepDB), slices.Compact(g.UpdateRateHz)
-		g.Value = nanGrid(len(g.UpdateRateHz), len(g.StepDB))
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			col, row := slices.Index(g.StepDB, c[si]), slices.Index(g.UpdateRateHz, c[ri])
-			g.Value[row][col] = 100 * p.GetReport().GetAggregate().GetOutageProbability().GetValue()
-		}
-		fig, err := plots.HeatMap(titled("outage (%) over step × update rate", title), g)
+	switch kind := clirender.AutoSweepPlot(axes); {
+	case kind == "heatmap":
+		g, _ := clirender.SweepHeatGrid(axes, pts, "outage_probability", false)
+		fig, err := plots.HeatMap(titled(g.Objective+" over step × update rate", title), g)
 		if err := addFigure(&out, "Outage of every grid point over inner-loop step size and update rate; the best cell is outlined.", fig, err); err != nil {
 			return nil, err
 		}
-	case si >= 0 && len(axes) <= 2:
-		oi := -1
-		for i := range axes {
-			if i != si {
-				oi = i
-			}
-		}
-		lines := map[float64]*plots.StepLine{}
-		var order []float64
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			key, label := 0.0, "all"
-			if oi >= 0 {
-				key, label = c[oi], axisLabel(axes[oi].GetPath(), c[oi])
-			}
-			l := lines[key]
-			if l == nil {
-				l = &plots.StepLine{Label: label}
-				lines[key] = l
-				order = append(order, key)
-			}
-			f := p.GetReport().GetAggregate()
-			l.Add(c[si], f.GetOutageProbability().GetValue(), f.GetOutageProbability().GetCiLow(), f.GetOutageProbability().GetCiHigh(),
-				f.GetSirErrorStdDb().GetValue(), f.GetSirErrorStdDb().GetCiLow(), f.GetSirErrorStdDb().GetCiHigh())
-		}
-		sort.Float64s(order)
-		var ls []plots.StepLine
-		for _, k := range order {
-			l := *lines[k]
-			l.SortByStep()
-			ls = append(ls, l)
-		}
+	case kind == "steps":
+		ls, _ := clirender.SweepStepLines(axes, pts)
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size", title), ls)
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
 			return nil, err
 		}
 	case len(pts) <= 8:
-		var ds []plots.ErrorDistribution
-		for _, p := range pts {
-			var parts []string
-			for i, a := range axes {
-				if i < len(p.GetCoordinates()) {
-					parts = append(parts, axisLabel(a.GetPath(), p.GetCoordinates()[i]))
-				}
-			}
-			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
-				Quantiles: clirender.Quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
-		}
+		ds := clirender.SweepErrorDistributions(axes, pts)
 		fig, err := plots.SIRErrorCDF(titled("SIR error distribution per point", title), ds)
 		if err := addFigure(&out, "Distribution of the SIR error of every grid point (from its reported percentiles).", fig, err); err != nil {
 			return nil, err
 		}
 	}
 	return out, nil
-}
-
-func nanGrid(rows, cols int) [][]float64 {
-	v := make([][]float64, rows)
-	for r := range v {
-		v[r] = make([]float64, cols)
-		for c := range v[r] {
-			v[r][c] = math.NaN()
-		}
-	}
-	return v
 }
 
 // tuneFigures: the objective over step × update rate (when those are the
@@ -240,16 +157,12 @@ func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
 	return out, nil
 }
 
-// objectiveUnit returns the display scale, decimals, unit and name of an
-// objective.
-func objectiveUnit(k pb.ObjectiveKind) (scale float64, dec int, unit, name string) {
-	switch k {
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_OUTAGE:
-		return 100, 3, "%", "outage"
-	case pb.ObjectiveKind_OBJECTIVE_KIND_MIN_TX_POWER:
-		return 1, 2, "dBm", "mean Tx power"
-	}
-	return 1, 3, "dB", "SIR error std"
+// objectiveUnit returns the display scale, decimals, unit and name of a
+// recommendation's ranked figure: the API's label (client/render's when an
+// older result lacks it).
+func objectiveUnit(rec *pb.Recommendation) (scale float64, dec int, unit, name string) {
+	l := clirender.SearchLabel(rec.GetFigures(), clirender.ObjectiveKey(rec.GetObjective().GetKind()))
+	return l.GetDisplayScale(), int(l.GetDecimals()), l.GetUnit(), l.GetName()
 }
 
 // num formats v with dec decimals; NaN and ±Inf as "–".

@@ -13,6 +13,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
+	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -187,15 +188,15 @@ func TestRunFiguresMatchReport(t *testing.T) {
 	in := readFixture(t, "run.json")
 	page := render(t, in)
 	agg := in.Run.GetAggregate()
-	for _, fd := range allFigures {
-		e := fd.get(agg)
+	for _, fd := range clirender.Figures() {
+		e := fd.Get(agg)
 		row := fmt.Sprintf("<td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>",
-			htmlEsc(fd.label), num(fd.scale*e.GetValue(), fd.dec), num(fd.scale*e.GetCiLow(), fd.dec), num(fd.scale*e.GetCiHigh(), fd.dec))
+			htmlEsc(fd.Label), num(fd.Scale*e.GetValue(), fd.Dec), num(fd.Scale*e.GetCiLow(), fd.Dec), num(fd.Scale*e.GetCiHigh(), fd.Dec))
 		if !strings.Contains(page, row) {
 			t.Errorf("figure row missing or wrong: %s", row)
 		}
 		if !(e.GetCiLow() <= e.GetValue() && e.GetValue() <= e.GetCiHigh()) {
-			t.Errorf("%s: value %g outside its interval [%g, %g]", fd.label, e.GetValue(), e.GetCiLow(), e.GetCiHigh())
+			t.Errorf("%s: value %g outside its interval [%g, %g]", fd.Label, e.GetValue(), e.GetCiLow(), e.GetCiHigh())
 		}
 	}
 	if !strings.Contains(page, fmt.Sprintf("<td>%d</td>", in.Run.GetSeed())) {

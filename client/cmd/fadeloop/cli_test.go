@@ -27,6 +27,7 @@ import (
 	"github.com/fadeloop/fadeloop/client/plots"
 	"github.com/fadeloop/fadeloop/client/render"
 	"github.com/fadeloop/fadeloop/fading"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 )
 
@@ -639,38 +640,44 @@ func TestCanonicalCopy(t *testing.T) {
 	}
 }
 
-// TestTapCounts: the bench's tap counts, taken from the server's info RPC,
-// agree with package fading's built-in profiles.
+// TestTapCounts: the bench's tap counts, taken from the run report's
+// group_fingers, agree with package fading's built-in profiles.
 func TestTapCounts(t *testing.T) {
 	cl, err := client.Embedded(service.Config{Logger: slog.New(slog.DiscardHandler)}, client.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer cl.Close()
-	info, err := cl.ServerInfo(context.Background())
-	if err != nil {
-		t.Fatal(err)
+	taps := func(groups string) (float64, error) {
+		t.Helper()
+		g := strings.ReplaceAll(groups, "profile:", "max_distance_m: 1000, speeds: [{speed_kmh: 30}], profile:")
+		sf, err := client.ParseScenario("x", []byte("receiver: {chip_rate_hz: 3.84e6, bit_rate_bps: 12.2e3}\ngroups: "+g+"\nrun: {slots: 200, warmup_slots: 0, batches: 20}"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		rep, err := cl.Simulate(context.Background(), &pb.SimulateRequest{Scenario: sf.Scenario}, nil)
+		if err != nil {
+			t.Fatalf("%s: %v", groups, err)
+		}
+		return tapsPerUser(rep)
 	}
 	for _, name := range fading.BuiltinProfileNames() {
 		p, err := fading.BuiltinProfile(name)
 		if err != nil {
 			t.Fatal(err)
 		}
-		sc, _ := client.ParseScenario("x", []byte("groups: [{count: 2, profile: "+name+"}]"))
-		got, err := tapsPerUser(sc.Scenario, info.GetProfiles())
+		got, err := taps("[{count: 2, profile: " + name + "}]")
 		if err != nil || int(got) != len(p.Taps) {
 			t.Errorf("%s: tapsPerUser %v (%v), fading has %d taps", name, got, err, len(p.Taps))
 		}
 	}
 	// Mixed groups: (2·1 + 6·7)/8 paths per user (FLAT one tap, EPA seven,
 	// TS 36.101 Annex B.2 (memory)).
-	sc, _ := client.ParseScenario("x", []byte("groups: [{count: 2, profile: FLAT}, {count: 6, profile: epa}]"))
-	if got, err := tapsPerUser(sc.Scenario, info.GetProfiles()); err != nil || got != 44.0/8 {
+	if got, err := taps("[{count: 2, profile: FLAT}, {count: 6, profile: epa}]"); err != nil || got != 44.0/8 {
 		t.Errorf("mixed groups: %v (%v), want 5.5", got, err)
 	}
-	sc, _ = client.ParseScenario("x", []byte("groups: [{count: 2, profile: NOSUCH}]"))
-	if _, err := tapsPerUser(sc.Scenario, info.GetProfiles()); err == nil {
-		t.Error("unknown profile accepted")
+	if _, err := tapsPerUser(&pb.RunReport{}); err == nil {
+		t.Error("a report without group_fingers accepted")
 	}
 }
 

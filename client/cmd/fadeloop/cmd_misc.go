@@ -9,9 +9,7 @@ import (
 	"fmt"
 	"runtime"
 	"runtime/debug"
-	"slices"
 	"strconv"
-	"strings"
 
 	"google.golang.org/protobuf/proto"
 
@@ -119,15 +117,12 @@ func runBench(e *env, fs *flag.FlagSet) action {
 		if err := ov.apply(sc); err != nil {
 			return err
 		}
-		out, cl, release, info, err := e.infoSession(ctx)
+		out, cl, release, err := e.session()
 		if err != nil {
 			return err
 		}
 		defer release()
-		taps, err := tapsPerUser(sc, info.GetProfiles())
-		if err != nil {
-			return err
-		}
+		var taps float64
 		var runs []benchRun
 		for i := range *repeat {
 			prog := e.newProgress("user-slots/s")
@@ -135,6 +130,11 @@ func runBench(e *env, fs *flag.FlagSet) action {
 			prog.done()
 			if err != nil {
 				return locate(sf, "scenario", err)
+			}
+			if i == 0 {
+				if taps, err = tapsPerUser(rep); err != nil {
+					return err
+				}
 			}
 			r := benchRun{Run: i + 1, Users: int(rep.GetAggregate().GetUsers()), TapsPerUser: taps,
 				UserSlots: rep.GetSimulatedUserSlots(), WallTimeS: rep.GetWallTimeS(), UserSlotsPerS: rep.GetUserSlotsPerS()}
@@ -189,28 +189,21 @@ func runBench(e *env, fs *flag.FlagSet) action {
 	}
 }
 
-// tapsPerUser is the mean number of fading paths per user, with the tap
-// counts of the built-in profiles as the server reports them.
-func tapsPerUser(sc *pb.Scenario, profiles []*pb.BuiltinProfile) (float64, error) {
+// tapsPerUser is the mean number of fading paths per user: each group's
+// taps as the run report states them (group_fingers), weighted by the
+// group's user count in the normalised scenario.
+func tapsPerUser(rep *pb.RunReport) (float64, error) {
+	groups := rep.GetNormalisedScenario().GetGroups()
 	users, paths := 0, 0
-	for i, g := range sc.GetGroups() {
-		n := len(g.GetCustomTaps())
-		if n == 0 {
-			name := strings.TrimSpace(g.GetProfile())
-			if name == "" {
-				name = "FLAT"
-			}
-			k := slices.IndexFunc(profiles, func(p *pb.BuiltinProfile) bool { return strings.EqualFold(p.GetName(), name) })
-			if k < 0 {
-				return 0, badInputf("groups[%d].profile %q: not a built-in profile of the server", i, g.GetProfile())
-			}
-			n = len(profiles[k].GetTaps())
+	for _, gf := range rep.GetGroupFingers() {
+		if g := int(gf.GetGroup()); g >= 0 && g < len(groups) {
+			n := int(groups[g].GetCount())
+			users += n
+			paths += n * int(gf.GetTaps())
 		}
-		users += int(g.GetCount())
-		paths += n * int(g.GetCount())
 	}
 	if users == 0 {
-		return 0, badInputf("the scenario has no users")
+		return 0, fmt.Errorf("the run report states no taps per group (group_fingers); is the server older than this client?")
 	}
 	return float64(paths) / float64(users), nil
 }

@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -222,11 +223,12 @@ func runRun(e *env, fs *flag.FlagSet) action {
 	}
 }
 
-// traceRequest asks for traces of the given users (only traces plots) or,
+// traceRequest asks for traces of about points samples per user (the
+// server picks the decimation) of the given users (only traces plots) or,
 // when more users than the server traces (maxTraced) exist, of maxTraced
 // users spread evenly over the indices plus the given ones.
 func traceRequest(sc *pb.Scenario, maxTraced int32, points int, users []int32, onlyTraces bool) *pb.TraceOptions {
-	tr := &pb.TraceOptions{DecimationSlots: decimationFor(sc, points)}
+	tr := &pb.TraceOptions{SamplesPerUser: int32(min(points, math.MaxInt32))}
 	n := 0
 	for _, g := range sc.GetGroups() {
 		n += int(g.GetCount())
@@ -244,17 +246,6 @@ func traceRequest(sc *pb.Scenario, maxTraced int32, points int, users []int32, o
 		tr.Users = slices.Compact(tr.Users)
 	}
 	return tr
-}
-
-// decimationFor picks the trace decimation giving about n samples per user.
-func decimationFor(sc *pb.Scenario, n int) int32 {
-	slots := sc.GetRun().GetSlots() + sc.GetRun().GetWarmupSlots()
-	if sc.GetRun().GetSlots() == 0 {
-		rate := sc.GetInnerLoop().GetUpdateRateHz()
-		slots = int64(sc.GetRun().GetDurationS() * rate)
-	}
-	d := slots / int64(n)
-	return int32(max(1, min(d, 1_000_000)))
 }
 
 func parseIndexList(s string) ([]int32, error) {

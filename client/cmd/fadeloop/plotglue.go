@@ -7,7 +7,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"sort"
 	"strings"
 	"time"
 
@@ -110,19 +109,32 @@ func plotRun(ps plotSpec, rep *pb.RunReport, users []int32) error {
 	return fig.Save(ps.file)
 }
 
-// sweepObjective is the quantity a sweep heat map shows.
+// sweepObjective is the quantity a sweep heat map shows: a figure (its
+// label and scale from client/render), lower is better; abs shows its
+// magnitude.
 type sweepObjective struct {
 	key   string
-	label string
-	scale float64
 	lower bool
+	abs   bool
 }
 
 var sweepObjectives = map[string]sweepObjective{
-	"std":    {"sir_error_std_db", "SIR error std (dB)", 1, true},
-	"outage": {"outage_probability", "outage (%)", 100, true},
-	"power":  {"tx_power_mean_dbm", "mean Tx power (dBm)", 1, true},
-	"bler":   {"bler_target_error", "|BLER − target| (%)", 100, true},
+	"std":    {"sir_error_std_db", true, false},
+	"outage": {"outage_probability", true, false},
+	"power":  {"tx_power_mean_dbm", true, false},
+	"bler":   {"bler_target_error", true, true},
+}
+
+// label is the heat map's title of the objective: the figure's label,
+// "|…|" around its name for a magnitude.
+func (o sweepObjective) label() string {
+	l := render.MustFigure(o.key).Label
+	if o.abs {
+		if i := strings.LastIndex(l, " ("); i > 0 {
+			return "|" + l[:i] + "|" + l[i:]
+		}
+	}
+	return l
 }
 
 const (
@@ -130,29 +142,13 @@ const (
 	ratePath = tune.RatePath
 )
 
-// autoSweepPlot picks the plot kind from the axes: a heat map for step ×
-// update rate, step curves for step × one other axis, CDFs otherwise.
-func autoSweepPlot(axes []*pb.SweepAxis) string {
-	paths := map[string]bool{}
-	for _, a := range axes {
-		paths[a.GetPath()] = true
-	}
-	switch {
-	case len(axes) == 2 && paths[stepPath] && paths[ratePath]:
-		return "heatmap"
-	case paths[stepPath] && len(axes) <= 2:
-		return "steps"
-	}
-	return "cdf"
-}
-
 func axisLabel(a *pb.SweepAxis, v float64) string { return render.AxisValueLabel(a.GetPath(), v) }
 
 // checkSweepPlot rejects, before any work, a plot the axes cannot give.
 func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = autoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes)
 	}
 	paths := map[string]int{}
 	for _, a := range axes {
@@ -179,7 +175,7 @@ func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint, objective string) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = autoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes)
 	}
 	var (
 		fig *plots.Figure
@@ -189,59 +185,15 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 	case "layout":
 		fig, err = layoutSweepFigure(title, axes, pts)
 	case "cdf":
-		var ds []plots.ErrorDistribution
-		for _, p := range pts {
-			var parts []string
-			for i, a := range axes {
-				if i < len(p.GetCoordinates()) {
-					parts = append(parts, axisLabel(a, p.GetCoordinates()[i]))
-				}
-			}
-			ds = append(ds, plots.ErrorDistribution{Label: strings.Join(parts, ", "),
-				Quantiles: render.Quantiles(p.GetReport().GetAggregate().GetSirErrorPercentilesDb())})
-		}
+		ds := render.SweepErrorDistributions(axes, pts)
 		if len(ds) > 8 {
 			return badInputf("a cdf plot shows at most 8 candidates; this sweep has %d points (use --points or fewer values)", len(ds))
 		}
 		fig, err = plots.SIRErrorCDF("SIR error distribution per candidate — "+title, ds)
 	case "steps":
-		si, oi := -1, -1
-		for i, a := range axes {
-			if a.GetPath() == stepPath {
-				si = i
-			} else {
-				oi = i
-			}
-		}
-		if si < 0 || len(axes) > 2 {
+		ls, ok := render.SweepStepLines(axes, pts)
+		if !ok {
 			return badInputf("a steps plot needs the axis %s and at most one other axis (one line per value)", stepPath)
-		}
-		lines := map[float64]*plots.StepLine{}
-		var order []float64
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			key := 0.0
-			label := "all"
-			if oi >= 0 {
-				key = c[oi]
-				label = axisLabel(axes[oi], key)
-			}
-			l := lines[key]
-			if l == nil {
-				l = &plots.StepLine{Label: label}
-				lines[key] = l
-				order = append(order, key)
-			}
-			f := p.GetReport().GetAggregate()
-			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-			l.Add(c[si], o.GetValue(), o.GetCiLow(), o.GetCiHigh(), s.GetValue(), s.GetCiLow(), s.GetCiHigh())
-		}
-		sort.Float64s(order)
-		var ls []plots.StepLine
-		for _, k := range order {
-			l := lines[k]
-			l.SortByStep()
-			ls = append(ls, *l)
 		}
 		fig, err = plots.StepSensitivity("Outage and SIR error spread against step size — "+title, ls)
 	case "heatmap":
@@ -249,44 +201,12 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		if !ok {
 			return badInputf("--objective %q: must be one of std, outage, power, bler", objective)
 		}
-		si, ri := -1, -1
-		for i, a := range axes {
-			switch a.GetPath() {
-			case stepPath:
-				si = i
-			case ratePath:
-				ri = i
-			}
-		}
-		if si < 0 || ri < 0 || len(axes) != 2 {
+		g, ok := render.SweepHeatGrid(axes, pts, obj.key, obj.abs)
+		if !ok {
 			return badInputf("a heatmap plot needs exactly the axes %s and %s", stepPath, ratePath)
 		}
-		g := plots.ObjectiveGrid{Objective: obj.label, StepDB: sortedValues(axes[si]), UpdateRateHz: sortedValues(axes[ri]), LowerIsBetter: obj.lower}
-		g.Value = make([][]float64, len(g.UpdateRateHz))
-		g.Infeasible = make([][]bool, len(g.UpdateRateHz))
-		for r := range g.Value {
-			g.Infeasible[r] = make([]bool, len(g.StepDB))
-			g.Value[r] = make([]float64, len(g.StepDB))
-			for c := range g.Value[r] {
-				g.Value[r][c] = math.NaN()
-			}
-		}
-		f, _ := render.FigureByKey(obj.key)
-		for _, p := range pts {
-			c := p.GetCoordinates()
-			col := slices.Index(g.StepDB, c[si])
-			row := slices.Index(g.UpdateRateHz, c[ri])
-			if col < 0 || row < 0 {
-				continue
-			}
-			v := obj.scale * f.Get(p.GetReport().GetAggregate()).GetValue()
-			if objective == "bler" {
-				v = math.Abs(v)
-			}
-			g.Value[row][col] = v
-			g.Infeasible[row][col] = p.GetReport().GetFeasibility().GetInfeasible()
-		}
-		fig, err = plots.HeatMap(obj.label+" over step × update rate — "+title, g)
+		g.Objective, g.LowerIsBetter = obj.label(), obj.lower
+		fig, err = plots.HeatMap(obj.label()+" over step × update rate — "+title, g)
 	default:
 		return badInputf("unknown plot kind %q", kind)
 	}
@@ -294,12 +214,6 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		return err
 	}
 	return fig.Save(ps.file)
-}
-
-func sortedValues(a *pb.SweepAxis) []float64 {
-	v := slices.Clone(a.GetValues())
-	slices.Sort(v)
-	return slices.Compact(v)
 }
 
 // checkReportPath rejects, before any work, a --report FILE that is not

@@ -77,17 +77,25 @@ func (SeedMode) EnumDescriptor() ([]byte, []int) {
 	return file_fadeloop_v1_simulation_proto_rawDescGZIP(), []int{0}
 }
 
-// TraceOptions asks for decimated per-user traces in the report.
+// TraceOptions asks for decimated per-user traces in the report. Give
+// either decimation_slots or samples_per_user; with both 0 there are no
+// traces.
 type TraceOptions struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Keep one sample every decimation_slots slots; 0 means no traces.
-	// [0, 1e6].
+	// Keep one sample every decimation_slots slots; 0 means no traces
+	// unless samples_per_user is set. [0, 1e6].
 	DecimationSlots int32 `protobuf:"varint,1,opt,name=decimation_slots,json=decimationSlots,proto3" json:"decimation_slots,omitempty"`
 	// Users to trace (0-based indices in group order), at most 64; empty
 	// means the first min(64, users) users.
-	Users         []int32 `protobuf:"varint,2,rep,packed,name=users,proto3" json:"users,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Users []int32 `protobuf:"varint,2,rep,packed,name=users,proto3" json:"users,omitempty"`
+	// About this many samples per traced user, used when decimation_slots
+	// is 0: the engine keeps one sample every max(1, floor(total slots /
+	// samples_per_user)) slots, total slots being the replication's run
+	// length with the warm-up (loop.TraceDecimation), so a trace holds
+	// between samples_per_user and about twice as many samples. [0, 1e6].
+	SamplesPerUser int32 `protobuf:"varint,3,opt,name=samples_per_user,json=samplesPerUser,proto3" json:"samples_per_user,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *TraceOptions) Reset() {
@@ -132,6 +140,13 @@ func (x *TraceOptions) GetUsers() []int32 {
 		return x.Users
 	}
 	return nil
+}
+
+func (x *TraceOptions) GetSamplesPerUser() int32 {
+	if x != nil {
+		return x.SamplesPerUser
+	}
+	return 0
 }
 
 // SimulateRequest runs one scenario.
@@ -945,10 +960,11 @@ var File_fadeloop_v1_simulation_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_simulation_proto_rawDesc = "" +
 	"\n" +
-	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\x1a\x16fadeloop/v1/tune.proto\"l\n" +
+	"\x1cfadeloop/v1/simulation.proto\x12\vfadeloop.v1\x1a\x1bbuf/validate/validate.proto\x1a\x18fadeloop/v1/report.proto\x1a\x1afadeloop/v1/scenario.proto\x1a\x16fadeloop/v1/tune.proto\"\xa3\x01\n" +
 	"\fTraceOptions\x126\n" +
 	"\x10decimation_slots\x18\x01 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xc0\x84=(\x00R\x0fdecimationSlots\x12$\n" +
-	"\x05users\x18\x02 \x03(\x05B\x0e\xbaH\v\x92\x01\b\x10@\"\x04\x1a\x02(\x00R\x05users\"\xbe\x01\n" +
+	"\x05users\x18\x02 \x03(\x05B\x0e\xbaH\v\x92\x01\b\x10@\"\x04\x1a\x02(\x00R\x05users\x125\n" +
+	"\x10samples_per_user\x18\x03 \x01(\x05B\v\xbaH\b\x1a\x06\x18\xc0\x84=(\x00R\x0esamplesPerUser\"\xbe\x01\n" +
 	"\x0fSimulateRequest\x129\n" +
 	"\bscenario\x18\x01 \x01(\v2\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01R\bscenario\x121\n" +
 	"\x06traces\x18\x02 \x01(\v2\x19.fadeloop.v1.TraceOptionsR\x06traces\x12=\n" +

@@ -26,13 +26,14 @@ SIGTERM hands the running units back to the queue and exits.
 `
 
 type workerOptions struct {
-	queue, name, logLevel, logFormat string
-	concurrency, maxAttempts, repl   int
-	ackWait                          time.Duration
+	queue, name                    string
+	concurrency, maxAttempts, repl int
+	ackWait                        time.Duration
+	log                            *service.DaemonFlags // -log-level and -log-format only
 }
 
 func parseWorkerFlags(args []string, stderr io.Writer) (*workerOptions, error) {
-	o := &workerOptions{}
+	o := &workerOptions{log: service.NewDaemonFlags()}
 	fs := flag.NewFlagSet("fadeloopd worker", flag.ContinueOnError)
 	fs.SetOutput(stderr)
 	fs.Usage = func() {
@@ -45,8 +46,7 @@ func parseWorkerFlags(args []string, stderr io.Writer) (*workerOptions, error) {
 	fs.IntVar(&o.maxAttempts, "max-attempts", jobs.DefaultMaxAttempts, "deliveries of a unit before it is stored as failed with its error")
 	fs.IntVar(&o.repl, "replicas", jobs.DefaultReplicas, "JetStream replicas of the stream and buckets when this worker creates them (3 on a 3-node cluster)")
 	fs.StringVar(&o.name, "name", "", "worker name stored with its results (default host:pid)")
-	fs.StringVar(&o.logLevel, "log-level", "info", "log level: debug, info, warn or error")
-	fs.StringVar(&o.logFormat, "log-format", "json", "log format: json or text")
+	o.log.RegisterLogFlags(fs)
 	if err := fs.Parse(args); err != nil {
 		return nil, err
 	}
@@ -77,7 +77,7 @@ func runWorkerCtx(ctx context.Context, args []string, stderr io.Writer) error {
 		}
 		return err
 	}
-	logger, err := (&service.DaemonFlags{LogLevel: o.logLevel, LogFormat: o.logFormat}).Logger(stderr)
+	logger, err := o.log.Logger(stderr)
 	if err != nil {
 		return err
 	}

@@ -24,7 +24,7 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/simulation.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x1c\x66\x61\x64\x65loop/v1/simulation.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x18\x66\x61\x64\x65loop/v1/report.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\x1a\x16\x66\x61\x64\x65loop/v1/tune.proto\"T\n\x0cTraceOptions\x12%\n\x10\x64\x65\x63imation_slots\x18\x01 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xc0\x84=(\x00\x12\x1d\n\x05users\x18\x02 \x03(\x05\x42\x0e\xbaH\x0b\x92\x01\x08\x10@\"\x04\x1a\x02(\x00\"\x98\x01\n\x0fSimulateRequest\x12/\n\x08scenario\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12)\n\x06traces\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.TraceOptions\x12)\n\x14progress_interval_ms\x18\x03 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\"g\n\x08Progress\x12\x15\n\rfraction_done\x18\x01 \x01(\x01\x12\x17\n\x0fuser_slots_done\x18\x02 \x01(\x03\x12\x18\n\x10user_slots_per_s\x18\x03 \x01(\x01\x12\x11\n\telapsed_s\x18\x04 \x01(\x01\"p\n\x10SimulateResponse\x12)\n\x08progress\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ProgressH\x00\x12(\n\x06report\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.RunReportH\x00\x42\x07\n\x05\x65vent\"\xbf\x01\n\tSweepAxis\x12\x18\n\x04path\x18\x01 \x01(\tB\n\xbaH\x07r\x05\x10\x01\x18\x80\x02\x12\x1f\n\x06values\x18\x02 \x03(\x01\x42\x0f\xbaH\x0c\x92\x01\t\x10\x80\x08\"\x04\x12\x02@\x01\x12\x16\n\x05\x66irst\x18\x03 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01\x12\x15\n\x04last\x18\x04 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01\x12\x19\n\x05\x63ount\x18\x05 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x08(\x00\x12\x0b\n\x03log\x18\x06 \x01(\x08\x12 \n\x05names\x18\x07 \x03(\tB\x11\xbaH\x0e\x92\x01\x0b\x10\x80\x08\"\x06r\x04\x10\x01\x18@\"\xe0\x01\n\x0cSweepRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12\x30\n\x04\x61xes\x18\x02 \x03(\x0b\x32\x16.fadeloop.v1.SweepAxisB\n\xbaH\x07\x92\x01\x04\x08\x01\x10\x08\x12)\n\rpoint_indices\x18\x03 \x03(\x03\x42\x12\xbaH\x0f\x92\x01\x0c\x10\xa0\x8d\x06\x18\x01\"\x04\"\x02(\x00\x12\x34\n\tseed_mode\x18\x04 \x01(\x0e\x32\x15.fadeloop.v1.SeedModeB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x10\n\x08\x64\x65tailed\x18\x05 \x01(\x08\"\xf1\x02\n\x0bTuneRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12.\n\x04\x61xes\x18\x02 \x03(\x0b\x32\x16.fadeloop.v1.SweepAxisB\x08\xbaH\x05\x92\x01\x02\x10\x08\x12\x34\n\nconditions\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.ConditionB\x08\xbaH\x05\x92\x01\x02\x10@\x12\x31\n\tobjective\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.ObjectiveB\x06\xbaH\x03\xc8\x01\x01\x12\x31\n\nconfidence\x18\x05 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?\x12\'\n\x06\x62udget\x18\x06 \x01(\x0b\x32\x17.fadeloop.v1.TuneBudget\x12\x15\n\rskip_baseline\x18\x07 \x01(\x08\x12)\n\x14progress_interval_ms\x18\x08 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\"\x8f\x01\n\nSweepPoint\x12\r\n\x05index\x18\x01 \x01(\x03\x12\x13\n\x0b\x63oordinates\x18\x02 \x03(\x01\x12\x0c\n\x04seed\x18\x03 \x01(\x04\x12&\n\x06report\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.RunReport\x12\x18\n\x10\x63oordinate_names\x18\x05 \x03(\t\x12\r\n\x05label\x18\x06 \x01(\t\"\x89\x01\n\x0cSweepSummary\x12\x13\n\x0bgrid_points\x18\x01 \x01(\x03\x12\x17\n\x0fpoints_computed\x18\x02 \x01(\x03\x12\x13\n\x0bwall_time_s\x18\x03 \x01(\x01\x12\x1c\n\x14simulated_user_slots\x18\x04 \x01(\x03\x12\x18\n\x10user_slots_per_s\x18\x05 \x01(\x01\"p\n\rSweepResponse\x12(\n\x05point\x18\x01 \x01(\x0b\x32\x17.fadeloop.v1.SweepPointH\x00\x12,\n\x07summary\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.SweepSummaryH\x00\x42\x07\n\x05\x65vent*T\n\x08SeedMode\x12\x19\n\x15SEED_MODE_UNSPECIFIED\x10\x00\x12\x14\n\x10SEED_MODE_COMMON\x10\x01\x12\x17\n\x13SEED_MODE_PER_POINT\x10\x02\x32\xaa\x02\n\x11SimulationService\x12I\n\x08Simulate\x12\x1c.fadeloop.v1.SimulateRequest\x1a\x1d.fadeloop.v1.SimulateResponse0\x01\x12@\n\x05Sweep\x12\x19.fadeloop.v1.SweepRequest\x1a\x1a.fadeloop.v1.SweepResponse0\x01\x12=\n\x04Tune\x12\x18.fadeloop.v1.TuneRequest\x1a\x19.fadeloop.v1.TuneResponse0\x01\x12I\n\x08\x43\x61pacity\x12\x1c.fadeloop.v1.CapacityRequest\x1a\x1d.fadeloop.v1.CapacityResponse0\x01\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x1c\x66\x61\x64\x65loop/v1/simulation.proto\x12\x0b\x66\x61\x64\x65loop.v1\x1a\x1b\x62uf/validate/validate.proto\x1a\x18\x66\x61\x64\x65loop/v1/report.proto\x1a\x1a\x66\x61\x64\x65loop/v1/scenario.proto\x1a\x16\x66\x61\x64\x65loop/v1/tune.proto\"{\n\x0cTraceOptions\x12%\n\x10\x64\x65\x63imation_slots\x18\x01 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xc0\x84=(\x00\x12\x1d\n\x05users\x18\x02 \x03(\x05\x42\x0e\xbaH\x0b\x92\x01\x08\x10@\"\x04\x1a\x02(\x00\x12%\n\x10samples_per_user\x18\x03 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xc0\x84=(\x00\"\x98\x01\n\x0fSimulateRequest\x12/\n\x08scenario\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12)\n\x06traces\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.TraceOptions\x12)\n\x14progress_interval_ms\x18\x03 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\"g\n\x08Progress\x12\x15\n\rfraction_done\x18\x01 \x01(\x01\x12\x17\n\x0fuser_slots_done\x18\x02 \x01(\x03\x12\x18\n\x10user_slots_per_s\x18\x03 \x01(\x01\x12\x11\n\telapsed_s\x18\x04 \x01(\x01\"p\n\x10SimulateResponse\x12)\n\x08progress\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ProgressH\x00\x12(\n\x06report\x18\x02 \x01(\x0b\x32\x16.fadeloop.v1.RunReportH\x00\x42\x07\n\x05\x65vent\"\xbf\x01\n\tSweepAxis\x12\x18\n\x04path\x18\x01 \x01(\tB\n\xbaH\x07r\x05\x10\x01\x18\x80\x02\x12\x1f\n\x06values\x18\x02 \x03(\x01\x42\x0f\xbaH\x0c\x92\x01\t\x10\x80\x08\"\x04\x12\x02@\x01\x12\x16\n\x05\x66irst\x18\x03 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01\x12\x15\n\x04last\x18\x04 \x01(\x01\x42\x07\xbaH\x04\x12\x02@\x01\x12\x19\n\x05\x63ount\x18\x05 \x01(\x05\x42\n\xbaH\x07\x1a\x05\x18\x80\x08(\x00\x12\x0b\n\x03log\x18\x06 \x01(\x08\x12 \n\x05names\x18\x07 \x03(\tB\x11\xbaH\x0e\x92\x01\x0b\x10\x80\x08\"\x06r\x04\x10\x01\x18@\"\xe0\x01\n\x0cSweepRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12\x30\n\x04\x61xes\x18\x02 \x03(\x0b\x32\x16.fadeloop.v1.SweepAxisB\n\xbaH\x07\x92\x01\x04\x08\x01\x10\x08\x12)\n\rpoint_indices\x18\x03 \x03(\x03\x42\x12\xbaH\x0f\x92\x01\x0c\x10\xa0\x8d\x06\x18\x01\"\x04\"\x02(\x00\x12\x34\n\tseed_mode\x18\x04 \x01(\x0e\x32\x15.fadeloop.v1.SeedModeB\n\xbaH\x07\x82\x01\x04\x10\x01 \x00\x12\x10\n\x08\x64\x65tailed\x18\x05 \x01(\x08\"\xf1\x02\n\x0bTuneRequest\x12+\n\x04\x62\x61se\x18\x01 \x01(\x0b\x32\x15.fadeloop.v1.ScenarioB\x06\xbaH\x03\xc8\x01\x01\x12.\n\x04\x61xes\x18\x02 \x03(\x0b\x32\x16.fadeloop.v1.SweepAxisB\x08\xbaH\x05\x92\x01\x02\x10\x08\x12\x34\n\nconditions\x18\x03 \x03(\x0b\x32\x16.fadeloop.v1.ConditionB\x08\xbaH\x05\x92\x01\x02\x10@\x12\x31\n\tobjective\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.ObjectiveB\x06\xbaH\x03\xc8\x01\x01\x12\x31\n\nconfidence\x18\x05 \x01(\x01\x42\x1d\xbaH\x03\xd8\x01\x01\xbaH\x14\x12\x12\x19\x1e\xa7\xe8H.\xff\xef?)\x00\x00\x00\x00\x00\x00\xe0?\x12\'\n\x06\x62udget\x18\x06 \x01(\x0b\x32\x17.fadeloop.v1.TuneBudget\x12\x15\n\rskip_baseline\x18\x07 \x01(\x08\x12)\n\x14progress_interval_ms\x18\x08 \x01(\x05\x42\x0b\xbaH\x08\x1a\x06\x18\xe0\xd4\x03(\x00\"\x8f\x01\n\nSweepPoint\x12\r\n\x05index\x18\x01 \x01(\x03\x12\x13\n\x0b\x63oordinates\x18\x02 \x03(\x01\x12\x0c\n\x04seed\x18\x03 \x01(\x04\x12&\n\x06report\x18\x04 \x01(\x0b\x32\x16.fadeloop.v1.RunReport\x12\x18\n\x10\x63oordinate_names\x18\x05 \x03(\t\x12\r\n\x05label\x18\x06 \x01(\t\"\x89\x01\n\x0cSweepSummary\x12\x13\n\x0bgrid_points\x18\x01 \x01(\x03\x12\x17\n\x0fpoints_computed\x18\x02 \x01(\x03\x12\x13\n\x0bwall_time_s\x18\x03 \x01(\x01\x12\x1c\n\x14simulated_user_slots\x18\x04 \x01(\x03\x12\x18\n\x10user_slots_per_s\x18\x05 \x01(\x01\"p\n\rSweepResponse\x12(\n\x05point\x18\x01 \x01(\x0b\x32\x17.fadeloop.v1.SweepPointH\x00\x12,\n\x07summary\x18\x02 \x01(\x0b\x32\x19.fadeloop.v1.SweepSummaryH\x00\x42\x07\n\x05\x65vent*T\n\x08SeedMode\x12\x19\n\x15SEED_MODE_UNSPECIFIED\x10\x00\x12\x14\n\x10SEED_MODE_COMMON\x10\x01\x12\x17\n\x13SEED_MODE_PER_POINT\x10\x02\x32\xaa\x02\n\x11SimulationService\x12I\n\x08Simulate\x12\x1c.fadeloop.v1.SimulateRequest\x1a\x1d.fadeloop.v1.SimulateResponse0\x01\x12@\n\x05Sweep\x12\x19.fadeloop.v1.SweepRequest\x1a\x1a.fadeloop.v1.SweepResponse0\x01\x12=\n\x04Tune\x12\x18.fadeloop.v1.TuneRequest\x1a\x19.fadeloop.v1.TuneResponse0\x01\x12I\n\x08\x43\x61pacity\x12\x1c.fadeloop.v1.CapacityRequest\x1a\x1d.fadeloop.v1.CapacityResponse0\x01\x42;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
   ,
   dependencies=[buf_dot_validate_dot_validate__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_report__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_scenario__pb2.DESCRIPTOR,fadeloop_dot_v1_dot_tune__pb2.DESCRIPTOR,])
 
@@ -49,8 +49,8 @@ _SEEDMODE = _descriptor.EnumDescriptor(
   ],
   containing_type=None,
   options=None,
-  serialized_start=1805,
-  serialized_end=1889,
+  serialized_start=1844,
+  serialized_end=1928,
 )
 _sym_db.RegisterEnumDescriptor(_SEEDMODE)
 
@@ -82,6 +82,13 @@ _TRACEOPTIONS = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\013\222\001\010\020@\"\004\032\002(\000')), file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='samples_per_user', full_name='fadeloop.v1.TraceOptions.samples_per_user', index=2,
+      number=3, type=5, cpp_type=1, label=1,
+      has_default_value=False, default_value=0,
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=_descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\300\204=(\000')), file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -95,7 +102,7 @@ _TRACEOPTIONS = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=152,
-  serialized_end=236,
+  serialized_end=275,
 )
 
 
@@ -139,8 +146,8 @@ _SIMULATEREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=239,
-  serialized_end=391,
+  serialized_start=278,
+  serialized_end=430,
 )
 
 
@@ -191,8 +198,8 @@ _PROGRESS = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=393,
-  serialized_end=496,
+  serialized_start=432,
+  serialized_end=535,
 )
 
 
@@ -232,8 +239,8 @@ _SIMULATERESPONSE = _descriptor.Descriptor(
       name='event', full_name='fadeloop.v1.SimulateResponse.event',
       index=0, containing_type=None, fields=[]),
   ],
-  serialized_start=498,
-  serialized_end=610,
+  serialized_start=537,
+  serialized_end=649,
 )
 
 
@@ -305,8 +312,8 @@ _SWEEPAXIS = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=613,
-  serialized_end=804,
+  serialized_start=652,
+  serialized_end=843,
 )
 
 
@@ -364,8 +371,8 @@ _SWEEPREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=807,
-  serialized_end=1031,
+  serialized_start=846,
+  serialized_end=1070,
 )
 
 
@@ -444,8 +451,8 @@ _TUNEREQUEST = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1034,
-  serialized_end=1403,
+  serialized_start=1073,
+  serialized_end=1442,
 )
 
 
@@ -510,8 +517,8 @@ _SWEEPPOINT = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1406,
-  serialized_end=1549,
+  serialized_start=1445,
+  serialized_end=1588,
 )
 
 
@@ -569,8 +576,8 @@ _SWEEPSUMMARY = _descriptor.Descriptor(
   extension_ranges=[],
   oneofs=[
   ],
-  serialized_start=1552,
-  serialized_end=1689,
+  serialized_start=1591,
+  serialized_end=1728,
 )
 
 
@@ -610,8 +617,8 @@ _SWEEPRESPONSE = _descriptor.Descriptor(
       name='event', full_name='fadeloop.v1.SweepResponse.event',
       index=0, containing_type=None, fields=[]),
   ],
-  serialized_start=1691,
-  serialized_end=1803,
+  serialized_start=1730,
+  serialized_end=1842,
 )
 
 _SIMULATEREQUEST.fields_by_name['scenario'].message_type = fadeloop_dot_v1_dot_scenario__pb2._SCENARIO
@@ -731,6 +738,8 @@ _TRACEOPTIONS.fields_by_name['decimation_slots'].has_options = True
 _TRACEOPTIONS.fields_by_name['decimation_slots']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\300\204=(\000'))
 _TRACEOPTIONS.fields_by_name['users'].has_options = True
 _TRACEOPTIONS.fields_by_name['users']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\013\222\001\010\020@\"\004\032\002(\000'))
+_TRACEOPTIONS.fields_by_name['samples_per_user'].has_options = True
+_TRACEOPTIONS.fields_by_name['samples_per_user']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\010\032\006\030\300\204=(\000'))
 _SIMULATEREQUEST.fields_by_name['scenario'].has_options = True
 _SIMULATEREQUEST.fields_by_name['scenario']._options = _descriptor._ParseOptions(descriptor_pb2.FieldOptions(), _b('\272H\003\310\001\001'))
 _SIMULATEREQUEST.fields_by_name['progress_interval_ms'].has_options = True
@@ -774,8 +783,8 @@ _SIMULATIONSERVICE = _descriptor.ServiceDescriptor(
   file=DESCRIPTOR,
   index=0,
   options=None,
-  serialized_start=1892,
-  serialized_end=2190,
+  serialized_start=1931,
+  serialized_end=2229,
   methods=[
   _descriptor.MethodDescriptor(
     name='Simulate',

@@ -1,0 +1,224 @@
+package report
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+
+	clirender "github.com/fadeloop/fadeloop/client/render"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+)
+
+// The page of a tuning recommendation: verdict, conditions, candidates.
+
+func decisionText(dc *pb.Decision) (string, string) {
+	switch {
+	case dc.GetConstraintsUnmet():
+		return "no candidate met the constraints; ranked by outage", "bad"
+	case dc.GetDeclared():
+		return "declared winner", "ok"
+	case len(dc.GetTieSet()) > 1:
+		return fmt.Sprintf("tie of %d, picked by the tie rule", len(dc.GetTieSet())), "warn"
+	}
+	return "not separated from the runner-up at this budget", "warn"
+}
+
+// verdictClass is the colour class of a decision's verdict.
+func verdictClass(dc *pb.Decision) string {
+	switch dc.GetVerdict() {
+	case pb.Verdict_VERDICT_CONSTRAINTS_UNMET:
+		return "bad"
+	case pb.Verdict_VERDICT_TIE:
+		return "warn"
+	}
+	if len(dc.GetWarnings()) > 0 {
+		return "warn"
+	}
+	return "ok"
+}
+
+func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine string) error {
+	k := rec.GetObjective().GetKind()
+	scale, dec, unit, oname := objectiveUnit(rec)
+	conf := rec.GetConfidence()
+	cands := rec.GetCandidates()
+	ov := rec.GetOverall()
+	state, class := decisionText(ov)
+	d.Verdict = verdict{Class: class, Headline: "Use " + clirender.PointLabel(ov.GetSetting()) + " (" + state + ")"}
+	if ov.GetVerdict() != pb.Verdict_VERDICT_UNSPECIFIED {
+		// The API's own verdict and lines (helper V's Decision fields),
+		// in the CLI's order: headline, misses, runner-up, warnings, tie
+		// rule; nothing composed here.
+		lines := clirender.DecisionLines(ov, rec.GetTieRule())
+		d.Verdict = verdict{Class: verdictClass(ov), Headline: "Verdict: " + clirender.VerdictName(ov)}
+		d.Verdict.Lines = append(d.Verdict.Lines, lines...)
+	}
+	if len(rec.GetConditions()) > 1 {
+		var ws []string
+		for _, c := range rec.GetConditions() {
+			ws = append(ws, fmt.Sprintf("%s (weight %g)", c.GetName(), c.GetWeight()))
+		}
+		d.Verdict.Lines = append(d.Verdict.Lines, "Weighted over "+strings.Join(ws, ", ")+".")
+	}
+	if ov.GetVerdict() == pb.Verdict_VERDICT_UNSPECIFIED {
+		if ru := ov.GetRunnerUp(); ru >= 0 && int(ru) < len(cands) {
+			ev := ov.GetEvidence()
+			d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Runner-up %s: %s %s worse on %s, %g %% interval [%s, %s], %d paired replications.",
+				clirender.PointLabel(cands[ru]), num(scale*ev.GetMean(), dec), unit, oname, 100*conf,
+				num(scale*ev.GetLow(), dec), num(scale*ev.GetHigh(), dec), ev.GetN()))
+		} else {
+			d.Verdict.Lines = append(d.Verdict.Lines, "No runner-up (one candidate).")
+		}
+		if ts := ov.GetTieSet(); len(ts) > 1 {
+			var names []string
+			for _, i := range ts {
+				if int(i) < len(cands) {
+					names = append(names, clirender.PointLabel(cands[i]))
+				}
+			}
+			d.Verdict.Lines = append(d.Verdict.Lines, "Tie set: "+strings.Join(names, "; ")+". Tie rule: "+rec.GetTieRule())
+		}
+		if r := ov.GetReason(); r != "" {
+			d.Verdict.Lines = append(d.Verdict.Lines, "Why: "+r)
+		}
+	}
+
+	ct := table{Caption: fmt.Sprintf("Per condition: the best setting, its %s, the paired difference to the runner-up and the fixed-power baseline (%g %% intervals).", oname, 100*conf),
+		Head: []string{"condition", "weight", "recommended", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
+	ct.Num = numCols(len(ct.Head), 1, 4, 5, 6, 7, 8)
+	for _, c := range rec.GetConditions() {
+		dc := c.GetDecision()
+		v, _ := decisionText(dc)
+		if dc.GetVerdict() != pb.Verdict_VERDICT_UNSPECIFIED {
+			v = clirender.VerdictName(dc)
+		}
+		var best *pb.CandidateResult
+		for _, cr := range c.GetCandidates() {
+			if cr.GetCandidate() == dc.GetBest() {
+				best = cr
+			}
+		}
+		diff := "–"
+		if dc.GetRunnerUp() >= 0 {
+			diff = repEstimate(dc.GetEvidence(), scale, dec)
+		}
+		base, gain := "–", "–"
+		if b := c.GetBaseline(); b != nil {
+			gs, gd := 100.0, 3
+			bf := b.GetFigures().GetOutageProbability()
+			if k == pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD {
+				gs, gd, bf = 1, 3, b.GetFigures().GetSirErrorStdDb()
+			}
+			base = repEstimate(bf, gs, gd)
+			gain = num(gs*b.GetGain().GetMean(), gd)
+			if bl := b.GetFigure(); bl != nil {
+				// The baseline in the judged figure's own units (API label).
+				sc := bl.GetDisplayScale()
+				if sc == 0 {
+					sc = 1
+				}
+				base = repEstimate(b.GetFixed(), sc, int(bl.GetDecimals())) + " " + bl.GetUnit()
+				gain = repEstimate(b.GetGain(), sc, int(bl.GetDecimals())) + " " + bl.GetDiffUnit()
+				if b.GetFixedMisses() {
+					gain += " (fixed power misses the constraints)"
+				}
+			}
+			if b.GetBarelyHelps() {
+				gain += " (barely helps)"
+			}
+		}
+		ct.add(false, c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), clirender.PointLabel(dc.GetSetting()), v,
+			repEstimate(best.GetObjective(), scale, dec), diff, base, gain, num(c.GetDopplerProductMax(), 4))
+	}
+	s := section{ID: "conditions", Heading: "Conditions", Tables: []table{ct}}
+	for _, c := range rec.GetConditions() {
+		if r := c.GetDecision().GetReason(); r != "" {
+			s.Notes = append(s.Notes, c.GetName()+": "+r)
+		}
+	}
+	d.Sections = append(d.Sections, s)
+
+	cs := section{ID: "candidates", Heading: "Candidates"}
+	if oc := rec.GetOverallCandidates(); len(oc) > 0 && len(rec.GetConditions()) > 1 {
+		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), rec, ov.GetBest(), true))
+	}
+	for _, c := range rec.GetConditions() {
+		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), rec, c.GetDecision().GetBest(), false))
+	}
+	d.Sections = append(d.Sections, cs)
+
+	figs, err := tuneFigures(req.GetBase().GetName(), rec)
+	if err != nil {
+		return err
+	}
+	if len(figs) > 0 {
+		d.Sections = append(d.Sections, section{ID: "plots", Heading: "Plots", Figures: figs})
+	}
+	e := rec.GetEffort()
+	eq := ""
+	if n := e.GetEqualAllocationReplications(); n > 0 {
+		eq = fmt.Sprintf("; equal allocation to the same precision: %s runs (this used %s %% of it)",
+			thousands(n), num(100*float64(e.GetReplications())/float64(n), 0))
+	}
+	effort := fmt.Sprintf("%s candidate runs + %s fixed-power runs in %d rounds (at most %d replications of one candidate)%s; %s user-slots in %s s",
+		thousands(e.GetReplications()), thousands(e.GetBaselineReplications()), e.GetStages(), e.GetMaxReplicationsUsed(), eq,
+		thousands(e.GetUserSlots()), num(e.GetWallTimeS(), 2))
+	if e.GetBudgetExhausted() {
+		effort += "; the budget ran out before every comparison was settled"
+	}
+	d.Repro = [][2]string{
+		{"seed", strconv.FormatUint(rec.GetSeed(), 10) + " (common random numbers: every candidate under one condition sees the same seeds)"},
+		{"engine version", orMissing(engine)},
+		{"objective", "minimise " + oname},
+		{"confidence", num(100*conf, 2) + " %"},
+		{"candidates × conditions", fmt.Sprintf("%d × %d", len(cands), len(rec.GetConditions()))},
+		{"effort", effort},
+	}
+	if req != nil {
+		d.Repro = append(d.Repro, [2]string{"axes", axesText(req.GetAxes())})
+	}
+	return nil
+}
+
+// candidateTable lists candidates with their objective, the difference to
+// the best and their figures (the figure that is the objective is not
+// repeated). overall: the weighted table, which has no per-figure values.
+func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommendation, best int32, overall bool) table {
+	cands := rec.GetCandidates()
+	scale, dec, unit, oname := objectiveUnit(rec)
+	okey := clirender.ObjectiveKey(rec.GetObjective().GetKind())
+	var cols []*pb.FigureLabel
+	for _, key := range clirender.CandidateFigures {
+		if key != okey {
+			cols = append(cols, clirender.SearchLabel(rec.GetFigures(), key))
+		}
+	}
+	if overall {
+		cols = nil
+	}
+	t := table{Caption: caption, Head: []string{"#", "setting", oname + " (" + unit + ")", "diff to best (" + unit + ")"}}
+	for _, c := range cols {
+		t.Head = append(t.Head, clirender.LabelHead(c))
+	}
+	t.Head = append(t.Head, "n", "status")
+	t.Num = numCols(len(t.Head), append([]int{0}, rangeFrom(2, len(t.Head)-1)...)...)
+	for _, cr := range crs {
+		f := cr.GetFigures()
+		status := clirender.StatusName(cr.GetStatus())
+		if !cr.GetFeasible() {
+			status += ", infeasible"
+		}
+		label := "candidate " + strconv.Itoa(int(cr.GetCandidate()))
+		if i := cr.GetCandidate(); i >= 0 && int(i) < len(cands) {
+			label = clirender.PointLabel(cands[i])
+		}
+		row := []string{strconv.Itoa(int(cr.GetCandidate())), label,
+			repEstimate(cr.GetObjective(), scale, dec), num(scale*cr.GetDiffToBest().GetMean(), dec)}
+		for _, c := range cols {
+			row = append(row, repEstimate(clirender.SearchFigure(f, c.GetKey()), c.GetDisplayScale(), int(c.GetDecimals())))
+		}
+		row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
+		t.add(cr.GetCandidate() == best, row...)
+	}
+	return t
+}
