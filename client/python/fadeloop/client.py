@@ -161,12 +161,14 @@ class Client:
     # --- Simulate -------------------------------------------------------
     def simulate(self, scenario: ScenarioLike, *, slots: Optional[int] = None, seed: Optional[int] = None,
                  replications: Optional[int] = None, trace_decimation_slots: int = 0,
-                 trace_users: Sequence[int] = (), on_progress: Optional[Callable[[Any], None]] = None,
+                 trace_samples_per_user: int = 0, trace_users: Sequence[int] = (), on_progress: Optional[Callable[[Any], None]] = None,
                  timeout: Optional[float] = None):
         """Run one scenario and return its ``RunReport``. ``slots``, ``seed``
         and ``replications`` override the scenario's run settings;
         ``trace_decimation_slots`` > 0 asks for traces (one sample every so
-        many slots) of ``trace_users`` (default the first users).
+        many slots) of ``trace_users`` (default the first users);
+        ``trace_samples_per_user`` > 0 asks for about that many samples per
+        traced user instead, the server picking the decimation.
         ``on_progress`` is called with each ``Progress`` event."""
         sc = load_scenario(scenario)
         _set_slots(sc, slots)
@@ -175,8 +177,9 @@ class Client:
         if replications is not None:
             sc.run.replications = int(replications)
         req = simulation_pb2.SimulateRequest(scenario=sc)
-        if trace_decimation_slots:
+        if trace_decimation_slots or trace_samples_per_user:
             req.traces.decimation_slots = int(trace_decimation_slots)
+            req.traces.samples_per_user = int(trace_samples_per_user)
             req.traces.users.extend(int(u) for u in trace_users)
         report = None
         try:

@@ -128,6 +128,14 @@ class TestSimulate(LiveTest):
         self.assertGreater(len(rep.traces[0].slots), 100)
         self.assertEqual(len(rep.traces[0].slots), len(rep.traces[0].sir_db))
 
+    def test_trace_samples_per_user(self):
+        # The server picks the decimation: one sample every floor(1500/150) =
+        # 10 slots of the 1500 (warm-up included), so 150 samples per user.
+        rep = self.c.simulate(SMALL, slots=1500, trace_samples_per_user=150, trace_users=[1])
+        self.assertEqual([t.user for t in rep.traces], [1])
+        self.assertGreaterEqual(len(rep.traces[0].slots), 150)
+        self.assertLessEqual(len(rep.traces[0].slots), 151)
+
     def test_scenario_forms(self):
         import json
         with open(SMALL) as f:
