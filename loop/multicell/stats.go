@@ -64,7 +64,6 @@ type collector struct {
 	marginLin float64
 	pmax      float64
 	users     []userAcc // replication 0 only
-	p         []float64 // reused power vector
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
@@ -105,7 +104,7 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 		mx = 1
 	}
 	li := min(us.nLegs, LegStates) - 1
-	errDB := 10*math.Log10(fmax(sir, 1e-30)) - us.targetDB
+	errDB := linToDB(fmax(sir, 1e-30)) - us.targetDB
 	txDBm := us.pDB // = 10 log10(p), kept by the engine
 	b.userSlots++
 	b.outage += out
@@ -146,7 +145,7 @@ func (c *collector) cells(rp *rep) {
 	for k := 0; k < rp.C; k++ {
 		own := rp.own[k]
 		other := math.Max(0, rp.rx[k]-rp.noiseMW-own)
-		rise := 10 * math.Log10(rp.rx[k]/rp.noiseMW)
+		rise := linToDB(rp.rx[k] / rp.noiseMW)
 		b.ownMW += own
 		b.otherMW += other
 		b.noiseRiseDB += rise
@@ -154,7 +153,7 @@ func (c *collector) cells(rp *rep) {
 		b.cellOtherMW[k] += other
 		b.cellRise[k] += rise
 		if own > 0 {
-			c.ratioHist[k][histIndex(10*math.Log10(math.Max(other/own, 1e-30)))]++
+			c.ratioHist[k][histIndex(linToDB(math.Max(other/own, 1e-30)))]++
 		}
 		c.riseHist[k][histIndex(rise)]++
 	}
