@@ -46,7 +46,7 @@ func (rp *rep) updateActiveSets(first bool) {
 		// Drop legs that fell out of the window (the best cell never drops).
 		dropAt := gBest * dropLin
 		for l, c := range us.legs {
-			if c >= 0 && c != best && row[c] < dropAt {
+			if c >= 0 && int(c) != best && row[c] < dropAt {
 				us.legs[l] = -1
 			}
 		}
@@ -67,7 +67,7 @@ func (rp *rep) updateActiveSets(first bool) {
 			if c >= 0 {
 				found := false
 				for _, k := range keep {
-					found = found || k == c
+					found = found || k == int(c)
 				}
 				if !found {
 					us.legs[l] = -1
@@ -80,7 +80,7 @@ func (rp *rep) updateActiveSets(first bool) {
 			}
 			for l := 0; l < h.MaxActive; l++ {
 				if us.legs[l] < 0 {
-					us.legs[l] = c
+					us.legs[l] = int32(c)
 					us.legAcc[l], us.legN[l] = 0, 0
 					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 {
 						// A leg joining mid-block gets this block's samples now.
@@ -106,7 +106,7 @@ func candBefore(x, y cand) bool {
 // legOf is the leg slot carrying cell c, −1 if none.
 func (us *user) legOf(c int) int {
 	for l, lc := range us.legs {
-		if lc == c {
+		if int(lc) == c {
 			return l
 		}
 	}

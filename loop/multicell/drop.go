@@ -93,13 +93,16 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.rx = make([]float64, C)
 	rp.own = make([]float64, C)
 	rp.sums = make([]float64, C)
-	rp.pOld = make([]float64, U)
+	rp.pPrev = make([]float64, U)
+	rp.pCur = make([]float64, U)
 	rp.stale = true
 	rp.fade = make([][]float64, U*maxLegsPerUser)
 	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+		// One array, each user's legs next to each other.
+		all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
 		for u := range rp.users {
 			for l := 0; l < cfg.Handover.MaxActive; l++ {
-				rp.fade[u*maxLegsPerUser+l] = make([]float64, blockSlots)
+				all, rp.fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
 			}
 		}
 	}

@@ -34,9 +34,9 @@ const maxLegsPerUser = 8
 const blockSlots = 64
 
 // fullSumSlots bounds the slots between two full recomputations of the
-// cell sums (the incremental update in between adds rounding of order
-// 1e-16 per slot; see rep.updateSums).
-const fullSumSlots = 64
+// cell sums (the incremental update in between accumulates rounding; see
+// rep.updateSums).
+const fullSumSlots = 16
 
 // histogram of dB values: 0.05 dB bins over [histLoDB, histHiDB).
 const (
@@ -83,32 +83,34 @@ func Run(ctx context.Context, cfg Config) (*Report, error) {
 	return merge(cfg, results), nil
 }
 
-// user is one user's state in a replication.
+// user is one user's state in a replication. The fields every slot reads
+// come first, together (a few cache lines per user per slot); the set-up,
+// shadowing and fading-channel state follows.
 type user struct {
-	group    int
-	x, y     float64
-	edge     bool
-	pathDB   []float64               // per site: −path loss (dB), fixed
-	siteLin  []float64               // per site: slow gain (path loss and shadowing), linear
-	antLin   []float64               // per cell: antenna gain, linear
-	shadowA  float64                 // common shadowing part (dB, unit variance scaled later)
-	shadowB  []float64               // per site part
-	shadowK  float64                 // AR(1) coefficient per shadowing update
-	rng      *rand.Rand              // estimation, command, block-error and open-loop draws
-	shRng    *rand.Rand              // shadowing updates
-	legs     [maxLegsPerUser]int     // cell of leg slot l, −1 when unused
-	legG     [maxLegsPerUser]float64 // slow gain of leg slot l's cell (copy of rep.slow, kept by refreshLegs)
-	act      [maxLegsPerUser]int8    // leg slots in use, ascending (act[:nLegs])
-	legCh    [maxLegsPerUser]*fading.Channel
-	legAcc   [maxLegsPerUser]float64 // block accumulators (sum of linear SIR)
-	legN     [maxLegsPerUser]int
-	nLegs    int
-	best     int // best cell (largest slow gain) of the active set
 	p        float64
 	pDB      float64 // 10 log10(p), dBm (setP, or ± step_db per closed-loop step)
-	targetDB float64
 	target   float64 // 10^(targetDB/10)
-	cmds     []int8  // delay line of combined commands (+1 up, −1 down)
+	targetDB float64
+	nLegs    int
+	best     int                     // best cell (largest slow gain) of the active set
+	act      [maxLegsPerUser]int8    // leg slots in use, ascending (act[:nLegs])
+	legs     [maxLegsPerUser]int32   // cell of leg slot l, −1 when unused
+	legG     [maxLegsPerUser]float64 // slow gain of leg slot l's cell (copy of rep.slow, kept by refreshLegs)
+	legAcc   [maxLegsPerUser]float64 // block accumulators (sum of linear SIR)
+	legN     [maxLegsPerUser]int32   // slots in legAcc
+	cmds     []int8                  // delay line of combined commands (+1 up, −1 down)
+	rng      *rand.Rand              // estimation, command, block-error and open-loop draws
+	edge     bool
+	group    int
+	x, y     float64
+	pathDB   []float64  // per site: −path loss (dB), fixed
+	siteLin  []float64  // per site: slow gain (path loss and shadowing), linear
+	antLin   []float64  // per cell: antenna gain, linear
+	shadowA  float64    // common shadowing part (dB, unit variance scaled later)
+	shadowB  []float64  // per site part
+	shadowK  float64    // AR(1) coefficient per shadowing update
+	shRng    *rand.Rand // shadowing updates
+	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update
 }
@@ -127,7 +129,10 @@ type rep struct {
 	sums     []float64 // per cell: Σ_u p_u·slow[u·C+c] at this slot's powers, mW (updateSums)
 	stale    bool      // sums must be recomputed in full (slow gains or powers set directly)
 	sinceSum int       // slots since the last full recomputation of sums
-	pOld     []float64 // this slot's powers, mW (reused)
+	pPrev    []float64 // per user: the power of the last slot run, mW
+	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
+	ups      int       // users whose power went up in the last slot
+	downs    int       // users whose power went down in the last slot
 	fade     [][]float64
 	rx       []float64 // received power per cell this slot, mW
 	own      []float64

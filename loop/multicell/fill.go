@@ -35,7 +35,6 @@ type jobKind uint8
 const (
 	jobFill  jobKind = iota + 1 // fillRange over users, n slots
 	jobGains                    // gainsRange over users, slot t
-	jobSums                     // sumsRange over cells
 )
 
 // job is one split piece of work.
@@ -51,36 +50,27 @@ type helper struct {
 	done chan any // the half's panic value, or nil
 }
 
-// half runs half h (0 or 1) of j; h = −1 runs all of it.
+// half runs half h (0 or 1) of j.
 func (rp *rep) half(j job, h int) {
-	lo, hi := 0, rp.U
-	if j.kind == jobSums {
-		hi = rp.C
-	}
-	switch mid := hi / 2; h {
-	case 0:
-		hi = mid
-	case 1:
-		lo = mid
-	}
+	lo, hi := halfRange(rp.U, h)
 	switch j.kind {
 	case jobFill:
 		rp.fillRange(lo, hi, j.n)
 	case jobGains:
 		rp.gainsRange(lo, hi, j.t)
-	case jobSums:
-		rp.sumsRange(lo, hi)
 	}
 }
 
-// split runs j, its second half on the helper goroutine when there is one.
-// Each half writes only its own users' (or cells') state, every user has
-// its own random streams and every cell sum adds its terms in user order,
-// so the result is the same whatever the split (determinism across
-// GOMAXPROCS, tested).
+// split runs j's two halves (users [0, U/2) and [U/2, U)), the second on
+// the helper goroutine when there is one, else one after the other. Each
+// half writes only its own users' state and every user has its own random
+// streams, so the result is the same with or without the helper
+// (determinism across GOMAXPROCS, tested). One hand-off per block of
+// fading and per shadowing update, not per slot.
 func (rp *rep) split(j job) {
 	if rp.helper == nil {
-		rp.half(j, -1)
+		rp.half(j, 0)
+		rp.half(j, 1)
 		return
 	}
 	rp.helper.work <- j
@@ -93,7 +83,7 @@ func (rp *rep) split(j job) {
 // startHelper starts, for a replication run alone (replications 1, else
 // replications already run in parallel) on two or more cores with at least
 // 2·minUsersPerHalf users, the goroutine that runs the second half of
-// split jobs (fading fill, slow gains, full cell sums). The channels
+// split jobs (fading fill, slow gains). The channels
 // order the memory; it allocates nothing per job. The returned function
 // stops it.
 func (rp *rep) startHelper() func() {
@@ -117,3 +107,11 @@ func (rp *rep) startHelper() func() {
 
 // minUsersPerHalf is the fewest users per goroutine of a split job.
 const minUsersPerHalf = 64
+
+// halfRange is half h (0 or 1) of [0, n): [0, n/2) or [n/2, n).
+func halfRange(n, h int) (lo, hi int) {
+	if h == 0 {
+		return 0, n / 2
+	}
+	return n / 2, n
+}

@@ -3,7 +3,8 @@ package multicell
 import "math"
 
 // updateSlowGains advances shadowing (Gudmundson AR(1) per part) and
-// recomputes every slow gain; the cell sums are then recomputed in full.
+// recomputes every slow gain (10^(dB/10) by linFromDB, within 2.5e-7 dB);
+// the cell sums are then recomputed in full.
 func (rp *rep) updateSlowGains(t int64) {
 	rp.split(job{kind: jobGains, t: t})
 	rp.stale = true
@@ -29,7 +30,7 @@ func (rp *rep) gainsRange(lo, hi int, t int64) {
 		common := rp.shadowSD * a * us.shadowA
 		sdB := rp.shadowSD * b
 		for s := range us.siteLin {
-			us.siteLin[s] = dbToLin(us.pathDB[s] + common + sdB*us.shadowB[s])
+			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
 		}
 		row := rp.slow[u*C : u*C+C]
 		ant := us.antLin[:len(row)]

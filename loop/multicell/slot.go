@@ -10,38 +10,104 @@ import "math"
 // every link fades). The slow part Σ_u p_u·G_cu (rep.sums) is kept up to
 // date incrementally (updateSums); the active-set legs add their fading
 // correction p·G·(F − 1).
+//
+// The slot runs on the replication's goroutine: handing half of it to the
+// helper every slot (two hand-offs per slot) was measured slower on the
+// shared 2-core machine (see fill.go's split for the per-block hand-offs).
 func (rp *rep) slot(t int64, k int) {
-	U, C := rp.U, rp.C
-	p := rp.powers()
 	if rp.full {
+		U, C := rp.U, rp.C
+		f := rp.fullBuf
 		for c := 0; c < C; c++ {
 			s := 0.0
-			f := rp.fullBuf
 			for u := 0; u < U; u++ {
-				s += p[u] * rp.slow[u*C+c] * f[c*U+u][k]
+				s += rp.users[u].p * rp.slow[u*C+c] * f[c*U+u][k]
 			}
 			rp.rx[c] = rp.noiseMW + s
-			rp.own[c] = 0
 		}
 	} else {
-		if rp.stale || rp.sinceSum >= fullSumSlots {
-			rp.split(job{kind: jobSums})
+		il := rp.cfg.InnerLoop
+		if rp.stale || rp.sinceSum >= fullSumSlots || il.Mode != InnerModeClosedLoop || rp.cfg.OpenLoop.Enabled {
+			rp.fullSums()
 			rp.stale, rp.sinceSum = false, 0
+		} else {
+			rp.updateSums()
 		}
 		rp.sinceSum++
 		for c, s := range rp.sums {
 			rp.rx[c] = rp.noiseMW + s
-			rp.own[c] = 0
 		}
 		for u := range rp.users {
 			us := &rp.users[u]
 			for _, l := range us.act[:us.nLegs] {
 				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-					rp.rx[us.legs[l]] += p[u] * us.legG[l] * (f[k] - 1)
+					rp.rx[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
 				}
 			}
 		}
 	}
+	clear(rp.own)
+	rp.runUsers(t, k)
+	if t >= rp.cfg.Run.WarmupSlots {
+		rp.stats.cells(rp)
+	}
+}
+
+// fullSums computes the cell sums Σ_u p_u·G_cu at this slot's powers,
+// adding users in order.
+func (rp *rep) fullSums() {
+	C := rp.C
+	s := rp.sums
+	clear(s)
+	for u := range rp.users {
+		pu := rp.users[u].p
+		row := rp.slow[u*C : u*C+C]
+		row = row[:len(s)]
+		for c, g := range row {
+			s[c] += pu * g
+		}
+	}
+}
+
+// updateSums brings the cell sums from the last slot's powers (pPrev) to
+// this slot's (pCur). Closed loop without open loop, most users moved by
+// the same factor b (the step down, or up when more users went up):
+// Σ_u p'_u·G_cu = b·Σ_u p_u·G_cu + Σ_u (p'_u − b·p_u)·G_cu, where the last
+// sum has terms only for the users that moved otherwise (p'_u = b·p_u
+// exactly for the others: the same product as applyCommand's). That costs
+// C per such user instead of C·U. slot recomputes the sums in full after
+// slow-gain updates, at least every fullSumSlots slots (which bounds the
+// rounding: relative error below 1e-10, TestCellSumsTrackPowers), and every slot with ideal or
+// open-loop power control.
+func (rp *rep) updateSums() {
+	b := rp.downLin
+	if rp.ups > rp.downs {
+		b = rp.upLin
+	}
+	s := rp.sums
+	for c := range s {
+		s[c] *= b
+	}
+	C := rp.C
+	pPrev := rp.pPrev[:len(rp.pCur)]
+	for u, pu := range rp.pCur {
+		d := pu - b*pPrev[u]
+		if d == 0 {
+			continue
+		}
+		row := rp.slow[u*C : u*C+C]
+		row = row[:len(s)]
+		for c, g := range row {
+			s[c] += d * g
+		}
+	}
+}
+
+// runUsers runs slot t for every user: SIR per leg, commands combined by the
+// up-only-if-all-up rule, the block result and outer loop, the power of
+// the next slot (pCur; pPrev keeps this slot's).
+func (rp *rep) runUsers(t int64, k int) {
+	rx, own := rp.rx, rp.own
 	measure := t >= rp.cfg.Run.WarmupSlots
 	il := rp.cfg.InnerLoop
 	ol := rp.cfg.OuterLoop
@@ -50,16 +116,18 @@ func (rp *rep) slot(t int64, k int) {
 	ups, downs := 0, 0
 	for u := range rp.users {
 		us := &rp.users[u]
+		pu := us.p
+		rp.pPrev[u] = pu
 		bestSIR := 0.0
 		allUp := true
 		anyOK := false
 		for _, l := range us.act[:us.nLegs] {
-			c := us.legs[l]
-			sig := p[u] * us.legG[l] * rp.legFade(u, int(l), k)
+			c := int(us.legs[l])
+			sig := pu * us.legG[l] * rp.legFade(u, int(l), k)
 			if c == us.best {
-				rp.own[c] += sig
+				own[c] += sig
 			}
-			sir := rp.pg * sig / fmax(rp.rx[c]-sig, rp.noiseMW)
+			sir := rp.pg * sig / fmax(rx[c]-sig, rp.noiseMW)
 			bestSIR = fmax(bestSIR, sir)
 			us.legAcc[l] += sir
 			us.legN[l]++
@@ -76,7 +144,7 @@ func (rp *rep) slot(t int64, k int) {
 			}
 			if blockEnd {
 				mean := us.legAcc[l] / float64(us.legN[l])
-				bler := 1 / (1 + math.Exp((10*math.Log10(mean)-rp.cfg.Link.ThresholdDB)/rp.cfg.Link.SlopeDB))
+				bler := 1 / (1 + math.Exp((linToDB(mean)-rp.cfg.Link.ThresholdDB)/rp.cfg.Link.SlopeDB))
 				if us.rng.Float64() >= bler {
 					anyOK = true
 				}
@@ -84,14 +152,14 @@ func (rp *rep) slot(t int64, k int) {
 			}
 		}
 		if measure {
-			rp.stats.user(u, us, bestSIR, p[u])
+			rp.stats.user(u, us, bestSIR, pu)
 		}
 		if blockEnd {
 			blockErr := !anyOK
 			if measure {
 				rp.stats.block(blockErr)
 			}
-			if ol.Enabled && !(ol.FreezeAtMaxPower && p[u] >= rp.pmax) {
+			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
 				if blockErr {
 					us.targetDB += ol.UpStepDB
 				} else {
@@ -126,65 +194,9 @@ func (rp *rep) slot(t int64, k int) {
 				downs++
 			}
 		}
+		rp.pCur[u] = us.p
 	}
-	if measure {
-		rp.stats.cells(rp)
-	}
-	rp.updateSums(ups, downs)
-}
-
-// updateSums brings the cell sums to the next slot's powers. Closed loop
-// without open loop, most users move by the same factor b (the step down,
-// or up when more users went up): Σ_u p'_u·G_cu = b·Σ_u p_u·G_cu +
-// Σ_u (p'_u − b·p_u)·G_cu, where the last sum has terms only for the users
-// that moved otherwise (p'_u = b·p_u exactly for the others: the same
-// product as applyCommand's). That costs C per such user instead of C·U.
-// The sums are recomputed in full after slow-gain updates and at least
-// every fullSumSlots slots, which bounds the rounding (relative 1e-16 per
-// slot). Ideal or open-loop power control: full recomputation.
-func (rp *rep) updateSums(ups, downs int) {
-	if rp.full {
-		return
-	}
-	if rp.cfg.InnerLoop.Mode != InnerModeClosedLoop || rp.cfg.OpenLoop.Enabled {
-		rp.stale = true
-		return
-	}
-	b := rp.downLin
-	if ups > downs {
-		b = rp.upLin
-	}
-	for c := range rp.sums {
-		rp.sums[c] *= b
-	}
-	C := rp.C
-	sums := rp.sums
-	for u := range rp.users {
-		d := rp.users[u].p - b*rp.pOld[u]
-		if d == 0 {
-			continue
-		}
-		row := rp.slow[u*C : u*C+C]
-		s := sums[:len(row)]
-		for c, g := range row {
-			s[c] += d * g
-		}
-	}
-}
-
-// sumsRange recomputes the cell sums of cells [lo, hi) from this slot's
-// powers (pOld), adding users in order.
-func (rp *rep) sumsRange(lo, hi int) {
-	C := rp.C
-	s := rp.sums[lo:hi]
-	clear(s)
-	for u, pu := range rp.pOld {
-		row := rp.slow[u*C+lo : u*C+hi]
-		row = row[:len(s)]
-		for i, g := range row {
-			s[i] += pu * g
-		}
-	}
+	rp.ups, rp.downs = ups, downs
 }
 
 // legFade is the fast-fading power gain of leg slot l of user u in slot k
@@ -192,7 +204,7 @@ func (rp *rep) sumsRange(lo, hi int) {
 func (rp *rep) legFade(u, l, k int) float64 {
 	switch {
 	case rp.full:
-		return rp.fullBuf[rp.users[u].legs[l]*rp.U+u][k]
+		return rp.fullBuf[int(rp.users[u].legs[l])*rp.U+u][k]
 	case rp.fade[u*maxLegsPerUser+l] != nil:
 		return rp.fade[u*maxLegsPerUser+l][k]
 	}
@@ -236,14 +248,6 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 func (us *user) setP(p float64) {
 	us.p = p
 	us.pDB = 10 * math.Log10(p)
-}
-
-// powers returns the users' transmit powers of this slot (mW) in a reused slice.
-func (rp *rep) powers() []float64 {
-	for u := range rp.users {
-		rp.pOld[u] = rp.users[u].p
-	}
-	return rp.pOld
 }
 
 // setTarget sets the SIR target in dB and its linear value.
