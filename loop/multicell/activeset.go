@@ -22,6 +22,7 @@ func (rp *rep) updateActiveSets(first bool) {
 	loLin := math.Min(addLin, dropLin)
 	for u := range rp.users {
 		us := &rp.users[u]
+		before := us.legs // slots in use before: already filled for this block
 		row := rp.slow[u*C : u*C+C]
 		// The best cell: largest gain, the lowest index among equals.
 		best, gBest := 0, row[0]
@@ -82,8 +83,9 @@ func (rp *rep) updateActiveSets(first bool) {
 				if us.legs[l] < 0 {
 					us.legs[l] = int32(c)
 					us.legAcc[l], us.legN[l] = 0, 0
-					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 {
-						// A leg joining mid-block gets this block's samples now.
+					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 && before[l] < 0 {
+						// A leg slot joining at a block start gets this block's
+						// samples now (one in use before was filled ahead).
 						ch.FillGains(rp.fade[u*maxLegsPerUser+l][:rp.blockN])
 					}
 					break

@@ -96,16 +96,21 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
 	rp.stale = true
-	rp.fade = make([][]float64, U*maxLegsPerUser)
-	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
-		// One array, each user's legs next to each other.
-		all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
-		for u := range rp.users {
-			for l := 0; l < cfg.Handover.MaxActive; l++ {
-				all, rp.fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
+	rp.slowNext = make([]float64, C*U)
+	for s := range rp.fadeSets {
+		fade := make([][]float64, U*maxLegsPerUser)
+		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+			// One array, each user's legs next to each other.
+			all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
+			for u := range rp.users {
+				for l := 0; l < cfg.Handover.MaxActive; l++ {
+					all, fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
+				}
 			}
 		}
+		rp.fadeSets[s] = fade
 	}
+	rp.fade = rp.fadeSets[0]
 	if rp.full {
 		rp.fullCh = make([]*fading.Channel, C*U)
 		rp.fullBuf = make([][]float64, C*U)

@@ -146,9 +146,16 @@ type rep struct {
 	stats    *collector
 	shadowSD float64
 	blockN   int // slots in the current fading block
-	helper   *helper
-	cands    []cand // active-set evaluation, reused
-	keep     []int
+	// Work ahead (fill.go): the next shadowing update's slow gains, the
+	// two fade sets (this block's and the next), the helper and its jobs.
+	slowNext    []float64
+	fadeSets    [2][][]float64
+	helper      *helper
+	finished    [jobKinds]bool
+	outstanding int
+	afterSlot   func(t int64) // tests: called after each slot
+	cands       []cand        // active-set evaluation, reused
+	keep        []int
 }
 
 // cand is a candidate cell of an active set and its slow gain.
@@ -164,28 +171,8 @@ func runReplication(ctx context.Context, cfg Config, r int) (*repResult, error) 
 		return nil, err
 	}
 	defer rp.startHelper()()
-	total := cfg.Run.Slots
-	for t0 := int64(0); t0 < total; t0 += blockSlots {
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
-		n := int(min(int64(blockSlots), total-t0))
-		rp.fillFading(n)
-		for k := 0; k < n; k++ {
-			rp.step(t0+int64(k), k)
-		}
+	if err := rp.run(ctx); err != nil {
+		return nil, err
 	}
 	return rp.stats.result(rp), nil
-}
-
-// step runs slot t (slot k of the current fading block) with the slow-gain
-// and active-set updates due at its start.
-func (rp *rep) step(t int64, k int) {
-	if t%int64(rp.cfg.Channel.ShadowingSlots) == 0 {
-		rp.updateSlowGains(t)
-	}
-	if t%int64(rp.cfg.Handover.UpdateSlots) == 0 {
-		rp.updateActiveSets(t == 0)
-	}
-	rp.slot(t, k)
 }

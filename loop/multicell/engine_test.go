@@ -289,16 +289,14 @@ func TestPowerDBTracksPower(t *testing.T) {
 		cfg := smallLayout()
 		cfg.InnerLoop.MaxPowerDBm = -15 // many users sit at the limit
 		cfg.OpenLoop.Enabled = open
+		cfg.Run.Slots = 3000
 		cfg.Normalise()
 		rp, err := newRep(cfg, 5, 0)
 		if err != nil {
 			t.Fatal(err)
 		}
-		for t0 := int64(0); t0 < 3000; t0 += blockSlots {
-			rp.fillFading(blockSlots)
-			for k := 0; k < blockSlots; k++ {
-				rp.step(t0+int64(k), k)
-			}
+		if err := rp.run(context.Background()); err != nil {
+			t.Fatal(err)
 		}
 		atMax := 0
 		for u, us := range rp.users {
@@ -325,34 +323,35 @@ func TestCellSumsTrackPowers(t *testing.T) {
 	cfg := smallLayout()
 	cfg.Channel.ShadowingSlots = 1000
 	cfg.InnerLoop.MaxPowerDBm = -15
+	cfg.Run.Slots = 600
 	cfg.Normalise()
 	rp, err := newRep(cfg, 5, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
 	incremental, maxErr := 0, 0.0
-	for t0 := int64(0); t0 < 600; t0 += blockSlots {
-		rp.fillFading(blockSlots)
-		for k := 0; k < blockSlots; k++ {
-			full := rp.stale || rp.sinceSum >= fullSumSlots
-			rp.step(t0+int64(k), k)
-			if !full {
-				incremental++
-			}
-			// The sums are those of the slot just run (powers pPrev).
-			worst := 0.0
-			for c := 0; c < rp.C; c++ {
-				want := 0.0
-				for u := 0; u < rp.U; u++ {
-					want += rp.pPrev[u] * rp.slow[u*rp.C+c]
-				}
-				worst = math.Max(worst, math.Abs(rp.sums[c]-want)/want)
-			}
-			maxErr = math.Max(maxErr, worst)
-			if worst > 1e-10 {
-				t.Fatalf("slot %d: cell sums off by %.3g (relative)", t0+int64(k), worst)
-			}
+	full := true
+	rp.afterSlot = func(tt int64) {
+		if !full {
+			incremental++
 		}
+		// The sums are those of the slot just run (powers pPrev).
+		worst := 0.0
+		for c := 0; c < rp.C; c++ {
+			want := 0.0
+			for u := 0; u < rp.U; u++ {
+				want += rp.pPrev[u] * rp.slow[u*rp.C+c]
+			}
+			worst = math.Max(worst, math.Abs(rp.sums[c]-want)/want)
+		}
+		maxErr = math.Max(maxErr, worst)
+		if worst > 1e-10 {
+			t.Fatalf("slot %d: cell sums off by %.3g (relative)", tt, worst)
+		}
+		full = rp.stale || rp.sinceSum >= fullSumSlots // the next slot's path
+	}
+	if err := rp.run(context.Background()); err != nil {
+		t.Fatal(err)
 	}
 	if incremental < 400 {
 		t.Errorf("only %d slots took the incremental path", incremental)

@@ -1,117 +1,194 @@
 package multicell
 
-import "runtime"
+import (
+	"context"
+	"runtime"
+)
 
-// fillFading generates the next n slots of fast fading of every leg in use
-// (a leg slot's process advances only while it carries a link: its samples
-// stay a stationary Rayleigh process, continued where it stopped).
-func (rp *rep) fillFading(n int) {
-	if rp.full {
-		for i, ch := range rp.fullCh {
-			ch.FillGains(rp.fullBuf[i][:n])
-		}
-		return
-	}
-	rp.blockN = n
-	rp.split(job{kind: jobFill, n: n})
-}
+// The replication's work ahead of the slots — the fast fading of the next
+// block and the slow gains of the next shadowing update — does not depend
+// on the powers, so a helper goroutine computes it while the replication's
+// goroutine runs the slots (one hand-off per block and per shadowing
+// update, never per slot). Without a helper the same jobs run at the same
+// points on the replication's goroutine, in the same order: the report is
+// identical whatever GOMAXPROCS is (tested).
+//
+// Blocks end at active-set updates, so the legs in use are fixed within a
+// block. The fading of block b+1 is generated for the legs in use during
+// block b; a leg that joins at the start of block b+1 gets its samples
+// then (updateActiveSets), a leg that leaves has had its process advance
+// by one unused block (still a stationary Rayleigh process, continued).
 
-// fillRange fills the next n slots of the legs in use of users [lo, hi).
-func (rp *rep) fillRange(lo, hi, n int) {
-	for u := lo; u < hi; u++ {
-		us := &rp.users[u]
-		for l, ch := range us.legCh {
-			if ch != nil && us.legs[l] >= 0 {
-				ch.FillGains(rp.fade[u*maxLegsPerUser+l][:n])
-			}
-		}
-	}
-}
-
-// jobKind names a piece of a replication's work that splits in two
-// independent halves (rep.split).
+// jobKind names a piece of work ahead of the slots.
 type jobKind uint8
 
 const (
-	jobFill  jobKind = iota + 1 // fillRange over users, n slots
-	jobGains                    // gainsRange over users, slot t
+	jobFill  jobKind = iota // fading of the next block into the other fade set
+	jobGains                // slow gains of the next shadowing update into slowNext
+	jobKinds
 )
 
-// job is one split piece of work.
+// job is one piece of work ahead.
 type job struct {
 	kind jobKind
-	n    int
-	t    int64
+	set  int   // jobFill: fade set to fill
+	n    int   // jobFill: slots
+	t    int64 // jobGains: slot of the shadowing update
 }
 
-// helper is a goroutine that runs the second half of split jobs.
+// done reports a finished job and the panic value of its run, if any.
+type done struct {
+	kind jobKind
+	pv   any
+}
+
+// helper is the goroutine that runs jobs in the order given.
 type helper struct {
 	work chan job
-	done chan any // the half's panic value, or nil
+	done chan done
 }
 
-// half runs half h (0 or 1) of j.
-func (rp *rep) half(j job, h int) {
-	lo, hi := halfRange(rp.U, h)
+// doJob runs j.
+func (rp *rep) doJob(j job) {
 	switch j.kind {
 	case jobFill:
-		rp.fillRange(lo, hi, j.n)
+		rp.fillSet(j.set, j.n)
 	case jobGains:
-		rp.gainsRange(lo, hi, j.t)
+		rp.gainsInto(rp.slowNext, j.t)
 	}
 }
 
-// split runs j's two halves (users [0, U/2) and [U/2, U)), the second on
-// the helper goroutine when there is one, else one after the other. Each
-// half writes only its own users' state and every user has its own random
-// streams, so the result is the same with or without the helper
-// (determinism across GOMAXPROCS, tested). One hand-off per block of
-// fading and per shadowing update, not per slot.
-func (rp *rep) split(j job) {
+// enqueue starts j on the helper, or runs it now without one.
+func (rp *rep) enqueue(j job) {
 	if rp.helper == nil {
-		rp.half(j, 0)
-		rp.half(j, 1)
+		rp.doJob(j)
+		rp.finished[j.kind] = true
 		return
 	}
+	rp.outstanding++
 	rp.helper.work <- j
-	rp.half(j, 0)
-	if pv := <-rp.helper.done; pv != nil {
-		panic(pv) // recovered by Run as a PanicError
+}
+
+// waitFor waits until the job of kind k last enqueued has finished (the
+// jobs before it finish first) and re-raises a panic of the helper.
+func (rp *rep) waitFor(k jobKind) {
+	for !rp.finished[k] {
+		d := <-rp.helper.done
+		rp.outstanding--
+		if d.pv != nil {
+			panic(d.pv) // recovered by Run as a PanicError
+		}
+		rp.finished[d.kind] = true
+	}
+	rp.finished[k] = false
+}
+
+// drain waits for every job still running (before returning early).
+func (rp *rep) drain() {
+	for rp.outstanding > 0 {
+		<-rp.helper.done
+		rp.outstanding--
 	}
 }
 
 // startHelper starts, for a replication run alone (replications 1, else
-// replications already run in parallel) on two or more cores with at least
-// 2·minUsersPerHalf users, the goroutine that runs the second half of
-// split jobs (fading fill, slow gains). The channels
-// order the memory; it allocates nothing per job. The returned function
-// stops it.
+// replications already run in parallel) on two or more cores, the helper
+// goroutine. It allocates nothing per job. The returned function stops it.
 func (rp *rep) startHelper() func() {
-	if runtime.GOMAXPROCS(0) < 2 || rp.cfg.Run.Replications > 1 || rp.full || rp.U < 2*minUsersPerHalf {
+	if runtime.GOMAXPROCS(0) < 2 || rp.cfg.Run.Replications > 1 || rp.U < minUsersForHelper {
 		return func() {}
 	}
-	h := &helper{work: make(chan job), done: make(chan any)}
+	h := &helper{work: make(chan job, jobKinds), done: make(chan done, jobKinds)}
 	rp.helper = h
 	go func() {
 		for j := range h.work {
 			var pv any
 			func() {
 				defer func() { pv = recover() }()
-				rp.half(j, 1)
+				rp.doJob(j)
 			}()
-			h.done <- pv
+			h.done <- done{j.kind, pv}
 		}
 	}()
 	return func() { close(h.work); rp.helper = nil }
 }
 
-// minUsersPerHalf is the fewest users per goroutine of a split job.
-const minUsersPerHalf = 64
+// minUsersForHelper is the fewest users for which a helper pays.
+const minUsersForHelper = 128
 
-// halfRange is half h (0 or 1) of [0, n): [0, n/2) or [n/2, n).
-func halfRange(n, h int) (lo, hi int) {
-	if h == 0 {
-		return 0, n / 2
+// blockLen is the length of the block starting at slot t0: blockSlots,
+// cut at the end of the run and at the next active-set update.
+func (rp *rep) blockLen(t0 int64) int {
+	upd := int64(rp.cfg.Handover.UpdateSlots)
+	return int(min(int64(blockSlots), rp.cfg.Run.Slots-t0, upd-t0%upd))
+}
+
+// run runs every slot of the replication, checking ctx between blocks.
+// afterSlot, when set (tests), is called after each slot.
+func (rp *rep) run(ctx context.Context) error {
+	total := rp.cfg.Run.Slots
+	shadow := int64(rp.cfg.Channel.ShadowingSlots)
+	upd := int64(rp.cfg.Handover.UpdateSlots)
+	cur := 0
+	for t0 := int64(0); t0 < total; {
+		if err := ctx.Err(); err != nil {
+			if rp.helper != nil {
+				rp.drain()
+			}
+			return err
+		}
+		n := rp.blockLen(t0)
+		if t0 > 0 && !rp.full {
+			rp.waitFor(jobFill)
+		}
+		rp.fade, rp.blockN = rp.fadeSets[cur], n
+		if rp.full {
+			for i, ch := range rp.fullCh {
+				ch.FillGains(rp.fullBuf[i][:n])
+			}
+		}
+		for k := 0; k < n; k++ {
+			t := t0 + int64(k)
+			if t%shadow == 0 {
+				if t == 0 {
+					rp.gainsInto(rp.slow, 0)
+				} else {
+					rp.waitFor(jobGains)
+					rp.slow, rp.slowNext = rp.slowNext, rp.slow
+				}
+				rp.afterGains(t)
+				if t+shadow < total {
+					rp.enqueue(job{kind: jobGains, t: t + shadow})
+				}
+			}
+			if k == 0 {
+				if t%upd == 0 {
+					rp.updateActiveSets(t == 0)
+				}
+				if next := t0 + int64(n); next < total && !rp.full {
+					rp.enqueue(job{kind: jobFill, set: 1 - cur, n: rp.blockLen(next)})
+				}
+			}
+			rp.slot(t, k)
+			if rp.afterSlot != nil {
+				rp.afterSlot(t)
+			}
+		}
+		cur = 1 - cur
+		t0 += int64(n)
 	}
-	return n / 2, n
+	return nil
+}
+
+// fillSet fills fade set s with the next n slots of the legs in use.
+func (rp *rep) fillSet(s, n int) {
+	fade := rp.fadeSets[s]
+	for u := range rp.users {
+		us := &rp.users[u]
+		for l, ch := range us.legCh {
+			if ch != nil && us.legs[l] >= 0 {
+				ch.FillGains(fade[u*maxLegsPerUser+l][:n])
+			}
+		}
+	}
 }

@@ -2,22 +2,23 @@ package multicell
 
 import "math"
 
-// updateSlowGains advances shadowing (Gudmundson AR(1) per part) and
-// recomputes every slow gain (10^(dB/10) by linFromDB, within 2.5e-7 dB);
-// the cell sums are then recomputed in full.
+// updateSlowGains advances shadowing to slot t and recomputes every slow
+// gain in place (gainsInto, then afterGains).
 func (rp *rep) updateSlowGains(t int64) {
-	rp.split(job{kind: jobGains, t: t})
-	rp.stale = true
+	rp.gainsInto(rp.slow, t)
+	rp.afterGains(t)
 }
 
-// gainsRange is updateSlowGains for users [lo, hi): each user's shadowing
-// draws come from its own stream, and it writes only its own row of slow.
-func (rp *rep) gainsRange(lo, hi int, t int64) {
+// gainsInto advances shadowing (Gudmundson AR(1) per part; none at t = 0)
+// and writes every slow gain into dst (user-major, like rep.slow),
+// 10^(dB/10) by linFromDB (within 2.5e-7 dB). It touches only the users'
+// shadowing state and dst, so it may run on the helper while the slots run.
+func (rp *rep) gainsInto(dst []float64, t int64) {
 	rho := rp.cfg.Channel.SiteCorrelation
 	a, b := math.Sqrt(rho), math.Sqrt(1-rho)
 	C := rp.C
 	cells := rp.g.cells
-	for u := lo; u < hi; u++ {
+	for u := range rp.users {
 		us := &rp.users[u]
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
@@ -32,16 +33,25 @@ func (rp *rep) gainsRange(lo, hi int, t int64) {
 		for s := range us.siteLin {
 			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
 		}
-		row := rp.slow[u*C : u*C+C]
+		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]
 		for c := range row {
 			row[c] = us.siteLin[cells[c].site] * ant[c]
 		}
-		rp.refreshLegs(us, row)
+	}
+}
+
+// afterGains follows new slow gains at slot t: the legs' copies, the
+// open-loop estimate, and a full recomputation of the cell sums.
+func (rp *rep) afterGains(t int64) {
+	C := rp.C
+	for u := range rp.users {
+		rp.refreshLegs(&rp.users[u], rp.slow[u*C:u*C+C])
 		if rp.cfg.OpenLoop.Enabled || t == 0 {
 			rp.openLoopEstimate(u, t == 0)
 		}
 	}
+	rp.stale = true
 }
 
 // refreshLegs copies the slow gains of the user's legs from its row of
