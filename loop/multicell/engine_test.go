@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"math"
 	"runtime"
 	"strings"
@@ -213,34 +214,70 @@ func TestCancel(t *testing.T) {
 	}
 }
 
-// TestMemoryDoesNotGrowWithRunLength: allocations are made at set-up only;
-// a run four times as long allocates the same (the slot loop allocates
-// nothing, active-set updates reuse their buffers).
+// TestMemoryDoesNotGrowWithRunLength: memory is allocated at set-up only.
+// A run of 10 s of slots allocates the same objects and bytes as a run of
+// 1 s (runtime.MemStats Mallocs and TotalAlloc around each Run, best of
+// two): at most 4 more objects and 1 more byte per extra slot (the
+// engine's slot loop, block hand-offs and active-set updates allocate
+// nothing; the bound leaves room for the runtime's own bookkeeping).
+// Layouts: 63 users (no helper goroutine) and 168 users (work ahead on the
+// helper with GOMAXPROCS ≥ 2); outside -short also 19 sites × 3 sectors ×
+// 4 users (228) over 1 500 and 15 000 slots.
 func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
 	if raceEnabled {
-		// Under -race the counts drift by a few dozen between 600 and 2400
-		// slots with the engine unchanged (measured before and after the
-		// parallel fading fill); without -race they do not, and that run
-		// is the check.
+		// Under -race the counts drift by a few dozen between short and
+		// long runs with the engine unchanged; without -race they do not,
+		// and that run is the check.
 		t.Skip("allocation counts are not meaningful under -race")
 	}
-	// 63 users, and 168 users whose fading a helper goroutine shares
-	// (startFillHelper, with GOMAXPROCS ≥ 2).
-	for _, perCell := range []int{2, 7} {
-		allocs := func(slots int64) float64 {
-			cfg := smallLayout()
-			cfg.Groups[0].CountPerCell = perCell
-			cfg.Run.Replications = 1
-			cfg.Run.Slots = slots
-			return testing.AllocsPerRun(2, func() {
-				if _, err := Run(context.Background(), cfg); err != nil {
-					t.Fatal(err)
-				}
-			})
+	measure := func(cfg Config) (objects, bytes uint64) {
+		objects, bytes = math.MaxUint64, math.MaxUint64
+		for range 2 {
+			var a, b runtime.MemStats
+			runtime.GC()
+			runtime.ReadMemStats(&a)
+			if _, err := Run(context.Background(), cfg); err != nil {
+				t.Fatal(err)
+			}
+			runtime.ReadMemStats(&b)
+			objects, bytes = min(objects, b.Mallocs-a.Mallocs), min(bytes, b.TotalAlloc-a.TotalAlloc)
 		}
-		short, long := allocs(600), allocs(2400)
-		if long > short+4 {
-			t.Errorf("%d per cell: allocations grow with run length: %.0f for 600 slots, %.0f for 2400", perCell, short, long)
+		return objects, bytes
+	}
+	type tc struct {
+		name        string
+		cfg         Config
+		short, long int64
+	}
+	var cases []tc
+	for _, perCell := range []int{2, 7} {
+		cfg := smallLayout()
+		cfg.Groups[0].CountPerCell = perCell
+		cfg.Run.Replications = 1
+		cases = append(cases, tc{fmt.Sprintf("7x3 sites, %d+1 per cell", perCell), cfg, 150, 1500})
+	}
+	if !testing.Short() {
+		cfg := smallLayout()
+		cfg.Layout.Sites = 19
+		cfg.Groups = []Group{{CountPerCell: 4, SpeedKmh: 30}}
+		cfg.Run.Replications = 1
+		cases = append(cases, tc{"19x3 sites, 4 per cell", cfg, 1500, 15000})
+	}
+	for _, c := range cases {
+		cs, cl := c.cfg, c.cfg
+		cs.Run.Slots, cl.Run.Slots = c.short, c.long
+		cs.Run.WarmupSlots, cl.Run.WarmupSlots = c.short/10, c.short/10
+		os, bs := measure(cs)
+		ol, bl := measure(cl)
+		extra := float64(c.long - c.short)
+		perSlot := (float64(bl) - float64(bs)) / extra
+		t.Logf("%s: %d slots %d objects %d bytes; %d slots %d objects %d bytes; %.3f bytes per extra slot",
+			c.name, c.short, os, bs, c.long, ol, bl, perSlot)
+		if ol > os+4 {
+			t.Errorf("%s: objects grow with run length: %d for %d slots, %d for %d", c.name, os, c.short, ol, c.long)
+		}
+		if perSlot > 1 {
+			t.Errorf("%s: %.3f bytes allocated per extra slot (bound 1)", c.name, perSlot)
 		}
 	}
 }

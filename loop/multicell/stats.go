@@ -61,6 +61,8 @@ type collector struct {
 	perBatch  float64
 	ratioHist [][]uint32 // per cell: per-slot other/own in dB
 	riseHist  [][]uint32 // per cell: per-slot noise rise in dB
+	riseBatch []uint32   // the current batch's noise rise over every cell, dB
+	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
 	marginLin float64
 	pmax      float64
 	users     []userAcc // replication 0 only
@@ -75,6 +77,8 @@ func newCollector(rp *rep, r int) *collector {
 		c.batches[i] = newSums(rp.C)
 	}
 	c.perBatch = float64(rp.cfg.Run.Slots-rp.cfg.Run.WarmupSlots) / float64(nb)
+	c.riseBatch = make([]uint32, histBins)
+	c.riseP95 = make([]float64, nb)
 	c.ratioHist = make([][]uint32, rp.C)
 	c.riseHist = make([][]uint32, rp.C)
 	for i := range c.ratioHist {
@@ -155,12 +159,22 @@ func (c *collector) cells(rp *rep) {
 		if own > 0 {
 			c.ratioHist[k][histIndex(linToDB(math.Max(other/own, 1e-30)))]++
 		}
-		c.riseHist[k][histIndex(rise)]++
+		i := histIndex(rise)
+		c.riseHist[k][i]++
+		c.riseBatch[i]++
 	}
 	c.measured++
 	if float64(c.measured) >= float64(c.cur+1)*c.perBatch && c.cur < len(c.batches)-1 {
+		c.closeBatch()
 		c.cur++
 	}
+}
+
+// closeBatch records the current batch's noise-rise percentile and
+// clears its histogram.
+func (c *collector) closeBatch() {
+	c.riseP95[c.cur] = histPercentile(c.riseBatch, 0.95)
+	clear(c.riseBatch)
 }
 
 // repResult is one replication's statistics.
@@ -169,13 +183,15 @@ type repResult struct {
 	total     sums
 	ratioHist [][]uint32
 	riseHist  [][]uint32
+	riseP95   []float64 // per batch
 	users     []userAcc
 	points    []UserPoint
 	userSlots int64
 }
 
 func (c *collector) result(rp *rep) *repResult {
-	res := &repResult{batches: c.batches, total: newSums(rp.C), ratioHist: c.ratioHist, riseHist: c.riseHist, users: c.users}
+	c.closeBatch()
+	res := &repResult{batches: c.batches, total: newSums(rp.C), ratioHist: c.ratioHist, riseHist: c.riseHist, riseP95: c.riseP95, users: c.users}
 	for i := range c.batches {
 		res.total.add(&c.batches[i])
 	}
@@ -195,8 +211,9 @@ func (c *collector) result(rp *rep) *repResult {
 	return res
 }
 
-// histPercentile is the q-quantile of a dB histogram (bin centre), as a
-// linear ratio when lin is set.
+// histPercentile is the q-quantile of a dB histogram, interpolated
+// linearly inside the bin where the cumulative count reaches q·n (exact to
+// one bin, histBinsDB); NaN for an empty histogram.
 func histPercentile(h []uint32, q float64) float64 {
 	var n uint64
 	for _, x := range h {
@@ -208,12 +225,56 @@ func histPercentile(h []uint32, q float64) float64 {
 	want := q * float64(n)
 	var cum uint64
 	for i, x := range h {
-		cum += uint64(x)
-		if float64(cum) >= want {
-			return histLoDB + (float64(i)+0.5)*histBinsDB
+		if x == 0 {
+			continue
 		}
+		if next := cum + uint64(x); float64(next) >= want {
+			frac := (want - float64(cum)) / float64(x)
+			return histLoDB + (float64(i)+min(1, max(0, frac)))*histBinsDB
+		}
+		cum += uint64(x)
 	}
 	return histHiDB
+}
+
+// riseP95 is the 95th percentile of the per-slot noise rise over every
+// cell and slot of every replication (the pooled histograms), with a 95 %
+// interval of half-width t·s/√k from the spread s of the same percentile
+// over k units — the batches of one replication (conditional on the
+// drop), or the replications (independent drops) — as meanInterval does
+// for means (Student t, loop.StudentT95), at least half a bin (the
+// histogram's resolution), inside [0, ∞) dB.
+func riseP95(res []*repResult, C int) loop.Estimate {
+	pooled := make([]uint32, histBins)
+	units := make([]float64, 0, len(res))
+	for _, r := range res {
+		rep := make([]uint32, histBins)
+		for c := 0; c < C; c++ {
+			for i, x := range r.riseHist[c] {
+				rep[i] += x
+			}
+		}
+		for i, x := range rep {
+			pooled[i] += x
+		}
+		units = append(units, histPercentile(rep, 0.95))
+	}
+	if len(res) == 1 {
+		units = units[:0]
+		for _, x := range res[0].riseP95 {
+			if !math.IsNaN(x) {
+				units = append(units, x)
+			}
+		}
+	}
+	v := histPercentile(pooled, 0.95)
+	e := meanInterval(units)
+	h := math.Max((e.CIHigh-e.CILow)/2, histBinsDB/2)
+	if math.IsNaN(v) || math.IsNaN(h) {
+		return loop.Estimate{Value: math.NaN(), CILow: math.NaN(), CIHigh: math.NaN()}
+	}
+	v = math.Max(0, v)
+	return loop.Estimate{Value: v, CILow: math.Max(0, v-h), CIHigh: v + h}
 }
 
 // merge combines the replications into the report.
@@ -329,6 +390,7 @@ func merge(cfg Config, res []*repResult) *Report {
 		}
 		rep.Cells = append(rep.Cells, cf)
 	}
+	rep.NoiseRiseP95DB = riseP95(res, C)
 	o.OtherToOwnSpreadP5 = math.Pow(10, histPercentile(all, 0.05)/10)
 	o.OtherToOwnSpreadP95 = math.Pow(10, histPercentile(all, 0.95)/10)
 	rep.UserPoints = res[0].points
