@@ -93,6 +93,8 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.rx = make([]float64, C)
 	rp.own = make([]float64, C)
 	rp.sums = make([]float64, C)
+	rp.corr = make([]float64, C)
+	rp.corrNext = make([]float64, C)
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
 	rp.stale = true

@@ -135,17 +135,21 @@ type rep struct {
 	downs    int       // users whose power went down in the last slot
 	fade     [][]float64
 	rx       []float64 // received power per cell this slot, mW
-	own      []float64
-	upLin    float64
-	downLin  float64
-	pmin     float64
-	pmax     float64
-	full     bool
-	fullCh   []*fading.Channel // FULL mode: per (c, u)
-	fullBuf  [][]float64
-	stats    *collector
-	shadowSD float64
-	blockN   int // slots in the current fading block
+	corr     []float64 // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
+	corrNext []float64 // per cell: the next slot's, summed as the powers are set
+	// corrReady: corr already holds this slot's corrections (summed in the last slot).
+	corrReady bool
+	own       []float64
+	upLin     float64
+	downLin   float64
+	pmin      float64
+	pmax      float64
+	full      bool
+	fullCh    []*fading.Channel // FULL mode: per (c, u)
+	fullBuf   [][]float64
+	stats     *collector
+	shadowSD  float64
+	blockN    int // slots in the current fading block
 	// Work ahead (fill.go): the next shadowing update's slow gains, the
 	// two fade sets (this block's and the next), the helper and its jobs.
 	slowNext    []float64

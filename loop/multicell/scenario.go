@@ -200,6 +200,12 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 	}
 	agg.NoiseRiseP95DB = r.NoiseRiseP95DB
 	lr := &loop.LayoutReport{Overall: o, Cells: r.Cells, UserPoints: r.UserPoints}
+	notes := []string{"multi-cell mode: the aggregate figures are the layout's; percentiles, convergence time, per-user and per-distance figures and feasibility are not computed (see layout)"}
+	if r.Config.Run.Replications == 1 {
+		// Coverage measured in coverage_test.go's comment.
+		notes = append(notes, "one replication: the intervals come from batches of one drop and run and are too narrow unless the run is long against the shadowing decorrelation; run 2 or more replications for intervals that hold their 95 %")
+	}
+	notes = append(notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
 	return &loop.Report{
 		Aggregate:          agg,
 		NormalisedScenario: sc,
@@ -208,8 +214,7 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 		Replications:       r.Config.Run.Replications,
 		Slots:              r.MeasuredSlots,
 		SimulatedUserSlots: r.SimulatedUserSlots,
-		Notes: []string{"multi-cell mode: the aggregate figures are the layout's; percentiles, convergence time, per-user and per-distance figures and feasibility are not computed (see layout)",
-			"simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice"},
-		Layout: lr,
+		Notes:              notes,
+		Layout:             lr,
 	}
 }

@@ -34,20 +34,33 @@ func (rp *rep) slot(t int64, k int) {
 			rp.updateSums()
 		}
 		rp.sinceSum++
-		for c, s := range rp.sums {
-			rp.rx[c] = rp.noiseMW + s
-		}
-		for u := range rp.users {
-			us := &rp.users[u]
-			for _, l := range us.act[:us.nLegs] {
-				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-					rp.rx[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
+		if !rp.corrReady {
+			corr := rp.corr
+			clear(corr)
+			for u := range rp.users {
+				us := &rp.users[u]
+				for _, l := range us.act[:us.nLegs] {
+					if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
+						corr[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
+					}
 				}
 			}
 		}
+		for c, s := range rp.sums {
+			rp.rx[c] = rp.noiseMW + s + rp.corr[c]
+		}
+	}
+	// The next slot's leg corrections can be added as each user's next
+	// power is set when its legs and their gains stay: same block (no
+	// active-set update), no shadowing update.
+	ahead := !rp.full && k+1 < rp.blockN && (t+1)%int64(rp.cfg.Channel.ShadowingSlots) != 0
+	if ahead {
+		clear(rp.corrNext)
 	}
 	clear(rp.own)
-	rp.runUsers(t, k)
+	rp.runUsers(t, k, ahead)
+	rp.corr, rp.corrNext = rp.corrNext, rp.corr
+	rp.corrReady = ahead
 	if t >= rp.cfg.Run.WarmupSlots {
 		rp.stats.cells(rp)
 	}
@@ -105,9 +118,10 @@ func (rp *rep) updateSums() {
 
 // runUsers runs slot t for every user: SIR per leg, commands combined by the
 // up-only-if-all-up rule, the block result and outer loop, the power of
-// the next slot (pCur; pPrev keeps this slot's).
-func (rp *rep) runUsers(t int64, k int) {
-	rx, own := rp.rx, rp.own
+// the next slot (pCur; pPrev keeps this slot's) and, when ahead, the next
+// slot's leg corrections (corrNext).
+func (rp *rep) runUsers(t int64, k int, ahead bool) {
+	rx, own, corrNext := rp.rx, rp.own, rp.corrNext
 	measure := t >= rp.cfg.Run.WarmupSlots
 	il := rp.cfg.InnerLoop
 	ol := rp.cfg.OuterLoop
@@ -195,6 +209,13 @@ func (rp *rep) runUsers(t int64, k int) {
 			}
 		}
 		rp.pCur[u] = us.p
+		if ahead {
+			for _, l := range us.act[:us.nLegs] {
+				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
+					corrNext[us.legs[l]] += us.p * us.legG[l] * (f[k+1] - 1)
+				}
+			}
+		}
 	}
 	rp.ups, rp.downs = ups, downs
 }

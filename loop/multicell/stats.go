@@ -240,11 +240,12 @@ func histPercentile(h []uint32, q float64) float64 {
 // riseP95 is the 95th percentile of the per-slot noise rise over every
 // cell and slot of every replication (the pooled histograms), with a 95 %
 // interval of half-width t·s/√k from the spread s of the same percentile
-// over k units — the batches of one replication (conditional on the
-// drop), or the replications (independent drops) — as meanInterval does
+// over k units — the batch groups of one replication (batchGroups; a
+// group's value is the mean of its batches' percentiles; conditional on
+// the drop), or the replications (independent drops) — as meanInterval does
 // for means (Student t, loop.StudentT95), at least half a bin (the
 // histogram's resolution), inside [0, ∞) dB.
-func riseP95(res []*repResult, C int) loop.Estimate {
+func riseP95(res []*repResult, C int, groups [][2]int) loop.Estimate {
 	pooled := make([]uint32, histBins)
 	units := make([]float64, 0, len(res))
 	for _, r := range res {
@@ -260,10 +261,18 @@ func riseP95(res []*repResult, C int) loop.Estimate {
 		units = append(units, histPercentile(rep, 0.95))
 	}
 	if len(res) == 1 {
+		// A group's value: the mean of its batches' percentiles.
 		units = units[:0]
-		for _, x := range res[0].riseP95 {
-			if !math.IsNaN(x) {
-				units = append(units, x)
+		for _, g := range groups {
+			m, n := 0.0, 0
+			for _, x := range res[0].riseP95[g[0]:g[1]] {
+				if !math.IsNaN(x) {
+					m += x
+					n++
+				}
+			}
+			if n > 0 {
+				units = append(units, m/float64(n))
 			}
 		}
 	}
@@ -281,9 +290,15 @@ func riseP95(res []*repResult, C int) loop.Estimate {
 func merge(cfg Config, res []*repResult) *Report {
 	C := cfg.Layout.Cells()
 	units := make([]*sums, 0)
+	var groups [][2]int // one replication: the batch groups forming the units
 	if len(res) == 1 {
-		for i := range res[0].batches {
-			units = append(units, &res[0].batches[i])
+		groups = batchGroups(res[0].batches, C)
+		for _, g := range groups {
+			u := newSums(C)
+			for i := g[0]; i < g[1]; i++ {
+				u.add(&res[0].batches[i])
+			}
+			units = append(units, &u)
 		}
 	} else {
 		for _, r := range res {
@@ -390,9 +405,94 @@ func merge(cfg Config, res []*repResult) *Report {
 		}
 		rep.Cells = append(rep.Cells, cf)
 	}
-	rep.NoiseRiseP95DB = riseP95(res, C)
+	rep.NoiseRiseP95DB = riseP95(res, C, groups)
 	o.OtherToOwnSpreadP5 = math.Pow(10, histPercentile(all, 0.05)/10)
 	o.OtherToOwnSpreadP95 = math.Pow(10, histPercentile(all, 0.95)/10)
 	rep.UserPoints = res[0].points
 	return rep
+}
+
+// batchGroups groups one replication's batches into the units of its
+// intervals. Batch means of a simulation are correlated when a batch is
+// not long against the correlation time (here shadowing, which
+// decorrelates over tens of metres, and the outer loop), and Student t
+// over correlated batch means is too narrow. The batches are merged in
+// consecutive pairs while the lag-1 autocorrelation of the batch means of
+// any of the layout's mean noise rise, other-to-own ratio or outage is
+// above 2/√k (k units; the approximate 95 % bound of a sample
+// autocorrelation of independent values) and more than minBatchGroups
+// units remain (batch means method with batch-size doubling, e.g. Law &
+// Kelton, Simulation Modeling and Analysis, §9.5 (memory)). An odd unit
+// out joins the last group.
+func batchGroups(b []sums, C int) [][2]int {
+	groups := make([][2]int, len(b))
+	for i := range groups {
+		groups[i] = [2]int{i, i + 1}
+	}
+	series := []func(s *sums) (float64, bool){
+		func(s *sums) (float64, bool) { return s.noiseRiseDB / (s.slots * float64(C)), s.slots > 0 },
+		func(s *sums) (float64, bool) { return s.otherMW / s.ownMW, s.ownMW > 0 },
+		func(s *sums) (float64, bool) { return s.outage / s.userSlots, s.userSlots > 0 },
+	}
+	for len(groups) >= 2*minBatchGroups {
+		units := make([]sums, len(groups))
+		for i, g := range groups {
+			units[i] = newSums(C)
+			for j := g[0]; j < g[1]; j++ {
+				units[i].add(&b[j])
+			}
+		}
+		bound := 2 / math.Sqrt(float64(len(units)))
+		correlated := false
+		for _, f := range series {
+			xs := make([]float64, 0, len(units))
+			for i := range units {
+				if x, ok := f(&units[i]); ok {
+					xs = append(xs, x)
+				}
+			}
+			correlated = correlated || lag1(xs) > bound
+		}
+		if !correlated {
+			break
+		}
+		merged := make([][2]int, 0, len(groups)/2)
+		for i := 0; i+1 < len(groups); i += 2 {
+			merged = append(merged, [2]int{groups[i][0], groups[i+1][1]})
+		}
+		if len(groups)%2 == 1 {
+			merged[len(merged)-1][1] = groups[len(groups)-1][1]
+		}
+		groups = merged
+	}
+	return groups
+}
+
+// minBatchGroups is the fewest units batchGroups merges down to (Student t
+// with 3 degrees of freedom at 4 units).
+const minBatchGroups = 4
+
+// lag1 is the sample lag-1 autocorrelation of xs (0 for fewer than 3
+// values or no spread).
+func lag1(xs []float64) float64 {
+	n := len(xs)
+	if n < 3 {
+		return 0
+	}
+	m := 0.0
+	for _, x := range xs {
+		m += x
+	}
+	m /= float64(n)
+	num, den := 0.0, 0.0
+	for i, x := range xs {
+		den += (x - m) * (x - m)
+		if i > 0 {
+			num += (x - m) * (xs[i-1] - m)
+		}
+	}
+	if den == 0 {
+		return 0
+	}
+	return num / den
 }
