@@ -158,7 +158,10 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 			if blockEnd {
 				mean := us.legAcc[l] / float64(us.legN[l])
-				bler := 1 / (1 + math.Exp((linToDB(mean)-rp.cfg.Link.ThresholdDB)/rp.cfg.Link.SlopeDB))
+				// Link curve 1/(1 + e^z), z = (SIR dB − threshold)/slope;
+				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
+				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
+				bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
 				if us.rng.Float64() >= bler {
 					anyOK = true
 				}
