@@ -10,12 +10,14 @@ import (
 	"github.com/fadeloop/fadeloop/loop"
 )
 
-// The engine is split by stage: engine.go (entry point, state, the
-// replication's slot loop), drop.go (placing users, their channels),
-// fill.go (fast fading per block, shared with a helper goroutine),
-// gains.go (shadowing, slow gains, open-loop estimate), activeset.go
-// (active-set updates), slot.go (one slot: cell sums, SIRs, commands, outer
-// loop, power update) and stats.go (collection and the merged report).
+// The engine is split by stage: engine.go (entry point, state),
+// drop.go (placing users, their channels), fill.go (the replication's
+// slot loop and the work ahead — next block's fading, next shadowing
+// update's gains — on a helper goroutine), gains.go (shadowing, slow
+// gains, open-loop estimate), activeset.go (active-set updates), slot.go
+// (one slot: cell sums, SIRs, commands, outer loop, power update),
+// dbconv.go (dB conversions without log/exp calls) and stats.go
+// (collection, intervals and the merged report).
 
 // Random stream kinds of this package (fading.NewStream; values ≥ 200 are
 // this package's, clear of fading's and loop's).
