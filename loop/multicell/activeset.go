@@ -4,7 +4,8 @@ import "math"
 
 // updateActiveSets re-evaluates every user's active set from the slow
 // gains (events 1A/1B with hysteresis); the first evaluation uses the
-// window alone. Gains are compared in linear units against thresholds
+// window alone. The leg slots that join are listed in rep.joiners for
+// fillJoiners. Gains are compared in linear units against thresholds
 // best·10^(−window/10), and only the cells that can qualify (within the
 // drop window of the best) are ordered, not all C cells.
 func (rp *rep) updateActiveSets(first bool) {
@@ -20,6 +21,7 @@ func (rp *rep) updateActiveSets(first bool) {
 	}
 	addLin, dropLin := dbToLin(-addDB), dbToLin(-dropDB)
 	loLin := math.Min(addLin, dropLin)
+	rp.joiners = rp.joiners[:0]
 	for u := range rp.users {
 		us := &rp.users[u]
 		before := us.legs // slots in use before: already filled for this block
@@ -85,8 +87,9 @@ func (rp *rep) updateActiveSets(first bool) {
 					us.legAcc[l], us.legN[l] = 0, 0
 					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 && before[l] < 0 {
 						// A leg slot joining at a block start gets this block's
-						// samples now (one in use before was filled ahead).
-						ch.FillGains(rp.fade[u*maxLegsPerUser+l][:rp.blockN])
+						// samples (fillJoiners; one in use before was filled
+						// ahead).
+						rp.joiners = append(rp.joiners, u*maxLegsPerUser+l)
 					}
 					break
 				}

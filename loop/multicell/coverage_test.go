@@ -59,7 +59,7 @@ func TestIntervalCoverage(t *testing.T) {
 	if testing.Short() {
 		cases[0].m, cases[0].longReps = 60, 80
 		if raceEnabled {
-			cases[0].m, cases[0].longReps = 20, 24
+			cases[0].m, cases[0].longReps = 8, 12 // a smoke run: the check is the run without -race
 		}
 	}
 	for _, c := range cases {

@@ -25,6 +25,7 @@ type jobKind uint8
 const (
 	jobFill  jobKind = iota // fading of the next block into the other fade set
 	jobGains                // slow gains of the next shadowing update into slowNext
+	jobJoin                 // fading of this block for the second half of the joining legs
 	jobKinds
 )
 
@@ -55,6 +56,28 @@ func (rp *rep) doJob(j job) {
 		rp.fillSet(j.set, j.n)
 	case jobGains:
 		rp.gainsInto(rp.slowNext, j.t)
+	case jobJoin:
+		rp.fillLegs(rp.joiners[len(rp.joiners)/2:])
+	}
+}
+
+// fillJoiners fills this block's fading of the leg slots that joined at
+// its start (rep.joiners), the second half on the helper when there is one
+// (each leg its own channel: the same samples either way).
+func (rp *rep) fillJoiners() {
+	if rp.helper == nil || len(rp.joiners) < 2 {
+		rp.fillLegs(rp.joiners)
+		return
+	}
+	rp.enqueue(job{kind: jobJoin})
+	rp.fillLegs(rp.joiners[:len(rp.joiners)/2])
+	rp.waitFor(jobJoin)
+}
+
+// fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l.
+func (rp *rep) fillLegs(legs []int) {
+	for _, i := range legs {
+		rp.users[i/maxLegsPerUser].legCh[i%maxLegsPerUser].FillGains(rp.fade[i][:rp.blockN])
 	}
 }
 
@@ -157,14 +180,15 @@ func (rp *rep) run(ctx context.Context) error {
 					rp.slow, rp.slowNext = rp.slowNext, rp.slow
 				}
 				rp.afterGains(t)
-				if t+shadow < total {
-					rp.enqueue(job{kind: jobGains, t: t + shadow})
-				}
+			}
+			if k == 0 && t%upd == 0 {
+				rp.updateActiveSets(t == 0)
+				rp.fillJoiners() // the helper is free here when update_slots is a multiple of shadowing_slots
+			}
+			if t%shadow == 0 && t+shadow < total {
+				rp.enqueue(job{kind: jobGains, t: t + shadow})
 			}
 			if k == 0 {
-				if t%upd == 0 {
-					rp.updateActiveSets(t == 0)
-				}
 				if next := t0 + int64(n); next < total && !rp.full {
 					rp.enqueue(job{kind: jobFill, set: 1 - cur, n: rp.blockLen(next)})
 				}
