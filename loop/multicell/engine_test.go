@@ -47,12 +47,14 @@ func TestDeterministicAcrossCores(t *testing.T) {
 	}
 }
 
-// TestDeterministicParallelFading: one replication large enough that its
-// fading is generated on several goroutines gives the same report with
-// GOMAXPROCS 1 and 2.
+// TestDeterministicParallelFading: one replication large enough for the
+// helper goroutine (fading of the next block, gains of the next shadowing
+// update and half of the joining legs computed ahead, fill.go) gives the
+// same report with GOMAXPROCS 1 (no helper) and 2, over active-set
+// updates (every 150 slots) and shadowing updates.
 func TestDeterministicParallelFading(t *testing.T) {
 	cfg := smallLayout()
-	cfg.Groups[0].CountPerCell = 7 // 7 sites × 3 sectors × 8 users = 168 ≥ 2·minUsersPerFillPart
+	cfg.Groups[0].CountPerCell = 7 // 7 sites × 3 sectors × 8 users = 168 ≥ minUsersForHelper
 	cfg.Run = RunSettings{Slots: 300, WarmupSlots: 60, Replications: 1, Seed: 9, Batches: 4}
 	var out [2][]byte
 	for i, procs := range []int{1, 2} {
