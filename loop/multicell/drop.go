@@ -99,6 +99,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.pCur = make([]float64, U)
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
+	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
 	for s := range rp.fadeSets {
 		fade := make([][]float64, U*maxLegsPerUser)
 		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {

@@ -221,9 +221,11 @@ func TestCancel(t *testing.T) {
 // TestMemoryDoesNotGrowWithRunLength: memory is allocated at set-up only.
 // A run of 10 s of slots allocates the same objects and bytes as a run of
 // 1 s (runtime.MemStats Mallocs and TotalAlloc around each Run, best of
-// two): at most 4 more objects and 1 more byte per extra slot (the
+// two): at most 0.01 more objects and 1 more byte per extra slot. The
 // engine's slot loop, block hand-offs and active-set updates allocate
-// nothing; the bound leaves room for the runtime's own bookkeeping).
+// nothing; the bounds leave room for the runtime's own bookkeeping (with
+// the helper goroutine, 0–7 more objects over 1 350 or 13 500 extra slots
+// were seen: channel wait records), far below one object per slot.
 // Layouts: 63 users (no helper goroutine) and 168 users (work ahead on the
 // helper with GOMAXPROCS ≥ 2); outside -short also 19 sites × 3 sectors ×
 // 4 users (228) over 1 500 and 15 000 slots.
@@ -277,7 +279,7 @@ func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
 		perSlot := (float64(bl) - float64(bs)) / extra
 		t.Logf("%s: %d slots %d objects %d bytes; %d slots %d objects %d bytes; %.3f bytes per extra slot",
 			c.name, c.short, os, bs, c.long, ol, bl, perSlot)
-		if ol > os+4 {
+		if objPerSlot := (float64(ol) - float64(os)) / extra; objPerSlot > 0.01 {
 			t.Errorf("%s: objects grow with run length: %d for %d slots, %d for %d", c.name, os, c.short, ol, c.long)
 		}
 		if perSlot > 1 {
