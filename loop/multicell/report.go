@@ -15,7 +15,10 @@ import (
 // Intervals (95 %): with one replication, Student t over batch means in
 // time, conditional on the drop; with several, Student t over the
 // replications (independent drops). Proportions use the Wilson interval on
-// the effective sample size implied by that spread, inside [0, 1].
+// the effective sample size implied by that spread, inside [0, 1]. The
+// layout-wide noise-rise percentile gets its interval the same way, from
+// the spread of the percentile over batches or replications; the
+// per-cell and spread percentiles are point values (no interval).
 type Report struct {
 	Config             Config         `json:"config"` // normalised
 	Users              int            `json:"users"`
@@ -23,7 +26,11 @@ type Report struct {
 	SimulatedUserSlots int64          `json:"simulated_user_slots"`
 	Overall            OverallFigures `json:"overall"`
 	Cells              []CellFigures  `json:"cells"`
-	UserPoints         []UserPoint    `json:"user_points"` // replication 0's drop, for maps
+	// NoiseRiseP95DB is the 95th percentile of the per-slot noise rise
+	// over every cell and slot, dB, with its interval (riseP95). The
+	// per-cell percentiles (CellFigures) are point values without one.
+	NoiseRiseP95DB loop.Estimate `json:"noise_rise_p95_db"`
+	UserPoints     []UserPoint   `json:"user_points"` // replication 0's drop, for maps
 }
 
 // LegStates are the handover states reported separately: one, two, and

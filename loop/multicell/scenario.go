@@ -2,7 +2,6 @@ package multicell
 
 import (
 	"context"
-	"math"
 	"strings"
 	"time"
 
@@ -178,8 +177,8 @@ func mapViolations(vs loop.Violations) loop.Violations {
 // report keeps working — SIR error mean and standard deviation, outage,
 // achieved BLER (and its error against the target with the outer loop
 // on), mean Tx power, time at max power (max_power_fraction), and the noise
-// rise (mean over cells and slots; noise_rise_p95_db the largest cell's
-// 95th percentile, without interval). Percentiles, convergence time,
+// rise (mean over cells and slots; noise_rise_p95_db the 95th percentile
+// over cells and slots, with its interval: Report.NoiseRiseP95DB). Percentiles, convergence time,
 // per-user figures, distance bins and feasibility are not computed in
 // multi-cell mode (a note says so).
 func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
@@ -199,14 +198,14 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 		t := sc.OuterLoop.BLERTarget
 		agg.BLERTargetError = loop.Estimate{Value: o.AchievedBLER.Value - t, CILow: o.AchievedBLER.CILow - t, CIHigh: o.AchievedBLER.CIHigh - t}
 	}
-	p95 := math.Inf(-1)
-	for _, c := range r.Cells {
-		p95 = math.Max(p95, c.NoiseRiseP95DB)
-	}
-	if len(r.Cells) > 0 {
-		agg.NoiseRiseP95DB = loop.Estimate{Value: p95, CILow: p95, CIHigh: p95}
-	}
+	agg.NoiseRiseP95DB = r.NoiseRiseP95DB
 	lr := &loop.LayoutReport{Overall: o, Cells: r.Cells, UserPoints: r.UserPoints}
+	notes := []string{"multi-cell mode: the aggregate figures are the layout's; percentiles, convergence time, per-user and per-distance figures and feasibility are not computed (see layout)"}
+	if r.Config.Run.Replications == 1 {
+		// Coverage measured in coverage_test.go's comment.
+		notes = append(notes, "one replication: the intervals come from batches of one drop and run and are too narrow unless the run is long against the shadowing decorrelation; run 2 or more replications for intervals that hold their 95 %")
+	}
+	notes = append(notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
 	return &loop.Report{
 		Aggregate:          agg,
 		NormalisedScenario: sc,
@@ -215,8 +214,7 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 		Replications:       r.Config.Run.Replications,
 		Slots:              r.MeasuredSlots,
 		SimulatedUserSlots: r.SimulatedUserSlots,
-		Notes: []string{"multi-cell mode: the aggregate figures are the layout's; percentiles, convergence time, per-user and per-distance figures and feasibility are not computed (see layout)",
-			"simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice"},
-		Layout: lr,
+		Notes:              notes,
+		Layout:             lr,
 	}
 }

@@ -61,10 +61,11 @@ type collector struct {
 	perBatch  float64
 	ratioHist [][]uint32 // per cell: per-slot other/own in dB
 	riseHist  [][]uint32 // per cell: per-slot noise rise in dB
+	riseBatch []uint32   // the current batch's noise rise over every cell, dB
+	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
 	marginLin float64
 	pmax      float64
 	users     []userAcc // replication 0 only
-	p         []float64 // reused power vector
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
@@ -76,6 +77,8 @@ func newCollector(rp *rep, r int) *collector {
 		c.batches[i] = newSums(rp.C)
 	}
 	c.perBatch = float64(rp.cfg.Run.Slots-rp.cfg.Run.WarmupSlots) / float64(nb)
+	c.riseBatch = make([]uint32, histBins)
+	c.riseP95 = make([]float64, nb)
 	c.ratioHist = make([][]uint32, rp.C)
 	c.riseHist = make([][]uint32, rp.C)
 	for i := range c.ratioHist {
@@ -105,7 +108,7 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 		mx = 1
 	}
 	li := min(us.nLegs, LegStates) - 1
-	errDB := 10*math.Log10(fmax(sir, 1e-30)) - us.targetDB
+	errDB := linToDB(fmax(sir, 1e-30)) - us.targetDB
 	txDBm := us.pDB // = 10 log10(p), kept by the engine
 	b.userSlots++
 	b.outage += out
@@ -146,7 +149,7 @@ func (c *collector) cells(rp *rep) {
 	for k := 0; k < rp.C; k++ {
 		own := rp.own[k]
 		other := math.Max(0, rp.rx[k]-rp.noiseMW-own)
-		rise := 10 * math.Log10(rp.rx[k]/rp.noiseMW)
+		rise := linToDB(rp.rx[k] / rp.noiseMW)
 		b.ownMW += own
 		b.otherMW += other
 		b.noiseRiseDB += rise
@@ -154,14 +157,24 @@ func (c *collector) cells(rp *rep) {
 		b.cellOtherMW[k] += other
 		b.cellRise[k] += rise
 		if own > 0 {
-			c.ratioHist[k][histIndex(10*math.Log10(math.Max(other/own, 1e-30)))]++
+			c.ratioHist[k][histIndex(linToDB(math.Max(other/own, 1e-30)))]++
 		}
-		c.riseHist[k][histIndex(rise)]++
+		i := histIndex(rise)
+		c.riseHist[k][i]++
+		c.riseBatch[i]++
 	}
 	c.measured++
 	if float64(c.measured) >= float64(c.cur+1)*c.perBatch && c.cur < len(c.batches)-1 {
+		c.closeBatch()
 		c.cur++
 	}
+}
+
+// closeBatch records the current batch's noise-rise percentile and
+// clears its histogram.
+func (c *collector) closeBatch() {
+	c.riseP95[c.cur] = histPercentile(c.riseBatch, 0.95)
+	clear(c.riseBatch)
 }
 
 // repResult is one replication's statistics.
@@ -170,13 +183,15 @@ type repResult struct {
 	total     sums
 	ratioHist [][]uint32
 	riseHist  [][]uint32
+	riseP95   []float64 // per batch
 	users     []userAcc
 	points    []UserPoint
 	userSlots int64
 }
 
 func (c *collector) result(rp *rep) *repResult {
-	res := &repResult{batches: c.batches, total: newSums(rp.C), ratioHist: c.ratioHist, riseHist: c.riseHist, users: c.users}
+	c.closeBatch()
+	res := &repResult{batches: c.batches, total: newSums(rp.C), ratioHist: c.ratioHist, riseHist: c.riseHist, riseP95: c.riseP95, users: c.users}
 	for i := range c.batches {
 		res.total.add(&c.batches[i])
 	}
@@ -196,8 +211,9 @@ func (c *collector) result(rp *rep) *repResult {
 	return res
 }
 
-// histPercentile is the q-quantile of a dB histogram (bin centre), as a
-// linear ratio when lin is set.
+// histPercentile is the q-quantile of a dB histogram, interpolated
+// linearly inside the bin where the cumulative count reaches q·n (exact to
+// one bin, histBinsDB); NaN for an empty histogram.
 func histPercentile(h []uint32, q float64) float64 {
 	var n uint64
 	for _, x := range h {
@@ -209,21 +225,80 @@ func histPercentile(h []uint32, q float64) float64 {
 	want := q * float64(n)
 	var cum uint64
 	for i, x := range h {
-		cum += uint64(x)
-		if float64(cum) >= want {
-			return histLoDB + (float64(i)+0.5)*histBinsDB
+		if x == 0 {
+			continue
 		}
+		if next := cum + uint64(x); float64(next) >= want {
+			frac := (want - float64(cum)) / float64(x)
+			return histLoDB + (float64(i)+min(1, max(0, frac)))*histBinsDB
+		}
+		cum += uint64(x)
 	}
 	return histHiDB
+}
+
+// riseP95 is the 95th percentile of the per-slot noise rise over every
+// cell and slot of every replication (the pooled histograms), with a 95 %
+// interval of half-width t·s/√k from the spread s of the same percentile
+// over k units — the batch groups of one replication (batchGroups; a
+// group's value is the mean of its batches' percentiles; conditional on
+// the drop), or the replications (independent drops) — as meanInterval does
+// for means (Student t, loop.StudentT95), at least half a bin (the
+// histogram's resolution), inside [0, ∞) dB.
+func riseP95(res []*repResult, C int, groups [][2]int) loop.Estimate {
+	pooled := make([]uint32, histBins)
+	units := make([]float64, 0, len(res))
+	for _, r := range res {
+		rep := make([]uint32, histBins)
+		for c := 0; c < C; c++ {
+			for i, x := range r.riseHist[c] {
+				rep[i] += x
+			}
+		}
+		for i, x := range rep {
+			pooled[i] += x
+		}
+		units = append(units, histPercentile(rep, 0.95))
+	}
+	if len(res) == 1 {
+		// A group's value: the mean of its batches' percentiles.
+		units = units[:0]
+		for _, g := range groups {
+			m, n := 0.0, 0
+			for _, x := range res[0].riseP95[g[0]:g[1]] {
+				if !math.IsNaN(x) {
+					m += x
+					n++
+				}
+			}
+			if n > 0 {
+				units = append(units, m/float64(n))
+			}
+		}
+	}
+	v := histPercentile(pooled, 0.95)
+	e := meanInterval(units)
+	h := math.Max((e.CIHigh-e.CILow)/2, histBinsDB/2)
+	if math.IsNaN(v) || math.IsNaN(h) {
+		return loop.Estimate{Value: math.NaN(), CILow: math.NaN(), CIHigh: math.NaN()}
+	}
+	v = math.Max(0, v)
+	return loop.Estimate{Value: v, CILow: math.Max(0, v-h), CIHigh: v + h}
 }
 
 // merge combines the replications into the report.
 func merge(cfg Config, res []*repResult) *Report {
 	C := cfg.Layout.Cells()
 	units := make([]*sums, 0)
+	var groups [][2]int // one replication: the batch groups forming the units
 	if len(res) == 1 {
-		for i := range res[0].batches {
-			units = append(units, &res[0].batches[i])
+		groups = batchGroups(res[0].batches, C)
+		for _, g := range groups {
+			u := newSums(C)
+			for i := g[0]; i < g[1]; i++ {
+				u.add(&res[0].batches[i])
+			}
+			units = append(units, &u)
 		}
 	} else {
 		for _, r := range res {
@@ -330,8 +405,94 @@ func merge(cfg Config, res []*repResult) *Report {
 		}
 		rep.Cells = append(rep.Cells, cf)
 	}
+	rep.NoiseRiseP95DB = riseP95(res, C, groups)
 	o.OtherToOwnSpreadP5 = math.Pow(10, histPercentile(all, 0.05)/10)
 	o.OtherToOwnSpreadP95 = math.Pow(10, histPercentile(all, 0.95)/10)
 	rep.UserPoints = res[0].points
 	return rep
+}
+
+// batchGroups groups one replication's batches into the units of its
+// intervals. Batch means of a simulation are correlated when a batch is
+// not long against the correlation time (here shadowing, which
+// decorrelates over tens of metres, and the outer loop), and Student t
+// over correlated batch means is too narrow. The batches are merged in
+// consecutive pairs while the lag-1 autocorrelation of the batch means of
+// any of the layout's mean noise rise, other-to-own ratio or outage is
+// above 2/√k (k units; the approximate 95 % bound of a sample
+// autocorrelation of independent values) and more than minBatchGroups
+// units remain (batch means method with batch-size doubling, e.g. Law &
+// Kelton, Simulation Modeling and Analysis, §9.5 (memory)). An odd unit
+// out joins the last group.
+func batchGroups(b []sums, C int) [][2]int {
+	groups := make([][2]int, len(b))
+	for i := range groups {
+		groups[i] = [2]int{i, i + 1}
+	}
+	series := []func(s *sums) (float64, bool){
+		func(s *sums) (float64, bool) { return s.noiseRiseDB / (s.slots * float64(C)), s.slots > 0 },
+		func(s *sums) (float64, bool) { return s.otherMW / s.ownMW, s.ownMW > 0 },
+		func(s *sums) (float64, bool) { return s.outage / s.userSlots, s.userSlots > 0 },
+	}
+	for len(groups) >= 2*minBatchGroups {
+		units := make([]sums, len(groups))
+		for i, g := range groups {
+			units[i] = newSums(C)
+			for j := g[0]; j < g[1]; j++ {
+				units[i].add(&b[j])
+			}
+		}
+		bound := 2 / math.Sqrt(float64(len(units)))
+		correlated := false
+		for _, f := range series {
+			xs := make([]float64, 0, len(units))
+			for i := range units {
+				if x, ok := f(&units[i]); ok {
+					xs = append(xs, x)
+				}
+			}
+			correlated = correlated || lag1(xs) > bound
+		}
+		if !correlated {
+			break
+		}
+		merged := make([][2]int, 0, len(groups)/2)
+		for i := 0; i+1 < len(groups); i += 2 {
+			merged = append(merged, [2]int{groups[i][0], groups[i+1][1]})
+		}
+		if len(groups)%2 == 1 {
+			merged[len(merged)-1][1] = groups[len(groups)-1][1]
+		}
+		groups = merged
+	}
+	return groups
+}
+
+// minBatchGroups is the fewest units batchGroups merges down to (Student t
+// with 3 degrees of freedom at 4 units).
+const minBatchGroups = 4
+
+// lag1 is the sample lag-1 autocorrelation of xs (0 for fewer than 3
+// values or no spread).
+func lag1(xs []float64) float64 {
+	n := len(xs)
+	if n < 3 {
+		return 0
+	}
+	m := 0.0
+	for _, x := range xs {
+		m += x
+	}
+	m /= float64(n)
+	num, den := 0.0, 0.0
+	for i, x := range xs {
+		den += (x - m) * (x - m)
+		if i > 0 {
+			num += (x - m) * (xs[i-1] - m)
+		}
+	}
+	if den == 0 {
+		return 0
+	}
+	return num / den
 }

@@ -1,0 +1,66 @@
+package multicell
+
+import "math"
+
+// linToDB is 10·log10(x) for x > 0 without a logarithm call: x = 2^e·(1+m),
+// 10·log10(x) = 10·log10(2)·(e + log2(1+m)), log2(1+m) linearly
+// interpolated in a table of 2^linToDBBits + 1 points. The interpolation
+// error is at most h²/(8 ln 2) in log2 with h = 2^−linToDBBits, i.e.
+// 5.2e-7 dB (tested against math.Log10). Zero, negative, subnormal,
+// infinite and NaN arguments go to math.Log10.
+func linToDB(x float64) float64 {
+	bits := math.Float64bits(x)
+	exp := int(bits>>52) & 0x7ff
+	if exp == 0 || exp == 0x7ff || bits>>63 != 0 {
+		return 10 * math.Log10(x)
+	}
+	const fracBits = 52 - linToDBBits
+	m := bits & (1<<52 - 1)
+	i := m >> fracBits
+	f := float64(m&(1<<fracBits-1)) * (1.0 / (1 << fracBits))
+	lo, hi := log2Table[i], log2Table[i+1]
+	return (float64(exp-1023) + lo + f*(hi-lo)) * db10Log2
+}
+
+// linToDBBits is the table resolution of linToDB (mantissa bits).
+const linToDBBits = 10
+
+// db10Log2 is 10·log10(2).
+const db10Log2 = 3.0102999566398119521
+
+// log2Table[i] = log2(1 + i/2^linToDBBits), i = 0 … 2^linToDBBits.
+var log2Table = func() (t [1<<linToDBBits + 1]float64) {
+	for i := range t {
+		t[i] = math.Log2(1 + float64(i)/(1<<linToDBBits))
+	}
+	return t
+}()
+
+// linFromDB is 10^(x/10) without an exponential call: 10^(x/10) = 2^y,
+// y = x·log2(10)/10 = i + f (i integer, f in [0, 1)), 2^f linearly
+// interpolated in a table of 2^linToDBBits + 1 points. The relative error
+// is at most (h·ln 2)²/8 with h = 2^−linToDBBits, i.e. 5.8e-8 (2.5e-7 dB;
+// tested against math.Pow). Beyond ±3000 dB, and for NaN, it is
+// dbToLin's math.Exp.
+func linFromDB(x float64) float64 {
+	if !(x > -3000 && x < 3000) {
+		return dbToLin(x)
+	}
+	y := x * log2of10over10
+	fl := math.Floor(y)
+	f := (y - fl) * (1 << linToDBBits)
+	j := int(f)
+	lo, hi := exp2Table[j], exp2Table[j+1]
+	return (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(int64(fl)+1023)<<52)
+}
+
+// log2of10over10 is log2(10)/10.
+const log2of10over10 = 0.33219280948873623479
+
+// exp2Table[i] = 2^(i/2^linToDBBits), i = 0 … 2^linToDBBits.
+var exp2Table = func() (t [1<<linToDBBits + 1]float64) {
+	for i := range t {
+		t[i] = math.Exp2(float64(i) / (1 << linToDBBits))
+	}
+	return t
+}()

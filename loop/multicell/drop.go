@@ -1,0 +1,137 @@
+package multicell
+
+import (
+	"math"
+
+	"github.com/fadeloop/fadeloop/fading"
+	"github.com/fadeloop/fadeloop/loop"
+)
+
+// newRep drops the users of replication r (seed: the replication's) with
+// their path losses, antenna gains, shadowing state and fading channels.
+func newRep(cfg Config, seed uint64, r int) (*rep, error) {
+	g := newGeometry(cfg.Layout)
+	C := len(g.cells)
+	rp := &rep{cfg: cfg, g: g, C: C}
+	rp.noiseMW = math.Pow(10, (-174+10*math.Log10(cfg.Receiver.ChipRateHz)+cfg.Receiver.NoiseFigureDB)/10)
+	rp.pg = cfg.Receiver.ChipRateHz / cfg.Receiver.BitRateBps
+	rp.upLin = math.Pow(10, cfg.InnerLoop.StepDB/10)
+	rp.downLin = 1 / rp.upLin
+	rp.pmin = math.Pow(10, cfg.InnerLoop.MinPowerDBm/10)
+	rp.pmax = math.Pow(10, cfg.InnerLoop.MaxPowerDBm/10)
+	rp.shadowSD = cfg.Channel.ShadowingDB
+	rp.full = cfg.Channel.FastFading == FastFadingFull
+	d := cfg.Layout.InterSiteDistanceM
+	rate := cfg.InnerLoop.UpdateRateHz
+	u := 0
+	for gi, grp := range cfg.Groups {
+		fs, err := cfg.fingers(gi)
+		if err != nil {
+			return nil, loop.Violations{{Field: "groups.profile", Rule: err.Error()}}
+		}
+		prof := fs.Profile
+		capturedDB := 0.0
+		if fs.CapturedFraction > 0 && fs.CapturedFraction < 1 {
+			capturedDB = 10 * math.Log10(fs.CapturedFraction)
+		}
+		fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
+		k := math.Exp(-grp.SpeedKmh / 3.6 * float64(cfg.Channel.ShadowingSlots) / rate / cfg.Channel.DecorrelationM)
+		for s := range g.sites {
+			for j := 0; j < grp.CountPerCell*cfg.Layout.SectorsPerSite; j++ {
+				us := user{group: gi, rng: fading.NewStream(seed, u, 0, streamControl), shadowK: k}
+				place := fading.NewStream(seed, u, 0, streamPlacement)
+				for {
+					dx := (place.Float64() - 0.5) * d
+					dy := (place.Float64() - 0.5) * d * 2 / sqrt3
+					if inHexagon(dx, dy, d) && math.Hypot(dx, dy) >= cfg.Channel.MinDistanceM {
+						us.x, us.y = g.sites[s].x+dx, g.sites[s].y+dy
+						us.edge = math.Hypot(dx, dy) >= 0.8*d/2
+						break
+					}
+				}
+				us.pathDB = make([]float64, len(g.sites))
+				us.siteLin = make([]float64, len(g.sites))
+				for k := range g.sites {
+					_, _, dist := g.offset(k, us.x, us.y)
+					dist = math.Max(dist, cfg.Channel.MinDistanceM)
+					us.pathDB[k] = capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
+				}
+				us.antLin = make([]float64, C)
+				for c := range g.cells {
+					dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
+					us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
+				}
+				sh := fading.NewStream(seed, u, 0, streamShadowing)
+				us.shadowA = sh.NormFloat64()
+				us.shadowB = make([]float64, len(g.sites))
+				for k := range us.shadowB {
+					us.shadowB[k] = sh.NormFloat64()
+				}
+				us.shRng = sh
+				for l := range us.legs {
+					us.legs[l] = -1
+				}
+				if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+					for l := 0; l < cfg.Handover.MaxActive; l++ {
+						ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fdHz, SampleRateHz: rate, Profile: prof}, seed, u*maxLegsPerUser+l)
+						if err != nil {
+							return nil, loop.Violations{{Field: "groups.speed_kmh", Rule: err.Error()}}
+						}
+						us.legCh[l] = ch
+					}
+				}
+				us.setTarget(cfg.OuterLoop.InitialTargetDB)
+				us.cmds = make([]int8, cfg.InnerLoop.FeedbackDelaySlots+1)
+				rp.users = append(rp.users, us)
+				u++
+			}
+		}
+	}
+	rp.U = len(rp.users)
+	U := rp.U
+	rp.slow = make([]float64, C*U)
+	rp.rx = make([]float64, C)
+	rp.own = make([]float64, C)
+	rp.sums = make([]float64, C)
+	rp.corr = make([]float64, C)
+	rp.corrNext = make([]float64, C)
+	rp.pPrev = make([]float64, U)
+	rp.pCur = make([]float64, U)
+	rp.stale = true
+	rp.slowNext = make([]float64, C*U)
+	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
+	for s := range rp.fadeSets {
+		fade := make([][]float64, U*maxLegsPerUser)
+		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+			// One array, each user's legs next to each other.
+			all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
+			for u := range rp.users {
+				for l := 0; l < cfg.Handover.MaxActive; l++ {
+					all, fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
+				}
+			}
+		}
+		rp.fadeSets[s] = fade
+	}
+	rp.fade = rp.fadeSets[0]
+	if rp.full {
+		rp.fullCh = make([]*fading.Channel, C*U)
+		rp.fullBuf = make([][]float64, C*U)
+		for u, us := range rp.users {
+			grp := cfg.Groups[us.group]
+			fs, _ := cfg.fingers(us.group)
+			prof := fs.Profile
+			fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
+			for c := 0; c < C; c++ {
+				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fdHz, SampleRateHz: rate, Profile: prof}, seed, u*maxLegsPerUser*64+c)
+				if err != nil {
+					return nil, loop.Violations{{Field: "groups.speed_kmh", Rule: err.Error()}}
+				}
+				rp.fullCh[c*U+u] = ch
+				rp.fullBuf[c*U+u] = make([]float64, blockSlots)
+			}
+		}
+	}
+	rp.stats = newCollector(rp, r)
+	return rp, nil
+}

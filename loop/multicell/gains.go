@@ -1,0 +1,100 @@
+package multicell
+
+import "math"
+
+// updateSlowGains advances shadowing to slot t and recomputes every slow
+// gain in place (gainsInto, then afterGains).
+func (rp *rep) updateSlowGains(t int64) {
+	rp.gainsInto(rp.slow, t)
+	rp.afterGains(t)
+}
+
+// gainsInto advances shadowing (Gudmundson AR(1) per part; none at t = 0)
+// and writes every slow gain into dst (user-major, like rep.slow),
+// 10^(dB/10) by linFromDB (within 2.5e-7 dB). It touches only the users'
+// shadowing state and dst, so it may run on the helper while the slots run.
+func (rp *rep) gainsInto(dst []float64, t int64) {
+	rho := rp.cfg.Channel.SiteCorrelation
+	a, b := math.Sqrt(rho), math.Sqrt(1-rho)
+	C := rp.C
+	cells := rp.g.cells
+	for u := range rp.users {
+		us := &rp.users[u]
+		if t > 0 && rp.shadowSD > 0 {
+			k := us.shadowK
+			w := math.Sqrt(1 - k*k)
+			us.shadowA = k*us.shadowA + w*us.shRng.NormFloat64()
+			for s := range us.shadowB {
+				us.shadowB[s] = k*us.shadowB[s] + w*us.shRng.NormFloat64()
+			}
+		}
+		common := rp.shadowSD * a * us.shadowA
+		sdB := rp.shadowSD * b
+		for s := range us.siteLin {
+			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
+		}
+		row := dst[u*C : u*C+C]
+		ant := us.antLin[:len(row)]
+		for c := range row {
+			row[c] = us.siteLin[cells[c].site] * ant[c]
+		}
+	}
+}
+
+// afterGains follows new slow gains at slot t: the legs' copies, the
+// open-loop estimate, and a full recomputation of the cell sums.
+func (rp *rep) afterGains(t int64) {
+	C := rp.C
+	for u := range rp.users {
+		rp.refreshLegs(&rp.users[u], rp.slow[u*C:u*C+C])
+		if rp.cfg.OpenLoop.Enabled || t == 0 {
+			rp.openLoopEstimate(u, t == 0)
+		}
+	}
+	rp.stale = true
+}
+
+// refreshLegs copies the slow gains of the user's legs from its row of
+// slow and lists the leg slots in use (act, ascending).
+func (rp *rep) refreshLegs(us *user, row []float64) {
+	n := 0
+	for l, c := range us.legs {
+		if c >= 0 {
+			us.legG[l] = row[c]
+			us.act[n] = int8(l)
+			n++
+		}
+	}
+	us.nLegs = n
+}
+
+// openLoopEstimate records the user's estimate of its best slow gain (dB,
+// with the estimation error) and, at start-up, sets the open-loop power.
+func (rp *rep) openLoopEstimate(u int, start bool) {
+	us := &rp.users[u]
+	best := 0.0
+	for _, g := range rp.slow[u*rp.C : (u+1)*rp.C] {
+		best = math.Max(best, g)
+	}
+	est := 10*math.Log10(best) + rp.cfg.OpenLoop.EstimationErrorDB*us.rng.NormFloat64()
+	keep := 1 + rp.cfg.OpenLoop.DelaySlots/rp.cfg.Channel.ShadowingSlots
+	if len(us.olEstDB) < keep {
+		us.olEstDB = append(us.olEstDB, est)
+		for len(us.olEstDB) < keep {
+			us.olEstDB = append(us.olEstDB, est)
+		}
+	} else {
+		copy(us.olEstDB, us.olEstDB[1:])
+		us.olEstDB[keep-1] = est
+	}
+	if start {
+		us.setP(rp.clamp(math.Pow(10, rp.openLoopDBm(us)/10)))
+	}
+}
+
+// openLoopDBm is P = target + N0 + assumed rise − 10 log10(W/R) − G_est.
+func (rp *rep) openLoopDBm(us *user) float64 {
+	return us.targetDB + 10*math.Log10(rp.noiseMW) + rp.cfg.OpenLoop.AssumedNoiseRiseDB - 10*math.Log10(rp.pg) - us.olEstDB[0]
+}
+
+func (rp *rep) clamp(p float64) float64 { return math.Min(rp.pmax, math.Max(rp.pmin, p)) }

@@ -1,0 +1,300 @@
+package multicell
+
+import "math"
+
+// slot runs one slot: received powers, SIRs, commands, the outer loop, the
+// statistics and the power update.
+//
+// Received power at cell c: N + Σ_u p_u·G_cu·F_cu, with F_cu the fast
+// fading on the user's active-set legs and 1 toward other cells (FULL:
+// every link fades). The slow part Σ_u p_u·G_cu (rep.sums) is kept up to
+// date incrementally (updateSums); the active-set legs add their fading
+// correction p·G·(F − 1).
+//
+// The slot runs on the replication's goroutine: handing half of it to the
+// helper every slot (two hand-offs per slot) was measured slower on the
+// shared 2-core machine (see fill.go's split for the per-block hand-offs).
+func (rp *rep) slot(t int64, k int) {
+	if rp.full {
+		U, C := rp.U, rp.C
+		f := rp.fullBuf
+		for c := 0; c < C; c++ {
+			s := 0.0
+			for u := 0; u < U; u++ {
+				s += rp.users[u].p * rp.slow[u*C+c] * f[c*U+u][k]
+			}
+			rp.rx[c] = rp.noiseMW + s
+		}
+	} else {
+		il := rp.cfg.InnerLoop
+		if rp.stale || rp.sinceSum >= fullSumSlots || il.Mode != InnerModeClosedLoop || rp.cfg.OpenLoop.Enabled {
+			rp.fullSums()
+			rp.stale, rp.sinceSum = false, 0
+		} else {
+			rp.updateSums()
+		}
+		rp.sinceSum++
+		if !rp.corrReady {
+			corr := rp.corr
+			clear(corr)
+			for u := range rp.users {
+				us := &rp.users[u]
+				for _, l := range us.act[:us.nLegs] {
+					if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
+						corr[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
+					}
+				}
+			}
+		}
+		for c, s := range rp.sums {
+			rp.rx[c] = rp.noiseMW + s + rp.corr[c]
+		}
+	}
+	// The next slot's leg corrections can be added as each user's next
+	// power is set when its legs and their gains stay: same block (no
+	// active-set update), no shadowing update.
+	ahead := !rp.full && k+1 < rp.blockN && (t+1)%int64(rp.cfg.Channel.ShadowingSlots) != 0
+	if ahead {
+		clear(rp.corrNext)
+	}
+	clear(rp.own)
+	rp.runUsers(t, k, ahead)
+	rp.corr, rp.corrNext = rp.corrNext, rp.corr
+	rp.corrReady = ahead
+	if t >= rp.cfg.Run.WarmupSlots {
+		rp.stats.cells(rp)
+	}
+}
+
+// fullSums computes the cell sums Σ_u p_u·G_cu at this slot's powers,
+// adding users in order.
+func (rp *rep) fullSums() {
+	C := rp.C
+	s := rp.sums
+	clear(s)
+	for u := range rp.users {
+		pu := rp.users[u].p
+		row := rp.slow[u*C : u*C+C]
+		row = row[:len(s)]
+		for c, g := range row {
+			s[c] += pu * g
+		}
+	}
+}
+
+// updateSums brings the cell sums from the last slot's powers (pPrev) to
+// this slot's (pCur). Closed loop without open loop, most users moved by
+// the same factor b (the step down, or up when more users went up):
+// Σ_u p'_u·G_cu = b·Σ_u p_u·G_cu + Σ_u (p'_u − b·p_u)·G_cu, where the last
+// sum has terms only for the users that moved otherwise (p'_u = b·p_u
+// exactly for the others: the same product as applyCommand's). That costs
+// C per such user instead of C·U. slot recomputes the sums in full after
+// slow-gain updates, at least every fullSumSlots slots (which bounds the
+// rounding: relative error below 1e-10, TestCellSumsTrackPowers), and every slot with ideal or
+// open-loop power control.
+func (rp *rep) updateSums() {
+	b := rp.downLin
+	if rp.ups > rp.downs {
+		b = rp.upLin
+	}
+	s := rp.sums
+	for c := range s {
+		s[c] *= b
+	}
+	C := rp.C
+	pPrev := rp.pPrev[:len(rp.pCur)]
+	for u, pu := range rp.pCur {
+		d := pu - b*pPrev[u]
+		if d == 0 {
+			continue
+		}
+		row := rp.slow[u*C : u*C+C]
+		row = row[:len(s)]
+		for c, g := range row {
+			s[c] += d * g
+		}
+	}
+}
+
+// runUsers runs slot t for every user: SIR per leg, commands combined by the
+// up-only-if-all-up rule, the block result and outer loop, the power of
+// the next slot (pCur; pPrev keeps this slot's) and, when ahead, the next
+// slot's leg corrections (corrNext).
+func (rp *rep) runUsers(t int64, k int, ahead bool) {
+	rx, own, corrNext := rp.rx, rp.own, rp.corrNext
+	measure := t >= rp.cfg.Run.WarmupSlots
+	il := rp.cfg.InnerLoop
+	ol := rp.cfg.OuterLoop
+	sigma := il.SIREstimationErrorDB * math.Ln10 / 10
+	blockEnd := (t+1)%int64(ol.BlockSlots) == 0
+	ups, downs := 0, 0
+	for u := range rp.users {
+		us := &rp.users[u]
+		pu := us.p
+		rp.pPrev[u] = pu
+		bestSIR := 0.0
+		allUp := true
+		anyOK := false
+		for _, l := range us.act[:us.nLegs] {
+			c := int(us.legs[l])
+			sig := pu * us.legG[l] * rp.legFade(u, int(l), k)
+			if c == us.best {
+				own[c] += sig
+			}
+			sir := rp.pg * sig / fmax(rx[c]-sig, rp.noiseMW)
+			bestSIR = fmax(bestSIR, sir)
+			us.legAcc[l] += sir
+			us.legN[l]++
+			if il.Mode == InnerModeClosedLoop {
+				m := sir
+				if sigma > 0 {
+					m *= math.Exp(sigma * us.rng.NormFloat64())
+				}
+				up := m < us.target
+				if il.CommandErrorProb > 0 && us.rng.Float64() < il.CommandErrorProb {
+					up = !up
+				}
+				allUp = allUp && up
+			}
+			if blockEnd {
+				mean := us.legAcc[l] / float64(us.legN[l])
+				// Link curve 1/(1 + e^z), z = (SIR dB − threshold)/slope;
+				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
+				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
+				bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
+				if us.rng.Float64() >= bler {
+					anyOK = true
+				}
+				us.legAcc[l], us.legN[l] = 0, 0
+			}
+		}
+		if measure {
+			rp.stats.user(u, us, bestSIR, pu)
+		}
+		if blockEnd {
+			blockErr := !anyOK
+			if measure {
+				rp.stats.block(blockErr)
+			}
+			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
+				if blockErr {
+					us.targetDB += ol.UpStepDB
+				} else {
+					us.targetDB -= ol.UpStepDB * ol.BLERTarget / (1 - ol.BLERTarget)
+				}
+				us.setTarget(math.Min(ol.MaxTargetDB, math.Max(ol.MinTargetDB, us.targetDB)))
+			}
+		}
+		// Power of the next slot.
+		switch il.Mode {
+		case InnerModeIdeal:
+			if bestSIR > 0 {
+				us.setP(rp.clamp(us.p * us.target / bestSIR))
+			}
+		default:
+			d := len(us.cmds)
+			cmd := int8(-1)
+			if allUp {
+				cmd = 1
+			}
+			applied := us.cmds[int(t%int64(d))]
+			us.cmds[int(t%int64(d))] = cmd
+			if d == 1 {
+				applied = cmd
+			} else if t < int64(d) {
+				applied = 0
+			}
+			rp.applyCommand(us, applied)
+			if applied > 0 {
+				ups++
+			} else if applied < 0 {
+				downs++
+			}
+		}
+		rp.pCur[u] = us.p
+		if ahead {
+			for _, l := range us.act[:us.nLegs] {
+				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
+					corrNext[us.legs[l]] += us.p * us.legG[l] * (f[k+1] - 1)
+				}
+			}
+		}
+	}
+	rp.ups, rp.downs = ups, downs
+}
+
+// legFade is the fast-fading power gain of leg slot l of user u in slot k
+// of the current block.
+func (rp *rep) legFade(u, l, k int) float64 {
+	switch {
+	case rp.full:
+		return rp.fullBuf[int(rp.users[u].legs[l])*rp.U+u][k]
+	case rp.fade[u*maxLegsPerUser+l] != nil:
+		return rp.fade[u*maxLegsPerUser+l][k]
+	}
+	return 1
+}
+
+// applyCommand moves the power by one step, without accumulating past the
+// limits; with the open loop, the step goes into the closed-loop correction.
+func (rp *rep) applyCommand(us *user, cmd int8) {
+	if cmd == 0 {
+		return
+	}
+	if rp.cfg.OpenLoop.Enabled {
+		base := rp.openLoopDBm(us)
+		next := us.olCorrDB + float64(cmd)*rp.cfg.InnerLoop.StepDB
+		pDBm := base + next
+		if pDBm <= rp.cfg.InnerLoop.MaxPowerDBm && pDBm >= rp.cfg.InnerLoop.MinPowerDBm {
+			us.olCorrDB = next
+		}
+		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
+		return
+	}
+	// One step: the dB value follows by ±step_db without a logarithm,
+	// exact again at a limit.
+	if cmd > 0 {
+		if np := us.p * rp.upLin; np < rp.pmax {
+			us.p, us.pDB = np, us.pDB+rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmax)
+		}
+	} else {
+		if np := us.p * rp.downLin; np > rp.pmin {
+			us.p, us.pDB = np, us.pDB-rp.cfg.InnerLoop.StepDB
+		} else {
+			us.setP(rp.pmin)
+		}
+	}
+}
+
+// setP sets the transmit power in mW and its dBm value pDB.
+func (us *user) setP(p float64) {
+	us.p = p
+	us.pDB = 10 * math.Log10(p)
+}
+
+// setTarget sets the SIR target in dB and its linear value.
+func (us *user) setTarget(db float64) {
+	us.targetDB = db
+	us.target = dbToLin(db)
+}
+
+// fmax and fmin are math.Max and math.Min for the engine's finite values
+// (no NaN or signed-zero handling: a plain comparison, cheaper per slot).
+func fmax(a, b float64) float64 {
+	if a > b {
+		return a
+	}
+	return b
+}
+
+func fmin(a, b float64) float64 {
+	if a < b {
+		return a
+	}
+	return b
+}
+
+// dbToLin is 10^(x/10).
+func dbToLin(x float64) float64 { return math.Exp(x * (math.Ln10 / 10)) }
