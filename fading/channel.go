@@ -367,6 +367,56 @@ func interpTapPower(dst []float64, first bool, re, im []float64, idx, wrow []int
 	}
 }
 
+// interpIndexOK reports whether an interpolation plan (idx non-decreasing,
+// as plan makes it) stays inside buffers of length bufLen and the weight
+// table: the guard of the assembly interpolator, which checks no bounds.
+func interpIndexOK(idx, wrow []int32, bufLen int) bool {
+	n := len(idx)
+	if n == 0 || len(wrow) != n || idx[0] < 0 || int(idx[n-1])+interpTaps > bufLen {
+		return false
+	}
+	lo, hi := wrow[0], wrow[0]
+	for _, o := range wrow {
+		lo, hi = min(lo, o), max(hi, o)
+	}
+	return lo >= 0 && int(hi)+interpTaps <= len(interpTable)
+}
+
+// interpPower3 interpolates three taps and writes (first) or adds the sum
+// of their powers |h_a|² + |h_b|² + |h_c|² to dst, in that order (the same
+// sums as three interpTapPower calls, one pass over the weights).
+func interpPower3(dst []float64, first bool, reA, imA, reB, imB, reC, imC []float64, idx, wrow []int32) {
+	wts := interpTable
+	wrow = wrow[:len(dst)]
+	idx = idx[:len(dst)]
+	for i := range dst {
+		j := int(idx[i])
+		o := int(wrow[i])
+		w := wts[o : o+interpTaps : o+interpTaps]
+		w0, w1, w2, w3, w4, w5, w6, w7 := w[0], w[1], w[2], w[3], w[4], w[5], w[6], w[7]
+		x := reA[j : j+interpTaps : j+interpTaps]
+		y := imA[j : j+interpTaps : j+interpTaps]
+		r := ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q := ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pa := r*r + q*q
+		x = reB[j : j+interpTaps : j+interpTaps]
+		y = imB[j : j+interpTaps : j+interpTaps]
+		r = ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q = ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pb := r*r + q*q
+		x = reC[j : j+interpTaps : j+interpTaps]
+		y = imC[j : j+interpTaps : j+interpTaps]
+		r = ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q = ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pc := r*r + q*q
+		if first {
+			dst[i] = (pa + pb) + pc
+		} else {
+			dst[i] = ((dst[i] + pa) + pb) + pc
+		}
+	}
+}
+
 // FillGains writes len(dst) consecutive combined power gains
 // g = Σ_l |h_l|² (ideal maximal-ratio / RAKE combining, unit mean); successive
 // calls continue the same process. It allocates nothing.
@@ -374,7 +424,18 @@ func (c *Channel) FillGains(dst []float64) {
 	if c.hist > 0 {
 		for len(dst) > 0 {
 			n := c.plan(len(dst))
-			for l := 0; l < c.nt; l++ {
+			if useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], len(c.bufRe[0])) {
+				for l := 0; l < c.nt; l++ {
+					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+				}
+				dst = dst[n:]
+				continue
+			}
+			l := 0
+			for ; l+3 <= c.nt; l += 3 {
+				interpPower3(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], c.idx[:n], c.wrow[:n])
+			}
+			for ; l < c.nt; l++ {
 				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
 			}
 			dst = dst[n:]
