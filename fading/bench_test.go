@@ -71,3 +71,29 @@ func BenchmarkCanonicalGains(b *testing.B) {
 	b.ReportMetric(float64(b.N)*n/b.Elapsed().Seconds(), "samples/s")
 	b.ReportMetric(float64(cpuTime()-c0)/float64(b.N), "cpu-ns/op")
 }
+
+// BenchmarkCanonicalGains64 is BenchmarkCanonicalGains over 64 such
+// channels in turn, 512 samples each (the loop's access pattern: every
+// channel's state is cold when its turn comes).
+func BenchmarkCanonicalGains64(b *testing.B) {
+	prof := Profile{Name: "3eq", Taps: []Tap{{0, 0}, {100, 0}, {200, 0}}}
+	chs := make([]*Channel, 64)
+	for u := range chs {
+		ch, err := NewChannel(ChannelConfig{DopplerHz: 55.56, SampleRateHz: 1500, Profile: prof, Generator: GeneratorSumOfSinusoids, Sinusoids: 16}, 7, u)
+		if err != nil {
+			b.Fatal(err)
+		}
+		chs[u] = ch
+	}
+	const n = 512
+	gains := make([]float64, n*len(chs))
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		for u, ch := range chs {
+			ch.FillGains(gains[u*n : (u+1)*n])
+		}
+	}
+	b.ReportMetric(float64(b.N)*n*float64(len(chs))/b.Elapsed().Seconds(), "samples/s")
+	b.ReportMetric(float64(cpuTime()-c0)/float64(b.N)/float64(len(chs)), "cpu-ns/channel-block")
+}

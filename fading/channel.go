@@ -142,6 +142,8 @@ type Channel struct {
 	blk          int
 	hist         int
 	bufRe, bufIm [][]float64 // per tap, hist+blk internal samples
+	flatRe       []float64   // bufRe's rows end to end
+	flatIm       []float64   // bufIm's rows end to end
 	blockStart   int64       // internal index held at buf[l][hist]
 	pos          int         // direct mode: next unread offset in the block
 
@@ -207,13 +209,25 @@ func NewChannel(cfg ChannelConfig, seed uint64, user int) (*Channel, error) {
 		c.idx = make([]int32, outChunk)
 		c.wrow = make([]int32, outChunk)
 	}
-	c.bufRe = make2(nt, c.hist+c.blk)
-	c.bufIm = make2(nt, c.hist+c.blk)
+	c.flatRe = make([]float64, nt*(c.hist+c.blk))
+	c.flatIm = make([]float64, nt*(c.hist+c.blk))
+	c.bufRe = rows(c.flatRe, nt)
+	c.bufIm = rows(c.flatIm, nt)
 	c.viewRe = make([][]float64, nt)
 	c.viewIm = make([][]float64, nt)
 	c.blockStart = -int64(c.blk)
 	c.pos = c.blk
 	return c, nil
+}
+
+// rows cuts flat into n rows of equal length (capacity limited to the row).
+func rows(flat []float64, n int) [][]float64 {
+	m := len(flat) / n
+	out := make([][]float64, n)
+	for i := range out {
+		out[i] = flat[i*m : (i+1)*m : (i+1)*m]
+	}
+	return out
 }
 
 func make2(n, m int) [][]float64 {
@@ -425,7 +439,11 @@ func (c *Channel) FillGains(dst []float64) {
 		for len(dst) > 0 {
 			n := c.plan(len(dst))
 			if useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], len(c.bufRe[0])) {
-				for l := 0; l < c.nt; l++ {
+				l := 0
+				for stride := c.hist + c.blk; l+3 <= c.nt; l += 3 {
+					interpPower3AVX(dst[:n], l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, c.idx[:n], c.wrow[:n])
+				}
+				for ; l < c.nt; l++ {
 					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
 				}
 				dst = dst[n:]

@@ -7,6 +7,23 @@ package fading
 //go:noescape
 func interpTapPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int32, wts *float64)
 
+// interpPower3AVX is interpPower3 in AVX assembly for three taps whose
+// rows lie stride elements apart in re and im (tap t at re[t*stride:]):
+// the same operations in the same order, so the same bits.
+//
+//go:noescape
+func interpPower3AVXAsm(dst []float64, first bool, re, im *float64, stride int, idx, wrow []int32, wts *float64)
+
+// interpPower3AVX runs interpPower3AVXAsm on three tap rows of length
+// stride in re and im (len 3·stride); the plan was checked by
+// interpIndexOK against stride.
+func interpPower3AVX(dst []float64, first bool, re, im []float64, stride int, idx, wrow []int32) {
+	if len(re) != 3*stride || len(im) != 3*stride || len(idx) < len(dst) || len(wrow) < len(dst) {
+		panic("fading: interpPower3AVX: bad buffer sizes")
+	}
+	interpPower3AVXAsm(dst, first, &re[0], &im[0], stride*8, idx, wrow, &interpTable[0])
+}
+
 // cpuHasAVX reports whether the CPU and the OS support AVX.
 func cpuHasAVX() bool
 

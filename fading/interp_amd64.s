@@ -175,3 +175,91 @@ sum1:
 oscdone:
 	VZEROUPPER
 	RET
+
+// func interpPower3AVXAsm(dst []float64, first bool, re, im *float64, stride int, idx, wrow []int32, wts *float64)
+//
+// interpTapPowerAVX for three taps at once (tap t's row at re + t·stride
+// bytes, likewise im): per sample, ((dst[i] + p_0) + p_1) + p_2, or
+// (p_0 + p_1) + p_2 when first, each p_t computed as in interpTapPowerAVX.
+TEXT ·interpPower3AVXAsm(SB), NOSPLIT, $0-112
+	MOVQ    dst_base+0(FP), DI
+	MOVQ    dst_len+8(FP), CX
+	MOVBQZX first+24(FP), DX
+	MOVQ    re+32(FP), SI
+	MOVQ    im+40(FP), R8
+	MOVQ    stride+48(FP), R13
+	MOVQ    idx_base+56(FP), R9
+	MOVQ    wrow_base+80(FP), R10
+	MOVQ    wts+104(FP), R11
+	XORQ    AX, AX
+	TESTQ   CX, CX
+	JEQ     done3
+
+loop3:
+	MOVLQSX (R10)(AX*4), R12
+	VMOVUPD (R11)(R12*8), Y0
+	VMOVUPD 32(R11)(R12*8), Y1
+	MOVLQSX (R9)(AX*4), BX
+	LEAQ    (SI)(BX*8), R12    // re row of tap 0 at the first node
+	LEAQ    (R8)(BX*8), BX     // im row of tap 0 at the first node
+
+	// tap 0 -> X10
+	VMULPD       (R12), Y0, Y2
+	VMULPD       32(R12), Y1, Y3
+	VMULPD       (BX), Y0, Y4
+	VMULPD       32(BX), Y1, Y5
+	VHADDPD      Y4, Y2, Y6
+	VHADDPD      Y5, Y3, Y7
+	VEXTRACTF128 $1, Y6, X8
+	VADDPD       X8, X6, X6
+	VEXTRACTF128 $1, Y7, X9
+	VADDPD       X9, X7, X7
+	VADDPD       X7, X6, X6
+	VMULPD       X6, X6, X6
+	VHADDPD      X6, X6, X10
+
+	// tap 1 -> X11
+	VMULPD       (R12)(R13*1), Y0, Y2
+	VMULPD       32(R12)(R13*1), Y1, Y3
+	VMULPD       (BX)(R13*1), Y0, Y4
+	VMULPD       32(BX)(R13*1), Y1, Y5
+	VHADDPD      Y4, Y2, Y6
+	VHADDPD      Y5, Y3, Y7
+	VEXTRACTF128 $1, Y6, X8
+	VADDPD       X8, X6, X6
+	VEXTRACTF128 $1, Y7, X9
+	VADDPD       X9, X7, X7
+	VADDPD       X7, X6, X6
+	VMULPD       X6, X6, X6
+	VHADDPD      X6, X6, X11
+
+	// tap 2 -> X12
+	VMULPD       (R12)(R13*2), Y0, Y2
+	VMULPD       32(R12)(R13*2), Y1, Y3
+	VMULPD       (BX)(R13*2), Y0, Y4
+	VMULPD       32(BX)(R13*2), Y1, Y5
+	VHADDPD      Y4, Y2, Y6
+	VHADDPD      Y5, Y3, Y7
+	VEXTRACTF128 $1, Y6, X8
+	VADDPD       X8, X6, X6
+	VEXTRACTF128 $1, Y7, X9
+	VADDPD       X9, X7, X7
+	VADDPD       X7, X6, X6
+	VMULPD       X6, X6, X6
+	VHADDPD      X6, X6, X12
+
+	TESTQ  DX, DX
+	JNE    first3
+	VADDSD (DI)(AX*8), X10, X10
+
+first3:
+	VADDSD X11, X10, X10
+	VADDSD X12, X10, X10
+	VMOVSD X10, (DI)(AX*8)
+	INCQ   AX
+	CMPQ   AX, CX
+	JLT    loop3
+
+done3:
+	VZEROUPPER
+	RET
