@@ -50,3 +50,54 @@ func TestAssemblyMatchesGo(t *testing.T) {
 		}
 	}
 }
+
+// TestPlanCacheMatchesFillGains: channels advanced in step through one
+// PlanCache (some with the same Doppler, so plans are shared, some not)
+// give the gains of FillGains bit for bit, whatever the chunking.
+func TestPlanCacheMatchesFillGains(t *testing.T) {
+	prof := Profile{Name: "3tap", Taps: []Tap{{0, 0}, {310, -1}, {710, -9}}}
+	fds := []float64{55.6, 55.6, 5.56, 55.6, 120, 5.56, 300, 55.6}
+	gens := []Generator{GeneratorSumOfSinusoids, GeneratorDefault, GeneratorSumOfSinusoids, GeneratorSpectral, GeneratorSumOfSinusoids, GeneratorDefault, GeneratorSumOfSinusoids, GeneratorSumOfSinusoids}
+	mk := func() []*Channel {
+		var chs []*Channel
+		for u, fd := range fds {
+			ch, err := NewChannel(ChannelConfig{DopplerHz: fd, SampleRateHz: 1500, Profile: prof, Generator: gens[u], Sinusoids: 16}, 5, u)
+			if err != nil {
+				t.Fatal(err)
+			}
+			chs = append(chs, ch)
+		}
+		return chs
+	}
+	const total = 5000
+	shared, alone := mk(), mk()
+	var pc PlanCache
+	got := make([][]float64, len(fds))
+	want := make([][]float64, len(fds))
+	for u := range fds {
+		got[u] = make([]float64, total)
+		want[u] = make([]float64, total)
+	}
+	hits := 0
+	for off, n := 0, 1; off < total; off, n = off+n, min(n*3+1, 700) {
+		end := min(off+n, total)
+		for u := range fds {
+			before := pc.next
+			shared[u].FillGainsShared(got[u][off:end], &pc)
+			if pc.next == before {
+				hits++
+			}
+			alone[u].FillGains(want[u][off:end])
+		}
+	}
+	for u := range fds {
+		for i := range got[u] {
+			if math.Float64bits(got[u][i]) != math.Float64bits(want[u][i]) {
+				t.Fatalf("channel %d sample %d: shared plan %v, own plan %v", u, i, got[u][i], want[u][i])
+			}
+		}
+	}
+	if hits == 0 {
+		t.Error("no plan was shared: the test does not exercise the cache")
+	}
+}

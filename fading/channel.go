@@ -317,14 +317,26 @@ func (c *Channel) produce(max int) int {
 // returns the number of samples planned (>= 1).
 func (c *Channel) plan(max int) int {
 	n := min(max, outChunk)
-	step, m := c.step, c.m
+	c.planRefill()
+	return c.planCompute(n)
+}
+
+// planRefill refills the internal buffer until it holds the first node of
+// output sample c.m.
+func (c *Channel) planRefill() {
 	for {
-		k := int64(float64(m)*step + interpBefore)
+		k := int64(float64(c.m)*c.step + interpBefore)
 		if k+interpTaps-interpBefore <= c.blockStart+int64(c.blk) {
 			break
 		}
 		c.refill()
 	}
+}
+
+// planCompute is plan after planRefill: it plans up to n <= outChunk
+// samples into c.idx and c.wrow and advances c.m.
+func (c *Channel) planCompute(n int) int {
+	step, m := c.step, c.m
 	end := c.blockStart + int64(c.blk)
 	base := c.blockStart - int64(c.hist) + interpBefore
 	idx, wrow := c.idx[:n], c.wrow[:n]
@@ -340,6 +352,56 @@ func (c *Channel) plan(max int) int {
 	}
 	c.m += int64(i)
 	return i
+}
+
+// PlanCache keeps the last few interpolation plans of FillGainsShared, so
+// that channels with the same internal step (same Doppler and sample rate)
+// and the same block length, advanced in step (as the users of a loop
+// block are), compute each plan once instead of once per channel. A plan
+// is a function of (step, position, internal block) only, so a shared
+// plan is the one the channel would compute: the gains are bit for bit
+// those of FillGains. Not safe for concurrent use (one per goroutine); the
+// zero value is ready.
+type PlanCache struct {
+	next int
+	ents [8]planEntry
+}
+
+type planEntry struct {
+	used             bool
+	step             float64
+	m, blockStart    int64
+	hist, blk, mx, n int
+	ok               bool // interpIndexOK held for the buffers of this key
+	idx, wrow        [outChunk]int32
+}
+
+// planShared plans up to max output samples from c.m (plan), taking the
+// plan from pc when it holds one for the same key, and returns the sample
+// count, the plan and whether interpIndexOK holds for it.
+func (c *Channel) planShared(max int, pc *PlanCache) (int, []int32, []int32, bool) {
+	mx := min(max, outChunk)
+	c.planRefill()
+	if pc == nil {
+		n := c.planCompute(mx)
+		return n, c.idx[:n], c.wrow[:n], useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)
+	}
+	for i := range pc.ents {
+		e := &pc.ents[i]
+		if e.used && e.m == c.m && e.step == c.step && e.blockStart == c.blockStart && e.mx == mx && e.hist == c.hist && e.blk == c.blk {
+			c.m += int64(e.n)
+			return e.n, e.idx[:e.n], e.wrow[:e.n], e.ok
+		}
+	}
+	m0 := c.m
+	n := c.planCompute(mx)
+	e := &pc.ents[pc.next]
+	pc.next = (pc.next + 1) % len(pc.ents)
+	*e = planEntry{used: true, step: c.step, m: m0, blockStart: c.blockStart, hist: c.hist, blk: c.blk, mx: mx, n: n,
+		ok: useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)}
+	copy(e.idx[:n], c.idx[:n])
+	copy(e.wrow[:n], c.wrow[:n])
+	return n, c.idx[:n], c.wrow[:n], e.ok
 }
 
 // interpTap interpolates one tap: out[i] = Σ_j w[i][j] x[idx[i]+j].
@@ -434,27 +496,32 @@ func interpPower3(dst []float64, first bool, reA, imA, reB, imB, reC, imC []floa
 // FillGains writes len(dst) consecutive combined power gains
 // g = Σ_l |h_l|² (ideal maximal-ratio / RAKE combining, unit mean); successive
 // calls continue the same process. It allocates nothing.
-func (c *Channel) FillGains(dst []float64) {
+func (c *Channel) FillGains(dst []float64) { c.FillGainsShared(dst, nil) }
+
+// FillGainsShared is FillGains taking interpolation plans from pc (nil:
+// none) where another channel with the same step already made them; the
+// gains are bit for bit those of FillGains.
+func (c *Channel) FillGainsShared(dst []float64, pc *PlanCache) {
 	if c.hist > 0 {
 		for len(dst) > 0 {
-			n := c.plan(len(dst))
-			if useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], len(c.bufRe[0])) {
+			n, idx, wrow, avx := c.planShared(len(dst), pc)
+			if avx {
 				l := 0
 				for stride := c.hist + c.blk; l+3 <= c.nt; l += 3 {
-					interpPower3AVX(dst[:n], l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, c.idx[:n], c.wrow[:n])
+					interpPower3AVX(dst[:n], l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, idx, wrow)
 				}
 				for ; l < c.nt; l++ {
-					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
 				}
 				dst = dst[n:]
 				continue
 			}
 			l := 0
 			for ; l+3 <= c.nt; l += 3 {
-				interpPower3(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], c.idx[:n], c.wrow[:n])
+				interpPower3(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], idx, wrow)
 			}
 			for ; l < c.nt; l++ {
-				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
 			}
 			dst = dst[n:]
 		}
