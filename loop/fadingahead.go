@@ -95,6 +95,24 @@ func newGenPool(workers int) *genPool {
 	return p
 }
 
+// help runs queued generation tasks on the calling goroutine until none is
+// queued: a replication waiting for its next block works instead of
+// sleeping (any goroutine may run any task; a user's channel still has one
+// task at a time, and the samples do not depend on who runs it).
+func (p *genPool) help(pc *fading.PlanCache) {
+	for {
+		select {
+		case t, ok := <-p.tasks:
+			if !ok {
+				return
+			}
+			p.runTask(t, pc)
+		default:
+			return
+		}
+	}
+}
+
 func (p *genPool) close() { close(p.tasks); p.wg.Wait() }
 
 // genUser fills user u's part of buf for the block starting at buf.t0.
