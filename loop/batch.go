@@ -41,6 +41,17 @@ func (c *collector) endBatch() {
 	for i := range c.setPowSum {
 		c.setPowSum[i] = 0
 	}
+	if c.fullScan {
+		// The fast path did not track the used bins: find them.
+		ss, ps := sh.sirLayout.size(), sh.powLayout.size()
+		for u := 0; u < n; u++ {
+			lo, hi := usedRange(c.sir.batch[u*c.sir.stride : u*c.sir.stride+ss])
+			c.sir.lo[u], c.sir.hi[u] = int32(lo), int32(hi)
+			lo, hi = usedRange(c.pow.batch[u*c.pow.stride : u*c.pow.stride+ps])
+			c.pow.lo[u], c.pow.hi[u] = int32(lo), int32(hi)
+		}
+		c.fullScan = false
+	}
 	var hs histStats
 	for u := 0; u < n; u++ {
 		cnt := c.batchSlots[u]

@@ -156,3 +156,35 @@ func scanStats[T uint32 | uint64](l *histLayout, c []T, lo, hi int, n uint64, qs
 	out.std = math.Sqrt(v)
 }
 
+// usedRange returns the first and last non-zero index of c (lo > hi when
+// every count is zero). It tests eight bins per step, so finding the few
+// occupied bins of a wide histogram costs a fraction of a full scan.
+func usedRange(c []uint32) (lo, hi int) {
+	n := len(c)
+	lo = 0
+	for lo+8 <= n {
+		s := c[lo : lo+8 : lo+8]
+		if s[0]|s[1]|s[2]|s[3]|s[4]|s[5]|s[6]|s[7] != 0 {
+			break
+		}
+		lo += 8
+	}
+	for lo < n && c[lo] == 0 {
+		lo++
+	}
+	if lo == n {
+		return 0, -1
+	}
+	hi = n - 1
+	for hi-7 > lo {
+		s := c[hi-7 : hi+1 : hi+1]
+		if s[0]|s[1]|s[2]|s[3]|s[4]|s[5]|s[6]|s[7] != 0 {
+			break
+		}
+		hi -= 8
+	}
+	for c[hi] == 0 {
+		hi--
+	}
+	return lo, hi
+}

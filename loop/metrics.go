@@ -66,6 +66,7 @@ type collector struct {
 	convWindowLen, convWindowHead []int32
 	unconverged                   int
 
+	fullScan  bool // some slot of this batch skipped range tracking (fast path)
 	quantiles []float64
 
 	// Histogram increments of fused slots, deferred: slotFused records each
@@ -84,7 +85,7 @@ type collector struct {
 func (c *collector) pending() bool { return c.recTo > c.recFrom }
 
 // foldRecords adds the recorded slots [recFrom, recTo) of users [u0, u1)
-// to their batch histograms and widens their used bin ranges. Calls for disjoint user ranges may run
+// to their batch histograms. Calls for disjoint user ranges may run
 // concurrently; the caller then marks the records folded (recFrom = recTo).
 func (c *collector) foldRecords(u0, u1 int) {
 	sh := c.shared
@@ -94,21 +95,13 @@ func (c *collector) foldRecords(u0, u1 int) {
 	ss, ps, rs := c.sir.stride, c.pow.stride, c.recStride
 	for u := u0; u < u1; u++ {
 		sB := c.sir.batch[u*ss : (u+1)*ss]
-		lo, hi := c.sir.lo[u], c.sir.hi[u]
 		for _, r := range c.recRatio[u*rs+c.recFrom : u*rs+c.recTo] {
-			k := binIndex(r, sShift, sBase, sNb)
-			sB[k]++
-			lo, hi = min(lo, int32(k)), max(hi, int32(k))
+			sB[binIndex(r, sShift, sBase, sNb)]++
 		}
-		c.sir.lo[u], c.sir.hi[u] = lo, hi
 		pB := c.pow.batch[u*ps : (u+1)*ps]
-		lo, hi = c.pow.lo[u], c.pow.hi[u]
 		for _, x := range c.recPow[u*rs+c.recFrom : u*rs+c.recTo] {
-			k := binIndex(x, pShift, pBase, pNb)
-			pB[k]++
-			lo, hi = min(lo, int32(k)), max(hi, int32(k))
+			pB[binIndex(x, pShift, pBase, pNb)]++
 		}
-		c.pow.lo[u], c.pow.hi[u] = lo, hi
 	}
 }
 
@@ -334,6 +327,9 @@ func (c *collector) slotFused(in *slotInputs, X float64, s int) {
 	c.recTo = s + 1
 	rs := c.recStride
 	rr, rw := c.recRatio[s:], c.recPow[s:]
+	// The fast path does not track the used bin range: the batch end scans
+	// whole histograms instead (cheaper than two min/max per value).
+	c.fullScan = true
 	for u, r := range rx {
 		v := sirOf(gp, r, X)
 		sir[u] = v
