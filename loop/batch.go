@@ -31,7 +31,6 @@ func (c *collector) foldHist(i int, hs *histStats, powMeanDBm float64, out, max,
 // aggregate, folds the batch values into the running sums, merges the
 // batch histograms into the cumulative ones and clears them.
 func (c *collector) endBatch() {
-	c.flushRecords()
 	sh := c.shared
 	n := c.users
 	agg := c.sets - 1

@@ -41,9 +41,8 @@ type genBuf struct {
 
 type genTask struct {
 	rp     *replication
-	buf    *genBuf // its wg counts the task
+	buf    *genBuf
 	u0, u1 int
-	fold   bool // fold users [u0, u1)'s recorded histogram values instead of generating
 }
 
 // genPool runs generation tasks on a fixed set of workers. A panic in a
@@ -74,10 +73,6 @@ func (p *genPool) runTask(t genTask, pc *fading.PlanCache) {
 		}
 	}()
 	if p.panicked.Load() != nil {
-		return
-	}
-	if t.fold {
-		t.rp.col.foldRecords(t.u0, t.u1)
 		return
 	}
 	for u := t.u0; u < t.u1; u++ {
@@ -189,23 +184,6 @@ func (rp *replication) genUser(buf *genBuf, u int, pc *fading.PlanCache) {
 			}
 		}
 	}
-}
-
-// scheduleFold queues the folding of the collector's recorded slots by
-// user ranges; rp.foldWait.wg counts the tasks.
-func (rp *replication) scheduleFold() {
-	chunk := max(1, (rp.n+7)/8)
-	for u0 := 0; u0 < rp.n; u0 += chunk {
-		rp.foldWait.wg.Add(1)
-		rp.pool.tasks <- genTask{rp: rp, buf: &rp.foldWait, u0: u0, u1: min(u0+chunk, rp.n), fold: true}
-	}
-}
-
-// foldNow folds the recorded slots in parallel and waits (collector.flush).
-func (rp *replication) foldNow() {
-	rp.scheduleFold()
-	rp.pool.help(&rp.pc)
-	rp.foldWait.wg.Wait()
 }
 
 // padStride rounds n elements of elemBytes up to an odd number of 64-byte

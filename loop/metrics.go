@@ -68,55 +68,6 @@ type collector struct {
 
 	fullScan  bool // some slot of this batch skipped range tracking (fast path)
 	quantiles []float64
-
-	// Histogram increments of fused slots, deferred: slotFused records each
-	// user's SIR-error ratio and power of block-relative slot s at
-	// rec*[u*recStride+s]; foldRecords adds slots [recFrom, recTo) to the
-	// histograms (by user ranges, on any goroutine while the loop waits).
-	// flush, when set, folds them all (in parallel); it runs before a batch
-	// ends and the replication runs it at every block end.
-	recRatio, recPow []float64
-	recStride        int
-	recFrom, recTo   int
-	flush            func()
-}
-
-// pending reports whether recorded fused slots wait to be folded.
-func (c *collector) pending() bool { return c.recTo > c.recFrom }
-
-// foldRecords adds the recorded slots [recFrom, recTo) of users [u0, u1)
-// to their batch histograms. Calls for disjoint user ranges may run
-// concurrently; the caller then marks the records folded (recFrom = recTo).
-func (c *collector) foldRecords(u0, u1 int) {
-	sh := c.shared
-	sl, pl := sh.sirLayout, sh.powLayout
-	sShift, sBase, sNb := sl.shift, sl.base1, sl.nb
-	pShift, pBase, pNb := pl.shift, pl.base1, pl.nb
-	ss, ps, rs := c.sir.stride, c.pow.stride, c.recStride
-	for u := u0; u < u1; u++ {
-		sB := c.sir.batch[u*ss : (u+1)*ss]
-		for _, r := range c.recRatio[u*rs+c.recFrom : u*rs+c.recTo] {
-			sB[binIndex(r, sShift, sBase, sNb)]++
-		}
-		pB := c.pow.batch[u*ps : (u+1)*ps]
-		for _, x := range c.recPow[u*rs+c.recFrom : u*rs+c.recTo] {
-			pB[binIndex(x, pShift, pBase, pNb)]++
-		}
-	}
-}
-
-// flushRecords folds every pending record: through flush when set,
-// otherwise here.
-func (c *collector) flushRecords() {
-	if !c.pending() {
-		return
-	}
-	if c.flush != nil {
-		c.flush()
-	} else {
-		c.foldRecords(0, c.users)
-	}
-	c.recFrom, c.recTo = 0, 0
 }
 
 // quantityHists are the histograms of one quantity (SIR error ratio or Tx
@@ -303,43 +254,38 @@ func (c *collector) slotTail(t int64, nr float64) {
 
 // slotFused is the fast path of a measured slot with every user active,
 // converged-tracking done and a linear-mean link: it computes each SIR from
-// the received powers (SIR_i = G_p r_i / (X − r_i)), adds the SIR to the
-// block accumulator, counts the figures and records the histogram values
-// for foldRecords, block-relative slot s. slotTail completes it.
-func (c *collector) slotFused(in *slotInputs, X float64, s int) {
+// the received powers (SIR_i = G_p r_i / (X − r_i)), records the figures and
+// adds the SIR to the block accumulator in one pass. slotTail completes it.
+func (c *collector) slotFused(in *slotInputs, X float64) {
 	sh := c.shared
 	n := c.users
 	rx := in.receivedMW[:n]
 	sir := in.sirLin[:n]
 	inv := in.invTarget[:n]
 	acc, cnt := in.effSIRSum[:n], in.effSIRCount[:n]
+	sl, pl := sh.sirLayout, sh.powLayout
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
 	gp := sh.gp
+	ss, ps := c.sir.stride, c.pow.stride
 	bOut, bMax, bPsum, bCnt := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n], c.batchSlots[:n]
-	if c.pending() && s != c.recTo {
-		c.flushRecords() // records are contiguous in a block
-	}
-	if !c.pending() {
-		c.recFrom, c.recTo = s, s
-	}
-	c.recTo = s + 1
-	rs := c.recStride
-	rr, rw := c.recRatio[s:], c.recPow[s:]
+	sB, pB := c.sir.batch, c.pow.batch
 	// The fast path does not track the used bin range: the batch end scans
 	// whole histograms instead (cheaper than two min/max per value).
 	c.fullScan = true
 	for u, r := range rx {
-		v := sirOf(gp, r, X)
-		sir[u] = v
-		acc[u] += v
+		s := sirOf(gp, r, X)
+		sir[u] = s
+		acc[u] += s
 	}
 	// The outage and at-max counts are added branch-free (conditional
 	// moves): both conditions flip at random from slot to slot.
-	for u, v := range sir {
-		ratio := v * inv[u]
-		rr[u*rs] = ratio
+	sShift, sBase, sNb := sl.shift, sl.base1, sl.nb
+	pShift, pBase, pNb := pl.shift, pl.base1, pl.nb
+	for u, s := range sir {
+		ratio := s * inv[u]
+		sB[u*ss+binIndex(ratio, sShift, sBase, sNb)]++
 		var o int64
 		if ratio < marg {
 			o = 1
@@ -347,7 +293,7 @@ func (c *collector) slotFused(in *slotInputs, X float64, s int) {
 		bOut[u] += o
 	}
 	for u, pu := range p {
-		rw[u*rs] = pu
+		pB[u*ps+binIndex(pu, pShift, pBase, pNb)]++
 		var m int64
 		if pu >= pmax {
 			m = 1

@@ -22,8 +22,6 @@ type replication struct {
 	gen  []userGen
 	bufs [2]genBuf
 	pc   fading.PlanCache // interpolation plans of the tasks this replication's goroutine runs (genPool.help)
-	// foldWait counts the tasks folding the collector's recorded slots.
-	foldWait genBuf
 
 	bank *bank
 	rx   []float64
@@ -158,10 +156,6 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 	rp.blockB = int64(sc.OuterLoop.BlockSlots)
 	rp.blkLeft = rp.blockB
 	rp.col = newCollector(sh)
-	rp.col.recStride = rp.rs
-	rp.col.recRatio = make([]float64, n*rp.rs)
-	rp.col.recPow = make([]float64, n*rp.rs)
-	rp.col.flush = rp.foldNow
 	rp.inputs = slotInputs{sirLin: rp.sir, invTarget: rp.bank.invTarget, powerMW: rp.bank.p, receivedMW: rp.rx,
 		effSIRSum: rp.effAcc, effSIRCount: rp.effN, maxPowerMW: rp.bank.pmax}
 	if r == 0 && len(topt.Users) > 0 {
@@ -191,18 +185,8 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 		}
 		rp.runBlock(cur)
 		done.Add(int64(rp.n) * int64(cur.len))
-		folding := rp.col.pending()
-		if folding {
-			// The block's histogram values are folded by user ranges while
-			// the next block is generated.
-			rp.scheduleFold()
-		}
 		rp.pool.help(&rp.pc)
 		nxt.wg.Wait()
-		if folding {
-			rp.foldWait.wg.Wait()
-			rp.col.recFrom, rp.col.recTo = 0, 0
-		}
 		err = rp.pool.err()
 	}
 	if err != nil {

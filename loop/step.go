@@ -55,7 +55,7 @@ func (rp *replication) runBlock(buf *genBuf) {
 			nr = X / sh.noiseMW
 			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.unconverged == 0 && (sh.hk == nil || !sh.hk.noFast) {
 				// Fast path: SIR, figures and block accumulation in one pass.
-				rp.col.slotFused(&rp.inputs, X, s)
+				rp.col.slotFused(&rp.inputs, X)
 				fused = true
 			} else {
 				gp := sh.gp
