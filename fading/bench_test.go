@@ -2,8 +2,20 @@ package fading
 
 import (
 	"fmt"
+	"syscall"
 	"testing"
+	"time"
 )
+
+// cpuTime is the process's user + system CPU time (a figure less disturbed
+// than wall-clock time on a shared machine).
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	if syscall.Getrusage(syscall.RUSAGE_SELF, &ru) != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
 
 // BenchmarkGenerators measures the throughput of each generator on a 3-tap
 // channel at f_D·T = 0.037 and 0.0037 (55.6 Hz and 5.56 Hz at 1500
@@ -38,4 +50,50 @@ func BenchmarkGenerators(b *testing.B) {
 			}
 		}
 	}
+}
+
+// BenchmarkCanonicalGains measures FillGains on the channel of the loop's
+// canonical scenario (3 equal taps, sum of 16 sinusoids per branch,
+// f_D·T = 0.037): the generation cost behind loop's BenchmarkCanonical.
+func BenchmarkCanonicalGains(b *testing.B) {
+	prof := Profile{Name: "3eq", Taps: []Tap{{0, 0}, {100, 0}, {200, 0}}}
+	ch, err := NewChannel(ChannelConfig{DopplerHz: 55.56, SampleRateHz: 1500, Profile: prof, Generator: GeneratorSumOfSinusoids, Sinusoids: 16}, 7, 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	const n = 512
+	gains := make([]float64, n)
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		ch.FillGains(gains)
+	}
+	b.ReportMetric(float64(b.N)*n/b.Elapsed().Seconds(), "samples/s")
+	b.ReportMetric(float64(cpuTime()-c0)/float64(b.N), "cpu-ns/op")
+}
+
+// BenchmarkCanonicalGains64 is BenchmarkCanonicalGains over 64 such
+// channels in turn, 512 samples each (the loop's access pattern: every
+// channel's state is cold when its turn comes).
+func BenchmarkCanonicalGains64(b *testing.B) {
+	prof := Profile{Name: "3eq", Taps: []Tap{{0, 0}, {100, 0}, {200, 0}}}
+	chs := make([]*Channel, 64)
+	for u := range chs {
+		ch, err := NewChannel(ChannelConfig{DopplerHz: 55.56, SampleRateHz: 1500, Profile: prof, Generator: GeneratorSumOfSinusoids, Sinusoids: 16}, 7, u)
+		if err != nil {
+			b.Fatal(err)
+		}
+		chs[u] = ch
+	}
+	const n = 512
+	gains := make([]float64, n*len(chs))
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		for u, ch := range chs {
+			ch.FillGains(gains[u*n : (u+1)*n])
+		}
+	}
+	b.ReportMetric(float64(b.N)*n*float64(len(chs))/b.Elapsed().Seconds(), "samples/s")
+	b.ReportMetric(float64(cpuTime()-c0)/float64(b.N)/float64(len(chs)), "cpu-ns/channel-block")
 }

@@ -142,6 +142,8 @@ type Channel struct {
 	blk          int
 	hist         int
 	bufRe, bufIm [][]float64 // per tap, hist+blk internal samples
+	flatRe       []float64   // bufRe's rows end to end
+	flatIm       []float64   // bufIm's rows end to end
 	blockStart   int64       // internal index held at buf[l][hist]
 	pos          int         // direct mode: next unread offset in the block
 
@@ -207,13 +209,25 @@ func NewChannel(cfg ChannelConfig, seed uint64, user int) (*Channel, error) {
 		c.idx = make([]int32, outChunk)
 		c.wrow = make([]int32, outChunk)
 	}
-	c.bufRe = make2(nt, c.hist+c.blk)
-	c.bufIm = make2(nt, c.hist+c.blk)
+	c.flatRe = make([]float64, nt*(c.hist+c.blk))
+	c.flatIm = make([]float64, nt*(c.hist+c.blk))
+	c.bufRe = rows(c.flatRe, nt)
+	c.bufIm = rows(c.flatIm, nt)
 	c.viewRe = make([][]float64, nt)
 	c.viewIm = make([][]float64, nt)
 	c.blockStart = -int64(c.blk)
 	c.pos = c.blk
 	return c, nil
+}
+
+// rows cuts flat into n rows of equal length (capacity limited to the row).
+func rows(flat []float64, n int) [][]float64 {
+	m := len(flat) / n
+	out := make([][]float64, n)
+	for i := range out {
+		out[i] = flat[i*m : (i+1)*m : (i+1)*m]
+	}
+	return out
 }
 
 func make2(n, m int) [][]float64 {
@@ -303,14 +317,26 @@ func (c *Channel) produce(max int) int {
 // returns the number of samples planned (>= 1).
 func (c *Channel) plan(max int) int {
 	n := min(max, outChunk)
-	step, m := c.step, c.m
+	c.planRefill()
+	return c.planCompute(n)
+}
+
+// planRefill refills the internal buffer until it holds the first node of
+// output sample c.m.
+func (c *Channel) planRefill() {
 	for {
-		k := int64(float64(m)*step + interpBefore)
+		k := int64(float64(c.m)*c.step + interpBefore)
 		if k+interpTaps-interpBefore <= c.blockStart+int64(c.blk) {
 			break
 		}
 		c.refill()
 	}
+}
+
+// planCompute is plan after planRefill: it plans up to n <= outChunk
+// samples into c.idx and c.wrow and advances c.m.
+func (c *Channel) planCompute(n int) int {
+	step, m := c.step, c.m
 	end := c.blockStart + int64(c.blk)
 	base := c.blockStart - int64(c.hist) + interpBefore
 	idx, wrow := c.idx[:n], c.wrow[:n]
@@ -326,6 +352,56 @@ func (c *Channel) plan(max int) int {
 	}
 	c.m += int64(i)
 	return i
+}
+
+// PlanCache keeps the last few interpolation plans of FillGainsShared, so
+// that channels with the same internal step (same Doppler and sample rate)
+// and the same block length, advanced in step (as the users of a loop
+// block are), compute each plan once instead of once per channel. A plan
+// is a function of (step, position, internal block) only, so a shared
+// plan is the one the channel would compute: the gains are bit for bit
+// those of FillGains. Not safe for concurrent use (one per goroutine); the
+// zero value is ready.
+type PlanCache struct {
+	next int
+	ents [8]planEntry
+}
+
+type planEntry struct {
+	used             bool
+	step             float64
+	m, blockStart    int64
+	hist, blk, mx, n int
+	ok               bool // interpIndexOK held for the buffers of this key
+	idx, wrow        [outChunk]int32
+}
+
+// planShared plans up to max output samples from c.m (plan), taking the
+// plan from pc when it holds one for the same key, and returns the sample
+// count, the plan and whether interpIndexOK holds for it.
+func (c *Channel) planShared(max int, pc *PlanCache) (int, []int32, []int32, bool) {
+	mx := min(max, outChunk)
+	c.planRefill()
+	if pc == nil {
+		n := c.planCompute(mx)
+		return n, c.idx[:n], c.wrow[:n], useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)
+	}
+	for i := range pc.ents {
+		e := &pc.ents[i]
+		if e.used && e.m == c.m && e.step == c.step && e.blockStart == c.blockStart && e.mx == mx && e.hist == c.hist && e.blk == c.blk {
+			c.m += int64(e.n)
+			return e.n, e.idx[:e.n], e.wrow[:e.n], e.ok
+		}
+	}
+	m0 := c.m
+	n := c.planCompute(mx)
+	e := &pc.ents[pc.next]
+	pc.next = (pc.next + 1) % len(pc.ents)
+	*e = planEntry{used: true, step: c.step, m: m0, blockStart: c.blockStart, hist: c.hist, blk: c.blk, mx: mx, n: n,
+		ok: useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)}
+	copy(e.idx[:n], c.idx[:n])
+	copy(e.wrow[:n], c.wrow[:n])
+	return n, c.idx[:n], c.wrow[:n], e.ok
 }
 
 // interpTap interpolates one tap: out[i] = Σ_j w[i][j] x[idx[i]+j].
@@ -367,15 +443,85 @@ func interpTapPower(dst []float64, first bool, re, im []float64, idx, wrow []int
 	}
 }
 
+// interpIndexOK reports whether an interpolation plan (idx non-decreasing,
+// as plan makes it) stays inside buffers of length bufLen and the weight
+// table: the guard of the assembly interpolator, which checks no bounds.
+func interpIndexOK(idx, wrow []int32, bufLen int) bool {
+	n := len(idx)
+	if n == 0 || len(wrow) != n || idx[0] < 0 || int(idx[n-1])+interpTaps > bufLen {
+		return false
+	}
+	lo, hi := wrow[0], wrow[0]
+	for _, o := range wrow {
+		lo, hi = min(lo, o), max(hi, o)
+	}
+	return lo >= 0 && int(hi)+interpTaps <= len(interpTable)
+}
+
+// interpPower3 interpolates three taps and writes (first) or adds the sum
+// of their powers |h_a|² + |h_b|² + |h_c|² to dst, in that order (the same
+// sums as three interpTapPower calls, one pass over the weights).
+func interpPower3(dst []float64, first bool, reA, imA, reB, imB, reC, imC []float64, idx, wrow []int32) {
+	wts := interpTable
+	wrow = wrow[:len(dst)]
+	idx = idx[:len(dst)]
+	for i := range dst {
+		j := int(idx[i])
+		o := int(wrow[i])
+		w := wts[o : o+interpTaps : o+interpTaps]
+		w0, w1, w2, w3, w4, w5, w6, w7 := w[0], w[1], w[2], w[3], w[4], w[5], w[6], w[7]
+		x := reA[j : j+interpTaps : j+interpTaps]
+		y := imA[j : j+interpTaps : j+interpTaps]
+		r := ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q := ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pa := r*r + q*q
+		x = reB[j : j+interpTaps : j+interpTaps]
+		y = imB[j : j+interpTaps : j+interpTaps]
+		r = ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q = ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pb := r*r + q*q
+		x = reC[j : j+interpTaps : j+interpTaps]
+		y = imC[j : j+interpTaps : j+interpTaps]
+		r = ((w0*x[0] + w1*x[1]) + (w2*x[2] + w3*x[3])) + ((w4*x[4] + w5*x[5]) + (w6*x[6] + w7*x[7]))
+		q = ((w0*y[0] + w1*y[1]) + (w2*y[2] + w3*y[3])) + ((w4*y[4] + w5*y[5]) + (w6*y[6] + w7*y[7]))
+		pc := r*r + q*q
+		if first {
+			dst[i] = (pa + pb) + pc
+		} else {
+			dst[i] = ((dst[i] + pa) + pb) + pc
+		}
+	}
+}
+
 // FillGains writes len(dst) consecutive combined power gains
 // g = Σ_l |h_l|² (ideal maximal-ratio / RAKE combining, unit mean); successive
 // calls continue the same process. It allocates nothing.
-func (c *Channel) FillGains(dst []float64) {
+func (c *Channel) FillGains(dst []float64) { c.FillGainsShared(dst, nil) }
+
+// FillGainsShared is FillGains taking interpolation plans from pc (nil:
+// none) where another channel with the same step already made them; the
+// gains are bit for bit those of FillGains.
+func (c *Channel) FillGainsShared(dst []float64, pc *PlanCache) {
 	if c.hist > 0 {
 		for len(dst) > 0 {
-			n := c.plan(len(dst))
-			for l := 0; l < c.nt; l++ {
-				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
+			n, idx, wrow, avx := c.planShared(len(dst), pc)
+			if avx {
+				l := 0
+				for stride := c.hist + c.blk; l+3 <= c.nt; l += 3 {
+					interpPower3AVX(dst[:n], l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, idx, wrow)
+				}
+				for ; l < c.nt; l++ {
+					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
+				}
+				dst = dst[n:]
+				continue
+			}
+			l := 0
+			for ; l+3 <= c.nt; l += 3 {
+				interpPower3(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], idx, wrow)
+			}
+			for ; l < c.nt; l++ {
+				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
 			}
 			dst = dst[n:]
 		}

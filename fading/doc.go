@@ -49,6 +49,13 @@
 // Bad input never panics: constructors and validators return a *ParamError
 // naming the parameter (Go field path) and the rule.
 //
+// On amd64 with AVX the interpolator and the sums of oscillators run in
+// assembly (interp_amd64.s). It does the Go code's operations in the same
+// order, without fused multiply-adds, so the samples are the same bits on
+// every machine (TestAssemblyMatchesGo); elsewhere the Go code runs. A
+// PlanCache (FillGainsShared) lets channels with the same Doppler share
+// their interpolation plans, with the same samples as FillGains.
+//
 // The package is pure Go: it imports only the standard library and gonum,
 // never grpc or generated protobuf code.
 package fading

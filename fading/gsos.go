@@ -121,17 +121,7 @@ func (s *gsosSource) eval(set *gsosSet, off int, dst []float64, k0 int, g float6
 		a[n] = g * (set.a[i]*cs + set.b[i]*sn)
 		p[n] = g * (set.a[i]*cp + set.b[i]*sp)
 	}
-	c := set.coef[off : off+m : off+m]
-	n := 0
-	first := true
-	for ; n+4 <= m; n += 4 {
-		osc4(dst, first, c[n], c[n+1], c[n+2], c[n+3], a[n], a[n+1], a[n+2], a[n+3], p[n], p[n+1], p[n+2], p[n+3])
-		first = false
-	}
-	for ; n < m; n++ {
-		osc1(dst, first, c[n], a[n], p[n])
-		first = false
-	}
+	oscSum(dst, set.coef[off:off+m:off+m], a, p)
 }
 
 func (s *gsosSource) next(scale []float64, re, im [][]float64) {

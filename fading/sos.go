@@ -84,15 +84,29 @@ func (s *sosSource) fillBank(b *oscBank, dst []float64, k0 int64, g float64) {
 		a[n] = g * cs
 		p[n] = g * (cs*b.cosD[n] + sn*b.sinD[n]) // cos(θ−Δ)
 	}
+	oscSum(dst, b.coef[:m], a, p)
+}
+
+// oscSum writes Σ_n of the cosine recursions x_{k+1} = c_n x_k − x_{k−1}
+// (current values a, previous p) for len(dst) samples to dst: groups of
+// sixteen in assembly where available, then groups of four (osc4) and
+// single ones (osc1), each group added in turn.
+func oscSum(dst []float64, c, a, p []float64) {
+	m := len(c)
 	n := 0
 	first := true
+	for ; n+16 <= m; n += 16 {
+		if !osc16(dst, first, c[n:n+16], a[n:n+16], p[n:n+16]) {
+			break
+		}
+		first = false
+	}
 	for ; n+4 <= m; n += 4 {
-		osc4(dst, first, b.coef[n], b.coef[n+1], b.coef[n+2], b.coef[n+3],
-			a[n], a[n+1], a[n+2], a[n+3], p[n], p[n+1], p[n+2], p[n+3])
+		osc4(dst, first, c[n], c[n+1], c[n+2], c[n+3], a[n], a[n+1], a[n+2], a[n+3], p[n], p[n+1], p[n+2], p[n+3])
 		first = false
 	}
 	for ; n < m; n++ {
-		osc1(dst, first, b.coef[n], a[n], p[n])
+		osc1(dst, first, c[n], a[n], p[n])
 		first = false
 	}
 }

@@ -62,8 +62,10 @@ func (p *genPool) err() error {
 	return nil
 }
 
-// runTask runs one generation task, recovering a panic into the pool.
-func (p *genPool) runTask(t genTask) {
+// runTask runs one generation task, recovering a panic into the pool; pc
+// is the worker's interpolation-plan cache (users of a task advance in
+// step, so those with the same Doppler share plans).
+func (p *genPool) runTask(t genTask, pc *fading.PlanCache) {
 	defer t.buf.wg.Done()
 	defer func() {
 		if v := recover(); v != nil {
@@ -74,7 +76,7 @@ func (p *genPool) runTask(t genTask) {
 		return
 	}
 	for u := t.u0; u < t.u1; u++ {
-		t.rp.genUser(t.buf, u)
+		t.rp.genUser(t.buf, u, pc)
 	}
 }
 
@@ -84,23 +86,46 @@ func newGenPool(workers int) *genPool {
 		p.wg.Add(1)
 		go func() {
 			defer p.wg.Done()
+			pc := new(fading.PlanCache)
 			for t := range p.tasks {
-				p.runTask(t)
+				p.runTask(t, pc)
 			}
 		}()
 	}
 	return p
 }
 
+// help runs queued generation tasks on the calling goroutine until none is
+// queued: a replication waiting for its next block works instead of
+// sleeping (any goroutine may run any task; a user's channel still has one
+// task at a time, and the samples do not depend on who runs it).
+func (p *genPool) help(pc *fading.PlanCache) {
+	for {
+		select {
+		case t, ok := <-p.tasks:
+			if !ok {
+				return
+			}
+			p.runTask(t, pc)
+		default:
+			return
+		}
+	}
+}
+
 func (p *genPool) close() { close(p.tasks); p.wg.Wait() }
 
 // genUser fills user u's part of buf for the block starting at buf.t0.
-func (rp *replication) genUser(buf *genBuf, u int) {
+func (rp *replication) genUser(buf *genBuf, u int, pc *fading.PlanCache) {
 	ug := &rp.gen[u]
 	n := buf.len
 	off := u * rp.rs
 	g := buf.gain[off : off+n]
-	ug.src.FillGains(g)
+	if ch, ok := ug.src.(*fading.Channel); ok {
+		ch.FillGainsShared(g, pc)
+	} else {
+		ug.src.FillGains(g)
+	}
 	if ug.shadow != nil {
 		sh := ug.shDB[:n]
 		ug.shadow.FillDB(sh)

@@ -60,13 +60,14 @@ func (l *histLayout) size() int { return l.nb + 2 }
 
 // index returns the bin of x in [0, nb+1].
 func (l *histLayout) index(x float64) int {
-	k := int(math.Float64bits(x)>>l.shift) - l.base1
-	if k < 0 {
-		k = 0
-	} else if k > l.nb {
-		k = l.nb + 1
-	}
-	return k
+	return binIndex(x, l.shift, l.base1, l.nb)
+}
+
+// binIndex is index with the layout's fields passed in (hot loops keep
+// them in registers): branch-free, shift < 64.
+func binIndex(x float64, shift uint, base1, nb int) int {
+	k := int(math.Float64bits(x)>>(shift&63)) - base1
+	return min(max(k, 0), nb+1)
 }
 
 // limitDB sets the physical limits of the quantity (e.g. a transmit

@@ -279,19 +279,26 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 		sir[u] = s
 		acc[u] += s
 	}
+	// The outage and at-max counts are added branch-free (conditional
+	// moves): both conditions flip at random from slot to slot.
+	sShift, sBase, sNb := sl.shift, sl.base1, sl.nb
+	pShift, pBase, pNb := pl.shift, pl.base1, pl.nb
 	for u, s := range sir {
 		ratio := s * inv[u]
-		k := sl.index(ratio)
-		sB[u*ss+k]++
+		sB[u*ss+binIndex(ratio, sShift, sBase, sNb)]++
+		var o int64
 		if ratio < marg {
-			bOut[u]++
+			o = 1
 		}
+		bOut[u] += o
 	}
 	for u, pu := range p {
-		pB[u*ps+pl.index(pu)]++
+		pB[u*ps+binIndex(pu, pShift, pBase, pNb)]++
+		var m int64
 		if pu >= pmax {
-			bMax[u]++
+			m = 1
 		}
+		bMax[u] += m
 		bPsum[u] += pu
 		bCnt[u]++
 		cnt[u]++

@@ -58,7 +58,7 @@ func TestPeerSideBySide(t *testing.T) {
 		bestOurs = max(bestOurs, ours)
 		t.Logf("round %d: peer %.4g user-slots/s, fadeloop %.4g user-slots/s, ratio %.2f", r, peer["user-slots/s"], ours, ours/peer["user-slots/s"])
 	}
-	t.Logf("best of %d: peer %.4g, fadeloop %.4g user-slots/s: ratio %.2f (target >= 5)", rounds, bestPeer, bestOurs, bestOurs/bestPeer)
+	t.Logf("best of %d: peer %.4g, fadeloop %.4g user-slots/s: ratio %.2f (target >= 10)", rounds, bestPeer, bestOurs, bestOurs/bestPeer)
 	// For information: the same scenario with fading's default generator
 	// (fewer sinusoids; its figures differ slightly from the peer's model).
 	def := CanonicalScenario()

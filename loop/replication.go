@@ -21,6 +21,7 @@ type replication struct {
 	rs   int // row stride of the generated buffers: blk padded so rows do not alias in the caches
 	gen  []userGen
 	bufs [2]genBuf
+	pc   fading.PlanCache // interpolation plans of the tasks this replication's goroutine runs (genPool.help)
 
 	bank *bank
 	rx   []float64
@@ -169,6 +170,7 @@ func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*repli
 func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult, error) {
 	blk := int64(rp.blk)
 	rp.schedule(&rp.bufs[0], 0)
+	rp.pool.help(&rp.pc)
 	rp.bufs[0].wg.Wait()
 	err := rp.pool.err()
 	for b := 0; err == nil; b++ {
@@ -183,6 +185,7 @@ func (rp *replication) run(ctx context.Context, done *atomic.Int64) (*repResult,
 		}
 		rp.runBlock(cur)
 		done.Add(int64(rp.n) * int64(cur.len))
+		rp.pool.help(&rp.pc)
 		nxt.wg.Wait()
 		err = rp.pool.err()
 	}

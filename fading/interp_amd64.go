@@ -1,0 +1,57 @@
+package fading
+
+// interpTapPowerAVX is interpTapPower in AVX assembly (interp_amd64.s), the
+// same operations in the same order, so the same bits. The caller checks
+// the index ranges (interpPowerFast).
+//
+//go:noescape
+func interpTapPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int32, wts *float64)
+
+// interpPower3AVX is interpPower3 in AVX assembly for three taps whose
+// rows lie stride elements apart in re and im (tap t at re[t*stride:]):
+// the same operations in the same order, so the same bits.
+//
+//go:noescape
+func interpPower3AVXAsm(dst []float64, first bool, re, im *float64, stride int, idx, wrow []int32, wts *float64)
+
+// interpPower3AVX runs interpPower3AVXAsm on three tap rows of length
+// stride in re and im (len 3·stride); the plan was checked by
+// interpIndexOK against stride.
+func interpPower3AVX(dst []float64, first bool, re, im []float64, stride int, idx, wrow []int32) {
+	if len(re) != 3*stride || len(im) != 3*stride || len(idx) < len(dst) || len(wrow) < len(dst) {
+		panic("fading: interpPower3AVX: bad buffer sizes")
+	}
+	interpPower3AVXAsm(dst, first, &re[0], &im[0], stride*8, idx, wrow, &interpTable[0])
+}
+
+// cpuHasAVX reports whether the CPU and the OS support AVX.
+func cpuHasAVX() bool
+
+// useAVX selects the assembly interpolator (tests switch it off to compare).
+var useAVX = cpuHasAVX()
+
+// interpPowerAVX runs interpTapPowerAVX when the CPU has AVX and reports
+// whether it did.
+func interpPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int32) bool {
+	if !useAVX {
+		return false
+	}
+	interpTapPowerAVX(dst, first, re, im, idx, wrow, &interpTable[0])
+	return true
+}
+
+// osc16AVX runs sixteen oscillators of osc4 (four calls' worth) in AVX
+// assembly: the same operations in the same order, so the same bits.
+//
+//go:noescape
+func osc16AVX(dst []float64, first bool, c, a, b *float64)
+
+// osc16 runs osc16AVX on c[:16], a[:16], b[:16] when the CPU has AVX and
+// len(dst) is even, and reports whether it did.
+func osc16(dst []float64, first bool, c, a, b []float64) bool {
+	if !useAVX || len(dst)%2 != 0 || len(c) < 16 || len(a) < 16 || len(b) < 16 {
+		return false
+	}
+	osc16AVX(dst, first, &c[0], &a[0], &b[0])
+	return true
+}
