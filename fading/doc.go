@@ -52,7 +52,8 @@
 // On amd64 with AVX the interpolator and the sums of oscillators run in
 // assembly (interp_amd64.s). It does the Go code's operations in the same
 // order, without fused multiply-adds, so the samples are the same bits on
-// every machine (TestAssemblyMatchesGo); elsewhere the Go code runs. A
+// every machine (TestAssemblyMatchesGo); elsewhere, and with the build tag
+// purego (go build -tags purego: no assembly at all), the Go code runs. A
 // PlanCache (FillGainsShared) lets channels with the same Doppler share
 // their interpolation plans, with the same samples as FillGains.
 //

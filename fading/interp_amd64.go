@@ -1,3 +1,5 @@
+//go:build amd64 && !purego
+
 package fading
 
 // interpTapPowerAVX is interpTapPower in AVX assembly (interp_amd64.s), the

@@ -1,3 +1,5 @@
+//go:build amd64 && !purego
+
 #include "textflag.h"
 
 // func interpTapPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int32, wts *float64)

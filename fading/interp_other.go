@@ -1,8 +1,9 @@
-//go:build !amd64
+//go:build !amd64 || purego
 
 package fading
 
-// useAVX is false off amd64: the Go interpolator runs.
+// useAVX is false off amd64 and with the purego build tag: the Go
+// interpolator runs.
 var useAVX = false
 
 // interpPowerAVX reports false: no assembly interpolator off amd64.
