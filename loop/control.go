@@ -442,9 +442,13 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) ControlDecisi
 	if !fin(measuredSIRdB) {
 		measuredSIRdB = -100
 	}
-	m := dbToLin(measuredSIRdB)
+	var m float64
 	if c.sigmaLn > 0 {
-		m *= math.Exp(c.sigmaLn * c.measRand.NormFloat64())
+		// 10^(x/10)·e^(σ·N) as one exponential (equal to the product up
+		// to rounding in the last place).
+		m = math.Exp(measuredSIRdB*(math.Ln10/10) + c.sigmaLn*c.measRand.NormFloat64())
+	} else {
+		m = dbToLin(measuredSIRdB)
 	}
 	c.meas[0] = m
 	var off []uint8
