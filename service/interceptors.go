@@ -220,6 +220,16 @@ func newLenientCodec() lenientCodec {
 }
 
 func (c lenientCodec) Unmarshal(data mem.BufferSlice, v any) error {
+	if in, ok := v.(*slotInbox); ok {
+		// Lockstep slot messages: decoded into reused buffers.
+		buf := data.MaterializeToBuffer(mem.DefaultBufferPool())
+		err := in.decode(buf.ReadOnlyData())
+		buf.Free()
+		if err != nil {
+			decodeErrors.Store(v, err)
+		}
+		return nil
+	}
 	if err := c.CodecV2.Unmarshal(data, v); err != nil {
 		decodeErrors.Store(v, err)
 	}

@@ -385,15 +385,18 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 	ci.cost.Store(int64(len(sess.ctls)))
 	// The idle timer runs while the stream waits for the client: in Recv
 	// for its next slot, and in Send when it does not read the replies.
+	in := newSlotInbox()
 	for {
 		idle.Reset(idleTimeout)
-		req, err := stream.Recv()
+		in.prepare()
+		err := stream.RecvMsg(in)
 		if errors.Is(err, io.EOF) {
 			return nil
 		}
 		if err != nil {
 			return statusFromError(ctx, err)
 		}
+		req := in.message()
 		slot := req.GetSlot()
 		if slot == nil {
 			if req.GetConfig() != nil {
