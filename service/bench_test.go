@@ -10,6 +10,7 @@ import (
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/test/bufconn"
 
 	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -110,7 +111,7 @@ func newLockstep64Bench(st grpc.ClientStream) *lockstep64Bench {
 }
 
 // roundTrip sends the next slot and receives its reply.
-func (lb *lockstep64Bench) roundTrip(b *testing.B) {
+func (lb *lockstep64Bench) roundTrip(b testing.TB) {
 	n := lb.n
 	lb.slot.Slot = n
 	for u := range lb.slot.SirDb {
@@ -133,7 +134,7 @@ func (lb *lockstep64Bench) roundTrip(b *testing.B) {
 }
 
 // startLockstep64 opens a Lockstep stream on env and configures 64 users.
-func startLockstep64(b *testing.B, env *testEnv) *lockstep64Bench {
+func startLockstep64(b testing.TB, env *testEnv) *lockstep64Bench {
 	st, err := env.loop.Lockstep(context.Background())
 	if err != nil {
 		b.Fatal(err)
@@ -194,26 +195,38 @@ var echoDesc = grpc.ServiceDesc{
 	}},
 }
 
-// startEcho64 serves echoDesc on a loopback listener and opens its stream.
-func startEcho64(b *testing.B) *lockstep64Bench {
+// startEcho64 serves echoDesc over transport tr and opens its stream.
+func startEcho64(b testing.TB, tr transport) *lockstep64Bench {
 	cfg, err := Config{}.withDefaults()
 	if err != nil {
 		b.Fatal(err)
 	}
 	srv := grpc.NewServer(transportOptions(cfg)...)
 	srv.RegisterService(&echoDesc, nil)
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		b.Fatal(err)
+	// The dial options of startEnv.
+	opts := []grpc.DialOption{
+		grpc.WithDefaultCallOptions(grpc.MaxCallRecvMsgSize(64 << 20)),
+		grpc.WithInitialWindowSize(4 << 20),
+		grpc.WithInitialConnWindowSize(8 << 20),
+		grpc.WithTransportCredentials(insecure.NewCredentials()),
+	}
+	var lis net.Listener
+	target := "passthrough:///bufnet"
+	if tr == viaBufconn {
+		bl := bufconn.Listen(4 << 20)
+		lis = bl
+		opts = append(opts, grpc.WithContextDialer(func(ctx context.Context, _ string) (net.Conn, error) {
+			return bl.DialContext(ctx)
+		}))
+	} else {
+		if lis, err = net.Listen("tcp", "127.0.0.1:0"); err != nil {
+			b.Fatal(err)
+		}
+		target = lis.Addr().String()
 	}
 	go srv.Serve(lis)
 	b.Cleanup(srv.Stop)
-	// The dial options of startEnv.
-	conn, err := grpc.NewClient(lis.Addr().String(),
-		grpc.WithDefaultCallOptions(grpc.MaxCallRecvMsgSize(64<<20)),
-		grpc.WithInitialWindowSize(4<<20),
-		grpc.WithInitialConnWindowSize(8<<20),
-		grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := grpc.NewClient(target, opts...)
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -227,7 +240,7 @@ func startEcho64(b *testing.B) *lockstep64Bench {
 }
 
 func BenchmarkLockstep64EchoBaseline(b *testing.B) {
-	lb := startEcho64(b)
+	lb := startEcho64(b, viaLoopback)
 	b.ReportAllocs()
 	b.ResetTimer()
 	for b.Loop() {
@@ -242,7 +255,7 @@ func BenchmarkLockstep64EchoBaseline(b *testing.B) {
 // Lockstep's in percent of the echo's (target >= 90).
 func BenchmarkLockstep64VsEcho(b *testing.B) {
 	ls := startLockstep64(b, startEnv(b, viaLoopback, Config{}))
-	echo := startEcho64(b)
+	echo := startEcho64(b, viaLoopback)
 	const batch = 100
 	var tl, te time.Duration
 	b.ReportAllocs()
