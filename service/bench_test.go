@@ -11,6 +11,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/grpc/test/bufconn"
+	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -110,9 +111,8 @@ func newLockstep64Bench(st grpc.ClientStream) *lockstep64Bench {
 	return lb
 }
 
-// roundTrip sends the next slot and receives its reply.
-func (lb *lockstep64Bench) roundTrip(b testing.TB) {
-	n := lb.n
+// fill sets the request to slot n's.
+func (lb *lockstep64Bench) fill(n int64) {
 	lb.slot.Slot = n
 	for u := range lb.slot.SirDb {
 		lb.slot.SirDb[u] = 5 + float64((n+int64(u))%7) - 3
@@ -121,6 +121,12 @@ func (lb *lockstep64Bench) roundTrip(b testing.TB) {
 	if n%15 == 14 {
 		lb.slot.Blocks = lb.blocks
 	}
+}
+
+// roundTrip sends the next slot and receives its reply.
+func (lb *lockstep64Bench) roundTrip(b testing.TB) {
+	n := lb.n
+	lb.fill(n)
 	if err := lb.st.SendMsg(lb.req); err != nil {
 		b.Fatal(err)
 	}
@@ -276,4 +282,50 @@ func BenchmarkLockstep64VsEcho(b *testing.B) {
 	b.ReportMetric(rl, "lockstep-round-trips/s")
 	b.ReportMetric(re, "echo-round-trips/s")
 	b.ReportMetric(100*rl/re, "lockstep-%-of-echo")
+}
+
+// BenchmarkLockstepSlotCore is the handler's per-slot work without the
+// transport: decoding a 64-user slot message into the stream's inbox,
+// checkSlot and step (a block result for every user every 15th slot, as
+// in BenchmarkLockstep64).
+func BenchmarkLockstepSlotCore(b *testing.B) {
+	srv, err := NewServer(Config{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	cfg := &pb.LockstepConfig{Seed: 1, Receiver: &pb.Receiver{SirEstimationErrorDb: 1}}
+	for range 64 {
+		cfg.Users = append(cfg.Users, lockstepUser(1, 1))
+	}
+	sess, vs := srv.newLockstepSession(&pb.LockstepRequest{Message: &pb.LockstepRequest_Config{Config: cfg}})
+	if len(vs) > 0 {
+		b.Fatal(vs)
+	}
+	lb := newLockstep64Bench(nil)
+	const period = 15 * 7 // block and SIR patterns repeat
+	var msgs [period][]byte
+	in := newSlotInbox()
+	b.ReportAllocs()
+	for b.Loop() {
+		k := sess.next % period
+		if msgs[k] == nil {
+			lb.fill(sess.next)
+			m, err := proto.Marshal(lb.req)
+			if err != nil {
+				b.Fatal(err)
+			}
+			msgs[k] = m
+		}
+		m := msgs[k]
+		in.prepare()
+		if err := in.decode(m); err != nil {
+			b.Fatal(err)
+		}
+		slot := in.message().GetSlot()
+		slot.Slot = sess.next // the cached message's slot index is an earlier one
+		if vs := srv.checkSlot(sess, slot); len(vs) > 0 {
+			b.Fatal(vs)
+		}
+		sess.step(slot)
+	}
 }
