@@ -116,7 +116,7 @@ func NewServer(cfg Config) (*Server, error) {
 	}
 	watchers := &watchLimit{limit: int64(cfg.MaxHealthWatchers), retry: cfg.RetryAfter}
 	stream := []grpc.StreamServerInterceptor{
-		s.metrics.grpc.StreamServerInterceptor(),
+		callMetricsOnly(s.metrics.grpc.StreamServerInterceptor()),
 		loggingStream(cfg.Logger, cfg.MaxCallDuration, cfg.abortGrace),
 		watchers.stream,
 	}
