@@ -1,10 +1,19 @@
 package service
 
 import (
+	"context"
+	"errors"
+	"io"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/encoding"
+	protocodec "google.golang.org/grpc/encoding/proto"
+	"google.golang.org/grpc/mem"
 	"google.golang.org/protobuf/encoding/protowire"
 	"google.golang.org/protobuf/proto"
 
@@ -130,4 +139,63 @@ func TestSlotInboxMatchesProto(t *testing.T) {
 	if fast == 0 || failed == 0 {
 		t.Errorf("corruptions: %d decoded on the wire path, %d failed; want some of each", fast, failed)
 	}
+}
+
+// TestSlotInboxWithOtherCodecs: a slotInbox is a proto.Message, so a codec
+// other than lenientCodec (e.g. gRPC's own proto codec, should a front end
+// bring its own) fills the embedded request and message() returns it.
+func TestSlotInboxWithOtherCodecs(t *testing.T) {
+	want := &pb.LockstepRequest{Message: &pb.LockstepRequest_Slot{Slot: &pb.LockstepSlot{Slot: 3, SirDb: []float64{1, 2}, LeaveUsers: []int32{1}}}}
+	b, err := proto.Marshal(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	in := newSlotInbox()
+	in.prepare()
+	if err := encoding.GetCodecV2(protocodec.Name).Unmarshal(mem.BufferSlice{mem.SliceBuffer(b)}, in); err != nil {
+		t.Fatal(err)
+	}
+	if in.fast || !proto.Equal(in.message(), want) {
+		t.Errorf("gRPC's proto codec: wire path %v, message %v; want %v from the embedded request", in.fast, in.message(), want)
+	}
+	// And lenientCodec takes the wire path.
+	in.prepare()
+	if err := newLenientCodec().Unmarshal(mem.BufferSlice{mem.SliceBuffer(b)}, in); err != nil || takeDecodeError(in) != nil {
+		t.Fatal(err)
+	}
+	if !in.fast || !proto.Equal(in.message(), want) {
+		t.Errorf("lenientCodec: wire path %v, message %v; want %v", in.fast, in.message(), want)
+	}
+}
+
+// TestLockstepUndecodableSlot: undecodable bytes after the configuration
+// (a slot field whose length runs past the message, protobuf encoding
+// guide "Length-Delimited Records") end the stream with INVALID_ARGUMENT,
+// and no decode error is left behind.
+func TestLockstepUndecodableSlot(t *testing.T) {
+	env := startEnv(t, viaBufconn, Config{})
+	desc := &grpc.StreamDesc{StreamName: "Lockstep", ServerStreams: true, ClientStreams: true}
+	cs, err := env.conn.NewStream(context.Background(), desc, pb.LoopService_Lockstep_FullMethodName, grpc.ForceCodec(rawCodec{}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg, err := proto.Marshal(lockstepConfig(1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range [][]byte{cfg, {0x12, 0x64, 0x08}} {
+		if err := cs.SendMsg(m); err != nil && !errors.Is(err, io.EOF) {
+			t.Fatal(err)
+		}
+	}
+	var out []byte
+	err = cs.RecvMsg(&out)
+	if st := wantCode(t, err, codes.InvalidArgument); st != nil && !strings.Contains(st.Message(), "not a valid protobuf") {
+		t.Errorf("status message %q", st.Message())
+	}
+	eventually(t, "the stream logged", func() bool { return len(logLines(t, env, "/Lockstep")) == 1 })
+	decodeErrors.Range(func(k, _ any) bool {
+		t.Errorf("decode error of %T left behind", k)
+		return true
+	})
 }
