@@ -381,6 +381,8 @@ const decisionGuard = 1e-9
 // allocates nothing.
 type Controller struct {
 	b        *bank
+	memoP    [2]float64 // the last two transmit powers (mW) converted to dBm, newest first
+	memoDBm  [2]float64
 	meas     [1]float64
 	off      [1]uint8
 	sigmaLn  float64 // estimation error σ in natural-log units
@@ -422,6 +424,7 @@ func NewController(il InnerLoop, ol OuterLoop, rcv Receiver, pathLossDB float64,
 		errP:     il.CommandErrorProb,
 		measRand: fading.NewStream(seed, user, 0, streamMeasErr),
 		cmdRand:  fading.NewStream(seed, user, 0, streamCmdErr),
+		memoP:    [2]float64{math.NaN(), math.NaN()},
 	}
 	return ctl, nil
 }
@@ -439,7 +442,22 @@ func initialPowerMW(il InnerLoop, ol OuterLoop, rcv Receiver, pathLossDB float64
 }
 
 // PowerDBm is the transmit power of the coming slot in dBm.
-func (c *Controller) PowerDBm() float64 { return linToDB(c.b.p[0]) }
+func (c *Controller) PowerDBm() float64 {
+	// linToDB remembered for the last two powers: in the limit cycle of
+	// a fixed step, at a power limit and while inactive the power returns
+	// exactly to a recent value.
+	p := c.b.p[0]
+	switch p {
+	case c.memoP[0]:
+		return c.memoDBm[0]
+	case c.memoP[1]:
+		return c.memoDBm[1]
+	}
+	db := linToDB(p)
+	c.memoP[1], c.memoDBm[1] = c.memoP[0], c.memoDBm[0]
+	c.memoP[0], c.memoDBm[0] = p, db
+	return db
+}
 
 // TargetDB is the current SIR target in dB.
 func (c *Controller) TargetDB() float64 { return c.b.targetDB[0] }
@@ -501,7 +519,7 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) ControlDecisi
 		b.decide(c.meas[:], off, nil)
 	}
 	b.apply()
-	return ControlDecision{CommandDB: b.commandDB(0), PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{CommandDB: b.commandDB(0), PowerDBm: c.PowerDBm(), TargetDB: b.targetDB[0]}
 }
 
 // StepInactive processes one slot in which the user does not transmit
@@ -518,7 +536,7 @@ func (c *Controller) StepInactive() ControlDecision {
 		b.decide(c.meas[:], nil, c.off[:])
 		b.apply()
 	}
-	return ControlDecision{PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{PowerDBm: c.PowerDBm(), TargetDB: b.targetDB[0]}
 }
 
 // String describes the controller's settings briefly.
