@@ -197,7 +197,6 @@ func (b *bank) apply() {
 // It advances the delay line by one slot.
 func (b *bank) decide(meas []float64, errOff []uint8, active []uint8) {
 	n := b.n
-	row := b.ring[b.pos*n : b.pos*n+n]
 	if b.mode == InnerModeClosedLoop {
 		meas = meas[:n]
 		if b.avgK > 1 {
@@ -226,7 +225,18 @@ func (b *bank) decide(meas []float64, errOff []uint8, active []uint8) {
 				dec[u] = int8(math.Float64bits(m*inv[u]-1) >> 63)
 			}
 		}
-		copy(row, dec)
+	}
+	b.send(errOff, active)
+}
+
+// send puts the commands of b.decided, as received, into the delay line
+// (CLOSED_LOOP; errOff and active as in decide) and advances it by one
+// slot.
+func (b *bank) send(errOff []uint8, active []uint8) {
+	n := b.n
+	if b.mode == InnerModeClosedLoop {
+		row := b.ring[b.pos*n : b.pos*n+n]
+		copy(row, b.decided[:n])
 		if errOff != nil {
 			nl := uint8(len(b.levelDB))
 			for u, k := range errOff[:n] {
@@ -352,6 +362,12 @@ type ControlDecision struct {
 	TargetDB  float64 // SIR target after the slot's outer-loop update, dB
 }
 
+// decisionGuard bounds |ln(m/γ)| below which Controller.Step decides a
+// one-bit command from the linear estimate m/γ − 1, as the bank does: the
+// two forms carry rounding errors of a few 1e−15 for SIRs and targets
+// within ±100 dB, far below it.
+const decisionGuard = 1e-9
+
 // Controller is the inner and outer loop of one user, for co-simulation
 // (the Lockstep RPC): an external simulator reports each slot's measured SIR
 // and any block CRC result, and the Controller answers with the command,
@@ -365,6 +381,8 @@ type ControlDecision struct {
 // allocates nothing.
 type Controller struct {
 	b        *bank
+	memoP    [2]float64 // the last two transmit powers (mW) converted to dBm, newest first
+	memoDBm  [2]float64
 	meas     [1]float64
 	off      [1]uint8
 	sigmaLn  float64 // estimation error σ in natural-log units
@@ -406,6 +424,7 @@ func NewController(il InnerLoop, ol OuterLoop, rcv Receiver, pathLossDB float64,
 		errP:     il.CommandErrorProb,
 		measRand: fading.NewStream(seed, user, 0, streamMeasErr),
 		cmdRand:  fading.NewStream(seed, user, 0, streamCmdErr),
+		memoP:    [2]float64{math.NaN(), math.NaN()},
 	}
 	return ctl, nil
 }
@@ -423,7 +442,22 @@ func initialPowerMW(il InnerLoop, ol OuterLoop, rcv Receiver, pathLossDB float64
 }
 
 // PowerDBm is the transmit power of the coming slot in dBm.
-func (c *Controller) PowerDBm() float64 { return linToDB(c.b.p[0]) }
+func (c *Controller) PowerDBm() float64 {
+	// linToDB remembered for the last two powers: in the limit cycle of
+	// a fixed step, at a power limit and while inactive the power returns
+	// exactly to a recent value.
+	p := c.b.p[0]
+	switch p {
+	case c.memoP[0]:
+		return c.memoDBm[0]
+	case c.memoP[1]:
+		return c.memoDBm[1]
+	}
+	db := linToDB(p)
+	c.memoP[1], c.memoDBm[1] = c.memoP[0], c.memoDBm[0]
+	c.memoP[0], c.memoDBm[0] = p, db
+	return db
+}
 
 // TargetDB is the current SIR target in dB.
 func (c *Controller) TargetDB() float64 { return c.b.targetDB[0] }
@@ -442,11 +476,25 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) ControlDecisi
 	if !fin(measuredSIRdB) {
 		measuredSIRdB = -100
 	}
-	m := dbToLin(measuredSIRdB)
+	var z float64 // estimation error draw
 	if c.sigmaLn > 0 {
-		m *= math.Exp(c.sigmaLn * c.measRand.NormFloat64())
+		z = c.measRand.NormFloat64()
 	}
-	c.meas[0] = m
+	// One-bit decisions without averaging: the sign of ln(m/γ) =
+	// (x − γ_dB)·ln10/10 + σ·z, which is the sign of m/γ − 1 whenever it
+	// is clear of 0 by far more than the rounding of either form; closer to
+	// 0 (and for the other cases) the estimate is formed in linear units
+	// as the bank does. The command is the same either way.
+	fast := b.mode == InnerModeClosedLoop && b.avgK == 1 && b.cmd != CommandMultiLevel
+	if fast {
+		d := (measuredSIRdB-b.targetDB[0])*(math.Ln10/10) + c.sigmaLn*z
+		if fast = math.Abs(d) > decisionGuard; fast {
+			b.decided[0] = 0
+			if d < 0 {
+				b.decided[0] = 1
+			}
+		}
+	}
 	var off []uint8
 	if c.errP > 0 {
 		c.off[0] = 0
@@ -455,14 +503,23 @@ func (c *Controller) Step(measuredSIRdB float64, blockError *bool) ControlDecisi
 		}
 		off = c.off[:]
 	}
-	switch b.mode {
-	case InnerModeIdeal:
+	if !fast {
+		m := dbToLin(measuredSIRdB)
+		if c.sigmaLn > 0 {
+			m *= math.Exp(c.sigmaLn * z)
+		}
+		c.meas[0] = m
+	}
+	switch {
+	case b.mode == InnerModeIdeal:
 		b.invert(c.meas[:])
-	case InnerModeClosedLoop:
+	case fast:
+		b.send(off, nil)
+	case b.mode == InnerModeClosedLoop:
 		b.decide(c.meas[:], off, nil)
 	}
 	b.apply()
-	return ControlDecision{CommandDB: b.commandDB(0), PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{CommandDB: b.commandDB(0), PowerDBm: c.PowerDBm(), TargetDB: b.targetDB[0]}
 }
 
 // StepInactive processes one slot in which the user does not transmit
@@ -479,7 +536,7 @@ func (c *Controller) StepInactive() ControlDecision {
 		b.decide(c.meas[:], nil, c.off[:])
 		b.apply()
 	}
-	return ControlDecision{PowerDBm: linToDB(b.p[0]), TargetDB: b.targetDB[0]}
+	return ControlDecision{PowerDBm: c.PowerDBm(), TargetDB: b.targetDB[0]}
 }
 
 // String describes the controller's settings briefly.

@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"net"
+	"strconv"
 	"strings"
 	"sync"
 	"time"
@@ -186,15 +187,16 @@ func (s *Server) checkSlot(sess *lockstepSession, m *pb.LockstepSlot) []Violatio
 		vs = append(vs, Violation{Field: "slot.slot", Description: fmt.Sprintf(
 			"slots must arrive in order: expected slot %d, got %d", sess.next, m.GetSlot())})
 	}
-	// userIndex checks one index list entry and stamps it in at.
-	userIndex := func(field string, u int32, at []int64, what string) bool {
+	// userIndex checks entry j of an index list (field slot.<list>[j]<sub>)
+	// and stamps it in at. Field names are formatted only for a violation.
+	userIndex := func(list string, j int, sub string, u int32, at []int64) bool {
 		switch {
 		case u < 0 || int(u) >= n:
-			vs = append(vs, Violation{Field: field, Description: fmt.Sprintf(
+			vs = append(vs, Violation{Field: listField(list, j) + sub, Description: fmt.Sprintf(
 				"must be a user index in [0, %d), got %d", n, u)})
 		case at[u] == gen:
-			vs = append(vs, Violation{Field: field, Description: fmt.Sprintf(
-				"user %d is listed more than once in %s", u, what)})
+			vs = append(vs, Violation{Field: listField(list, j) + sub, Description: fmt.Sprintf(
+				"user %d is listed more than once in %s", u, list)})
 		default:
 			at[u] = gen
 			return true
@@ -202,12 +204,11 @@ func (s *Server) checkSlot(sess *lockstepSession, m *pb.LockstepSlot) []Violatio
 		return false
 	}
 	for j, u := range m.GetInactiveUsers() {
-		userIndex(fmt.Sprintf("slot.inactive_users[%d]", j), u, sess.inactAt, "inactive_users")
+		userIndex("inactive_users", j, "", u, sess.inactAt)
 	}
 	for j, u := range m.GetLeaveUsers() {
-		f := fmt.Sprintf("slot.leave_users[%d]", j)
-		if userIndex(f, u, sess.leaveAt, "leave_users") && sess.left[u] {
-			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d has already left", u)})
+		if userIndex("leave_users", j, "", u, sess.leaveAt) && sess.left[u] {
+			vs = append(vs, Violation{Field: listField("leave_users", j), Description: fmt.Sprintf("user %d has already left", u)})
 		}
 	}
 	sir := m.GetSirDb()
@@ -220,21 +221,20 @@ func (s *Server) checkSlot(sess *lockstepSession, m *pb.LockstepSlot) []Violatio
 			continue // ignored
 		}
 		if !(x >= -100 && x <= 100) {
-			vs = append(vs, Violation{Field: fmt.Sprintf("slot.sir_db[%d]", i), Description: fmt.Sprintf(
+			vs = append(vs, Violation{Field: listField("sir_db", i), Description: fmt.Sprintf(
 				"must be finite and in [-100, 100] dB, got %g", x)})
 		}
 	}
 	for j, b := range m.GetBlocks() {
-		f := fmt.Sprintf("slot.blocks[%d].user", j)
 		u := b.GetUser()
-		if !userIndex(f, u, sess.blockAt, "blocks") {
+		if !userIndex("blocks", j, ".user", u, sess.blockAt) {
 			continue
 		}
 		switch {
 		case sess.left[u]:
-			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d has left; no block result is accepted", u)})
+			vs = append(vs, Violation{Field: listField("blocks", j) + ".user", Description: fmt.Sprintf("user %d has left; no block result is accepted", u)})
 		case sess.inactAt[u] == gen:
-			vs = append(vs, Violation{Field: f, Description: fmt.Sprintf("user %d is inactive in slot %d (inactive_users); no block can end", u, m.GetSlot())})
+			vs = append(vs, Violation{Field: listField("blocks", j) + ".user", Description: fmt.Sprintf("user %d is inactive in slot %d (inactive_users); no block can end", u, m.GetSlot())})
 		}
 	}
 	sess.joining = sess.joining[:0]
@@ -259,6 +259,12 @@ func (s *Server) checkSlot(sess *lockstepSession, m *pb.LockstepSlot) []Violatio
 		}
 	}
 	return vs
+}
+
+// listField is the path of entry j of the slot's repeated field list,
+// e.g. "slot.sir_db[3]".
+func listField(list string, j int) string {
+	return "slot." + list + "[" + strconv.Itoa(j) + "]"
 }
 
 // step runs every controller for one validated slot and fills the response.
@@ -379,15 +385,18 @@ func (l *loopServer) Lockstep(stream pb.LoopService_LockstepServer) error {
 	ci.cost.Store(int64(len(sess.ctls)))
 	// The idle timer runs while the stream waits for the client: in Recv
 	// for its next slot, and in Send when it does not read the replies.
+	in := newSlotInbox()
 	for {
 		idle.Reset(idleTimeout)
-		req, err := stream.Recv()
+		in.prepare()
+		err := stream.RecvMsg(in)
 		if errors.Is(err, io.EOF) {
 			return nil
 		}
 		if err != nil {
 			return statusFromError(ctx, err)
 		}
+		req := in.message()
 		slot := req.GetSlot()
 		if slot == nil {
 			if req.GetConfig() != nil {

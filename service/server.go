@@ -116,7 +116,7 @@ func NewServer(cfg Config) (*Server, error) {
 	}
 	watchers := &watchLimit{limit: int64(cfg.MaxHealthWatchers), retry: cfg.RetryAfter}
 	stream := []grpc.StreamServerInterceptor{
-		s.metrics.grpc.StreamServerInterceptor(),
+		callMetricsOnly(s.metrics.grpc.StreamServerInterceptor()),
 		loggingStream(cfg.Logger, cfg.MaxCallDuration, cfg.abortGrace),
 		watchers.stream,
 	}
@@ -127,31 +127,10 @@ func NewServer(cfg Config) (*Server, error) {
 	}
 	unary = append(unary, recovery.UnaryServerInterceptor(rec))
 	stream = append(stream, recovery.StreamServerInterceptor(rec))
-	opts := []grpc.ServerOption{
+	opts := append([]grpc.ServerOption{
 		grpc.ChainUnaryInterceptor(unary...),
 		grpc.ChainStreamInterceptor(stream...),
-		// Undecodable requests are INVALID_ARGUMENT, not INTERNAL.
-		grpc.ForceServerCodecV2(newLenientCodec()),
-		grpc.MaxConcurrentStreams(uint32(cfg.MaxStreamsPerConnection)),
-		grpc.MaxRecvMsgSize(cfg.MaxRecvMessageBytes),
-		grpc.MaxSendMsgSize(cfg.MaxSendMessageBytes),
-		grpc.KeepaliveEnforcementPolicy(keepalive.EnforcementPolicy{
-			MinTime:             cfg.KeepaliveMinTime,
-			PermitWithoutStream: true,
-		}),
-		grpc.KeepaliveParams(keepalive.ServerParameters{
-			MaxConnectionAge:      cfg.MaxConnectionAge,
-			MaxConnectionAgeGrace: cfg.connectionAgeGrace(),
-			Time:                  2 * time.Minute,
-			Timeout:               20 * time.Second,
-		}),
-		// Larger flow-control windows and buffers for StreamGains' bulk
-		// chunks over fast links.
-		grpc.InitialWindowSize(4 << 20),
-		grpc.InitialConnWindowSize(8 << 20),
-		grpc.WriteBufferSize(256 << 10),
-		grpc.ReadBufferSize(256 << 10),
-	}
+	}, transportOptions(cfg)...)
 	if cfg.TLS != nil {
 		opts = append(opts, grpc.Creds(credentials.NewTLS(cfg.TLS)))
 	}
@@ -272,4 +251,33 @@ func (s *Server) admit(ctx context.Context, what string, cost int64) (release fu
 func (s *Server) reject(vs []Violation) error {
 	s.metrics.rejected.WithLabelValues("invalid").Inc()
 	return invalidArgument(vs)
+}
+
+// transportOptions are the server's codec, message-size, keepalive and
+// flow-control settings (everything but interceptors and credentials);
+// the Lockstep echo benchmark builds its bare stream with the same ones.
+func transportOptions(cfg Config) []grpc.ServerOption {
+	return []grpc.ServerOption{
+		// Undecodable requests are INVALID_ARGUMENT, not INTERNAL.
+		grpc.ForceServerCodecV2(newLenientCodec()),
+		grpc.MaxConcurrentStreams(uint32(cfg.MaxStreamsPerConnection)),
+		grpc.MaxRecvMsgSize(cfg.MaxRecvMessageBytes),
+		grpc.MaxSendMsgSize(cfg.MaxSendMessageBytes),
+		grpc.KeepaliveEnforcementPolicy(keepalive.EnforcementPolicy{
+			MinTime:             cfg.KeepaliveMinTime,
+			PermitWithoutStream: true,
+		}),
+		grpc.KeepaliveParams(keepalive.ServerParameters{
+			MaxConnectionAge:      cfg.MaxConnectionAge,
+			MaxConnectionAgeGrace: cfg.connectionAgeGrace(),
+			Time:                  2 * time.Minute,
+			Timeout:               20 * time.Second,
+		}),
+		// Larger flow-control windows and buffers for StreamGains' bulk
+		// chunks over fast links.
+		grpc.InitialWindowSize(4 << 20),
+		grpc.InitialConnWindowSize(8 << 20),
+		grpc.WriteBufferSize(256 << 10),
+		grpc.ReadBufferSize(256 << 10),
+	}
 }

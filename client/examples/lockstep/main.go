@@ -1,8 +1,10 @@
 // Command lockstep is an end-to-end example of driving fadeloop's
 // power-control controllers from an external system simulator over the
-// Lockstep RPC: a few cells on a line, users moving along it, the
-// simulator's own path loss and link model, fadeloop deciding every user's
-// power slot by slot.
+// Lockstep RPC, with the client package's LockstepSession.StepSlot: a few
+// cells on a line, users moving along it and going silent (inactive), one
+// call ending (leave) and another starting (join), the simulator's own
+// path loss and link model, fadeloop deciding every user's power slot by
+// slot.
 //
 // The simulator owns the radio world: positions, path loss (the macro-cell
 // model of 3GPP TR 25.942 §4.1.1, L = 128.1 + 37.6·log10(d/km) dB), the
@@ -29,8 +31,6 @@ import (
 	"math/rand/v2"
 	"os"
 
-	"google.golang.org/grpc"
-
 	"github.com/fadeloop/fadeloop/client"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
@@ -52,7 +52,7 @@ func main() {
 		os.Exit(1)
 	}
 	defer c.Close()
-	sum, err := Run(context.Background(), c.Conn(), Params{Slots: *slots, Seed: 1})
+	sum, err := Run(context.Background(), c, Params{Slots: *slots, Seed: 1})
 	if err != nil {
 		fmt.Fprintln(os.Stderr, "lockstep:", err)
 		os.Exit(1)
@@ -107,6 +107,10 @@ type Summary struct {
 	MeanTargetDB  float64 // mean SIR target at the end, dB
 	SlotErrors    int     // slot messages the service refused in-stream
 	LastViolation string  // the field it named
+	ChangeSlot    int64   // slot after which one user left and one joined
+	LeftUser      int     // index of the user that left
+	JoinedUser    int     // index the joining user took
+	JoinPowerDBm  float64 // its first transmit power, from the reply to ChangeSlot
 }
 
 // Print writes the summary.
@@ -116,6 +120,8 @@ func (s Summary) Print(w io.Writer) {
 	fmt.Fprintf(w, "SIR error        %.2f dB (mean |SIR - target|, second half)\n", s.SIRErrorDB)
 	fmt.Fprintf(w, "BLER             %.3f over %d blocks (target 0.1)\n", s.BLER, s.Blocks)
 	fmt.Fprintf(w, "mean target      %.2f dB\n", s.MeanTargetDB)
+	fmt.Fprintf(w, "left, joined     user %d left and user %d joined after slot %d (first power %.1f dBm)\n",
+		s.LeftUser, s.JoinedUser, s.ChangeSlot, s.JoinPowerDBm)
 	fmt.Fprintf(w, "refused slots    %d (%s)\n", s.SlotErrors, s.LastViolation)
 	fmt.Fprintln(w, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, or licensed practice")
 }
@@ -137,18 +143,12 @@ func userSettings() *pb.LockstepUser {
 	}
 }
 
-// Run simulates p.Slots slots with fadeloop as the power controller.
-// Twelve users start; user 0 leaves and a new user joins at a third of the
-// run; once, a slot with a non-finite SIR is sent on purpose and refused
-// in-stream, then resent.
-func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary, error) {
+// Run simulates p.Slots slots with fadeloop as the power controller,
+// through the client package's LockstepSession. Twelve users start; user 0
+// leaves and a new user joins at a third of the run; once, a slot with a
+// non-finite SIR is sent on purpose and refused in-stream, then resent.
+func Run(ctx context.Context, c *client.Client, p Params) (Summary, error) {
 	rng := rand.New(rand.NewPCG(p.Seed, 7))
-	ctx, cancel := context.WithCancel(ctx)
-	defer cancel()
-	st, err := pb.NewLoopServiceClient(conn).Lockstep(ctx)
-	if err != nil {
-		return Summary{}, err
-	}
 	cfg := &pb.LockstepConfig{Seed: p.Seed, ReplyOnSlotError: true,
 		Receiver: &pb.Receiver{SirEstimationErrorDb: 1}} // the service adds a 1 dB estimation error
 	var users []*user
@@ -156,9 +156,11 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 		users = append(users, newUser(rng))
 		cfg.Users = append(cfg.Users, userSettings())
 	}
-	if err := st.Send(&pb.LockstepRequest{Message: &pb.LockstepRequest_Config{Config: cfg}}); err != nil {
-		return Summary{}, recvErr(st, err)
+	sess, err := c.Lockstep(ctx, cfg)
+	if err != nil {
+		return Summary{}, err
 	}
+	defer sess.Close()
 	var sum Summary
 	var errAbs float64
 	var nErr, blocks, blockErrs int
@@ -167,7 +169,7 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 	dt := 1.0 / slotRateHz
 	for slot := 0; slot < p.Slots; slot++ {
 		// Move; pick who is silent (DTX) this slot.
-		msg := &pb.LockstepSlot{Slot: int64(slot)}
+		var in client.LockstepSlotInput
 		for i, u := range users {
 			u.x += u.v * dt
 			if u.x < 50 || u.x > 1950 {
@@ -175,7 +177,7 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 			}
 			u.active = !u.gone && rng.Float64() >= dtxProb
 			if !u.active && !u.gone {
-				msg.InactiveUsers = append(msg.InactiveUsers, int32(i))
+				in.Inactive = append(in.Inactive, int32(i))
 			}
 		}
 		// The simulator's radio: SIR of each active user at its best cell.
@@ -195,7 +197,7 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 			s := processingGain * dbmToMW(u.powDBm-pathLossDB(u.x-cellsX[best])) / (dbmToMW(noiseDBm) + interf)
 			sir = append(sir, math.Max(-100, math.Min(100, 10*math.Log10(s))))
 		}
-		msg.SirDb = sir
+		in.SIRdB = sir
 		// Blocks: the CRC outcome from the block's mean SIR, every 15 slots.
 		for i, u := range users {
 			if !u.active {
@@ -205,7 +207,7 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 			u.blkN++
 			if slot%blockSlots == blockSlots-1 {
 				e := rng.Float64() < blockErrorProb(10*math.Log10(u.blkSum/float64(u.blkN)))
-				msg.Blocks = append(msg.Blocks, &pb.BlockResult{User: int32(i), Error: e})
+				in.Blocks = append(in.Blocks, &pb.BlockResult{User: int32(i), Error: e})
 				u.blkSum, u.blkN = 0, 0
 				if slot >= p.Slots/2 {
 					blocks++
@@ -215,30 +217,24 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 				}
 			}
 		}
-		if slot == p.Slots/3 { // a call ends and another starts
-			msg.LeaveUsers = []int32{0}
-			msg.JoinUsers = []*pb.LockstepUser{userSettings()}
+		changing := slot == p.Slots/3
+		if changing { // a call ends and another starts
+			in.Leave = []int32{0}
+			in.Join = []*pb.LockstepUser{userSettings()}
 		}
-		if slot == 10 { // a bad message on purpose: refused, nothing lost
-			bad := &pb.LockstepSlot{Slot: int64(slot), SirDb: append([]float64{math.NaN()}, sir[1:]...)}
-			bad.SirDb[0] = math.NaN()
-			if users[0].active {
-				r, err := exchange(st, bad)
-				if err != nil {
-					return sum, err
-				}
-				if se := r.GetSlotError(); se != nil {
-					sum.SlotErrors++
-					sum.LastViolation = se.GetViolations()[0].GetField()
-				}
+		if slot == 10 && users[0].active { // a bad message on purpose: refused, nothing lost
+			bad := client.LockstepSlotInput{SIRdB: append([]float64{math.NaN()}, sir[1:]...)}
+			_, err := sess.StepSlot(bad)
+			se, ok := client.AsLockstepSlotError(err)
+			if !ok {
+				return sum, fmt.Errorf("slot %d: a non-finite SIR gave %v, want a refused slot", slot, err)
 			}
+			sum.SlotErrors++
+			sum.LastViolation = se.Violations[0].Field
 		}
-		r, err := exchange(st, msg)
+		r, err := sess.StepSlot(in)
 		if err != nil {
-			return sum, err
-		}
-		if se := r.GetSlotError(); se != nil {
-			return sum, fmt.Errorf("slot %d refused: %v", slot, se.GetViolations())
+			return sum, fmt.Errorf("slot %d: %w", slot, err)
 		}
 		target = r.GetTargetDb()
 		if slot >= p.Slots/2 {
@@ -250,21 +246,20 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 			}
 		}
 		// Powers for the next slot.
-		if len(msg.LeaveUsers) > 0 {
+		if changing {
 			users[0].gone = true
 			users = append(users, newUser(rng))
+			sum.ChangeSlot, sum.LeftUser, sum.JoinedUser = int64(slot), 0, len(users)-1
+			sum.JoinPowerDBm = r.GetTxPowerDbm()[len(users)-1]
 		}
 		for i, u := range users {
 			u.powDBm = r.GetTxPowerDbm()[i]
 		}
 	}
-	if err := st.CloseSend(); err != nil {
-		return sum, err
+	if err := sess.Close(); err != nil {
+		return sum, fmt.Errorf("closing: %w", err)
 	}
-	if _, err := st.Recv(); err != io.EOF {
-		return sum, fmt.Errorf("closing: %v", err)
-	}
-	sum.Users, sum.Slots = len(users), p.Slots
+	sum.Users, sum.Slots = sess.Users(), p.Slots
 	sum.SIRErrorDB = errAbs / float64(nErr)
 	sum.Blocks = blocks
 	sum.BLER = float64(blockErrs) / float64(blocks)
@@ -278,22 +273,6 @@ func Run(ctx context.Context, conn grpc.ClientConnInterface, p Params) (Summary,
 	}
 	sum.MeanTargetDB = t / float64(nt)
 	return sum, nil
-}
-
-func exchange(st pb.LoopService_LockstepClient, m *pb.LockstepSlot) (*pb.LockstepResponse, error) {
-	if err := st.Send(&pb.LockstepRequest{Message: &pb.LockstepRequest_Slot{Slot: m}}); err != nil {
-		return nil, recvErr(st, err)
-	}
-	return st.Recv()
-}
-
-// recvErr: a failed Send returns io.EOF; the status comes from Recv.
-func recvErr(st pb.LoopService_LockstepClient, err error) error {
-	if err != io.EOF {
-		return err
-	}
-	_, rerr := st.Recv()
-	return rerr
 }
 
 func bestCell(x float64) int {

@@ -28,7 +28,7 @@ func TestExampleConverges(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer c.Close()
-	sum, err := Run(context.Background(), c.Conn(), Params{Slots: 3000, Seed: 1})
+	sum, err := Run(context.Background(), c, Params{Slots: 3000, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -43,6 +43,9 @@ func TestExampleConverges(t *testing.T) {
 	}
 	if sum.Users != 13 {
 		t.Errorf("%d user indices, want 13 (12 + 1 joined)", sum.Users)
+	}
+	if sum.LeftUser != 0 || sum.JoinedUser != 12 || sum.ChangeSlot != 1000 {
+		t.Errorf("user %d left, user %d joined after slot %d; want 0, 12 after slot 1000", sum.LeftUser, sum.JoinedUser, sum.ChangeSlot)
 	}
 	if sum.SlotErrors != 1 || sum.LastViolation != "slot.sir_db[0]" {
 		t.Errorf("refused slots %d (%q), want 1 naming slot.sir_db[0]", sum.SlotErrors, sum.LastViolation)
