@@ -18,8 +18,9 @@
 //     as they finish (an iter.Seq2), then Summary;
 //   - StreamGains yields chunks of complex tap gains, decoded (DecodeGains);
 //   - CheckChannel runs the channel self-check;
-//   - Lockstep opens a LockstepSession for co-simulation: Step per slot,
-//     Close at the end;
+//   - Lockstep opens a LockstepSession for co-simulation: StepSlot per slot
+//     (SIR, block results, inactive users, joins, leaves; Step for SIR and
+//     blocks only), Close at the end;
 //   - Health asks grpc.health.v1.
 //
 // Errors keep what the server said: an INVALID_ARGUMENT answer is an
