@@ -555,7 +555,7 @@ func (h *simulationServer) Tune(req *pb.TuneRequest, stream pb.SimulationService
 	var rec *tune.Recommendation
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		rec, err = tune.Tune(ctx, treq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		rec, err = tune.Tune(ctx, treq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism, RunReplication: s.cfg.RunReplication})
 		return err
 	})
 	sendErr := prog.close()
@@ -594,7 +594,7 @@ func (h *simulationServer) Capacity(req *pb.CapacityRequest, stream pb.Simulatio
 	var res *tune.CapacityResult
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		res, err = tune.Capacity(ctx, creq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		res, err = tune.Capacity(ctx, creq, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism, RunReplication: s.cfg.RunReplication})
 		return err
 	})
 	sendErr := prog.close()

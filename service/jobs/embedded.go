@@ -27,6 +27,11 @@ func DefaultStoreDir() (string, error) {
 	return filepath.Join(d, "fadeloop", "queue"), nil
 }
 
+// JobStoreDir is the embedded store of job id under root (one store per
+// job, so that different jobs run at the same time in separate processes;
+// only the same job is refused while another process runs it).
+func JobStoreDir(root, id string) string { return filepath.Join(root, id) }
+
 // StartEmbedded starts an embedded server storing its streams under dir
 // (created if missing). Only one process may use a store at a time: a
 // second one gets an error saying the store is in use.

@@ -65,7 +65,17 @@ func (q *Queue) RunWorker(ctx context.Context, o WorkerOptions) error {
 
 func (q *Queue) workLoop(ctx context.Context, o WorkerOptions, slot int) {
 	for ctx.Err() == nil {
-		msg, err := q.cons.Next(jetstream.FetchMaxWait(2 * time.Second))
+		// The fetch ends with ctx, so that a stopping worker (the CLI's
+		// in-process ones at the end of every run) returns at once.
+		fctx, cancel := context.WithTimeout(ctx, 2*time.Second)
+		msg, err := q.cons.Next(jetstream.FetchContext(fctx))
+		cancel()
+		if ctx.Err() != nil {
+			if err == nil {
+				_ = msg.Nak() // delivered as we stopped: hand it back
+			}
+			return
+		}
 		if err != nil {
 			if !errors.Is(err, jetstream.ErrNoMessages) && !errors.Is(err, context.DeadlineExceeded) && !errors.Is(err, nats.ErrTimeout) {
 				o.Logger.Debug("fetch", slog.String("error", err.Error()))

@@ -109,18 +109,19 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	var qf sweepQueueFlags
 	qf.register(fs)
 	return func(ctx context.Context, args []string) error {
-		if qf.active() {
-			if err := qf.check(e.g); err != nil {
+		if err := qf.check(e.g); err != nil {
+			return err
+		}
+		if qf.status != "" || qf.cancel != "" {
+			if len(args) > 0 || len(axes) > 0 || *grid != "" {
+				return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
+			}
+			return queueControl(ctx, e, &qf)
+		}
+		queued := qf.queued(e.g)
+		if queued {
+			if err := e.g.checkFormat("table", "csv", "json", "jsonl"); err != nil {
 				return err
-			}
-			if qf.status != "" || qf.cancel != "" {
-				if len(args) > 0 || len(axes) > 0 || *grid != "" {
-					return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
-				}
-				return queueControl(ctx, e, &qf)
-			}
-			if len(plotSpecs) > 0 {
-				return badInputf("--plot is not available with --queue (plots come from the direct path: run without --queue)")
 			}
 		} else if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -173,8 +174,9 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		if *reportFile != "" && !strings.EqualFold(filepath.Ext(*reportFile), ".html") {
 			return badInputf("--report %q: must end in .html", *reportFile)
 		}
-		if qf.active() {
-			return runQueuedSweep(ctx, e, &qf, req, *reportFile, sf, gridFile)
+		so := sweepOutputs{reportFile: *reportFile, plots: plotSpecs, objective: *objective}
+		if queued {
+			return runQueuedSweep(ctx, e, &qf, req, so, sf, gridFile)
 		}
 		total := int64(len(req.PointIndices))
 		if total == 0 {
@@ -208,41 +210,55 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		}
 		prog.done()
 		sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
-		sum := call.Summary()
-		switch e.g.format {
-		case "json":
-			if err := render.SweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
-				return err
-			}
-		case "csv":
-			if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
-				return err
-			}
-		default:
-			render.SweepTable(out.Writer(), req, pts, sum)
-		}
-		if err := out.commit(); err != nil {
+		return so.write(e, out, req, pts, call.Summary())
+	}
+}
+
+// sweepOutputs are the products of a sweep beside its --format output:
+// the HTML report and the plots. The direct and the queued path write
+// them alike.
+type sweepOutputs struct {
+	reportFile string
+	plots      plotList
+	objective  string
+}
+
+// write writes the sweep's points (sorted by index) in --format to out and
+// commits it, then the report and the plots.
+func (so sweepOutputs) write(e *env, out *output, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
+	switch e.g.format {
+	case "json":
+		if err := render.SweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
 			return err
 		}
-		if *reportFile != "" {
-			if err := writeSweepReport(*reportFile, req, pts, sum); err != nil {
-				return err
-			}
-			if !e.g.quiet {
-				fmt.Fprintf(e.stderr, "wrote report to %s\n", *reportFile)
-			}
+	case "csv":
+		if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
+			return err
 		}
-		title := req.GetBase().GetName()
-		for _, ps := range plotSpecs {
-			if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
-				return fmt.Errorf("plot %s: %w", ps.file, err)
-			}
-			if !e.g.quiet {
-				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
-			}
-		}
-		return nil
+	default:
+		render.SweepTable(out.Writer(), req, pts, sum)
 	}
+	if err := out.commit(); err != nil {
+		return err
+	}
+	if so.reportFile != "" {
+		if err := writeSweepReport(so.reportFile, req, pts, sum); err != nil {
+			return err
+		}
+		if !e.g.quiet {
+			fmt.Fprintf(e.stderr, "wrote report to %s\n", so.reportFile)
+		}
+	}
+	title := req.GetBase().GetName()
+	for _, ps := range so.plots {
+		if err := plotSweep(ps, title, req.Axes, pts, so.objective); err != nil {
+			return fmt.Errorf("plot %s: %w", ps.file, err)
+		}
+		if !e.g.quiet {
+			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+		}
+	}
+	return nil
 }
 
 // sweepLocate maps a Sweep's field violations to the scenario file (base.*)
