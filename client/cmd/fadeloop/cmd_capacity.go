@@ -10,6 +10,7 @@ import (
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 func init() {
@@ -65,6 +66,8 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.registerRun(fs, "capacity")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -107,7 +110,7 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		if *maxUS != 0 {
 			req.MaxUserSlots = *maxUS
 		}
-		out, cl, release, err := e.session()
+		out, cl, release, job, err := e.searchSession(ctx, &qf, "capacity", service.CapacityRequestFromProto(req))
 		if err != nil {
 			return err
 		}
@@ -128,9 +131,9 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		worst := float64(2+2*bits.Len(uint(hi))) * r
 		prog := e.newProgress("user-slots/s")
 		res, err := cl.Capacity(ctx, req, searchProgress(prog, worst))
-		prog.done()
+		stopProgress(prog, err == nil)
 		if err != nil {
-			return searchError(sf, reqFile, err)
+			return searchError(sf, reqFile, job.stopped(ctx, e, err))
 		}
 		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
 			func(w io.Writer) { render.CapacityTable(w, req, res) })

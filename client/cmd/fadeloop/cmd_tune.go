@@ -13,6 +13,7 @@ import (
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 func init() {
@@ -115,6 +116,8 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.registerRun(fs, "tune")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -199,7 +202,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			}
 		}
 
-		out, cl, release, err := e.session()
+		out, cl, release, job, err := e.searchSession(ctx, &qf, "tune", service.TuneRequestFromProto(req))
 		if err != nil {
 			return err
 		}
@@ -207,9 +210,9 @@ func runTune(e *env, fs *flag.FlagSet) action {
 		worst := worstRuns(req)
 		prog := e.newProgress("user-slots/s")
 		rec, err := cl.Tune(ctx, req, searchProgress(prog, worst))
-		prog.done()
+		stopProgress(prog, err == nil)
 		if err != nil {
-			return searchError(sf, reqFile, err)
+			return searchError(sf, reqFile, job.stopped(ctx, e, err))
 		}
 		err = e.emit(out, rec, func(w io.Writer) error { return render.TuneCSV(w, rec) },
 			func(w io.Writer) { render.TuneTable(w, req, rec) })
