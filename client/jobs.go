@@ -216,7 +216,7 @@ func (o SweepOutcome) Describe(err error, output string) string {
 		why := fmt.Sprintf(" (%v)", err)
 		switch {
 		case errors.Is(err, context.Canceled):
-			why = "" // Ctrl-C or SIGTERM
+			why = " (cancelled)" // Ctrl-C or SIGTERM
 		case errors.Is(err, context.DeadlineExceeded):
 			why = " (deadline reached)"
 		}

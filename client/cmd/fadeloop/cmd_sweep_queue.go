@@ -266,6 +266,9 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 			for _, i := range info.DoneIndices {
 				before[i] = true
 			}
+			if e.g.quiet && info.Done == 0 && info.Retried == 0 {
+				return // --quiet: only a resumed run says so
+			}
 			line := fmt.Sprintf("job %s (%s): %d of %d points already stored, %d to run", id, jq.Where(), info.Done, info.Units, info.Queued)
 			if info.Retried > 0 {
 				line += fmt.Sprintf(" (%d failed earlier, queued again)", info.Retried)
@@ -337,7 +340,9 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 			return err
 		}
 	}
-	fmt.Fprintln(e.stderr, outcome.Describe(nil, where))
+	if !e.g.quiet || outcome.Failed > 0 {
+		fmt.Fprintln(e.stderr, outcome.Describe(nil, where))
+	}
 	if outcome.Failed > 0 {
 		for _, r := range rows {
 			if r.Status != jobs.StatusDone {
@@ -513,7 +518,9 @@ func (e *env) searchSession(ctx context.Context, q *sweepQueueFlags, kind string
 		jq.Close()
 		return nil, nil, nil, nil, err
 	}
-	fmt.Fprintf(e.stderr, "%s job %s (%s): %d replications already stored\n", kind, id, jq.Where(), done)
+	if !e.g.quiet || done > 0 { // --quiet: only a resumed search says so
+		fmt.Fprintf(e.stderr, "%s job %s (%s): %d replications already stored\n", kind, id, jq.Where(), done)
+	}
 	// Replications in flight: enough to keep every worker busy while
 	// results travel back (the search's answer does not depend on it).
 	inFlight := 64
@@ -555,8 +562,8 @@ func (j *searchJob) stopped(ctx context.Context, e *env, err error) error {
 	if serr != nil {
 		return err
 	}
-	why := ""
-	if status.Code(err) == codes.DeadlineExceeded {
+	why := " (cancelled)"
+	if status.Code(err) == codes.DeadlineExceeded || errors.Is(ctx.Err(), context.DeadlineExceeded) {
 		why = " (deadline reached)"
 	}
 	fmt.Fprintf(e.stderr, "%s job %s interrupted%s: %d replications stored in the job %s; run the same command again to resume (stored replications are not recomputed)\n",

@@ -53,7 +53,7 @@ func TestSweepQueueInterruptResume(t *testing.T) {
 	args := func(store, out string) []string {
 		return []string{"sweep", "testdata/scenarios/canonical.json", "--slots", "1500",
 			"--axis", "inner_loop.step_db=0.25:2:" + strconv.Itoa(points), "--seed-mode", "per-point",
-			"--queue", "local", "--store", store, "--workers", "1", "--out", out, "--quiet"}
+			"--queue", "local", "--store", store, "--workers", "1", "--out", out, "--progress", "none"}
 	}
 	store, part := filepath.Join(dir, "store"), filepath.Join(dir, "part.csv")
 
@@ -158,7 +158,7 @@ func TestSweepQueueCancel(t *testing.T) {
 	dir := t.TempDir()
 	store, out := filepath.Join(dir, "store"), filepath.Join(dir, "p.csv")
 	args := []string{"sweep", "--slots", "1000", "--axis", "inner_loop.step_db=0.5,1",
-		"--queue", "local", "--store", store, "--workers", "1", "--out", out, "--quiet"}
+		"--queue", "local", "--store", store, "--workers", "1", "--out", out, "--progress", "none"}
 	first := ok(t, args...)
 	sub := jobLine.FindStringSubmatch(first.stderr)
 	if sub == nil {
@@ -253,9 +253,9 @@ func TestSweepDefaultMatchesDirect(t *testing.T) {
 		name string
 		args []string
 	}{
-		{"single-cell", []string{"sweep", "testdata/scenarios/command_errors_delay.yaml", "--slots", "1500", "--quiet",
+		{"single-cell", []string{"sweep", "testdata/scenarios/command_errors_delay.yaml", "--slots", "1500", "--progress", "none",
 			"--axis", "inner_loop.step_db=0.5,1,2", "--axis", "groups[0].speeds[0].speed_kmh=3,60", "--seed-mode", "per-point"}},
-		{"multi-cell", []string{"sweep", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "1", "--quiet",
+		{"multi-cell", []string{"sweep", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "1", "--progress", "none",
 			"--axis", "layout.handover.window_db=0,6"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
@@ -266,7 +266,7 @@ func TestSweepDefaultMatchesDirect(t *testing.T) {
 				t.Errorf("queued and direct CSV differ:\n%s\n---\n%s", q.stdout, d.stdout)
 			}
 			if d.stderr != "" {
-				t.Errorf("--direct with --quiet wrote to stderr: %q", d.stderr)
+				t.Errorf("--direct with --progress none wrote to stderr: %q", d.stderr)
 			}
 			sub := jobLine.FindStringSubmatch(q.stderr)
 			if sub == nil || !strings.HasPrefix(q.stderr, sub[0]) {
@@ -282,6 +282,11 @@ func TestSweepDefaultMatchesDirect(t *testing.T) {
 			}
 			if !strings.Contains(again.stderr, sub[4]+" of "+sub[4]+" points already stored, 0 to run") {
 				t.Errorf("second run's job line:\n%s", again.stderr)
+			}
+			// --quiet keeps only what matters: a resumed run says so.
+			if qr := ok(t, append(csvArgs, "--quiet")...); !strings.HasPrefix(qr.stderr, "job "+sub[1]+" (store ") ||
+				!strings.HasSuffix(qr.stderr, " points already stored, 0 to run\n") || strings.Count(qr.stderr, "\n") != 1 {
+				t.Errorf("--quiet resumed run's stderr: %q", qr.stderr)
 			}
 			// The table: identical but for line 2 (count, user-slots, time).
 			tq := strings.Split(ok(t, c.args...).stdout, "\n")
@@ -305,7 +310,7 @@ func TestSweepDefaultMatchesDirect(t *testing.T) {
 // service/jobs TestTuneThroughQueueResumes.)
 func TestTuneDefaultResumes(t *testing.T) {
 	args := []string{"tune", "--slots", "1500", "--axis", "inner_loop.step_db=0.5,1,2", "--speeds", "3,60",
-		"--max-reps", "4", "--format", "csv", "--quiet"}
+		"--max-reps", "4", "--format", "csv", "--progress", "none"}
 	q := ok(t, args...)
 	d := ok(t, append(args, "--direct")...)
 	if q.stdout != d.stdout || q.stdout == "" {
