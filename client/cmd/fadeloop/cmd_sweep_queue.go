@@ -59,7 +59,7 @@ func (q *sweepQueueFlags) registerRun(fs *flag.FlagSet, cmd string) {
 	fs.StringVar(&q.queue, "queue", "", "where the "+cmd+" job runs: `URL` nats://HOST:PORT[,...] (an external NATS and its workers) or local (the default: a NATS server inside this process, its store under --store)")
 	fs.StringVar(&q.store, "store", "", storeHelp)
 	fs.IntVar(&q.workers, "workers", 0, "in-process queue workers `N`, each one unit at a time (default: one per core with the local queue, none with a nats:// URL)")
-	fs.BoolVar(&q.direct, "direct", false, "run the "+cmd+" in this process without the job queue (nothing stored, no resume), as before the queue was the default")
+	fs.BoolVar(&q.direct, "direct", false, "run the "+cmd+" in this process without the job queue (nothing stored, no resume)")
 }
 
 // queued reports whether the run goes through the job queue: the default
