@@ -42,6 +42,21 @@ func cpuTime() time.Duration {
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
+// loadAvg1 is the machine's 1-minute load average (/proc/loadavg; -1 where
+// there is none): reported beside every figure, since other work on a
+// shared machine moves them.
+func loadAvg1() float64 {
+	b, err := os.ReadFile("/proc/loadavg")
+	if err != nil {
+		return -1
+	}
+	var l float64
+	if _, err := fmt.Sscan(string(b), &l); err != nil {
+		return -1
+	}
+	return l
+}
+
 func median(x []float64) float64 {
 	s := slices.Clone(x)
 	slices.Sort(s)
@@ -93,6 +108,7 @@ func BenchmarkQueueOverhead(b *testing.B) {
 		return time.Since(start)
 	}
 	directRun(benchSpec(2, 999)) // warm up
+	load0 := loadAvg1()
 	for it := range b.N * benchRounds {
 		spec := benchSpec(n, uint64(1000+it))
 		var d, q float64
@@ -122,6 +138,8 @@ func BenchmarkQueueOverhead(b *testing.B) {
 	b.ReportMetric(median(direct), "direct-points/s")
 	b.ReportMetric(median(queued), "queue-points/s")
 	b.ReportMetric(median(ratio), "queue/direct")
+	b.ReportMetric(load0, "load1-start")
+	b.ReportMetric(loadAvg1(), "load1-end")
 }
 
 // workerProcsRun runs the sweep through an embedded server with `workers`
@@ -169,6 +187,7 @@ func workerProcsRun(b *testing.B, spec SweepSpec, workers int) time.Duration {
 func BenchmarkWorkerScaling(b *testing.B) {
 	const n = 64
 	var one, two, ratio []float64
+	load0 := loadAvg1()
 	for it := range b.N * benchRounds {
 		var t1, t2 float64
 		if it%2 == 0 { // alternate the order
@@ -183,6 +202,8 @@ func BenchmarkWorkerScaling(b *testing.B) {
 	b.ReportMetric(median(one), "1worker-points/s")
 	b.ReportMetric(median(two), "2workers-points/s")
 	b.ReportMetric(median(ratio), "speedup")
+	b.ReportMetric(load0, "load1-start")
+	b.ReportMetric(loadAvg1(), "load1-end")
 }
 
 // BenchmarkQueuePerUnit measures the queue's own cost per unit: 200 units

@@ -64,6 +64,12 @@ func (q *Queue) RunWorker(ctx context.Context, o WorkerOptions) error {
 }
 
 func (q *Queue) workLoop(ctx context.Context, o WorkerOptions, slot int) {
+	// finished is closed when the previous unit's result is stored and
+	// acknowledged: storing runs beside the next fetch and computation (off
+	// the critical path), at most one per slot.
+	finished := make(chan struct{})
+	close(finished)
+	defer func() { <-finished }()
 	for ctx.Err() == nil {
 		// The fetch ends with ctx, so that a stopping worker (the CLI's
 		// in-process ones at the end of every run) returns at once.
@@ -86,13 +92,26 @@ func (q *Queue) workLoop(ctx context.Context, o WorkerOptions, slot int) {
 			}
 			continue
 		}
-		q.handle(ctx, o, slot, msg)
+		store := q.handle(ctx, o, slot, msg)
+		<-finished
+		if store == nil {
+			continue
+		}
+		next := make(chan struct{})
+		finished = next
+		go func() {
+			defer close(next)
+			store()
+		}()
 	}
 }
 
-// handle computes one delivered unit: the result is stored before the
-// acknowledgement, so a unit is acknowledged only when its result is safe.
-func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetstream.Msg) {
+// handle computes one delivered unit and returns the step that stores its
+// result and then acknowledges it (nil when there is nothing to store: the
+// unit was dropped, handed back or already stored). The result is stored
+// before the acknowledgement, so a unit is acknowledged only when its
+// result is safe.
+func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetstream.Msg) (store func()) {
 	attempt := 1
 	if md, err := msg.Metadata(); err == nil {
 		attempt = int(md.NumDelivered)
@@ -101,19 +120,31 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 	if err := json.Unmarshal(msg.Data(), &u); err != nil || u.Job == "" {
 		o.Logger.Warn("undecodable unit dropped", slog.String("subject", msg.Subject()))
 		_ = msg.Term()
-		return
+		return nil
 	}
 	log := o.Logger.With(slog.String("unit", u.ID()), slog.Int("attempt", attempt))
-	if info, err := q.Info(ctx, u.Job); err == nil && info.State == StateCancelled {
+	key := u.ID()
+	// Two look-ups, at once: is the job cancelled, is the unit stored by an
+	// earlier delivery whose acknowledgement was lost?
+	var cancelled, stored bool
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		info, err := q.Info(ctx, u.Job)
+		cancelled = err == nil && info.State == StateCancelled
+	}()
+	_, err := q.results.Get(ctx, key)
+	stored = err == nil
+	wg.Wait()
+	if cancelled {
 		log.Debug("job cancelled: unit dropped")
 		_ = msg.Ack()
-		return
+		return nil
 	}
-	key := u.ID()
-	if _, err := q.results.Get(ctx, key); err == nil {
-		// Stored by an earlier delivery whose acknowledgement was lost.
+	if stored {
 		_ = msg.Ack()
-		return
+		return nil
 	}
 	res := Result{Job: u.Job, Index: u.Index, Point: u.Point, Seed: u.Scenario.Run.Seed, Attempts: attempt, Worker: o.Name}
 	if attempt > q.cfg.MaxAttempts {
@@ -127,7 +158,7 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 		if ctx.Err() != nil {
 			// Shutting down: hand the unit back at once.
 			_ = msg.Nak()
-			return
+			return nil
 		}
 		if err == nil && rep == nil {
 			err = errors.New("no report")
@@ -136,13 +167,22 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 			if attempt < q.cfg.MaxAttempts {
 				log.Warn("unit failed, will be retried", slog.String("error", err.Error()))
 				_ = msg.NakWithDelay(time.Duration(attempt) * 500 * time.Millisecond)
-				return
+				return nil
 			}
 			res.Status, res.Error = StatusFailed, err.Error()
 		} else {
 			res.Status, res.Report = StatusDone, rep
 		}
 	}
+	return func() { q.store(ctx, log, msg, key, res) }
+}
+
+// store stores a unit's result, then acknowledges the unit; if the result
+// cannot be stored the unit is handed back. A worker stopping (ctx ended)
+// still stores a result it has computed, for up to storeGrace.
+func (q *Queue) store(ctx context.Context, log *slog.Logger, msg jetstream.Msg, key string, res Result) {
+	ctx, cancel := context.WithTimeout(context.WithoutCancel(ctx), storeGrace)
+	defer cancel()
 	b, err := EncodeResult(res)
 	if err != nil {
 		res.Status, res.Error, res.Report = StatusFailed, "encoding the result: "+err.Error(), nil
@@ -166,6 +206,10 @@ func (q *Queue) handle(ctx context.Context, o WorkerOptions, slot int, msg jetst
 	}
 	log.Debug("unit stored", slog.String("status", res.Status))
 }
+
+// storeGrace bounds the storing of a computed result once the worker is
+// stopping.
+const storeGrace = 10 * time.Second
 
 // compute runs the unit, extending the acknowledgement deadline every
 // AckWait/3 while it runs.
