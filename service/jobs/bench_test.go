@@ -7,6 +7,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"syscall"
 	"testing"
 	"time"
@@ -30,10 +31,16 @@ func benchSpec(n int, seed uint64) SweepSpec {
 	return SweepSpec{Base: sc, Axes: []tune.Axis{{Path: "inner_loop.step_db", Values: vals}}, PerPointSeed: true}
 }
 
-// benchRounds alternates the compared runs this many times; the reported
-// ratio is the median of the per-round ratios, which cancels most of the
-// drift of a machine shared with other work.
-const benchRounds = 4
+// benchRounds alternates the compared runs this many times (environment
+// FADELOOP_BENCH_ROUNDS, default 4); the reported ratio is the median of
+// the per-round ratios, which cancels most of the drift of a machine shared
+// with other work.
+var benchRounds = func() int {
+	if n, err := strconv.Atoi(os.Getenv("FADELOOP_BENCH_ROUNDS")); err == nil && n > 0 {
+		return n
+	}
+	return 4
+}()
 
 // cpuTime is the CPU time (user + system) this process has used.
 func cpuTime() time.Duration {
@@ -86,7 +93,8 @@ func queueRun(b *testing.B, spec SweepSpec, conc int) (wall, cpu time.Duration) 
 	return time.Since(start), cpuTime() - c0
 }
 
-// BenchmarkQueueOverhead: 16 points of about 0.2 s run directly in this
+// BenchmarkQueueOverhead: 16 points (FADELOOP_BENCH_POINTS) of about 0.2 s
+// run directly in this
 // process one after another, against the same points through the embedded
 // queue with one in-process worker; reports both in points/s and
 // queue/direct (issue 10 target: ≥ 0.95). It also reports the CPU time per
@@ -95,7 +103,10 @@ func queueRun(b *testing.B, spec SweepSpec, conc int) (wall, cpu time.Duration) 
 // steadier measure of the overhead.
 // Run: go test -run x -bench QueueOverhead -benchtime 1x ./service/jobs/
 func BenchmarkQueueOverhead(b *testing.B) {
-	const n = 16
+	n := 16 // FADELOOP_BENCH_POINTS: fewer points, more rounds pair the runs closer in time
+	if v, err := strconv.Atoi(os.Getenv("FADELOOP_BENCH_POINTS")); err == nil && v > 0 {
+		n = v
+	}
 	var direct, queued, ratio, cpuD, cpuQ []float64
 	directRun := func(spec SweepSpec) time.Duration {
 		_, us := mustPrepare(b, spec)
@@ -131,7 +142,7 @@ func BenchmarkQueueOverhead(b *testing.B) {
 			runD()
 		}
 		direct, queued, ratio = append(direct, d), append(queued, q), append(ratio, q/d)
-		cpuD, cpuQ = append(cpuD, cd.Seconds()*1000/n), append(cpuQ, cq.Seconds()*1000/n)
+		cpuD, cpuQ = append(cpuD, cd.Seconds()*1000/float64(n)), append(cpuQ, cq.Seconds()*1000/float64(n))
 	}
 	b.ReportMetric(median(cpuD), "direct-cpu-ms/point")
 	b.ReportMetric(median(cpuQ), "queue-cpu-ms/point")
