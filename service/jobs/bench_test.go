@@ -142,6 +142,7 @@ func BenchmarkQueueOverhead(b *testing.B) {
 			runD()
 		}
 		direct, queued, ratio = append(direct, d), append(queued, q), append(ratio, q/d)
+		b.Logf("round %d: direct %.3f points/s, queue %.3f points/s, ratio %.3f, load %.2f", it, d, q, q/d, loadAvg1())
 		cpuD, cpuQ = append(cpuD, cd.Seconds()*1000/float64(n)), append(cpuQ, cq.Seconds()*1000/float64(n))
 	}
 	b.ReportMetric(median(cpuD), "direct-cpu-ms/point")
