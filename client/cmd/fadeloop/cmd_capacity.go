@@ -49,9 +49,9 @@ dir>/fadeloop/queue/JOB, --store DIR for another root, --workers N; --queue
 nats://HOST:PORT for an external NATS and its workers). The search itself
 stays in this process. Every finished replication is stored, so a search
 interrupted by Ctrl-C or --timeout and run again computes none of them twice
-and gives the same answer; the first line names the job, its store and the
-replications already stored (with --quiet only when some are). --direct runs
-the replications in this process without the queue.
+and gives the same answer; its first line then names the job, its store and
+the replications already stored. --direct runs the replications in this
+process without the queue.
 
 Exit status 4 (after the output is written) when even the smallest count
 tried exceeds the outage limit.

@@ -518,7 +518,7 @@ func (e *env) searchSession(ctx context.Context, q *sweepQueueFlags, kind string
 		jq.Close()
 		return nil, nil, nil, nil, err
 	}
-	if !e.g.quiet || done > 0 { // --quiet: only a resumed search says so
+	if done > 0 { // a resumed search says so, and where its store is
 		fmt.Fprintf(e.stderr, "%s job %s (%s): %d replications already stored\n", kind, id, jq.Where(), done)
 	}
 	// Replications in flight: enough to keep every worker busy while
