@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"math"
@@ -76,7 +77,9 @@ external NATS and the workers attached to it ("fadeloopd worker").
   --direct       run the points in this process without the queue (nothing
                  stored, no resume); --server ADDR runs them on that server.
 A job store holds only finished results: delete its directory to start the
-job afresh (or the whole root to free the space).
+job afresh (or the whole root to free the space). Where there is no user
+cache directory (and no --store), the sweep runs in this process without the
+queue and says so.
 
 --report FILE.html writes an HTML report of the sweep (either path).
 
@@ -181,7 +184,12 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		}
 		so := sweepOutputs{reportFile: *reportFile, plots: plotSpecs, objective: *objective}
 		if queued {
-			return runQueuedSweep(ctx, e, &qf, req, so, sf, gridFile)
+			err := runQueuedSweep(ctx, e, &qf, req, so, sf, gridFile)
+			var nq noQueue
+			if !errors.As(err, &nq) {
+				return err
+			}
+			noQueueNotice(e, nq.err)
 		}
 		total := int64(len(req.PointIndices))
 		if total == 0 {

@@ -89,6 +89,27 @@ func (q *sweepQueueFlags) check(g *globals) error {
 	return nil
 }
 
+// noQueue is returned when the default local queue cannot open its store
+// (no user cache directory, not writable, ...): the command then runs
+// without the queue (see fallback).
+type noQueue struct{ err error }
+
+func (n noQueue) Error() string { return n.err.Error() }
+func (n noQueue) Unwrap() error { return n.err }
+
+// fallback reports whether err, from opening the queue, lets the command
+// run without it: only for the default queue with the default store root
+// (a store named with --store or FADELOOP_STORE, an external queue and a
+// job running in another process are errors).
+func (q *sweepQueueFlags) fallback(err error) bool {
+	return q.queue == "" && q.store == "" && !errors.Is(err, jobs.ErrStoreInUse)
+}
+
+// noQueueNotice says that the command runs without the queue, and why.
+func noQueueNotice(e *env, err error) {
+	fmt.Fprintf(e.stderr, "fadeloop: no job store (%v); running in this process without the job queue (nothing stored, no resume; --store DIR names a store)\n", err)
+}
+
 // storeRoot is the root of the embedded job stores.
 func (q *sweepQueueFlags) storeRoot() (string, error) {
 	if q.store != "" {
@@ -237,6 +258,9 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 	}
 	jq, err := q.open(ctx, prep.ID, true)
 	if err != nil {
+		if q.fallback(err) && format != "jsonl" {
+			return noQueue{err}
+		}
 		return err
 	}
 	defer jq.Close()
@@ -511,6 +535,11 @@ func (e *env) searchSession(ctx context.Context, q *sweepQueueFlags, kind string
 	}
 	jq, err := q.open(ctx, id, true)
 	if err != nil {
+		if q.fallback(err) {
+			noQueueNotice(e, err)
+			out, cl, release, err = e.session()
+			return out, cl, release, nil, err
+		}
 		return nil, nil, nil, nil, err
 	}
 	done, _, err := jq.StoredCount(ctx, id)

@@ -329,3 +329,49 @@ func TestTuneDefaultResumes(t *testing.T) {
 		t.Errorf("resumed tune CSV differs:\n%s\n---\n%s", again.stdout, q.stdout)
 	}
 }
+
+// TestNoStoreFallsBack: with no user cache directory (no HOME, no
+// XDG_CACHE_HOME, no FADELOOP_STORE) the default sweep and tune still run,
+// in process without the queue, and say so; a store named explicitly that
+// cannot be created is an error (exit 1) instead.
+func TestNoStoreFallsBack(t *testing.T) {
+	var env []string
+	for _, kv := range os.Environ() {
+		if k, _, _ := strings.Cut(kv, "="); k != "HOME" && k != "XDG_CACHE_HOME" && k != "FADELOOP_STORE" {
+			env = append(env, kv)
+		}
+	}
+	run := func(env []string, args ...string) (int, string, string) {
+		cmd := exec.Command(flBinary(t), args...)
+		cmd.Dir, cmd.Env = repoRoot, env
+		var so, se bytes.Buffer
+		cmd.Stdout, cmd.Stderr = &so, &se
+		err := cmd.Run()
+		if ee, ok := err.(*exec.ExitError); ok {
+			return ee.ExitCode(), so.String(), se.String()
+		} else if err != nil {
+			t.Fatal(err)
+		}
+		return 0, so.String(), se.String()
+	}
+	sweep := []string{"sweep", "--slots", "1000", "--axis", "inner_loop.step_db=0.5,1", "--format", "csv", "--progress", "none"}
+	code, out, errOut := run(env, sweep...)
+	if code != 0 || !strings.Contains(errOut, "no job store") || !strings.Contains(errOut, "without the job queue") {
+		t.Errorf("sweep without a cache directory: exit %d\n%s", code, errOut)
+	}
+	if want := ok(t, append(sweep, "--direct")...).stdout; out != want {
+		t.Errorf("fallback sweep CSV differs from --direct:\n%s\n---\n%s", out, want)
+	}
+	code, out, errOut = run(env, "tune", "--slots", "1000", "--axis", "inner_loop.step_db=0.5,1", "--max-reps", "2", "--format", "csv", "--progress", "none")
+	if code != 0 || !strings.Contains(errOut, "no job store") || !strings.HasPrefix(out, "scope,") {
+		t.Errorf("tune without a cache directory: exit %d\n%s\n%s", code, out, errOut)
+	}
+	bad := filepath.Join(t.TempDir(), "file")
+	if err := os.WriteFile(bad, nil, 0o600); err != nil {
+		t.Fatal(err)
+	}
+	code, _, errOut = run(append(env, "FADELOOP_STORE="+filepath.Join(bad, "sub")), sweep...)
+	if code != 1 || strings.Contains(errOut, "without the job queue") {
+		t.Errorf("unusable --store: exit %d, want 1 and no fallback\n%s", code, errOut)
+	}
+}
