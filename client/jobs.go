@@ -8,6 +8,7 @@ import (
 	"runtime"
 	"sync"
 
+	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/service/jobs"
 )
 
@@ -38,10 +39,11 @@ type JobQueueOptions struct {
 // the same sweep resumes it, and the work spreads over every worker
 // attached to the queue.
 type JobQueue struct {
-	q    *jobs.Queue
-	emb  *jobs.Embedded
-	stop context.CancelFunc
-	wg   sync.WaitGroup
+	q     *jobs.Queue
+	emb   *jobs.Embedded
+	stop  context.CancelFunc
+	wg    sync.WaitGroup
+	where string
 }
 
 // OpenJobQueue connects to o.URL, or starts the embedded server and the
@@ -64,6 +66,7 @@ func OpenJobQueue(ctx context.Context, o JobQueueOptions) (*JobQueue, error) {
 			return nil, err
 		}
 		jq.emb, url = emb, emb.URL()
+		jq.where = "store " + dir
 		if workers == 0 {
 			workers = runtime.GOMAXPROCS(0)
 		}
@@ -76,6 +79,9 @@ func OpenJobQueue(ctx context.Context, o JobQueueOptions) (*JobQueue, error) {
 		return nil, err
 	}
 	jq.q = q
+	if jq.where == "" {
+		jq.where = "queue " + url
+	}
 	wctx, cancel := context.WithCancel(context.Background())
 	jq.stop = cancel
 	if workers > 0 {
@@ -97,6 +103,23 @@ func (jq *JobQueue) Close() {
 	if jq.emb != nil {
 		jq.emb.Shutdown()
 	}
+}
+
+// Where says where the job results live, for the user: "store DIR" (the
+// embedded server's on-disk store) or "queue URL" (an external NATS).
+func (jq *JobQueue) Where() string { return jq.where }
+
+// ReplicationRunner returns the tune.Options.RunReplication hook that runs
+// each replication of a search as a unit of job on the queue's workers
+// (jobs.Queue.ReplicationRunner); a re-run of the same search finds the
+// replications already stored and does not compute them again.
+func (jq *JobQueue) ReplicationRunner(job string) func(context.Context, loop.Scenario) (*loop.Report, error) {
+	return jq.q.ReplicationRunner(job)
+}
+
+// StoredCount counts the results of job stored in the queue (done, failed).
+func (jq *JobQueue) StoredCount(ctx context.Context, job string) (done, failed int, err error) {
+	return jq.q.StoredCount(ctx, job)
 }
 
 // SweepJobOptions are the callbacks of JobQueue.Sweep.
@@ -190,7 +213,14 @@ func (o SweepOutcome) Describe(err error, output string) string {
 		return fmt.Sprintf("job %s was cancelled: %d of %d points stored%s, %d not computed; run the same command again to resume",
 			o.JobID, o.Done+o.Failed, o.Units, where, o.Remaining())
 	default:
-		return fmt.Sprintf("job %s interrupted (%v): %d of %d points stored%s, %d remaining; run the same command again to resume (finished points are not recomputed)",
-			o.JobID, err, o.Done+o.Failed, o.Units, where, o.Remaining())
+		why := fmt.Sprintf(" (%v)", err)
+		switch {
+		case errors.Is(err, context.Canceled):
+			why = " (cancelled)" // Ctrl-C or SIGTERM
+		case errors.Is(err, context.DeadlineExceeded):
+			why = " (deadline reached)"
+		}
+		return fmt.Sprintf("job %s interrupted%s: %d of %d points stored%s, %d remaining; run the same command again to resume (finished points are not recomputed)",
+			o.JobID, why, o.Done+o.Failed, o.Units, where, o.Remaining())
 	}
 }

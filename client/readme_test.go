@@ -474,7 +474,8 @@ func runBlock(t *testing.T, env readmeEnv, b readmeBlock) [][]string {
 			t.Fatal(err)
 		}
 	}
-	procEnv := append(os.Environ(), "PATH="+env.bin+string(os.PathListSeparator)+os.Getenv("PATH"))
+	procEnv := append(os.Environ(), "PATH="+env.bin+string(os.PathListSeparator)+os.Getenv("PATH"),
+		"FADELOOP_STORE="+filepath.Join(dir, ".fadeloop-jobs")) // job stores: never the user cache
 	if b.skipUnless != "" {
 		c := exec.Command("sh", "-c", b.skipUnless)
 		c.Dir, c.Env = dir, procEnv

@@ -8,6 +8,8 @@ import (
 	"log/slog"
 	"runtime"
 	"time"
+
+	"github.com/fadeloop/fadeloop/loop"
 )
 
 // Default limits of a Config whose fields are left at zero.
@@ -131,6 +133,11 @@ type Config struct {
 	// EngineParallelism is the number of sweep points computed at once;
 	// default runtime.GOMAXPROCS(0).
 	EngineParallelism int
+	// RunReplication, when set, runs every replication of Tune and Capacity
+	// elsewhere (tune.Options.RunReplication: e.g. as units of a durable
+	// job queue, service/jobs); nil runs them in process. The
+	// recommendation does not depend on it.
+	RunReplication func(ctx context.Context, sc loop.Scenario) (*loop.Report, error)
 
 	// abortGrace overrides DefaultStreamAbortGrace (tests).
 	abortGrace time.Duration

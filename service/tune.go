@@ -274,7 +274,7 @@ func serveSearch[R any](ctx context.Context, s *Server, start time.Time, c searc
 	var ans R
 	err = <-goSafe(s.cfg.Logger, ctx, func() error {
 		var err error
-		ans, err = c.run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism})
+		ans, err = c.run(ctx, tune.Options{Progress: prog.post, Parallelism: s.cfg.EngineParallelism, RunReplication: s.cfg.RunReplication})
 		return err
 	})
 	sendErr := prog.close()

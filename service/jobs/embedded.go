@@ -27,6 +27,15 @@ func DefaultStoreDir() (string, error) {
 	return filepath.Join(d, "fadeloop", "queue"), nil
 }
 
+// ErrStoreInUse is returned by StartEmbedded when another process runs a
+// server on the store.
+var ErrStoreInUse = errors.New("jobs: store in use")
+
+// JobStoreDir is the embedded store of job id under root (one store per
+// job, so that different jobs run at the same time in separate processes;
+// only the same job is refused while another process runs it).
+func JobStoreDir(root, id string) string { return filepath.Join(root, id) }
+
 // StartEmbedded starts an embedded server storing its streams under dir
 // (created if missing). Only one process may use a store at a time: a
 // second one gets an error saying the store is in use.

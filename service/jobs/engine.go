@@ -5,6 +5,7 @@ import (
 	"fmt"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	"github.com/fadeloop/fadeloop/loop/tune"
 )
 
@@ -31,10 +32,12 @@ func seedMode(perPoint bool) tune.SeedMode {
 	return tune.SeedModeCommon
 }
 
-// RunUnit computes a unit with loop.Run: the report depends only on the
-// unit's scenario (and loop.EngineVersion). Unless u.Detailed, the per-user
-// and distance-bin figures, the normalised scenario and the traces are
-// dropped. A panic in the engine becomes an error.
+// RunUnit computes a unit with multicell.RunScenario (the single- or
+// multi-cell engine, as the direct Sweep, Tune and Capacity calls run it):
+// the report depends only on the unit's scenario (and loop.EngineVersion).
+// Unless u.Detailed, the per-user and distance-bin figures, the normalised
+// scenario, the traces and the multi-cell per-user points are dropped. A
+// panic in the engine becomes an error.
 func RunUnit(ctx context.Context, u Unit) (rep *loop.Report, err error) {
 	defer func() {
 		if v := recover(); v != nil {
@@ -46,12 +49,15 @@ func RunUnit(ctx context.Context, u Unit) (rep *loop.Report, err error) {
 	default:
 		return nil, fmt.Errorf("unknown unit kind %q", u.Kind)
 	}
-	rep, err = loop.Run(ctx, u.Scenario, loop.RunOptions{})
+	rep, err = multicell.RunScenario(ctx, u.Scenario, loop.RunOptions{})
 	if err != nil {
 		return nil, err
 	}
 	if !u.Detailed {
 		rep.Users, rep.DistanceBins, rep.NormalisedScenario, rep.Traces = nil, nil, loop.Scenario{}, nil
+		if rep.Layout != nil {
+			rep.Layout.UserPoints = nil
+		}
 	}
 	return rep, nil
 }

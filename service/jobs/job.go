@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -36,6 +37,9 @@ type SubmitInfo struct {
 	Done    int // units already stored as done (not queued again)
 	Retried int // units stored as failed by an earlier run, queued again
 	Queued  int // units queued by this submission (Units − Done)
+	// DoneIndices are the indices of the units stored as done before this
+	// submission, ascending.
+	DoneIndices []int
 }
 
 // Job is a submitted job.
@@ -97,6 +101,7 @@ func (q *Queue) Submit(ctx context.Context, kind Kind, units []Unit, spec any) (
 		}
 		if st == StatusDone {
 			si.Done++
+			si.DoneIndices = append(si.DoneIndices, idx)
 			continue
 		}
 		si.Retried++
@@ -105,6 +110,7 @@ func (q *Queue) Submit(ctx context.Context, kind Kind, units []Unit, spec any) (
 			return nil, SubmitInfo{}, fmt.Errorf("jobs: clearing failed unit %s: %w", key, err)
 		}
 	}
+	sort.Ints(si.DoneIndices)
 	subject := UnitSubjectPrefix + id
 	if err := retry(ctx, func(c context.Context) error {
 		return q.stream.Purge(c, jetstream.WithPurgeSubject(subject))

@@ -19,7 +19,7 @@ func lockStore(dir string) (unlock func(), err error) {
 	}
 	if err := syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB); err != nil {
 		f.Close()
-		return nil, fmt.Errorf("jobs: the queue store %s is in use by another fadeloop process (wait for it, or give another store directory)", dir)
+		return nil, fmt.Errorf("%w: the queue store %s is in use by another fadeloop process (the same job running elsewhere: wait for it, or give another store directory)", ErrStoreInUse, dir)
 	}
 	return func() {
 		_ = syscall.Flock(int(f.Fd()), syscall.LOCK_UN)

@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"sync/atomic"
 	"time"
 
 	"github.com/nats-io/nats.go/jetstream"
@@ -63,6 +64,12 @@ func (e *UnitError) Error() string {
 	return fmt.Sprintf("unit %s failed after %d attempts: %s", e.Unit, e.Attempts, e.Message)
 }
 
+// runNonce makes the message ID of each Run publication unique (with the
+// process start time, across processes too).
+var runNonce atomic.Int64
+
+func init() { runNonce.Store(time.Now().UnixNano()) }
+
 // runStall is how long Run's watch may stay silent before it is
 // re-established (a watch does not always survive a server restart).
 var runStall = 30 * time.Second
@@ -97,7 +104,11 @@ func (q *Queue) runOnce(ctx context.Context, u Unit, key string, queued *bool) (
 					if err != nil {
 						return Result{}, err
 					}
-					if _, err := q.js.Publish(wctx, UnitSubjectPrefix+u.Job, b, jetstream.WithMsgID(key+".run")); err != nil {
+					// The message ID is unique to this call: a unit cleared
+					// after a failure is queued again even within the
+					// stream's de-duplication window.
+					id := fmt.Sprintf("%s.run.%d", key, runNonce.Add(1))
+					if _, err := q.js.Publish(wctx, UnitSubjectPrefix+u.Job, b, jetstream.WithMsgID(id)); err != nil {
 						return Result{}, err
 					}
 					*queued = true
@@ -118,5 +129,36 @@ func (q *Queue) runOnce(ctx context.Context, u Unit, key string, queued *bool) (
 			}
 			return r, nil
 		}
+	}
+}
+
+// StoredCount counts the results of job id stored in the queue (done and
+// failed): what a resumed coordinator finds already computed.
+func (q *Queue) StoredCount(ctx context.Context, id string) (done, failed int, err error) {
+	err = q.scan(ctx, id, func(r Result) error {
+		if r.Status == StatusDone {
+			done++
+		} else {
+			failed++
+		}
+		return nil
+	})
+	return done, failed, err
+}
+
+// ReplicationRunner returns a function that runs one fully built, seeded
+// scenario as a unit of job on the queue (see Run), for
+// tune.Options.RunReplication: the unit index is ScenarioIndex(sc), so the
+// same replication of a re-run search is found stored and not computed
+// again. The report is the one multicell.RunScenario returns for sc,
+// without the per-user and per-bin detail (the search uses the aggregate,
+// feasibility and user-slot figures only).
+func (q *Queue) ReplicationRunner(job string) func(context.Context, loop.Scenario) (*loop.Report, error) {
+	return func(ctx context.Context, sc loop.Scenario) (*loop.Report, error) {
+		idx, err := ScenarioIndex(sc)
+		if err != nil {
+			return nil, err
+		}
+		return q.Run(ctx, Unit{Kind: KindTuneReplication, Job: job, Index: idx, Scenario: sc})
 	}
 }

@@ -103,16 +103,29 @@ func Prepare(spec SweepSpec) (*Prepared, error) {
 	if len(vs) > 0 {
 		return nil, vs
 	}
-	b, err := json.Marshal(struct {
-		Kind   Kind      `json:"kind"`
-		Engine string    `json:"engine"`
-		Spec   SweepSpec `json:"spec"`
-	}{KindSweepPoint, loop.EngineVersion, s})
+	id, err := JobID(string(KindSweepPoint), s)
 	if err != nil {
-		return nil, fmt.Errorf("jobs: encoding the spec: %w", err)
+		return nil, err
+	}
+	return &Prepared{ID: id, Spec: s, Grid: g, Indices: s.Points}, nil
+}
+
+// JobID is the ID of a job of the given kind ("sweep_point", or a
+// coordinator's own name such as "tune") over the normalised request spec:
+// the hex SHA-256 (first 16 bytes) of the JSON of kind, loop.EngineVersion
+// and spec, so the same request always has the same ID and a new engine
+// version never reuses old results.
+func JobID(kind string, spec any) (string, error) {
+	b, err := json.Marshal(struct {
+		Kind   string `json:"kind"`
+		Engine string `json:"engine"`
+		Spec   any    `json:"spec"`
+	}{kind, loop.EngineVersion, spec})
+	if err != nil {
+		return "", fmt.Errorf("jobs: encoding the spec: %w", err)
 	}
 	sum := sha256.Sum256(b)
-	return &Prepared{ID: hex.EncodeToString(sum[:16]), Spec: s, Grid: g, Indices: s.Points}, nil
+	return hex.EncodeToString(sum[:16]), nil
 }
 
 func prefixViolations(v loop.Violations, prefix string) loop.Violations {

@@ -40,11 +40,23 @@ var (
 	buildDir  string
 )
 
+// testStore is the root of the job stores of every run of the binary
+// (FADELOOP_STORE, inherited by the child processes): the tests never
+// write to the real user cache.
+var testStore string
+
 func TestMain(m *testing.M) {
+	var err error
+	if testStore, err = os.MkdirTemp("", "fadeloop-cli-store-"); err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		os.Exit(1)
+	}
+	os.Setenv("FADELOOP_STORE", testStore)
 	code := m.Run()
 	if buildDir != "" {
 		os.RemoveAll(buildDir)
 	}
+	os.RemoveAll(testStore)
 	os.Exit(code)
 }
 

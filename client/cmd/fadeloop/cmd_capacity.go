@@ -9,6 +9,7 @@ import (
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 func init() {
@@ -40,6 +41,17 @@ Output formats:
          max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high
   json   the fadeloop.v1 CapacityResult in protojson with proto field names
 
+Where the replications run: with no --server each replication is a unit of
+a durable job on the job queue, as for sweep (--queue local by default: a
+NATS server inside this process, its store in <user cache
+dir>/fadeloop/queue/JOB, --store DIR for another root, --workers N; --queue
+nats://HOST:PORT for an external NATS and its workers). The search itself
+stays in this process. Every finished replication is stored, so a search
+interrupted by Ctrl-C or --timeout and run again computes none of them twice
+and gives the same answer; its first line then names the job, its store and
+the replications already stored. --direct runs the replications in this
+process without the queue.
+
 Exit status 4 (after the output is written) when even the smallest count
 tried exceeds the outage limit.
 
@@ -64,6 +76,8 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	confidence := fs.Float64("confidence", 0, "confidence `C` of the intervals (0: 0.95)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.registerRun(fs, "capacity")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -106,16 +120,16 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		if *maxUS != 0 {
 			req.MaxUserSlots = *maxUS
 		}
-		out, cl, release, err := e.session()
+		out, cl, release, job, err := e.searchSession(ctx, &qf, "capacity", service.CapacityRequestFromProto(req))
 		if err != nil {
 			return err
 		}
 		defer release()
 		prog := e.newProgress("user-slots/s")
 		res, err := cl.Capacity(ctx, req, searchProgress(prog))
-		prog.done()
+		stopProgress(prog, err == nil)
 		if err != nil {
-			return searchError(sf, reqFile, err)
+			return searchError(sf, reqFile, job.stopped(ctx, e, err))
 		}
 		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
 			func(w io.Writer) { render.CapacityTable(w, req, res) })

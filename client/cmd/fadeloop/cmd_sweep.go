@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"math"
@@ -24,8 +25,8 @@ func init() {
 		details: `Runs the base scenario (the file, or the built-in default) at every point of
 a grid. Axes come from --axis flags and/or a --grid file; the grid is their
 Cartesian product, indexed row-major (the last axis varies fastest). Points
-are computed in parallel on the server and arrive as they finish; the output
-is sorted by grid index. With --seed-mode common (the default) every point
+are computed in parallel (on the job queue's workers, or on the server with
+--server) and arrive as they finish; the output is sorted by grid index. With --seed-mode common (the default) every point
 uses the base seed, so differences between points are paired and sharp.
 
 An axis is PATH=V1,V2,... or PATH=FROM:TO:COUNT (COUNT values evenly spaced,
@@ -47,6 +48,8 @@ Output formats:
          F_ci_low and F_ci_high (same figures and units as "run --format csv")
   json   {"axes": [...], "points": [SweepPoint...], "summary": SweepSummary},
          protojson with proto field names, points sorted by index
+  jsonl  (job queue, with --out FILE) one stored result a line as JSON: job,
+         index, point, seed, status (done|failed), error, report
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
   steps    outage and SIR error std against inner_loop.step_db, one line per
@@ -55,23 +58,28 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
   cdf      SIR error distribution per point (at most 8 points)
   auto     heatmap for step × rate, steps for step (× one axis), else cdf
 
-Durable sweeps (--queue): the sweep runs as a batch job over a NATS
-JetStream work queue. --queue local starts a NATS server inside this process
-with its store under the user cache directory (--store DIR elsewhere) and one
-worker per core (--workers N); --queue nats://HOST:PORT[,...] uses an external
-NATS and the workers attached to it ("fadeloopd worker"). Each point is stored
-as it finishes and written to --out (csv, or jsonl for FILE.jsonl or --format
-jsonl) at once; the finished file is rewritten in grid order. An interrupted
-run (Ctrl-C, --timeout, queue lost) leaves every finished row in the file and
-says how many points are stored and how many remain; running the same command
-again resumes the job (the job ID is a hash of the request, so the same
-command finds it) and computes only the missing points.
+Where the points run: with no --server the sweep is a durable job on a job
+queue (NATS JetStream). By default (--queue local) a NATS server starts
+inside this process with its store in <user cache dir>/fadeloop/queue/JOB
+(~/.cache/fadeloop/queue/JOB on Linux; --store DIR or FADELOOP_STORE for
+another root) and one worker per core (--workers N) computes the points. Each
+point is stored as it finishes; --format csv or jsonl with --out FILE writes
+every row to FILE at once (the finished file is rewritten in grid order). The
+first line names the job and its store and says how many points are already
+stored and how many are left to run (with --quiet only when some are
+stored). An interrupted run (Ctrl-C, --timeout) says how many points are
+stored and where; running the same command again resumes the job (its ID is
+a hash of the request) and computes only the missing points. The output is
+the same as the direct path's. --queue nats://HOST:PORT[,...] uses an
+external NATS and the workers attached to it ("fadeloopd worker").
   --status JOB   state and counts of a job (with the same --queue/--store)
   --cancel JOB   drop a job's queued points; stored points stay
-The queued CSV has the columns index, seed, one per axis, status, error,
-feasible, users, user_slots, then every figure F as F, F_ci_low, F_ci_high.
-Without --queue the points run directly on the server (--server ADDR) or on
-an embedded one, and are written when the sweep ends: fine for small grids.
+  --direct       run the points in this process without the queue (nothing
+                 stored, no resume); --server ADDR runs them on that server.
+A job store holds only finished results: delete its directory to start the
+job afresh (or the whole root to free the space). Where there is no user
+cache directory (and no --store), the sweep runs in this process without the
+queue and says so.
 
 --report FILE.html writes an HTML report of the sweep (either path).
 
@@ -86,8 +94,8 @@ Examples:
       --axis inner_loop.update_rate_hz=500,1000,1500 --plot heat.svg --objective outage
   fadeloop sweep cell.yaml --grid grid.yaml --format csv --out points.csv
   fadeloop sweep cell.yaml --grid grid.yaml --points 4,5,6   # resume or split a sweep
-  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue local --out steps.csv
-  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue nats://10.0.0.5:4222 --out steps.csv
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --format csv --out steps.csv   # Ctrl-C, then the same again resumes
+  fadeloop sweep cell.yaml --axis inner_loop.step_db=0.25:2:8 --queue nats://10.0.0.5:4222 --format csv --out steps.csv
   fadeloop sweep --status JOB --queue local`,
 		run: runSweep,
 	})
@@ -109,18 +117,19 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 	var qf sweepQueueFlags
 	qf.register(fs)
 	return func(ctx context.Context, args []string) error {
-		if qf.active() {
-			if err := qf.check(e.g); err != nil {
+		if err := qf.check(e.g); err != nil {
+			return err
+		}
+		if qf.status != "" || qf.cancel != "" {
+			if len(args) > 0 || len(axes) > 0 || *grid != "" {
+				return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
+			}
+			return queueControl(ctx, e, &qf)
+		}
+		queued := qf.queued(e.g)
+		if queued {
+			if err := e.g.checkFormat("table", "csv", "json", "jsonl"); err != nil {
 				return err
-			}
-			if qf.status != "" || qf.cancel != "" {
-				if len(args) > 0 || len(axes) > 0 || *grid != "" {
-					return badInputf("--status and --cancel take only the job ID (and --queue/--store)")
-				}
-				return queueControl(ctx, e, &qf)
-			}
-			if len(plotSpecs) > 0 {
-				return badInputf("--plot is not available with --queue (plots come from the direct path: run without --queue)")
 			}
 		} else if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -173,8 +182,14 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		if *reportFile != "" && !strings.EqualFold(filepath.Ext(*reportFile), ".html") {
 			return badInputf("--report %q: must end in .html", *reportFile)
 		}
-		if qf.active() {
-			return runQueuedSweep(ctx, e, &qf, req, *reportFile, sf, gridFile)
+		so := sweepOutputs{reportFile: *reportFile, plots: plotSpecs, objective: *objective}
+		if queued {
+			err := runQueuedSweep(ctx, e, &qf, req, so, sf, gridFile)
+			var nq noQueue
+			if !errors.As(err, &nq) {
+				return err
+			}
+			noQueueNotice(e, nq.err)
 		}
 		total := int64(len(req.PointIndices))
 		if total == 0 {
@@ -208,41 +223,55 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 		}
 		prog.done()
 		sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
-		sum := call.Summary()
-		switch e.g.format {
-		case "json":
-			if err := render.SweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
-				return err
-			}
-		case "csv":
-			if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
-				return err
-			}
-		default:
-			render.SweepTable(out.Writer(), req, pts, sum)
-		}
-		if err := out.commit(); err != nil {
+		return so.write(e, out, req, pts, call.Summary())
+	}
+}
+
+// sweepOutputs are the products of a sweep beside its --format output:
+// the HTML report and the plots. The direct and the queued path write
+// them alike.
+type sweepOutputs struct {
+	reportFile string
+	plots      plotList
+	objective  string
+}
+
+// write writes the sweep's points (sorted by index) in --format to out and
+// commits it, then the report and the plots.
+func (so sweepOutputs) write(e *env, out *output, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
+	switch e.g.format {
+	case "json":
+		if err := render.SweepJSON(out.Writer(), req.Axes, pts, sum); err != nil {
 			return err
 		}
-		if *reportFile != "" {
-			if err := writeSweepReport(*reportFile, req, pts, sum); err != nil {
-				return err
-			}
-			if !e.g.quiet {
-				fmt.Fprintf(e.stderr, "wrote report to %s\n", *reportFile)
-			}
+	case "csv":
+		if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
+			return err
 		}
-		title := req.GetBase().GetName()
-		for _, ps := range plotSpecs {
-			if err := plotSweep(ps, title, req.Axes, pts, *objective); err != nil {
-				return fmt.Errorf("plot %s: %w", ps.file, err)
-			}
-			if !e.g.quiet {
-				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
-			}
-		}
-		return nil
+	default:
+		render.SweepTable(out.Writer(), req, pts, sum)
 	}
+	if err := out.commit(); err != nil {
+		return err
+	}
+	if so.reportFile != "" {
+		if err := writeSweepReport(so.reportFile, req, pts, sum); err != nil {
+			return err
+		}
+		if !e.g.quiet {
+			fmt.Fprintf(e.stderr, "wrote report to %s\n", so.reportFile)
+		}
+	}
+	title := req.GetBase().GetName()
+	for _, ps := range so.plots {
+		if err := plotSweep(ps, title, req.Axes, pts, so.objective); err != nil {
+			return fmt.Errorf("plot %s: %w", ps.file, err)
+		}
+		if !e.g.quiet {
+			fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+		}
+	}
+	return nil
 }
 
 // sweepLocate maps a Sweep's field violations to the scenario file (base.*)

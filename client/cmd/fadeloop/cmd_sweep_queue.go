@@ -1,58 +1,84 @@
 package main
 
 import (
+	"bufio"
+	"bytes"
 	"context"
 	"errors"
 	"flag"
 	"fmt"
+	"io"
+	"log/slog"
 	"math"
+	"os"
 	"path/filepath"
+	"runtime"
 	"sort"
 	"strings"
+	"time"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 	"github.com/fadeloop/fadeloop/service/jobs"
 )
 
-// queueLocal is the --queue value that starts the embedded NATS server.
+// queueLocal is the --queue value of the embedded NATS server (the default
+// when no --server, --queue or --direct is given).
 const queueLocal = "local"
 
-// sweepQueueFlags select and configure the job-queue path of sweep.
+// sweepQueueFlags select and configure the job-queue path of sweep, tune
+// and capacity.
 type sweepQueueFlags struct {
 	queue   string // "", queueLocal or nats://HOST:PORT[,…]
-	store   string // embedded store directory
+	store   string // root of the embedded stores (one directory per job)
 	workers int    // in-process workers (0: default)
-	status  string // job ID to show
-	cancel  string // job ID to cancel
+	direct  bool   // run in process without the queue
+	status  string // job ID to show (sweep)
+	cancel  string // job ID to cancel (sweep)
 }
 
+// storeHelp says where the embedded job stores live (flag help).
+const storeHelp = "root `DIR` of the job stores: each job keeps its finished units in DIR/JOB (default <user cache dir>/fadeloop/queue, e.g. ~/.cache/fadeloop/queue; ignored with --server, --direct or a nats:// --queue)"
+
 func (q *sweepQueueFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&q.queue, "queue", "", "run the sweep as a durable job: `URL` nats://HOST:PORT[,...] (external NATS and its workers) or local (a NATS server inside this process, store under the user cache directory)")
-	fs.StringVar(&q.store, "store", "", "on-disk `DIR` of the local queue (implies --queue local; default <user cache dir>/fadeloop/queue)")
-	fs.IntVar(&q.workers, "workers", 0, "in-process queue workers `N` (default: one per core with --queue local, none with a nats:// URL)")
+	q.registerRun(fs, "sweep")
 	fs.StringVar(&q.status, "status", "", "show the state of queued sweep `JOB` and exit")
 	fs.StringVar(&q.cancel, "cancel", "", "cancel queued sweep `JOB` (stored points stay; re-running its command resumes it) and exit")
 }
 
-// active reports whether the queue path is selected.
-func (q *sweepQueueFlags) active() bool {
-	return q.queue != "" || q.store != "" || q.status != "" || q.cancel != ""
+// registerRun registers the flags that choose where the units of cmd run.
+func (q *sweepQueueFlags) registerRun(fs *flag.FlagSet, cmd string) {
+	fs.StringVar(&q.queue, "queue", "", "where the "+cmd+" job runs: `URL` nats://HOST:PORT[,...] (an external NATS and its workers) or local (the default: a NATS server inside this process, its store under --store)")
+	fs.StringVar(&q.store, "store", "", storeHelp)
+	fs.IntVar(&q.workers, "workers", 0, "in-process queue workers `N`, each one unit at a time (default: one per core with the local queue, none with a nats:// URL)")
+	fs.BoolVar(&q.direct, "direct", false, "run the "+cmd+" in this process without the job queue (nothing stored, no resume)")
 }
+
+// queued reports whether the run goes through the job queue: the default
+// unless --server or --direct is given.
+func (q *sweepQueueFlags) queued(g *globals) bool { return g.server == "" && !q.direct }
+
+// local reports whether the queue is the embedded one.
+func (q *sweepQueueFlags) local() bool { return q.queue == "" || q.queue == queueLocal }
 
 // check validates the queue flags against the global ones.
 func (q *sweepQueueFlags) check(g *globals) error {
-	if g.server != "" {
-		return badInputf("--server runs the sweep directly on that server; --queue, --store, --status and --cancel need no --server")
+	if g.server != "" && (q.queue != "" || q.status != "" || q.cancel != "") {
+		return badInputf("--server runs directly on that server; --queue, --status and --cancel need no --server")
+	}
+	if q.direct && (q.queue != "" || q.status != "" || q.cancel != "" || q.workers != 0) {
+		return badInputf("--direct runs in this process without the job queue; it does not go with --queue, --workers, --status or --cancel")
 	}
 	if q.status != "" && q.cancel != "" {
 		return badInputf("--status and --cancel: give one of them")
-	}
-	if q.store != "" && q.queue != "" && q.queue != queueLocal {
-		return badInputf("--store is the local queue's directory; it does not go with --queue %s", q.queue)
 	}
 	if q.queue != "" && q.queue != queueLocal && !strings.HasPrefix(q.queue, "nats://") && !strings.HasPrefix(q.queue, "tls://") {
 		return badInputf("--queue %q: must be local or nats://HOST:PORT (comma-separated for a cluster)", q.queue)
@@ -63,11 +89,48 @@ func (q *sweepQueueFlags) check(g *globals) error {
 	return nil
 }
 
-// open connects to the queue; an external queue that cannot be reached is
-// "unreachable" (exit 3). withWorkers false starts no in-process worker.
-func (q *sweepQueueFlags) open(ctx context.Context, withWorkers bool) (*client.JobQueue, error) {
-	o := client.JobQueueOptions{StoreDir: q.store, Workers: q.workers}
-	if q.queue != queueLocal {
+// noQueue is returned when the default local queue cannot open its store
+// (no user cache directory, not writable, ...): the command then runs
+// without the queue (see fallback).
+type noQueue struct{ err error }
+
+func (n noQueue) Error() string { return n.err.Error() }
+func (n noQueue) Unwrap() error { return n.err }
+
+// fallback reports whether err, from opening the queue, lets the command
+// run without it: only for the default queue with the default store root
+// (a store named with --store or FADELOOP_STORE, an external queue and a
+// job running in another process are errors).
+func (q *sweepQueueFlags) fallback(err error) bool {
+	return q.queue == "" && q.store == "" && !errors.Is(err, jobs.ErrStoreInUse)
+}
+
+// noQueueNotice says that the command runs without the queue, and why.
+func noQueueNotice(e *env, err error) {
+	fmt.Fprintf(e.stderr, "fadeloop: no job store (%v); running in this process without the job queue (nothing stored, no resume; --store DIR names a store)\n", err)
+}
+
+// storeRoot is the root of the embedded job stores.
+func (q *sweepQueueFlags) storeRoot() (string, error) {
+	if q.store != "" {
+		return q.store, nil
+	}
+	return jobs.DefaultStoreDir()
+}
+
+// open connects to the queue of job id: the embedded server on the job's
+// own store (ROOT/JOB), or the external NATS; an external queue that cannot
+// be reached is "unreachable" (exit 3). withWorkers false starts no
+// in-process worker.
+func (q *sweepQueueFlags) open(ctx context.Context, id string, withWorkers bool) (*client.JobQueue, error) {
+	o := client.JobQueueOptions{Workers: q.workers}
+	if q.local() {
+		root, err := q.storeRoot()
+		if err != nil {
+			return nil, err
+		}
+		o.StoreDir = jobs.JobStoreDir(root, id)
+	} else {
 		o.URL = q.queue
 	}
 	if !withWorkers {
@@ -85,14 +148,25 @@ func (q *sweepQueueFlags) open(ctx context.Context, withWorkers bool) (*client.J
 
 // queueControl runs --status or --cancel.
 func queueControl(ctx context.Context, e *env, q *sweepQueueFlags) error {
-	jq, err := q.open(ctx, false)
+	id := q.status
+	if q.cancel != "" {
+		id = q.cancel
+	}
+	if q.local() {
+		root, err := q.storeRoot()
+		if err != nil {
+			return err
+		}
+		if _, err := os.Stat(jobs.JobStoreDir(root, id)); err != nil || id == "" || strings.ContainsAny(id, `/\.`) {
+			return badInputf("no job %s in %s", id, root)
+		}
+	}
+	jq, err := q.open(ctx, id, false)
 	if err != nil {
 		return err
 	}
 	defer jq.Close()
-	id := q.status
 	if q.cancel != "" {
-		id = q.cancel
 		if err := jq.Cancel(ctx, id); err != nil {
 			return queueJobError(id, err)
 		}
@@ -105,9 +179,9 @@ func queueControl(ctx context.Context, e *env, q *sweepQueueFlags) error {
 	if state != jobs.StateCancelled && st.Pending == 0 && st.Done+st.Failed == st.Info.Units {
 		state = "complete"
 	}
-	fmt.Fprintf(e.stdout, "job %s: %s, %d points: %d done, %d failed, %d pending (submitted %d times, last change %s)\n",
+	fmt.Fprintf(e.stdout, "job %s: %s, %d points: %d done, %d failed, %d pending (submitted %d times, last change %s; %s)\n",
 		st.Info.ID, state, st.Info.Units, st.Done, st.Failed, st.Pending, st.Info.Submissions,
-		st.Info.Updated.UTC().Format("2006-01-02 15:04:05 UTC"))
+		st.Info.Updated.UTC().Format("2006-01-02 15:04:05 UTC"), jq.Where())
 	return nil
 }
 
@@ -116,28 +190,6 @@ func queueJobError(id string, err error) error {
 		return badInputf("no job %s in this queue", id)
 	}
 	return err
-}
-
-// sweepFileFormat picks the queued sweep's file format: --format csv or
-// jsonl, or from the --out extension when --format is left at table.
-func sweepFileFormat(e *env) (string, error) {
-	if e.g.out == "" {
-		return "", badInputf("a queued sweep writes each point to a file as it arrives: give --out FILE.csv or FILE.jsonl")
-	}
-	switch e.g.format {
-	case "csv":
-		return client.SweepFileCSV, nil
-	case "jsonl":
-		return client.SweepFileJSONL, nil
-	case "table":
-		if !e.given["format"] {
-			if strings.EqualFold(filepath.Ext(e.g.out), ".jsonl") {
-				return client.SweepFileJSONL, nil
-			}
-			return client.SweepFileCSV, nil
-		}
-	}
-	return "", badInputf("--format %q: a queued sweep writes csv or jsonl", e.g.format)
 }
 
 // sweepSpec is the domain form of a sweep request (the queue path carries
@@ -164,91 +216,262 @@ type sweepIncomplete struct{ msg string }
 
 func (s sweepIncomplete) Error() string { return s.msg }
 
-// runQueuedSweep runs req as a durable job: every point is written to the
-// --out file as it arrives; an interrupted run says what is stored and how
-// to resume; re-running the same command resumes.
-func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.SweepRequest, reportFile string,
+// stopProgress ends the progress display; an unfinished run leaves no
+// closing "done" line.
+func stopProgress(prog *progress, complete bool) {
+	if complete || prog.mode != "lines" {
+		prog.done()
+	}
+}
+
+// runQueuedSweep runs req as a durable job on the job queue (the embedded
+// one by default) and shows it as the direct path does (the same table,
+// CSV, JSON, report and plots): every point is stored as it finishes, csv
+// and jsonl rows go to the --out file at once, an interrupted run says
+// what is stored where and how to resume, and re-running the same command
+// resumes it.
+func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.SweepRequest, so sweepOutputs,
 	sf *client.ScenarioFile, gridFile *client.SourceFile) error {
-	format, err := sweepFileFormat(e)
-	if err != nil {
-		return err
+	if e.g.tokenFile != "" || e.g.tls != (client.TLSOptions{}) {
+		return badInputf("TLS and --auth-token-file flags need --server (the job queue runs without a fadeloop server)")
+	}
+	format := e.g.format
+	if !e.given["format"] && strings.EqualFold(filepath.Ext(e.g.out), ".jsonl") {
+		format = "jsonl"
+	}
+	if !e.given["format"] && q.queue != "" && strings.EqualFold(filepath.Ext(e.g.out), ".csv") {
+		format = "csv" // as --queue wrote before it became the default
+	}
+	if format == "jsonl" && (e.g.out == "" || e.g.out == "-") {
+		return badInputf("--format jsonl writes each point to a file as it arrives: give --out FILE.jsonl")
 	}
 	spec := sweepSpec(req)
 	prep, err := jobs.Prepare(spec)
 	if err != nil {
 		return queueInvalid(sf, gridFile, err)
 	}
+	start := time.Now()
 	if e.g.timeout > 0 {
 		var cancel context.CancelFunc
 		ctx, cancel = context.WithTimeout(ctx, e.g.timeout)
 		defer cancel()
 	}
-	jq, err := q.open(ctx, true)
+	jq, err := q.open(ctx, prep.ID, true)
 	if err != nil {
+		if q.fallback(err) && format != "jsonl" {
+			return noQueue{err}
+		}
 		return err
 	}
 	defer jq.Close()
-	file, err := client.CreateSweepFile(e.g.out, format, prep.Spec.Axes) // axes resolved to values
-	if err != nil {
-		return badInput{err}
+	// csv and jsonl to a file: every row is on disk as soon as it arrives.
+	var stream rowStream
+	if e.g.out != "" && e.g.out != "-" && (format == "csv" || format == "jsonl") {
+		if format == "jsonl" {
+			stream, err = newJSONLStream(e.g.out, prep.Spec.Axes)
+		} else {
+			stream, err = newCSVStream(e.g.out, req.Axes)
+		}
+		if err != nil {
+			return badInput{err}
+		}
 	}
 	prog := e.newProgress("user-slots/s")
-	var rows []jobs.Result
-	var userSlots float64
-	units := 0
+	var (
+		rows      []jobs.Result
+		pts       []*pb.SweepPoint
+		before    = map[int]bool{}
+		userSlots int64 // computed by this run
+		units     int
+	)
 	outcome, err := jq.Sweep(ctx, spec, client.SweepJobOptions{
 		OnSubmit: func(id string, info jobs.SubmitInfo) {
 			units = info.Units
-			line := fmt.Sprintf("job %s: %d points, %d already stored, %d queued", id, info.Units, info.Done, info.Queued)
+			for _, i := range info.DoneIndices {
+				before[i] = true
+			}
+			if e.g.quiet && info.Done == 0 && info.Retried == 0 {
+				return // --quiet: only a resumed run says so
+			}
+			line := fmt.Sprintf("job %s (%s): %d of %d points already stored, %d to run", id, jq.Where(), info.Done, info.Units, info.Queued)
 			if info.Retried > 0 {
 				line += fmt.Sprintf(" (%d failed earlier, queued again)", info.Retried)
 			}
-			prog.done()
 			fmt.Fprintln(e.stderr, line)
 		},
 		OnResult: func(r jobs.Result) error {
-			if err := file.Write(r); err != nil {
-				return err
-			}
 			rows = append(rows, r)
+			var pt *pb.SweepPoint
 			if r.Report != nil {
-				userSlots += float64(r.Report.Aggregate.UserSlots)
+				pt = service.SweepPointToProto(&tune.SweepPoint{Index: int64(r.Index), Point: r.Point, Seed: r.Seed, Report: r.Report}, prep.Spec.Detailed)
+				pts = append(pts, pt)
+				if !before[r.Index] {
+					userSlots += r.Report.SimulatedUserSlots
+				}
+			}
+			if stream != nil {
+				if err := stream.write(r, pt); err != nil {
+					return err
+				}
 			}
 			el := prog.now().Sub(prog.start).Seconds()
-			prog.update(float64(len(rows))/float64(max(units, 1)), userSlots/math.Max(el, 1e-9))
+			prog.update(float64(len(rows))/float64(max(units, 1)), float64(userSlots)/math.Max(el, 1e-9))
 			return nil
 		},
 	})
-	prog.done()
+	stopProgress(prog, err == nil)
+	where := jq.Where()
+	if stream != nil {
+		where = e.g.out + " and the job " + where
+	} else {
+		where = "the job " + where
+	}
 	if outcome.JobID == "" && err != nil {
-		file.Close()
+		if stream != nil {
+			stream.close()
+		}
 		return queueInvalid(sf, gridFile, err)
 	}
 	if err != nil {
-		cerr := file.Close()
-		fmt.Fprintln(e.stderr, outcome.Describe(err, e.g.out))
-		if cerr != nil {
-			return cerr
+		if stream != nil {
+			stream.close()
 		}
+		fmt.Fprintln(e.stderr, outcome.Describe(err, where))
 		return sweepIncomplete{"sweep not complete"}
 	}
-	if ferr := file.Finish(); ferr != nil {
-		return ferr
+	sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
+	wall := time.Since(start).Seconds()
+	sum := &pb.SweepSummary{GridPoints: int64(prep.Grid.Size()), PointsComputed: int64(outcome.Units - outcome.AlreadyDone),
+		WallTimeS: wall, SimulatedUserSlots: userSlots}
+	if wall > 0 {
+		sum.UserSlotsPerS = float64(userSlots) / wall
 	}
-	fmt.Fprintln(e.stderr, outcome.Describe(nil, e.g.out))
-	if reportFile != "" {
-		if err := writeSweepReport(reportFile, req, queuedPoints(rows), nil); err != nil {
+	if stream != nil {
+		if err := stream.finish(pts); err != nil {
 			return err
 		}
-		if !e.g.quiet {
-			fmt.Fprintf(e.stderr, "wrote report to %s\n", reportFile)
+		// The file is written: only the report and plots remain.
+		if err := so.write(e, &output{w: bufio.NewWriter(io.Discard)}, req, pts, sum); err != nil {
+			return err
+		}
+	} else {
+		out, err := e.openOutput()
+		if err != nil {
+			return err
+		}
+		defer out.discard()
+		if err := so.write(e, out, req, pts, sum); err != nil {
+			return err
 		}
 	}
+	if !e.g.quiet || outcome.Failed > 0 {
+		fmt.Fprintln(e.stderr, outcome.Describe(nil, where))
+	}
 	if outcome.Failed > 0 {
+		for _, r := range rows {
+			if r.Status != jobs.StatusDone {
+				fmt.Fprintf(e.stderr, "point %d failed after %d attempts: %s\n", r.Index, r.Attempts, r.Error)
+			}
+		}
 		return sweepIncomplete{fmt.Sprintf("%d of %d points failed", outcome.Failed, outcome.Units)}
 	}
 	return nil
 }
+
+// rowStream writes a queued sweep's points to the --out file as they
+// arrive, each on disk at once; finish rewrites the file in grid order.
+type rowStream interface {
+	write(r jobs.Result, pt *pb.SweepPoint) error
+	finish(pts []*pb.SweepPoint) error
+	close() error
+}
+
+// jsonlStream is client.SweepFile in JSON Lines: one jobs.Result a line,
+// failed points with their error.
+type jsonlStream struct{ f *client.SweepFile }
+
+func newJSONLStream(path string, axes []tune.Axis) (rowStream, error) {
+	f, err := client.CreateSweepFile(path, client.SweepFileJSONL, axes)
+	if err != nil {
+		return nil, err
+	}
+	return jsonlStream{f}, nil
+}
+
+func (s jsonlStream) write(r jobs.Result, _ *pb.SweepPoint) error { return s.f.Write(r) }
+func (s jsonlStream) finish([]*pb.SweepPoint) error               { return s.f.Finish() }
+func (s jsonlStream) close() error                                { return s.f.Close() }
+
+// csvStream writes the direct path's CSV (render.SweepCSV: the same
+// header, columns and number format) row by row; a failed point has no
+// row (its error is printed at the end).
+type csvStream struct {
+	path   string
+	axes   []*pb.SweepAxis
+	f      *os.File
+	header []byte
+}
+
+func newCSVStream(path string, axes []*pb.SweepAxis) (rowStream, error) {
+	var h bytes.Buffer
+	if err := render.SweepCSV(&h, axes, nil); err != nil {
+		return nil, err
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := f.Write(h.Bytes()); err != nil {
+		f.Close()
+		return nil, err
+	}
+	return &csvStream{path: path, axes: axes, f: f, header: h.Bytes()}, nil
+}
+
+func (s *csvStream) write(_ jobs.Result, pt *pb.SweepPoint) error {
+	if pt == nil {
+		return nil
+	}
+	var b bytes.Buffer
+	if err := render.SweepCSV(&b, s.axes, []*pb.SweepPoint{pt}); err != nil {
+		return err
+	}
+	_, err := s.f.Write(bytes.TrimPrefix(b.Bytes(), s.header)) // unbuffered: on disk at once
+	return err
+}
+
+// finish rewrites the file in grid order through a temporary file renamed
+// over it, so the file is never partly written: the same bytes as the
+// direct path's --format csv.
+func (s *csvStream) finish(pts []*pb.SweepPoint) error {
+	mode := os.FileMode(0o644)
+	if fi, err := s.f.Stat(); err == nil {
+		mode = fi.Mode().Perm()
+	}
+	s.f.Close()
+	tmp, err := os.CreateTemp(filepath.Dir(s.path), ".sweep-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(tmp.Name())
+	bw := bufio.NewWriter(tmp)
+	err = render.SweepCSV(bw, s.axes, pts)
+	if err == nil {
+		err = bw.Flush()
+	}
+	if err == nil {
+		err = tmp.Chmod(mode)
+	}
+	if cerr := tmp.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return err
+	}
+	return os.Rename(tmp.Name(), s.path)
+}
+
+func (s *csvStream) close() error { return s.f.Close() }
 
 // queueInvalid maps the domain's field violations (loop.Violations, field
 // paths as in the proto) onto the files they came from, like the direct path.
@@ -274,26 +497,105 @@ func queueInvalid(sf *client.ScenarioFile, gridFile *client.SourceFile, err erro
 	return sweepLocate(sf, gridFile, inv)
 }
 
-// queuedPoints converts the stored results to the sweep points of the
-// report, sorted by grid index (failed points have no report and are left
-// out).
-func queuedPoints(rows []jobs.Result) []*pb.SweepPoint {
-	var pts []*pb.SweepPoint
-	for _, r := range rows {
-		if r.Report == nil {
-			continue
-		}
-		p := &pb.SweepPoint{Index: int64(r.Index), Seed: r.Seed, Report: service.ReportToProto(r.Report)}
-		for _, c := range r.Point.Coords {
-			p.Coordinates = append(p.Coordinates, c.Value)
-		}
-		pts = append(pts, p)
-	}
-	sort.Slice(pts, func(i, j int) bool { return pts[i].GetIndex() < pts[j].GetIndex() })
-	return pts
-}
-
 // writeSweepReport writes the HTML report of a sweep (direct or queued).
 func writeSweepReport(path string, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb.SweepSummary) error {
 	return writeReportFile(path, htmlreport.Input{Sweep: &htmlreport.Sweep{Base: req.GetBase(), Axes: req.GetAxes(), Points: pts, Summary: sum}})
+}
+
+// searchJob is a tune or capacity search whose replications run as units
+// of a job on the job queue (tune.Options.RunReplication through the
+// embedded server's Config.RunReplication): the search itself stays in
+// this process, each replication is stored as it finishes, and a re-run of
+// the same command finds the stored ones and does not compute them again.
+type searchJob struct {
+	kind string
+	id   string
+	jq   *client.JobQueue
+}
+
+// searchSession opens the output and the client of a tune or capacity
+// search of the domain request spec (its job ID is a hash of it): on the
+// job queue by default, as e.session otherwise (--server or --direct).
+// The job's first line says where its replications are stored and how
+// many are there already. job is nil off the queue.
+func (e *env) searchSession(ctx context.Context, q *sweepQueueFlags, kind string, spec any) (out *output, cl *client.Client, release func(), job *searchJob, err error) {
+	if err := q.check(e.g); err != nil {
+		return nil, nil, nil, nil, err
+	}
+	if !q.queued(e.g) {
+		out, cl, release, err = e.session()
+		return out, cl, release, nil, err
+	}
+	if e.g.tokenFile != "" || e.g.tls != (client.TLSOptions{}) {
+		return nil, nil, nil, nil, badInputf("TLS and --auth-token-file flags need --server (the job queue runs without a fadeloop server)")
+	}
+	id, err := jobs.JobID(kind, spec)
+	if err != nil {
+		return nil, nil, nil, nil, err
+	}
+	jq, err := q.open(ctx, id, true)
+	if err != nil {
+		if q.fallback(err) {
+			noQueueNotice(e, err)
+			out, cl, release, err = e.session()
+			return out, cl, release, nil, err
+		}
+		return nil, nil, nil, nil, err
+	}
+	done, _, err := jq.StoredCount(ctx, id)
+	if err != nil {
+		jq.Close()
+		return nil, nil, nil, nil, err
+	}
+	if done > 0 { // a resumed search says so, and where its store is
+		fmt.Fprintf(e.stderr, "%s job %s (%s): %d replications already stored\n", kind, id, jq.Where(), done)
+	}
+	// Replications in flight: enough to keep every worker busy while
+	// results travel back (the search's answer does not depend on it).
+	inFlight := 64
+	if q.local() {
+		w := q.workers
+		if w == 0 {
+			w = runtime.GOMAXPROCS(0)
+		}
+		inFlight = 2 * w
+	}
+	cl, err = client.Embedded(service.Config{Logger: slog.New(slog.DiscardHandler), EngineParallelism: inFlight,
+		RunReplication: jq.ReplicationRunner(id)}, client.Options{CallTimeout: e.g.timeout})
+	if err != nil {
+		jq.Close()
+		return nil, nil, nil, nil, err
+	}
+	out, err = e.openOutput()
+	if err != nil {
+		cl.Close()
+		jq.Close()
+		return nil, nil, nil, nil, err
+	}
+	return out, cl, func() { cl.Close(); jq.Close(); out.discard() }, &searchJob{kind: kind, id: id, jq: jq}, nil
+}
+
+// stopped maps the error of a search on the job queue that was
+// interrupted (Ctrl-C, --timeout) to the message saying what is stored
+// where and how to resume (exit 1); other errors pass unchanged.
+func (j *searchJob) stopped(ctx context.Context, e *env, err error) error {
+	if j == nil || err == nil {
+		return err
+	}
+	if ctx.Err() == nil && !client.IsCanceled(err) && status.Code(err) != codes.DeadlineExceeded {
+		return err
+	}
+	sctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	done, _, serr := j.jq.StoredCount(sctx, j.id)
+	if serr != nil {
+		return err
+	}
+	why := " (cancelled)"
+	if status.Code(err) == codes.DeadlineExceeded || errors.Is(ctx.Err(), context.DeadlineExceeded) {
+		why = " (deadline reached)"
+	}
+	fmt.Fprintf(e.stderr, "%s job %s interrupted%s: %d replications stored in the job %s; run the same command again to resume (stored replications are not recomputed)\n",
+		j.kind, j.id, why, done, j.jq.Where())
+	return sweepIncomplete{j.kind + " not complete"}
 }

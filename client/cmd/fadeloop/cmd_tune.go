@@ -13,6 +13,7 @@ import (
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
+	"github.com/fadeloop/fadeloop/service"
 )
 
 func init() {
@@ -67,6 +68,17 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
            condition (step the only axis), each recommended step ringed
   auto     heatmap for step × rate, steps for step alone
 
+Where the replications run: with no --server each replication is a unit of
+a durable job on the job queue, as for sweep (--queue local by default: a
+NATS server inside this process, its store in <user cache
+dir>/fadeloop/queue/JOB, --store DIR for another root, --workers N; --queue
+nats://HOST:PORT for an external NATS and its workers). The search itself
+stays in this process. Every finished replication is stored, so a search
+interrupted by Ctrl-C or --timeout and run again computes none of them twice
+and gives the same answer; its first line then names the job, its store and
+the replications already stored. --direct runs the replications in this
+process without the queue.
+
 Exit status 4 (after the output is written) when the verdict, overall or
 of any condition, is "constraints unmet": no candidate meets the
 objective's constraints (outage limit, noise-rise limit, BLER band); the
@@ -115,6 +127,8 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
+	var qf sweepQueueFlags
+	qf.registerRun(fs, "tune")
 	return func(ctx context.Context, args []string) error {
 		if err := e.g.checkFormat("table", "csv", "json"); err != nil {
 			return err
@@ -199,16 +213,16 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			}
 		}
 
-		out, cl, release, err := e.session()
+		out, cl, release, job, err := e.searchSession(ctx, &qf, "tune", service.TuneRequestFromProto(req))
 		if err != nil {
 			return err
 		}
 		defer release()
 		prog := e.newProgress("user-slots/s")
 		rec, err := cl.Tune(ctx, req, searchProgress(prog))
-		prog.done()
+		stopProgress(prog, err == nil)
 		if err != nil {
-			return searchError(sf, reqFile, err)
+			return searchError(sf, reqFile, job.stopped(ctx, e, err))
 		}
 		err = e.emit(out, rec, func(w io.Writer) error { return render.TuneCSV(w, rec) },
 			func(w io.Writer) { render.TuneTable(w, req, rec) })
