@@ -17,7 +17,14 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		fmt.Fprintln(w, n)
 	}
 	if sum != nil {
-		fmt.Fprintf(w, "%d of %d grid points, %s user-slots in %.2f s (%s)\n\n", sum.GetPointsComputed(), sum.GetGridPoints(),
+		// A resumed job shows points stored by an earlier run beside the
+		// ones computed now; the work and rate are this run's.
+		shown, computed := int64(len(pts)), sum.GetPointsComputed()
+		count := fmt.Sprintf("%d of %d grid points", computed, sum.GetGridPoints())
+		if shown > computed {
+			count = fmt.Sprintf("%d of %d grid points (%d stored earlier, %d computed now)", shown, sum.GetGridPoints(), shown-computed, computed)
+		}
+		fmt.Fprintf(w, "%s, %s user-slots in %.2f s (%s)\n\n", count,
 			GroupDigits(sum.GetSimulatedUserSlots()), sum.GetWallTimeS(), FmtRate(sum.GetUserSlotsPerS(), "user-slots/s"))
 	}
 	h := []string{"point"}
