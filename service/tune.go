@@ -202,7 +202,7 @@ func newSearchProgress(intervalMs int32, send func(*pb.SearchProgress) error) *s
 
 // post is the tune.Options.Progress callback. The last event of a search
 // (fraction done 1) is always forwarded.
-func (p *searchProgress) post(tp tune.Progress) {
+func (p *searchProgress) post(tp tune.SearchProgress) {
 	now := time.Now()
 	p.mu.Lock()
 	if tp.FractionDone < 1 && !p.last.IsZero() && now.Sub(p.last) < p.interval {

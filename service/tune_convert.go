@@ -109,7 +109,7 @@ func replicationEstimateToProto(e tune.ReplicationEstimate) *pb.ReplicationEstim
 	return &pb.ReplicationEstimate{Mean: e.Mean, Low: e.Low, High: e.High, N: i32(e.N)}
 }
 
-func tuneFiguresToProto(f tune.Figures) *pb.TuneFigures {
+func tuneFiguresToProto(f tune.TuneFigures) *pb.TuneFigures {
 	return &pb.TuneFigures{
 		SirErrorMeanDb:         replicationEstimateToProto(f.SIRErrorMeanDB),
 		SirErrorStdDb:          replicationEstimateToProto(f.SIRErrorStdDB),

@@ -143,10 +143,10 @@ type CapacityPoint struct {
 	// rise ≤ the noise-rise limit. LoadFeasible: no replication was
 	// flagged infeasible by the engine (load factor or spectral radius
 	// ≥ 1, or users pinned at maximum power below target).
-	OutageOK     bool    `json:"outage_ok"`
-	NoiseRiseOK  bool    `json:"noise_rise_ok"`
-	LoadFeasible bool    `json:"load_feasible"`
-	Figures      Figures `json:"figures"`
+	OutageOK     bool        `json:"outage_ok"`
+	NoiseRiseOK  bool        `json:"noise_rise_ok"`
+	LoadFeasible bool        `json:"load_feasible"`
+	Figures      TuneFigures `json:"figures"`
 }
 
 // CapacityResult is the answer of Capacity.

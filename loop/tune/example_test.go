@@ -30,7 +30,7 @@ func ExampleTune() {
 		Objective: tune.Objective{Kind: tune.ObjectiveMinSIRErrorStd},
 	}
 	rec, err := tune.Tune(context.Background(), req, tune.Options{
-		Progress: func(p tune.Progress) { _ = p.CandidatesRemaining },
+		Progress: func(p tune.SearchProgress) { _ = p.CandidatesRemaining },
 	})
 	if err != nil {
 		fmt.Println(err) // loop.Violations name every bad field

@@ -124,7 +124,7 @@ func TestRunPool(t *testing.T) {
 // checkFractions checks the FractionDone of a finished search's progress
 // events: in [0, 1], never decreasing, below 1 before the last event and
 // exactly 1 in the last.
-func checkFractions(t *testing.T, name string, ps []Progress) {
+func checkFractions(t *testing.T, name string, ps []SearchProgress) {
 	t.Helper()
 	if len(ps) == 0 {
 		t.Fatalf("%s: no progress events", name)
@@ -152,8 +152,8 @@ func checkFractions(t *testing.T, name string, ps []Progress) {
 // Capacity (doubling, a given range, below the range) report a fraction
 // done that is monotone, in [0, 1] and exactly 1 at the end only.
 func TestFractionDone(t *testing.T) {
-	record := func(ps *[]Progress) Options {
-		return Options{Parallelism: 2, Progress: func(p Progress) { *ps = append(*ps, p) }}
+	record := func(ps *[]SearchProgress) Options {
+		return Options{Parallelism: 2, Progress: func(p SearchProgress) { *ps = append(*ps, p) }}
 	}
 	// The toy evaluator (pipeline_test.go) keeps this quick under -race:
 	// 5 candidates × 3 conditions, 2 replications in the first round.
@@ -172,7 +172,7 @@ func TestFractionDone(t *testing.T) {
 		},
 	}
 	for name, req := range tunes {
-		var ps []Progress
+		var ps []SearchProgress
 		rec, err := tuneWith(context.Background(), req(), record(&ps), toyEval)
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
@@ -204,7 +204,7 @@ func TestFractionDone(t *testing.T) {
 		},
 	}
 	for name, req := range caps {
-		var ps []Progress
+		var ps []SearchProgress
 		res, err := capacityWith(context.Background(), req(), record(&ps), capToy)
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)

@@ -131,7 +131,7 @@ func constraintsText(o Objective, bler bool) string {
 }
 
 // missesOf lists the constraints candidate figures f miss in condition name.
-func missesOf(o Objective, name string, f Figures) []ConstraintMiss {
+func missesOf(o Objective, name string, f TuneFigures) []ConstraintMiss {
 	var out []ConstraintMiss
 	add := func(key string, v, lim float64, upper bool) {
 		l := FigureLabelOf(key)

@@ -85,7 +85,7 @@ type Options struct {
 	// Progress, when set, is called after every finished run (serialised,
 	// from worker goroutines; it must not block for long) and once more
 	// when the answer is ready (FractionDone 1).
-	Progress func(Progress)
+	Progress func(SearchProgress)
 	// Parallelism is the most runs in flight; 0 means GOMAXPROCS. The result
 	// does not depend on it.
 	Parallelism int

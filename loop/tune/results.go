@@ -11,9 +11,10 @@ import (
 // This file holds the answer of Tune: figures, candidates, decisions,
 // baselines and the recommendation.
 
-// Figures is every figure of one candidate under one condition, each with
-// its interval over replications at the request's confidence.
-type Figures struct {
+// TuneFigures (fadeloop.v1.TuneFigures) is every figure of one candidate
+// under one condition, each with its interval over replications at the
+// request's confidence.
+type TuneFigures struct {
 	SIRErrorMeanDB    ReplicationEstimate `json:"sir_error_mean_db"`
 	SIRErrorStdDB     ReplicationEstimate `json:"sir_error_std_db"`
 	OutageProbability ReplicationEstimate `json:"outage_probability"`
@@ -29,7 +30,7 @@ type Figures struct {
 }
 
 // figures summarises samples at confidence conf.
-func figures(xs []Sample, conf float64) Figures {
+func figures(xs []Sample, conf float64) TuneFigures {
 	col := func(f func(Sample) float64) []float64 {
 		out := make([]float64, len(xs))
 		for i, x := range xs {
@@ -37,7 +38,7 @@ func figures(xs []Sample, conf float64) Figures {
 		}
 		return out
 	}
-	fg := Figures{
+	fg := TuneFigures{
 		SIRErrorMeanDB:    meanCI(col(func(s Sample) float64 { return s.SIRErrorMeanDB }), conf),
 		SIRErrorStdDB:     clampEstimate(meanCI(col(func(s Sample) float64 { return s.SIRErrorStdDB }), conf), 0, math.Inf(1)),
 		OutageProbability: clampEstimate(meanCI(col(func(s Sample) float64 { return s.OutageProbability }), conf), 0, 1),
@@ -63,7 +64,7 @@ type CandidateResult struct {
 	// Candidate is the grid index.
 	Candidate int `json:"candidate"`
 	// Figures: every figure with its interval.
-	Figures Figures `json:"figures"`
+	Figures TuneFigures `json:"figures"`
 	// Objective is the figure candidates were ranked by (weighted across
 	// conditions): the objective's figure, or the worst relative constraint
 	// excess (Objective.Excess) when no candidate met the constraints
@@ -217,7 +218,7 @@ type Decision struct {
 // at inner_loop.fixed_power_dbm), on the same replication seeds as the
 // candidates.
 type Baseline struct {
-	Figures Figures `json:"figures"`
+	Figures TuneFigures `json:"figures"`
 	// Figure labels the judged figure: the objective's own figure (SIR
 	// error std in dB, outage in %, mean Tx power in dBm).
 	Figure FigureLabel `json:"figure"`

@@ -14,8 +14,8 @@ import (
 // (common random numbers).
 type runFunc func(ctx context.Context, k, c, r int) (Sample, error)
 
-// Progress is reported while a search runs.
-type Progress struct {
+// SearchProgress is reported while a search runs (fadeloop.v1.SearchProgress).
+type SearchProgress struct {
 	// Stage counts the rounds of the sequential procedure (0 = the first
 	// MinReplications of every candidate).
 	Stage int `json:"stage"`
@@ -91,7 +91,7 @@ type engine struct {
 	jobCost      func(k, c int) int64
 	tieLess      func(a, b int) bool
 	parallel     int
-	progress     func(Progress)
+	progress     func(SearchProgress)
 	run          runFunc
 
 	samples [][][]Sample // [k][c][r]
@@ -163,7 +163,7 @@ func (e *engine) report(final bool) {
 		f = min(max(f, e.frac), math.Nextafter(1, 0))
 	}
 	e.frac = f
-	e.progress(Progress{Stage: e.stage, CandidatesRemaining: e.remain, ReplicationsDone: e.progDone,
+	e.progress(SearchProgress{Stage: e.stage, CandidatesRemaining: e.remain, ReplicationsDone: e.progDone,
 		UserSlotsDone: e.progWork, FractionDone: f})
 }
 

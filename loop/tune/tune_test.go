@@ -206,7 +206,7 @@ func TestTuneDeterministic(t *testing.T) {
 
 func TestTuneProgressAndCancel(t *testing.T) {
 	var events, last atomic.Int64
-	rec, err := Tune(context.Background(), tuneRequestSmall(), Options{Progress: func(p Progress) {
+	rec, err := Tune(context.Background(), tuneRequestSmall(), Options{Progress: func(p SearchProgress) {
 		events.Add(1)
 		last.Store(int64(p.ReplicationsDone))
 		if p.CandidatesRemaining < 0 || p.CandidatesRemaining > 6 {
@@ -222,7 +222,7 @@ func TestTuneProgressAndCancel(t *testing.T) {
 	}
 	ctx, cancel := context.WithCancel(context.Background())
 	var after atomic.Int64
-	_, err = Tune(ctx, tuneRequestSmall(), Options{Progress: func(p Progress) {
+	_, err = Tune(ctx, tuneRequestSmall(), Options{Progress: func(p SearchProgress) {
 		if p.ReplicationsDone >= 3 {
 			cancel()
 			after.Add(1)
@@ -265,7 +265,7 @@ func TestMinTxPowerConstrained(t *testing.T) {
 	if cr.Decision.ConstraintsUnmet {
 		t.Fatalf("no feasible setting: %s", cr.Decision.Reason)
 	}
-	ok := func(f Figures) bool {
+	ok := func(f TuneFigures) bool {
 		return f.OutageProbability.Mean <= obj.OutageLimit && f.BLER.Mean >= 0.07 && f.BLER.Mean <= 0.13
 	}
 	best := cr.Candidates[cr.Decision.Best]
