@@ -418,8 +418,8 @@ func failures(p *CapacityPoint) []string {
 // users" (unit: "users", or "users per cell" in multi-cell mode).
 func pointText(p *CapacityPoint, unit string) string {
 	o, n := FigureLabelOf(FigureOutage), FigureLabelOf(FigureNoiseRise)
-	s := fmt.Sprintf("outage %s %s, noise rise %s %s at %d %s", o.Value(p.Figures.OutageProbability.Mean), o.Interval(p.Figures.OutageProbability),
-		n.Value(p.Figures.NoiseRiseDB.Mean), n.Interval(p.Figures.NoiseRiseDB), p.TotalUsers, unit)
+	s := fmt.Sprintf("outage %s, noise rise %s at %d %s", o.Estimate(p.Figures.OutageProbability),
+		n.Estimate(p.Figures.NoiseRiseDB), p.TotalUsers, unit)
 	if k := p.Figures.InfeasibleReplications; k > 0 {
 		s += fmt.Sprintf(", load infeasible in %d of %d replications", k, p.Figures.OutageProbability.N)
 	}

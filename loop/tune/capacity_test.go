@@ -364,3 +364,16 @@ func TestCapacityNoiseRiseLimit(t *testing.T) {
 		t.Errorf("capacity %d users outside [9, %d] (static load bound)", res.TotalUsers, bound)
 	}
 }
+
+// A capacity point's text writes each unit once: "outage 2.43 [2.27, 2.59] %",
+// not "2.43 % [2.27, 2.59] %".
+func TestPointTextUnitsOnce(t *testing.T) {
+	p := &CapacityPoint{TotalUsers: 68}
+	p.Figures.OutageProbability = ReplicationEstimate{Mean: 0.0243, Low: 0.0227, High: 0.0259, N: 4}
+	p.Figures.NoiseRiseDB = ReplicationEstimate{Mean: 5.82, Low: 5.67, High: 5.96, N: 4}
+	got := pointText(p, "users")
+	want := "outage 2.43 [2.27, 2.59] %, noise rise 5.82 [5.67, 5.96] dB at 68 users"
+	if got != want {
+		t.Errorf("pointText = %q, want %q", got, want)
+	}
+}

@@ -102,6 +102,12 @@ func (l FigureLabel) Interval(e ReplicationEstimate) string {
 	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.Unit
 }
 
+// Estimate is "value [low, high] unit" of an estimate of the value, the
+// unit written once, e.g. "15.74 [15.23, 16.26] %".
+func (l FigureLabel) Estimate(e ReplicationEstimate) string {
+	return l.num(e.Mean) + " " + l.Interval(e)
+}
+
 // DiffInterval is "[low, high] unit" of an estimate of a difference.
 func (l FigureLabel) DiffInterval(e ReplicationEstimate) string {
 	return "[" + l.num(e.Low) + ", " + l.num(e.High) + "] " + l.DiffUnit
