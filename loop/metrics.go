@@ -2,6 +2,7 @@ package loop
 
 import (
 	"math"
+	"sync"
 )
 
 // Statistics of a set of users (one user, a distance bin, all users), per
@@ -68,6 +69,12 @@ type collector struct {
 
 	fullScan  bool // some slot of this batch skipped range tracking (fast path)
 	quantiles []float64
+
+	// The previous batch's accumulators, summarised off the slot loop
+	// (endBatch), and the wait for and panic of that summary.
+	spare        batchBufs
+	pending      sync.WaitGroup
+	pendingPanic any
 }
 
 // quantityHists are the histograms of one quantity (SIR error ratio or Tx
@@ -108,18 +115,19 @@ func newQuantityHists(l *histLayout, users int, setUsers []int) quantityHists {
 	return q
 }
 
-// mergeUser summarises user u's batch histogram into out, adds it to the
+// mergeUser summarises user u's batch histogram (in batch, used range
+// bLo..bHi) into out, adds it to the
 // user's cumulative histogram and to its distance bin's and the
 // aggregate's batch histograms, and resets the batch range.
-func (q *quantityHists) mergeUser(u, bin, agg int, cnt int64, out *histStats) {
-	lo, hi := int(q.lo[u]), int(q.hi[u])
+func (q *quantityHists) mergeUser(batch []uint32, bLo, bHi []int32, u, bin, agg int, cnt int64, out *histStats) {
+	lo, hi := int(bLo[u]), int(bHi[u])
 	row := q.stride * u
-	scanMerge(q.layout, q.batch[row:row+q.stride], q.cum[row:row+q.stride], q.setBatch[bin], q.setBatch[agg], lo, hi, uint64(cnt), out)
+	scanMerge(q.layout, batch[row:row+q.stride], q.cum[row:row+q.stride], q.setBatch[bin], q.setBatch[agg], lo, hi, uint64(cnt), out)
 	for _, s := range [2]int{bin, agg} {
 		q.setLo[s], q.setHi[s] = min(q.setLo[s], lo), max(q.setHi[s], hi)
 	}
-	q.loCum[u], q.hiCum[u] = min(q.loCum[u], q.lo[u]), max(q.hiCum[u], q.hi[u])
-	q.lo[u], q.hi[u] = math.MaxInt32, -1
+	q.loCum[u], q.hiCum[u] = min(q.loCum[u], bLo[u]), max(q.hiCum[u], bHi[u])
+	bLo[u], bHi[u] = math.MaxInt32, -1
 }
 
 // mergeSet summarises set s's batch histogram into out, adds it to the
@@ -160,6 +168,14 @@ func newCollector(sh *shared) *collector {
 	c.nextBatchEnd = sh.warm + c.measuredSlots/int64(c.batchCount)
 	if c.nextBatchEnd == sh.warm {
 		c.nextBatchEnd = sh.warm + 1
+	}
+	c.spare = batchBufs{
+		sirB: make([]uint32, len(c.sir.batch)), powB: make([]uint32, len(c.pow.batch)),
+		sirLo: filled(n, int32(math.MaxInt32)), sirHi: filled(n, int32(-1)),
+		powLo: filled(n, int32(math.MaxInt32)), powHi: filled(n, int32(-1)),
+		slots: make([]int64, n), outage: make([]int64, n), atMax: make([]int64, n),
+		blocks: make([]int64, n), blockErrs: make([]int64, n), powSum: make([]float64, n),
+		rise: make([]uint64, len(c.riseBatch)), riseLo: math.MaxInt, riseHi: -1,
 	}
 	c.convergedAt = make([]int64, n)
 	for i := range c.convergedAt {
