@@ -76,6 +76,7 @@ func (c *collector) swapBatch() {
 // so every figure is computed in the same order as on one goroutine.
 func (c *collector) endBatch() {
 	c.waitBatch()
+	c.flushFused()
 	c.swapBatch()
 	c.pending.Add(1)
 	go func() {
@@ -92,6 +93,7 @@ func (c *collector) endBatch() {
 // endBatchNow closes the current batch on the calling goroutine.
 func (c *collector) endBatchNow() {
 	c.waitBatch()
+	c.flushFused()
 	c.swapBatch()
 	c.closeBatch(&c.spare)
 }

@@ -67,14 +67,25 @@ type collector struct {
 	convWindowLen, convWindowHead []int32
 	unconverged                   int
 
-	fullScan  bool // some slot of this batch skipped range tracking (fast path)
-	quantiles []float64
+	fullScan   bool  // some slot of this batch skipped range tracking (fast path)
+	fusedSlots int64 // fast-path slots of this batch: one more in every user's batchSlots
+	quantiles  []float64
 
 	// The previous batch's accumulators, summarised off the slot loop
 	// (endBatch), and the wait for and panic of that summary.
 	spare        batchBufs
 	pending      sync.WaitGroup
 	pendingPanic any
+}
+
+// flushFused adds the batch's fast-path slots to every user's count.
+func (c *collector) flushFused() {
+	if k := c.fusedSlots; k > 0 {
+		for u := range c.batchSlots {
+			c.batchSlots[u] += k
+		}
+		c.fusedSlots = 0
+	}
 }
 
 // quantityHists are the histograms of one quantity (SIR error ratio or Tx
@@ -198,7 +209,7 @@ type slotInputs struct {
 	powerMW     []float64 // transmit power of this slot, mW
 	receivedMW  []float64 // received power of this slot, mW (fast path)
 	effSIRSum   []float64 // block accumulator of the effective SIR (fast path adds to it)
-	effSIRCount []int32   // slots in the block accumulator
+	effSIRCount []int32   // slots in the block accumulator (slot path; slotFused's caller counts its own)
 	maxPowerMW  float64   // max_power_dbm in mW
 }
 
@@ -278,18 +289,21 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	rx := in.receivedMW[:n]
 	sir := in.sirLin[:n]
 	inv := in.invTarget[:n]
-	acc, cnt := in.effSIRSum[:n], in.effSIRCount[:n]
+	acc := in.effSIRSum[:n]
 	sl, pl := sh.sirLayout, sh.powLayout
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
 	gp := sh.gp
 	ss, ps := c.sir.stride, c.pow.stride
-	bOut, bMax, bPsum, bCnt := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n], c.batchSlots[:n]
+	bOut, bMax, bPsum := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n]
 	sB, pB := c.sir.batch, c.pow.batch
 	// The fast path does not track the used bin range: the batch end scans
-	// whole histograms instead (cheaper than two min/max per value).
+	// whole histograms instead (cheaper than two min/max per value). Nor
+	// does it count each user's slot: every user has one (fusedSlots, and
+	// the caller's count of fused slots in the block accumulator).
 	c.fullScan = true
+	c.fusedSlots++
 	for u, r := range rx {
 		s := sirOf(gp, r, X)
 		sir[u] = s
@@ -316,8 +330,6 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 		}
 		bMax[u] += m
 		bPsum[u] += pu
-		bCnt[u]++
-		cnt[u]++
 	}
 }
 

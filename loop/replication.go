@@ -36,11 +36,14 @@ type replication struct {
 	idFixed []bool
 
 	// blocks
-	effAcc  []float64
-	effN    []int32
-	blkRand []*rand.Rand
-	blockB  int64
-	blkLeft int64 // slots left in the current block
+	effAcc []float64
+	effN   []int32
+	// effFused counts the fused slots of the current block: every user
+	// had one more slot in its accumulator than effN says.
+	effFused int32
+	blkRand  []*rand.Rand
+	blockB   int64
+	blkLeft  int64 // slots left in the current block
 
 	col    *collector
 	inputs slotInputs // the slices col reads each slot

@@ -87,6 +87,7 @@ func (c *collector) setValues(i int, hsS, hsP *histStats, cnt, out, mx, blk, err
 // targets, ideal-mode failures, traces).
 func (c *collector) result() *repResult {
 	c.waitBatch()
+	c.flushFused()
 	if c.riseSlots > 0 || anyPositive(c.batchSlots) {
 		c.endBatchNow()
 	}
