@@ -193,16 +193,28 @@ func (c *collector) closeBatch(b *batchBufs) {
 
 // scanMerge summarises a batch histogram over [lo, hi] (scanStats, the
 // one histogram scan), adds every count to cum and to the set histograms
-// setA and setB (either may be nil), and clears the batch.
+// setA and setB (either may be nil), and clears the batch. The merge is a
+// separate pass of plain integer adds (no call per bin): the sums do not
+// depend on the order.
 func scanMerge[T uint32 | uint64](l *histLayout, batch, cum []T, setA, setB []uint64, lo, hi int, n uint64, out *histStats) {
-	scanStats(l, batch, lo, hi, n, quantileSpec[:], out, func(j int, cj T) {
-		batch[j] = 0
-		cum[j] += cj
-		if setA != nil {
-			setA[j] += uint64(cj)
+	scanStats(l, batch, lo, hi, n, quantileSpec[:], out, nil)
+	if n == 0 || lo > hi {
+		return
+	}
+	b := batch[lo : hi+1]
+	cm := cum[lo : hi+1]
+	cm = cm[:len(b)]
+	for j, x := range b {
+		cm[j] += x
+	}
+	for _, set := range [2][]uint64{setA, setB} {
+		if set != nil {
+			st := set[lo : hi+1]
+			st = st[:len(b)]
+			for j, x := range b {
+				st[j] += uint64(x)
+			}
 		}
-		if setB != nil {
-			setB[j] += uint64(cj)
-		}
-	})
+	}
+	clear(b)
 }
