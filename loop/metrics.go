@@ -311,25 +311,50 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	}
 	// The outage and at-max counts are added branch-free (conditional
 	// moves): both conditions flip at random from slot to slot.
-	sShift, sBase, sNb := sl.shift, sl.base1, sl.nb
-	pShift, pBase, pNb := pl.shift, pl.base1, pl.nb
+	if sl.shift == fusedShift && pl.shift == fusedShift {
+		// The usual resolution: with a constant shift these loops keep
+		// everything in registers (a variable shift ties up CX).
+		fusedHist(sB, ss, sir, inv, bOut, marg, fusedShift, sl.base1, sl.nb)
+		fusedPow(pB, ps, p, bMax, bPsum, pmax, fusedShift, pl.base1, pl.nb)
+		return
+	}
+	fusedHist(sB, ss, sir, inv, bOut, marg, sl.shift, sl.base1, sl.nb)
+	fusedPow(pB, ps, p, bMax, bPsum, pmax, pl.shift, pl.base1, pl.nb)
+}
+
+// fusedShift is the bin-index shift (52 − m) of the usual histogram
+// resolution, m = HistBinsPerOctaveLog2.
+const fusedShift = 52 - HistBinsPerOctaveLog2
+
+// fusedHist adds each user's SIR error ratio s·inv to its histogram row
+// (stride ss) and counts the ratios below marg in out (slotFused; inlined,
+// so a constant shift stays constant).
+func fusedHist(sB []uint32, ss int, sir, inv []float64, out []int64, marg float64, shift uint, base1, nb int) {
+	inv = inv[:len(sir)]
 	for u, s := range sir {
 		ratio := s * inv[u]
-		sB[u*ss+binIndex(ratio, sShift, sBase, sNb)]++
+		sB[u*ss+binIndex(ratio, shift, base1, nb)]++
 		var o int64
 		if ratio < marg {
 			o = 1
 		}
-		bOut[u] += o
+		out[u] += o
 	}
+}
+
+// fusedPow adds each user's Tx power p (mW) to its histogram row (stride
+// ps) and to its sum, and counts the powers at pmax in atMax (slotFused).
+func fusedPow(pB []uint32, ps int, p []float64, atMax []int64, sum []float64, pmax float64, shift uint, base1, nb int) {
+	atMax = atMax[:len(p)]
+	sum = sum[:len(p)]
 	for u, pu := range p {
-		pB[u*ps+binIndex(pu, pShift, pBase, pNb)]++
+		pB[u*ps+binIndex(pu, shift, base1, nb)]++
 		var m int64
 		if pu >= pmax {
 			m = 1
 		}
-		bMax[u] += m
-		bPsum[u] += pu
+		atMax[u] += m
+		sum[u] += pu
 	}
 }
 
