@@ -55,7 +55,7 @@ type replication struct {
 func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*replication, error) {
 	sc := sh.sc
 	n := sh.n
-	rp := &replication{sh: sh, r: r, seed: repSeed(sc.Run.Seed, r), pool: pool, n: n, blk: genBlockSlots}
+	rp := &replication{sh: sh, r: r, seed: repSeed(sc.Run.Seed, r), pool: pool, n: n, blk: genBlockSlotsFor(n)}
 	if sh.total < int64(rp.blk) {
 		rp.blk = int(sh.total)
 	}
