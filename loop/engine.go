@@ -31,8 +31,25 @@ const (
 // 0.034 dB wide (see histLayout).
 const HistBinsPerOctaveLog2 = 7
 
-// genBlockSlots is the number of slots of fading generated ahead per block.
-const genBlockSlots = 512
+// genBlockSlots is the number of slots of fading generated ahead per block
+// (1024: fewer hand-overs between the slot loop and the workers than 512,
+// measured about 5 % faster on the canonical cell). Large cells use
+// shorter blocks (genBlockSlotsFor) so that a block holds at most
+// genBlockUserSlots user-slots, as 512-slot blocks of 4096 users did.
+const (
+	genBlockSlots     = 1024
+	genBlockUserSlots = 4096 * 512
+)
+
+// genBlockSlotsFor is the block length for n users: genBlockSlots, halved
+// while the block holds more than genBlockUserSlots (not below 64).
+func genBlockSlotsFor(n int) int {
+	b := genBlockSlots
+	for b > 64 && n*b > genBlockUserSlots {
+		b /= 2
+	}
+	return b
+}
 
 // Progress is a progress event of Run.
 type Progress struct {

@@ -2,6 +2,7 @@ package loop
 
 import (
 	"math"
+	"sync"
 )
 
 // Statistics of a set of users (one user, a distance bin, all users), per
@@ -66,8 +67,25 @@ type collector struct {
 	convWindowLen, convWindowHead []int32
 	unconverged                   int
 
-	fullScan  bool // some slot of this batch skipped range tracking (fast path)
-	quantiles []float64
+	fullScan   bool  // some slot of this batch skipped range tracking (fast path)
+	fusedSlots int64 // fast-path slots of this batch: one more in every user's batchSlots
+	quantiles  []float64
+
+	// The previous batch's accumulators, summarised off the slot loop
+	// (endBatch), and the wait for and panic of that summary.
+	spare        batchBufs
+	pending      sync.WaitGroup
+	pendingPanic any
+}
+
+// flushFused adds the batch's fast-path slots to every user's count.
+func (c *collector) flushFused() {
+	if k := c.fusedSlots; k > 0 {
+		for u := range c.batchSlots {
+			c.batchSlots[u] += k
+		}
+		c.fusedSlots = 0
+	}
 }
 
 // quantityHists are the histograms of one quantity (SIR error ratio or Tx
@@ -108,18 +126,19 @@ func newQuantityHists(l *histLayout, users int, setUsers []int) quantityHists {
 	return q
 }
 
-// mergeUser summarises user u's batch histogram into out, adds it to the
+// mergeUser summarises user u's batch histogram (in batch, used range
+// bLo..bHi) into out, adds it to the
 // user's cumulative histogram and to its distance bin's and the
 // aggregate's batch histograms, and resets the batch range.
-func (q *quantityHists) mergeUser(u, bin, agg int, cnt int64, out *histStats) {
-	lo, hi := int(q.lo[u]), int(q.hi[u])
+func (q *quantityHists) mergeUser(batch []uint32, bLo, bHi []int32, u, bin, agg int, cnt int64, out *histStats) {
+	lo, hi := int(bLo[u]), int(bHi[u])
 	row := q.stride * u
-	scanMerge(q.layout, q.batch[row:row+q.stride], q.cum[row:row+q.stride], q.setBatch[bin], q.setBatch[agg], lo, hi, uint64(cnt), out)
+	scanMerge(q.layout, batch[row:row+q.stride], q.cum[row:row+q.stride], q.setBatch[bin], q.setBatch[agg], lo, hi, uint64(cnt), out)
 	for _, s := range [2]int{bin, agg} {
 		q.setLo[s], q.setHi[s] = min(q.setLo[s], lo), max(q.setHi[s], hi)
 	}
-	q.loCum[u], q.hiCum[u] = min(q.loCum[u], q.lo[u]), max(q.hiCum[u], q.hi[u])
-	q.lo[u], q.hi[u] = math.MaxInt32, -1
+	q.loCum[u], q.hiCum[u] = min(q.loCum[u], bLo[u]), max(q.hiCum[u], bHi[u])
+	bLo[u], bHi[u] = math.MaxInt32, -1
 }
 
 // mergeSet summarises set s's batch histogram into out, adds it to the
@@ -161,6 +180,14 @@ func newCollector(sh *shared) *collector {
 	if c.nextBatchEnd == sh.warm {
 		c.nextBatchEnd = sh.warm + 1
 	}
+	c.spare = batchBufs{
+		sirB: make([]uint32, len(c.sir.batch)), powB: make([]uint32, len(c.pow.batch)),
+		sirLo: filled(n, int32(math.MaxInt32)), sirHi: filled(n, int32(-1)),
+		powLo: filled(n, int32(math.MaxInt32)), powHi: filled(n, int32(-1)),
+		slots: make([]int64, n), outage: make([]int64, n), atMax: make([]int64, n),
+		blocks: make([]int64, n), blockErrs: make([]int64, n), powSum: make([]float64, n),
+		rise: make([]uint64, len(c.riseBatch)), riseLo: math.MaxInt, riseHi: -1,
+	}
 	c.convergedAt = make([]int64, n)
 	for i := range c.convergedAt {
 		c.convergedAt[i] = -1
@@ -182,7 +209,7 @@ type slotInputs struct {
 	powerMW     []float64 // transmit power of this slot, mW
 	receivedMW  []float64 // received power of this slot, mW (fast path)
 	effSIRSum   []float64 // block accumulator of the effective SIR (fast path adds to it)
-	effSIRCount []int32   // slots in the block accumulator
+	effSIRCount []int32   // slots in the block accumulator (slot path; slotFused's caller counts its own)
 	maxPowerMW  float64   // max_power_dbm in mW
 }
 
@@ -262,18 +289,21 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	rx := in.receivedMW[:n]
 	sir := in.sirLin[:n]
 	inv := in.invTarget[:n]
-	acc, cnt := in.effSIRSum[:n], in.effSIRCount[:n]
+	acc := in.effSIRSum[:n]
 	sl, pl := sh.sirLayout, sh.powLayout
 	p := in.powerMW[:n]
 	pmax := in.maxPowerMW
 	marg := sh.marginLin
 	gp := sh.gp
 	ss, ps := c.sir.stride, c.pow.stride
-	bOut, bMax, bPsum, bCnt := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n], c.batchSlots[:n]
+	bOut, bMax, bPsum := c.batchOutage[:n], c.batchAtMax[:n], c.batchPowSum[:n]
 	sB, pB := c.sir.batch, c.pow.batch
 	// The fast path does not track the used bin range: the batch end scans
-	// whole histograms instead (cheaper than two min/max per value).
+	// whole histograms instead (cheaper than two min/max per value). Nor
+	// does it count each user's slot: every user has one (fusedSlots, and
+	// the caller's count of fused slots in the block accumulator).
 	c.fullScan = true
+	c.fusedSlots++
 	for u, r := range rx {
 		s := sirOf(gp, r, X)
 		sir[u] = s
@@ -281,27 +311,50 @@ func (c *collector) slotFused(in *slotInputs, X float64) {
 	}
 	// The outage and at-max counts are added branch-free (conditional
 	// moves): both conditions flip at random from slot to slot.
-	sShift, sBase, sNb := sl.shift, sl.base1, sl.nb
-	pShift, pBase, pNb := pl.shift, pl.base1, pl.nb
+	if sl.shift == fusedShift && pl.shift == fusedShift {
+		// The usual resolution: with a constant shift these loops keep
+		// everything in registers (a variable shift ties up CX).
+		fusedHist(sB, ss, sir, inv, bOut, marg, fusedShift, sl.base1, sl.nb)
+		fusedPow(pB, ps, p, bMax, bPsum, pmax, fusedShift, pl.base1, pl.nb)
+		return
+	}
+	fusedHist(sB, ss, sir, inv, bOut, marg, sl.shift, sl.base1, sl.nb)
+	fusedPow(pB, ps, p, bMax, bPsum, pmax, pl.shift, pl.base1, pl.nb)
+}
+
+// fusedShift is the bin-index shift (52 − m) of the usual histogram
+// resolution, m = HistBinsPerOctaveLog2.
+const fusedShift = 52 - HistBinsPerOctaveLog2
+
+// fusedHist adds each user's SIR error ratio s·inv to its histogram row
+// (stride ss) and counts the ratios below marg in out (slotFused; inlined,
+// so a constant shift stays constant).
+func fusedHist(sB []uint32, ss int, sir, inv []float64, out []int64, marg float64, shift uint, base1, nb int) {
+	inv = inv[:len(sir)]
 	for u, s := range sir {
 		ratio := s * inv[u]
-		sB[u*ss+binIndex(ratio, sShift, sBase, sNb)]++
+		sB[u*ss+binIndex(ratio, shift, base1, nb)]++
 		var o int64
 		if ratio < marg {
 			o = 1
 		}
-		bOut[u] += o
+		out[u] += o
 	}
+}
+
+// fusedPow adds each user's Tx power p (mW) to its histogram row (stride
+// ps) and to its sum, and counts the powers at pmax in atMax (slotFused).
+func fusedPow(pB []uint32, ps int, p []float64, atMax []int64, sum []float64, pmax float64, shift uint, base1, nb int) {
+	atMax = atMax[:len(p)]
+	sum = sum[:len(p)]
 	for u, pu := range p {
-		pB[u*ps+binIndex(pu, pShift, pBase, pNb)]++
+		pB[u*ps+binIndex(pu, shift, base1, nb)]++
 		var m int64
 		if pu >= pmax {
 			m = 1
 		}
-		bMax[u] += m
-		bPsum[u] += pu
-		bCnt[u]++
-		cnt[u]++
+		atMax[u] += m
+		sum[u] += pu
 	}
 }
 

@@ -36,11 +36,14 @@ type replication struct {
 	idFixed []bool
 
 	// blocks
-	effAcc  []float64
-	effN    []int32
-	blkRand []*rand.Rand
-	blockB  int64
-	blkLeft int64 // slots left in the current block
+	effAcc []float64
+	effN   []int32
+	// effFused counts the fused slots of the current block: every user
+	// had one more slot in its accumulator than effN says.
+	effFused int32
+	blkRand  []*rand.Rand
+	blockB   int64
+	blkLeft  int64 // slots left in the current block
 
 	col    *collector
 	inputs slotInputs // the slices col reads each slot
@@ -52,7 +55,7 @@ type replication struct {
 func newReplication(sh *shared, r int, pool *genPool, topt TraceOptions) (*replication, error) {
 	sc := sh.sc
 	n := sh.n
-	rp := &replication{sh: sh, r: r, seed: repSeed(sc.Run.Seed, r), pool: pool, n: n, blk: genBlockSlots}
+	rp := &replication{sh: sh, r: r, seed: repSeed(sc.Run.Seed, r), pool: pool, n: n, blk: genBlockSlotsFor(n)}
 	if sh.total < int64(rp.blk) {
 		rp.blk = int(sh.total)
 	}

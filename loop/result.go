@@ -86,8 +86,10 @@ func (c *collector) setValues(i int, hsS, hsP *histStats, cnt, out, mx, blk, err
 // folded in); the caller adds what the collector does not see (final
 // targets, ideal-mode failures, traces).
 func (c *collector) result() *repResult {
+	c.waitBatch()
+	c.flushFused()
 	if c.riseSlots > 0 || anyPositive(c.batchSlots) {
-		c.endBatch()
+		c.endBatchNow()
 	}
 	sh := c.shared
 	n := c.users

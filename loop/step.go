@@ -56,6 +56,7 @@ func (rp *replication) runBlock(buf *genBuf) {
 			if act == nil && !rp.sh.link.eesm && t >= sh.warm && rp.col.unconverged == 0 && (sh.hk == nil || !sh.hk.noFast) {
 				// Fast path: SIR, figures and block accumulation in one pass.
 				rp.col.slotFused(&rp.inputs, X)
+				rp.effFused++
 				fused = true
 			} else {
 				gp := sh.gp
@@ -144,11 +145,14 @@ func (rp *replication) blockCheck(t int64) {
 	lm := rp.sh.link
 	acc, cnt := rp.effAcc[:rp.n], rp.effN[:rp.n]
 	measured := t >= rp.sh.warm
+	fz := rp.effFused
+	rp.effFused = 0
 	for u := range sir {
-		if cnt[u] == 0 {
+		k := cnt[u] + fz
+		if k == 0 {
 			continue
 		}
-		bl := lm.blockBLER(acc[u], int(cnt[u]))
+		bl := lm.blockBLER(acc[u], int(k))
 		e := rp.blkRand[u].Float64() < bl
 		rp.bank.blockEnd(u, e)
 		if measured {
