@@ -41,16 +41,7 @@ Output formats:
          max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high
   json   the fadeloop.v1 CapacityResult in protojson with proto field names
 
-Where the replications run: with no --server each replication is a unit of
-a durable job on the job queue, as for sweep (--queue local by default: a
-NATS server inside this process, its store in <user cache
-dir>/fadeloop/queue/JOB, --store DIR for another root, --workers N; --queue
-nats://HOST:PORT for an external NATS and its workers). The search itself
-stays in this process. Every finished replication is stored, so a search
-interrupted by Ctrl-C or --timeout and run again computes none of them twice
-and gives the same answer; its first line then names the job, its store and
-the replications already stored. --direct runs the replications in this
-process without the queue.
+` + searchQueueHelp + `
 
 Exit status 4 (after the output is written) when even the smallest count
 tried exceeds the outage limit.

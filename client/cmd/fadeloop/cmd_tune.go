@@ -68,16 +68,7 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
            condition (step the only axis), each recommended step ringed
   auto     heatmap for step × rate, steps for step alone
 
-Where the replications run: with no --server each replication is a unit of
-a durable job on the job queue, as for sweep (--queue local by default: a
-NATS server inside this process, its store in <user cache
-dir>/fadeloop/queue/JOB, --store DIR for another root, --workers N; --queue
-nats://HOST:PORT for an external NATS and its workers). The search itself
-stays in this process. Every finished replication is stored, so a search
-interrupted by Ctrl-C or --timeout and run again computes none of them twice
-and gives the same answer; its first line then names the job, its store and
-the replications already stored. --direct runs the replications in this
-process without the queue.
+` + searchQueueHelp + `
 
 Exit status 4 (after the output is written) when the verdict, overall or
 of any condition, is "constraints unmet": no candidate meets the
