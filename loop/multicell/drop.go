@@ -100,20 +100,17 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
 	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
-	for s := range rp.fadeSets {
-		fade := make([][]float64, U*maxLegsPerUser)
-		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
-			// One array, each user's legs next to each other.
-			all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
-			for u := range rp.users {
-				for l := 0; l < cfg.Handover.MaxActive; l++ {
-					all, fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
-				}
-			}
+	rp.fadeTmp = [2][]float64{make([]float64, blockSlots), make([]float64, blockSlots)}
+	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+		// Slot-major: slot k's gains of every leg slot side by side, in
+		// the order the slot loop reads them.
+		rp.legsPerUser = cfg.Handover.MaxActive
+		rp.fadeStride = U * rp.legsPerUser
+		for s := range rp.fadeSets {
+			rp.fadeSets[s] = make([]float64, blockSlots*rp.fadeStride)
 		}
-		rp.fadeSets[s] = fade
+		rp.fade = rp.fadeSets[0]
 	}
-	rp.fade = rp.fadeSets[0]
 	if rp.full {
 		rp.fullCh = make([]*fading.Channel, C*U)
 		rp.fullBuf = make([][]float64, C*U)

@@ -135,10 +135,16 @@ type rep struct {
 	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
 	ups      int       // users whose power went up in the last slot
 	downs    int       // users whose power went down in the last slot
-	fade     [][]float64
-	rx       []float64 // received power per cell this slot, mW
-	corr     []float64 // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
-	corrNext []float64 // per cell: the next slot's, summed as the powers are set
+	// fade is this block's fast fading of the active-set legs (SLOW_TOWARD_OTHERS),
+	// slot-major: fade[k·fadeStride + u·legsPerUser + l] is the power gain
+	// of user u's leg slot l in slot k of the block.
+	fade        []float64
+	fadeStride  int          // U·legsPerUser
+	legsPerUser int          // leg slots with a fading channel: max_active
+	fadeTmp     [2][]float64 // one leg's samples before fill.go spreads them: [0] the replication's goroutine, [1] jobs
+	rx          []float64    // received power per cell this slot, mW
+	corr        []float64    // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
+	corrNext    []float64    // per cell: the next slot's, summed as the powers are set
 	// corrReady: corr already holds this slot's corrections (summed in the last slot).
 	corrReady bool
 	own       []float64
@@ -155,7 +161,7 @@ type rep struct {
 	// Work ahead (fill.go): the next shadowing update's slow gains, the
 	// two fade sets (this block's and the next), the helper and its jobs.
 	slowNext    []float64
-	fadeSets    [2][][]float64
+	fadeSets    [2][]float64
 	helper      *helper
 	finished    [jobKinds]bool
 	outstanding int

@@ -57,7 +57,7 @@ func (rp *rep) doJob(j job) {
 	case jobGains:
 		rp.gainsInto(rp.slowNext, j.t)
 	case jobJoin:
-		rp.fillLegs(rp.joiners[len(rp.joiners)/2:])
+		rp.fillLegs(rp.joiners[len(rp.joiners)/2:], rp.fadeTmp[1])
 	}
 }
 
@@ -66,18 +66,22 @@ func (rp *rep) doJob(j job) {
 // (each leg its own channel: the same samples either way).
 func (rp *rep) fillJoiners() {
 	if rp.helper == nil || len(rp.joiners) < 2 {
-		rp.fillLegs(rp.joiners)
+		rp.fillLegs(rp.joiners, rp.fadeTmp[0])
 		return
 	}
 	rp.enqueue(job{kind: jobJoin})
-	rp.fillLegs(rp.joiners[:len(rp.joiners)/2])
+	rp.fillLegs(rp.joiners[:len(rp.joiners)/2], rp.fadeTmp[0])
 	rp.waitFor(jobJoin)
 }
 
 // fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l.
-func (rp *rep) fillLegs(legs []int) {
+// tmp is the calling goroutine's scratch (rep.fadeTmp).
+func (rp *rep) fillLegs(legs []int, tmp []float64) {
+	tmp = tmp[:rp.blockN]
 	for _, i := range legs {
-		rp.users[i/maxLegsPerUser].legCh[i%maxLegsPerUser].FillGains(rp.fade[i][:rp.blockN])
+		u, l := i/maxLegsPerUser, i%maxLegsPerUser
+		rp.users[u].legCh[l].FillGains(tmp)
+		rp.spread(rp.fade, u*rp.legsPerUser+l, tmp)
 	}
 }
 
@@ -207,12 +211,23 @@ func (rp *rep) run(ctx context.Context) error {
 // fillSet fills fade set s with the next n slots of the legs in use.
 func (rp *rep) fillSet(s, n int) {
 	fade := rp.fadeSets[s]
+	tmp := rp.fadeTmp[1][:n] // jobs' scratch
 	for u := range rp.users {
 		us := &rp.users[u]
 		for l, ch := range us.legCh {
 			if ch != nil && us.legs[l] >= 0 {
-				ch.FillGains(fade[u*maxLegsPerUser+l][:n])
+				ch.FillGains(tmp)
+				rp.spread(fade, u*rp.legsPerUser+l, tmp)
 			}
 		}
+	}
+}
+
+// spread writes one leg slot's samples (column j of the slot-major fade
+// set) from g.
+func (rp *rep) spread(fade []float64, j int, g []float64) {
+	st := rp.fadeStride
+	for k, x := range g {
+		fade[k*st+j] = x
 	}
 }

@@ -1,6 +1,10 @@
 package multicell
 
-import "math"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/floats"
+)
 
 // slot runs one slot: received powers, SIRs, commands, the outer loop, the
 // statistics and the power update.
@@ -39,10 +43,9 @@ func (rp *rep) slot(t int64, k int) {
 			clear(corr)
 			for u := range rp.users {
 				us := &rp.users[u]
+				f := rp.fade[k*rp.fadeStride+u*rp.legsPerUser:]
 				for _, l := range us.act[:us.nLegs] {
-					if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-						corr[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
-					}
+					corr[us.legs[l]] += us.p * us.legG[l] * (f[l] - 1)
 				}
 			}
 		}
@@ -108,11 +111,7 @@ func (rp *rep) updateSums() {
 		if d == 0 {
 			continue
 		}
-		row := rp.slow[u*C : u*C+C]
-		row = row[:len(s)]
-		for c, g := range row {
-			s[c] += d * g
-		}
+		floats.AddScaled(s, d, rp.slow[u*C:u*C+C])
 	}
 }
 
@@ -127,7 +126,16 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	ol := rp.cfg.OuterLoop
 	sigma := il.SIREstimationErrorDB * math.Ln10 / 10
 	blockEnd := (t+1)%int64(ol.BlockSlots) == 0
+	closed := il.Mode == InnerModeClosedLoop
+	// The delay line's slot (every user's line has the same length).
+	d := il.FeedbackDelaySlots + 1
+	di := int(t % int64(d))
 	ups, downs := 0, 0
+	var fk []float64 // this slot's leg gains (SLOW_TOWARD_OTHERS)
+	if rp.fade != nil {
+		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
+	}
+	A := rp.legsPerUser
 	for u := range rp.users {
 		us := &rp.users[u]
 		pu := us.p
@@ -137,7 +145,13 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		anyOK := false
 		for _, l := range us.act[:us.nLegs] {
 			c := int(us.legs[l])
-			sig := pu * us.legG[l] * rp.legFade(u, int(l), k)
+			f := 1.0
+			if fk != nil {
+				f = fk[u*A+int(l)]
+			} else if rp.full {
+				f = rp.fullBuf[c*rp.U+u][k]
+			}
+			sig := pu * us.legG[l] * f
 			if c == us.best {
 				own[c] += sig
 			}
@@ -145,7 +159,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			bestSIR = fmax(bestSIR, sir)
 			us.legAcc[l] += sir
 			us.legN[l]++
-			if il.Mode == InnerModeClosedLoop {
+			if closed {
 				m := sir
 				if sigma > 0 {
 					m *= math.Exp(sigma * us.rng.NormFloat64())
@@ -192,13 +206,12 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
 		default:
-			d := len(us.cmds)
 			cmd := int8(-1)
 			if allUp {
 				cmd = 1
 			}
-			applied := us.cmds[int(t%int64(d))]
-			us.cmds[int(t%int64(d))] = cmd
+			applied := us.cmds[di]
+			us.cmds[di] = cmd
 			if d == 1 {
 				applied = cmd
 			} else if t < int64(d) {
@@ -213,26 +226,13 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		}
 		rp.pCur[u] = us.p
 		if ahead {
+			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
 			for _, l := range us.act[:us.nLegs] {
-				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-					corrNext[us.legs[l]] += us.p * us.legG[l] * (f[k+1] - 1)
-				}
+				corrNext[us.legs[l]] += us.p * us.legG[l] * (f[l] - 1)
 			}
 		}
 	}
 	rp.ups, rp.downs = ups, downs
-}
-
-// legFade is the fast-fading power gain of leg slot l of user u in slot k
-// of the current block.
-func (rp *rep) legFade(u, l, k int) float64 {
-	switch {
-	case rp.full:
-		return rp.fullBuf[int(rp.users[u].legs[l])*rp.U+u][k]
-	case rp.fade[u*maxLegsPerUser+l] != nil:
-		return rp.fade[u*maxLegsPerUser+l][k]
-	}
-	return 1
 }
 
 // applyCommand moves the power by one step, without accumulating past the
