@@ -42,6 +42,9 @@ func (rp *rep) slot(t int64, k int) {
 			corr := rp.corr
 			clear(corr)
 			for u := range rp.users {
+				if rp.fade == nil {
+					break // no fast fading
+				}
 				us := &rp.users[u]
 				f := rp.fade[k*rp.fadeStride+u*rp.legsPerUser:]
 				for _, l := range us.act[:us.nLegs] {
@@ -225,7 +228,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 		}
 		rp.pCur[u] = us.p
-		if ahead {
+		if ahead && fk != nil {
 			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
 			for _, l := range us.act[:us.nLegs] {
 				corrNext[us.legs[l]] += us.p * us.legG[l] * (f[l] - 1)
