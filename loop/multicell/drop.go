@@ -130,5 +130,8 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		}
 	}
 	rp.stats = newCollector(rp, r)
+	rp.marginLin = math.Pow(10, -cfg.Run.OutageMarginDB/10)
+	rp.recs = [2]*blockRec{newBlockRec(U, C), newBlockRec(U, C)}
+	rp.rec = rp.recs[0]
 	return rp, nil
 }

@@ -156,6 +156,9 @@ type rep struct {
 	fullCh    []*fading.Channel // FULL mode: per (c, u)
 	fullBuf   [][]float64
 	stats     *collector
+	marginLin float64      // 10^(−outage_margin_db/10): outage below target·marginLin
+	recs      [2]*blockRec // statistics records of this block and the last (record.go)
+	rec       *blockRec    // this block's
 	shadowSD  float64
 	blockN    int // slots in the current fading block
 	// Work ahead (fill.go): the next shadowing update's slow gains, the

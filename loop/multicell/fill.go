@@ -26,13 +26,14 @@ const (
 	jobFill  jobKind = iota // fading of the next block into the other fade set
 	jobGains                // slow gains of the next shadowing update into slowNext
 	jobJoin                 // fading of this block for the second half of the joining legs
+	jobStats                // the statistics of a finished block (record.go)
 	jobKinds
 )
 
 // job is one piece of work ahead.
 type job struct {
 	kind jobKind
-	set  int   // jobFill: fade set to fill
+	set  int   // jobFill: fade set to fill; jobStats: record to sum up
 	n    int   // jobFill: slots
 	t    int64 // jobGains: slot of the shadowing update
 }
@@ -58,6 +59,8 @@ func (rp *rep) doJob(j job) {
 		rp.gainsInto(rp.slowNext, j.t)
 	case jobJoin:
 		rp.fillLegs(rp.joiners[len(rp.joiners)/2:], rp.fadeTmp[1])
+	case jobStats:
+		rp.stats.addBlock(rp, rp.recs[j.set])
 	}
 }
 
@@ -157,6 +160,7 @@ func (rp *rep) run(ctx context.Context) error {
 	shadow := int64(rp.cfg.Channel.ShadowingSlots)
 	upd := int64(rp.cfg.Handover.UpdateSlots)
 	cur := 0
+	statsPending := false
 	for t0 := int64(0); t0 < total; {
 		if err := ctx.Err(); err != nil {
 			if rp.helper != nil {
@@ -189,6 +193,12 @@ func (rp *rep) run(ctx context.Context) error {
 				rp.updateActiveSets(t == 0)
 				rp.fillJoiners() // the helper is free here when update_slots is a multiple of shadowing_slots
 			}
+			if k == 0 {
+				// The record of two blocks ago, this buffer's, was summed up
+				// (at most one jobStats is outstanding: see below).
+				rp.rec = rp.recs[cur]
+				rp.rec.start(rp, t0, n)
+			}
 			if t%shadow == 0 && t+shadow < total {
 				rp.enqueue(job{kind: jobGains, t: t + shadow})
 			}
@@ -202,8 +212,18 @@ func (rp *rep) run(ctx context.Context) error {
 				rp.afterSlot(t)
 			}
 		}
+		// The block's statistics: after the last block's (one outstanding
+		// at a time, so the record written next is free).
+		if statsPending {
+			rp.waitFor(jobStats)
+		}
+		rp.enqueue(job{kind: jobStats, set: cur})
+		statsPending = true
 		cur = 1 - cur
 		t0 += int64(n)
+	}
+	if statsPending {
+		rp.waitFor(jobStats)
 	}
 	return nil
 }

@@ -68,7 +68,9 @@ func (rp *rep) slot(t int64, k int) {
 	rp.corr, rp.corrNext = rp.corrNext, rp.corr
 	rp.corrReady = ahead
 	if t >= rp.cfg.Run.WarmupSlots {
-		rp.stats.cells(rp)
+		C := rp.C
+		copy(rp.rec.rx[k*C:(k+1)*C], rp.rx)
+		copy(rp.rec.own[k*C:(k+1)*C], rp.own)
 	}
 }
 
@@ -139,6 +141,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
 	}
 	A := rp.legsPerUser
+	rec := rp.rec
+	pAtMax := rp.pmax * (1 - 1e-12) // at max: within rounding of the limit
 	for u := range rp.users {
 		us := &rp.users[u]
 		pu := us.p
@@ -186,13 +190,25 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 		}
 		if measure {
-			rp.stats.user(u, us, bestSIR, pu)
+			i := k*rp.U + u
+			rec.sir[i], rec.pDB[i], rec.targetDB[i] = bestSIR, us.pDB, us.targetDB
+			var fl uint8
+			if bestSIR < us.target*rp.marginLin {
+				fl |= recOutage
+			}
+			if pu >= pAtMax {
+				fl |= recAtMax
+			}
+			if blockEnd {
+				fl |= recBlockEnd
+				if !anyOK {
+					fl |= recBlockErr
+				}
+			}
+			rec.flags[i] = fl
 		}
 		if blockEnd {
 			blockErr := !anyOK
-			if measure {
-				rp.stats.block(blockErr)
-			}
 			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
 				if blockErr {
 					us.targetDB += ol.UpStepDB

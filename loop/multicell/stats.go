@@ -63,16 +63,14 @@ type collector struct {
 	riseHist  [][]uint32 // per cell: per-slot noise rise in dB
 	riseBatch []uint32   // the current batch's noise rise over every cell, dB
 	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
-	marginLin float64
-	pmax      float64
-	users     []userAcc // replication 0 only
+	users     []userAcc  // replication 0 only
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
 
 func newCollector(rp *rep, r int) *collector {
 	nb := rp.cfg.Run.Batches
-	c := &collector{batches: make([]sums, nb), marginLin: math.Pow(10, -rp.cfg.Run.OutageMarginDB/10), pmax: rp.pmax}
+	c := &collector{batches: make([]sums, nb)}
 	for i := range c.batches {
 		c.batches[i] = newSums(rp.C)
 	}
@@ -96,24 +94,26 @@ func histIndex(db float64) int {
 	return min(histBins-1, max(0, i))
 }
 
-// user records one user-slot.
-func (c *collector) user(u int, us *user, sir, p float64) {
+// user records one user-slot of user u (edge: at the cell edge; nLegs
+// cells in its active set, best its best cell) with combined SIR sir
+// (linear), Tx power txDBm, SIR target targetDB and the record's flags
+// (recOutage, recAtMax).
+func (c *collector) user(u int, edge bool, nLegs, best int, sir, txDBm, targetDB float64, flags uint8) {
 	b := &c.batches[c.cur]
 	out := 0.0
-	if sir < us.target*c.marginLin {
+	if flags&recOutage != 0 {
 		out = 1
 	}
 	mx := 0.0
-	if p >= c.pmax*(1-1e-12) {
+	if flags&recAtMax != 0 {
 		mx = 1
 	}
-	li := min(us.nLegs, LegStates) - 1
-	errDB := linToDB(fmax(sir, 1e-30)) - us.targetDB
-	txDBm := us.pDB // = 10 log10(p), kept by the engine
+	li := min(nLegs, LegStates) - 1
+	errDB := linToDB(fmax(sir, 1e-30)) - targetDB
 	b.userSlots++
 	b.outage += out
 	b.atMax += mx
-	if us.edge {
+	if edge {
 		b.edgeSlots++
 		b.edgeAtMax += mx
 	}
@@ -123,12 +123,12 @@ func (c *collector) user(u int, us *user, sir, p float64) {
 	b.sirErrDB += errDB
 	b.sirErrDB2 += errDB * errDB
 	b.txDBm += txDBm
-	b.cellServed[us.best]++
+	b.cellServed[best]++
 	if c.users != nil {
 		a := &c.users[u]
 		a.slots++
 		a.outage += out
-		a.legs += float64(us.nLegs)
+		a.legs += float64(nLegs)
 		a.txDBm += txDBm
 	}
 }
@@ -142,14 +142,16 @@ func (c *collector) block(err bool) {
 	}
 }
 
-// cells records the cells' interference of one slot and closes the slot.
-func (c *collector) cells(rp *rep) {
+// cells records the cells' interference of one slot (received power rx,
+// own-cell power own per cell, noise noiseMW, mW) and closes the slot.
+func (c *collector) cells(rx, own []float64, noiseMW float64) {
 	b := &c.batches[c.cur]
 	b.slots++
-	for k := 0; k < rp.C; k++ {
-		own := rp.own[k]
-		other := math.Max(0, rp.rx[k]-rp.noiseMW-own)
-		rise := linToDB(rp.rx[k] / rp.noiseMW)
+	own = own[:len(rx)]
+	for k := range rx {
+		own := own[k]
+		other := math.Max(0, rx[k]-noiseMW-own)
+		rise := linToDB(rx[k] / noiseMW)
 		b.ownMW += own
 		b.otherMW += other
 		b.noiseRiseDB += rise
