@@ -131,7 +131,14 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	}
 	rp.stats = newCollector(rp, r)
 	rp.marginLin = math.Pow(10, -cfg.Run.OutageMarginDB/10)
-	rp.recs = [2]*blockRec{newBlockRec(U, C), newBlockRec(U, C)}
+	rp.recs = [3]*blockRec{newBlockRec(U, C), newBlockRec(U, C), newBlockRec(U, C)}
+	rp.jobs.fill.kind, rp.jobs.gains.kind, rp.jobs.join.kind = jobFill, jobGains, jobJoin
+	for i := range rp.jobs.stats {
+		rp.jobs.stats[i].kind = jobStats
+	}
+	for _, j := range rp.jobs.all() {
+		j.wake = make(chan struct{}, 1)
+	}
 	rp.rec = rp.recs[0]
 	return rp, nil
 }

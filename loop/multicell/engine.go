@@ -13,11 +13,13 @@ import (
 // The engine is split by stage: engine.go (entry point, state),
 // drop.go (placing users, their channels), fill.go (the replication's
 // slot loop and the work ahead — next block's fading, next shadowing
-// update's gains — on a helper goroutine), gains.go (shadowing, slow
+// update's gains, last block's statistics), share.go (that work cut into
+// chunks shared with a helper goroutine), gains.go (shadowing, slow
 // gains, open-loop estimate), activeset.go (active-set updates), slot.go
 // (one slot: cell sums, SIRs, commands, outer loop, power update),
-// dbconv.go (dB conversions without log/exp calls) and stats.go
-// (collection, intervals and the merged report).
+// record.go (what the slots record for the statistics), dbconv.go (dB
+// conversions without log/exp calls) and stats.go (collection, intervals
+// and the merged report).
 
 // Random stream kinds of this package (fading.NewStream; values ≥ 200 are
 // this package's, clear of fading's and loop's).
@@ -157,21 +159,20 @@ type rep struct {
 	fullBuf   [][]float64
 	stats     *collector
 	marginLin float64      // 10^(−outage_margin_db/10): outage below target·marginLin
-	recs      [2]*blockRec // statistics records of this block and the last (record.go)
+	recs      [3]*blockRec // statistics records: a ring of three blocks (record.go, fill.go)
 	rec       *blockRec    // this block's
 	shadowSD  float64
 	blockN    int // slots in the current fading block
 	// Work ahead (fill.go): the next shadowing update's slow gains, the
 	// two fade sets (this block's and the next), the helper and its jobs.
-	slowNext    []float64
-	fadeSets    [2][]float64
-	helper      *helper
-	finished    [jobKinds]bool
-	outstanding int
-	afterSlot   func(t int64) // tests: called after each slot
-	cands       []cand        // active-set evaluation, reused
-	joiners     []int         // leg slots u·maxLegsPerUser + l that joined at this block's start
-	keep        []int
+	slowNext  []float64
+	fadeSets  [2][]float64
+	helper    *helper
+	jobs      jobs
+	afterSlot func(t int64) // tests: called after each slot
+	cands     []cand        // active-set evaluation, reused
+	joiners   []int         // leg slots u·maxLegsPerUser + l that joined at this block's start
+	keep      []int
 }
 
 // cand is a candidate cell of an active set and its slow gain.

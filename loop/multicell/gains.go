@@ -13,12 +13,16 @@ func (rp *rep) updateSlowGains(t int64) {
 // and writes every slow gain into dst (user-major, like rep.slow),
 // 10^(dB/10) by linFromDB (within 2.5e-7 dB). It touches only the users'
 // shadowing state and dst, so it may run on the helper while the slots run.
-func (rp *rep) gainsInto(dst []float64, t int64) {
+func (rp *rep) gainsInto(dst []float64, t int64) { rp.gainsRange(dst, t, 0, rp.U) }
+
+// gainsRange is gainsInto for users lo..hi−1 (each user's shadowing is its
+// own: the ranges may run in any order, on either goroutine).
+func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 	rho := rp.cfg.Channel.SiteCorrelation
 	a, b := math.Sqrt(rho), math.Sqrt(1-rho)
 	C := rp.C
 	cells := rp.g.cells
-	for u := range rp.users {
+	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
