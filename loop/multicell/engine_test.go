@@ -424,3 +424,29 @@ func TestCellSumsTrackPowers(t *testing.T) {
 	}
 	t.Logf("largest relative error %.3g", maxErr)
 }
+
+// TestHelperPanic: a panic in a chunk of work ahead — wherever it runs,
+// on the helper or on the replication's goroutine — ends Run with a
+// *loop.PanicError (no hang, no crash), for each kind of job.
+func TestHelperPanic(t *testing.T) {
+	cfg := smallLayout()
+	cfg.Groups[0].CountPerCell = 7 // 168 users ≥ minUsersForHelper
+	cfg.Run = RunSettings{Slots: 300, WarmupSlots: 60, Replications: 1, Seed: 9, Batches: 4}
+	defer func() { chunkHook = nil }()
+	for _, procs := range []int{1, 2} {
+		for _, kind := range []jobKind{jobFill, jobGains, jobJoin, jobStats} {
+			chunkHook = func(k jobKind, onHelper bool) {
+				if k == kind {
+					panic("injected")
+				}
+			}
+			old := runtime.GOMAXPROCS(procs)
+			_, err := Run(context.Background(), cfg)
+			runtime.GOMAXPROCS(old)
+			var pe *loop.PanicError
+			if !errors.As(err, &pe) {
+				t.Errorf("GOMAXPROCS %d, job kind %d: error %v, want a *loop.PanicError", procs, kind, err)
+			}
+		}
+	}
+}

@@ -90,7 +90,8 @@ type entry struct {
 
 // helper is the goroutine that runs posted jobs' chunks.
 type helper struct {
-	work chan entry
+	work   chan entry
+	exited chan struct{} // closed when the goroutine has returned
 }
 
 // helperQueue bounds the helper's queue; a post that finds it full is
@@ -180,8 +181,14 @@ func (rp *rep) completeAll() {
 	}
 }
 
+// chunkHook, when set (tests), is called before each chunk runs.
+var chunkHook func(kind jobKind, onHelper bool)
+
 // runChunk runs chunk i of j with the calling goroutine's scratch tmp.
 func (rp *rep) runChunk(j *job, i int, tmp []float64) {
+	if chunkHook != nil {
+		chunkHook(j.kind, &tmp[0] == &rp.fadeTmp[1][0])
+	}
 	switch j.kind {
 	case jobFill:
 		lo := i * chunkUsers
@@ -199,14 +206,16 @@ func (rp *rep) runChunk(j *job, i int, tmp []float64) {
 
 // startHelper starts, for a replication run alone (replications 1, else
 // replications already run in parallel) on two or more cores, the helper
-// goroutine. It allocates nothing per job. The returned function stops it.
+// goroutine. It allocates nothing per job. The returned function stops it
+// and waits for it to return.
 func (rp *rep) startHelper() func() {
 	if runtime.GOMAXPROCS(0) < 2 || rp.cfg.Run.Replications > 1 || rp.U < minUsersForHelper {
 		return func() {}
 	}
-	h := &helper{work: make(chan entry, helperQueue)}
+	h := &helper{work: make(chan entry, helperQueue), exited: make(chan struct{})}
 	rp.helper = h
 	go func() {
+		defer close(h.exited)
 		for e := range h.work {
 			func() {
 				defer func() {
@@ -219,7 +228,9 @@ func (rp *rep) startHelper() func() {
 			}()
 		}
 	}()
-	return func() { close(h.work); rp.helper = nil }
+	// Stopping waits for the goroutine: nothing touches the replication
+	// once Run returns, also after a panic.
+	return func() { close(h.work); <-h.exited; rp.helper = nil }
 }
 
 // minUsersForHelper is the fewest users for which a helper pays.
