@@ -49,7 +49,7 @@ func (r *blockRec) start(rp *rep, t0 int64, n int) {
 }
 
 // addBlock sums up a block's record: per measured slot, every user
-// (collector.user, with the block result where one ended), then the cells
+// (users1, with the block results of the slot), then the cells
 // (collector.cells).
 func (c *collector) addBlock(rp *rep, r *blockRec) {
 	U, C := rp.U, rp.C
@@ -57,14 +57,71 @@ func (c *collector) addBlock(rp *rep, r *blockRec) {
 		if r.t0+int64(k) < rp.cfg.Run.WarmupSlots {
 			continue
 		}
-		i := k * U
-		for u := 0; u < U; u++ {
-			f := r.flags[i+u]
-			c.user(u, rp.users[u].edge, int(r.nLegs[u]), int(r.best[u]), r.sir[i+u], r.pDB[i+u], r.targetDB[i+u], f)
-			if f&recBlockEnd != 0 {
-				c.block(f&recBlockErr != 0)
-			}
-		}
+		c.users1(rp, r, k*U)
 		c.cells(r.rx[k*C:(k+1)*C], r.own[k*C:(k+1)*C], rp.noiseMW)
 	}
+}
+
+// users1 records one slot's user-slots (the record's entries from i on):
+// the slot's sums are formed first, then added to the batch.
+func (c *collector) users1(rp *rep, r *blockRec, i int) {
+	U := rp.U
+	sir, pDB, tDB, flags := r.sir[i:i+U], r.pDB[i:i+U], r.targetDB[i:i+U], r.flags[i:i+U]
+	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
+	var legN, legOut, legMx [LegStates]float64
+	b := &c.batches[c.cur]
+	for u, s := range sir {
+		f := flags[u]
+		o, m := 0.0, 0.0
+		if f&recOutage != 0 {
+			o = 1
+		}
+		if f&recAtMax != 0 {
+			m = 1
+		}
+		if f&recBlockEnd != 0 {
+			blocks++
+			if f&recBlockErr != 0 {
+				blockErrs++
+			}
+		}
+		nl := int(r.nLegs[u])
+		li := min(nl, LegStates) - 1
+		e := linToDB(fmax(s, 1e-30)) - tDB[u]
+		out += o
+		mx += m
+		if rp.users[u].edge {
+			edge++
+			edgeMx += m
+		}
+		legN[li]++
+		legOut[li] += o
+		legMx[li] += m
+		errS += e
+		errS2 += e * e
+		tx += pDB[u]
+		b.cellServed[r.best[u]]++
+		if c.users != nil {
+			a := &c.users[u]
+			a.slots++
+			a.outage += o
+			a.legs += float64(nl)
+			a.txDBm += pDB[u]
+		}
+	}
+	b.userSlots += float64(U)
+	b.outage += out
+	b.atMax += mx
+	b.edgeSlots += edge
+	b.edgeAtMax += edgeMx
+	for li := range legN {
+		b.legSlots[li] += legN[li]
+		b.legOutage[li] += legOut[li]
+		b.legAtMax[li] += legMx[li]
+	}
+	b.sirErrDB += errS
+	b.sirErrDB2 += errS2
+	b.txDBm += tx
+	b.blocks += blocks
+	b.blockErrs += blockErrs
 }

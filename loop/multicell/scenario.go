@@ -12,7 +12,7 @@ import (
 // IDs, so stored results of an older engine are not reused). 1.1.0:
 // incremental cell sums and fading generated ahead (figures differ from
 // 1.0.0 in the last digits, same distributions).
-const EngineVersion = "fadeloop-multicell/1.1.0"
+const EngineVersion = "fadeloop-multicell/1.2.0"
 
 // RunScenario is the one dispatch point between the two engines, used by
 // loop/tune (Sweep, Tune, Capacity) and by the service's Simulate and

@@ -94,54 +94,6 @@ func histIndex(db float64) int {
 	return min(histBins-1, max(0, i))
 }
 
-// user records one user-slot of user u (edge: at the cell edge; nLegs
-// cells in its active set, best its best cell) with combined SIR sir
-// (linear), Tx power txDBm, SIR target targetDB and the record's flags
-// (recOutage, recAtMax).
-func (c *collector) user(u int, edge bool, nLegs, best int, sir, txDBm, targetDB float64, flags uint8) {
-	b := &c.batches[c.cur]
-	out := 0.0
-	if flags&recOutage != 0 {
-		out = 1
-	}
-	mx := 0.0
-	if flags&recAtMax != 0 {
-		mx = 1
-	}
-	li := min(nLegs, LegStates) - 1
-	errDB := linToDB(fmax(sir, 1e-30)) - targetDB
-	b.userSlots++
-	b.outage += out
-	b.atMax += mx
-	if edge {
-		b.edgeSlots++
-		b.edgeAtMax += mx
-	}
-	b.legSlots[li]++
-	b.legOutage[li] += out
-	b.legAtMax[li] += mx
-	b.sirErrDB += errDB
-	b.sirErrDB2 += errDB * errDB
-	b.txDBm += txDBm
-	b.cellServed[best]++
-	if c.users != nil {
-		a := &c.users[u]
-		a.slots++
-		a.outage += out
-		a.legs += float64(nLegs)
-		a.txDBm += txDBm
-	}
-}
-
-// block records one combined block result.
-func (c *collector) block(err bool) {
-	b := &c.batches[c.cur]
-	b.blocks++
-	if err {
-		b.blockErrs++
-	}
-}
-
 // cells records the cells' interference of one slot (received power rx,
 // own-cell power own per cell, noise noiseMW, mW) and closes the slot.
 func (c *collector) cells(rx, own []float64, noiseMW float64) {
