@@ -81,7 +81,6 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 					}
 				}
 				us.setTarget(cfg.OuterLoop.InitialTargetDB)
-				us.cmds = make([]int8, cfg.InnerLoop.FeedbackDelaySlots+1)
 				rp.users = append(rp.users, us)
 				u++
 			}
@@ -97,6 +96,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.corrNext = make([]float64, C)
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
+	rp.cmds = make([]int8, U*(cfg.InnerLoop.FeedbackDelaySlots+1))
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
 	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update

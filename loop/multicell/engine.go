@@ -88,22 +88,19 @@ func Run(ctx context.Context, cfg Config) (*Report, error) {
 }
 
 // user is one user's state in a replication. The fields every slot reads
-// come first, together (a few cache lines per user per slot); the set-up,
-// shadowing and fading-channel state follows.
+// come first, together (two cache lines per user per slot with up to
+// three legs); the set-up, shadowing and fading-channel state follows.
 type user struct {
 	p        float64
 	pDB      float64 // 10 log10(p), dBm (setP, or ± step_db per closed-loop step)
 	target   float64 // 10^(targetDB/10)
 	targetDB float64
-	nLegs    int
-	best     int                     // best cell (largest slow gain) of the active set
-	act      [maxLegsPerUser]int8    // leg slots in use, ascending (act[:nLegs])
-	legs     [maxLegsPerUser]int32   // cell of leg slot l, −1 when unused
-	legG     [maxLegsPerUser]float64 // slow gain of leg slot l's cell (copy of rep.slow, kept by refreshLegs)
-	legAcc   [maxLegsPerUser]float64 // block accumulators (sum of linear SIR)
-	legN     [maxLegsPerUser]int32   // slots in legAcc
-	cmds     []int8                  // delay line of combined commands (+1 up, −1 down)
-	rng      *rand.Rand              // estimation, command, block-error and open-loop draws
+	nLegs    int32
+	best     int32                  // best cell (largest slow gain) of the active set
+	act      [maxLegsPerUser]int8   // leg slots in use, ascending (act[:nLegs])
+	leg      [maxLegsPerUser]legRun // per leg slot: what the slot loop reads and adds to
+	legs     [maxLegsPerUser]int32  // cell of leg slot l, −1 when unused
+	rng      *rand.Rand             // estimation, command, block-error and open-loop draws
 	edge     bool
 	group    int
 	x, y     float64
@@ -117,6 +114,14 @@ type user struct {
 	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update
+}
+
+// legRun is a leg slot's state in the slot loop, together in one place.
+type legRun struct {
+	c   int32   // cell (copy of user.legs, kept by refreshLegs)
+	n   int32   // slots in acc
+	g   float64 // slow gain of the cell (copy of rep.slow, kept by refreshLegs)
+	acc float64 // block accumulator (sum of linear SIR)
 }
 
 // rep is one replication's working state.
@@ -135,6 +140,7 @@ type rep struct {
 	sinceSum int       // slots since the last full recomputation of sums
 	pPrev    []float64 // per user: the power of the last slot run, mW
 	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
+	cmds     []int8    // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
 	ups      int       // users whose power went up in the last slot
 	downs    int       // users whose power went down in the last slot
 	// fade is this block's fast fading of the active-set legs (SLOW_TOWARD_OTHERS),

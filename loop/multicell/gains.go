@@ -64,12 +64,12 @@ func (rp *rep) refreshLegs(us *user, row []float64) {
 	n := 0
 	for l, c := range us.legs {
 		if c >= 0 {
-			us.legG[l] = row[c]
+			us.leg[l].c, us.leg[l].g = c, row[c]
 			us.act[n] = int8(l)
 			n++
 		}
 	}
-	us.nLegs = n
+	us.nLegs = int32(n)
 }
 
 // openLoopEstimate records the user's estimate of its best slow gain (dB,

@@ -48,7 +48,8 @@ func (rp *rep) slot(t int64, k int) {
 				us := &rp.users[u]
 				f := rp.fade[k*rp.fadeStride+u*rp.legsPerUser:]
 				for _, l := range us.act[:us.nLegs] {
-					corr[us.legs[l]] += us.p * us.legG[l] * (f[l] - 1)
+					lg := &us.leg[l]
+					corr[lg.c] += us.p * lg.g * (f[l] - 1)
 				}
 			}
 		}
@@ -151,21 +152,22 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		allUp := true
 		anyOK := false
 		for _, l := range us.act[:us.nLegs] {
-			c := int(us.legs[l])
+			lg := &us.leg[l]
+			c := int(lg.c)
 			f := 1.0
 			if fk != nil {
 				f = fk[u*A+int(l)]
 			} else if rp.full {
 				f = rp.fullBuf[c*rp.U+u][k]
 			}
-			sig := pu * us.legG[l] * f
-			if c == us.best {
+			sig := pu * lg.g * f
+			if c == int(us.best) {
 				own[c] += sig
 			}
 			sir := rp.pg * sig / fmax(rx[c]-sig, rp.noiseMW)
 			bestSIR = fmax(bestSIR, sir)
-			us.legAcc[l] += sir
-			us.legN[l]++
+			lg.acc += sir
+			lg.n++
 			if closed {
 				m := sir
 				if sigma > 0 {
@@ -178,7 +180,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				allUp = allUp && up
 			}
 			if blockEnd {
-				mean := us.legAcc[l] / float64(us.legN[l])
+				mean := lg.acc / float64(lg.n)
 				// Link curve 1/(1 + e^z), z = (SIR dB − threshold)/slope;
 				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
 				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
@@ -186,7 +188,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				if us.rng.Float64() >= bler {
 					anyOK = true
 				}
-				us.legAcc[l], us.legN[l] = 0, 0
+				lg.acc, lg.n = 0, 0
 			}
 		}
 		if measure {
@@ -229,8 +231,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if allUp {
 				cmd = 1
 			}
-			applied := us.cmds[di]
-			us.cmds[di] = cmd
+			applied := rp.cmds[u*d+di]
+			rp.cmds[u*d+di] = cmd
 			if d == 1 {
 				applied = cmd
 			} else if t < int64(d) {
@@ -247,7 +249,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		if ahead && fk != nil {
 			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
 			for _, l := range us.act[:us.nLegs] {
-				corrNext[us.legs[l]] += us.p * us.legG[l] * (f[l] - 1)
+				lg := &us.leg[l]
+				corrNext[lg.c] += us.p * lg.g * (f[l] - 1)
 			}
 		}
 	}

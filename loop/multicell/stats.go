@@ -153,7 +153,7 @@ func (c *collector) result(rp *rep) *repResult {
 	if c.users != nil {
 		for u, us := range rp.users {
 			a := c.users[u]
-			pt := UserPoint{XM: us.x, YM: us.y, Group: us.group, BestCell: us.best}
+			pt := UserPoint{XM: us.x, YM: us.y, Group: us.group, BestCell: int(us.best)}
 			if a.slots > 0 {
 				pt.MeanLegs = a.legs / a.slots
 				pt.OutageProbability = a.outage / a.slots
