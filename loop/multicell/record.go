@@ -28,13 +28,14 @@ type blockRec struct {
 	own      []float64 // [k·C+c]: own-cell (best-cell) received power, mW
 	best     []int32   // per user: the block's best cell (fixed within a block)
 	nLegs    []int8    // per user: the block's active-set size
+	served   []float64 // per cell: users whose best cell it is in this block
 }
 
 func newBlockRec(U, C int) *blockRec {
 	return &blockRec{
 		sir: make([]float64, blockSlots*U), pDB: make([]float64, blockSlots*U), targetDB: make([]float64, blockSlots*U),
 		flags: make([]uint8, blockSlots*U), rx: make([]float64, blockSlots*C), own: make([]float64, blockSlots*C),
-		best: make([]int32, U), nLegs: make([]int8, U),
+		best: make([]int32, U), nLegs: make([]int8, U), served: make([]float64, C),
 	}
 }
 
@@ -42,9 +43,11 @@ func newBlockRec(U, C int) *blockRec {
 // users' active sets of that block.
 func (r *blockRec) start(rp *rep, t0 int64, n int) {
 	r.t0, r.n = t0, n
+	clear(r.served)
 	for u := range rp.users {
-		r.best[u] = int32(rp.users[u].best)
+		r.best[u] = rp.users[u].best
 		r.nLegs[u] = int8(rp.users[u].nLegs)
+		r.served[r.best[u]]++
 	}
 }
 
@@ -53,12 +56,22 @@ func (r *blockRec) start(rp *rep, t0 int64, n int) {
 // (collector.cells).
 func (c *collector) addBlock(rp *rep, r *blockRec) {
 	U, C := rp.U, rp.C
+	measured := 0.0
 	for k := 0; k < r.n; k++ {
 		if r.t0+int64(k) < rp.cfg.Run.WarmupSlots {
 			continue
 		}
 		c.users1(rp, r, k*U)
 		c.cells(r.rx[k*C:(k+1)*C], r.own[k*C:(k+1)*C], rp.noiseMW)
+		measured++
+	}
+	// Replication 0's per-user slot and leg counts (whole numbers: exact
+	// in any order).
+	if c.users != nil && measured > 0 {
+		for u := range c.users {
+			c.users[u].slots += measured
+			c.users[u].legs += measured * float64(r.nLegs[u])
+		}
 	}
 }
 
@@ -100,14 +113,14 @@ func (c *collector) users1(rp *rep, r *blockRec, i int) {
 		errS += e
 		errS2 += e * e
 		tx += pDB[u]
-		b.cellServed[r.best[u]]++
 		if c.users != nil {
 			a := &c.users[u]
-			a.slots++
 			a.outage += o
-			a.legs += float64(nl)
 			a.txDBm += pDB[u]
 		}
+	}
+	for cell, n := range r.served {
+		b.cellServed[cell] += n
 	}
 	b.userSlots += float64(U)
 	b.outage += out
