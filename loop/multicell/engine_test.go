@@ -450,3 +450,21 @@ func TestHelperPanic(t *testing.T) {
 		}
 	}
 }
+
+// TestCellsSiteMajor: cell c belongs to site c / sectors_per_site, the
+// order gainsRange relies on, for every layout size.
+func TestCellsSiteMajor(t *testing.T) {
+	for _, sites := range []int{1, 7, 19} {
+		for _, sectors := range []int{1, 3} {
+			g := newGeometry(Layout{Sites: sites, SectorsPerSite: sectors, InterSiteDistanceM: 1000})
+			if len(g.cells) != sites*sectors {
+				t.Fatalf("%d sites × %d sectors: %d cells", sites, sectors, len(g.cells))
+			}
+			for c, cl := range g.cells {
+				if cl.site != c/sectors {
+					t.Errorf("%d sites × %d sectors: cell %d on site %d, want %d", sites, sectors, c, cl.site, c/sectors)
+				}
+			}
+		}
+	}
+}

@@ -21,7 +21,6 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 	rho := rp.cfg.Channel.SiteCorrelation
 	a, b := math.Sqrt(rho), math.Sqrt(1-rho)
 	C := rp.C
-	cells := rp.g.cells
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		if t > 0 && rp.shadowSD > 0 {
@@ -37,10 +36,14 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 		for s := range us.siteLin {
 			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
 		}
+		// Cells are site-major (cell site·S + sector, newGeometry).
 		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]
-		for c := range row {
-			row[c] = us.siteLin[cells[c].site] * ant[c]
+		S := C / len(us.siteLin)
+		for s, g := range us.siteLin {
+			for c := s * S; c < (s+1)*S; c++ {
+				row[c] = g * ant[c]
+			}
 		}
 	}
 }
