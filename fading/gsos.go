@@ -146,3 +146,28 @@ func (s *gsosSource) next(scale []float64, re, im [][]float64) {
 	}
 	s.started = true
 }
+
+// skip advances past n blocks as n calls of next would: the random draws
+// of every set are consumed in next's order, and only the last set (the
+// outgoing one of the following block) is kept, fully drawn.
+func (s *gsosSource) skip(n int) {
+	if n <= 0 {
+		return
+	}
+	sets := n // sets drawn by n calls of next
+	if !s.started {
+		sets++ // the first call also draws the outgoing set
+	}
+	for l := 0; l < s.nt; l++ {
+		r := s.rng[l]
+		for i := 0; i < sets-1; i++ {
+			for j := 0; j < 2*s.m; j++ { // draw's order: θ, A, B per oscillator
+				r.Float64()
+				r.NormFloat64()
+				r.NormFloat64()
+			}
+		}
+		s.draw(&s.cur[l], r)
+	}
+	s.started = true
+}

@@ -103,3 +103,27 @@ func (s *spectralSource) next(scale []float64, re, im [][]float64) {
 	}
 	s.started = true
 }
+
+// skip advances past n blocks as n calls of next would: the bin draws of
+// every block are consumed in gen's order, and only the last block (the
+// outgoing one of the following block) is transformed.
+func (s *spectralSource) skip(n int) {
+	if n <= 0 {
+		return
+	}
+	blocks := n // blocks drawn by n calls of next
+	if !s.started {
+		blocks++ // the first call also draws the outgoing block
+	}
+	for l := 0; l < s.nt; l++ {
+		r := s.rng[l]
+		for i := 0; i < blocks-1; i++ {
+			for range s.nz { // gen's order: real, then imaginary part per bin
+				r.NormFloat64()
+				r.NormFloat64()
+			}
+		}
+		s.gen(l, s.cur[l])
+	}
+	s.started = true
+}
