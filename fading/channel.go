@@ -292,13 +292,13 @@ func (c *Channel) refill() {
 // Cost: constant when the skipped samples stay within the current and the
 // next two internal blocks; beyond that, per tap and per internal block
 // passed over, the random draws of the block only: GeneratorDefault 2M
-// uniform and 4M Gaussian draws (M sinusoids per branch; the last set
-// passed over also its sines and cosines), GeneratorSpectral two Gaussian
-// draws per in-band bin (the last block also its inverse FFT),
-// GeneratorSumOfSinusoids and the static channel (f_D = 0) nothing (their
-// oscillators restart from exact phases). No sample is generated or
-// interpolated for the skipped span. It allocates nothing. n < 0 is a
-// programmer error and panics.
+// uniform and 4M Gaussian draws (M sinusoids per branch; the sines and
+// cosines of the last set are computed by the next Fill call),
+// GeneratorSpectral two Gaussian draws per in-band bin (the last block's
+// inverse FFT is made by the next Fill call), GeneratorSumOfSinusoids and
+// the static channel (f_D = 0) nothing (their oscillators restart from
+// exact phases). No sample is generated or interpolated for the skipped
+// span. It allocates nothing. n < 0 is a programmer error and panics.
 func (c *Channel) Skip(n int) {
 	if n < 0 {
 		panic("fading: Channel.Skip with negative n")
