@@ -124,10 +124,14 @@ func blockOut(ch *Channel) int { return int(float64(ch.blk)/ch.step + 0.5) }
 // every reader (FillGains, FillGainsShared with a PlanCache, FillTaps and
 // its float64 taps), with n = 0, 1, less than a block, exactly one
 // internal block (in internal and in output samples), one past it, three
-// blocks and 50 000 samples (tens of blocks when decimating).
+// blocks and 50 000 samples (37 blocks at f_D·T = 0.037; 20 000 under
+// -short).
 func TestSkip(t *testing.T) {
 	m, pre1, big := 1500, 777, 50000
 	readers := []skipReader{readGains, readShared, readTaps, readTapsFloat64}
+	if testing.Short() {
+		m, pre1, big = 300, 301, 20000
+	}
 	if raceEnabled { // the same paths, fewer samples: FillTaps is fillComplex rounded
 		m, pre1, big = 300, 301, 12000
 		readers = []skipReader{readGains, readShared, readTapsFloat64}
@@ -162,10 +166,14 @@ func TestSkip(t *testing.T) {
 }
 
 // TestSkipMixed: seeded random sequences of Fill and Skip calls of random
-// lengths (0 to four internal blocks, up to 60 000 samples in all) read the
-// same samples as the one-call twin at the same offsets, for every reader.
+// lengths (0 to four internal blocks, 60 000 samples in all, 20 000 under
+// -short) read the same samples as the one-call twin at the same offsets,
+// for every reader.
 func TestSkipMixed(t *testing.T) {
 	total := 60000
+	if testing.Short() {
+		total = 20000
+	}
 	if raceEnabled {
 		total = 8000
 	}
