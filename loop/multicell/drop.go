@@ -106,6 +106,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		// the order the slot loop reads them.
 		rp.legsPerUser = cfg.Handover.MaxActive
 		rp.fadeStride = U * rp.legsPerUser
+		rp.legPos = make([]int64, rp.fadeStride)
 		for s := range rp.fadeSets {
 			rp.fadeSets[s] = make([]float64, blockSlots*rp.fadeStride)
 		}

@@ -147,12 +147,14 @@ type rep struct {
 	// slot-major: fade[k·fadeStride + u·legsPerUser + l] is the power gain
 	// of user u's leg slot l in slot k of the block.
 	fade        []float64
-	fadeStride  int          // U·legsPerUser
-	legsPerUser int          // leg slots with a fading channel: max_active
-	fadeTmp     [2][]float64 // one leg's samples before fill.go spreads them: [0] the replication's goroutine, [1] jobs
-	rx          []float64    // received power per cell this slot, mW
-	corr        []float64    // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
-	corrNext    []float64    // per cell: the next slot's, summed as the powers are set
+	fadeStride  int                 // U·legsPerUser
+	legsPerUser int                 // leg slots with a fading channel: max_active
+	fadeTmp     [2][]float64        // one leg's samples before fill.go spreads them: [0] the replication's goroutine, [1] the helper
+	plans       [2]fading.PlanCache // interpolation plans shared by legs of the same speed, per goroutine
+	legPos      []int64             // per leg slot u·legsPerUser + l: the slot its stream has reached
+	rx          []float64           // received power per cell this slot, mW
+	corr        []float64           // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
+	corrNext    []float64           // per cell: the next slot's, summed as the powers are set
 	// corrReady: corr already holds this slot's corrections (summed in the last slot).
 	corrReady bool
 	own       []float64
@@ -168,7 +170,8 @@ type rep struct {
 	recs      [3]*blockRec // statistics records: a ring of three blocks (record.go, fill.go)
 	rec       *blockRec    // this block's
 	shadowSD  float64
-	blockN    int // slots in the current fading block
+	blockN    int   // slots in the current fading block
+	blockT0   int64 // its first slot
 	// Work ahead (fill.go): the next shadowing update's slow gains, the
 	// two fade sets (this block's and the next), the helper and its jobs.
 	slowNext  []float64

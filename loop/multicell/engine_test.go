@@ -12,6 +12,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
 )
 
@@ -466,5 +467,83 @@ func TestCellsSiteMajor(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// TestLegStreamsOnSlotClock: every active-set leg's fast fading in slot t
+// is sample t of its channel's stream — the same channel filled without a
+// break from slot 0 — whether the leg stayed in the active set, left it or
+// rejoined (a leg's process continues while the leg is unused; fill.go's
+// fillLeg skips it ahead). Checked over 1200 slots with active-set updates
+// every 150 slots, one replication with the helper (GOMAXPROCS ≥ 2) and
+// without, and at least one leg that rejoined after an absence.
+func TestLegStreamsOnSlotClock(t *testing.T) {
+	for _, procs := range []int{1, 2} {
+		cfg := smallLayout()
+		cfg.Groups[0].CountPerCell = 7 // 168 users ≥ minUsersForHelper
+		cfg.Run = RunSettings{Slots: 1200, WarmupSlots: 60, Replications: 1, Seed: 5, Batches: 4}
+		cfg.Normalise()
+		old := runtime.GOMAXPROCS(procs)
+		rp, err := newRep(cfg, 77, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		A := rp.legsPerUser
+		got := make([][]float64, rp.U*A) // per leg slot: the gain used in each slot, NaN when unused
+		for i := range got {
+			got[i] = make([]float64, cfg.Run.Slots)
+		}
+		rp.afterSlot = func(tt int64) {
+			k := int(tt - rp.blockT0)
+			for u := range rp.users {
+				for l := 0; l < A; l++ {
+					v := math.NaN()
+					if rp.users[u].legs[l] >= 0 {
+						v = rp.fade[k*rp.fadeStride+u*A+l]
+					}
+					got[u*A+l][tt] = v
+				}
+			}
+		}
+		stop := rp.startHelper()
+		err = rp.run(context.Background())
+		stop()
+		runtime.GOMAXPROCS(old)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rejoined := 0
+		for u := range rp.users {
+			grp := cfg.Groups[rp.users[u].group]
+			fs, _ := cfg.fingers(rp.users[u].group)
+			for l := 0; l < A; l++ {
+				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz),
+					SampleRateHz: cfg.InnerLoop.UpdateRateHz, Profile: fs.Profile}, 77, u*maxLegsPerUser+l)
+				if err != nil {
+					t.Fatal(err)
+				}
+				want := make([]float64, cfg.Run.Slots)
+				ch.FillGains(want)
+				used, gap := false, false
+				for tt, g := range got[u*A+l] {
+					if math.IsNaN(g) {
+						gap = gap || used
+						continue
+					}
+					if used && gap {
+						rejoined++
+						gap = false
+					}
+					used = true
+					if g != want[tt] {
+						t.Fatalf("GOMAXPROCS %d: user %d leg %d slot %d: gain %v, stream sample %v", procs, u, l, tt, g, want[tt])
+					}
+				}
+			}
+		}
+		if rejoined == 0 {
+			t.Errorf("GOMAXPROCS %d: no leg rejoined its active set: the check of a continued stream did not run", procs)
+		}
+		t.Logf("GOMAXPROCS %d: %d rejoins checked", procs, rejoined)
 	}
 }

@@ -34,15 +34,32 @@ func (rp *rep) fillJoiners() {
 	rp.complete(j)
 }
 
-// fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l.
-// tmp is the calling goroutine's scratch (rep.fadeTmp).
-func (rp *rep) fillLegs(legs []int, tmp []float64) {
-	tmp = tmp[:rp.blockN]
+// fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l
+// on goroutine who.
+func (rp *rep) fillLegs(legs []int, who int) {
 	for _, i := range legs {
 		u, l := i/maxLegsPerUser, i%maxLegsPerUser
-		rp.users[u].legCh[l].FillGains(tmp)
-		rp.spread(rp.fade, u*rp.legsPerUser+l, tmp)
+		rp.fillLeg(rp.fade, u, l, rp.blockT0, rp.blockN, who)
 	}
+}
+
+// fillLeg writes the fading of user u's leg slot l for the n slots from
+// slot t0 into fade set fade, on goroutine who. The leg's stream runs on
+// the slot clock: a leg out of the active set since its last samples is
+// first advanced to t0 (fading.Channel.Skip, no samples generated), so
+// a leg that rejoins continues its process where time has taken it, and
+// the legs of users of the same speed are at the same point of their
+// streams and share interpolation plans (rep.plans).
+func (rp *rep) fillLeg(fade []float64, u, l int, t0 int64, n, who int) {
+	j := u*rp.legsPerUser + l
+	ch := rp.users[u].legCh[l]
+	if d := t0 - rp.legPos[j]; d > 0 {
+		ch.Skip(int(d))
+	}
+	tmp := rp.fadeTmp[who][:n]
+	ch.FillGainsShared(tmp, &rp.plans[who])
+	rp.legPos[j] = t0 + int64(n)
+	rp.spread(fade, j, tmp)
 }
 
 // blockLen is the length of the block starting at slot t0: blockSlots,
@@ -75,7 +92,7 @@ func (rp *rep) run(ctx context.Context) error {
 		if t0 > 0 && !rp.full {
 			rp.complete(&rp.jobs.fill)
 		}
-		rp.fade, rp.blockN = rp.fadeSets[cur], n
+		rp.fade, rp.blockT0, rp.blockN = rp.fadeSets[cur], t0, n
 		if rp.full {
 			for i, ch := range rp.fullCh {
 				ch.FillGains(rp.fullBuf[i][:n])
@@ -110,7 +127,7 @@ func (rp *rep) run(ctx context.Context) error {
 				rp.rec.start(rp, t0, n)
 				if next := t0 + int64(n); next < total && !rp.full {
 					j := &rp.jobs.fill
-					j.set, j.n, j.chunks = 1-cur, rp.blockLen(next), (rp.U+chunkUsers-1)/chunkUsers
+					j.set, j.t, j.n, j.chunks = 1-cur, next, rp.blockLen(next), (rp.U+chunkUsers-1)/chunkUsers
 					rp.post(j)
 				}
 				if b > 0 {
@@ -139,17 +156,15 @@ func (rp *rep) postStats(b int) {
 	rp.post(j)
 }
 
-// fillSet fills fade set s with the next n slots of the legs in use of
-// users lo..hi−1.
-func (rp *rep) fillSet(s, n, lo, hi int, tmp []float64) {
+// fillSet fills fade set s with the n slots from slot t0 of the legs in
+// use of users lo..hi−1, on goroutine who.
+func (rp *rep) fillSet(s int, t0 int64, n, lo, hi, who int) {
 	fade := rp.fadeSets[s]
-	tmp = tmp[:n]
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		for l, ch := range us.legCh {
 			if ch != nil && us.legs[l] >= 0 {
-				ch.FillGains(tmp)
-				rp.spread(fade, u*rp.legsPerUser+l, tmp)
+				rp.fillLeg(fade, u, l, t0, n, who)
 			}
 		}
 	}

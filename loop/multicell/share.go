@@ -39,7 +39,7 @@ const (
 type job struct {
 	kind   jobKind
 	set, n int   // jobFill: fade set and slots; jobStats: record
-	t      int64 // jobGains: slot of the shadowing update
+	t      int64 // jobGains: slot of the shadowing update; jobFill: the block's first slot
 	chunks int
 	gen    uint32 // the generation posted (replication's goroutine only)
 
@@ -113,7 +113,7 @@ func (rp *rep) post(j *job) {
 	j.total.Store(int64(j.chunks))
 	j.state.Store(uint64(g) << 32)
 	if rp.helper == nil {
-		rp.runClaims(j, g, rp.fadeTmp[0])
+		rp.runClaims(j, g, 0)
 		return
 	}
 	if j.kind == jobStats {
@@ -126,8 +126,9 @@ func (rp *rep) post(j *job) {
 	}
 }
 
-// runClaims runs the chunks of generation g of j that it can claim.
-func (rp *rep) runClaims(j *job, g uint32, tmp []float64) {
+// runClaims runs the chunks of generation g of j that it can claim, on
+// goroutine who (0 the replication's, 1 the helper).
+func (rp *rep) runClaims(j *job, g uint32, who int) {
 	for {
 		v := j.state.Load()
 		if uint32(v>>32) != g || int64(uint32(v)) >= j.total.Load() {
@@ -136,7 +137,7 @@ func (rp *rep) runClaims(j *job, g uint32, tmp []float64) {
 		if !j.state.CompareAndSwap(v, v+1) {
 			continue
 		}
-		rp.runChunk(j, int(uint32(v)), tmp)
+		rp.runChunk(j, int(uint32(v)), who)
 		j.finish()
 	}
 }
@@ -153,7 +154,7 @@ func (rp *rep) complete(j *job) {
 		return // ran when posted
 	}
 	if j.kind != jobStats {
-		rp.runClaims(j, j.gen, rp.fadeTmp[0])
+		rp.runClaims(j, j.gen, 0)
 	}
 	// The helper is at most a chunk away (or, for the statistics, a few
 	// jobs): a short spin, then sleep until its last chunk finishes.
@@ -184,21 +185,22 @@ func (rp *rep) completeAll() {
 // chunkHook, when set (tests), is called before each chunk runs.
 var chunkHook func(kind jobKind, onHelper bool)
 
-// runChunk runs chunk i of j with the calling goroutine's scratch tmp.
-func (rp *rep) runChunk(j *job, i int, tmp []float64) {
+// runChunk runs chunk i of j on goroutine who (its scratch and plan
+// cache: rep.fadeTmp[who], rep.plans[who]).
+func (rp *rep) runChunk(j *job, i int, who int) {
 	if chunkHook != nil {
-		chunkHook(j.kind, &tmp[0] == &rp.fadeTmp[1][0])
+		chunkHook(j.kind, who == 1)
 	}
 	switch j.kind {
 	case jobFill:
 		lo := i * chunkUsers
-		rp.fillSet(j.set, j.n, lo, min(rp.U, lo+chunkUsers), tmp)
+		rp.fillSet(j.set, j.t, j.n, lo, min(rp.U, lo+chunkUsers), who)
 	case jobGains:
 		lo := i * chunkUsers
 		rp.gainsRange(rp.slowNext, j.t, lo, min(rp.U, lo+chunkUsers))
 	case jobJoin:
 		lo := i * chunkLegs
-		rp.fillLegs(rp.joiners[lo:min(len(rp.joiners), lo+chunkLegs)], tmp)
+		rp.fillLegs(rp.joiners[lo:min(len(rp.joiners), lo+chunkLegs)], who)
 	case jobStats:
 		rp.stats.addBlock(rp, rp.recs[j.set])
 	}
@@ -224,7 +226,7 @@ func (rp *rep) startHelper() func() {
 						e.j.finish()
 					}
 				}()
-				rp.runClaims(e.j, e.gen, rp.fadeTmp[1])
+				rp.runClaims(e.j, e.gen, 1)
 			}()
 		}
 	}()
