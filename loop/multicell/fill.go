@@ -18,8 +18,9 @@ import "context"
 // Blocks end at active-set updates, so the legs in use are fixed within a
 // block. The fading of block b+1 is generated for the legs in use during
 // block b; a leg that joins at the start of block b+1 gets its samples
-// then (updateActiveSets), a leg that leaves has had its process advance
-// by one unused block (still a stationary Rayleigh process, continued).
+// then (updateActiveSets). Every leg's stream runs on the slot clock: the
+// gain in slot t is sample t of its channel, whether the leg stayed, left
+// or rejoined (fillLeg skips an unused leg ahead; TestLegStreamsOnSlotClock).
 
 // fillJoiners fills this block's fading of the leg slots that joined at
 // its start (rep.joiners), shared with the helper when there is one (each
