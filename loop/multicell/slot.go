@@ -144,10 +144,19 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	A := rp.legsPerUser
 	rec := rp.rec
 	pAtMax := rp.pmax * (1 - 1e-12) // at max: within rounding of the limit
-	for u := range rp.users {
-		us := &rp.users[u]
+	// Loop invariants in locals (the stores below go through pointers).
+	pg, noise, full, U := rp.pg, rp.noiseMW, rp.full, rp.U
+	pPrev, pCur, cmds := rp.pPrev[:U], rp.pCur[:U], rp.cmds
+	recSIR, recPDB, recTDB, recFlags := rec.sir[k*U:(k+1)*U], rec.pDB[k*U:(k+1)*U], rec.targetDB[k*U:(k+1)*U], rec.flags[k*U:(k+1)*U]
+	marginLin := rp.marginLin
+	// A closed-loop step without the open loop: stepPower, called directly.
+	step := closed && !rp.cfg.OpenLoop.Enabled
+	upLin, downLin, pmin, pmax, stepDB := rp.upLin, rp.downLin, rp.pmin, rp.pmax, il.StepDB
+	users := rp.users[:U]
+	for u := range users {
+		us := &users[u]
 		pu := us.p
-		rp.pPrev[u] = pu
+		pPrev[u] = pu
 		bestSIR := 0.0
 		allUp := true
 		anyOK := false
@@ -157,14 +166,14 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			f := 1.0
 			if fk != nil {
 				f = fk[u*A+int(l)]
-			} else if rp.full {
-				f = rp.fullBuf[c*rp.U+u][k]
+			} else if full {
+				f = rp.fullBuf[c*U+u][k]
 			}
 			sig := pu * lg.g * f
 			if c == int(us.best) {
 				own[c] += sig
 			}
-			sir := rp.pg * sig / fmax(rx[c]-sig, rp.noiseMW)
+			sir := pg * sig / fmax(rx[c]-sig, noise)
 			bestSIR = fmax(bestSIR, sir)
 			lg.acc += sir
 			lg.n++
@@ -192,10 +201,9 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 		}
 		if measure {
-			i := k*rp.U + u
-			rec.sir[i], rec.pDB[i], rec.targetDB[i] = bestSIR, us.pDB, us.targetDB
+			recSIR[u], recPDB[u], recTDB[u] = bestSIR, us.pDB, us.targetDB
 			var fl uint8
-			if bestSIR < us.target*rp.marginLin {
+			if bestSIR < us.target*marginLin {
 				fl |= recOutage
 			}
 			if pu >= pAtMax {
@@ -207,7 +215,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 					fl |= recBlockErr
 				}
 			}
-			rec.flags[i] = fl
+			recFlags[u] = fl
 		}
 		if blockEnd {
 			blockErr := !anyOK
@@ -231,21 +239,25 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if allUp {
 				cmd = 1
 			}
-			applied := rp.cmds[u*d+di]
-			rp.cmds[u*d+di] = cmd
+			applied := cmds[u*d+di]
+			cmds[u*d+di] = cmd
 			if d == 1 {
 				applied = cmd
 			} else if t < int64(d) {
 				applied = 0
 			}
-			rp.applyCommand(us, applied)
+			if step {
+				us.stepPower(applied, upLin, downLin, pmin, pmax, stepDB)
+			} else {
+				rp.applyCommand(us, applied)
+			}
 			if applied > 0 {
 				ups++
 			} else if applied < 0 {
 				downs++
 			}
 		}
-		rp.pCur[u] = us.p
+		pCur[u] = us.p
 		if ahead && fk != nil {
 			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
 			for _, l := range us.act[:us.nLegs] {
@@ -273,19 +285,24 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
 		return
 	}
-	// One step: the dB value follows by ±step_db without a logarithm,
-	// exact again at a limit.
+	us.stepPower(cmd, rp.upLin, rp.downLin, rp.pmin, rp.pmax, rp.cfg.InnerLoop.StepDB)
+}
+
+// stepPower moves the power one step up (cmd > 0) or down (cmd < 0):
+// p·upLin or p·downLin, without passing pmax or pmin (mW); the dB value
+// follows by ±stepDB without a logarithm, exact again at a limit.
+func (us *user) stepPower(cmd int8, upLin, downLin, pmin, pmax, stepDB float64) {
 	if cmd > 0 {
-		if np := us.p * rp.upLin; np < rp.pmax {
-			us.p, us.pDB = np, us.pDB+rp.cfg.InnerLoop.StepDB
+		if np := us.p * upLin; np < pmax {
+			us.p, us.pDB = np, us.pDB+stepDB
 		} else {
-			us.setP(rp.pmax)
+			us.setP(pmax)
 		}
-	} else {
-		if np := us.p * rp.downLin; np > rp.pmin {
-			us.p, us.pDB = np, us.pDB-rp.cfg.InnerLoop.StepDB
+	} else if cmd < 0 {
+		if np := us.p * downLin; np > pmin {
+			us.p, us.pDB = np, us.pDB-stepDB
 		} else {
-			us.setP(rp.pmin)
+			us.setP(pmin)
 		}
 	}
 }
