@@ -132,6 +132,12 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	}
 	rp.stats = newCollector(rp, r)
 	rp.marginLin = math.Pow(10, -cfg.Run.OutageMarginDB/10)
+	rp.edge = make([]float64, U)
+	for u, us := range rp.users {
+		if us.edge {
+			rp.edge[u] = 1
+		}
+	}
 	rp.recs = [3]*blockRec{newBlockRec(U, C), newBlockRec(U, C), newBlockRec(U, C)}
 	rp.jobs.fill.kind, rp.jobs.gains.kind, rp.jobs.join.kind = jobFill, jobGains, jobJoin
 	for i := range rp.jobs.stats {

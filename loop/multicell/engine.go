@@ -167,6 +167,7 @@ type rep struct {
 	fullBuf   [][]float64
 	stats     *collector
 	marginLin float64      // 10^(−outage_margin_db/10): outage below target·marginLin
+	edge      []float64    // per user: 1 at the cell edge, else 0 (user.edge, for the statistics)
 	recs      [3]*blockRec // statistics records: a ring of three blocks (record.go, fill.go)
 	rec       *blockRec    // this block's
 	shadowSD  float64

@@ -547,3 +547,12 @@ func TestLegStreamsOnSlotClock(t *testing.T) {
 		t.Logf("GOMAXPROCS %d: %d rejoins checked", procs, rejoined)
 	}
 }
+
+// TestRecordFlagBits: users1 reads the record flags by bit position.
+func TestRecordFlagBits(t *testing.T) {
+	for i, f := range []uint8{recOutage, recAtMax, recBlockEnd, recBlockErr} {
+		if f != 1<<i {
+			t.Errorf("flag %d = %#x, want %#x", i, f, 1<<i)
+		}
+	}
+}

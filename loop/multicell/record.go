@@ -8,7 +8,8 @@ package multicell
 // report is the same either way and the same as summing each slot as it
 // runs: the same values are added in the same order.
 
-// Flags of a recorded user-slot (blockRec.flags).
+// Flags of a recorded user-slot (blockRec.flags; users1 reads them by
+// bit position).
 const (
 	recOutage   uint8 = 1 << iota // combined SIR below target − outage margin
 	recAtMax                      // Tx power at its maximum
@@ -83,30 +84,21 @@ func (c *collector) users1(rp *rep, r *blockRec, i int) {
 	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
 	var legN, legOut, legMx [LegStates]float64
 	b := &c.batches[c.cur]
+	edges := rp.edge[:U]
 	for u, s := range sir {
+		// 0/1 values from the flags, without branches.
 		f := flags[u]
-		o, m := 0.0, 0.0
-		if f&recOutage != 0 {
-			o = 1
-		}
-		if f&recAtMax != 0 {
-			m = 1
-		}
-		if f&recBlockEnd != 0 {
-			blocks++
-			if f&recBlockErr != 0 {
-				blockErrs++
-			}
-		}
+		o := float64(f & recOutage)
+		m := float64((f & recAtMax) >> 1)
+		blocks += float64((f & recBlockEnd) >> 2)
+		blockErrs += float64((f & recBlockErr) >> 3)
 		nl := int(r.nLegs[u])
 		li := min(nl, LegStates) - 1
 		e := linToDB(fmax(s, 1e-30)) - tDB[u]
 		out += o
 		mx += m
-		if rp.users[u].edge {
-			edge++
-			edgeMx += m
-		}
+		edge += edges[u]
+		edgeMx += m * edges[u]
 		legN[li]++
 		legOut[li] += o
 		legMx[li] += m
