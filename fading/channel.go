@@ -152,7 +152,7 @@ type Channel struct {
 	pos          int         // direct mode: next unread offset in the block
 
 	m            int64       // next output sample index
-	outRe, outIm [][]float64 // interpolation mode: per-tap output chunk
+	outRe, outIm [][]float64 // interpolation mode: per-tap output chunk (FillTaps only; made on its first use)
 	viewRe       [][]float64 // per-tap views of the last produced chunk
 	viewIm       [][]float64
 	idx          []int32 // interpolation plan: first node per output sample
@@ -208,8 +208,6 @@ func NewChannel(cfg ChannelConfig, seed uint64, user int) (*Channel, error) {
 	c.blk = c.src.blockLen()
 	if c.step < 1 {
 		c.hist = interpHist
-		c.outRe = make2(nt, outChunk)
-		c.outIm = make2(nt, outChunk)
 		c.idx = make([]int32, outChunk)
 		c.wrow = make([]int32, outChunk)
 	}
@@ -365,6 +363,12 @@ func (c *Channel) produce(max int) int {
 		return n
 	}
 	n := c.plan(max)
+	if c.outRe == nil {
+		// Only FillTaps reads the interpolated taps; FillGains
+		// interpolates straight into powers. A channel that only fills
+		// gains (most of a multi-cell layout's) never makes these.
+		c.outRe, c.outIm = make2(c.nt, outChunk), make2(c.nt, outChunk)
+	}
 	for l := 0; l < c.nt; l++ {
 		interpTap(c.outRe[l][:n], c.outIm[l][:n], c.bufRe[l], c.bufIm[l], c.idx[:n], c.wrow[:n])
 		c.viewRe[l] = c.outRe[l][:n]
