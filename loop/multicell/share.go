@@ -7,8 +7,10 @@ import (
 
 // Jobs shared between the replication's goroutine and its helper
 // (fill.go). A job is cut into chunks; whoever claims a chunk (an atomic
-// compare-and-swap on the job's state: generation and next chunk) runs
-// it. The helper takes the jobs in the order posted; the replication's
+// compare-and-swap on the job's state: generation, chunks and next chunk) runs
+// it. The helper takes the jobs in the order posted, and between two
+// chunks of one it takes the chunks left of the joining-legs and gains
+// jobs (the ones the replication's goroutine waits for soonest); the replication's
 // goroutine, when it needs a job's result, claims the chunks left and
 // waits for the ones running. The statistics are one chunk that only the
 // helper runs, in the order posted (their posts always queue, so blocks
@@ -43,8 +45,7 @@ type job struct {
 	chunks int
 	gen    uint32 // the generation posted (replication's goroutine only)
 
-	state  atomic.Uint64 // generation<<32 | next chunk to claim
-	total  atomic.Int64  // chunks of this generation (read by the helper)
+	state  atomic.Uint64 // generation<<32 | chunks<<16 | next chunk to claim (jobState)
 	fin    atomic.Int64  // chunks finished in this generation
 	pv     atomic.Pointer[panicValue]
 	posted bool // posted and not yet completed (replication's goroutine only)
@@ -58,7 +59,7 @@ type job struct {
 // finish counts a finished chunk and wakes a waiting complete after the
 // last one.
 func (j *job) finish() {
-	if j.fin.Add(1) >= j.total.Load() && j.waiting.Load() {
+	if _, total, _ := jobState(j.state.Load()); j.fin.Add(1) >= int64(total) && j.waiting.Load() {
 		select {
 		case j.wake <- struct{}{}:
 		default:
@@ -110,8 +111,10 @@ func (rp *rep) post(j *job) {
 	j.posted = true
 	j.pv.Store(nil)
 	j.fin.Store(0)
-	j.total.Store(int64(j.chunks))
-	j.state.Store(uint64(g) << 32)
+	if j.chunks >= 1<<16 {
+		panic("multicell: job of 65536 chunks or more") // programmer error: MaxUsers keeps chunks far below
+	}
+	j.state.Store(uint64(g)<<32 | uint64(j.chunks)<<16)
 	if rp.helper == nil {
 		rp.runClaims(j, g, 0)
 		return
@@ -131,15 +134,61 @@ func (rp *rep) post(j *job) {
 func (rp *rep) runClaims(j *job, g uint32, who int) {
 	for {
 		v := j.state.Load()
-		if uint32(v>>32) != g || int64(uint32(v)) >= j.total.Load() {
+		if gen, total, next := jobState(v); gen != g || next >= total {
 			return
 		}
 		if !j.state.CompareAndSwap(v, v+1) {
 			continue
 		}
-		rp.runChunk(j, int(uint32(v)), who)
-		j.finish()
+		_, _, next := jobState(v)
+		if who == 0 {
+			rp.runChunk(j, next, 0)
+			j.finish()
+			continue
+		}
+		rp.helperChunk(j, next)
+		// Between chunks of a long job, the helper first takes what the
+		// replication's goroutine will wait for soonest: the joining
+		// legs (waited for now) and the next shadowing update's gains.
+		for _, u := range [...]*job{&rp.jobs.join, &rp.jobs.gains} {
+			if u != j {
+				rp.helperClaims(u)
+			}
+		}
 	}
+}
+
+// helperChunk runs chunk i of j on the helper; a panic is kept for
+// complete to re-raise and the chunk counts as finished.
+func (rp *rep) helperChunk(j *job, i int) {
+	defer j.finish()
+	defer func() {
+		if p := recover(); p != nil {
+			j.pv.Store(&panicValue{p})
+		}
+	}()
+	rp.runChunk(j, i, 1)
+}
+
+// helperClaims runs on the helper the chunks left of j's current
+// generation (none when it is not posted: its state is then exhausted).
+func (rp *rep) helperClaims(j *job) {
+	for {
+		v := j.state.Load()
+		_, total, next := jobState(v)
+		if next >= total {
+			return
+		}
+		if j.state.CompareAndSwap(v, v+1) {
+			rp.helperChunk(j, next)
+		}
+	}
+}
+
+// jobState splits a job's state: generation, chunks, next chunk to claim.
+// One word, so a claim (compare-and-swap) never mixes two generations.
+func jobState(v uint64) (gen uint32, total, next int) {
+	return uint32(v >> 32), int(v >> 16 & 0xffff), int(v & 0xffff)
 }
 
 // complete returns when every chunk of j has run (running the chunks
@@ -219,15 +268,7 @@ func (rp *rep) startHelper() func() {
 	go func() {
 		defer close(h.exited)
 		for e := range h.work {
-			func() {
-				defer func() {
-					if p := recover(); p != nil {
-						e.j.pv.Store(&panicValue{p})
-						e.j.finish()
-					}
-				}()
-				rp.runClaims(e.j, e.gen, 1)
-			}()
+			rp.runClaims(e.j, e.gen, 1)
 		}
 	}()
 	// Stopping waits for the goroutine: nothing touches the replication
