@@ -49,8 +49,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
 			continue
 		}
-		t.Add(f.Label, Num(f.Scale*e.GetValue(), f.Dec),
-			"["+Num(f.Scale*e.GetCiLow(), f.Dec)+", "+Num(f.Scale*e.GetCiHigh(), f.Dec)+"]")
+		t.Add(f.Label, Num(f.Scale*e.GetValue(), f.Dec), Interval(f.Scale*e.GetCiLow(), f.Scale*e.GetCiHigh(), f.Dec))
 	}
 	t.Write(w)
 	LayoutTable(w, rep)
