@@ -93,4 +93,22 @@ func TestNoIntervalShownAsDash(t *testing.T) {
 	if s := b.String(); strings.Contains(s, "[–") || strings.Contains(s, "NaN") || !strings.Contains(s, "0.500") {
 		t.Errorf("layout table:\n%s", s)
 	}
+	// The run table points to the notes exactly when an interval is missing.
+	for _, withheld := range []bool{true, false} {
+		out := none(0.05)
+		if !withheld {
+			out = &pb.Estimate{Value: 0.05, CiLow: 0.04, CiHigh: 0.06}
+		}
+		rep.Aggregate = &pb.Figures{Users: 2, OutageProbability: out}
+		rep.Notes = []string{"one replication: no intervals: run longer"}
+		b.Reset()
+		RunTable(&b, rep, false)
+		s := b.String()
+		if said := strings.Contains(s, "Intervals marked – are not available") && strings.Contains(s, "- one replication: no intervals: run longer"); said != withheld {
+			t.Errorf("interval withheld %v, notes printed %v:\n%s", withheld, said, s)
+		}
+		if strings.Contains(s, "NaN") || strings.Contains(s, "[–") {
+			t.Errorf("run table:\n%s", s)
+		}
+	}
 }

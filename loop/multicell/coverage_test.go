@@ -336,9 +336,9 @@ func TestOneReplicationWithheld(t *testing.T) {
 		given bool
 		note  string
 	}{
-		{"120 km/h, d_c 50 m, 2700 slots", old, false, "2700 measured slots span 1.2 decorrelation times of the slowest process, the shadowing of group 0 at 120 km/h (50 m / 33.3 m/s = 2250 slots); an interval over time within one drop needs at least 4 batch groups of 10 decorrelation times, about 90000 measured slots"},
+		{"120 km/h, d_c 50 m, 2700 slots", old, false, "2700 measured slots span 1.2 decorrelation times of the slowest process, the shadowing of group 0 at 120 km/h (50 m / 33.3 m/s = 2250 slots); an interval over time within one drop needs 4 batch groups of 10 decorrelation times, at least 90000 measured slots"},
 		{"4 groups of 900 slots", oneRepLayout(300+3600, 3), true, "Student t over 4 batch groups, each at least 10 decorrelation times (90 slots)"},
-		{"7 batches: 3 groups", sevenBatches, false, "about 3600 measured slots"},
+		{"7 batches: 3 groups", sevenBatches, false, "at least 3600 measured slots"},
 		{"one slot short", oneRepLayout(300+3599, 3), false, "3599 measured slots"},
 	}
 	for _, c := range cases {

@@ -511,9 +511,8 @@ func decorrelationSlots(cfg Config) (slots float64, what string) {
 func oneReplicationNote(cfg Config, dc float64, what string, k int) string {
 	measured := cfg.Run.Slots - cfg.Run.WarmupSlots
 	if k == 0 {
-		need := int64(math.Ceil(minBatchGroups * groupDecorrelationTimes * dc))
-		return fmt.Sprintf("one replication: no intervals (bounds not available): the %d measured slots span %.2g decorrelation times of the slowest process, %s; an interval over time within one drop needs at least %d batch groups of %d decorrelation times, about %d measured slots in %d or more batches; run 2 or more replications (intervals over independent drops) or lengthen the run",
-			measured, float64(measured)/dc, what, minBatchGroups, groupDecorrelationTimes, need, minBatchGroups)
+		return fmt.Sprintf("one replication: no intervals (bounds not available): the %d measured slots span %.2g decorrelation times of the slowest process, %s; an interval over time within one drop needs %d batch groups of %d decorrelation times, at least %.0f measured slots; run 2 or more replications (intervals over independent drops) or lengthen the run",
+			measured, float64(measured)/dc, what, minBatchGroups, groupDecorrelationTimes, minBatchGroups*groupDecorrelationTimes*dc)
 	}
 	return fmt.Sprintf("one replication: the intervals describe this drop's long-run value (users' positions fixed, time average over shadowing, fading and the loops), not the expectation over drops: Student t over %d batch groups, each at least %d decorrelation times (%.0f slots) of the slowest process, %s; run 2 or more replications for intervals over independent drops",
 		k, groupDecorrelationTimes, dc, what)
