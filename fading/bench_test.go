@@ -97,3 +97,38 @@ func BenchmarkCanonicalGains64(b *testing.B) {
 	b.ReportMetric(float64(b.N)*n*float64(len(chs))/b.Elapsed().Seconds(), "samples/s")
 	b.ReportMetric(float64(cpuTime()-c0)/float64(b.N)/float64(len(chs)), "cpu-ns/channel-block")
 }
+
+// BenchmarkSkip compares Skip(n) with FillGains of the same n samples (the
+// cost of keeping an unused link's stream at the slot clock against
+// generating it) on a 3-tap channel, for every generator, decimating
+// (f_D·T = 0.037: 55.6 Hz at 1500 samples/s) and direct (f_D·T = 0.2), and
+// n = 64 and 15000. Skip's figure includes the random draws of the blocks
+// passed over; the up to two blocks that the next Fill call would generate
+// are not part of it (a link that only skips never generates them).
+func BenchmarkSkip(b *testing.B) {
+	prof := Profile{Name: "3tap", Taps: []Tap{{0, 0}, {310, -1}, {710, -9}}}
+	const fs = 1500.0
+	for _, g := range []Generator{GeneratorDefault, GeneratorSumOfSinusoids, GeneratorSpectral} {
+		for _, fd := range []float64{55.6, 300} {
+			for _, n := range []int{64, 15000} {
+				for _, kind := range []string{"skip", "fill"} {
+					b.Run(fmt.Sprintf("%v/fdT=%.3f/n=%d/%s", g, fd/fs, n, kind), func(b *testing.B) {
+						ch, err := NewChannel(ChannelConfig{DopplerHz: fd, SampleRateHz: fs, Profile: prof, Generator: g}, 7, 0)
+						if err != nil {
+							b.Fatal(err)
+						}
+						gains := make([]float64, n)
+						b.ReportAllocs()
+						for b.Loop() {
+							if kind == "skip" {
+								ch.Skip(n)
+							} else {
+								ch.FillGains(gains)
+							}
+						}
+					})
+				}
+			}
+		}
+	}
+}

@@ -223,7 +223,8 @@ func TestLongRunPower(t *testing.T) {
 	}
 }
 
-// TestZeroAllocs: FillGains and FillTaps allocate nothing in steady state.
+// TestZeroAllocs: FillGains, FillTaps and Skip allocate nothing in steady
+// state.
 func TestZeroAllocs(t *testing.T) {
 	for _, cfg := range channelCases() {
 		ch, _ := NewChannel(cfg, 1, 0)
@@ -235,6 +236,14 @@ func TestZeroAllocs(t *testing.T) {
 		}
 		if a := testing.AllocsPerRun(5, func() { ch.FillTaps(taps) }); a != 0 {
 			t.Errorf("%v f_D=%g: FillTaps allocates %v per call", cfg.Generator, cfg.DopplerHz, a)
+		}
+		for _, n := range []int{1, 600, 50000} {
+			if a := testing.AllocsPerRun(5, func() { ch.Skip(n) }); a != 0 {
+				t.Errorf("%v f_D=%g: Skip(%d) allocates %v per call", cfg.Generator, cfg.DopplerHz, n, a)
+			}
+		}
+		if a := testing.AllocsPerRun(5, func() { ch.Skip(50000); ch.FillGains(g) }); a != 0 {
+			t.Errorf("%v f_D=%g: FillGains after Skip allocates %v per call", cfg.Generator, cfg.DopplerHz, a)
 		}
 	}
 }

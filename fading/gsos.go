@@ -43,6 +43,7 @@ type gsosSource struct {
 	cosW    []float64    // cos(πi/(2W))
 	sinW    []float64    // sin(πi/(2W))
 	started bool
+	raw     bool // cur holds drawRaw's draws, finish pending (skip)
 }
 
 // gsosSet is one set of sinusoids of one tap: 2M oscillators, the first M
@@ -81,18 +82,32 @@ func newGSOSSet(m int) gsosSet {
 
 // draw fills set with new independent parameters from r.
 func (s *gsosSource) draw(set *gsosSet, r *rand.Rand) {
+	s.drawRaw(set, r)
+	s.finish(set)
+}
+
+// drawRaw takes a set's draws from r: per oscillator θ (kept in delta until
+// finish), A and B.
+func (s *gsosSource) drawRaw(set *gsosSet, r *rand.Rand) {
+	sd := math.Sqrt(1 / (2 * float64(s.m)))
+	for i := 0; i < 2*s.m; i++ {
+		set.delta[i] = math.Pi * (2*r.Float64() - 1)
+		set.a[i], set.b[i] = sd*r.NormFloat64(), sd*r.NormFloat64()
+	}
+}
+
+// finish turns the θ of drawRaw into the oscillators' increments and
+// recursion coefficients.
+func (s *gsosSource) finish(set *gsosSet) {
 	m := s.m
-	sd := math.Sqrt(1 / (2 * float64(m)))
 	for b := 0; b < 2; b++ {
 		for n := 0; n < m; n++ {
-			theta := math.Pi * (2*r.Float64() - 1)
-			alpha := (2*math.Pi*float64(n+1) - math.Pi + theta) / float64(4*m)
+			i := b*m + n
+			alpha := (2*math.Pi*float64(n+1) - math.Pi + set.delta[i]) / float64(4*m)
 			f := math.Cos(alpha)
 			if b == 1 {
 				f = math.Sin(alpha)
 			}
-			i := b*m + n
-			set.a[i], set.b[i] = sd*r.NormFloat64(), sd*r.NormFloat64()
 			d := 2 * math.Pi * s.nu * f
 			set.delta[i] = d
 			set.sinD[i], set.cosD[i] = math.Sincos(d)
@@ -127,6 +142,9 @@ func (s *gsosSource) eval(set *gsosSet, off int, dst []float64, k0 int, g float6
 func (s *gsosSource) next(scale []float64, re, im [][]float64) {
 	for l := 0; l < s.nt; l++ {
 		r := s.rng[l]
+		if s.raw {
+			s.finish(&s.cur[l]) // drawn by skip
+		}
 		if !s.started {
 			s.draw(&s.old[l], r)
 		} else {
@@ -144,5 +162,31 @@ func (s *gsosSource) next(scale []float64, re, im [][]float64) {
 			}
 		}
 	}
-	s.started = true
+	s.started, s.raw = true, false
+}
+
+// skip advances past n blocks as n calls of next would: the random draws
+// of every set are consumed in next's order, and only the last set (the
+// outgoing one of the following block) is kept, its increments computed by
+// the next call of next (finish).
+func (s *gsosSource) skip(n int) {
+	if n <= 0 {
+		return
+	}
+	sets := n // sets drawn by n calls of next
+	if !s.started {
+		sets++ // the first call also draws the outgoing set
+	}
+	for l := 0; l < s.nt; l++ {
+		r := s.rng[l]
+		for i := 0; i < sets-1; i++ {
+			for j := 0; j < 2*s.m; j++ { // draw's order: θ, A, B per oscillator
+				r.Float64()
+				r.NormFloat64()
+				r.NormFloat64()
+			}
+		}
+		s.drawRaw(&s.cur[l], r)
+	}
+	s.started, s.raw = true, true
 }

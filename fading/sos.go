@@ -74,6 +74,10 @@ func (s *sosSource) next(scale []float64, re, im [][]float64) {
 	}
 }
 
+// skip advances past n blocks: every block is evaluated from the exact
+// phases at its absolute index, so only that index moves.
+func (s *sosSource) skip(n int) { s.k0 += int64(n) * sosBlock }
+
 // fillBank writes g Σ_n cos(Δ_n k + φ_n) for k = k0..k0+len(dst)-1.
 func (s *sosSource) fillBank(b *oscBank, dst []float64, k0 int64, g float64) {
 	m := s.m

@@ -33,6 +33,8 @@ type spectralSource struct {
 	cosW      []float64 // cos(πi/N), i < N/2
 	sinW      []float64 // sin(πi/N)
 	started   bool
+	pend      [][]complex128 // per tap: bin values of the last block skip passed over (by nz), transform pending
+	raw       bool           // pend holds a block whose transform is pending (skip)
 }
 
 // spectralBlockLen returns the FFT length for normalised Doppler nu: a power
@@ -47,7 +49,7 @@ func newSpectralSource(nt int, nu float64, seed uint64, user int) *spectralSourc
 	n := spectralBlockLen(nu)
 	s := &spectralSource{nt: nt, n: n, h: n / 2, fft: fourier.NewCmplxFFT(n), amp: make([]float64, n),
 		coef: make([]complex128, n), rng: make([]*rand.Rand, nt),
-		prev: make([][]complex128, nt), cur: make([][]complex128, nt),
+		prev: make([][]complex128, nt), cur: make([][]complex128, nt), pend: make([][]complex128, nt),
 		cosW: make([]float64, n/2), sinW: make([]float64, n/2)}
 	for k := 0; k < n; k++ {
 		kk := k
@@ -68,6 +70,7 @@ func newSpectralSource(nt int, nu float64, seed uint64, user int) *spectralSourc
 		s.rng[l] = NewStream(seed, user, l, StreamTap)
 		s.prev[l] = make([]complex128, n)
 		s.cur[l] = make([]complex128, n)
+		s.pend[l] = make([]complex128, len(s.nz))
 	}
 	return s
 }
@@ -86,6 +89,12 @@ func (s *spectralSource) gen(l int, dst []complex128) {
 
 func (s *spectralSource) next(scale []float64, re, im [][]float64) {
 	for l := 0; l < s.nt; l++ {
+		if s.raw { // the block skip drew last: transform it now
+			for i, k := range s.nz {
+				s.coef[k] = s.pend[l][i]
+			}
+			s.fft.Sequence(s.cur[l], s.coef)
+		}
 		if !s.started {
 			s.gen(l, s.prev[l])
 		} else {
@@ -101,5 +110,34 @@ func (s *spectralSource) next(scale []float64, re, im [][]float64) {
 			q[i] = cw*imag(prev[i]) + sw*imag(cur[i])
 		}
 	}
-	s.started = true
+	s.started, s.raw = true, false
+}
+
+// skip advances past n blocks as n calls of next would: the bin draws of
+// every block are consumed in gen's order, and only the bin values of the
+// last block (the outgoing one of the following block) are kept, for next
+// to transform.
+func (s *spectralSource) skip(n int) {
+	if n <= 0 {
+		return
+	}
+	blocks := n // blocks drawn by n calls of next
+	if !s.started {
+		blocks++ // the first call also draws the outgoing block
+	}
+	for l := 0; l < s.nt; l++ {
+		r := s.rng[l]
+		for i := 0; i < blocks-1; i++ {
+			for range s.nz { // gen's order: real, then imaginary part per bin
+				r.NormFloat64()
+				r.NormFloat64()
+			}
+		}
+		p := s.pend[l]
+		for i, k := range s.nz { // gen's values
+			a := s.amp[k] * math.Sqrt2 / 2
+			p[i] = complex(a*r.NormFloat64(), a*r.NormFloat64())
+		}
+	}
+	s.started, s.raw = true, true
 }

@@ -81,7 +81,6 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 					}
 				}
 				us.setTarget(cfg.OuterLoop.InitialTargetDB)
-				us.cmds = make([]int8, cfg.InnerLoop.FeedbackDelaySlots+1)
 				rp.users = append(rp.users, us)
 				u++
 			}
@@ -97,23 +96,21 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.corrNext = make([]float64, C)
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
+	rp.cmds = make([]int8, U*(cfg.InnerLoop.FeedbackDelaySlots+1))
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
 	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
-	for s := range rp.fadeSets {
-		fade := make([][]float64, U*maxLegsPerUser)
-		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
-			// One array, each user's legs next to each other.
-			all := make([]float64, U*cfg.Handover.MaxActive*blockSlots)
-			for u := range rp.users {
-				for l := 0; l < cfg.Handover.MaxActive; l++ {
-					all, fade[u*maxLegsPerUser+l] = all[blockSlots:], all[:blockSlots:blockSlots]
-				}
-			}
+	rp.fadeTmp = [2][]float64{make([]float64, blockSlots), make([]float64, blockSlots)}
+	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+		// Slot-major: slot k's gains of every leg slot side by side, in
+		// the order the slot loop reads them.
+		rp.legsPerUser = cfg.Handover.MaxActive
+		rp.fadeStride = U * rp.legsPerUser
+		for s := range rp.fadeSets {
+			rp.fadeSets[s] = make([]float64, blockSlots*rp.fadeStride)
 		}
-		rp.fadeSets[s] = fade
+		rp.fade = rp.fadeSets[0]
 	}
-	rp.fade = rp.fadeSets[0]
 	if rp.full {
 		rp.fullCh = make([]*fading.Channel, C*U)
 		rp.fullBuf = make([][]float64, C*U)
@@ -133,5 +130,15 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		}
 	}
 	rp.stats = newCollector(rp, r)
+	rp.marginLin = math.Pow(10, -cfg.Run.OutageMarginDB/10)
+	rp.recs = [3]*blockRec{newBlockRec(U, C), newBlockRec(U, C), newBlockRec(U, C)}
+	rp.jobs.fill.kind, rp.jobs.gains.kind, rp.jobs.join.kind = jobFill, jobGains, jobJoin
+	for i := range rp.jobs.stats {
+		rp.jobs.stats[i].kind = jobStats
+	}
+	for _, j := range rp.jobs.all() {
+		j.wake = make(chan struct{}, 1)
+	}
+	rp.rec = rp.recs[0]
 	return rp, nil
 }

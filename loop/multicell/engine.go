@@ -13,11 +13,13 @@ import (
 // The engine is split by stage: engine.go (entry point, state),
 // drop.go (placing users, their channels), fill.go (the replication's
 // slot loop and the work ahead — next block's fading, next shadowing
-// update's gains — on a helper goroutine), gains.go (shadowing, slow
+// update's gains, last block's statistics), share.go (that work cut into
+// chunks shared with a helper goroutine), gains.go (shadowing, slow
 // gains, open-loop estimate), activeset.go (active-set updates), slot.go
 // (one slot: cell sums, SIRs, commands, outer loop, power update),
-// dbconv.go (dB conversions without log/exp calls) and stats.go
-// (collection, intervals and the merged report).
+// record.go (what the slots record for the statistics), dbconv.go (dB
+// conversions without log/exp calls) and stats.go (collection, intervals
+// and the merged report).
 
 // Random stream kinds of this package (fading.NewStream; values ≥ 200 are
 // this package's, clear of fading's and loop's).
@@ -86,22 +88,19 @@ func Run(ctx context.Context, cfg Config) (*Report, error) {
 }
 
 // user is one user's state in a replication. The fields every slot reads
-// come first, together (a few cache lines per user per slot); the set-up,
-// shadowing and fading-channel state follows.
+// come first, together (two cache lines per user per slot with up to
+// three legs); the set-up, shadowing and fading-channel state follows.
 type user struct {
 	p        float64
 	pDB      float64 // 10 log10(p), dBm (setP, or ± step_db per closed-loop step)
 	target   float64 // 10^(targetDB/10)
 	targetDB float64
-	nLegs    int
-	best     int                     // best cell (largest slow gain) of the active set
-	act      [maxLegsPerUser]int8    // leg slots in use, ascending (act[:nLegs])
-	legs     [maxLegsPerUser]int32   // cell of leg slot l, −1 when unused
-	legG     [maxLegsPerUser]float64 // slow gain of leg slot l's cell (copy of rep.slow, kept by refreshLegs)
-	legAcc   [maxLegsPerUser]float64 // block accumulators (sum of linear SIR)
-	legN     [maxLegsPerUser]int32   // slots in legAcc
-	cmds     []int8                  // delay line of combined commands (+1 up, −1 down)
-	rng      *rand.Rand              // estimation, command, block-error and open-loop draws
+	nLegs    int32
+	best     int32                  // best cell (largest slow gain) of the active set
+	act      [maxLegsPerUser]int8   // leg slots in use, ascending (act[:nLegs])
+	leg      [maxLegsPerUser]legRun // per leg slot: what the slot loop reads and adds to
+	legs     [maxLegsPerUser]int32  // cell of leg slot l, −1 when unused
+	rng      *rand.Rand             // estimation, command, block-error and open-loop draws
 	edge     bool
 	group    int
 	x, y     float64
@@ -115,6 +114,14 @@ type user struct {
 	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update
+}
+
+// legRun is a leg slot's state in the slot loop, together in one place.
+type legRun struct {
+	c   int32   // cell (copy of user.legs, kept by refreshLegs)
+	n   int32   // slots in acc
+	g   float64 // slow gain of the cell (copy of rep.slow, kept by refreshLegs)
+	acc float64 // block accumulator (sum of linear SIR)
 }
 
 // rep is one replication's working state.
@@ -133,12 +140,19 @@ type rep struct {
 	sinceSum int       // slots since the last full recomputation of sums
 	pPrev    []float64 // per user: the power of the last slot run, mW
 	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
+	cmds     []int8    // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
 	ups      int       // users whose power went up in the last slot
 	downs    int       // users whose power went down in the last slot
-	fade     [][]float64
-	rx       []float64 // received power per cell this slot, mW
-	corr     []float64 // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
-	corrNext []float64 // per cell: the next slot's, summed as the powers are set
+	// fade is this block's fast fading of the active-set legs (SLOW_TOWARD_OTHERS),
+	// slot-major: fade[k·fadeStride + u·legsPerUser + l] is the power gain
+	// of user u's leg slot l in slot k of the block.
+	fade        []float64
+	fadeStride  int          // U·legsPerUser
+	legsPerUser int          // leg slots with a fading channel: max_active
+	fadeTmp     [2][]float64 // one leg's samples before fill.go spreads them: [0] the replication's goroutine, [1] jobs
+	rx          []float64    // received power per cell this slot, mW
+	corr        []float64    // per cell: this slot's leg corrections Σ p·G·(F − 1), mW
+	corrNext    []float64    // per cell: the next slot's, summed as the powers are set
 	// corrReady: corr already holds this slot's corrections (summed in the last slot).
 	corrReady bool
 	own       []float64
@@ -150,19 +164,21 @@ type rep struct {
 	fullCh    []*fading.Channel // FULL mode: per (c, u)
 	fullBuf   [][]float64
 	stats     *collector
+	marginLin float64      // 10^(−outage_margin_db/10): outage below target·marginLin
+	recs      [3]*blockRec // statistics records: a ring of three blocks (record.go, fill.go)
+	rec       *blockRec    // this block's
 	shadowSD  float64
 	blockN    int // slots in the current fading block
 	// Work ahead (fill.go): the next shadowing update's slow gains, the
 	// two fade sets (this block's and the next), the helper and its jobs.
-	slowNext    []float64
-	fadeSets    [2][][]float64
-	helper      *helper
-	finished    [jobKinds]bool
-	outstanding int
-	afterSlot   func(t int64) // tests: called after each slot
-	cands       []cand        // active-set evaluation, reused
-	joiners     []int         // leg slots u·maxLegsPerUser + l that joined at this block's start
-	keep        []int
+	slowNext  []float64
+	fadeSets  [2][]float64
+	helper    *helper
+	jobs      jobs
+	afterSlot func(t int64) // tests: called after each slot
+	cands     []cand        // active-set evaluation, reused
+	joiners   []int         // leg slots u·maxLegsPerUser + l that joined at this block's start
+	keep      []int
 }
 
 // cand is a candidate cell of an active set and its slow gain.

@@ -48,26 +48,37 @@ func TestDeterministicAcrossCores(t *testing.T) {
 }
 
 // TestDeterministicParallelFading: one replication large enough for the
-// helper goroutine (fading of the next block, gains of the next shadowing
-// update and half of the joining legs computed ahead, fill.go) gives the
+// helper goroutine (the next block's fading, the next shadowing update's
+// gains, the joining legs and the last block's statistics, in chunks
+// shared with the replication's goroutine: fill.go, share.go) gives the
 // same report with GOMAXPROCS 1 (no helper) and 2, over active-set
-// updates (every 150 slots) and shadowing updates.
+// updates (every 150 slots) and shadowing updates — also with a helper
+// queue of one entry, where most posts find it full and the replication's
+// goroutine runs those jobs itself.
 func TestDeterministicParallelFading(t *testing.T) {
 	cfg := smallLayout()
 	cfg.Groups[0].CountPerCell = 7 // 7 sites × 3 sectors × 8 users = 168 ≥ minUsersForHelper
 	cfg.Run = RunSettings{Slots: 300, WarmupSlots: 60, Replications: 1, Seed: 9, Batches: 4}
-	var out [2][]byte
-	for i, procs := range []int{1, 2} {
-		old := runtime.GOMAXPROCS(procs)
+	run := func(procs, queue int) []byte {
+		old, oldQ := runtime.GOMAXPROCS(procs), helperQueue
+		helperQueue = queue
 		rep, err := Run(context.Background(), cfg)
 		runtime.GOMAXPROCS(old)
+		helperQueue = oldQ
 		if err != nil {
 			t.Fatal(err)
 		}
-		out[i], _ = json.Marshal(rep)
+		out, err := json.Marshal(rep)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return out
 	}
-	if string(out[0]) != string(out[1]) {
-		t.Fatal("reports differ between GOMAXPROCS 1 and 2")
+	want := run(1, helperQueue)
+	for _, tc := range []struct{ procs, queue int }{{2, helperQueue}, {2, 1}} {
+		if got := run(tc.procs, tc.queue); string(got) != string(want) {
+			t.Errorf("GOMAXPROCS %d, helper queue %d: report differs from GOMAXPROCS 1", tc.procs, tc.queue)
+		}
 	}
 }
 
@@ -412,4 +423,48 @@ func TestCellSumsTrackPowers(t *testing.T) {
 		t.Errorf("only %d slots took the incremental path", incremental)
 	}
 	t.Logf("largest relative error %.3g", maxErr)
+}
+
+// TestHelperPanic: a panic in a chunk of work ahead — wherever it runs,
+// on the helper or on the replication's goroutine — ends Run with a
+// *loop.PanicError (no hang, no crash), for each kind of job.
+func TestHelperPanic(t *testing.T) {
+	cfg := smallLayout()
+	cfg.Groups[0].CountPerCell = 7 // 168 users ≥ minUsersForHelper
+	cfg.Run = RunSettings{Slots: 300, WarmupSlots: 60, Replications: 1, Seed: 9, Batches: 4}
+	defer func() { chunkHook = nil }()
+	for _, procs := range []int{1, 2} {
+		for _, kind := range []jobKind{jobFill, jobGains, jobJoin, jobStats} {
+			chunkHook = func(k jobKind, onHelper bool) {
+				if k == kind {
+					panic("injected")
+				}
+			}
+			old := runtime.GOMAXPROCS(procs)
+			_, err := Run(context.Background(), cfg)
+			runtime.GOMAXPROCS(old)
+			var pe *loop.PanicError
+			if !errors.As(err, &pe) {
+				t.Errorf("GOMAXPROCS %d, job kind %d: error %v, want a *loop.PanicError", procs, kind, err)
+			}
+		}
+	}
+}
+
+// TestCellsSiteMajor: cell c belongs to site c / sectors_per_site, the
+// order gainsRange relies on, for every layout size.
+func TestCellsSiteMajor(t *testing.T) {
+	for _, sites := range []int{1, 7, 19} {
+		for _, sectors := range []int{1, 3} {
+			g := newGeometry(Layout{Sites: sites, SectorsPerSite: sectors, InterSiteDistanceM: 1000})
+			if len(g.cells) != sites*sectors {
+				t.Fatalf("%d sites × %d sectors: %d cells", sites, sectors, len(g.cells))
+			}
+			for c, cl := range g.cells {
+				if cl.site != c/sectors {
+					t.Errorf("%d sites × %d sectors: cell %d on site %d, want %d", sites, sectors, c, cl.site, c/sectors)
+				}
+			}
+		}
+	}
 }

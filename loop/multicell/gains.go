@@ -13,12 +13,15 @@ func (rp *rep) updateSlowGains(t int64) {
 // and writes every slow gain into dst (user-major, like rep.slow),
 // 10^(dB/10) by linFromDB (within 2.5e-7 dB). It touches only the users'
 // shadowing state and dst, so it may run on the helper while the slots run.
-func (rp *rep) gainsInto(dst []float64, t int64) {
+func (rp *rep) gainsInto(dst []float64, t int64) { rp.gainsRange(dst, t, 0, rp.U) }
+
+// gainsRange is gainsInto for users lo..hi−1 (each user's shadowing is its
+// own: the ranges may run in any order, on either goroutine).
+func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 	rho := rp.cfg.Channel.SiteCorrelation
 	a, b := math.Sqrt(rho), math.Sqrt(1-rho)
 	C := rp.C
-	cells := rp.g.cells
-	for u := range rp.users {
+	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
@@ -33,10 +36,14 @@ func (rp *rep) gainsInto(dst []float64, t int64) {
 		for s := range us.siteLin {
 			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
 		}
+		// Cells are site-major (cell site·S + sector, newGeometry).
 		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]
-		for c := range row {
-			row[c] = us.siteLin[cells[c].site] * ant[c]
+		S := C / len(us.siteLin)
+		for s, g := range us.siteLin {
+			for c := s * S; c < (s+1)*S; c++ {
+				row[c] = g * ant[c]
+			}
 		}
 	}
 }
@@ -60,12 +67,12 @@ func (rp *rep) refreshLegs(us *user, row []float64) {
 	n := 0
 	for l, c := range us.legs {
 		if c >= 0 {
-			us.legG[l] = row[c]
+			us.leg[l].c, us.leg[l].g = c, row[c]
 			us.act[n] = int8(l)
 			n++
 		}
 	}
-	us.nLegs = n
+	us.nLegs = int32(n)
 }
 
 // openLoopEstimate records the user's estimate of its best slow gain (dB,

@@ -104,6 +104,8 @@ func newGeometry(l Layout) *geometry {
 	for _, a := range ringAxial(rings) {
 		g.sites = append(g.sites, site{x: d * (float64(a[0]) + 0.5*float64(a[1])), y: d * sqrt3 / 2 * float64(a[1])})
 	}
+	// Cells are site-major: cell c is sector c mod S of site c / S
+	// (gainsRange relies on it; TestCellsSiteMajor).
 	for s := range g.sites {
 		if l.SectorsPerSite == 3 {
 			for k := 0; k < 3; k++ {

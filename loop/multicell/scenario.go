@@ -11,8 +11,10 @@ import (
 // EngineVersion identifies the multi-cell engine in reports (and in job
 // IDs, so stored results of an older engine are not reused). 1.1.0:
 // incremental cell sums and fading generated ahead (figures differ from
-// 1.0.0 in the last digits, same distributions).
-const EngineVersion = "fadeloop-multicell/1.1.0"
+// 1.0.0 in the last digits, same distributions). 1.2.0: statistics summed
+// per slot off the slot loop, legs' fading streams continue while unused
+// (figures differ from 1.1.0, same distributions).
+const EngineVersion = "fadeloop-multicell/1.2.0"
 
 // RunScenario is the one dispatch point between the two engines, used by
 // loop/tune (Sweep, Tune, Capacity) and by the service's Simulate and

@@ -1,6 +1,10 @@
 package multicell
 
-import "math"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/floats"
+)
 
 // slot runs one slot: received powers, SIRs, commands, the outer loop, the
 // statistics and the power update.
@@ -38,11 +42,14 @@ func (rp *rep) slot(t int64, k int) {
 			corr := rp.corr
 			clear(corr)
 			for u := range rp.users {
+				if rp.fade == nil {
+					break // no fast fading
+				}
 				us := &rp.users[u]
+				f := rp.fade[k*rp.fadeStride+u*rp.legsPerUser:]
 				for _, l := range us.act[:us.nLegs] {
-					if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-						corr[us.legs[l]] += us.p * us.legG[l] * (f[k] - 1)
-					}
+					lg := &us.leg[l]
+					corr[lg.c] += us.p * lg.g * (f[l] - 1)
 				}
 			}
 		}
@@ -62,7 +69,9 @@ func (rp *rep) slot(t int64, k int) {
 	rp.corr, rp.corrNext = rp.corrNext, rp.corr
 	rp.corrReady = ahead
 	if t >= rp.cfg.Run.WarmupSlots {
-		rp.stats.cells(rp)
+		C := rp.C
+		copy(rp.rec.rx[k*C:(k+1)*C], rp.rx)
+		copy(rp.rec.own[k*C:(k+1)*C], rp.own)
 	}
 }
 
@@ -108,11 +117,7 @@ func (rp *rep) updateSums() {
 		if d == 0 {
 			continue
 		}
-		row := rp.slow[u*C : u*C+C]
-		row = row[:len(s)]
-		for c, g := range row {
-			s[c] += d * g
-		}
+		floats.AddScaled(s, d, rp.slow[u*C:u*C+C])
 	}
 }
 
@@ -127,7 +132,18 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	ol := rp.cfg.OuterLoop
 	sigma := il.SIREstimationErrorDB * math.Ln10 / 10
 	blockEnd := (t+1)%int64(ol.BlockSlots) == 0
+	closed := il.Mode == InnerModeClosedLoop
+	// The delay line's slot (every user's line has the same length).
+	d := il.FeedbackDelaySlots + 1
+	di := int(t % int64(d))
 	ups, downs := 0, 0
+	var fk []float64 // this slot's leg gains (SLOW_TOWARD_OTHERS)
+	if rp.fade != nil {
+		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
+	}
+	A := rp.legsPerUser
+	rec := rp.rec
+	pAtMax := rp.pmax * (1 - 1e-12) // at max: within rounding of the limit
 	for u := range rp.users {
 		us := &rp.users[u]
 		pu := us.p
@@ -136,16 +152,23 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		allUp := true
 		anyOK := false
 		for _, l := range us.act[:us.nLegs] {
-			c := int(us.legs[l])
-			sig := pu * us.legG[l] * rp.legFade(u, int(l), k)
-			if c == us.best {
+			lg := &us.leg[l]
+			c := int(lg.c)
+			f := 1.0
+			if fk != nil {
+				f = fk[u*A+int(l)]
+			} else if rp.full {
+				f = rp.fullBuf[c*rp.U+u][k]
+			}
+			sig := pu * lg.g * f
+			if c == int(us.best) {
 				own[c] += sig
 			}
 			sir := rp.pg * sig / fmax(rx[c]-sig, rp.noiseMW)
 			bestSIR = fmax(bestSIR, sir)
-			us.legAcc[l] += sir
-			us.legN[l]++
-			if il.Mode == InnerModeClosedLoop {
+			lg.acc += sir
+			lg.n++
+			if closed {
 				m := sir
 				if sigma > 0 {
 					m *= math.Exp(sigma * us.rng.NormFloat64())
@@ -157,7 +180,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				allUp = allUp && up
 			}
 			if blockEnd {
-				mean := us.legAcc[l] / float64(us.legN[l])
+				mean := lg.acc / float64(lg.n)
 				// Link curve 1/(1 + e^z), z = (SIR dB − threshold)/slope;
 				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
 				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
@@ -165,17 +188,29 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				if us.rng.Float64() >= bler {
 					anyOK = true
 				}
-				us.legAcc[l], us.legN[l] = 0, 0
+				lg.acc, lg.n = 0, 0
 			}
 		}
 		if measure {
-			rp.stats.user(u, us, bestSIR, pu)
+			i := k*rp.U + u
+			rec.sir[i], rec.pDB[i], rec.targetDB[i] = bestSIR, us.pDB, us.targetDB
+			var fl uint8
+			if bestSIR < us.target*rp.marginLin {
+				fl |= recOutage
+			}
+			if pu >= pAtMax {
+				fl |= recAtMax
+			}
+			if blockEnd {
+				fl |= recBlockEnd
+				if !anyOK {
+					fl |= recBlockErr
+				}
+			}
+			rec.flags[i] = fl
 		}
 		if blockEnd {
 			blockErr := !anyOK
-			if measure {
-				rp.stats.block(blockErr)
-			}
 			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
 				if blockErr {
 					us.targetDB += ol.UpStepDB
@@ -192,13 +227,12 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
 		default:
-			d := len(us.cmds)
 			cmd := int8(-1)
 			if allUp {
 				cmd = 1
 			}
-			applied := us.cmds[int(t%int64(d))]
-			us.cmds[int(t%int64(d))] = cmd
+			applied := rp.cmds[u*d+di]
+			rp.cmds[u*d+di] = cmd
 			if d == 1 {
 				applied = cmd
 			} else if t < int64(d) {
@@ -212,27 +246,15 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 		}
 		rp.pCur[u] = us.p
-		if ahead {
+		if ahead && fk != nil {
+			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
 			for _, l := range us.act[:us.nLegs] {
-				if f := rp.fade[u*maxLegsPerUser+int(l)]; f != nil {
-					corrNext[us.legs[l]] += us.p * us.legG[l] * (f[k+1] - 1)
-				}
+				lg := &us.leg[l]
+				corrNext[lg.c] += us.p * lg.g * (f[l] - 1)
 			}
 		}
 	}
 	rp.ups, rp.downs = ups, downs
-}
-
-// legFade is the fast-fading power gain of leg slot l of user u in slot k
-// of the current block.
-func (rp *rep) legFade(u, l, k int) float64 {
-	switch {
-	case rp.full:
-		return rp.fullBuf[int(rp.users[u].legs[l])*rp.U+u][k]
-	case rp.fade[u*maxLegsPerUser+l] != nil:
-		return rp.fade[u*maxLegsPerUser+l][k]
-	}
-	return 1
 }
 
 // applyCommand moves the power by one step, without accumulating past the

@@ -65,16 +65,14 @@ type collector struct {
 	riseHist  [][]uint32 // per cell: per-slot noise rise in dB
 	riseBatch []uint32   // the current batch's noise rise over every cell, dB
 	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
-	marginLin float64
-	pmax      float64
-	users     []userAcc // replication 0 only
+	users     []userAcc  // replication 0 only
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
 
 func newCollector(rp *rep, r int) *collector {
 	nb := rp.cfg.Run.Batches
-	c := &collector{batches: make([]sums, nb), marginLin: math.Pow(10, -rp.cfg.Run.OutageMarginDB/10), pmax: rp.pmax}
+	c := &collector{batches: make([]sums, nb)}
 	for i := range c.batches {
 		c.batches[i] = newSums(rp.C)
 	}
@@ -98,60 +96,16 @@ func histIndex(db float64) int {
 	return min(histBins-1, max(0, i))
 }
 
-// user records one user-slot.
-func (c *collector) user(u int, us *user, sir, p float64) {
-	b := &c.batches[c.cur]
-	out := 0.0
-	if sir < us.target*c.marginLin {
-		out = 1
-	}
-	mx := 0.0
-	if p >= c.pmax*(1-1e-12) {
-		mx = 1
-	}
-	li := min(us.nLegs, LegStates) - 1
-	errDB := linToDB(fmax(sir, 1e-30)) - us.targetDB
-	txDBm := us.pDB // = 10 log10(p), kept by the engine
-	b.userSlots++
-	b.outage += out
-	b.atMax += mx
-	if us.edge {
-		b.edgeSlots++
-		b.edgeAtMax += mx
-	}
-	b.legSlots[li]++
-	b.legOutage[li] += out
-	b.legAtMax[li] += mx
-	b.sirErrDB += errDB
-	b.sirErrDB2 += errDB * errDB
-	b.txDBm += txDBm
-	b.cellServed[us.best]++
-	if c.users != nil {
-		a := &c.users[u]
-		a.slots++
-		a.outage += out
-		a.legs += float64(us.nLegs)
-		a.txDBm += txDBm
-	}
-}
-
-// block records one combined block result.
-func (c *collector) block(err bool) {
-	b := &c.batches[c.cur]
-	b.blocks++
-	if err {
-		b.blockErrs++
-	}
-}
-
-// cells records the cells' interference of one slot and closes the slot.
-func (c *collector) cells(rp *rep) {
+// cells records the cells' interference of one slot (received power rx,
+// own-cell power own per cell, noise noiseMW, mW) and closes the slot.
+func (c *collector) cells(rx, own []float64, noiseMW float64) {
 	b := &c.batches[c.cur]
 	b.slots++
-	for k := 0; k < rp.C; k++ {
-		own := rp.own[k]
-		other := math.Max(0, rp.rx[k]-rp.noiseMW-own)
-		rise := linToDB(rp.rx[k] / rp.noiseMW)
+	own = own[:len(rx)]
+	for k := range rx {
+		own := own[k]
+		other := math.Max(0, rx[k]-noiseMW-own)
+		rise := linToDB(rx[k] / noiseMW)
 		b.ownMW += own
 		b.otherMW += other
 		b.noiseRiseDB += rise
@@ -201,7 +155,7 @@ func (c *collector) result(rp *rep) *repResult {
 	if c.users != nil {
 		for u, us := range rp.users {
 			a := c.users[u]
-			pt := UserPoint{XM: us.x, YM: us.y, Group: us.group, BestCell: us.best}
+			pt := UserPoint{XM: us.x, YM: us.y, Group: us.group, BestCell: int(us.best)}
 			if a.slots > 0 {
 				pt.MeanLegs = a.legs / a.slots
 				pt.OutageProbability = a.outage / a.slots
