@@ -384,3 +384,10 @@ func TestOneReplicationWithheld(t *testing.T) {
 		}
 	}
 }
+
+// reportText is every field of a report, exported or not, as text: a
+// comparison that holds NaN (a withheld interval's bounds, a handover
+// state without slots), which encoding/json refuses.
+func reportText(r *Report) []byte {
+	return fmt.Appendf(nil, "%+v", *r)
+}
