@@ -123,7 +123,11 @@ func oneRepLayout(slots int64, seed uint64) Config {
 // The coverage must reach 0.95 − 4·sqrt(0.95·0.05/M) for every
 // layout-wide figure, with the run at the shortest length that gives
 // intervals (oneRepLayout). Every interval holds its value and stays in
-// range (proportions in [0, 1], noise rise ≥ 0 dB).
+// range (proportions in [0, 1], noise rise ≥ 0 dB). Measured (M = 200):
+// 0.930 noise_rise_db, 0.980 noise_rise_p95_db, 0.950 other_to_own, 1.000
+// outage_probability; before the group-length rule, with groups of
+// 180-slot batches merged only on the lag-1 check, other_to_own covered
+// 0.850 here.
 func TestOneReplicationCoverage(t *testing.T) {
 	const warm, measured, L = 300, 3600, 10
 	m := 200
