@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"encoding/csv"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -176,9 +177,16 @@ func SweepCSVHeader(axes []tune.Axis) []string {
 }
 
 // SweepCSVRow is one point's row (numbers in Go's shortest exact form;
-// figure cells empty for a failed point).
+// figure cells empty for a failed point, and a cell empty for a value that
+// is not available — NaN, e.g. the bounds of an interval a one-replication
+// layout run was too short for — as render.CSVNum writes them).
 func SweepCSVRow(r jobs.Result) []string {
-	num := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+	num := func(v float64) string {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return ""
+		}
+		return strconv.FormatFloat(v, 'g', -1, 64)
+	}
 	row := []string{strconv.Itoa(r.Index), strconv.FormatUint(r.Seed, 10)}
 	for _, c := range r.Point.Coords {
 		row = append(row, num(c.Value))

@@ -7,6 +7,7 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -290,5 +291,32 @@ func TestSweepFileFinishOrderAndMode(t *testing.T) {
 	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
 	if len(lines) != 4 || !strings.HasPrefix(lines[1], "0,") || !strings.HasPrefix(lines[2], "1,") || !strings.HasPrefix(lines[3], "2,") {
 		t.Errorf("finished file not in grid order:\n%s", b)
+	}
+}
+
+// TestSweepCSVRowNoInterval: a figure whose interval is not available (NaN
+// bounds: one replication of a layout too short for one) keeps its value
+// and leaves both bound cells empty, never "NaN".
+func TestSweepCSVRowNoInterval(t *testing.T) {
+	rep := &loop.Report{}
+	rep.Aggregate.OutageProbability = loop.Estimate{Value: 0.125, CILow: math.NaN(), CIHigh: math.NaN()}
+	rep.Aggregate.NoiseRiseMeanDB = loop.Estimate{Value: 1.5, CILow: 1.25, CIHigh: 1.75}
+	r := jobs.Result{Index: 3, Seed: 9, Status: jobs.StatusDone, Report: rep}
+	head, row := SweepCSVHeader(nil), SweepCSVRow(r)
+	if len(head) != len(row) {
+		t.Fatalf("header has %d columns, row %d", len(head), len(row))
+	}
+	cell := map[string]string{}
+	for i, h := range head {
+		cell[h] = row[i]
+	}
+	want := map[string]string{
+		"outage_probability": "0.125", "outage_probability_ci_low": "", "outage_probability_ci_high": "",
+		"noise_rise_mean_db": "1.5", "noise_rise_mean_db_ci_low": "1.25", "noise_rise_mean_db_ci_high": "1.75",
+	}
+	for k, v := range want {
+		if cell[k] != v {
+			t.Errorf("%s = %q, want %q", k, cell[k], v)
+		}
 	}
 }

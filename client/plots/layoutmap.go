@@ -162,7 +162,8 @@ func LayoutMap(title string, d LayoutMapData) (*Figure, error) {
 }
 
 // LayoutLine is one line of LayoutSweep: the other-cell interference ratio
-// f and the outage with their 95 % intervals at each x.
+// f and the outage with their 95 % intervals at each x (NaN bounds: no
+// interval, no bar; e.g. one replication too short for one).
 type LayoutLine struct {
 	Label                            string
 	X                                []float64

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"image/png"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -175,5 +176,45 @@ func TestNoData(t *testing.T) {
 	}
 	if _, err := FormatOf("a.pdf"); !errors.Is(err, ErrFormat) {
 		t.Errorf("pdf: got %v, want ErrFormat", err)
+	}
+}
+
+// TestWithheldIntervals: points whose interval is not available (NaN
+// bounds, as a one-replication layout run too short for one reports) are
+// drawn without an error bar instead of failing the figure (gonum's
+// plotter rejects NaN error bars), in a line with some bars and in one
+// with none.
+func TestWithheldIntervals(t *testing.T) {
+	nan := math.NaN()
+	cases := []struct {
+		name  string
+		lines []LayoutLine
+	}{
+		{"some withheld", []LayoutLine{{Label: "a", X: []float64{0, 2}, F: []float64{0.5, 0.6}, FLow: []float64{0.4, nan}, FHigh: []float64{0.6, nan},
+			OutagePct: []float64{5, 6}, OutageLow: []float64{4, nan}, OutageHigh: []float64{6, nan}}}},
+		{"all withheld", []LayoutLine{{Label: "a", X: []float64{0, 2}, F: []float64{0.5, 0.6}, FLow: []float64{nan, nan}, FHigh: []float64{nan, nan},
+			OutagePct: []float64{5, 6}, OutageLow: []float64{nan, nan}, OutageHigh: []float64{nan, nan}}}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			f, err := LayoutSweep("x", "window (dB)", c.lines)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := f.Encode(io.Discard, "svg"); err != nil {
+				t.Fatal(err)
+			}
+		})
+	}
+	var l StepLine
+	l.Label = "120 km/h"
+	l.Add(0.5, 0.05, nan, nan, 2, nan, nan)
+	l.Add(1, 0.06, 0.05, 0.07, 2.5, 2.4, 2.6)
+	f, err := StepSensitivity("x", []StepLine{l})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := f.Encode(io.Discard, "svg"); err != nil {
+		t.Fatal(err)
 	}
 }

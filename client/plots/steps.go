@@ -19,7 +19,8 @@ import (
 // StepLine is one speed's (or condition's) results across inner-loop step
 // sizes: outage probability in percent and SIR error standard deviation in
 // dB at each step (dB). Optional *Low / *High slices (same length) give the
-// 95 % confidence interval drawn as error bars.
+// 95 % confidence interval drawn as error bars; a point whose bounds are
+// NaN (no interval) has no bar.
 type StepLine struct {
 	Label          string
 	StepDB         []float64
@@ -158,9 +159,16 @@ func addLinePoints(p *panel, i int, label string, x, y, lo, hi []float64) error 
 	p.Add(l, s)
 	p.legend(label, l, s)
 	if len(lo) == len(x) && len(hi) == len(x) {
-		e := make(errPoints, len(x))
+		// A point without an interval (NaN bounds: e.g. withheld for a
+		// one-replication layout run too short for one) gets no bar.
+		e := make(errPoints, 0, len(x))
 		for k := range x {
-			e[k] = errPoint{x: x[k], y: y[k], lo: y[k] - lo[k], hi: hi[k] - y[k]}
+			if finite(lo[k]) && finite(hi[k]) {
+				e = append(e, errPoint{x: x[k], y: y[k], lo: y[k] - lo[k], hi: hi[k] - y[k]})
+			}
+		}
+		if len(e) == 0 {
+			return nil
 		}
 		bars, err := plotter.NewYErrorBars(e)
 		if err != nil {
@@ -186,3 +194,6 @@ func valueTicks(vals []float64) plot.Ticker {
 		return t
 	})
 }
+
+// finite reports whether v is neither NaN nor infinite.
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

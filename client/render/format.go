@@ -196,6 +196,16 @@ func cell(f Figure, e *pb.Estimate) string {
 	return withInterval(v, lo, hi, f.Dec)
 }
 
+// Interval is "[lo, hi]" with dec decimals, or "–" when the interval is
+// not available (a NaN bound: e.g. one replication of a layout too short
+// for one).
+func Interval(lo, hi float64, dec int) string {
+	if math.IsNaN(lo) || math.IsNaN(hi) {
+		return "–"
+	}
+	return "[" + Num(lo, dec) + ", " + Num(hi, dec) + "]"
+}
+
 // withInterval is "v [lo, hi]" with dec decimals.
 func withInterval(v, lo, hi float64, dec int) string {
 	return Num(v, dec) + " [" + Num(lo, dec) + ", " + Num(hi, dec) + "]"

@@ -1,6 +1,7 @@
 package render
 
 import (
+	"math"
 	"strings"
 	"testing"
 
@@ -62,5 +63,52 @@ func TestFigureKeysAreProtoNames(t *testing.T) {
 	}
 	if h := figureCSVHeader(); len(h) != 3*len(figures) || h[0] != figures[0].Key || h[1] != figures[0].Key+"_ci_low" {
 		t.Errorf("CSV header %v", h[:3])
+	}
+}
+
+// TestNoIntervalShownAsDash: an interval that is not available (NaN
+// bounds: one replication of a layout too short for one) prints as "–" in
+// the run and layout tables, never "[–, –]" or "NaN"; a given one as
+// "[lo, hi]".
+func TestNoIntervalShownAsDash(t *testing.T) {
+	nan := math.NaN()
+	if got := Interval(nan, nan, 2); got != "–" {
+		t.Errorf("Interval(NaN, NaN) = %q, want –", got)
+	}
+	if got := Interval(1.25, 1.5, 2); got != "[1.25, 1.50]" {
+		t.Errorf("Interval(1.25, 1.5) = %q", got)
+	}
+	none := func(v float64) *pb.Estimate { return &pb.Estimate{Value: v, CiLow: nan, CiHigh: nan} }
+	rep := &pb.RunReport{
+		NormalisedScenario: &pb.Scenario{Layout: &pb.Layout{Sites: 1, SectorsPerSite: 1}},
+		Layout: &pb.LayoutReport{
+			Overall: &pb.LayoutOverall{OtherToOwn: none(0.5), NoiseRiseDb: none(1), OutageProbability: none(0.05),
+				SoftHandoverShare: none(0.3), TimeAtMaxPower: none(0), TimeAtMaxEdge: none(0),
+				LegShare: []*pb.Estimate{none(0.7)}, OutageByLegs: []*pb.Estimate{none(0.05)}, TimeAtMaxByLegs: []*pb.Estimate{none(0)}},
+			Cells: []*pb.LayoutCell{{Name: "A", OtherToOwn: none(0.5), NoiseRiseDb: none(1)}},
+		},
+	}
+	var b strings.Builder
+	LayoutTable(&b, rep)
+	if s := b.String(); strings.Contains(s, "[–") || strings.Contains(s, "NaN") || !strings.Contains(s, "0.500") {
+		t.Errorf("layout table:\n%s", s)
+	}
+	// The run table points to the notes exactly when an interval is missing.
+	for _, withheld := range []bool{true, false} {
+		out := none(0.05)
+		if !withheld {
+			out = &pb.Estimate{Value: 0.05, CiLow: 0.04, CiHigh: 0.06}
+		}
+		rep.Aggregate = &pb.Figures{Users: 2, OutageProbability: out}
+		rep.Notes = []string{"one replication: no intervals: run longer"}
+		b.Reset()
+		RunTable(&b, rep, false)
+		s := b.String()
+		if said := strings.Contains(s, "Intervals marked – are not available") && strings.Contains(s, "- one replication: no intervals: run longer"); said != withheld {
+			t.Errorf("interval withheld %v, notes printed %v:\n%s", withheld, said, s)
+		}
+		if strings.Contains(s, "NaN") || strings.Contains(s, "[–") {
+			t.Errorf("run table:\n%s", s)
+		}
 	}
 }

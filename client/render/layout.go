@@ -17,9 +17,10 @@ var layoutOnlyMissing = map[string]bool{
 	"convergence_time_s": true,
 }
 
-// ci is "[lo, hi]" of an estimate scaled and rounded.
+// ci is "[lo, hi]" of an estimate scaled and rounded ("–" without one:
+// Interval).
 func ci(e *pb.Estimate, scale float64, dec int) string {
-	return "[" + Num(scale*e.GetCiLow(), dec) + ", " + Num(scale*e.GetCiHigh(), dec) + "]"
+	return Interval(scale*e.GetCiLow(), scale*e.GetCiHigh(), dec)
 }
 
 // LayoutTable prints the multi-cell section of a report: the

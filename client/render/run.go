@@ -4,6 +4,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 
@@ -44,15 +45,24 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	}
 	fmt.Fprintln(w)
 	t := NewTable("figure", "value", "95 % interval").AlignRight(1)
+	withheld := false
 	for _, f := range figures {
 		e := f.Get(agg)
 		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
 			continue
 		}
-		t.Add(f.Label, Num(f.Scale*e.GetValue(), f.Dec),
-			"["+Num(f.Scale*e.GetCiLow(), f.Dec)+", "+Num(f.Scale*e.GetCiHigh(), f.Dec)+"]")
+		t.Add(f.Label, Num(f.Scale*e.GetValue(), f.Dec), Interval(f.Scale*e.GetCiLow(), f.Scale*e.GetCiHigh(), f.Dec))
+		withheld = withheld || math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh())
 	}
 	t.Write(w)
+	if withheld {
+		// An interval marked "–" was not given (e.g. one replication of a
+		// layout too short for one): the notes say why and what to change.
+		fmt.Fprintln(w, "\nIntervals marked – are not available; the report's notes:")
+		for _, n := range rep.GetNotes() {
+			fmt.Fprintln(w, Wrap("- "+n, 78, "  "))
+		}
+	}
 	LayoutTable(w, rep)
 
 	cols := RunDetailFigures

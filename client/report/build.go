@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"math"
 
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -61,12 +62,32 @@ type scenarioView struct {
 	JSON string
 }
 
-// estimate is "v [lo, hi]" scaled; "–" when absent.
+// estimate is "v [lo, hi]" scaled; "–" when absent; the value alone when
+// its interval is not available (NaN bounds).
 func estimate(e *pb.Estimate, scale float64, dec int) string {
 	if e == nil {
 		return "–"
 	}
+	if noInterval(e) {
+		return num(scale*e.GetValue(), dec)
+	}
 	return num(scale*e.GetValue(), dec) + " [" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
+}
+
+// noInterval reports an estimate without an interval (a NaN bound: e.g.
+// one replication of a layout too short for one; the report's notes say
+// why).
+func noInterval(e *pb.Estimate) bool {
+	return math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh())
+}
+
+// pctCI is "v unit [lo, hi]" of an estimate scaled, or "v unit (no
+// interval)" without one.
+func pctCI(e *pb.Estimate, scale float64, dec int, unit string) string {
+	if noInterval(e) {
+		return num(scale*e.GetValue(), dec) + " " + unit + " (no interval)"
+	}
+	return fmt.Sprintf("%s %s [%s, %s]", num(scale*e.GetValue(), dec), unit, num(scale*e.GetCiLow(), dec), num(scale*e.GetCiHigh(), dec))
 }
 
 // repEstimate is "mean [low, high]" scaled; the mean alone below 2 replications.

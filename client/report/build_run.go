@@ -39,11 +39,9 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		}
 	} else {
 		out := agg.GetOutageProbability()
-		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Outage %s %% [%s, %s], SIR error std %s dB [%s, %s]",
-			num(100*out.GetValue(), 2), num(100*out.GetCiLow(), 2), num(100*out.GetCiHigh(), 2),
-			num(agg.GetSirErrorStdDb().GetValue(), 2), num(agg.GetSirErrorStdDb().GetCiLow(), 2), num(agg.GetSirErrorStdDb().GetCiHigh(), 2))}
+		d.Verdict = verdict{Class: "ok", Headline: "Outage " + pctCI(out, 100, 2, "%") + ", SIR error std " + pctCI(agg.GetSirErrorStdDb(), 1, 2, "dB")}
 		bl := agg.GetAchievedBler()
-		line := fmt.Sprintf("Achieved BLER %s %% [%s, %s]", num(100*bl.GetValue(), 2), num(100*bl.GetCiLow(), 2), num(100*bl.GetCiHigh(), 2))
+		line := "Achieved BLER " + pctCI(bl, 100, 2, "%")
 		if bler > 0 {
 			line += fmt.Sprintf(" against a target of %s %%", num(100*bler, 2))
 		}

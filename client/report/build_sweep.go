@@ -58,15 +58,20 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		d.Verdict = verdict{Class: "bad", Headline: "No grid point carries its load: every point is infeasible."}
 	} else {
 		bo := best.GetReport().GetAggregate().GetOutageProbability()
-		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Lowest outage at %s: %s %% [%s, %s]",
-			coordText(s.Axes, best.GetCoordinates()), num(100*bo.GetValue(), 2), num(100*bo.GetCiLow(), 2), num(100*bo.GetCiHigh(), 2))}
+		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Lowest outage at %s: %s",
+			coordText(s.Axes, best.GetCoordinates()), pctCI(bo, 100, 2, "%"))}
 		if second != nil {
 			so := second.GetReport().GetAggregate().GetOutageProbability()
-			if so.GetCiLow() <= bo.GetCiHigh() {
+			switch {
+			case noInterval(bo) || noInterval(so):
+				d.Verdict.Class = "warn"
+				d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Not separated from the next best, %s (%s): no interval for one of them (see the points' notes: more replications or a longer run). For a decision with paired evidence, use tune.",
+					coordText(s.Axes, second.GetCoordinates()), pctCI(so, 100, 2, "%")))
+			case so.GetCiLow() <= bo.GetCiHigh():
 				d.Verdict.Class = "warn"
 				d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("Not separated from the next best, %s (%s %% [%s, %s]): the intervals overlap. For a decision with paired evidence, use tune.",
 					coordText(s.Axes, second.GetCoordinates()), num(100*so.GetValue(), 2), num(100*so.GetCiLow(), 2), num(100*so.GetCiHigh(), 2)))
-			} else {
+			default:
 				d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("The next best, %s, has %s %% [%s, %s]; the intervals do not overlap.",
 					coordText(s.Axes, second.GetCoordinates()), num(100*so.GetValue(), 2), num(100*so.GetCiLow(), 2), num(100*so.GetCiHigh(), 2)))
 			}

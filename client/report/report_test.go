@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"flag"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -344,5 +345,50 @@ func TestRunVerdictBLER(t *testing.T) {
 				t.Errorf("verdict does not say %q: %v", tc.saying, d.Verdict.Lines)
 			}
 		})
+	}
+}
+
+// TestNoIntervalVerdicts: figures whose interval is not available (NaN
+// bounds: one replication of a layout too short for one) show their value
+// with "(no interval)" in the verdicts, never "NaN" or empty brackets, and
+// a sweep does not call two such points separated.
+func TestNoIntervalVerdicts(t *testing.T) {
+	nan := math.NaN()
+	none := func(v float64) *pb.Estimate { return &pb.Estimate{Value: v, CiLow: nan, CiHigh: nan} }
+	runRep := func(outage float64) *pb.RunReport {
+		return &pb.RunReport{
+			Aggregate: &pb.Figures{Users: 2, OutageProbability: none(outage), SirErrorStdDb: none(2), AchievedBler: none(0.1),
+				BlerTargetError: none(0), TxPowerMeanDbm: none(-10), MaxPowerFraction: none(0), NoiseRiseMeanDb: none(1)},
+			NormalisedScenario: &pb.Scenario{Name: "layout", OuterLoop: &pb.OuterLoop{Enabled: true, BlerTarget: 0.1}},
+			Notes:              []string{"one replication: no intervals"},
+			Seed:               3,
+		}
+	}
+	d, err := build(Input{Run: runRep(0.05)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := d.Verdict.Headline + "\n" + strings.Join(d.Verdict.Lines, "\n")
+	for _, want := range []string{"Outage 5.00 % (no interval)", "SIR error std 2.00 dB (no interval)", "Achieved BLER 10.00 % (no interval)", "mean noise rise 1.00 dB."} {
+		if !strings.Contains(text, want) {
+			t.Errorf("run verdict does not say %q:\n%s", want, text)
+		}
+	}
+	for _, bad := range []string{"NaN", "[–", "did not hold"} {
+		if strings.Contains(text, bad) {
+			t.Errorf("run verdict says %q:\n%s", bad, text)
+		}
+	}
+	sw := &Sweep{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db", Values: []float64{0, 6}}}, Points: []*pb.SweepPoint{
+		{Index: 0, Coordinates: []float64{0}, Report: runRep(0.05)},
+		{Index: 1, Coordinates: []float64{6}, Report: runRep(0.07)},
+	}}
+	d, err = build(Input{Sweep: sw})
+	if err != nil {
+		t.Fatal(err)
+	}
+	text = d.Verdict.Headline + "\n" + strings.Join(d.Verdict.Lines, "\n")
+	if d.Verdict.Class != "warn" || !strings.Contains(text, "no interval for one of them") || strings.Contains(text, "do not overlap") || strings.Contains(text, "NaN") {
+		t.Errorf("sweep verdict (class %q):\n%s", d.Verdict.Class, text)
 	}
 }

@@ -2,7 +2,6 @@ package multicell
 
 import (
 	"context"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -41,7 +40,7 @@ func TestDeterministicAcrossCores(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		out[i], _ = json.Marshal(rep)
+		out[i] = reportText(rep)
 	}
 	if string(out[0]) != string(out[1]) {
 		t.Fatal("reports differ between GOMAXPROCS 1 and 2")
@@ -69,11 +68,7 @@ func TestDeterministicParallelFading(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		out, err := json.Marshal(rep)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return out
+		return reportText(rep)
 	}
 	want := run(1, helperQueue)
 	for _, tc := range []struct{ procs, queue int }{{2, helperQueue}, {2, 1}} {

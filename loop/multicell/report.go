@@ -12,13 +12,27 @@ import (
 // (the "f" of pole-capacity formulas), with a user served by the best cell
 // of its active set.
 //
-// Intervals (95 %): with one replication, Student t over batch means in
-// time, conditional on the drop; with several, Student t over the
-// replications (independent drops). Proportions use the Wilson interval on
-// the effective sample size implied by that spread, inside [0, 1]. The
-// layout-wide noise-rise percentile gets its interval the same way, from
-// the spread of the percentile over batches or replications; the
-// per-cell and spread percentiles are point values (no interval).
+// Intervals (95 %) and what they estimate:
+//
+//   - several replications (independent drops of users): the expectation
+//     over drops of the figure (of a run of this length); Student t over
+//     the replications' values;
+//   - one replication: this drop's long-run value — the limit of the
+//     figure's time average as the run grows, with the users' positions
+//     (path loss, antenna gains) fixed and shadowing, fading and the loops
+//     evolving in time (a group at 0 km/h keeps its shadowing and fading:
+//     they are part of the drop). It says nothing about other drops.
+//     Student t over batch groups in time, each spanning at least
+//     groupDecorrelationTimes decorrelation times of the run's slowest
+//     process (decorrelationSlots); when fewer than minBatchGroups such
+//     groups fit in the run, no interval is given: CILow and CIHigh are NaN
+//     (Value is kept) and the report's note gives the run length needed.
+//
+// Proportions use the Wilson interval on the effective sample size implied
+// by that spread, inside [0, 1]. The layout-wide noise-rise percentile gets
+// its interval the same way, from the spread of the percentile over batch
+// groups or replications; the per-cell and spread percentiles are point
+// values (no interval). Coverage is checked in coverage_test.go.
 type Report struct {
 	Config             Config         `json:"config"` // normalised
 	Users              int            `json:"users"`
@@ -31,6 +45,10 @@ type Report struct {
 	// per-cell percentiles (CellFigures) are point values without one.
 	NoiseRiseP95DB loop.Estimate `json:"noise_rise_p95_db"`
 	UserPoints     []UserPoint   `json:"user_points"` // replication 0's drop, for maps
+
+	// intervalNote: one replication, what the intervals describe or why
+	// there are none (merge); a note of ToLoopReport.
+	intervalNote string
 }
 
 // LegStates are the handover states reported separately: one, two, and

@@ -206,9 +206,10 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 	agg.NoiseRiseP95DB = r.NoiseRiseP95DB
 	lr := &loop.LayoutReport{Overall: o, Cells: r.Cells, UserPoints: r.UserPoints}
 	notes := []string{"multi-cell mode: the aggregate figures are the layout's; percentiles, convergence time, per-user and per-distance figures and feasibility are not computed (see layout)"}
-	if r.Config.Run.Replications == 1 {
-		// Coverage measured in coverage_test.go's comment.
-		notes = append(notes, "one replication: the intervals come from batches of one drop and run and are too narrow unless the run is long against the shadowing decorrelation; run 2 or more replications for intervals that hold their 95 %")
+	if r.intervalNote != "" {
+		// One replication: what the intervals describe, or why there are
+		// none (merge; coverage in coverage_test.go).
+		notes = append(notes, r.intervalNote)
 	}
 	notes = append(notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
 	return &loop.Report{
