@@ -379,10 +379,23 @@ func TestSimulateCostBound(t *testing.T) {
 	}
 }
 
-// longScenario is the canonical scenario (64 users, 90 000 slots): seconds
-// of work, long enough to cancel mid-run.
+// longScenario is the canonical scenario (64 users, 90 000 slots): many
+// runs of it (Tune, Capacity) are seconds of work, long enough to cancel
+// mid-search.
 func longScenario() *pb.Scenario {
 	return ScenarioToProto(loop.CanonicalScenario())
+}
+
+// longRun is the canonical scenario run 40 times as long (3.6 M slots,
+// 230 M user-slots): seconds of work for one Simulate call even at the
+// engine's best speed (about 75 M user-slots/s on 2 cores), so a cancel
+// or a deadline of a few hundred milliseconds lands mid-run. (The
+// canonical run alone ends in about 80 ms, before the 150 ms deadline of
+// TestSimulateDeadlineStopsPromptly.)
+func longRun() *pb.Scenario {
+	sc := loop.CanonicalScenario()
+	sc.Run.Slots *= 40
+	return ScenarioToProto(sc)
 }
 
 // waitSlotFree waits until a server with one run slot and no queue admits
@@ -453,7 +466,7 @@ func TestSimulateCancellationStopsPromptly(t *testing.T) {
 			before := simulatedUserSlots(t, env)
 			ctx, cancel := context.WithCancel(context.Background())
 			defer cancel()
-			st, err := env.sim.Simulate(ctx, &pb.SimulateRequest{Scenario: longScenario(), ProgressIntervalMs: 20})
+			st, err := env.sim.Simulate(ctx, &pb.SimulateRequest{Scenario: longRun(), ProgressIntervalMs: 20})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -471,7 +484,7 @@ func TestSimulateDeadlineStopsPromptly(t *testing.T) {
 	before := simulatedUserSlots(t, env)
 	ctx, cancel := context.WithTimeout(context.Background(), 150*time.Millisecond)
 	defer cancel()
-	_, _, err := simulate(ctx, env, &pb.SimulateRequest{Scenario: longScenario()})
+	_, _, err := simulate(ctx, env, &pb.SimulateRequest{Scenario: longRun()})
 	wantCode(t, err, codes.DeadlineExceeded)
 	stoppedUnfinished(t, env, before)
 }
@@ -498,7 +511,7 @@ func promptly(t *testing.T, what string, measure func() time.Duration) {
 // has no deadline of its own.
 func TestServerCapsCallDuration(t *testing.T) {
 	env := startEnv(t, viaBufconn, Config{MaxCallDuration: 100 * time.Millisecond})
-	_, _, err := simulate(context.Background(), env, &pb.SimulateRequest{Scenario: longScenario()})
+	_, _, err := simulate(context.Background(), env, &pb.SimulateRequest{Scenario: longRun()})
 	wantCode(t, err, codes.DeadlineExceeded)
 }
 
