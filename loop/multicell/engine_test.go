@@ -267,7 +267,10 @@ func TestMemoryDoesNotGrowWithRunLength(t *testing.T) {
 		cfg := smallLayout()
 		cfg.Groups[0].CountPerCell = perCell
 		cfg.Run.Replications = 1
-		cases = append(cases, tc{fmt.Sprintf("7x3 sites, %d+1 per cell", perCell), cfg, 150, 1500})
+		// The runtime's own allocations vary by about ±1.5 KB and ±10
+		// objects from run to run: 5850 extra slots keep that below
+		// ±0.3 bytes per slot against the bound of 1.
+		cases = append(cases, tc{fmt.Sprintf("7x3 sites, %d+1 per cell", perCell), cfg, 150, 6000})
 	}
 	if !testing.Short() {
 		cfg := smallLayout()
