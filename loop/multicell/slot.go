@@ -235,10 +235,13 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
 		default:
-			cmd := int8(-1)
+			// The command is a coin flip slot to slot: no branch on it
+			// (nor on it below), only arithmetic.
+			var up int8
 			if allUp {
-				cmd = 1
+				up = 1
 			}
+			cmd := 2*up - 1
 			applied := cmds[u*d+di]
 			cmds[u*d+di] = cmd
 			if d == 1 {
@@ -251,11 +254,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			} else {
 				rp.applyCommand(us, applied)
 			}
-			if applied > 0 {
-				ups++
-			} else if applied < 0 {
-				downs++
-			}
+			ups += int(applied+1) >> 1   // 1 for +1, 0 for 0 and −1
+			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
 		}
 		pCur[u] = us.p
 		if ahead && fk != nil {
@@ -291,20 +291,21 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 // stepPower moves the power one step up (cmd > 0) or down (cmd < 0):
 // p·upLin or p·downLin, without passing pmax or pmin (mW); the dB value
 // follows by ±stepDB without a logarithm, exact again at a limit.
+//
+// The direction is picked by index, not by a branch (commands are up or
+// down at random slot to slot); p stays in [pmin, pmax], so a step up
+// stays above pmin and a step down below pmax.
 func (us *user) stepPower(cmd int8, upLin, downLin, pmin, pmax, stepDB float64) {
-	if cmd > 0 {
-		if np := us.p * upLin; np < pmax {
-			us.p, us.pDB = np, us.pDB+stepDB
-		} else {
-			us.setP(pmax)
-		}
-	} else if cmd < 0 {
-		if np := us.p * downLin; np > pmin {
-			us.p, us.pDB = np, us.pDB-stepDB
-		} else {
-			us.setP(pmin)
-		}
+	if cmd == 0 {
+		return
 	}
+	i := (cmd + 1) >> 1 // 0 down, 1 up
+	np := us.p * [2]float64{downLin, upLin}[i]
+	if np > pmin && np < pmax {
+		us.p, us.pDB = np, us.pDB+stepDB*float64(cmd)
+		return
+	}
+	us.setP([2]float64{pmin, pmax}[i])
 }
 
 // setP sets the transmit power in mW and its dBm value pDB.
