@@ -151,6 +151,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	marginLin := rp.marginLin
 	// A closed-loop step without the open loop: stepPower, called directly.
 	step := closed && !rp.cfg.OpenLoop.Enabled
+	cep := il.CommandErrorProb
 	upLin, downLin, pmin, pmax, stepDB := rp.upLin, rp.downLin, rp.pmin, rp.pmax, il.StepDB
 	users := rp.users[:U]
 	for u := range users {
@@ -158,7 +159,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		pu := us.p
 		pPrev[u] = pu
 		bestSIR := 0.0
-		allUp := true
+		upAll := uint8(1) // 1 while every leg says up (no branch per leg)
 		anyOK := false
 		for _, l := range us.act[:us.nLegs] {
 			lg := &us.leg[l]
@@ -173,8 +174,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if c == int(us.best) {
 				own[c] += sig
 			}
-			sir := pg * sig / fmax(rx[c]-sig, noise)
-			bestSIR = fmax(bestSIR, sir)
+			sir := pg * sig / max(rx[c]-sig, noise)
+			bestSIR = max(bestSIR, sir)
 			lg.acc += sir
 			lg.n++
 			if closed {
@@ -182,11 +183,14 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				if sigma > 0 {
 					m *= math.Exp(sigma * us.rng.NormFloat64())
 				}
-				up := m < us.target
-				if il.CommandErrorProb > 0 && us.rng.Float64() < il.CommandErrorProb {
-					up = !up
+				var up uint8
+				if m < us.target {
+					up = 1
 				}
-				allUp = allUp && up
+				if cep > 0 && us.rng.Float64() < cep {
+					up ^= 1
+				}
+				upAll &= up
 			}
 			if blockEnd {
 				mean := lg.acc / float64(lg.n)
@@ -237,11 +241,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		default:
 			// The command is a coin flip slot to slot: no branch on it
 			// (nor on it below), only arithmetic.
-			var up int8
-			if allUp {
-				up = 1
-			}
-			cmd := 2*up - 1
+			cmd := 2*int8(upAll) - 1
 			applied := cmds[u*d+di]
 			cmds[u*d+di] = cmd
 			if d == 1 {
