@@ -96,6 +96,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.corrNext = make([]float64, C)
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
+	rp.movers, rp.moverD = make([]int32, U), make([]float64, U)
 	rp.cmds = make([]int8, U*(cfg.InnerLoop.FeedbackDelaySlots+1))
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)

@@ -140,6 +140,8 @@ type rep struct {
 	sinceSum int       // slots since the last full recomputation of sums
 	pPrev    []float64 // per user: the power of the last slot run, mW
 	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
+	movers   []int32   // updateSums: the users that moved otherwise than the common factor
+	moverD   []float64 // updateSums: their p' − b·p
 	cmds     []int8    // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
 	ups      int       // users whose power went up in the last slot
 	downs    int       // users whose power went down in the last slot

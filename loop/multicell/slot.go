@@ -110,14 +110,23 @@ func (rp *rep) updateSums() {
 	for c := range s {
 		s[c] *= b
 	}
+	// The movers first, without a branch per user (about half the users
+	// move otherwise, at random), then their rows.
 	C := rp.C
 	pPrev := rp.pPrev[:len(rp.pCur)]
+	mv, dv := rp.movers[:len(rp.pCur)], rp.moverD[:len(rp.pCur)]
+	n := 0
 	for u, pu := range rp.pCur {
 		d := pu - b*pPrev[u]
-		if d == 0 {
-			continue
+		mv[n], dv[n] = int32(u), d
+		inc := 0
+		if d != 0 {
+			inc = 1
 		}
-		floats.AddScaled(s, d, rp.slow[u*C:u*C+C])
+		n += inc
+	}
+	for i, u := range mv[:n] {
+		floats.AddScaled(s, dv[i], rp.slow[int(u)*C:int(u)*C+C])
 	}
 }
 
@@ -152,7 +161,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	// A closed-loop step without the open loop: stepPower, called directly.
 	step := closed && !rp.cfg.OpenLoop.Enabled
 	cep := il.CommandErrorProb
-	upLin, downLin, pmin, pmax, stepDB := rp.upLin, rp.downLin, rp.pmin, rp.pmax, il.StepDB
+	lin, lim, stepDB := [2]float64{rp.downLin, rp.upLin}, [2]float64{rp.pmin, rp.pmax}, il.StepDB
 	users := rp.users[:U]
 	for u := range users {
 		us := &users[u]
@@ -250,7 +259,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				applied = 0
 			}
 			if step {
-				us.stepPower(applied, upLin, downLin, pmin, pmax, stepDB)
+				us.stepPower(applied, &lin, &lim, stepDB)
 			} else {
 				rp.applyCommand(us, applied)
 			}
@@ -285,7 +294,7 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
 		return
 	}
-	us.stepPower(cmd, rp.upLin, rp.downLin, rp.pmin, rp.pmax, rp.cfg.InnerLoop.StepDB)
+	us.stepPower(cmd, &[2]float64{rp.downLin, rp.upLin}, &[2]float64{rp.pmin, rp.pmax}, rp.cfg.InnerLoop.StepDB)
 }
 
 // stepPower moves the power one step up (cmd > 0) or down (cmd < 0):
@@ -295,18 +304,25 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 // The direction is picked by index, not by a branch (commands are up or
 // down at random slot to slot); p stays in [pmin, pmax], so a step up
 // stays above pmin and a step down below pmax.
-func (us *user) stepPower(cmd int8, upLin, downLin, pmin, pmax, stepDB float64) {
+//
+// lin is {downLin, upLin}, lim {pmin, pmax}. Small enough to inline into
+// the slot loop; the step to a limit is out of line (clampTo).
+func (us *user) stepPower(cmd int8, lin, lim *[2]float64, stepDB float64) {
 	if cmd == 0 {
 		return
 	}
-	i := (cmd + 1) >> 1 // 0 down, 1 up
-	np := us.p * [2]float64{downLin, upLin}[i]
-	if np > pmin && np < pmax {
+	i := (cmd + 1) >> 1 & 1 // 0 down, 1 up
+	if np := us.p * lin[i]; np > lim[0] && np < lim[1] {
 		us.p, us.pDB = np, us.pDB+stepDB*float64(cmd)
 		return
 	}
-	us.setP([2]float64{pmin, pmax}[i])
+	us.clampTo(lim[i])
 }
+
+// clampTo sets the power to a limit (stepPower's step that would pass it).
+//
+//go:noinline
+func (us *user) clampTo(p float64) { us.setP(p) }
 
 // setP sets the transmit power in mW and its dBm value pDB.
 func (us *user) setP(p float64) {
