@@ -2,6 +2,8 @@ package multicell
 
 import (
 	"math"
+	"runtime"
+	"sync"
 
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
@@ -23,67 +25,113 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.full = cfg.Channel.FastFading == FastFadingFull
 	d := cfg.Layout.InterSiteDistanceM
 	rate := cfg.InnerLoop.UpdateRateHz
-	u := 0
+	// Per group: profile, captured fraction, Doppler, shadowing AR(1)
+	// coefficient; per user: its group and site, in drop order.
+	type groupDrop struct {
+		prof       fading.Profile
+		capturedDB float64
+		fdHz, k    float64
+	}
+	gd := make([]groupDrop, len(cfg.Groups))
+	type slot struct{ g, s int }
+	var order []slot
 	for gi, grp := range cfg.Groups {
 		fs, err := cfg.fingers(gi)
 		if err != nil {
 			return nil, loop.Violations{{Field: "groups.profile", Rule: err.Error()}}
 		}
-		prof := fs.Profile
-		capturedDB := 0.0
+		gd[gi].prof = fs.Profile
 		if fs.CapturedFraction > 0 && fs.CapturedFraction < 1 {
-			capturedDB = 10 * math.Log10(fs.CapturedFraction)
+			gd[gi].capturedDB = 10 * math.Log10(fs.CapturedFraction)
 		}
-		fdHz := fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
-		k := math.Exp(-grp.SpeedKmh / 3.6 * float64(cfg.Channel.ShadowingSlots) / rate / cfg.Channel.DecorrelationM)
+		gd[gi].fdHz = fading.DopplerHz(grp.SpeedKmh, cfg.Channel.CarrierHz)
+		gd[gi].k = math.Exp(-grp.SpeedKmh / 3.6 * float64(cfg.Channel.ShadowingSlots) / rate / cfg.Channel.DecorrelationM)
 		for s := range g.sites {
 			for j := 0; j < grp.CountPerCell*cfg.Layout.SectorsPerSite; j++ {
-				us := user{group: gi, rng: fading.NewStream(seed, u, 0, streamControl), shadowK: k}
-				place := fading.NewStream(seed, u, 0, streamPlacement)
-				for {
-					dx := (place.Float64() - 0.5) * d
-					dy := (place.Float64() - 0.5) * d * 2 / sqrt3
-					if inHexagon(dx, dy, d) && math.Hypot(dx, dy) >= cfg.Channel.MinDistanceM {
-						us.x, us.y = g.sites[s].x+dx, g.sites[s].y+dy
-						us.edge = math.Hypot(dx, dy) >= 0.8*d/2
-						break
-					}
-				}
-				us.pathDB = make([]float64, len(g.sites))
-				us.siteLin = make([]float64, len(g.sites))
-				for k := range g.sites {
-					_, _, dist := g.offset(k, us.x, us.y)
-					dist = math.Max(dist, cfg.Channel.MinDistanceM)
-					us.pathDB[k] = capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
-				}
-				us.antLin = make([]float64, C)
-				for c := range g.cells {
-					dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
-					us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
-				}
-				sh := fading.NewStream(seed, u, 0, streamShadowing)
-				us.shadowA = sh.NormFloat64()
-				us.shadowB = make([]float64, len(g.sites))
-				for k := range us.shadowB {
-					us.shadowB[k] = sh.NormFloat64()
-				}
-				us.shRng = sh
-				for l := range us.legs {
-					us.legs[l] = -1
-				}
-				if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
-					for l := 0; l < cfg.Handover.MaxActive; l++ {
-						ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: fdHz, SampleRateHz: rate, Profile: prof}, seed, u*maxLegsPerUser+l)
-						if err != nil {
-							return nil, loop.Violations{{Field: "groups.speed_kmh", Rule: err.Error()}}
-						}
-						us.legCh[l] = ch
-					}
-				}
-				us.setTarget(cfg.OuterLoop.InitialTargetDB)
-				rp.users = append(rp.users, us)
-				u++
+				order = append(order, slot{gi, s})
 			}
+		}
+	}
+	// Each user draws from its own streams: users are dropped in any
+	// order, on two goroutines for a large layout run alone (as the
+	// helper would be), with the same result.
+	rp.users = make([]user, len(order))
+	drop := func(u int) error {
+		gi, s := order[u].g, order[u].s
+		us := user{group: gi, rng: fading.NewStream(seed, u, 0, streamControl), shadowK: gd[gi].k}
+		place := fading.NewStream(seed, u, 0, streamPlacement)
+		for {
+			dx := (place.Float64() - 0.5) * d
+			dy := (place.Float64() - 0.5) * d * 2 / sqrt3
+			if inHexagon(dx, dy, d) && math.Hypot(dx, dy) >= cfg.Channel.MinDistanceM {
+				us.x, us.y = g.sites[s].x+dx, g.sites[s].y+dy
+				us.edge = math.Hypot(dx, dy) >= 0.8*d/2
+				break
+			}
+		}
+		us.pathDB = make([]float64, len(g.sites))
+		us.siteLin = make([]float64, len(g.sites))
+		for k := range g.sites {
+			_, _, dist := g.offset(k, us.x, us.y)
+			dist = math.Max(dist, cfg.Channel.MinDistanceM)
+			us.pathDB[k] = gd[gi].capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
+		}
+		us.antLin = make([]float64, C)
+		for c := range g.cells {
+			dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
+			us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
+		}
+		sh := fading.NewStream(seed, u, 0, streamShadowing)
+		us.shadowA = sh.NormFloat64()
+		us.shadowB = make([]float64, len(g.sites))
+		for k := range us.shadowB {
+			us.shadowB[k] = sh.NormFloat64()
+		}
+		us.shRng = sh
+		for l := range us.legs {
+			us.legs[l] = -1
+		}
+		if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
+			for l := 0; l < cfg.Handover.MaxActive; l++ {
+				ch, err := fading.NewChannel(fading.ChannelConfig{DopplerHz: gd[gi].fdHz, SampleRateHz: rate, Profile: gd[gi].prof}, seed, u*maxLegsPerUser+l)
+				if err != nil {
+					return loop.Violations{{Field: "groups.speed_kmh", Rule: err.Error()}}
+				}
+				us.legCh[l] = ch
+			}
+		}
+		us.setTarget(cfg.OuterLoop.InitialTargetDB)
+		rp.users[u] = us
+		return nil
+	}
+	errs := make([]error, 2)
+	half := len(order) / 2
+	if runtime.GOMAXPROCS(0) >= 2 && cfg.Run.Replications == 1 && len(order) >= minUsersForHelper {
+		var wg sync.WaitGroup
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					errs[1] = loop.NewPanicError(p)
+				}
+			}()
+			for u := half; u < len(order) && errs[1] == nil; u++ {
+				errs[1] = drop(u)
+			}
+		}()
+		for u := 0; u < half && errs[0] == nil; u++ {
+			errs[0] = drop(u)
+		}
+		wg.Wait()
+	} else {
+		for u := 0; u < len(order) && errs[0] == nil; u++ {
+			errs[0] = drop(u)
+		}
+	}
+	for _, err := range errs {
+		if err != nil {
+			return nil, err // the first user's error in drop order
 		}
 	}
 	rp.U = len(rp.users)
