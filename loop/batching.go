@@ -40,21 +40,30 @@ func decorrelationSlots(sc Scenario, users []userInfo, rateHz float64) (worst fl
 		g := sc.Groups[u.group]
 		if u.dopplerHz > 0 {
 			if s := 0.4 / u.dopplerHz * rateHz; s > worst {
-				worst, what = s, fmt.Sprintf("the fast fading of user %d at %g km/h (0.4/f_D = %.0f slots)", i, u.speedKmh, s)
+				worst, what = s, fmt.Sprintf("the fast fading of user %d at %g km/h (0.4/f_D = %s slots)", i, u.speedKmh, slotsText(s))
 			}
 		}
 		if g.ShadowingSigmaDB > 0 && u.speedKmh > 0 {
 			if s := g.ShadowingDecorrelationM / (u.speedKmh / 3.6) * rateHz; s > worst {
-				worst, what = s, fmt.Sprintf("the shadowing of user %d at %g km/h (%g m / %.3g m/s = %.0f slots)", i, u.speedKmh, g.ShadowingDecorrelationM, u.speedKmh/3.6, s)
+				worst, what = s, fmt.Sprintf("the shadowing of user %d at %g km/h (%g m / %.3g m/s = %s slots)", i, u.speedKmh, g.ShadowingDecorrelationM, u.speedKmh/3.6, slotsText(s))
 			}
 		}
 	}
 	if ol := sc.OuterLoop; ol.Enabled && ol.BLERTarget > 0 {
 		if s := float64(ol.BlockSlots) / ol.BLERTarget; s > worst {
-			worst, what = s, fmt.Sprintf("the outer loop (block_slots/bler_target = %.0f slots)", s)
+			worst, what = s, fmt.Sprintf("the outer loop (block_slots/bler_target = %s slots)", slotsText(s))
 		}
 	}
 	return worst, what
+}
+
+// slotsText is a decorrelation time in slots for the notes: one decimal
+// below 100 slots (so that 20 of them match the slots needed), whole above.
+func slotsText(s float64) string {
+	if s < 100 {
+		return fmt.Sprintf("%.1f", s)
+	}
+	return fmt.Sprintf("%.0f", s)
 }
 
 // effectiveBatches is the number of batches used for a run of measured
