@@ -1,6 +1,7 @@
 package loop
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"time"
@@ -21,7 +22,10 @@ import (
 // positive, use Student t on the log scale (delta method: half-width
 // t·se/value), so their intervals never go below zero. When no spread is
 // available (one batch and one replication) the interval collapses to the
-// value.
+// value. With one replication too short for MinBatches batches of
+// BatchDecorrelationTimes decorrelation times, every interval built on
+// batch means is withheld: CILow and CIHigh are NaN, Value is kept, and
+// the report's notes give the measured slots needed (effectiveBatches).
 type Estimate struct {
 	Value  float64 `json:"value"`
 	CILow  float64 `json:"ci_low"`
@@ -235,7 +239,71 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		dz := make([]int, len(cv))
 		f.ConvergenceTimeS = combine(cv, zero, dz).positive()
 	}
+	if R == 1 && sh.withhold {
+		f.withholdBatchIntervals()
+	}
 	return f
+}
+
+// withholdBatchIntervals gives NaN bounds (values kept) to every estimate
+// whose interval, with one replication, comes from the run's batch means:
+// all but the convergence time, whose interval is over users (a set) or
+// collapses to the value (one user), never over batches.
+func (f *Figures) withholdBatchIntervals() {
+	for _, e := range []*Estimate{&f.SIRErrorMeanDB, &f.SIRErrorStdDB, &f.OutageProbability, &f.AchievedBLER,
+		&f.BLERTargetError, &f.TxPowerMeanDBm, &f.MaxPowerFraction, &f.NoiseRiseMeanDB, &f.NoiseRiseP95DB} {
+		e.withhold()
+	}
+	for _, p := range []*Percentiles{&f.SIRErrorPercentilesDB, &f.TxPowerPercentilesDBm} {
+		for _, e := range []*Estimate{&p.P1, &p.P5, &p.P50, &p.P95, &p.P99} {
+			e.withhold()
+		}
+	}
+}
+
+// withhold keeps the value and drops the interval (NaN bounds).
+func (e *Estimate) withhold() { e.CILow, e.CIHigh = math.NaN(), math.NaN() }
+
+// jsonFloat is a float64 whose JSON form is null when it is NaN (JSON has
+// no NaN); null decodes to NaN.
+type jsonFloat float64
+
+func (f jsonFloat) MarshalJSON() ([]byte, error) {
+	if math.IsNaN(float64(f)) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(float64(f))
+}
+
+func (f *jsonFloat) UnmarshalJSON(b []byte) error {
+	if string(b) == "null" {
+		*f = jsonFloat(math.NaN())
+		return nil
+	}
+	return json.Unmarshal(b, (*float64)(f))
+}
+
+type estimateJSON struct {
+	Value  jsonFloat `json:"value"`
+	CILow  jsonFloat `json:"ci_low"`
+	CIHigh jsonFloat `json:"ci_high"`
+}
+
+// MarshalJSON writes {"value", "ci_low", "ci_high"}, a NaN (an interval
+// withheld, or a value not available) as null.
+func (e Estimate) MarshalJSON() ([]byte, error) {
+	return json.Marshal(estimateJSON{jsonFloat(e.Value), jsonFloat(e.CILow), jsonFloat(e.CIHigh)})
+}
+
+// UnmarshalJSON reads the form of MarshalJSON (null as NaN; a missing
+// field keeps its value).
+func (e *Estimate) UnmarshalJSON(b []byte) error {
+	x := estimateJSON{jsonFloat(e.Value), jsonFloat(e.CILow), jsonFloat(e.CIHigh)}
+	if err := json.Unmarshal(b, &x); err != nil {
+		return err
+	}
+	e.Value, e.CILow, e.CIHigh = float64(x.Value), float64(x.CILow), float64(x.CIHigh)
+	return nil
 }
 
 func percentiles(stat func(int) combined, base int, lo, hi float64) Percentiles {

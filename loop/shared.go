@@ -30,8 +30,10 @@ type shared struct {
 	convTolDB                        float64
 
 	decorrSlots float64 // longest decorrelation time of a user, slots (decorrelationSlots)
+	decorrWhat  string  // what that decorrelation time is (for the notes)
 	batches     int     // batches per replication (effectiveBatches)
 	batchNote   string  // why batches differs from run.batches, or ""
+	withhold    bool    // one replication gives no intervals: too short for MinBatches batches (effectiveBatches)
 	pool        *pool   // histograms pooled over replications (nil with one replication)
 }
 
@@ -71,9 +73,9 @@ func newShared(sc Scenario, users []userInfo, hk *hooks) *shared {
 	s.convW = max(1, int(math.Round(ConvergenceWindowS*s.rateHz)))
 	s.convTolDB = ConvergenceToleranceDB
 	if hk == nil || (hk.static == nil && hk.matrix == nil) { // hooks replace fading by static gains
-		s.decorrSlots = decorrelationSlots(sc, users, s.rateHz)
+		s.decorrSlots, s.decorrWhat = decorrelationSlots(sc, users, s.rateHz)
 	}
-	s.batches, s.batchNote = effectiveBatches(sc.Run.Batches, s.total-s.warm, s.decorrSlots)
+	s.batches, s.batchNote, s.withhold = effectiveBatches(sc.Run.Batches, s.total-s.warm, s.decorrSlots, s.decorrWhat)
 	// Distance bins: equal width over the users' distance range.
 	s.nbins = sc.Run.DistanceBins
 	if sc.Run.Replications > 1 {

@@ -103,8 +103,13 @@ func (l FigureLabel) Interval(e ReplicationEstimate) string {
 }
 
 // Estimate is "value [low, high] unit" of an estimate of the value, the
-// unit written once, e.g. "15.74 [15.23, 16.26] %".
+// unit written once, e.g. "15.74 [15.23, 16.26] %"; with fewer than two
+// replications, which give no interval, "15.74 % (no interval: 1
+// replication)".
 func (l FigureLabel) Estimate(e ReplicationEstimate) string {
+	if e.N < 2 {
+		return fmt.Sprintf("%s %s (no interval: %d replication)", l.num(e.Mean), l.Unit, e.N)
+	}
 	return l.num(e.Mean) + " " + l.Interval(e)
 }
 
