@@ -238,6 +238,12 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 		zero := make([]float64, len(cv))
 		dz := make([]int, len(cv))
 		f.ConvergenceTimeS = combine(cv, zero, dz).positive()
+		if i < sh.n && R == 1 {
+			// One user, one replication: one observed time, no spread to
+			// give an interval from (it was [v, v], a width that holds
+			// nothing).
+			f.ConvergenceTimeS.withhold()
+		}
 	}
 	if R == 1 && sh.withhold {
 		f.withholdBatchIntervals()
@@ -247,8 +253,8 @@ func (sh *shared) figures(results []*repResult, i int) Figures {
 
 // withholdBatchIntervals gives NaN bounds (values kept) to every estimate
 // whose interval, with one replication, comes from the run's batch means:
-// all but the convergence time, whose interval is over users (a set) or
-// collapses to the value (one user), never over batches.
+// all but the convergence time, whose interval is over users (a set; one
+// user's is withheld with one replication), never over batches.
 func (f *Figures) withholdBatchIntervals() {
 	for _, e := range []*Estimate{&f.SIRErrorMeanDB, &f.SIRErrorStdDB, &f.OutageProbability, &f.AchievedBLER,
 		&f.BLERTargetError, &f.TxPowerMeanDBm, &f.MaxPowerFraction, &f.NoiseRiseMeanDB, &f.NoiseRiseP95DB} {
