@@ -72,7 +72,11 @@ func Run(ctx context.Context, cfg Config) (*Report, error) {
 			defer func() { <-sem }()
 			defer func() {
 				if p := recover(); p != nil {
-					errs[r] = loop.NewPanicError(p)
+					if pe, ok := p.(*loop.PanicError); ok {
+						errs[r] = pe // a helper's, with the helper's stack
+					} else {
+						errs[r] = loop.NewPanicError(p)
+					}
 				}
 			}()
 			results[r], errs[r] = runReplication(ctx, cfg, r)

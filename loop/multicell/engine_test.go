@@ -426,7 +426,8 @@ func TestCellSumsTrackPowers(t *testing.T) {
 
 // TestHelperPanic: a panic in a chunk of work ahead — wherever it runs,
 // on the helper or on the replication's goroutine — ends Run with a
-// *loop.PanicError (no hang, no crash), for each kind of job.
+// *loop.PanicError carrying that panic and the stack of the goroutine
+// that ran the chunk (no hang, no crash), for each kind of job.
 func TestHelperPanic(t *testing.T) {
 	cfg := smallLayout()
 	cfg.Groups[0].CountPerCell = 7 // 168 users ≥ minUsersForHelper
@@ -445,6 +446,12 @@ func TestHelperPanic(t *testing.T) {
 			var pe *loop.PanicError
 			if !errors.As(err, &pe) {
 				t.Errorf("GOMAXPROCS %d, job kind %d: error %v, want a *loop.PanicError", procs, kind, err)
+				continue
+			}
+			// The stack is the panicking goroutine's (the helper's when a
+			// chunk panicked there), and the value is the first panic's.
+			if !strings.Contains(string(pe.Stack), "runChunk") || pe.Value != "injected" {
+				t.Errorf("GOMAXPROCS %d, job kind %d: panic %v with a stack without runChunk:\n%s", procs, kind, pe.Value, pe.Stack)
 			}
 		}
 	}

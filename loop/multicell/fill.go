@@ -21,6 +21,10 @@ import "context"
 // then (updateActiveSets). Every leg's stream runs on the slot clock: the
 // gain in slot t is sample t of its channel, whether the leg stayed, left
 // or rejoined (fillLeg skips an unused leg ahead; TestLegStreamsOnSlotClock).
+// A stream belongs to the user's leg slot, not to a cell: when one update
+// moves a slot from cell X to cell Y, Y's first samples continue X's
+// process (same distribution, independent of the user's other legs; only
+// the first few samples after the switch are correlated with X's last).
 
 // fillJoiners fills this block's fading of the leg slots that joined at
 // its start (rep.joiners), shared with the helper when there is one (each
@@ -54,8 +58,11 @@ func (rp *rep) fillLegs(legs []int, who int) {
 func (rp *rep) fillLeg(fade []float64, u, l int, t0 int64, n, who int) {
 	j := u*rp.legsPerUser + l
 	ch := rp.users[u].legCh[l]
-	if d := t0 - rp.legPos[j]; d > 0 {
+	switch d := t0 - rp.legPos[j]; {
+	case d > 0:
 		ch.Skip(int(d))
+	case d < 0:
+		panic("multicell: a leg's stream is past the block it is filled for") // programmer error: the slot clock would break
 	}
 	tmp := rp.fadeTmp[who][:n]
 	ch.FillGainsShared(tmp, &rp.plans[who])
@@ -84,7 +91,11 @@ func (rp *rep) run(ctx context.Context) error {
 	upd := int64(rp.cfg.Handover.UpdateSlots)
 	cur := 0
 	b := 0 // block number
-	defer rp.completeAll()
+	// Jobs in flight end before run returns: completed after the last
+	// slot, abandoned (chunks not started are dropped, running ones waited
+	// for) when run returns early or panics.
+	finished := false
+	defer func() { rp.endJobs(!finished) }()
 	for t0 := int64(0); t0 < total; {
 		if err := ctx.Err(); err != nil {
 			return err
@@ -147,6 +158,7 @@ func (rp *rep) run(ctx context.Context) error {
 	if b > 0 {
 		rp.postStats(b - 1)
 	}
+	finished = true
 	return nil
 }
 

@@ -3,6 +3,8 @@ package multicell
 import (
 	"runtime"
 	"sync/atomic"
+
+	"github.com/fadeloop/fadeloop/loop"
 )
 
 // Jobs shared between the replication's goroutine and its helper
@@ -164,7 +166,7 @@ func (rp *rep) helperChunk(j *job, i int) {
 	defer j.finish()
 	defer func() {
 		if p := recover(); p != nil {
-			j.pv.Store(&panicValue{p})
+			j.pv.Store(&panicValue{loop.NewPanicError(p)}) // with the helper's stack
 		}
 	}()
 	rp.runChunk(j, i, 1)
@@ -205,8 +207,16 @@ func (rp *rep) complete(j *job) {
 	if j.kind != jobStats {
 		rp.runClaims(j, j.gen, 0)
 	}
-	// The helper is at most a chunk away (or, for the statistics, a few
-	// jobs): a short spin, then sleep until its last chunk finishes.
+	rp.waitChunks(j)
+	if p := j.pv.Load(); p != nil {
+		panic(p.v) // recovered by Run as a PanicError
+	}
+}
+
+// waitChunks returns when every chunk of j's generation has finished. The
+// helper is at most a chunk away (or, for the statistics, a few jobs): a
+// short spin, then sleep until its last chunk finishes.
+func (rp *rep) waitChunks(j *job) {
 	for spins := 0; j.fin.Load() < int64(j.chunks); spins++ {
 		if spins < 20 {
 			runtime.Gosched()
@@ -218,20 +228,44 @@ func (rp *rep) complete(j *job) {
 		}
 		j.waiting.Store(false)
 	}
-	if p := j.pv.Load(); p != nil {
-		panic(p.v) // recovered by Run as a PanicError
-	}
 }
 
-// completeAll completes every job in flight (before the replication
-// returns, so the helper no longer touches it).
-func (rp *rep) completeAll() {
+// endJobs ends every job in flight before the replication returns, so
+// the helper no longer touches it: completed (chunks left run here, a
+// chunk's panic re-raised), or with abandon (run returning early or
+// panicking) the chunks nobody started are dropped and the running ones
+// waited for, without raising another panic over the first.
+func (rp *rep) endJobs(abandon bool) {
 	for _, j := range rp.jobs.all() {
-		rp.complete(j)
+		if !abandon {
+			rp.complete(j)
+			continue
+		}
+		if !j.posted {
+			continue
+		}
+		for {
+			v := j.state.Load()
+			_, total, next := jobState(v)
+			if next >= total {
+				break
+			}
+			// All claimed, the dropped ones counted as finished.
+			if j.state.CompareAndSwap(v, v-uint64(next)+uint64(total)) {
+				j.fin.Add(int64(total - next))
+				break
+			}
+		}
+		j.posted = false
+		if rp.helper != nil {
+			rp.waitChunks(j) // the running ones; their panics are not raised over the first
+		}
 	}
 }
 
-// chunkHook, when set (tests), is called before each chunk runs.
+// chunkHook, when set (tests), is called before each chunk runs. It may
+// panic but must not call t.Fatal or runtime.Goexit (on the helper that
+// would end the goroutine without a trace).
 var chunkHook func(kind jobKind, onHelper bool)
 
 // runChunk runs chunk i of j on goroutine who (its scratch and plan
