@@ -178,15 +178,9 @@ func (s *gsosSource) skip(n int) {
 		sets++ // the first call also draws the outgoing set
 	}
 	for l := 0; l < s.nt; l++ {
-		r := s.rng[l]
-		for i := 0; i < sets-1; i++ {
-			for j := 0; j < 2*s.m; j++ { // draw's order: θ, A, B per oscillator
-				r.Float64()
-				r.NormFloat64()
-				r.NormFloat64()
-			}
+		for range sets {
+			s.drawRaw(&s.cur[l], s.rng[l]) // the last set's draws stay
 		}
-		s.drawRaw(&s.cur[l], r)
 	}
 	s.started, s.raw = true, true
 }

@@ -33,7 +33,7 @@ type spectralSource struct {
 	cosW      []float64 // cos(πi/N), i < N/2
 	sinW      []float64 // sin(πi/N)
 	started   bool
-	pend      [][]complex128 // per tap: bin values of the last block skip passed over (by nz), transform pending
+	pend      [][]complex128 // per tap: bin values (by nz) of the block gen transforms, or of the last block skip passed over (transform pending)
 	raw       bool           // pend holds a block whose transform is pending (skip)
 }
 
@@ -79,10 +79,23 @@ func (s *spectralSource) blockLen() int { return s.h }
 
 // gen writes one new independent block of tap l into dst.
 func (s *spectralSource) gen(l int, dst []complex128) {
-	r := s.rng[l]
-	for _, k := range s.nz {
+	s.bins(s.rng[l], s.pend[l])
+	s.transform(s.pend[l], dst)
+}
+
+// bins draws one block's in-band bin values from r into p (by nz).
+func (s *spectralSource) bins(r *rand.Rand, p []complex128) {
+	for i, k := range s.nz {
 		a := s.amp[k] * math.Sqrt2 / 2
-		s.coef[k] = complex(a*r.NormFloat64(), a*r.NormFloat64())
+		p[i] = complex(a*r.NormFloat64(), a*r.NormFloat64())
+	}
+}
+
+// transform writes the block whose in-band bin values are p (by nz; the
+// other bins of coef stay zero) into dst.
+func (s *spectralSource) transform(p, dst []complex128) {
+	for i, k := range s.nz {
+		s.coef[k] = p[i]
 	}
 	s.fft.Sequence(dst, s.coef)
 }
@@ -90,10 +103,7 @@ func (s *spectralSource) gen(l int, dst []complex128) {
 func (s *spectralSource) next(scale []float64, re, im [][]float64) {
 	for l := 0; l < s.nt; l++ {
 		if s.raw { // the block skip drew last: transform it now
-			for i, k := range s.nz {
-				s.coef[k] = s.pend[l][i]
-			}
-			s.fft.Sequence(s.cur[l], s.coef)
+			s.transform(s.pend[l], s.cur[l])
 		}
 		if !s.started {
 			s.gen(l, s.prev[l])
@@ -126,17 +136,8 @@ func (s *spectralSource) skip(n int) {
 		blocks++ // the first call also draws the outgoing block
 	}
 	for l := 0; l < s.nt; l++ {
-		r := s.rng[l]
-		for i := 0; i < blocks-1; i++ {
-			for range s.nz { // gen's order: real, then imaginary part per bin
-				r.NormFloat64()
-				r.NormFloat64()
-			}
-		}
-		p := s.pend[l]
-		for i, k := range s.nz { // gen's values
-			a := s.amp[k] * math.Sqrt2 / 2
-			p[i] = complex(a*r.NormFloat64(), a*r.NormFloat64())
+		for range blocks {
+			s.bins(s.rng[l], s.pend[l]) // the last block's values stay
 		}
 	}
 	s.started, s.raw = true, true
