@@ -39,17 +39,10 @@ func (rp *rep) slot(t int64, k int) {
 		}
 		rp.sinceSum++
 		if !rp.corrReady {
-			corr := rp.corr
-			clear(corr)
-			for u := range rp.users {
-				if rp.fade == nil {
-					break // no fast fading
-				}
-				us := &rp.users[u]
-				f := rp.fade[k*rp.fadeStride+u*rp.legsPerUser:]
-				for _, l := range us.act[:us.nLegs] {
-					lg := &us.leg[l]
-					corr[lg.c] += us.p * lg.g * (f[l] - 1)
+			clear(rp.corr)
+			if rp.fade != nil { // else no fast fading: no corrections
+				for u := range rp.users {
+					rp.users[u].addLegCorrections(rp.corr, rp.fade[k*rp.fadeStride+u*rp.legsPerUser:])
 				}
 			}
 		}
@@ -96,7 +89,7 @@ func (rp *rep) fullSums() {
 // the same factor b (the step down, or up when more users went up):
 // Σ_u p'_u·G_cu = b·Σ_u p_u·G_cu + Σ_u (p'_u − b·p_u)·G_cu, where the last
 // sum has terms only for the users that moved otherwise (p'_u = b·p_u
-// exactly for the others: the same product as applyCommand's). That costs
+// exactly for the others: the same product as stepPower's). That costs
 // C per such user instead of C·U. slot recomputes the sums in full after
 // slow-gain updates, at least every fullSumSlots slots (which bounds the
 // rounding: relative error below 1e-10, TestCellSumsTrackPowers), and every slot with ideal or
@@ -158,8 +151,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	pPrev, pCur, cmds := rp.pPrev[:U], rp.pCur[:U], rp.cmds
 	recSIR, recPDB, recTDB, recFlags := rec.sir[k*U:(k+1)*U], rec.pDB[k*U:(k+1)*U], rec.targetDB[k*U:(k+1)*U], rec.flags[k*U:(k+1)*U]
 	marginLin := rp.marginLin
-	// A closed-loop step without the open loop: stepPower, called directly.
-	step := closed && !rp.cfg.OpenLoop.Enabled
+	openLoop := rp.cfg.OpenLoop.Enabled
 	cep := il.CommandErrorProb
 	lin, lim, stepDB := [2]float64{rp.downLin, rp.upLin}, [2]float64{rp.pmin, rp.pmax}, il.StepDB
 	users := rp.users[:U]
@@ -258,43 +250,46 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			} else if t < int64(d) {
 				applied = 0
 			}
-			if step {
-				us.stepPower(applied, &lin, &lim, stepDB)
+			if openLoop {
+				rp.openLoopStep(us, applied)
 			} else {
-				rp.applyCommand(us, applied)
+				us.stepPower(applied, &lin, &lim, stepDB)
 			}
 			ups += int(applied+1) >> 1   // 1 for +1, 0 for 0 and −1
 			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
 		}
 		pCur[u] = us.p
 		if ahead && fk != nil {
-			f := rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:]
-			for _, l := range us.act[:us.nLegs] {
-				lg := &us.leg[l]
-				corrNext[lg.c] += us.p * lg.g * (f[l] - 1)
-			}
+			us.addLegCorrections(corrNext, rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:])
 		}
 	}
 	rp.ups, rp.downs = ups, downs
 }
 
-// applyCommand moves the power by one step, without accumulating past the
-// limits; with the open loop, the step goes into the closed-loop correction.
-func (rp *rep) applyCommand(us *user, cmd int8) {
+// openLoopStep applies a closed-loop command on top of the open loop: the
+// step goes into the closed-loop correction, without accumulating past
+// the power limits.
+func (rp *rep) openLoopStep(us *user, cmd int8) {
 	if cmd == 0 {
 		return
 	}
-	if rp.cfg.OpenLoop.Enabled {
-		base := rp.openLoopDBm(us)
-		next := us.olCorrDB + float64(cmd)*rp.cfg.InnerLoop.StepDB
-		pDBm := base + next
-		if pDBm <= rp.cfg.InnerLoop.MaxPowerDBm && pDBm >= rp.cfg.InnerLoop.MinPowerDBm {
-			us.olCorrDB = next
-		}
-		us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
-		return
+	base := rp.openLoopDBm(us)
+	next := us.olCorrDB + float64(cmd)*rp.cfg.InnerLoop.StepDB
+	pDBm := base + next
+	if pDBm <= rp.cfg.InnerLoop.MaxPowerDBm && pDBm >= rp.cfg.InnerLoop.MinPowerDBm {
+		us.olCorrDB = next
 	}
-	us.stepPower(cmd, &[2]float64{rp.downLin, rp.upLin}, &[2]float64{rp.pmin, rp.pmax}, rp.cfg.InnerLoop.StepDB)
+	us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
+}
+
+// addLegCorrections adds to corr, per cell, the user's fading correction
+// p·G·(F − 1) on each active-set leg, with f the user's leg gains of one
+// slot (f[l] for leg slot l).
+func (us *user) addLegCorrections(corr, f []float64) {
+	for _, l := range us.act[:us.nLegs] {
+		lg := &us.leg[l]
+		corr[lg.c] += us.p * lg.g * (f[l] - 1)
+	}
 }
 
 // stepPower moves the power one step up (cmd > 0) or down (cmd < 0):
@@ -304,9 +299,7 @@ func (rp *rep) applyCommand(us *user, cmd int8) {
 // The direction is picked by index, not by a branch (commands are up or
 // down at random slot to slot); p stays in [pmin, pmax], so a step up
 // stays above pmin and a step down below pmax.
-//
-// lin is {downLin, upLin}, lim {pmin, pmax}. Small enough to inline into
-// the slot loop; the step to a limit is out of line (clampTo).
+// lin is {downLin, upLin}, lim {pmin, pmax}.
 func (us *user) stepPower(cmd int8, lin, lim *[2]float64, stepDB float64) {
 	if cmd == 0 {
 		return
@@ -316,13 +309,8 @@ func (us *user) stepPower(cmd int8, lin, lim *[2]float64, stepDB float64) {
 		us.p, us.pDB = np, us.pDB+stepDB*float64(cmd)
 		return
 	}
-	us.clampTo(lim[i])
+	us.setP(lim[i])
 }
-
-// clampTo sets the power to a limit (stepPower's step that would pass it).
-//
-//go:noinline
-func (us *user) clampTo(p float64) { us.setP(p) }
 
 // setP sets the transmit power in mW and its dBm value pDB.
 func (us *user) setP(p float64) {
