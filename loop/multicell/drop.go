@@ -104,9 +104,16 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		rp.users[u] = us
 		return nil
 	}
-	errs := make([]error, 2)
-	half := len(order) / 2
-	if runtime.GOMAXPROCS(0) >= 2 && cfg.Run.Replications == 1 && len(order) >= minUsersForHelper {
+	dropRange := func(lo, hi int) error {
+		for u := lo; u < hi; u++ {
+			if err := drop(u); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	var errs [2]error
+	if half := len(order) / 2; runtime.GOMAXPROCS(0) >= 2 && cfg.Run.Replications == 1 && len(order) >= minUsersForHelper {
 		var wg sync.WaitGroup
 		wg.Add(1)
 		go func() {
@@ -116,18 +123,14 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 					errs[1] = loop.NewPanicError(p)
 				}
 			}()
-			for u := half; u < len(order) && errs[1] == nil; u++ {
-				errs[1] = drop(u)
-			}
+			errs[1] = dropRange(half, len(order))
 		}()
-		for u := 0; u < half && errs[0] == nil; u++ {
-			errs[0] = drop(u)
-		}
-		wg.Wait()
+		func() {
+			defer wg.Wait() // also when this half panics: nothing runs on after newRep
+			errs[0] = dropRange(0, half)
+		}()
 	} else {
-		for u := 0; u < len(order) && errs[0] == nil; u++ {
-			errs[0] = drop(u)
-		}
+		errs[0] = dropRange(0, len(order))
 	}
 	for _, err := range errs {
 		if err != nil {
