@@ -268,7 +268,15 @@ func (f *Figures) withholdBatchIntervals() {
 }
 
 // withhold keeps the value and drops the interval (NaN bounds).
-func (e *Estimate) withhold() { e.CILow, e.CIHigh = math.NaN(), math.NaN() }
+func (e *Estimate) withhold() { *e = Withheld(e.Value) }
+
+// Withheld is value v without an interval: CILow and CIHigh NaN, the form
+// both engines give a figure whose interval would not hold its 95 % (one
+// replication too short for its batches); every consumer prints the
+// value alone, JSON has null bounds.
+func Withheld(v float64) Estimate {
+	return Estimate{Value: v, CILow: math.NaN(), CIHigh: math.NaN()}
+}
 
 // jsonFloat is a float64 whose JSON form is null when it is NaN (JSON has
 // no NaN); null decodes to NaN.

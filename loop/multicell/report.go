@@ -68,7 +68,7 @@ type (
 func meanInterval(xs []float64) loop.Estimate {
 	n := float64(len(xs))
 	if n == 0 {
-		return loop.Estimate{Value: math.NaN(), CILow: math.NaN(), CIHigh: math.NaN()}
+		return loop.Withheld(math.NaN())
 	}
 	m := 0.0
 	for _, x := range xs {
@@ -93,7 +93,7 @@ func meanInterval(xs []float64) loop.Estimate {
 // equal weight), n_eff capped at the trials; z replaced by Student's t.
 func proportionInterval(hits, trials float64, ps []float64) loop.Estimate {
 	if trials <= 0 {
-		return loop.Estimate{Value: math.NaN(), CILow: math.NaN(), CIHigh: math.NaN()}
+		return loop.Withheld(math.NaN())
 	}
 	p := hits / trials
 	k := len(ps)

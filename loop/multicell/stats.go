@@ -235,16 +235,16 @@ func riseP95(res []*repResult, C int, groups [][2]int) loop.Estimate {
 	}
 	v := histPercentile(pooled, 0.95)
 	if math.IsNaN(v) {
-		return loop.Estimate{Value: math.NaN(), CILow: math.NaN(), CIHigh: math.NaN()}
+		return loop.Withheld(math.NaN())
 	}
 	v = math.Max(0, v)
 	if len(res) == 1 && groups == nil {
-		return withheld(v)
+		return loop.Withheld(v)
 	}
 	e := meanInterval(units)
 	h := math.Max((e.CIHigh-e.CILow)/2, histBinsDB/2)
 	if math.IsNaN(h) {
-		return withheld(v)
+		return loop.Withheld(v)
 	}
 	return loop.Estimate{Value: v, CILow: math.Max(0, v-h), CIHigh: v + h}
 }
@@ -294,7 +294,7 @@ func merge(cfg Config, res []*repResult) *Report {
 		if d := den(&total); d > 0 {
 			v := num(&total) / d
 			if !hold {
-				return withheld(v)
+				return loop.Withheld(v)
 			}
 			h := (e.CIHigh - e.CILow) / 2
 			e = loop.Estimate{Value: v, CILow: v - h, CIHigh: v + h}
@@ -310,7 +310,7 @@ func merge(cfg Config, res []*repResult) *Report {
 		}
 		e := proportionInterval(hit(&total), n(&total), ps)
 		if !hold {
-			return withheld(e.Value)
+			return loop.Withheld(e.Value)
 		}
 		return e
 	}
@@ -353,7 +353,7 @@ func merge(cfg Config, res []*repResult) *Report {
 	h := (se.CIHigh - se.CILow) / 2
 	o.SIRErrorStdDB = loop.Estimate{Value: v, CILow: math.Max(0, v-h), CIHigh: v + h}
 	if !hold {
-		o.SIRErrorStdDB = withheld(v)
+		o.SIRErrorStdDB = loop.Withheld(v)
 	}
 	o.TxPowerMeanDBm = ratio(func(s *sums) float64 { return s.txDBm }, func(s *sums) float64 { return s.userSlots })
 	o.AchievedBLER = prop(func(s *sums) float64 { return s.blockErrs }, func(s *sums) float64 { return s.blocks })
@@ -393,12 +393,6 @@ func merge(cfg Config, res []*repResult) *Report {
 	rep.UserPoints = res[0].points
 	rep.intervalNote = intervalNote
 	return rep
-}
-
-// withheld is a value whose interval is not given: NaN bounds (every
-// consumer prints the value alone; see merge).
-func withheld(v float64) loop.Estimate {
-	return loop.Estimate{Value: v, CILow: math.NaN(), CIHigh: math.NaN()}
 }
 
 // groupDecorrelationTimes is the shortest batch group of one replication,
