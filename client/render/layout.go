@@ -9,6 +9,11 @@ import (
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
+// LayoutComputes reports whether the multi-cell engine computes aggregate
+// figure key (it has no percentiles or convergence time); tables of a
+// layout's reports leave the others out.
+func LayoutComputes(key string) bool { return !layoutOnlyMissing[key] }
+
 // layoutOnlyMissing lists the aggregate figures the multi-cell engine does
 // not compute; the run table leaves them out for a layout.
 var layoutOnlyMissing = map[string]bool{

@@ -14,9 +14,11 @@ import (
 // alike (one conversion of sweep points to plots).
 
 // AutoSweepPlot picks a sweep's plot from its axes: "heatmap" for step ×
-// update rate, "steps" for the step size and at most one other axis, "cdf"
-// otherwise (the CLI's --plot auto and the HTML report).
-func AutoSweepPlot(axes []*pb.SweepAxis) string {
+// update rate, "steps" for the step size and at most one other axis, else
+// "cdf" — or, for a multi-cell sweep (layout), whose points have no SIR
+// error percentiles, "layout" with one or two axes and "" (no plot) with
+// more (the CLI's --plot auto and the HTML report).
+func AutoSweepPlot(axes []*pb.SweepAxis, layout bool) string {
 	paths := map[string]bool{}
 	for _, a := range axes {
 		paths[a.GetPath()] = true
@@ -26,8 +28,52 @@ func AutoSweepPlot(axes []*pb.SweepAxis) string {
 		return "heatmap"
 	case paths[StepPath] && len(axes) <= 2:
 		return "steps"
+	case layout && len(axes) <= 2:
+		return "layout"
+	case layout:
+		return ""
 	}
 	return "cdf"
+}
+
+// SweepLayoutLines is the layout-wide other-to-own ratio f and outage (%)
+// with their 95 % intervals against the first axis, one line per value of
+// the second (one line, "all", without one); ok is false unless there
+// are one or two axes and every point is multi-cell.
+func SweepLayoutLines(axes []*pb.SweepAxis, pts []*pb.SweepPoint) (ls []plots.LayoutLine, ok bool) {
+	if len(axes) < 1 || len(axes) > 2 {
+		return nil, false
+	}
+	lines := map[float64]*plots.LayoutLine{}
+	var order []float64
+	for _, p := range pts {
+		l := p.GetReport().GetLayout()
+		if l == nil {
+			return nil, false
+		}
+		c := p.GetCoordinates()
+		key, label := 0.0, "all"
+		if len(axes) == 2 {
+			key, label = c[1], AxisValueLabel(axes[1].GetPath(), c[1])
+		}
+		ln := lines[key]
+		if ln == nil {
+			ln = &plots.LayoutLine{Label: label}
+			lines[key] = ln
+			order = append(order, key)
+		}
+		f, o := l.GetOverall().GetOtherToOwn(), l.GetOverall().GetOutageProbability()
+		ln.X = append(ln.X, c[0])
+		ln.F, ln.FLow, ln.FHigh = append(ln.F, f.GetValue()), append(ln.FLow, f.GetCiLow()), append(ln.FHigh, f.GetCiHigh())
+		ln.OutagePct = append(ln.OutagePct, 100*o.GetValue())
+		ln.OutageLow = append(ln.OutageLow, 100*o.GetCiLow())
+		ln.OutageHigh = append(ln.OutageHigh, 100*o.GetCiHigh())
+	}
+	sort.Float64s(order)
+	for _, k := range order {
+		ls = append(ls, *lines[k])
+	}
+	return ls, true
 }
 
 // SweepStepLines is outage and SIR error std with their 95 % intervals

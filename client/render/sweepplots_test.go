@@ -43,3 +43,62 @@ func TestSweepHeatGridFromRanges(t *testing.T) {
 		t.Errorf("step lines %+v", ls)
 	}
 }
+
+// TestAutoSweepPlot: the automatic plot of a sweep from its axes; a
+// multi-cell sweep, whose points have no SIR error percentiles, never gets
+// the distribution plot ("layout" with one or two axes, none with more).
+func TestAutoSweepPlot(t *testing.T) {
+	ax := func(paths ...string) []*pb.SweepAxis {
+		var out []*pb.SweepAxis
+		for _, p := range paths {
+			out = append(out, &pb.SweepAxis{Path: p})
+		}
+		return out
+	}
+	const win, delay = "layout.handover.window_db", "inner_loop.feedback_delay_slots"
+	for _, tc := range []struct {
+		axes   []*pb.SweepAxis
+		layout bool
+		want   string
+	}{
+		{ax(StepPath, RatePath), false, "heatmap"},
+		{ax(StepPath, RatePath), true, "heatmap"},
+		{ax(StepPath), false, "steps"},
+		{ax(StepPath, win), true, "steps"},
+		{ax(delay), false, "cdf"},
+		{ax(win), true, "layout"},
+		{ax(win, delay), true, "layout"},
+		{ax(win, delay, "inner_loop.update_rate_hz"), true, ""},
+	} {
+		if got := AutoSweepPlot(tc.axes, tc.layout); got != tc.want {
+			t.Errorf("axes %d (layout %v): %q, want %q", len(tc.axes), tc.layout, got, tc.want)
+		}
+	}
+}
+
+// TestSweepLayoutLines: f and outage (%) with their intervals against the
+// first axis, one line per value of the second, in axis order; not for
+// points without a layout or for three axes.
+func TestSweepLayoutLines(t *testing.T) {
+	pt := func(x, y, f, o float64) *pb.SweepPoint {
+		return &pb.SweepPoint{Coordinates: []float64{x, y}, Report: &pb.RunReport{Layout: &pb.LayoutReport{Overall: &pb.LayoutOverall{
+			OtherToOwn:        &pb.Estimate{Value: f, CiLow: f - 0.1, CiHigh: f + 0.1},
+			OutageProbability: &pb.Estimate{Value: o, CiLow: o / 2, CiHigh: 2 * o}}}}}
+	}
+	axes := []*pb.SweepAxis{{Path: "layout.handover.window_db"}, {Path: StepPath}}
+	pts := []*pb.SweepPoint{pt(0, 2, 0.9, 0.02), pt(0, 1, 0.8, 0.03), pt(6, 2, 0.6, 0.04), pt(6, 1, 0.5, 0.05)}
+	ls, ok := SweepLayoutLines(axes, pts)
+	if !ok || len(ls) != 2 {
+		t.Fatalf("ok %v, %d lines", ok, len(ls))
+	}
+	// Lines in the order of the second axis' values: step 1 first.
+	if l := ls[0]; len(l.X) != 2 || l.X[1] != 6 || l.F[0] != 0.8 || l.FHigh[1] != 0.6 || math.Abs(l.OutagePct[1]-5) > 1e-12 || math.Abs(l.OutageLow[0]-1.5) > 1e-12 {
+		t.Errorf("first line %+v", l)
+	}
+	if _, ok := SweepLayoutLines(axes, []*pb.SweepPoint{sweepPoint(0, 1, 500, 0.1, false)}); ok {
+		t.Error("a point without a layout gave lines")
+	}
+	if _, ok := SweepLayoutLines(append(axes, &pb.SweepAxis{Path: RatePath}), pts); ok {
+		t.Error("three axes gave lines")
+	}
+}

@@ -85,7 +85,18 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		// A break opportunity after each dot: long field paths wrap there.
 		t.Head = append(t.Head, strings.ReplaceAll(a.GetPath(), ".", ".\u200b"))
 	}
-	for _, k := range detailFigures {
+	// A multi-cell sweep's points have no percentiles: their columns are
+	// left out.
+	cols := detailFigures
+	if pts[0].GetReport().GetLayout() != nil {
+		cols = nil
+		for _, k := range detailFigures {
+			if clirender.LayoutComputes(k) {
+				cols = append(cols, k)
+			}
+		}
+	}
+	for _, k := range cols {
 		t.Head = append(t.Head, clirender.MustFigure(k).Head())
 	}
 	t.Head = append(t.Head, "load")
@@ -99,7 +110,7 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 			}
 			row = append(row, strconv.FormatFloat(v, 'g', 6, 64))
 		}
-		for _, k := range detailFigures {
+		for _, k := range cols {
 			row = append(row, figureEstimate(k, p.GetReport().GetAggregate()))
 		}
 		load := "ok"

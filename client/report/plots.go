@@ -110,10 +110,21 @@ func runDistancePoints(rep *pb.RunReport) []plots.DistancePoint {
 
 // sweepFigures: a heat map of outage over step × update rate, outage and
 // SIR error std against step size (one line per value of the other axis),
-// or the SIR error distribution per point (at most 8 points).
+// f and outage against the axis for a multi-cell sweep, or the SIR error
+// distribution per point (at most 8 points).
 func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]figure, error) {
 	var out []figure
-	switch kind := clirender.AutoSweepPlot(axes); {
+	layout := len(pts) > 0 && pts[0].GetReport().GetLayout() != nil
+	switch kind := clirender.AutoSweepPlot(axes, layout); {
+	case kind == "layout":
+		ls, _ := clirender.SweepLayoutLines(axes, pts)
+		x := axes[0].GetPath()
+		// The page heading names the scenario; the axis path is long
+		// enough for the figure's title.
+		fig, err := plots.LayoutSweep("Multi-cell figures against "+x, clirender.AxisTitle(x), ls)
+		if err := addFigure(&out, "Other-cell to own-cell interference f and outage of the layout against "+x+", with 95 % confidence intervals where the runs give them.", fig, err); err != nil {
+			return nil, err
+		}
 	case kind == "heatmap":
 		g, _ := clirender.SweepHeatGrid(axes, pts, "outage_probability", false)
 		fig, err := plots.HeatMap(titled(g.Objective+" over step × update rate", title), g)
@@ -126,7 +137,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
 			return nil, err
 		}
-	case len(pts) <= 8:
+	case kind == "cdf" && len(pts) <= 8:
 		ds := clirender.SweepErrorDistributions(axes, pts)
 		fig, err := plots.SIRErrorCDF(titled("SIR error distribution per point", title), ds)
 		if err := addFigure(&out, "Distribution of the SIR error of every grid point (from its reported percentiles).", fig, err); err != nil {

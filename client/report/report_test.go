@@ -392,3 +392,47 @@ func TestNoIntervalVerdicts(t *testing.T) {
 		t.Errorf("sweep verdict (class %q):\n%s", d.Verdict.Class, text)
 	}
 }
+
+// TestLayoutSweepReport: a multi-cell sweep's point table leaves out the
+// figures the multi-cell engine does not compute (percentiles), and its
+// plot is f and outage against the axis, not an SIR error distribution
+// drawn from percentiles that are all zero.
+func TestLayoutSweepReport(t *testing.T) {
+	est := func(v float64) *pb.Estimate { return &pb.Estimate{Value: v, CiLow: v * 0.9, CiHigh: v * 1.1} }
+	rep := func(outage float64) *pb.RunReport {
+		return &pb.RunReport{
+			Aggregate: &pb.Figures{Users: 2, OutageProbability: est(outage), SirErrorStdDb: est(2), AchievedBler: est(0.1),
+				TxPowerMeanDbm: est(-10), MaxPowerFraction: est(0.01), NoiseRiseMeanDb: est(1),
+				TxPowerPercentilesDbm: &pb.Percentiles{P95: &pb.Estimate{}}},
+			Layout:             &pb.LayoutReport{Overall: &pb.LayoutOverall{OtherToOwn: est(0.6), OutageProbability: est(outage)}},
+			NormalisedScenario: &pb.Scenario{Name: "layout"},
+			Seed:               3,
+		}
+	}
+	sw := &Sweep{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db", Values: []float64{0, 6}}}, Points: []*pb.SweepPoint{
+		{Index: 0, Coordinates: []float64{0}, Report: rep(0.05)},
+		{Index: 1, Coordinates: []float64{6}, Report: rep(0.07)},
+	}}
+	d, err := build(Input{Sweep: sw})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var head []string
+	var captions []string
+	for _, s := range d.Sections {
+		for _, tb := range s.Tables {
+			if s.ID == "points" {
+				head = tb.Head
+			}
+		}
+		for _, f := range s.Figures {
+			captions = append(captions, f.Caption)
+		}
+	}
+	if strings.Contains(strings.Join(head, "|"), "p95") || !strings.Contains(strings.Join(head, "|"), "outage") {
+		t.Errorf("point table head %q", head)
+	}
+	if len(captions) != 1 || !strings.Contains(captions[0], "Other-cell to own-cell interference f") {
+		t.Errorf("figures %q, want the layout plot", captions)
+	}
+}

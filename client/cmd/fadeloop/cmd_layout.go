@@ -3,7 +3,6 @@ package main
 import (
 	_ "embed"
 	"fmt"
-	"sort"
 	"strconv"
 
 	"github.com/fadeloop/fadeloop/client/plots"
@@ -39,38 +38,12 @@ func layoutMap(title, kind string, rep *pb.RunReport) (*plots.Figure, error) {
 // layoutSweepFigure draws f and the outage of a multi-cell sweep against
 // its first axis, one line per value of the second.
 func layoutSweepFigure(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) (*plots.Figure, error) {
-	if len(axes) < 1 || len(axes) > 2 {
-		return nil, badInputf("a layout plot needs one or two axes")
-	}
-	lines := map[float64]*plots.LayoutLine{}
-	var order []float64
-	for _, p := range pts {
-		l := p.GetReport().GetLayout()
-		if l == nil {
-			return nil, badInputf("--plot layout needs a multi-cell scenario (layout.sites set)")
+	ls, ok := render.SweepLayoutLines(axes, pts)
+	if !ok {
+		if len(axes) < 1 || len(axes) > 2 {
+			return nil, badInputf("a layout plot needs one or two axes")
 		}
-		c := p.GetCoordinates()
-		key, label := 0.0, "all"
-		if len(axes) == 2 {
-			key, label = c[1], axisLabel(axes[1], c[1])
-		}
-		ln := lines[key]
-		if ln == nil {
-			ln = &plots.LayoutLine{Label: label}
-			lines[key] = ln
-			order = append(order, key)
-		}
-		f, o := l.GetOverall().GetOtherToOwn(), l.GetOverall().GetOutageProbability()
-		ln.X = append(ln.X, c[0])
-		ln.F, ln.FLow, ln.FHigh = append(ln.F, f.GetValue()), append(ln.FLow, f.GetCiLow()), append(ln.FHigh, f.GetCiHigh())
-		ln.OutagePct = append(ln.OutagePct, 100*o.GetValue())
-		ln.OutageLow = append(ln.OutageLow, 100*o.GetCiLow())
-		ln.OutageHigh = append(ln.OutageHigh, 100*o.GetCiHigh())
-	}
-	sort.Float64s(order)
-	var ls []plots.LayoutLine
-	for _, k := range order {
-		ls = append(ls, *lines[k])
+		return nil, badInputf("--plot layout needs a multi-cell scenario (layout.sites set)")
 	}
 	x := axes[0].GetPath()
 	return plots.LayoutSweep("Multi-cell figures against "+x+" — "+title, render.AxisTitle(x), ls)

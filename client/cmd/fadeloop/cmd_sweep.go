@@ -56,7 +56,10 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
            value of the other axis (e.g. a speed)
   heatmap  the --objective over inner_loop.step_db × inner_loop.update_rate_hz
   cdf      SIR error distribution per point (at most 8 points)
+  layout   multi-cell: f and outage against the first axis, one line per
+           value of the second
   auto     heatmap for step × rate, steps for step (× one axis), else cdf
+           (multi-cell: layout, for one or two axes)
 
 Where the points run: with no --server the sweep is a durable job on a job
 queue (NATS JetStream). By default (--queue local) a NATS server starts
@@ -175,7 +178,7 @@ func runSweep(e *env, fs *flag.FlagSet) action {
 			req.Detailed = true
 		}
 		for _, ps := range plotSpecs {
-			if err := checkSweepPlot(ps, req.Axes); err != nil {
+			if err := checkSweepPlot(ps, req.Axes, req.GetBase().GetLayout() != nil); err != nil {
 				return err
 			}
 		}

@@ -144,11 +144,15 @@ const (
 
 func axisLabel(a *pb.SweepAxis, v float64) string { return render.AxisValueLabel(a.GetPath(), v) }
 
-// checkSweepPlot rejects, before any work, a plot the axes cannot give.
-func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
+// checkSweepPlot rejects, before any work, a plot the axes cannot give
+// (layout: the base scenario is multi-cell).
+func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis, layout bool) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = render.AutoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes, layout)
+		if kind == "" {
+			return badInputf("--plot %s: no automatic plot for a multi-cell sweep over %d axes; use --plot layout=FILE with one or two axes", ps.file, len(axes))
+		}
 	}
 	paths := map[string]int{}
 	for _, a := range axes {
@@ -175,7 +179,7 @@ func checkSweepPlot(ps plotSpec, axes []*pb.SweepAxis) error {
 func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint, objective string) error {
 	kind := ps.kind
 	if kind == "auto" {
-		kind = render.AutoSweepPlot(axes)
+		kind = render.AutoSweepPlot(axes, len(pts) > 0 && pts[0].GetReport().GetLayout() != nil)
 	}
 	var (
 		fig *plots.Figure
