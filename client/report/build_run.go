@@ -75,10 +75,11 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	d.Verdict.Lines = append(d.Verdict.Lines, rep.GetNotes()...)
 
 	t := table{Caption: "Aggregate figures over all users, with 95 % confidence intervals.", Head: []string{"figure", "value", "95 % CI low", "95 % CI high"}, Num: numCols(4, 1, 2, 3)}
+	layout := rep.GetLayout() != nil
 	for _, fd := range clirender.Figures() {
 		e := fd.Get(agg)
-		if e == nil {
-			continue
+		if e == nil || (layout && !clirender.LayoutComputes(fd.Key)) {
+			continue // a layout's report has no percentiles or convergence time
 		}
 		t.add(false, fd.Label, num(fd.Scale*e.GetValue(), fd.Dec), num(fd.Scale*e.GetCiLow(), fd.Dec), num(fd.Scale*e.GetCiHigh(), fd.Dec))
 	}

@@ -64,10 +64,23 @@ func titled(what, name string) string {
 }
 
 // runFigures: traces (when the report has them), the SIR error
-// distribution per distance bin, and Tx power against distance.
+// distribution per distance bin, and Tx power against distance; for a
+// multi-cell run (no percentiles, no distance bins) the map of the layout
+// with its users by outage.
 func runFigures(rep *pb.RunReport) ([]figure, error) {
 	title := rep.GetNormalisedScenario().GetName()
 	var out []figure
+	if rep.GetLayout() != nil {
+		d, err := clirender.LayoutMapData(rep, false)
+		if err != nil {
+			return nil, err
+		}
+		fig, err := plots.LayoutMap("Users by outage (replication 0, "+strconv.Itoa(len(d.Users))+" users)", d)
+		if err := addFigure(&out, "The layout to scale: sites, sector boresights and each user of the first drop coloured by its outage.", fig, err); err != nil {
+			return nil, err
+		}
+		return out, nil
+	}
 	if len(rep.GetTraces()) > 0 {
 		fig, err := plots.Traces(titled("Traces", title), runTraces(rep))
 		if err := addFigure(&out, "SIR, SIR target and Tx power against time for the nearest, the median and the farthest traced user.", fig, err); err != nil {

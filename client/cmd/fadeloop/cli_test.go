@@ -766,6 +766,27 @@ func TestMultiCellRunAndMap(t *testing.T) {
 	fl(t, "run", "testdata/scenarios/small.json", "--slots", "300", "--quiet", "--plot", "map="+filepath.Join(dir, "x.png")).want(t, 2)
 }
 
+// TestMultiCellRunReport: a multi-cell run writes its HTML report (it
+// asked the engine for traces, which a layout refuses: exit 2 before) with
+// the layout map and without the percentile rows the engine does not
+// compute.
+func TestMultiCellRunReport(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "run.html")
+	ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "1", "--quiet", "--report", path)
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	html := string(b)
+	if !strings.Contains(html, "Users by outage") || !strings.Contains(html, "<svg") {
+		t.Error("report has no layout map")
+	}
+	if strings.Contains(html, "SIR error 1st pct") || strings.Contains(html, "SIR error distribution per distance bin") {
+		t.Error("report shows percentiles the multi-cell engine does not compute")
+	}
+}
+
 // TestMultiCellSweepPlot: a sweep over the handover window and the step
 // draws f and outage against the window.
 func TestMultiCellSweepPlot(t *testing.T) {

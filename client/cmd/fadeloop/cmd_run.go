@@ -193,7 +193,9 @@ func runRun(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		defer release()
-		if plotSpecs.needs("traces", "cdf") || *reportFile != "" {
+		// Traces for the plots and the report: single-cell only (the
+		// multi-cell engine refuses them; its report draws the map).
+		if (plotSpecs.needs("traces", "cdf") || *reportFile != "") && sc.GetLayout().GetSites() == 0 {
 			info, err := cl.ServerInfo(ctx)
 			if err != nil {
 				return err
