@@ -13,8 +13,11 @@ import (
 )
 
 // EngineVersion identifies the engine that produced a Report; it changes
-// whenever the same (scenario, seed) could give different figures.
-const EngineVersion = "fadeloop-loop/1.1.0"
+// whenever the same (scenario, seed) could give different figures. 1.2.0:
+// one replication too short for two batches of 10 decorrelation times
+// withholds its batch-means intervals, and one user's convergence time
+// with one replication has none (values unchanged).
+const EngineVersion = "fadeloop-loop/1.2.0"
 
 // Random stream kinds of package loop (fading.NewStream; fading's own kinds
 // are below 100). Index is 0 for all of them.
