@@ -2,6 +2,8 @@
 
 package fading
 
+import "golang.org/x/sys/cpu"
+
 // interpTapPowerAVX is interpTapPower in AVX assembly (interp_amd64.s), the
 // same operations in the same order, so the same bits. The caller checks
 // the index ranges (interpPowerFast).
@@ -26,11 +28,10 @@ func interpPower3AVX(dst []float64, first bool, re, im []float64, stride int, id
 	interpPower3AVXAsm(dst, first, &re[0], &im[0], stride*8, idx, wrow, &interpTable[0])
 }
 
-// cpuHasAVX reports whether the CPU and the OS support AVX.
-func cpuHasAVX() bool
-
-// useAVX selects the assembly interpolator (tests switch it off to compare).
-var useAVX = cpuHasAVX()
+// useAVX selects the assembly interpolator (tests switch it off to compare):
+// the CPU and the OS support AVX (golang.org/x/sys/cpu, the module's one
+// CPU-feature check).
+var useAVX = cpu.X86.HasAVX
 
 // interpPowerAVX runs interpTapPowerAVX when the CPU has AVX and reports
 // whether it did.

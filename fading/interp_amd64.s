@@ -53,29 +53,6 @@ done:
 	VZEROUPPER
 	RET
 
-// func cpuHasAVX() bool
-//
-// CPUID.1:ECX.OSXSAVE[27] and AVX[28] set, and XCR0 enables the SSE and
-// AVX state (bits 1 and 2).
-TEXT ·cpuHasAVX(SB), NOSPLIT, $0-1
-	MOVL  $1, AX
-	XORL  CX, CX
-	CPUID
-	ANDL  $0x18000000, CX
-	CMPL  CX, $0x18000000
-	JNE   no
-	XORL  CX, CX
-	XGETBV
-	ANDL  $6, AX
-	CMPL  AX, $6
-	JNE   no
-	MOVB  $1, ret+0(FP)
-	RET
-
-no:
-	MOVB $0, ret+0(FP)
-	RET
-
 // func osc16AVX(dst []float64, first bool, c, a, b *float64)
 //
 // Sixteen cosine recursions x_{k+1} = c_n·x_k − x_{k−1} (current values

@@ -1,10 +1,6 @@
 package multicell
 
-import (
-	"math"
-
-	"gonum.org/v1/gonum/floats"
-)
+import "math"
 
 // slot runs one slot: received powers, SIRs, commands, the outer loop, the
 // statistics and the power update.
@@ -75,12 +71,7 @@ func (rp *rep) fullSums() {
 	s := rp.sums
 	clear(s)
 	for u := range rp.users {
-		pu := rp.users[u].p
-		row := rp.slow[u*C : u*C+C]
-		row = row[:len(s)]
-		for c, g := range row {
-			s[c] += pu * g
-		}
+		addScaled(s, rp.users[u].p, rp.slow[u*C:u*C+C])
 	}
 }
 
@@ -119,7 +110,7 @@ func (rp *rep) updateSums() {
 		n += inc
 	}
 	for i, u := range mv[:n] {
-		floats.AddScaled(s, dv[i], rp.slow[int(u)*C:int(u)*C+C])
+		addScaled(s, dv[i], rp.slow[int(u)*C:int(u)*C+C])
 	}
 }
 

@@ -1,0 +1,29 @@
+//go:build amd64 && !purego
+
+package multicell
+
+import "golang.org/x/sys/cpu"
+
+// addScaledAVX is addScaledGo in AVX assembly (rows_amd64.s): the same
+// operations in the same order, so the same bits. row has len(s) elements
+// at least (addScaled checks).
+//
+//go:noescape
+func addScaledAVX(s []float64, d float64, row *float64)
+
+// useAVX selects the assembly row update (tests switch it off to compare).
+var useAVX = cpu.X86.HasAVX
+
+// addScaled adds d·row to s element by element (len(row) ≥ len(s)): the
+// cell-sum update of one user's row of slow gains.
+func addScaled(s []float64, d float64, row []float64) {
+	if len(s) == 0 {
+		return
+	}
+	if !useAVX {
+		addScaledGo(s, d, row)
+		return
+	}
+	_ = row[len(s)-1]
+	addScaledAVX(s, d, &row[0])
+}
