@@ -43,11 +43,17 @@ func splitmix64(x uint64) uint64 { return SplitMix64(x, 0) }
 // streams, whatever the goroutine or GOMAXPROCS. Negative user or index
 // values are allowed (they hash like their two's-complement bit patterns).
 func NewStream(seed uint64, user, index int, kind StreamKind) *rand.Rand {
-	h := splitmix64(seed)
-	h = splitmix64(h ^ uint64(user))
-	h = splitmix64(h ^ uint64(index))
-	h = splitmix64(h ^ uint64(kind))
+	h := streamHash(seed, user, index, kind)
 	s1 := splitmix64(h ^ 0x5851f42d4c957f2d)
 	s2 := splitmix64(h ^ 0x14057b7ef767814f)
 	return rand.New(rand.NewPCG(s1, s2))
+}
+
+// streamHash is the SplitMix64 hash chain of (seed, user, index, kind) that
+// seeds every stream (NewStream, NewGaussStream).
+func streamHash(seed uint64, user, index int, kind StreamKind) uint64 {
+	h := splitmix64(seed)
+	h = splitmix64(h ^ uint64(user))
+	h = splitmix64(h ^ uint64(index))
+	return splitmix64(h ^ uint64(kind))
 }

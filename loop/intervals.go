@@ -43,7 +43,9 @@ var (
 const z95 = 1.959963984540054
 
 // wilson is the Wilson score interval of a proportion p with n samples and
-// quantile z (Wilson, J. Am. Stat. Assoc. 22, 1927); always inside [0, 1].
+// quantile z (Wilson, J. Am. Stat. Assoc. 22, 1927); always inside [0, 1]
+// and always holding p (which the exact interval does; at p = 0 or 1 the
+// rounding of c − h or c + h would otherwise leave it out by about 1e-20).
 func wilson(p, n, z float64) (lo, hi float64) {
 	if !(n > 0) {
 		return p, p
@@ -52,7 +54,7 @@ func wilson(p, n, z float64) (lo, hi float64) {
 	den := 1 + z2/n
 	c := (p + z2/(2*n)) / den
 	h := z * math.Sqrt(p*(1-p)/n+z2/(4*n*n)) / den
-	return math.Max(0, c-h), math.Min(1, c+h)
+	return min(math.Max(0, c-h), p), max(math.Min(1, c+h), p)
 }
 
 // combined is one statistic of a set: value, standard error and its

@@ -42,16 +42,20 @@ var log2Table = func() (t [1<<linToDBBits + 1]float64) {
 // is at most (h·ln 2)²/8 with h = 2^−linToDBBits, i.e. 5.8e-8 (2.5e-7 dB;
 // tested against math.Pow). Beyond ±3000 dB, and for NaN, it is
 // dbToLin's math.Exp.
+//
+// i and f come from y + 1024 (positive in range) by truncation, without a
+// floor call; the addition rounds y to 2^−42, a relative error below
+// 2e-13 on top of the table's.
 func linFromDB(x float64) float64 {
 	if !(x > -3000 && x < 3000) {
 		return dbToLin(x)
 	}
-	y := x * log2of10over10
-	fl := math.Floor(y)
-	f := (y - fl) * (1 << linToDBBits)
+	yp := x*log2of10over10 + 1024 // in (27, 2021)
+	i := int64(yp)                // floor(y) + 1024
+	f := (yp - float64(i)) * (1 << linToDBBits)
 	j := int(f)
 	lo, hi := exp2Table[j], exp2Table[j+1]
-	return (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(int64(fl)+1023)<<52)
+	return (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(i-1024+1023)<<52)
 }
 
 // log2of10over10 is log2(10)/10.

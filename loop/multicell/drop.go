@@ -81,13 +81,12 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 			dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
 			us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
 		}
-		sh := fading.NewStream(seed, u, 0, streamShadowing)
-		us.shadowA = sh.NormFloat64()
+		us.sh = fading.NewGaussStream(seed, u, 0, streamShadowing)
+		us.shadowA = us.sh.Norm()
 		us.shadowB = make([]float64, len(g.sites))
 		for k := range us.shadowB {
-			us.shadowB[k] = sh.NormFloat64()
+			us.shadowB[k] = us.sh.Norm()
 		}
-		us.shRng = sh
 		for l := range us.legs {
 			us.legs[l] = -1
 		}

@@ -114,7 +114,7 @@ type user struct {
 	shadowA  float64    // common shadowing part (dB, unit variance scaled later)
 	shadowB  []float64  // per site part
 	shadowK  float64    // AR(1) coefficient per shadowing update
-	shRng    *rand.Rand // shadowing updates
+	sh       fading.GaussStream // shadowing: initial values and updates
 	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update

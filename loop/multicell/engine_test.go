@@ -561,3 +561,25 @@ func TestRecordFlagBits(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkShadowingUpdate: one shadowing update of the 1140-user layout
+// of BenchmarkMultiCell1140 (every user's 20 AR(1) parts and 57 slow gains;
+// the run does one per shadowing_slots).
+func BenchmarkShadowingUpdate(b *testing.B) {
+	cfg := Config{
+		Layout:  Layout{Sites: 19, SectorsPerSite: 3, InterSiteDistanceM: 1000, WrapAround: true},
+		Groups:  []Group{{CountPerCell: 20, SpeedKmh: 30}},
+		Channel: Channel{ShadowingDB: 8, SiteCorrelation: 0.5},
+		Run:     RunSettings{Slots: 15000, Seed: 1},
+	}
+	cfg.Normalise()
+	rp, err := newRep(cfg, 1, 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		rp.gainsInto(rp.slowNext, int64(i+1)*int64(cfg.Channel.ShadowingSlots))
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(rp.U), "ns/user")
+}

@@ -26,10 +26,12 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
 			w := math.Sqrt(1 - k*k)
-			us.shadowA = k*us.shadowA + w*us.shRng.NormFloat64()
+			sh := us.sh // in registers for the user's draws
+			us.shadowA = k*us.shadowA + w*sh.Norm()
 			for s := range us.shadowB {
-				us.shadowB[s] = k*us.shadowB[s] + w*us.shRng.NormFloat64()
+				us.shadowB[s] = k*us.shadowB[s] + w*sh.Norm()
 			}
+			us.sh = sh
 		}
 		common := rp.shadowSD * a * us.shadowA
 		sdB := rp.shadowSD * b

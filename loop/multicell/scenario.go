@@ -13,8 +13,11 @@ import (
 // incremental cell sums and fading generated ahead (figures differ from
 // 1.0.0 in the last digits, same distributions). 1.2.0: statistics summed
 // per slot off the slot loop, legs' fading streams continue while unused
-// (figures differ from 1.1.0, same distributions).
-const EngineVersion = "fadeloop-multicell/1.2.0"
+// (figures differ from 1.1.0, same distributions). 1.3.0: shadowing
+// draws from fading.GaussStream (xoshiro256++ and a ziggurat) instead of
+// math/rand's PCG, dB-to-linear without a floor call (figures differ from
+// 1.2.0, same distributions).
+const EngineVersion = "fadeloop-multicell/1.3.0"
 
 // RunScenario is the one dispatch point between the two engines, used by
 // loop/tune (Sweep, Tune, Capacity) and by the service's Simulate and
