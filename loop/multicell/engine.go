@@ -108,12 +108,12 @@ type user struct {
 	edge     bool
 	group    int
 	x, y     float64
-	pathDB   []float64  // per site: −path loss (dB), fixed
-	siteLin  []float64  // per site: slow gain (path loss and shadowing), linear
-	antLin   []float64  // per cell: antenna gain, linear
-	shadowA  float64    // common shadowing part (dB, unit variance scaled later)
-	shadowB  []float64  // per site part
-	shadowK  float64    // AR(1) coefficient per shadowing update
+	pathDB   []float64          // per site: −path loss (dB), fixed
+	siteLin  []float64          // per site: slow gain (path loss and shadowing), linear
+	antLin   []float64          // per cell: antenna gain, linear
+	shadowA  float64            // common shadowing part (dB, unit variance scaled later)
+	shadowB  []float64          // per site part
+	shadowK  float64            // AR(1) coefficient per shadowing update
 	sh       fading.GaussStream // shadowing: initial values and updates
 	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
