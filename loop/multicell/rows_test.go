@@ -62,3 +62,43 @@ func TestReportSameWithoutAVX(t *testing.T) {
 		t.Error("report differs between the assembly and the Go row update")
 	}
 }
+
+// TestLeanSlotsSameReport: runUsersLean gives the same report as runUsers
+// for the slots it takes, with and without SIR estimation and command
+// errors, for feedback delays of 0, 1 and 3 slots and one to three legs.
+func TestLeanSlotsSameReport(t *testing.T) {
+	for _, tc := range []struct {
+		name           string
+		delay, legs    int
+		cep, sigmaDB   float64
+		outerLoop, avx bool
+	}{
+		{"delay 1, errors", 1, 3, 0.04, 1, true, true},
+		{"delay 0, no errors", 0, 3, 0, 0, true, true},
+		{"delay 3, one leg", 3, 1, 0.1, 2, false, true},
+		{"delay 1, two legs, Go rows", 1, 2, 0, 1, true, false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			cfg := smallLayout()
+			cfg.Groups[0].CountPerCell = 4
+			cfg.InnerLoop.FeedbackDelaySlots = tc.delay
+			cfg.InnerLoop.CommandErrorProb = tc.cep
+			cfg.InnerLoop.SIREstimationErrorDB = tc.sigmaDB
+			cfg.Handover.MaxActive = tc.legs
+			cfg.OuterLoop.Enabled = tc.outerLoop
+			cfg.Run = RunSettings{Slots: 700, WarmupSlots: 100, Replications: 1, Seed: 8, Batches: 4}
+			run := func(lean bool) []byte {
+				defer func(l, a bool) { useLean, useAVX = l, a }(useLean, useAVX)
+				useLean, useAVX = lean, useAVX && tc.avx
+				rep, err := Run(context.Background(), cfg)
+				if err != nil {
+					t.Fatal(err)
+				}
+				return reportText(rep)
+			}
+			if string(run(true)) != string(run(false)) {
+				t.Error("report differs between the lean and the general slot loop")
+			}
+		})
+	}
+}

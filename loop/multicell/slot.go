@@ -54,7 +54,11 @@ func (rp *rep) slot(t int64, k int) {
 		clear(rp.corrNext)
 	}
 	clear(rp.own)
-	rp.runUsers(t, k, ahead)
+	if rp.leanSlot(t) {
+		rp.runUsersLean(t, k, ahead)
+	} else {
+		rp.runUsers(t, k, ahead)
+	}
 	rp.corr, rp.corrNext = rp.corrNext, rp.corr
 	rp.corrReady = ahead
 	if t >= rp.cfg.Run.WarmupSlots {
@@ -144,7 +148,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	marginLin := rp.marginLin
 	openLoop := rp.cfg.OpenLoop.Enabled
 	cep := il.CommandErrorProb
-	lin, lim, stepDB := [2]float64{rp.downLin, rp.upLin}, [2]float64{rp.pmin, rp.pmax}, il.StepDB
+	lin, lim, limDB := rp.stepTables()
+	stepDB := il.StepDB
 	users := rp.users[:U]
 	for u := range users {
 		us := &users[u]
@@ -244,7 +249,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if openLoop {
 				rp.openLoopStep(us, applied)
 			} else {
-				us.stepPower(applied, &lin, &lim, stepDB)
+				us.stepPower(applied, &lin, &lim, &limDB, stepDB)
 			}
 			ups += int(applied+1) >> 1   // 1 for +1, 0 for 0 and −1
 			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
@@ -290,8 +295,10 @@ func (us *user) addLegCorrections(corr, f []float64) {
 // The direction is picked by index, not by a branch (commands are up or
 // down at random slot to slot); p stays in [pmin, pmax], so a step up
 // stays above pmin and a step down below pmax.
-// lin is {downLin, upLin}, lim {pmin, pmax}.
-func (us *user) stepPower(cmd int8, lin, lim *[2]float64, stepDB float64) {
+// lin is {downLin, upLin}, lim {pmin, pmax} and limDB their dBm values as
+// setP computes them (so a limit is set as setP would; no call: the
+// method inlines into the slot loop).
+func (us *user) stepPower(cmd int8, lin, lim, limDB *[2]float64, stepDB float64) {
 	if cmd == 0 {
 		return
 	}
@@ -300,7 +307,14 @@ func (us *user) stepPower(cmd int8, lin, lim *[2]float64, stepDB float64) {
 		us.p, us.pDB = np, us.pDB+stepDB*float64(cmd)
 		return
 	}
-	us.setP(lim[i])
+	us.p, us.pDB = lim[i], limDB[i]
+}
+
+// stepTables are stepPower's {downLin, upLin}, {pmin, pmax} and the
+// limits' dBm values as setP computes them.
+func (rp *rep) stepTables() (lin, lim, limDB [2]float64) {
+	return [2]float64{rp.downLin, rp.upLin}, [2]float64{rp.pmin, rp.pmax},
+		[2]float64{10 * math.Log10(rp.pmin), 10 * math.Log10(rp.pmax)}
 }
 
 // setP sets the transmit power in mW and its dBm value pDB.
