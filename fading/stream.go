@@ -50,7 +50,7 @@ func NewStream(seed uint64, user, index int, kind StreamKind) *rand.Rand {
 }
 
 // streamHash is the SplitMix64 hash chain of (seed, user, index, kind) that
-// seeds every stream (NewStream, NewGaussStream).
+// seeds every stream (NewStream, NewFastStream).
 func streamHash(seed uint64, user, index int, kind StreamKind) uint64 {
 	h := splitmix64(seed)
 	h = splitmix64(h ^ uint64(user))

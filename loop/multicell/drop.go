@@ -58,7 +58,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.users = make([]user, len(order))
 	drop := func(u int) error {
 		gi, s := order[u].g, order[u].s
-		us := user{group: gi, rng: fading.NewStream(seed, u, 0, streamControl), shadowK: gd[gi].k}
+		us := user{group: gi, ctl: fading.NewFastStream(seed, u, 0, streamControl), shadowK: gd[gi].k}
 		place := fading.NewStream(seed, u, 0, streamPlacement)
 		for {
 			dx := (place.Float64() - 0.5) * d
@@ -81,7 +81,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 			dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
 			us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
 		}
-		us.sh = fading.NewGaussStream(seed, u, 0, streamShadowing)
+		us.sh = fading.NewFastStream(seed, u, 0, streamShadowing)
 		us.shadowA = us.sh.Norm()
 		us.shadowB = make([]float64, len(g.sites))
 		for k := range us.shadowB {

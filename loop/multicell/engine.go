@@ -2,7 +2,6 @@ package multicell
 
 import (
 	"context"
-	"math/rand/v2"
 	"runtime"
 	"sync"
 
@@ -110,17 +109,17 @@ type user struct {
 	act      [maxLegsPerUser]int8   // leg slots in use, ascending (act[:nLegs])
 	leg      [maxLegsPerUser]legRun // per leg slot: what the slot loop reads and adds to
 	legs     [maxLegsPerUser]int32  // cell of leg slot l, −1 when unused
-	rng      *rand.Rand             // estimation, command, block-error and open-loop draws
+	ctl      fading.FastStream      // estimation, command, block-error and open-loop draws
 	edge     bool
 	group    int
 	x, y     float64
-	pathDB   []float64          // per site: −path loss (dB), fixed
-	siteLin  []float64          // per site: slow gain (path loss and shadowing), linear
-	antLin   []float64          // per cell: antenna gain, linear
-	shadowA  float64            // common shadowing part (dB, unit variance scaled later)
-	shadowB  []float64          // per site part
-	shadowK  float64            // AR(1) coefficient per shadowing update
-	sh       fading.GaussStream // shadowing: initial values and updates
+	pathDB   []float64         // per site: −path loss (dB), fixed
+	siteLin  []float64         // per site: slow gain (path loss and shadowing), linear
+	antLin   []float64         // per cell: antenna gain, linear
+	shadowA  float64           // common shadowing part (dB, unit variance scaled later)
+	shadowB  []float64         // per site part
+	shadowK  float64           // AR(1) coefficient per shadowing update
+	sh       fading.FastStream // shadowing: initial values and updates
 	legCh    [maxLegsPerUser]*fading.Channel
 	olCorrDB float64
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update

@@ -85,7 +85,7 @@ func (rp *rep) openLoopEstimate(u int, start bool) {
 	for _, g := range rp.slow[u*rp.C : (u+1)*rp.C] {
 		best = math.Max(best, g)
 	}
-	est := 10*math.Log10(best) + rp.cfg.OpenLoop.EstimationErrorDB*us.rng.NormFloat64()
+	est := 10*math.Log10(best) + rp.cfg.OpenLoop.EstimationErrorDB*us.ctl.Norm()
 	keep := 1 + rp.cfg.OpenLoop.DelaySlots/rp.cfg.Channel.ShadowingSlots
 	if len(us.olEstDB) < keep {
 		us.olEstDB = append(us.olEstDB, est)

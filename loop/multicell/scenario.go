@@ -14,7 +14,7 @@ import (
 // 1.0.0 in the last digits, same distributions). 1.2.0: statistics summed
 // per slot off the slot loop, legs' fading streams continue while unused
 // (figures differ from 1.1.0, same distributions). 1.3.0: shadowing
-// draws from fading.GaussStream (xoshiro256++ and a ziggurat) instead of
+// draws from fading.FastStream (xoshiro256++ and a ziggurat) instead of
 // math/rand's PCG, dB-to-linear without a floor call (figures differ from
 // 1.2.0, same distributions).
 const EngineVersion = "fadeloop-multicell/1.3.0"

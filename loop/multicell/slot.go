@@ -178,13 +178,13 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if closed {
 				m := sir
 				if sigma > 0 {
-					m *= math.Exp(sigma * us.rng.NormFloat64())
+					m *= math.Exp(sigma * us.ctl.Norm())
 				}
 				var up uint8
 				if m < us.target {
 					up = 1
 				}
-				if cep > 0 && us.rng.Float64() < cep {
+				if cep > 0 && us.ctl.Float64() < cep {
 					up ^= 1
 				}
 				upAll &= up
@@ -195,7 +195,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
 				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
 				bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
-				if us.rng.Float64() >= bler {
+				if us.ctl.Float64() >= bler {
 					anyOK = true
 				}
 				lg.acc, lg.n = 0, 0

@@ -65,13 +65,13 @@ func (rp *rep) runUsersLean(t int64, k int, ahead bool) {
 			lg.n++
 			m := sir
 			if sigma > 0 {
-				m *= math.Exp(sigma * us.rng.NormFloat64())
+				m *= math.Exp(sigma * us.ctl.Norm())
 			}
 			var up uint8
 			if m < us.target {
 				up = 1
 			}
-			if cep > 0 && us.rng.Float64() < cep {
+			if cep > 0 && us.ctl.Float64() < cep {
 				up ^= 1
 			}
 			upAll &= up

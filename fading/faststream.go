@@ -5,29 +5,30 @@ import (
 	"math/bits"
 )
 
-// GaussStream is a stream of standard normal draws for hot loops (for
-// example the shadowing updates of every user of a multi-cell layout): the
+// FastStream is a random stream for hot loops (for example every user's
+// shadowing updates and control draws in a multi-cell layout): the
 // xoshiro256++ generator (Blackman & Vigna, "Scrambled linear pseudorandom
-// number generators", ACM Trans. Math. Softw. 47(4), 2021) feeding the
-// ziggurat method with 128 layers (Marsaglia & Tsang, "The ziggurat method
-// for generating random variables", J. Stat. Softw. 5(8), 2000). It is a
-// value (embed it, copy it into a local for a loop of draws): no interface
-// call and no pointer per draw. About half the cost of
-// rand.Rand.NormFloat64 on a PCG source (BenchmarkGaussStream).
+// number generators", ACM Trans. Math. Softw. 47(4), 2021), uniform draws
+// from its top 53 bits and normal draws by the ziggurat method with 128
+// layers (Marsaglia & Tsang, "The ziggurat method for generating random
+// variables", J. Stat. Softw. 5(8), 2000). It is a value (embed it, copy
+// it into a local for a loop of draws): no interface call and no pointer
+// per draw, unlike a rand.Rand (BenchmarkFastStream,
+// BenchmarkNormFloat64PCG).
 //
-// Draws are exactly N(0, 1) up to the 32-bit resolution of the ziggurat's
-// layer coordinate (steps of about 2e-9 near 0, as math/rand's
+// Normal draws are exactly N(0, 1) up to the 32-bit resolution of the
+// ziggurat's layer coordinate (steps of about 2e-9 near 0, as math/rand's
 // NormFloat64). Not safe for concurrent use.
-type GaussStream struct{ s0, s1, s2, s3 uint64 }
+type FastStream struct{ s0, s1, s2, s3 uint64 }
 
-// NewGaussStream returns the Gaussian stream of process (user, index, kind)
+// NewFastStream returns the stream of process (user, index, kind)
 // of a run seeded with seed: xoshiro256++ with its four state words from
 // the hash chain of NewStream (streamHash), so it is deterministic in its
 // arguments and independent of every other stream for all practical
 // purposes.
-func NewGaussStream(seed uint64, user, index int, kind StreamKind) GaussStream {
+func NewFastStream(seed uint64, user, index int, kind StreamKind) FastStream {
 	h := streamHash(seed, user, index, kind)
-	g := GaussStream{
+	g := FastStream{
 		s0: splitmix64(h ^ 0x2545f4914f6cdd1d),
 		s1: splitmix64(h ^ 0x9fb21c651e98df25),
 		s2: splitmix64(h ^ 0xd1342543de82ef95),
@@ -41,7 +42,7 @@ func NewGaussStream(seed uint64, user, index int, kind StreamKind) GaussStream {
 
 // Uint64 is the next xoshiro256++ output: rotl(s0 + s3, 23) + s0, then the
 // state's linear step (Blackman & Vigna 2021, xoshiro256plusplus.c).
-func (g *GaussStream) Uint64() uint64 {
+func (g *FastStream) Uint64() uint64 {
 	r := bits.RotateLeft64(g.s0+g.s3, 23) + g.s0
 	t := g.s1 << 17
 	g.s2 ^= g.s0
@@ -55,7 +56,7 @@ func (g *GaussStream) Uint64() uint64 {
 
 // Norm is the next standard normal draw (ziggurat: one Uint64 for about
 // 98.8 % of the draws, the wedges and the tail beyond zigR in norm).
-func (g *GaussStream) Norm() float64 {
+func (g *FastStream) Norm() float64 {
 	u := g.Uint64()
 	j := int32(u)       // signed layer coordinate
 	i := u >> 32 & 0x7f // layer
@@ -69,7 +70,7 @@ func (g *GaussStream) Norm() float64 {
 // norm finishes a draw that fell outside the rectangle of layer i: the
 // base layer's tail beyond zigR, or a layer's wedge; rejected points start
 // a new draw.
-func (g *GaussStream) norm(j int32, i uint64, x float64) float64 {
+func (g *FastStream) norm(j int32, i uint64, x float64) float64 {
 	for {
 		if i == 0 {
 			// Tail beyond zigR (Marsaglia 1964): x = −ln(U1)/r, y = −ln(U2),
@@ -99,8 +100,14 @@ func (g *GaussStream) norm(j int32, i uint64, x float64) float64 {
 	}
 }
 
+// Float64 is a uniform draw in [0, 1): the top 53 bits of Uint64 over
+// 2^53, as math/rand's Float64.
+func (g *FastStream) Float64() float64 {
+	return float64(g.Uint64()>>11) * (1.0 / (1 << 53))
+}
+
 // unit is a uniform draw in (0, 1]: 53 bits, never 0 (for the logarithms).
-func (g *GaussStream) unit() float64 {
+func (g *FastStream) unit() float64 {
 	return float64(g.Uint64()>>11+1) * (1.0 / (1 << 53))
 }
 
