@@ -144,7 +144,7 @@ func shadowedCell(exponent float64, seed uint64) Config {
 		Channel:   Channel{PathLossExponent: exponent, ShadowingDB: 8, SiteCorrelation: 0.5, FastFading: FastFadingNone},
 		Handover:  Handover{WindowDB: 6, MaxActive: 3},
 		OuterLoop: loop.OuterLoop{InitialTargetDB: 5},
-		Run:       RunSettings{Slots: 600, WarmupSlots: 300, Replications: 4, Seed: seed, Batches: 4},
+		Run:       RunSettings{Slots: 600, WarmupSlots: 300, Replications: 16, Seed: seed, Batches: 4},
 	}
 }
 
