@@ -157,7 +157,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		pPrev[u] = pu
 		bestSIR := 0.0
 		upAll := uint8(1) // 1 while every leg says up (no branch per leg)
-		anyOK := false
+		anyOK := uint8(0) // 1 once a leg's block is received
 		for _, l := range us.act[:us.nLegs] {
 			lg := &us.leg[l]
 			c := int(lg.c)
@@ -195,9 +195,12 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
 				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
 				bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
+				// The block result is a coin flip: set without a branch.
+				var ok uint8
 				if us.ctl.Float64() >= bler {
-					anyOK = true
+					ok = 1
 				}
+				anyOK |= ok
 				lg.acc, lg.n = 0, 0
 			}
 		}
@@ -212,14 +215,14 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			}
 			if blockEnd {
 				fl |= recBlockEnd
-				if !anyOK {
+				if anyOK == 0 {
 					fl |= recBlockErr
 				}
 			}
 			recFlags[u] = fl
 		}
 		if blockEnd {
-			blockErr := !anyOK
+			blockErr := anyOK == 0
 			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
 				if blockErr {
 					us.targetDB += ol.UpStepDB
