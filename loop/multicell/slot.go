@@ -54,11 +54,7 @@ func (rp *rep) slot(t int64, k int) {
 		clear(rp.corrNext)
 	}
 	clear(rp.own)
-	if rp.leanSlot(t) {
-		rp.runUsersLean(t, k, ahead)
-	} else {
-		rp.runUsers(t, k, ahead)
-	}
+	rp.runUsers(t, k, ahead)
 	rp.corr, rp.corrNext = rp.corrNext, rp.corr
 	rp.corrReady = ahead
 	if t >= rp.cfg.Run.WarmupSlots {
@@ -119,35 +115,44 @@ func (rp *rep) updateSums() {
 }
 
 // runUsers runs slot t for every user: SIR per leg, commands combined by the
-// up-only-if-all-up rule, the block result and outer loop, the power of
-// the next slot (pCur; pPrev keeps this slot's) and, when ahead, the next
-// slot's leg corrections (corrNext).
+// up-only-if-all-up rule, the block result and outer loop (at block ends,
+// blockResult and outerLoop), the power of the next slot (pCur; pPrev
+// keeps this slot's) and, when ahead, the next slot's leg corrections
+// (corrNext).
+//
+// The loop over users is the hot path: what most slots never do (block
+// ends) is in methods of its own, and the branches left on the
+// configuration (mode, FULL fading, estimation and command errors) go the
+// same way for every user, so they cost no mispredictions.
 func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	rx, own, corrNext := rp.rx, rp.own, rp.corrNext
 	measure := t >= rp.cfg.Run.WarmupSlots
-	il := rp.cfg.InnerLoop
-	ol := rp.cfg.OuterLoop
+	il := &rp.cfg.InnerLoop
 	sigma := il.SIREstimationErrorDB * math.Ln10 / 10
-	blockEnd := (t+1)%int64(ol.BlockSlots) == 0
+	cep := il.CommandErrorProb
+	blockEnd := (t+1)%int64(rp.cfg.OuterLoop.BlockSlots) == 0
 	closed := il.Mode == InnerModeClosedLoop
+	openLoop := rp.cfg.OpenLoop.Enabled
 	// The delay line's slot (every user's line has the same length).
 	d := il.FeedbackDelaySlots + 1
 	di := int(t % int64(d))
+	started := t >= int64(d) // the delay line holds commands
 	ups, downs := 0, 0
-	var fk []float64 // this slot's leg gains (SLOW_TOWARD_OTHERS)
+	A := rp.legsPerUser
+	var fk, fNext []float64 // this slot's and the next slot's leg gains (SLOW_TOWARD_OTHERS)
 	if rp.fade != nil {
 		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
+		if ahead {
+			fNext = rp.fade[(k+1)*rp.fadeStride : (k+2)*rp.fadeStride]
+		}
 	}
-	A := rp.legsPerUser
 	rec := rp.rec
 	pAtMax := rp.pmax * (1 - 1e-12) // at max: within rounding of the limit
 	// Loop invariants in locals (the stores below go through pointers).
 	pg, noise, full, U := rp.pg, rp.noiseMW, rp.full, rp.U
-	pPrev, pCur, cmds := rp.pPrev[:U], rp.pCur[:U], rp.cmds
+	pPrev, pCur, cmds := rp.pPrev[:U], rp.pCur[:U], rp.cmds[:U*d]
 	recSIR, recPDB, recTDB, recFlags := rec.sir[k*U:(k+1)*U], rec.pDB[k*U:(k+1)*U], rec.targetDB[k*U:(k+1)*U], rec.flags[k*U:(k+1)*U]
 	marginLin := rp.marginLin
-	openLoop := rp.cfg.OpenLoop.Enabled
-	cep := il.CommandErrorProb
 	lin, lim, limDB := rp.stepTables()
 	stepDB := il.StepDB
 	users := rp.users[:U]
@@ -157,7 +162,6 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		pPrev[u] = pu
 		bestSIR := 0.0
 		upAll := uint8(1) // 1 while every leg says up (no branch per leg)
-		anyOK := uint8(0) // 1 once a leg's block is received
 		for _, l := range us.act[:us.nLegs] {
 			lg := &us.leg[l]
 			c := int(lg.c)
@@ -171,8 +175,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			if c == int(us.best) {
 				own[c] += sig
 			}
-			sir := pg * sig / max(rx[c]-sig, noise)
-			bestSIR = max(bestSIR, sir)
+			sir := pg * sig / fmax(rx[c]-sig, noise)
+			bestSIR = fmax(bestSIR, sir)
 			lg.acc += sir
 			lg.n++
 			if closed {
@@ -189,56 +193,31 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 				}
 				upAll &= up
 			}
-			if blockEnd {
-				mean := lg.acc / float64(lg.n)
-				// Link curve 1/(1 + e^z), z = (SIR dB − threshold)/slope;
-				// e^z = 10^(z·10/ln 10 / 10) by linFromDB.
-				z := (linToDB(mean) - rp.cfg.Link.ThresholdDB) / rp.cfg.Link.SlopeDB
-				bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
-				// The block result is a coin flip: set without a branch.
-				var ok uint8
-				if us.ctl.Float64() >= bler {
-					ok = 1
-				}
-				anyOK |= ok
-				lg.acc, lg.n = 0, 0
-			}
+		}
+		var blockFlags uint8
+		if blockEnd {
+			blockFlags = rp.blockResult(us)
 		}
 		if measure {
 			recSIR[u], recPDB[u], recTDB[u] = bestSIR, us.pDB, us.targetDB
-			var fl uint8
+			fl := blockFlags
 			if bestSIR < us.target*marginLin {
 				fl |= recOutage
 			}
 			if pu >= pAtMax {
 				fl |= recAtMax
 			}
-			if blockEnd {
-				fl |= recBlockEnd
-				if anyOK == 0 {
-					fl |= recBlockErr
-				}
-			}
 			recFlags[u] = fl
 		}
 		if blockEnd {
-			blockErr := anyOK == 0
-			if ol.Enabled && !(ol.FreezeAtMaxPower && pu >= rp.pmax) {
-				if blockErr {
-					us.targetDB += ol.UpStepDB
-				} else {
-					us.targetDB -= ol.UpStepDB * ol.BLERTarget / (1 - ol.BLERTarget)
-				}
-				us.setTarget(math.Min(ol.MaxTargetDB, math.Max(ol.MinTargetDB, us.targetDB)))
-			}
+			rp.outerLoop(us, pu, blockFlags&recBlockErr != 0)
 		}
 		// Power of the next slot.
-		switch il.Mode {
-		case InnerModeIdeal:
+		if !closed { // ideal
 			if bestSIR > 0 {
 				us.setP(rp.clamp(us.p * us.target / bestSIR))
 			}
-		default:
+		} else {
 			// The command is a coin flip slot to slot: no branch on it
 			// (nor on it below), only arithmetic.
 			cmd := 2*int8(upAll) - 1
@@ -246,7 +225,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			cmds[u*d+di] = cmd
 			if d == 1 {
 				applied = cmd
-			} else if t < int64(d) {
+			} else if !started {
 				applied = 0
 			}
 			if openLoop {
@@ -258,11 +237,55 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
 		}
 		pCur[u] = us.p
-		if ahead && fk != nil {
-			us.addLegCorrections(corrNext, rp.fade[(k+1)*rp.fadeStride+u*rp.legsPerUser:])
+		if fNext != nil {
+			us.addLegCorrections(corrNext, fNext[u*A:u*A+A])
 		}
 	}
 	rp.ups, rp.downs = ups, downs
+}
+
+// blockResult ends the user's outer-loop block on every leg: the block is
+// received on a leg with probability 1 − BLER(mean SIR of the block), by
+// the link curve BLER = 1/(1 + e^z), z = (SIR dB − threshold)/slope
+// (e^z = 10^(z·10/ln 10 / 10) by linFromDB), one draw per leg in leg
+// order; selection combining: a block error when no leg received it. It
+// returns recBlockEnd, with recBlockErr on a block error, and clears the
+// legs' accumulators.
+func (rp *rep) blockResult(us *user) uint8 {
+	thr, slope := rp.cfg.Link.ThresholdDB, rp.cfg.Link.SlopeDB
+	anyOK := uint8(0)
+	for _, l := range us.act[:us.nLegs] {
+		lg := &us.leg[l]
+		mean := lg.acc / float64(lg.n)
+		z := (linToDB(mean) - thr) / slope
+		bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
+		// The block result is a coin flip: set without a branch.
+		var ok uint8
+		if us.ctl.Float64() >= bler {
+			ok = 1
+		}
+		anyOK |= ok
+		lg.acc, lg.n = 0, 0
+	}
+	return recBlockEnd | recBlockErr*(1-anyOK)
+}
+
+// outerLoop moves the user's SIR target after a block (pu: the power it
+// was sent with): up by up_step_db after a block error, down by
+// up_step_db·BLER_target/(1 − BLER_target) otherwise (the jump algorithm,
+// whose fixed point is the BLER target), within [min_target_db,
+// max_target_db], frozen at max power when so configured.
+func (rp *rep) outerLoop(us *user, pu float64, blockErr bool) {
+	ol := &rp.cfg.OuterLoop
+	if !ol.Enabled || ol.FreezeAtMaxPower && pu >= rp.pmax {
+		return
+	}
+	if blockErr {
+		us.targetDB += ol.UpStepDB
+	} else {
+		us.targetDB -= ol.UpStepDB * ol.BLERTarget / (1 - ol.BLERTarget)
+	}
+	us.setTarget(math.Min(ol.MaxTargetDB, math.Max(ol.MinTargetDB, us.targetDB)))
 }
 
 // openLoopStep applies a closed-loop command on top of the open loop: the
