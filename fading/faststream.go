@@ -67,6 +67,24 @@ func (g *FastStream) Norm() float64 {
 	return g.norm(j, i, x)
 }
 
+// NormFill fills dst with standard normal draws: the values of len(dst)
+// calls of Norm, in order, with the stream's state kept in registers for
+// the loop (no call per draw on the common path).
+func (g *FastStream) NormFill(dst []float64) {
+	st := *g
+	for i := range dst {
+		u := st.Uint64()
+		j := int32(u)
+		l := u >> 32 & 0x7f
+		x := float64(j) * zigW[l]
+		if absInt32(j) >= zigK[l] {
+			x = st.norm(j, l, x)
+		}
+		dst[i] = x
+	}
+	*g = st
+}
+
 // norm finishes a draw that fell outside the rectangle of layer i: the
 // base layer's tail beyond zigR, or a layer's wedge; rejected points start
 // a new draw.

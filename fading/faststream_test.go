@@ -127,6 +127,22 @@ func TestFastStreamDeterministic(t *testing.T) {
 	}
 }
 
+// TestNormFillMatchesNorm: NormFill gives the draws of repeated Norm calls
+// (including the ziggurat's wedge and tail draws: 1e5 draws reach both).
+func TestNormFillMatchesNorm(t *testing.T) {
+	a, b := NewFastStream(3, 1, 4, StreamShadowing), NewFastStream(3, 1, 4, StreamShadowing)
+	buf := make([]float64, 1000)
+	for round := 0; round < 100; round++ {
+		n := 1 + round*7%1000
+		a.NormFill(buf[:n])
+		for i, x := range buf[:n] {
+			if y := b.Norm(); math.Float64bits(x) != math.Float64bits(y) {
+				t.Fatalf("round %d draw %d: NormFill %v, Norm %v", round, i, x, y)
+			}
+		}
+	}
+}
+
 func BenchmarkFastStream(b *testing.B) {
 	g := NewFastStream(1, 0, 0, StreamShadowing)
 	s := 0.0

@@ -58,6 +58,23 @@ func linFromDB(x float64) float64 {
 	return (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(i-1024+1023)<<52)
 }
 
+// linFromDBInPlace replaces every x[i] by linFromDB(x[i]) (the same bits),
+// in one loop without a call per element.
+func linFromDBInPlace(x []float64) {
+	for i, v := range x {
+		if !(v > -3000 && v < 3000) {
+			x[i] = dbToLin(v)
+			continue
+		}
+		yp := v*log2of10over10 + 1024
+		e := int64(yp)
+		f := (yp - float64(e)) * (1 << linToDBBits)
+		j := int(f)
+		lo, hi := exp2Table[j], exp2Table[j+1]
+		x[i] = (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(e-1024+1023)<<52)
+	}
+}
+
 // log2of10over10 is log2(10)/10.
 const log2of10over10 = 0.33219280948873623479
 

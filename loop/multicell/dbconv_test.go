@@ -60,3 +60,21 @@ func TestLinFromDB(t *testing.T) {
 		t.Errorf("linFromDB(-4000) = %g, want dbToLin's %g", got, dbToLin(-4000))
 	}
 }
+
+// TestLinFromDBInPlace: the batch conversion gives linFromDB's bits, inside
+// and outside the table's range and for NaN.
+func TestLinFromDBInPlace(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 6))
+	xs := []float64{-4000, 4000, math.NaN(), math.Inf(-1), 0, -2999.9, 2999.9}
+	for i := 0; i < 10000; i++ {
+		xs = append(xs, -400+800*r.Float64())
+	}
+	got := append([]float64(nil), xs...)
+	linFromDBInPlace(got)
+	for i, x := range xs {
+		want := linFromDB(x)
+		if math.Float64bits(got[i]) != math.Float64bits(want) && !(math.IsNaN(got[i]) && math.IsNaN(want)) {
+			t.Fatalf("x = %v: %v, linFromDB %v", x, got[i], want)
+		}
+	}
+}

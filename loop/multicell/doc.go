@@ -24,7 +24,10 @@
 // and ToLoopReport returns the report as a loop.Report with its Layout
 // section and the common figures filled.
 //
-// The package is pure Go (fading, loop, gonum); it never imports grpc or
-// generated code. Every draw comes from fading.NewStream streams derived
-// from the seed, so a report is identical whatever GOMAXPROCS is.
+// The package imports only fading, loop, gonum and golang.org/x/sys/cpu,
+// never grpc or generated code; its one assembly kernel (rows_amd64.s, the
+// cell-sum row update) does the Go code's operations in the same order
+// (TestAddScaledAVXMatchesGo; -tags purego builds without it). Every draw
+// comes from streams derived from the seed (fading.NewStream,
+// fading.NewFastStream), so a report is identical whatever GOMAXPROCS is.
 package multicell

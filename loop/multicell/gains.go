@@ -26,25 +26,33 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
 			w := math.Sqrt(1 - k*k)
-			sh := us.sh // in registers for the user's draws
-			us.shadowA = k*us.shadowA + w*sh.Norm()
+			var draws [maxSites + 1]float64 // the common part's, then each site's
+			nd := draws[:1+len(us.shadowB)]
+			us.sh.NormFill(nd)
+			us.shadowA = k*us.shadowA + w*nd[0]
 			for s := range us.shadowB {
-				us.shadowB[s] = k*us.shadowB[s] + w*sh.Norm()
+				us.shadowB[s] = k*us.shadowB[s] + w*nd[s+1]
 			}
-			us.sh = sh
 		}
 		common := rp.shadowSD * a * us.shadowA
 		sdB := rp.shadowSD * b
 		for s := range us.siteLin {
-			us.siteLin[s] = linFromDB(us.pathDB[s] + common + sdB*us.shadowB[s])
+			us.siteLin[s] = us.pathDB[s] + common + sdB*us.shadowB[s]
 		}
+		linFromDBInPlace(us.siteLin)
 		// Cells are site-major (cell site·S + sector, newGeometry).
 		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]
-		S := C / len(us.siteLin)
-		for s, g := range us.siteLin {
-			for c := s * S; c < (s+1)*S; c++ {
-				row[c] = g * ant[c]
+		if S := C / len(us.siteLin); S == 3 {
+			for s, g := range us.siteLin {
+				r, a := row[3*s:3*s+3], ant[3*s:3*s+3]
+				r[0], r[1], r[2] = g*a[0], g*a[1], g*a[2]
+			}
+		} else {
+			for s, g := range us.siteLin {
+				for c := s * S; c < (s+1)*S; c++ {
+					row[c] = g * ant[c]
+				}
 			}
 		}
 	}
@@ -64,10 +72,11 @@ func (rp *rep) afterGains(t int64) {
 }
 
 // refreshLegs copies the slow gains of the user's legs from its row of
-// slow and lists the leg slots in use (act, ascending).
+// slow and lists the leg slots in use (act, ascending). Only the first
+// max_active leg slots are ever used (updateActiveSets).
 func (rp *rep) refreshLegs(us *user, row []float64) {
 	n := 0
-	for l, c := range us.legs {
+	for l, c := range us.legs[:rp.cfg.Handover.MaxActive] {
 		if c >= 0 {
 			us.leg[l].c, us.leg[l].g = c, row[c]
 			us.act[n] = int8(l)

@@ -173,3 +173,6 @@ func (l Layout) CellName(c int) string {
 
 // Cells is the number of cells of the layout.
 func (l Layout) Cells() int { return l.Sites * l.SectorsPerSite }
+
+// maxSites is the largest layout (Sites is 1, 7 or 19).
+const maxSites = 19
