@@ -22,6 +22,27 @@ func linToDB(x float64) float64 {
 	return (float64(exp-1023) + lo + f*(hi-lo)) * db10Log2
 }
 
+// linToDBFloorTo sets dst[i] = linToDB(max(src[i], floor)) for every i
+// (the same bits; floor > 0), in one loop without a call per element.
+func linToDBFloorTo(dst, src []float64, floor float64) {
+	dst = dst[:len(src)]
+	const fracBits = 52 - linToDBBits
+	for i, x := range src {
+		x = fmax(x, floor)
+		bits := math.Float64bits(x)
+		exp := int(bits>>52) & 0x7ff
+		if exp == 0 || exp == 0x7ff || bits>>63 != 0 {
+			dst[i] = 10 * math.Log10(x)
+			continue
+		}
+		m := bits & (1<<52 - 1)
+		j := m >> fracBits
+		f := float64(m&(1<<fracBits-1)) * (1.0 / (1 << fracBits))
+		lo, hi := log2Table[j], log2Table[j+1]
+		dst[i] = (float64(exp-1023) + lo + f*(hi-lo)) * db10Log2
+	}
+}
+
 // linToDBBits is the table resolution of linToDB (mantissa bits).
 const linToDBBits = 10
 

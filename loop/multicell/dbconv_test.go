@@ -78,3 +78,22 @@ func TestLinFromDBInPlace(t *testing.T) {
 		}
 	}
 }
+
+// TestLinToDBFloorTo: the batch conversion gives linToDB(max(x, floor))'s
+// bits, including below the floor, at zero and for subnormal, infinite and
+// NaN values.
+func TestLinToDBFloorTo(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 8))
+	xs := []float64{0, 1e-40, 1e-30, math.SmallestNonzeroFloat64, math.Inf(1), math.NaN(), 1, 2, 0.5}
+	for i := 0; i < 10000; i++ {
+		xs = append(xs, math.Pow(10, -35+70*r.Float64()))
+	}
+	got := make([]float64, len(xs))
+	linToDBFloorTo(got, xs, 1e-30)
+	for i, x := range xs {
+		want := linToDB(fmax(x, 1e-30))
+		if math.Float64bits(got[i]) != math.Float64bits(want) && !(math.IsNaN(got[i]) && math.IsNaN(want)) {
+			t.Fatalf("x = %v: %v, linToDB %v", x, got[i], want)
+		}
+	}
+}

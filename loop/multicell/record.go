@@ -81,11 +81,13 @@ func (c *collector) addBlock(rp *rep, r *blockRec) {
 func (c *collector) users1(rp *rep, r *blockRec, i int) {
 	U := rp.U
 	sir, pDB, tDB, flags := r.sir[i:i+U], r.pDB[i:i+U], r.targetDB[i:i+U], r.flags[i:i+U]
+	sirDB := c.sirDB[:U]
+	linToDBFloorTo(sirDB, sir, 1e-30)
 	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
 	var legN, legOut, legMx [LegStates]float64
 	b := &c.batches[c.cur]
 	edges := rp.edge[:U]
-	for u, s := range sir {
+	for u, sDB := range sirDB {
 		// 0/1 values from the flags, without branches.
 		f := flags[u]
 		o := float64(f & recOutage)
@@ -94,7 +96,7 @@ func (c *collector) users1(rp *rep, r *blockRec, i int) {
 		blockErrs += float64((f & recBlockErr) >> 3)
 		nl := int(r.nLegs[u])
 		li := min(nl, LegStates) - 1
-		e := linToDB(fmax(s, 1e-30)) - tDB[u]
+		e := sDB - tDB[u]
 		out += o
 		mx += m
 		edge += edges[u]

@@ -66,13 +66,14 @@ type collector struct {
 	riseBatch []uint32   // the current batch's noise rise over every cell, dB
 	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
 	users     []userAcc  // replication 0 only
+	sirDB     []float64  // users1's scratch: one slot's combined SIR per user, dB
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
 
 func newCollector(rp *rep, r int) *collector {
 	nb := rp.cfg.Run.Batches
-	c := &collector{batches: make([]sums, nb)}
+	c := &collector{batches: make([]sums, nb), sirDB: make([]float64, rp.U)}
 	for i := range c.batches {
 		c.batches[i] = newSums(rp.C)
 	}
