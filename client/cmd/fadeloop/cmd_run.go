@@ -80,7 +80,7 @@ func (o *scenarioOverrides) register(fs *flag.FlagSet) {
 // registerSlotsSeed binds --slots and --seed only (tune and capacity: their
 // budget decides the replications).
 func (o *scenarioOverrides) registerSlotsSeed(fs *flag.FlagSet) {
-	fs.Int64Var(&o.slots, "slots", 0, "run `N` slots per replication instead of the file's run length (0: keep)")
+	fs.Int64Var(&o.slots, "slots", 0, "run `N` slots per replication, warm-up included, instead of the file's run length; a warm-up of N/2 or more becomes N/5 (0: keep)")
 	fs.Func("seed", "use seed `N` instead of the file's run.seed", func(s string) error {
 		v, err := strconv.ParseUint(s, 10, 64)
 		if err != nil {
