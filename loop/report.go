@@ -364,6 +364,9 @@ func (sh *shared) report(results []*repResult) *Report {
 		}
 	}
 	rep.Feasibility = sh.feasibility(results, rep)
+	if note := sh.sc.OuterLoop.WarmupNote(sh.warm); note != "" {
+		rep.Notes = append(rep.Notes, note)
+	}
 	var uo int64
 	for _, r := range results {
 		uo += r.underOver

@@ -1,6 +1,7 @@
 package loop
 
 import (
+	"fmt"
 	"math"
 	"strings"
 )
@@ -126,6 +127,23 @@ type OuterLoop struct {
 	MaxTargetDB      float64 `json:"max_target_db"`       // highest target in dB; both 0 means [−10, 30]
 	InitialTargetDB  float64 `json:"initial_target_db"`   // start (or fixed) SIR target in dB, [−30, 50]
 	FreezeAtMaxPower bool    `json:"freeze_at_max_power"` // hold the target while the user is at maximum power
+}
+
+// WarmupNote is the report note for a run whose warm-up (warmupSlots) is
+// shorter than one expected block error per user at the BLER target,
+// block_slots/bler_target slots — the jump rule moves the target up once
+// per block error, so before the first the target has only drifted down
+// from its initial value (common practice: warm up for at least that
+// long). "" when the outer loop is off or the warm-up is long enough.
+func (o OuterLoop) WarmupNote(warmupSlots int64) string {
+	if !o.Enabled || !(o.BLERTarget > 0) || o.BlockSlots <= 0 {
+		return ""
+	}
+	need := int64(math.Ceil(float64(o.BlockSlots) / o.BLERTarget))
+	if warmupSlots >= need {
+		return ""
+	}
+	return fmt.Sprintf("warm-up of %d slots is shorter than one expected block error per user at the BLER target (block_slots/bler_target = %d slots): the outer loop had not settled when measuring began, so the achieved BLER and the SIR figures include its start-up; set run.warmup_slots to %d or more", warmupSlots, need, need)
 }
 
 // LinkPoint is one point of a tabulated link curve.

@@ -214,6 +214,9 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 		// none (merge; coverage in coverage_test.go).
 		notes = append(notes, r.intervalNote)
 	}
+	if note := sc.OuterLoop.WarmupNote(sc.Run.WarmupSlots); note != "" {
+		notes = append(notes, note)
+	}
 	notes = append(notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
 	return &loop.Report{
 		Aggregate:          agg,
