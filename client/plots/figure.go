@@ -6,8 +6,9 @@
 //
 // Every figure is drawn on a 1200 × 800 pixel canvas (900 × 600 pt at
 // 96 dpi) with axis labels that carry units, a legend where there is more
-// than one series, and fonts sized to be read at that size. Save picks the
-// format from the file extension (.png or .svg).
+// than one series, and fonts sized to be read at that size; a title wider
+// than its panel is wrapped onto more lines. Save picks the format from the
+// file extension (.png or .svg).
 package plots
 
 import (
@@ -125,9 +126,10 @@ func (f *Figure) draw(dc draw.Canvas) {
 	multi := len(f.panels) > 1 || (len(f.panels) == 1 && len(f.panels[0]) > 1)
 	if multi && f.Title != "" {
 		sty := titleStyle()
-		h := sty.Height(f.Title)
+		title := wrapText(sty, f.Title, area.Max.X-area.Min.X)
+		h := sty.Height(title)
 		pt := vg.Point{X: (area.Min.X + area.Max.X) / 2, Y: area.Max.Y - h}
-		area.FillText(sty, pt, f.Title)
+		area.FillText(sty, pt, title)
 		area.Max.Y -= h + pad
 	}
 	if f.side != nil {
@@ -135,6 +137,9 @@ func (f *Figure) draw(dc draw.Canvas) {
 		side := area
 		side.Min.X = area.Max.X - sideW
 		area.Max.X -= sideW + pad
+		if restore := fitTitle(f.side, sideW); restore != nil {
+			defer restore()
+		}
 		f.side.Draw(side)
 	}
 	rows := len(f.panels)
@@ -151,7 +156,25 @@ func (f *Figure) draw(dc draw.Canvas) {
 		grid[i] = make([]*plot.Plot, cols)
 		copy(grid[i], f.panels[i])
 	}
+	// A panel title wider than its canvas is wrapped (titles.go); the
+	// panels are then aligned again for the taller titles. The figure keeps
+	// its titles for the next Encode.
 	canvases := plot.Align(grid, tiles, area)
+	wrapped := false
+	for i := range grid {
+		for j, p := range grid[i] {
+			if p == nil {
+				continue
+			}
+			if restore := fitTitle(p, canvases[i][j].Max.X-canvases[i][j].Min.X); restore != nil {
+				defer restore()
+				wrapped = true
+			}
+		}
+	}
+	if wrapped {
+		canvases = plot.Align(grid, tiles, area)
+	}
 	for i := range grid {
 		for j, p := range grid[i] {
 			if p != nil {

@@ -178,7 +178,12 @@ type Result struct {
 	Status string       `json:"status"` // StatusDone or StatusFailed
 	Error  string       `json:"error,omitempty"`
 	Report *loop.Report `json:"report,omitempty"`
-	// Attempts is the delivery that produced the result (1 on the first).
+	// Attempts is the delivery that produced the result (1 on the first):
+	// JetStream's delivery count of the unit. It counts the deliveries the
+	// NATS server remembers; a server restarted while a delivery was still
+	// unacknowledged may not (nats-server 2.9.10 has been seen to deliver
+	// such a unit again as a first delivery), so after a server restart it
+	// can be lower than the number of workers that started the unit.
 	Attempts int `json:"attempts"`
 	// Worker names the worker that stored the result.
 	Worker string `json:"worker"`
