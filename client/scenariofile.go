@@ -63,6 +63,18 @@ func (e *ScenarioFileError) Error() string {
 	return b.String()
 }
 
+// Annotate appends note to the rule of every violation whose path starts
+// with pathPrefix (for example the run settings a command-line flag
+// replaced, so the message does not send the reader to the file's line
+// alone).
+func (e *ScenarioFileError) Annotate(pathPrefix, note string) {
+	for i := range e.Violations {
+		if strings.HasPrefix(e.Violations[i].Path, pathPrefix) {
+			e.Violations[i].Rule += " " + note
+		}
+	}
+}
+
 // SourceFile records the line of every field path of a parsed file, so
 // that the server's field violations can be shown at their line.
 type SourceFile struct {

@@ -392,6 +392,16 @@ func TestBadInputExitCodes(t *testing.T) {
 			t.Errorf("stderr lacks %q:\n%s", want, r.stderr)
 		}
 	}
+	if want := "fadeloop run: 2 problem(s) in "; !strings.Contains(r.stderr, want) {
+		t.Errorf("stderr lacks %q:\n%s", want, r.stderr)
+	}
+	// A run setting that a flag replaced is named as the flag's doing, not
+	// the file's alone.
+	good := write("good.yaml", string(src))
+	r = fl(t, "run", good, "--slots", "5")
+	if want := regexp.MustCompile(`good\.yaml:\d+: run\.[a-z_]+: .*\(run settings after --slots 5\)`); r.code != exitBadInput || !want.MatchString(r.stderr) {
+		t.Errorf("--slots 5: exit %d, want 2 and a run.* violation naming the flag:\n%s", r.code, r.stderr)
+	}
 	// The same in JSON.
 	js := write("bad.json", `{"name": "x", "groups": [{"count": 2, "speeds": [{"speed_kmh": 3, "weight": 1}], "profil": "EPA"}]}`)
 	r = fl(t, "run", js)

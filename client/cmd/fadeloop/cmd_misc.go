@@ -129,7 +129,7 @@ func runBench(e *env, fs *flag.FlagSet) action {
 			rep, err := cl.Simulate(ctx, &pb.SimulateRequest{Scenario: sc}, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
 			prog.done()
 			if err != nil {
-				return locate(sf, "scenario", err)
+				return locate(sf, "scenario", &ov, err)
 			}
 			if i == 0 {
 				if taps, err = tapsPerUser(rep); err != nil {

@@ -139,12 +139,36 @@ func loadScenario(args []string) (*client.ScenarioFile, error) {
 }
 
 // locate turns the server's field violations into file lines when the
-// request carried the file's scenario under prefix.
-func locate(sf *client.ScenarioFile, prefix string, err error) error {
+// request carried the file's scenario under prefix; violations of run
+// settings that flags replaced (ov) say so.
+func locate(sf *client.ScenarioFile, prefix string, ov *scenarioOverrides, err error) error {
 	if inv, ok := client.AsInvalidInput(err); ok && sf != nil && len(inv.Violations) > 0 {
-		return sf.Locate(prefix, inv.Violations)
+		e := sf.Locate(prefix, inv.Violations)
+		if flags := ov.flags(); flags != "" {
+			e.Annotate("run.", "(run settings after "+flags+")")
+		}
+		return e
 	}
 	return err
+}
+
+// flags lists the overrides given, as typed ("--slots 5 --replications 2"),
+// "" when none.
+func (o *scenarioOverrides) flags() string {
+	if o == nil {
+		return ""
+	}
+	var f []string
+	if o.slots > 0 {
+		f = append(f, fmt.Sprintf("--slots %d", o.slots))
+	}
+	if o.replications > 0 {
+		f = append(f, fmt.Sprintf("--replications %d", o.replications))
+	}
+	if o.seedSet {
+		f = append(f, fmt.Sprintf("--seed %d", o.seed))
+	}
+	return strings.Join(f, " ")
 }
 
 func runRun(e *env, fs *flag.FlagSet) action {
@@ -206,7 +230,7 @@ func runRun(e *env, fs *flag.FlagSet) action {
 		rep, err := cl.Simulate(ctx, req, func(p *pb.Progress) { prog.update(p.GetFractionDone(), p.GetUserSlotsPerS()) })
 		prog.done()
 		if err != nil {
-			return locate(sf, "scenario", err)
+			return locate(sf, "scenario", &ov, err)
 		}
 		err = e.emit(out, rep, func(w io.Writer) error { return render.RunCSV(w, rep) },
 			func(w io.Writer) { render.RunTable(w, rep, *perUser) })

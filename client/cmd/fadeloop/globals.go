@@ -190,7 +190,7 @@ func report(stderr io.Writer, cmd string, err error) int {
 	var sfe *client.ScenarioFileError
 	if errors.As(err, &sfe) {
 		fmt.Fprintln(stderr, sfe.Error())
-		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", cmd, len(sfe.Violations), sfe.File)
+		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", prefix, len(sfe.Violations), sfe.File)
 		return exitBadInput
 	}
 	if inv, ok := client.AsInvalidInput(err); ok {
@@ -200,7 +200,7 @@ func report(stderr io.Writer, cmd string, err error) int {
 		if len(inv.Violations) == 0 {
 			fmt.Fprintln(stderr, inv.Message)
 		}
-		fmt.Fprintf(stderr, "%s: the server rejected the request\n", prefix)
+		fmt.Fprintf(stderr, "%s: the request is not valid (%d problem(s))\n", prefix, max(1, len(inv.Violations)))
 		return exitBadInput
 	}
 	var bi badInput
