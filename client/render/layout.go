@@ -180,8 +180,9 @@ func notesPrinted(rep *pb.RunReport) bool {
 }
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:
-// the cells with their sites and boresights and every user of replication
-// 0 coloured by its outage in % (power false) or its mean Tx power in dBm.
+// the cells with their names, sites and boresights, the group names, and
+// every user of replication 0 with its group, coloured by its outage in %
+// (power false) or its mean Tx power in dBm.
 func LayoutMapData(rep *pb.RunReport, power bool) (plots.LayoutMapData, error) {
 	l := rep.GetLayout()
 	if l == nil {
@@ -198,12 +199,19 @@ func LayoutMapData(rep *pb.RunReport, power bool) (plots.LayoutMapData, error) {
 		f = MustFigure("tx_power_mean_dbm")
 	}
 	d.ValueLabel = f.Label
+	for i, g := range rep.GetNormalisedScenario().GetGroups() {
+		name := g.GetName()
+		if name == "" {
+			name = fmt.Sprintf("group %d", i)
+		}
+		d.GroupNames = append(d.GroupNames, name)
+	}
 	for _, u := range l.GetUserPoints() {
 		v := f.Scale * u.GetOutageProbability()
 		if power {
 			v = f.Scale * u.GetTxPowerMeanDbm()
 		}
-		d.Users = append(d.Users, plots.MapUser{XM: u.GetXM(), YM: u.GetYM(), Value: v})
+		d.Users = append(d.Users, plots.MapUser{XM: u.GetXM(), YM: u.GetYM(), Group: int(u.GetGroup()), Value: v})
 	}
 	return d, nil
 }

@@ -116,3 +116,25 @@ func TestLayoutHeaderWords(t *testing.T) {
 		t.Errorf("single-cell LayoutHeader = %q", got)
 	}
 }
+
+// TestLayoutMapDataGroups: the map data carries each user's group and the
+// scenario's group names (the map's legend), and the cell names of the
+// per-cell table.
+func TestLayoutMapDataGroups(t *testing.T) {
+	rep := layoutReport(false)
+	rep.NormalisedScenario.Groups = []*pb.UserGroup{{Name: "walkers"}, {}}
+	rep.Layout.UserPoints = []*pb.LayoutUserPoint{{XM: 1, YM: 2, Group: 1, OutageProbability: 0.2}, {Group: 0, OutageProbability: 0.05}}
+	d, err := LayoutMapData(rep, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(d.GroupNames) != 2 || d.GroupNames[0] != "walkers" || d.GroupNames[1] != "group 1" {
+		t.Errorf("group names %q", d.GroupNames)
+	}
+	if len(d.Users) != 2 || d.Users[0].Group != 1 || d.Users[1].Group != 0 || math.Abs(d.Users[0].Value-20) > 1e-12 {
+		t.Errorf("users %+v", d.Users)
+	}
+	if len(d.Cells) != 1 || d.Cells[0].Name != "S0/0" {
+		t.Errorf("cells %+v", d.Cells)
+	}
+}
