@@ -283,7 +283,14 @@ func LayoutMap(title string, d LayoutMapData) (*Figure, error) {
 	st.Color = color.Black
 	st.Radius = vg.Points(6)
 	p.Add(st)
-	p.legend("site (lines: sector boresights)", st)
+	siteLabel := "site"
+	for _, c := range d.Cells {
+		if c.Sector {
+			siteLabel = "site (lines: sector boresights)"
+			break
+		}
+	}
+	p.legend(siteLabel, st)
 	p.Add(labels)
 
 	// The layout with a margin and room at the top for the legend; the
