@@ -58,6 +58,7 @@ type Figure struct {
 	Title  string
 	panels [][]*plot.Plot
 	side   *plot.Plot
+	equal  bool // one data unit as long on x as on y in every panel (a map)
 }
 
 // ErrFormat is returned for a file extension other than .png or .svg.
@@ -178,6 +179,9 @@ func (f *Figure) draw(dc draw.Canvas) {
 	for i := range grid {
 		for j, p := range grid[i] {
 			if p != nil {
+				if f.equal {
+					equalScales(p, canvases[i][j])
+				}
 				p.Draw(canvases[i][j])
 			}
 		}

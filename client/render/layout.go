@@ -3,6 +3,7 @@ package render
 import (
 	"fmt"
 	"io"
+	"math"
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
@@ -28,37 +29,70 @@ func ci(e *pb.Estimate, scale float64, dec int) string {
 	return Interval(scale*e.GetCiLow(), scale*e.GetCiHigh(), dec)
 }
 
-// LayoutTable prints the multi-cell section of a report: the
-// layout-wide figures with their 95 % intervals, the figures by handover
-// state, and one row per cell.
-func LayoutTable(w io.Writer, rep *pb.RunReport) {
-	l := rep.GetLayout()
-	if l == nil {
-		return
+// LayoutPart is one table of a layout's figures as LayoutParts builds it:
+// a title ("" for the first), the column names, the right-aligned columns
+// and the rows of formatted cells.
+type LayoutPart struct {
+	Title string
+	Head  []string
+	Right []int
+	Rows  [][]string
+}
+
+// LayoutHeader describes a report's layout in words: "7 sites × 3
+// sectors, inter-site distance 750 m, with wrap-around, handover window
+// 3.0 dB (at most 3 cells in the active set)"; "" for a single-cell report.
+func LayoutHeader(rep *pb.RunReport) string {
+	if rep.GetLayout() == nil {
+		return ""
 	}
 	lay := rep.GetNormalisedScenario().GetLayout()
+	plural := func(n int32, one string) string {
+		if n == 1 {
+			return "1 " + one
+		}
+		return fmt.Sprintf("%d %ss", n, one)
+	}
+	wrap := "without wrap-around"
+	if lay.GetWrapAround() {
+		wrap = "with wrap-around"
+	}
+	return fmt.Sprintf("%s × %s, inter-site distance %s m, %s, handover window %s dB (at most %s in the active set)",
+		plural(lay.GetSites(), "site"), plural(lay.GetSectorsPerSite(), "sector"), Num(lay.GetInterSiteDistanceM(), 0), wrap,
+		Num(lay.GetHandover().GetWindowDb(), 1), plural(lay.GetHandover().GetMaxActive(), "cell"))
+}
+
+// LayoutParts is the multi-cell section of a report as tables, the one
+// home of its figures, names, units and decimals (the CLI's LayoutTable
+// and the HTML report both draw it): the layout-wide figures with their
+// 95 % intervals, the figures by handover state, and one row per cell.
+// interval formats an estimate's 95 % interval in the value's scale and
+// decimals (the CLI: "[lo, hi]" or "–"). No parts for a single-cell
+// report.
+func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64, dec int) string) []LayoutPart {
+	l := rep.GetLayout()
+	if l == nil {
+		return nil
+	}
 	o := l.GetOverall()
-	fmt.Fprintln(w)
-	fmt.Fprintf(w, "layout: %d sites × %d sector(s), inter-site distance %s m, wrap-around %v, handover window %s dB (max %d cells)\n",
-		lay.GetSites(), lay.GetSectorsPerSite(), Num(lay.GetInterSiteDistanceM(), 0), lay.GetWrapAround(),
-		Num(lay.GetHandover().GetWindowDb(), 1), lay.GetHandover().GetMaxActive())
-	t := NewTable("layout figure", "value", "95 % CI").AlignRight(1)
+	all := LayoutPart{Head: []string{"layout figure", "value", "95 % CI"}, Right: []int{1}}
 	row := func(label string, e *pb.Estimate, scale float64, dec int) {
-		t.Add(label, Num(scale*e.GetValue(), dec), ci(e, scale, dec))
+		all.Rows = append(all.Rows, []string{label, Num(scale*e.GetValue(), dec), interval(e, scale, dec)})
 	}
 	row("other-cell / own-cell interference f", o.GetOtherToOwn(), 1, 3)
-	t.Add("f 5th–95th pct over cells and slots", Num(o.GetOtherToOwnSpreadP5(), 3)+" – "+Num(o.GetOtherToOwnSpreadP95(), 3), "")
+	all.Rows = append(all.Rows,
+		[]string{"f 5th pct over cells and slots", Num(o.GetOtherToOwnSpreadP5(), 3), ""},
+		[]string{"f 95th pct over cells and slots", Num(o.GetOtherToOwnSpreadP95(), 3), ""})
 	fig := func(key string, e *pb.Estimate) { f := MustFigure(key); row(f.Label, e, f.Scale, f.Dec) }
 	fig("noise_rise_mean_db", o.GetNoiseRiseDb())
 	fig("outage_probability", o.GetOutageProbability())
 	row("soft-handover share (%)", o.GetSoftHandoverShare(), 100, 1)
 	row("time at max power (%)", o.GetTimeAtMaxPower(), 100, 2)
 	row("time at max power, cell edge (%)", o.GetTimeAtMaxEdge(), 100, 2)
-	t.Write(w)
 
-	fmt.Fprintln(w)
-	fmt.Fprintln(w, "by handover state (cells in the active set):")
-	ht := NewTable("cells", "share (%)", "95 % CI", "outage (%)", "95 % CI", "at max power (%)", "95 % CI").AlignRight(1, 2, 3, 4, 5, 6)
+	legs := LayoutPart{Title: "by handover state (cells in the active set)",
+		Head:  []string{"cells", "share (%)", "95 % CI", "outage (%)", "95 % CI", "at max power (%)", "95 % CI"},
+		Right: []int{1, 2, 3, 4, 5, 6}}
 	for i, name := range []string{"1", "2", "3+"} {
 		if i >= len(o.GetLegShare()) {
 			break
@@ -69,30 +103,86 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 			mx = o.GetTimeAtMaxByLegs()[i]
 		}
 		if s.GetValue() == 0 {
-			ht.Add(name, Num(0, 1), ci(s, 100, 1), "–", "", "–", "")
+			legs.Rows = append(legs.Rows, []string{name, Num(0, 1), interval(s, 100, 1), "–", "", "–", ""})
 			continue
 		}
-		ht.Add(name, Num(100*s.GetValue(), 1), ci(s, 100, 1), Num(100*out.GetValue(), 2), ci(out, 100, 2),
-			Num(100*mx.GetValue(), 2), ci(mx, 100, 2))
+		legs.Rows = append(legs.Rows, []string{name, Num(100*s.GetValue(), 1), interval(s, 100, 1),
+			Num(100*out.GetValue(), 2), interval(out, 100, 2), Num(100*mx.GetValue(), 2), interval(mx, 100, 2)})
 	}
-	ht.Write(w)
 
-	fmt.Fprintln(w)
-	fmt.Fprintln(w, "per cell:")
-	ct := NewTable("cell", "served users", "f", "95 % CI", "f median", "f 95th pct", "noise rise (dB)", "95 % CI", "noise rise 95th pct (dB)").AlignRight(1, 2, 3, 4, 5, 6, 7, 8)
+	cells := LayoutPart{Title: "per cell",
+		Head:  []string{"cell", "served users", "f", "95 % CI", "f median", "f 95th pct", "noise rise (dB)", "95 % CI", "noise rise 95th pct (dB)"},
+		Right: []int{1, 2, 3, 4, 5, 6, 7, 8}}
 	for _, c := range l.GetCells() {
-		ct.Add(c.GetName(), Num(c.GetServedUsers(), 1), Num(c.GetOtherToOwn().GetValue(), 3), ci(c.GetOtherToOwn(), 1, 3),
+		cells.Rows = append(cells.Rows, []string{c.GetName(), Num(c.GetServedUsers(), 1),
+			Num(c.GetOtherToOwn().GetValue(), 3), interval(c.GetOtherToOwn(), 1, 3),
 			Num(c.GetOtherToOwnP50(), 3), Num(c.GetOtherToOwnP95(), 3),
-			Num(c.GetNoiseRiseDb().GetValue(), 2), ci(c.GetNoiseRiseDb(), 1, 2), Num(c.GetNoiseRiseP95Db(), 2))
+			Num(c.GetNoiseRiseDb().GetValue(), 2), interval(c.GetNoiseRiseDb(), 1, 2), Num(c.GetNoiseRiseP95Db(), 2)})
 	}
-	ct.Write(w)
+	return []LayoutPart{all, legs, cells}
+}
+
+// IsCautionNote reports whether note n is the engine's caution about real
+// transmitters (the multi-cell engine adds one to its notes); a page that
+// shows its own caution leaves it out.
+func IsCautionNote(n string) bool {
+	return strings.Contains(strings.ToLower(n), "do not replace the operator")
+}
+
+// LayoutTable prints the multi-cell section of a report (LayoutParts),
+// then the caution about real transmitters unless RunTable already printed
+// it among the notes (it prints them when an interval is withheld).
+func LayoutTable(w io.Writer, rep *pb.RunReport) {
+	parts := LayoutParts(rep, ci)
+	if parts == nil {
+		return
+	}
 	fmt.Fprintln(w)
-	fmt.Fprintln(w, "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice.")
+	fmt.Fprintln(w, "layout: "+LayoutHeader(rep))
+	for i, p := range parts {
+		if i > 0 {
+			fmt.Fprintln(w)
+			fmt.Fprintln(w, p.Title+":")
+		}
+		t := NewTable(p.Head...).AlignRight(p.Right...)
+		for _, r := range p.Rows {
+			t.Add(r...)
+		}
+		t.Write(w)
+	}
+	if !notesPrinted(rep) {
+		fmt.Fprintln(w)
+		fmt.Fprintln(w, "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice.")
+	}
+}
+
+// notesPrinted reports whether RunTable printed the report's notes, and
+// with them the engine's caution: it does when an aggregate interval it
+// shows is withheld (NaN bounds).
+func notesPrinted(rep *pb.RunReport) bool {
+	caution := false
+	for _, n := range rep.GetNotes() {
+		caution = caution || IsCautionNote(n)
+	}
+	if !caution {
+		return false
+	}
+	for _, f := range figures {
+		e := f.Get(rep.GetAggregate())
+		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
+			continue
+		}
+		if math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh()) {
+			return true
+		}
+	}
+	return false
 }
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:
-// the cells with their sites and boresights and every user of replication
-// 0 coloured by its outage in % (power false) or its mean Tx power in dBm.
+// the cells with their names, sites and boresights, the group names, and
+// every user of replication 0 with its group, coloured by its outage in %
+// (power false) or its mean Tx power in dBm.
 func LayoutMapData(rep *pb.RunReport, power bool) (plots.LayoutMapData, error) {
 	l := rep.GetLayout()
 	if l == nil {
@@ -109,12 +199,19 @@ func LayoutMapData(rep *pb.RunReport, power bool) (plots.LayoutMapData, error) {
 		f = MustFigure("tx_power_mean_dbm")
 	}
 	d.ValueLabel = f.Label
+	for i, g := range rep.GetNormalisedScenario().GetGroups() {
+		name := g.GetName()
+		if name == "" {
+			name = fmt.Sprintf("group %d", i)
+		}
+		d.GroupNames = append(d.GroupNames, name)
+	}
 	for _, u := range l.GetUserPoints() {
 		v := f.Scale * u.GetOutageProbability()
 		if power {
 			v = f.Scale * u.GetTxPowerMeanDbm()
 		}
-		d.Users = append(d.Users, plots.MapUser{XM: u.GetXM(), YM: u.GetYM(), Value: v})
+		d.Users = append(d.Users, plots.MapUser{XM: u.GetXM(), YM: u.GetYM(), Group: int(u.GetGroup()), Value: v})
 	}
 	return d, nil
 }

@@ -36,6 +36,7 @@ type verdict struct {
 
 type section struct {
 	ID, Heading string
+	Intro       []string // notes shown before the tables
 	Notes       []string
 	Tables      []table
 	Figures     []figure

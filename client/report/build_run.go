@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 	"strconv"
+	"strings"
 
 	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -72,7 +73,11 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	}
 	d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d users, %s slots × %d replication(s) after %s warm-up slots.",
 		agg.GetUsers(), thousands(rep.GetSlots()), rep.GetReplications(), thousands(sc.GetRun().GetWarmupSlots())))
-	d.Verdict.Lines = append(d.Verdict.Lines, rep.GetNotes()...)
+	for _, n := range rep.GetNotes() {
+		if !clirender.IsCautionNote(n) { // the page shows its own caution
+			d.Verdict.Lines = append(d.Verdict.Lines, n)
+		}
+	}
 
 	t := table{Caption: "Aggregate figures over all users, with 95 % confidence intervals.", Head: []string{"figure", "value", "95 % CI low", "95 % CI high"}, Num: numCols(4, 1, 2, 3)}
 	layout := rep.GetLayout() != nil
@@ -100,6 +105,9 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		s.Tables = append(s.Tables, bt)
 	}
 	d.Sections = append(d.Sections, s)
+	if ls, ok := layoutSection(rep); ok {
+		d.Sections = append(d.Sections, ls)
+	}
 	figs, err := runFigures(rep)
 	if err != nil {
 		return err
@@ -131,4 +139,36 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		{"wall time", num(rep.GetWallTimeS(), 2) + " s (" + num(rep.GetUserSlotsPerS()/1e6, 2) + " M user-slots/s)"},
 	}
 	return nil
+}
+
+// layoutSection is the multi-cell part of a run's page: the tables of
+// clirender.LayoutParts (the CLI's layout table: same figures, names and
+// units), intervals as "[lo, hi]" or "(no interval)".
+func layoutSection(rep *pb.RunReport) (section, bool) {
+	parts := clirender.LayoutParts(rep, func(e *pb.Estimate, scale float64, dec int) string {
+		if noInterval(e) {
+			return "(no interval)"
+		}
+		return "[" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
+	})
+	if parts == nil {
+		return section{}, false
+	}
+	s := section{ID: "layout", Heading: "Layout", Intro: []string{
+		clirender.LayoutHeader(rep) + ".",
+		"f is the other-cell over the own-cell interference received at a cell; its 5th and 95th percentiles over cells and slots show its spread.",
+	}}
+	for i, p := range parts {
+		t := table{Head: p.Head, Num: numCols(len(p.Head), p.Right...)}
+		if i == 0 {
+			t.Caption = "Layout-wide figures with 95 % confidence intervals."
+		} else {
+			t.Caption = strings.ToUpper(p.Title[:1]) + p.Title[1:] + "."
+		}
+		for _, r := range p.Rows {
+			t.add(false, r...)
+		}
+		s.Tables = append(s.Tables, t)
+	}
+	return s, true
 }

@@ -76,7 +76,7 @@ func runFigures(rep *pb.RunReport) ([]figure, error) {
 			return nil, err
 		}
 		fig, err := plots.LayoutMap("Users by outage (replication 0, "+strconv.Itoa(len(d.Users))+" users)", d)
-		if err := addFigure(&out, "The layout to scale: sites, sector boresights and each user of the first drop coloured by its outage.", fig, err); err != nil {
+		if err := addFigure(&out, "The layout to scale: sites, sector boresights, cells named as in the per-cell table, and each user of the first drop, its marker shape by its group and its colour by its outage.", fig, err); err != nil {
 			return nil, err
 		}
 		return out, nil

@@ -76,7 +76,8 @@ footer { margin-top: 32px; color: var(--muted); font-size: 12px; border-top: 1px
 {{range .Sections}}
 <section id="{{.ID}}">
 <h2>{{.Heading}}</h2>
-{{range .Tables}}<div class="tablewrap"><table>
+{{if .Intro}}<div class="notes">{{range .Intro}}<p>{{.}}</p>{{end}}</div>
+{{end}}{{range .Tables}}<div class="tablewrap"><table>
 <caption>{{.Caption}}</caption>
 <thead><tr>{{$num := .Num}}{{range $i, $h := .Head}}<th{{if index $num $i}} class="n"{{end}}>{{$h}}</th>{{end}}</tr></thead>
 <tbody>
