@@ -11,6 +11,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
@@ -113,7 +114,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	speeds := fs.String("speeds", "", "one condition per speed in km/h (`V1,V2,...`), weight 1 each")
 	request := fs.String("request", "", "tuning request `FILE` (protojson TuneRequest in JSON or YAML)")
 	objective := fs.String("objective", "", "`OBJECTIVE`: std (SIR error std), outage, or power (mean Tx power with --outage-limit) (default std)")
-	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction), required by --objective power; also the level above which the recommendation gets a high-outage warning (default 0.1)")
+	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction), required by --objective power; a P above 0.1 also raises the high-outage warning level (0.1) to P")
 	blerTol := fs.Float64("bler-tolerance", 0, "accepted relative BLER deviation `X` from target for --objective power (0: 0.2)")
 	indiff := fs.Float64("indifference", 0, "difference `D` in the objective's unit below which settings count as equal (0: default)")
 	confidence := fs.Float64("confidence", 0, "confidence `C` of intervals and the winner's test (0: 0.95)")
@@ -180,9 +181,10 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			}
 		}
 		setF(&req.Objective.OutageLimit, *outageLimit)
-		if *outageLimit != 0 && req.Objective.OutageWarning == 0 {
-			// The user's own outage level, not the 10 % default, is the
-			// level worth a warning.
+		if *outageLimit > tune.DefaultOutageWarning && req.Objective.OutageWarning == 0 {
+			// An outage the user accepts is not worth a warning: their
+			// limit raises the level. (A lower limit leaves it at 10 %:
+			// outage above the limit is already said as a miss.)
 			req.Objective.OutageWarning = *outageLimit
 		}
 		setF(&req.Objective.BlerTolerance, *blerTol)

@@ -375,6 +375,16 @@ func TestTuneOnLayout(t *testing.T) {
 			t.Errorf("tune table says %q:\n%s", never, r.stdout)
 		}
 	}
+	// The same job again (its replications come from the store) as JSON:
+	// the request carried the user's 12 % as the warning level.
+	r = fl(t, append(args, "--format", "json")...)
+	rec := &pb.Recommendation{}
+	if err := protojson.Unmarshal([]byte(r.stdout), rec); err != nil {
+		t.Fatalf("tune JSON: %v\n%s", err, r.stderr)
+	}
+	if w := rec.GetObjective().GetOutageWarning(); w != 0.12 {
+		t.Errorf("outage warning level %g, want the --outage-limit 0.12", w)
+	}
 
 	bad := []string{"tune", town, "--store", filepath.Join(dir, "store"), "--slots", "600",
 		"--axis", "layout.handover.window_db=2,6", "--axis", "inner_loop.update_rate_hz=750,1500", "--plot", filepath.Join(dir, "x.png")}
