@@ -11,8 +11,8 @@ import (
 
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
-	"github.com/fadeloop/fadeloop/loop/tune"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 )
