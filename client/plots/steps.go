@@ -80,8 +80,16 @@ func (l *StepLine) SortByStep() {
 // StepSensitivity draws outage (left) and SIR error std (right) against the
 // inner-loop step size, one line per speed.
 func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
-	left := newPanel("Outage", "step size (dB)", "outage (%)")
-	right := newPanel("SIR error spread", "step size (dB)", "SIR error std (dB)")
+	return AxisSensitivity(title, "step size (dB)", lines)
+}
+
+// AxisSensitivity draws outage (left) and SIR error std (right) against any
+// one numeric axis (the lines' StepDB column holds its values, xLabel names
+// it with its unit, e.g. "handover window (dB)"), one line per speed or
+// condition: StepSensitivity for an axis other than the step.
+func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
+	left := newPanel("Outage", xLabel, "outage (%)")
+	right := newPanel("SIR error spread", xLabel, "SIR error std (dB)")
 	n := 0
 	marked := false
 	for i, ln := range lines {

@@ -215,28 +215,42 @@ func TuneObjectiveGrid(rec *pb.Recommendation) (plots.ObjectiveGrid, bool) {
 // TuneStepLines is outage (%) and SIR error std (dB) with their intervals
 // against the step size, one line per condition, each condition's
 // recommended candidate marked (ok only when the step size is the only
-// axis). The one conversion of a Recommendation to a step plot.
+// axis): TuneAxisLines for inner_loop.step_db.
 func TuneStepLines(rec *pb.Recommendation) ([]plots.StepLine, bool) {
-	cands := rec.GetCandidates()
-	if len(cands) == 0 || len(cands[0].GetCoords()) != 1 || cands[0].GetCoords()[0].GetPath() != StepPath {
+	ls, path, ok := TuneAxisLines(rec)
+	if !ok || path != StepPath {
 		return nil, false
 	}
-	var ls []plots.StepLine
+	return ls, true
+}
+
+// TuneAxisLines is outage (%) and SIR error std (dB) with their intervals
+// against the one axis of a recommendation (any numeric path, e.g.
+// layout.handover.window_db; its values in StepLine.StepDB), one line per
+// condition, each condition's recommended candidate marked; path is the
+// axis. ok is false unless there is exactly one axis. The one conversion
+// of a Recommendation to a line plot against its axis.
+func TuneAxisLines(rec *pb.Recommendation) (ls []plots.StepLine, path string, ok bool) {
+	cands := rec.GetCandidates()
+	if len(cands) == 0 || len(cands[0].GetCoords()) != 1 {
+		return nil, "", false
+	}
+	path = cands[0].GetCoords()[0].GetPath()
 	for _, c := range rec.GetConditions() {
 		l := plots.StepLine{Label: c.GetName() + " (" + VerdictName(c.GetDecision()) + ")"}
 		crs := slices.Clone(c.GetCandidates())
 		slices.SortStableFunc(crs, func(a, b *pb.CandidateResult) int {
-			return cmp.Compare(candidateCoord(cands, a.GetCandidate(), StepPath), candidateCoord(cands, b.GetCandidate(), StepPath))
+			return cmp.Compare(candidateCoord(cands, a.GetCandidate(), path), candidateCoord(cands, b.GetCandidate(), path))
 		})
 		for _, cr := range crs {
 			f := cr.GetFigures()
 			o, s := f.GetOutageProbability(), f.GetSirErrorStdDb()
-			l.Add(candidateCoord(cands, cr.GetCandidate(), StepPath), o.GetMean(), o.GetLow(), o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
+			l.Add(candidateCoord(cands, cr.GetCandidate(), path), o.GetMean(), o.GetLow(), o.GetHigh(), s.GetMean(), s.GetLow(), s.GetHigh())
 			l.Recommended = append(l.Recommended, cr.GetCandidate() == c.GetDecision().GetBest())
 		}
 		ls = append(ls, l)
 	}
-	return ls, true
+	return ls, path, true
 }
 
 // AxisValueLabel is the plot label of value v of the axis at field path p,

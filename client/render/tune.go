@@ -136,8 +136,9 @@ func OrderedCandidates(d *pb.Decision, crs []*pb.CandidateResult) []*pb.Candidat
 
 // DecisionLines are the lines every text output of a decision prints, in
 // the API's order: headline (an unmet constraint is said there first),
-// the closest setting's misses, the runner-up, each warning, and for a
-// tie the tie rule. None is composed here.
+// the closest setting's misses the headline does not already say, the
+// runner-up, each warning, and for a tie the tie rule. None is composed
+// here.
 func DecisionLines(d *pb.Decision, tieRule string) []string {
 	var ls []string
 	if d.GetHeadline() != "" {
@@ -146,6 +147,9 @@ func DecisionLines(d *pb.Decision, tieRule string) []string {
 	if d.GetVerdict() == pb.Verdict_VERDICT_CONSTRAINTS_UNMET {
 		for _, m := range d.GetMisses() {
 			t := m.GetText()
+			if t != "" && strings.Contains(d.GetHeadline(), t) {
+				continue // the headline says it (with its condition across several)
+			}
 			if m.GetCondition() != "" {
 				t = "in " + m.GetCondition() + ": " + t
 			}
@@ -180,8 +184,8 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	if l := FigureLabelOf(rec.GetFigures(), ObjectiveKey(rec.GetObjective().GetKind())); l != nil {
 		objName = l.GetName()
 	}
-	fmt.Fprintf(w, "minimise %s; %d candidates × %d conditions; confidence %g %%; seed %d\n\n",
-		objName, len(cands), len(rec.GetConditions()), 100*conf, rec.GetSeed())
+	fmt.Fprintf(w, "minimise %s; %s × %s; confidence %g %%; seed %d\n\n",
+		objName, Count(len(cands), "candidate", "candidates"), Count(len(rec.GetConditions()), "condition", "conditions"), 100*conf, rec.GetSeed())
 	fmt.Fprintf(w, "Verdict: %s\n", VerdictName(ov))
 	for _, l := range DecisionLines(ov, rec.GetTieRule()) {
 		fmt.Fprintln(w, Wrap(l, 78, "  "))
@@ -258,6 +262,9 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
 	}
 	t.Write(w)
+	if n := NoBaselineNote(req, rec); n != "" {
+		fmt.Fprintln(w, Wrap(n, 78, "  "))
+	}
 	fmt.Fprintln(w)
 	for _, c := range rec.GetConditions() {
 		d := c.GetDecision()
@@ -315,8 +322,8 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	}
 	fmt.Fprintln(w)
 	ef := rec.GetEffort()
-	fmt.Fprintf(w, "Effort: %d candidate runs + %d fixed-power runs in %d rounds (at most %d replications of one candidate);\n",
-		ef.GetReplications(), ef.GetBaselineReplications(), ef.GetStages(), ef.GetMaxReplicationsUsed())
+	fmt.Fprintf(w, "Effort: %d candidate runs + %d fixed-power runs in %s (at most %d replications of one candidate);\n",
+		ef.GetReplications(), ef.GetBaselineReplications(), Count(int(ef.GetStages()), "round", "rounds"), ef.GetMaxReplicationsUsed())
 	ratio := ""
 	if ef.GetEqualAllocationReplications() > 0 {
 		ratio = fmt.Sprintf(" (%.0f %% of it)", 100*float64(ef.GetReplications())/float64(ef.GetEqualAllocationReplications()))
@@ -327,6 +334,34 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		fmt.Fprint(w, "; stopped by the budget")
 	}
 	fmt.Fprintln(w)
+}
+
+// Count is "1 condition", "3 conditions": n with the noun in its number.
+func Count(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return strconv.Itoa(n) + " " + many
+}
+
+// NoBaselineNote says why the fixed-power columns are empty ("" when some
+// condition has a baseline): the multi-cell engine runs none
+// (layout.sites set), or the request skipped it.
+func NoBaselineNote(req *pb.TuneRequest, rec *pb.Recommendation) string {
+	for _, c := range rec.GetConditions() {
+		if c.GetBaseline() != nil {
+			return ""
+		}
+	}
+	switch {
+	case len(rec.GetConditions()) == 0:
+		return ""
+	case req.GetBase().GetLayout().GetSites() > 0:
+		return "Fixed power –: no fixed-power baseline is run in multi-cell mode (layout.sites set); the candidates are compared with each other only."
+	case req.GetSkipBaseline():
+		return "Fixed power –: the fixed-power baseline was skipped (--no-baseline)."
+	}
+	return "Fixed power –: this result carries no fixed-power baseline."
 }
 
 func searchFigureHeader() []string { return csvHeader(searchFigures, "_low", "_high") }

@@ -14,13 +14,33 @@ import (
 func decisionText(dc *pb.Decision) (string, string) {
 	switch {
 	case dc.GetConstraintsUnmet():
-		return "no candidate met the constraints; ranked by outage", "bad"
+		return "no candidate meets the constraints; ranked by worst constraint excess", "bad"
 	case dc.GetDeclared():
 		return "declared winner", "ok"
 	case len(dc.GetTieSet()) > 1:
 		return fmt.Sprintf("tie of %d, picked by the tie rule", len(dc.GetTieSet())), "warn"
 	}
 	return "not separated from the runner-up at this budget", "warn"
+}
+
+// rankedLabel is the label of the figure a decision ranked by — the
+// objective's, or the worst constraint excess (% of limit) when no
+// candidate met the constraints — as the CLI's tables head their column;
+// results without it fall back to the objective's label.
+func rankedLabel(dc *pb.Decision, rec *pb.Recommendation) *pb.FigureLabel {
+	if l := dc.GetRankedBy(); l.GetKey() != "" {
+		return l
+	}
+	return clirender.SearchLabel(rec.GetFigures(), clirender.ObjectiveKey(rec.GetObjective().GetKind()))
+}
+
+// labelScaleDec is a label's display scale (1 when unset) and decimals.
+func labelScaleDec(l *pb.FigureLabel) (float64, int) {
+	sc := l.GetDisplayScale()
+	if sc == 0 {
+		sc = 1
+	}
+	return sc, int(l.GetDecimals())
 }
 
 // verdictClass is the colour class of a decision's verdict.
@@ -83,8 +103,19 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 		}
 	}
 
-	ct := table{Caption: fmt.Sprintf("Per condition: the best setting, its %s, the paired difference to the runner-up and the fixed-power baseline (%g %% intervals).", oname, 100*conf),
-		Head: []string{"condition", "weight", "recommended", "verdict", oname + " (" + unit + ")", "runner-up diff (" + unit + ")", "fixed power", "gain over fixed", "f_D·T"}}
+	// The ranked figure's column is headed by what it holds, as in the
+	// CLI: the objective, or the worst constraint excess (% of limit) when
+	// no candidate met the constraints; with mixed figures each cell
+	// names its own.
+	rb := rankedLabel(ov, rec)
+	objHead, diffHead, mixed := clirender.LabelHead(rb), "runner-up − recommended ("+rb.GetDiffUnit()+")", false
+	for _, c := range rec.GetConditions() {
+		if rankedLabel(c.GetDecision(), rec).GetKey() != rb.GetKey() {
+			objHead, diffHead, mixed = "ranked figure", "runner-up − recommended", true
+		}
+	}
+	ct := table{Caption: fmt.Sprintf("Per condition: the recommended setting, the figure it was ranked by, the paired difference to the runner-up and the fixed-power baseline (%g %% intervals).", 100*conf),
+		Head: []string{"condition", "weight", "recommended", "verdict", objHead, diffHead, "fixed power", "gain over fixed", "f_D·T"}}
 	ct.Num = numCols(len(ct.Head), 1, 4, 5, 6, 7, 8)
 	for _, c := range rec.GetConditions() {
 		dc := c.GetDecision()
@@ -98,9 +129,14 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 				best = cr
 			}
 		}
+		dl := rankedLabel(dc, rec)
+		dsc, ddec := labelScaleDec(dl)
 		diff := "–"
 		if dc.GetRunnerUp() >= 0 {
-			diff = repEstimate(dc.GetEvidence(), scale, dec)
+			diff = repEstimate(dc.GetEvidence(), dsc, ddec)
+			if mixed {
+				diff += " " + dl.GetDiffUnit()
+			}
 		}
 		base, gain := "–", "–"
 		if b := c.GetBaseline(); b != nil {
@@ -127,10 +163,17 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 				gain += " (barely helps)"
 			}
 		}
+		obj := repEstimate(best.GetObjective(), dsc, ddec)
+		if mixed {
+			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
+		}
 		ct.add(false, c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), clirender.PointLabel(dc.GetSetting()), v,
-			repEstimate(best.GetObjective(), scale, dec), diff, base, gain, num(c.GetDopplerProductMax(), 4))
+			obj, diff, base, gain, num(c.GetDopplerProductMax(), 4))
 	}
 	s := section{ID: "conditions", Heading: "Conditions", Tables: []table{ct}}
+	if n := clirender.NoBaselineNote(req, rec); n != "" {
+		s.Notes = append(s.Notes, n)
+	}
 	for _, c := range rec.GetConditions() {
 		if r := c.GetDecision().GetReason(); r != "" {
 			s.Notes = append(s.Notes, c.GetName()+": "+r)
@@ -140,10 +183,10 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 
 	cs := section{ID: "candidates", Heading: "Candidates"}
 	if oc := rec.GetOverallCandidates(); len(oc) > 0 && len(rec.GetConditions()) > 1 {
-		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), rec, ov.GetBest(), true))
+		cs.Tables = append(cs.Tables, candidateTable("Weighted over all conditions; the recommended setting is marked.", clirender.OrderedCandidates(ov, oc), rec, ov, true))
 	}
 	for _, c := range rec.GetConditions() {
-		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), rec, c.GetDecision().GetBest(), false))
+		cs.Tables = append(cs.Tables, candidateTable("Condition "+c.GetName()+"; its recommended setting is marked and listed first.", clirender.OrderedCandidates(c.GetDecision(), c.GetCandidates()), rec, c.GetDecision(), false))
 	}
 	d.Sections = append(d.Sections, cs)
 
@@ -160,8 +203,8 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 		eq = fmt.Sprintf("; equal allocation to the same precision: %s runs (this used %s %% of it)",
 			thousands(n), num(100*float64(e.GetReplications())/float64(n), 0))
 	}
-	effort := fmt.Sprintf("%s candidate runs + %s fixed-power runs in %d rounds (at most %d replications of one candidate)%s; %s user-slots in %s s",
-		thousands(e.GetReplications()), thousands(e.GetBaselineReplications()), e.GetStages(), e.GetMaxReplicationsUsed(), eq,
+	effort := fmt.Sprintf("%s candidate runs + %s fixed-power runs in %s (at most %d replications of one candidate)%s; %s user-slots in %s s",
+		thousands(e.GetReplications()), thousands(e.GetBaselineReplications()), clirender.Count(int(e.GetStages()), "round", "rounds"), e.GetMaxReplicationsUsed(), eq,
 		thousands(e.GetUserSlots()), num(e.GetWallTimeS(), 2))
 	if e.GetBudgetExhausted() {
 		effort += "; the budget ran out before every comparison was settled"
@@ -180,23 +223,27 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 	return nil
 }
 
-// candidateTable lists candidates with their objective, the difference to
-// the best and their figures (the figure that is the objective is not
-// repeated). overall: the weighted table, which has no per-figure values.
-func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommendation, best int32, overall bool) table {
+// candidateTable lists candidates with the figure decision dc ranked them
+// by (the objective, or the worst constraint excess in % of limit when no
+// candidate met the constraints), the difference to the recommended one
+// and their figures (the ranked figure is not repeated; with the excess
+// ranking the objective's own figure, e.g. the mean Tx power, is shown
+// among them). overall: the weighted table, which has no per-figure values.
+func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommendation, dc *pb.Decision, overall bool) table {
 	cands := rec.GetCandidates()
-	scale, dec, unit, oname := objectiveUnit(rec)
-	okey := clirender.ObjectiveKey(rec.GetObjective().GetKind())
+	best := dc.GetBest()
+	rl := rankedLabel(dc, rec)
+	scale, dec := labelScaleDec(rl)
 	var cols []*pb.FigureLabel
 	for _, key := range clirender.CandidateFigures {
-		if key != okey {
+		if key != rl.GetKey() {
 			cols = append(cols, clirender.SearchLabel(rec.GetFigures(), key))
 		}
 	}
 	if overall {
 		cols = nil
 	}
-	t := table{Caption: caption, Head: []string{"#", "setting", oname + " (" + unit + ")", "diff to best (" + unit + ")"}}
+	t := table{Caption: caption, Head: []string{"#", "setting", clirender.LabelHead(rl), "− recommended (" + rl.GetDiffUnit() + ")"}}
 	for _, c := range cols {
 		t.Head = append(t.Head, clirender.LabelHead(c))
 	}
@@ -206,14 +253,17 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 		f := cr.GetFigures()
 		status := clirender.StatusName(cr.GetStatus())
 		if !cr.GetFeasible() {
-			status += ", infeasible"
+			status += ", misses constraints" // as the CLI; "infeasible" is the engine's load flag
 		}
 		label := "candidate " + strconv.Itoa(int(cr.GetCandidate()))
 		if i := cr.GetCandidate(); i >= 0 && int(i) < len(cands) {
 			label = clirender.PointLabel(cands[i])
 		}
-		row := []string{strconv.Itoa(int(cr.GetCandidate())), label,
-			repEstimate(cr.GetObjective(), scale, dec), num(scale*cr.GetDiffToBest().GetMean(), dec)}
+		diff := num(scale*cr.GetDiffToBest().GetMean(), dec)
+		if cr.GetCandidate() == best {
+			diff = "–" // the reference itself, as in the CLI
+		}
+		row := []string{strconv.Itoa(int(cr.GetCandidate())), label, repEstimate(cr.GetObjective(), scale, dec), diff}
 		for _, c := range cols {
 			row = append(row, repEstimate(clirender.SearchFigure(f, c.GetKey()), c.GetDisplayScale(), int(c.GetDecimals())))
 		}

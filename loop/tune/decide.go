@@ -338,14 +338,19 @@ func (e *engine) decide(s int, final bool) scopeOutcome {
 	}
 	// Final decision at the stated confidence: the tie set is the best plus
 	// every surviving candidate of the same class whose paired interval
-	// against the best reaches down to zero.
+	// against the best reaches down to zero. When no candidate meets the
+	// constraints there is no tie set: the closest candidate (smallest mean
+	// worst excess) is the recommendation whatever the intervals say, since
+	// TieRule prefers settings for their loop behaviour, not for being
+	// nearer the limits, and would otherwise put a farther candidate first
+	// (the runner-up's interval tells whether the two are separated).
 	o.tieSet = []int{best}
 	ru := -1
 	for _, k := range alive {
 		if k == best || class[k] != class[best] {
 			continue
 		}
-		if o.diff[k].Low <= 0 {
+		if o.diff[k].Low <= 0 && !o.fallback {
 			o.tieSet = append(o.tieSet, k)
 		}
 		if ru < 0 || o.diff[k].Mean < o.diff[ru].Mean {

@@ -43,7 +43,9 @@
 //     set of one, VerdictTie otherwise (the setting picked by TieRule:
 //     smaller step, then lower update rate, ...; Decision.TieBreak names
 //     the key used), VerdictConstraintsUnmet when no candidate meets the
-//     constraints, VerdictSingle with one candidate. From then on the
+//     constraints (then there is no tie set and no tie rule: the candidate
+//     with the smallest mean worst excess is recommended, single- and
+//     multi-cell alike), VerdictSingle with one candidate. From then on the
 //     recommended candidate (Decision.Best) is the reference of everything
 //     reported: Decision.Ordering starts with it, the runner-up is
 //     Ordering[1], and every DiffToBest is relative to it.

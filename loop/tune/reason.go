@@ -34,7 +34,9 @@ type FigureLabel struct {
 	Name string `json:"name"`
 	// Unit of a displayed value ("dB", "dBm", "%") and DiffUnit of a
 	// displayed difference of two values: dB for differences of dB and dBm
-	// figures, "percentage points" for differences of proportions.
+	// figures, "percentage points" for differences of proportions, "% of
+	// limit" for differences of the worst constraint excess (itself a
+	// share of the limit, not a proportion of user-slots).
 	Unit     string `json:"unit"`
 	DiffUnit string `json:"diff_unit"`
 	// Scale turns the stored value into the displayed one (100 for
@@ -66,7 +68,7 @@ var figureLabels = []FigureLabel{
 	{FigureTxPowerMean, "mean Tx power", "dBm", "dB", 1, 2},
 	{FigureMaxPowerFraction, "time at max power", "%", "percentage points", 100, 2},
 	{FigureNoiseRise, "noise rise", "dB", "dB", 1, 2},
-	{FigureConstraintExcess, "worst constraint excess", "% of limit", "percentage points", 100, 1},
+	{FigureConstraintExcess, "worst constraint excess", "% of limit", "% of limit", 100, 1},
 }
 
 // FigureLabels returns the labels of the seven figures of Figures, in the
@@ -247,7 +249,13 @@ func finishDecision(rec *Recommendation, d *Decision, conds []int, cands []Candi
 	case VerdictConstraintsUnmet:
 		var ms []string
 		for _, m := range d.Misses {
-			ms = append(ms, m.Text)
+			// Across several conditions each miss names its condition, so
+			// the headline is the one place the misses are said.
+			if overall {
+				ms = append(ms, "in "+m.Condition+": "+m.Text)
+			} else {
+				ms = append(ms, m.Text)
+			}
 		}
 		miss := strings.Join(ms, "; ")
 		if miss == "" {

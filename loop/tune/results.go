@@ -175,7 +175,9 @@ type Decision struct {
 	Declared bool `json:"declared"`
 	// TieSet lists the candidates not distinguishable from the best point
 	// estimate at the stated confidence (best point estimate first); with
-	// more than one, Best was picked by the tie rule.
+	// more than one, Best was picked by the tie rule. With ConstraintsUnmet
+	// it holds Best alone: the closest candidate is never replaced by the
+	// tie rule.
 	TieSet []int `json:"tie_set"`
 	// TieBreak is the key of TieRule that put Best first in the tie set,
 	// e.g. "smaller inner_loop.step_db" (empty without a tie).

@@ -338,9 +338,12 @@ func checkDecision(t *testing.T, scope string, d Decision, cands []CandidateResu
 			}
 		}
 		// The closest candidate: no other has a smaller excess by point
-		// estimate, except inside the tie set.
+		// estimate, and the tie rule never replaces it.
+		if len(d.TieSet) != 1 || d.TieBreak != "" {
+			t.Errorf("%s: constraints unmet with tie set %v, tie break %q", scope, d.TieSet, d.TieBreak)
+		}
 		for k, c := range cands {
-			if c.Objective.Mean < cands[d.Best].Objective.Mean && !containsInt(d.TieSet, k) {
+			if c.Objective.Mean < cands[d.Best].Objective.Mean {
 				t.Errorf("%s: candidate %d excess %g below the recommended %g", scope, k, c.Objective.Mean, cands[d.Best].Objective.Mean)
 			}
 		}

@@ -12,6 +12,7 @@ import (
 	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
+	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 )
@@ -30,7 +31,11 @@ comparison is paired; replications are added only to candidates still in
 contention, and a winner is declared only when its paired difference to the
 runner-up excludes zero at --confidence. Otherwise the result is a tie set,
 broken by the tie rule printed with the result (smaller step first, then
-lower update rate, ...). Each condition also gets a fixed-power baseline.
+lower update rate, ...). When no candidate meets the constraints there is
+no tie rule: the candidates are ranked by their worst relative constraint
+excess (in % of the limit), the closest first. Each condition also gets a
+fixed-power baseline, except in multi-cell mode (layout.sites set), which
+runs none (the fixed-power columns print "–").
 
 An axis is PATH=V1,V2,..., PATH=FROM:TO:COUNT (evenly spaced, both ends
 included) or PATH=FROM:TO:COUNT:log (geometric). A condition is
@@ -66,7 +71,10 @@ Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):
            the recommended setting outlined
   steps    outage and SIR error std against inner_loop.step_db, one line per
            condition (step the only axis), each recommended step ringed
-  auto     heatmap for step × rate, steps for step alone
+  axis     the same against any one axis (e.g. layout.handover.window_db
+           on a multi-cell layout)
+  auto     heatmap for step × rate, steps for step alone, axis for any
+           other single axis; other axis sets have no plot (refused)
 
 ` + searchQueueHelp + `
 
@@ -106,7 +114,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	speeds := fs.String("speeds", "", "one condition per speed in km/h (`V1,V2,...`), weight 1 each")
 	request := fs.String("request", "", "tuning request `FILE` (protojson TuneRequest in JSON or YAML)")
 	objective := fs.String("objective", "", "`OBJECTIVE`: std (SIR error std), outage, or power (mean Tx power with --outage-limit) (default std)")
-	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction) for --objective power")
+	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction), required by --objective power; a P above 0.1 also raises the high-outage warning level (0.1) to P")
 	blerTol := fs.Float64("bler-tolerance", 0, "accepted relative BLER deviation `X` from target for --objective power (0: 0.2)")
 	indiff := fs.Float64("indifference", 0, "difference `D` in the objective's unit below which settings count as equal (0: default)")
 	confidence := fs.Float64("confidence", 0, "confidence `C` of intervals and the winner's test (0: 0.95)")
@@ -116,7 +124,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
 	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs")
 	var plotSpecs plotList
-	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps); repeatable")
+	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps, axis); repeatable")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
 	var qf sweepQueueFlags
 	qf.registerRun(fs, "tune")
@@ -127,7 +135,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
-		if err := plotSpecs.check("auto", "auto", "heatmap", "steps"); err != nil {
+		if err := plotSpecs.check("auto", "auto", "heatmap", "steps", "axis"); err != nil {
 			return err
 		}
 		req := &pb.TuneRequest{}
@@ -173,6 +181,12 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			}
 		}
 		setF(&req.Objective.OutageLimit, *outageLimit)
+		if *outageLimit > tune.DefaultOutageWarning && req.Objective.OutageWarning == 0 {
+			// An outage the user accepts is not worth a warning: their
+			// limit raises the level. (A lower limit leaves it at 10 %:
+			// outage above the limit is already said as a miss.)
+			req.Objective.OutageWarning = *outageLimit
+		}
 		setF(&req.Objective.BlerTolerance, *blerTol)
 		setF(&req.Objective.IndifferenceZone, *indiff)
 		setF(&req.Confidence, *confidence)
@@ -221,11 +235,15 @@ func runTune(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		for _, ps := range plotSpecs {
-			if err := plotTune(ps, req.GetBase().GetName(), req.Axes, rec); err != nil {
+			kind, err := tuneKind(ps, req.Axes)
+			if err != nil {
+				return err
+			}
+			if err := plotTune(ps, kind, req.GetBase().GetName(), rec); err != nil {
 				return fmt.Errorf("plot %s: %w", ps.file, err)
 			}
 			if !e.g.quiet {
-				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", ps.kind, ps.file)
+				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", kind, ps.file)
 			}
 		}
 		if err := writeResultReport(e, *reportFile, htmlreport.Input{Tune: rec, TuneRequest: req, Source: "fadeloop tune"}); err != nil {

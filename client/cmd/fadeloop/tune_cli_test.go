@@ -341,3 +341,65 @@ func TestReportFlag(t *testing.T) {
 		t.Errorf("--report page.txt: exit %d, %s", r.code, r.stderr)
 	}
 }
+
+// TestTuneOnLayout: tune on the README's multi-cell example with a
+// handover-window axis (21 cells × 9 users, 600 slots, 2 replications:
+// about 0.7 M user-slots). The automatic plot is the axis plot (steps and
+// heatmap cannot draw a window axis) and the message names the kind drawn;
+// the missing fixed-power baseline is explained; counts of one are
+// singular; the high-outage warning, if any, is at the user's
+// --outage-limit, not the 10 % default. Axes no kind can draw are refused
+// before any work, naming the kinds that would.
+func TestTuneOnLayout(t *testing.T) {
+	dir := t.TempDir()
+	town := filepath.Join(dir, "town.yaml")
+	writeFile(t, town, ok(t, "example", "--multi-cell").stdout)
+	png := filepath.Join(dir, "tune.png")
+	args := []string{"tune", town, "--store", filepath.Join(dir, "store"), "--slots", "600", "--min-reps", "2", "--max-reps", "2",
+		"--axis", "layout.handover.window_db=2,6", "--objective", "power", "--outage-limit", "0.12", "--plot", png}
+	r := fl(t, args...)
+	if r.code != exitOK && r.code != exitConstraintsUnmet {
+		r.want(t, exitOK, args...)
+	}
+	checkPNG(t, png)
+	if !strings.Contains(r.stderr, "wrote axis plot to "+png) {
+		t.Errorf("stderr does not name the kind drawn:\n%s", r.stderr)
+	}
+	for _, want := range []string{"2 candidates × 1 condition;", "no fixed-power baseline is run in multi-cell mode", "in 1 round "} {
+		if !strings.Contains(strings.ReplaceAll(r.stdout, "\n  ", " "), want) {
+			t.Errorf("tune table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	for _, never := range []string{"1 conditions", "1 rounds", "warning level of 10.00 %", "Closest setting misses"} {
+		if strings.Contains(r.stdout, never) {
+			t.Errorf("tune table says %q:\n%s", never, r.stdout)
+		}
+	}
+	// The same job again (its replications come from the store) as JSON:
+	// the request carried the user's 12 % as the warning level.
+	r = fl(t, append(args, "--format", "json")...)
+	rec := &pb.Recommendation{}
+	if err := protojson.Unmarshal([]byte(r.stdout), rec); err != nil {
+		t.Fatalf("tune JSON: %v\n%s", err, r.stderr)
+	}
+	if w := rec.GetObjective().GetOutageWarning(); w != 0.12 {
+		t.Errorf("outage warning level %g, want the --outage-limit 0.12", w)
+	}
+
+	bad := []string{"tune", town, "--store", filepath.Join(dir, "store"), "--slots", "600",
+		"--axis", "layout.handover.window_db=2,6", "--axis", "inner_loop.update_rate_hz=750,1500", "--plot", filepath.Join(dir, "x.png")}
+	r = fl(t, bad...)
+	r.want(t, exitBadInput, bad...)
+	for _, want := range []string{"no plot kind draws", "heatmap needs", "steps", "axis any one axis"} {
+		if !strings.Contains(r.stderr, want) {
+			t.Errorf("refusal lacks %q:\n%s", want, r.stderr)
+		}
+	}
+
+	h := ok(t, "tune", "--help").stdout
+	for _, want := range []string{"axis     the same against any one axis", "axis for any", "multi-cell mode (layout.sites set), which\nruns none"} {
+		if !strings.Contains(h, want) {
+			t.Errorf("tune --help lacks %q", want)
+		}
+	}
+}
