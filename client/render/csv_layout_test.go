@@ -159,3 +159,33 @@ func TestSweepIsLayout(t *testing.T) {
 			rows[0]["other_to_own"], rows[0]["feasible"], rows[0]["tx_power_p1_dbm"])
 	}
 }
+
+// The sweep table's load column claims nothing for a layout point ("–"
+// and a footnote: the multi-cell engine computes no feasibility) and
+// keeps "ok" for a single-cell point.
+func TestSweepTableLoadLayout(t *testing.T) {
+	for _, tc := range []struct {
+		name            string
+		layout          bool
+		load            string
+		footnote, hasOK bool
+	}{
+		{"single cell", false, "ok", false, true},
+		{"layout", true, "–", true, false},
+	} {
+		var b bytes.Buffer
+		pt := &pb.SweepPoint{Coordinates: []float64{3}, Report: csvTestReport(tc.layout)}
+		SweepTable(&b, &pb.SweepRequest{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db"}}}, []*pb.SweepPoint{pt}, nil)
+		lines := strings.Split(strings.TrimSpace(b.String()), "\n")
+		row := lines[1]
+		if !strings.HasSuffix(row, "  "+tc.load) {
+			t.Errorf("%s: row %q does not end in load %q", tc.name, row, tc.load)
+		}
+		if got := strings.Contains(b.String(), "feasibility is not computed in multi-cell mode"); got != tc.footnote {
+			t.Errorf("%s: footnote %v, want %v:\n%s", tc.name, got, tc.footnote, b.String())
+		}
+		if got := strings.HasSuffix(row, " ok"); got != tc.hasOK {
+			t.Errorf("%s: row ends in ok: %v, want %v", tc.name, got, tc.hasOK)
+		}
+	}
+}

@@ -39,6 +39,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for i := 0; i < len(h)-1; i++ {
 		t.AlignRight(i)
 	}
+	noLoad := false
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i, c := range p.GetCoordinates() {
@@ -54,12 +55,19 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 			row = append(row, cell(f, f.Get(p.GetReport().GetAggregate())))
 		}
 		load := "ok"
-		if p.GetReport().GetFeasibility().GetInfeasible() {
+		switch {
+		case p.GetReport().GetLayout() != nil:
+			load = "–" // the multi-cell engine computes no feasibility
+			noLoad = true
+		case p.GetReport().GetFeasibility().GetInfeasible():
 			load = "INFEASIBLE"
 		}
 		t.Add(append(row, load)...)
 	}
 	t.Write(w)
+	if noLoad {
+		fmt.Fprintln(w, "load –: feasibility is not computed in multi-cell mode")
+	}
 }
 
 // sweepCSVHeader is the header of `sweep --format csv`; layout adds the
