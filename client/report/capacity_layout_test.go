@@ -68,3 +68,55 @@ func TestCapacityPageLayout(t *testing.T) {
 		})
 	}
 }
+
+// The sweep page's load column claims nothing for layout points ("–" and
+// a caption saying feasibility is not computed in multi-cell mode); a
+// single-cell point keeps "ok".
+func TestSweepPageLoadLayout(t *testing.T) {
+	for _, tc := range []struct {
+		name    string
+		layout  bool
+		caption bool
+		cell    string
+	}{
+		{"single cell", false, false, "ok"},
+		{"layout", true, true, "–"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rep := &pb.RunReport{SimulatedUserSlots: 1000, NormalisedScenario: &pb.Scenario{Name: "t"},
+				Aggregate: &pb.Figures{OutageProbability: &pb.Estimate{Value: 0.1, CiLow: 0.09, CiHigh: 0.11}}}
+			if tc.layout {
+				rep.NormalisedScenario.Layout = &pb.Layout{Sites: 7}
+				rep.Layout = &pb.LayoutReport{Overall: &pb.LayoutOverall{OtherToOwn: &pb.Estimate{Value: 1.5, CiLow: 1.4, CiHigh: 1.6},
+					OutageProbability: &pb.Estimate{Value: 0.1, CiLow: 0.09, CiHigh: 0.11}}}
+			}
+			axes := []*pb.SweepAxis{{Path: "layout.handover.window_db", Values: []float64{3}}}
+			pts := []*pb.SweepPoint{{Coordinates: []float64{3}, Report: rep}}
+			page := render(t, Input{Sweep: &Sweep{Axes: axes, Points: pts}, Source: "test"})
+			doc, err := html.Parse(strings.NewReader(page))
+			if err != nil {
+				t.Fatal(err)
+			}
+			var loads []string
+			walk(doc, func(n *html.Node) {
+				if n.Data == "tr" {
+					var cells []string
+					for c := n.FirstChild; c != nil; c = c.NextSibling {
+						if c.Type == html.ElementNode && c.Data == "td" {
+							cells = append(cells, strings.TrimSpace(text(c)))
+						}
+					}
+					if len(cells) > 0 {
+						loads = append(loads, cells[len(cells)-1])
+					}
+				}
+			})
+			if len(loads) == 0 || loads[0] != tc.cell { // the grid table is the first
+				t.Errorf("last cells of the rows %q, want the grid point's load %q first", loads, tc.cell)
+			}
+			if got := strings.Contains(text(doc), "feasibility is not computed in multi-cell mode"); got != tc.caption {
+				t.Errorf("caption note %v, want %v", got, tc.caption)
+			}
+		})
+	}
+}
