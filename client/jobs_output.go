@@ -177,7 +177,9 @@ func SweepCSVHeader(axes []tune.Axis) []string {
 }
 
 // SweepCSVRow is one point's row (numbers in Go's shortest exact form;
-// figure cells empty for a failed point, and a cell empty for a value that
+// figure cells empty for a failed point, feasible and convergence_time_s
+// empty for a layout point (not computed in multi-cell mode), and a cell
+// empty for a value that
 // is not available — NaN, e.g. the bounds of an interval a one-replication
 // layout run was too short for — as render.CSVNum writes them).
 func SweepCSVRow(r jobs.Result) []string {
@@ -199,8 +201,19 @@ func SweepCSVRow(r jobs.Result) []string {
 		return row
 	}
 	agg := &r.Report.Aggregate
-	row = append(row, strconv.FormatBool(!r.Report.Feasibility.Infeasible), strconv.Itoa(agg.Users), strconv.FormatInt(agg.UserSlots, 10))
+	// A layout point (multi-cell engine) has no feasibility verdict and no
+	// convergence time: empty cells, never true or 0.
+	layout := r.Report.Layout != nil
+	feasible := strconv.FormatBool(!r.Report.Feasibility.Infeasible)
+	if layout {
+		feasible = ""
+	}
+	row = append(row, feasible, strconv.Itoa(agg.Users), strconv.FormatInt(agg.UserSlots, 10))
 	for _, f := range sweepFigures {
+		if layout && f.key == "convergence_time_s" {
+			row = append(row, "", "", "")
+			continue
+		}
 		e := f.get(agg)
 		row = append(row, num(e.Value), num(e.CILow), num(e.CIHigh))
 	}

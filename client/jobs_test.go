@@ -320,3 +320,35 @@ func TestSweepCSVRowNoInterval(t *testing.T) {
 		}
 	}
 }
+
+// TestSweepCSVRowLayoutNotComputed: a layout point's row leaves feasible
+// and convergence_time_s empty (the multi-cell engine computes neither; 0
+// and true would read as measured), while a single-cell point keeps them.
+func TestSweepCSVRowLayoutNotComputed(t *testing.T) {
+	for _, tc := range []struct {
+		name            string
+		layout          *loop.LayoutReport
+		feasible, conv  string
+		convLow, outage string
+	}{
+		{"single cell", nil, "true", "0.25", "0.2", "0.125"},
+		{"layout", &loop.LayoutReport{}, "", "", "", "0.125"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rep := &loop.Report{Layout: tc.layout}
+			rep.Aggregate.OutageProbability = loop.Estimate{Value: 0.125, CILow: 0.1, CIHigh: 0.15}
+			rep.Aggregate.ConvergenceTimeS = loop.Estimate{Value: 0.25, CILow: 0.2, CIHigh: 0.3}
+			head, row := SweepCSVHeader(nil), SweepCSVRow(jobs.Result{Status: jobs.StatusDone, Report: rep})
+			cell := map[string]string{}
+			for i, h := range head {
+				cell[h] = row[i]
+			}
+			for k, want := range map[string]string{"feasible": tc.feasible, "convergence_time_s": tc.conv,
+				"convergence_time_s_ci_low": tc.convLow, "outage_probability": tc.outage} {
+				if cell[k] != want {
+					t.Errorf("%s = %q, want %q", k, cell[k], want)
+				}
+			}
+		})
+	}
+}

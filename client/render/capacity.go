@@ -21,36 +21,32 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 		gname = fmt.Sprintf(" (%q)", req.GetBase().GetGroups()[g].GetName())
 	}
 	limit := 100 * req.GetOutageLimit()
-	all := "users in all"
-	if req.GetBase().GetLayout().GetSites() != 0 {
-		all = "users per cell (isolated-cell pole below)" // multi-cell: counts are per cell
-	}
+	layout := CapacityIsLayout(req)
+	all := CapacityUsers(req, res.GetTotalUsers())
 	switch {
 	case res.GetHeadline() != "":
 		// The API's own verdict line, printed first.
 		fmt.Fprintln(w, Wrap(res.GetHeadline(), 78, "  "))
 		if !res.GetBelowRange() {
-			fmt.Fprintf(w, "Group %d%s: %d in the group, %d users in all\n", g, gname, res.GetCount(), res.GetTotalUsers())
+			fmt.Fprintf(w, "Group %d%s: %d in the group, %s\n", g, gname, res.GetCount(), all)
 		}
 	case res.GetBelowRange():
 		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: below the smallest count tried\n", g, gname, limit)
 	case res.GetAtRangeTop():
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: at least %d in the group, %d %s (the largest count tried passes)\n",
-			g, gname, limit, res.GetCount(), res.GetTotalUsers(), all)
+		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: at least %d in the group, %s (the largest count tried passes)\n",
+			g, gname, limit, res.GetCount(), all)
 	default:
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: %d in the group, %d %s\n",
-			g, gname, limit, res.GetCount(), res.GetTotalUsers(), all)
+		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: %d in the group, %s\n",
+			g, gname, limit, res.GetCount(), all)
 	}
-	if res.GetPoleError() == "" {
-		pp := res.GetPoleParams()
-		fmt.Fprintf(w, "Pole capacity (Gilhousen et al. 1991): %.1f users  (W/R = %.1f, Eb/I0 = %g dB, activity %g, f = %g, %g sector)\n",
-			res.GetPole(), pp.GetChipRateHz()/pp.GetBitRateBps(), pp.GetEbI0Db(), pp.GetActivityFactor(), pp.GetOtherCellRatio(), pp.GetSectors())
-		fmt.Fprintf(w, "Pole of the engine's interference equation: %.1f users\n", res.GetModelPole())
-	} else {
-		fmt.Fprintf(w, "Pole capacity: not available (%s)\n", res.GetPoleError())
-	}
+	fmt.Fprintln(w, CapacityPoleLines(req, res))
 	fmt.Fprintln(w)
-	h := []string{"count", "users", "limits", shortLabel("outage_probability"), shortLabel("noise_rise_mean_db"), "load"}
+	usersHead, load := "users", "feasible"
+	if layout {
+		// Multi-cell: counts per cell; the engine computes no feasibility.
+		usersHead, load = "users/cell", "–"
+	}
+	h := []string{"count", usersHead, "limits", shortLabel("outage_probability"), shortLabel("noise_rise_mean_db"), "load"}
 	for _, k := range CapacityFigures {
 		h = append(h, shortLabel(k))
 	}
@@ -75,8 +71,8 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 			}
 			return "over"
 		}
-		load := "feasible"
-		if !p.GetLoadFeasible() {
+		load := load
+		if !layout && !p.GetLoadFeasible() {
 			load = "infeasible"
 		}
 		row := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), pass,
@@ -89,6 +85,9 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 	}
 	t.Write(w)
 	fmt.Fprintf(w, "* the capacity found; values with their %g %% intervals [low, high]\n", 100*confidenceOf(req))
+	if layout {
+		fmt.Fprintln(w, "load –: feasibility is not computed in multi-cell mode (only the outage and noise-rise limits are applied)")
+	}
 	fmt.Fprintf(w, "\n%s\n", Wrap(res.GetReason(), 78, ""))
 	if n := res.GetNotice(); n != "" {
 		fmt.Fprintln(w, Wrap(n, 78, ""))
@@ -97,18 +96,78 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 }
 
 // CapacityCSV writes one row per evaluated count of a capacity search.
-func CapacityCSV(w io.Writer, res *pb.CapacityResult) error {
+// Single cell: count, total_users, pass, outage_ok, noise_rise_ok,
+// load_feasible, capacity, n, then the figures. Multi-cell (req's base has
+// a layout): the users column holds users per cell and is named
+// users_per_cell, layout_users (users per cell × cells) follows it, and
+// load_feasible is empty (not computed).
+func CapacityCSV(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult) error {
 	cw := csv.NewWriter(w)
-	cw.Write(append([]string{"count", "total_users", "pass", "outage_ok", "noise_rise_ok", "load_feasible", "capacity", "n"}, searchFigureHeader()...))
+	layout := CapacityIsLayout(req)
+	cells := layoutCells(req.GetBase())
+	h := []string{"count", "total_users"}
+	if layout {
+		h = []string{"count", "users_per_cell", "layout_users"}
+	}
+	cw.Write(append(append(h, "pass", "outage_ok", "noise_rise_ok", "load_feasible", "capacity", "n"), searchFigureHeader()...))
 	for _, p := range res.GetEvaluated() {
-		r := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers())), strconv.FormatBool(p.GetPass()),
-			strconv.FormatBool(p.GetOutageOk()), strconv.FormatBool(p.GetNoiseRiseOk()), strconv.FormatBool(p.GetLoadFeasible()),
+		r := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers()))}
+		feasible := strconv.FormatBool(p.GetLoadFeasible())
+		if layout {
+			r = append(r, strconv.Itoa(int(p.GetTotalUsers())*cells))
+			feasible = ""
+		}
+		r = append(r, strconv.FormatBool(p.GetPass()),
+			strconv.FormatBool(p.GetOutageOk()), strconv.FormatBool(p.GetNoiseRiseOk()), feasible,
 			strconv.FormatBool(p.GetCount() == res.GetCount() && !res.GetBelowRange()),
-			strconv.Itoa(int(p.GetFigures().GetOutageProbability().GetN()))}
+			strconv.Itoa(int(p.GetFigures().GetOutageProbability().GetN())))
 		cw.Write(append(r, searchFigureCells(p.GetFigures())...))
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// CapacityIsLayout reports a capacity search of a multi-cell base
+// (layout.sites set): its counts are users per cell.
+func CapacityIsLayout(req *pb.CapacityRequest) bool { return req.GetBase().GetLayout().GetSites() != 0 }
+
+// layoutCells is a scenario's number of cells, sites × sectors (sectors 0
+// means 1); 1 without a layout.
+func layoutCells(sc *pb.Scenario) int {
+	l := sc.GetLayout()
+	if l.GetSites() == 0 {
+		return 1
+	}
+	return int(l.GetSites()) * int(max(1, l.GetSectorsPerSite()))
+}
+
+// CapacityUsers is the users of a capacity count over all groups: "23
+// users in all", or in multi-cell mode "23 users per cell (483 in the
+// layout's 21 cells)".
+func CapacityUsers(req *pb.CapacityRequest, users int32) string {
+	if !CapacityIsLayout(req) {
+		return fmt.Sprintf("%d users in all", users)
+	}
+	c := layoutCells(req.GetBase())
+	return fmt.Sprintf("%d users per cell (%d in the layout's %d cells)", users, int(users)*c, c)
+}
+
+// CapacityPoleLines is the pole estimates with their inputs, one line
+// each (joined by newlines). Multi-cell: the pole of one cell with the layout's measured f at
+// the capacity count (the server's CapacityResult.pole_params), one sector
+// per cell since the other sectors' interference is part of f.
+func CapacityPoleLines(req *pb.CapacityRequest, res *pb.CapacityResult) string {
+	if res.GetPoleError() != "" {
+		return fmt.Sprintf("Pole capacity: not available (%s)", res.GetPoleError())
+	}
+	pp := res.GetPoleParams()
+	gpText := fmt.Sprintf("W/R = %.1f, Eb/I0 = %g dB, activity %g", pp.GetChipRateHz()/pp.GetBitRateBps(), pp.GetEbI0Db(), pp.GetActivityFactor())
+	if !CapacityIsLayout(req) {
+		return fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f users  (%s, f = %g, %g sector)\n", res.GetPole(), gpText, pp.GetOtherCellRatio(), pp.GetSectors()) +
+			fmt.Sprintf("Pole of the engine's interference equation: %.1f users", res.GetModelPole())
+	}
+	return fmt.Sprintf("Pole capacity of one cell (Gilhousen et al. 1991): %.1f users per cell  (%s, f = %.2f measured in the layout, 1 sector: a cell is one sector)\n", res.GetPole(), gpText, pp.GetOtherCellRatio()) +
+		fmt.Sprintf("Single-receiver pole (G_p+γ)/(γ·ν·(1+f)) with the same f: %.1f users per cell", res.GetModelPole())
 }
 
 // confidenceOf is a capacity request's confidence (0.95 when unset, the

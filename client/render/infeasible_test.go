@@ -28,7 +28,7 @@ func TestInfeasiblePointsShownAsSuch(t *testing.T) {
 		t.Errorf("infeasible row %q: want — cells and INFEASIBLE, no zeros", last)
 	}
 	var cb bytes.Buffer
-	if err := SweepCSV(&cb, axes, []*pb.SweepPoint{ok, bad}); err != nil {
+	if err := SweepCSV(&cb, axes, []*pb.SweepPoint{ok, bad}, false); err != nil {
 		t.Fatal(err)
 	}
 	rows, err := csv.NewReader(&cb).ReadAll()

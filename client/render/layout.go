@@ -23,6 +23,63 @@ var layoutOnlyMissing = map[string]bool{
 	"convergence_time_s": true,
 }
 
+// layoutCSVFigures are the layout's own figures that a layout run or
+// sweep adds to its CSV, by their proto names (LayoutOverall), each with
+// its 95 % interval (F, F_ci_low, F_ci_high): other_to_own is f, the
+// other-cell / own-cell interference ratio over every cell (linear);
+// soft_handover_share the share of user-slots with two or more cells in the
+// active set (fraction). The layout's noise rise is in the figure columns
+// noise_rise_mean_db and noise_rise_p95_db (mean and 95th percentile over
+// cells and slots), not repeated here.
+var layoutCSVFigures = []struct {
+	key string
+	get func(*pb.LayoutOverall) *pb.Estimate
+}{
+	{"other_to_own", (*pb.LayoutOverall).GetOtherToOwn},
+	{"soft_handover_share", (*pb.LayoutOverall).GetSoftHandoverShare},
+}
+
+// layoutCSVHeader is the columns of layoutCSVFigures.
+func layoutCSVHeader() []string {
+	var h []string
+	for _, f := range layoutCSVFigures {
+		h = append(h, f.key, f.key+"_ci_low", f.key+"_ci_high")
+	}
+	return h
+}
+
+// layoutCSVCells is a layout report's layoutCSVFigures cells; all empty
+// without a layout (a single-cell point of a sweep that varies
+// layout.sites).
+func layoutCSVCells(l *pb.LayoutReport) []string {
+	c := make([]string, 0, 3*len(layoutCSVFigures))
+	for _, f := range layoutCSVFigures {
+		if l == nil {
+			c = append(c, "", "", "")
+			continue
+		}
+		e := f.get(l.GetOverall())
+		c = append(c, CSVNum(e.GetValue()), CSVNum(e.GetCiLow()), CSVNum(e.GetCiHigh()))
+	}
+	return c
+}
+
+// reportFigureCSVCells is the figure cells of a report's aggregate: those
+// the multi-cell engine does not compute (layoutOnlyMissing) are empty for
+// a layout report, never 0.
+func reportFigureCSVCells(rep *pb.RunReport) []string {
+	c := figureCSVCells(rep.GetAggregate())
+	if rep.GetLayout() == nil {
+		return c
+	}
+	for i, f := range figures {
+		if layoutOnlyMissing[f.Key] {
+			c[3*i], c[3*i+1], c[3*i+2] = "", "", ""
+		}
+	}
+	return c
+}
+
 // ci is "[lo, hi]" of an estimate scaled and rounded ("–" without one:
 // Interval).
 func ci(e *pb.Estimate, scale float64, dec int) string {

@@ -105,24 +105,35 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	}
 }
 
-// RunCSVHeader is the header of `run --format csv`.
-func RunCSVHeader() []string {
-	return append([]string{"scope", "index", "group", "distance_m", "min_distance_m", "max_distance_m", "users", "user_slots"},
+// RunCSVHeader is the header of `run --format csv`; layout (a multi-cell
+// report) adds the layout's own figures (layoutCSVFigures) at the end.
+func RunCSVHeader(layout bool) []string {
+	h := append([]string{"scope", "index", "group", "distance_m", "min_distance_m", "max_distance_m", "users", "user_slots"},
 		figureCSVHeader()...)
+	if layout {
+		h = append(h, layoutCSVHeader()...)
+	}
+	return h
 }
 
 // RunCSV writes a run report as CSV: one row per scope (aggregate, bin,
-// user) under RunCSVHeader.
+// user) under RunCSVHeader. A figure that was not computed (infeasible
+// before the run; in a layout the percentiles and convergence time) has
+// empty cells, never 0.
 func RunCSV(w io.Writer, rep *pb.RunReport) error {
 	cw := csv.NewWriter(w)
-	cw.Write(RunCSVHeader())
+	layout := rep.GetLayout() != nil
+	cw.Write(RunCSVHeader(layout))
 	agg := rep.GetAggregate()
-	cells := figureCSVCells(agg)
+	cells := reportFigureCSVCells(rep)
 	if notSimulated(rep) {
 		// Infeasible before the run: no figures, empty cells (not zeros).
 		for i := range cells {
 			cells[i] = ""
 		}
+	}
+	if layout {
+		cells = append(cells, layoutCSVCells(rep.GetLayout())...)
 	}
 	cw.Write(append([]string{"aggregate", "", "", "", "", "", strconv.Itoa(int(agg.GetUsers())),
 		strconv.FormatInt(agg.GetUserSlots(), 10)}, cells...))

@@ -39,6 +39,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for i := 0; i < len(h)-1; i++ {
 		t.AlignRight(i)
 	}
+	noLoad := false
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i, c := range p.GetCoordinates() {
@@ -54,41 +55,80 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 			row = append(row, cell(f, f.Get(p.GetReport().GetAggregate())))
 		}
 		load := "ok"
-		if p.GetReport().GetFeasibility().GetInfeasible() {
+		switch {
+		case p.GetReport().GetLayout() != nil:
+			load = "–" // the multi-cell engine computes no feasibility
+			noLoad = true
+		case p.GetReport().GetFeasibility().GetInfeasible():
 			load = "INFEASIBLE"
 		}
 		t.Add(append(row, load)...)
 	}
 	t.Write(w)
+	if noLoad {
+		fmt.Fprintln(w, "load –: feasibility is not computed in multi-cell mode")
+	}
 }
 
-// SweepCSVHeader is the header of `sweep --format csv`.
-func sweepCSVHeader(axes []*pb.SweepAxis) []string {
+// sweepCSVHeader is the header of `sweep --format csv`; layout adds the
+// layout's own figures (layoutCSVFigures) at the end.
+func sweepCSVHeader(axes []*pb.SweepAxis, layout bool) []string {
 	h := []string{"index", "seed"}
 	for _, a := range axes {
 		h = append(h, a.GetPath())
 	}
 	h = append(h, "feasible", "users", "user_slots")
-	return append(h, figureCSVHeader()...)
+	h = append(h, figureCSVHeader()...)
+	if layout {
+		h = append(h, layoutCSVHeader()...)
+	}
+	return h
 }
 
-// SweepCSV writes one row per sweep point under SweepCSVHeader.
-func SweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint) error {
+// SweepIsLayout reports whether a sweep's points may run on the multi-cell
+// engine (the base has layout.sites set, or an axis varies it): its CSV
+// then has the layout columns.
+func SweepIsLayout(req *pb.SweepRequest) bool {
+	if req.GetBase().GetLayout().GetSites() != 0 {
+		return true
+	}
+	for _, a := range req.GetAxes() {
+		if a.GetPath() == "layout.sites" {
+			return true
+		}
+	}
+	return false
+}
+
+// SweepCSV writes one row per sweep point under sweepCSVHeader (layout:
+// SweepIsLayout of the request). A figure that was not computed has empty
+// cells, never 0: every figure of a load infeasible before the run, and
+// on a layout point the percentiles, the convergence time and feasible
+// (the multi-cell engine computes no feasibility).
+func SweepCSV(w io.Writer, axes []*pb.SweepAxis, pts []*pb.SweepPoint, layout bool) error {
 	cw := csv.NewWriter(w)
-	cw.Write(sweepCSVHeader(axes))
+	cw.Write(sweepCSVHeader(axes, layout))
 	for _, p := range pts {
-		agg := p.GetReport().GetAggregate()
+		rep := p.GetReport()
+		agg := rep.GetAggregate()
 		row := []string{strconv.FormatInt(p.GetIndex(), 10), strconv.FormatUint(p.GetSeed(), 10)}
 		for i, c := range p.GetCoordinates() {
 			row = append(row, coordinateText(p, i, c, CSVNum))
 		}
-		row = append(row, strconv.FormatBool(!p.GetReport().GetFeasibility().GetInfeasible()),
-			strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
-		if notSimulated(p.GetReport()) {
-			cw.Write(append(row, make([]string, len(figureCSVHeader()))...)) // infeasible load: empty cells, not zeros
-			continue
+		feasible := strconv.FormatBool(!rep.GetFeasibility().GetInfeasible())
+		if rep.GetLayout() != nil {
+			feasible = "" // not computed in multi-cell mode
 		}
-		cw.Write(append(row, figureCSVCells(agg)...))
+		row = append(row, feasible, strconv.Itoa(int(agg.GetUsers())), strconv.FormatInt(agg.GetUserSlots(), 10))
+		if notSimulated(rep) {
+			row = append(row, make([]string, len(figureCSVHeader()))...) // infeasible load: empty cells, not zeros
+		} else {
+			row = append(row, reportFigureCSVCells(rep)...)
+		}
+		if layout {
+			row = append(row, layoutCSVCells(rep.GetLayout())...)
+		}
+		cw.Write(row)
 	}
 	cw.Flush()
 	return cw.Error()

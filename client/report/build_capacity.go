@@ -29,31 +29,48 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		}
 		limit = " at outage ≤ " + num(100*req.GetOutageLimit(), 2) + " %"
 	}
+	// Multi-cell: the counts are per cell (the layout's total beside
+	// them) and the pole is one cell's with the layout's measured f.
+	layout := clirender.CapacityIsLayout(req)
+	users := clirender.CapacityUsers(req, res.GetTotalUsers())
+	unit := "users"
+	if layout {
+		unit = "users per cell"
+	}
 	switch {
 	case res.GetBelowRange():
 		d.Verdict = verdict{Class: "bad", Headline: "Even the smallest count searched fails" + limit + "."}
 	case res.GetAtRangeTop():
-		d.Verdict = verdict{Class: "warn", Headline: fmt.Sprintf("Capacity of %s%s: at least %d (the top of the searched range), %d users in all", group, limit, res.GetCount(), res.GetTotalUsers())}
+		d.Verdict = verdict{Class: "warn", Headline: fmt.Sprintf("Capacity of %s%s: at least %d (the top of the searched range), %s", group, limit, res.GetCount(), users)}
 	default:
-		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Capacity of %s%s: %d in the group, %d users in all", group, limit, res.GetCount(), res.GetTotalUsers())}
+		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Capacity of %s%s: %d in the group, %s", group, limit, res.GetCount(), users)}
 	}
 	if r := res.GetReason(); r != "" {
 		d.Verdict.Lines = append(d.Verdict.Lines, r)
+		if strings.Contains(r, "not separated from the") && d.Verdict.Class == "ok" {
+			d.Verdict.Class = "warn" // the count's interval straddles a limit
+		}
 	}
 	reasonHasPoles := strings.Contains(res.GetReason(), "Gilhousen")
 	if pp := res.GetPoleParams(); res.GetPole() > 0 {
-		line := fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %s users (W/R = %s, Eb/I0 = %s dB, activity %g, f = %g, %g sector(s)).",
-			num(res.GetPole(), 1), num(pp.GetChipRateHz()/pp.GetBitRateBps(), 1), num(pp.GetEbI0Db(), 2), pp.GetActivityFactor(), pp.GetOtherCellRatio(), pp.GetSectors())
+		f := fmt.Sprintf("f = %g, %g sector(s)", pp.GetOtherCellRatio(), pp.GetSectors())
+		if layout {
+			f = "f = " + num(pp.GetOtherCellRatio(), 2) + " measured in the layout at the capacity count, 1 sector per cell (the other sectors' interference is part of f)"
+		}
+		params := "W/R = " + num(pp.GetChipRateHz()/pp.GetBitRateBps(), 1) + ", Eb/I0 = " + num(pp.GetEbI0Db(), 2) + fmt.Sprintf(" dB, activity %g, ", pp.GetActivityFactor()) + f
+		line := fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %s %s (%s).", num(res.GetPole(), 1), unit, params)
 		if reasonHasPoles {
-			line = "Pole capacity parameters: W/R = " + num(pp.GetChipRateHz()/pp.GetBitRateBps(), 1) + ", Eb/I0 = " + num(pp.GetEbI0Db(), 2) +
-				fmt.Sprintf(" dB, activity %g, f = %g, %g sector(s).", pp.GetActivityFactor(), pp.GetOtherCellRatio(), pp.GetSectors())
+			line = "Pole capacity parameters: " + params + "."
 		}
 		d.Verdict.Lines = append(d.Verdict.Lines, line)
-	} else if e := res.GetPoleError(); e != "" {
+	} else if e := res.GetPoleError(); e != "" && !reasonHasPoles && !strings.Contains(res.GetReason(), e) {
 		d.Verdict.Lines = append(d.Verdict.Lines, "Pole capacity not computed: "+e)
 	}
 	if mp := res.GetModelPole(); mp > 0 && !reasonHasPoles {
-		d.Verdict.Lines = append(d.Verdict.Lines, "Pole of the engine's interference equation: "+num(mp, 1)+" users.")
+		d.Verdict.Lines = append(d.Verdict.Lines, "Pole of the engine's interference equation: "+num(mp, 1)+" "+unit+".")
+	}
+	if layout {
+		d.Verdict.Lines = append(d.Verdict.Lines, "Feasibility is not computed in multi-cell mode: only the outage and noise-rise limits are applied.")
 	}
 	if res.GetNonMonotone() {
 		d.Verdict.Class = "warn"
@@ -64,7 +81,7 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		d.Verdict.Lines = append(d.Verdict.Lines, "The user-slot budget ran out before the search finished.")
 	}
 	t := table{Caption: "Every count evaluated (mean [interval] over replications); the capacity is marked.",
-		Head: []string{"count", "users", clirender.MustFigure("outage_probability").Head(), "pass"}}
+		Head: []string{"count", map[bool]string{false: "users", true: "users per cell"}[layout], clirender.MustFigure("outage_probability").Head(), "pass"}}
 	capCols := append(append([]string(nil), clirender.CapacityFigures...), "noise_rise_mean_db")
 	for _, k := range capCols {
 		t.Head = append(t.Head, clirender.MustFigure(k).Head())
@@ -89,8 +106,17 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 	if req != nil {
 		seed = strconv.FormatUint(req.GetBase().GetRun().GetSeed(), 10) + " (the base scenario's run.seed; common random numbers across counts)"
 	}
+	reps := "not recorded in this result"
+	if req != nil {
+		n := req.GetReplications()
+		if n == 0 {
+			n = 4 // the server's default
+		}
+		reps = fmt.Sprintf("%d per count (the request's; the scenario's run.replications is not used)", n)
+	}
 	d.Repro = [][2]string{
 		{"seed", seed},
+		{"replications", reps},
 		{"engine version", orMissing(engine)},
 		{"effort", fmt.Sprintf("%s replications, %s user-slots in %s s", thousands(res.GetReplications()), thousands(res.GetUserSlots()), num(res.GetWallTimeS(), 2))},
 	}

@@ -101,6 +101,7 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 	}
 	t.Head = append(t.Head, "load")
 	t.Num = numCols(len(t.Head), rangeFrom(0, len(t.Head)-1)...)
+	noLoad := false
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i := range s.Axes {
@@ -114,10 +115,17 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 			row = append(row, figureEstimate(k, p.GetReport().GetAggregate()))
 		}
 		load := "ok"
-		if p.GetReport().GetFeasibility().GetInfeasible() {
+		switch {
+		case p.GetReport().GetLayout() != nil:
+			load = "–" // the multi-cell engine computes no feasibility
+			noLoad = true
+		case p.GetReport().GetFeasibility().GetInfeasible():
 			load = "infeasible"
 		}
 		t.add(p == best, append(row, load)...)
+	}
+	if noLoad {
+		t.Caption += " Load –: feasibility is not computed in multi-cell mode."
 	}
 	d.Sections = append(d.Sections, section{ID: "points", Heading: "Grid points", Tables: []table{t}})
 	title := pts[0].GetReport().GetNormalisedScenario().GetName()

@@ -143,10 +143,16 @@ type CapacityPoint struct {
 	// rise ≤ the noise-rise limit. LoadFeasible: no replication was
 	// flagged infeasible by the engine (load factor or spectral radius
 	// ≥ 1, or users pinned at maximum power below target).
+	// In multi-cell mode the engine computes no feasibility: LoadFeasible
+	// is then true by construction and outputs show it as not computed.
 	OutageOK     bool        `json:"outage_ok"`
 	NoiseRiseOK  bool        `json:"noise_rise_ok"`
 	LoadFeasible bool        `json:"load_feasible"`
 	Figures      TuneFigures `json:"figures"`
+	// OtherToOwn is, in multi-cell mode, the mean over the replications of
+	// the layout's measured other-cell / own-cell interference ratio f
+	// (LayoutOverall.other_to_own, linear); NaN in single-cell mode.
+	OtherToOwn float64 `json:"-"`
 }
 
 // CapacityResult is the answer of Capacity.
@@ -162,7 +168,11 @@ type CapacityResult struct {
 	// Evaluated lists every evaluated count, ascending.
 	Evaluated []CapacityPoint `json:"evaluated"`
 	// Pole is the analytic pole capacity (total users) from PoleParamsOf,
-	// with its inputs; PoleError says why it is missing, if it is.
+	// with its inputs; PoleError says why it is missing, if it is. In
+	// multi-cell mode it is the pole of one cell (one sector) with the
+	// layout's measured f at the capacity count (PoleParams.OtherCellRatio,
+	// Sectors 1: the site's other sectors are other cells, their
+	// interference is part of f).
 	Pole       float64    `json:"pole"`
 	PoleParams PoleParams `json:"pole_params"`
 	PoleError  string     `json:"pole_error,omitempty"`
@@ -207,10 +217,10 @@ type CapacityResult struct {
 // random numbers, the largest count whose mean outage is at or below the
 // limit, and puts the analytic pole capacity beside it. With a layout
 // (multi-cell mode) the count is users per cell, outage and noise rise are
-// the layout-wide figures (noise rise: mean over cells), and the pole is
-// that of an isolated cell (f = receiver.other_cell_ratio = 0): the gap to
-// the simulated count shows what the simulated other-cell interference
-// costs. Bad requests return
+// the layout-wide figures (noise rise: mean over cells), feasibility is not
+// computed, and the pole is that of one cell with the other-cell ratio f
+// the layout measured at the capacity count (see CapacityResult.Pole).
+// Bad requests return
 // loop.Violations naming each field; a cancelled ctx returns ctx.Err().
 // It is PlanCapacity followed by CapacityPlan.Run.
 func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityResult, error) {
@@ -223,20 +233,11 @@ func Capacity(ctx context.Context, req CapacityRequest, opt Options) (*CapacityR
 
 // Run answers the plan's request as Capacity does.
 func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult, error) {
-	eval := evaluatorFor(opt)
 	req, set := plan.req, plan.set
+	eval := capacityEvaluator(opt, set.base.MultiCell())
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
 	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}
 	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}
-	res.PoleParams = PoleParamsOf(base)
-	if pc, err := PoleCapacity(res.PoleParams); err != nil {
-		res.PoleError = err.Error()
-	} else {
-		res.Pole = pc
-		pp := res.PoleParams
-		gp, g := pp.ChipRateHz/pp.BitRateBps, math.Pow(10, pp.EbI0DB/10)
-		res.ModelPole = (gp + g) / (g * pp.ActivityFactor * (1 + pp.OtherCellRatio))
-	}
 	memo := map[int]*CapacityPoint{}
 	seed := base.Run.Seed
 	// eval1 evaluates count n; remaining is the number of counts left in
@@ -263,12 +264,15 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 			jobs[r] = job{k: n, r: r}
 		}
 		samples := make([]Sample, reps)
+		fs := make([]float64, reps)
 		e.remain = remaining
 		e.left = reps * (1 + after)
 		err := e.runJobs(ctx, jobs, func(ctx context.Context, j job) (Sample, error) {
 			s := sc
 			s.Run.Seed = ReplicationSeed(seed, 0, j.r)
-			return eval(ctx, &s)
+			smp, f, err := eval(ctx, &s)
+			fs[j.r] = f
+			return smp, err
 		}, func(j job, s Sample) {
 			samples[j.r] = s
 			res.Replications++
@@ -282,6 +286,7 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 			OutageOK:     fg.OutageProbability.Mean <= req.OutageLimit,
 			NoiseRiseOK:  fg.NoiseRiseDB.Mean <= nrLim,
 			LoadFeasible: fg.InfeasibleReplications == 0,
+			OtherToOwn:   meanOf(fs),
 		}
 		p.Pass = p.OutageOK && p.NoiseRiseOK && p.LoadFeasible
 		memo[n] = p
@@ -390,11 +395,12 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 	if fail != nil {
 		res.LimitedBy = failures(fail)
 	}
+	setPole(res, base)
 	unit := "users"
 	if base.MultiCell() {
-		unit = "users per cell" // counts, totals and the isolated-cell pole
+		unit = "users per cell" // counts, totals and the one-cell pole
 	}
-	res.Headline, res.Reason = capacityReason(res, fail, unit)
+	res.Headline, res.Reason = capacityReason(res, fail, unit, base, conf)
 	e.report(true)
 	return res, nil
 }
@@ -427,10 +433,11 @@ func pointText(p *CapacityPoint, unit string) string {
 }
 
 // capacityReason is the headline and reason of res; unit names the counts
-// ("users", or "users per cell" in multi-cell mode).
-func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string) (headline, reason string) {
-	nl := FigureLabelOf(FigureNoiseRise)
-	limits := fmt.Sprintf("outage ≤ %s, noise rise ≤ %s, feasible load", pct(res.OutageLimit), nl.Value(res.NoiseRiseLimitDB))
+// ("users", or "users per cell" in multi-cell mode, where the headline
+// also gives the layout's total and claims no feasibility), base is the
+// setting searched and conf the intervals' confidence.
+func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string, base loop.Scenario, conf float64) (headline, reason string) {
+	limits := capacityLimits(res, base.MultiCell())
 	var at *CapacityPoint
 	for i := range res.Evaluated {
 		if res.Evaluated[i].Count == res.Count {
@@ -456,20 +463,21 @@ func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string) (head
 		headline = fmt.Sprintf("Capacity: below the range tried: %d %s already miss %s%s.", p.TotalUsers, unit, limits, by)
 		first = fmt.Sprintf("Even the smallest count tried misses the limits (%s).", pointText(p, unit))
 	case res.AtRangeTop:
-		headline = fmt.Sprintf("Capacity: at least %d %s (%s); the largest count tried passes.", res.TotalUsers, unit, limits)
+		headline = fmt.Sprintf("Capacity: at least %d %s%s (%s); the largest count tried passes.", res.TotalUsers, unit, layoutUsers(res.TotalUsers, base), limits)
 		first = fmt.Sprintf("All %d %s tried meet the limits (%s).", res.TotalUsers, unit, pointText(at, unit))
 	default:
-		headline = fmt.Sprintf("Capacity: %d %s (%s)%s.", res.TotalUsers, unit, limits, by)
+		headline = fmt.Sprintf("Capacity: %d %s%s (%s)%s.", res.TotalUsers, unit, layoutUsers(res.TotalUsers, base), limits, by)
 		first = fmt.Sprintf("Up to %d %s meet the limits (%s)", res.TotalUsers, unit, pointText(at, unit))
 		if fail != nil {
 			first += fmt.Sprintf("; %d %s miss them (%s)", fail.TotalUsers, unit, pointText(fail, unit))
 		}
 		first += "."
 	}
-	var pole string
-	if res.PoleError == "" {
-		pole = fmt.Sprintf("Pole capacity (Gilhousen et al. 1991): %.1f %s; the pole of this model's own interference equation: %.1f %s. The simulated figure adds fading, the loop's own errors, the outage margin and the noise-rise ceiling.", res.Pole, unit, res.ModelPole, unit)
+	var caution string
+	if !res.BelowRange {
+		caution = unseparated(res, at, unit, conf)
 	}
+	pole := poleSentence(res, base, unit)
 	var nm string
 	if res.BudgetExhausted {
 		nm = "The budget ran out before the bisection closed: the count is the largest confirmed to pass"
@@ -481,5 +489,5 @@ func capacityReason(res *CapacityResult, fail *CapacityPoint, unit string) (head
 	if res.NonMonotone {
 		nm = join(nm, "The pass/fail outcome was not monotone in the count at this precision; more replications would sharpen the answer.")
 	}
-	return headline, join(first, pole, nm)
+	return headline, join(first, caution, pole, nm)
 }

@@ -377,3 +377,105 @@ func TestPointTextUnitsOnce(t *testing.T) {
 		t.Errorf("pointText = %q, want %q", got, want)
 	}
 }
+
+// layoutFake is a stand-in multi-cell engine (Options.RunReplication): at
+// n users per cell the outage is 0.002·e^(n/8)·(1+spread·z) (z one normal
+// per replication seed, shared across counts) and the measured f is
+// 1 + 0.02·n, so the f of each count is known exactly; the noise rise is 0
+// (never binding) and the engine reports no feasibility, as the
+// multi-cell engine does.
+func layoutFake(spread float64) func(context.Context, loop.Scenario) (*loop.Report, error) {
+	return func(ctx context.Context, sc loop.Scenario) (*loop.Report, error) {
+		n := float64(sc.Groups[0].Count)
+		z := fading.NewStream(sc.Run.Seed, 0, 0, 1).NormFloat64()
+		rep := &loop.Report{SimulatedUserSlots: int64(n) * sc.TotalSlots(), Layout: &loop.LayoutReport{}}
+		rep.Aggregate.OutageProbability.Value = math.Min(1, 0.002*math.Exp(n/8)*(1+spread*z))
+		rep.Layout.Overall.OtherToOwn.Value = 1 + 0.02*n
+		return rep, nil
+	}
+}
+
+// TestCapacityLayoutPoleAndWording: on a layout the pole is one cell's
+// with the layout's measured f at the capacity count, N = (W/R)/(Eb/I0)/ν
+// /(1+f) with one sector (Gilhousen et al., IEEE Trans. Veh. Technol.
+// 40(2), 1991; a cell is one sector, the other sectors' interference is in
+// f), not the isolated cell's f = 0; the headline gives the layout's total
+// and claims no feasibility (the multi-cell engine computes none). A
+// single-cell search keeps receiver.other_cell_ratio and "feasible load".
+// A count whose outage interval contains the limit gets the caution, a
+// count clear of it does not.
+func TestCapacityLayoutPoleAndWording(t *testing.T) {
+	single := capRequest(0.05)
+	layout := CapacityRequest{Base: multiBase(), OutageLimit: 0.05, Replications: 3, MinCount: 4, MaxCount: 40}
+	for _, tc := range []struct {
+		name        string
+		req         CapacityRequest
+		opt         Options
+		eval        evaluator
+		wantF       func(count int) float64
+		headline    []string
+		notHeadline []string
+		caution     bool
+	}{
+		{"single cell", single, Options{}, capToy, func(int) float64 { return 0.2 },
+			[]string{"feasible load", " users ("}, []string{"per cell", "feasibility not computed"}, true},
+		{"layout, narrow intervals", layout, Options{RunReplication: layoutFake(0.001)}, nil,
+			func(n int) float64 { return 1 + 0.02*float64(n) },
+			[]string{"users per cell, ", "in the layout's 7 cells", "feasibility not computed in multi-cell mode"}, []string{"feasible load"}, false},
+		{"layout, wide intervals", layout, Options{RunReplication: layoutFake(0.3)}, nil,
+			func(n int) float64 { return 1 + 0.02*float64(n) },
+			[]string{"users per cell, "}, []string{"feasible load"}, true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var res *CapacityResult
+			var err error
+			if tc.eval != nil {
+				res, err = capacityWith(context.Background(), tc.req, tc.opt, tc.eval)
+			} else {
+				res, err = Capacity(context.Background(), tc.req, tc.opt)
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Log(res.Headline, "|", res.Reason)
+			if res.BelowRange || res.AtRangeTop {
+				t.Fatalf("capacity at the edge of the range: %s", res.Headline)
+			}
+			pp, f := res.PoleParams, tc.wantF(res.Count)
+			if math.Abs(pp.OtherCellRatio-f) > 1e-12 || pp.Sectors != 1 {
+				t.Errorf("pole inputs f = %g, sectors %g; want f = %g (at %d), 1 sector", pp.OtherCellRatio, pp.Sectors, f, res.Count)
+			}
+			sc := tc.req.Base.Clone()
+			sc.Normalise()
+			want := sc.Receiver.ChipRateHz / sc.Receiver.BitRateBps / math.Pow(10, sc.OuterLoop.InitialTargetDB/10) /
+				sc.Groups[0].ActivityFactor / (1 + f)
+			if math.Abs(res.Pole-want) > 1e-9*want {
+				t.Errorf("pole %.4f, want %.4f", res.Pole, want)
+			}
+			for _, s := range tc.headline {
+				if !strings.Contains(res.Headline, s) {
+					t.Errorf("headline %q lacks %q", res.Headline, s)
+				}
+			}
+			for _, s := range tc.notHeadline {
+				if strings.Contains(res.Headline, s) {
+					t.Errorf("headline %q has %q", res.Headline, s)
+				}
+			}
+			var at *CapacityPoint
+			for i := range res.Evaluated {
+				if res.Evaluated[i].Count == res.Count {
+					at = &res.Evaluated[i]
+				}
+			}
+			o := at.Figures.OutageProbability
+			straddles := !o.Excludes(res.OutageLimit)
+			if straddles != tc.caution {
+				t.Fatalf("outage at the count %v straddles the limit %g: %v, the case expects %v (change the case)", o, res.OutageLimit, straddles, tc.caution)
+			}
+			if got := strings.Contains(res.Reason, "not separated from the 5.00 % limit"); got != tc.caution {
+				t.Errorf("caution in the reason: %v, want %v: %s", got, tc.caution, res.Reason)
+			}
+		})
+	}
+}

@@ -243,8 +243,8 @@ func TestRunFormats(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if strings.Join(rows[0], ",") != strings.Join(render.RunCSVHeader(), ",") {
-		t.Errorf("CSV header %v, want %v", rows[0], render.RunCSVHeader())
+	if strings.Join(rows[0], ",") != strings.Join(render.RunCSVHeader(false), ",") {
+		t.Errorf("CSV header %v, want %v", rows[0], render.RunCSVHeader(false))
 	}
 	scopes := map[string]int{}
 	for _, row := range rows[1:] {

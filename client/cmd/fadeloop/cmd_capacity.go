@@ -6,8 +6,10 @@ import (
 	"io"
 	"math"
 
+	"github.com/fadeloop/fadeloop/client"
 	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 )
@@ -24,7 +26,10 @@ over --replications stays at or below --outage-limit, with the same seeds at
 every count (common random numbers). Without --max-count the search doubles
 upward from --min-count until a count fails. The analytic pole capacity
 (Gilhousen et al. 1991) and the pole of the engine's own interference
-equation are printed beside the simulated figure. The group's placement
+equation are printed beside the simulated figure. On a layout (multi-cell)
+the counts are users per cell, feasibility is not computed, and the poles
+are one cell's with the other-cell ratio f the layout measured at the
+capacity count. A count whose interval contains a limit gets a caution. The group's placement
 must be uniform. Without --max-count the worst case (doubling up to the
 server's user limit, see "fadeloop info") is what the server's cost bound
 is checked against, and it often exceeds it: give --max-count or --max-user-slots.
@@ -35,10 +40,15 @@ fadeloop.v1.CapacityRequest; flags override its fields.
 Output formats:
   table  the capacity, the pole estimates with their inputs, every
          evaluated count with its figures, the reason and the effort
-  csv    one row per evaluated count: count, total_users, pass (true|false),
-         n, then for every figure F of sir_error_mean_db, sir_error_std_db,
+  csv    one row per evaluated count: count, total_users, pass, outage_ok,
+         noise_rise_ok, load_feasible, capacity (true|false), n, then for
+         every figure F of sir_error_mean_db, sir_error_std_db,
          outage_probability, achieved_bler, tx_power_mean_dbm,
-         max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high
+         max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high.
+         Multi-cell (layout.sites set): the users column holds users per
+         cell and is named users_per_cell (it was total_users), layout_users
+         (per cell × cells) follows it, and load_feasible is empty: the
+         multi-cell engine computes no feasibility
   json   the fadeloop.v1 CapacityResult in protojson with proto field names
 
 ` + searchQueueHelp + `
@@ -122,12 +132,18 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		if err != nil {
 			return searchError(sf, reqFile, job.stopped(ctx, e, err))
 		}
-		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, res) },
+		err = e.emit(out, res, func(w io.Writer) error { return render.CapacityCSV(w, req, res) },
 			func(w io.Writer) { render.CapacityTable(w, req, res) })
 		if err != nil {
 			return err
 		}
-		if err := writeResultReport(e, *reportFile, htmlreport.Input{Capacity: res, CapacityRequest: req, Source: "fadeloop capacity"}); err != nil {
+		in := htmlreport.Input{Capacity: res, CapacityRequest: req, Source: "fadeloop capacity"}
+		if *reportFile != "" {
+			if in.EngineVersion, err = capacityEngine(ctx, e, &qf, cl, req); err != nil {
+				return err
+			}
+		}
+		if err := writeResultReport(e, *reportFile, in); err != nil {
 			return err
 		}
 		if res.GetBelowRange() {
@@ -136,4 +152,29 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		}
 		return nil
 	}
+}
+
+// capacityEngine is the engine version for a capacity report (the result
+// does not carry one). Single cell: the server's (GetServerInfo; in
+// process, this program's). Multi-cell: the multi-cell engine's version
+// when the replications ran in this process (embedded server, or the local
+// queue's workers); a remote server reports only its single-cell engine,
+// so then it says so.
+func capacityEngine(ctx context.Context, e *env, qf *sweepQueueFlags, cl *client.Client, req *pb.CapacityRequest) (string, error) {
+	inProcess := e.g.server == "" && (qf.direct || qf.local())
+	if render.CapacityIsLayout(req) {
+		if inProcess {
+			return multicell.EngineVersion, nil
+		}
+		return "", nil // not known here: shown as not recorded
+	}
+	info, err := cl.ServerInfo(ctx)
+	if err != nil {
+		return "", err
+	}
+	v := info.GetEngineVersion()
+	if !inProcess && e.g.server == "" {
+		v += " (this program's; the queue's workers ran the replications)"
+	}
+	return v, nil
 }

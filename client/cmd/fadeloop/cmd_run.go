@@ -45,6 +45,13 @@ Output formats:
          for every figure F its value F, F_ci_low and F_ci_high; figures in
          order: ` + render.Wrap(strings.Join(render.FigureKeys(), ", "), 62, "         ") + `.
          Probabilities are fractions (0..1), powers dBm, SIR and noise rise dB.
+         An empty cell is a value not computed (or an interval not given).
+         Multi-cell (layout.sites set): one aggregate row of the layout's
+         figures (noise_rise_mean_db and noise_rise_p95_db: mean and 95th
+         percentile over cells and slots); the percentiles and
+         convergence_time_s are empty (not computed); then other_to_own (f,
+         linear) and soft_handover_share (fraction), each with _ci_low and
+         _ci_high.
   json   the fadeloop.v1 RunReport message in protojson with proto field names.
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to traces):

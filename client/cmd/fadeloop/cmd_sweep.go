@@ -45,7 +45,10 @@ Output formats:
   table  one row per point: index, axis values, main figures with their 95 % CI [low, high]
   csv    columns index, seed, one column per axis (named by its path), feasible
          (true|false), users, user_slots, then for every figure F its value F,
-         F_ci_low and F_ci_high (same figures and units as "run --format csv")
+         F_ci_low and F_ci_high (same figures and units as "run --format csv").
+         Multi-cell (layout.sites set): feasible, the percentiles and
+         convergence_time_s are empty (not computed), and other_to_own and
+         soft_handover_share follow with their intervals, as in "run".
   json   {"axes": [...], "points": [SweepPoint...], "summary": SweepSummary},
          protojson with proto field names, points sorted by index
   jsonl  (job queue, with --out FILE) one stored result a line as JSON: job,
@@ -248,7 +251,7 @@ func (so sweepOutputs) write(e *env, out *output, req *pb.SweepRequest, pts []*p
 			return err
 		}
 	case "csv":
-		if err := render.SweepCSV(out.Writer(), req.Axes, pts); err != nil {
+		if err := render.SweepCSV(out.Writer(), req.Axes, pts, render.SweepIsLayout(req)); err != nil {
 			return err
 		}
 	default:

@@ -15,6 +15,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	htmlreport "github.com/fadeloop/fadeloop/client/report"
 	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/loop/tune"
@@ -263,7 +264,7 @@ func runQueuedSweep(ctx context.Context, e *env, q *sweepQueueFlags, req *pb.Swe
 		if format == "jsonl" {
 			stream, err = newJSONLStream(e.g.out, prep.Spec.Axes)
 		} else {
-			stream, err = newCSVStream(e.g.out, req.Axes)
+			stream, err = newCSVStream(e.g.out, req.Axes, render.SweepIsLayout(req))
 		}
 		if err != nil {
 			return badInput{err}

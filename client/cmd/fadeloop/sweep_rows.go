@@ -43,13 +43,14 @@ func (s jsonlStream) close() error                                { return s.f.C
 type csvStream struct {
 	path   string
 	axes   []*pb.SweepAxis
+	layout bool // render.SweepIsLayout: the layout columns
 	f      *os.File
 	header []byte
 }
 
-func newCSVStream(path string, axes []*pb.SweepAxis) (rowStream, error) {
+func newCSVStream(path string, axes []*pb.SweepAxis, layout bool) (rowStream, error) {
 	var h bytes.Buffer
-	if err := render.SweepCSV(&h, axes, nil); err != nil {
+	if err := render.SweepCSV(&h, axes, nil, layout); err != nil {
 		return nil, err
 	}
 	f, err := os.Create(path)
@@ -60,7 +61,7 @@ func newCSVStream(path string, axes []*pb.SweepAxis) (rowStream, error) {
 		f.Close()
 		return nil, err
 	}
-	return &csvStream{path: path, axes: axes, f: f, header: h.Bytes()}, nil
+	return &csvStream{path: path, axes: axes, layout: layout, f: f, header: h.Bytes()}, nil
 }
 
 func (s *csvStream) write(_ jobs.Result, pt *pb.SweepPoint) error {
@@ -68,7 +69,7 @@ func (s *csvStream) write(_ jobs.Result, pt *pb.SweepPoint) error {
 		return nil
 	}
 	var b bytes.Buffer
-	if err := render.SweepCSV(&b, s.axes, []*pb.SweepPoint{pt}); err != nil {
+	if err := render.SweepCSV(&b, s.axes, []*pb.SweepPoint{pt}, s.layout); err != nil {
 		return err
 	}
 	_, err := s.f.Write(bytes.TrimPrefix(b.Bytes(), s.header)) // unbuffered: on disk at once
@@ -90,7 +91,7 @@ func (s *csvStream) finish(pts []*pb.SweepPoint) error {
 	}
 	defer os.Remove(tmp.Name())
 	bw := bufio.NewWriter(tmp)
-	err = render.SweepCSV(bw, s.axes, pts)
+	err = render.SweepCSV(bw, s.axes, pts, s.layout)
 	if err == nil {
 		err = bw.Flush()
 	}
