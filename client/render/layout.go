@@ -3,7 +3,6 @@ package render
 import (
 	"fmt"
 	"io"
-	"math"
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
@@ -187,8 +186,8 @@ func IsCautionNote(n string) bool {
 }
 
 // LayoutTable prints the multi-cell section of a report (LayoutParts),
-// then the caution about real transmitters unless RunTable already printed
-// it among the notes (it prints them when an interval is withheld).
+// then the caution about real transmitters (RunTable leaves it out of the
+// notes it prints).
 func LayoutTable(w io.Writer, rep *pb.RunReport) {
 	parts := LayoutParts(rep, ci)
 	if parts == nil {
@@ -207,33 +206,8 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 		}
 		t.Write(w)
 	}
-	if !notesPrinted(rep) {
-		fmt.Fprintln(w)
-		fmt.Fprintln(w, "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice.")
-	}
-}
-
-// notesPrinted reports whether RunTable printed the report's notes, and
-// with them the engine's caution: it does when an aggregate interval it
-// shows is withheld (NaN bounds).
-func notesPrinted(rep *pb.RunReport) bool {
-	caution := false
-	for _, n := range rep.GetNotes() {
-		caution = caution || IsCautionNote(n)
-	}
-	if !caution {
-		return false
-	}
-	for _, f := range figures {
-		e := f.Get(rep.GetAggregate())
-		if e == nil || (rep.GetLayout() != nil && layoutOnlyMissing[f.Key]) {
-			continue
-		}
-		if math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh()) {
-			return true
-		}
-	}
-	return false
+	fmt.Fprintln(w)
+	fmt.Fprintln(w, "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice.")
 }
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:

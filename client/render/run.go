@@ -55,11 +55,22 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		withheld = withheld || math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh())
 	}
 	t.Write(w)
+	// The report's notes (why an interval marked "–" is missing and what
+	// to change, a warm-up too short for the outer loop, users that never
+	// converged, …); the caution about real transmitters comes last, once
+	// (LayoutTable).
+	var notes []string
+	for _, n := range rep.GetNotes() {
+		if !IsCautionNote(n) {
+			notes = append(notes, n)
+		}
+	}
 	if withheld {
-		// An interval marked "–" was not given (e.g. one replication of a
-		// layout too short for one): the notes say why and what to change.
-		fmt.Fprintln(w, "\nIntervals marked – are not available; the report's notes:")
-		for _, n := range rep.GetNotes() {
+		fmt.Fprintln(w, "\nIntervals marked – are not available; the notes say why.")
+	}
+	if len(notes) > 0 {
+		fmt.Fprintln(w, "\nnotes:")
+		for _, n := range notes {
 			fmt.Fprintln(w, Wrap("- "+n, 78, "  "))
 		}
 	}
