@@ -388,7 +388,7 @@ func stepHint(rec *Recommendation, c int) string {
 	case ruledOut:
 		s = fmt.Sprintf("At %s a neighbouring step scores better on %s but misses the constraints.", fdt, rb.Name)
 	case rlo != rhi:
-		s = fmt.Sprintf("%s mixes fading regimes: a %g dB step is the compromise between the slow users' limit cycle and the fast users' tracking.", fdt, step)
+		s = fmt.Sprintf("%s spans more than one fading regime; over all its users a %g dB step did best.", fdt, step)
 	case step == lo && rlo == 2:
 		s = fmt.Sprintf("At %s the loop cannot follow the fades, so the smallest step does best: it adds the least noise.", fdt)
 	case step == lo && rlo == 0:
