@@ -3,6 +3,7 @@ package render
 import (
 	"bytes"
 	"encoding/csv"
+	"math"
 	"strings"
 	"testing"
 
@@ -186,6 +187,35 @@ func TestSweepTableLoadLayout(t *testing.T) {
 		}
 		if got := strings.HasSuffix(row, " ok"); got != tc.hasOK {
 			t.Errorf("%s: row ends in ok: %v, want %v", tc.name, got, tc.hasOK)
+		}
+	}
+}
+
+// The sweep table says why a value has no interval (the first such point's
+// notes, without the caution) and says nothing when every interval is
+// given.
+func TestSweepTableWithheldNote(t *testing.T) {
+	for _, tc := range []struct {
+		name     string
+		withhold bool
+	}{
+		{"intervals given", false},
+		{"one replication, withheld", true},
+	} {
+		rep := csvTestReport(true)
+		const why = "one replication: no intervals (bounds not available)"
+		if tc.withhold {
+			rep.Aggregate.OutageProbability.CiLow, rep.Aggregate.OutageProbability.CiHigh = math.NaN(), math.NaN()
+			rep.Notes = append(rep.Notes, why, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
+		}
+		var b bytes.Buffer
+		SweepTable(&b, &pb.SweepRequest{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db"}}}, []*pb.SweepPoint{{Index: 4, Coordinates: []float64{3}, Report: rep}}, nil)
+		out := b.String()
+		if got := strings.Contains(out, "values without an interval: it is withheld; point 4's notes:") && strings.Contains(out, why); got != tc.withhold {
+			t.Errorf("%s: note shown %v, want %v:\n%s", tc.name, got, tc.withhold, out)
+		}
+		if strings.Contains(out, "do not replace the operator") {
+			t.Errorf("%s: the caution is printed among the notes:\n%s", tc.name, out)
 		}
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
@@ -40,6 +41,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		t.AlignRight(i)
 	}
 	noLoad := false
+	var withheld *pb.SweepPoint // the first point with a value shown without its interval
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i, c := range p.GetCoordinates() {
@@ -52,7 +54,11 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 				row = append(row, "—") // infeasible load: not run, no figure
 				continue
 			}
-			row = append(row, cell(f, f.Get(p.GetReport().GetAggregate())))
+			e := f.Get(p.GetReport().GetAggregate())
+			row = append(row, cell(f, e))
+			if e != nil && withheld == nil && (math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh())) {
+				withheld = p
+			}
 		}
 		load := "ok"
 		switch {
@@ -67,6 +73,16 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	t.Write(w)
 	if noLoad {
 		fmt.Fprintln(w, "load –: feasibility is not computed in multi-cell mode")
+	}
+	if withheld != nil {
+		// Values without an interval (e.g. one replication of a layout
+		// too short for one): the first such point's notes say why.
+		fmt.Fprintf(w, "values without an interval: it is withheld; point %d's notes:\n", withheld.GetIndex())
+		for _, n := range withheld.GetReport().GetNotes() {
+			if !IsCautionNote(n) {
+				fmt.Fprintln(w, Wrap("- "+n, 78, "  "))
+			}
+		}
 	}
 }
 
