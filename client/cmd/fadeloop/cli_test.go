@@ -774,6 +774,10 @@ func TestMultiCellRunAndMap(t *testing.T) {
 	}
 	checkPNG(t, filepath.Join(dir, "map.png"))
 	checkSVG(t, filepath.Join(dir, "map-power.svg"))
+	// A bare --plot FILE on a layout draws the map (traces are single-cell).
+	r = ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "300", "--replications", "2", "--quiet",
+		"--plot", filepath.Join(dir, "bare.png"))
+	checkPNG(t, filepath.Join(dir, "bare.png"))
 	// A map needs a layout.
 	fl(t, "run", "testdata/scenarios/small.json", "--slots", "300", "--quiet", "--plot", "map="+filepath.Join(dir, "x.png")).want(t, 2)
 }

@@ -69,7 +69,7 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	var ov scenarioOverrides
 	ov.registerSlotsSeed(fs)
 	request := fs.String("request", "", "capacity request `FILE` (protojson CapacityRequest in JSON or YAML)")
-	group := fs.Int("group", -1, "index `G` of the group whose count is scaled (default 0)")
+	group := fs.Int("group", 0, "index `G` of the group whose count is scaled (0: the first)")
 	outage := fs.Float64("outage-limit", 0, "largest acceptable aggregate outage `P` (fraction, e.g. 0.05); required")
 	minCount := fs.Int("min-count", 0, "smallest group count `N` tried (0: 1)")
 	maxCount := fs.Int("max-count", 0, "largest group count `N` tried (0: double upward until a count fails)")
@@ -103,12 +103,10 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 				*x.dst = int32(x.v)
 			}
 		}
-		if *group >= 0 {
-			if *group > math.MaxInt32 {
-				return badInputf("--group %d: too large", *group)
-			}
-			req.Group = int32(*group)
+		if *group < 0 || *group > math.MaxInt32 {
+			return badInputf("--group %d: must be a group index, 0 or more", *group)
 		}
+		req.Group = int32(*group)
 		if *outage != 0 {
 			req.OutageLimit = *outage
 		}

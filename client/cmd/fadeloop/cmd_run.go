@@ -54,11 +54,15 @@ Output formats:
          _ci_high.
   json   the fadeloop.v1 RunReport message in protojson with proto field names.
 
-Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to traces):
-  traces    SIR, SIR target and Tx power against time for chosen users
-            (--trace-users; default the nearest, the median and the farthest)
-  cdf       SIR error distribution per distance bin
-  distance  mean Tx power (5th-95th percentile bars) against distance
+Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to traces,
+for a multi-cell scenario to map):
+  traces     SIR, SIR target and Tx power against time for chosen users
+             (--trace-users; default the nearest, the median and the farthest)
+  cdf        SIR error distribution per distance bin
+  distance   mean Tx power (5th-95th percentile bars) against distance
+  map        multi-cell: the layout to scale, users by outage (marker shape
+             per group, cells labelled as in the per-cell table)
+  map-power  multi-cell: the same, users by mean Tx power
 
 Examples:
   fadeloop run
@@ -194,7 +198,9 @@ func runRun(e *env, fs *flag.FlagSet) action {
 		if err := checkReportPath(*reportFile); err != nil {
 			return err
 		}
-		if err := plotSpecs.check("traces", "traces", "cdf", "distance", "map", "map-power"); err != nil {
+		// A bare --plot FILE is traces for one cell, the map for a layout
+		// (resolved once the scenario is read).
+		if err := plotSpecs.check("default", "default", "traces", "cdf", "distance", "map", "map-power"); err != nil {
 			return err
 		}
 		users, err := parseIndexList(*traceUsers)
@@ -213,6 +219,15 @@ func runRun(e *env, fs *flag.FlagSet) action {
 			return err
 		}
 		req := &pb.SimulateRequest{Scenario: sc}
+		def := "traces"
+		if sc.GetLayout().GetSites() != 0 {
+			def = "map"
+		}
+		for i := range plotSpecs {
+			if plotSpecs[i].kind == "default" {
+				plotSpecs[i].kind = def
+			}
+		}
 		if sc.GetLayout().GetSites() != 0 && plotSpecs.needs("traces", "cdf", "distance") {
 			return badInputf("--plot: a multi-cell scenario draws map and map-power (traces, cdf and distance are single-cell plots)")
 		}

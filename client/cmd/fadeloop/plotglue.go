@@ -52,8 +52,11 @@ func (p plotList) check(def string, allowed ...string) error {
 			p[i].kind = def
 		}
 		if !slices.Contains(allowed, p[i].kind) {
+			// "default" stands for a kind the command picks later (run:
+			// traces or map); it is not one to type.
+			named := slices.DeleteFunc(slices.Clone(allowed), func(k string) bool { return k == "default" })
 			return badInputf("--plot %s=%s: unknown plot kind %q for this command (kinds: %s)",
-				p[i].kind, p[i].file, p[i].kind, strings.Join(allowed, ", "))
+				p[i].kind, p[i].file, p[i].kind, strings.Join(named, ", "))
 		}
 	}
 	return nil

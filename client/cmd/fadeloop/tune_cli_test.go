@@ -169,6 +169,7 @@ func TestSearchCommandsBadInput(t *testing.T) {
 		{[]string{"tune", "--axis", "inner_loop.step_db=1,2", "--plot", "heatmap=x.png"}, "heatmap"},
 		{[]string{"capacity"}, "--outage-limit"},
 		{[]string{"capacity", "--outage-limit", "0.05", "--group", "9"}, "group"},
+		{[]string{"capacity", "--outage-limit", "0.05", "--group", "-1"}, "--group -1"},
 	}
 	for _, c := range cases {
 		r := fl(t, c.args...)
