@@ -55,7 +55,7 @@ Examples:
 		usage:   "",
 		details: `Writes the built-in default scenario, with a comment on every setting, as
 YAML (or, with --format json, as protojson). Edit it and pass it to run,
-sweep or bench.
+sweep, tune, capacity or bench.
 
 With --multi-cell, writes a multi-cell example instead: an invented harbour
 town on 7 three-sector sites with soft handover (layout section).
