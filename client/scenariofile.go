@@ -33,6 +33,10 @@ type FileViolation struct {
 	Path string
 	Rule string
 	Line int
+	// Source, when set, is where the value came from instead of the file
+	// (a command-line flag such as "--axis 1"); the line then starts with
+	// it rather than the file's name.
+	Source string
 }
 
 // ScenarioFileError lists every problem found in a scenario file. Its Error
@@ -49,9 +53,14 @@ func (e *ScenarioFileError) Error() string {
 		if i > 0 {
 			b.WriteByte('\n')
 		}
-		b.WriteString(e.File)
-		if v.Line > 0 {
-			fmt.Fprintf(&b, ":%d", v.Line)
+		switch {
+		case v.Source != "":
+			b.WriteString(v.Source)
+		default:
+			b.WriteString(e.File)
+			if v.Line > 0 {
+				fmt.Fprintf(&b, ":%d", v.Line)
+			}
 		}
 		b.WriteString(": ")
 		if v.Path != "" {

@@ -402,6 +402,13 @@ func TestBadInputExitCodes(t *testing.T) {
 	if want := regexp.MustCompile(`good\.yaml:\d+: run\.[a-z_]+: .*\(run settings after --slots 5\)`); r.code != exitBadInput || !want.MatchString(r.stderr) {
 		t.Errorf("--slots 5: exit %d, want 2 and a run.* violation naming the flag:\n%s", r.code, r.stderr)
 	}
+	// A bad --axis is the command line's problem, not the file's.
+	r = fl(t, "sweep", good, "--axis", "inner_loop.step_db=1,2", "--axis", "inner_loop.no_such_db=1,2", "--direct")
+	for _, want := range []string{"\n--axis 2: axes[1].path: ", "fadeloop sweep: 1 problem(s) in the command line"} {
+		if r.code != exitBadInput || !strings.Contains("\n"+r.stderr, want) {
+			t.Errorf("bad --axis: exit %d, stderr lacks %q:\n%s", r.code, want, r.stderr)
+		}
+	}
 	// The same in JSON.
 	js := write("bad.json", `{"name": "x", "groups": [{"count": 2, "speeds": [{"speed_kmh": 3, "weight": 1}], "profil": "EPA"}]}`)
 	r = fl(t, "run", js)

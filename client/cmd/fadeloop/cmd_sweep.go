@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"regexp"
 	"sort"
 	"strconv"
 	"strings"
@@ -307,9 +308,19 @@ func sweepLocate(sf *client.ScenarioFile, grid *client.SourceFile, inv *client.I
 		}
 		all.Violations = append(all.Violations, e.Violations...)
 	} else {
+		// Without a grid file the axes came from --axis flags: name the
+		// flag (counted from 1, in the order given), not the scenario file.
 		for _, v := range rest {
-			all.Violations = append(all.Violations, client.FileViolation{Path: v.Field, Rule: v.Rule})
+			fv := client.FileViolation{Path: v.Field, Rule: v.Rule}
+			if m := axisIndex.FindStringSubmatch(v.Field); m != nil {
+				n, _ := strconv.Atoi(m[1])
+				fv.Source = fmt.Sprintf("--axis %d", n+1)
+			}
+			all.Violations = append(all.Violations, fv)
 		}
 	}
 	return all
 }
+
+// axisIndex matches a grid violation's axis: axes[i]….
+var axisIndex = regexp.MustCompile(`^axes\[(\d+)\]`)

@@ -190,7 +190,20 @@ func report(stderr io.Writer, cmd string, err error) int {
 	var sfe *client.ScenarioFileError
 	if errors.As(err, &sfe) {
 		fmt.Fprintln(stderr, sfe.Error())
-		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", prefix, len(sfe.Violations), sfe.File)
+		where := sfe.File
+		flags := 0
+		for _, v := range sfe.Violations {
+			if v.Source != "" {
+				flags++
+			}
+		}
+		switch {
+		case flags == len(sfe.Violations):
+			where = "the command line"
+		case flags > 0:
+			where += " and the command line"
+		}
+		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", prefix, len(sfe.Violations), where)
 		return exitBadInput
 	}
 	if inv, ok := client.AsInvalidInput(err); ok {
