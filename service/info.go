@@ -5,6 +5,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -24,8 +25,9 @@ type infoServer struct {
 func (h *infoServer) GetServerInfo(ctx context.Context, _ *pb.GetServerInfoRequest) (*pb.GetServerInfoResponse, error) {
 	cfg := h.s.cfg
 	resp := &pb.GetServerInfoResponse{
-		EngineVersion: loop.EngineVersion,
-		ApiVersion:    apiVersion,
+		EngineVersion:          loop.EngineVersion,
+		MulticellEngineVersion: multicell.EngineVersion,
+		ApiVersion:             apiVersion,
 		Limits: &pb.ServerLimits{
 			MaxUsers:            loop.MaxUsers,
 			MaxGroups:           loop.MaxGroups,

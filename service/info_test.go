@@ -8,6 +8,7 @@ import (
 
 	"github.com/fadeloop/fadeloop/fading"
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -23,8 +24,8 @@ func TestServerInfo(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if info.GetEngineVersion() != loop.EngineVersion || info.GetApiVersion() != "fadeloop.v1" {
-				t.Errorf("versions %q, %q", info.GetEngineVersion(), info.GetApiVersion())
+			if info.GetEngineVersion() != loop.EngineVersion || info.GetApiVersion() != "fadeloop.v1" || info.GetMulticellEngineVersion() != multicell.EngineVersion {
+				t.Errorf("versions %q, %q, multi-cell %q", info.GetEngineVersion(), info.GetApiVersion(), info.GetMulticellEngineVersion())
 			}
 			l := info.GetLimits()
 			if l.GetMaxCostTapSlots() != 7e9 || l.GetMaxRecvMessageBytes() != 8<<20 ||

@@ -137,7 +137,7 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 		}
 		in := htmlreport.Input{Capacity: res, CapacityRequest: req, Source: "fadeloop capacity"}
 		if *reportFile != "" {
-			if in.EngineVersion, err = capacityEngine(ctx, e, &qf, cl, req); err != nil {
+			if in.EngineVersion, err = searchEngine(ctx, e, &qf, cl, render.CapacityIsLayout(req)); err != nil {
 				return err
 			}
 		}
@@ -152,25 +152,30 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 	}
 }
 
-// capacityEngine is the engine version for a capacity report (the result
-// does not carry one). Single cell: the server's (GetServerInfo; in
+// searchEngine is the engine version for a capacity or tune report (their
+// results do not carry one). Single cell: the server's (GetServerInfo; in
 // process, this program's). Multi-cell: the multi-cell engine's version
-// when the replications ran in this process (embedded server, or the local
-// queue's workers); a remote server reports only its single-cell engine,
-// so then it says so.
-func capacityEngine(ctx context.Context, e *env, qf *sweepQueueFlags, cl *client.Client, req *pb.CapacityRequest) (string, error) {
+// (this program's when the replications ran in this process, else the
+// server's GetServerInfo multicell_engine_version; "" — not recorded —
+// from servers that predate that field).
+func searchEngine(ctx context.Context, e *env, qf *sweepQueueFlags, cl *client.Client, layout bool) (string, error) {
 	inProcess := e.g.server == "" && (qf.direct || qf.local())
-	if render.CapacityIsLayout(req) {
-		if inProcess {
-			return multicell.EngineVersion, nil
-		}
-		return "", nil // not known here: shown as not recorded
-	}
 	info, err := cl.ServerInfo(ctx)
 	if err != nil {
 		return "", err
 	}
 	v := info.GetEngineVersion()
+	if layout {
+		if inProcess {
+			return multicell.EngineVersion, nil
+		}
+		// The server's multi-cell engine ("" from servers that predate
+		// the field: shown as not recorded).
+		v = info.GetMulticellEngineVersion()
+		if v == "" {
+			return "", nil
+		}
+	}
 	if !inProcess && e.g.server == "" {
 		v += " (this program's; the queue's workers ran the replications)"
 	}

@@ -52,7 +52,11 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 			w.Write(b)
 			return out.commit()
 		}
-		fmt.Fprintf(w, "engine %s, API %s\n\n", info.GetEngineVersion(), info.GetApiVersion())
+		fmt.Fprintf(w, "engine %s, API %s\n", info.GetEngineVersion(), info.GetApiVersion())
+		if v := info.GetMulticellEngineVersion(); v != "" {
+			fmt.Fprintf(w, "multi-cell engine %s (scenarios with layout.sites set)\n", v)
+		}
+		fmt.Fprintln(w)
 		l := info.GetLimits()
 		t := render.NewTable("limit", "value").AlignRight(1)
 		for _, r := range []struct {

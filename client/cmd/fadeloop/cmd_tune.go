@@ -246,7 +246,13 @@ func runTune(e *env, fs *flag.FlagSet) action {
 				fmt.Fprintf(e.stderr, "wrote %s plot to %s\n", kind, ps.file)
 			}
 		}
-		if err := writeResultReport(e, *reportFile, htmlreport.Input{Tune: rec, TuneRequest: req, Source: "fadeloop tune"}); err != nil {
+		in := htmlreport.Input{Tune: rec, TuneRequest: req, Source: "fadeloop tune"}
+		if *reportFile != "" {
+			if in.EngineVersion, err = searchEngine(ctx, e, &qf, cl, req.GetBase().GetLayout().GetSites() != 0); err != nil {
+				return err
+			}
+		}
+		if err := writeResultReport(e, *reportFile, in); err != nil {
 			return err
 		}
 		return tuneConstraints(rec)

@@ -93,6 +93,9 @@ func TestInfoCommand(t *testing.T) {
 			t.Errorf("info lacks %s with %d taps:\n%s", name, len(p.Taps), out)
 		}
 	}
+	if !strings.Contains(out, "multi-cell engine fadeloop-multicell/") {
+		t.Errorf("info does not name the multi-cell engine:\n%s", out)
+	}
 	if !strings.Contains(out, "traced users per run") || !regexp.MustCompile(`(?m)^EPA +7 `).MatchString(out) {
 		t.Errorf("info table:\n%s", out)
 	}

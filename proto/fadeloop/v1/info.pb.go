@@ -298,9 +298,12 @@ type GetServerInfoResponse struct {
 	// Limits enforced on requests.
 	Limits *ServerLimits `protobuf:"bytes,3,opt,name=limits,proto3" json:"limits,omitempty"`
 	// Built-in tap-delay profiles in the server's order.
-	Profiles      []*BuiltinProfile `protobuf:"bytes,4,rep,name=profiles,proto3" json:"profiles,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Profiles []*BuiltinProfile `protobuf:"bytes,4,rep,name=profiles,proto3" json:"profiles,omitempty"`
+	// Version of the multi-cell engine (RunReport.engine_version of runs
+	// whose scenario has layout.sites set); empty from servers before it.
+	MulticellEngineVersion string `protobuf:"bytes,5,opt,name=multicell_engine_version,json=multicellEngineVersion,proto3" json:"multicell_engine_version,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *GetServerInfoResponse) Reset() {
@@ -361,6 +364,13 @@ func (x *GetServerInfoResponse) GetProfiles() []*BuiltinProfile {
 	return nil
 }
 
+func (x *GetServerInfoResponse) GetMulticellEngineVersion() string {
+	if x != nil {
+		return x.MulticellEngineVersion
+	}
+	return ""
+}
+
 var File_fadeloop_v1_info_proto protoreflect.FileDescriptor
 
 const file_fadeloop_v1_info_proto_rawDesc = "" +
@@ -384,13 +394,14 @@ const file_fadeloop_v1_info_proto_rawDesc = "" +
 	"\bpower_db\x18\x02 \x01(\x01R\apowerDb\"Q\n" +
 	"\x0eBuiltinProfile\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12+\n" +
-	"\x04taps\x18\x02 \x03(\v2\x17.fadeloop.v1.ProfileTapR\x04taps\"\xcb\x01\n" +
+	"\x04taps\x18\x02 \x03(\v2\x17.fadeloop.v1.ProfileTapR\x04taps\"\x85\x02\n" +
 	"\x15GetServerInfoResponse\x12%\n" +
 	"\x0eengine_version\x18\x01 \x01(\tR\rengineVersion\x12\x1f\n" +
 	"\vapi_version\x18\x02 \x01(\tR\n" +
 	"apiVersion\x121\n" +
 	"\x06limits\x18\x03 \x01(\v2\x19.fadeloop.v1.ServerLimitsR\x06limits\x127\n" +
-	"\bprofiles\x18\x04 \x03(\v2\x1b.fadeloop.v1.BuiltinProfileR\bprofiles2e\n" +
+	"\bprofiles\x18\x04 \x03(\v2\x1b.fadeloop.v1.BuiltinProfileR\bprofiles\x128\n" +
+	"\x18multicell_engine_version\x18\x05 \x01(\tR\x16multicellEngineVersion2e\n" +
 	"\vInfoService\x12V\n" +
 	"\rGetServerInfo\x12!.fadeloop.v1.GetServerInfoRequest\x1a\".fadeloop.v1.GetServerInfoResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3"
 

@@ -19,7 +19,7 @@ DESCRIPTOR = _descriptor.FileDescriptor(
   name='fadeloop/v1/info.proto',
   package='fadeloop.v1',
   syntax='proto3',
-  serialized_pb=_b('\n\x16\x66\x61\x64\x65loop/v1/info.proto\x12\x0b\x66\x61\x64\x65loop.v1\"\x16\n\x14GetServerInfoRequest\"\xf0\x01\n\x0cServerLimits\x12\x11\n\tmax_users\x18\x01 \x01(\x05\x12\x12\n\nmax_groups\x18\x02 \x01(\x05\x12\x17\n\x0fmax_grid_points\x18\x03 \x01(\x05\x12\x17\n\x0fmax_axis_values\x18\x04 \x01(\x05\x12\x18\n\x10max_traced_users\x18\x05 \x01(\x05\x12\x1e\n\x16max_recv_message_bytes\x18\x06 \x01(\x03\x12\x1e\n\x16max_send_message_bytes\x18\x07 \x01(\x03\x12\x1a\n\x12max_cost_tap_slots\x18\x08 \x01(\x03\x12\x11\n\tmax_slots\x18\t \x01(\x03\"0\n\nProfileTap\x12\x10\n\x08\x64\x65lay_ns\x18\x01 \x01(\x01\x12\x10\n\x08power_db\x18\x02 \x01(\x01\"E\n\x0e\x42uiltinProfile\x12\x0c\n\x04name\x18\x01 \x01(\t\x12%\n\x04taps\x18\x02 \x03(\x0b\x32\x17.fadeloop.v1.ProfileTap\"\x9e\x01\n\x15GetServerInfoResponse\x12\x16\n\x0e\x65ngine_version\x18\x01 \x01(\t\x12\x13\n\x0b\x61pi_version\x18\x02 \x01(\t\x12)\n\x06limits\x18\x03 \x01(\x0b\x32\x19.fadeloop.v1.ServerLimits\x12-\n\x08profiles\x18\x04 \x03(\x0b\x32\x1b.fadeloop.v1.BuiltinProfile2e\n\x0bInfoService\x12V\n\rGetServerInfo\x12!.fadeloop.v1.GetServerInfoRequest\x1a\".fadeloop.v1.GetServerInfoResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
+  serialized_pb=_b('\n\x16\x66\x61\x64\x65loop/v1/info.proto\x12\x0b\x66\x61\x64\x65loop.v1\"\x16\n\x14GetServerInfoRequest\"\xf0\x01\n\x0cServerLimits\x12\x11\n\tmax_users\x18\x01 \x01(\x05\x12\x12\n\nmax_groups\x18\x02 \x01(\x05\x12\x17\n\x0fmax_grid_points\x18\x03 \x01(\x05\x12\x17\n\x0fmax_axis_values\x18\x04 \x01(\x05\x12\x18\n\x10max_traced_users\x18\x05 \x01(\x05\x12\x1e\n\x16max_recv_message_bytes\x18\x06 \x01(\x03\x12\x1e\n\x16max_send_message_bytes\x18\x07 \x01(\x03\x12\x1a\n\x12max_cost_tap_slots\x18\x08 \x01(\x03\x12\x11\n\tmax_slots\x18\t \x01(\x03\"0\n\nProfileTap\x12\x10\n\x08\x64\x65lay_ns\x18\x01 \x01(\x01\x12\x10\n\x08power_db\x18\x02 \x01(\x01\"E\n\x0e\x42uiltinProfile\x12\x0c\n\x04name\x18\x01 \x01(\t\x12%\n\x04taps\x18\x02 \x03(\x0b\x32\x17.fadeloop.v1.ProfileTap\"\xc0\x01\n\x15GetServerInfoResponse\x12\x16\n\x0e\x65ngine_version\x18\x01 \x01(\t\x12\x13\n\x0b\x61pi_version\x18\x02 \x01(\t\x12)\n\x06limits\x18\x03 \x01(\x0b\x32\x19.fadeloop.v1.ServerLimits\x12-\n\x08profiles\x18\x04 \x03(\x0b\x32\x1b.fadeloop.v1.BuiltinProfile\x12 \n\x18multicell_engine_version\x18\x05 \x01(\t2e\n\x0bInfoService\x12V\n\rGetServerInfo\x12!.fadeloop.v1.GetServerInfoRequest\x1a\".fadeloop.v1.GetServerInfoResponseB;Z9github.com/fadeloop/fadeloop/proto/fadeloop/v1;fadeloopv1b\x06proto3')
 )
 
 
@@ -247,6 +247,13 @@ _GETSERVERINFORESPONSE = _descriptor.Descriptor(
       message_type=None, enum_type=None, containing_type=None,
       is_extension=False, extension_scope=None,
       options=None, file=DESCRIPTOR),
+    _descriptor.FieldDescriptor(
+      name='multicell_engine_version', full_name='fadeloop.v1.GetServerInfoResponse.multicell_engine_version', index=4,
+      number=5, type=9, cpp_type=9, label=1,
+      has_default_value=False, default_value=_b("").decode('utf-8'),
+      message_type=None, enum_type=None, containing_type=None,
+      is_extension=False, extension_scope=None,
+      options=None, file=DESCRIPTOR),
   ],
   extensions=[
   ],
@@ -260,7 +267,7 @@ _GETSERVERINFORESPONSE = _descriptor.Descriptor(
   oneofs=[
   ],
   serialized_start=428,
-  serialized_end=586,
+  serialized_end=620,
 )
 
 _BUILTINPROFILE.fields_by_name['taps'].message_type = _PROFILETAP
@@ -318,8 +325,8 @@ _INFOSERVICE = _descriptor.ServiceDescriptor(
   file=DESCRIPTOR,
   index=0,
   options=None,
-  serialized_start=588,
-  serialized_end=689,
+  serialized_start=622,
+  serialized_end=723,
   methods=[
   _descriptor.MethodDescriptor(
     name='GetServerInfo',
