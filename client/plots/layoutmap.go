@@ -350,7 +350,7 @@ type LayoutLine struct {
 // other-cell to own-cell interference ratio f (left) and the outage
 // (right), one line per value of a second axis, with 95 % intervals.
 func LayoutSweep(title, xLabel string, lines []LayoutLine) (*Figure, error) {
-	left := newPanel("Other-cell / own-cell interference f", xLabel, "f (linear)")
+	left := newPanel("Other-cell / own-cell interference f", xLabel, "f")
 	right := newPanel("Outage", xLabel, "outage (%)")
 	n := 0
 	var all []float64

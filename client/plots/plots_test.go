@@ -74,7 +74,7 @@ func sampleFigures(t *testing.T) map[string]*Figure {
 		}
 		ls = append(ls, l)
 	}
-	f, err = StepSensitivity("Outage and SIR error spread against step size", ls)
+	f, err = StepSensitivity("Outage and SIR error std against step size", ls)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -14,7 +14,7 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 )
 
-// StepSensitivity: outage and SIR error spread against step size.
+// StepSensitivity: outage and SIR error std against step size.
 
 // StepLine is one speed's (or condition's) results across inner-loop step
 // sizes: outage probability in percent and SIR error standard deviation in
@@ -89,7 +89,7 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 // condition: StepSensitivity for an axis other than the step.
 func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
 	left := newPanel("Outage", xLabel, "outage (%)")
-	right := newPanel("SIR error spread", xLabel, "SIR error std (dB)")
+	right := newPanel("SIR error std", xLabel, "SIR error std (dB)")
 	n := 0
 	marked := false
 	for i, ln := range lines {

@@ -146,7 +146,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 		}
 	case kind == "steps":
 		ls, _ := clirender.SweepStepLines(axes, pts)
-		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size", title), ls)
+		fig, err := plots.StepSensitivity(titled("Outage and SIR error std against step size", title), ls)
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
 			return nil, err
 		}
@@ -173,7 +173,7 @@ func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
 			return nil, err
 		}
 	} else if ls, ok := clirender.TuneStepLines(rec); ok {
-		fig, err := plots.StepSensitivity(titled("Outage and SIR error spread against step size per condition", title), ls)
+		fig, err := plots.StepSensitivity(titled("Outage and SIR error std against step size per condition", title), ls)
 		if err := addFigure(&out, "Outage and SIR error standard deviation of every candidate per condition, with their intervals; the recommended setting of each condition is ringed.", fig, err); err != nil {
 			return nil, err
 		}

@@ -100,13 +100,13 @@ func plotTune(ps plotSpec, kind, title string, rec *pb.Recommendation) error {
 		if !ok {
 			return badInputf("--plot steps=%s needs %s as the only axis", ps.file, stepPath)
 		}
-		fig, err = plots.StepSensitivity("Outage and SIR error spread against step size per condition — "+title, ls)
+		fig, err = plots.StepSensitivity("Outage and SIR error std against step size per condition — "+title, ls)
 	case "axis":
 		ls, path, ok := render.TuneAxisLines(rec)
 		if !ok {
 			return badInputf("--plot axis=%s needs exactly one axis", ps.file)
 		}
-		fig, err = plots.AxisSensitivity("Outage and SIR error spread against "+path+" per condition — "+title, render.AxisTitle(path), ls)
+		fig, err = plots.AxisSensitivity("Outage and SIR error std against "+path+" per condition — "+title, render.AxisTitle(path), ls)
 	default:
 		return badInputf("unknown plot kind %q", kind)
 	}

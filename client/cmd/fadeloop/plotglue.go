@@ -202,7 +202,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 		if !ok {
 			return badInputf("a steps plot needs the axis %s and at most one other axis (one line per value)", stepPath)
 		}
-		fig, err = plots.StepSensitivity("Outage and SIR error spread against step size — "+title, ls)
+		fig, err = plots.StepSensitivity("Outage and SIR error std against step size — "+title, ls)
 	case "heatmap":
 		obj, ok := sweepObjectives[objective]
 		if !ok {
