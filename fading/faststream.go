@@ -57,11 +57,8 @@ func (g *FastStream) Uint64() uint64 {
 // Norm is the next standard normal draw (ziggurat: one Uint64 for about
 // 98.8 % of the draws, the wedges and the tail beyond zigR in norm).
 func (g *FastStream) Norm() float64 {
-	u := g.Uint64()
-	j := int32(u)       // signed layer coordinate
-	i := u >> 32 & 0x7f // layer
-	x := float64(j) * zigW[i]
-	if absInt32(j) < zigK[i] {
+	j, i, x, ok := zigStep(g.Uint64())
+	if ok {
 		return x
 	}
 	return g.norm(j, i, x)
@@ -72,17 +69,24 @@ func (g *FastStream) Norm() float64 {
 // the loop (no call per draw on the common path).
 func (g *FastStream) NormFill(dst []float64) {
 	st := *g
-	for i := range dst {
-		u := st.Uint64()
-		j := int32(u)
-		l := u >> 32 & 0x7f
-		x := float64(j) * zigW[l]
-		if absInt32(j) >= zigK[l] {
-			x = st.norm(j, l, x)
+	for k := range dst {
+		j, i, x, ok := zigStep(st.Uint64())
+		if !ok {
+			x = st.norm(j, i, x)
 		}
-		dst[i] = x
+		dst[k] = x
 	}
 	*g = st
+}
+
+// zigStep is the ziggurat's first step on one output u: the signed layer
+// coordinate j, the layer i, the point x, and whether x lies inside the
+// layer's rectangle (then it is the draw).
+func zigStep(u uint64) (j int32, i uint64, x float64, ok bool) {
+	j = int32(u)
+	i = u >> 32 & 0x7f
+	x = float64(j) * zigW[i]
+	return j, i, x, absInt32(j) < zigK[i]
 }
 
 // norm finishes a draw that fell outside the rectangle of layer i: the
@@ -108,11 +112,8 @@ func (g *FastStream) norm(j int32, i uint64, x float64) float64 {
 		if zigF[i]+g.unit()*(zigF[i-1]-zigF[i]) < math.Exp(-0.5*x*x) {
 			return x
 		}
-		u := g.Uint64()
-		j = int32(u)
-		i = u >> 32 & 0x7f
-		x = float64(j) * zigW[i]
-		if absInt32(j) < zigK[i] {
+		var ok bool
+		if j, i, x, ok = zigStep(g.Uint64()); ok {
 			return x
 		}
 	}

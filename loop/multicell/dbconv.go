@@ -9,26 +9,21 @@ import "math"
 // 5.2e-7 dB (tested against math.Log10). Zero, negative, subnormal,
 // infinite and NaN arguments go to math.Log10.
 func linToDB(x float64) float64 {
-	bits := math.Float64bits(x)
-	exp := int(bits>>52) & 0x7ff
-	if exp == 0 || exp == 0x7ff || bits>>63 != 0 {
-		return 10 * math.Log10(x)
-	}
-	const fracBits = 52 - linToDBBits
-	m := bits & (1<<52 - 1)
-	i := m >> fracBits
-	f := float64(m&(1<<fracBits-1)) * (1.0 / (1 << fracBits))
-	lo, hi := log2Table[i], log2Table[i+1]
-	return (float64(exp-1023) + lo + f*(hi-lo)) * db10Log2
+	v := [1]float64{x}
+	linToDBFloorTo(v[:], v[:], 0)
+	return v[0]
 }
 
 // linToDBFloorTo sets dst[i] = linToDB(max(src[i], floor)) for every i
-// (the same bits; floor > 0), in one loop without a call per element.
+// (floor 0: no floor), in one loop without a call per element; dst may be
+// src. It is linToDB's one implementation.
 func linToDBFloorTo(dst, src []float64, floor float64) {
 	dst = dst[:len(src)]
 	const fracBits = 52 - linToDBBits
 	for i, x := range src {
-		x = fmax(x, floor)
+		if floor > 0 {
+			x = fmax(x, floor)
+		}
 		bits := math.Float64bits(x)
 		exp := int(bits>>52) & 0x7ff
 		if exp == 0 || exp == 0x7ff || bits>>63 != 0 {
@@ -68,19 +63,13 @@ var log2Table = func() (t [1<<linToDBBits + 1]float64) {
 // floor call; the addition rounds y to 2^−42, a relative error below
 // 2e-13 on top of the table's.
 func linFromDB(x float64) float64 {
-	if !(x > -3000 && x < 3000) {
-		return dbToLin(x)
-	}
-	yp := x*log2of10over10 + 1024 // in (27, 2021)
-	i := int64(yp)                // floor(y) + 1024
-	f := (yp - float64(i)) * (1 << linToDBBits)
-	j := int(f)
-	lo, hi := exp2Table[j], exp2Table[j+1]
-	return (lo + (f-float64(j))*(hi-lo)) * math.Float64frombits(uint64(i-1024+1023)<<52)
+	v := [1]float64{x}
+	linFromDBInPlace(v[:])
+	return v[0]
 }
 
-// linFromDBInPlace replaces every x[i] by linFromDB(x[i]) (the same bits),
-// in one loop without a call per element.
+// linFromDBInPlace replaces every x[i] by linFromDB(x[i]), in one loop
+// without a call per element. It is linFromDB's one implementation.
 func linFromDBInPlace(x []float64) {
 	for i, v := range x {
 		if !(v > -3000 && v < 3000) {

@@ -26,7 +26,7 @@
 //
 // The package imports only fading, loop, gonum and golang.org/x/sys/cpu,
 // never grpc or generated code; its one assembly kernel (rows_amd64.s, the
-// cell-sum row update) does the Go code's operations in the same order
+// cell-sum row update) does gonum floats.AddScaled's operations in the same order
 // (TestAddScaledAVXMatchesGo; -tags purego builds without it). Every draw
 // comes from streams derived from the seed (fading.NewStream,
 // fading.NewFastStream), so a report is identical whatever GOMAXPROCS is.

@@ -2,10 +2,14 @@
 
 package multicell
 
-import "golang.org/x/sys/cpu"
+import (
+	"golang.org/x/sys/cpu"
+	"gonum.org/v1/gonum/floats"
+)
 
-// addScaledAVX is addScaledGo in AVX assembly (rows_amd64.s): the same
-// operations in the same order, so the same bits. row has len(s) elements
+// addScaledAVX is gonum's floats.AddScaled in AVX assembly (rows_amd64.s):
+// a multiplication and an addition per element, each rounded, as gonum's
+// SSE2 kernel does, so the same bits. row has len(s) elements
 // at least (addScaled checks).
 //
 //go:noescape
@@ -21,7 +25,7 @@ func addScaled(s []float64, d float64, row []float64) {
 		return
 	}
 	if !useAVX {
-		addScaledGo(s, d, row)
+		floats.AddScaled(s, d, row[:len(s)])
 		return
 	}
 	_ = row[len(s)-1]

@@ -6,7 +6,7 @@
 //
 // s[i] += d·row[i] for i < len(s): one multiplication and one addition per
 // element, each rounded (no fused multiply-add), so the same bits as
-// addScaledGo.
+// gonum's floats.AddScaled.
 TEXT ·addScaledAVX(SB), NOSPLIT, $0-40
 	MOVQ         s_base+0(FP), DI
 	MOVQ         s_len+8(FP), CX

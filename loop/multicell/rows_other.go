@@ -2,8 +2,11 @@
 
 package multicell
 
+import "gonum.org/v1/gonum/floats"
+
 // useAVX is false off amd64 and with the purego build tag.
 var useAVX = false
 
-// addScaled adds d·row to s element by element (len(row) ≥ len(s)).
-func addScaled(s []float64, d float64, row []float64) { addScaledGo(s, d, row) }
+// addScaled adds d·row to s element by element (len(row) ≥ len(s)):
+// gonum's floats.AddScaled.
+func addScaled(s []float64, d float64, row []float64) { floats.AddScaled(s, d, row[:len(s)]) }

@@ -160,15 +160,15 @@ func runCapacity(e *env, fs *flag.FlagSet) action {
 // from servers that predate that field).
 func searchEngine(ctx context.Context, e *env, qf *sweepQueueFlags, cl *client.Client, layout bool) (string, error) {
 	inProcess := e.g.server == "" && (qf.direct || qf.local())
+	if layout && inProcess {
+		return multicell.EngineVersion, nil
+	}
 	info, err := cl.ServerInfo(ctx)
 	if err != nil {
 		return "", err
 	}
 	v := info.GetEngineVersion()
 	if layout {
-		if inProcess {
-			return multicell.EngineVersion, nil
-		}
 		// The server's multi-cell engine ("" from servers that predate
 		// the field: shown as not recorded).
 		v = info.GetMulticellEngineVersion()
