@@ -84,7 +84,7 @@ func (rp *rep) updateActiveSets(first bool) {
 			for l := 0; l < h.MaxActive; l++ {
 				if us.legs[l] < 0 {
 					us.legs[l] = int32(c)
-					us.leg[l].acc, us.leg[l].n = 0, 0
+					rp.legAcc[u*h.MaxActive+l], rp.legN[u*h.MaxActive+l] = 0, 0
 					if ch := us.legCh[l]; ch != nil && rp.blockN > 0 && before[l] < 0 {
 						// A leg slot joining at a block start gets this block's
 						// samples (fillJoiners; one in use before was filled

@@ -22,7 +22,7 @@ func linToDBFloorTo(dst, src []float64, floor float64) {
 	const fracBits = 52 - linToDBBits
 	for i, x := range src {
 		if floor > 0 {
-			x = fmax(x, floor)
+			x = max(x, floor) // the builtin: no branch, the same value for these finite x
 		}
 		bits := math.Float64bits(x)
 		exp := int(bits>>52) & 0x7ff

@@ -91,7 +91,7 @@ func TestLinToDBFloorTo(t *testing.T) {
 	got := make([]float64, len(xs))
 	linToDBFloorTo(got, xs, 1e-30)
 	for i, x := range xs {
-		want := linToDB(fmax(x, 1e-30))
+		want := linToDB(math.Max(x, 1e-30))
 		if math.Float64bits(got[i]) != math.Float64bits(want) && !(math.IsNaN(got[i]) && math.IsNaN(want)) {
 			t.Fatalf("x = %v: %v, linToDB %v", x, got[i], want)
 		}

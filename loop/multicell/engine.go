@@ -125,12 +125,11 @@ type user struct {
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update
 }
 
-// legRun is a leg slot's state in the slot loop, together in one place.
+// legRun is a leg slot's cell and slow gain (copies kept by refreshLegs;
+// the slot loop reads them through rep.legs).
 type legRun struct {
-	c   int32   // cell (copy of user.legs, kept by refreshLegs)
-	n   int32   // slots in acc
-	g   float64 // slow gain of the cell (copy of rep.slow, kept by refreshLegs)
-	acc float64 // block accumulator (sum of linear SIR)
+	c int32   // cell (copy of user.legs)
+	g float64 // slow gain of the cell (copy of rep.slow)
 }
 
 // rep is one replication's working state.
@@ -151,6 +150,13 @@ type rep struct {
 	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
 	movers   []int32   // updateSums: the users that moved otherwise than the common factor
 	moverD   []float64 // updateSums: their p' − b·p
+	legs     legList   // the active-set legs, flat (legs.go)
+	legSIR   []float64 // per user u and leg rank k: this slot's SIR at u·max_active + k (with estimation or command errors)
+	tgt      []float64 // per user: users[u].target, this slot
+	bestU    []float64 // per user: this slot's best leg SIR
+	upU      []uint8   // per user: 1 when every leg's SIR is below target
+	legAcc   []float64 // per leg slot u·max_active + l: block accumulator (sum of linear SIR)
+	legN     []int32   // per leg slot: slots in legAcc
 	cmds     []int8    // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
 	ups      int       // users whose power went up in the last slot
 	downs    int       // users whose power went down in the last slot

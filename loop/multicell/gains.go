@@ -84,6 +84,7 @@ func (rp *rep) refreshLegs(us *user, row []float64) {
 		}
 	}
 	us.nLegs = int32(n)
+	rp.legs.dirty = true
 }
 
 // openLoopEstimate records the user's estimate of its best slow gain (dB,

@@ -15,6 +15,9 @@ import "math"
 // helper every slot (two hand-offs per slot) was measured slower on the
 // shared 2-core machine (see fill.go's split for the per-block hand-offs).
 func (rp *rep) slot(t int64, k int) {
+	if rp.full && rp.legs.dirty {
+		rp.buildLegs()
+	}
 	if rp.full {
 		U, C := rp.U, rp.C
 		f := rp.fullBuf
@@ -34,12 +37,18 @@ func (rp *rep) slot(t int64, k int) {
 			rp.updateSums()
 		}
 		rp.sinceSum++
+		if rp.legs.dirty {
+			rp.buildLegs()
+		}
 		if !rp.corrReady {
 			clear(rp.corr)
 			if rp.fade != nil { // else no fast fading: no corrections
+				// pPrev as scratch for this slot's powers (updateSums has
+				// read the last slot's; runUsers sets them again).
 				for u := range rp.users {
-					rp.users[u].addLegCorrections(rp.corr, rp.fade[k*rp.fadeStride+u*rp.legsPerUser:])
+					rp.pPrev[u] = rp.users[u].p
 				}
+				rp.legCorrections(rp.corr, rp.pPrev, rp.fade[k*rp.fadeStride:(k+1)*rp.fadeStride])
 			}
 		}
 		for c, s := range rp.sums {
@@ -120,10 +129,14 @@ func (rp *rep) updateSums() {
 // keeps this slot's) and, when ahead, the next slot's leg corrections
 // (corrNext).
 //
-// The loop over users is the hot path: what most slots never do (block
-// ends) is in methods of its own, and the branches left on the
-// configuration (mode, FULL fading, estimation and command errors) go the
-// same way for every user, so they cost no mispredictions.
+// This is the hot path, in three loops without a branch on a user's leg
+// count: the SIR of every active-set leg (over rep.legs: no random draws),
+// then per user its best SIR and command from its max_active leg ranks
+// (unused ranks hold SIR 0, which changes neither), the draws in leg order
+// as before, block ends (methods of their own) and the power step, then
+// the next slot's corrections over rep.legs again. The branches left on
+// the configuration (mode, FULL fading, estimation and command errors) go
+// the same way for every user, so they cost no mispredictions.
 func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	rx, own, corrNext := rp.rx, rp.own, rp.corrNext
 	measure := t >= rp.cfg.Run.WarmupSlots
@@ -138,7 +151,6 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	di := int(t % int64(d))
 	started := t >= int64(d) // the delay line holds commands
 	ups, downs := 0, 0
-	A := rp.legsPerUser
 	var fk, fNext []float64 // this slot's and the next slot's leg gains (SLOW_TOWARD_OTHERS)
 	if rp.fade != nil {
 		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
@@ -156,30 +168,50 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	lin, lim, limDB := rp.stepTables()
 	stepDB := il.StepDB
 	users := rp.users[:U]
+	tgt, bestU, upU := rp.tgt[:U], rp.bestU[:U], rp.upU[:U]
+	for u := range users {
+		pPrev[u], tgt[u], bestU[u], upU[u] = users[u].p, users[u].target, 0, 1
+	}
+	ma := rp.cfg.Handover.MaxActive
+	plain := sigma == 0 && cep == 0 // no draws per leg
+	// The SIR of every leg, and per user the best SIR and the combined
+	// command without draws (up only if every leg's SIR is below target).
+	L := &rp.legs
+	nl := len(L.j)
+	lj, lu, lc, lpos, lg, lown := L.j[:nl], L.u[:nl], L.c[:nl], L.pos[:nl], L.g[:nl], L.own[:nl]
+	acc, cnt, legSIR := rp.legAcc, rp.legN, rp.legSIR
+	for i, j := range lj {
+		c, u := lc[i], lu[i]
+		f := 1.0
+		if fk != nil {
+			f = fk[j]
+		} else if full {
+			f = rp.fullBuf[int(c)*U+int(u)][k]
+		}
+		sig := pPrev[u] * lg[i] * f
+		own[c] += sig * lown[i] // the best cell's own-cell power (adding 0 changes nothing)
+		sir := pg * sig / max(rx[c]-sig, noise)
+		acc[j] += sir
+		cnt[j]++
+		bestU[u] = max(bestU[u], sir)
+		var up uint8
+		if sir < tgt[u] {
+			up = 1
+		}
+		upU[u] &= up
+		if !plain {
+			legSIR[lpos[i]] = sir
+		}
+	}
 	for u := range users {
 		us := &users[u]
-		pu := us.p
-		pPrev[u] = pu
-		bestSIR := 0.0
-		upAll := uint8(1) // 1 while every leg says up (no branch per leg)
-		for _, l := range us.act[:us.nLegs] {
-			lg := &us.leg[l]
-			c := int(lg.c)
-			f := 1.0
-			if fk != nil {
-				f = fk[u*A+int(l)]
-			} else if full {
-				f = rp.fullBuf[c*U+u][k]
-			}
-			sig := pu * lg.g * f
-			if c == int(us.best) {
-				own[c] += sig
-			}
-			sir := pg * sig / fmax(rx[c]-sig, noise)
-			bestSIR = fmax(bestSIR, sir)
-			lg.acc += sir
-			lg.n++
-			if closed {
+		pu := pPrev[u]
+		bestSIR, upAll := bestU[u], upU[u]
+		if !plain && closed {
+			// The measured SIR and the command of each leg, drawing in leg
+			// order.
+			upAll = 1
+			for _, sir := range legSIR[u*ma : u*ma+int(us.nLegs)] {
 				m := sir
 				if sigma > 0 {
 					m *= math.Exp(sigma * us.ctl.Norm())
@@ -196,18 +228,19 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		}
 		var blockFlags uint8
 		if blockEnd {
-			blockFlags = rp.blockResult(us)
+			blockFlags = rp.blockResult(us, u)
 		}
 		if measure {
 			recSIR[u], recPDB[u], recTDB[u] = bestSIR, us.pDB, us.targetDB
-			fl := blockFlags
+			// Flags set without a branch (outage is a coin flip too).
+			var out, atMax uint8
 			if bestSIR < us.target*marginLin {
-				fl |= recOutage
+				out = recOutage
 			}
 			if pu >= pAtMax {
-				fl |= recAtMax
+				atMax = recAtMax
 			}
-			recFlags[u] = fl
+			recFlags[u] = blockFlags | out | atMax
 		}
 		if blockEnd {
 			rp.outerLoop(us, pu, blockFlags&recBlockErr != 0)
@@ -237,11 +270,11 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
 		}
 		pCur[u] = us.p
-		if fNext != nil {
-			us.addLegCorrections(corrNext, fNext[u*A:u*A+A])
-		}
 	}
 	rp.ups, rp.downs = ups, downs
+	if fNext != nil {
+		rp.legCorrections(corrNext, pCur, fNext)
+	}
 }
 
 // blockResult ends the user's outer-loop block on every leg: the block is
@@ -251,12 +284,12 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 // order; selection combining: a block error when no leg received it. It
 // returns recBlockEnd, with recBlockErr on a block error, and clears the
 // legs' accumulators.
-func (rp *rep) blockResult(us *user) uint8 {
+func (rp *rep) blockResult(us *user, u int) uint8 {
 	thr, slope := rp.cfg.Link.ThresholdDB, rp.cfg.Link.SlopeDB
 	anyOK := uint8(0)
 	for _, l := range us.act[:us.nLegs] {
-		lg := &us.leg[l]
-		mean := lg.acc / float64(lg.n)
+		j := u*rp.cfg.Handover.MaxActive + int(l)
+		mean := rp.legAcc[j] / float64(rp.legN[j])
 		z := (linToDB(mean) - thr) / slope
 		bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
 		// The block result is a coin flip: set without a branch.
@@ -265,7 +298,7 @@ func (rp *rep) blockResult(us *user) uint8 {
 			ok = 1
 		}
 		anyOK |= ok
-		lg.acc, lg.n = 0, 0
+		rp.legAcc[j], rp.legN[j] = 0, 0
 	}
 	return recBlockEnd | recBlockErr*(1-anyOK)
 }
@@ -302,16 +335,6 @@ func (rp *rep) openLoopStep(us *user, cmd int8) {
 		us.olCorrDB = next
 	}
 	us.setP(rp.clamp(dbToLin(base + us.olCorrDB)))
-}
-
-// addLegCorrections adds to corr, per cell, the user's fading correction
-// p·G·(F − 1) on each active-set leg, with f the user's leg gains of one
-// slot (f[l] for leg slot l).
-func (us *user) addLegCorrections(corr, f []float64) {
-	for _, l := range us.act[:us.nLegs] {
-		lg := &us.leg[l]
-		corr[lg.c] += us.p * lg.g * (f[l] - 1)
-	}
 }
 
 // stepPower moves the power one step up (cmd > 0) or down (cmd < 0):
@@ -353,22 +376,6 @@ func (us *user) setP(p float64) {
 func (us *user) setTarget(db float64) {
 	us.targetDB = db
 	us.target = dbToLin(db)
-}
-
-// fmax and fmin are math.Max and math.Min for the engine's finite values
-// (no NaN or signed-zero handling: a plain comparison, cheaper per slot).
-func fmax(a, b float64) float64 {
-	if a > b {
-		return a
-	}
-	return b
-}
-
-func fmin(a, b float64) float64 {
-	if a < b {
-		return a
-	}
-	return b
 }
 
 // dbToLin is 10^(x/10).
