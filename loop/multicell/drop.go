@@ -149,7 +149,11 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.movers, rp.moverD = make([]int32, U), make([]float64, U)
 	ma := cfg.Handover.MaxActive
 	rp.legSIR, rp.legAcc, rp.legN = make([]float64, U*ma), make([]float64, U*ma), make([]int32, U*ma)
-	rp.tgt, rp.bestU, rp.upU = make([]float64, U), make([]float64, U), make([]uint8, U)
+	rp.slotU = make([]userSlot, U)
+	rp.legF = make([]float64, U*ma)
+	for i := range rp.legF {
+		rp.legF[i] = 1
+	}
 	rp.legs = newLegList(U * ma)
 	rp.cmds = make([]int8, U*(cfg.InnerLoop.FeedbackDelaySlots+1))
 	rp.stale = true

@@ -143,23 +143,22 @@ type rep struct {
 	// slow is the slow gain (path loss, shadowing, antenna), user-major:
 	// slow[u·C+c], linear.
 	slow     []float64
-	sums     []float64 // per cell: Σ_u p_u·slow[u·C+c] at this slot's powers, mW (updateSums)
-	stale    bool      // sums must be recomputed in full (slow gains or powers set directly)
-	sinceSum int       // slots since the last full recomputation of sums
-	pPrev    []float64 // per user: the power of the last slot run, mW
-	pCur     []float64 // per user: the power of the next slot to run, mW (= users[u].p after a slot)
-	movers   []int32   // updateSums: the users that moved otherwise than the common factor
-	moverD   []float64 // updateSums: their p' − b·p
-	legs     legList   // the active-set legs, flat (legs.go)
-	legSIR   []float64 // per user u and leg rank k: this slot's SIR at u·max_active + k (with estimation or command errors)
-	tgt      []float64 // per user: users[u].target, this slot
-	bestU    []float64 // per user: this slot's best leg SIR
-	upU      []uint8   // per user: 1 when every leg's SIR is below target
-	legAcc   []float64 // per leg slot u·max_active + l: block accumulator (sum of linear SIR)
-	legN     []int32   // per leg slot: slots in legAcc
-	cmds     []int8    // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
-	ups      int       // users whose power went up in the last slot
-	downs    int       // users whose power went down in the last slot
+	sums     []float64  // per cell: Σ_u p_u·slow[u·C+c] at this slot's powers, mW (updateSums)
+	stale    bool       // sums must be recomputed in full (slow gains or powers set directly)
+	sinceSum int        // slots since the last full recomputation of sums
+	pPrev    []float64  // per user: the power of the last slot run, mW
+	pCur     []float64  // per user: the power of the next slot to run, mW (= users[u].p after a slot)
+	movers   []int32    // updateSums: the users that moved otherwise than the common factor
+	moverD   []float64  // updateSums: their p' − b·p
+	legs     legList    // the active-set legs, flat (legs.go)
+	legSIR   []float64  // per user u and leg rank k: this slot's SIR at u·max_active + k (with estimation or command errors)
+	slotU    []userSlot // per user: this slot's power, target, best SIR and combined command (legs.go)
+	legF     []float64  // per leg slot: FULL fading's gains of this slot (legGains), 1 without fast fading
+	legAcc   []float64  // per leg slot u·max_active + l: block accumulator (sum of linear SIR)
+	legN     []int32    // per leg slot: slots in legAcc
+	cmds     []int8     // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
+	ups      int        // users whose power went up in the last slot
+	downs    int        // users whose power went down in the last slot
 	// fade is this block's fast fading of the active-set legs (SLOW_TOWARD_OTHERS),
 	// slot-major: fade[k·fadeStride + u·legsPerUser + l] is the power gain
 	// of user u's leg slot l in slot k of the block.

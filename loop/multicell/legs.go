@@ -7,26 +7,39 @@ package multicell
 // legs or their slow gains change (refreshLegs marks it dirty).
 type legList struct {
 	dirty bool
-	j     []int32   // leg slot index u·max_active + l (fade column, rep.legAcc)
-	u     []int32   // user
-	c     []int32   // cell
-	pos   []int32   // u·max_active + k, k the leg's rank in user.act (rep.legSIR)
-	g     []float64 // slow gain of the cell (user.leg[l].g)
-	own   []float64 // 1 when the cell is the user's best cell, else 0 (adds to rep.own)
+	e     []legEntry
+}
+
+// legEntry is one active-set leg as the slot loop reads it (one array of
+// these rather than one per field: fewer live pointers in the loop).
+type legEntry struct {
+	g   float64 // slow gain of the cell (user.leg[l].g)
+	own float64 // 1 when the cell is the user's best cell, else 0 (adds to rep.own)
+	j   int32   // leg slot index u·max_active + l (fade column, rep.legAcc)
+	u   int32   // user
+	c   int32   // cell
+	pos int32   // u·max_active + k, k the leg's rank in user.act (rep.legSIR)
+}
+
+// userSlot is what the loop over legs reads and sets per user in a slot.
+type userSlot struct {
+	p    float64 // power this slot, mW (user.p)
+	tgt  float64 // SIR target, linear (user.target)
+	best float64 // best leg SIR so far
+	up   uint8   // 1 while every leg's SIR is below target
 }
 
 // newLegList returns a dirty list with room for n legs (U·max_active:
 // buildLegs never allocates).
 func newLegList(n int) legList {
-	return legList{dirty: true, j: make([]int32, 0, n), u: make([]int32, 0, n), c: make([]int32, 0, n),
-		pos: make([]int32, 0, n), g: make([]float64, 0, n), own: make([]float64, 0, n)}
+	return legList{dirty: true, e: make([]legEntry, 0, n)}
 }
 
 // buildLegs rebuilds rep.legs from the users' active sets.
 func (rp *rep) buildLegs() {
 	L := &rp.legs
 	ma := rp.cfg.Handover.MaxActive
-	L.j, L.u, L.c, L.pos, L.g, L.own = L.j[:0], L.u[:0], L.c[:0], L.pos[:0], L.g[:0], L.own[:0]
+	L.e = L.e[:0]
 	for u := range rp.users {
 		us := &rp.users[u]
 		for k, l := range us.act[:us.nLegs] {
@@ -35,25 +48,66 @@ func (rp *rep) buildLegs() {
 			if lg.c == us.best {
 				own = 1
 			}
-			L.j = append(L.j, int32(u*ma+int(l)))
-			L.u = append(L.u, int32(u))
-			L.c = append(L.c, lg.c)
-			L.pos = append(L.pos, int32(u*ma+k))
-			L.g = append(L.g, lg.g)
-			L.own = append(L.own, own)
+			L.e = append(L.e, legEntry{g: lg.g, own: own, j: int32(u*ma + int(l)), u: int32(u), c: lg.c, pos: int32(u*ma + k)})
 		}
 	}
 	L.dirty = false
+}
+
+// legSIRs runs slot k's SIR of every active-set leg: the received signal
+// p·G·F, the own-cell power of each user's best cell (own), the SIR
+// W/R·S/(rx − S) (at least the noise below), the block accumulators
+// (legAcc, legN), and per user the best SIR and whether every leg's SIR is
+// below target (rep.slotU, set by runUsers before). With draws per leg
+// (plain false) it also keeps each SIR by rank (legSIR). fk is the slot's
+// leg gains by leg slot (legGains).
+func (rp *rep) legSIRs(fk []float64, plain bool) {
+	own, rx, acc, cnt, legSIR, su := rp.own, rp.rx, rp.legAcc, rp.legN, rp.legSIR, rp.slotU
+	pg, noise := rp.pg, rp.noiseMW
+	es := rp.legs.e
+	fk = fk[:len(legSIR)]
+	for i := range es {
+		e := &es[i]
+		f := fk[e.j]
+		s := &su[e.u]
+		c, j := e.c, e.j
+		sig := s.p * e.g * f
+		own[c] += sig * e.own // adding 0 changes nothing
+		sir := pg * sig / max(rx[c]-sig, noise)
+		acc[j] += sir
+		cnt[j]++
+		s.best = max(s.best, sir)
+		var up uint8
+		if sir < s.tgt {
+			up = 1
+		}
+		s.up &= up
+		if !plain {
+			legSIR[e.pos] = sir
+		}
+	}
+}
+
+// legGains returns slot k's fast-fading power gain of every leg by leg
+// slot u·max_active + l: the fade set's row (SLOW_TOWARD_OTHERS), the
+// links' samples gathered into rep.legF (FULL), or rep.legF's ones (NONE).
+func (rp *rep) legGains(k int) []float64 {
+	if rp.fade != nil {
+		return rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
+	}
+	if rp.full {
+		for _, e := range rp.legs.e {
+			rp.legF[e.j] = rp.fullBuf[int(e.c)*rp.U+int(e.u)][k]
+		}
+	}
+	return rp.legF
 }
 
 // legCorrections adds to corr, per cell, every active-set leg's fading
 // correction p·G·(F − 1), with p[u] the user's power and f the slot's leg
 // gains (f[u·max_active + l]), in user and leg order.
 func (rp *rep) legCorrections(corr, p, f []float64) {
-	L := &rp.legs
-	lu, lc, lg := L.u, L.c[:len(L.u)], L.g[:len(L.u)]
-	lj := L.j[:len(L.u)]
-	for i, u := range lu {
-		corr[lc[i]] += p[u] * lg[i] * (f[lj[i]] - 1)
+	for _, e := range rp.legs.e {
+		corr[e.c] += p[e.u] * e.g * (f[e.j] - 1)
 	}
 }

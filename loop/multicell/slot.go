@@ -138,7 +138,7 @@ func (rp *rep) updateSums() {
 // the configuration (mode, FULL fading, estimation and command errors) go
 // the same way for every user, so they cost no mispredictions.
 func (rp *rep) runUsers(t int64, k int, ahead bool) {
-	rx, own, corrNext := rp.rx, rp.own, rp.corrNext
+	corrNext := rp.corrNext
 	measure := t >= rp.cfg.Run.WarmupSlots
 	il := &rp.cfg.InnerLoop
 	sigma := il.SIREstimationErrorDB * math.Ln10 / 10
@@ -151,62 +151,33 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	di := int(t % int64(d))
 	started := t >= int64(d) // the delay line holds commands
 	ups, downs := 0, 0
-	var fk, fNext []float64 // this slot's and the next slot's leg gains (SLOW_TOWARD_OTHERS)
-	if rp.fade != nil {
-		fk = rp.fade[k*rp.fadeStride : (k+1)*rp.fadeStride]
-		if ahead {
-			fNext = rp.fade[(k+1)*rp.fadeStride : (k+2)*rp.fadeStride]
-		}
+	var fNext []float64 // the next slot's leg gains (SLOW_TOWARD_OTHERS)
+	if rp.fade != nil && ahead {
+		fNext = rp.fade[(k+1)*rp.fadeStride : (k+2)*rp.fadeStride]
 	}
 	rec := rp.rec
 	pAtMax := rp.pmax * (1 - 1e-12) // at max: within rounding of the limit
 	// Loop invariants in locals (the stores below go through pointers).
-	pg, noise, full, U := rp.pg, rp.noiseMW, rp.full, rp.U
+	U := rp.U
 	pPrev, pCur, cmds := rp.pPrev[:U], rp.pCur[:U], rp.cmds[:U*d]
 	recSIR, recPDB, recTDB, recFlags := rec.sir[k*U:(k+1)*U], rec.pDB[k*U:(k+1)*U], rec.targetDB[k*U:(k+1)*U], rec.flags[k*U:(k+1)*U]
 	marginLin := rp.marginLin
 	lin, lim, limDB := rp.stepTables()
 	stepDB := il.StepDB
 	users := rp.users[:U]
-	tgt, bestU, upU := rp.tgt[:U], rp.bestU[:U], rp.upU[:U]
+	su := rp.slotU[:U]
 	for u := range users {
-		pPrev[u], tgt[u], bestU[u], upU[u] = users[u].p, users[u].target, 0, 1
+		pPrev[u] = users[u].p
+		su[u] = userSlot{p: users[u].p, tgt: users[u].target, up: 1}
 	}
 	ma := rp.cfg.Handover.MaxActive
 	plain := sigma == 0 && cep == 0 // no draws per leg
-	// The SIR of every leg, and per user the best SIR and the combined
-	// command without draws (up only if every leg's SIR is below target).
-	L := &rp.legs
-	nl := len(L.j)
-	lj, lu, lc, lpos, lg, lown := L.j[:nl], L.u[:nl], L.c[:nl], L.pos[:nl], L.g[:nl], L.own[:nl]
-	acc, cnt, legSIR := rp.legAcc, rp.legN, rp.legSIR
-	for i, j := range lj {
-		c, u := lc[i], lu[i]
-		f := 1.0
-		if fk != nil {
-			f = fk[j]
-		} else if full {
-			f = rp.fullBuf[int(c)*U+int(u)][k]
-		}
-		sig := pPrev[u] * lg[i] * f
-		own[c] += sig * lown[i] // the best cell's own-cell power (adding 0 changes nothing)
-		sir := pg * sig / max(rx[c]-sig, noise)
-		acc[j] += sir
-		cnt[j]++
-		bestU[u] = max(bestU[u], sir)
-		var up uint8
-		if sir < tgt[u] {
-			up = 1
-		}
-		upU[u] &= up
-		if !plain {
-			legSIR[lpos[i]] = sir
-		}
-	}
+	rp.legSIRs(rp.legGains(k), plain)
+	legSIR := rp.legSIR
 	for u := range users {
 		us := &users[u]
 		pu := pPrev[u]
-		bestSIR, upAll := bestU[u], upU[u]
+		bestSIR, upAll := su[u].best, su[u].up
 		if !plain && closed {
 			// The measured SIR and the command of each leg, drawing in leg
 			// order.
