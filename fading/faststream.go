@@ -40,18 +40,28 @@ func NewFastStream(seed uint64, user, index int, kind StreamKind) FastStream {
 	return g
 }
 
-// Uint64 is the next xoshiro256++ output: rotl(s0 + s3, 23) + s0, then the
-// state's linear step (Blackman & Vigna 2021, xoshiro256plusplus.c).
+// Uint64 is the next xoshiro256++ output (xoshiroStep).
 func (g *FastStream) Uint64() uint64 {
-	r := bits.RotateLeft64(g.s0+g.s3, 23) + g.s0
-	t := g.s1 << 17
-	g.s2 ^= g.s0
-	g.s3 ^= g.s1
-	g.s1 ^= g.s2
-	g.s0 ^= g.s3
-	g.s2 ^= t
-	g.s3 = bits.RotateLeft64(g.s3, 45)
+	var r uint64
+	r, g.s0, g.s1, g.s2, g.s3 = xoshiroStep(g.s0, g.s1, g.s2, g.s3)
 	return r
+}
+
+// xoshiroStep is one xoshiro256++ step on the state (s0, s1, s2, s3): the
+// output rotl(s0 + s3, 23) + s0 and the state's linear step (Blackman &
+// Vigna 2021, xoshiro256plusplus.c). The generator's one implementation,
+// on values so that a loop of draws can keep the state in registers
+// (NormFill).
+func xoshiroStep(s0, s1, s2, s3 uint64) (r, n0, n1, n2, n3 uint64) {
+	r = bits.RotateLeft64(s0+s3, 23) + s0
+	t := s1 << 17
+	s2 ^= s0
+	s3 ^= s1
+	s1 ^= s2
+	s0 ^= s3
+	s2 ^= t
+	s3 = bits.RotateLeft64(s3, 45)
+	return r, s0, s1, s2, s3
 }
 
 // Norm is the next standard normal draw (ziggurat: one Uint64 for about
@@ -65,18 +75,23 @@ func (g *FastStream) Norm() float64 {
 }
 
 // NormFill fills dst with standard normal draws: the values of len(dst)
-// calls of Norm, in order, with the stream's state kept in registers for
-// the loop (no call per draw on the common path).
+// calls of Norm, in order, with the stream's state in four locals for the
+// loop (never addressed, so the compiler keeps them in registers; the
+// rare wedge and tail draws store them back around norm).
 func (g *FastStream) NormFill(dst []float64) {
-	st := *g
+	s0, s1, s2, s3 := g.s0, g.s1, g.s2, g.s3
 	for k := range dst {
-		j, i, x, ok := zigStep(st.Uint64())
+		var r uint64
+		r, s0, s1, s2, s3 = xoshiroStep(s0, s1, s2, s3)
+		j, i, x, ok := zigStep(r)
 		if !ok {
-			x = st.norm(j, i, x)
+			g.s0, g.s1, g.s2, g.s3 = s0, s1, s2, s3
+			x = g.norm(j, i, x)
+			s0, s1, s2, s3 = g.s0, g.s1, g.s2, g.s3
 		}
 		dst[k] = x
 	}
-	*g = st
+	g.s0, g.s1, g.s2, g.s3 = s0, s1, s2, s3
 }
 
 // zigStep is the ziggurat's first step on one output u: the signed layer
