@@ -8,6 +8,9 @@ package multicell
 type legList struct {
 	dirty bool
 	e     []legEntry
+	// The largest leg slot, user and cell in e (legSIRs checks them
+	// against its arrays before the assembly loop).
+	maxJ, maxU, maxC int32
 }
 
 // legEntry is one active-set leg as the slot loop reads it (one array of
@@ -40,6 +43,7 @@ func (rp *rep) buildLegs() {
 	L := &rp.legs
 	ma := rp.cfg.Handover.MaxActive
 	L.e = L.e[:0]
+	L.maxJ, L.maxU, L.maxC = 0, 0, 0
 	for u := range rp.users {
 		us := &rp.users[u]
 		for k, l := range us.act[:us.nLegs] {
@@ -48,20 +52,43 @@ func (rp *rep) buildLegs() {
 			if lg.c == us.best {
 				own = 1
 			}
-			L.e = append(L.e, legEntry{g: lg.g, own: own, j: int32(u*ma + int(l)), u: int32(u), c: lg.c, pos: int32(u*ma + k)})
+			e := legEntry{g: lg.g, own: own, j: int32(u*ma + int(l)), u: int32(u), c: lg.c, pos: int32(u*ma + k)}
+			L.e = append(L.e, e)
+			L.maxJ, L.maxU, L.maxC = max(L.maxJ, e.j), max(L.maxU, e.u), max(L.maxC, e.c)
 		}
 	}
 	L.dirty = false
 }
 
-// legSIRs runs slot k's SIR of every active-set leg: the received signal
-// p·G·F, the own-cell power of each user's best cell (own), the SIR
-// W/R·S/(rx − S) (at least the noise below), the block accumulators
+// legSIRs runs the slot's SIR of every active-set leg: the received
+// signal p·G·F, the own-cell power of each user's best cell (own), the
+// SIR W/R·S/(rx − S) (at least the noise below), the block accumulators
 // (legAcc, legN), and per user the best SIR and whether every leg's SIR is
 // below target (rep.slotU, set by runUsers before). With draws per leg
 // (plain false) it also keeps each SIR by rank (legSIR). fk is the slot's
-// leg gains by leg slot (legGains).
+// leg gains by leg slot (legGains). Plain slots run the assembly loop
+// where there is one (legsirs_amd64.s, the same bits), after checking
+// that every index of the list is inside its array.
 func (rp *rep) legSIRs(fk []float64, plain bool) {
+	es := rp.legs.e
+	if plain && useLegSIRsAsm && len(es) > 0 {
+		nl, nu := len(rp.legAcc), len(rp.slotU)
+		if len(fk) < nl || len(rp.legN) < nl || len(rp.own) < rp.C || len(rp.rx) < rp.C || int(rp.legs.maxJ) >= nl || int(rp.legs.maxU) >= nu || int(rp.legs.maxC) >= rp.C {
+			panic("multicell: leg list out of its arrays") // programmer error
+		}
+		legSIRsFast(es, fk, rp.slotU, rp.own, rp.rx, rp.legAcc, rp.legN, rp.pg, rp.noiseMW)
+		return
+	}
+	rp.legSIRsGo(fk, plain)
+}
+
+// useLegSIRsAsm selects the assembly loop where there is one (tests switch
+// it off to compare).
+var useLegSIRsAsm = haveLegSIRsAsm
+
+// legSIRsGo is legSIRs in Go: the reference of the assembly loop and the
+// loop of slots with draws per leg.
+func (rp *rep) legSIRsGo(fk []float64, plain bool) {
 	own, rx, acc, cnt, legSIR, su := rp.own, rp.rx, rp.legAcc, rp.legN, rp.legSIR, rp.slotU
 	pg, noise := rp.pg, rp.noiseMW
 	es := rp.legs.e
