@@ -67,11 +67,11 @@ func (rp *rep) buildLegs() {
 // below target (rep.slotU, set by runUsers before). With draws per leg
 // (plain false) it also keeps each SIR by rank (legSIR). fk is the slot's
 // leg gains by leg slot (legGains). Plain slots run the assembly loop
-// where there is one (legsirs_amd64.s, the same bits), after checking
+// where there is one (loops_amd64.s, the same bits), after checking
 // that every index of the list is inside its array.
 func (rp *rep) legSIRs(fk []float64, plain bool) {
 	es := rp.legs.e
-	if plain && useLegSIRsAsm && len(es) > 0 {
+	if plain && useLoopAsm && len(es) > 0 {
 		nl, nu := len(rp.legAcc), len(rp.slotU)
 		if len(fk) < nl || len(rp.legN) < nl || len(rp.own) < rp.C || len(rp.rx) < rp.C || int(rp.legs.maxJ) >= nl || int(rp.legs.maxU) >= nu || int(rp.legs.maxC) >= rp.C {
 			panic("multicell: leg list out of its arrays") // programmer error
@@ -82,9 +82,9 @@ func (rp *rep) legSIRs(fk []float64, plain bool) {
 	rp.legSIRsGo(fk, plain)
 }
 
-// useLegSIRsAsm selects the assembly loop where there is one (tests switch
-// it off to compare).
-var useLegSIRsAsm = haveLegSIRsAsm
+// useLoopAsm selects the assembly loops where there are (legSIRs,
+// plainUsers; tests switch it off to compare).
+var useLoopAsm = haveLoopAsm
 
 // legSIRsGo is legSIRs in Go: the reference of the assembly loop and the
 // loop of slots with draws per leg.
@@ -132,9 +132,24 @@ func (rp *rep) legGains(k int) []float64 {
 
 // legCorrections adds to corr, per cell, every active-set leg's fading
 // correction p·G·(F − 1), with p[u] the user's power and f the slot's leg
-// gains (f[u·max_active + l]), in user and leg order.
+// gains (f[u·max_active + l]), in user and leg order: in assembly where
+// there is (loops_amd64.s, the same bits), after checking every index of
+// the list against the arrays.
 func (rp *rep) legCorrections(corr, p, f []float64) {
-	for _, e := range rp.legs.e {
+	L := &rp.legs
+	if useLoopAsm && len(L.e) > 0 {
+		if int(L.maxC) >= len(corr) || int(L.maxU) >= len(p) || int(L.maxJ) >= len(f) {
+			panic("multicell: leg list out of its arrays") // programmer error
+		}
+		legCorrectionsFast(L.e, corr, p, f)
+		return
+	}
+	legCorrectionsGo(L.e, corr, p, f)
+}
+
+// legCorrectionsGo is legCorrections in Go (the assembly loop's reference).
+func legCorrectionsGo(es []legEntry, corr, p, f []float64) {
+	for _, e := range es {
 		corr[e.c] += p[e.u] * e.g * (f[e.j] - 1)
 	}
 }

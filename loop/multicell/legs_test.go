@@ -1,6 +1,7 @@
 package multicell
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -8,7 +9,7 @@ import (
 )
 
 // TestLegLayout: the field offsets the assembly loop reads
-// (legsirs_amd64.s).
+// (loops_amd64.s).
 func TestLegLayout(t *testing.T) {
 	var e legEntry
 	var s userSlot
@@ -40,7 +41,7 @@ func TestLegLayout(t *testing.T) {
 // whose interference is below the noise floor, zero gains and several
 // legs of a user in one cell.
 func TestLegSIRsAsmMatchesGo(t *testing.T) {
-	if !useLegSIRsAsm {
+	if !useLoopAsm {
 		t.Skip("no assembly loop on this build: only the Go code runs")
 	}
 	r := rand.New(rand.NewPCG(5, 6))
@@ -127,7 +128,7 @@ func TestLegSIRsAsmMatchesGo(t *testing.T) {
 // TestLegSIRsChecksIndices: a leg list reaching past its arrays is a
 // programmer error the assembly loop must not run on.
 func TestLegSIRsChecksIndices(t *testing.T) {
-	if !useLegSIRsAsm {
+	if !useLoopAsm {
 		t.Skip("no assembly loop on this build")
 	}
 	rp := &rep{C: 2, U: 1, own: make([]float64, 2), rx: make([]float64, 2), legAcc: make([]float64, 1), legN: make([]int32, 1), slotU: make([]userSlot, 1)}
@@ -139,4 +140,115 @@ func TestLegSIRsChecksIndices(t *testing.T) {
 		}
 	}()
 	rp.legSIRs(make([]float64, 1), true)
+}
+
+// TestLoopLayout: the offsets the assembly loop over users reads
+// (plainUsersAsm): plainArgs, and user's power and target fields.
+func TestLoopLayout(t *testing.T) {
+	var a plainArgs
+	var us user
+	for _, c := range []struct {
+		name      string
+		got, want uintptr
+	}{
+		{"users", unsafe.Offsetof(a.users), 0}, {"n", unsafe.Offsetof(a.n), 8}, {"su", unsafe.Offsetof(a.su), 16},
+		{"pCur", unsafe.Offsetof(a.pCur), 24}, {"cmds", unsafe.Offsetof(a.cmds), 32}, {"recSIR", unsafe.Offsetof(a.recSIR), 40},
+		{"recPDB", unsafe.Offsetof(a.recPDB), 48}, {"recTDB", unsafe.Offsetof(a.recTDB), 56}, {"recFlags", unsafe.Offsetof(a.recFlags), 64},
+		{"lin", unsafe.Offsetof(a.lin), 72}, {"lim", unsafe.Offsetof(a.lim), 88}, {"limDB", unsafe.Offsetof(a.limDB), 104},
+		{"stepDB", unsafe.Offsetof(a.stepDB), 120}, {"marginLin", unsafe.Offsetof(a.marginLin), 136}, {"pAtMax", unsafe.Offsetof(a.pAtMax), 144},
+		{"ups", unsafe.Offsetof(a.ups), 152}, {"downs", unsafe.Offsetof(a.downs), 160}, {"stride", unsafe.Offsetof(a.stride), 168},
+		{"user.p", unsafe.Offsetof(us.p), 0}, {"user.pDB", unsafe.Offsetof(us.pDB), 8},
+		{"user.target", unsafe.Offsetof(us.target), 16}, {"user.targetDB", unsafe.Offsetof(us.targetDB), 24},
+	} {
+		if c.got != c.want {
+			t.Errorf("%s at %d, want %d", c.name, c.got, c.want)
+		}
+	}
+	if recOutage != 1 || recAtMax != 2 {
+		t.Errorf("flags %d, %d: the assembly sets 1 and 2", recOutage, recAtMax)
+	}
+}
+
+// TestLoopAsmMatchesGo: runs with the assembly loops give reports
+// identical to the Go loops' (every figure, bit for bit) where the
+// assembly runs: closed loop, feedback delay 0, no per-leg draws; with
+// users held at the power limits (a low maximum power, a high minimum) and
+// with a warm-up, so that records, flags and limits are all exercised.
+func TestLoopAsmMatchesGo(t *testing.T) {
+	if !haveLoopAsm {
+		t.Skip("no assembly loops on this build: only the Go code runs")
+	}
+	base := smallLayout()
+	base.InnerLoop = InnerLoop{}
+	base.Run.Replications = 1
+	base.Groups[0].CountPerCell = 8 // a helper goroutine as well (≥ 128 users)
+	lowMax := base
+	lowMax.InnerLoop.MaxPowerDBm = -10
+	highMin := base
+	highMin.InnerLoop.MinPowerDBm = 10
+	bigStep := base
+	bigStep.InnerLoop.StepDB = 3
+	noFade := base
+	noFade.Channel.FastFading = FastFadingNone
+	for name, cfg := range map[string]Config{"base": base, "low max power": lowMax, "high min power": highMin, "3 dB step": bigStep, "no fast fading": noFade} {
+		var out [2][]byte
+		for i, asm := range []bool{true, false} {
+			useLoopAsm = asm
+			rep, err := Run(context.Background(), cfg)
+			useLoopAsm = haveLoopAsm
+			if err != nil {
+				t.Fatalf("%s: %v", name, err)
+			}
+			out[i] = reportText(rep)
+		}
+		if string(out[0]) != string(out[1]) {
+			t.Errorf("%s: reports differ between the assembly and Go loops", name)
+		}
+	}
+}
+
+// TestLegCorrectionsAsmMatchesGo: the assembly corrections give the same
+// bits as the Go loop on random lists (several legs per cell, gains of 0,
+// fading above and below 1).
+func TestLegCorrectionsAsmMatchesGo(t *testing.T) {
+	if !useLoopAsm {
+		t.Skip("no assembly loops on this build: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(7, 8))
+	for trial := 0; trial < 200; trial++ {
+		U, C, ma := 1+r.IntN(40), 1+r.IntN(20), 1+r.IntN(6)
+		p, f := make([]float64, U), make([]float64, U*ma)
+		for u := range p {
+			p[u] = math.Exp(r.NormFloat64() * 3)
+		}
+		for j := range f {
+			f[j] = r.ExpFloat64()
+		}
+		var L legList
+		for u := 0; u < U; u++ {
+			for l := 0; l < ma; l++ {
+				if r.IntN(2) == 0 {
+					e := legEntry{g: math.Exp(r.NormFloat64()*4 - 6), j: int32(u*ma + l), u: int32(u), c: int32(r.IntN(C))}
+					if r.IntN(30) == 0 {
+						e.g = 0
+					}
+					L.e = append(L.e, e)
+					L.maxJ, L.maxU, L.maxC = max(L.maxJ, e.j), max(L.maxU, e.u), max(L.maxC, e.c)
+				}
+			}
+		}
+		got, want := make([]float64, C), make([]float64, C)
+		for c := range got {
+			got[c] = r.NormFloat64()
+			want[c] = got[c]
+		}
+		rp := &rep{legs: L}
+		rp.legCorrections(got, p, f)
+		legCorrectionsGo(L.e, want, p, f)
+		for c := range got {
+			if math.Float64bits(got[c]) != math.Float64bits(want[c]) {
+				t.Fatalf("trial %d cell %d: asm %v, Go %v", trial, c, got[c], want[c])
+			}
+		}
+	}
 }

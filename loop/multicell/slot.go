@@ -174,6 +174,15 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	plain := sigma == 0 && cep == 0 // no draws per leg
 	rp.legSIRs(rp.legGains(k), plain)
 	legSIR := rp.legSIR
+	if plain && closed && !openLoop && !blockEnd && d == 1 {
+		if ups, downs, ok := rp.plainUsers(k, measure); ok {
+			rp.ups, rp.downs = ups, downs
+			if fNext != nil {
+				rp.legCorrections(corrNext, pCur, fNext)
+			}
+			return
+		}
+	}
 	for u := range users {
 		us := &users[u]
 		pu := pPrev[u]

@@ -1,0 +1,17 @@
+//go:build !amd64 || purego
+
+package multicell
+
+const haveLoopAsm = false
+
+func legSIRsFast(es []legEntry, fk []float64, su []userSlot, own, rx, acc []float64, cnt []int32, pg, noise float64) {
+	panic("multicell: no assembly loop on this build") // programmer error: legSIRs checks haveLoopAsm
+}
+
+func plainUsersFast(a *plainArgs) {
+	panic("multicell: no assembly loop on this build") // programmer error: plainUsers checks haveLoopAsm
+}
+
+func legCorrectionsFast(es []legEntry, corr, p, f []float64) {
+	panic("multicell: no assembly loop on this build") // programmer error: legCorrections checks haveLoopAsm
+}
