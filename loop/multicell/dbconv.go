@@ -19,6 +19,23 @@ func linToDB(x float64) float64 {
 // src. It is linToDB's one implementation.
 func linToDBFloorTo(dst, src []float64, floor float64) {
 	dst = dst[:len(src)]
+	// AVX2 where there is (the same bits), groups of four, up to the
+	// first group the loop below must take; then the loop from there.
+	for useAVX2 && len(src) >= 4 {
+		n := linToDBFast(dst, src, floor)
+		dst, src = dst[n:], src[n:]
+		if len(src) >= 4 {
+			linToDBFloorToGo(dst[:4], src[:4], floor)
+			dst, src = dst[4:], src[4:]
+		}
+	}
+	linToDBFloorToGo(dst, src, floor)
+}
+
+// linToDBFloorToGo is linToDBFloorTo in Go: the AVX2 loop's reference and
+// the loop for values it does not take.
+func linToDBFloorToGo(dst, src []float64, floor float64) {
+	dst = dst[:len(src)]
 	const fracBits = 52 - linToDBBits
 	for i, x := range src {
 		if floor > 0 {
@@ -71,6 +88,19 @@ func linFromDB(x float64) float64 {
 // linFromDBInPlace replaces every x[i] by linFromDB(x[i]), in one loop
 // without a call per element. It is linFromDB's one implementation.
 func linFromDBInPlace(x []float64) {
+	for useAVX2 && len(x) >= 4 {
+		x = x[linFromDBFast(x):]
+		if len(x) >= 4 {
+			linFromDBInPlaceGo(x[:4])
+			x = x[4:]
+		}
+	}
+	linFromDBInPlaceGo(x)
+}
+
+// linFromDBInPlaceGo is linFromDBInPlace in Go: the AVX2 loop's reference
+// and the loop for values it does not take.
+func linFromDBInPlaceGo(x []float64) {
 	for i, v := range x {
 		if !(v > -3000 && v < 3000) {
 			x[i] = dbToLin(v)

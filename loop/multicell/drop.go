@@ -70,7 +70,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 			}
 		}
 		us.pathDB = make([]float64, len(g.sites))
-		us.siteLin = make([]float64, len(g.sites))
+		us.siteLin = make([]float64, len(g.sites), (len(g.sites)+3)&^3) // room for whole groups of four (gainsRange)
 		for k := range g.sites {
 			_, _, dist := g.offset(k, us.x, us.y)
 			dist = math.Max(dist, cfg.Channel.MinDistanceM)

@@ -39,7 +39,11 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 		for s := range us.siteLin {
 			us.siteLin[s] = us.pathDB[s] + common + sdB*us.shadowB[s]
 		}
-		linFromDBInPlace(us.siteLin)
+		// Converted in whole groups of four (the AVX2 loop's), the padding
+		// at 0 dB.
+		pad := us.siteLin[:cap(us.siteLin)]
+		clear(pad[len(us.siteLin):])
+		linFromDBInPlace(pad)
 		// Cells are site-major (cell site·S + sector, newGeometry).
 		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]

@@ -67,13 +67,15 @@ type collector struct {
 	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
 	users     []userAcc  // replication 0 only
 	sirDB     []float64  // users1's scratch: one slot's combined SIR per user, dB
+	riseDB    []float64  // cells' scratch: one slot's noise rise per cell, dB
+	ratioDB   []float64  // cells' scratch: one slot's other-to-own ratio per cell, dB
 }
 
 type userAcc struct{ slots, outage, legs, txDBm float64 }
 
 func newCollector(rp *rep, r int) *collector {
 	nb := rp.cfg.Run.Batches
-	c := &collector{batches: make([]sums, nb), sirDB: make([]float64, rp.U)}
+	c := &collector{batches: make([]sums, nb), sirDB: make([]float64, rp.U), riseDB: make([]float64, rp.C), ratioDB: make([]float64, rp.C)}
 	for i := range c.batches {
 		c.batches[i] = newSums(rp.C)
 	}
@@ -103,10 +105,21 @@ func (c *collector) cells(rx, own []float64, noiseMW float64) {
 	b := &c.batches[c.cur]
 	b.slots++
 	own = own[:len(rx)]
+	// The cells' noise rise and other-to-own ratio in dB, each in one call.
+	rise, ratio := c.riseDB[:len(rx)], c.ratioDB[:len(rx)]
+	for k := range rx {
+		rise[k] = rx[k] / noiseMW
+		ratio[k] = 1 // unused: no own-cell power
+		if own[k] > 0 {
+			ratio[k] = math.Max(math.Max(0, rx[k]-noiseMW-own[k])/own[k], 1e-30)
+		}
+	}
+	linToDBFloorTo(rise, rise, 0)
+	linToDBFloorTo(ratio, ratio, 0)
 	for k := range rx {
 		own := own[k]
 		other := math.Max(0, rx[k]-noiseMW-own)
-		rise := linToDB(rx[k] / noiseMW)
+		rise := rise[k]
 		b.ownMW += own
 		b.otherMW += other
 		b.noiseRiseDB += rise
@@ -114,7 +127,7 @@ func (c *collector) cells(rx, own []float64, noiseMW float64) {
 		b.cellOtherMW[k] += other
 		b.cellRise[k] += rise
 		if own > 0 {
-			c.ratioHist[k][histIndex(linToDB(math.Max(other/own, 1e-30)))]++
+			c.ratioHist[k][histIndex(ratio[k])]++
 		}
 		i := histIndex(rise)
 		c.riseHist[k][i]++
