@@ -55,11 +55,38 @@ const (
 type Figure struct {
 	// Title is drawn across the top of the figure when it has more than one
 	// panel; a single panel carries its own title.
-	Title  string
-	panels [][]*plot.Plot
-	side   *plot.Plot
-	equal  bool // one data unit as long on x as on y in every panel (a map)
+	Title string
+	// Subtitle is a smaller line under the title (e.g. why a figure that
+	// shows 95 % intervals has none); empty for none.
+	Subtitle string
+	panels   [][]*plot.Plot
+	side     *plot.Plot
+	equal    bool // one data unit as long on x as on y in every panel (a map)
+	// intervals: the figure shows 95 % intervals as error bars where its
+	// points have them; bars: how many it draws.
+	intervals bool
+	bars      int
 }
+
+// NoIntervalsNote is the subtitle of a figure meant to show 95 % intervals
+// that has none to show; NoIntervalsBecause adds the reason.
+const NoIntervalsNote = "no intervals"
+
+// NoIntervalsBecause sets the subtitle to "no intervals: " + reason (e.g.
+// "1 replication") when the figure is one that shows 95 % intervals as
+// error bars and none of its points has one; otherwise it does nothing.
+// The figures that show intervals set the bare NoIntervalsNote themselves.
+func (f *Figure) NoIntervalsBecause(reason string) {
+	if f != nil && f.intervals && f.bars == 0 {
+		f.Subtitle = NoIntervalsNote
+		if reason != "" {
+			f.Subtitle += ": " + reason
+		}
+	}
+}
+
+// ErrorBars is the number of error bars (95 % intervals) the figure draws.
+func (f *Figure) ErrorBars() int { return f.bars }
 
 // ErrFormat is returned for a file extension other than .png or .svg.
 var ErrFormat = errors.New("plot file must end in .png or .svg")
@@ -131,6 +158,16 @@ func (f *Figure) draw(dc draw.Canvas) {
 		h := sty.Height(title)
 		pt := vg.Point{X: (area.Min.X + area.Max.X) / 2, Y: area.Max.Y - h}
 		area.FillText(sty, pt, title)
+		area.Max.Y -= h + pad
+	}
+	if f.Subtitle != "" {
+		sty := titleStyle()
+		sty.Font.Size = labelSize
+		sty.Color = color.Gray{Y: 70}
+		sub := wrapText(sty, f.Subtitle, area.Max.X-area.Min.X)
+		h := sty.Height(sub)
+		pt := vg.Point{X: (area.Min.X + area.Max.X) / 2, Y: area.Max.Y - h}
+		area.FillText(sty, pt, sub)
 		area.Max.Y -= h + pad
 	}
 	if f.side != nil {
@@ -289,62 +326,111 @@ func SVGSize(path string) (widthPt, heightPt float64, err error) {
 	}
 }
 
-// legendBox fills a white, lightly framed box behind a panel's legend so
-// that the legend stays legible over data. Add it last (after the data) and
-// register every legend entry through addLegend.
+// legendBox draws a panel's legend in a white, lightly framed box inside
+// the data area, at the corner the panel's Legend.Left / Legend.Top name:
+// one row per entry, its thumbnail (line sample and/or marker) at the left
+// and its label after it, box and entries measured on the same canvas so
+// that every sample stays inside the frame. Add it last (after the data) and
+// register every entry through panel.legend; the gonum Legend of the plot
+// stays empty and only lends its text style, padding, thumbnail width and
+// corner.
 type legendBox struct {
-	labels []string
+	entries []legendEntry
+}
+
+type legendEntry struct {
+	label  string
+	thumbs []plot.Thumbnailer
+}
+
+// Legend geometry in points: legendInset between the data area's edge and
+// the frame, legendMargin between the frame and the entries, legendRowMin
+// the least row height (a marker of radius ≤ 6 pt fits a row).
+const (
+	legendInset  = 6
+	legendMargin = 5
+	legendRowMin = 14
+)
+
+// legendFrameColor is the colour of the legend's frame (tests find the
+// frame by it).
+var legendFrameColor = color.Gray{Y: 170}
+
+// layout returns the frame rectangle and, per entry, the rectangle of its
+// thumbnail and the point its label starts at (left end, vertical centre),
+// for data canvas c.
+func (b *legendBox) layout(c draw.Canvas, l plot.Legend) (frame vg.Rectangle, thumbs []vg.Rectangle, texts []vg.Point) {
+	sty := l.TextStyle
+	rowH := max(sty.FontExtents().Height, vg.Points(legendRowMin))
+	gap := sty.Rectangle(" ").Max.X
+	var textW vg.Length
+	for _, e := range b.entries {
+		textW = max(textW, sty.Rectangle(e.label).Max.X)
+	}
+	n := vg.Length(len(b.entries))
+	m := vg.Points(legendMargin)
+	w := 2*m + l.ThumbnailWidth + gap + textW
+	h := 2*m + n*rowH + (n-1)*l.Padding
+	in := vg.Points(legendInset)
+	if l.Left {
+		frame.Min.X = c.Min.X + in
+		frame.Max.X = frame.Min.X + w
+	} else {
+		frame.Max.X = c.Max.X - in
+		frame.Min.X = frame.Max.X - w
+	}
+	if l.Top {
+		frame.Max.Y = c.Max.Y - in
+		frame.Min.Y = frame.Max.Y - h
+	} else {
+		frame.Min.Y = c.Min.Y + in
+		frame.Max.Y = frame.Min.Y + h
+	}
+	y := frame.Max.Y - m
+	for range b.entries {
+		r := vg.Rectangle{
+			Min: vg.Point{X: frame.Min.X + m, Y: y - rowH},
+			Max: vg.Point{X: frame.Min.X + m + l.ThumbnailWidth, Y: y},
+		}
+		thumbs = append(thumbs, r)
+		texts = append(texts, vg.Point{X: r.Max.X + gap, Y: y - rowH/2})
+		y -= rowH + l.Padding
+	}
+	return frame, thumbs, texts
 }
 
 func (b *legendBox) Plot(c draw.Canvas, p *plot.Plot) {
-	if len(b.labels) == 0 {
+	if len(b.entries) == 0 {
 		return
 	}
-	l := p.Legend
-	sty := l.TextStyle
-	var width, height vg.Length
-	for i, s := range b.labels {
-		width = max(width, l.ThumbnailWidth+sty.Rectangle(" "+s).Max.X+sty.Rectangle(" ").Max.X)
-		height += sty.FontExtents().Height
-		if i > 0 {
-			height += l.Padding
-		}
-	}
-	m := vg.Points(4)
-	var r vg.Rectangle
-	if l.Left {
-		r.Min.X = c.Min.X + l.XOffs - m
-		r.Max.X = r.Min.X + width + 2*m
-	} else {
-		r.Max.X = c.Max.X + l.XOffs + m
-		r.Min.X = r.Max.X - width - 2*m
-	}
-	if l.Top {
-		r.Max.Y = c.Max.Y + l.YOffs + m
-		r.Min.Y = r.Max.Y - height - 2*m
-	} else {
-		r.Min.Y = c.Min.Y + l.YOffs - m
-		r.Max.Y = r.Min.Y + height + 2*m
-	}
+	frame, thumbs, texts := b.layout(c, p.Legend)
 	c.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 235})
-	c.Fill(r.Path())
-	c.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 170}, Width: vg.Points(0.8)})
-	c.Stroke(r.Path())
+	c.Fill(frame.Path())
+	c.SetLineStyle(draw.LineStyle{Color: legendFrameColor, Width: vg.Points(0.8)})
+	c.Stroke(frame.Path())
+	sty := p.Legend.TextStyle
+	sty.XAlign, sty.YAlign = draw.XLeft, draw.YCenter
+	for i, e := range b.entries {
+		icon := draw.Canvas{Canvas: c.Canvas, Rectangle: thumbs[i]}
+		for _, t := range e.thumbs {
+			t.Thumbnail(&icon)
+		}
+		c.FillText(sty, texts[i], e.label)
+	}
 }
 
-// panel is a plot under construction with its legend backdrop.
+// panel is a plot under construction with its legend.
 type panel struct {
 	*plot.Plot
 	box legendBox
 }
 
-// legend adds a legend entry and records it for the backdrop.
+// legend adds a legend entry (drawn by legendBox).
 func (p *panel) legend(label string, thumbs ...plot.Thumbnailer) {
-	p.Legend.Add(label, thumbs...)
-	p.box.labels = append(p.box.labels, label)
+	p.box.entries = append(p.box.entries, legendEntry{label: label, thumbs: thumbs})
 }
 
-// done adds the legend backdrop on top of the data and returns the plot.
+// done adds the legend on top of the data and returns the plot.
 func (p *panel) done() *plot.Plot {
 	p.Add(&p.box)
 	return p.Plot

@@ -298,7 +298,7 @@ func LayoutMap(title string, d LayoutMapData) (*Figure, error) {
 	// (equalScales).
 	w, h := xmax-xmin, ymax-ymin
 	p.X.Min, p.X.Max = xmin-0.04*w, xmax+0.04*w
-	p.Y.Min, p.Y.Max = ymin-0.04*h, ymax+(0.06+0.045*float64(len(p.box.labels)))*h
+	p.Y.Min, p.Y.Max = ymin-0.04*h, ymax+(0.06+0.045*float64(len(p.box.entries)))*h
 
 	bar := plot.New()
 	bar.Title.Text = d.ValueLabel
@@ -348,32 +348,44 @@ type LayoutLine struct {
 // LayoutSweep draws the multi-cell figures of a sweep against one axis
 // (e.g. the handover window or the inner-loop step): the measured
 // other-cell to own-cell interference ratio f (left) and the outage
-// (right), one line per value of a second axis, with 95 % intervals.
+// (right), one line per value of a second axis, with 95 % intervals. Lines
+// are dodged in x and a single line has no legend entry, as in
+// AxisSensitivity.
 func LayoutSweep(title, xLabel string, lines []LayoutLine) (*Figure, error) {
 	left := newPanel("Other-cell / own-cell interference f", xLabel, "f")
 	right := newPanel("Outage", xLabel, "outage (%)")
-	n := 0
 	var all []float64
+	var used []int
 	for i, ln := range lines {
-		if len(ln.X) == 0 {
-			continue
+		if len(ln.X) > 0 {
+			used = append(used, i)
+			all = append(all, ln.X...)
 		}
-		if err := addLinePoints(left, i, ln.Label, ln.X, ln.F, ln.FLow, ln.FHigh); err != nil {
-			return nil, err
-		}
-		if err := addLinePoints(right, i, ln.Label, ln.X, ln.OutagePct, ln.OutageLow, ln.OutageHigh); err != nil {
-			return nil, err
-		}
-		all = append(all, ln.X...)
-		n++
 	}
-	if n == 0 {
+	if len(used) == 0 {
 		return nil, ErrNoData
+	}
+	offs := dodge(len(used), all)
+	bars := 0
+	for k, i := range used {
+		ln := lines[i]
+		x := shifted(ln.X, offs[k])
+		nb, err := addLinePoints(left, i, ln.Label, len(used) > 1, x, ln.F, ln.FLow, ln.FHigh)
+		if err != nil {
+			return nil, err
+		}
+		bars += nb
+		if nb, err = addLinePoints(right, i, ln.Label, len(used) > 1, x, ln.OutagePct, ln.OutageLow, ln.OutageHigh); err != nil {
+			return nil, err
+		}
+		bars += nb
 	}
 	for _, p := range []*panel{left, right} {
 		p.Y.Min = math.Min(p.Y.Min, 0)
 		p.Y.Max += 0.25 * (p.Y.Max - p.Y.Min)
 		p.X.Tick.Marker = valueTicks(all)
 	}
-	return &Figure{Title: title, panels: [][]*plot.Plot{{left.done(), right.done()}}}, nil
+	f := &Figure{Title: title, panels: [][]*plot.Plot{{left.done(), right.done()}}, intervals: true, bars: bars}
+	f.NoIntervalsBecause("")
+	return f, nil
 }

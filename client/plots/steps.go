@@ -86,28 +86,46 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 // AxisSensitivity draws outage (left) and SIR error std (right) against any
 // one numeric axis (the lines' StepDB column holds its values, xLabel names
 // it with its unit, e.g. "handover window (dB)"), one line per speed or
-// condition: StepSensitivity for an axis other than the step.
+// condition: StepSensitivity for an axis other than the step. With more
+// than one line each line is shifted slightly in x (dodge) so that error
+// bars at the same x stay apart; the ticks stay at the true values. With
+// one line there is no legend entry for it.
 func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
 	left := newPanel("Outage", xLabel, "outage (%)")
 	right := newPanel("SIR error std", xLabel, "SIR error std (dB)")
-	n := 0
-	marked := false
+	var all []float64
+	var used []int
 	for i, ln := range lines {
-		if len(ln.StepDB) == 0 {
-			continue
+		if len(ln.StepDB) > 0 {
+			used = append(used, i)
+			all = append(all, ln.StepDB...)
 		}
-		if err := addLinePoints(left, i, ln.Label, ln.StepDB, ln.OutagePct, ln.OutageLowPct, ln.OutageHighPct); err != nil {
+	}
+	if len(used) == 0 {
+		return nil, ErrNoData
+	}
+	offs := dodge(len(used), all)
+	named := len(used) > 1
+	marked := false
+	bars := 0
+	for k, i := range used {
+		ln := lines[i]
+		x := shifted(ln.StepDB, offs[k])
+		nb, err := addLinePoints(left, i, ln.Label, named, x, ln.OutagePct, ln.OutageLowPct, ln.OutageHighPct)
+		if err != nil {
 			return nil, err
 		}
-		if err := addLinePoints(right, i, ln.Label, ln.StepDB, ln.ErrorStdDB, ln.ErrorStdLowDB, ln.ErrorStdHighDB); err != nil {
+		bars += nb
+		if nb, err = addLinePoints(right, i, ln.Label, named, x, ln.ErrorStdDB, ln.ErrorStdLowDB, ln.ErrorStdHighDB); err != nil {
 			return nil, err
 		}
+		bars += nb
 		if len(ln.Recommended) == len(ln.StepDB) {
 			var xo, yo, xs, ys []float64
 			for k, m := range ln.Recommended {
 				if m && k < len(ln.OutagePct) && k < len(ln.ErrorStdDB) {
-					xo, yo = append(xo, ln.StepDB[k]), append(yo, ln.OutagePct[k])
-					xs, ys = append(xs, ln.StepDB[k]), append(ys, ln.ErrorStdDB[k])
+					xo, yo = append(xo, x[k]), append(yo, ln.OutagePct[k])
+					xs, ys = append(xs, x[k]), append(ys, ln.ErrorStdDB[k])
 				}
 			}
 			if len(xo) > 0 {
@@ -124,39 +142,80 @@ func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
 					sc.Color = color.Black
 					pr.p.Add(sc)
 					if !marked {
-						pr.p.legend("recommended", sc)
+						// The legend's sample is a smaller ring that fits
+						// its row.
+						pr.p.legend("recommended", glyphThumb{draw.GlyphStyle{Shape: draw.RingGlyph{}, Radius: vg.Points(6), Color: color.Black}})
 					}
 				}
 				marked = true
 			}
 		}
-		n++
-	}
-	if n == 0 {
-		return nil, ErrNoData
 	}
 	left.Y.Min = math.Min(left.Y.Min, 0)
 	// Head room above the data for the legend.
 	for _, p := range []*panel{left, right} {
 		p.Y.Max += 0.25 * (p.Y.Max - p.Y.Min)
 	}
-	var all []float64
-	for _, ln := range lines {
-		all = append(all, ln.StepDB...)
-	}
 	left.X.Tick.Marker = valueTicks(all)
 	right.X.Tick.Marker = valueTicks(all)
-	return &Figure{Title: title, panels: [][]*plot.Plot{{left.done(), right.done()}}}, nil
+	f := &Figure{Title: title, panels: [][]*plot.Plot{{left.done(), right.done()}}, intervals: true, bars: bars}
+	f.NoIntervalsBecause("")
+	return f, nil
 }
 
-func addLinePoints(p *panel, i int, label string, x, y, lo, hi []float64) error {
+// dodgeFraction is the x shift between neighbouring lines as a fraction of
+// the x range (1.5 %: bars 1.2 pt wide stay apart on a 400 pt panel, and the
+// shift stays well below the spacing of the tick values).
+const dodgeFraction = 0.015
+
+// dodge returns the x shift of each of n lines over x values xs: centred on
+// 0, dodgeFraction of the x range (or of the value's magnitude, or 1, for
+// one distinct x) apart; all zero for one line.
+func dodge(n int, xs []float64) []float64 {
+	offs := make([]float64, n)
+	if n < 2 || len(xs) == 0 {
+		return offs
+	}
+	lo, hi := slices.Min(xs), slices.Max(xs)
+	span := hi - lo
+	if !(span > 0) {
+		span = math.Max(math.Abs(lo), 1)
+	}
+	d := dodgeFraction * span
+	for k := range offs {
+		offs[k] = (float64(k) - float64(n-1)/2) * d
+	}
+	return offs
+}
+
+// shifted returns x + off, element by element (a new slice).
+func shifted(x []float64, off float64) []float64 {
+	out := make([]float64, len(x))
+	for i, v := range x {
+		out[i] = v + off
+	}
+	return out
+}
+
+// glyphThumb is a legend sample drawn as one glyph in the middle of its
+// box.
+type glyphThumb struct{ sty draw.GlyphStyle }
+
+func (g glyphThumb) Thumbnail(c *draw.Canvas) {
+	c.DrawGlyph(g.sty, c.Center())
+}
+
+// addLinePoints draws one line with markers and its error bars where a
+// point has an interval (NaN bounds: none), with a legend entry when named;
+// it returns the number of error bars drawn.
+func addLinePoints(p *panel, i int, label string, named bool, x, y, lo, hi []float64) (int, error) {
 	if len(y) != len(x) {
-		return nil
+		return 0, nil
 	}
 	pts := xy(x, y)
 	l, s, err := plotter.NewLinePoints(pts)
 	if err != nil {
-		return fmt.Errorf("%s: %w", label, err)
+		return 0, fmt.Errorf("%s: %w", label, err)
 	}
 	l.Color = seriesColor(i)
 	l.Dashes = seriesDash(i)
@@ -165,28 +224,31 @@ func addLinePoints(p *panel, i int, label string, x, y, lo, hi []float64) error 
 	s.Shape = shapes[i%len(shapes)]
 	s.Radius = vg.Points(4)
 	p.Add(l, s)
-	p.legend(label, l, s)
+	if named {
+		p.legend(label, l, s)
+	}
 	if len(lo) == len(x) && len(hi) == len(x) {
 		// A point without an interval (NaN bounds: e.g. withheld for a
 		// one-replication layout run too short for one) gets no bar.
 		e := make(errPoints, 0, len(x))
 		for k := range x {
-			if finite(lo[k]) && finite(hi[k]) {
+			if finite(lo[k]) && finite(hi[k]) && finite(y[k]) {
 				e = append(e, errPoint{x: x[k], y: y[k], lo: y[k] - lo[k], hi: hi[k] - y[k]})
 			}
 		}
 		if len(e) == 0 {
-			return nil
+			return 0, nil
 		}
 		bars, err := plotter.NewYErrorBars(e)
 		if err != nil {
-			return fmt.Errorf("%s: %w", label, err)
+			return 0, fmt.Errorf("%s: %w", label, err)
 		}
 		bars.Color = seriesColor(i)
 		bars.Width = vg.Points(1.2)
 		p.Add(bars)
+		return len(e), nil
 	}
-	return nil
+	return 0, nil
 }
 
 // valueTicks puts a labelled tick at each distinct value.

@@ -36,6 +36,22 @@ func AutoSweepPlot(axes []*pb.SweepAxis, layout bool) string {
 	return "cdf"
 }
 
+// SweepNoIntervalReason is why a sweep's figures can lack 95 % intervals,
+// for their subtitle (plots.Figure.NoIntervalsBecause): "1 replication"
+// when every point ran a single replication (an interval then needs batch
+// means over a long enough run), else "".
+func SweepNoIntervalReason(pts []*pb.SweepPoint) string {
+	for _, p := range pts {
+		if p.GetReport().GetReplications() != 1 {
+			return ""
+		}
+	}
+	if len(pts) == 0 {
+		return ""
+	}
+	return "1 replication"
+}
+
 // SweepLayoutLines is the layout-wide other-to-own ratio f and outage (%)
 // with their 95 % intervals against the first axis, one line per value of
 // the second (one line, "all", without one); ok is false unless there

@@ -102,3 +102,23 @@ func TestSweepLayoutLines(t *testing.T) {
 		t.Error("three axes gave lines")
 	}
 }
+
+// TestSweepNoIntervalReason: the reason a sweep's figure lacks intervals
+// is "1 replication" only when every point ran one; otherwise none is
+// claimed.
+func TestSweepNoIntervalReason(t *testing.T) {
+	pt := func(reps int32) *pb.SweepPoint { return &pb.SweepPoint{Report: &pb.RunReport{Replications: reps}} }
+	for _, c := range []struct {
+		pts  []*pb.SweepPoint
+		want string
+	}{
+		{[]*pb.SweepPoint{pt(1), pt(1), pt(1)}, "1 replication"},
+		{[]*pb.SweepPoint{pt(1), pt(2)}, ""},
+		{[]*pb.SweepPoint{pt(4)}, ""},
+		{nil, ""},
+	} {
+		if got := SweepNoIntervalReason(c.pts); got != c.want {
+			t.Errorf("%d points: %q, want %q", len(c.pts), got, c.want)
+		}
+	}
+}

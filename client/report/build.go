@@ -5,6 +5,8 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"slices"
+	"strings"
 
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -50,6 +52,23 @@ type table struct {
 	Rows    [][]string
 	Num     []bool
 	Mark    []bool
+	// Path marks the columns whose head is a scenario field path (a sweep
+	// axis): it is set in monospace on one line, never broken inside the
+	// path, and copies back as typed.
+	Path []bool
+}
+
+// HeadClass is the class attribute of head cell i: "n" for a numeric
+// column, "path" for a field path, both, or "".
+func (t table) HeadClass(i int) string {
+	var c []string
+	if i < len(t.Num) && t.Num[i] {
+		c = append(c, "n")
+	}
+	if i < len(t.Path) && t.Path[i] {
+		c = append(c, "path")
+	}
+	return strings.Join(c, " ")
 }
 
 func (t *table) add(mark bool, cells ...string) {
@@ -176,6 +195,13 @@ func build(in Input) (*doc, error) {
 		if err := fillScenario(&d.Scenario, sc); err != nil {
 			return nil, err
 		}
+		// A search sets its own replications; the row shows what ran.
+		switch kind {
+		case "capacity":
+			usedReplications(&d.Scenario, capacityReplications(in.CapacityRequest))
+		case "tune":
+			usedReplications(&d.Scenario, tuneReplications(in.Tune, in.TuneRequest))
+		}
 	}
 	d.Title = in.Title
 	if d.Title == "" {
@@ -205,6 +231,25 @@ func fillScenario(v *scenarioView, sc *pb.Scenario) error {
 		return fmt.Errorf("scenario JSON: %w", err)
 	}
 	return nil
+}
+
+// usedReplications replaces the value of the scenario table's
+// run.replications row (added when the scenario leaves it unset) by what a
+// search ran, used: e.g. "2 per count"; the file's value, which the search
+// does not use, is named after it. The JSON beside the table keeps
+// the file's value. Nothing changes when used is "".
+func usedReplications(v *scenarioView, used string) {
+	if used == "" {
+		return
+	}
+	const path = "run.replications"
+	i := slices.IndexFunc(v.Rows, func(r [2]string) bool { return r[0] == path })
+	if i < 0 {
+		v.Rows = append(v.Rows, [2]string{path, used})
+	} else {
+		v.Rows[i][1] = used + "; the scenario file's " + v.Rows[i][1] + " is not used"
+	}
+	v.Note += " run.replications shows the replications the search ran; the JSON keeps the file's value."
 }
 
 // flatten reads one JSON value from dec and appends a (field path, value)

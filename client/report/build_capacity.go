@@ -107,12 +107,8 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		seed = strconv.FormatUint(req.GetBase().GetRun().GetSeed(), 10) + " (the base scenario's run.seed; common random numbers across counts)"
 	}
 	reps := "not recorded in this result"
-	if req != nil {
-		n := req.GetReplications()
-		if n == 0 {
-			n = 4 // the server's default
-		}
-		reps = fmt.Sprintf("%d per count (the request's; the scenario's run.replications is not used)", n)
+	if r := capacityReplications(req); r != "" {
+		reps = r + " (the request's; the scenario's run.replications is not used)"
 	}
 	d.Repro = [][2]string{
 		{"seed", seed},
@@ -121,4 +117,17 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		{"effort", fmt.Sprintf("%s replications, %s user-slots in %s s", thousands(res.GetReplications()), thousands(res.GetUserSlots()), num(res.GetWallTimeS(), 2))},
 	}
 	return nil
+}
+
+// capacityReplications is the replications a capacity search ran at each
+// count, e.g. "2 per count" ("" when the request is not recorded).
+func capacityReplications(req *pb.CapacityRequest) string {
+	if req == nil {
+		return ""
+	}
+	n := req.GetReplications()
+	if n == 0 {
+		n = 4 // the server's default
+	}
+	return fmt.Sprintf("%d per count", n)
 }

@@ -81,9 +81,12 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d of %d points are infeasible (load not carried).", infeasible, len(pts)))
 	}
 	t := table{Caption: "Every grid point (value [95 % CI]); the lowest-outage point is marked.", Head: []string{"point"}}
+	t.Path = []bool{false}
 	for _, a := range s.Axes {
-		// A break opportunity after each dot: long field paths wrap there.
-		t.Head = append(t.Head, strings.ReplaceAll(a.GetPath(), ".", ".\u200b"))
+		// The path as typed on one line (th.path): a break inside it read
+		// as two words, and a hidden break character copied with it.
+		t.Head = append(t.Head, a.GetPath())
+		t.Path = append(t.Path, true)
 	}
 	// A multi-cell sweep's points have no percentiles: their columns are
 	// left out.

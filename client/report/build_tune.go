@@ -272,3 +272,26 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 	}
 	return t
 }
+
+// tuneReplications is the replications a tune search ran per candidate
+// and condition, e.g. "2 per candidate (sequential: 2 first, at most 4)" or
+// "2–6 per candidate (…)" when some candidates got more ("" without the
+// request). The budget's zeros mean 2 and max(32, min) (TuneBudget).
+func tuneReplications(rec *pb.Recommendation, req *pb.TuneRequest) string {
+	if req == nil {
+		return ""
+	}
+	lo := req.GetBudget().GetMinReplications()
+	if lo == 0 {
+		lo = 2
+	}
+	hi := req.GetBudget().GetMaxReplications()
+	if hi == 0 {
+		hi = max(32, lo)
+	}
+	used := fmt.Sprint(lo)
+	if u := rec.GetEffort().GetMaxReplicationsUsed(); u > lo {
+		used = fmt.Sprintf("%d–%d", lo, u)
+	}
+	return fmt.Sprintf("%s per candidate (sequential: %d first, at most %d)", used, lo, hi)
+}

@@ -135,6 +135,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 		// The page heading names the scenario; the axis path is long
 		// enough for the figure's title.
 		fig, err := plots.LayoutSweep("Multi-cell figures against "+x, clirender.AxisTitle(x), ls)
+		fig.NoIntervalsBecause(clirender.SweepNoIntervalReason(pts))
 		if err := addFigure(&out, "Other-cell to own-cell interference f and outage of the layout against "+x+", with 95 % confidence intervals where the runs give them.", fig, err); err != nil {
 			return nil, err
 		}
@@ -147,6 +148,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 	case kind == "steps":
 		ls, _ := clirender.SweepStepLines(axes, pts)
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error std against step size", title), ls)
+		fig.NoIntervalsBecause(clirender.SweepNoIntervalReason(pts))
 		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
 			return nil, err
 		}

@@ -34,6 +34,7 @@ caption { caption-side: top; text-align: left; color: var(--muted); padding: 0 0
 th, td { padding: 3px 9px; border-bottom: 1px solid var(--rule); vertical-align: top; }
 th { text-align: left; background: var(--band); font-weight: bold; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
+th.path { white-space: nowrap; font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 12.5px; }
 tr.mark td { background: var(--ok-bg); font-weight: bold; }
 .notes p { margin: 4px 0; font-size: 14px; }
 figure { margin: 10px 0 22px; page-break-inside: avoid; break-inside: avoid; }
@@ -79,7 +80,7 @@ footer { margin-top: 32px; color: var(--muted); font-size: 12px; border-top: 1px
 {{if .Intro}}<div class="notes">{{range .Intro}}<p>{{.}}</p>{{end}}</div>
 {{end}}{{range .Tables}}<div class="tablewrap"><table>
 <caption>{{.Caption}}</caption>
-<thead><tr>{{$num := .Num}}{{range $i, $h := .Head}}<th{{if index $num $i}} class="n"{{end}}>{{$h}}</th>{{end}}</tr></thead>
+<thead><tr>{{$t := .}}{{$num := .Num}}{{range $i, $h := .Head}}<th{{with $t.HeadClass $i}} class="{{.}}"{{end}}>{{$h}}</th>{{end}}</tr></thead>
 <tbody>
 {{$mark := .Mark}}{{range $r, $row := .Rows}}<tr{{if index $mark $r}} class="mark"{{end}}>{{range $i, $c := $row}}<td{{if index $num $i}} class="n"{{end}}>{{$c}}</td>{{end}}</tr>
 {{end}}</tbody>

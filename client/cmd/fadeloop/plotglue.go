@@ -220,6 +220,7 @@ func plotSweep(ps plotSpec, title string, axes []*pb.SweepAxis, pts []*pb.SweepP
 	if err != nil {
 		return err
 	}
+	fig.NoIntervalsBecause(render.SweepNoIntervalReason(pts))
 	return fig.Save(ps.file)
 }
 
