@@ -69,7 +69,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 				break
 			}
 		}
-		us.pathDB = make([]float64, len(g.sites))
+		us.pathDB = make([]float64, len(g.sites), (len(g.sites)+3)&^3)  // room for whole groups of four (shadowSites)
 		us.siteLin = make([]float64, len(g.sites), (len(g.sites)+3)&^3) // room for whole groups of four (gainsRange)
 		for k := range g.sites {
 			_, _, dist := g.offset(k, us.x, us.y)
@@ -83,7 +83,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 		}
 		us.sh = fading.NewFastStream(seed, u, 0, streamShadowing)
 		us.shadowA = us.sh.Norm()
-		us.shadowB = make([]float64, len(g.sites))
+		us.shadowB = make([]float64, len(g.sites), (len(g.sites)+3)&^3)
 		for k := range us.shadowB {
 			us.shadowB[k] = us.sh.Norm()
 		}

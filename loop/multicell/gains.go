@@ -23,35 +23,29 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 	C := rp.C
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
+		sdB := rp.shadowSD * b
 		if t > 0 && rp.shadowSD > 0 {
 			k := us.shadowK
 			w := math.Sqrt(1 - k*k)
-			var draws [maxSites + 1]float64 // the common part's, then each site's
+			var draws [maxSites + 4]float64 // the common part's, then each site's (and room for whole groups of four)
 			nd := draws[:1+len(us.shadowB)]
 			us.sh.NormFill(nd)
 			us.shadowA = k*us.shadowA + w*nd[0]
-			for s := range us.shadowB {
-				us.shadowB[s] = k*us.shadowB[s] + w*nd[s+1]
+			shadowSites(us.shadowB, draws[1:], us.pathDB, us.siteLin, k, w, rp.shadowSD*a*us.shadowA, sdB)
+		} else {
+			common := rp.shadowSD * a * us.shadowA
+			for s := range us.siteLin {
+				us.siteLin[s] = us.pathDB[s] + common + sdB*us.shadowB[s]
 			}
 		}
-		common := rp.shadowSD * a * us.shadowA
-		sdB := rp.shadowSD * b
-		for s := range us.siteLin {
-			us.siteLin[s] = us.pathDB[s] + common + sdB*us.shadowB[s]
-		}
-		// Converted in whole groups of four (the AVX2 loop's), the padding
-		// at 0 dB.
-		pad := us.siteLin[:cap(us.siteLin)]
-		clear(pad[len(us.siteLin):])
-		linFromDBInPlace(pad)
+		// Converted in whole groups of four (the AVX2 loop's; the
+		// padding holds finite values).
+		linFromDBInPlace(us.siteLin[:cap(us.siteLin)])
 		// Cells are site-major (cell site·S + sector, newGeometry).
 		row := dst[u*C : u*C+C]
 		ant := us.antLin[:len(row)]
 		if S := C / len(us.siteLin); S == 3 {
-			for s, g := range us.siteLin {
-				r, a := row[3*s:3*s+3], ant[3*s:3*s+3]
-				r[0], r[1], r[2] = g*a[0], g*a[1], g*a[2]
-			}
+			rows3(row, ant, us.siteLin)
 		} else {
 			for s, g := range us.siteLin {
 				for c := s * S; c < (s+1)*S; c++ {
@@ -59,6 +53,29 @@ func (rp *rep) gainsRange(dst []float64, t int64, lo, hi int) {
 				}
 			}
 		}
+	}
+}
+
+// shadowSitesGo advances each site's shadowing part b[i] = k·b[i] + w·nd[i]
+// (Gudmundson AR(1)) and sets the site's slow gain in dB, site[i] =
+// path[i] + common + sdB·b[i], for i < len(b). shadowSites runs it in AVX
+// where it can (the same bits).
+func shadowSitesGo(b, nd, path, site []float64, k, w, common, sdB float64) {
+	for s := range b {
+		b[s] = k*b[s] + w*nd[s]
+	}
+	for s := range site[:len(b)] {
+		site[s] = path[s] + common + sdB*b[s]
+	}
+}
+
+// rows3Go sets row[3s+i] = g[s]·ant[3s+i] (a 3-sector layout's slow gains
+// of one user from its site and antenna gains). rows3 runs it in assembly
+// where it can (the same bits).
+func rows3Go(row, ant, g []float64) {
+	for s, g := range g {
+		r, a := row[3*s:3*s+3], ant[3*s:3*s+3]
+		r[0], r[1], r[2] = g*a[0], g*a[1], g*a[2]
 	}
 }
 

@@ -252,3 +252,51 @@ func TestLegCorrectionsAsmMatchesGo(t *testing.T) {
 		}
 	}
 }
+
+// TestShadowSitesAndRowsAsmMatchGo: the assembly shadowing step, site
+// gains and 3-sector rows give the same bits as the Go loops, for 1, 7
+// and 19 sites (whole groups of four and padding).
+func TestShadowSitesAndRowsAsmMatchGo(t *testing.T) {
+	if !useLoopAsm || !useAVX {
+		t.Skip("no assembly loops on this build: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(11, 12))
+	for _, S := range []int{1, 7, 19} {
+		n4 := (S + 3) &^ 3
+		for trial := 0; trial < 50; trial++ {
+			mk := func() []float64 { return make([]float64, S, n4) }
+			b1, b2, path, s1, s2 := mk(), mk(), mk(), mk(), mk()
+			nd := make([]float64, maxSites+3)
+			for i := 0; i < S; i++ {
+				b1[i] = r.NormFloat64()
+				b2[i] = b1[i]
+				path[i] = -100 - 60*r.Float64()
+				nd[i] = r.NormFloat64()
+			}
+			k := math.Exp(-r.Float64() * 0.1)
+			w, common, sdB := math.Sqrt(1-k*k), r.NormFloat64()*4, 8*math.Sqrt(0.5)
+			shadowSites(b1, nd, path, s1, k, w, common, sdB)
+			shadowSitesGo(b2, nd[:S], path, s2, k, w, common, sdB)
+			ant := make([]float64, 3*S)
+			for i := range ant {
+				ant[i] = math.Exp(-r.Float64() * 5)
+			}
+			r1, r2 := make([]float64, 3*S), make([]float64, 3*S)
+			rows3(r1, ant, s1)
+			rows3Go(r2, ant, s2)
+			for i := 0; i < S; i++ {
+				if math.Float64bits(b1[i]) != math.Float64bits(b2[i]) || math.Float64bits(s1[i]) != math.Float64bits(s2[i]) {
+					t.Fatalf("S=%d site %d: asm (%v, %v), Go (%v, %v)", S, i, b1[i], s1[i], b2[i], s2[i])
+				}
+			}
+			for i := range r1 {
+				if math.Float64bits(r1[i]) != math.Float64bits(r2[i]) {
+					t.Fatalf("S=%d cell %d: asm %v, Go %v", S, i, r1[i], r2[i])
+				}
+			}
+			if pad := b1[:n4][S:]; len(pad) > 0 && pad[0] != 0 {
+				t.Fatalf("S=%d: padding of the shadowing parts became %v", S, pad)
+			}
+		}
+	}
+}

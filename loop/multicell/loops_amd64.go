@@ -33,3 +33,32 @@ func legCorrectionsAsm(es *legEntry, n int, corr, p, f *float64)
 func legCorrectionsFast(es []legEntry, corr, p, f []float64) {
 	legCorrectionsAsm(&es[0], len(es), &corr[0], &p[0], &f[0])
 }
+
+// shadowSitesAVX is shadowSitesGo in AVX on n (a multiple of 4) sites,
+// rowsSSE rows3Go in scalar SSE2 (gains_amd64.s), the same bits.
+//
+//go:noescape
+func shadowSitesAVX(b, nd, path, site *float64, n int, k, w, common, sdB float64)
+
+//go:noescape
+func rows3SSE(row, ant, site *float64, n int)
+
+// shadowSites is shadowSitesGo, in AVX when every slice has room for
+// whole groups of four (their padding stays finite: b's and nd's at 0).
+func shadowSites(b, nd, path, site []float64, k, w, common, sdB float64) {
+	n4 := (len(b) + 3) &^ 3
+	if useLoopAsm && useAVX && n4 > 0 && cap(b) >= n4 && len(nd) >= n4 && cap(path) >= n4 && cap(site) >= n4 {
+		shadowSitesAVX(&b[:n4][0], &nd[0], &path[:n4][0], &site[:n4][0], n4, k, w, common, sdB)
+		return
+	}
+	shadowSitesGo(b, nd[:len(b)], path, site, k, w, common, sdB)
+}
+
+// rows3 is rows3Go, in assembly.
+func rows3(row, ant, g []float64) {
+	if useLoopAsm && len(g) > 0 && len(row) >= 3*len(g) && len(ant) >= 3*len(g) {
+		rows3SSE(&row[0], &ant[0], &g[0], len(g))
+		return
+	}
+	rows3Go(row, ant, g)
+}

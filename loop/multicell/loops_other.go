@@ -15,3 +15,9 @@ func plainUsersFast(a *plainArgs) {
 func legCorrectionsFast(es []legEntry, corr, p, f []float64) {
 	panic("multicell: no assembly loop on this build") // programmer error: legCorrections checks haveLoopAsm
 }
+
+func shadowSites(b, nd, path, site []float64, k, w, common, sdB float64) {
+	shadowSitesGo(b, nd[:len(b)], path, site, k, w, common, sdB)
+}
+
+func rows3(row, ant, g []float64) { rows3Go(row, ant, g) }
