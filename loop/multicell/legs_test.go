@@ -169,9 +169,10 @@ func TestLoopLayout(t *testing.T) {
 	}
 }
 
-// TestLoopAsmMatchesGo: runs with the assembly loops give reports
-// identical to the Go loops' (every figure, bit for bit) where the
-// assembly runs: closed loop, feedback delay 0, no per-leg draws; with
+// TestLoopAsmMatchesGo: runs with the assembly loops (all of them: the
+// slot loop's, the cell sums', the shadowing updates' and the dB
+// conversions') give reports identical to the Go loops' (every figure,
+// bit for bit) where the slot loop's assembly runs: closed loop, feedback delay 0, no per-leg draws; with
 // users held at the power limits (a low maximum power, a high minimum) and
 // with a warm-up, so that records, flags and limits are all exercised.
 func TestLoopAsmMatchesGo(t *testing.T) {
@@ -193,9 +194,13 @@ func TestLoopAsmMatchesGo(t *testing.T) {
 	for name, cfg := range map[string]Config{"base": base, "low max power": lowMax, "high min power": highMin, "3 dB step": bigStep, "no fast fading": noFade} {
 		var out [2][]byte
 		for i, asm := range []bool{true, false} {
+			avx, avx2 := useAVX, useAVX2
 			useLoopAsm = asm
+			if !asm {
+				useAVX, useAVX2 = false, false
+			}
 			rep, err := Run(context.Background(), cfg)
-			useLoopAsm = haveLoopAsm
+			useLoopAsm, useAVX, useAVX2 = haveLoopAsm, avx, avx2
 			if err != nil {
 				t.Fatalf("%s: %v", name, err)
 			}
@@ -296,6 +301,50 @@ func TestShadowSitesAndRowsAsmMatchGo(t *testing.T) {
 			}
 			if pad := b1[:n4][S:]; len(pad) > 0 && pad[0] != 0 {
 				t.Fatalf("S=%d: padding of the shadowing parts became %v", S, pad)
+			}
+		}
+	}
+}
+
+// TestUpdateSumsAVXMatchesGo: the one-call AVX cell-sum update gives the
+// same bits as the Go code (scaling, movers, gonum's row updates) for
+// layouts of 1 to 57 cells, with about half the users moved by the common
+// factor exactly.
+func TestUpdateSumsAVXMatchesGo(t *testing.T) {
+	if !useAVX {
+		t.Skip("no AVX on this machine: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(13, 14))
+	for _, C := range []int{1, 3, 7, 8, 9, 21, 57} {
+		for trial := 0; trial < 20; trial++ {
+			U := 1 + r.IntN(300)
+			b := math.Pow(10, 0.1*float64(2*r.IntN(2)-1))
+			rp := &rep{C: C, U: U, sums: make([]float64, C), pPrev: make([]float64, U), pCur: make([]float64, U),
+				slow: make([]float64, U*C), movers: make([]int32, U), moverD: make([]float64, U), upLin: b, downLin: b}
+			for u := 0; u < U; u++ {
+				rp.pPrev[u] = math.Exp(r.NormFloat64() * 3)
+				rp.pCur[u] = b * rp.pPrev[u]
+				if r.IntN(2) == 0 {
+					rp.pCur[u] = rp.pPrev[u] / b
+				}
+			}
+			for i := range rp.slow {
+				rp.slow[i] = math.Exp(r.NormFloat64()*5 - 10)
+			}
+			for c := range rp.sums {
+				rp.sums[c] = r.Float64()
+			}
+			want := append([]float64(nil), rp.sums...)
+			rp.updateSums()
+			got := rp.sums
+			useAVX = false
+			rp.sums = want
+			rp.updateSums()
+			useAVX = true
+			for c := range got {
+				if math.Float64bits(got[c]) != math.Float64bits(want[c]) {
+					t.Fatalf("C=%d U=%d cell %d: AVX %v, Go %v", C, U, c, got[c], want[c])
+				}
 			}
 		}
 	}

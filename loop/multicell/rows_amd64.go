@@ -31,3 +31,20 @@ func addScaled(s []float64, d float64, row []float64) {
 	_ = row[len(s)-1]
 	addScaledAVX(s, d, &row[0])
 }
+
+// updateSumsAVX is updateSums's scaling, mover list and row updates in
+// one AVX call (rows_amd64.s), the same bits; the caller checks lengths.
+//
+//go:noescape
+func updateSumsAVX(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
+
+// updateSumsFast runs updateSumsAVX when the CPU has AVX and every slice
+// holds what it reads (slow: n rows of len(s)), and reports whether it did.
+func updateSumsFast(s []float64, b float64, pCur, pPrev, slow []float64, mv []int32, dv []float64) bool {
+	n := len(pCur)
+	if !useAVX || n == 0 || len(s) == 0 || len(pPrev) < n || len(mv) < n || len(dv) < n || len(slow) < n*len(s) {
+		return false
+	}
+	updateSumsAVX(s, b, &pCur[0], &pPrev[0], n, &slow[0], &mv[0], &dv[0])
+	return true
+}

@@ -40,3 +40,94 @@ tail:
 done:
 	VZEROUPPER
 	RET
+
+// func updateSumsAVX(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
+//
+// updateSums in one call: s[c] = s[c]·b; the users u < n whose power did
+// not move by the factor b, d = pCur[u] − b·pPrev[u] ≠ 0, listed in mv
+// and dv without a branch per user; then s += d·slow[u·len(s):] for each
+// of them in order, as addScaledAVX does: the Go code's operations in its
+// order, so the same bits.
+TEXT ·updateSumsAVX(SB), NOSPLIT, $0-80
+	MOVQ         s_base+0(FP), DI
+	MOVQ         s_len+8(FP), CX
+	VBROADCASTSD b+24(FP), Y0
+	XORQ         AX, AX
+
+scale:
+	CMPQ    AX, CX
+	JGE     movers
+	VMULSD  (DI)(AX*8), X0, X1
+	VMOVSD  X1, (DI)(AX*8)
+	INCQ    AX
+	JMP     scale
+
+movers:
+	MOVQ    pCur+32(FP), R8
+	MOVQ    pPrev+40(FP), R9
+	MOVQ    n+48(FP), R10
+	MOVQ    mv+64(FP), R11
+	MOVQ    dv+72(FP), R12
+	XORQ    AX, AX
+	XORQ    BX, BX
+	VXORPD  X3, X3, X3
+
+mloop:
+	CMPQ     AX, R10
+	JGE      rows
+	VMULSD   (R9)(AX*8), X0, X1 // b·pPrev[u]
+	VMOVSD   (R8)(AX*8), X2
+	VSUBSD   X1, X2, X2         // d
+	MOVL     AX, (R11)(BX*4)
+	VMOVSD   X2, (R12)(BX*8)
+	XORL     R13, R13
+	VUCOMISD X3, X2
+	SETNE    R13B
+	ADDQ     R13, BX
+	INCQ     AX
+	JMP      mloop
+
+rows:
+	MOVQ slow+56(FP), R8
+	MOVQ CX, DX
+	ANDQ $-8, DX
+	XORQ R9, R9             // mover index
+
+rnext:
+	CMPQ         R9, BX
+	JGE          udone
+	MOVLQSX      (R11)(R9*4), SI
+	IMULQ        CX, SI
+	LEAQ         (R8)(SI*8), SI // the mover's row
+	VBROADCASTSD (R12)(R9*8), Y4
+	XORQ         AX, AX
+	CMPQ         DX, $0
+	JEQ          rtail
+
+r8loop:
+	VMULPD  (SI)(AX*8), Y4, Y1
+	VMULPD  32(SI)(AX*8), Y4, Y2
+	VADDPD  (DI)(AX*8), Y1, Y1
+	VADDPD  32(DI)(AX*8), Y2, Y2
+	VMOVUPD Y1, (DI)(AX*8)
+	VMOVUPD Y2, 32(DI)(AX*8)
+	ADDQ    $8, AX
+	CMPQ    AX, DX
+	JLT     r8loop
+
+rtail:
+	CMPQ   AX, CX
+	JGE    rdone2
+	VMULSD (SI)(AX*8), X4, X1
+	VADDSD (DI)(AX*8), X1, X1
+	VMOVSD X1, (DI)(AX*8)
+	INCQ   AX
+	JMP    rtail
+
+rdone2:
+	INCQ R9
+	JMP  rnext
+
+udone:
+	VZEROUPPER
+	RET

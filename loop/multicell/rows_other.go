@@ -10,3 +10,7 @@ var useAVX = false
 // addScaled adds d·row to s element by element (len(row) ≥ len(s)):
 // gonum's floats.AddScaled.
 func addScaled(s []float64, d float64, row []float64) { floats.AddScaled(s, d, row[:len(s)]) }
+
+func updateSumsFast(s []float64, b float64, pCur, pPrev, slow []float64, mv []int32, dv []float64) bool {
+	return false
+}

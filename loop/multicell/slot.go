@@ -100,6 +100,9 @@ func (rp *rep) updateSums() {
 		b = rp.upLin
 	}
 	s := rp.sums
+	if updateSumsFast(s, b, rp.pCur, rp.pPrev, rp.slow, rp.movers, rp.moverD) {
+		return
+	}
 	for c := range s {
 		s[c] *= b
 	}
