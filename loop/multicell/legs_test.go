@@ -349,3 +349,71 @@ func TestUpdateSumsAVXMatchesGo(t *testing.T) {
 		}
 	}
 }
+
+// TestSlotSumsLayout: the offsets the assembly statistics loop reads
+// (users1Asm), and the three handover states it assumes.
+func TestSlotSumsLayout(t *testing.T) {
+	var a slotSums
+	var ua userAcc
+	for _, c := range []struct {
+		name      string
+		got, want uintptr
+	}{
+		{"sirDB", unsafe.Offsetof(a.sirDB), 0}, {"tDB", unsafe.Offsetof(a.tDB), 8}, {"pDB", unsafe.Offsetof(a.pDB), 16},
+		{"edges", unsafe.Offsetof(a.edges), 24}, {"flags", unsafe.Offsetof(a.flags), 32}, {"nLegs", unsafe.Offsetof(a.nLegs), 40},
+		{"users", unsafe.Offsetof(a.users), 48}, {"n", unsafe.Offsetof(a.n), 56}, {"out", unsafe.Offsetof(a.out), 64},
+		{"blockErrs", unsafe.Offsetof(a.blockErrs), 128}, {"legN", unsafe.Offsetof(a.legN), 136},
+		{"legOut", unsafe.Offsetof(a.legOut), 160}, {"legMx", unsafe.Offsetof(a.legMx), 184},
+		{"userAcc size", unsafe.Sizeof(ua), 32}, {"userAcc.outage", unsafe.Offsetof(ua.outage), 8}, {"userAcc.txDBm", unsafe.Offsetof(ua.txDBm), 24},
+	} {
+		if c.got != c.want {
+			t.Errorf("%s at %d, want %d", c.name, c.got, c.want)
+		}
+	}
+	if LegStates != 3 || recBlockEnd != 4 || recBlockErr != 8 {
+		t.Errorf("LegStates %d, flags %d %d: the assembly assumes 3, 4, 8", LegStates, recBlockEnd, recBlockErr)
+	}
+}
+
+// TestUsers1AsmMatchesGo: the assembly statistics loop gives the same
+// sums, bit for bit, as the Go loop, with and without per-user sums and
+// with users in more legs than handover states.
+func TestUsers1AsmMatchesGo(t *testing.T) {
+	if !useLoopAsm {
+		t.Skip("no assembly loops on this build: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(15, 16))
+	for trial := 0; trial < 100; trial++ {
+		n := 1 + r.IntN(500)
+		sirDB, tDB, pDB, edges := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+		flags, nLegs := make([]uint8, n), make([]int8, n)
+		for u := 0; u < n; u++ {
+			sirDB[u], tDB[u], pDB[u] = r.NormFloat64()*5, r.NormFloat64()*2+5, r.NormFloat64()*10
+			edges[u] = float64(r.IntN(2))
+			flags[u] = uint8(r.IntN(16))
+			nLegs[u] = int8(1 + r.IntN(6))
+		}
+		var users1, users2 []userAcc
+		if trial%2 == 0 {
+			users1, users2 = make([]userAcc, n), make([]userAcc, n)
+			for u := range users1 {
+				users1[u] = userAcc{outage: r.Float64(), txDBm: r.NormFloat64()}
+				users2[u] = users1[u]
+			}
+		}
+		var a, b slotSums
+		if !users1Fast(&a, sirDB, tDB, pDB, edges, flags, nLegs, users1) {
+			t.Fatal("the assembly loop did not run")
+		}
+		users1Go(&b, sirDB, tDB, pDB, edges, flags, nLegs, users2)
+		a.sirDB, a.tDB, a.pDB, a.edges, a.flags, a.nLegs, a.users, a.n = nil, nil, nil, nil, nil, nil, nil, 0
+		if a != b {
+			t.Fatalf("trial %d: asm %+v\nGo %+v", trial, a, b)
+		}
+		for u := range users1 {
+			if users1[u] != users2[u] {
+				t.Fatalf("trial %d user %d: asm %+v, Go %+v", trial, u, users1[u], users2[u])
+			}
+		}
+	}
+}

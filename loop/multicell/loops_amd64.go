@@ -62,3 +62,23 @@ func rows3(row, ant, g []float64) {
 	}
 	rows3Go(row, ant, g)
 }
+
+// users1Asm is users1Go's loop in assembly (record_amd64.s), the same bits.
+//
+//go:noescape
+func users1Asm(a *slotSums)
+
+// users1Fast runs users1Asm on a (zero) and reports whether it did: the
+// slices hold n = len(sirDB) > 0 values (users: none or n).
+func users1Fast(a *slotSums, sirDB, tDB, pDB, edges []float64, flags []uint8, nLegs []int8, users []userAcc) bool {
+	n := len(sirDB)
+	if !useLoopAsm || n == 0 || len(tDB) < n || len(pDB) < n || len(edges) < n || len(flags) < n || len(nLegs) < n || users != nil && len(users) < n {
+		return false
+	}
+	a.sirDB, a.tDB, a.pDB, a.edges, a.flags, a.nLegs, a.n = &sirDB[0], &tDB[0], &pDB[0], &edges[0], &flags[0], &nLegs[0], n
+	if users != nil {
+		a.users = &users[0]
+	}
+	users1Asm(a)
+	return true
+}

@@ -77,42 +77,20 @@ func (c *collector) addBlock(rp *rep, r *blockRec) {
 }
 
 // users1 records one slot's user-slots (the record's entries from i on):
-// the slot's sums are formed first, then added to the batch.
+// the slot's sums are formed first (users1Go, or its assembly), then added
+// to the batch.
 func (c *collector) users1(rp *rep, r *blockRec, i int) {
 	U := rp.U
 	sir, pDB, tDB, flags := r.sir[i:i+U], r.pDB[i:i+U], r.targetDB[i:i+U], r.flags[i:i+U]
 	sirDB := c.sirDB[:U]
 	linToDBFloorTo(sirDB, sir, 1e-30)
-	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
-	var legN, legOut, legMx [LegStates]float64
-	b := &c.batches[c.cur]
-	edges := rp.edge[:U]
-	for u, sDB := range sirDB {
-		// 0/1 values from the flags, without branches.
-		f := flags[u]
-		o := float64(f & recOutage)
-		m := float64((f & recAtMax) >> 1)
-		blocks += float64((f & recBlockEnd) >> 2)
-		blockErrs += float64((f & recBlockErr) >> 3)
-		nl := int(r.nLegs[u])
-		li := min(nl, LegStates) - 1
-		e := sDB - tDB[u]
-		out += o
-		mx += m
-		edge += edges[u]
-		edgeMx += m * edges[u]
-		legN[li]++
-		legOut[li] += o
-		legMx[li] += m
-		errS += e
-		errS2 += e * e
-		tx += pDB[u]
-		if c.users != nil {
-			a := &c.users[u]
-			a.outage += o
-			a.txDBm += pDB[u]
-		}
+	var a slotSums
+	if !users1Fast(&a, sirDB, tDB, pDB, rp.edge[:U], flags, r.nLegs[:U], c.users) {
+		users1Go(&a, sirDB, tDB, pDB, rp.edge[:U], flags, r.nLegs[:U], c.users)
 	}
+	b := &c.batches[c.cur]
+	out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs := a.out, a.mx, a.edge, a.edgeMx, a.errS, a.errS2, a.tx, a.blocks, a.blockErrs
+	legN, legOut, legMx := a.legN, a.legOut, a.legMx
 	for cell, n := range r.served {
 		b.cellServed[cell] += n
 	}
@@ -131,4 +109,57 @@ func (c *collector) users1(rp *rep, r *blockRec, i int) {
 	b.txDBm += tx
 	b.blocks += blocks
 	b.blockErrs += blockErrs
+}
+
+// slotSums is one slot's sums over users (users1Go), laid out for the
+// assembly loop (users1Asm; offsets in TestSlotSumsLayout).
+type slotSums struct {
+	sirDB, tDB, pDB, edges *float64
+	flags                  *uint8
+	nLegs                  *int8
+	users                  *userAcc // nil: no per-user sums
+	n                      int
+	out, mx, edge, edgeMx  float64
+	errS, errS2, tx        float64
+	blocks, blockErrs      float64
+	legN, legOut, legMx    [LegStates]float64
+}
+
+// users1Go sums one slot's users into a (from zero): outage, time at max
+// power (overall, at the cell edge and by handover state), SIR error and
+// its square (dB), Tx power (dBm), block ends and errors, and with users
+// (replication 0) each user's outage and Tx power.
+func users1Go(a *slotSums, sirDB, tDB, pDB, edges []float64, flags []uint8, nLegs []int8, users []userAcc) {
+	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
+	var legN, legOut, legMx [LegStates]float64
+	n := len(sirDB)
+	tDB, pDB, edges, flags, nLegs = tDB[:n], pDB[:n], edges[:n], flags[:n], nLegs[:n]
+	for u, sDB := range sirDB {
+		// 0/1 values from the flags, without branches.
+		f := flags[u]
+		o := float64(f & recOutage)
+		m := float64((f & recAtMax) >> 1)
+		blocks += float64((f & recBlockEnd) >> 2)
+		blockErrs += float64((f & recBlockErr) >> 3)
+		nl := int(nLegs[u])
+		li := min(nl, LegStates) - 1
+		e := sDB - tDB[u]
+		out += o
+		mx += m
+		edge += edges[u]
+		edgeMx += m * edges[u]
+		legN[li]++
+		legOut[li] += o
+		legMx[li] += m
+		errS += e
+		errS2 += e * e
+		tx += pDB[u]
+		if users != nil {
+			ua := &users[u]
+			ua.outage += o
+			ua.txDBm += pDB[u]
+		}
+	}
+	a.out, a.mx, a.edge, a.edgeMx, a.errS, a.errS2, a.tx, a.blocks, a.blockErrs = out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs
+	a.legN, a.legOut, a.legMx = legN, legOut, legMx
 }
