@@ -31,12 +31,12 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 			fmt.Fprintf(w, "Group %d%s: %d in the group, %s\n", g, gname, res.GetCount(), all)
 		}
 	case res.GetBelowRange():
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: below the smallest count tried\n", g, gname, limit)
+		fmt.Fprintf(w, "Capacity of group %d%s at outage ≤ %g %%: below the smallest count tried\n", g, gname, limit)
 	case res.GetAtRangeTop():
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: at least %d in the group, %s (the largest count tried passes)\n",
+		fmt.Fprintf(w, "Capacity of group %d%s at outage ≤ %g %%: at least %d in the group, %s (the largest count tried passes)\n",
 			g, gname, limit, res.GetCount(), all)
 	default:
-		fmt.Fprintf(w, "Capacity of group %d%s at outage <= %g %%: %d in the group, %s\n",
+		fmt.Fprintf(w, "Capacity of group %d%s at outage ≤ %g %%: %d in the group, %s\n",
 			g, gname, limit, res.GetCount(), all)
 	}
 	fmt.Fprintln(w, CapacityPoleLines(req, res))
@@ -44,7 +44,7 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 	usersHead, load := "users", "feasible"
 	if layout {
 		// Multi-cell: counts per cell; the engine computes no feasibility.
-		usersHead, load = "users/cell", "–"
+		usersHead, load = "users per cell", "–"
 	}
 	h := []string{"count", usersHead, "limits", shortLabel("outage_probability"), shortLabel("noise_rise_mean_db"), "load"}
 	for _, k := range CapacityFigures {
@@ -92,7 +92,7 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 	if n := res.GetNotice(); n != "" {
 		fmt.Fprintln(w, Wrap(n, 78, ""))
 	}
-	fmt.Fprintf(w, "Effort: %d replications, %s user-slots in %.2f s\n", res.GetReplications(), GroupDigits(res.GetUserSlots()), res.GetWallTimeS())
+	fmt.Fprintf(w, "Effort: %s, %s user-slots in %.2f s\n", Count(int(res.GetReplications()), "replication", "replications"), GroupDigits(res.GetUserSlots()), res.GetWallTimeS())
 }
 
 // CapacityCSV writes one row per evaluated count of a capacity search.

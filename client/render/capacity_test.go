@@ -55,7 +55,7 @@ func TestCapacityOutputsLayout(t *testing.T) {
 		{"layout", true,
 			[]string{"20 in the group, 23 users per cell (483 in the layout's 21 cells)",
 				"Pole capacity of one cell (Gilhousen et al. 1991): 37.6 users per cell", "f = 1.65 measured in the layout, 1 sector",
-				"with the same f: 37.9 users per cell", "users/cell", "load –: feasibility is not computed in multi-cell mode"},
+				"with the same f: 37.9 users per cell", "count  users per cell", "load –: feasibility is not computed in multi-cell mode"},
 			[]string{"users in all", "feasible ", "f = 0,"},
 			"count,users_per_cell,layout_users,pass,outage_ok,noise_rise_ok,load_feasible,capacity,n,", "20,23,483,true,true,true,,true,2,"},
 	} {

@@ -62,7 +62,7 @@ func TraceSummary(w io.Writer, spec *pb.ChannelSpec, links int, samples int64, p
 	if name == "" {
 		name = "custom"
 	}
-	fmt.Fprintf(w, "%d link(s) × %s samples, profile %s, %s\n\n", links, GroupDigits(samples), name, fading(spec))
+	fmt.Fprintf(w, "%s × %s samples, profile %s, %s\n\n", Count(links, "link", "links"), GroupDigits(samples), name, fading(spec))
 	t := NewTable("tap", "mean power (dB)", "share of total (%)").AlignRight(0, 1, 2)
 	total := 0.0
 	for _, p := range power {

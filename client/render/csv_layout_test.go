@@ -193,7 +193,7 @@ func TestSweepTableLoadLayout(t *testing.T) {
 
 // The sweep table says why a value has no interval (the first such point's
 // notes, without the caution) and says nothing when every interval is
-// given.
+// given; the points' caution closes the table once, not as a note.
 func TestSweepTableWithheldNote(t *testing.T) {
 	for _, tc := range []struct {
 		name     string
@@ -206,16 +206,21 @@ func TestSweepTableWithheldNote(t *testing.T) {
 		const why = "one replication: no intervals (bounds not available)"
 		if tc.withhold {
 			rep.Aggregate.OutageProbability.CiLow, rep.Aggregate.OutageProbability.CiHigh = math.NaN(), math.NaN()
-			rep.Notes = append(rep.Notes, why, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
+			rep.Notes = append(rep.Notes, why)
 		}
+		// The multi-cell engine's caution note, on every layout report.
+		rep.Notes = append(rep.Notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
 		var b bytes.Buffer
 		SweepTable(&b, &pb.SweepRequest{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db"}}}, []*pb.SweepPoint{{Index: 4, Coordinates: []float64{3}, Report: rep}}, nil)
 		out := b.String()
 		if got := strings.Contains(out, "values without an interval: it is withheld; point 4's notes:") && strings.Contains(out, why); got != tc.withhold {
 			t.Errorf("%s: note shown %v, want %v:\n%s", tc.name, got, tc.withhold, out)
 		}
-		if strings.Contains(out, "do not replace the operator") {
+		if strings.Contains(out, "- simulated settings do not replace") {
 			t.Errorf("%s: the caution is printed among the notes:\n%s", tc.name, out)
+		}
+		if n := strings.Count(out, "do not replace the operator"); n != 1 || !strings.HasSuffix(strings.TrimSpace(out), CautionLine) {
+			t.Errorf("%s: caution %d times (want once, last):\n%s", tc.name, n, out)
 		}
 	}
 }

@@ -6,8 +6,10 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"regexp"
 	"strconv"
 	"strings"
+	"unicode"
 	"unicode/utf8"
 
 	"google.golang.org/protobuf/encoding/protojson"
@@ -211,13 +213,21 @@ func withInterval(v, lo, hi float64, dec int) string {
 	return Num(v, dec) + " [" + Num(lo, dec) + ", " + Num(hi, dec) + "]"
 }
 
-// Wrap breaks text into lines of at most width runes (words are not
-// split), joining them with a newline and indent; existing newlines stay.
+// groupedNumber is a number written with its digits grouped by spaces
+// ("3 600 000"), which Wrap keeps on one line.
+var groupedNumber = regexp.MustCompile(`\b\d{1,3}(?: \d{3})+\b`)
+
+// Wrap breaks text into lines of at most width runes (words and numbers
+// grouped as "2 400" are not split), joining them with a newline and
+// indent; existing newlines stay.
 func Wrap(text string, width int, indent string) string {
+	const keep = "\ue000" // a space inside a grouped number while splitting
+	text = groupedNumber.ReplaceAllStringFunc(text, func(m string) string { return strings.ReplaceAll(m, " ", keep) })
 	var out []string
 	for _, para := range strings.Split(text, "\n") {
 		line := ""
 		for _, word := range strings.Fields(para) {
+			word = strings.ReplaceAll(word, keep, " ")
 			if line != "" && len([]rune(line))+1+len([]rune(word)) > width {
 				out = append(out, line)
 				line = word
@@ -246,4 +256,45 @@ func FmtRate(rate float64, unit string) string {
 		return fmt.Sprintf("%.1f k %s", rate/1e3, unit)
 	}
 	return fmt.Sprintf("%.1f %s", rate, unit)
+}
+
+// GroupNumbersIn writes every whole number of four or more digits in text
+// (an engine's note: "the 2400 measured slots … 3600000 measured slots")
+// with its digits grouped by sep, as the tables write them ("2 400").
+// Digits that are part of a decimal ("0.833"), a version ("1.3.0") or a
+// name ("p1500", "run.warmup_slots") are left alone.
+func GroupNumbersIn(text, sep string) string {
+	r := []rune(text)
+	isDigit := func(i int) bool { return i >= 0 && i < len(r) && r[i] >= '0' && r[i] <= '9' }
+	var b strings.Builder
+	for i := 0; i < len(r); {
+		if !isDigit(i) {
+			b.WriteRune(r[i])
+			i++
+			continue
+		}
+		j := i
+		for isDigit(j) {
+			j++
+		}
+		num := string(r[i:j])
+		before := rune(0)
+		if i > 0 {
+			before = r[i-1]
+		}
+		after := rune(0)
+		if j < len(r) {
+			after = r[j]
+		}
+		standalone := !unicode.IsLetter(before) && before != '.' && before != '_' && before != '/' && before != ',' &&
+			!unicode.IsLetter(after) && after != '_' && !((after == '.' || after == ',') && isDigit(j+1))
+		if standalone && len(num) >= 4 {
+			if n, err := strconv.ParseInt(num, 10, 64); err == nil && num[0] != '0' {
+				num = GroupDigitsSep(n, sep)
+			}
+		}
+		b.WriteString(num)
+		i = j
+	}
+	return b.String()
 }

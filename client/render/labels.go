@@ -13,9 +13,12 @@ import (
 // Figure is one figure of a Figures message: a column of the report
 // tables and CSV files.
 type Figure struct {
-	Key   string  // CSV column stem, the proto field name (percentiles: with _p1 etc.)
-	Label string  // table label with unit: "Tx power mean (dBm)"
-	Short string  // column head of the narrower tables: "Tx mean (dBm)"
+	Key string // CSV column stem, the proto field name (percentiles: with _p1 etc.)
+	// Label is the figure's one name with its unit, in every table row,
+	// column head, CSV description and HTML report: the API's own
+	// name for the figures a search reports (loop/tune's FigureLabels,
+	// "mean Tx power (dBm)").
+	Label string
 	Scale float64 // table value = scale × value (e.g. 100 for %)
 	Dec   int     // table decimals
 	Get   func(*pb.Figures) *pb.Estimate
@@ -35,26 +38,26 @@ var (
 
 // figures lists every figure of a Figures message in CSV order.
 var figures = []Figure{
-	{"sir_error_mean_db", "SIR error mean (dB)", "SIR err mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb, (*pb.TuneFigures).GetSirErrorMeanDb},
-	{"sir_error_std_db", "SIR error std (dB)", "SIR err std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb, (*pb.TuneFigures).GetSirErrorStdDb},
-	{"sir_error_p1_db", "SIR error 1st pct (dB)", "", 1, 2, pct((*pb.Percentiles).GetP1, sirPct), nil},
-	{"sir_error_p5_db", "SIR error 5th pct (dB)", "", 1, 2, pct((*pb.Percentiles).GetP5, sirPct), nil},
-	{"sir_error_p50_db", "SIR error median (dB)", "", 1, 2, pct((*pb.Percentiles).GetP50, sirPct), nil},
-	{"sir_error_p95_db", "SIR error 95th pct (dB)", "", 1, 2, pct((*pb.Percentiles).GetP95, sirPct), nil},
-	{"sir_error_p99_db", "SIR error 99th pct (dB)", "", 1, 2, pct((*pb.Percentiles).GetP99, sirPct), nil},
-	{"outage_probability", "outage (%)", "outage (%)", 100, 2, (*pb.Figures).GetOutageProbability, (*pb.TuneFigures).GetOutageProbability},
-	{"achieved_bler", "achieved BLER (%)", "BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler, (*pb.TuneFigures).GetAchievedBler},
-	{"bler_target_error", "BLER − target (%)", "", 100, 2, (*pb.Figures).GetBlerTargetError, nil},
-	{"tx_power_mean_dbm", "Tx power mean (dBm)", "Tx mean (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm, (*pb.TuneFigures).GetTxPowerMeanDbm},
-	{"tx_power_p1_dbm", "Tx power 1st pct (dBm)", "", 1, 2, pct((*pb.Percentiles).GetP1, txPct), nil},
-	{"tx_power_p5_dbm", "Tx power 5th pct (dBm)", "", 1, 2, pct((*pb.Percentiles).GetP5, txPct), nil},
-	{"tx_power_p50_dbm", "Tx power median (dBm)", "", 1, 2, pct((*pb.Percentiles).GetP50, txPct), nil},
-	{"tx_power_p95_dbm", "Tx power 95th pct (dBm)", "Tx p95 (dBm)", 1, 2, pct((*pb.Percentiles).GetP95, txPct), nil},
-	{"tx_power_p99_dbm", "Tx power 99th pct (dBm)", "", 1, 2, pct((*pb.Percentiles).GetP99, txPct), nil},
-	{"max_power_fraction", "time at max power (%)", "at max (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction, (*pb.TuneFigures).GetMaxPowerFraction},
-	{"noise_rise_mean_db", "noise rise mean (dB)", "noise rise (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb, (*pb.TuneFigures).GetNoiseRiseMeanDb},
-	{"noise_rise_p95_db", "noise rise 95th pct (dB)", "", 1, 2, (*pb.Figures).GetNoiseRiseP95Db, nil},
-	{"convergence_time_s", "convergence time (s)", "", 1, 3, (*pb.Figures).GetConvergenceTimeS, nil},
+	{"sir_error_mean_db", "SIR error mean (dB)", 1, 2, (*pb.Figures).GetSirErrorMeanDb, (*pb.TuneFigures).GetSirErrorMeanDb},
+	{"sir_error_std_db", "SIR error std (dB)", 1, 2, (*pb.Figures).GetSirErrorStdDb, (*pb.TuneFigures).GetSirErrorStdDb},
+	{"sir_error_p1_db", "SIR error 1st pct (dB)", 1, 2, pct((*pb.Percentiles).GetP1, sirPct), nil},
+	{"sir_error_p5_db", "SIR error 5th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP5, sirPct), nil},
+	{"sir_error_p50_db", "SIR error median (dB)", 1, 2, pct((*pb.Percentiles).GetP50, sirPct), nil},
+	{"sir_error_p95_db", "SIR error 95th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP95, sirPct), nil},
+	{"sir_error_p99_db", "SIR error 99th pct (dB)", 1, 2, pct((*pb.Percentiles).GetP99, sirPct), nil},
+	{"outage_probability", "outage (%)", 100, 2, (*pb.Figures).GetOutageProbability, (*pb.TuneFigures).GetOutageProbability},
+	{"achieved_bler", "BLER (%)", 100, 2, (*pb.Figures).GetAchievedBler, (*pb.TuneFigures).GetAchievedBler},
+	{"bler_target_error", "BLER − target (%)", 100, 2, (*pb.Figures).GetBlerTargetError, nil},
+	{"tx_power_mean_dbm", "mean Tx power (dBm)", 1, 2, (*pb.Figures).GetTxPowerMeanDbm, (*pb.TuneFigures).GetTxPowerMeanDbm},
+	{"tx_power_p1_dbm", "Tx power 1st pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP1, txPct), nil},
+	{"tx_power_p5_dbm", "Tx power 5th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP5, txPct), nil},
+	{"tx_power_p50_dbm", "Tx power median (dBm)", 1, 2, pct((*pb.Percentiles).GetP50, txPct), nil},
+	{"tx_power_p95_dbm", "Tx power 95th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP95, txPct), nil},
+	{"tx_power_p99_dbm", "Tx power 99th pct (dBm)", 1, 2, pct((*pb.Percentiles).GetP99, txPct), nil},
+	{"max_power_fraction", "time at max power (%)", 100, 2, (*pb.Figures).GetMaxPowerFraction, (*pb.TuneFigures).GetMaxPowerFraction},
+	{"noise_rise_mean_db", "noise rise (dB)", 1, 2, (*pb.Figures).GetNoiseRiseMeanDb, (*pb.TuneFigures).GetNoiseRiseMeanDb},
+	{"noise_rise_p95_db", "noise rise 95th pct (dB)", 1, 2, (*pb.Figures).GetNoiseRiseP95Db, nil},
+	{"convergence_time_s", "convergence time (s)", 1, 3, (*pb.Figures).GetConvergenceTimeS, nil},
 }
 
 // Figures returns every figure of a Figures message in CSV order.
@@ -89,16 +92,11 @@ func MustFigure(key string) Figure {
 	return f
 }
 
-// Head is the figure's column head in the narrower tables (its short
-// label, else its label).
-func (f Figure) Head() string {
-	if f.Short != "" {
-		return f.Short
-	}
-	return f.Label
-}
+// Head is the figure's column head: its label (one name per figure, in
+// narrow tables too).
+func (f Figure) Head() string { return f.Label }
 
-// shortLabel is the narrow-table head of the figure key.
+// shortLabel is the column head of the figure key.
 func shortLabel(key string) string { return MustFigure(key).Head() }
 
 // Column lists of the narrower tables, by figure key.

@@ -1,7 +1,6 @@
 package render
 
 import (
-	"strings"
 	"testing"
 
 	"github.com/fadeloop/fadeloop/loop/tune"
@@ -23,8 +22,10 @@ func TestFigureLabelsAgreeWithAPI(t *testing.T) {
 		if f.Search == nil {
 			t.Errorf("%s: not marked as a search figure", l.Key)
 		}
-		if !strings.HasSuffix(f.Label, "("+l.Unit+")") || !strings.HasSuffix(f.Head(), "("+l.Unit+")") {
-			t.Errorf("%s: labels %q / %q, API unit %q", l.Key, f.Label, f.Head(), l.Unit)
+		// One name per figure: the run, sweep and capacity tables name
+		// it as the tune tables do (the API's name and unit).
+		if want := l.Name + " (" + l.Unit + ")"; f.Label != want || f.Head() != want {
+			t.Errorf("%s: labels %q / %q, API name and unit %q", l.Key, f.Label, f.Head(), want)
 		}
 		if f.Scale != l.Scale || f.Dec != l.Decimals {
 			t.Errorf("%s: scale %g, %d decimals; API %g, %d", l.Key, f.Scale, f.Dec, l.Scale, l.Decimals)
@@ -44,7 +45,7 @@ func TestSearchLabelFallback(t *testing.T) {
 		scale            float64
 	}{
 		{"outage_probability", "outage", "%", "percentage points", 100},
-		{"tx_power_mean_dbm", "Tx power mean", "dBm", "dB", 1},
+		{"tx_power_mean_dbm", "mean Tx power", "dBm", "dB", 1},
 		{"sir_error_std_db", "SIR error std", "dB", "dB", 1},
 	} {
 		l := SearchLabel(nil, tc.key)

@@ -131,11 +131,11 @@ func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64,
 		return nil
 	}
 	o := l.GetOverall()
-	all := LayoutPart{Head: []string{"layout figure", "value", "95 % CI"}, Right: []int{1}}
+	all := LayoutPart{Head: []string{"layout figure", "value", "95 % interval"}, Right: []int{1}}
 	row := func(label string, e *pb.Estimate, scale float64, dec int) {
 		all.Rows = append(all.Rows, []string{label, Num(scale*e.GetValue(), dec), interval(e, scale, dec)})
 	}
-	row("other-cell / own-cell interference f", o.GetOtherToOwn(), 1, 3)
+	row("f", o.GetOtherToOwn(), 1, 3)
 	all.Rows = append(all.Rows,
 		[]string{"f 5th pct over cells and slots", Num(o.GetOtherToOwnSpreadP5(), 3), ""},
 		[]string{"f 95th pct over cells and slots", Num(o.GetOtherToOwnSpreadP95(), 3), ""})
@@ -146,11 +146,17 @@ func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64,
 	row("time at max power (%)", o.GetTimeAtMaxPower(), 100, 2)
 	row("time at max power, cell edge (%)", o.GetTimeAtMaxEdge(), 100, 2)
 
-	legs := LayoutPart{Title: "by handover state (cells in the active set)",
-		Head:  []string{"cells", "share (%)", "95 % CI", "outage (%)", "95 % CI", "at max power (%)", "95 % CI"},
+	legs := LayoutPart{Title: "by handover state: cells in the active set (legs)",
+		Head:  []string{"cells", "share (%)", "95 % interval", "outage (%)", "95 % interval", "time at max power (%)", "95 % interval"},
 		Right: []int{1, 2, 3, 4, 5, 6}}
-	for i, name := range []string{"1", "2", "3+"} {
-		if i >= len(o.GetLegShare()) {
+	// The engine's last state is "3 or more cells": exactly 3 when at
+	// most 3 may be active; states above max_active cannot occur.
+	maxActive := rep.GetNormalisedScenario().GetLayout().GetHandover().GetMaxActive()
+	if maxActive <= 0 {
+		maxActive = 3 // the proto's default for 0
+	}
+	for i, name := range []string{"1", "2", LegStateName(2, maxActive)} {
+		if i >= len(o.GetLegShare()) || int32(i) >= maxActive {
 			break
 		}
 		s, out := o.GetLegShare()[i], o.GetOutageByLegs()[i]
@@ -167,7 +173,7 @@ func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64,
 	}
 
 	cells := LayoutPart{Title: "per cell",
-		Head:  []string{"cell", "served users", "f", "95 % CI", "f median", "f 95th pct", "noise rise (dB)", "95 % CI", "noise rise 95th pct (dB)"},
+		Head:  []string{"cell", "mean served users", "f", "95 % interval", "f median", "f 95th pct", "noise rise (dB)", "95 % interval", "noise rise 95th pct (dB)"},
 		Right: []int{1, 2, 3, 4, 5, 6, 7, 8}}
 	for _, c := range l.GetCells() {
 		cells.Rows = append(cells.Rows, []string{c.GetName(), Num(c.GetServedUsers(), 1),
@@ -177,6 +183,21 @@ func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64,
 	}
 	return []LayoutPart{all, legs, cells}
 }
+
+// LegStateName is the name of handover state i (0-based) of the layout
+// report's by-legs lists (1, 2, then 3 or more cells in the active set)
+// when at most maxActive cells may be active: "3" when maxActive is 3,
+// "3–6" when it is 6.
+func LegStateName(i int, maxActive int32) string {
+	if i < 2 || maxActive <= 3 {
+		return fmt.Sprint(i + 1)
+	}
+	return fmt.Sprintf("3–%d", maxActive)
+}
+
+// LayoutFNote names f once with its field in the JSON and CSV: every table
+// of a layout says f after it.
+const LayoutFNote = "f (other_to_own in the JSON and CSV): other-cell / own-cell interference received at a cell (linear)"
 
 // IsCautionNote reports whether note n is the engine's caution about real
 // transmitters (the multi-cell engine adds one to its notes); a page that
@@ -195,6 +216,7 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintln(w, "layout: "+LayoutHeader(rep))
+	fmt.Fprintln(w, LayoutFNote)
 	for i, p := range parts {
 		if i > 0 {
 			fmt.Fprintln(w)
@@ -207,8 +229,12 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 		t.Write(w)
 	}
 	fmt.Fprintln(w)
-	fmt.Fprintln(w, "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice.")
+	fmt.Fprintln(w, CautionLine)
 }
+
+// CautionLine closes a CLI table whose report carries the engine's caution
+// note (IsCautionNote), once per output.
+const CautionLine = "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice."
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:
 // the cells with their names, sites and boresights, the group names, and

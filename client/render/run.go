@@ -35,8 +35,8 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		fmt.Fprintln(w, "No figures: nothing was simulated.")
 		return
 	}
-	fmt.Fprintf(w, "%d users, %s slots × %d replication(s) after %s warm-up slots, seed %d, engine %s\n",
-		agg.GetUsers(), GroupDigits(rep.GetSlots()), rep.GetReplications(),
+	fmt.Fprintf(w, "%d users, %s slots × %s after %s warm-up slots, seed %d, engine %s\n",
+		agg.GetUsers(), GroupDigits(rep.GetSlots()), Count(int(rep.GetReplications()), "replication", "replications"),
 		GroupDigits(sc.GetRun().GetWarmupSlots()), rep.GetSeed(), rep.GetEngineVersion())
 	fmt.Fprintf(w, "%s user-slots simulated in %.2f s (%s)\n",
 		GroupDigits(rep.GetSimulatedUserSlots()), rep.GetWallTimeS(), FmtRate(rep.GetUserSlotsPerS(), "user-slots/s"))
@@ -62,7 +62,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	var notes []string
 	for _, n := range rep.GetNotes() {
 		if !IsCautionNote(n) {
-			notes = append(notes, n)
+			notes = append(notes, GroupNumbersIn(n, " "))
 		}
 	}
 	if withheld {

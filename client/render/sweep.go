@@ -21,7 +21,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		// A resumed job shows points stored by an earlier run beside the
 		// ones computed now; the work and rate are this run's.
 		shown, computed := int64(len(pts)), sum.GetPointsComputed()
-		count := fmt.Sprintf("%d of %d grid points", computed, sum.GetGridPoints())
+		count := fmt.Sprintf("%d of %s", computed, Count(int(sum.GetGridPoints()), "grid point", "grid points"))
 		if shown > computed {
 			count = fmt.Sprintf("%d of %d grid points (%d stored earlier, %d computed now)", shown, sum.GetGridPoints(), shown-computed, computed)
 		}
@@ -40,12 +40,15 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for i := 0; i < len(h)-1; i++ {
 		t.AlignRight(i)
 	}
-	noLoad := false
+	noLoad, caution := false, false
 	var withheld *pb.SweepPoint // the first point with a value shown without its interval
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i, c := range p.GetCoordinates() {
 			row = append(row, coordinateText(p, i, c, func(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }))
+		}
+		for _, n := range p.GetReport().GetNotes() {
+			caution = caution || IsCautionNote(n)
 		}
 		unsimulated := notSimulated(p.GetReport())
 		for _, k := range SweepTableFigures {
@@ -80,9 +83,13 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		fmt.Fprintf(w, "values without an interval: it is withheld; point %d's notes:\n", withheld.GetIndex())
 		for _, n := range withheld.GetReport().GetNotes() {
 			if !IsCautionNote(n) {
-				fmt.Fprintln(w, Wrap("- "+n, 78, "  "))
+				fmt.Fprintln(w, Wrap("- "+GroupNumbersIn(n, " "), 78, "  "))
 			}
 		}
+	}
+	if caution {
+		// The points' caution note, once for the whole table.
+		fmt.Fprintln(w, CautionLine)
 	}
 }
 

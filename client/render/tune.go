@@ -259,7 +259,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
 		}
 		t.Add(c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), PointLabel(d.GetSetting()), VerdictName(d),
-			obj, diff, base, gain, Num(c.GetDopplerProductMax(), 4))
+			obj, diff, base, gain, FdtCell(c))
 	}
 	t.Write(w)
 	if n := NoBaselineNote(req, rec); n != "" {
@@ -270,11 +270,8 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		d := c.GetDecision()
 		dl := d.GetRankedBy()
 		fmt.Fprintf(w, "Condition %s: %s\n", c.GetName(), VerdictName(d))
-		for _, l := range DecisionLines(d, rec.GetTieRule()) {
+		for _, l := range ConditionLines(c, rec.GetTieRule(), true) {
 			fmt.Fprintln(w, Wrap(l, 76, "    "))
-		}
-		if b := c.GetBaseline(); b.GetText() != "" {
-			fmt.Fprintln(w, Wrap(b.GetText(), 76, "    "))
 		}
 		h := []string{"  #", "setting", LabelHead(dl), "− recommended" + diffHead(dl)}
 		var labels []*pb.FigureLabel
@@ -322,14 +319,15 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	}
 	fmt.Fprintln(w)
 	ef := rec.GetEffort()
-	fmt.Fprintf(w, "Effort: %d candidate runs + %d fixed-power runs in %s (at most %d replications of one candidate);\n",
-		ef.GetReplications(), ef.GetBaselineReplications(), Count(int(ef.GetStages()), "round", "rounds"), ef.GetMaxReplicationsUsed())
+	fmt.Fprintf(w, "Effort: %s + %s in %s (at most %s of one candidate);\n",
+		Count(int(ef.GetReplications()), "candidate run", "candidate runs"), Count(int(ef.GetBaselineReplications()), "fixed-power run", "fixed-power runs"),
+		Count(int(ef.GetStages()), "round", "rounds"), Count(int(ef.GetMaxReplicationsUsed()), "replication", "replications"))
 	ratio := ""
 	if ef.GetEqualAllocationReplications() > 0 {
 		ratio = fmt.Sprintf(" (%.0f %% of it)", 100*float64(ef.GetReplications())/float64(ef.GetEqualAllocationReplications()))
 	}
-	fmt.Fprintf(w, "        equal allocation to the same precision: %d runs%s; %s user-slots in %.2f s",
-		ef.GetEqualAllocationReplications(), ratio, GroupDigits(ef.GetUserSlots()), ef.GetWallTimeS())
+	fmt.Fprintf(w, "        equal allocation to the same precision: %s%s; %s user-slots in %.2f s",
+		Count(int(ef.GetEqualAllocationReplications()), "run", "runs"), ratio, GroupDigits(ef.GetUserSlots()), ef.GetWallTimeS())
 	if ef.GetBudgetExhausted() {
 		fmt.Fprint(w, "; stopped by the budget")
 	}
@@ -342,6 +340,52 @@ func Count(n int, one, many string) string {
 		return "1 " + one
 	}
 	return strconv.Itoa(n) + " " + many
+}
+
+// FdtCell is a condition's f_D·T (Doppler frequency × power-control
+// period) over its users as the tables show it, 4 decimals: "0.0602", or
+// "0.0036–0.0602" when its users' f_D·T differ.
+func FdtCell(c *pb.ConditionResult) string {
+	lo, hi := Num(c.GetDopplerProductMin(), 4), Num(c.GetDopplerProductMax(), 4)
+	if c.GetDopplerProductMin() <= 0 || lo == hi {
+		return hi
+	}
+	return lo + "–" + hi
+}
+
+// FdtNote states a condition's f_D·T as measured from its users, with
+// their speeds: "f_D·T 0.0036–0.0602 over its users (3 and 50 km/h)" (the
+// table's FdtCell). It says what the figures were measured at, no more.
+func FdtNote(c *pb.ConditionResult) string {
+	var sp []string
+	for _, v := range c.GetSpeedsKmh() {
+		sp = append(sp, strconv.FormatFloat(v, 'g', 4, 64))
+	}
+	speeds := ""
+	switch len(sp) {
+	case 0:
+	case 1:
+		speeds = " (" + sp[0] + " km/h)"
+	default:
+		speeds = " (" + strings.Join(sp[:len(sp)-1], ", ") + " and " + sp[len(sp)-1] + " km/h)"
+	}
+	return "f_D·T " + FdtCell(c) + " over its users" + speeds + "."
+}
+
+// ConditionLines are the lines printed under a condition of a tuning
+// recommendation, in the CLI and the HTML report alike: with decision,
+// its decision's lines (DecisionLines), then the fixed-power comparison
+// and the condition's f_D·T (FdtNote). Measured facts only: the engine's
+// plain-language reason (which adds why a step did best) is not shown.
+func ConditionLines(c *pb.ConditionResult, tieRule string, decision bool) []string {
+	var ls []string
+	if decision {
+		ls = DecisionLines(c.GetDecision(), tieRule)
+	}
+	if t := c.GetBaseline().GetText(); t != "" {
+		ls = append(ls, t)
+	}
+	return append(ls, FdtNote(c))
 }
 
 // NoBaselineNote says why the fixed-power columns are empty ("" when some
@@ -364,7 +408,10 @@ func NoBaselineNote(req *pb.TuneRequest, rec *pb.Recommendation) string {
 	return "Fixed power –: this result carries no fixed-power baseline."
 }
 
-func searchFigureHeader() []string { return csvHeader(searchFigures, "_low", "_high") }
+// searchFigureHeader is the figure columns of the tune and capacity CSV
+// files: each figure's mean, then its interval, suffixed _ci_low and
+// _ci_high as in the run and sweep files.
+func searchFigureHeader() []string { return csvHeader(searchFigures, "_ci_low", "_ci_high") }
 
 func searchFigureCells(fs *pb.TuneFigures) []string {
 	var c []string
@@ -399,8 +446,8 @@ func TuneCSV(w io.Writer, rec *pb.Recommendation) error {
 		}
 	}
 	h = append(h, paths...)
-	h = append(h, "status", "feasible", "best", "verdict", "rank", "objective", "objective_low", "objective_high",
-		"diff_to_best", "diff_low", "diff_high", "n")
+	h = append(h, "status", "feasible", "best", "verdict", "rank", "objective", "objective_ci_low", "objective_ci_high",
+		"diff_to_best", "diff_to_best_ci_low", "diff_to_best_ci_high", "n")
 	cw.Write(append(h, searchFigureHeader()...))
 	coords := func(k int32) []string {
 		var out []string

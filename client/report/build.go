@@ -101,6 +101,15 @@ func noInterval(e *pb.Estimate) bool {
 	return math.IsNaN(e.GetCiLow()) || math.IsNaN(e.GetCiHigh())
 }
 
+// interval is an estimate's 95 % interval "[lo, hi]" scaled, or "(no
+// interval)" without one (the report's notes say why).
+func interval(e *pb.Estimate, scale float64, dec int) string {
+	if noInterval(e) {
+		return "(no interval)"
+	}
+	return "[" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
+}
+
 // pctCI is "v unit [lo, hi]" of an estimate scaled, or "v unit (no
 // interval)" without one.
 func pctCI(e *pb.Estimate, scale float64, dec int, unit string) string {
@@ -137,6 +146,14 @@ func rangeFrom(a, b int) []int {
 		v = append(v, i)
 	}
 	return v
+}
+
+// plural is one or many by the count n (written beside it with thousands).
+func plural[N int32 | int64](n N, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }
 
 // thousands groups digits with narrow no-break spaces: 90 000.

@@ -53,7 +53,7 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 	}
 	reasonHasPoles := strings.Contains(res.GetReason(), "Gilhousen")
 	if pp := res.GetPoleParams(); res.GetPole() > 0 {
-		f := fmt.Sprintf("f = %g, %g sector(s)", pp.GetOtherCellRatio(), pp.GetSectors())
+		f := fmt.Sprintf("f = %g, %s", pp.GetOtherCellRatio(), clirender.Count(int(pp.GetSectors()), "sector", "sectors"))
 		if layout {
 			f = "f = " + num(pp.GetOtherCellRatio(), 2) + " measured in the layout at the capacity count, 1 sector per cell (the other sectors' interference is part of f)"
 		}
@@ -80,7 +80,7 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		d.Verdict.Class = "warn"
 		d.Verdict.Lines = append(d.Verdict.Lines, "The user-slot budget ran out before the search finished.")
 	}
-	t := table{Caption: "Every count evaluated (mean [interval] over replications); the capacity is marked.",
+	t := table{Caption: "Every count evaluated (mean [95 % interval] over replications); the capacity is marked.",
 		Head: []string{"count", map[bool]string{false: "users", true: "users per cell"}[layout], clirender.MustFigure("outage_probability").Head(), "pass"}}
 	capCols := append(append([]string(nil), clirender.CapacityFigures...), "noise_rise_mean_db")
 	for _, k := range capCols {
@@ -114,7 +114,7 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 		{"seed", seed},
 		{"replications", reps},
 		{"engine version", orMissing(engine)},
-		{"effort", fmt.Sprintf("%s replications, %s user-slots in %s s", thousands(res.GetReplications()), thousands(res.GetUserSlots()), num(res.GetWallTimeS(), 2))},
+		{"effort", fmt.Sprintf("%s %s, %s user-slots in %s s", thousands(res.GetReplications()), plural(res.GetReplications(), "replication", "replications"), thousands(res.GetUserSlots()), num(res.GetWallTimeS(), 2))},
 	}
 	return nil
 }

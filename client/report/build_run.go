@@ -42,7 +42,7 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		out := agg.GetOutageProbability()
 		d.Verdict = verdict{Class: "ok", Headline: "Outage " + pctCI(out, 100, 2, "%") + ", SIR error std " + pctCI(agg.GetSirErrorStdDb(), 1, 2, "dB")}
 		bl := agg.GetAchievedBler()
-		line := "Achieved BLER " + pctCI(bl, 100, 2, "%")
+		line := "BLER " + pctCI(bl, 100, 2, "%")
 		if bler > 0 {
 			line += fmt.Sprintf(" against a target of %s %%", num(100*bler, 2))
 		}
@@ -53,11 +53,11 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 			line += " (outer loop off: the SIR target is fixed, the BLER target is for reference)"
 		case ol.GetEnabled() && be != nil && (be.GetCiLow() > 0 || be.GetCiHigh() < 0):
 			d.Verdict.Class = "warn"
-			line += fmt.Sprintf("; the outer loop did not hold it: achieved − target %s %% [%s, %s] excludes 0",
+			line += fmt.Sprintf("; the outer loop did not hold it: BLER − target %s %% [%s, %s] excludes 0",
 				num(100*be.GetValue(), 2), num(100*be.GetCiLow(), 2), num(100*be.GetCiHigh(), 2))
 		}
 		d.Verdict.Lines = append(d.Verdict.Lines, line+".",
-			fmt.Sprintf("Mean Tx power %s dBm, time at maximum power %s %%, mean noise rise %s dB.",
+			fmt.Sprintf("Mean Tx power %s dBm, time at max power %s %%, noise rise %s dB.",
 				estimate(agg.GetTxPowerMeanDbm(), 1, 2), estimate(agg.GetMaxPowerFraction(), 100, 2), estimate(agg.GetNoiseRiseMeanDb(), 1, 2)))
 	}
 	if f.GetInfeasible() && rep.GetSimulatedUserSlots() == 0 {
@@ -71,26 +71,26 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		}
 		return nil
 	}
-	d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d users, %s slots × %d replication(s) after %s warm-up slots.",
-		agg.GetUsers(), thousands(rep.GetSlots()), rep.GetReplications(), thousands(sc.GetRun().GetWarmupSlots())))
+	d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d users, %s slots × %s after %s warm-up slots.",
+		agg.GetUsers(), thousands(rep.GetSlots()), clirender.Count(int(rep.GetReplications()), "replication", "replications"), thousands(sc.GetRun().GetWarmupSlots())))
 	for _, n := range rep.GetNotes() {
 		if !clirender.IsCautionNote(n) { // the page shows its own caution
-			d.Verdict.Lines = append(d.Verdict.Lines, n)
+			d.Verdict.Lines = append(d.Verdict.Lines, clirender.GroupNumbersIn(n, "\u202f"))
 		}
 	}
 
-	t := table{Caption: "Aggregate figures over all users, with 95 % confidence intervals.", Head: []string{"figure", "value", "95 % CI low", "95 % CI high"}, Num: numCols(4, 1, 2, 3)}
+	t := table{Caption: "Aggregate figures over all users, with their 95 % intervals.", Head: []string{"figure", "value", "95 % interval"}, Num: numCols(3, 1)}
 	layout := rep.GetLayout() != nil
 	for _, fd := range clirender.Figures() {
 		e := fd.Get(agg)
 		if e == nil || (layout && !clirender.LayoutComputes(fd.Key)) {
 			continue // a layout's report has no percentiles or convergence time
 		}
-		t.add(false, fd.Label, num(fd.Scale*e.GetValue(), fd.Dec), num(fd.Scale*e.GetCiLow(), fd.Dec), num(fd.Scale*e.GetCiHigh(), fd.Dec))
+		t.add(false, fd.Label, num(fd.Scale*e.GetValue(), fd.Dec), interval(e, fd.Scale, fd.Dec))
 	}
 	s := section{ID: "figures", Heading: "Figures", Tables: []table{t}}
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
-		bt := table{Caption: "Per distance bin (value [95 % CI]).", Head: []string{"distance (m)", "users"}}
+		bt := table{Caption: "Per distance bin (value [95 % interval]).", Head: []string{"distance (m)", "users"}}
 		for _, k := range detailFigures {
 			bt.Head = append(bt.Head, clirender.MustFigure(k).Head())
 		}
@@ -116,7 +116,7 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 		d.Sections = append(d.Sections, section{ID: "plots", Heading: "Plots", Figures: figs})
 	}
 	if us := rep.GetUsers(); len(us) > 0 {
-		ut := table{Caption: "Per user (value [95 % CI]).", Head: []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}}
+		ut := table{Caption: "Per user (value [95 % interval]).", Head: []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}}
 		for _, k := range detailFigures {
 			ut.Head = append(ut.Head, clirender.MustFigure(k).Head())
 		}
@@ -145,23 +145,18 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 // clirender.LayoutParts (the CLI's layout table: same figures, names and
 // units), intervals as "[lo, hi]" or "(no interval)".
 func layoutSection(rep *pb.RunReport) (section, bool) {
-	parts := clirender.LayoutParts(rep, func(e *pb.Estimate, scale float64, dec int) string {
-		if noInterval(e) {
-			return "(no interval)"
-		}
-		return "[" + num(scale*e.GetCiLow(), dec) + ",\u00a0" + num(scale*e.GetCiHigh(), dec) + "]"
-	})
+	parts := clirender.LayoutParts(rep, interval)
 	if parts == nil {
 		return section{}, false
 	}
 	s := section{ID: "layout", Heading: "Layout", Intro: []string{
 		clirender.LayoutHeader(rep) + ".",
-		"f is the other-cell over the own-cell interference received at a cell; its 5th and 95th percentiles over cells and slots show its spread.",
+		clirender.LayoutFNote + "; its 5th and 95th percentiles over cells and slots are its spread.",
 	}}
 	for i, p := range parts {
 		t := table{Head: p.Head, Num: numCols(len(p.Head), p.Right...)}
 		if i == 0 {
-			t.Caption = "Layout-wide figures with 95 % confidence intervals."
+			t.Caption = "Layout-wide figures with their 95 % intervals."
 		} else {
 			t.Caption = strings.ToUpper(p.Title[:1]) + p.Title[1:] + "."
 		}

@@ -78,9 +78,9 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		}
 	}
 	if infeasible > 0 {
-		d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d of %d points are infeasible (load not carried).", infeasible, len(pts)))
+		d.Verdict.Lines = append(d.Verdict.Lines, fmt.Sprintf("%d of %d %s infeasible (load not carried).", infeasible, len(pts), plural(int32(infeasible), "point is", "points are")))
 	}
-	t := table{Caption: "Every grid point (value [95 % CI]); the lowest-outage point is marked.", Head: []string{"point"}}
+	t := table{Caption: "Every grid point (value [95 % interval]); the lowest-outage point is marked.", Head: []string{"point"}}
 	t.Path = []bool{false}
 	for _, a := range s.Axes {
 		// The path as typed on one line (th.path): a break inside it read

@@ -168,16 +168,17 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 			obj = dl.GetName() + " " + obj + " " + dl.GetUnit()
 		}
 		ct.add(false, c.GetName(), strconv.FormatFloat(c.GetWeight(), 'g', 4, 64), clirender.PointLabel(dc.GetSetting()), v,
-			obj, diff, base, gain, num(c.GetDopplerProductMax(), 4))
+			obj, diff, base, gain, clirender.FdtCell(c))
 	}
 	s := section{ID: "conditions", Heading: "Conditions", Tables: []table{ct}}
 	if n := clirender.NoBaselineNote(req, rec); n != "" {
 		s.Notes = append(s.Notes, n)
 	}
+	// Per condition what the CLI prints under it (measured facts, not the
+	// engine's reason); one condition's decision lines are the verdict's.
 	for _, c := range rec.GetConditions() {
-		if r := c.GetDecision().GetReason(); r != "" {
-			s.Notes = append(s.Notes, c.GetName()+": "+r)
-		}
+		ls := clirender.ConditionLines(c, rec.GetTieRule(), len(rec.GetConditions()) > 1)
+		s.Notes = append(s.Notes, c.GetName()+": "+strings.Join(ls, " "))
 	}
 	d.Sections = append(d.Sections, s)
 
@@ -200,11 +201,13 @@ func buildTune(d *doc, rec *pb.Recommendation, req *pb.TuneRequest, engine strin
 	e := rec.GetEffort()
 	eq := ""
 	if n := e.GetEqualAllocationReplications(); n > 0 {
-		eq = fmt.Sprintf("; equal allocation to the same precision: %s runs (this used %s %% of it)",
-			thousands(n), num(100*float64(e.GetReplications())/float64(n), 0))
+		eq = fmt.Sprintf("; equal allocation to the same precision: %s %s (this used %s %% of it)",
+			thousands(n), plural(n, "run", "runs"), num(100*float64(e.GetReplications())/float64(n), 0))
 	}
-	effort := fmt.Sprintf("%s candidate runs + %s fixed-power runs in %s (at most %d replications of one candidate)%s; %s user-slots in %s s",
-		thousands(e.GetReplications()), thousands(e.GetBaselineReplications()), clirender.Count(int(e.GetStages()), "round", "rounds"), e.GetMaxReplicationsUsed(), eq,
+	effort := fmt.Sprintf("%s %s + %s %s in %s (at most %s of one candidate)%s; %s user-slots in %s s",
+		thousands(e.GetReplications()), plural(e.GetReplications(), "candidate run", "candidate runs"),
+		thousands(e.GetBaselineReplications()), plural(e.GetBaselineReplications(), "fixed-power run", "fixed-power runs"),
+		clirender.Count(int(e.GetStages()), "round", "rounds"), clirender.Count(int(e.GetMaxReplicationsUsed()), "replication", "replications"), eq,
 		thousands(e.GetUserSlots()), num(e.GetWallTimeS(), 2))
 	if e.GetBudgetExhausted() {
 		effort += "; the budget ran out before every comparison was settled"
@@ -259,7 +262,7 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 		if i := cr.GetCandidate(); i >= 0 && int(i) < len(cands) {
 			label = clirender.PointLabel(cands[i])
 		}
-		diff := num(scale*cr.GetDiffToBest().GetMean(), dec)
+		diff := repEstimate(cr.GetDiffToBest(), scale, dec) // as the CLI: the paired difference with its interval
 		if cr.GetCandidate() == best {
 			diff = "–" // the reference itself, as in the CLI
 		}

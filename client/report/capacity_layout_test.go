@@ -28,7 +28,7 @@ func TestCapacityPageLayout(t *testing.T) {
 		class   string
 	}{
 		{"single cell", false, "Up to 23 users meet the limits.",
-			[]string{"20 in the group, 23 users in all", "f = 0, 1 sector(s)", "2 per count", "fadeloop-loop/9.9.9"},
+			[]string{"20 in the group, 23 users in all", "f = 0, 1 sector", "2 per count", "fadeloop-loop/9.9.9"},
 			[]string{"per cell", "not computed in multi-cell"}, "ok"},
 		{"layout", true, "Up to 23 users per cell meet the limits. Caution: at 23 users per cell the noise rise 5.74 [3.19, 8.29] dB is not separated from the 6.00 dB limit.",
 			[]string{"20 in the group, 23 users per cell (483 in the layout's 21 cells)", "f = 1.65 measured in the layout at the capacity count, 1 sector per cell",

@@ -118,15 +118,23 @@ func TestLayoutRunReport(t *testing.T) {
 				check(label, fixed(scale*e.GetValue(), dec), wantCI(e, scale, dec))
 			}
 			// Decimals as the CLI table prints them (client/render/layout.go).
-			est("other-cell / own-cell interference f", o.GetOtherToOwn(), 1, 3)
+			est("f", o.GetOtherToOwn(), 1, 3)
 			check("f 5th pct over cells and slots", fixed(o.GetOtherToOwnSpreadP5(), 3), "")
 			check("f 95th pct over cells and slots", fixed(o.GetOtherToOwnSpreadP95(), 3), "")
-			est("noise rise mean (dB)", o.GetNoiseRiseDb(), 1, 2)
+			est("noise rise (dB)", o.GetNoiseRiseDb(), 1, 2)
 			est("outage (%)", o.GetOutageProbability(), 100, 2)
 			est("soft-handover share (%)", o.GetSoftHandoverShare(), 100, 1)
 			est("time at max power (%)", o.GetTimeAtMaxPower(), 100, 2)
 			est("time at max power, cell edge (%)", o.GetTimeAtMaxEdge(), 100, 2)
-			for i, name := range []string{"1", "2", "3+"} {
+			// At most 3 cells may be active (max_active 3): the engine's
+			// "3 or more" state is exactly 3.
+			if m := in.Run.GetNormalisedScenario().GetLayout().GetHandover().GetMaxActive(); m != 3 {
+				t.Fatalf("fixture %s: max_active %d, want 3", tc.file, m)
+			}
+			if _, ok := rows["3+"]; ok {
+				t.Errorf("handover row 3+ with max_active 3")
+			}
+			for i, name := range []string{"1", "2", "3"} {
 				s, out, mx := o.GetLegShare()[i], o.GetOutageByLegs()[i], o.GetTimeAtMaxByLegs()[i]
 				check(name, fixed(100*s.GetValue(), 1), wantCI(s, 100, 1), fixed(100*out.GetValue(), 2), wantCI(out, 100, 2),
 					fixed(100*mx.GetValue(), 2), wantCI(mx, 100, 2))
@@ -142,7 +150,17 @@ func TestLayoutRunReport(t *testing.T) {
 			if n := strings.Count(page, "(no interval)"); tc.intervals && n != 0 {
 				t.Errorf("intervals given, yet %d × (no interval)", n)
 			}
-			for _, bad := range []string{"NaN", "[–", "wrap-around true"} {
+			// One name per figure: f is named with its JSON field once,
+			// intervals are "95 % interval" as in the CLI, served users a mean.
+			if n := strings.Count(page, "f (other_to_own in the JSON and CSV)"); n != 1 {
+				t.Errorf("f named with its field %d times, want once", n)
+			}
+			for _, want := range []string{"mean served users", "95 % interval", "cells in the active set (legs)"} {
+				if !strings.Contains(page, want) {
+					t.Errorf("page lacks %q", want)
+				}
+			}
+			for _, bad := range []string{"NaN", "[–", "wrap-around true", "95 % CI", "other-cell / own-cell interference f", "first drop"} {
 				if strings.Contains(page, bad) {
 					t.Errorf("page says %q", bad)
 				}

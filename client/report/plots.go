@@ -76,7 +76,7 @@ func runFigures(rep *pb.RunReport) ([]figure, error) {
 			return nil, err
 		}
 		fig, err := plots.LayoutMap("Users by outage (replication 0, "+strconv.Itoa(len(d.Users))+" users)", d)
-		if err := addFigure(&out, "The layout to scale: sites, sector boresights, cells named as in the per-cell table, and each user of the first drop, its marker shape by its group and its colour by its outage.", fig, err); err != nil {
+		if err := addFigure(&out, "The layout to scale: sites, sector boresights, cells named as in the per-cell table, and each user of replication 0, its marker shape by its group and its colour by its outage.", fig, err); err != nil {
 			return nil, err
 		}
 		return out, nil
@@ -97,7 +97,7 @@ func runFigures(rep *pb.RunReport) ([]figure, error) {
 			minP, maxP = il.GetMinPowerDbm(), il.GetMaxPowerDbm()
 		}
 		fig, err := plots.PowerVsDistance(titled("Tx power against distance", title), runDistancePoints(rep), minP, maxP, "5th–95th percentile")
-		if err := addFigure(&out, "Mean transmit power of each user against its distance, with the 5th–95th percentile range and the power limits.", fig, err); err != nil {
+		if err := addFigure(&out, "Mean Tx power of each user against its distance, with the 5th–95th percentile range and the power limits.", fig, err); err != nil {
 			return nil, err
 		}
 	}
@@ -136,7 +136,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 		// enough for the figure's title.
 		fig, err := plots.LayoutSweep("Multi-cell figures against "+x, clirender.AxisTitle(x), ls)
 		fig.NoIntervalsBecause(clirender.SweepNoIntervalReason(pts))
-		if err := addFigure(&out, "Other-cell to own-cell interference f and outage of the layout against "+x+", with 95 % confidence intervals where the runs give them.", fig, err); err != nil {
+		if err := addFigure(&out, "f (other-cell / own-cell interference) and outage of the layout against "+x+", with their 95 % intervals where the runs give them.", fig, err); err != nil {
 			return nil, err
 		}
 	case kind == "heatmap":
@@ -149,7 +149,7 @@ func sweepFigures(title string, axes []*pb.SweepAxis, pts []*pb.SweepPoint) ([]f
 		ls, _ := clirender.SweepStepLines(axes, pts)
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error std against step size", title), ls)
 		fig.NoIntervalsBecause(clirender.SweepNoIntervalReason(pts))
-		if err := addFigure(&out, "Outage and SIR error standard deviation against inner-loop step size, with 95 % confidence intervals.", fig, err); err != nil {
+		if err := addFigure(&out, "Outage and SIR error std against inner-loop step size, with their 95 % intervals.", fig, err); err != nil {
 			return nil, err
 		}
 	case kind == "cdf" && len(pts) <= 8:
@@ -176,7 +176,7 @@ func tuneFigures(title string, rec *pb.Recommendation) ([]figure, error) {
 		}
 	} else if ls, ok := clirender.TuneStepLines(rec); ok {
 		fig, err := plots.StepSensitivity(titled("Outage and SIR error std against step size per condition", title), ls)
-		if err := addFigure(&out, "Outage and SIR error standard deviation of every candidate per condition, with their intervals; the recommended setting of each condition is ringed.", fig, err); err != nil {
+		if err := addFigure(&out, fmt.Sprintf("Outage and SIR error std of every candidate per condition, with their %g %% intervals; the recommended setting of each condition is ringed.", 100*rec.GetConfidence()), fig, err); err != nil {
 			return nil, err
 		}
 	}

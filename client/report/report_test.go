@@ -137,6 +137,8 @@ func TestReportFromResultFiles(t *testing.T) {
 			[]string{"Lowest outage at", "inner_loop.update_rate_hz", "outage (%) over step × update rate"}, false, true},
 		{"tune.json", "tune", 1, []string{"verdict", "conditions", "candidates", "plots", "reproduce", "scenario"},
 			[]string{"Use step_db=", "Runner-up", "paired replications", "candidate runs", "3 km/h", "60 km/h"}, false, false},
+		{"layout_run1.json", "run-layout", 1, []string{"verdict", "figures", "layout", "plots", "reproduce", "scenario"},
+			[]string{"f (other_to_own in the JSON and CSV)", "mean served users", "(no interval)"}, true, true},
 		{"cap.json", "capacity", 0, []string{"verdict", "evaluated", "reproduce", "scenario"},
 			[]string{"Capacity of", "Pole capacity (Gilhousen et al. 1991)", "interference equation"}, false, false},
 	}
@@ -176,6 +178,11 @@ func TestReportFromResultFiles(t *testing.T) {
 					t.Errorf("page does not say %q", m)
 				}
 			}
+			// One caution per page: the box under the verdict (not again in
+			// the footer, nor among the engine's notes).
+			if n := strings.Count(body, "regulatory limits on transmit power and exposure") + strings.Count(body, "do not replace the operator"); n != 1 {
+				t.Errorf("caution shown %d times, want once", n)
+			}
 			if strings.Contains(body, "engine version") && tc.engineTag && strings.Contains(body, "not recorded in this result") {
 				t.Errorf("engine version not shown although the result carries it")
 			}
@@ -191,7 +198,8 @@ func TestRunFiguresMatchReport(t *testing.T) {
 	agg := in.Run.GetAggregate()
 	for _, fd := range clirender.Figures() {
 		e := fd.Get(agg)
-		row := fmt.Sprintf("<td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>",
+		// One column "95 % interval" with "[lo, hi]", as the CLI's run table.
+		row := fmt.Sprintf("<td>%s</td><td class=\"n\">%s</td><td>[%s,\u00a0%s]</td>",
 			htmlEsc(fd.Label), num(fd.Scale*e.GetValue(), fd.Dec), num(fd.Scale*e.GetCiLow(), fd.Dec), num(fd.Scale*e.GetCiHigh(), fd.Dec))
 		if !strings.Contains(page, row) {
 			t.Errorf("figure row missing or wrong: %s", row)
@@ -369,7 +377,7 @@ func TestNoIntervalVerdicts(t *testing.T) {
 		t.Fatal(err)
 	}
 	text := d.Verdict.Headline + "\n" + strings.Join(d.Verdict.Lines, "\n")
-	for _, want := range []string{"Outage 5.00 % (no interval)", "SIR error std 2.00 dB (no interval)", "Achieved BLER 10.00 % (no interval)", "mean noise rise 1.00 dB."} {
+	for _, want := range []string{"Outage 5.00 % (no interval)", "SIR error std 2.00 dB (no interval)", "BLER 10.00 % (no interval)", "time at max power 0.00 %, noise rise 1.00 dB."} {
 		if !strings.Contains(text, want) {
 			t.Errorf("run verdict does not say %q:\n%s", want, text)
 		}
@@ -432,7 +440,7 @@ func TestLayoutSweepReport(t *testing.T) {
 	if strings.Contains(strings.Join(head, "|"), "p95") || !strings.Contains(strings.Join(head, "|"), "outage") {
 		t.Errorf("point table head %q", head)
 	}
-	if len(captions) != 1 || !strings.Contains(captions[0], "Other-cell to own-cell interference f") {
+	if len(captions) != 1 || !strings.Contains(captions[0], "f (other-cell / own-cell interference) and outage") {
 		t.Errorf("figures %q, want the layout plot", captions)
 	}
 }

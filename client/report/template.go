@@ -120,7 +120,7 @@ footer { margin-top: 32px; color: var(--muted); font-size: 12px; border-top: 1px
 </div>{{end}}
 </section>
 
-<footer>Written by fadeloop. {{.Caution}}</footer>
+<footer>Written by fadeloop.</footer>
 </body>
 </html>
 `

@@ -7,6 +7,7 @@ import (
 
 	"golang.org/x/net/html"
 
+	clirender "github.com/fadeloop/fadeloop/client/render"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -168,4 +169,55 @@ func leadingNumber(t *testing.T, cell string) float64 {
 		t.Fatalf("cell %q: %v", cell, err)
 	}
 	return v
+}
+
+// TestTuneConditionFacts: the f_D·T of a condition reads the same in the
+// CLI table, the HTML conditions table and the HTML note (its users'
+// range, from their speeds), and the notes state measurements only: the
+// engine's plain-language reason, which adds why a step did best (limit
+// cycle, fading regime, "cannot follow the fades"), is not shown. f_D·T
+// is checked against the Doppler shift f_D = v·f_c/c (common practice)
+// with T = 1/1500 s (both fixtures' update rate) and each fixture's
+// carrier; 4 decimals, as the tables print it.
+func TestTuneConditionFacts(t *testing.T) {
+	fdt := func(kmh, fc float64) float64 { return kmh / 3.6 * fc / 299792458 / 1500 }
+	for _, tc := range []struct {
+		file string
+		cell string // the f_D·T cell of the first condition
+		note string // its note, or "" when no note is checked
+	}{
+		// The multi-cell example: 3 and 50 km/h at 1.95 GHz.
+		{"tune_layout_unmet.json", fixed(fdt(3, 1.95e9), 4) + "–" + fixed(fdt(50, 1.95e9), 4),
+			"base: f_D·T " + fixed(fdt(3, 1.95e9), 4) + "–" + fixed(fdt(50, 1.95e9), 4) + " over its users (3 and 50 km/h)."},
+		// An older result without the smallest f_D·T or the speeds: its
+		// largest alone (3 km/h at 2 GHz).
+		{"tune.json", fixed(fdt(3, 2e9), 4), ""},
+	} {
+		t.Run(tc.file, func(t *testing.T) {
+			in := readFixture(t, tc.file)
+			page := render(t, in)
+			doc, err := html.Parse(strings.NewReader(page))
+			if err != nil {
+				t.Fatal(err)
+			}
+			rows := sectionTables(doc, "conditions")[0]
+			if h, r := rows[0], rows[1]; h[len(h)-1] != "f_D·T" || r[len(r)-1] != tc.cell {
+				t.Errorf("HTML f_D·T %q (head %q), want %q", r[len(r)-1], h[len(h)-1], tc.cell)
+			}
+			var cli strings.Builder
+			clirender.TuneTable(&cli, in.TuneRequest, in.Tune)
+			if tc.note != "" && !strings.Contains(cli.String(), "  "+tc.cell+"\n") { // the CLI reads current results only
+				t.Errorf("CLI table lacks the f_D·T %q:\n%s", tc.cell, cli.String())
+			}
+			body := text(doc)
+			if tc.note != "" && !strings.Contains(body, tc.note) {
+				t.Errorf("page lacks the note %q", tc.note)
+			}
+			for _, bad := range []string{"limit cycle", "fading regime", "cannot follow", "did best", "balances", "dominate"} {
+				if strings.Contains(body, bad) || strings.Contains(cli.String(), bad) {
+					t.Errorf("an explanation (%q) is shown", bad)
+				}
+			}
+		})
+	}
 }

@@ -200,7 +200,7 @@ func TestRunDefault(t *testing.T) {
 	}
 	r := ok(t, args...)
 	for _, want := range []string{"suburban macro cell", "figure", "SIR error std (dB)", "outage (%)",
-		"Tx power mean (dBm)", "per distance bin", "95 % interval"} {
+		"mean Tx power (dBm)", "per distance bin", "95 % interval"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("table lacks %q:\n%s", want, r.stdout)
 		}
@@ -768,11 +768,14 @@ func TestMultiCellRunAndMap(t *testing.T) {
 	}
 	r := ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "2", "--quiet",
 		"--plot", "map="+filepath.Join(dir, "map.png"), "--plot", "map-power="+filepath.Join(dir, "map-power.svg"))
-	for _, want := range []string{"fadeloop-multicell", "other-cell / own-cell interference f", "soft-handover share (%)",
+	for _, want := range []string{"fadeloop-multicell", "f (other_to_own in the JSON and CSV)", "soft-handover share (%)",
 		"by handover state", "S6/2", "noise rise 95th pct (dB)", "do not replace the operator's planning"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("run table lacks %q:\n%s", want, r.stdout)
 		}
+	}
+	if n := strings.Count(r.stdout, "do not replace the operator"); n != 1 {
+		t.Errorf("run table shows the caution %d times, want once", n)
 	}
 	// (The notes name convergence time among what is not computed; no
 	// table row may show it.)

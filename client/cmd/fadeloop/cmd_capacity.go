@@ -44,7 +44,8 @@ Output formats:
          noise_rise_ok, load_feasible, capacity (true|false), n, then for
          every figure F of sir_error_mean_db, sir_error_std_db,
          outage_probability, achieved_bler, tx_power_mean_dbm,
-         max_power_fraction, noise_rise_mean_db its mean F, F_low and F_high.
+         max_power_fraction, noise_rise_mean_db its mean F, F_ci_low and
+         F_ci_high (its 95 % interval, suffixed as in "run" and "sweep").
          Multi-cell (layout.sites set): the users column holds users per
          cell and is named users_per_cell (it was total_users), layout_users
          (per cell × cells) follows it, and load_feasible is empty: the

@@ -34,16 +34,18 @@ func init() {
 		details: `Runs one scenario (the built-in default when no file is given; see
 "fadeloop example" for it with comments) and prints the aggregate figures,
 the figures per distance bin and, with --per-user, per user. Every figure
-carries its 95 % confidence interval (batch means over time and
-replications), shown as [low, high] in tables (intervals of proportions and spreads
-are asymmetric). With --report FILE.html the HTML report is written too.
+carries its 95 % interval (a confidence interval from batch means over time
+and replications), shown as [low, high] in tables (intervals of proportions
+and spreads are asymmetric). With --report FILE.html the HTML report is
+written too.
 
 Output formats:
   table  aligned tables for people
   csv    one row per scope: columns scope (aggregate|bin|user), index, group,
          distance_m, min_distance_m, max_distance_m, users, user_slots, then
-         for every figure F its value F, F_ci_low and F_ci_high; figures in
-         order: ` + render.Wrap(strings.Join(render.FigureKeys(), ", "), 62, "         ") + `.
+         for every figure F its value F, then F_ci_low and F_ci_high (its 95 %
+         interval); figures in order:
+         ` + render.Wrap(strings.Join(render.FigureKeys(), ", "), 62, "         ") + `.
          Probabilities are fractions (0..1), powers dBm, SIR and noise rise dB.
          An empty cell is a value not computed (or an interval not given).
          Multi-cell (layout.sites set): one aggregate row of the layout's

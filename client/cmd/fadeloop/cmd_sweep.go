@@ -43,10 +43,11 @@ axes (path, values or first, last, count, log), point_indices, seed_mode, detail
 (used when no scenario file is given).
 
 Output formats:
-  table  one row per point: index, axis values, main figures with their 95 % CI [low, high]
+  table  one row per point: index, axis values, main figures with their 95 % interval [low, high]
   csv    columns index, seed, one column per axis (named by its path), feasible
          (true|false), users, user_slots, then for every figure F its value F,
-         F_ci_low and F_ci_high (same figures and units as "run --format csv").
+         F_ci_low and F_ci_high, its 95 % interval (same figures and units as
+         "run --format csv").
          Multi-cell (layout.sites set): feasible, the percentiles and
          convergence_time_s are empty (not computed), and other_to_own and
          soft_handover_share follow with their intervals, as in "run".

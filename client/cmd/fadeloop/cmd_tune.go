@@ -58,12 +58,14 @@ Output formats:
          weight, candidate, one column per axis (named by its path), status,
          feasible, best (true|false), verdict (winner|tie|
          constraints_unmet|single, of the row's scope), rank (1 =
-         recommended; rows in this order), objective, objective_low,
-         objective_high, diff_to_best, diff_low, diff_high, n, then for every
-         figure F of sir_error_mean_db, sir_error_std_db, outage_probability,
+         recommended; rows in this order), objective, objective_ci_low,
+         objective_ci_high, diff_to_best, diff_to_best_ci_low,
+         diff_to_best_ci_high, n, then for every figure F of
+         sir_error_mean_db, sir_error_std_db, outage_probability,
          achieved_bler, tx_power_mean_dbm, max_power_fraction,
-         noise_rise_mean_db its mean F, F_low and F_high (intervals at
-         --confidence; probabilities as fractions)
+         noise_rise_mean_db its mean F, F_ci_low and F_ci_high (the interval
+         at --confidence, suffixed as in "run" and "sweep"; probabilities as
+         fractions). An empty cell is a value not computed.
   json   the fadeloop.v1 Recommendation in protojson with proto field names
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to auto):

@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	"github.com/fadeloop/fadeloop/service"
 	"github.com/fadeloop/fadeloop/service/jobs"
 )
@@ -75,7 +76,7 @@ func (e *env) searchSession(ctx context.Context, q *sweepQueueFlags, kind string
 		return nil, nil, nil, nil, err
 	}
 	if done > 0 { // a resumed search says so, and where its store is
-		fmt.Fprintf(e.stderr, "%s job %s (%s): %d replications already stored\n", kind, id, jq.Where(), done)
+		fmt.Fprintf(e.stderr, "%s job %s (%s): %s already stored\n", kind, id, jq.Where(), render.Count(int(done), "replication", "replications"))
 	}
 	// Replications in flight: enough to keep every worker busy while
 	// results travel back (the search's answer does not depend on it).
@@ -122,7 +123,7 @@ func (j *searchJob) stopped(ctx context.Context, e *env, err error) error {
 	if status.Code(err) == codes.DeadlineExceeded || errors.Is(ctx.Err(), context.DeadlineExceeded) {
 		why = " (deadline reached)"
 	}
-	fmt.Fprintf(e.stderr, "%s job %s interrupted%s: %d replications stored in the job %s; run the same command again to resume (stored replications are not recomputed)\n",
-		j.kind, j.id, why, done, j.jq.Where())
+	fmt.Fprintf(e.stderr, "%s job %s interrupted%s: %s stored in the job %s; run the same command again to resume (stored replications are not recomputed)\n",
+		j.kind, j.id, why, render.Count(int(done), "replication", "replications"), j.jq.Where())
 	return sweepIncomplete{j.kind + " not complete"}
 }
