@@ -57,12 +57,13 @@ def main():
     g = report.aggregate
     print("scenario        %s" % report.normalised_scenario.name)
     print("users           %d" % g.users)
-    print("slots           %d x %d replication(s), seed %d" % (report.slots, report.replications, report.seed))
+    reps = "replication" if report.replications == 1 else "replications"
+    print("slots           %d x %d %s, seed %d" % (report.slots, report.replications, reps, report.seed))
     print("SIR error std   %.3f dB  [%.3f, %.3f]" % (g.sir_error_std_db.value, g.sir_error_std_db.ci_low,
                                                    g.sir_error_std_db.ci_high))
     print("outage          %.3f %%  [%.3f, %.3f]" % (100 * g.outage_probability.value, 100 * g.outage_probability.ci_low,
                                                     100 * g.outage_probability.ci_high))
-    print("Tx power mean   %.2f dBm" % g.tx_power_mean_dbm.value)
+    print("mean Tx power   %.2f dBm" % g.tx_power_mean_dbm.value)
     print("user-slots/s    %.0f" % report.user_slots_per_s)
     return 0
 
