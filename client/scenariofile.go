@@ -46,10 +46,13 @@ type ScenarioFileError struct {
 	Violations []FileViolation
 }
 
-// Error lists the violations, one "file:line: path: rule" per line.
+// Error lists the violations, one "file:line: path: rule" per line, in
+// the order a reader meets them: the file's, by line (ties in the order
+// found), then the file's without a line, then those from the command
+// line (Source set).
 func (e *ScenarioFileError) Error() string {
 	var b strings.Builder
-	for i, v := range e.Violations {
+	for i, v := range e.ordered() {
 		if i > 0 {
 			b.WriteByte('\n')
 		}
@@ -70,6 +73,29 @@ func (e *ScenarioFileError) Error() string {
 		b.WriteString(v.Rule)
 	}
 	return b.String()
+}
+
+// ordered returns the violations in reading order (see Error).
+func (e *ScenarioFileError) ordered() []FileViolation {
+	rank := func(v FileViolation) (int, int) {
+		switch {
+		case v.Source != "":
+			return 2, 0
+		case v.Line == 0:
+			return 1, 0
+		}
+		return 0, v.Line
+	}
+	out := slices.Clone(e.Violations)
+	slices.SortStableFunc(out, func(a, b FileViolation) int {
+		ga, la := rank(a)
+		gb, lb := rank(b)
+		if ga != gb {
+			return ga - gb
+		}
+		return la - lb
+	})
+	return out
 }
 
 // Annotate appends note to the rule of every violation whose path starts

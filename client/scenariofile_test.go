@@ -142,3 +142,32 @@ func TestLocateServerViolations(t *testing.T) {
 		t.Errorf("got\n%s\nwant\n%s", e.Error(), want)
 	}
 }
+
+// TestViolationsInLineOrder: the server sorts violations by field path;
+// the file's are listed by line (ties in the order given), then the
+// file's without a line, then the command line's (Source set), so that a
+// reader goes down the file once.
+func TestViolationsInLineOrder(t *testing.T) {
+	e := &ScenarioFileError{File: "s.yaml", Violations: []FileViolation{
+		{Path: "inner_loop.step_db", Rule: "r55", Line: 55},
+		{Source: "--axis 1", Rule: "axis"},
+		{Path: "layout.handover.max_active", Rule: "r26", Line: 26},
+		{Path: "groups", Rule: "no line"},
+		{Path: "layout.sites", Rule: "r10a", Line: 10},
+		{Path: "layout.sites", Rule: "r10b", Line: 10},
+		{Path: "layout.sectors_per_site", Rule: "r11", Line: 11},
+	}}
+	want := "s.yaml:10: layout.sites: r10a\n" +
+		"s.yaml:10: layout.sites: r10b\n" +
+		"s.yaml:11: layout.sectors_per_site: r11\n" +
+		"s.yaml:26: layout.handover.max_active: r26\n" +
+		"s.yaml:55: inner_loop.step_db: r55\n" +
+		"s.yaml: groups: no line\n" +
+		"--axis 1: axis"
+	if got := e.Error(); got != want {
+		t.Errorf("got\n%s\nwant\n%s", got, want)
+	}
+	if e.Violations[0].Line != 55 {
+		t.Error("Error reordered the violations in place")
+	}
+}

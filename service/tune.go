@@ -14,6 +14,7 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	"github.com/fadeloop/fadeloop/loop/tune"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -86,7 +87,7 @@ func convertSearch[R any](s *Server, req interface {
 	out = conv()
 	b := base(out).Clone()
 	b.Normalise()
-	bvs, _ := violationsOf(b.Validate().Err(), "base.")
+	bvs, _ := violationsOf(multicell.Validate(b).Err(), "base.")
 	return out, mergeViolations(vs, bvs)
 }
 

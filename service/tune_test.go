@@ -262,7 +262,7 @@ func TestTuneBadInput(t *testing.T) {
 		{"duplicate axis value", mut(func(r *pb.TuneRequest) { r.Axes[0].Values = []float64{1, 1} }), "axes[0].values[1]"},
 		{"unknown axis path", mut(func(r *pb.TuneRequest) { r.Axes[0].Path = "inner_loop.stepsize_db" }), "axes[0].path"},
 		{"empty axis path", mut(func(r *pb.TuneRequest) { r.Axes[0].Path = "" }), "axes[0].path"},
-		{"axis value out of the field's range", mut(func(r *pb.TuneRequest) { r.Axes[0].Values = []float64{1, 20} }), "axes[0]"},
+		{"axis value out of the field's range", mut(func(r *pb.TuneRequest) { r.Axes[0].Values = []float64{1, 20} }), "axes[0].values[1]"},
 		{"override without a value", mut(func(r *pb.TuneRequest) { r.Conditions[0].Overrides[0].Value = nil }), "conditions[0].overrides[0].value"},
 		{"unknown override path", mut(func(r *pb.TuneRequest) { r.Conditions[1].Overrides[0].Path = "groups[3].count" }), "conditions[1].overrides[0].path"},
 		{"condition weight zero", mut(func(r *pb.TuneRequest) { r.Conditions[0].Weight = 0 }), "conditions[0].weight"},

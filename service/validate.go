@@ -41,7 +41,7 @@ func (p *protoValidator) check(msg proto.Message, prefix string) []Violation {
 		return []Violation{{Field: field, Description: "cannot be validated: " + err.Error()}}
 	}
 	out := make([]Violation, 0, len(ve.Violations))
-	for _, v := range ve.Violations {
+	for i, v := range ve.Violations {
 		path := protovalidate.FieldPathString(v.Proto.GetField())
 		field := prefix + path
 		if path == "" {
@@ -50,13 +50,18 @@ func (p *protoValidator) check(msg proto.Message, prefix string) []Violation {
 		desc := v.Proto.GetMessage()
 		if ed := enumOf(v.FieldDescriptor); ed != nil && strings.HasPrefix(v.Proto.GetRuleId(), "enum.") {
 			desc = enumRule(ed, v.FieldValue)
-		}
-		if id := v.Proto.GetRuleId(); id != "" {
-			if desc == "" {
-				desc = id
-			} else {
-				desc += " [" + id + "]"
+		} else if desc != "" {
+			zero := ""
+			if i < MaxViolations { // the rest are not shown (capViolations)
+				zero = p.zeroNote(msg, v.Proto.GetField().GetElements())
 			}
+			desc = describeValue(desc, zero, v.FieldDescriptor, v.FieldValue)
+		}
+		if desc == "" {
+			// The rule's id (e.g. "double.gte_lte") is shown only when
+			// the rule has no message: it is the validator's name for the
+			// rule, not words for the user.
+			desc = v.Proto.GetRuleId()
 		}
 		out = append(out, Violation{Field: field, Description: desc})
 	}
@@ -94,6 +99,21 @@ func enumRule(ed protoreflect.EnumDescriptor, got protoreflect.Value) string {
 		}
 	}
 	return fmt.Sprintf("must be one of %s (or unset for the default), got %s", list, g)
+}
+
+// describeValue completes a .proto rule's message for a scalar field: an
+// allowed-value list shows 0 only through the note saying what 0 means
+// ("must be in list [1, 7, 19] (0 or unset: single cell, no layout)"),
+// a range that admits 0 carries the note, and the value given follows
+// ("…, got 5").
+func describeValue(desc, zero string, fd protoreflect.FieldDescriptor, got protoreflect.Value) string {
+	if zero != "" {
+		desc = strings.Replace(desc, "[0, ", "[", 1) + " (" + zero + ")"
+	}
+	if fd != nil && !fd.IsList() && !fd.IsMap() && numericKind(fd.Kind()) && got.IsValid() {
+		desc += fmt.Sprintf(", got %v", got.Interface())
+	}
+	return desc
 }
 
 func trimDot(s string) string {

@@ -287,7 +287,8 @@ func (c Config) Validate() loop.Violations {
 	case FastFadingNone, FastFadingSlowTowardOthers:
 	case FastFadingFull:
 		if users*c.Layout.Cells() > MaxFullFadingLinks {
-			add("channel.fast_fading", "FULL needs users × cells <= %d, got %d", MaxFullFadingLinks, users*c.Layout.Cells())
+			add("channel.fast_fading", "FAST_FADING_FULL needs users × cells <= %d, got %d (%d users × %d cells): use FAST_FADING_SLOW_TOWARD_OTHERS, or fewer sites, sectors or users per cell",
+				MaxFullFadingLinks, users*c.Layout.Cells(), users, c.Layout.Cells())
 		}
 	default:
 		add("channel.fast_fading", "must be one of NONE, SLOW_TOWARD_OTHERS, FULL, got %d", c.Channel.FastFading)

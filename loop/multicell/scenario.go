@@ -67,6 +67,21 @@ func RunScenario(ctx context.Context, sc loop.Scenario, opts loop.RunOptions) (*
 	return out, nil
 }
 
+// Validate returns every rule sc (normalised) breaks for the engine that
+// RunScenario would run it on: loop.Scenario.Validate, then, for a
+// multi-cell scenario that passes it, the multi-cell engine's own rules
+// (FromScenario: layout ranges, wrap-around, the FULL fading link limit,
+// ...) with scenario field paths. It is the check RunScenario makes before
+// it runs, for callers that must reject a scenario before any work (the
+// sweep, tune and capacity planners).
+func Validate(sc loop.Scenario) loop.Violations {
+	if vs := sc.Validate(); len(vs) > 0 || !sc.MultiCell() {
+		return vs
+	}
+	_, vs := FromScenario(sc)
+	return vs
+}
+
 // cloneScenario copies the slices of sc that Normalise may change.
 func cloneScenario(sc loop.Scenario) loop.Scenario {
 	gs := make([]loop.UserGroup, len(sc.Groups))

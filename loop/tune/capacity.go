@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // PoleParams are the inputs of the pole-capacity estimate of a CDMA cell.
@@ -249,7 +250,7 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 		}
 		sc := base.Clone()
 		sc.Groups[req.Group].Count = n
-		if vv := sc.Validate(); len(vv) > 0 {
+		if vv := multicell.Validate(sc); len(vv) > 0 {
 			for i := range vv {
 				vv[i].Rule += fmt.Sprintf(" (at count %d)", n)
 			}

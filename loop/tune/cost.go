@@ -60,7 +60,7 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 			}
 			sc.Normalise()
 			if validate {
-				for _, x := range sc.Validate() {
+				for _, x := range multicell.Validate(sc) {
 					v = append(v, loop.Violation{Field: fmt.Sprintf("axes[%d].%s[%d]", a, field, k),
 						Rule: fmt.Sprintf("%s = %s makes %s invalid: %s", g.Axes[a].Path, c.valueText(), x.Field, x.Rule)})
 				}
@@ -77,6 +77,16 @@ func probeAxes(base loop.Scenario, g *Grid, validate bool) (Point, loop.Violatio
 		}
 	}
 	return heavy, v
+}
+
+// CheckAxes reports every axis value of g that makes base invalid on its
+// own (base with that one value set, normalised, checked by
+// multicell.Validate), at "axes[a].values[k]" ("axes[a].names[k]") with a
+// rule naming the value and the field it breaks, as PlanSweep and
+// PlanTune do; at most MaxSweepViolations of them.
+func CheckAxes(base loop.Scenario, g *Grid) loop.Violations {
+	_, v := probeAxes(base, g, true)
+	return capViolations(v)
 }
 
 // CapacityCost bounds the work of Capacity(req) in tap-slots without
@@ -187,7 +197,7 @@ func (req CapacityRequest) check() (capacitySettings, loop.Violations) {
 	base.Run.Replications = 1
 	probe := base.Clone()
 	probe.Groups[req.Group].Count = lo
-	if vv := probe.Validate(); len(vv) > 0 {
+	if vv := multicell.Validate(probe); len(vv) > 0 {
 		return set, vv
 	}
 	set = capacitySettings{base: base, others: others, top: top, lo: lo, hi: hi, reps: reps, conf: conf, nrLim: nrLim}

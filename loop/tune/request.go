@@ -6,6 +6,7 @@ import (
 	"math"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 // This file holds a tuning request: its settings, defaults and limits,
@@ -231,7 +232,7 @@ func buildScenarios(base loop.Scenario, pts []Point, conds []Condition) ([][]loo
 			}
 			sc.Run.Replications = 1
 			sc.Normalise()
-			for _, x := range sc.Validate() {
+			for _, x := range multicell.Validate(sc) {
 				key := x.Field + "\x00" + x.Rule
 				if seen[key] {
 					continue
@@ -295,7 +296,12 @@ func PlanTune(req Request) (*TunePlan, error) {
 		return nil, v
 	}
 	base := req.Base.Clone()
-	heavy, _ := probeAxes(base, grid, false)
+	// An axis value that makes the base invalid is the request's problem
+	// before any work, reported at axes[a].values[k] as PlanSweep does.
+	heavy, pv := probeAxes(base, grid, true)
+	if len(pv) > 0 {
+		return nil, capViolations(pv)
+	}
 	k := int64(grid.Size())
 	b := int64(0)
 	if !req.SkipBaseline {

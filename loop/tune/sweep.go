@@ -51,7 +51,7 @@ type SweepPlan struct {
 func PlanSweep(req SweepRequest) (*SweepPlan, error) {
 	base := req.Base.Clone()
 	base.Normalise()
-	if v := base.Validate(); len(v) > 0 {
+	if v := multicell.Validate(base); len(v) > 0 {
 		return nil, prefixed("base.", v)
 	}
 	var v loop.Violations
@@ -171,7 +171,7 @@ func PointScenario(base loop.Scenario, g *Grid, idx int64, mode SeedMode) (loop.
 	}
 	sc.Run.Seed = PointSeed(base.Run.Seed, idx, mode)
 	sc.Normalise()
-	if vs := sc.Validate(); len(vs) > 0 {
+	if vs := multicell.Validate(sc); len(vs) > 0 {
 		out := make(loop.Violations, len(vs))
 		for i, x := range vs {
 			out[i] = loop.Violation{Field: "axes", Rule: fmt.Sprintf("at grid point %d (%s): %s: %s", idx, pt.Label(), x.Field, x.Rule)}
@@ -204,7 +204,7 @@ type SweepPoint struct {
 func RunPoint(ctx context.Context, base loop.Scenario, axes []Axis, index int64, seedMode SeedMode) (*SweepPoint, error) {
 	b := base.Clone()
 	b.Normalise()
-	if v := b.Validate(); len(v) > 0 {
+	if v := multicell.Validate(b); len(v) > 0 {
 		return nil, prefixed("base.", v)
 	}
 	if seedMode != SeedModeCommon && seedMode != SeedModePerPoint {

@@ -88,7 +88,7 @@ func TuneReplicationUnit(job string, index int, base loop.Scenario, cand tune.Po
 	}
 	sc.Run.Seed = seed
 	sc.Normalise()
-	if v := sc.Validate(); len(v) > 0 {
+	if v := multicell.Validate(sc); len(v) > 0 {
 		return Unit{}, v
 	}
 	return Unit{Kind: KindTuneReplication, Job: job, Index: index, Scenario: sc, Point: cand,

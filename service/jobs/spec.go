@@ -4,10 +4,12 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"sort"
 
 	"github.com/fadeloop/fadeloop/loop"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 	"github.com/fadeloop/fadeloop/loop/tune"
 )
 
@@ -58,7 +60,7 @@ func Prepare(spec SweepSpec) (*Prepared, error) {
 	s := spec
 	s.Base = spec.Base.Clone()
 	s.Base.Normalise()
-	if v := s.Base.Validate(); len(v) > 0 {
+	if v := multicell.Validate(s.Base); len(v) > 0 {
 		return nil, prefixViolations(v, "base.")
 	}
 	g, err := tune.NewGrid(s.Base, s.Axes)
@@ -66,6 +68,9 @@ func Prepare(spec SweepSpec) (*Prepared, error) {
 		return nil, err
 	}
 	s.Axes = g.Axes
+	if v := tune.CheckAxes(s.Base, g); len(v) > 0 {
+		return nil, v
+	}
 	var vs loop.Violations
 	if len(s.Points) == 0 {
 		s.Points = make([]int, g.Size())
@@ -87,13 +92,14 @@ func Prepare(spec SweepSpec) (*Prepared, error) {
 		return nil, vs
 	}
 	for _, i := range s.Points {
-		sc, _, err := SweepPointScenario(s.Base, g, i, s.PerPointSeed)
-		if err != nil {
-			vs = append(vs, loop.Violation{Field: "axes", Rule: fmt.Sprintf("grid point %d: %v", i, err)})
-		} else {
-			for _, v := range sc.Validate() {
-				vs = append(vs, loop.Violation{Field: "axes", Rule: fmt.Sprintf("grid point %d: %s: %s", i, v.Field, v.Rule)})
+		// SweepPointScenario validates the point (multicell.Validate) and
+		// names it in its violations ("at grid point i (label): …").
+		if _, _, err := SweepPointScenario(s.Base, g, i, s.PerPointSeed); err != nil {
+			var pv loop.Violations
+			if !errors.As(err, &pv) {
+				pv = loop.Violations{{Field: "axes", Rule: fmt.Sprintf("at grid point %d: %v", i, err)}}
 			}
+			vs = append(vs, pv...)
 		}
 		if len(vs) >= 100 {
 			vs = append(vs, loop.Violation{Field: "axes", Rule: "more invalid grid points not listed"})

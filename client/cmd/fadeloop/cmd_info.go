@@ -4,10 +4,12 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"io"
 	"strconv"
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/render"
+	"github.com/fadeloop/fadeloop/loop/multicell"
 )
 
 func init() {
@@ -19,7 +21,14 @@ func init() {
 		details: `Asks the server (or the embedded one) for its engine and API versions, the
 limits it enforces on requests (users, groups, grid points, axis values,
 traced users, message sizes, work per call) and its built-in tap-delay
-profiles with their taps.
+profiles with their taps. The user limit is per scenario, and per cell
+(the sum of the groups' counts) in a layout.
+
+The multi-cell (layout) limits follow under their own heading: the
+server's answer does not carry them, so they are this client's build of
+the multi-cell engine (package loop/multicell), which is the server's own
+only when both are the same build (compare the multi-cell engine version
+line; the embedded server always is).
 
 Output formats: table; json (the fadeloop.v1 GetServerInfoResponse).
 
@@ -63,7 +72,7 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 			name string
 			v    int64
 		}{
-			{"users per scenario", int64(l.GetMaxUsers())},
+			{"users per scenario (layout: per cell)", int64(l.GetMaxUsers())},
 			{"groups per scenario", int64(l.GetMaxGroups())},
 			{"slots per replication", l.GetMaxSlots()},
 			{"grid points", int64(l.GetMaxGridPoints())},
@@ -77,6 +86,8 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 		}
 		t.Write(w)
 		fmt.Fprintln(w)
+		writeMulticellLimits(w)
+		fmt.Fprintln(w)
 		pt := render.NewTable("profile", "taps", "delays (ns)", "powers (dB)").AlignRight(1)
 		for _, p := range info.GetProfiles() {
 			var d, pw []string
@@ -89,4 +100,17 @@ func runInfo(e *env, _ *flag.FlagSet) action {
 		pt.Write(w)
 		return out.commit()
 	}
+}
+
+// writeMulticellLimits writes the multi-cell engine's limits as this
+// build defines them (loop/multicell): GetServerInfoResponse has no field
+// for them.
+func writeMulticellLimits(w io.Writer) {
+	fmt.Fprintf(w, "multi-cell limits of this client's engine %s (not in the server's answer):\n", multicell.EngineVersion)
+	t := render.NewTable("limit", "value").AlignRight(1)
+	t.Add("users in a layout (all cells)", render.GroupDigits(multicell.MaxUsers))
+	t.Add("users per cell in one group (count)", render.GroupDigits(multicell.MaxGroupSize))
+	t.Add("users × cells with FAST_FADING_FULL", render.GroupDigits(multicell.MaxFullFadingLinks))
+	t.Add("slots per replication", render.GroupDigits(int64(multicell.MaxSlots)))
+	t.Write(w)
 }

@@ -312,10 +312,9 @@ func sweepLocate(sf *client.ScenarioFile, grid *client.SourceFile, inv *client.I
 		// Without a grid file the axes came from --axis flags: name the
 		// flag (counted from 1, in the order given), not the scenario file.
 		for _, v := range rest {
-			fv := client.FileViolation{Path: v.Field, Rule: v.Rule}
-			if m := axisIndex.FindStringSubmatch(v.Field); m != nil {
-				n, _ := strconv.Atoi(m[1])
-				fv.Source = fmt.Sprintf("--axis %d", n+1)
+			fv, ok := axisFlagViolation(v)
+			if !ok {
+				fv = client.FileViolation{Path: v.Field, Rule: v.Rule}
 			}
 			all.Violations = append(all.Violations, fv)
 		}
@@ -323,5 +322,29 @@ func sweepLocate(sf *client.ScenarioFile, grid *client.SourceFile, inv *client.I
 	return all
 }
 
-// axisIndex matches a grid violation's axis: axes[i]….
-var axisIndex = regexp.MustCompile(`^axes\[(\d+)\]`)
+// axisFlagViolation names the --axis flag (counted from 1, in the order
+// given) of a violation of the request's axes when they came from flags:
+// "axes[i]…" is "--axis i+1"; an axis value that makes the scenario
+// invalid ("axes[i].values[k]", whose rule names the path, the value and
+// the broken field) is shown without the request path; a combination of
+// values ("axes", the rule names the grid point) is "--axis". ok is false
+// for other fields.
+func axisFlagViolation(v client.FieldViolation) (fv client.FileViolation, ok bool) {
+	if v.Field == "axes" {
+		return client.FileViolation{Source: "--axis", Rule: v.Rule}, true
+	}
+	m := axisIndex.FindStringSubmatch(v.Field)
+	if m == nil {
+		return client.FileViolation{}, false
+	}
+	n, _ := strconv.Atoi(m[1])
+	fv = client.FileViolation{Source: fmt.Sprintf("--axis %d", n+1), Path: v.Field, Rule: v.Rule}
+	if m[2] != "" {
+		fv.Path = ""
+	}
+	return fv, true
+}
+
+// axisIndex matches a grid violation's axis, axes[i]…, and whether it is
+// one of the axis' values (axes[i].values[k] or axes[i].names[k]).
+var axisIndex = regexp.MustCompile(`^axes\[(\d+)\](\.(?:values|names)\[\d+\]$)?`)

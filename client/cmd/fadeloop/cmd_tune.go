@@ -112,7 +112,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	var axes axisList
 	fs.Var(&axes, "axis", "candidate axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	var conds conditionList
-	fs.Var(&conds, "condition", "condition `NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...]`; repeatable")
+	fs.Var(&conds, "condition", "condition `COND` to tune under: NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...], weight 1 unless given; repeatable")
 	speeds := fs.String("speeds", "", "one condition per speed in km/h (`V1,V2,...`), weight 1 each")
 	request := fs.String("request", "", "tuning request `FILE` (protojson TuneRequest in JSON or YAML)")
 	objective := fs.String("objective", "", "`OBJECTIVE`: std (SIR error std), outage, or power (mean Tx power with --outage-limit) (default std)")
@@ -124,7 +124,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	maxReps := fs.Int("max-reps", 0, "most replications `N` per candidate and condition (0: 32)")
 	batchReps := fs.Int("batch-reps", 0, "replications `N` added per round to candidates in contention (0: 2)")
 	maxUS := fs.Int64("max-user-slots", 0, "budget `N` of simulated users × slots (0: none)")
-	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs")
+	noBaseline := fs.Bool("no-baseline", false, "skip the fixed-power baseline runs (a layout has none: fixed power is single-cell only)")
 	var plotSpecs plotList
 	fs.Var(&plotSpecs, "plot", "write a plot: `[KIND=]FILE` (.png or .svg; kinds auto, heatmap, steps, axis); repeatable")
 	reportFile := fs.String("report", "", "also write the HTML report (verdict, tables, plots) to `FILE.html`")
@@ -287,20 +287,33 @@ func tuneConstraints(rec *pb.Recommendation) error {
 
 // searchLocate maps a Tune or Capacity call's field violations to the
 // files they came from: with a request file as for sweep --grid; without
-// one, to the scenario file's lines when every violation is in the base
-// scenario, and as plain "field: rule" lines otherwise (the other fields
-// came from flags).
+// one, to the scenario file's lines (base.…) and to the --axis flags
+// (axes…, see axisFlagViolation) when every violation is one of those,
+// and as plain "field: rule" lines otherwise (the other fields came from
+// other flags).
 func searchLocate(sf *client.ScenarioFile, req *client.SourceFile, inv *client.InvalidInputError) error {
 	if req != nil {
 		return sweepLocate(sf, req, inv)
 	}
+	var base []client.FieldViolation
+	var flags []client.FileViolation
 	for _, v := range inv.Violations {
-		if !strings.HasPrefix(v.Field, "base.") {
+		if fv, ok := axisFlagViolation(v); ok {
+			flags = append(flags, fv)
+			continue
+		}
+		if !strings.HasPrefix(v.Field, "base.") || sf == nil {
 			return inv
 		}
+		base = append(base, v)
 	}
-	if sf == nil || len(inv.Violations) == 0 {
+	if len(inv.Violations) == 0 {
 		return inv
 	}
-	return sf.Locate("base", inv.Violations)
+	all := &client.ScenarioFileError{}
+	if sf != nil {
+		all = sf.Locate("base", base)
+	}
+	all.Violations = append(all.Violations, flags...)
+	return all
 }

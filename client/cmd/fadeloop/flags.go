@@ -13,7 +13,13 @@ import (
 // and checks against its limits.
 type axisList []*pb.SweepAxis
 
-func (a *axisList) String() string { return fmt.Sprint(len(*a), " axes") }
+// String is "" for no axes, so that --help shows no default.
+func (a *axisList) String() string {
+	if a == nil || len(*a) == 0 {
+		return ""
+	}
+	return fmt.Sprint(len(*a), " axes")
+}
 
 func (a *axisList) Set(v string) error {
 	path, vals, ok := strings.Cut(v, "=")
@@ -65,7 +71,13 @@ func (a *axisList) Set(v string) error {
 // conditionList is the repeatable --condition flag.
 type conditionList []*pb.Condition
 
-func (c *conditionList) String() string { return fmt.Sprint(len(*c), " conditions") }
+// String is "" for no conditions, so that --help shows no default.
+func (c *conditionList) String() string {
+	if c == nil || len(*c) == 0 {
+		return ""
+	}
+	return fmt.Sprint(len(*c), " conditions")
+}
 
 func (c *conditionList) Set(v string) error {
 	head, body, ok := strings.Cut(v, ":")

@@ -47,7 +47,7 @@ func (g *globals) register(fs *flag.FlagSet) {
 	fs.StringVar(&g.tls.KeyFile, "tls-key", g.tls.KeyFile, "client key PEM `FILE` for mutual TLS (with --tls-cert)")
 	fs.StringVar(&g.tls.ServerName, "tls-server-name", g.tls.ServerName, "`NAME` to check in the server certificate instead of the host")
 	fs.StringVar(&g.tokenFile, "auth-token-file", g.tokenFile, "`FILE` holding the bearer token the server requires (fadeloopd -auth-token-file); never printed")
-	fs.StringVar(&g.format, "format", g.format, "output `FORMAT`: table, csv or json")
+	fs.StringVar(&g.format, "format", g.format, "output `FORMAT`: table (the default), csv or json, as the command's \"Output formats\" list; example: yaml (its default) or json")
 	fs.StringVar(&g.out, "out", g.out, "write the output to `FILE` instead of standard output")
 	fs.BoolVar(&g.quiet, "quiet", g.quiet, "no progress output on standard error")
 	fs.DurationVar(&g.timeout, "timeout", g.timeout, "deadline of each call as a `DURATION`, e.g. 90s or 10m (0: none)")

@@ -186,6 +186,7 @@ capacity found no candidate meeting the constraints (report still written);
 	gfs := flag.NewFlagSet("fadeloop", flag.ContinueOnError)
 	e.g.register(gfs)
 	root.PersistentFlags().AddGoFlagSet(gfs)
+	oneDefault(root.PersistentFlags())
 
 	for _, c := range sortedCommands() {
 		fs := flag.NewFlagSet(c.name, flag.ContinueOnError)
@@ -205,10 +206,27 @@ capacity found no candidate meeting the constraints (report still written);
 			},
 		}
 		cc.Flags().AddGoFlagSet(fs)
+		oneDefault(cc.Flags())
 		root.AddCommand(cc)
 	}
 	root.AddCommand(newManCommand(root))
 	return root
+}
+
+// oneDefault keeps --help from showing two defaults for one flag: a flag
+// whose description already says what its default or its zero value
+// means ("(0: none)", "table (the default)", "(default: ...)") gets no
+// generated "(default …)" after it (pflag prints one for every value it
+// does not recognise as zero, such as a duration's "0s"). Only the help
+// text changes: the flag's value is untouched.
+func oneDefault(fs *pflag.FlagSet) {
+	fs.VisitAll(func(f *pflag.Flag) {
+		u := f.Usage
+		if strings.Contains(u, "(0: ") || strings.Contains(u, "(the default") || strings.Contains(u, "(its default") ||
+			strings.Contains(u, "(default ") || strings.Contains(u, "(default:") {
+			f.DefValue = ""
+		}
+	})
 }
 
 // applyEnv sets every flag not given on the command line from its
