@@ -56,7 +56,15 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	// order, on two goroutines for a large layout run alone (as the
 	// helper would be), with the same result.
 	rp.users = make([]user, len(order))
+	// Every user's per-site and per-cell arrays in one slab, user after
+	// user (path loss, shadowing parts, site gains, each padded to whole
+	// groups of four, then antenna gains): a shadowing update streams
+	// through it instead of visiting small allocations across the heap.
+	nSites, n4 := len(g.sites), (len(g.sites)+3)&^3
+	perUser := 3*n4 + C
+	slab := make([]float64, len(order)*perUser)
 	drop := func(u int) error {
+		mine := slab[u*perUser : (u+1)*perUser]
 		gi, s := order[u].g, order[u].s
 		us := user{group: gi, ctl: fading.NewFastStream(seed, u, 0, streamControl), shadowK: gd[gi].k}
 		place := fading.NewStream(seed, u, 0, streamPlacement)
@@ -69,21 +77,21 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 				break
 			}
 		}
-		us.pathDB = make([]float64, len(g.sites), (len(g.sites)+3)&^3)  // room for whole groups of four (shadowSites)
-		us.siteLin = make([]float64, len(g.sites), (len(g.sites)+3)&^3) // room for whole groups of four (gainsRange)
+		us.pathDB = mine[0:nSites:n4]                // room for whole groups of four (shadowSites)
+		us.siteLin = mine[2*n4 : 2*n4+nSites : 3*n4] // room for whole groups of four (gainsRange)
 		for k := range g.sites {
 			_, _, dist := g.offset(k, us.x, us.y)
 			dist = math.Max(dist, cfg.Channel.MinDistanceM)
 			us.pathDB[k] = gd[gi].capturedDB - (cfg.Channel.LossAt1kmDB + 10*cfg.Channel.PathLossExponent*math.Log10(dist/1000))
 		}
-		us.antLin = make([]float64, C)
+		us.antLin = mine[3*n4 : 3*n4+C : 3*n4+C]
 		for c := range g.cells {
 			dx, dy, _ := g.offset(g.cells[c].site, us.x, us.y)
 			us.antLin[c] = math.Pow(10, g.antennaDB(c, dx, dy)/10)
 		}
 		us.sh = fading.NewFastStream(seed, u, 0, streamShadowing)
 		us.shadowA = us.sh.Norm()
-		us.shadowB = make([]float64, len(g.sites), (len(g.sites)+3)&^3)
+		us.shadowB = mine[n4 : n4+nSites : 2*n4]
 		for k := range us.shadowB {
 			us.shadowB[k] = us.sh.Norm()
 		}

@@ -24,7 +24,15 @@ TEXT ·shadowSitesAVX(SB), NOSPLIT, $0-72
 
 sloop:
 	VMULPD  (SI)(AX*8), Y8, Y0 // k·b
-	VMULPD  (DX)(AX*8), Y9, Y1 // w·nd
+	// nd was just written element by element (NormFill): four 8-byte
+	// loads, each forwarded from its store (one 32-byte load waits for
+	// all four stores to reach the cache).
+	VMOVSD       (DX)(AX*8), X1
+	VMOVHPD      8(DX)(AX*8), X1, X1
+	VMOVSD       16(DX)(AX*8), X2
+	VMOVHPD      24(DX)(AX*8), X2, X2
+	VINSERTF128  $1, X2, Y1, Y1
+	VMULPD  Y1, Y9, Y1         // w·nd
 	VADDPD  Y1, Y0, Y0
 	VMOVUPD Y0, (SI)(AX*8)
 	VMOVUPD (R8)(AX*8), Y2
