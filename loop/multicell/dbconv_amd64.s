@@ -28,7 +28,6 @@ TEXT ·linFromDBAVX2(SB), NOSPLIT, $0-40
 	MOVQ         x_base+0(FP), SI
 	MOVQ         x_len+8(FP), CX
 	MOVQ         table+24(FP), R8
-	LEAQ         8(R8), R9
 	VBROADCASTSD dbc<>+0(SB), Y8
 	VBROADCASTSD dbc<>+8(SB), Y9
 	VBROADCASTSD dbc<>+16(SB), Y10
@@ -56,10 +55,22 @@ floop:
 	VCVTTPD2DQY Y6, X7           // j
 	VCVTDQ2PD X7, Y13
 	VSUBPD    Y13, Y6, Y13       // f − j
-	VPCMPEQD  Y14, Y14, Y14
-	VGATHERDPD Y14, (R8)(X7*8), Y1 // lo
-	VPCMPEQD  Y14, Y14, Y14
-	VGATHERDPD Y14, (R9)(X7*8), Y2 // hi
+	// lo, hi = table[j], table[j+1]: one 16-byte load per lane (gathers
+	// are slow on some x86 cores), then regrouped.
+	VMOVD     X7, R10
+	VPEXTRD   $1, X7, R11
+	VPEXTRD   $2, X7, R12
+	VPEXTRD   $3, X7, R13
+	VMOVUPD   (R8)(R10*8), X1
+	VMOVUPD   (R8)(R11*8), X2
+	VMOVUPD   (R8)(R12*8), X14
+	VMOVUPD   (R8)(R13*8), X6
+	VUNPCKLPD X2, X1, X5         // lo0 lo1
+	VUNPCKHPD X2, X1, X2         // hi0 hi1
+	VUNPCKLPD X6, X14, X1        // lo2 lo3
+	VUNPCKHPD X6, X14, X14       // hi2 hi3
+	VINSERTF128 $1, X1, Y5, Y1   // lo
+	VINSERTF128 $1, X14, Y2, Y2  // hi
 	VSUBPD    Y1, Y2, Y2         // hi − lo
 	VMULPD    Y2, Y13, Y2        // (f − j)·(hi − lo)
 	VADDPD    Y2, Y1, Y2         // lo + …
@@ -91,7 +102,6 @@ TEXT ·linToDBAVX2(SB), NOSPLIT, $0-72
 	MOVQ         src_len+32(FP), CX
 	VBROADCASTSD floor+48(FP), Y14
 	MOVQ         table+56(FP), R8
-	LEAQ         8(R8), R9
 	VXORPD       Y1, Y1, Y1
 	VCMPPD       $0x1e, Y1, Y14, Y1 // floor > 0: all ones
 	VMOVMSKPD    Y1, R10
@@ -132,10 +142,22 @@ tnofloor:
 	VPOR      Y10, Y2, Y2
 	VSUBPD    Y10, Y2, Y2        // float64(m mod 2^42)
 	VMULPD    Y11, Y2, Y2        // f
-	VPCMPEQD  Y4, Y4, Y4
-	VGATHERQPD Y4, (R8)(Y3*8), Y5 // lo
-	VPCMPEQD  Y4, Y4, Y4
-	VGATHERQPD Y4, (R9)(Y3*8), Y7 // hi
+	// lo, hi = table[j], table[j+1] as in linFromDBAVX2.
+	VMOVQ     X3, R11
+	VPEXTRQ   $1, X3, R12
+	VEXTRACTI128 $1, Y3, X4
+	VMOVQ     X4, R13
+	VPEXTRQ   $1, X4, BX
+	VMOVUPD   (R8)(R11*8), X3
+	VMOVUPD   (R8)(R12*8), X4
+	VMOVUPD   (R8)(R13*8), X5
+	VMOVUPD   (R8)(BX*8), X7
+	VUNPCKHPD X4, X3, X0         // hi0 hi1 (x is no longer needed)
+	VUNPCKLPD X4, X3, X3         // lo0 lo1
+	VUNPCKHPD X7, X5, X4         // hi2 hi3
+	VUNPCKLPD X7, X5, X5         // lo2 lo3
+	VINSERTF128 $1, X5, Y3, Y5   // lo
+	VINSERTF128 $1, X4, Y0, Y7   // hi
 	VSUBPD    Y5, Y7, Y7         // hi − lo
 	VMULPD    Y7, Y2, Y2         // f·(hi − lo)
 	VADDPD    Y5, Y1, Y1         // e + lo
