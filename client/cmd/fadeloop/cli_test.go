@@ -401,6 +401,11 @@ func TestBadInputExitCodes(t *testing.T) {
 			t.Errorf("bad --axis: exit %d, stderr lacks %q:\n%s", r.code, want, r.stderr)
 		}
 	}
+	// A request field set by a flag is named with its flag as well.
+	r = fl(t, "tune", good, "--axis", "inner_loop.step_db=0.5,1", "--min-reps", "1", "--max-reps", "1", "--slots", "600")
+	if want := "budget.min_replications (--min-reps): "; r.code != exitBadInput || !strings.Contains(r.stderr, want) {
+		t.Errorf("tune --min-reps 1: exit %d, stderr lacks %q:\n%s", r.code, want, r.stderr)
+	}
 	// The same in JSON.
 	js := write("bad.json", `{"name": "x", "groups": [{"count": 2, "speeds": [{"speed_kmh": 3, "weight": 1}], "profil": "EPA"}]}`)
 	r = fl(t, "run", js)

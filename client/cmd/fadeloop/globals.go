@@ -173,6 +173,31 @@ func (o *output) discard() {
 	os.Remove(o.f.Name())
 }
 
+// flagOfField names, per command, the flag that sets a request field, so
+// that a rule the request breaks there also names the flag (the value may
+// come from a --request file too, so the field keeps its name).
+var flagOfField = map[string]map[string]string{
+	"tune": {
+		"budget.min_replications":     "--min-reps",
+		"budget.max_replications":     "--max-reps",
+		"budget.batch_replications":   "--batch-reps",
+		"budget.max_user_slots":       "--max-user-slots",
+		"objective.outage_limit":      "--outage-limit",
+		"objective.bler_tolerance":    "--bler-tolerance",
+		"objective.indifference_zone": "--indifference",
+		"confidence":                  "--confidence",
+	},
+	"capacity": {
+		"group":          "--group",
+		"outage_limit":   "--outage-limit",
+		"min_count":      "--min-count",
+		"max_count":      "--max-count",
+		"replications":   "--replications",
+		"confidence":     "--confidence",
+		"max_user_slots": "--max-user-slots",
+	},
+}
+
 // report prints err for a person and returns the exit status.
 func report(stderr io.Writer, cmd string, err error) int {
 	if err == nil {
@@ -208,6 +233,10 @@ func report(stderr io.Writer, cmd string, err error) int {
 	}
 	if inv, ok := client.AsInvalidInput(err); ok {
 		for _, v := range inv.Violations {
+			// A request field a flag sets is named with its flag.
+			if flag := flagOfField[cmd][v.Field]; flag != "" {
+				v.Field += " (" + flag + ")"
+			}
 			fmt.Fprintln(stderr, v.String())
 		}
 		if len(inv.Violations) == 0 {
