@@ -42,6 +42,7 @@ figcaption { color: var(--muted); font-size: 13px; margin-top: 2px; }
 svg.plot { display: block; width: 100%; height: auto; max-width: 1050px; border: 1px solid var(--rule); }
 table.kv td:first-child { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; white-space: nowrap; }
 table.kv td { font-size: 12.5px; }
+table.kv td:last-child { overflow-wrap: anywhere; }
 pre { background: var(--band); border: 1px solid var(--rule); padding: 10px 12px; font-size: 12px; line-height: 1.35;
       white-space: pre-wrap; word-break: break-word; font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; }
 .cols { display: flex; gap: 24px; flex-wrap: wrap; align-items: flex-start; }
