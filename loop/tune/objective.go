@@ -161,13 +161,22 @@ func (o Objective) indifference(best float64) float64 {
 	}
 	switch o.Kind {
 	case ObjectiveMinSIRErrorStd:
-		return 0.05
+		return DefaultIndifferenceStdDB
 	case ObjectiveMinTxPower:
-		return 0.1
+		return DefaultIndifferencePowerDB
 	default:
-		return math.Max(1e-4, 0.02*math.Abs(best))
+		return math.Max(MinIndifferenceOutage, DefaultIndifferenceOutageShare*math.Abs(best))
 	}
 }
+
+// Default indifference zones (Objective.IndifferenceZone 0), by objective
+// (common practice: below what an operator would act on).
+const (
+	DefaultIndifferenceStdDB       = 0.05 // SIR error std, dB
+	DefaultIndifferencePowerDB     = 0.1  // mean Tx power, dB
+	DefaultIndifferenceOutageShare = 0.02 // outage: this share of the best candidate's outage …
+	MinIndifferenceOutage          = 1e-4 // … and at least this probability
+)
 
 // score is the per-replication figure the objective minimises.
 func (o Objective) score(s Sample) float64 {

@@ -118,7 +118,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	objective := fs.String("objective", "", "`OBJECTIVE`: std (SIR error std), outage, or power (mean Tx power with --outage-limit) (default std)")
 	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction), required by --objective power; a P above 0.1 also raises the high-outage warning level (0.1) to P")
 	blerTol := fs.Float64("bler-tolerance", 0, "accepted relative BLER deviation `X` from target for --objective power (0: 0.2)")
-	indiff := fs.Float64("indifference", 0, "difference `D` in the objective's unit below which settings count as equal (0: default)")
+	indiff := fs.Float64("indifference", 0, fmt.Sprintf("difference `D` in the objective's unit below which settings count as equal (0: %g dB for std, %g dB for power, %g %% of the best outage, at least %g, for outage)", tune.DefaultIndifferenceStdDB, tune.DefaultIndifferencePowerDB, 100*tune.DefaultIndifferenceOutageShare, tune.MinIndifferenceOutage))
 	confidence := fs.Float64("confidence", 0, "confidence `C` of intervals and the winner's test (0: 0.95)")
 	minReps := fs.Int("min-reps", 0, "first-round replications `N` per candidate and condition (0: 2)")
 	maxReps := fs.Int("max-reps", 0, "most replications `N` per candidate and condition (0: 32)")
