@@ -113,7 +113,7 @@ func (r *checkRun) dynamic(fdT float64) error {
 	m, se := meanSE(meanPow)
 	r.add(CheckLine{Name: "mean power of a unit-power tap", Kind: "mean-power", Measured: m, Theory: 1, FdT: fdT}, se, allowPower)
 	m, se = meanSE(originPow)
-	r.add(CheckLine{Name: fmt.Sprintf("ensemble power over the first %d samples (stationarity)", so), Kind: "origin-power", Measured: m, Theory: 1, FdT: fdT}, se, allowPower)
+	r.add(CheckLine{Name: fmt.Sprintf("ensemble power over the first %s (stationarity)", countSamples(so)), Kind: "origin-power", Measured: m, Theory: 1, FdT: fdT}, se, allowPower)
 	for j, d := range lagD {
 		if math.IsNaN(acf[j][0]) {
 			continue
@@ -217,4 +217,12 @@ func (r *checkRun) deep(ths []float64) error {
 	}
 	r.addCrossings(ths, down, below, n, checkDeepFdT)
 	return nil
+}
+
+// countSamples is "1 sample", "n samples".
+func countSamples(n int) string {
+	if n == 1 {
+		return "1 sample"
+	}
+	return fmt.Sprintf("%d samples", n)
 }

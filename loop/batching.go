@@ -92,9 +92,12 @@ func effectiveBatches(configured int, measured int64, decorrSlots float64, what 
 
 // minSlotsForIntervals is the shortest measured run (slots) that holds
 // MinBatches batches of BatchDecorrelationTimes decorrelation times of
-// decorrSlots slots each: ceil(MinBatches·BatchDecorrelationTimes·decorrSlots).
+// decorrSlots slots each: ceil(MinBatches·BatchDecorrelationTimes·decorrSlots),
+// the product taken as exact within 1e-9 relative (decorrSlots is itself
+// a rounded quotient: 720000.0000001 is 720 000 slots, not 720 001).
 func minSlotsForIntervals(decorrSlots float64) int64 {
-	return int64(math.Ceil(MinBatches * BatchDecorrelationTimes * decorrSlots))
+	n := MinBatches * BatchDecorrelationTimes * decorrSlots
+	return int64(math.Ceil(n - 1e-9*n))
 }
 
 // withheldNote is the report's note of a one-replication run too short for

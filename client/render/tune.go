@@ -319,9 +319,12 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	}
 	fmt.Fprintln(w)
 	ef := rec.GetEffort()
-	fmt.Fprintf(w, "Effort: %s + %s in %s (at most %s of one candidate);\n",
-		Count(int(ef.GetReplications()), "candidate run", "candidate runs"), Count(int(ef.GetBaselineReplications()), "fixed-power run", "fixed-power runs"),
-		Count(int(ef.GetStages()), "round", "rounds"), Count(int(ef.GetMaxReplicationsUsed()), "replication", "replications"))
+	runs := Count(int(ef.GetReplications()), "candidate run", "candidate runs")
+	if b := int(ef.GetBaselineReplications()); b > 0 { // a layout has no fixed-power baseline
+		runs += " + " + Count(b, "fixed-power run", "fixed-power runs")
+	}
+	fmt.Fprintf(w, "Effort: %s in %s (at most %s of one candidate);\n",
+		runs, Count(int(ef.GetStages()), "round", "rounds"), Count(int(ef.GetMaxReplicationsUsed()), "replication", "replications"))
 	ratio := ""
 	if ef.GetEqualAllocationReplications() > 0 {
 		ratio = fmt.Sprintf(" (%.0f %% of it)", 100*float64(ef.GetReplications())/float64(ef.GetEqualAllocationReplications()))

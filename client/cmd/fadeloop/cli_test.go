@@ -384,7 +384,7 @@ func TestBadInputExitCodes(t *testing.T) {
 			t.Errorf("stderr lacks %q:\n%s", want, r.stderr)
 		}
 	}
-	if want := "fadeloop run: 2 problem(s) in "; !strings.Contains(r.stderr, want) {
+	if want := "fadeloop run: 2 problems in "; !strings.Contains(r.stderr, want) {
 		t.Errorf("stderr lacks %q:\n%s", want, r.stderr)
 	}
 	// A run setting that a flag replaced is named as the flag's doing, not
@@ -396,7 +396,7 @@ func TestBadInputExitCodes(t *testing.T) {
 	}
 	// A bad --axis is the command line's problem, not the file's.
 	r = fl(t, "sweep", good, "--axis", "inner_loop.step_db=1,2", "--axis", "inner_loop.no_such_db=1,2", "--direct")
-	for _, want := range []string{"\n--axis 2: axes[1].path: ", "fadeloop sweep: 1 problem(s) in the command line"} {
+	for _, want := range []string{"\n--axis 2: axes[1].path: ", "fadeloop sweep: 1 problem in the command line"} {
 		if r.code != exitBadInput || !strings.Contains("\n"+r.stderr, want) {
 			t.Errorf("bad --axis: exit %d, stderr lacks %q:\n%s", r.code, want, r.stderr)
 		}

@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
 	"github.com/fadeloop/fadeloop/service"
 )
 
@@ -228,7 +229,7 @@ func report(stderr io.Writer, cmd string, err error) int {
 		case flags > 0:
 			where += " and the command line"
 		}
-		fmt.Fprintf(stderr, "%s: %d problem(s) in %s\n", prefix, len(sfe.Violations), where)
+		fmt.Fprintf(stderr, "%s: %s in %s\n", prefix, render.Count(len(sfe.Violations), "problem", "problems"), where)
 		return exitBadInput
 	}
 	if inv, ok := client.AsInvalidInput(err); ok {
@@ -242,7 +243,7 @@ func report(stderr io.Writer, cmd string, err error) int {
 		if len(inv.Violations) == 0 {
 			fmt.Fprintln(stderr, inv.Message)
 		}
-		fmt.Fprintf(stderr, "%s: the request is not valid (%d problem(s))\n", prefix, max(1, len(inv.Violations)))
+		fmt.Fprintf(stderr, "%s: the request is not valid (%s)\n", prefix, render.Count(max(1, len(inv.Violations)), "problem", "problems"))
 		return exitBadInput
 	}
 	var bi badInput

@@ -32,7 +32,7 @@ func TestAxisValueInvalidForLayoutNamesFlag(t *testing.T) {
 		{"tune", town, "--axis", "layout.handover.window_db=1,3", "--axis", "layout.sites=1,7", "--slots", "600", "--direct"},
 	} {
 		r := fl(t, args...)
-		tail := "fadeloop " + args[0] + ": 1 problem(s) in the command line\n"
+		tail := "fadeloop " + args[0] + ": 1 problem in the command line\n"
 		if r.code != exitBadInput || r.stderr != want+tail {
 			t.Errorf("%v: exit %d, want 2 and stderr\n%s%s\ngot:\n%s", args, r.code, want, tail, r.stderr)
 		}
@@ -45,7 +45,7 @@ func TestAxisValueInvalidForLayoutNamesFlag(t *testing.T) {
 	} {
 		r := fl(t, args...)
 		want := "--axis: at grid point 3 (sites=19, groups[0].count=400): groups: the layout holds 22971 users, more than 20000\n" +
-			"fadeloop sweep: 1 problem(s) in the command line\n"
+			"fadeloop sweep: 1 problem in the command line\n"
 		if r.code != exitBadInput || r.stderr != want {
 			t.Errorf("%v: exit %d, want 2 and stderr\n%s\ngot:\n%s", args, r.code, want, r.stderr)
 		}
@@ -82,7 +82,7 @@ func TestScenarioProblemsReadable(t *testing.T) {
 		":11: layout.sectors_per_site: must be in list [1, 3] (0 or unset: default 1), got 2",
 		":24: layout.handover.window_db: must be greater than or equal to 0 and less than or equal to 20, got 30",
 		":26: layout.handover.max_active: must be greater than or equal to 0 and less than or equal to 6 (0 or unset: default 3), got 9",
-		"fadeloop run: 4 problem(s) in " + bad,
+		"fadeloop run: 4 problems in " + bad,
 	}
 	lines := strings.Split(strings.TrimSpace(r.stderr), "\n")
 	if r.code != exitBadInput || len(lines) != len(want) {
