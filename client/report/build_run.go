@@ -11,9 +11,10 @@ import (
 
 // The page of a run: verdict, figures per aggregate, bin and user, plots.
 
-// detailFigures are the figure columns of the per-bin, per-user and sweep
-// tables (labels, scales and decimals: client/render, the one home of
-// figure labels).
+// detailFigures are the figure columns of the sweep tables (labels, scales
+// and decimals: client/render, the one home of figure labels); the per-bin
+// and per-user tables have clirender.RunDetailFigures, as the CLI's (the
+// noise rise is the cell's: the same in every row).
 var detailFigures = append(append([]string(nil), clirender.RunDetailFigures...), "noise_rise_mean_db")
 
 // figureEstimate is the figure key of fs as "v [lo, hi]" in its display
@@ -91,13 +92,13 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	s := section{ID: "figures", Heading: "Figures", Tables: []table{t}}
 	if bins := rep.GetDistanceBins(); len(bins) > 0 {
 		bt := table{Caption: "Per distance bin (value [95 % interval]).", Head: []string{"distance (m)", "users"}}
-		for _, k := range detailFigures {
+		for _, k := range clirender.RunDetailFigures {
 			bt.Head = append(bt.Head, clirender.MustFigure(k).Head())
 		}
 		bt.Num = numCols(len(bt.Head), rangeFrom(1, len(bt.Head))...)
 		for _, b := range bins {
 			row := []string{num(b.GetMinDistanceM(), 0) + "–" + num(b.GetMaxDistanceM(), 0), strconv.Itoa(int(b.GetFigures().GetUsers()))}
-			for _, k := range detailFigures {
+			for _, k := range clirender.RunDetailFigures {
 				row = append(row, figureEstimate(k, b.GetFigures()))
 			}
 			bt.add(false, row...)
@@ -117,13 +118,13 @@ func buildRun(d *doc, rep *pb.RunReport) error {
 	}
 	if us := rep.GetUsers(); len(us) > 0 {
 		ut := table{Caption: "Per user (value [95 % interval]).", Head: []string{"user", "group", "distance (m)", "speed (km/h)", "path loss (dB)"}}
-		for _, k := range detailFigures {
+		for _, k := range clirender.RunDetailFigures {
 			ut.Head = append(ut.Head, clirender.MustFigure(k).Head())
 		}
 		ut.Num = numCols(len(ut.Head), append([]int{0}, rangeFrom(2, len(ut.Head))...)...)
 		for _, u := range us {
 			row := []string{strconv.Itoa(int(u.GetUser())), groupName(sc, u.GetGroup()), num(u.GetDistanceM(), 0), num(u.GetSpeedKmh(), 0), num(u.GetPathLossDb(), 1)}
-			for _, k := range detailFigures {
+			for _, k := range clirender.RunDetailFigures {
 				row = append(row, figureEstimate(k, u.GetFigures()))
 			}
 			ut.add(false, row...)

@@ -214,6 +214,19 @@ func TestRunFiguresMatchReport(t *testing.T) {
 	if !strings.Contains(page, in.Run.GetEngineVersion()) {
 		t.Errorf("engine version %q not shown", in.Run.GetEngineVersion())
 	}
+	// The per-bin and per-user tables have the CLI's columns: the cell's
+	// noise rise (one value for every row) is not repeated in them.
+	rise := htmlEsc(clirender.MustFigure("noise_rise_mean_db").Head())
+	for _, caption := range []string{"Per distance bin", "Per user"} {
+		i := strings.Index(page, caption)
+		if i < 0 {
+			t.Fatalf("no %q table", caption)
+		}
+		j := strings.Index(page[i:], "</table>")
+		if strings.Contains(page[i:i+j], "<th>"+rise) || strings.Contains(page[i:i+j], ">"+rise+"<") {
+			t.Errorf("%s table repeats the cell's %q column", caption, rise)
+		}
+	}
 }
 
 func htmlEsc(s string) string {
