@@ -125,8 +125,9 @@ type user struct {
 	olEstDB  []float64 // history of the open-loop gain estimate, one per shadowing update
 }
 
-// legRun is a leg slot's cell and slow gain (copies kept by refreshLegs;
-// the slot loop reads them through rep.legs).
+// legRun is a leg slot's cell and slow gain (copies set by refreshLegs,
+// from which buildLegs makes rep.legs; between active-set updates the
+// list's gains are the current ones and these may be older).
 type legRun struct {
 	c int32   // cell (copy of user.legs)
 	g float64 // slow gain of the cell (copy of rep.slow)

@@ -83,9 +83,21 @@ func rows3Go(row, ant, g []float64) {
 // open-loop estimate, and a full recomputation of the cell sums.
 func (rp *rep) afterGains(t int64) {
 	C := rp.C
-	for u := range rp.users {
-		rp.refreshLegs(&rp.users[u], rp.slow[u*C:u*C+C])
-		if rp.cfg.OpenLoop.Enabled || t == 0 {
+	if rp.legs.dirty {
+		for u := range rp.users {
+			rp.refreshLegs(&rp.users[u], rp.slow[u*C:u*C+C])
+		}
+	} else {
+		// The legs are as listed: only their gains change, in the list
+		// (the users' copies are refreshed with the next active-set
+		// update, before the list is built again from them).
+		for i := range rp.legs.e {
+			e := &rp.legs.e[i]
+			e.g = rp.slow[int(e.u)*C+int(e.c)]
+		}
+	}
+	if rp.cfg.OpenLoop.Enabled || t == 0 {
+		for u := range rp.users {
 			rp.openLoopEstimate(u, t == 0)
 		}
 	}

@@ -4,7 +4,8 @@ package multicell
 // order and, within a user, in ascending leg slot (the order of user.act):
 // the loops over legs run over it without a branch per user on its leg
 // count. It is rebuilt (buildLegs) before the first slot after any user's
-// legs or their slow gains change (refreshLegs marks it dirty).
+// legs change (refreshLegs marks it dirty); when only the slow gains
+// change, afterGains updates them in the list.
 type legList struct {
 	dirty bool
 	e     []legEntry
