@@ -154,6 +154,7 @@ type rep struct {
 	legs     legList    // the active-set legs, flat (legs.go)
 	legSIR   []float64  // per user u and leg rank k: this slot's SIR at u·max_active + k (with estimation or command errors)
 	slotU    []userSlot // per user: this slot's power, target, best SIR and combined command (legs.go)
+	suReady  bool       // slotU holds this slot's powers and targets (set by the last slot's loop over users)
 	legF     []float64  // per leg slot: FULL fading's gains of this slot (legGains), 1 without fast fading
 	legAcc   []float64  // per leg slot u·max_active + l: block accumulator (sum of linear SIR)
 	legN     []int32    // per leg slot: slots in legAcc

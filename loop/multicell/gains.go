@@ -100,6 +100,7 @@ func (rp *rep) afterGains(t int64) {
 		for u := range rp.users {
 			rp.openLoopEstimate(u, t == 0)
 		}
+		rp.suReady = false // a start-up power may have been set
 	}
 	rp.stale = true
 }

@@ -156,7 +156,7 @@ func TestLoopLayout(t *testing.T) {
 		{"recPDB", unsafe.Offsetof(a.recPDB), 48}, {"recTDB", unsafe.Offsetof(a.recTDB), 56}, {"recFlags", unsafe.Offsetof(a.recFlags), 64},
 		{"lin", unsafe.Offsetof(a.lin), 72}, {"lim", unsafe.Offsetof(a.lim), 88}, {"limDB", unsafe.Offsetof(a.limDB), 104},
 		{"stepDB", unsafe.Offsetof(a.stepDB), 120}, {"marginLin", unsafe.Offsetof(a.marginLin), 136}, {"pAtMax", unsafe.Offsetof(a.pAtMax), 144},
-		{"ups", unsafe.Offsetof(a.ups), 152}, {"downs", unsafe.Offsetof(a.downs), 160}, {"stride", unsafe.Offsetof(a.stride), 168},
+		{"ups", unsafe.Offsetof(a.ups), 152}, {"downs", unsafe.Offsetof(a.downs), 160}, {"stride", unsafe.Offsetof(a.stride), 168}, {"pPrev", unsafe.Offsetof(a.pPrev), 176},
 		{"user.p", unsafe.Offsetof(us.p), 0}, {"user.pDB", unsafe.Offsetof(us.pDB), 8},
 		{"user.target", unsafe.Offsetof(us.target), 16}, {"user.targetDB", unsafe.Offsetof(us.targetDB), 24},
 	} {

@@ -65,11 +65,12 @@ done:
 
 // func plainUsersAsm(a *plainArgs)
 //
-// plainUsersGo's loop: per user u, the record of the slot (when
+// runUsers's Go loop over users, for a plain slot: per user u, pPrev[u] = p, the record of the slot (when
 // a.recSIR is not nil: best SIR, Tx power and target in dB, flags outage
 // and at-max), the command 2·up − 1 into the delay line, the power step
 // (p·lin[up] inside (pmin, pmax), with pDB ± step_db, else the limit and
-// its dB value), pCur[u] and the up and down counts. Scalar SSE2, the
+// its dB value), pCur[u], the next slot's su[u] (the new power, the
+// target, best 0, up 1) and the up and down counts. Scalar SSE2, the
 // same operations in the same order as the Go loop. plainArgs and user
 // offsets: TestLoopLayout.
 TEXT ·plainUsersAsm(SB), NOSPLIT, $0-8
@@ -93,6 +94,8 @@ ploop:
 	MOVSD   16(R8), X0  // best SIR
 	MOVBQZX 24(R8), R12 // up
 	MOVSD   (SI), X1    // p
+	MOVQ    176(R11), R13
+	MOVSD   X1, (R13)(DX*8) // pPrev[u] = p
 	MOVQ    40(R11), R13
 	TESTQ   R13, R13
 	JEQ     norec
@@ -140,6 +143,11 @@ plimit:
 pstepped:
 	MOVSD (SI), X3
 	MOVSD X3, (R9)      // pCur[u]
+	MOVSD X3, (R8)      // the next slot's su[u]: p, target, best 0, up 1
+	MOVSD 16(SI), X4
+	MOVSD X4, 8(R8)
+	MOVQ  $0, 16(R8)
+	MOVB  $1, 24(R8)
 	ADDQ  R12, AX
 	MOVQ  $1, R13
 	SUBQ  R12, R13

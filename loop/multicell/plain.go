@@ -25,6 +25,7 @@ type plainArgs struct {
 	ups       int // out: users whose power went up
 	downs     int // out: users whose power went down
 	stride    int // bytes from one user to the next (unsafe.Sizeof(user{}))
+	pPrev     *float64
 }
 
 // plainUsers runs the loop over users of a plain slot k in assembly and
@@ -32,14 +33,14 @@ type plainArgs struct {
 // TestLoopAsmMatchesGo). Every slice it hands over holds U entries.
 func (rp *rep) plainUsers(k int, measure bool) (ups, downs int, ok bool) {
 	U := rp.U
-	if !useLoopAsm || U == 0 || len(rp.users) < U || len(rp.slotU) < U || len(rp.pCur) < U || len(rp.cmds) < U {
+	if !useLoopAsm || U == 0 || len(rp.users) < U || len(rp.slotU) < U || len(rp.pCur) < U || len(rp.pPrev) < U || len(rp.cmds) < U {
 		return 0, 0, false
 	}
 	il := &rp.cfg.InnerLoop
 	lin, lim, limDB := rp.stepTables()
 	a := plainArgs{users: &rp.users[0], n: U, su: &rp.slotU[0], pCur: &rp.pCur[0], cmds: &rp.cmds[0],
 		lin: lin, lim: lim, limDB: limDB, stepDB: [2]float64{il.StepDB * -1, il.StepDB * 1},
-		marginLin: rp.marginLin, pAtMax: rp.pmax * (1 - 1e-12), stride: int(unsafe.Sizeof(user{}))}
+		marginLin: rp.marginLin, pAtMax: rp.pmax * (1 - 1e-12), stride: int(unsafe.Sizeof(user{})), pPrev: &rp.pPrev[0]}
 	if measure {
 		rec := rp.rec
 		if len(rec.sir) < (k+1)*U || len(rec.pDB) < (k+1)*U || len(rec.targetDB) < (k+1)*U || len(rec.flags) < (k+1)*U {

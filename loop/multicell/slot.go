@@ -169,9 +169,13 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	stepDB := il.StepDB
 	users := rp.users[:U]
 	su := rp.slotU[:U]
-	for u := range users {
-		pPrev[u] = users[u].p
-		su[u] = userSlot{p: users[u].p, tgt: users[u].target, up: 1}
+	if !rp.suReady {
+		// Each slot's loop over users prepares the next slot's entries;
+		// the first slot, and one after powers or targets were set from
+		// outside the slot loop, prepares them here.
+		for u := range users {
+			su[u] = userSlot{p: users[u].p, tgt: users[u].target, up: 1}
+		}
 	}
 	ma := rp.cfg.Handover.MaxActive
 	plain := sigma == 0 && cep == 0 // no draws per leg
@@ -180,6 +184,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	if plain && closed && !openLoop && !blockEnd && d == 1 {
 		if ups, downs, ok := rp.plainUsers(k, measure); ok {
 			rp.ups, rp.downs = ups, downs
+			rp.suReady = true
 			if fNext != nil {
 				rp.legCorrections(corrNext, pCur, fNext)
 			}
@@ -188,7 +193,8 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	}
 	for u := range users {
 		us := &users[u]
-		pu := pPrev[u]
+		pu := su[u].p
+		pPrev[u] = pu
 		bestSIR, upAll := su[u].best, su[u].up
 		if !plain && closed {
 			// The measured SIR and the command of each leg, drawing in leg
@@ -253,8 +259,10 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			downs += int(1-applied) >> 1 // 1 for −1, 0 for 0 and +1
 		}
 		pCur[u] = us.p
+		su[u] = userSlot{p: us.p, tgt: us.target, up: 1} // the next slot's
 	}
 	rp.ups, rp.downs = ups, downs
+	rp.suReady = true
 	if fNext != nil {
 		rp.legCorrections(corrNext, pCur, fNext)
 	}
