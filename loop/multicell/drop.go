@@ -158,6 +158,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	ma := cfg.Handover.MaxActive
 	rp.legSIR, rp.legAcc, rp.legN = make([]float64, U*ma), make([]float64, U*ma), make([]int32, U*ma)
 	rp.slotU = make([]userSlot, U)
+	rp.legBLER = make([]float64, U*ma)
 	rp.legF = make([]float64, U*ma)
 	for i := range rp.legF {
 		rp.legF[i] = 1

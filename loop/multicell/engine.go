@@ -157,6 +157,7 @@ type rep struct {
 	suReady  bool       // slotU holds this slot's powers and targets (set by the last slot's loop over users)
 	legF     []float64  // per leg slot: FULL fading's gains of this slot (legGains), 1 without fast fading
 	legAcc   []float64  // per leg slot u·max_active + l: block accumulator (sum of linear SIR)
+	legBLER  []float64  // per leg of rep.legs, at a block end: the block's error probability (blockBLERs)
 	legN     []int32    // per leg slot: slots in legAcc
 	cmds     []int8     // delay lines of combined commands (+1 up, −1 down): user u's at [u·d, (u+1)·d), d = feedback_delay_slots + 1
 	ups      int        // users whose power went up in the last slot

@@ -191,6 +191,10 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 			return
 		}
 	}
+	if blockEnd {
+		rp.blockBLERs()
+	}
+	li := 0 // the user's first leg in the leg list
 	for u := range users {
 		us := &users[u]
 		pu := su[u].p
@@ -217,7 +221,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		}
 		var blockFlags uint8
 		if blockEnd {
-			blockFlags = rp.blockResult(us, u)
+			blockFlags = rp.blockResult(us, u, rp.legBLER[li:li+int(us.nLegs)])
 		}
 		if measure {
 			recSIR[u], recPDB[u], recTDB[u] = bestSIR, us.pDB, us.targetDB
@@ -260,6 +264,7 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 		}
 		pCur[u] = us.p
 		su[u] = userSlot{p: us.p, tgt: us.target, up: 1} // the next slot's
+		li += int(us.nLegs)
 	}
 	rp.ups, rp.downs = ups, downs
 	rp.suReady = true
@@ -268,24 +273,41 @@ func (rp *rep) runUsers(t int64, k int, ahead bool) {
 	}
 }
 
-// blockResult ends the user's outer-loop block on every leg: the block is
-// received on a leg with probability 1 − BLER(mean SIR of the block), by
-// the link curve BLER = 1/(1 + e^z), z = (SIR dB − threshold)/slope
-// (e^z = 10^(z·10/ln 10 / 10) by linFromDB), one draw per leg in leg
-// order; selection combining: a block error when no leg received it. It
-// returns recBlockEnd, with recBlockErr on a block error, and clears the
-// legs' accumulators.
-func (rp *rep) blockResult(us *user, u int) uint8 {
+// blockBLERs sets, at a slot that ends an outer-loop block, every
+// active-set leg's block error probability (rep.legBLER, in leg-list
+// order) from the mean SIR of its block: the link curve BLER =
+// 1/(1 + e^z), z = (SIR dB − threshold)/slope (e^z = 10^(z·10/ln 10 / 10)
+// by linFromDB), each conversion done for all legs in one call (the same
+// values as one by one).
+func (rp *rep) blockBLERs() {
 	thr, slope := rp.cfg.Link.ThresholdDB, rp.cfg.Link.SlopeDB
+	b := rp.legBLER[:len(rp.legs.e)]
+	for i, e := range rp.legs.e {
+		b[i] = rp.legAcc[e.j] / float64(rp.legN[e.j])
+	}
+	linToDBFloorTo(b, b, 0)
+	for i, db := range b {
+		b[i] = (db - thr) / slope * (10 / math.Ln10)
+	}
+	linFromDBInPlace(b)
+	for i, x := range b {
+		b[i] = 1 / (1 + x)
+	}
+}
+
+// blockResult ends the user's outer-loop block on every leg: the block is
+// received on a leg with probability 1 − BLER (bler: the user's legs'
+// block error probabilities, blockBLERs), one draw per leg in leg order;
+// selection combining: a block error when no leg received it. It returns
+// recBlockEnd, with recBlockErr on a block error, and clears the legs'
+// accumulators.
+func (rp *rep) blockResult(us *user, u int, bler []float64) uint8 {
 	anyOK := uint8(0)
-	for _, l := range us.act[:us.nLegs] {
+	for k, l := range us.act[:us.nLegs] {
 		j := u*rp.cfg.Handover.MaxActive + int(l)
-		mean := rp.legAcc[j] / float64(rp.legN[j])
-		z := (linToDB(mean) - thr) / slope
-		bler := 1 / (1 + linFromDB(z*(10/math.Ln10)))
 		// The block result is a coin flip: set without a branch.
 		var ok uint8
-		if us.ctl.Float64() >= bler {
+		if us.ctl.Float64() >= bler[k] {
 			ok = 1
 		}
 		anyOK |= ok
