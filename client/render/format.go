@@ -125,10 +125,12 @@ func CSVNum(v float64) string {
 }
 
 // MarshalJSON writes a message as stable, indented JSON with proto field
-// names. protojson's own whitespace is deliberately unstable, so the output
-// is re-indented by encoding/json.
+// names and every scalar field present, also at its zero value (an
+// interval's ci_low of 0 is a key a script can read: jsonOptions).
+// protojson's own whitespace is deliberately unstable, so the output is
+// re-indented by encoding/json.
 func MarshalJSON(m proto.Message) ([]byte, error) {
-	raw, err := protojson.MarshalOptions{UseProtoNames: true}.Marshal(m)
+	raw, err := jsonOptions.Marshal(m)
 	if err != nil {
 		return nil, err
 	}
@@ -144,9 +146,13 @@ func indentJSON(raw []byte) ([]byte, error) {
 	return b.Bytes(), nil
 }
 
+// jsonOptions are the CLI's JSON options: proto field names, zero scalars
+// and empty lists written out (unset messages are left out).
+var jsonOptions = protojson.MarshalOptions{UseProtoNames: true, EmitDefaultValues: true}
+
 // compactJSON is the one-line stable form of a message.
 func compactJSON(m proto.Message) (json.RawMessage, error) {
-	raw, err := protojson.MarshalOptions{UseProtoNames: true}.Marshal(m)
+	raw, err := jsonOptions.Marshal(m)
 	if err != nil {
 		return nil, err
 	}

@@ -112,3 +112,33 @@ func TestNoIntervalShownAsDash(t *testing.T) {
 		}
 	}
 }
+
+// TestJSONWritesZeroValues: the CLI's JSON has every scalar key, also at
+// zero (an interval's ci_low of 0, group 0), so a script can read them
+// without a missing-key case; unset messages stay out.
+func TestJSONWritesZeroValues(t *testing.T) {
+	for _, c := range []struct {
+		m    interface{ ProtoReflect() protoreflect.Message }
+		want []string
+	}{
+		{&pb.Estimate{Value: 1.5, CiHigh: 2}, []string{`"ci_low": 0`, `"value": 1.5`, `"ci_high": 2`}},
+		{&pb.GroupFingers{Taps: 4, Fingers: 2}, []string{`"group": 0`, `"captured_power_db": 0`, `"taps": 4`}},
+	} {
+		b, err := MarshalJSON(c.m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, w := range c.want {
+			if !strings.Contains(string(b), w) {
+				t.Errorf("%T: JSON lacks %s:\n%s", c.m, w, b)
+			}
+		}
+	}
+	b, err := MarshalJSON(&pb.Figures{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if strings.Contains(string(b), "null") || strings.Contains(string(b), "outage_probability") {
+		t.Errorf("unset messages written out:\n%s", b)
+	}
+}

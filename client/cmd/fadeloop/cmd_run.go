@@ -54,7 +54,8 @@ Output formats:
          convergence_time_s are empty (not computed); then other_to_own (f,
          linear) and soft_handover_share (fraction), each with _ci_low and
          _ci_high.
-  json   the fadeloop.v1 RunReport message in protojson with proto field names.
+  json   the fadeloop.v1 RunReport message in protojson with proto field
+         names, every number and list written out (also at 0).
 
 Plots (--plot [KIND=]FILE.png|.svg, repeatable; kind defaults to traces,
 for a multi-cell scenario to map):
