@@ -225,9 +225,34 @@ func (f LayoutFigure) Cell(rep *pb.RunReport) string {
 	return cell(Figure{Scale: f.Scale, Dec: f.Dec}, f.Get(rep.GetLayout().GetOverall()))
 }
 
+// CandidatesHaveF reports whether any of a tune condition's candidates
+// carries f (TuneFigures.other_to_own: multi-cell mode); its candidate
+// table then has an f column.
+func CandidatesHaveF(crs []*pb.CandidateResult) bool {
+	for _, cr := range crs {
+		if cr.GetFigures().GetOtherToOwn() != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// CandidateFCell is a tune candidate's f with its interval over
+// replications, in the run table's decimals ("–" without f).
+func CandidateFCell(cr *pb.CandidateResult) string {
+	return estCell(cr.GetFigures().GetOtherToOwn(), LayoutFigureF.Scale, LayoutFigureF.Dec)
+}
+
 // LayoutFNote names f once with its field in the JSON and CSV: every table
 // of a layout says f after it.
-const LayoutFNote = "f (other_to_own in the JSON and CSV): other-cell / own-cell interference received at a cell (linear)"
+const LayoutFNote = "f (other_to_own in the JSON and CSV): " + layoutFMeaning
+
+// TuneFNote names f under a tune's candidate tables: the Recommendation's
+// JSON has it per candidate (figures.other_to_own), the tune CSV does not.
+const TuneFNote = "f (figures.other_to_own in the JSON, not in the CSV): " + layoutFMeaning
+
+// layoutFMeaning is what f is, in every note that names it.
+const layoutFMeaning = "other-cell / own-cell interference received at a cell (linear)"
 
 // IsCautionNote reports whether note n is the engine's caution about real
 // transmitters (the multi-cell engine adds one to its notes); a page that

@@ -66,3 +66,32 @@ func TestSweepTableLayoutFigures(t *testing.T) {
 		}
 	}
 }
+
+// A layout tune's condition tables have an f column (figures.other_to_own,
+// the run table's 3 decimals, with its interval over replications) and
+// say what f is; a single-cell tune's tables have neither.
+func TestTuneTableLayoutF(t *testing.T) {
+	for _, layout := range []bool{true, false} {
+		rec := testRecommendation(&pb.Decision{Verdict: pb.Verdict_VERDICT_WINNER, Best: 0, Ordering: []int32{0, 1, 2}, RankedBy: stdLabel})
+		if layout {
+			for k, cr := range rec.GetConditions()[0].GetCandidates() {
+				cr.Figures.OtherToOwn = est(1.2+0.1*float64(k), 1.1+0.1*float64(k), 1.3+0.1*float64(k))
+			}
+		}
+		var b bytes.Buffer
+		TuneTable(&b, nil, rec)
+		out := b.String()
+		head := tableHead(out, "  #")
+		hasF := len(head) > 3 && head[len(head)-3] == "f"
+		if hasF != layout || strings.Contains(out, TuneFNote) != layout {
+			t.Errorf("layout %v: f column %v (head %q), note %v:\n%s", layout, hasF, head, strings.Contains(out, TuneFNote), out)
+		}
+		if layout {
+			for _, want := range []string{"1.200 [1.100, 1.300]", "1.400 [1.300, 1.500]"} {
+				if !strings.Contains(out, want) {
+					t.Errorf("layout tune table lacks f %q:\n%s", want, out)
+				}
+			}
+		}
+	}
+}

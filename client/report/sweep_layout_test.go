@@ -84,3 +84,52 @@ func TestSweepLayoutPoints(t *testing.T) {
 		}
 	}
 }
+
+// TestTuneLayoutF: a layout tune page's condition tables have an f column
+// with each candidate's figures.other_to_own (3 decimals, its interval over
+// replications) and say what f is; the overall table and a single-cell
+// tune's tables (tune.json) have none. f is set here on the layout fixture
+// (tune_layout_unmet.json, a real output from before f was sent).
+func TestTuneLayoutF(t *testing.T) {
+	in := readFixture(t, "tune_layout_unmet.json")
+	conds := in.Tune.GetConditions()
+	if len(conds) == 0 {
+		t.Fatal("fixture has no condition")
+	}
+	for k, cr := range conds[0].GetCandidates() {
+		cr.Figures.OtherToOwn = &pb.ReplicationEstimate{Mean: 1.2 + float64(k), Low: 1.1 + float64(k), High: 1.3 + float64(k), N: 3}
+	}
+	page := render(t, in)
+	doc, err := html.Parse(strings.NewReader(page))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var fTables int
+	walk(doc, func(n *html.Node) {
+		if n.Data != "table" {
+			return
+		}
+		var head []string
+		walk(n, func(th *html.Node) {
+			if th.Data == "th" {
+				head = append(head, strings.Join(strings.Fields(text(th)), " "))
+			}
+		})
+		for _, h := range head {
+			if h == "f" {
+				fTables++
+			}
+		}
+	})
+	if fTables != len(conds) {
+		t.Errorf("%d tables with an f column, want one per condition (%d)", fTables, len(conds))
+	}
+	for _, want := range []string{"1.200 [1.100,\u00a01.300]", "figures.other_to_own in the JSON"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("layout tune page lacks %q", want)
+		}
+	}
+	if single := render(t, readFixture(t, "tune.json")); strings.Contains(single, "other_to_own") || strings.Contains(single, "<th>f</th>") {
+		t.Error("single-cell tune page has an f column")
+	}
+}
