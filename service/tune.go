@@ -130,7 +130,7 @@ func (s *Server) checkTune(req *pb.TuneRequest) (*tune.TunePlan, []Violation) {
 func tuneResponseBytes(req tune.Request, k int64) int64 {
 	est := &pb.ReplicationEstimate{Mean: 1.5, Low: 1.5, High: 1.5, N: 1 << 30}
 	fig := &pb.TuneFigures{SirErrorMeanDb: est, SirErrorStdDb: est, OutageProbability: est, AchievedBler: est,
-		BlerTarget: 0.1, TxPowerMeanDbm: est, MaxPowerFraction: est, NoiseRiseMeanDb: est, InfeasibleReplications: 1 << 30}
+		BlerTarget: 0.1, TxPowerMeanDbm: est, MaxPowerFraction: est, NoiseRiseMeanDb: est, InfeasibleReplications: 1 << 30, OtherToOwn: est}
 	row := &pb.CandidateResult{Candidate: 1 << 30, Objective: est, DiffToBest: est, Status: pb.CandidateStatus(1), Feasible: true}
 	overall := int64(proto.Size(row)) + 4
 	row.Figures = fig

@@ -110,7 +110,7 @@ func replicationEstimateToProto(e tune.ReplicationEstimate) *pb.ReplicationEstim
 }
 
 func tuneFiguresToProto(f tune.TuneFigures) *pb.TuneFigures {
-	return &pb.TuneFigures{
+	m := &pb.TuneFigures{
 		SirErrorMeanDb:         replicationEstimateToProto(f.SIRErrorMeanDB),
 		SirErrorStdDb:          replicationEstimateToProto(f.SIRErrorStdDB),
 		OutageProbability:      replicationEstimateToProto(f.OutageProbability),
@@ -121,6 +121,10 @@ func tuneFiguresToProto(f tune.TuneFigures) *pb.TuneFigures {
 		NoiseRiseMeanDb:        replicationEstimateToProto(f.NoiseRiseDB),
 		InfeasibleReplications: i32(f.InfeasibleReplications),
 	}
+	if f.OtherToOwn != nil {
+		m.OtherToOwn = replicationEstimateToProto(*f.OtherToOwn)
+	}
+	return m
 }
 
 func gridPointToProto(p tune.Point) *pb.GridPoint {

@@ -135,14 +135,15 @@ func LayoutParts(rep *pb.RunReport, interval func(e *pb.Estimate, scale float64,
 	row := func(label string, e *pb.Estimate, scale float64, dec int) {
 		all.Rows = append(all.Rows, []string{label, Num(scale*e.GetValue(), dec), interval(e, scale, dec)})
 	}
-	row("f", o.GetOtherToOwn(), 1, 3)
+	lrow := func(f LayoutFigure) { row(f.Label, f.Get(o), f.Scale, f.Dec) }
+	lrow(LayoutFigureF)
 	all.Rows = append(all.Rows,
 		[]string{"f 5th pct over cells and slots", Num(o.GetOtherToOwnSpreadP5(), 3), ""},
 		[]string{"f 95th pct over cells and slots", Num(o.GetOtherToOwnSpreadP95(), 3), ""})
 	fig := func(key string, e *pb.Estimate) { f := MustFigure(key); row(f.Label, e, f.Scale, f.Dec) }
 	fig("noise_rise_mean_db", o.GetNoiseRiseDb())
 	fig("outage_probability", o.GetOutageProbability())
-	row("soft-handover share (%)", o.GetSoftHandoverShare(), 100, 1)
+	lrow(LayoutFigureSoftHandover)
 	row("time at max power (%)", o.GetTimeAtMaxPower(), 100, 2)
 	row("time at max power, cell edge (%)", o.GetTimeAtMaxEdge(), 100, 2)
 
@@ -195,9 +196,63 @@ func LegStateName(i int, maxActive int32) string {
 	return fmt.Sprintf("3–%d", maxActive)
 }
 
+// LayoutFigure is a layout-wide figure (LayoutOverall) as the tables show
+// it: its column name, display scale and decimals.
+type LayoutFigure struct {
+	Label string
+	Scale float64
+	Dec   int
+	Get   func(*pb.LayoutOverall) *pb.Estimate
+}
+
+// The layout figures that the run's layout table and a layout sweep's or
+// tune's tables share, with one name each: f, the other-cell / own-cell
+// interference ratio over every cell (linear, 3 decimals), and the
+// soft-handover share, user-slots with two or more cells in the active
+// set (%, 1 decimal).
+var (
+	LayoutFigureF            = LayoutFigure{"f", 1, 3, (*pb.LayoutOverall).GetOtherToOwn}
+	LayoutFigureSoftHandover = LayoutFigure{"soft-handover share (%)", 100, 1, (*pb.LayoutOverall).GetSoftHandoverShare}
+	LayoutSweepFigures       = []LayoutFigure{LayoutFigureF, LayoutFigureSoftHandover}
+)
+
+// Cell is the figure of a layout report as "value [low, high]" (the value
+// alone without an interval), "–" for a single-cell report.
+func (f LayoutFigure) Cell(rep *pb.RunReport) string {
+	if rep.GetLayout() == nil {
+		return "–"
+	}
+	return cell(Figure{Scale: f.Scale, Dec: f.Dec}, f.Get(rep.GetLayout().GetOverall()))
+}
+
+// CandidatesHaveF reports whether any of a tune condition's candidates
+// carries f (TuneFigures.other_to_own: multi-cell mode); its candidate
+// table then has an f column.
+func CandidatesHaveF(crs []*pb.CandidateResult) bool {
+	for _, cr := range crs {
+		if cr.GetFigures().GetOtherToOwn() != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// CandidateFCell is a tune candidate's f with its interval over
+// replications, in the run table's decimals ("–" without f).
+func CandidateFCell(cr *pb.CandidateResult) string {
+	return estCell(cr.GetFigures().GetOtherToOwn(), LayoutFigureF.Scale, LayoutFigureF.Dec)
+}
+
 // LayoutFNote names f once with its field in the JSON and CSV: every table
 // of a layout says f after it.
-const LayoutFNote = "f (other_to_own in the JSON and CSV): other-cell / own-cell interference received at a cell (linear)"
+const LayoutFNote = "f (other_to_own in the JSON and CSV): " + layoutFMeaning
+
+// TuneFNote names f under a tune's candidate tables: the Recommendation's
+// JSON has it per candidate (figures.other_to_own), the tune CSV does not.
+const TuneFNote = "f (figures.other_to_own in the JSON, not in the CSV): " + layoutFMeaning
+
+// layoutFMeaning is what f is, in every note that names it.
+const layoutFMeaning = "other-cell / own-cell interference received at a cell (linear)"
 
 // IsCautionNote reports whether note n is the engine's caution about real
 // transmitters (the multi-cell engine adds one to its notes); a page that

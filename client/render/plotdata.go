@@ -254,10 +254,16 @@ func TuneAxisLines(rec *pb.Recommendation) (ls []plots.StepLine, path string, ok
 }
 
 // AxisValueLabel is the plot label of value v of the axis at field path p,
-// e.g. "step 0.5 dB" for inner_loop.step_db, "30 km/h" for a speed: the
-// last path element without its unit suffix, then the value and the unit.
+// e.g. "step 0.5 dB" for inner_loop.step_db: the last path element without
+// its unit suffix, then the value and the unit. A per-group field keeps its
+// group (and speeds entry) so the label does not read as every user's
+// value: "groups[1].speeds[0] 30 km/h", "groups[0] distance 300 m".
 func AxisValueLabel(p string, v float64) string {
-	short := p[strings.LastIndexByte(p, '.')+1:]
+	i := strings.LastIndexByte(p, '.')
+	prefix, short := "", p[i+1:]
+	if strings.HasPrefix(p, "groups[") && i >= 0 {
+		prefix = p[:i] + " "
+	}
 	unit := ""
 	for _, u := range []struct{ suf, unit string }{{"_db", "dB"}, {"_hz", "Hz"}, {"_kmh", "km/h"}, {"_slots", "slots"}, {"_dbm", "dBm"}, {"_m", "m"}, {"_s", "s"}} {
 		if strings.HasSuffix(short, u.suf) {
@@ -267,7 +273,7 @@ func AxisValueLabel(p string, v float64) string {
 	}
 	short = strings.ReplaceAll(short, "_", " ")
 	if short == "speed" {
-		return strconv.FormatFloat(v, 'g', 4, 64) + unit
+		return prefix + strconv.FormatFloat(v, 'g', 4, 64) + unit
 	}
-	return short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
+	return prefix + short + " " + strconv.FormatFloat(v, 'g', 4, 64) + unit
 }

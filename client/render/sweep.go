@@ -35,6 +35,14 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for _, k := range SweepTableFigures {
 		h = append(h, shortLabel(k))
 	}
+	// A layout's own figures (f and the soft-handover share, named as in
+	// the run's layout table) follow the single-cell ones.
+	layout := sweepHasLayout(pts)
+	if layout {
+		for _, f := range LayoutSweepFigures {
+			h = append(h, f.Label)
+		}
+	}
 	h = append(h, "load")
 	t := NewTable(h...)
 	for i := 0; i < len(h)-1; i++ {
@@ -63,6 +71,11 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 				withheld = p
 			}
 		}
+		if layout {
+			for _, f := range LayoutSweepFigures {
+				row = append(row, f.Cell(p.GetReport()))
+			}
+		}
 		load := "ok"
 		switch {
 		case p.GetReport().GetLayout() != nil:
@@ -74,6 +87,9 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		t.Add(append(row, load)...)
 	}
 	t.Write(w)
+	if layout {
+		fmt.Fprintln(w, LayoutFNote)
+	}
 	if noLoad {
 		fmt.Fprintln(w, "load –: feasibility is not computed in multi-cell mode")
 	}
@@ -91,6 +107,17 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 		// The points' caution note, once for the whole table.
 		fmt.Fprintln(w, CautionLine)
 	}
+}
+
+// sweepHasLayout reports whether any of the points ran on the multi-cell
+// engine (its table then has the layout's columns).
+func sweepHasLayout(pts []*pb.SweepPoint) bool {
+	for _, p := range pts {
+		if p.GetReport().GetLayout() != nil {
+			return true
+		}
+	}
+	return false
 }
 
 // sweepCSVHeader is the header of `sweep --format csv`; layout adds the

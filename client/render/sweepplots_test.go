@@ -122,3 +122,26 @@ func TestSweepNoIntervalReason(t *testing.T) {
 		}
 	}
 }
+
+// TestAxisValueLabelNamesTheGroup checks that a legend label of a per-group
+// axis keeps its group: "30 km/h" alone reads as every user's speed
+// when only groups[1].speeds[0] changed. The units are the proto field
+// suffixes (_kmh km/h, _db dB, _m m).
+func TestAxisValueLabelNamesTheGroup(t *testing.T) {
+	for _, tc := range []struct {
+		path string
+		v    float64
+		want string
+	}{
+		{"groups[1].speeds[0].speed_kmh", 30, "groups[1].speeds[0] 30 km/h"},
+		{"groups[0].speeds[2].speed_kmh", 120, "groups[0].speeds[2] 120 km/h"},
+		{"groups[0].distance_m", 300, "groups[0] distance 300 m"},
+		{"inner_loop.step_db", 0.5, "step 0.5 dB"},
+		{"layout.handover.window_db", 3, "window 3 dB"},
+		{"speed_kmh", 60, "60 km/h"},
+	} {
+		if got := AxisValueLabel(tc.path, tc.v); got != tc.want {
+			t.Errorf("AxisValueLabel(%q, %g) = %q, want %q", tc.path, tc.v, got, tc.want)
+		}
+	}
+}

@@ -202,7 +202,7 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 	}
 	fmt.Fprintln(w)
 
-	pp := false
+	pp, anyF := false, false
 	rb := ov.GetRankedBy()
 	diffHead := func(l *pb.FigureLabel) string {
 		u := l.GetDiffUnit()
@@ -283,13 +283,17 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			labels = append(labels, l)
 			h = append(h, LabelHead(l))
 		}
+		withF := CandidatesHaveF(c.GetCandidates())
+		if withF {
+			h = append(h, LayoutFigureF.Label)
+			anyF = true
+		}
 		h = append(h, "n", "status")
 		ct := NewTable(h...)
 		ct.AlignRight(0, 2, 3)
-		for i := range labels {
+		for i := range len(h) - 5 {
 			ct.AlignRight(4 + i)
 		}
-		ct.AlignRight(4 + len(labels))
 		for _, cr := range OrderedCandidates(d, c.GetCandidates()) {
 			mark := "  "
 			if cr.GetCandidate() == d.GetBest() {
@@ -307,6 +311,9 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 			for _, l := range labels {
 				row = append(row, labelCell(SearchFigure(cr.GetFigures(), l.GetKey()), l))
 			}
+			if withF {
+				row = append(row, CandidateFCell(cr))
+			}
 			row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
 			ct.Add(row...)
 		}
@@ -318,6 +325,9 @@ func TuneTable(w io.Writer, req *pb.TuneRequest, rec *pb.Recommendation) {
 		fmt.Fprint(w, "; pp = percentage points")
 	}
 	fmt.Fprintln(w)
+	if anyF {
+		fmt.Fprintln(w, TuneFNote)
+	}
 	ef := rec.GetEffort()
 	runs := Count(int(ef.GetReplications()), "candidate run", "candidate runs")
 	if b := int(ef.GetBaselineReplications()); b > 0 { // a layout has no fixed-power baseline

@@ -102,6 +102,16 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 	for _, k := range cols {
 		t.Head = append(t.Head, clirender.MustFigure(k).Head())
 	}
+	// A layout's own figures, named as in the run's layout table.
+	layout := false
+	for _, p := range pts {
+		layout = layout || p.GetReport().GetLayout() != nil
+	}
+	if layout {
+		for _, f := range clirender.LayoutSweepFigures {
+			t.Head = append(t.Head, f.Label)
+		}
+	}
 	t.Head = append(t.Head, "load")
 	t.Num = numCols(len(t.Head), rangeFrom(0, len(t.Head)-1)...)
 	noLoad := false
@@ -117,6 +127,15 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 		for _, k := range cols {
 			row = append(row, figureEstimate(k, p.GetReport().GetAggregate()))
 		}
+		if layout {
+			for _, f := range clirender.LayoutSweepFigures {
+				e := f.Get(p.GetReport().GetLayout().GetOverall())
+				if p.GetReport().GetLayout() == nil {
+					e = nil
+				}
+				row = append(row, estimate(e, f.Scale, f.Dec))
+			}
+		}
 		load := "ok"
 		switch {
 		case p.GetReport().GetLayout() != nil:
@@ -126,6 +145,9 @@ func buildSweep(d *doc, s *Sweep, engine string) error {
 			load = "infeasible"
 		}
 		t.add(p == best, append(row, load)...)
+	}
+	if layout {
+		t.Caption += " " + clirender.LayoutFNote + "."
 	}
 	if noLoad {
 		t.Caption += " Load –: feasibility is not computed in multi-cell mode."

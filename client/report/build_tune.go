@@ -250,6 +250,12 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 	for _, c := range cols {
 		t.Head = append(t.Head, clirender.LabelHead(c))
 	}
+	// Multi-cell: f of each candidate, as the CLI's condition tables.
+	withF := !overall && clirender.CandidatesHaveF(crs)
+	if withF {
+		t.Head = append(t.Head, clirender.LayoutFigureF.Label)
+		t.Caption += " " + clirender.TuneFNote + "."
+	}
 	t.Head = append(t.Head, "n", "status")
 	t.Num = numCols(len(t.Head), append([]int{0}, rangeFrom(2, len(t.Head)-1)...)...)
 	for _, cr := range crs {
@@ -269,6 +275,9 @@ func candidateTable(caption string, crs []*pb.CandidateResult, rec *pb.Recommend
 		row := []string{strconv.Itoa(int(cr.GetCandidate())), label, repEstimate(cr.GetObjective(), scale, dec), diff}
 		for _, c := range cols {
 			row = append(row, repEstimate(clirender.SearchFigure(f, c.GetKey()), c.GetDisplayScale(), int(c.GetDecimals())))
+		}
+		if withF {
+			row = append(row, repEstimate(f.GetOtherToOwn(), clirender.LayoutFigureF.Scale, clirender.LayoutFigureF.Dec))
 		}
 		row = append(row, strconv.Itoa(int(cr.GetObjective().GetN())), status)
 		t.add(cr.GetCandidate() == best, row...)

@@ -27,6 +27,10 @@ type TuneFigures struct {
 	// InfeasibleReplications counts replications the engine flagged as
 	// infeasible load.
 	InfeasibleReplications int `json:"infeasible_replications"`
+	// OtherToOwn is f in multi-cell mode, the layout-wide other-cell /
+	// own-cell interference ratio (linear, >= 0) over replications; nil
+	// for a single cell (or when no replication ran on a layout).
+	OtherToOwn *ReplicationEstimate `json:"other_to_own,omitempty"`
 }
 
 // figures summarises samples at confidence conf.
@@ -49,6 +53,10 @@ func figures(xs []Sample, conf float64) TuneFigures {
 	}
 	if len(xs) > 0 {
 		fg.BLERTarget = xs[0].BLERTarget
+	}
+	if len(xs) > 0 && xs[0].Layout {
+		f := clampEstimate(meanCI(col(func(s Sample) float64 { return s.OtherToOwn }), conf), 0, math.Inf(1))
+		fg.OtherToOwn = &f
 	}
 	for _, x := range xs {
 		if x.Infeasible {

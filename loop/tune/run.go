@@ -66,6 +66,12 @@ func sampleOf(sc *loop.Scenario, rep *loop.Report) (Sample, error) {
 		UserSlots:         rep.SimulatedUserSlots,
 		Infeasible:        rep.Feasibility.Infeasible,
 	}
+	if rep.Layout != nil {
+		s.Layout, s.OtherToOwn = true, rep.Layout.Overall.OtherToOwn.Value
+		if math.IsNaN(s.OtherToOwn) || math.IsInf(s.OtherToOwn, 0) {
+			s.OtherToOwn = 0
+		}
+	}
 	if sc.OuterLoop.Enabled {
 		s.BLERTarget = sc.OuterLoop.BLERTarget
 	}
@@ -109,6 +115,11 @@ type Sample struct {
 	TimeAtMaxPower float64 `json:"max_power_fraction"`
 	// NoiseRiseDB: mean noise rise at the receiver, dB.
 	NoiseRiseDB float64 `json:"noise_rise_mean_db"`
+	// Layout is set in multi-cell mode (the engine's report has a layout
+	// section); OtherToOwn is then f, the layout-wide other-cell /
+	// own-cell interference ratio (linear, >= 0), else 0.
+	Layout     bool    `json:"layout,omitempty"`
+	OtherToOwn float64 `json:"other_to_own,omitempty"`
 	// UserSlots simulated (users × slots, warm-up included).
 	UserSlots int64 `json:"user_slots"`
 	// Infeasible is set when the engine reported that the users cannot all

@@ -7,9 +7,12 @@ import (
 	"strings"
 	"testing"
 
+	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/client/render"
+	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
 // TestMultiCellRunAndMap: the multi-cell example runs from the CLI, prints
@@ -90,4 +93,26 @@ func TestMultiCellSweepPlot(t *testing.T) {
 	// Needs a layout.
 	fl(t, "sweep", "testdata/scenarios/small.json", "--slots", "300", "--quiet",
 		"--axis", "inner_loop.step_db=0.5,2", "--plot", "layout="+filepath.Join(dir, "x.png")).want(t, 2)
+}
+
+// TestMultiCellTuneF: a tune over the handover window on a layout sends
+// each candidate's f (figures.other_to_own) and its condition table shows
+// it in an f column with the note naming it.
+func TestMultiCellTuneF(t *testing.T) {
+	args := []string{"tune", "testdata/scenarios/harbour_town.json", "--slots", "600", "--quiet",
+		"--axis", "layout.handover.window_db=0,6", "--min-reps", "2", "--max-reps", "2"}
+	r := ok(t, args...)
+	if !strings.Contains(r.stdout, render.TuneFNote) || !regexp.MustCompile(`noise rise \(dB\) +f +n +status`).MatchString(r.stdout) {
+		t.Errorf("layout tune table has no f column or note:\n%s", r.stdout)
+	}
+	j := ok(t, append(args, "--format", "json")...)
+	rec := &pb.Recommendation{}
+	if err := protojson.Unmarshal([]byte(j.stdout), rec); err != nil {
+		t.Fatal(err)
+	}
+	for _, cr := range rec.GetConditions()[0].GetCandidates() {
+		if e := cr.GetFigures().GetOtherToOwn(); e == nil || e.GetN() != 2 || e.GetMean() <= 0 || e.GetLow() > e.GetMean() || e.GetHigh() < e.GetMean() {
+			t.Errorf("candidate %d: other_to_own %v, want a positive f over 2 replications", cr.GetCandidate(), e)
+		}
+	}
 }

@@ -41,7 +41,9 @@ An axis is PATH=V1,V2,..., PATH=FROM:TO:COUNT (evenly spaced, both ends
 included) or PATH=FROM:TO:COUNT:log (geometric). A condition is
 NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...]; a VALUE that is not a number sets a
 text or enum field (e.g. groups[0].profile=EVA). --speeds V1,V2,... is short
-for one condition per speed, setting speeds[0].speed_kmh of every group.
+for one condition per speed that sets only speeds[0].speed_kmh of every
+group (a group's other speeds entries keep their speeds); the condition is
+named by what it sets, "speeds[0].speed_kmh=60".
 A --request file is the protojson form (JSON or YAML) of
 fadeloop.v1.TuneRequest; flags add to it and override its objective,
 confidence and budget.
@@ -99,6 +101,14 @@ Examples:
 	})
 }
 
+// speedsConditionName names a --speeds condition by what it sets, in the
+// path=value form of the tables' candidate labels: "speeds[0].speed_kmh=60"
+// (km/h; every group's speeds[0], the other speeds entries unchanged), so
+// the name does not read as the speed of every user.
+func speedsConditionName(v float64) string {
+	return "speeds[0].speed_kmh=" + strconv.FormatFloat(v, 'g', 6, 64)
+}
+
 // tuneObjectives maps --objective to the proto kind.
 var tuneObjectives = map[string]pb.ObjectiveKind{
 	"std":    pb.ObjectiveKind_OBJECTIVE_KIND_MIN_SIR_ERROR_STD,
@@ -113,7 +123,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 	fs.Var(&axes, "axis", "candidate axis `PATH=V1,V2,...`, PATH=FROM:TO:COUNT or PATH=FROM:TO:COUNT:log; repeatable")
 	var conds conditionList
 	fs.Var(&conds, "condition", "condition `COND` to tune under: NAME[@WEIGHT]:PATH=VALUE[,PATH=VALUE...], weight 1 unless given; repeatable")
-	speeds := fs.String("speeds", "", "one condition per speed in km/h (`V1,V2,...`), weight 1 each")
+	speeds := fs.String("speeds", "", "one condition per speed in km/h (`V1,V2,...`), weight 1 each, named \"speeds[0].speed_kmh=V\": sets speeds[0] of every group, other speeds entries unchanged")
 	request := fs.String("request", "", "tuning request `FILE` (protojson TuneRequest in JSON or YAML)")
 	objective := fs.String("objective", "", "`OBJECTIVE`: std (SIR error std), outage, or power (mean Tx power with --outage-limit) (default std)")
 	outageLimit := fs.Float64("outage-limit", 0, "largest acceptable outage `P` (fraction), required by --objective power; a P above 0.1 also raises the high-outage warning level (0.1) to P")
@@ -156,7 +166,7 @@ func runTune(e *env, fs *flag.FlagSet) action {
 				if err != nil {
 					return badInputf("--speeds: %q is not a speed in km/h", f)
 				}
-				cd := &pb.Condition{Name: strconv.FormatFloat(v, 'g', 6, 64) + " km/h", Weight: 1}
+				cd := &pb.Condition{Name: speedsConditionName(v), Weight: 1}
 				for g := range req.Base.GetGroups() {
 					cd.Overrides = append(cd.Overrides, &pb.Override{Path: fmt.Sprintf("groups[%d].speeds[0].speed_kmh", g),
 						Value: &pb.Override_Number{Number: v}})

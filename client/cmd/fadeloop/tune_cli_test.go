@@ -41,10 +41,17 @@ func stripEffortTiming(t *testing.T, s string) string {
 
 func TestTuneCommand(t *testing.T) {
 	r := ok(t, tuneArgs...)
-	for _, want := range []string{"Verdict: ", "Runner-up:", "3 km/h", "60 km/h",
-		"fixed power", "Condition 3 km/h:", "Effort:", "equal allocation", "[low, high]"} {
+	// --speeds sets only speeds[0] of each group, so its conditions are
+	// named by that path, never by a bare speed that reads as every user's.
+	for _, want := range []string{"Verdict: ", "Runner-up:", "speeds[0].speed_kmh=3 ", "speeds[0].speed_kmh=60 ",
+		"fixed power", "Condition speeds[0].speed_kmh=3:", "Condition speeds[0].speed_kmh=60:", "Effort:", "equal allocation", "[low, high]"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("tune table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	for _, bad := range []string{"Condition 3 km/h", "Condition 60 km/h", "\n3 km/h", "\n60 km/h"} {
+		if strings.Contains(r.stdout, bad) {
+			t.Errorf("tune table names a --speeds condition by a bare speed (%q):\n%s", bad, r.stdout)
 		}
 	}
 	table := r.stdout
@@ -69,6 +76,18 @@ func TestTuneCommand(t *testing.T) {
 	}
 	if best != 1 {
 		t.Errorf("%d overall rows marked best, want 1", best)
+	}
+	for _, row := range rows[1:] {
+		if row[0] != "overall" && row[1] != "speeds[0].speed_kmh=3" && row[1] != "speeds[0].speed_kmh=60" {
+			t.Errorf("CSV condition %q, want the --speeds condition named by its path", row[1])
+		}
+	}
+	// The help says what --speeds changes and what it leaves alone.
+	h := strings.Join(strings.Fields(ok(t, "tune", "--help").stdout), " ")
+	for _, want := range []string{"sets only speeds[0].speed_kmh of every group", "other speeds entries keep their speeds", `"speeds[0].speed_kmh=60"`} {
+		if !strings.Contains(h, want) {
+			t.Errorf("tune --help lacks %q", want)
+		}
 	}
 
 	a := ok(t, append(tuneArgs, "--format", "json")...)

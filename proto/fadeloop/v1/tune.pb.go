@@ -814,8 +814,13 @@ type TuneFigures struct {
 	NoiseRiseMeanDb *ReplicationEstimate `protobuf:"bytes,8,opt,name=noise_rise_mean_db,json=noiseRiseMeanDb,proto3" json:"noise_rise_mean_db,omitempty"`
 	// Replications the engine flagged as infeasible load.
 	InfeasibleReplications int32 `protobuf:"varint,9,opt,name=infeasible_replications,json=infeasibleReplications,proto3" json:"infeasible_replications,omitempty"`
-	unknownFields          protoimpl.UnknownFields
-	sizeCache              protoimpl.SizeCache
+	// Multi-cell mode only (layout.sites set; unset for a single cell): f,
+	// the layout-wide other-cell / own-cell interference ratio received at
+	// the cells (linear, >= 0), the LayoutOverall.other_to_own of each
+	// replication, over replications.
+	OtherToOwn    *ReplicationEstimate `protobuf:"bytes,10,opt,name=other_to_own,json=otherToOwn,proto3" json:"other_to_own,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *TuneFigures) Reset() {
@@ -909,6 +914,13 @@ func (x *TuneFigures) GetInfeasibleReplications() int32 {
 		return x.InfeasibleReplications
 	}
 	return 0
+}
+
+func (x *TuneFigures) GetOtherToOwn() *ReplicationEstimate {
+	if x != nil {
+		return x.OtherToOwn
+	}
+	return nil
 }
 
 // Coord is one coordinate of a grid point.
@@ -2851,7 +2863,7 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x04mean\x18\x01 \x01(\x01R\x04mean\x12\x10\n" +
 	"\x03low\x18\x02 \x01(\x01R\x03low\x12\x12\n" +
 	"\x04high\x18\x03 \x01(\x01R\x04high\x12\f\n" +
-	"\x01n\x18\x04 \x01(\x05R\x01n\"\x83\x05\n" +
+	"\x01n\x18\x04 \x01(\x05R\x01n\"\xc7\x05\n" +
 	"\vTuneFigures\x12K\n" +
 	"\x11sir_error_mean_db\x18\x01 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x0esirErrorMeanDb\x12I\n" +
 	"\x10sir_error_std_db\x18\x02 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\rsirErrorStdDb\x12O\n" +
@@ -2862,7 +2874,10 @@ const file_fadeloop_v1_tune_proto_rawDesc = "" +
 	"\x11tx_power_mean_dbm\x18\x06 \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x0etxPowerMeanDbm\x12N\n" +
 	"\x12max_power_fraction\x18\a \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x10maxPowerFraction\x12M\n" +
 	"\x12noise_rise_mean_db\x18\b \x01(\v2 .fadeloop.v1.ReplicationEstimateR\x0fnoiseRiseMeanDb\x127\n" +
-	"\x17infeasible_replications\x18\t \x01(\x05R\x16infeasibleReplications\"E\n" +
+	"\x17infeasible_replications\x18\t \x01(\x05R\x16infeasibleReplications\x12B\n" +
+	"\fother_to_own\x18\n" +
+	" \x01(\v2 .fadeloop.v1.ReplicationEstimateR\n" +
+	"otherToOwn\"E\n" +
 	"\x05Coord\x12\x12\n" +
 	"\x04path\x18\x01 \x01(\tR\x04path\x12\x14\n" +
 	"\x05value\x18\x02 \x01(\x01R\x05value\x12\x12\n" +
@@ -3118,46 +3133,47 @@ var file_fadeloop_v1_tune_proto_depIdxs = []int32{
 	9,  // 6: fadeloop.v1.TuneFigures.tx_power_mean_dbm:type_name -> fadeloop.v1.ReplicationEstimate
 	9,  // 7: fadeloop.v1.TuneFigures.max_power_fraction:type_name -> fadeloop.v1.ReplicationEstimate
 	9,  // 8: fadeloop.v1.TuneFigures.noise_rise_mean_db:type_name -> fadeloop.v1.ReplicationEstimate
-	11, // 9: fadeloop.v1.GridPoint.coords:type_name -> fadeloop.v1.Coord
-	10, // 10: fadeloop.v1.CandidateResult.figures:type_name -> fadeloop.v1.TuneFigures
-	9,  // 11: fadeloop.v1.CandidateResult.objective:type_name -> fadeloop.v1.ReplicationEstimate
-	9,  // 12: fadeloop.v1.CandidateResult.diff_to_best:type_name -> fadeloop.v1.ReplicationEstimate
-	1,  // 13: fadeloop.v1.CandidateResult.status:type_name -> fadeloop.v1.CandidateStatus
-	3,  // 14: fadeloop.v1.DecisionWarning.kind:type_name -> fadeloop.v1.WarningKind
-	12, // 15: fadeloop.v1.Decision.setting:type_name -> fadeloop.v1.GridPoint
-	9,  // 16: fadeloop.v1.Decision.evidence:type_name -> fadeloop.v1.ReplicationEstimate
-	2,  // 17: fadeloop.v1.Decision.verdict:type_name -> fadeloop.v1.Verdict
-	14, // 18: fadeloop.v1.Decision.ranked_by:type_name -> fadeloop.v1.FigureLabel
-	15, // 19: fadeloop.v1.Decision.misses:type_name -> fadeloop.v1.ConstraintMiss
-	16, // 20: fadeloop.v1.Decision.warnings:type_name -> fadeloop.v1.DecisionWarning
-	10, // 21: fadeloop.v1.Baseline.figures:type_name -> fadeloop.v1.TuneFigures
-	9,  // 22: fadeloop.v1.Baseline.gain:type_name -> fadeloop.v1.ReplicationEstimate
-	14, // 23: fadeloop.v1.Baseline.figure:type_name -> fadeloop.v1.FigureLabel
-	9,  // 24: fadeloop.v1.Baseline.fixed:type_name -> fadeloop.v1.ReplicationEstimate
-	9,  // 25: fadeloop.v1.Baseline.recommended:type_name -> fadeloop.v1.ReplicationEstimate
-	17, // 26: fadeloop.v1.ConditionResult.decision:type_name -> fadeloop.v1.Decision
-	13, // 27: fadeloop.v1.ConditionResult.candidates:type_name -> fadeloop.v1.CandidateResult
-	18, // 28: fadeloop.v1.ConditionResult.baseline:type_name -> fadeloop.v1.Baseline
-	6,  // 29: fadeloop.v1.Recommendation.objective:type_name -> fadeloop.v1.Objective
-	12, // 30: fadeloop.v1.Recommendation.candidates:type_name -> fadeloop.v1.GridPoint
-	19, // 31: fadeloop.v1.Recommendation.conditions:type_name -> fadeloop.v1.ConditionResult
-	17, // 32: fadeloop.v1.Recommendation.overall:type_name -> fadeloop.v1.Decision
-	13, // 33: fadeloop.v1.Recommendation.overall_candidates:type_name -> fadeloop.v1.CandidateResult
-	20, // 34: fadeloop.v1.Recommendation.effort:type_name -> fadeloop.v1.TuneEffort
-	14, // 35: fadeloop.v1.Recommendation.figures:type_name -> fadeloop.v1.FigureLabel
-	8,  // 36: fadeloop.v1.TuneResponse.progress:type_name -> fadeloop.v1.SearchProgress
-	21, // 37: fadeloop.v1.TuneResponse.recommendation:type_name -> fadeloop.v1.Recommendation
-	28, // 38: fadeloop.v1.CapacityRequest.base:type_name -> fadeloop.v1.Scenario
-	10, // 39: fadeloop.v1.CapacityPoint.figures:type_name -> fadeloop.v1.TuneFigures
-	25, // 40: fadeloop.v1.CapacityResult.evaluated:type_name -> fadeloop.v1.CapacityPoint
-	24, // 41: fadeloop.v1.CapacityResult.pole_params:type_name -> fadeloop.v1.PoleParams
-	8,  // 42: fadeloop.v1.CapacityResponse.progress:type_name -> fadeloop.v1.SearchProgress
-	26, // 43: fadeloop.v1.CapacityResponse.result:type_name -> fadeloop.v1.CapacityResult
-	44, // [44:44] is the sub-list for method output_type
-	44, // [44:44] is the sub-list for method input_type
-	44, // [44:44] is the sub-list for extension type_name
-	44, // [44:44] is the sub-list for extension extendee
-	0,  // [0:44] is the sub-list for field type_name
+	9,  // 9: fadeloop.v1.TuneFigures.other_to_own:type_name -> fadeloop.v1.ReplicationEstimate
+	11, // 10: fadeloop.v1.GridPoint.coords:type_name -> fadeloop.v1.Coord
+	10, // 11: fadeloop.v1.CandidateResult.figures:type_name -> fadeloop.v1.TuneFigures
+	9,  // 12: fadeloop.v1.CandidateResult.objective:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 13: fadeloop.v1.CandidateResult.diff_to_best:type_name -> fadeloop.v1.ReplicationEstimate
+	1,  // 14: fadeloop.v1.CandidateResult.status:type_name -> fadeloop.v1.CandidateStatus
+	3,  // 15: fadeloop.v1.DecisionWarning.kind:type_name -> fadeloop.v1.WarningKind
+	12, // 16: fadeloop.v1.Decision.setting:type_name -> fadeloop.v1.GridPoint
+	9,  // 17: fadeloop.v1.Decision.evidence:type_name -> fadeloop.v1.ReplicationEstimate
+	2,  // 18: fadeloop.v1.Decision.verdict:type_name -> fadeloop.v1.Verdict
+	14, // 19: fadeloop.v1.Decision.ranked_by:type_name -> fadeloop.v1.FigureLabel
+	15, // 20: fadeloop.v1.Decision.misses:type_name -> fadeloop.v1.ConstraintMiss
+	16, // 21: fadeloop.v1.Decision.warnings:type_name -> fadeloop.v1.DecisionWarning
+	10, // 22: fadeloop.v1.Baseline.figures:type_name -> fadeloop.v1.TuneFigures
+	9,  // 23: fadeloop.v1.Baseline.gain:type_name -> fadeloop.v1.ReplicationEstimate
+	14, // 24: fadeloop.v1.Baseline.figure:type_name -> fadeloop.v1.FigureLabel
+	9,  // 25: fadeloop.v1.Baseline.fixed:type_name -> fadeloop.v1.ReplicationEstimate
+	9,  // 26: fadeloop.v1.Baseline.recommended:type_name -> fadeloop.v1.ReplicationEstimate
+	17, // 27: fadeloop.v1.ConditionResult.decision:type_name -> fadeloop.v1.Decision
+	13, // 28: fadeloop.v1.ConditionResult.candidates:type_name -> fadeloop.v1.CandidateResult
+	18, // 29: fadeloop.v1.ConditionResult.baseline:type_name -> fadeloop.v1.Baseline
+	6,  // 30: fadeloop.v1.Recommendation.objective:type_name -> fadeloop.v1.Objective
+	12, // 31: fadeloop.v1.Recommendation.candidates:type_name -> fadeloop.v1.GridPoint
+	19, // 32: fadeloop.v1.Recommendation.conditions:type_name -> fadeloop.v1.ConditionResult
+	17, // 33: fadeloop.v1.Recommendation.overall:type_name -> fadeloop.v1.Decision
+	13, // 34: fadeloop.v1.Recommendation.overall_candidates:type_name -> fadeloop.v1.CandidateResult
+	20, // 35: fadeloop.v1.Recommendation.effort:type_name -> fadeloop.v1.TuneEffort
+	14, // 36: fadeloop.v1.Recommendation.figures:type_name -> fadeloop.v1.FigureLabel
+	8,  // 37: fadeloop.v1.TuneResponse.progress:type_name -> fadeloop.v1.SearchProgress
+	21, // 38: fadeloop.v1.TuneResponse.recommendation:type_name -> fadeloop.v1.Recommendation
+	28, // 39: fadeloop.v1.CapacityRequest.base:type_name -> fadeloop.v1.Scenario
+	10, // 40: fadeloop.v1.CapacityPoint.figures:type_name -> fadeloop.v1.TuneFigures
+	25, // 41: fadeloop.v1.CapacityResult.evaluated:type_name -> fadeloop.v1.CapacityPoint
+	24, // 42: fadeloop.v1.CapacityResult.pole_params:type_name -> fadeloop.v1.PoleParams
+	8,  // 43: fadeloop.v1.CapacityResponse.progress:type_name -> fadeloop.v1.SearchProgress
+	26, // 44: fadeloop.v1.CapacityResponse.result:type_name -> fadeloop.v1.CapacityResult
+	45, // [45:45] is the sub-list for method output_type
+	45, // [45:45] is the sub-list for method input_type
+	45, // [45:45] is the sub-list for extension type_name
+	45, // [45:45] is the sub-list for extension extendee
+	0,  // [0:45] is the sub-list for field type_name
 }
 
 func init() { file_fadeloop_v1_tune_proto_init() }
