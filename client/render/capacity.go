@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"strconv"
+	"strings"
 
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
@@ -38,6 +39,9 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 	default:
 		fmt.Fprintf(w, "Capacity of group %d%s at outage ≤ %g %%: %d in the group, %s\n",
 			g, gname, limit, res.GetCount(), all)
+	}
+	for _, l := range CapacityScope(req, res) {
+		fmt.Fprintln(w, Wrap(l, 78, "  "))
 	}
 	fmt.Fprintln(w, CapacityPoleLines(req, res))
 	fmt.Fprintln(w)
@@ -97,7 +101,9 @@ func CapacityTable(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult)
 
 // CapacityCSV writes one row per evaluated count of a capacity search.
 // Single cell: count, total_users, pass, outage_ok, noise_rise_ok,
-// load_feasible, capacity, n, then the figures. Multi-cell (req's base has
+// load_feasible, capacity, n, then the figures, then varied_group (the
+// group index), varied_group_name and fixed_users (the other groups' users,
+// per cell for a layout, held at their scenario counts). Multi-cell (req's base has
 // a layout): the users column holds users per cell and is named
 // users_per_cell, layout_users (users per cell × cells) follows it, and
 // load_feasible is empty (not computed).
@@ -109,7 +115,16 @@ func CapacityCSV(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult) e
 	if layout {
 		h = []string{"count", "users_per_cell", "layout_users"}
 	}
-	cw.Write(append(append(h, "pass", "outage_ok", "noise_rise_ok", "load_feasible", "capacity", "n"), searchFigureHeader()...))
+	// The varied group and the fixed users close every row, after the
+	// figures, so the earlier columns keep their places.
+	cw.Write(append(append(append(h, "pass", "outage_ok", "noise_rise_ok", "load_feasible", "capacity", "n"), searchFigureHeader()...),
+		"varied_group", "varied_group_name", "fixed_users"))
+	gname := ""
+	if gs := req.GetBase().GetGroups(); int(req.GetGroup()) < len(gs) {
+		gname = gs[req.GetGroup()].GetName()
+	}
+	nFixed, _ := CapacityFixed(req)
+	scope := []string{strconv.Itoa(int(req.GetGroup())), gname, strconv.Itoa(nFixed)}
 	for _, p := range res.GetEvaluated() {
 		r := []string{strconv.Itoa(int(p.GetCount())), strconv.Itoa(int(p.GetTotalUsers()))}
 		feasible := strconv.FormatBool(p.GetLoadFeasible())
@@ -121,10 +136,107 @@ func CapacityCSV(w io.Writer, req *pb.CapacityRequest, res *pb.CapacityResult) e
 			strconv.FormatBool(p.GetOutageOk()), strconv.FormatBool(p.GetNoiseRiseOk()), feasible,
 			strconv.FormatBool(p.GetCount() == res.GetCount() && !res.GetBelowRange()),
 			strconv.Itoa(int(p.GetFigures().GetOutageProbability().GetN())))
-		cw.Write(append(r, searchFigureCells(p.GetFigures())...))
+		cw.Write(append(append(r, searchFigureCells(p.GetFigures())...), scope...))
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// CapacityGroupLabel is the varied group of a capacity search as
+// `group 0 ("pedestrians")` (the name left out when empty or unknown).
+func CapacityGroupLabel(req *pb.CapacityRequest) string {
+	g := req.GetGroup()
+	s := fmt.Sprintf("group %d", g)
+	if gs := req.GetBase().GetGroups(); int(g) < len(gs) && gs[g].GetName() != "" {
+		s += fmt.Sprintf(" (%q)", gs[g].GetName())
+	}
+	return s
+}
+
+// CapacityFixed is the users of a capacity search's base outside the
+// varied group, held at their scenario counts (per cell for a layout):
+// their number and a description such as `8 users in group 1 ("cars")`
+// or "no other users" when the varied group is the only one.
+func CapacityFixed(req *pb.CapacityRequest) (int, string) {
+	unit := "users"
+	if CapacityIsLayout(req) {
+		unit = "users per cell"
+	}
+	total := 0
+	var names, parts []string
+	for i, gr := range req.GetBase().GetGroups() {
+		if int32(i) == req.GetGroup() {
+			continue
+		}
+		total += int(gr.GetCount())
+		n := fmt.Sprintf("group %d", i)
+		if gr.GetName() != "" {
+			n += fmt.Sprintf(" (%q)", gr.GetName())
+		}
+		names = append(names, n)
+		parts = append(parts, fmt.Sprintf("%d in %s", gr.GetCount(), n))
+	}
+	switch len(parts) {
+	case 0:
+		return 0, "no other users"
+	case 1:
+		return total, fmt.Sprintf("%d %s in %s", total, unit, names[0])
+	}
+	return total, fmt.Sprintf("%d %s (%s)", total, unit, strings.Join(parts, ", "))
+}
+
+// CapacityScope is the lines every capacity output prints about what was
+// varied: the varied group (index, name and the scenario's own count of
+// it) and the users of the other groups held fixed. When even the
+// smallest count tried fails, a second line says so and states what the
+// result holds about the scenario's own count of the group: not tried,
+// or tried with its outcome (a pass there means the pass/fail outcome was
+// not monotone in this group's count). Only measured outcomes are stated.
+func CapacityScope(req *pb.CapacityRequest, res *pb.CapacityResult) []string {
+	gl := CapacityGroupLabel(req)
+	own := int32(-1)
+	if gs := req.GetBase().GetGroups(); int(req.GetGroup()) < len(gs) {
+		own = gs[req.GetGroup()].GetCount()
+	}
+	nFixed, fixed := CapacityFixed(req)
+	ownText := ""
+	if own >= 0 {
+		ownText = fmt.Sprintf(", %d in the scenario", own)
+	}
+	lines := []string{fmt.Sprintf("Varied: the count of %s%s. Held fixed at their scenario counts: %s.", gl, ownText, fixed)}
+	if !res.GetBelowRange() || len(res.GetEvaluated()) == 0 {
+		return lines
+	}
+	smallest := res.GetEvaluated()[0]
+	for _, p := range res.GetEvaluated() {
+		if p.GetCount() < smallest.GetCount() {
+			smallest = p
+		}
+	}
+	note := fmt.Sprintf("The smallest count tried already fails: %d in %s, %s.", smallest.GetCount(), gl, CapacityUsers(req, smallest.GetTotalUsers()))
+	if own < 0 {
+		return append(lines, note)
+	}
+	var at *pb.CapacityPoint
+	for _, p := range res.GetEvaluated() {
+		if p.GetCount() == own {
+			at = p
+		}
+	}
+	switch {
+	case at == nil:
+		note += fmt.Sprintf(" The scenario's own count, %d, was not tried: this result says nothing about it (fadeloop run gives its figures).", own)
+	case at.GetPass():
+		unit := "users"
+		if CapacityIsLayout(req) {
+			unit = "users per cell"
+		}
+		note += fmt.Sprintf(" The scenario's own count, %d, passes (outage %s %%): with the other groups (%d %s) held fixed, the outcome is not monotone in this group's count here.",
+			own, SearchCell(at.GetFigures(), "outage_probability"), nFixed, unit)
+	default:
+		note += fmt.Sprintf(" The scenario's own count, %d, fails too.", own)
+	}
+	return append(lines, note)
 }
 
 // CapacityIsLayout reports a capacity search of a multi-cell base

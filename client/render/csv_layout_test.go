@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -209,7 +210,7 @@ func TestSweepTableWithheldNote(t *testing.T) {
 			rep.Notes = append(rep.Notes, why)
 		}
 		// The multi-cell engine's caution note, on every layout report.
-		rep.Notes = append(rep.Notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
+		rep.Notes = append(rep.Notes, loop.Caution)
 		var b bytes.Buffer
 		SweepTable(&b, &pb.SweepRequest{Axes: []*pb.SweepAxis{{Path: "layout.handover.window_db"}}}, []*pb.SweepPoint{{Index: 4, Coordinates: []float64{3}, Report: rep}}, nil)
 		out := b.String()
@@ -219,7 +220,8 @@ func TestSweepTableWithheldNote(t *testing.T) {
 		if strings.Contains(out, "- simulated settings do not replace") {
 			t.Errorf("%s: the caution is printed among the notes:\n%s", tc.name, out)
 		}
-		if n := strings.Count(out, "do not replace the operator"); n != 1 || !strings.HasSuffix(strings.TrimSpace(out), CautionLine) {
+		// The caution is wrapped at 78 columns: compare with spaces joined.
+		if n := strings.Count(out, "do not replace the operator"); n != 1 || !strings.HasSuffix(strings.Join(strings.Fields(out), " "), CautionLine) {
 			t.Errorf("%s: caution %d times (want once, last):\n%s", tc.name, n, out)
 		}
 	}

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/fadeloop/fadeloop/client/plots"
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -261,9 +262,9 @@ func IsCautionNote(n string) bool {
 	return strings.Contains(strings.ToLower(n), "do not replace the operator")
 }
 
-// LayoutTable prints the multi-cell section of a report (LayoutParts),
-// then the caution about real transmitters (RunTable leaves it out of the
-// notes it prints).
+// LayoutTable prints the multi-cell section of a report (LayoutParts);
+// RunTable prints the caution about real transmitters once at its end
+// (and leaves the engine's caution note out of the notes it prints).
 func LayoutTable(w io.Writer, rep *pb.RunReport) {
 	parts := LayoutParts(rep, ci)
 	if parts == nil {
@@ -283,13 +284,11 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 		}
 		t.Write(w)
 	}
-	fmt.Fprintln(w)
-	fmt.Fprintln(w, CautionLine)
 }
 
-// CautionLine closes a CLI table whose report carries the engine's caution
-// note (IsCautionNote), once per output.
-const CautionLine = "Simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice."
+// CautionLine closes every CLI run and sweep table, once per output: the
+// one wording of the caution about real transmitters (loop.Caution).
+const CautionLine = loop.Caution
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:
 // the cells with their names, sites and boresights, the group names, and

@@ -7,6 +7,7 @@ import (
 	"testing"
 	"unicode/utf8"
 
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -33,7 +34,7 @@ func layoutReport(withheld bool) *pb.RunReport {
 			Cells: []*pb.LayoutCell{{Name: "S0/0", ServedUsers: 7.9, OtherToOwn: e(1.647), NoiseRiseDb: e(1.39)}},
 		},
 		Notes: []string{"multi-cell mode: see layout", "one replication: no intervals",
-			"simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice"},
+			loop.Caution},
 	}
 }
 

@@ -33,6 +33,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		fmt.Fprintf(w, "%d users, seed %d, engine %s: not simulated\n\n", agg.GetUsers(), rep.GetSeed(), rep.GetEngineVersion())
 		fmt.Fprintln(w, Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
 		fmt.Fprintln(w, "No figures: nothing was simulated.")
+		fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
 		return
 	}
 	fmt.Fprintf(w, "%d users, %s slots × %s after %s warm-up slots, seed %d, engine %s\n",
@@ -58,7 +59,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 	// The report's notes (why an interval marked "–" is missing and what
 	// to change, a warm-up too short for the outer loop, users that never
 	// converged, …); the caution about real transmitters comes last, once
-	// (LayoutTable).
+	// per output, for a single cell and a layout alike.
 	var notes []string
 	for _, n := range rep.GetNotes() {
 		if !IsCautionNote(n) {
@@ -114,6 +115,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		}
 		ut.Write(w)
 	}
+	fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
 }
 
 // RunCSVHeader is the header of `run --format csv`; layout (a multi-cell

@@ -48,15 +48,12 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	for i := 0; i < len(h)-1; i++ {
 		t.AlignRight(i)
 	}
-	noLoad, caution := false, false
+	noLoad := false
 	var withheld *pb.SweepPoint // the first point with a value shown without its interval
 	for _, p := range pts {
 		row := []string{strconv.FormatInt(p.GetIndex(), 10)}
 		for i, c := range p.GetCoordinates() {
 			row = append(row, coordinateText(p, i, c, func(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }))
-		}
-		for _, n := range p.GetReport().GetNotes() {
-			caution = caution || IsCautionNote(n)
 		}
 		unsimulated := notSimulated(p.GetReport())
 		for _, k := range SweepTableFigures {
@@ -103,10 +100,9 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 			}
 		}
 	}
-	if caution {
-		// The points' caution note, once for the whole table.
-		fmt.Fprintln(w, CautionLine)
-	}
+	// The caution about real transmitters, once for the whole table (the
+	// points' own caution notes are left out above).
+	fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
 }
 
 // sweepHasLayout reports whether any of the points ran on the multi-cell

@@ -23,10 +23,7 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 	group := "the group"
 	limit := ""
 	if req != nil {
-		group = fmt.Sprintf("group %d", req.GetGroup())
-		if gs := req.GetBase().GetGroups(); int(req.GetGroup()) < len(gs) && gs[req.GetGroup()].GetName() != "" {
-			group += fmt.Sprintf(" (%q)", gs[req.GetGroup()].GetName())
-		}
+		group = clirender.CapacityGroupLabel(req)
 		limit = " at outage ≤ " + num(100*req.GetOutageLimit(), 2) + " %"
 	}
 	// Multi-cell: the counts are per cell (the layout's total beside
@@ -39,11 +36,16 @@ func buildCapacity(d *doc, res *pb.CapacityResult, req *pb.CapacityRequest, engi
 	}
 	switch {
 	case res.GetBelowRange():
-		d.Verdict = verdict{Class: "bad", Headline: "Even the smallest count searched fails" + limit + "."}
+		d.Verdict = verdict{Class: "bad", Headline: "Even the smallest count searched of " + group + " fails" + limit + "."}
 	case res.GetAtRangeTop():
 		d.Verdict = verdict{Class: "warn", Headline: fmt.Sprintf("Capacity of %s%s: at least %d (the top of the searched range), %s", group, limit, res.GetCount(), users)}
 	default:
 		d.Verdict = verdict{Class: "ok", Headline: fmt.Sprintf("Capacity of %s%s: %d in the group, %s", group, limit, res.GetCount(), users)}
+	}
+	if req != nil {
+		// What was varied and what held fixed, in the passing and the
+		// failing case alike.
+		d.Verdict.Lines = append(d.Verdict.Lines, clirender.CapacityScope(req, res)...)
 	}
 	if r := res.GetReason(); r != "" {
 		d.Verdict.Lines = append(d.Verdict.Lines, r)

@@ -120,3 +120,33 @@ func TestSweepPageLoadLayout(t *testing.T) {
 		})
 	}
 }
+
+// A capacity page whose smallest count fails still names the varied group
+// (index and name) in its headline and gives the fixed users and what the
+// result holds about the scenario's own count (here: not tried).
+func TestCapacityPageBelowRangeScope(t *testing.T) {
+	est := func(m float64) *pb.ReplicationEstimate {
+		return &pb.ReplicationEstimate{Mean: m, Low: m - 0.01, High: m + 0.01, N: 2}
+	}
+	base := &pb.Scenario{Name: "cell", Groups: []*pb.UserGroup{{Name: "walkers", Count: 16}, {Name: "cars", Count: 8}}}
+	res := &pb.CapacityResult{BelowRange: true, TotalUsers: 8, Reason: "Even the smallest count tried misses the limits.",
+		Evaluated: []*pb.CapacityPoint{{Count: 1, TotalUsers: 9,
+			Figures: &pb.TuneFigures{OutageProbability: est(0.15), NoiseRiseMeanDb: est(0.6)}}}}
+	req := &pb.CapacityRequest{Base: base, OutageLimit: 0.1, Replications: 4}
+	page := render(t, Input{Capacity: res, CapacityRequest: req, Source: "test"})
+	doc, err := html.Parse(strings.NewReader(page))
+	if err != nil {
+		t.Fatal(err)
+	}
+	body := strings.Join(strings.Fields(text(doc)), " ")
+	for _, s := range []string{
+		`Even the smallest count searched of group 0 ("walkers") fails at outage ≤ 10.00 %.`,
+		`Varied: the count of group 0 ("walkers"), 16 in the scenario. Held fixed at their scenario counts: 8 users in group 1 ("cars").`,
+		`The smallest count tried already fails: 1 in group 0 ("walkers"), 9 users in all.`,
+		`The scenario's own count, 16, was not tried`,
+	} {
+		if !strings.Contains(body, s) {
+			t.Errorf("page lacks %q", s)
+		}
+	}
+}

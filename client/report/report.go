@@ -27,6 +27,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -184,11 +185,8 @@ func ReadResult(r io.Reader) (Input, error) {
 	return in, nil
 }
 
-// Caution is the notice printed on every report (the README's wording).
-const Caution = "fadeloop's figures come from a model. Simulated settings are not a " +
-	"substitute for the operator's radio planning, for the regulatory limits on " +
-	"transmit power and exposure that apply where a transmitter is used, or for " +
-	"licensed practice. Do not configure real transmitters from these numbers alone."
+// Caution is the notice printed once on every report (loop.Caution).
+const Caution = loop.Caution
 
 // page is parsed once; its data is a *doc.
 var page = template.Must(template.New("report").Parse(pageTemplate))

@@ -232,7 +232,7 @@ func ToLoopReport(sc loop.Scenario, r *Report) *loop.Report {
 	if note := sc.OuterLoop.WarmupNote(sc.Run.WarmupSlots); note != "" {
 		notes = append(notes, note)
 	}
-	notes = append(notes, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, and licensed practice")
+	notes = append(notes, loop.Caution)
 	return &loop.Report{
 		Aggregate:          agg,
 		NormalisedScenario: sc,

@@ -210,7 +210,7 @@ type CapacityResult struct {
 	Headline string `json:"headline"`
 	// Reason is a plain-language summary.
 	Reason string `json:"reason"`
-	// Notice: simulated capacities do not replace the operator's planning.
+	// Notice is loop.Caution: simulated capacities do not replace the operator's planning.
 	Notice string `json:"notice"`
 }
 
@@ -238,7 +238,7 @@ func (plan *CapacityPlan) Run(ctx context.Context, opt Options) (*CapacityResult
 	eval := capacityEvaluator(opt, set.base.MultiCell())
 	base, others, top, lo, hi, reps, conf, nrLim := set.base, set.others, set.top, set.lo, set.hi, set.reps, set.conf, set.nrLim
 	e := &engine{parallel: opt.Parallelism, progress: opt.Progress}
-	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: Notice}
+	res := &CapacityResult{OutageLimit: req.OutageLimit, NoiseRiseLimitDB: nrLim, Notice: loop.Caution}
 	memo := map[int]*CapacityPoint{}
 	seed := base.Run.Seed
 	// eval1 evaluates count n; remaining is the number of counts left in

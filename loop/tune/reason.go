@@ -6,13 +6,9 @@ import (
 	"sort"
 	"strconv"
 	"strings"
-)
 
-// Notice is carried by every recommendation and capacity result and printed
-// with them: the figures come from a simulation.
-const Notice = "Simulated settings and capacities are a starting point for engineering judgement: " +
-	"they do not replace the operator's radio planning, the regulatory limits on transmit power " +
-	"and RF exposure, or licensed practice."
+	"github.com/fadeloop/fadeloop/loop"
+)
 
 // Regimes of f_D·T used in the reasons (common practice): below
 // slowFadingProduct a one-bit loop follows the channel easily and its own
@@ -575,5 +571,5 @@ func (r *Recommendation) Lines() []string {
 	if d.Verdict == VerdictTie {
 		out = append(out, "Tie rule: "+r.TieRule+".")
 	}
-	return append(out, Notice)
+	return append(out, loop.Caution)
 }

@@ -298,8 +298,8 @@ type Recommendation struct {
 	// Figures labels every figure of Figures (name, unit, difference
 	// unit, display scale) in FigureKeys order.
 	Figures []FigureLabel `json:"figures"`
-	// Notice is the statement every output carries: simulated settings do
-	// not replace the operator's planning (Notice).
+	// Notice is the statement every output carries once (loop.Caution):
+	// simulated settings do not replace the operator's planning.
 	Notice string `json:"notice"`
 }
 

@@ -75,7 +75,7 @@ func (p *TunePlan) Run(ctx context.Context, opt Options) (*Recommendation, error
 		Seed:       seed,
 		TieRule:    TieRule,
 		Figures:    FigureLabels(),
-		Notice:     Notice,
+		Notice:     loop.Caution,
 	}
 	for c, cd := range set.conds {
 		o := outs[c]

@@ -360,7 +360,7 @@ func checkRecommendation(t *testing.T, name string, rec *Recommendation) {
 		checkDecision(t, name+"/"+cr.Name, cr.Decision, cr.Candidates, nK)
 	}
 	checkDecision(t, name+"/overall", rec.Overall, rec.OverallCandidates, nK)
-	if ls := rec.Lines(); ls[0] != rec.Overall.Headline || ls[len(ls)-1] != Notice {
+	if ls := rec.Lines(); ls[0] != rec.Overall.Headline || ls[len(ls)-1] != loop.Caution {
 		t.Errorf("%s: lines %q", name, ls)
 	}
 }

@@ -38,7 +38,7 @@ func TestMultiCellRunAndMap(t *testing.T) {
 	r := ok(t, "run", "testdata/scenarios/harbour_town.json", "--slots", "600", "--replications", "2", "--quiet",
 		"--plot", "map="+filepath.Join(dir, "map.png"), "--plot", "map-power="+filepath.Join(dir, "map-power.svg"))
 	for _, want := range []string{"fadeloop-multicell", "f (other_to_own in the JSON and CSV)", "soft-handover share (%)",
-		"by handover state", "S6/2", "noise rise 95th pct (dB)", "do not replace the operator's planning"} {
+		"by handover state", "S6/2", "noise rise 95th pct (dB)", "do not replace the operator's radio planning"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("run table lacks %q:\n%s", want, r.stdout)
 		}

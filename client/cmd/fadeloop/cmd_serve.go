@@ -32,8 +32,7 @@ TLS: --tls-cert and --tls-key are the server's certificate and key; with
 (mutual TLS). --auth-token-file (or FADELOOPD_AUTH_TOKEN) requires a bearer
 token on every call except health checks.
 
-Simulated settings do not replace the operator's radio planning, regulatory
-limits on power and exposure, or licensed practice.
+` + cautionHelp + `
 
 Examples:
   fadeloop serve

@@ -91,8 +91,7 @@ queue and says so.
 
 --report FILE.html writes an HTML report of the sweep (either path).
 
-Simulated settings do not replace the operator's radio planning, regulatory
-limits on transmit power and exposure, or licensed practice.
+` + cautionHelp + `
 
 Examples:
   fadeloop sweep --axis inner_loop.step_db=0.25,0.5,1,2 --slots 15000

@@ -36,7 +36,14 @@ import (
 
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
+
+	"github.com/fadeloop/fadeloop/client/render"
+	"github.com/fadeloop/fadeloop/loop"
 )
+
+// cautionHelp is loop.Caution wrapped for the help texts (root, sweep,
+// serve): the one wording of the caution about real transmitters.
+var cautionHelp = render.Wrap(loop.Caution, 78, "")
 
 // Exit codes.
 const (
@@ -154,8 +161,7 @@ func newRoot(e *env) *cobra.Command {
 fading channels with near-far users, against a fadeloop server or an
 embedded one.
 
-Simulated settings do not replace the operator's radio planning, the
-regulatory limits on transmit power and exposure, or licensed practice.
+` + cautionHelp + `
 
 Environment: every flag may also be set as FADELOOP_ followed by its name in
 upper case with '-' turned into '_' (FADELOOP_SERVER, FADELOOP_FORMAT,

@@ -17,8 +17,9 @@
 //	go run ./client/examples/lockstep                      # in-process service
 //	go run ./client/examples/lockstep -server 127.0.0.1:50051
 //
-// Simulated settings do not replace the operator's planning, regulatory
-// limits on power and exposure, or licensed practice.
+// Simulated settings do not replace the operator's radio planning, the
+// regulatory limits on transmit power and exposure, or licensed practice
+// (loop.Caution, printed at the end).
 package main
 
 import (
@@ -32,6 +33,7 @@ import (
 	"os"
 
 	"github.com/fadeloop/fadeloop/client"
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 	"github.com/fadeloop/fadeloop/service"
 )
@@ -123,7 +125,7 @@ func (s Summary) Print(w io.Writer) {
 	fmt.Fprintf(w, "left, joined     user %d left and user %d joined after slot %d (first power %.1f dBm)\n",
 		s.LeftUser, s.JoinedUser, s.ChangeSlot, s.JoinPowerDBm)
 	fmt.Fprintf(w, "refused slots    %d (%s)\n", s.SlotErrors, s.LastViolation)
-	fmt.Fprintln(w, "simulated settings do not replace the operator's planning, regulatory limits on power and exposure, or licensed practice")
+	fmt.Fprintln(w, loop.Caution)
 }
 
 func newUser(rng *rand.Rand) *user {

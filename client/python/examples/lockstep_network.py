@@ -18,8 +18,8 @@ RPC error.
 
     /usr/bin/python3 client/python/examples/lockstep_network.py --server 127.0.0.1:50051
 
-Simulated settings do not replace the operator's planning, regulatory
-limits on power and exposure, or licensed practice.
+Simulated settings do not replace the operator's radio planning, the
+regulatory limits on transmit power and exposure, or licensed practice.
 """
 import argparse
 import math
@@ -202,7 +202,9 @@ def main():
     print("BLER             %.3f over %d blocks (target 0.1)" % (s["bler"], s["blocks"]))
     print("mean target      %.2f dB" % s["mean_target_db"])
     print("refused slots    %d (%s)" % (len(s["refused"]), ", ".join(s["refused"])))
-    print("simulated settings do not replace the operator's planning, regulatory limits on power and exposure, or licensed practice")
+    # The one wording of the caution (loop.Caution in the Go module).
+    print("Simulated settings do not replace the operator's radio planning, "
+          "the regulatory limits on transmit power and exposure, or licensed practice.")
     ok = s["sir_error_db"] <= a.max_sir_error_db and abs(s["bler"] - 0.1) <= a.bler_band
     print("converged        %s" % ("yes" if ok else "NO"))
     return 0 if ok else 1

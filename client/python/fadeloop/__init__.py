@@ -15,10 +15,8 @@ fadeloop.v1); fadeloop.frames turns them into rows or pandas DataFrames.
 A rejected request raises fadeloop.InvalidRequest with the server's field
 violations.
 
-fadeloop's figures come from a model. Simulated settings are not a
-substitute for the operator's radio planning, for the regulatory limits on
-transmit power and exposure that apply where a transmitter is used, or for
-licensed practice.
+Simulated settings do not replace the operator's radio planning, the
+regulatory limits on transmit power and exposure, or licensed practice.
 """
 from .client import Client, SweepCall, connect, load_scenario
 from .errors import (Cancelled, DeadlineExceeded, FadeloopError, FieldViolation, InvalidRequest,

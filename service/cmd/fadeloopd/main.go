@@ -23,8 +23,30 @@ import (
 	"strings"
 	"syscall"
 
+	"github.com/fadeloop/fadeloop/loop"
 	"github.com/fadeloop/fadeloop/service"
 )
+
+// cautionUsage is loop.Caution wrapped at 78 columns for the usage text.
+var cautionUsage = wrap78(loop.Caution)
+
+// wrap78 breaks s at spaces into lines of at most 78 characters (a longer
+// word stays whole on its own line).
+func wrap78(s string) string {
+	var lines []string
+	line := ""
+	for _, w := range strings.Fields(s) {
+		if line != "" && len(line)+1+len(w) > 78 {
+			lines = append(lines, line)
+			line = ""
+		}
+		if line != "" {
+			line += " "
+		}
+		line += w
+	}
+	return strings.Join(append(lines, line), "\n")
+}
 
 func main() {
 	if err := run(os.Args[1:], os.Stderr); err != nil {
@@ -41,8 +63,8 @@ func parseFlags(args []string, stderr io.Writer, getenv func(string) (string, bo
 	fs.SetOutput(stderr)
 	d.Register(fs)
 	fs.Usage = func() {
-		fmt.Fprintf(stderr, "Usage: fadeloopd [flags]\n\nEvery flag can also be set by an environment variable: -max-call-duration\nas %s (a flag on the command line wins). The bearer token\ncan come from %s instead of -auth-token-file.\n\nSimulated settings do not replace the operator's radio planning, regulatory\nlimits on power and exposure, or licensed practice.\n\nFlags:\n",
-			service.EnvName("max-call-duration"), service.EnvAuthToken)
+		fmt.Fprintf(stderr, "Usage: fadeloopd [flags]\n\nEvery flag can also be set by an environment variable: -max-call-duration\nas %s (a flag on the command line wins). The bearer token\ncan come from %s instead of -auth-token-file.\n\n%s\n\nFlags:\n",
+			service.EnvName("max-call-duration"), service.EnvAuthToken, cautionUsage)
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
