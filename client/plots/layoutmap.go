@@ -354,18 +354,10 @@ type LayoutLine struct {
 func LayoutSweep(title, xLabel string, lines []LayoutLine) (*Figure, error) {
 	left := newPanel("Other-cell / own-cell interference f", xLabel, "f")
 	right := newPanel("Outage", xLabel, "outage (%)")
-	var all []float64
-	var used []int
-	for i, ln := range lines {
-		if len(ln.X) > 0 {
-			used = append(used, i)
-			all = append(all, ln.X...)
-		}
-	}
+	used, all, offs := dodgeLines(len(lines), func(i int) []float64 { return lines[i].X })
 	if len(used) == 0 {
 		return nil, ErrNoData
 	}
-	offs := dodge(len(used), all)
 	bars := 0
 	for k, i := range used {
 		ln := lines[i]

@@ -93,18 +93,10 @@ func StepSensitivity(title string, lines []StepLine) (*Figure, error) {
 func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
 	left := newPanel("Outage", xLabel, "outage (%)")
 	right := newPanel("SIR error std", xLabel, "SIR error std (dB)")
-	var all []float64
-	var used []int
-	for i, ln := range lines {
-		if len(ln.StepDB) > 0 {
-			used = append(used, i)
-			all = append(all, ln.StepDB...)
-		}
-	}
+	used, all, offs := dodgeLines(len(lines), func(i int) []float64 { return lines[i].StepDB })
 	if len(used) == 0 {
 		return nil, ErrNoData
 	}
-	offs := dodge(len(used), all)
 	named := len(used) > 1
 	marked := false
 	bars := 0
@@ -167,6 +159,18 @@ func AxisSensitivity(title, xLabel string, lines []StepLine) (*Figure, error) {
 // the x range (1.5 %: bars 1.2 pt wide stay apart on a 400 pt panel, and the
 // shift stays well below the spacing of the tick values).
 const dodgeFraction = 0.015
+
+// dodgeLines lists the lines (of n) that have x values (x(i)), all their
+// x values in order, and the x shift of each of them (dodge over all).
+func dodgeLines(n int, x func(i int) []float64) (used []int, all, offs []float64) {
+	for i := 0; i < n; i++ {
+		if xs := x(i); len(xs) > 0 {
+			used = append(used, i)
+			all = append(all, xs...)
+		}
+	}
+	return used, all, dodge(len(used), all)
+}
 
 // dodge returns the x shift of each of n lines over x values xs: centred on
 // 0, dodgeFraction of the x range (or of the value's magnitude, or 1, for
