@@ -39,6 +39,12 @@ func newLegList(n int) legList {
 	return legList{dirty: true, e: make([]legEntry, 0, n)}
 }
 
+// add appends e to the list and keeps its largest indices.
+func (L *legList) add(e legEntry) {
+	L.e = append(L.e, e)
+	L.maxJ, L.maxU, L.maxC = max(L.maxJ, e.j), max(L.maxU, e.u), max(L.maxC, e.c)
+}
+
 // buildLegs rebuilds rep.legs from the users' active sets.
 func (rp *rep) buildLegs() {
 	L := &rp.legs
@@ -53,9 +59,7 @@ func (rp *rep) buildLegs() {
 			if lg.c == us.best {
 				own = 1
 			}
-			e := legEntry{g: lg.g, own: own, j: int32(u*ma + int(l)), u: int32(u), c: lg.c, pos: int32(u*ma + k)}
-			L.e = append(L.e, e)
-			L.maxJ, L.maxU, L.maxC = max(L.maxJ, e.j), max(L.maxU, e.u), max(L.maxC, e.c)
+			L.add(legEntry{g: lg.g, own: own, j: int32(u*ma + int(l)), u: int32(u), c: lg.c, pos: int32(u*ma + k)})
 		}
 	}
 	L.dirty = false

@@ -13,10 +13,7 @@ import (
 func TestLegLayout(t *testing.T) {
 	var e legEntry
 	var s userSlot
-	for _, c := range []struct {
-		name      string
-		got, want uintptr
-	}{
+	checkOffsets(t, []offsetCase{
 		{"legEntry size", unsafe.Sizeof(e), 32},
 		{"legEntry.g", unsafe.Offsetof(e.g), 0},
 		{"legEntry.own", unsafe.Offsetof(e.own), 8},
@@ -28,11 +25,7 @@ func TestLegLayout(t *testing.T) {
 		{"userSlot.tgt", unsafe.Offsetof(s.tgt), 8},
 		{"userSlot.best", unsafe.Offsetof(s.best), 16},
 		{"userSlot.up", unsafe.Offsetof(s.up), 24},
-	} {
-		if c.got != c.want {
-			t.Errorf("%s = %d, want %d", c.name, c.got, c.want)
-		}
-	}
+	})
 }
 
 // TestLegSIRsAsmMatchesGo: the assembly loop over legs gives the same bits
@@ -79,8 +72,7 @@ func TestLegSIRsAsmMatchesGo(t *testing.T) {
 				if r.IntN(30) == 0 {
 					e.g = 0
 				}
-				a.legs.e = append(a.legs.e, e)
-				a.legs.maxJ, a.legs.maxU, a.legs.maxC = max(a.legs.maxJ, e.j), max(a.legs.maxU, e.u), max(a.legs.maxC, e.c)
+				a.legs.add(e)
 			}
 		}
 		if len(a.legs.e) > 0 && r.IntN(4) == 0 {
@@ -147,10 +139,7 @@ func TestLegSIRsChecksIndices(t *testing.T) {
 func TestLoopLayout(t *testing.T) {
 	var a plainArgs
 	var us user
-	for _, c := range []struct {
-		name      string
-		got, want uintptr
-	}{
+	checkOffsets(t, []offsetCase{
 		{"users", unsafe.Offsetof(a.users), 0}, {"n", unsafe.Offsetof(a.n), 8}, {"su", unsafe.Offsetof(a.su), 16},
 		{"pCur", unsafe.Offsetof(a.pCur), 24}, {"cmds", unsafe.Offsetof(a.cmds), 32}, {"recSIR", unsafe.Offsetof(a.recSIR), 40},
 		{"recPDB", unsafe.Offsetof(a.recPDB), 48}, {"recTDB", unsafe.Offsetof(a.recTDB), 56}, {"recFlags", unsafe.Offsetof(a.recFlags), 64},
@@ -159,11 +148,7 @@ func TestLoopLayout(t *testing.T) {
 		{"ups", unsafe.Offsetof(a.ups), 152}, {"downs", unsafe.Offsetof(a.downs), 160}, {"stride", unsafe.Offsetof(a.stride), 168}, {"pPrev", unsafe.Offsetof(a.pPrev), 176},
 		{"user.p", unsafe.Offsetof(us.p), 0}, {"user.pDB", unsafe.Offsetof(us.pDB), 8},
 		{"user.target", unsafe.Offsetof(us.target), 16}, {"user.targetDB", unsafe.Offsetof(us.targetDB), 24},
-	} {
-		if c.got != c.want {
-			t.Errorf("%s at %d, want %d", c.name, c.got, c.want)
-		}
-	}
+	})
 	if recOutage != 1 || recAtMax != 2 {
 		t.Errorf("flags %d, %d: the assembly sets 1 and 2", recOutage, recAtMax)
 	}
@@ -237,8 +222,7 @@ func TestLegCorrectionsAsmMatchesGo(t *testing.T) {
 					if r.IntN(30) == 0 {
 						e.g = 0
 					}
-					L.e = append(L.e, e)
-					L.maxJ, L.maxU, L.maxC = max(L.maxJ, e.j), max(L.maxU, e.u), max(L.maxC, e.c)
+					L.add(e)
 				}
 			}
 		}
@@ -355,21 +339,14 @@ func TestUpdateSumsAVXMatchesGo(t *testing.T) {
 func TestSlotSumsLayout(t *testing.T) {
 	var a slotSums
 	var ua userAcc
-	for _, c := range []struct {
-		name      string
-		got, want uintptr
-	}{
+	checkOffsets(t, []offsetCase{
 		{"sirDB", unsafe.Offsetof(a.sirDB), 0}, {"tDB", unsafe.Offsetof(a.tDB), 8}, {"pDB", unsafe.Offsetof(a.pDB), 16},
 		{"edges", unsafe.Offsetof(a.edges), 24}, {"flags", unsafe.Offsetof(a.flags), 32}, {"nLegs", unsafe.Offsetof(a.nLegs), 40},
 		{"users", unsafe.Offsetof(a.users), 48}, {"n", unsafe.Offsetof(a.n), 56}, {"out", unsafe.Offsetof(a.out), 64},
 		{"blockErrs", unsafe.Offsetof(a.blockErrs), 128}, {"legN", unsafe.Offsetof(a.legN), 136},
 		{"legOut", unsafe.Offsetof(a.legOut), 160}, {"legMx", unsafe.Offsetof(a.legMx), 184},
 		{"userAcc size", unsafe.Sizeof(ua), 32}, {"userAcc.outage", unsafe.Offsetof(ua.outage), 8}, {"userAcc.txDBm", unsafe.Offsetof(ua.txDBm), 24},
-	} {
-		if c.got != c.want {
-			t.Errorf("%s at %d, want %d", c.name, c.got, c.want)
-		}
-	}
+	})
 	if LegStates != 3 || recBlockEnd != 4 || recBlockErr != 8 {
 		t.Errorf("LegStates %d, flags %d %d: the assembly assumes 3, 4, 8", LegStates, recBlockEnd, recBlockErr)
 	}
@@ -414,6 +391,22 @@ func TestUsers1AsmMatchesGo(t *testing.T) {
 			if users1[u] != users2[u] {
 				t.Fatalf("trial %d user %d: asm %+v, Go %+v", trial, u, users1[u], users2[u])
 			}
+		}
+	}
+}
+
+// offsetCase is a field offset (or size) the assembly relies on.
+type offsetCase struct {
+	name      string
+	got, want uintptr
+}
+
+// checkOffsets reports every offset that is not where the assembly reads it.
+func checkOffsets(t *testing.T, cases []offsetCase) {
+	t.Helper()
+	for _, c := range cases {
+		if c.got != c.want {
+			t.Errorf("%s at %d, want %d", c.name, c.got, c.want)
 		}
 	}
 }

@@ -2,42 +2,47 @@
 
 #include "textflag.h"
 
+// ROWADD(lp, tl, dn): s += d·row element by element, s at DI (CX
+// elements, DX = CX rounded down to a multiple of 8), row at SI, d in every
+// lane of Y4; AX, Y1, Y2 are scratch; lp, tl and dn name its labels. One
+// multiplication and one addition per element, each rounded (no fused
+// multiply-add), so the same bits as gonum's floats.AddScaled. The one
+// body of addScaledAVX and of updateSumsAVX's row updates.
+#define ROWADD(lp, tl, dn) \
+	XORQ    AX, AX; \
+	CMPQ    DX, $0; \
+	JEQ     tl; \
+lp:; \
+	VMULPD  (SI)(AX*8), Y4, Y1; \
+	VMULPD  32(SI)(AX*8), Y4, Y2; \
+	VADDPD  (DI)(AX*8), Y1, Y1; \
+	VADDPD  32(DI)(AX*8), Y2, Y2; \
+	VMOVUPD Y1, (DI)(AX*8); \
+	VMOVUPD Y2, 32(DI)(AX*8); \
+	ADDQ    $8, AX; \
+	CMPQ    AX, DX; \
+	JLT     lp; \
+tl:; \
+	CMPQ    AX, CX; \
+	JGE     dn; \
+	VMULSD  (SI)(AX*8), X4, X1; \
+	VADDSD  (DI)(AX*8), X1, X1; \
+	VMOVSD  X1, (DI)(AX*8); \
+	INCQ    AX; \
+	JMP     tl; \
+dn:
+
 // func addScaledAVX(s []float64, d float64, row *float64)
 //
-// s[i] += d·row[i] for i < len(s): one multiplication and one addition per
-// element, each rounded (no fused multiply-add), so the same bits as
-// gonum's floats.AddScaled.
+// s[i] += d·row[i] for i < len(s) (ROWADD).
 TEXT ·addScaledAVX(SB), NOSPLIT, $0-40
 	MOVQ         s_base+0(FP), DI
 	MOVQ         s_len+8(FP), CX
-	VBROADCASTSD d+24(FP), Y0
+	VBROADCASTSD d+24(FP), Y4
 	MOVQ         row+32(FP), SI
-	XORQ         AX, AX
 	MOVQ         CX, DX
 	ANDQ         $-8, DX
-	JEQ          tail
-
-loop8:
-	VMULPD  (SI)(AX*8), Y0, Y1
-	VMULPD  32(SI)(AX*8), Y0, Y2
-	VADDPD  (DI)(AX*8), Y1, Y1
-	VADDPD  32(DI)(AX*8), Y2, Y2
-	VMOVUPD Y1, (DI)(AX*8)
-	VMOVUPD Y2, 32(DI)(AX*8)
-	ADDQ    $8, AX
-	CMPQ    AX, DX
-	JLT     loop8
-
-tail:
-	CMPQ   AX, CX
-	JGE    done
-	VMULSD (SI)(AX*8), X0, X1
-	VADDSD (DI)(AX*8), X1, X1
-	VMOVSD X1, (DI)(AX*8)
-	INCQ   AX
-	JMP    tail
-
-done:
+	ROWADD(loop8, tail, done)
 	VZEROUPPER
 	RET
 
@@ -46,7 +51,7 @@ done:
 // updateSums in one call: s[c] = s[c]·b; the users u < n whose power did
 // not move by the factor b, d = pCur[u] − b·pPrev[u] ≠ 0, listed in mv
 // and dv without a branch per user; then s += d·slow[u·len(s):] for each
-// of them in order, as addScaledAVX does: the Go code's operations in its
+// of them in order (ROWADD, as addScaledAVX): the Go code's operations in its
 // order, so the same bits.
 TEXT ·updateSumsAVX(SB), NOSPLIT, $0-80
 	MOVQ         s_base+0(FP), DI
@@ -100,31 +105,8 @@ rnext:
 	IMULQ        CX, SI
 	LEAQ         (R8)(SI*8), SI // the mover's row
 	VBROADCASTSD (R12)(R9*8), Y4
-	XORQ         AX, AX
-	CMPQ         DX, $0
-	JEQ          rtail
+	ROWADD(r8loop, rtail, rdone)
 
-r8loop:
-	VMULPD  (SI)(AX*8), Y4, Y1
-	VMULPD  32(SI)(AX*8), Y4, Y2
-	VADDPD  (DI)(AX*8), Y1, Y1
-	VADDPD  32(DI)(AX*8), Y2, Y2
-	VMOVUPD Y1, (DI)(AX*8)
-	VMOVUPD Y2, 32(DI)(AX*8)
-	ADDQ    $8, AX
-	CMPQ    AX, DX
-	JLT     r8loop
-
-rtail:
-	CMPQ   AX, CX
-	JGE    rdone2
-	VMULSD (SI)(AX*8), X4, X1
-	VADDSD (DI)(AX*8), X1, X1
-	VMOVSD X1, (DI)(AX*8)
-	INCQ   AX
-	JMP    rtail
-
-rdone2:
 	INCQ R9
 	JMP  rnext
 

@@ -15,7 +15,7 @@ import "math"
 // helper every slot (two hand-offs per slot) was measured slower on the
 // shared 2-core machine (see fill.go's split for the per-block hand-offs).
 func (rp *rep) slot(t int64, k int) {
-	if rp.full && rp.legs.dirty {
+	if rp.legs.dirty {
 		rp.buildLegs()
 	}
 	if rp.full {
@@ -37,9 +37,6 @@ func (rp *rep) slot(t int64, k int) {
 			rp.updateSums()
 		}
 		rp.sinceSum++
-		if rp.legs.dirty {
-			rp.buildLegs()
-		}
 		if !rp.corrReady {
 			clear(rp.corr)
 			if rp.fade != nil { // else no fast fading: no corrections
