@@ -221,7 +221,7 @@ func TestSweepTableWithheldNote(t *testing.T) {
 			t.Errorf("%s: the caution is printed among the notes:\n%s", tc.name, out)
 		}
 		// The caution is wrapped at 78 columns: compare with spaces joined.
-		if n := strings.Count(out, "do not replace the operator"); n != 1 || !strings.HasSuffix(strings.Join(strings.Fields(out), " "), CautionLine) {
+		if n := strings.Count(out, "do not replace the operator"); n != 1 || !strings.HasSuffix(strings.Join(strings.Fields(out), " "), loop.Caution) {
 			t.Errorf("%s: caution %d times (want once, last):\n%s", tc.name, n, out)
 		}
 	}

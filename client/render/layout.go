@@ -286,9 +286,12 @@ func LayoutTable(w io.Writer, rep *pb.RunReport) {
 	}
 }
 
-// CautionLine closes every CLI run and sweep table, once per output: the
-// one wording of the caution about real transmitters (loop.Caution).
-const CautionLine = loop.Caution
+// writeCaution closes every CLI run and sweep table, once per output,
+// with the one wording of the caution about real transmitters
+// (loop.Caution), wrapped at 78 columns after an empty line.
+func writeCaution(w io.Writer) {
+	fmt.Fprintf(w, "\n%s\n", Wrap(loop.Caution, 78, ""))
+}
 
 // LayoutMapData is the map of a multi-cell report for plots.LayoutMap:
 // the cells with their names, sites and boresights, the group names, and

@@ -33,7 +33,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		fmt.Fprintf(w, "%d users, seed %d, engine %s: not simulated\n\n", agg.GetUsers(), rep.GetSeed(), rep.GetEngineVersion())
 		fmt.Fprintln(w, Wrap(FeasibilityLine(f, agg.GetUsers()), 78, "  "))
 		fmt.Fprintln(w, "No figures: nothing was simulated.")
-		fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
+		writeCaution(w)
 		return
 	}
 	fmt.Fprintf(w, "%d users, %s slots × %s after %s warm-up slots, seed %d, engine %s\n",
@@ -115,7 +115,7 @@ func RunTable(w io.Writer, rep *pb.RunReport, perUser bool) {
 		}
 		ut.Write(w)
 	}
-	fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
+	writeCaution(w)
 }
 
 // RunCSVHeader is the header of `run --format csv`; layout (a multi-cell

@@ -102,7 +102,7 @@ func SweepTable(w io.Writer, req *pb.SweepRequest, pts []*pb.SweepPoint, sum *pb
 	}
 	// The caution about real transmitters, once for the whole table (the
 	// points' own caution notes are left out above).
-	fmt.Fprintf(w, "\n%s\n", Wrap(CautionLine, 78, ""))
+	writeCaution(w)
 }
 
 // sweepHasLayout reports whether any of the points ran on the multi-cell

@@ -11,6 +11,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 
 	clirender "github.com/fadeloop/fadeloop/client/render"
+	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -164,7 +165,7 @@ func build(in Input) (*doc, error) {
 	if err != nil {
 		return nil, err
 	}
-	d := &doc{Kind: kind, Caution: Caution, Source: in.Source}
+	d := &doc{Kind: kind, Caution: loop.Caution, Source: in.Source} // printed once on every report
 	if !in.Created.IsZero() {
 		d.Created = in.Created.UTC().Format("2006-01-02 15:04 UTC")
 	}

@@ -27,7 +27,6 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
-	"github.com/fadeloop/fadeloop/loop"
 	pb "github.com/fadeloop/fadeloop/proto/fadeloop/v1"
 )
 
@@ -185,8 +184,6 @@ func ReadResult(r io.Reader) (Input, error) {
 	return in, nil
 }
 
-// Caution is the notice printed once on every report (loop.Caution).
-const Caution = loop.Caution
 
 // page is parsed once; its data is a *doc.
 var page = template.Must(template.New("report").Parse(pageTemplate))
