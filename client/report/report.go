@@ -184,6 +184,5 @@ func ReadResult(r io.Reader) (Input, error) {
 	return in, nil
 }
 
-
 // page is parsed once; its data is a *doc.
 var page = template.Must(template.New("report").Parse(pageTemplate))
