@@ -38,12 +38,28 @@ func addScaled(s []float64, d float64, row []float64) {
 //go:noescape
 func updateSumsAVX(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
 
-// updateSumsFast runs updateSumsAVX when the CPU has AVX and every slice
+// updateSums512 is updateSumsAVX for 57 to 64 cells with the sums held in
+// AVX-512 registers (rows_amd64.s), the same bits; the caller checks
+// lengths.
+//
+//go:noescape
+func updateSums512(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
+
+// useAVX512 selects updateSums512 for layouts of 57 to 64 cells (tests
+// switch it off to compare).
+var useAVX512 = cpu.X86.HasAVX512F
+
+// updateSumsFast runs updateSums512 (57 to 64 cells, AVX-512) or
+// updateSumsAVX when the CPU has AVX and every slice
 // holds what it reads (slow: n rows of len(s)), and reports whether it did.
 func updateSumsFast(s []float64, b float64, pCur, pPrev, slow []float64, mv []int32, dv []float64) bool {
 	n := len(pCur)
 	if !useAVX || n == 0 || len(s) == 0 || len(pPrev) < n || len(mv) < n || len(dv) < n || len(slow) < n*len(s) {
 		return false
+	}
+	if useAVX512 && len(s) > 56 && len(s) <= 64 {
+		updateSums512(s, b, &pCur[0], &pPrev[0], n, &slow[0], &mv[0], &dv[0])
+		return true
 	}
 	updateSumsAVX(s, b, &pCur[0], &pPrev[0], n, &slow[0], &mv[0], &dv[0])
 	return true

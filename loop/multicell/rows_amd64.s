@@ -113,3 +113,100 @@ rnext:
 udone:
 	VZEROUPPER
 	RET
+
+// func updateSums512(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
+//
+// updateSumsAVX for 57 to 64 cells (19 sites × 3 sectors) in AVX-512, with
+// the sums held in Z0–Z7 for the whole call (the last register masked to
+// the cells past 56 by K1) instead of loaded and stored for every row: the
+// movers listed first (as updateSumsAVX; the listing and the scaling touch
+// different data, so their order does not matter), then s[c] = s[c]·b,
+// then s += d·row for each mover in order, one multiplication and one
+// addition per element, each rounded (no fused multiply-add): the same
+// operations in the same order per element, so the same bits.
+TEXT ·updateSums512(SB), NOSPLIT, $0-80
+	MOVQ         s_base+0(FP), DI
+	MOVQ         s_len+8(FP), BX
+	VMOVSD       b+24(FP), X0
+	MOVQ         pCur+32(FP), R8
+	MOVQ         pPrev+40(FP), R9
+	MOVQ         n+48(FP), R10
+	MOVQ         mv+64(FP), R11
+	MOVQ         dv+72(FP), R12
+	XORQ         AX, AX
+	XORQ         DX, DX
+	VXORPD       X3, X3, X3
+
+mloop:
+	CMPQ     AX, R10
+	JGE      sums
+	VMULSD   (R9)(AX*8), X0, X1 // b·pPrev[u]
+	VMOVSD   (R8)(AX*8), X2
+	VSUBSD   X1, X2, X2         // d
+	MOVL     AX, (R11)(DX*4)
+	VMOVSD   X2, (R12)(DX*8)
+	XORL     R13, R13
+	VUCOMISD X3, X2
+	SETNE    R13B
+	ADDQ     R13, DX
+	INCQ     AX
+	JMP      mloop
+
+sums:
+	// K1: the lanes of the last register, cells 56 .. len(s)−1.
+	LEAQ      -56(BX), CX
+	MOVQ      $1, AX
+	SHLQ      CX, AX
+	DECQ      AX
+	KMOVW     AX, K1
+	VBROADCASTSD b+24(FP), Z31
+	VMULPD    (DI), Z31, Z0
+	VMULPD    64(DI), Z31, Z1
+	VMULPD    128(DI), Z31, Z2
+	VMULPD    192(DI), Z31, Z3
+	VMULPD    256(DI), Z31, Z4
+	VMULPD    320(DI), Z31, Z5
+	VMULPD    384(DI), Z31, Z6
+	VMOVUPD.Z 448(DI), K1, Z7
+	VMULPD    Z7, Z31, Z7
+	MOVQ      slow+56(FP), R8
+	XORQ      R9, R9            // mover index
+
+rnext:
+	CMPQ         R9, DX
+	JGE          store
+	MOVLQSX      (R11)(R9*4), SI
+	IMULQ        BX, SI
+	LEAQ         (R8)(SI*8), SI // the mover's row
+	VBROADCASTSD (R12)(R9*8), Z30
+	VMULPD       (SI), Z30, Z16
+	VMULPD       64(SI), Z30, Z17
+	VMULPD       128(SI), Z30, Z18
+	VMULPD       192(SI), Z30, Z19
+	VMULPD       256(SI), Z30, Z20
+	VMULPD       320(SI), Z30, Z21
+	VMULPD       384(SI), Z30, Z22
+	VMOVUPD.Z    448(SI), K1, Z23
+	VMULPD       Z23, Z30, Z23
+	VADDPD       Z16, Z0, Z0
+	VADDPD       Z17, Z1, Z1
+	VADDPD       Z18, Z2, Z2
+	VADDPD       Z19, Z3, Z3
+	VADDPD       Z20, Z4, Z4
+	VADDPD       Z21, Z5, Z5
+	VADDPD       Z22, Z6, Z6
+	VADDPD       Z23, Z7, Z7
+	INCQ         R9
+	JMP          rnext
+
+store:
+	VMOVUPD Z0, (DI)
+	VMOVUPD Z1, 64(DI)
+	VMOVUPD Z2, 128(DI)
+	VMOVUPD Z3, 192(DI)
+	VMOVUPD Z4, 256(DI)
+	VMOVUPD Z5, 320(DI)
+	VMOVUPD Z6, 384(DI)
+	VMOVUPD Z7, K1, 448(DI)
+	VZEROUPPER
+	RET
