@@ -1,6 +1,9 @@
 package loop
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // Layout turns a Scenario into a multi-cell run: a hexagonal layout of
 // sites in which every cell's receiver sees every user, so that the
@@ -32,7 +35,8 @@ type Layout struct {
 // d ≥ min_distance_m, log-normal shadowing σ = shadowing_db correlated
 // between sites with coefficient site_correlation (s_k = √ρ·a + √(1−ρ)·b_k)
 // and in distance travelled (Gudmundson, decorrelation_m), updated every
-// shadowing_slots slots.
+// shadowing_slots slots (0: ShadowingSlotsFor, an update each
+// decorrelation_m/100 travelled by the fastest group).
 type LayoutPropagation struct {
 	PathLossExponent float64    `json:"path_loss_exponent"` // n, [2, 6]; 0 means 3.76 (3GPP TR 25.942 (memory))
 	LossAt1kmDB      float64    `json:"loss_at_1km_db"`     // [60, 200] dB; 0 means 128.1 (3GPP TR 25.942, 2 GHz (memory))
@@ -40,7 +44,7 @@ type LayoutPropagation struct {
 	ShadowingDB      float64    `json:"shadowing_db"`       // σ in dB, [0, 20]; 0: no shadowing
 	SiteCorrelation  float64    `json:"site_correlation"`   // ρ between sites, [0, 1] (0.5 is common practice)
 	DecorrelationM   float64    `json:"decorrelation_m"`    // Gudmundson distance in m, (0, 10000]; 0 means DefaultDecorrelationM
-	ShadowingSlots   int        `json:"shadowing_slots"`    // slots between shadowing updates, [1, 10000]; 0 means 15 (10 ms at 1500 Hz)
+	ShadowingSlots   int        `json:"shadowing_slots"`    // slots between shadowing updates, [1, 10000]; 0 means ShadowingSlotsFor (90 at 30 km/h, 50 m, 1500 Hz)
 	FastFading       FastFading `json:"fast_fading"`        // which links fade; default SLOW_TOWARD_OTHERS
 }
 
@@ -99,7 +103,6 @@ const (
 	DefaultInterSiteDistanceM = 1000  // urban macro inter-site distance (common practice)
 	DefaultLayoutExponent     = 3.76  // 3GPP TR 25.942 macro path loss 128.1 + 37.6 log10(d/1 km) (memory)
 	DefaultLayoutLossAt1kmDB  = 128.1 // same model, 2 GHz
-	DefaultShadowingSlots     = 15    // 10 ms at 1500 Hz
 	DefaultMaxActive          = 3     // active-set size (common practice)
 	DefaultHandoverSlots      = 300   // 200 ms at 1500 Hz (common practice)
 	DefaultAssumedNoiseRiseDB = 3     // open-loop noise-rise assumption (common practice)
@@ -150,7 +153,7 @@ func (sc *Scenario) normaliseLayout() {
 		p.DecorrelationM = DefaultDecorrelationM
 	}
 	if p.ShadowingSlots == 0 {
-		p.ShadowingSlots = DefaultShadowingSlots
+		p.ShadowingSlots = ShadowingSlotsFor(p.DecorrelationM, sc.fastestKmh(), sc.InnerLoop.UpdateRateHz)
 	}
 	if p.FastFading == FastFadingUnspecified {
 		p.FastFading = FastFadingSlowTowardOthers
@@ -164,6 +167,45 @@ func (sc *Scenario) normaliseLayout() {
 	if l.OpenLoop.AssumedNoiseRiseDB == 0 {
 		l.OpenLoop.AssumedNoiseRiseDB = DefaultAssumedNoiseRiseDB
 	}
+}
+
+// Shadowing update spacing when shadowing_slots is 0 (ShadowingSlotsFor).
+const (
+	// ShadowingStepsPerDecorrelation: updates per decorrelation distance
+	// travelled. The AR(1) update s' = k·s + √(1−k²)·w with
+	// k = exp(−Δd/d_c) samples the Gudmundson process exactly at the
+	// updates; between them the value is held, and the held value's step
+	// has standard deviation σ·√(2(1−e^(−1/100))) = 0.141σ (1.1 dB at
+	// σ = 8 dB), small beside one inner-loop step per slot (common
+	// practice: a small fraction of the decorrelation distance).
+	ShadowingStepsPerDecorrelation = 100
+	// MaxDefaultShadowingSlots bounds the default interval (1 s at
+	// 1500 Hz; also the interval when no group moves).
+	MaxDefaultShadowingSlots = 1500
+)
+
+// ShadowingSlotsFor is the default shadowing update interval in slots: the
+// slots the fastest group (fastestKmh, km/h) takes to travel
+// decorrelationM/ShadowingStepsPerDecorrelation metres at rateHz slots per
+// second, rounded down, in [1, MaxDefaultShadowingSlots]. 30 km/h, 50 m,
+// 1500 Hz: 0.5 m / 8.33 m/s = 60 ms = 90 slots.
+func ShadowingSlotsFor(decorrelationM, fastestKmh, rateHz float64) int {
+	if fastestKmh <= 0 || decorrelationM <= 0 || rateHz <= 0 {
+		return MaxDefaultShadowingSlots
+	}
+	s := decorrelationM / ShadowingStepsPerDecorrelation / (fastestKmh / 3.6) * rateHz
+	return int(math.Max(1, math.Min(MaxDefaultShadowingSlots, math.Floor(s))))
+}
+
+// fastestKmh is the highest speed in any group's speed mix, in km/h.
+func (sc *Scenario) fastestKmh() float64 {
+	v := 0.0
+	for _, g := range sc.Groups {
+		for _, s := range g.Speeds {
+			v = math.Max(v, s.SpeedKmh)
+		}
+	}
+	return v
 }
 
 // validateLayout checks what a multi-cell scenario cannot use. The ranges

@@ -72,7 +72,7 @@ type Channel struct {
 	ShadowingDB      float64 `json:"shadowing_db"`       // σ, [0, 20] dB; 0: none
 	SiteCorrelation  float64 `json:"site_correlation"`   // ρ between sites, [0, 1]; default 0.5 (common practice)
 	DecorrelationM   float64 `json:"decorrelation_m"`    // Gudmundson D, (0, 10000] m; default 50 (common practice)
-	ShadowingSlots   int     `json:"shadowing_slots"`    // slots between shadowing updates, [1, 10000]; default 15 (10 ms at 1500 Hz)
+	ShadowingSlots   int     `json:"shadowing_slots"`    // slots between shadowing updates, [1, 10000]; default loop.ShadowingSlotsFor (decorrelation_m/100 travelled by the fastest group)
 	CarrierHz        float64 `json:"carrier_hz"`         // f_c for the Doppler f_D = v f_c / c; default 2e9
 	// FastFading NONE leaves only path loss and shadowing (used by the
 	// analytic checks); SLOW_TOWARD_OTHERS (default) fades the links of the
@@ -193,7 +193,6 @@ func (c *Config) Normalise() {
 	setF(&c.Channel.LossAt1kmDB, 128.1)
 	setF(&c.Channel.MinDistanceM, 35)
 	setF(&c.Channel.DecorrelationM, loop.DefaultDecorrelationM)
-	setI(&c.Channel.ShadowingSlots, 15)
 	setF(&c.Channel.CarrierHz, loop.DefaultCarrierHz)
 	if c.Channel.FastFading == FastFadingUnspecified {
 		c.Channel.FastFading = FastFadingSlowTowardOthers
@@ -207,6 +206,11 @@ func (c *Config) Normalise() {
 	setF(&c.InnerLoop.UpdateRateHz, loop.DefaultUpdateRateHz)
 	setF(&c.InnerLoop.MinPowerDBm, loop.DefaultMinPowerDBm)
 	setF(&c.InnerLoop.MaxPowerDBm, loop.DefaultMaxPowerDBm)
+	fastest := 0.0
+	for _, g := range c.Groups {
+		fastest = math.Max(fastest, g.SpeedKmh)
+	}
+	setI(&c.Channel.ShadowingSlots, loop.ShadowingSlotsFor(c.Channel.DecorrelationM, fastest, c.InnerLoop.UpdateRateHz))
 	setF(&c.OuterLoop.BLERTarget, loop.DefaultBLERTarget)
 	setI(&c.OuterLoop.BlockSlots, loop.DefaultBlockSlots)
 	setF(&c.OuterLoop.UpStepDB, loop.DefaultUpStepDB)

@@ -16,8 +16,13 @@ import (
 // (figures differ from 1.1.0, same distributions). 1.3.0: shadowing
 // draws from fading.FastStream (xoshiro256++ and a ziggurat) instead of
 // math/rand's PCG, dB-to-linear without a floor call (figures differ from
-// 1.2.0, same distributions).
-const EngineVersion = "fadeloop-multicell/1.3.0"
+// 1.2.0, same distributions). 1.4.0: shadowing_slots 0 means an update
+// each decorrelation_m/100 travelled by the fastest group
+// (loop.ShadowingSlotsFor; was 15 slots whatever the speed), and the
+// shadowing update interval counts toward the batch length only where
+// shadowing changes (figures of scenarios that left it unset differ from
+// 1.3.0; scenarios that set it run as before).
+const EngineVersion = "fadeloop-multicell/1.4.0"
 
 // RunScenario is the one dispatch point between the two engines, used by
 // loop/tune (Sweep, Tune, Capacity) and by the service's Simulate and

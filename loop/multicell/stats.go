@@ -431,16 +431,22 @@ const groupDecorrelationTimes = loop.BatchDecorrelationTimes
 // shadowing in dB has autocorrelation exp(−v·t/d_c); with shadowing) and
 // 0.4/f_D (the first zero of the Clarke autocorrelation J0(2π f_D τ) is at
 // f_D τ = 0.3827; Clarke 1968 (memory); with fast fading); the shadowing
-// update interval and the active-set update interval (each holds its state
-// that long); with the outer loop on, block_slots/bler_target (the mean
-// spacing of block errors at the target: the jump-rule target makes one up
-// step and walks back down over that time; as loop.BatchDecorrelationTimes
-// documents for one cell). A group at 0 km/h keeps its shadowing and fading
+// update interval (with shadowing and a moving group) and the active-set
+// update interval (each holds its state that long); with the outer loop
+// on, block_slots/bler_target (the mean spacing of block errors at the
+// target: the jump-rule target makes one up step and walks back down over
+// that time; as loop.BatchDecorrelationTimes documents for one cell). A group at 0 km/h keeps its shadowing and fading
 // for the whole run: they are part of the drop, not a process in time.
 func decorrelationSlots(cfg Config) (slots float64, what string) {
 	rate := cfg.InnerLoop.UpdateRateHz
 	slots, what = float64(cfg.Handover.UpdateSlots), fmt.Sprintf("the active-set update interval (%d slots)", cfg.Handover.UpdateSlots)
-	if s := float64(cfg.Channel.ShadowingSlots); s > slots {
+	moving := false
+	for _, g := range cfg.Groups {
+		moving = moving || g.SpeedKmh > 0
+	}
+	// The held shadowing counts only where it changes (σ > 0, someone
+	// moves): otherwise the update interval holds nothing.
+	if s := float64(cfg.Channel.ShadowingSlots); s > slots && cfg.Channel.ShadowingDB > 0 && moving {
 		slots, what = s, fmt.Sprintf("the shadowing update interval (%d slots)", cfg.Channel.ShadowingSlots)
 	}
 	for i, g := range cfg.Groups {

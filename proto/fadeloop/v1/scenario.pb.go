@@ -1982,8 +1982,9 @@ type LayoutPropagation struct {
 	SiteCorrelation float64 `protobuf:"fixed64,5,opt,name=site_correlation,json=siteCorrelation,proto3" json:"site_correlation,omitempty"`
 	// Gudmundson decorrelation distance in m, (0, 10000]; 0 means 50.
 	DecorrelationM float64 `protobuf:"fixed64,6,opt,name=decorrelation_m,json=decorrelationM,proto3" json:"decorrelation_m,omitempty"`
-	// Slots between shadowing updates, [1, 10000]; 0 means 15 (10 ms at
-	// 1500 Hz).
+	// Slots between shadowing updates, [1, 10000]; 0 means the slots the
+	// fastest group takes to travel decorrelation_m/100, in [1, 1500] (90 at
+	// 30 km/h, 50 m and 1500 Hz).
 	ShadowingSlots int32 `protobuf:"varint,7,opt,name=shadowing_slots,json=shadowingSlots,proto3" json:"shadowing_slots,omitempty"`
 	// Which links fade; unset means FAST_FADING_SLOW_TOWARD_OTHERS.
 	FastFading    FastFading `protobuf:"varint,8,opt,name=fast_fading,json=fastFading,proto3,enum=fadeloop.v1.FastFading" json:"fast_fading,omitempty"`
