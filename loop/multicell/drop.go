@@ -154,7 +154,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.corrNext = make([]float64, C)
 	rp.pPrev = make([]float64, U)
 	rp.pCur = make([]float64, U)
-	rp.movers, rp.moverD = make([]int32, U), make([]float64, U)
+	rp.movers, rp.moverD, rp.pFull = make([]int32, U), make([]float64, U), make([]float64, U)
 	ma := cfg.Handover.MaxActive
 	rp.legSIR, rp.legAcc, rp.legN = make([]float64, U*ma), make([]float64, U*ma), make([]int32, U*ma)
 	rp.slotU = make([]userSlot, U)

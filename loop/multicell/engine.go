@@ -151,6 +151,7 @@ type rep struct {
 	pCur     []float64  // per user: the power of the next slot to run, mW (= users[u].p after a slot)
 	movers   []int32    // updateSums: the users that moved otherwise than the common factor
 	moverD   []float64  // updateSums: their p' − b·p
+	pFull    []float64  // fullSums: the users' powers in one array
 	legs     legList    // the active-set legs, flat (legs.go)
 	legSIR   []float64  // per user u and leg rank k: this slot's SIR at u·max_active + k (with estimation or command errors)
 	slotU    []userSlot // per user: this slot's power, target, best SIR and combined command (legs.go)

@@ -176,7 +176,10 @@ func TestLoopAsmMatchesGo(t *testing.T) {
 	bigStep.InnerLoop.StepDB = 3
 	noFade := base
 	noFade.Channel.FastFading = FastFadingNone
-	for name, cfg := range map[string]Config{"base": base, "low max power": lowMax, "high min power": highMin, "3 dB step": bigStep, "no fast fading": noFade} {
+	big := base // 57 cells: the AVX-512 cell sums where the CPU has them
+	big.Layout.Sites, big.Groups = 19, []Group{{CountPerCell: 3, SpeedKmh: 60}}
+	big.Run.Slots = 400
+	for name, cfg := range map[string]Config{"base": base, "low max power": lowMax, "high min power": highMin, "3 dB step": bigStep, "no fast fading": noFade, "19 sites": big} {
 		var out [2][]byte
 		for i, asm := range []bool{true, false} {
 			avx, avx2 := useAVX, useAVX2
@@ -329,6 +332,38 @@ func TestUpdateSumsAVXMatchesGo(t *testing.T) {
 			for c := range got {
 				if math.Float64bits(got[c]) != math.Float64bits(want[c]) {
 					t.Fatalf("C=%d U=%d cell %d: AVX %v, Go %v", C, U, c, got[c], want[c])
+				}
+			}
+		}
+	}
+}
+
+// TestFullSums512MatchesGo: the AVX-512 full cell sums give the same bits
+// as clearing the sums and adding every user's row with addScaled, for 57
+// to 64 cells.
+func TestFullSums512MatchesGo(t *testing.T) {
+	if !useAVX || !useAVX512 {
+		t.Skip("no AVX-512 on this machine: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(15, 16))
+	for _, C := range []int{57, 60, 64} {
+		for trial := 0; trial < 20; trial++ {
+			U := 1 + r.IntN(300)
+			rp := &rep{C: C, U: U, sums: make([]float64, C), users: make([]user, U), pFull: make([]float64, U), slow: make([]float64, U*C)}
+			for u := range rp.users {
+				rp.users[u].p = math.Exp(r.NormFloat64() * 3)
+			}
+			for i := range rp.slow {
+				rp.slow[i] = math.Exp(r.NormFloat64()*5 - 10)
+			}
+			rp.fullSums()
+			got := append([]float64(nil), rp.sums...)
+			useAVX512 = false
+			rp.fullSums()
+			useAVX512 = true
+			for c := range got {
+				if math.Float64bits(got[c]) != math.Float64bits(rp.sums[c]) {
+					t.Fatalf("C=%d U=%d cell %d: AVX-512 %v, Go %v", C, U, c, got[c], rp.sums[c])
 				}
 			}
 		}

@@ -45,6 +45,26 @@ func updateSumsAVX(s []float64, b float64, pCur, pPrev *float64, n int, slow *fl
 //go:noescape
 func updateSums512(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
 
+// fullSums512 is fullSums for 57 to 64 cells in AVX-512 (rows_amd64.s):
+// s = Σ_u p[u]·slow[u·len(s):] over u < n, from zero, the same bits as
+// clearing s and adding the rows with addScaled; the caller checks
+// lengths.
+//
+//go:noescape
+func fullSums512(s []float64, p *float64, n int, slow *float64)
+
+// fullSumsFast runs fullSums512 when the CPU has AVX-512, the layout has
+// 57 to 64 cells and every slice holds what it reads (slow: len(p) rows
+// of len(s)), and reports whether it did.
+func fullSumsFast(s, p, slow []float64) bool {
+	n := len(p)
+	if !useAVX || !useAVX512 || len(s) <= 56 || len(s) > 64 || n == 0 || len(slow) < n*len(s) {
+		return false
+	}
+	fullSums512(s, &p[0], n, &slow[0])
+	return true
+}
+
 // useAVX512 selects updateSums512 for layouts of 57 to 64 cells (tests
 // switch it off to compare).
 var useAVX512 = cpu.X86.HasAVX512F

@@ -114,6 +114,48 @@ udone:
 	VZEROUPPER
 	RET
 
+// ROW512: Z0–Z7 += Z30·row, row at SI (56 elements and the K1 lanes of
+// the next 8; the others are not read), one multiplication and one
+// addition per element, each rounded; Z16–Z23 are scratch.
+#define ROW512 \
+	VMULPD    (SI), Z30, Z16; \
+	VMULPD    64(SI), Z30, Z17; \
+	VMULPD    128(SI), Z30, Z18; \
+	VMULPD    192(SI), Z30, Z19; \
+	VMULPD    256(SI), Z30, Z20; \
+	VMULPD    320(SI), Z30, Z21; \
+	VMULPD    384(SI), Z30, Z22; \
+	VMOVUPD.Z 448(SI), K1, Z23; \
+	VMULPD    Z23, Z30, Z23; \
+	VADDPD    Z16, Z0, Z0; \
+	VADDPD    Z17, Z1, Z1; \
+	VADDPD    Z18, Z2, Z2; \
+	VADDPD    Z19, Z3, Z3; \
+	VADDPD    Z20, Z4, Z4; \
+	VADDPD    Z21, Z5, Z5; \
+	VADDPD    Z22, Z6, Z6; \
+	VADDPD    Z23, Z7, Z7
+
+// STORE512: Z0–Z7 to the sums at DI (the last register's K1 lanes only).
+#define STORE512 \
+	VMOVUPD Z0, (DI); \
+	VMOVUPD Z1, 64(DI); \
+	VMOVUPD Z2, 128(DI); \
+	VMOVUPD Z3, 192(DI); \
+	VMOVUPD Z4, 256(DI); \
+	VMOVUPD Z5, 320(DI); \
+	VMOVUPD Z6, 384(DI); \
+	VMOVUPD Z7, K1, 448(DI)
+
+// LASTMASK: K1 = the lanes of the last register, cells 56 .. BX−1
+// (AX, CX scratch).
+#define LASTMASK \
+	LEAQ  -56(BX), CX; \
+	MOVQ  $1, AX; \
+	SHLQ  CX, AX; \
+	DECQ  AX; \
+	KMOVW AX, K1
+
 // func updateSums512(s []float64, b float64, pCur, pPrev *float64, n int, slow *float64, mv *int32, dv *float64)
 //
 // updateSumsAVX for 57 to 64 cells (19 sites × 3 sectors) in AVX-512, with
@@ -153,12 +195,7 @@ mloop:
 	JMP      mloop
 
 sums:
-	// K1: the lanes of the last register, cells 56 .. len(s)−1.
-	LEAQ      -56(BX), CX
-	MOVQ      $1, AX
-	SHLQ      CX, AX
-	DECQ      AX
-	KMOVW     AX, K1
+	LASTMASK
 	VBROADCASTSD b+24(FP), Z31
 	VMULPD    (DI), Z31, Z0
 	VMULPD    64(DI), Z31, Z1
@@ -179,34 +216,49 @@ rnext:
 	IMULQ        BX, SI
 	LEAQ         (R8)(SI*8), SI // the mover's row
 	VBROADCASTSD (R12)(R9*8), Z30
-	VMULPD       (SI), Z30, Z16
-	VMULPD       64(SI), Z30, Z17
-	VMULPD       128(SI), Z30, Z18
-	VMULPD       192(SI), Z30, Z19
-	VMULPD       256(SI), Z30, Z20
-	VMULPD       320(SI), Z30, Z21
-	VMULPD       384(SI), Z30, Z22
-	VMOVUPD.Z    448(SI), K1, Z23
-	VMULPD       Z23, Z30, Z23
-	VADDPD       Z16, Z0, Z0
-	VADDPD       Z17, Z1, Z1
-	VADDPD       Z18, Z2, Z2
-	VADDPD       Z19, Z3, Z3
-	VADDPD       Z20, Z4, Z4
-	VADDPD       Z21, Z5, Z5
-	VADDPD       Z22, Z6, Z6
-	VADDPD       Z23, Z7, Z7
+	ROW512
 	INCQ         R9
 	JMP          rnext
 
 store:
-	VMOVUPD Z0, (DI)
-	VMOVUPD Z1, 64(DI)
-	VMOVUPD Z2, 128(DI)
-	VMOVUPD Z3, 192(DI)
-	VMOVUPD Z4, 256(DI)
-	VMOVUPD Z5, 320(DI)
-	VMOVUPD Z6, 384(DI)
-	VMOVUPD Z7, K1, 448(DI)
+	STORE512
+	VZEROUPPER
+	RET
+
+// func fullSums512(s []float64, p *float64, n int, slow *float64)
+//
+// fullSums for 57 to 64 cells in AVX-512: s = Σ_u p[u]·slow[u·len(s):]
+// over u < n in order, from zero, the sums held in Z0–Z7 (ROW512): the Go
+// code's operations in its order per element, so the same bits.
+TEXT ·fullSums512(SB), NOSPLIT, $0-48
+	MOVQ   s_base+0(FP), DI
+	MOVQ   s_len+8(FP), BX
+	MOVQ   p+24(FP), R12
+	MOVQ   n+32(FP), DX
+	MOVQ   slow+40(FP), SI
+	LASTMASK
+	VXORPD Z0, Z0, Z0
+	VXORPD Z1, Z1, Z1
+	VXORPD Z2, Z2, Z2
+	VXORPD Z3, Z3, Z3
+	VXORPD Z4, Z4, Z4
+	VXORPD Z5, Z5, Z5
+	VXORPD Z6, Z6, Z6
+	VXORPD Z7, Z7, Z7
+	XORQ   R9, R9
+	MOVQ   BX, R10
+	SHLQ   $3, R10     // bytes per row
+
+fnext:
+	CMPQ         R9, DX
+	JGE          fstore
+	VBROADCASTSD (R12)(R9*8), Z30
+	ROW512
+	ADDQ         R10, SI
+	INCQ         R9
+	JMP          fnext
+
+fstore:
+	STORE512
 	VZEROUPPER
 	RET

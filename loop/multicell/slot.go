@@ -75,6 +75,13 @@ func (rp *rep) slot(t int64, k int) {
 func (rp *rep) fullSums() {
 	C := rp.C
 	s := rp.sums
+	ps := rp.pFull[:len(rp.users)]
+	for u := range rp.users {
+		ps[u] = rp.users[u].p
+	}
+	if fullSumsFast(s, ps, rp.slow) {
+		return
+	}
 	clear(s)
 	for u := range rp.users {
 		addScaled(s, rp.users[u].p, rp.slow[u*C:u*C+C])
