@@ -101,3 +101,69 @@ func TestPlanCacheMatchesFillGains(t *testing.T) {
 		t.Error("no plan was shared: the test does not exercise the cache")
 	}
 }
+
+// TestFillGainsPairMatchesFillGains: FillGainsPair gives each channel the
+// gains of FillGains bit for bit, whatever the chunking, for one-tap pairs
+// on one plan (the AVX pair kernel), one-tap pairs at different
+// Dopplers or positions (the plans part), and three-tap pairs (never the
+// pair kernel); the same with the assembly off.
+func TestFillGainsPairMatchesFillGains(t *testing.T) {
+	oneTap := Profile{Name: "1tap", Taps: []Tap{{0, 0}}}
+	threeTap := Profile{Name: "3tap", Taps: []Tap{{0, 0}, {310, -1}, {710, -9}}}
+	cases := []struct {
+		name     string
+		prof     Profile
+		fdA, fdB float64
+		lagB     int // samples b is drawn ahead before the pairs start
+		paired   bool
+	}{
+		{"one tap, one plan", oneTap, 55.6, 55.6, 0, true},
+		{"one tap, slow", oneTap, 5.56, 5.56, 0, true},
+		{"one tap, two Dopplers", oneTap, 55.6, 120, 0, false},
+		{"one tap, b ahead", oneTap, 55.6, 55.6, 37, false},
+		{"three taps", threeTap, 55.6, 55.6, 0, false},
+	}
+	defer func(v bool) { useAVX = v }(useAVX)
+	for _, avx := range []bool{true, false} {
+		if avx && !useAVX {
+			continue
+		}
+		for _, c := range cases {
+			useAVX = avx
+			mk := func(fd float64, u int) *Channel {
+				ch, err := NewChannel(ChannelConfig{DopplerHz: fd, SampleRateHz: 1500, Profile: c.prof}, 9, u)
+				if err != nil {
+					t.Fatal(err)
+				}
+				return ch
+			}
+			a, b, a1, b1 := mk(c.fdA, 1), mk(c.fdB, 2), mk(c.fdA, 1), mk(c.fdB, 2)
+			const total = 4000
+			gotA, gotB := make([]float64, total), make([]float64, total+c.lagB)
+			wantA, wantB := make([]float64, total), make([]float64, total+c.lagB)
+			b.FillGains(gotB[:c.lagB])
+			var pc PlanCache
+			pairs := 0
+			for off, n := 0, 1; off < total; off, n = off+n, min(n*3+1, 700) {
+				end := min(off+n, total)
+				FillGainsPair(gotA[off:end], gotB[c.lagB+off:c.lagB+end], a, b, &pc)
+				pairs++
+			}
+			a1.FillGains(wantA)
+			b1.FillGains(wantB)
+			for i := range wantA {
+				if math.Float64bits(gotA[i]) != math.Float64bits(wantA[i]) {
+					t.Fatalf("avx %v, %s: channel a sample %d: pair %v, alone %v", avx, c.name, i, gotA[i], wantA[i])
+				}
+			}
+			for i := range wantB {
+				if math.Float64bits(gotB[i]) != math.Float64bits(wantB[i]) {
+					t.Fatalf("avx %v, %s: channel b sample %d: pair %v, alone %v", avx, c.name, i, gotB[i], wantB[i])
+				}
+			}
+			if pairs == 0 {
+				t.Fatalf("%s: no pair call", c.name)
+			}
+		}
+	}
+}

@@ -3,6 +3,7 @@ package fading
 import (
 	"fmt"
 	"math"
+	"slices"
 )
 
 // Generator selects the algorithm that generates the Rayleigh (diffuse)
@@ -513,24 +514,7 @@ func (c *Channel) FillGainsShared(dst []float64, pc *PlanCache) {
 	if c.hist > 0 {
 		for len(dst) > 0 {
 			n, idx, wrow, avx := c.planShared(len(dst), pc)
-			if avx {
-				l := 0
-				for stride := c.hist + c.blk; l+3 <= c.nt; l += 3 {
-					interpPower3AVX(dst[:n], l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, idx, wrow)
-				}
-				for ; l < c.nt; l++ {
-					interpPowerAVX(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
-				}
-				dst = dst[n:]
-				continue
-			}
-			l := 0
-			for ; l+3 <= c.nt; l += 3 {
-				interpPower3(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], idx, wrow)
-			}
-			for ; l < c.nt; l++ {
-				interpTapPower(dst[:n], l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
-			}
+			c.interpPlanned(dst[:n], idx, wrow, avx)
 			dst = dst[n:]
 		}
 		return
@@ -550,6 +534,63 @@ func (c *Channel) FillGainsShared(dst []float64, pc *PlanCache) {
 		}
 		dst = dst[n:]
 	}
+}
+
+// samePlan reports whether two plan slices hold the same entries (the
+// same cache entry, or equal).
+func samePlan(x, y []int32) bool {
+	return len(x) == len(y) && (len(x) == 0 || &x[0] == &y[0] || slices.Equal(x, y))
+}
+
+// interpPlanned writes the power gains of the len(dst) samples planned in
+// idx and wrow (avx: the plan passed interpIndexOK, the AVX kernels may
+// run).
+func (c *Channel) interpPlanned(dst []float64, idx, wrow []int32, avx bool) {
+	if avx {
+		l := 0
+		for stride := c.hist + c.blk; l+3 <= c.nt; l += 3 {
+			interpPower3AVX(dst, l == 0, c.flatRe[l*stride:(l+3)*stride], c.flatIm[l*stride:(l+3)*stride], stride, idx, wrow)
+		}
+		for ; l < c.nt; l++ {
+			interpPowerAVX(dst, l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
+		}
+		return
+	}
+	l := 0
+	for ; l+3 <= c.nt; l += 3 {
+		interpPower3(dst, l == 0, c.bufRe[l], c.bufIm[l], c.bufRe[l+1], c.bufIm[l+1], c.bufRe[l+2], c.bufIm[l+2], idx, wrow)
+	}
+	for ; l < c.nt; l++ {
+		interpTapPower(dst, l == 0, c.bufRe[l], c.bufIm[l], idx, wrow)
+	}
+}
+
+// FillGainsPair is FillGainsShared(dstA, pc) on a then
+// FillGainsShared(dstB, pc) on b, bit for bit, in one pass where it can:
+// when both are one-tap channels at the same point of the same plans
+// (same internal step, position and block: legs of one speed on one slot
+// clock), each output sample's interpolation weights are loaded once for
+// both (interpPower2AVX). Otherwise, or for what is left when the plans
+// part, it runs FillGainsShared on each.
+func FillGainsPair(dstA, dstB []float64, a, b *Channel, pc *PlanCache) {
+	if pc != nil && a.nt == 1 && b.nt == 1 && a.hist > 0 && b.hist > 0 && a.blk == b.blk && len(dstA) == len(dstB) {
+		for len(dstA) > 0 && a.step == b.step && a.m == b.m && a.blockStart == b.blockStart {
+			n, idx, wrow, avx := a.planShared(len(dstA), pc)
+			nb, idxB, wrowB, avxB := b.planShared(len(dstB), pc)
+			if nb == n && avx && avxB && samePlan(idx, idxB) && samePlan(wrow, wrowB) &&
+				interpPower2AVX(dstA[:n], dstB[:n], a.bufRe[0], a.bufIm[0], b.bufRe[0], b.bufIm[0], idx, wrow) {
+				dstA, dstB = dstA[n:], dstB[n:]
+				continue
+			}
+			// Not one shared plan: each its own (planned above).
+			a.interpPlanned(dstA[:n], idx, wrow, avx)
+			b.interpPlanned(dstB[:nb], idxB, wrowB, avxB)
+			dstA, dstB = dstA[n:], dstB[nb:]
+			break
+		}
+	}
+	a.FillGainsShared(dstA, pc)
+	b.FillGainsShared(dstB, pc)
 }
 
 // FillTaps writes n = len(dst)/NumTaps() consecutive samples of the complex

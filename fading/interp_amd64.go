@@ -43,6 +43,24 @@ func interpPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int
 	return true
 }
 
+// interpPower2AVXAsm is interpTapPowerAVX (first) for two one-tap
+// channels sharing one plan (interp_amd64.s), the same bits for each.
+//
+//go:noescape
+func interpPower2AVXAsm(dstA, dstB []float64, reA, imA, reB, imB *float64, idx, wrow *int32, wts *float64)
+
+// interpPower2AVX runs interpPower2AVXAsm when the CPU has AVX and reports
+// whether it did; the plan was checked by interpIndexOK against both
+// buffers (the same length).
+func interpPower2AVX(dstA, dstB, reA, imA, reB, imB []float64, idx, wrow []int32) bool {
+	n := len(dstA)
+	if !useAVX || n == 0 || len(dstB) != n || len(idx) < n || len(wrow) < n || len(reA) != len(reB) || len(imA) != len(reA) || len(imB) != len(reA) {
+		return false
+	}
+	interpPower2AVXAsm(dstA, dstB, &reA[0], &imA[0], &reB[0], &imB[0], &idx[0], &wrow[0], &interpTable[0])
+	return true
+}
+
 // osc16AVX runs sixteen oscillators of osc4 (four calls' worth) in AVX
 // assembly: the same operations in the same order, so the same bits.
 //

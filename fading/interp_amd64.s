@@ -242,3 +242,63 @@ first3:
 done3:
 	VZEROUPPER
 	RET
+
+// func interpPower2AVXAsm(dstA, dstB []float64, reA, imA, reB, imB *float64, idx, wrow *int32, wts *float64)
+//
+// interpTapPowerAVX (first) for two one-tap channels that share a plan
+// (idx, wrow; len(dstA) samples, dstB as long): each sample's weights are
+// loaded once and used for both; each channel's sums run the same
+// operations in the same order as interpTapPowerAVX (the two halves of
+// the 256-bit additions are the 128-bit additions of the one-channel
+// kernel), so the same bits.
+TEXT ·interpPower2AVXAsm(SB), NOSPLIT, $0-104
+	MOVQ  dstA_base+0(FP), DI
+	MOVQ  dstA_len+8(FP), CX
+	MOVQ  dstB_base+24(FP), DX
+	MOVQ  reA+48(FP), SI
+	MOVQ  imA+56(FP), R8
+	MOVQ  reB+64(FP), R13
+	MOVQ  imB+72(FP), R14
+	MOVQ  idx+80(FP), R9
+	MOVQ  wrow+88(FP), R10
+	MOVQ  wts+96(FP), R11
+	XORQ  AX, AX
+	TESTQ CX, CX
+	JEQ   done2
+
+loop2:
+	MOVLQSX    (R9)(AX*4), BX
+	MOVLQSX    (R10)(AX*4), R12
+	VMOVUPD    (R11)(R12*8), Y0
+	VMOVUPD    32(R11)(R12*8), Y1
+	VMULPD     (SI)(BX*8), Y0, Y2
+	VMULPD     32(SI)(BX*8), Y1, Y3
+	VMULPD     (R8)(BX*8), Y0, Y4
+	VMULPD     32(R8)(BX*8), Y1, Y5
+	VHADDPD    Y4, Y2, Y6         // A: (r01, q01, r23, q23)
+	VHADDPD    Y5, Y3, Y7         // A: (r45, q45, r67, q67)
+	VMULPD     (R13)(BX*8), Y0, Y2
+	VMULPD     32(R13)(BX*8), Y1, Y3
+	VMULPD     (R14)(BX*8), Y0, Y4
+	VMULPD     32(R14)(BX*8), Y1, Y5
+	VHADDPD    Y4, Y2, Y8         // B: (r01, q01, r23, q23)
+	VHADDPD    Y5, Y3, Y9         // B: (r45, q45, r67, q67)
+	VPERM2F128 $0x20, Y8, Y6, Y10 // (A r01, q01, B r01, q01)
+	VPERM2F128 $0x31, Y8, Y6, Y11 // (A r23, q23, B r23, q23)
+	VADDPD     Y11, Y10, Y10      // (A r0123, q0123, B r0123, q0123)
+	VPERM2F128 $0x20, Y9, Y7, Y12
+	VPERM2F128 $0x31, Y9, Y7, Y13
+	VADDPD     Y13, Y12, Y12      // (A r4567, q4567, B r4567, q4567)
+	VADDPD     Y12, Y10, Y10      // (A r, q, B r, q)
+	VMULPD     Y10, Y10, Y10
+	VHADDPD    Y10, Y10, Y10      // (A r² + q², ., B r² + q², .)
+	VMOVSD     X10, (DI)(AX*8)
+	VEXTRACTF128 $1, Y10, X11
+	VMOVSD     X11, (DX)(AX*8)
+	INCQ       AX
+	CMPQ       AX, CX
+	JLT        loop2
+
+done2:
+	VZEROUPPER
+	RET

@@ -11,6 +11,9 @@ func interpPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int
 	return false
 }
 
+// interpPower2AVX reports false: no assembly interpolator off amd64.
+func interpPower2AVX(dstA, dstB, reA, imA, reB, imB []float64, idx, wrow []int32) bool { return false }
+
 // osc16 reports false: no assembly oscillators off amd64.
 func osc16(dst []float64, first bool, c, a, b []float64) bool { return false }
 

@@ -168,7 +168,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
 	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
-	rp.fadeTmp = [2][]float64{make([]float64, blockSlots), make([]float64, blockSlots)}
+	rp.fadeTmp = [2][]float64{make([]float64, 2*blockSlots), make([]float64, 2*blockSlots)}
 	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {
 		// Slot-major: slot k's gains of every leg slot side by side, in
 		// the order the slot loop reads them.

@@ -169,7 +169,7 @@ type rep struct {
 	fade        []float64
 	fadeStride  int                 // U·legsPerUser
 	legsPerUser int                 // leg slots with a fading channel: max_active
-	fadeTmp     [2][]float64        // one leg's samples before fill.go spreads them: [0] the replication's goroutine, [1] the helper
+	fadeTmp     [2][]float64        // two legs' samples before fill.go spreads them: [0] the replication's goroutine, [1] the helper
 	plans       [2]fading.PlanCache // interpolation plans shared by legs of the same speed, per goroutine
 	legPos      []int64             // per leg slot u·legsPerUser + l: the slot its stream has reached
 	rx          []float64           // received power per cell this slot, mW

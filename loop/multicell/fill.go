@@ -1,6 +1,10 @@
 package multicell
 
-import "context"
+import (
+	"context"
+
+	"github.com/fadeloop/fadeloop/fading"
+)
 
 // The replication's work ahead of the slots — the fast fading of the next
 // block, the slow gains of the next shadowing update, the statistics of
@@ -49,13 +53,38 @@ func (rp *rep) fillLegs(legs []int, who int) {
 }
 
 // fillLeg writes the fading of user u's leg slot l for the n slots from
-// slot t0 into fade set fade, on goroutine who. The leg's stream runs on
-// the slot clock: a leg out of the active set since its last samples is
-// first advanced to t0 (fading.Channel.Skip, no samples generated), so
-// a leg that rejoins continues its process where time has taken it, and
-// the legs of users of the same speed are at the same point of their
-// streams and share interpolation plans (rep.plans).
+// slot t0 into fade set fade, on goroutine who (legAt: on the slot
+// clock).
 func (rp *rep) fillLeg(fade []float64, u, l int, t0 int64, n, who int) {
+	j, ch := rp.legAt(u, l, t0)
+	tmp := rp.fadeTmp[who][:n]
+	ch.FillGainsShared(tmp, &rp.plans[who])
+	rp.legPos[j] = t0 + int64(n)
+	rp.spread(fade, j, tmp)
+}
+
+// fillPair is fillLeg for user u's leg slot l and user v's leg slot m in
+// one pass (fading.FillGainsPair: the weights of a shared interpolation
+// plan loaded once for both; each leg's samples the same bits as
+// fillLeg's).
+func (rp *rep) fillPair(fade []float64, u, l, v, m int, t0 int64, n, who int) {
+	j, a := rp.legAt(u, l, t0)
+	k, b := rp.legAt(v, m, t0)
+	tmp := rp.fadeTmp[who]
+	fading.FillGainsPair(tmp[:n], tmp[n:2*n], a, b, &rp.plans[who])
+	rp.legPos[j], rp.legPos[k] = t0+int64(n), t0+int64(n)
+	rp.spread(fade, j, tmp[:n])
+	rp.spread(fade, k, tmp[n:2*n])
+}
+
+// legAt returns user u's leg slot l's index u·max_active + l and its
+// channel, advanced to slot t0. The leg's stream runs on the slot clock:
+// a leg out of the active set since its last samples is first advanced to
+// t0 (fading.Channel.Skip, no samples generated), so a leg that rejoins
+// continues its process where time has taken it, and the legs of users of
+// the same speed are at the same point of their streams and share
+// interpolation plans (rep.plans).
+func (rp *rep) legAt(u, l int, t0 int64) (int, *fading.Channel) {
 	j := u*rp.legsPerUser + l
 	ch := rp.users[u].legCh[l]
 	switch d := t0 - rp.legPos[j]; {
@@ -64,10 +93,7 @@ func (rp *rep) fillLeg(fade []float64, u, l int, t0 int64, n, who int) {
 	case d < 0:
 		panic("multicell: a leg's stream is past the block it is filled for") // programmer error: the slot clock would break
 	}
-	tmp := rp.fadeTmp[who][:n]
-	ch.FillGainsShared(tmp, &rp.plans[who])
-	rp.legPos[j] = t0 + int64(n)
-	rp.spread(fade, j, tmp)
+	return j, ch
 }
 
 // blockLen is the length of the block starting at slot t0: blockSlots,
@@ -173,13 +199,25 @@ func (rp *rep) postStats(b int) {
 // use of users lo..hi−1, on goroutine who.
 func (rp *rep) fillSet(s int, t0 int64, n, lo, hi, who int) {
 	fade := rp.fadeSets[s]
+	// Legs in use two at a time (fillPair), in user and leg order; the
+	// pairing does not change any leg's samples.
+	pu, pl := -1, -1 // a leg waiting for its pair
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		for l, ch := range us.legCh {
-			if ch != nil && us.legs[l] >= 0 {
-				rp.fillLeg(fade, u, l, t0, n, who)
+			if ch == nil || us.legs[l] < 0 {
+				continue
 			}
+			if pu < 0 {
+				pu, pl = u, l
+				continue
+			}
+			rp.fillPair(fade, pu, pl, u, l, t0, n, who)
+			pu = -1
 		}
+	}
+	if pu >= 0 {
+		rp.fillLeg(fade, pu, pl, t0, n, who)
 	}
 }
 
