@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 	"unsafe"
 )
@@ -370,64 +371,80 @@ func TestFullSums512MatchesGo(t *testing.T) {
 	}
 }
 
-// TestSlotSumsLayout: the offsets the assembly statistics loop reads
-// (users1Asm), and the three handover states it assumes.
-func TestSlotSumsLayout(t *testing.T) {
-	var a slotSums
-	var ua userAcc
-	checkOffsets(t, []offsetCase{
-		{"sirDB", unsafe.Offsetof(a.sirDB), 0}, {"tDB", unsafe.Offsetof(a.tDB), 8}, {"pDB", unsafe.Offsetof(a.pDB), 16},
-		{"edges", unsafe.Offsetof(a.edges), 24}, {"flags", unsafe.Offsetof(a.flags), 32}, {"nLegs", unsafe.Offsetof(a.nLegs), 40},
-		{"users", unsafe.Offsetof(a.users), 48}, {"n", unsafe.Offsetof(a.n), 56}, {"out", unsafe.Offsetof(a.out), 64},
-		{"blockErrs", unsafe.Offsetof(a.blockErrs), 128}, {"legN", unsafe.Offsetof(a.legN), 136},
-		{"legOut", unsafe.Offsetof(a.legOut), 160}, {"legMx", unsafe.Offsetof(a.legMx), 184},
-		{"userAcc size", unsafe.Sizeof(ua), 32}, {"userAcc.outage", unsafe.Offsetof(ua.outage), 8}, {"userAcc.txDBm", unsafe.Offsetof(ua.txDBm), 24},
-	})
-	if LegStates != 3 || recBlockEnd != 4 || recBlockErr != 8 {
-		t.Errorf("LegStates %d, flags %d %d: the assembly assumes 3, 4, 8", LegStates, recBlockEnd, recBlockErr)
+// TestAccumUsersMatchesGo: the AVX2 per-user block sums give the same
+// bits as the Go loop, for user counts that are and are not whole groups
+// of four (the Go loop takes the rest), over several slots in a row, with
+// every flag combination, and a block's flush gives the batch and
+// per-user sums of the per-slot definitions (outage, at max, edge, legs
+// by handover state, block ends: whole numbers, exact in any order).
+func TestAccumUsersMatchesGo(t *testing.T) {
+	if !useLoopAsm || !useAVX2 {
+		t.Skip("no AVX2 loop on this build: only the Go code runs")
+	}
+	r := rand.New(rand.NewPCG(15, 16))
+	for trial := 0; trial < 60; trial++ {
+		n := 1 + r.IntN(300)
+		a, b := make([]float64, ubLen(n)), make([]float64, ubLen(n))
+		for i := range a {
+			a[i] = r.NormFloat64()
+			b[i] = a[i]
+		}
+		for slot := 0; slot < 3; slot++ {
+			sirDB, tDB, pDB := make([]float64, n), make([]float64, n), make([]float64, n)
+			flags := make([]uint8, n)
+			for u := 0; u < n; u++ {
+				sirDB[u], tDB[u], pDB[u] = r.NormFloat64()*5, r.NormFloat64()*2+5, r.NormFloat64()*10
+				flags[u] = uint8(r.IntN(16))
+			}
+			accumUsers(a, sirDB, tDB, pDB, flags)
+			accumUsersGo(b, sirDB, tDB, pDB, flags)
+		}
+		for i := range a {
+			if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
+				t.Fatalf("trial %d (n %d) entry %d: AVX2 %v, Go %v", trial, n, i, a[i], b[i])
+			}
+		}
+	}
+	if LegStates != 3 || recOutage != 1 || recAtMax != 2 || recBlockEnd != 4 || recBlockErr != 8 {
+		t.Errorf("LegStates %d, flags %d %d %d %d: the loops assume 3, 1, 2, 4, 8", LegStates, recOutage, recAtMax, recBlockEnd, recBlockErr)
 	}
 }
 
-// TestUsers1AsmMatchesGo: the assembly statistics loop gives the same
-// sums, bit for bit, as the Go loop, with and without per-user sums and
-// with users in more legs than handover states.
-func TestUsers1AsmMatchesGo(t *testing.T) {
-	if !useLoopAsm {
-		t.Skip("no assembly loops on this build: only the Go code runs")
+// TestFlushUsersCounts: two slots of three users through users1 and one
+// flush give the counts of the per-slot definitions.
+func TestFlushUsersCounts(t *testing.T) {
+	rp := &rep{U: 3, C: 2, edge: []float64{0, 1, 1}}
+	rp.cfg.Run.Batches = 4
+	rp.cfg.Run.Slots = 100
+	c := newCollector(rp, 0)
+	r := newBlockRec(3, 2)
+	r.nLegs = []int8{1, 2, 5}
+	for k, fl := range [][]uint8{{recOutage, recAtMax | recOutage, recBlockEnd}, {0, recAtMax, recBlockEnd | recBlockErr}} {
+		for u := 0; u < 3; u++ {
+			r.sir[k*3+u], r.targetDB[k*3+u], r.pDB[k*3+u] = 10, 9, float64(u)
+			r.flags[k*3+u] = fl[u]
+		}
+		c.users1(rp, r, k*3)
 	}
-	r := rand.New(rand.NewPCG(15, 16))
-	for trial := 0; trial < 100; trial++ {
-		n := 1 + r.IntN(500)
-		sirDB, tDB, pDB, edges := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
-		flags, nLegs := make([]uint8, n), make([]int8, n)
-		for u := 0; u < n; u++ {
-			sirDB[u], tDB[u], pDB[u] = r.NormFloat64()*5, r.NormFloat64()*2+5, r.NormFloat64()*10
-			edges[u] = float64(r.IntN(2))
-			flags[u] = uint8(r.IntN(16))
-			nLegs[u] = int8(1 + r.IntN(6))
+	c.flushUsers(rp, r)
+	b := c.batches[0]
+	for _, x := range []struct {
+		name      string
+		got, want float64
+	}{
+		{"outage", b.outage, 2}, {"at max", b.atMax, 2}, {"edge slots", b.edgeSlots, 4}, {"edge at max", b.edgeAtMax, 2},
+		{"1-leg slots", b.legSlots[0], 2}, {"2-leg slots", b.legSlots[1], 2}, {"3+-leg slots", b.legSlots[2], 2},
+		{"1-leg outage", b.legOutage[0], 1}, {"2-leg outage", b.legOutage[1], 1}, {"2-leg at max", b.legAtMax[1], 2},
+		{"blocks", b.blocks, 2}, {"block errors", b.blockErrs, 1}, {"user-slots", b.userSlots, 6},
+		{"SIR error", b.sirErrDB, 6}, {"SIR error²", b.sirErrDB2, 6}, {"Tx", b.txDBm, 6},
+		{"user 1 outage", c.users[1].outage, 1}, {"user 2 Tx", c.users[2].txDBm, 4},
+	} {
+		if math.Abs(x.got-x.want) > 1e-9 {
+			t.Errorf("%s = %v, want %v", x.name, x.got, x.want)
 		}
-		var users1, users2 []userAcc
-		if trial%2 == 0 {
-			users1, users2 = make([]userAcc, n), make([]userAcc, n)
-			for u := range users1 {
-				users1[u] = userAcc{outage: r.Float64(), txDBm: r.NormFloat64()}
-				users2[u] = users1[u]
-			}
-		}
-		var a, b slotSums
-		if !users1Fast(&a, sirDB, tDB, pDB, edges, flags, nLegs, users1) {
-			t.Fatal("the assembly loop did not run")
-		}
-		users1Go(&b, sirDB, tDB, pDB, edges, flags, nLegs, users2)
-		a.sirDB, a.tDB, a.pDB, a.edges, a.flags, a.nLegs, a.users, a.n = nil, nil, nil, nil, nil, nil, nil, 0
-		if a != b {
-			t.Fatalf("trial %d: asm %+v\nGo %+v", trial, a, b)
-		}
-		for u := range users1 {
-			if users1[u] != users2[u] {
-				t.Fatalf("trial %d user %d: asm %+v, Go %+v", trial, u, users1[u], users2[u])
-			}
-		}
+	}
+	if c.ubSlots != 0 || slices.ContainsFunc(c.ub, func(v float64) bool { return v != 0 }) {
+		t.Error("the flush left per-user sums behind")
 	}
 }
 

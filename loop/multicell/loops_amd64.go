@@ -63,22 +63,19 @@ func rows3(row, ant, g []float64) {
 	rows3Go(row, ant, g)
 }
 
-// users1Asm is users1Go's loop in assembly (record_amd64.s), the same bits.
+// accumUsersAVX2 is accumUsersGo for n users, n a multiple of 4, in AVX2
+// (record_amd64.s), the same bits; accumUsers checks the lengths.
 //
 //go:noescape
-func users1Asm(a *slotSums)
+func accumUsersAVX2(ub, sirDB, tDB, pDB *float64, flags *uint8, n int)
 
-// users1Fast runs users1Asm on a (zero) and reports whether it did: the
-// slices hold n = len(sirDB) > 0 values (users: none or n).
-func users1Fast(a *slotSums, sirDB, tDB, pDB, edges []float64, flags []uint8, nLegs []int8, users []userAcc) bool {
-	n := len(sirDB)
-	if !useLoopAsm || n == 0 || len(tDB) < n || len(pDB) < n || len(edges) < n || len(flags) < n || len(nLegs) < n || users != nil && len(users) < n {
-		return false
+// accumUsersFast runs accumUsersAVX2 on the whole groups of four users
+// when the CPU has AVX2 and returns how many users it did.
+func accumUsersFast(ub, sirDB, tDB, pDB []float64, flags []uint8) int {
+	n := len(sirDB) &^ 3
+	if !useLoopAsm || !useAVX2 || n == 0 || len(tDB) < n || len(pDB) < n || len(flags) < n || len(ub) < n/4*ubGroup {
+		return 0
 	}
-	a.sirDB, a.tDB, a.pDB, a.edges, a.flags, a.nLegs, a.n = &sirDB[0], &tDB[0], &pDB[0], &edges[0], &flags[0], &nLegs[0], n
-	if users != nil {
-		a.users = &users[0]
-	}
-	users1Asm(a)
-	return true
+	accumUsersAVX2(&ub[0], &sirDB[0], &tDB[0], &pDB[0], &flags[0], n)
+	return n
 }

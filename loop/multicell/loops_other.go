@@ -22,6 +22,4 @@ func shadowSites(b, nd, path, site []float64, k, w, common, sdB float64) {
 
 func rows3(row, ant, g []float64) { rows3Go(row, ant, g) }
 
-func users1Fast(a *slotSums, sirDB, tDB, pDB, edges []float64, flags []uint8, nLegs []int8, users []userAcc) bool {
-	return false
-}
+func accumUsersFast(ub, sirDB, tDB, pDB []float64, flags []uint8) int { return 0 }

@@ -52,9 +52,10 @@ func (r *blockRec) start(rp *rep, t0 int64, n int) {
 	}
 }
 
-// addBlock sums up a block's record: per measured slot, every user
-// (users1, with the block results of the slot), then the cells
-// (collector.cells).
+// addBlock sums up a block's record: per measured slot, every user's
+// figures into its per-user block sums (users1), then the cells
+// (collector.cells); the user sums go into the batch at the block's end
+// and before a batch closes (flushUsers).
 func (c *collector) addBlock(rp *rep, r *blockRec) {
 	U, C := rp.U, rp.C
 	measured := 0.0
@@ -63,9 +64,13 @@ func (c *collector) addBlock(rp *rep, r *blockRec) {
 			continue
 		}
 		c.users1(rp, r, k*U)
+		if c.closesBatch() {
+			c.flushUsers(rp, r)
+		}
 		c.cells(r.rx[k*C:(k+1)*C], r.own[k*C:(k+1)*C], rp.noiseMW)
 		measured++
 	}
+	c.flushUsers(rp, r)
 	// Replication 0's per-user slot and leg counts (whole numbers: exact
 	// in any order).
 	if c.users != nil && measured > 0 {
@@ -76,90 +81,107 @@ func (c *collector) addBlock(rp *rep, r *blockRec) {
 	}
 }
 
-// users1 records one slot's user-slots (the record's entries from i on):
-// the slot's sums are formed first (users1Go, or its assembly), then added
-// to the batch.
+// users1 adds one slot's user-slots (the record's entries from i on) to
+// the per-user block sums (accumUsers: SIR in dB, its error, Tx power and
+// the flags as 0/1) and the slot's per-cell served counts to the batch.
 func (c *collector) users1(rp *rep, r *blockRec, i int) {
 	U := rp.U
-	sir, pDB, tDB, flags := r.sir[i:i+U], r.pDB[i:i+U], r.targetDB[i:i+U], r.flags[i:i+U]
 	sirDB := c.sirDB[:U]
-	linToDBFloorTo(sirDB, sir, 1e-30)
-	var a slotSums
-	if !users1Fast(&a, sirDB, tDB, pDB, rp.edge[:U], flags, r.nLegs[:U], c.users) {
-		users1Go(&a, sirDB, tDB, pDB, rp.edge[:U], flags, r.nLegs[:U], c.users)
-	}
+	linToDBFloorTo(sirDB, r.sir[i:i+U], 1e-30)
+	accumUsers(c.ub, sirDB, r.targetDB[i:i+U], r.pDB[i:i+U], r.flags[i:i+U])
+	c.ubSlots++
 	b := &c.batches[c.cur]
-	out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs := a.out, a.mx, a.edge, a.edgeMx, a.errS, a.errS2, a.tx, a.blocks, a.blockErrs
-	legN, legOut, legMx := a.legN, a.legOut, a.legMx
 	for cell, n := range r.served {
 		b.cellServed[cell] += n
 	}
 	b.userSlots += float64(U)
-	b.outage += out
-	b.atMax += mx
-	b.edgeSlots += edge
-	b.edgeAtMax += edgeMx
-	for li := range legN {
-		b.legSlots[li] += legN[li]
-		b.legOutage[li] += legOut[li]
-		b.legAtMax[li] += legMx[li]
-	}
-	b.sirErrDB += errS
-	b.sirErrDB2 += errS2
-	b.txDBm += tx
-	b.blocks += blocks
-	b.blockErrs += blockErrs
 }
 
-// slotSums is one slot's sums over users (users1Go), laid out for the
-// assembly loop (users1Asm; offsets in TestSlotSumsLayout).
-type slotSums struct {
-	sirDB, tDB, pDB, edges *float64
-	flags                  *uint8
-	nLegs                  *int8
-	users                  *userAcc // nil: no per-user sums
-	n                      int
-	out, mx, edge, edgeMx  float64
-	errS, errS2, tx        float64
-	blocks, blockErrs      float64
-	legN, legOut, legMx    [LegStates]float64
-}
+// Per-user block sums (collector.ub): users in groups of four, each group
+// ubFields arrays of four (the AVX2 loop's layout): user u's field f at
+// ub[(u/4)·ubGroup + f·4 + u%4].
+const (
+	ubOutage   = iota // slots in outage
+	ubAtMax           // slots at max power
+	ubErr             // Σ SIR error, dB
+	ubErr2            // Σ SIR error², dB²
+	ubTx              // Σ Tx power, dBm
+	ubBlocks          // block ends
+	ubBlockErr        // block errors
+	ubFields
+	ubGroup = 4 * ubFields
+)
 
-// users1Go sums one slot's users into a (from zero): outage, time at max
-// power (overall, at the cell edge and by handover state), SIR error and
-// its square (dB), Tx power (dBm), block ends and errors, and with users
-// (replication 0) each user's outage and Tx power.
-func users1Go(a *slotSums, sirDB, tDB, pDB, edges []float64, flags []uint8, nLegs []int8, users []userAcc) {
-	var out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs float64
-	var legN, legOut, legMx [LegStates]float64
+// ubLen is the length of the per-user block sums of U users.
+func ubLen(U int) int { return (U + 3) / 4 * ubGroup }
+
+// accumUsersGo adds one slot's users to the per-user block sums ub: per
+// user u, the flags as 0/1 (outage, at max, block end, block error), the
+// SIR error e = sirDB − tDB, e², and pDB; one addition per field and user
+// (e² a multiplication, then the addition), in user order. accumUsers
+// runs it in AVX2 where it can (the same operations per element, so the
+// same bits).
+func accumUsersGo(ub, sirDB, tDB, pDB []float64, flags []uint8) {
 	n := len(sirDB)
-	tDB, pDB, edges, flags, nLegs = tDB[:n], pDB[:n], edges[:n], flags[:n], nLegs[:n]
-	for u, sDB := range sirDB {
-		// 0/1 values from the flags, without branches.
+	tDB, pDB, flags = tDB[:n], pDB[:n], flags[:n]
+	for u, s := range sirDB {
+		a := ub[u/4*ubGroup+u%4:]
 		f := flags[u]
-		o := float64(f & recOutage)
-		m := float64((f & recAtMax) >> 1)
-		blocks += float64((f & recBlockEnd) >> 2)
-		blockErrs += float64((f & recBlockErr) >> 3)
-		nl := int(nLegs[u])
-		li := min(nl, LegStates) - 1
-		e := sDB - tDB[u]
-		out += o
-		mx += m
-		edge += edges[u]
-		edgeMx += m * edges[u]
-		legN[li]++
-		legOut[li] += o
-		legMx[li] += m
-		errS += e
-		errS2 += e * e
-		tx += pDB[u]
-		if users != nil {
-			ua := &users[u]
+		e := s - tDB[u]
+		a[4*ubOutage] += float64(f & recOutage)
+		a[4*ubAtMax] += float64((f & recAtMax) >> 1)
+		a[4*ubErr] += e
+		a[4*ubErr2] += e * e
+		a[4*ubTx] += pDB[u]
+		a[4*ubBlocks] += float64((f & recBlockEnd) >> 2)
+		a[4*ubBlockErr] += float64((f & recBlockErr) >> 3)
+	}
+}
+
+// accumUsers is accumUsersGo, in AVX2 for the whole groups of four users
+// where it can and in Go for the rest (the same bits).
+func accumUsers(ub, sirDB, tDB, pDB []float64, flags []uint8) {
+	n := len(sirDB)
+	if len(tDB) < n || len(pDB) < n || len(flags) < n || len(ub) < ubLen(n) {
+		panic("multicell: accumUsers: arrays shorter than the users") // programmer error
+	}
+	done := accumUsersFast(ub, sirDB, tDB, pDB, flags)
+	accumUsersGo(ub[done/4*ubGroup:], sirDB[done:], tDB[done:], pDB[done:], flags[done:])
+}
+
+// flushUsers adds the per-user block sums of the c.ubSlots slots since the
+// last flush to the current batch, per user in order (the handover state
+// and cell edge of the block's record r: fixed within a block), and to
+// replication 0's per-user sums, then clears them.
+func (c *collector) flushUsers(rp *rep, r *blockRec) {
+	if c.ubSlots == 0 {
+		return
+	}
+	n := float64(c.ubSlots)
+	b := &c.batches[c.cur]
+	edges := rp.edge[:rp.U]
+	for u, edge := range edges {
+		a := c.ub[u/4*ubGroup+u%4:]
+		o, m := a[4*ubOutage], a[4*ubAtMax]
+		li := min(int(r.nLegs[u]), LegStates) - 1
+		b.outage += o
+		b.atMax += m
+		b.edgeSlots += edge * n
+		b.edgeAtMax += edge * m
+		b.legSlots[li] += n
+		b.legOutage[li] += o
+		b.legAtMax[li] += m
+		b.sirErrDB += a[4*ubErr]
+		b.sirErrDB2 += a[4*ubErr2]
+		b.txDBm += a[4*ubTx]
+		b.blocks += a[4*ubBlocks]
+		b.blockErrs += a[4*ubBlockErr]
+		if c.users != nil {
+			ua := &c.users[u]
 			ua.outage += o
-			ua.txDBm += pDB[u]
+			ua.txDBm += a[4*ubTx]
 		}
 	}
-	a.out, a.mx, a.edge, a.edgeMx, a.errS, a.errS2, a.tx, a.blocks, a.blockErrs = out, mx, edge, edgeMx, errS, errS2, tx, blocks, blockErrs
-	a.legN, a.legOut, a.legMx = legN, legOut, legMx
+	clear(c.ub)
+	c.ubSlots = 0
 }

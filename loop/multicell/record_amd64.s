@@ -2,109 +2,65 @@
 
 #include "textflag.h"
 
-// func users1Asm(a *slotSums)
+// func accumUsersAVX2(ub, sirDB, tDB, pDB *float64, flags *uint8, n int)
 //
-// users1Go's loop over one slot's users: per user u, in order, o and m
-// (outage and at-max flags as 0/1), blocks and block errors, the handover
-// state li = min(legs, 3) − 1, e = SIR dB − target dB, and the sums
-// out += o, mx += m, edge += edge_u, edgeMx += m·edge_u, legN[li] += 1,
-// legOut[li] += o, legMx[li] += m, errS += e, errS2 += e·e, tx += pDB,
-// and with per-user sums (a.users not nil) outage_u += o, txDBm_u += pDB:
-// the Go loop's operations in its order, scalar SSE2, so the same bits.
-// slotSums offsets: TestSlotSumsLayout.
-TEXT ·users1Asm(SB), NOSPLIT, $0-8
-	MOVQ  a+0(FP), R11
-	MOVQ  0(R11), SI   // sirDB
-	MOVQ  8(R11), R8   // tDB
-	MOVQ  16(R11), R9  // pDB
-	MOVQ  24(R11), R10 // edges
-	MOVQ  32(R11), R12 // flags
-	MOVQ  40(R11), R13 // nLegs
-	MOVQ  48(R11), DI  // users (nil: none)
-	MOVQ  56(R11), CX  // n
-	MOVSD 64(R11), X0  // out
-	MOVSD 72(R11), X1  // mx
-	MOVSD 80(R11), X2  // edge
-	MOVSD 88(R11), X3  // edgeMx
-	MOVSD 96(R11), X4  // errS
-	MOVSD 104(R11), X5 // errS2
-	MOVSD 112(R11), X6 // tx
-	MOVSD 120(R11), X7 // blocks
-	MOVSD 128(R11), X8 // blockErrs
-	MOVSD $1.0, X13
-	XORQ  AX, AX
-	TESTQ CX, CX
-	JEQ   udone
+// accumUsersGo for users 0 .. n−1, n a multiple of 4, four users at a
+// time: each group's seven arrays of four (ub, 224 bytes per group) get
+// the flags as 0/1 (bits 0–3: outage, at max, block end, block error;
+// the bytes widened to 32 bits, masked and converted exactly), e = SIR dB
+// − target dB, e·e and the Tx power added, one operation per element as
+// the Go loop does, so the same bits.
+TEXT ·accumUsersAVX2(SB), NOSPLIT, $0-48
+	MOVQ      ub+0(FP), DI
+	MOVQ      sirDB+8(FP), SI
+	MOVQ      tDB+16(FP), R9
+	MOVQ      pDB+24(FP), R10
+	MOVQ      flags+32(FP), R11
+	MOVQ      n+40(FP), CX
+	VPCMPEQD  X15, X15, X15
+	VPSRLD    $31, X15, X15      // 1 in every 32-bit lane
+	XORQ      AX, AX
+	TESTQ     CX, CX
+	JEQ       adone
 
-uloop:
-	MOVBQZX  (R12)(AX*1), DX // flags
-	MOVQ     DX, BX
-	ANDQ     $1, BX
-	CVTSQ2SD BX, X9          // o
-	MOVQ     DX, BX
-	ANDQ     $2, BX
-	SHRQ     $1, BX
-	CVTSQ2SD BX, X10         // m
-	MOVQ     DX, BX
-	ANDQ     $4, BX
-	SHRQ     $2, BX
-	CVTSQ2SD BX, X11
-	ADDSD    X11, X7         // blocks
-	ANDQ     $8, DX
-	SHRQ     $3, DX
-	CVTSQ2SD DX, X11
-	ADDSD    X11, X8         // blockErrs
-	MOVBQSX  (R13)(AX*1), BX // legs
-	MOVQ     $3, DX
-	CMPQ     BX, DX
-	CMOVQGT  DX, BX
-	DECQ     BX              // li
-	MOVSD    (SI)(AX*8), X11
-	SUBSD    (R8)(AX*8), X11 // e
-	ADDSD    X9, X0          // out
-	ADDSD    X10, X1         // mx
-	MOVSD    (R10)(AX*8), X12
-	ADDSD    X12, X2         // edge
-	MULSD    X10, X12
-	ADDSD    X12, X3         // edgeMx
-	MOVSD    136(R11)(BX*8), X12
-	ADDSD    X13, X12
-	MOVSD    X12, 136(R11)(BX*8) // legN[li]
-	MOVSD    160(R11)(BX*8), X12
-	ADDSD    X9, X12
-	MOVSD    X12, 160(R11)(BX*8) // legOut[li]
-	MOVSD    184(R11)(BX*8), X12
-	ADDSD    X10, X12
-	MOVSD    X12, 184(R11)(BX*8) // legMx[li]
-	ADDSD    X11, X4         // errS
-	MULSD    X11, X11
-	ADDSD    X11, X5         // errS2
-	MOVSD    (R9)(AX*8), X12
-	ADDSD    X12, X6         // tx
-	TESTQ    DI, DI
-	JEQ      unext
-	MOVQ     AX, BX
-	SHLQ     $5, BX
-	MOVSD    8(DI)(BX*1), X11
-	ADDSD    X9, X11
-	MOVSD    X11, 8(DI)(BX*1)  // outage_u
-	MOVSD    24(DI)(BX*1), X11
-	ADDSD    X12, X11
-	MOVSD    X11, 24(DI)(BX*1) // txDBm_u
+aloop:
+	MOVL      (R11)(AX*1), DX
+	VMOVD     DX, X0
+	VPMOVZXBD X0, X0             // four flag bytes, 32 bits each
+	VPAND     X15, X0, X1
+	VCVTDQ2PD X1, Y1             // outage
+	VPSRLD    $1, X0, X2
+	VPAND     X15, X2, X2
+	VCVTDQ2PD X2, Y2             // at max
+	VPSRLD    $2, X0, X3
+	VPAND     X15, X3, X3
+	VCVTDQ2PD X3, Y3             // block end
+	VPSRLD    $3, X0, X4
+	VPAND     X15, X4, X4
+	VCVTDQ2PD X4, Y4             // block error
+	VMOVUPD   (SI)(AX*8), Y5
+	VSUBPD    (R9)(AX*8), Y5, Y5 // e = SIR − target
+	VMULPD    Y5, Y5, Y6         // e·e
+	VMOVUPD   (R10)(AX*8), Y7    // Tx power
+	VADDPD    (DI), Y1, Y1
+	VMOVUPD   Y1, (DI)
+	VADDPD    32(DI), Y2, Y2
+	VMOVUPD   Y2, 32(DI)
+	VADDPD    64(DI), Y5, Y5
+	VMOVUPD   Y5, 64(DI)
+	VADDPD    96(DI), Y6, Y6
+	VMOVUPD   Y6, 96(DI)
+	VADDPD    128(DI), Y7, Y7
+	VMOVUPD   Y7, 128(DI)
+	VADDPD    160(DI), Y3, Y3
+	VMOVUPD   Y3, 160(DI)
+	VADDPD    192(DI), Y4, Y4
+	VMOVUPD   Y4, 192(DI)
+	ADDQ      $224, DI
+	ADDQ      $4, AX
+	CMPQ      AX, CX
+	JLT       aloop
 
-unext:
-	INCQ AX
-	CMPQ AX, CX
-	JLT  uloop
-
-udone:
-	MOVSD X0, 64(R11)
-	MOVSD X1, 72(R11)
-	MOVSD X2, 80(R11)
-	MOVSD X3, 88(R11)
-	MOVSD X4, 96(R11)
-	MOVSD X5, 104(R11)
-	MOVSD X6, 112(R11)
-	MOVSD X7, 120(R11)
-	MOVSD X8, 128(R11)
+adone:
+	VZEROUPPER
 	RET

@@ -21,7 +21,9 @@ import (
 // (loop.ShadowingSlotsFor; was 15 slots whatever the speed), and the
 // shadowing update interval counts toward the batch length only where
 // shadowing changes (figures of scenarios that left it unset differ from
-// 1.3.0; scenarios that set it run as before).
+// 1.3.0), and the user figures are summed per user over a block before
+// they join the batch sums (the last digits of every scenario's figures
+// differ from 1.3.0, same distributions).
 const EngineVersion = "fadeloop-multicell/1.4.0"
 
 // RunScenario is the one dispatch point between the two engines, used by

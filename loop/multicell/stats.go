@@ -67,6 +67,8 @@ type collector struct {
 	riseP95   []float64  // per batch: 95th percentile of riseBatch, dB
 	users     []userAcc  // replication 0 only
 	sirDB     []float64  // users1's scratch: one slot's combined SIR per user, dB
+	ub        []float64  // per-user sums since the last flushUsers (record.go: ubFields per user)
+	ubSlots   int        // slots in ub
 	riseDB    []float64  // cells' scratch: one slot's noise rise per cell, dB
 	ratioDB   []float64  // cells' scratch: one slot's other-to-own ratio per cell, dB
 }
@@ -75,7 +77,7 @@ type userAcc struct{ slots, outage, legs, txDBm float64 }
 
 func newCollector(rp *rep, r int) *collector {
 	nb := rp.cfg.Run.Batches
-	c := &collector{batches: make([]sums, nb), sirDB: make([]float64, rp.U), riseDB: make([]float64, rp.C), ratioDB: make([]float64, rp.C)}
+	c := &collector{batches: make([]sums, nb), sirDB: make([]float64, rp.U), ub: make([]float64, ubLen(rp.U)), riseDB: make([]float64, rp.C), ratioDB: make([]float64, rp.C)}
 	for i := range c.batches {
 		c.batches[i] = newSums(rp.C)
 	}
@@ -133,11 +135,18 @@ func (c *collector) cells(rx, own []float64, noiseMW float64) {
 		c.riseHist[k][i]++
 		c.riseBatch[i]++
 	}
+	closes := c.closesBatch()
 	c.measured++
-	if float64(c.measured) >= float64(c.cur+1)*c.perBatch && c.cur < len(c.batches)-1 {
+	if closes {
 		c.closeBatch()
 		c.cur++
 	}
+}
+
+// closesBatch reports whether the slot being recorded closes the current
+// batch (cells then moves to the next).
+func (c *collector) closesBatch() bool {
+	return float64(c.measured+1) >= float64(c.cur+1)*c.perBatch && c.cur < len(c.batches)-1
 }
 
 // closeBatch records the current batch's noise-rise percentile and
