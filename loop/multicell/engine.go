@@ -170,6 +170,7 @@ type rep struct {
 	fadeStride  int                 // U·legsPerUser
 	legsPerUser int                 // leg slots with a fading channel: max_active
 	fadeTmp     [2][]float64        // two legs' samples before fill.go spreads them: [0] the replication's goroutine, [1] the helper
+	fillList    [2][]int32          // fillSet's legs in use (u·maxLegsPerUser + l), per goroutine as fadeTmp
 	plans       [2]fading.PlanCache // interpolation plans shared by legs of the same speed, per goroutine
 	legPos      []int64             // per leg slot u·legsPerUser + l: the slot its stream has reached
 	rx          []float64           // received power per cell this slot, mW

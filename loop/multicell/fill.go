@@ -199,25 +199,39 @@ func (rp *rep) postStats(b int) {
 // use of users lo..hi−1, on goroutine who.
 func (rp *rep) fillSet(s int, t0 int64, n, lo, hi, who int) {
 	fade := rp.fadeSets[s]
-	// Legs in use two at a time (fillPair), in user and leg order; the
-	// pairing does not change any leg's samples.
-	pu, pl := -1, -1 // a leg waiting for its pair
+	// The legs in use, in user and leg order, filled two at a time
+	// (fillPair; the pairing does not change any leg's samples). Each
+	// leg's channel is cold in cache among thousands: the channels two
+	// pairs ahead are asked for (PrefetchState), then one pair ahead their
+	// samples (PrefetchSamples), hints only.
+	list := rp.fillList[who][:0]
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
 		for l, ch := range us.legCh {
-			if ch == nil || us.legs[l] < 0 {
-				continue
+			if ch != nil && us.legs[l] >= 0 {
+				list = append(list, int32(u*maxLegsPerUser+l))
 			}
-			if pu < 0 {
-				pu, pl = u, l
-				continue
-			}
-			rp.fillPair(fade, pu, pl, u, l, t0, n, who)
-			pu = -1
 		}
 	}
-	if pu >= 0 {
-		rp.fillLeg(fade, pu, pl, t0, n, who)
+	rp.fillList[who] = list
+	ch := func(i int) *fading.Channel { return rp.users[list[i]/maxLegsPerUser].legCh[list[i]%maxLegsPerUser] }
+	for i := 0; i < min(4, len(list)); i++ {
+		ch(i).PrefetchState()
+	}
+	for i := 0; i < len(list); i += 2 {
+		for k := i + 4; k < min(i+6, len(list)); k++ {
+			ch(k).PrefetchState()
+		}
+		for k := i + 2; k < min(i+4, len(list)); k++ {
+			ch(k).PrefetchSamples(n)
+		}
+		u, l := int(list[i])/maxLegsPerUser, int(list[i])%maxLegsPerUser
+		if i+1 < len(list) {
+			v, m := int(list[i+1])/maxLegsPerUser, int(list[i+1])%maxLegsPerUser
+			rp.fillPair(fade, u, l, v, m, t0, n, who)
+		} else {
+			rp.fillLeg(fade, u, l, t0, n, who)
+		}
 	}
 }
 
