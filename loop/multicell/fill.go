@@ -44,12 +44,14 @@ func (rp *rep) fillJoiners() {
 }
 
 // fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l
-// on goroutine who.
+// on goroutine who (fillListed).
 func (rp *rep) fillLegs(legs []int, who int) {
+	list := rp.fillList[who][:0]
 	for _, i := range legs {
-		u, l := i/maxLegsPerUser, i%maxLegsPerUser
-		rp.fillLeg(rp.fade, u, l, rp.blockT0, rp.blockN, who)
+		list = append(list, int32(i))
 	}
+	rp.fillList[who] = list
+	rp.fillListed(rp.fade, list, rp.blockT0, rp.blockN, who)
 }
 
 // fillLeg writes the fading of user u's leg slot l for the n slots from
@@ -199,11 +201,7 @@ func (rp *rep) postStats(b int) {
 // use of users lo..hi−1, on goroutine who.
 func (rp *rep) fillSet(s int, t0 int64, n, lo, hi, who int) {
 	fade := rp.fadeSets[s]
-	// The legs in use, in user and leg order, filled two at a time
-	// (fillPair; the pairing does not change any leg's samples). Each
-	// leg's channel is cold in cache among thousands: the channels two
-	// pairs ahead are asked for (PrefetchState), then one pair ahead their
-	// samples (PrefetchSamples), hints only.
+	// The legs in use, in user and leg order (fillListed).
 	list := rp.fillList[who][:0]
 	for u := lo; u < hi; u++ {
 		us := &rp.users[u]
@@ -214,6 +212,16 @@ func (rp *rep) fillSet(s int, t0 int64, n, lo, hi, who int) {
 		}
 	}
 	rp.fillList[who] = list
+	rp.fillListed(fade, list, t0, n, who)
+}
+
+// fillListed fills the n slots from slot t0 of the leg slots in list
+// (u·maxLegsPerUser + l) into fade set fade, on goroutine who, two at a
+// time (fillPair; the pairing does not change any leg's samples). Each
+// leg's channel is cold in cache among thousands: the channels two pairs
+// ahead are asked for (PrefetchState), then one pair ahead their samples
+// (PrefetchSamples), hints only.
+func (rp *rep) fillListed(fade []float64, list []int32, t0 int64, n, who int) {
 	ch := func(i int) *fading.Channel { return rp.users[list[i]/maxLegsPerUser].legCh[list[i]%maxLegsPerUser] }
 	for i := 0; i < min(4, len(list)); i++ {
 		ch(i).PrefetchState()
