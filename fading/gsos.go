@@ -3,6 +3,7 @@ package fading
 import (
 	"math"
 	"math/rand/v2"
+	"sync"
 )
 
 // gsosSource is the generator of GeneratorDefault: a sum of sinusoids with
@@ -40,8 +41,8 @@ type gsosSource struct {
 	cur     []gsosSet    // per tap: the set starting at this block
 	tmp     []float64    // scratch: overlap samples of the outgoing set
 	st      []float64    // scratch: oscillator states
-	cosW    []float64    // cos(πi/(2W))
-	sinW    []float64    // sin(πi/(2W))
+	cosW    []float64    // cos(πi/(2W)) (crossfade: shared, read only)
+	sinW    []float64    // sin(πi/(2W)) (crossfade: shared, read only)
 	started bool
 	raw     bool // cur holds drawRaw's draws, finish pending (skip)
 }
@@ -61,10 +62,8 @@ func newGSOSSource(nt, m int, nu float64, seed uint64, user int) *gsosSource {
 	ov := hop / 4
 	s := &gsosSource{nt: nt, m: m, nu: nu, hop: hop, ov: ov,
 		rng: make([]*rand.Rand, nt), old: make([]gsosSet, nt), cur: make([]gsosSet, nt),
-		tmp: make([]float64, ov), st: make([]float64, 2*m), cosW: make([]float64, ov), sinW: make([]float64, ov)}
-	for i := range s.cosW {
-		s.sinW[i], s.cosW[i] = math.Sincos(math.Pi / 2 * float64(i) / float64(ov))
-	}
+		tmp: make([]float64, ov), st: make([]float64, 2*m)}
+	s.cosW, s.sinW = crossfade(ov)
 	for l := 0; l < nt; l++ {
 		s.rng[l] = NewStream(seed, user, l, StreamTap)
 		s.old[l] = newGSOSSet(m)
@@ -72,6 +71,27 @@ func newGSOSSource(nt, m int, nu float64, seed uint64, user int) *gsosSource {
 	}
 	return s
 }
+
+// crossfade returns the cross-fade weights cos(πi/(2W)) and sin(πi/(2W)),
+// i < W, computed once per W and shared (read only) by every source.
+func crossfade(w int) (cos, sin []float64) {
+	if v, ok := crossfades.Load(w); ok {
+		cs := v.([2][]float64)
+		return cs[0], cs[1]
+	}
+	cos, sin = make([]float64, w), make([]float64, w)
+	for i := range cos {
+		sin[i], cos[i] = math.Sincos(math.Pi / 2 * float64(i) / float64(w))
+	}
+	v, _ := crossfades.LoadOrStore(w, [2][]float64{cos, sin})
+	cs := v.([2][]float64)
+	return cs[0], cs[1]
+}
+
+// crossfades holds crossfade's weights by W (hop/4: 62 for every
+// decimating generator, at most 83 at the sample rate: a few dozen
+// entries at most).
+var crossfades sync.Map
 
 func newGSOSSet(m int) gsosSet {
 	n := 2 * m

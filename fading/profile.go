@@ -87,8 +87,8 @@ func (p Profile) Validate() error {
 			return paramErr(fmt.Sprintf("Taps[%d].DelayNs", i),
 				"taps must be sorted by strictly increasing delay (%g ns follows %g ns)", t.DelayNs, p.Taps[i-1].DelayNs)
 		}
-		if err := checkRange(fmt.Sprintf("Taps[%d].PowerDB", i), t.PowerDB, -300, 300, "dB"); err != nil {
-			return err
+		if !finite(t.PowerDB) || t.PowerDB < -300 || t.PowerDB > 300 { // the name formatted only for the error
+			return checkRange(fmt.Sprintf("Taps[%d].PowerDB", i), t.PowerDB, -300, 300, "dB")
 		}
 	}
 	return nil
