@@ -102,13 +102,16 @@ ploop:
 	MOVQ    40(R11), R13
 	TESTQ   R13, R13
 	JEQ     norec
-	MOVSD   X0, (R13)(DX*8) // recSIR[u]
+	// The record is read a block later on the other core: streaming
+	// stores (no read of the old lines; SFENCE at the end).
+	MOVQ    X0, DI
+	MOVNTIQ DI, (R13)(DX*8) // recSIR[u]
 	MOVQ    48(R11), R13
-	MOVSD   8(SI), X2
-	MOVSD   X2, (R13)(DX*8) // recPDB[u] = pDB
+	MOVQ    8(SI), DI
+	MOVNTIQ DI, (R13)(DX*8) // recPDB[u] = pDB
 	MOVQ    56(R11), R13
-	MOVSD   24(SI), X2
-	MOVSD   X2, (R13)(DX*8) // recTDB[u] = targetDB
+	MOVQ    24(SI), DI
+	MOVNTIQ DI, (R13)(DX*8) // recTDB[u] = targetDB
 	MOVSD   16(SI), X2
 	MULSD   X8, X2      // target·marginLin
 	XORL    R13, R13
@@ -164,6 +167,7 @@ pstepped:
 	JNE   ploop
 
 pdone:
+	SFENCE
 	MOVQ AX, 152(R11)
 	MOVQ BX, 160(R11)
 	RET
