@@ -32,6 +32,36 @@ tl:; \
 	JMP     tl; \
 dn:
 
+// MOVERS(cnt, lp, done): the users u < n whose power did not move by the
+// common factor b (in X0), d = pCur[u] − b·pPrev[u] ≠ 0, listed in mv and
+// dv without a branch per user; cnt ends as their count. Uses R8–R13, AX
+// and X1–X3; reads updateSumsAVX's and updateSums512's arguments (the
+// same frame); lp and done name its labels.
+#define MOVERS(cnt, lp, done) \
+	MOVQ     pCur+32(FP), R8; \
+	MOVQ     pPrev+40(FP), R9; \
+	MOVQ     n+48(FP), R10; \
+	MOVQ     mv+64(FP), R11; \
+	MOVQ     dv+72(FP), R12; \
+	XORQ     AX, AX; \
+	XORQ     cnt, cnt; \
+	VXORPD   X3, X3, X3; \
+lp:; \
+	CMPQ     AX, R10; \
+	JGE      done; \
+	VMULSD   (R9)(AX*8), X0, X1; \
+	VMOVSD   (R8)(AX*8), X2; \
+	VSUBSD   X1, X2, X2; \
+	MOVL     AX, (R11)(cnt*4); \
+	VMOVSD   X2, (R12)(cnt*8); \
+	XORL     R13, R13; \
+	VUCOMISD X3, X2; \
+	SETNE    R13B; \
+	ADDQ     R13, cnt; \
+	INCQ     AX; \
+	JMP      lp; \
+done:
+
 // func addScaledAVX(s []float64, d float64, row *float64)
 //
 // s[i] += d·row[i] for i < len(s) (ROWADD).
@@ -68,31 +98,7 @@ scale:
 	JMP     scale
 
 movers:
-	MOVQ    pCur+32(FP), R8
-	MOVQ    pPrev+40(FP), R9
-	MOVQ    n+48(FP), R10
-	MOVQ    mv+64(FP), R11
-	MOVQ    dv+72(FP), R12
-	XORQ    AX, AX
-	XORQ    BX, BX
-	VXORPD  X3, X3, X3
-
-mloop:
-	CMPQ     AX, R10
-	JGE      rows
-	VMULSD   (R9)(AX*8), X0, X1 // b·pPrev[u]
-	VMOVSD   (R8)(AX*8), X2
-	VSUBSD   X1, X2, X2         // d
-	MOVL     AX, (R11)(BX*4)
-	VMOVSD   X2, (R12)(BX*8)
-	XORL     R13, R13
-	VUCOMISD X3, X2
-	SETNE    R13B
-	ADDQ     R13, BX
-	INCQ     AX
-	JMP      mloop
-
-rows:
+	MOVERS(BX, mloop, rows)
 	MOVQ slow+56(FP), R8
 	MOVQ CX, DX
 	ANDQ $-8, DX
@@ -170,31 +176,7 @@ TEXT ·updateSums512(SB), NOSPLIT, $0-80
 	MOVQ         s_base+0(FP), DI
 	MOVQ         s_len+8(FP), BX
 	VMOVSD       b+24(FP), X0
-	MOVQ         pCur+32(FP), R8
-	MOVQ         pPrev+40(FP), R9
-	MOVQ         n+48(FP), R10
-	MOVQ         mv+64(FP), R11
-	MOVQ         dv+72(FP), R12
-	XORQ         AX, AX
-	XORQ         DX, DX
-	VXORPD       X3, X3, X3
-
-mloop:
-	CMPQ     AX, R10
-	JGE      sums
-	VMULSD   (R9)(AX*8), X0, X1 // b·pPrev[u]
-	VMOVSD   (R8)(AX*8), X2
-	VSUBSD   X1, X2, X2         // d
-	MOVL     AX, (R11)(DX*4)
-	VMOVSD   X2, (R12)(DX*8)
-	XORL     R13, R13
-	VUCOMISD X3, X2
-	SETNE    R13B
-	ADDQ     R13, DX
-	INCQ     AX
-	JMP      mloop
-
-sums:
+	MOVERS(DX, mloop, sums)
 	LASTMASK
 	VBROADCASTSD b+24(FP), Z31
 	VMULPD    (DI), Z31, Z0
