@@ -208,9 +208,7 @@ func NewChannel(cfg ChannelConfig, seed uint64, user int) (*Channel, error) {
 	}
 	c.blk = c.src.blockLen()
 	if c.step < 1 {
-		c.hist = interpHist
-		c.idx = make([]int32, outChunk)
-		c.wrow = make([]int32, outChunk)
+		c.hist = interpHist // c.idx and c.wrow are made on their first use (ownPlan)
 	}
 	c.flatRe = make([]float64, nt*(c.hist+c.blk))
 	c.flatIm = make([]float64, nt*(c.hist+c.blk))
@@ -327,7 +325,18 @@ func (c *Channel) produce(max int) int {
 func (c *Channel) plan(max int) int {
 	n := min(max, outChunk)
 	c.planRefill()
-	return c.planCompute(n)
+	idx, wrow := c.ownPlan()
+	return c.planCompute(n, idx, wrow)
+}
+
+// ownPlan returns the channel's own plan arrays, made on their first use:
+// channels that always take their plans from a PlanCache (the multi-cell
+// legs) never need them.
+func (c *Channel) ownPlan() (idx, wrow []int32) {
+	if c.idx == nil {
+		c.idx, c.wrow = make([]int32, outChunk), make([]int32, outChunk)
+	}
+	return c.idx, c.wrow
 }
 
 // planRefill refills the internal buffer until it holds the first node of
@@ -343,12 +352,12 @@ func (c *Channel) planRefill() {
 }
 
 // planCompute is plan after planRefill: it plans up to n <= outChunk
-// samples into c.idx and c.wrow and advances c.m.
-func (c *Channel) planCompute(n int) int {
+// samples into idx and wrow (at least n long) and advances c.m.
+func (c *Channel) planCompute(n int, idx, wrow []int32) int {
 	step, m := c.step, c.m
 	end := c.blockStart + int64(c.blk)
 	base := c.blockStart - int64(c.hist) + interpBefore
-	idx, wrow := c.idx[:n], c.wrow[:n]
+	idx, wrow = idx[:n], wrow[:n]
 	i := 0
 	for ; i < n; i++ {
 		p := float64(m+int64(i))*step + interpBefore
@@ -392,8 +401,9 @@ func (c *Channel) planShared(max int, pc *PlanCache) (int, []int32, []int32, boo
 	mx := min(max, outChunk)
 	c.planRefill()
 	if pc == nil {
-		n := c.planCompute(mx)
-		return n, c.idx[:n], c.wrow[:n], useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)
+		idx, wrow := c.ownPlan()
+		n := c.planCompute(mx, idx, wrow)
+		return n, idx[:n], wrow[:n], useAVX && interpIndexOK(idx[:n], wrow[:n], c.hist+c.blk)
 	}
 	for i := range pc.ents {
 		e := &pc.ents[i]
@@ -402,15 +412,14 @@ func (c *Channel) planShared(max int, pc *PlanCache) (int, []int32, []int32, boo
 			return e.n, e.idx[:e.n], e.wrow[:e.n], e.ok
 		}
 	}
+	// A new plan, computed straight into the entry it replaces.
 	m0 := c.m
-	n := c.planCompute(mx)
 	e := &pc.ents[pc.next]
 	pc.next = (pc.next + 1) % len(pc.ents)
-	*e = planEntry{used: true, step: c.step, m: m0, blockStart: c.blockStart, hist: c.hist, blk: c.blk, mx: mx, n: n,
-		ok: useAVX && interpIndexOK(c.idx[:n], c.wrow[:n], c.hist+c.blk)}
-	copy(e.idx[:n], c.idx[:n])
-	copy(e.wrow[:n], c.wrow[:n])
-	return n, c.idx[:n], c.wrow[:n], e.ok
+	n := c.planCompute(mx, e.idx[:], e.wrow[:])
+	e.used, e.step, e.m, e.blockStart, e.hist, e.blk, e.mx, e.n = true, c.step, m0, c.blockStart, c.hist, c.blk, mx, n
+	e.ok = useAVX && interpIndexOK(e.idx[:n], e.wrow[:n], c.hist+c.blk)
+	return n, e.idx[:n], e.wrow[:n], e.ok
 }
 
 // interpTap interpolates one tap: out[i] = Σ_j w[i][j] x[idx[i]+j].
