@@ -2,6 +2,18 @@
 
 #include "textflag.h"
 
+// PAIRSUMS(re, im, lo, hi): one channel's products with the weights in
+// Y0 and Y1 at node BX of its re and im rows, summed in pairs:
+// lo = (r01, q01, r23, q23), hi = (r45, q45, r67, q67); Y2–Y5 are
+// scratch. The one body of interpTapPowerAVX and interpPower2AVXAsm.
+#define PAIRSUMS(re, im, lo, hi) \
+	VMULPD  (re)(BX*8), Y0, Y2; \
+	VMULPD  32(re)(BX*8), Y1, Y3; \
+	VMULPD  (im)(BX*8), Y0, Y4; \
+	VMULPD  32(im)(BX*8), Y1, Y5; \
+	VHADDPD Y4, Y2, lo; \
+	VHADDPD Y5, Y3, hi
+
 // func interpTapPowerAVX(dst []float64, first bool, re, im []float64, idx, wrow []int32, wts *float64)
 //
 // For each i: r = Σ_j w[j]·re[idx[i]+j], q = Σ_j w[j]·im[idx[i]+j] with
@@ -26,12 +38,7 @@ loop:
 	MOVLQSX      (R10)(AX*4), R12
 	VMOVUPD      (R11)(R12*8), Y0
 	VMOVUPD      32(R11)(R12*8), Y1
-	VMULPD       (SI)(BX*8), Y0, Y2
-	VMULPD       32(SI)(BX*8), Y1, Y3
-	VMULPD       (R8)(BX*8), Y0, Y4
-	VMULPD       32(R8)(BX*8), Y1, Y5
-	VHADDPD      Y4, Y2, Y6         // (r01, q01, r23, q23)
-	VHADDPD      Y5, Y3, Y7         // (r45, q45, r67, q67)
+	PAIRSUMS(SI, R8, Y6, Y7)
 	VEXTRACTF128 $1, Y6, X8
 	VADDPD       X8, X6, X6         // (r0123, q0123)
 	VEXTRACTF128 $1, Y7, X9
@@ -271,18 +278,8 @@ loop2:
 	MOVLQSX    (R10)(AX*4), R12
 	VMOVUPD    (R11)(R12*8), Y0
 	VMOVUPD    32(R11)(R12*8), Y1
-	VMULPD     (SI)(BX*8), Y0, Y2
-	VMULPD     32(SI)(BX*8), Y1, Y3
-	VMULPD     (R8)(BX*8), Y0, Y4
-	VMULPD     32(R8)(BX*8), Y1, Y5
-	VHADDPD    Y4, Y2, Y6         // A: (r01, q01, r23, q23)
-	VHADDPD    Y5, Y3, Y7         // A: (r45, q45, r67, q67)
-	VMULPD     (R13)(BX*8), Y0, Y2
-	VMULPD     32(R13)(BX*8), Y1, Y3
-	VMULPD     (R14)(BX*8), Y0, Y4
-	VMULPD     32(R14)(BX*8), Y1, Y5
-	VHADDPD    Y4, Y2, Y8         // B: (r01, q01, r23, q23)
-	VHADDPD    Y5, Y3, Y9         // B: (r45, q45, r67, q67)
+	PAIRSUMS(SI, R8, Y6, Y7)    // A
+	PAIRSUMS(R13, R14, Y8, Y9)  // B
 	VPERM2F128 $0x20, Y8, Y6, Y10 // (A r01, q01, B r01, q01)
 	VPERM2F128 $0x31, Y8, Y6, Y11 // (A r23, q23, B r23, q23)
 	VADDPD     Y11, Y10, Y10      // (A r0123, q0123, B r0123, q0123)

@@ -89,7 +89,7 @@ func (rp *rep) updateActiveSets(first bool) {
 						// A leg slot joining at a block start gets this block's
 						// samples (fillJoiners; one in use before was filled
 						// ahead).
-						rp.joiners = append(rp.joiners, u*maxLegsPerUser+l)
+						rp.joiners = append(rp.joiners, int32(u*maxLegsPerUser+l))
 					}
 					break
 				}

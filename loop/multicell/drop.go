@@ -167,7 +167,7 @@ func newRep(cfg Config, seed uint64, r int) (*rep, error) {
 	rp.cmds = make([]int8, U*(cfg.InnerLoop.FeedbackDelaySlots+1))
 	rp.stale = true
 	rp.slowNext = make([]float64, C*U)
-	rp.joiners = make([]int, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
+	rp.joiners = make([]int32, 0, U*cfg.Handover.MaxActive) // never grows: no allocation per update
 	rp.fadeTmp = [2][]float64{make([]float64, 2*blockSlots), make([]float64, 2*blockSlots)}
 	rp.fillList = [2][]int32{make([]int32, 0, chunkUsers*maxLegsPerUser), make([]int32, 0, chunkUsers*maxLegsPerUser)}
 	if cfg.Channel.FastFading == FastFadingSlowTowardOthers {

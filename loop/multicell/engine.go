@@ -202,7 +202,7 @@ type rep struct {
 	jobs      jobs
 	afterSlot func(t int64) // tests: called after each slot
 	cands     []cand        // active-set evaluation, reused
-	joiners   []int         // leg slots u·maxLegsPerUser + l that joined at this block's start
+	joiners   []int32       // leg slots u·maxLegsPerUser + l that joined at this block's start
 	keep      []int
 }
 

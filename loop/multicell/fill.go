@@ -43,17 +43,6 @@ func (rp *rep) fillJoiners() {
 	rp.complete(j)
 }
 
-// fillLegs fills this block's fading of leg slots i = u·maxLegsPerUser + l
-// on goroutine who (fillListed).
-func (rp *rep) fillLegs(legs []int, who int) {
-	list := rp.fillList[who][:0]
-	for _, i := range legs {
-		list = append(list, int32(i))
-	}
-	rp.fillList[who] = list
-	rp.fillListed(rp.fade, list, rp.blockT0, rp.blockN, who)
-}
-
 // fillLeg writes the fading of user u's leg slot l for the n slots from
 // slot t0 into fade set fade, on goroutine who (legAt: on the slot
 // clock).

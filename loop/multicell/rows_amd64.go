@@ -58,7 +58,7 @@ func fullSums512(s []float64, p *float64, n int, slow *float64)
 // of len(s)), and reports whether it did.
 func fullSumsFast(s, p, slow []float64) bool {
 	n := len(p)
-	if !useAVX || !useAVX512 || len(s) <= 56 || len(s) > 64 || n == 0 || len(slow) < n*len(s) {
+	if !useAVX || !in512(len(s)) || n == 0 || len(slow) < n*len(s) {
 		return false
 	}
 	fullSums512(s, &p[0], n, &slow[0])
@@ -69,6 +69,10 @@ func fullSumsFast(s, p, slow []float64) bool {
 // switch it off to compare).
 var useAVX512 = cpu.X86.HasAVX512F
 
+// in512 reports whether the AVX-512 cell-sum kernels take a layout of C
+// cells: they hold 57 to 64 sums in eight registers.
+func in512(C int) bool { return useAVX512 && C > 56 && C <= 64 }
+
 // updateSumsFast runs updateSums512 (57 to 64 cells, AVX-512) or
 // updateSumsAVX when the CPU has AVX and every slice
 // holds what it reads (slow: n rows of len(s)), and reports whether it did.
@@ -77,7 +81,7 @@ func updateSumsFast(s []float64, b float64, pCur, pPrev, slow []float64, mv []in
 	if !useAVX || n == 0 || len(s) == 0 || len(pPrev) < n || len(mv) < n || len(dv) < n || len(slow) < n*len(s) {
 		return false
 	}
-	if useAVX512 && len(s) > 56 && len(s) <= 64 {
+	if in512(len(s)) {
 		updateSums512(s, b, &pCur[0], &pPrev[0], n, &slow[0], &mv[0], &dv[0])
 		return true
 	}

@@ -283,7 +283,7 @@ func (rp *rep) runChunk(j *job, i int, who int) {
 		rp.gainsRange(rp.slowNext, j.t, lo, min(rp.U, lo+chunkUsers))
 	case jobJoin:
 		lo := i * chunkLegs
-		rp.fillLegs(rp.joiners[lo:min(len(rp.joiners), lo+chunkLegs)], who)
+		rp.fillListed(rp.fade, rp.joiners[lo:min(len(rp.joiners), lo+chunkLegs)], rp.blockT0, rp.blockN, who)
 	case jobStats:
 		rp.stats.addBlock(rp, rp.recs[j.set])
 	}

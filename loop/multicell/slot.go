@@ -83,8 +83,8 @@ func (rp *rep) fullSums() {
 		return
 	}
 	clear(s)
-	for u := range rp.users {
-		addScaled(s, rp.users[u].p, rp.slow[u*C:u*C+C])
+	for u, p := range ps {
+		addScaled(s, p, rp.slow[u*C:u*C+C])
 	}
 }
 
